@@ -1,0 +1,43 @@
+/* Diagnostics: errors and warnings that name FILE:LINE:COL, the key path and a hint. */
+#ifndef TP_DIAG_H
+#define TP_DIAG_H
+
+#include <stdio.h>
+
+/* A position in an input: file name (borrowed), 1-based line and column; 0 when unknown. */
+typedef struct tp_loc {
+    const char *file;
+    int line;
+    int col;
+} tp_loc;
+
+#define TP_DIAG_LOG_MAX 16384 /* bytes of messages kept for tests and reports */
+
+/* A diagnostics sink. Messages go to `stream` (may be NULL) and are kept in `log`. */
+typedef struct tp_diag {
+    FILE *stream;
+    int errors;
+    int warnings;
+    int quiet;                  /* nonzero: warnings are counted and logged but not printed */
+    char log[TP_DIAG_LOG_MAX];  /* every message, newline separated, truncated when full */
+    size_t log_len;
+} tp_diag;
+
+/* Start a sink writing to `stream` (NULL: keep messages in the log only). */
+void tp_diag_init(tp_diag *d, FILE *stream);
+
+/* An error at `loc` about `path` (may be NULL), with an optional `hint` (may be NULL). */
+void tp_diag_error(tp_diag *d, tp_loc loc, const char *path, const char *hint, const char *fmt,
+                   ...) __attribute__((format(printf, 5, 6)));
+
+/* A warning: the run goes on. Same arguments as tp_diag_error. */
+void tp_diag_warn(tp_diag *d, tp_loc loc, const char *path, const char *hint, const char *fmt,
+                  ...) __attribute__((format(printf, 5, 6)));
+
+/* A note without location (for example the reason a computation failed). */
+void tp_diag_note(tp_diag *d, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
+
+/* A location with no file position. */
+tp_loc tp_loc_none(void);
+
+#endif

@@ -1,0 +1,40 @@
+/* Atomic output files: write to a temporary file beside the target, rename on success. */
+#ifndef TP_OUTFILE_H
+#define TP_OUTFILE_H
+
+#include <stdio.h>
+
+#include "diag.h"
+#include "status.h"
+
+#define TP_PATH_MAX 4096 /* longest output path accepted, bytes */
+
+/* An output in progress. "-" means standard output, written directly. */
+typedef struct tp_outfile {
+    char path[TP_PATH_MAX]; /* the final name */
+    char tmp[TP_PATH_MAX];  /* the temporary file in the same directory; "" for stdout */
+    FILE *fp;               /* the stream to write to */
+} tp_outfile;
+
+/* Open `path` for writing through a temporary file in the same directory. On failure nothing
+ * is left on disk and an error naming the path is reported to `d`. */
+tp_status tp_outfile_open(tp_outfile *o, const char *path, tp_diag *d);
+
+/* Finish: flush, close and rename the temporary file onto the target. On failure the temporary
+ * file is removed, the target is untouched, and an error is reported. */
+tp_status tp_outfile_commit(tp_outfile *o, tp_diag *d);
+
+/* Abandon: close and remove the temporary file; the target is untouched. Safe to call twice. */
+void tp_outfile_abort(tp_outfile *o);
+
+/* Reserve a temporary file name beside `path` for writers that open files by name (PLplot).
+ * The empty file is created; the caller later calls tp_outfile_place or removes it. */
+tp_status tp_outfile_reserve(const char *path, char *tmp, size_t tmp_size, tp_diag *d);
+
+/* Rename a reserved temporary file onto `path`; on failure remove it and report. */
+tp_status tp_outfile_place(const char *tmp, const char *path, tp_diag *d);
+
+/* Nonzero when `a` and `b` name the same existing file (same device and inode). */
+int tp_path_same_file(const char *a, const char *b);
+
+#endif
