@@ -1,0 +1,977 @@
+/* The config reader: schema tables describe every key (kind, unit dimension, bounds, where it
+ * lands in tp_desc); one walker reads, validates, copies and sets values by dotted path. */
+#include "config.h"
+
+#include <ctype.h>
+#include <float.h>
+#include <stdint.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+/* ---- the schema --------------------------------------------------------------------------- */
+
+typedef enum kind {
+    K_QTY,    /* double with a unit of `dim` (TP_DIM_NONE: bare number) */
+    K_QPAIR,  /* double[2], e.g. [250 mm, 210 mm] */
+    K_ID,     /* char[TP_ID_MAX]: letters, digits, '-' and '_' */
+    K_TEXT,   /* char[size]: free text */
+    K_IDPAIR, /* char[2][TP_ID_MAX] */
+    K_MODE,   /* tp_mode, from its name */
+    K_MAP,    /* a nested section: struct at `offset`, keys in `sub` */
+    K_LIST,   /* a list of sections: pointer at `offset`, size_t count at `count_offset` */
+    K_IDMAP   /* a map of id -> section (materials): like K_LIST, the key becomes `id` */
+} kind;
+
+enum {
+    F_REQ = 1 << 0,     /* required */
+    F_POS = 1 << 1,     /* > 0 */
+    F_NONNEG = 1 << 2,  /* >= 0 */
+    F_FRAC = 1 << 3,    /* 0 < x <= 1 */
+    F_PRESENT = 1 << 4, /* K_MAP: the struct begins with `int present` */
+    F_INT = 1 << 5      /* a whole number */
+};
+
+typedef struct section section;
+
+typedef struct key {
+    const char *name;
+    kind kind;
+    tp_dim dim;
+    size_t offset;       /* of the field within its section's struct */
+    size_t size;         /* K_TEXT: buffer size; K_LIST/K_IDMAP: element size */
+    size_t count_offset; /* K_LIST/K_IDMAP: offset of the size_t count */
+    const section *sub;  /* K_MAP/K_LIST/K_IDMAP */
+    unsigned flags;
+    double hi;           /* plausibility bound (SI, or element count for lists); 0: none */
+    const char *why;     /* the hint given when a value exceeds `hi` */
+} key;
+
+struct section {
+    const key *keys;
+    size_t n;
+};
+
+#define N(a) (sizeof(a) / sizeof((a)[0]))
+#define QTY(T, f, nm, dim, fl, hi, why) {nm, K_QTY, dim, offsetof(T, f), 0, 0, NULL, fl, hi, why}
+#define QPAIR(T, f, nm, dim, fl, hi, why)                                                        \
+    {nm, K_QPAIR, dim, offsetof(T, f), 0, 0, NULL, fl, hi, why}
+#define ID(T, f, nm, fl) {nm, K_ID, TP_DIM_NONE, offsetof(T, f), TP_ID_MAX, 0, NULL, fl, 0, NULL}
+#define TEXT(T, f, nm) {nm, K_TEXT, TP_DIM_NONE, offsetof(T, f), sizeof(((T *)0)->f), 0, NULL, 0, 0, NULL}
+#define MAP(T, f, nm, sub, fl) {nm, K_MAP, TP_DIM_NONE, offsetof(T, f), 0, 0, &sub, fl, 0, NULL}
+#define LIST(T, f, cnt, E, nm, sub, fl, max)                                                     \
+    {nm, K_LIST, TP_DIM_NONE, offsetof(T, f), sizeof(E), offsetof(T, cnt), &sub, fl, max, NULL}
+
+static const char *const too_big = "tepid models benchtop plates and hotplates; check the value "
+                                   "and its unit";
+
+/* Material entries (models/materials.yaml and inline `materials:`). */
+static const key material_keys[] = {
+    TEXT(tp_material_spec, name, "name"),
+    QTY(tp_material_spec, density, "density", TP_DIM_DENSITY, F_REQ | F_POS, 25000, too_big),
+    QTY(tp_material_spec, specific_heat, "specific_heat", TP_DIM_SPECIFIC_HEAT, F_REQ | F_POS,
+        1e5, too_big),
+    QTY(tp_material_spec, conductivity, "conductivity", TP_DIM_CONDUCTIVITY, F_REQ | F_POS, 5000,
+        too_big),
+    QTY(tp_material_spec, conductivity_through, "conductivity_through", TP_DIM_CONDUCTIVITY,
+        F_POS, 5000, too_big),
+    QTY(tp_material_spec, emissivity, "emissivity", TP_DIM_NONE, F_REQ | F_FRAC, 0, NULL),
+    QTY(tp_material_spec, max_temperature, "max_temperature", TP_DIM_TEMPERATURE, F_REQ, 3000,
+        too_big),
+    {"source", K_TEXT, TP_DIM_NONE, offsetof(tp_material_spec, source),
+     sizeof(((tp_material_spec *)0)->source), 0, NULL, F_REQ, 0, NULL},
+    TEXT(tp_material_spec, note, "note"),
+};
+static const section material_sec = {material_keys, N(material_keys)};
+
+/* Raw network form. */
+static const key raw_node_keys[] = {
+    ID(tp_raw_node, id, "id", F_REQ),
+    QTY(tp_raw_node, capacity, "capacity", TP_DIM_CAPACITY, F_POS, 1e9, too_big),
+    QTY(tp_raw_node, initial, "initial", TP_DIM_TEMPERATURE, 0, 3000, too_big),
+    QTY(tp_raw_node, fixed, "fixed", TP_DIM_TEMPERATURE, 0, 3000, too_big),
+};
+static const section raw_node_sec = {raw_node_keys, N(raw_node_keys)};
+
+static const key raw_conv_keys[] = {
+    QTY(tp_raw_convection, area, "area", TP_DIM_AREA, F_REQ | F_POS, 100, too_big),
+    QTY(tp_raw_convection, coefficient, "coefficient", TP_DIM_HTC, F_REQ | F_NONNEG, 1e6,
+        too_big),
+};
+static const section raw_conv_sec = {raw_conv_keys, N(raw_conv_keys)};
+
+static const key raw_rad_keys[] = {
+    QTY(tp_raw_radiation, area, "area", TP_DIM_AREA, F_REQ | F_POS, 100, too_big),
+    QTY(tp_raw_radiation, emissivity, "emissivity", TP_DIM_NONE, F_REQ | F_FRAC, 0, NULL),
+};
+static const section raw_rad_sec = {raw_rad_keys, N(raw_rad_keys)};
+
+static const key raw_link_keys[] = {
+    {"between", K_IDPAIR, TP_DIM_NONE, offsetof(tp_raw_link, between), TP_ID_MAX, 0, NULL, F_REQ,
+     0, NULL},
+    QTY(tp_raw_link, conductance, "conductance", TP_DIM_CONDUCTANCE, F_NONNEG, 1e6, too_big),
+    MAP(tp_raw_link, convection, "convection", raw_conv_sec, F_PRESENT),
+    MAP(tp_raw_link, radiation, "radiation", raw_rad_sec, F_PRESENT),
+};
+static const section raw_link_sec = {raw_link_keys, N(raw_link_keys)};
+
+static const key raw_source_keys[] = {
+    ID(tp_raw_source, id, "id", F_REQ),
+    ID(tp_raw_source, node, "node", F_REQ),
+    QTY(tp_raw_source, power, "power", TP_DIM_POWER, F_NONNEG, 1e5, too_big),
+    QTY(tp_raw_source, supply, "supply", TP_DIM_VOLTAGE, F_POS, 1000, too_big),
+    QTY(tp_raw_source, resistance, "resistance", TP_DIM_RESISTANCE, F_POS, 1e7, too_big),
+    QTY(tp_raw_source, tempco, "tempco", TP_DIM_PER_KELVIN, 0, 0.05, too_big),
+    QTY(tp_raw_source, reference, "reference", TP_DIM_TEMPERATURE, 0, 3000, too_big),
+};
+static const section raw_source_sec = {raw_source_keys, N(raw_source_keys)};
+
+static const key network_keys[] = {
+    LIST(tp_raw, nodes, n_nodes, tp_raw_node, "nodes", raw_node_sec, F_REQ, TP_MAX_RAW_NODES),
+    LIST(tp_raw, links, n_links, tp_raw_link, "links", raw_link_sec, 0, TP_MAX_RAW_LINKS),
+    LIST(tp_raw, sources, n_sources, tp_raw_source, "sources", raw_source_sec, 0,
+         TP_MAX_RAW_NODES),
+};
+static const section network_sec = {network_keys, N(network_keys)};
+
+/* Physical form. */
+static const key room_keys[] = {
+    QTY(tp_room, temperature, "temperature", TP_DIM_TEMPERATURE, F_REQ, 400,
+        "a room is between about -40 and 120 degC"),
+    QTY(tp_room, airflow, "airflow", TP_DIM_SPEED, F_NONNEG, 30, too_big),
+    QTY(tp_room, pressure, "pressure", TP_DIM_PRESSURE, F_POS, 2e5, too_big),
+};
+static const section room_sec = {room_keys, N(room_keys)};
+
+static const key layer_keys[] = {
+    ID(tp_layer, id, "id", F_REQ),
+    ID(tp_layer, material, "material", F_REQ),
+    QTY(tp_layer, thickness, "thickness", TP_DIM_LENGTH, F_REQ | F_POS, 0.5, too_big),
+    QPAIR(tp_layer, size, "size", TP_DIM_LENGTH, F_POS, 5, too_big),
+    QTY(tp_layer, contact, "contact", TP_DIM_HTC, F_POS, 1e8, too_big),
+};
+static const section layer_sec = {layer_keys, N(layer_keys)};
+
+static const key face_keys[] = {
+    QTY(tp_face_spec, emissivity, "emissivity", TP_DIM_NONE, F_FRAC, 0, NULL),
+};
+static const section face_sec = {face_keys, N(face_keys)};
+
+static const key mounts_keys[] = {
+    QTY(tp_mounts, conductance, "conductance", TP_DIM_CONDUCTANCE, F_NONNEG, 1e4, too_big),
+};
+static const section mounts_sec = {mounts_keys, N(mounts_keys)};
+
+static const key bed_keys[] = {
+    QPAIR(tp_bed, size, "size", TP_DIM_LENGTH, F_REQ | F_POS, 5, too_big),
+    LIST(tp_bed, layers, n_layers, tp_layer, "layers", layer_sec, F_REQ, TP_MAX_LAYERS),
+    MAP(tp_bed, top, "top", face_sec, 0),
+    MAP(tp_bed, bottom, "bottom", face_sec, 0),
+    MAP(tp_bed, mounts, "mounts", mounts_sec, 0),
+};
+static const section bed_sec = {bed_keys, N(bed_keys)};
+
+static const key heater_keys[] = {
+    ID(tp_heater, layer, "layer", F_REQ),
+    QTY(tp_heater, power, "power", TP_DIM_POWER, F_POS, 1e5, too_big),
+    QTY(tp_heater, supply, "supply", TP_DIM_VOLTAGE, F_POS, 1000, too_big),
+    QTY(tp_heater, resistance, "resistance", TP_DIM_RESISTANCE, F_POS, 1e7, too_big),
+    QTY(tp_heater, tempco, "tempco", TP_DIM_PER_KELVIN, 0, 0.05, too_big),
+    QTY(tp_heater, reference, "reference", TP_DIM_TEMPERATURE, 0, 3000, too_big),
+    QTY(tp_heater, max_duty, "max_duty", TP_DIM_NONE, F_FRAC, 0, NULL),
+    QTY(tp_heater, supply_resistance, "supply_resistance", TP_DIM_RESISTANCE, F_NONNEG, 1e6,
+        too_big),
+};
+static const section heater_sec = {heater_keys, N(heater_keys)};
+
+static const key thermistor_keys[] = {
+    QTY(tp_thermistor, r25, "r25", TP_DIM_RESISTANCE, F_REQ | F_POS, 1e9, too_big),
+    QTY(tp_thermistor, beta, "beta", TP_DIM_INTERVAL, F_REQ | F_POS, 20000, too_big),
+    QTY(tp_thermistor, series, "series", TP_DIM_RESISTANCE, F_REQ | F_POS, 1e9, too_big),
+    QTY(tp_thermistor, adc_bits, "adc_bits", TP_DIM_NONE, F_POS | F_INT, 32,
+        "ADCs have 8 to 24 bits"),
+    QTY(tp_thermistor, supply, "supply", TP_DIM_VOLTAGE, F_POS, 100, too_big),
+    QTY(tp_thermistor, adc_reference, "adc_reference", TP_DIM_VOLTAGE, F_POS, 100, too_big),
+};
+static const section thermistor_sec = {thermistor_keys, N(thermistor_keys)};
+
+static const key sensor_keys[] = {
+    ID(tp_sensor_spec, layer, "layer", F_REQ),
+    QTY(tp_sensor_spec, coupling, "coupling", TP_DIM_CONDUCTANCE, F_REQ | F_POS, 1e4, too_big),
+    QTY(tp_sensor_spec, capacity, "capacity", TP_DIM_CAPACITY, F_POS, 1e5, too_big),
+    QTY(tp_sensor_spec, time_constant, "time_constant", TP_DIM_TIME, F_POS, 86400, too_big),
+    QTY(tp_sensor_spec, offset, "offset", TP_DIM_INTERVAL, 0, 100, too_big),
+    QPAIR(tp_sensor_spec, position, "position", TP_DIM_LENGTH, F_NONNEG, 5, too_big),
+    MAP(tp_sensor_spec, thermistor, "thermistor", thermistor_sec, F_PRESENT),
+};
+static const section sensor_sec = {sensor_keys, N(sensor_keys)};
+
+static const key walls_keys[] = {
+    QTY(tp_walls, area, "area", TP_DIM_AREA, F_REQ | F_POS, 100, too_big),
+    QTY(tp_walls, u_value, "u_value", TP_DIM_HTC, F_REQ | F_POS, 1e4, too_big),
+    QTY(tp_walls, capacity, "capacity", TP_DIM_CAPACITY, F_REQ | F_POS, 1e8, too_big),
+    QTY(tp_walls, emissivity, "emissivity", TP_DIM_NONE, F_FRAC, 0, NULL),
+};
+static const section walls_sec = {walls_keys, N(walls_keys)};
+
+static const key enclosure_keys[] = {
+    QTY(tp_enclosure, volume, "volume", TP_DIM_VOLUME, F_REQ | F_POS, 50, too_big),
+    QTY(tp_enclosure, height, "height", TP_DIM_LENGTH, F_POS, 10, too_big),
+    MAP(tp_enclosure, walls, "walls", walls_sec, F_REQ | F_PRESENT),
+};
+static const section enclosure_sec = {enclosure_keys, N(enclosure_keys)};
+
+static const key control_keys[] = {
+    ID(tp_control_spec, source, "source", 0),
+    ID(tp_control_spec, sensor, "sensor", 0),
+    {"mode", K_MODE, TP_DIM_NONE, offsetof(tp_control_spec, mode), 0, 0, NULL, F_REQ, 0, NULL},
+    QTY(tp_control_spec, setpoint, "setpoint", TP_DIM_TEMPERATURE, 0, 1500, too_big),
+    QTY(tp_control_spec, band, "band", TP_DIM_INTERVAL, F_POS, 100, too_big),
+    QTY(tp_control_spec, period, "period", TP_DIM_TIME, F_POS, 3600, too_big),
+    QTY(tp_control_spec, kp, "kp", TP_DIM_PER_KELVIN, F_NONNEG, 1e3, too_big),
+    QTY(tp_control_spec, ki, "ki", TP_DIM_PER_KELVIN_SEC, F_NONNEG, 1e3, too_big),
+    QTY(tp_control_spec, kd, "kd", TP_DIM_SEC_PER_KELVIN, F_NONNEG, 1e5, too_big),
+};
+static const section control_sec = {control_keys, N(control_keys)};
+
+static const key run_keys[] = {
+    QTY(tp_run, duration, "duration", TP_DIM_TIME, F_POS, 30 * 86400.0,
+        "simulate at most 30 days"),
+    QTY(tp_run, step, "step", TP_DIM_TIME, F_POS, 86400, too_big),
+    QTY(tp_run, tolerance, "tolerance", TP_DIM_NONE, F_POS, 1e-2,
+        "a relative tolerance between 1e-10 and 1e-2"),
+    QTY(tp_run, max_steps, "max_steps", TP_DIM_NONE, F_POS | F_INT, 1e9, too_big),
+    QTY(tp_run, wall_time, "wall_time", TP_DIM_TIME, F_POS, 86400, too_big),
+};
+static const section run_sec = {run_keys, N(run_keys)};
+
+static const key losses_keys[] = {
+    QTY(tp_losses, convection_scale, "convection_scale", TP_DIM_NONE, F_NONNEG, 100,
+        "a multiplier of order 1"),
+    QTY(tp_losses, radiation_scale, "radiation_scale", TP_DIM_NONE, F_NONNEG, 100,
+        "a multiplier of order 1"),
+};
+static const section losses_sec = {losses_keys, N(losses_keys)};
+
+static const key top_keys[] = {
+    TEXT(tp_desc, title, "title"),
+    MAP(tp_desc, network, "network", network_sec, F_PRESENT),
+    {"materials", K_IDMAP, TP_DIM_NONE, offsetof(tp_desc, materials), sizeof(tp_material_spec),
+     offsetof(tp_desc, n_materials), &material_sec, 0, TP_MAX_MATERIALS, NULL},
+    MAP(tp_desc, room, "room", room_sec, 0),
+    MAP(tp_desc, bed, "bed", bed_sec, F_PRESENT),
+    MAP(tp_desc, heater, "heater", heater_sec, F_PRESENT),
+    MAP(tp_desc, sensor, "sensor", sensor_sec, F_PRESENT),
+    MAP(tp_desc, enclosure, "enclosure", enclosure_sec, F_PRESENT),
+    MAP(tp_desc, control, "control", control_sec, F_PRESENT),
+    MAP(tp_desc, run, "run", run_sec, 0),
+    MAP(tp_desc, losses, "losses", losses_sec, 0),
+};
+static const section top_sec = {top_keys, N(top_keys)};
+
+static const char *const mode_names[] = {"off", "full", "on-off", "pid"};
+
+const char *tp_mode_name(tp_mode mode)
+{
+    return (unsigned)mode < N(mode_names) ? mode_names[mode] : "?";
+}
+
+/* ---- helpers ------------------------------------------------------------------------------ */
+
+static double *dbl(void *base, size_t off)
+{
+    return (double *)(void *)((char *)base + off);
+}
+
+static void *field(void *base, size_t off)
+{
+    return (char *)base + off;
+}
+
+static size_t *count_at(void *base, size_t off)
+{
+    return (size_t *)(void *)((char *)base + off);
+}
+
+/* Levenshtein distance, capped: enough to suggest a key name. */
+static int distance(const char *a, const char *b)
+{
+    size_t la = strlen(a), lb = strlen(b), i, j;
+    int row[64], prev, tmp;
+    if (la >= 63 || lb >= 63)
+        return 99;
+    for (j = 0; j <= lb; j++)
+        row[j] = (int)j;
+    for (i = 1; i <= la; i++) {
+        prev = row[0];
+        row[0] = (int)i;
+        for (j = 1; j <= lb; j++) {
+            int cost = tolower((unsigned char)a[i - 1]) != tolower((unsigned char)b[j - 1]);
+            int best = prev + cost;
+            if (row[j] + 1 < best)
+                best = row[j] + 1;
+            if (row[j - 1] + 1 < best)
+                best = row[j - 1] + 1;
+            tmp = row[j];
+            row[j] = best;
+            prev = tmp;
+        }
+    }
+    return row[lb];
+}
+
+/* "did you mean" for `word` among `names`; writes into hint (empty when nothing is close). */
+static void suggest(const char *word, const char *const *names, size_t n, char *hint,
+                    size_t size)
+{
+    size_t i, best = n;
+    int bestd = 99, limit = strlen(word) <= 4 ? 1 : 2;
+    for (i = 0; i < n; i++) {
+        int dd = distance(word, names[i]);
+        if (dd < bestd) {
+            bestd = dd;
+            best = i;
+        }
+    }
+    hint[0] = '\0';
+    if (best < n && bestd <= limit)
+        snprintf(hint, size, "did you mean '%s'?", names[best]);
+}
+
+static void key_list(const section *sec, char *out, size_t size)
+{
+    size_t i, len = 0;
+    out[0] = '\0';
+    for (i = 0; i < sec->n && len + 2 < size; i++)
+        len += (size_t)snprintf(out + len, size - len, "%s%s", i ? ", " : "", sec->keys[i].name);
+}
+
+static void join(char *out, size_t size, const char *path, const char *name)
+{
+    if (path && *path)
+        snprintf(out, size, "%s.%s", path, name);
+    else
+        snprintf(out, size, "%s", name);
+}
+
+typedef struct reader {
+    tp_diag *d;
+} reader;
+
+/* Set every number of a section to TP_UNSET, recursively through maps. */
+static void init_section(const section *sec, void *base)
+{
+    size_t i;
+    for (i = 0; i < sec->n; i++) {
+        const key *k = &sec->keys[i];
+        if (k->kind == K_QTY)
+            *dbl(base, k->offset) = TP_UNSET;
+        else if (k->kind == K_QPAIR)
+            dbl(base, k->offset)[0] = dbl(base, k->offset)[1] = TP_UNSET;
+        else if (k->kind == K_MAP)
+            init_section(k->sub, field(base, k->offset));
+    }
+}
+
+static int valid_id(const char *s)
+{
+    if (!*s)
+        return 0;
+    for (; *s; s++)
+        if (!isalnum((unsigned char)*s) && *s != '-' && *s != '_')
+            return 0;
+    return 1;
+}
+
+static int expect_kind(reader *r, const tp_doc_node *n, tp_doc_kind want, const char *path,
+                       const char *example)
+{
+    char hint[160];
+    if (n->kind == want)
+        return 1;
+    snprintf(hint, sizeof hint, "write it as %s", example);
+    tp_diag_error(r->d, tp_doc_loc(n), path, hint, "expected %s, found %s",
+                  tp_doc_kind_name(want), tp_doc_kind_name(n->kind));
+    return 0;
+}
+
+/* Parse one scalar quantity and check flags and bounds. Returns 0 on success. */
+static int read_number(reader *r, const key *k, const tp_doc_node *n, const char *path,
+                       double *out)
+{
+    char msg[256];
+    const char *hint;
+    double v;
+    if (!expect_kind(r, n, TP_DOC_SCALAR, path, tp_units_example(k->dim)))
+        return -1;
+    if (n->text[0] == '\0') {
+        tp_diag_error(r->d, tp_doc_loc(n), path, "give a value or remove the key",
+                      "missing value");
+        return -1;
+    }
+    if (tp_units_parse(n->text, k->dim, &v, msg, sizeof msg, &hint) != TP_OK) {
+        tp_diag_error(r->d, tp_doc_loc(n), path, hint, "%s", msg);
+        return -1;
+    }
+    if ((k->flags & F_POS) && !(v > 0)) {
+        tp_diag_error(r->d, tp_doc_loc(n), path, "use a value above zero",
+                      "must be positive, got '%s'", n->text);
+        return -1;
+    }
+    if ((k->flags & F_NONNEG) && v < 0) {
+        tp_diag_error(r->d, tp_doc_loc(n), path, "use zero or more", "must not be negative");
+        return -1;
+    }
+    if ((k->flags & F_FRAC) && !(v > 0 && v <= 1)) {
+        tp_diag_error(r->d, tp_doc_loc(n), path,
+                      "a fraction lies in (0, 1], e.g. 0.9 (or 90 %)",
+                      "'%s' is outside (0, 1]", n->text);
+        return -1;
+    }
+    if ((k->flags & F_INT) && v != (double)(long long)v) {
+        tp_diag_error(r->d, tp_doc_loc(n), path, "use a whole number", "'%s' is not whole",
+                      n->text);
+        return -1;
+    }
+    if (k->hi > 0 && fabs(v) > k->hi) {
+        tp_diag_error(r->d, tp_doc_loc(n), path, k->why ? k->why : too_big,
+                      "'%s' is implausibly large (limit %g %s)", n->text, k->hi,
+                      tp_units_si_name(k->dim));
+        return -1;
+    }
+    *out = v;
+    return 0;
+}
+
+static int read_id(reader *r, const tp_doc_node *n, const char *path, char *out)
+{
+    if (!expect_kind(r, n, TP_DOC_SCALAR, path, "a name such as plate"))
+        return -1;
+    if (strlen(n->text) >= TP_ID_MAX || !valid_id(n->text)) {
+        tp_diag_error(r->d, tp_doc_loc(n), path,
+                      "ids use letters, digits, '-' and '_' (at most 47 characters)",
+                      "'%s' is not a valid id", n->text);
+        return -1;
+    }
+    strcpy(out, n->text);
+    return 0;
+}
+
+static void read_section(reader *r, const section *sec, const tp_doc_node *map, void *base,
+                         const char *path);
+
+/* The label of list item i in paths: its id when it has one, else its index. */
+static void item_path(const tp_doc_node *item, size_t i, const char *path, char *out,
+                      size_t size)
+{
+    const tp_doc_node *id = item->kind == TP_DOC_MAP ? tp_doc_get(item, "id") : NULL;
+    char label[TP_ID_MAX + 8];
+    if (id && id->kind == TP_DOC_SCALAR && valid_id(id->text) && strlen(id->text) < TP_ID_MAX)
+        snprintf(label, sizeof label, "%s", id->text);
+    else
+        snprintf(label, sizeof label, "%zu", i);
+    join(out, size, path, label);
+}
+
+static void read_list(reader *r, const key *k, const tp_doc_node *n, void *base,
+                      const char *path)
+{
+    size_t i, count = n->n;
+    char *items;
+    if (k->kind == K_LIST && !expect_kind(r, n, TP_DOC_SEQ, path, "a list of '- {...}' items"))
+        return;
+    if (k->kind == K_IDMAP && !expect_kind(r, n, TP_DOC_MAP, path, "a map of id: {...}"))
+        return;
+    if (k->hi > 0 && (double)count > k->hi) {
+        tp_diag_error(r->d, tp_doc_loc(n), path, "see the documented limits in docs/",
+                      "%zu items exceed the limit of %.0f", count, k->hi);
+        return;
+    }
+    if (count == 0)
+        return;
+    items = calloc(count, k->size);
+    if (!items) {
+        tp_diag_error(r->d, tp_doc_loc(n), path, NULL, "out of memory");
+        return;
+    }
+    *(void **)field(base, k->offset) = items;
+    *count_at(base, k->count_offset) = count;
+    for (i = 0; i < count; i++) {
+        void *elem = items + i * k->size;
+        const tp_doc_node *item = n->items[i];
+        char ipath[256];
+        init_section(k->sub, elem);
+        if (k->kind == K_IDMAP) {
+            join(ipath, sizeof ipath, path, n->keys[i]->text);
+            if (read_id(r, n->keys[i], ipath, (char *)elem) != 0)
+                continue;
+        } else {
+            item_path(item, i, path, ipath, sizeof ipath);
+        }
+        if (!expect_kind(r, item, TP_DOC_MAP, ipath, "a section {key: value, ...}"))
+            continue;
+        read_section(r, k->sub, item, elem, ipath);
+    }
+}
+
+static void read_value(reader *r, const key *k, const tp_doc_node *n, void *base,
+                       const char *path)
+{
+    size_t i;
+    switch (k->kind) {
+    case K_QTY:
+        read_number(r, k, n, path, dbl(base, k->offset));
+        return;
+    case K_QPAIR:
+        if (!expect_kind(r, n, TP_DOC_SEQ, path, "[a, b] with units, e.g. [250 mm, 210 mm]"))
+            return;
+        if (n->n != 2) {
+            tp_diag_error(r->d, tp_doc_loc(n), path, "write [a, b], e.g. [250 mm, 210 mm]",
+                          "expected two values, found %zu", n->n);
+            return;
+        }
+        for (i = 0; i < 2; i++)
+            read_number(r, k, n->items[i], path, dbl(base, k->offset) + i);
+        return;
+    case K_ID:
+        read_id(r, n, path, (char *)field(base, k->offset));
+        return;
+    case K_TEXT:
+        if (!expect_kind(r, n, TP_DOC_SCALAR, path, "text in quotes"))
+            return;
+        if (strlen(n->text) >= k->size) {
+            tp_diag_error(r->d, tp_doc_loc(n), path, "shorten the text",
+                          "longer than %zu characters", k->size - 1);
+            return;
+        }
+        strcpy((char *)field(base, k->offset), n->text);
+        return;
+    case K_IDPAIR: {
+        char(*pair)[TP_ID_MAX] = (char(*)[TP_ID_MAX])field(base, k->offset);
+        if (!expect_kind(r, n, TP_DOC_SEQ, path, "[node-a, node-b]"))
+            return;
+        if (n->n != 2) {
+            tp_diag_error(r->d, tp_doc_loc(n), path, "write [node-a, node-b]",
+                          "expected two node ids, found %zu", n->n);
+            return;
+        }
+        for (i = 0; i < 2; i++)
+            read_id(r, n->items[i], path, pair[i]);
+        return;
+    }
+    case K_MODE: {
+        char hint[160];
+        if (!expect_kind(r, n, TP_DOC_SCALAR, path, "one of off, full, on-off, pid"))
+            return;
+        for (i = 0; i < N(mode_names); i++) {
+            if (strcmp(n->text, mode_names[i]) == 0) {
+                *(tp_mode *)field(base, k->offset) = (tp_mode)i;
+                return;
+            }
+        }
+        suggest(n->text, mode_names, N(mode_names), hint, sizeof hint);
+        tp_diag_error(r->d, tp_doc_loc(n), path,
+                      hint[0] ? hint : "modes are off, full, on-off and pid",
+                      "unknown mode '%s'", n->text);
+        return;
+    }
+    case K_MAP:
+        if (!expect_kind(r, n, TP_DOC_MAP, path, "a section {key: value, ...}"))
+            return;
+        if (k->flags & F_PRESENT)
+            *(int *)field(base, k->offset) = 1;
+        read_section(r, k->sub, n, field(base, k->offset), path);
+        return;
+    case K_LIST:
+    case K_IDMAP:
+        read_list(r, k, n, base, path);
+        return;
+    }
+}
+
+static void read_section(reader *r, const section *sec, const tp_doc_node *map, void *base,
+                         const char *path)
+{
+    size_t i, j;
+    for (i = 0; i < map->n; i++) {
+        const tp_doc_node *kn = map->keys[i];
+        const key *k = NULL;
+        char kpath[256];
+        join(kpath, sizeof kpath, path, kn->text);
+        for (j = 0; j < sec->n; j++)
+            if (strcmp(sec->keys[j].name, kn->text) == 0)
+                k = &sec->keys[j];
+        if (!k) {
+            const char *names[64];
+            char hint[400], list[300];
+            size_t m = sec->n < 64 ? sec->n : 64;
+            for (j = 0; j < m; j++)
+                names[j] = sec->keys[j].name;
+            suggest(kn->text, names, m, hint, sizeof hint);
+            if (!hint[0]) {
+                key_list(sec, list, sizeof list);
+                snprintf(hint, sizeof hint, "keys here: %s", list);
+            }
+            tp_diag_error(r->d, tp_doc_loc(kn), kpath, hint, "unknown key");
+            continue;
+        }
+        if (!map->items[i]) {
+            tp_diag_error(r->d, tp_doc_loc(kn), kpath, NULL, "missing value");
+            continue;
+        }
+        read_value(r, k, map->items[i], base, kpath);
+    }
+    for (j = 0; j < sec->n; j++) {
+        const key *k = &sec->keys[j];
+        if ((k->flags & F_REQ) && !tp_doc_get(map, k->name)) {
+            char kpath[256], hint[128];
+            join(kpath, sizeof kpath, path, k->name);
+            snprintf(hint, sizeof hint, "add '%s:'%s%s", k->name,
+                     k->kind == K_QTY ? ", e.g. " : "",
+                     k->kind == K_QTY ? tp_units_example(k->dim) : "");
+            tp_diag_error(r->d, tp_doc_loc(map), kpath, hint, "missing required key");
+        }
+    }
+}
+
+/* ---- defaults and form -------------------------------------------------------------------- */
+
+static void set_default(double *x, double v)
+{
+    if (!tp_isset(*x))
+        *x = v;
+}
+
+#define TP_DEFAULT_DURATION 1800.0  /* s, 30 min when run.duration is absent */
+#define TP_DEFAULT_STEP 1.0         /* s, output interval */
+#define TP_DEFAULT_RTOL 1.0e-6      /* -, CVODE relative tolerance */
+#define TP_DEFAULT_MAX_STEPS 5.0e6  /* -, integration steps before giving up */
+#define TP_DEFAULT_WALL_TIME 600.0  /* s, wall-clock limit of one integration */
+#define TP_DEFAULT_PERIOD 1.0       /* s, controller sampling period */
+#define TP_DEFAULT_BAND 2.0         /* K, on-off hysteresis */
+#define TP_REFERENCE_20C 293.15     /* K, resistance reference temperature 20 degC */
+#define TP_ATMOSPHERE 101325.0      /* Pa, standard atmosphere */
+
+static void apply_defaults(tp_desc *c)
+{
+    size_t i;
+    set_default(&c->run.duration, TP_DEFAULT_DURATION);
+    set_default(&c->run.step, TP_DEFAULT_STEP);
+    set_default(&c->run.tolerance, TP_DEFAULT_RTOL);
+    set_default(&c->run.max_steps, TP_DEFAULT_MAX_STEPS);
+    set_default(&c->run.wall_time, TP_DEFAULT_WALL_TIME);
+    set_default(&c->losses.convection_scale, 1.0);
+    set_default(&c->losses.radiation_scale, 1.0);
+    set_default(&c->control.period, TP_DEFAULT_PERIOD);
+    set_default(&c->control.band, TP_DEFAULT_BAND);
+    set_default(&c->control.kp, 0.0);
+    set_default(&c->control.ki, 0.0);
+    set_default(&c->control.kd, 0.0);
+    set_default(&c->room.airflow, 0.0);
+    set_default(&c->room.pressure, TP_ATMOSPHERE);
+    set_default(&c->heater.max_duty, 1.0);
+    set_default(&c->heater.tempco, 0.0);
+    set_default(&c->heater.reference, TP_REFERENCE_20C);
+    set_default(&c->heater.supply_resistance, 0.0);
+    set_default(&c->sensor.offset, 0.0);
+    set_default(&c->bed.mounts.conductance, 0.0);
+    if (c->sensor.thermistor.present) {
+        set_default(&c->sensor.thermistor.supply, 3.3);
+        set_default(&c->sensor.thermistor.adc_reference, c->sensor.thermistor.supply);
+        set_default(&c->sensor.thermistor.adc_bits, 12.0);
+    }
+    for (i = 0; i < c->network.n_sources; i++) {
+        set_default(&c->network.sources[i].tempco, 0.0);
+        set_default(&c->network.sources[i].reference, TP_REFERENCE_20C);
+    }
+    if (c->form == TP_FORM_PHYSICAL) {
+        if (!c->control.source[0])
+            strcpy(c->control.source, "heater");
+        if (!c->control.sensor[0])
+            strcpy(c->control.sensor, "sensor");
+    }
+}
+
+static void check_form(reader *r, const tp_doc *doc, tp_desc *c)
+{
+    static const char *const physical[] = {"room", "bed", "heater", "sensor", "enclosure",
+                                           "materials"};
+    const tp_doc_node *root = doc->root;
+    size_t i;
+    if (c->network.present) {
+        c->form = TP_FORM_RAW;
+        for (i = 0; i < N(physical); i++) {
+            const tp_doc_node *n = tp_doc_get(root, physical[i]);
+            if (n)
+                tp_diag_error(r->d, tp_doc_loc(n), physical[i],
+                              "a file uses either the raw network: form or the physical form",
+                              "not allowed together with network:");
+        }
+        return;
+    }
+    if (!c->bed.present) {
+        tp_diag_error(r->d, tp_doc_loc(root), NULL,
+                      "describe the plate with bed:, heater:, room: (see docs/user-guide.md) "
+                      "or a network: of nodes and links",
+                      "the file describes neither a bed nor a network");
+        return;
+    }
+    c->form = TP_FORM_PHYSICAL;
+    if (!tp_doc_get(root, "room"))
+        tp_diag_error(r->d, tp_doc_loc(root), "room", "add room: {temperature: 20 degC}",
+                      "missing required key");
+    if (!c->heater.present)
+        tp_diag_error(r->d, tp_doc_loc(root), "heater",
+                      "add heater: {layer: ..., power: 200 W}", "missing required key");
+}
+
+tp_status tp_config_read(const tp_doc *doc, tp_desc *desc, tp_diag *d)
+{
+    reader r = {d};
+    int errors0 = d->errors;
+    memset(desc, 0, sizeof *desc);
+    init_section(&top_sec, desc);
+    if (!doc->root) {
+        tp_diag_error(d, (tp_loc){doc->file, 0, 0}, NULL,
+                      "start from one of the files in configs/", "the file is empty");
+        return TP_ERR_CONFIG;
+    }
+    if (doc->root->kind != TP_DOC_MAP) {
+        tp_diag_error(d, tp_doc_loc(doc->root), NULL, "the top level is a set of keys: values",
+                      "expected a section at the top level, found %s",
+                      tp_doc_kind_name(doc->root->kind));
+        return TP_ERR_CONFIG;
+    }
+    read_section(&r, &top_sec, doc->root, desc, "");
+    if (d->errors == errors0)
+        check_form(&r, doc, desc);
+    if (d->errors != errors0) {
+        tp_desc_clear(desc);
+        return TP_ERR_CONFIG;
+    }
+    apply_defaults(desc);
+    return TP_OK;
+}
+
+tp_status tp_config_read_materials(const tp_doc_node *map, const char *path,
+                                   tp_material_spec **out, size_t *n, tp_diag *d)
+{
+    reader r = {d};
+    int errors0 = d->errors;
+    struct {
+        tp_material_spec *m;
+        size_t n;
+    } holder = {NULL, 0};
+    static const key k = {"materials", K_IDMAP, TP_DIM_NONE, 0, sizeof(tp_material_spec),
+                          sizeof(void *), &material_sec, 0, TP_MAX_MATERIALS, NULL};
+    read_list(&r, &k, map, &holder, path);
+    if (d->errors != errors0) {
+        free(holder.m);
+        *out = NULL;
+        *n = 0;
+        return TP_ERR_CONFIG;
+    }
+    *out = holder.m;
+    *n = holder.n;
+    return TP_OK;
+}
+
+tp_status tp_config_load(const char *path, const char *const *sets, int n_sets, tp_doc **doc,
+                         tp_desc *desc, tp_diag *d)
+{
+    tp_status st;
+    int i;
+    memset(desc, 0, sizeof *desc);
+    st = tp_doc_load_file(path, doc, d);
+    if (st != TP_OK)
+        return st;
+    for (i = 0; i < n_sets; i++) {
+        st = tp_doc_set(*doc, sets[i], d);
+        if (st != TP_OK) {
+            tp_doc_destroy(doc);
+            return st == TP_ERR_USAGE ? TP_ERR_CONFIG : st;
+        }
+    }
+    st = tp_config_read(*doc, desc, d);
+    if (st != TP_OK)
+        tp_doc_destroy(doc);
+    return st;
+}
+
+/* ---- ownership ---------------------------------------------------------------------------- */
+
+static void clear_section(const section *sec, void *base)
+{
+    size_t i, j;
+    for (i = 0; i < sec->n; i++) {
+        const key *k = &sec->keys[i];
+        if (k->kind == K_MAP) {
+            clear_section(k->sub, field(base, k->offset));
+        } else if (k->kind == K_LIST || k->kind == K_IDMAP) {
+            char *items = *(char **)field(base, k->offset);
+            size_t count = *count_at(base, k->count_offset);
+            for (j = 0; items && j < count; j++)
+                clear_section(k->sub, items + j * k->size);
+            free(items);
+            *(void **)field(base, k->offset) = NULL;
+            *count_at(base, k->count_offset) = 0;
+        }
+    }
+}
+
+void tp_desc_clear(tp_desc *desc)
+{
+    if (!desc)
+        return;
+    clear_section(&top_sec, desc);
+    memset(desc, 0, sizeof *desc);
+}
+
+static int copy_section(const section *sec, void *dst, const void *src)
+{
+    size_t i, j;
+    int rc = 0;
+    for (i = 0; i < sec->n; i++) {
+        const key *k = &sec->keys[i];
+        if (k->kind == K_MAP) {
+            rc |= copy_section(k->sub, field(dst, k->offset),
+                               (const char *)src + k->offset);
+        } else if (k->kind == K_LIST || k->kind == K_IDMAP) {
+            const char *items = *(char *const *)(const void *)((const char *)src + k->offset);
+            size_t count = *(const size_t *)(const void *)((const char *)src + k->count_offset);
+            char *copy = NULL;
+            *(void **)field(dst, k->offset) = NULL;
+            *count_at(dst, k->count_offset) = 0;
+            if (!items || count == 0)
+                continue;
+            copy = malloc(count * k->size);
+            if (!copy)
+                return -1;
+            memcpy(copy, items, count * k->size);
+            *(void **)field(dst, k->offset) = copy;
+            *count_at(dst, k->count_offset) = count;
+            for (j = 0; j < count; j++)
+                rc |= copy_section(k->sub, copy + j * k->size, items + j * k->size);
+        }
+    }
+    return rc;
+}
+
+tp_status tp_desc_copy(tp_desc *dst, const tp_desc *src)
+{
+    *dst = *src;
+    if (copy_section(&top_sec, dst, src) != 0) {
+        tp_desc_clear(dst);
+        return TP_ERR_NOMEM;
+    }
+    return TP_OK;
+}
+
+/* ---- numeric keys by dotted path ---------------------------------------------------------- */
+
+/* Walk `path` to a number. On success *where points at the double and *k at its key. */
+static int resolve_path(const section *sec, void *base, const char *path, double **where,
+                        const key **kout)
+{
+    char buf[256];
+    char *seg, *save = NULL;
+    const key *k = NULL;
+    if (strlen(path) >= sizeof buf)
+        return -1;
+    strcpy(buf, path);
+    seg = strtok_r(buf, ".", &save);
+    while (seg) {
+        size_t j;
+        k = NULL;
+        for (j = 0; j < sec->n; j++)
+            if (strcmp(sec->keys[j].name, seg) == 0)
+                k = &sec->keys[j];
+        if (!k)
+            return -1;
+        seg = strtok_r(NULL, ".", &save);
+        switch (k->kind) {
+        case K_QTY:
+            if (seg)
+                return -1;
+            *where = dbl(base, k->offset);
+            *kout = k;
+            return 0;
+        case K_QPAIR: {
+            char *end;
+            long idx;
+            if (!seg)
+                return -1;
+            idx = strtol(seg, &end, 10);
+            if (*end || idx < 0 || idx > 1 || strtok_r(NULL, ".", &save))
+                return -1;
+            *where = dbl(base, k->offset) + idx;
+            *kout = k;
+            return 0;
+        }
+        case K_MAP:
+            base = field(base, k->offset);
+            sec = k->sub;
+            break;
+        case K_LIST:
+        case K_IDMAP: {
+            char *items = *(char **)field(base, k->offset);
+            size_t count = *count_at(base, k->count_offset), j2;
+            char *end;
+            long idx;
+            if (!seg || !items)
+                return -1;
+            idx = strtol(seg, &end, 10);
+            if (*end != '\0')
+                idx = -1;
+            /* Items are selected by id (their first field) or by 0-based index. */
+            for (j2 = 0; j2 < count && idx < 0; j2++)
+                if (strcmp(items + j2 * k->size, seg) == 0)
+                    idx = (long)j2;
+            if (idx < 0 || (size_t)idx >= count)
+                return -1;
+            base = items + (size_t)idx * k->size;
+            sec = k->sub;
+            seg = strtok_r(NULL, ".", &save);
+            break;
+        }
+        default:
+            return -1;
+        }
+    }
+    return -1;
+}
+
+tp_status tp_config_key_dim(const tp_desc *desc, const char *path, tp_dim *dim, tp_diag *d)
+{
+    double *where;
+    const key *k;
+    if (resolve_path(&top_sec, (void *)(uintptr_t)desc, path, &where, &k) != 0) {
+        tp_diag_error(d, tp_loc_none(), path,
+                      "give the dotted path of a number in the config, e.g. heater.power or "
+                      "bed.layers.plate.contact",
+                      "not a numeric key of this config");
+        return TP_ERR_CONFIG;
+    }
+    *dim = k->dim;
+    return TP_OK;
+}
+
+tp_status tp_config_get(const tp_desc *desc, const char *path, double *si)
+{
+    double *where;
+    const key *k;
+    if (resolve_path(&top_sec, (void *)(uintptr_t)desc, path, &where, &k) != 0)
+        return TP_ERR_CONFIG;
+    *si = *where;
+    return TP_OK;
+}
+
+tp_status tp_config_set(tp_desc *desc, const char *path, double si)
+{
+    double *where;
+    const key *k;
+    if (resolve_path(&top_sec, desc, path, &where, &k) != 0)
+        return TP_ERR_CONFIG;
+    *where = si;
+    return TP_OK;
+}

@@ -1,0 +1,48 @@
+/* The config reader: a schema of keys (tables, not strcmp chains) that turns the YAML tree into
+ * a tp_desc in SI units, with FILE:LINE:COL errors, did-you-mean hints and defaults; and
+ * setting any numeric key by its dotted path (for sweeps and fits). */
+#ifndef TP_CONFIG_H
+#define TP_CONFIG_H
+
+#include "desc.h"
+#include "diag.h"
+#include "doc.h"
+#include "status.h"
+#include "units.h"
+
+#define TP_MAX_LAYERS 16        /* layers in a bed */
+#define TP_MAX_RAW_NODES 100000 /* nodes in a raw network */
+#define TP_MAX_RAW_LINKS 400000 /* links in a raw network */
+#define TP_MAX_MATERIALS 256    /* materials defined in one file */
+
+/* Read the description from a parsed document. Every problem is reported to `d`; on error
+ * returns TP_ERR_CONFIG and *desc is cleared (nothing to free). Defaults are applied. */
+tp_status tp_config_read(const tp_doc *doc, tp_desc *desc, tp_diag *d);
+
+/* Load a file, apply the overrides ("key.path=value", n_sets of them) and read it. On success
+ * the caller owns *doc and *desc (tp_doc_destroy, tp_desc_clear). */
+tp_status tp_config_load(const char *path, const char *const *sets, int n_sets, tp_doc **doc,
+                         tp_desc *desc, tp_diag *d);
+
+/* Read a `materials:` map (used for models/materials.yaml and inline materials). */
+tp_status tp_config_read_materials(const tp_doc_node *map, const char *path,
+                                   tp_material_spec **out, size_t *n, tp_diag *d);
+
+/* Release what a description owns; leaves it cleared. */
+void tp_desc_clear(tp_desc *desc);
+
+/* Deep copy. Returns TP_ERR_NOMEM on failure (dst then cleared). */
+tp_status tp_desc_copy(tp_desc *dst, const tp_desc *src);
+
+/* The dimension of the numeric key at `path` (e.g. "heater.power", "bed.layers.plate.contact",
+ * "bed.size.0"). Returns TP_ERR_CONFIG with a message in `d` when the path names no number. */
+tp_status tp_config_key_dim(const tp_desc *desc, const char *path, tp_dim *dim, tp_diag *d);
+
+/* Read or set the numeric key at `path` in SI units (same paths as tp_config_key_dim). */
+tp_status tp_config_get(const tp_desc *desc, const char *path, double *si);
+tp_status tp_config_set(tp_desc *desc, const char *path, double si);
+
+/* Name of a control mode as written in configs ("on-off"). */
+const char *tp_mode_name(tp_mode mode);
+
+#endif

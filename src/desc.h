@@ -1,0 +1,202 @@
+/* The description: what a config file says, in SI units, before it becomes a network.
+ * Two forms share it: the raw `network:` form and the physical plate form (DESIGN.md).
+ * Unset numbers hold TP_UNSET (NaN; input NaN is rejected, so the sentinel is unambiguous). */
+#ifndef TP_DESC_H
+#define TP_DESC_H
+
+#include <math.h>
+#include <stddef.h>
+
+#define TP_ID_MAX 48       /* longest id (node, layer, source, material), bytes incl. NUL */
+#define TP_TEXT_MAX 160    /* longest free text (title, source note), bytes incl. NUL */
+#define TP_UNSET (NAN)
+#define tp_isset(x) (!isnan(x))
+
+typedef enum tp_form { TP_FORM_NONE, TP_FORM_RAW, TP_FORM_PHYSICAL } tp_form;
+
+typedef enum tp_mode { TP_MODE_OFF, TP_MODE_FULL, TP_MODE_ONOFF, TP_MODE_PID } tp_mode;
+
+/* ---- raw network form ---- */
+typedef struct tp_raw_node {
+    char id[TP_ID_MAX];
+    double capacity; /* J/K */
+    double initial;  /* K */
+    double fixed;    /* K */
+} tp_raw_node;
+
+typedef struct tp_raw_convection {
+    int present;
+    double area;        /* m2 */
+    double coefficient; /* W/(m2.K) */
+} tp_raw_convection;
+
+typedef struct tp_raw_radiation {
+    int present;
+    double area;       /* m2 */
+    double emissivity; /* - */
+} tp_raw_radiation;
+
+typedef struct tp_raw_link {
+    char between[2][TP_ID_MAX];
+    int has_between;
+    double conductance; /* W/K */
+    tp_raw_convection convection;
+    tp_raw_radiation radiation;
+} tp_raw_link;
+
+typedef struct tp_raw_source {
+    char id[TP_ID_MAX];
+    char node[TP_ID_MAX];
+    double power;      /* W */
+    double supply;     /* V */
+    double resistance; /* ohm, at `reference` */
+    double tempco;     /* 1/K */
+    double reference;  /* K */
+} tp_raw_source;
+
+typedef struct tp_raw {
+    int present;
+    tp_raw_node *nodes;
+    size_t n_nodes;
+    tp_raw_link *links;
+    size_t n_links;
+    tp_raw_source *sources;
+    size_t n_sources;
+} tp_raw;
+
+/* ---- physical form ---- */
+typedef struct tp_material_spec {
+    char id[TP_ID_MAX];
+    char name[TP_TEXT_MAX];
+    double density;              /* kg/m3 */
+    double specific_heat;        /* J/(kg.K) */
+    double conductivity;         /* W/(m.K), in-plane when conductivity_through is set */
+    double conductivity_through; /* W/(m.K) */
+    double emissivity;           /* - */
+    double max_temperature;      /* K */
+    char source[TP_TEXT_MAX * 3];
+    char note[TP_TEXT_MAX * 2];
+} tp_material_spec;
+
+typedef struct tp_room {
+    double temperature; /* K */
+    double airflow;     /* m/s across the top face */
+    double pressure;    /* Pa */
+} tp_room;
+
+typedef struct tp_layer {
+    char id[TP_ID_MAX];
+    char material[TP_ID_MAX];
+    double thickness; /* m */
+    double size[2];   /* m; unset: the bed size */
+    double contact;   /* W/(m2.K) to the layer below; unset: bonded */
+} tp_layer;
+
+typedef struct tp_face_spec {
+    double emissivity; /* - ; unset: the material's */
+} tp_face_spec;
+
+typedef struct tp_mounts {
+    double conductance; /* W/K to the room (or the enclosure walls) */
+} tp_mounts;
+
+typedef struct tp_bed {
+    int present;
+    double size[2]; /* m */
+    tp_layer *layers;
+    size_t n_layers;
+    tp_face_spec top, bottom;
+    tp_mounts mounts;
+} tp_bed;
+
+typedef struct tp_heater {
+    int present;
+    char layer[TP_ID_MAX];
+    double power;             /* W */
+    double supply;            /* V */
+    double resistance;        /* ohm at reference */
+    double tempco;            /* 1/K */
+    double reference;         /* K */
+    double max_duty;          /* - */
+    double supply_resistance; /* ohm, source and wiring in series */
+} tp_heater;
+
+typedef struct tp_thermistor {
+    int present;
+    double r25;           /* ohm at 25 degC */
+    double beta;          /* K (Beta equation constant) */
+    double series;        /* ohm, the divider's fixed resistor */
+    double adc_bits;      /* - */
+    double supply;        /* V across the divider */
+    double adc_reference; /* V, full scale of the ADC */
+} tp_thermistor;
+
+typedef struct tp_sensor_spec {
+    int present;
+    char layer[TP_ID_MAX];
+    double coupling;      /* W/K to the host layer */
+    double capacity;      /* J/K */
+    double time_constant; /* s, alternative to capacity */
+    double offset;        /* K, added to the reading */
+    double position[2];   /* m from the bed's lower-left corner (grids) */
+    tp_thermistor thermistor;
+} tp_sensor_spec;
+
+typedef struct tp_walls {
+    int present;
+    double area;       /* m2 */
+    double u_value;    /* W/(m2.K) to the room */
+    double capacity;   /* J/K */
+    double emissivity; /* - */
+} tp_walls;
+
+typedef struct tp_enclosure {
+    int present;
+    double volume; /* m3 */
+    double height; /* m, inner height of the walls; unset: cube root of the volume */
+    tp_walls walls;
+} tp_enclosure;
+
+typedef struct tp_control_spec {
+    int present;
+    char source[TP_ID_MAX];
+    char sensor[TP_ID_MAX];
+    tp_mode mode;
+    double setpoint; /* K */
+    double band;     /* K, on-off hysteresis */
+    double period;   /* s */
+    double kp;       /* 1/K */
+    double ki;       /* 1/(K.s) */
+    double kd;       /* s/K */
+} tp_control_spec;
+
+typedef struct tp_run {
+    double duration;  /* s */
+    double step;      /* s, output interval */
+    double tolerance; /* -, CVODE relative tolerance */
+    double max_steps; /* -, integration step limit */
+    double wall_time; /* s, wall-clock limit */
+} tp_run;
+
+typedef struct tp_losses {
+    double convection_scale; /* -, multiplies every convection coefficient */
+    double radiation_scale;  /* -, multiplies every radiation exchange */
+} tp_losses;
+
+typedef struct tp_desc {
+    tp_form form;
+    char title[TP_TEXT_MAX];
+    tp_raw network;
+    tp_material_spec *materials;
+    size_t n_materials;
+    tp_room room;
+    tp_bed bed;
+    tp_heater heater;
+    tp_sensor_spec sensor;
+    tp_enclosure enclosure;
+    tp_control_spec control;
+    tp_run run;
+    tp_losses losses;
+} tp_desc;
+
+#endif

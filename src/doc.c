@@ -1,0 +1,696 @@
+/* The YAML document tree: built from libyaml parser events, with positions, limits and
+ * alias expansion by copy (bounded), plus dotted-path lookup and --set overrides. */
+#include "doc.h"
+
+#include <errno.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include <yaml.h>
+
+#define ANCHORS_MAX 1024 /* anchors remembered per document */
+
+typedef struct anchor {
+    char *name;
+    tp_doc_node *node;
+    int open; /* still being built: an alias to it would be circular */
+} anchor;
+
+typedef struct builder {
+    tp_doc *doc;
+    const char *file;
+    tp_diag *d;
+    int line_base; /* added to libyaml lines (for --set values) */
+    int col_base;
+    tp_doc_node *stack[TP_DOC_MAX_DEPTH + 1];
+    int expect_value[TP_DOC_MAX_DEPTH + 1]; /* map on the stack awaits a value for its last key */
+    int depth;
+    anchor anchors[ANCHORS_MAX];
+    int n_anchors;
+    tp_doc_node *root;
+    int failed;
+} builder;
+
+const char *tp_doc_kind_name(tp_doc_kind kind)
+{
+    switch (kind) {
+    case TP_DOC_SCALAR: return "a value";
+    case TP_DOC_MAP: return "a section (key: value pairs)";
+    case TP_DOC_SEQ: return "a list";
+    }
+    return "?";
+}
+
+tp_loc tp_doc_loc(const tp_doc_node *node)
+{
+    tp_loc loc = {NULL, 0, 0};
+    if (node) {
+        loc.file = node->file;
+        loc.line = node->line;
+        loc.col = node->col;
+    }
+    return loc;
+}
+
+static void node_free(tp_doc_node *n)
+{
+    size_t i;
+    if (!n)
+        return;
+    for (i = 0; i < n->n; i++) {
+        if (n->keys)
+            node_free(n->keys[i]);
+        node_free(n->items[i]);
+    }
+    free(n->keys);
+    free(n->items);
+    free(n->text);
+    free(n);
+}
+
+void tp_doc_destroy(tp_doc **doc)
+{
+    if (!doc || !*doc)
+        return;
+    node_free((*doc)->root);
+    free((*doc)->file);
+    free((*doc)->text);
+    free(*doc);
+    *doc = NULL;
+}
+
+static tp_doc_node *node_new(builder *b, tp_doc_kind kind, const yaml_mark_t *start,
+                             const yaml_mark_t *end)
+{
+    tp_doc_node *n;
+    if (b->doc->n_nodes >= TP_DOC_MAX_NODES) {
+        tp_diag_error(b->d, (tp_loc){b->file, (int)start->line + 1 + b->line_base,
+                                     (int)start->column + 1 + b->col_base},
+                      NULL, "split the file or remove repeated anchors",
+                      "the document has more than %d nodes", TP_DOC_MAX_NODES);
+        return NULL;
+    }
+    n = calloc(1, sizeof *n);
+    if (!n)
+        return NULL;
+    n->kind = kind;
+    n->file = b->file;
+    n->line = (int)start->line + 1 + b->line_base;
+    n->col = (int)start->column + 1 + b->col_base;
+    n->start = start->index;
+    n->end = end->index;
+    b->doc->n_nodes++;
+    return n;
+}
+
+static int node_push_child(tp_doc_node *parent, tp_doc_node *key, tp_doc_node *value)
+{
+    if (parent->n == parent->cap) {
+        size_t cap = parent->cap ? parent->cap * 2 : 8;
+        tp_doc_node **items = realloc(parent->items, cap * sizeof *items);
+        if (!items)
+            return -1;
+        parent->items = items;
+        if (parent->kind == TP_DOC_MAP) {
+            tp_doc_node **keys = realloc(parent->keys, cap * sizeof *keys);
+            if (!keys)
+                return -1;
+            parent->keys = keys;
+        }
+        parent->cap = cap;
+    }
+    if (parent->kind == TP_DOC_MAP)
+        parent->keys[parent->n] = key;
+    parent->items[parent->n] = value;
+    parent->n++;
+    return 0;
+}
+
+/* Deep copy for alias expansion, counting nodes against the document limit. */
+static tp_doc_node *node_copy(builder *b, const tp_doc_node *src, int line, int col)
+{
+    tp_doc_node *n;
+    size_t i;
+    if (b->doc->n_nodes >= TP_DOC_MAX_NODES) {
+        tp_diag_error(b->d, (tp_loc){b->file, line, col}, NULL,
+                      "anchors and aliases may not expand a document beyond the node limit",
+                      "alias expansion exceeds %d nodes", TP_DOC_MAX_NODES);
+        return NULL;
+    }
+    n = calloc(1, sizeof *n);
+    if (!n)
+        return NULL;
+    *n = *src;
+    n->keys = n->items = NULL;
+    n->n = n->cap = 0;
+    n->text = NULL;
+    b->doc->n_nodes++;
+    if (src->text && !(n->text = strdup(src->text)))
+        goto fail;
+    for (i = 0; i < src->n; i++) {
+        tp_doc_node *k = NULL, *v;
+        if (src->kind == TP_DOC_MAP && !(k = node_copy(b, src->keys[i], line, col)))
+            goto fail;
+        v = node_copy(b, src->items[i], line, col);
+        if (!v || node_push_child(n, k, v) != 0) {
+            node_free(k);
+            node_free(v);
+            goto fail;
+        }
+    }
+    return n;
+fail:
+    node_free(n);
+    return NULL;
+}
+
+static tp_loc mark_loc(builder *b, const yaml_mark_t *m)
+{
+    tp_loc loc = {b->file, (int)m->line + 1 + b->line_base, (int)m->column + 1 + b->col_base};
+    return loc;
+}
+
+/* Attach a finished node to the open parent (or make it the root). */
+static int attach(builder *b, tp_doc_node *n)
+{
+    tp_doc_node *parent;
+    if (b->depth == 0) {
+        b->root = n;
+        return 0;
+    }
+    parent = b->stack[b->depth - 1];
+    if (parent->kind == TP_DOC_SEQ)
+        return node_push_child(parent, NULL, n);
+    if (!b->expect_value[b->depth - 1]) {
+        size_t i;
+        if (n->kind != TP_DOC_SCALAR) {
+            tp_diag_error(b->d, tp_doc_loc(n), NULL, "write keys as plain words followed by ':'",
+                          "a key must be a plain word, not %s", tp_doc_kind_name(n->kind));
+            node_free(n);
+            return -1;
+        }
+        for (i = 0; i < parent->n; i++) {
+            if (strcmp(parent->keys[i]->text, n->text) == 0) {
+                char hint[96];
+                snprintf(hint, sizeof hint, "the first '%s' is at line %d; keep one of them",
+                         n->text, parent->keys[i]->line);
+                tp_diag_error(b->d, tp_doc_loc(n), n->text, hint, "duplicate key");
+                node_free(n);
+                return -1;
+            }
+        }
+        if (node_push_child(parent, n, NULL) != 0) {
+            node_free(n);
+            return -1;
+        }
+        b->expect_value[b->depth - 1] = 1;
+        return 0;
+    }
+    parent->items[parent->n - 1] = n;
+    b->expect_value[b->depth - 1] = 0;
+    return 0;
+}
+
+static int add_anchor(builder *b, const char *name, tp_doc_node *n, const yaml_mark_t *m)
+{
+    if (b->n_anchors == ANCHORS_MAX) {
+        tp_diag_error(b->d, mark_loc(b, m), NULL, NULL, "more than %d anchors", ANCHORS_MAX);
+        return -1;
+    }
+    b->anchors[b->n_anchors].name = strdup(name);
+    if (!b->anchors[b->n_anchors].name)
+        return -1;
+    b->anchors[b->n_anchors].node = n;
+    b->anchors[b->n_anchors].open = n->kind != TP_DOC_SCALAR;
+    b->n_anchors++;
+    return 0;
+}
+
+static void close_anchor(builder *b, const tp_doc_node *n)
+{
+    int i;
+    for (i = 0; i < b->n_anchors; i++)
+        if (b->anchors[i].node == n)
+            b->anchors[i].open = 0;
+}
+
+static int on_alias(builder *b, const yaml_event_t *ev)
+{
+    int i;
+    const char *name = (const char *)ev->data.alias.anchor;
+    tp_loc loc = mark_loc(b, &ev->start_mark);
+    for (i = b->n_anchors - 1; i >= 0; i--) {
+        if (strcmp(b->anchors[i].name, name) == 0) {
+            tp_doc_node *copy;
+            if (b->anchors[i].open) {
+                tp_diag_error(b->d, loc, NULL, "an alias may not refer to a node that contains it",
+                              "circular alias *%s", name);
+                return -1;
+            }
+            copy = node_copy(b, b->anchors[i].node, loc.line, loc.col);
+            if (!copy)
+                return -1;
+            copy->line = loc.line;
+            copy->col = loc.col;
+            return attach(b, copy);
+        }
+    }
+    tp_diag_error(b->d, loc, NULL, "define the anchor with &name before using *name",
+                  "unknown alias *%s", name);
+    return -1;
+}
+
+static int on_event(builder *b, const yaml_event_t *ev)
+{
+    tp_doc_node *n;
+    const char *anchor_name = NULL;
+    switch (ev->type) {
+    case YAML_STREAM_START_EVENT:
+    case YAML_STREAM_END_EVENT:
+    case YAML_DOCUMENT_END_EVENT:
+    case YAML_NO_EVENT:
+        return 0;
+    case YAML_DOCUMENT_START_EVENT:
+        if (b->root) {
+            tp_diag_error(b->d, mark_loc(b, &ev->start_mark), NULL,
+                          "remove the '---' separator: one file describes one plate",
+                          "more than one YAML document in the file");
+            return -1;
+        }
+        return 0;
+    case YAML_ALIAS_EVENT:
+        return on_alias(b, ev);
+    case YAML_SCALAR_EVENT:
+        n = node_new(b, TP_DOC_SCALAR, &ev->start_mark, &ev->end_mark);
+        if (!n)
+            return -1;
+        n->text = strdup((const char *)ev->data.scalar.value);
+        if (!n->text) {
+            node_free(n);
+            return -1;
+        }
+        n->quoted = ev->data.scalar.style == YAML_SINGLE_QUOTED_SCALAR_STYLE ||
+                    ev->data.scalar.style == YAML_DOUBLE_QUOTED_SCALAR_STYLE;
+        anchor_name = (const char *)ev->data.scalar.anchor;
+        if (anchor_name && add_anchor(b, anchor_name, n, &ev->start_mark) != 0) {
+            node_free(n);
+            return -1;
+        }
+        return attach(b, n);
+    case YAML_MAPPING_START_EVENT:
+    case YAML_SEQUENCE_START_EVENT:
+        if (b->depth >= TP_DOC_MAX_DEPTH) {
+            tp_diag_error(b->d, mark_loc(b, &ev->start_mark), NULL,
+                          "a plate description needs only a few levels",
+                          "nesting deeper than %d levels", TP_DOC_MAX_DEPTH);
+            return -1;
+        }
+        n = node_new(b, ev->type == YAML_MAPPING_START_EVENT ? TP_DOC_MAP : TP_DOC_SEQ,
+                     &ev->start_mark, &ev->end_mark);
+        if (!n)
+            return -1;
+        if (ev->type == YAML_MAPPING_START_EVENT) {
+            n->flow = ev->data.mapping_start.style == YAML_FLOW_MAPPING_STYLE;
+            anchor_name = (const char *)ev->data.mapping_start.anchor;
+        } else {
+            n->flow = ev->data.sequence_start.style == YAML_FLOW_SEQUENCE_STYLE;
+            anchor_name = (const char *)ev->data.sequence_start.anchor;
+        }
+        if (anchor_name && add_anchor(b, anchor_name, n, &ev->start_mark) != 0) {
+            node_free(n);
+            return -1;
+        }
+        if (attach(b, n) != 0)
+            return -1; /* attach freed n */
+        b->stack[b->depth] = n;
+        b->expect_value[b->depth] = 0;
+        b->depth++;
+        return 0;
+    case YAML_MAPPING_END_EVENT:
+    case YAML_SEQUENCE_END_EVENT:
+        if (b->depth == 0)
+            return -1;
+        n = b->stack[--b->depth];
+        n->end = ev->end_mark.index;
+        if (n->kind == TP_DOC_MAP && b->expect_value[b->depth]) {
+            tp_diag_error(b->d, tp_doc_loc(n), NULL, NULL, "a key has no value");
+            return -1;
+        }
+        close_anchor(b, n);
+        return 0;
+    }
+    return 0;
+}
+
+/* A message and hint for a libyaml error, with the tab special case. */
+static void report_parser_error(builder *b, const yaml_parser_t *p, const char *text, size_t len)
+{
+    const yaml_mark_t *m = &p->problem_mark;
+    const char *hint = "check indentation, colons and brackets around this point";
+    size_t i = m->index;
+    if (p->error == YAML_READER_ERROR) {
+        tp_diag_error(b->d, (tp_loc){b->file, 0, 0}, NULL,
+                      "save the file as UTF-8 text; this does not look like a YAML config",
+                      "cannot read the text: %s", p->problem ? p->problem : "invalid bytes");
+        return;
+    }
+    if (i < len && (text[i] == '\t' || (i > 0 && text[i - 1] == '\t')))
+        hint = "YAML does not allow tabs for indentation; indent with spaces";
+    else {
+        /* A tab anywhere in the indentation of this line is the usual culprit. */
+        size_t s = i < len ? i : len;
+        while (s > 0 && text[s - 1] != '\n')
+            s--;
+        for (; s < len && (text[s] == ' ' || text[s] == '\t'); s++)
+            if (text[s] == '\t') {
+                hint = "YAML does not allow tabs for indentation; indent with spaces";
+                break;
+            }
+    }
+    tp_diag_error(b->d, mark_loc(b, m), NULL, hint, "YAML syntax error: %s%s%s",
+                  p->problem ? p->problem : "unreadable", p->context ? " " : "",
+                  p->context ? p->context : "");
+}
+
+/* Parse `text` into a tree; shared by files and --set values. Returns the root (may be NULL for
+ * an empty document) through *root; nonzero on error. */
+static int build(tp_doc *doc, const char *file, const char *text, size_t len, int line_base,
+                 int col_base, tp_doc_node **root, tp_diag *d)
+{
+    yaml_parser_t parser;
+    yaml_event_t ev;
+    builder *b;
+    int done = 0, rc = 0, i;
+
+    *root = NULL;
+    b = calloc(1, sizeof *b);
+    if (!b)
+        return -1;
+    b->doc = doc;
+    b->file = file;
+    b->d = d;
+    b->line_base = line_base;
+    b->col_base = col_base;
+    if (!yaml_parser_initialize(&parser)) {
+        free(b);
+        return -1;
+    }
+    yaml_parser_set_input_string(&parser, (const unsigned char *)text, len);
+    while (!done) {
+        if (!yaml_parser_parse(&parser, &ev)) {
+            report_parser_error(b, &parser, text, len);
+            rc = -1;
+            break;
+        }
+        done = ev.type == YAML_STREAM_END_EVENT;
+        if (on_event(b, &ev) != 0)
+            rc = -1;
+        yaml_event_delete(&ev);
+        if (rc)
+            break;
+    }
+    yaml_parser_delete(&parser);
+    /* On error the partial tree hangs from the stack bottom or the root. */
+    if (rc != 0) {
+        if (b->depth > 0 && !b->root)
+            node_free(b->stack[0]);
+        else
+            node_free(b->root);
+        if (d->errors == 0)
+            tp_diag_error(d, (tp_loc){file, 0, 0}, NULL, NULL, "out of memory while reading");
+    } else {
+        *root = b->root;
+    }
+    for (i = 0; i < b->n_anchors; i++)
+        free(b->anchors[i].name);
+    free(b);
+    return rc;
+}
+
+tp_status tp_doc_load_text(const char *name, const char *text, size_t len, tp_doc **out,
+                           tp_diag *d)
+{
+    tp_doc *doc;
+    *out = NULL;
+    if (len > TP_DOC_MAX_BYTES) {
+        tp_diag_error(d, (tp_loc){name, 0, 0}, NULL,
+                      "a plate description is a few kilobytes; is this the right file?",
+                      "the file is larger than %d bytes", TP_DOC_MAX_BYTES);
+        return TP_ERR_LIMIT;
+    }
+    if (memchr(text, '\0', len)) {
+        tp_diag_error(d, (tp_loc){name, 0, 0}, NULL, "give a YAML text file",
+                      "the file contains binary data (NUL bytes)");
+        return TP_ERR_CONFIG;
+    }
+    doc = calloc(1, sizeof *doc);
+    if (!doc)
+        return TP_ERR_NOMEM;
+    doc->file = strdup(name);
+    doc->text = malloc(len + 1);
+    if (!doc->file || !doc->text) {
+        tp_doc_destroy(&doc);
+        return TP_ERR_NOMEM;
+    }
+    memcpy(doc->text, text, len);
+    doc->text[len] = '\0';
+    doc->len = len;
+    if (build(doc, doc->file, doc->text, len, 0, 0, &doc->root, d) != 0) {
+        tp_status st = doc->n_nodes >= TP_DOC_MAX_NODES ? TP_ERR_LIMIT : TP_ERR_CONFIG;
+        tp_doc_destroy(&doc);
+        return st;
+    }
+    *out = doc;
+    return TP_OK;
+}
+
+tp_status tp_doc_load_file(const char *path, tp_doc **out, tp_diag *d)
+{
+    FILE *fp;
+    char *buf = NULL;
+    size_t len = 0, cap = 0, got;
+    tp_status st;
+
+    *out = NULL;
+    fp = fopen(path, "rb");
+    if (!fp) {
+        tp_diag_error(d, (tp_loc){path, 0, 0}, NULL, "check the file name",
+                      "cannot open: %s", strerror(errno));
+        return TP_ERR_CONFIG;
+    }
+    do {
+        if (len == cap) {
+            char *nb;
+            if (cap > TP_DOC_MAX_BYTES)
+                break;
+            cap = cap ? cap * 2 : 8192;
+            nb = realloc(buf, cap);
+            if (!nb) {
+                free(buf);
+                fclose(fp);
+                return TP_ERR_NOMEM;
+            }
+            buf = nb;
+        }
+        got = fread(buf + len, 1, cap - len, fp);
+        len += got;
+    } while (got > 0);
+    if (ferror(fp)) {
+        tp_diag_error(d, (tp_loc){path, 0, 0}, NULL, NULL, "cannot read: %s", strerror(errno));
+        free(buf);
+        fclose(fp);
+        return TP_ERR_CONFIG;
+    }
+    fclose(fp);
+    st = tp_doc_load_text(path, buf ? buf : "", len, out, d);
+    free(buf);
+    return st;
+}
+
+tp_doc_node *tp_doc_get(const tp_doc_node *map, const char *key)
+{
+    size_t i;
+    if (!map || map->kind != TP_DOC_MAP)
+        return NULL;
+    for (i = 0; i < map->n; i++)
+        if (strcmp(map->keys[i]->text, key) == 0)
+            return map->items[i];
+    return NULL;
+}
+
+/* Index of the sequence item named by `seg`: a decimal index or the item's `id`. -1: none. */
+static long seq_index(const tp_doc_node *seq, const char *seg)
+{
+    size_t i;
+    char *end;
+    long idx = strtol(seg, &end, 10);
+    if (*seg && *end == '\0' && idx >= 0 && (size_t)idx < seq->n)
+        return idx;
+    for (i = 0; i < seq->n; i++) {
+        const tp_doc_node *id = tp_doc_get(seq->items[i], "id");
+        if (id && id->kind == TP_DOC_SCALAR && strcmp(id->text, seg) == 0)
+            return (long)i;
+    }
+    return -1;
+}
+
+tp_doc_node *tp_doc_find(const tp_doc *doc, const char *path)
+{
+    char buf[512];
+    char *seg, *save = NULL;
+    tp_doc_node *n = doc ? doc->root : NULL;
+    if (!n || strlen(path) >= sizeof buf)
+        return NULL;
+    strcpy(buf, path);
+    for (seg = strtok_r(buf, ".", &save); seg && n; seg = strtok_r(NULL, ".", &save)) {
+        if (n->kind == TP_DOC_MAP) {
+            n = tp_doc_get(n, seg);
+        } else if (n->kind == TP_DOC_SEQ) {
+            long i = seq_index(n, seg);
+            n = i >= 0 ? n->items[i] : NULL;
+        } else {
+            return NULL;
+        }
+    }
+    return n;
+}
+
+/* Shift every node of a --set value to the command-line position. */
+static void mark_override(tp_doc_node *n, int line)
+{
+    size_t i;
+    n->overridden = 1;
+    n->line = line;
+    for (i = 0; i < n->n; i++) {
+        if (n->keys)
+            mark_override(n->keys[i], line);
+        mark_override(n->items[i], line);
+    }
+}
+
+tp_status tp_doc_set(tp_doc *doc, const char *assignment, tp_diag *d)
+{
+    const char *eq = strchr(assignment, '=');
+    char path[512], walked[512] = "";
+    char *seg, *next, *save = NULL;
+    tp_doc_node *value = NULL, *n;
+    int line = ++doc->n_sets;
+    tp_loc loc = {"--set", line, 1};
+    size_t plen;
+
+    if (!eq || eq == assignment) {
+        tp_diag_error(d, loc, NULL, "write --set key.path=value, e.g. --set heater.power=200W",
+                      "'%s' is not an assignment", assignment);
+        return TP_ERR_USAGE;
+    }
+    plen = (size_t)(eq - assignment);
+    if (plen >= sizeof path) {
+        tp_diag_error(d, loc, NULL, NULL, "key path too long");
+        return TP_ERR_USAGE;
+    }
+    memcpy(path, assignment, plen);
+    path[plen] = '\0';
+    if (path[0] == '.' || path[plen - 1] == '.' || strstr(path, "..")) {
+        tp_diag_error(d, loc, path, "separate keys with single dots, e.g. bed.top.emissivity",
+                      "empty key in the path");
+        return TP_ERR_USAGE;
+    }
+    if (eq[1] == '\0') {
+        tp_diag_error(d, (tp_loc){"--set", line, (int)plen + 2}, path,
+                      "give a value after '=', e.g. --set heater.power=200W", "missing value");
+        return TP_ERR_USAGE;
+    }
+    if (build(doc, "--set", eq + 1, strlen(eq + 1), line - 1, (int)plen + 1, &value, d) != 0)
+        return TP_ERR_USAGE;
+    if (!value) {
+        tp_diag_error(d, (tp_loc){"--set", line, (int)plen + 2}, path, NULL, "missing value");
+        return TP_ERR_USAGE;
+    }
+    mark_override(value, line);
+
+    if (!doc->root) {
+        yaml_mark_t m = {0, 0, 0};
+        builder b = {.doc = doc, .file = "--set"};
+        doc->root = node_new(&b, TP_DOC_MAP, &m, &m);
+        if (!doc->root) {
+            node_free(value);
+            return TP_ERR_NOMEM;
+        }
+    }
+    n = doc->root;
+    seg = strtok_r(path, ".", &save);
+    while (seg) {
+        next = strtok_r(NULL, ".", &save);
+        if (walked[0])
+            strcat(walked, ".");
+        strcat(walked, seg);
+        if (n->kind == TP_DOC_SCALAR) {
+            tp_diag_error(d, loc, walked, "a value cannot hold keys; check the path",
+                          "the path goes through a value, not a section");
+            node_free(value);
+            return TP_ERR_USAGE;
+        }
+        if (n->kind == TP_DOC_SEQ) {
+            long i = seq_index(n, seg);
+            if (i < 0) {
+                tp_diag_error(d, loc, walked, "select list items by their id or a 0-based index",
+                              "no such item in the list");
+                node_free(value);
+                return TP_ERR_USAGE;
+            }
+            if (!next) {
+                node_free(n->items[i]);
+                n->items[i] = value;
+                return TP_OK;
+            }
+            n = n->items[i];
+            seg = next;
+            continue;
+        }
+        {
+            tp_doc_node *child = tp_doc_get(n, seg);
+            if (!next) {
+                size_t i;
+                for (i = 0; i < n->n; i++) {
+                    if (strcmp(n->keys[i]->text, seg) == 0) {
+                        node_free(n->items[i]);
+                        n->items[i] = value;
+                        return TP_OK;
+                    }
+                }
+                {
+                    yaml_mark_t m = {0, 0, 0};
+                    builder b = {.doc = doc, .file = "--set"};
+                    tp_doc_node *key = node_new(&b, TP_DOC_SCALAR, &m, &m);
+                    if (!key || !(key->text = strdup(seg)) || node_push_child(n, key, value)) {
+                        node_free(key);
+                        node_free(value);
+                        return TP_ERR_NOMEM;
+                    }
+                    mark_override(key, line);
+                }
+                return TP_OK;
+            }
+            if (!child) {
+                yaml_mark_t m = {0, 0, 0};
+                builder b = {.doc = doc, .file = "--set"};
+                tp_doc_node *key = node_new(&b, TP_DOC_SCALAR, &m, &m);
+                child = node_new(&b, TP_DOC_MAP, &m, &m);
+                if (!key || !child || !(key->text = strdup(seg)) ||
+                    node_push_child(n, key, child)) {
+                    node_free(key);
+                    node_free(child);
+                    node_free(value);
+                    return TP_ERR_NOMEM;
+                }
+                mark_override(key, line);
+                mark_override(child, line);
+            }
+            n = child;
+        }
+        seg = next;
+    }
+    node_free(value);
+    return TP_OK;
+}

@@ -1,0 +1,197 @@
+/* The thermal network: nodes with heat capacity or fixed temperature, links with one law each
+ * (conduction, convection, radiation), heat sources, and the controller that switches one of
+ * them. It evaluates the right-hand side C_i dT_i/dt = sum_j Q_ji + P_i and its Jacobian.
+ * Everything tepid computes lowers to this structure. */
+#ifndef TP_NETWORK_H
+#define TP_NETWORK_H
+
+#include <stddef.h>
+
+#include "control.h"
+#include "convection.h"
+#include "desc.h"
+#include "diag.h"
+#include "status.h"
+
+/* Extra states appended after the free temperatures: running energy totals, J. */
+enum {
+    TP_Q_SOURCE = 0, /* energy delivered by all sources into nodes */
+    TP_Q_LOST,       /* energy that left into fixed nodes */
+    TP_Q_WIRE,       /* energy dissipated in supply wiring (supply_resistance) */
+    TP_N_QUAD
+};
+
+typedef enum tp_law { TP_LAW_CONDUCTION, TP_LAW_CONVECTION, TP_LAW_RADIATION } tp_law;
+
+/* Where a link's heat goes, for the loss breakdown of `steady`. */
+typedef enum tp_loss_path {
+    TP_PATH_INTERNAL = 0, /* between two free nodes of the plate */
+    TP_PATH_TOP_CONV,
+    TP_PATH_TOP_RAD,
+    TP_PATH_BOTTOM_CONV,
+    TP_PATH_BOTTOM_RAD,
+    TP_PATH_EDGE,
+    TP_PATH_MOUNTS,
+    TP_PATH_WALLS,        /* enclosure walls to the room */
+    TP_PATH_OTHER,        /* raw-form links to fixed nodes */
+    TP_PATH_COUNT
+} tp_loss_path;
+
+typedef struct tp_net_node {
+    char id[TP_ID_MAX];
+    double capacity; /* J/K; 0 for a fixed node */
+    double t0;       /* K: the initial temperature, or the fixed one */
+    int state;       /* index in the state vector; -1 for a fixed node */
+    int output;      /* nonzero: reported in CSV/plots (every node with capacity) */
+} tp_net_node;
+
+typedef struct tp_net_link {
+    int a, b;            /* node indices; convection and radiation: a is the surface */
+    tp_law law;
+    double g;            /* conduction conductance, W/K */
+    double area;         /* convection and radiation area, m2 */
+    double h;            /* fixed convection coefficient, W/(m2.K) (when !correlated) */
+    int correlated;      /* convection: h = tp_conv_h(&conv, T_a, T_b) */
+    tp_conv_case conv;
+    double eps;          /* radiation: effective emissivity */
+    double scale;        /* multiplier from losses.*_scale */
+    tp_loss_path path;
+    char label[TP_ID_MAX * 2];
+} tp_net_link;
+
+typedef enum tp_source_kind { TP_SRC_POWER, TP_SRC_ELECTRIC } tp_source_kind;
+
+typedef struct tp_net_source {
+    char id[TP_ID_MAX];
+    tp_source_kind kind;
+    double power;    /* W (TP_SRC_POWER) */
+    double supply;   /* V */
+    double r0;       /* ohm at tref */
+    double tempco;   /* 1/K */
+    double tref;     /* K */
+    double r_series; /* ohm of source and wiring in series */
+    double max_duty; /* fully on means this duty */
+    int n_nodes;     /* nodes the power lands in: 1 when lumped */
+    int *nodes;      /* node indices */
+    double *weights; /* share of the element in each node; sums to 1 */
+} tp_net_source;
+
+typedef struct tp_network {
+    tp_net_node *nodes;
+    int n_nodes;
+    tp_net_link *links;
+    int n_links;
+    tp_net_source *sources;
+    int n_sources;
+    int n_free;         /* free temperatures; the state has n_free + TP_N_QUAD entries */
+    int *free_nodes;    /* state index -> node index */
+    double *duty;       /* per source, 0..1: the held controller output (set by the integrator) */
+    int has_control;
+    tp_control control;
+    /* The working surface (physical form): the top face of the top layer, estimated from the
+     * top node as T_s = T_top - q'' t / (2 k) with q'' the flux leaving that face. */
+    int top_node;       /* node index, -1 when unknown (raw form) */
+    double top_area;    /* m2 */
+    double top_half_r;  /* t / (2 k) of the top layer, K.m2/W */
+    tp_run run;
+    /* Jacobian sparsity (compressed sparse columns over the whole state), built once. */
+    int nnz;
+    int *colptr;        /* n_state + 1 */
+    int *rowind;        /* nnz */
+    int (*link_slot)[6]; /* per link: aa, ab, ba, bb, lost-a, lost-b (-1 when absent) */
+    int *src_slot;      /* per source node entry: the diagonal, then the quadrature rows */
+    int *src_first;     /* per source: first index into src_slot (3 entries per node) */
+    double *work;       /* n_nodes temperatures, scratch for evaluations */
+    double *src_work;   /* 3 x the largest source's node count, scratch */
+} tp_network;
+
+/* Snapshot of the heat flows at one state. */
+typedef struct tp_flows {
+    double *q;          /* n_nodes: net heat into each node, W (fixed nodes: into the boundary) */
+    double *src_power;  /* n_sources: delivered into nodes, W */
+    double *src_wire;   /* n_sources: lost in wiring, W */
+    double lost;        /* W into fixed nodes */
+    double path[TP_PATH_COUNT]; /* W leaving the free nodes by each loss path */
+} tp_flows;
+
+/* An empty network; add nodes, links, sources, then tp_network_finish. */
+tp_network *tp_network_create(void);
+
+/* Free a network and NULL the handle; accepts NULL. */
+void tp_network_destroy(tp_network **net);
+
+/* Append a node (capacity > 0 with its initial temperature, or capacity 0 and fixed t0).
+ * Returns its index, or -1 when out of memory. */
+int tp_network_add_node(tp_network *net, const char *id, double capacity, double t0);
+
+/* Append a link; returns a pointer to fill in (a, b, law set), or NULL when out of memory.
+ * Defaults: scale 1, path TP_PATH_INTERNAL. */
+tp_net_link *tp_network_add_link(tp_network *net, int a, int b, tp_law law);
+
+/* Append a source landing in one node; returns it (kind and parameters to fill in) or NULL. */
+tp_net_source *tp_network_add_source(tp_network *net, const char *id, int node);
+
+/* Spread a source over several nodes with weights (copied; normalised to sum 1). */
+tp_status tp_network_spread_source(tp_network *net, tp_net_source *src, const int *nodes,
+                                   const double *weights, int n);
+
+/* Index of a node by id, or -1. */
+int tp_network_find_node(const tp_network *net, const char *id);
+
+/* Index of a source by id, or -1. */
+int tp_network_find_source(const tp_network *net, const char *id);
+
+/* Number the free nodes, build the Jacobian pattern, set every duty to the source's max_duty.
+ * Call once after the last node, link and source. */
+tp_status tp_network_finish(tp_network *net);
+
+/* Size of the state vector: free temperatures then TP_N_QUAD energy totals. */
+int tp_network_state_size(const tp_network *net);
+
+/* The initial state vector (n_state entries). */
+void tp_network_initial_state(const tp_network *net, double *y);
+
+/* All node temperatures from a state vector, into `t` (n_nodes). */
+void tp_network_temperatures(const tp_network *net, const double *y, double *t);
+
+/* The heat flow through a link from a to b, W, at node temperatures ta, tb (kelvin), and its
+ * partial derivatives (either pointer may be NULL). */
+double tp_network_link_flow(const tp_net_link *l, double ta, double tb, double *dqa,
+                            double *dqb);
+
+/* The power a source delivers into its nodes at node temperatures `t`, at duty `duty`, W;
+ * *wire gets the wiring loss (may be NULL). */
+double tp_network_source_power(const tp_net_source *s, const double *t, double duty,
+                               double *wire);
+
+/* The right-hand side dy/dt at state y (CVODE contract: 0 ok, 1 when a value is not finite).
+ * Uses the network's scratch arrays: one network per thread. */
+int tp_network_rhs(const tp_network *net, const double *y, double *ydot);
+
+/* The Jacobian d(dy/dt)/dy at y, written into `values` in the order of the pattern
+ * (colptr/rowind). Returns 0, or 1 when a value is not finite. */
+int tp_network_jacobian(const tp_network *net, const double *y, double *values);
+
+/* Heat flows at all-node temperatures `t` with the current duties. `f` arrays must be sized
+ * (q: n_nodes, src_power and src_wire: n_sources). */
+void tp_network_flows(const tp_network *net, const double *t, tp_flows *f);
+
+/* Allocate / free the arrays of a tp_flows for this network. */
+tp_status tp_flows_init(tp_flows *f, const tp_network *net);
+void tp_flows_clear(tp_flows *f);
+
+/* The linearised conductance of a link at temperatures ta, tb (W/K): conduction g, convection
+ * h A, radiation eps sigma A (ta^2 + tb^2)(ta + tb); and the coefficient h used (W/(m2.K)). */
+double tp_network_link_conductance(const tp_net_link *l, double ta, double tb, double *h);
+
+/* The working-surface temperature at node temperatures `t` (K); the top node's temperature
+ * when the network has no physical top layer. */
+double tp_network_surface(const tp_network *net, const double *t);
+
+/* Name of a law as in explain output: "conduction", "convection", "radiation". */
+const char *tp_law_name(tp_law law);
+
+/* Name of a loss path as in steady output ("top_convection", ...). */
+const char *tp_loss_path_name(tp_loss_path p);
+
+#endif
