@@ -1,0 +1,82 @@
+/* Dry air properties: ideal-gas density, cp from NASA 7-coefficient polynomials of the
+ * constituents, viscosity and conductivity from Sutherland's law. Sources are named beside
+ * each constant; docs/correlations.md lists them with their accuracy. */
+#include "air.h"
+
+#include <math.h>
+
+/* Composition of dry air used by Lemmon, Jacobsen, Penoncello & Friend, J. Phys. Chem. Ref.
+ * Data 29:331 (2000), mole fractions N2/O2/Ar (from memory; with molar masses 28.0135, 31.9988 and
+ * 39.948 g/mol they reproduce that paper's M = 28.9586 g/mol to every printed digit). */
+#define X_N2 0.7812 /* mole fraction of nitrogen, - */
+#define X_O2 0.2096 /* mole fraction of oxygen, - */
+#define X_AR 0.0092 /* mole fraction of argon, - */
+
+/* Ideal-gas cp/R of N2 and O2, 200..1000 K range of the NASA 7-coefficient polynomials
+ * cp/R = a1 + a2 T + a3 T^2 + a4 T^3 + a5 T^4 (McBride, Gordon & Reno, NASA TM-4513, 1993
+ * form) as tabulated in Burcat & Ruscic's Third Millennium thermochemical database (ANL-05/20,
+ * 2005; citation from memory): N2 entry "G 8/02", O2 entry "RUS 89". Coefficients checked
+ * digit by digit against open copies of that database. Argon is monatomic: cp/R = 5/2 exactly. */
+static const double nasa_n2[5] = {3.53100528e+00, -1.23660988e-04, -5.02999433e-07, 2.43530612e-09,
+                                  -1.40881235e-12};
+static const double nasa_o2[5] = {3.78245636e+00, -2.99673416e-03, 9.84730201e-06, -9.68129509e-09,
+                                  3.24372837e-12};
+#define CP_R_AR 2.5 /* cp/R of a monatomic ideal gas, - */
+
+/* Sutherland's law q = q0 (T/T0)^(3/2) (T0 + S)/(T + S), coefficients for air from White,
+ * Viscous Fluid Flow, 3rd ed., McGraw-Hill 2006, p. 28 (viscosity) and the conductivity table
+ * that follows it (quoted with that page by the open gdtk code). White gives about 2 % accuracy
+ * for air over 170..1900 K (from memory); REFERENCES.md §3.3 measures 1.4 % (mu) and 1.6 % (k)
+ * against Lemmon & Jacobsen (2004) over 250..500 K. */
+#define SUTH_MU0 1.716e-5 /* viscosity at SUTH_T0, Pa.s */
+#define SUTH_T0 273.0     /* reference temperature of both laws, K */
+#define SUTH_S_MU 111.0   /* Sutherland temperature for viscosity, K */
+#define SUTH_K0 0.0241    /* conductivity at SUTH_T0, W/(m.K) */
+#define SUTH_S_K 194.0    /* Sutherland temperature for conductivity, K */
+
+static double clamp(double x, double lo, double hi)
+{
+    /* fmax returns `lo` for a NaN `x`, so NaN lands on the lower bound. */
+    return fmin(fmax(x, lo), hi);
+}
+
+static double horner5(const double *a, double t)
+{
+    return a[0] + t * (a[1] + t * (a[2] + t * (a[3] + t * a[4])));
+}
+
+static double sutherland(double q0, double s, double t)
+{
+    double r = t / SUTH_T0;
+    return q0 * r * sqrt(r) * (SUTH_T0 + s) / (t + s);
+}
+
+/* Ideal-gas specific heat of the N2/O2/Ar mixture, J/(kg.K). The real-gas correction at
+ * 1 atm is below 0.2 % here (REFERENCES.md §3.2, Lemmon 2000 cp 1006.6 vs 1005.0 at 300 K). */
+static double heat_capacity(double t)
+{
+    double cp_r = X_N2 * horner5(nasa_n2, t) + X_O2 * horner5(nasa_o2, t) + X_AR * CP_R_AR;
+    return cp_r * TP_GAS_CONSTANT / TP_AIR_MOLAR_MASS;
+}
+
+void tp_air_props(double t, double p, tp_air *out)
+{
+    t = clamp(t, TP_AIR_T_MIN, TP_AIR_T_MAX);
+    p = clamp(p, TP_AIR_P_MIN, TP_AIR_P_MAX);
+    /* Ideal gas: beta = 1/T is within 0.3 % of the real-gas value at 1 atm and 300..400 K
+     * (REFERENCES.md §1.0); the ideal-gas density is within 0.1 % of Lemmon et al. (2000) at
+     * 1 atm over 250..500 K (REFERENCES.md §3.2). */
+    out->rho = p * TP_AIR_MOLAR_MASS / (TP_GAS_CONSTANT * t);
+    out->cp = heat_capacity(t);
+    out->mu = sutherland(SUTH_MU0, SUTH_S_MU, t);
+    out->k = sutherland(SUTH_K0, SUTH_S_K, t);
+    out->nu = out->mu / out->rho;
+    out->alpha = out->k / (out->rho * out->cp);
+    out->pr = out->mu * out->cp / out->k;
+    out->beta = 1.0 / t;
+}
+
+int tp_air_in_range(double t, double p)
+{
+    return t >= TP_AIR_T_MIN && t <= TP_AIR_T_MAX && p >= TP_AIR_P_MIN && p <= TP_AIR_P_MAX;
+}
