@@ -7,6 +7,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "config.h"
 #include "plate.h"
 
 /* The location of the config node at a printf-formatted path; no position when unknown. */
@@ -229,7 +230,7 @@ static tp_status attach_control(const tp_desc *desc, const tp_doc *doc, tp_netwo
     const tp_control_spec *c = &desc->control;
     tp_control *k = &net->control;
     int errors0 = d->errors, src, sensor;
-    double coldest = INFINITY;
+    double coldest = HUGE_VAL;
     int i;
     if (!c->present)
         return TP_OK;
@@ -252,6 +253,12 @@ static tp_status attach_control(const tp_desc *desc, const tp_doc *doc, tp_netwo
         tp_diag_error(d, where(doc, "control.sensor"), "control.sensor", hint,
                       c->sensor[0] ? "the controller reads a node that does not exist: '%s'"
                                    : "which node does it read?%s", c->sensor);
+        return TP_ERR_CONFIG;
+    }
+    if (net->nodes[sensor].capacity <= 0) {
+        tp_diag_error(d, where(doc, "control.sensor"), "control.sensor",
+                      "read a node with a capacity (the plate, or a sensor node)",
+                      "the controller reads the fixed node '%s', which never changes", c->sensor);
         return TP_ERR_CONFIG;
     }
     if ((c->mode == TP_MODE_ONOFF || c->mode == TP_MODE_PID) && !tp_isset(c->setpoint)) {
@@ -279,7 +286,7 @@ static tp_status attach_control(const tp_desc *desc, const tp_doc *doc, tp_netwo
     k->mode = c->mode;
     k->source = src;
     k->sensor = sensor;
-    k->setpoint = tp_isset(c->setpoint) ? c->setpoint : NAN;
+    k->setpoint = c->setpoint;
     k->band = c->band;
     k->period = c->period;
     k->kp = c->kp;

@@ -42,7 +42,4 @@ tp_status tp_config_key_dim(const tp_desc *desc, const char *path, tp_dim *dim, 
 tp_status tp_config_get(const tp_desc *desc, const char *path, double *si);
 tp_status tp_config_set(tp_desc *desc, const char *path, double si);
 
-/* Name of a control mode as written in configs ("on-off"). */
-const char *tp_mode_name(tp_mode mode);
-
 #endif

@@ -9,7 +9,7 @@
 
 #define TP_ID_MAX 48       /* longest id (node, layer, source, material), bytes incl. NUL */
 #define TP_TEXT_MAX 160    /* longest free text (title, source note), bytes incl. NUL */
-#define TP_UNSET (NAN)
+#define TP_UNSET ((double)NAN)
 #define tp_isset(x) (!isnan(x))
 
 typedef enum tp_form { TP_FORM_NONE, TP_FORM_RAW, TP_FORM_PHYSICAL } tp_form;
@@ -198,5 +198,8 @@ typedef struct tp_desc {
     tp_run run;
     tp_losses losses;
 } tp_desc;
+
+/* Name of a control mode as written in configs ("on-off"); defined in config.c. */
+const char *tp_mode_name(tp_mode mode);
 
 #endif

@@ -127,7 +127,7 @@ static const char *worst_node(void *mem, const tp_network *net, N_Vector a, N_Ve
     for (i = 0; i < net->n_free; i++) {
         double v = fabs(e[i] * w[i]);
         if (v > bestv || !isfinite(v)) {
-            bestv = isfinite(v) ? v : INFINITY;
+            bestv = isfinite(v) ? v : HUGE_VAL;
             best = i;
         }
     }
@@ -155,7 +155,7 @@ static double reading_of(run *r, double t, const double *y)
 {
     double reading;
     if (!r->net->has_control)
-        return NAN;
+        return TP_UNSET;
     tp_network_temperatures(r->net, y, r->temps);
     reading = tp_reading(&r->net->control.reading, r->temps[r->net->control.sensor]);
     if (r->hooks && r->hooks->reading)
@@ -236,7 +236,7 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
         return TP_ERR_CONFIG;
     }
     r.n_out = (long)ceil(o->t_end / o->step - 1e-9) + 1;
-    period = net->has_control ? net->control.period : INFINITY;
+    period = net->has_control ? net->control.period : HUGE_VAL;
     r.temps = malloc((size_t)(net->n_nodes > 0 ? net->n_nodes : 1) * sizeof *r.temps);
     if (!r.temps)
         return TP_ERR_NOMEM;
@@ -300,7 +300,7 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
     }
 
     while (t < o->t_end && !r.stop) {
-        double t_valid, t_restart = INFINITY, t_break;
+        double t_valid, t_restart = HUGE_VAL, t_break;
         int restart = 0;
         dr.cv_msg[0] = '\0';
         flag = CVode(mem, o->t_end, y, &t, CV_ONE_STEP);
@@ -313,7 +313,7 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
         /* A break (fault, disturbance) or a tick that changes a duty inside this step ends
          * the valid part of the step there. */
         t_break = (r.hooks && next_break < r.hooks->n_breaks) ? r.hooks->breaks[next_break]
-                                                               : INFINITY;
+                                                               : HUGE_VAL;
         while (k_tick * period <= t && k_tick * period < t_break) {
             double tk = (double)k_tick * period;
             if (CVodeGetDky(mem, tk, 0, yi) != CV_SUCCESS) {

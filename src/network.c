@@ -80,24 +80,6 @@ void tp_network_destroy(tp_network **net)
     *net = NULL;
 }
 
-/* Grow an array to hold `need` elements (capacity doubles). */
-static int grow(void **arr, int *cap, int need, size_t elem)
-{
-    void *p;
-    int c;
-    if (need <= *cap)
-        return 0;
-    c = *cap ? *cap * 2 : 16;
-    while (c < need)
-        c *= 2;
-    p = realloc(*arr, (size_t)c * elem);
-    if (!p)
-        return -1;
-    *arr = p;
-    *cap = c;
-    return 0;
-}
-
 int tp_network_add_node(tp_network *net, const char *id, double capacity, double t0)
 {
     int n = net->n_nodes;
@@ -556,7 +538,33 @@ int tp_network_rhs(const tp_network *net, const double *y, double *ydot)
     return isfinite(src) && isfinite(lost) && isfinite(wire) ? 0 : 1;
 }
 
+double tp_network_source_split(const tp_net_source *s, const double *t, double duty, double *pk)
+{
+    return source_eval(s, t, duty, pk, NULL, NULL, NULL, NULL);
+}
+
+/* The secant conductance Q / (T_a - T_b) of a link, with the difference kept at least
+ * TP_SECANT_MIN so laws that vanish at equal temperatures still couple their nodes. */
+#define TP_SECANT_MIN 1.0 /* K */
+static void secant(const tp_net_link *l, double ta, double tb, double *dqa, double *dqb)
+{
+    double dt = ta - tb, q;
+    if (fabs(dt) < TP_SECANT_MIN) {
+        dt = dt < 0 ? -TP_SECANT_MIN : TP_SECANT_MIN;
+        q = tp_network_link_flow(l, tb + dt, tb, NULL, NULL);
+    } else {
+        q = tp_network_link_flow(l, ta, tb, NULL, NULL);
+    }
+    *dqa = q / dt;
+    *dqb = -*dqa;
+}
+
 int tp_network_jacobian(const tp_network *net, const double *y, double *values)
+{
+    return tp_network_jacobian_mode(net, y, values, 0);
+}
+
+int tp_network_jacobian_mode(const tp_network *net, const double *y, double *values, int use_secant)
 {
     double *t = net->work;
     int i, k;
@@ -566,7 +574,10 @@ int tp_network_jacobian(const tp_network *net, const double *y, double *values)
         const tp_net_link *l = &net->links[i];
         const int *sl = net->link_slot[i];
         double dqa, dqb, ca = net->nodes[l->a].capacity, cb = net->nodes[l->b].capacity;
-        tp_network_link_flow(l, t[l->a], t[l->b], &dqa, &dqb);
+        if (use_secant)
+            secant(l, t[l->a], t[l->b], &dqa, &dqb);
+        else
+            tp_network_link_flow(l, t[l->a], t[l->b], &dqa, &dqb);
         if (sl[0] >= 0)
             values[sl[0]] -= dqa / ca;
         if (sl[1] >= 0)
@@ -660,7 +671,7 @@ double tp_network_surface(const tp_network *net, const double *t)
     int i;
     double q = 0.0;
     if (net->top_node < 0)
-        return NAN;
+        return TP_UNSET;
     for (i = 0; i < net->n_links; i++) {
         const tp_net_link *l = &net->links[i];
         if (l->a == net->top_node && (l->path == TP_PATH_TOP_CONV || l->path == TP_PATH_TOP_RAD))

@@ -56,7 +56,7 @@ typedef struct tp_net_link {
     double eps;          /* radiation: effective emissivity */
     double scale;        /* multiplier from losses.*_scale */
     tp_loss_path path;
-    char label[TP_ID_MAX * 2];
+    char label[128];
 } tp_net_link;
 
 typedef enum tp_source_kind { TP_SRC_POWER, TP_SRC_ELECTRIC } tp_source_kind;
@@ -171,6 +171,15 @@ int tp_network_rhs(const tp_network *net, const double *y, double *ydot);
 /* The Jacobian d(dy/dt)/dy at y, written into `values` in the order of the pattern
  * (colptr/rowind). Returns 0, or 1 when a value is not finite. */
 int tp_network_jacobian(const tp_network *net, const double *y, double *values);
+
+/* The same with `use_secant` nonzero: each link's derivative replaced by its secant
+ * conductance Q / dT (robust first iterations of the steady-state solver). */
+int tp_network_jacobian_mode(const tp_network *net, const double *y, double *values,
+                             int use_secant);
+
+/* A source's power split over its nodes at duty `duty` into `pk` (n_nodes of the source);
+ * returns the total, W. */
+double tp_network_source_split(const tp_net_source *s, const double *t, double duty, double *pk);
 
 /* Heat flows at all-node temperatures `t` with the current duties. `f` arrays must be sized
  * (q: n_nodes, src_power and src_wire: n_sources). */

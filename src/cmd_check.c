@@ -1,0 +1,30 @@
+/* tepid check: validate a file and summarise its network in one line. */
+#include <stdio.h>
+
+#include "commands.h"
+#include "report.h"
+#include "session.h"
+
+static const tp_opt check_opts[] = {
+    {NULL, 0, 0, 0, 0, NULL, NULL},
+};
+
+static tp_status run_check(const tp_cli *cli, tp_diag *d)
+{
+    tp_session s;
+    tp_status rc = tp_session_open(&s, cli, d);
+    if (rc != TP_OK)
+        return rc;
+    if (s.text) {
+        fprintf(s.text, "%s: valid (%s form, %d warning%s); ", cli->file,
+                s.desc.form == TP_FORM_RAW ? "raw network" : "physical", d->warnings,
+                d->warnings == 1 ? "" : "s");
+        tp_report_network(s.text, s.net);
+    }
+    tp_session_close(&s);
+    return TP_OK;
+}
+
+const tp_verb tp_verb_check = {
+    "check", run_check, "Validate a file and summarise its network in one line.", 1, check_opts,
+    NULL};

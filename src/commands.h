@@ -1,0 +1,13 @@
+/* The verbs of the command line, one file each (cmd_*.c). */
+#ifndef TP_COMMANDS_H
+#define TP_COMMANDS_H
+
+#include "cli.h"
+
+extern const tp_verb tp_verb_warmup;
+extern const tp_verb tp_verb_steady;
+extern const tp_verb tp_verb_explain;
+extern const tp_verb tp_verb_check;
+extern const tp_verb tp_verb_materials;
+
+#endif

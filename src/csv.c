@@ -1,0 +1,52 @@
+/* CSV output of a run's history, written through an atomic output file. */
+#include "csv.h"
+
+#include <math.h>
+
+#include "outfile.h"
+
+#define TP_KELVIN 273.15 /* K at 0 degC */
+
+void tp_csv_real(FILE *fp, double v)
+{
+    if (isfinite(v))
+        fprintf(fp, TP_REAL_FMT, v);
+}
+
+tp_status tp_csv_write_history(const char *path, const tp_history *h, tp_diag *d)
+{
+    const tp_network *net = h->net;
+    tp_outfile o;
+    long i;
+    int k;
+    tp_status st = tp_outfile_open(&o, path, d);
+    if (st != TP_OK)
+        return st;
+    fputs("time_s", o.fp);
+    for (k = 0; k < h->n_out; k++)
+        fprintf(o.fp, ",%s_C", net->nodes[h->out_nodes[k]].id);
+    for (k = 0; k < net->n_sources; k++)
+        fprintf(o.fp, ",%s_W", net->sources[k].id);
+    if (net->has_control)
+        fputs(",duty,reading_C", o.fp);
+    fputc('\n', o.fp);
+    for (i = 0; i < h->n; i++) {
+        tp_csv_real(o.fp, h->t[i]);
+        for (k = 0; k < h->n_out; k++) {
+            fputc(',', o.fp);
+            tp_csv_real(o.fp, tp_history_temp(h, i, k) - TP_KELVIN);
+        }
+        for (k = 0; k < net->n_sources; k++) {
+            fputc(',', o.fp);
+            tp_csv_real(o.fp, h->power[i * net->n_sources + k]);
+        }
+        if (net->has_control) {
+            fputc(',', o.fp);
+            tp_csv_real(o.fp, h->duty[i]);
+            fputc(',', o.fp);
+            tp_csv_real(o.fp, h->reading[i] - TP_KELVIN);
+        }
+        fputc('\n', o.fp);
+    }
+    return tp_outfile_commit(&o, d);
+}

@@ -1,0 +1,20 @@
+/* CSV output: a header row, then one row per output step (DESIGN.md: time_s, <id>_C for every
+ * node with capacity in declaration order, <source-id>_W, duty and reading_C with a controller). */
+#ifndef TP_CSV_H
+#define TP_CSV_H
+
+#include <stdio.h>
+
+#include "diag.h"
+#include "history.h"
+#include "status.h"
+
+#define TP_REAL_FMT "%.9g" /* the one format for reals in tepid's files */
+
+/* Write the history to `path` ("-" for standard output), atomically. */
+tp_status tp_csv_write_history(const char *path, const tp_history *h, tp_diag *d);
+
+/* Print one real in TP_REAL_FMT (non-finite values as empty cells). */
+void tp_csv_real(FILE *fp, double v);
+
+#endif

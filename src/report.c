@@ -1,0 +1,132 @@
+/* Text summaries and safety cautions. The cautions name their basis: EN ISO 13732-1 for
+ * contact burns, the extra-low-voltage limit for mains, each material's service limit. */
+#include "report.h"
+
+#include <math.h>
+#include <string.h>
+
+#include "materials.h"
+
+#define TP_BURN_LONG 316.15      /* K, 43 degC: burn threshold for contact of 8 h and longer
+                                    (EN ISO 13732-1 Table 1, from memory) */
+#define TP_BURN_SHORT 338.15     /* K, 65 degC: about 1 s contact with bare metal burns
+                                    (EN ISO 13732-1 Fig. 1, from memory) */
+#define TP_ELV_LIMIT 50.0        /* V: above this the supply is treated as hazardous (extra-low
+                                    voltage ends at 50 V AC, IEC 61140; from memory) */
+#define TP_HIGH_CURRENT 10.0     /* A: connectors and wiring deserve a check above this
+                                    (common practice, no source) */
+#define TP_LIMIT_MARGIN 10.0     /* K: "near" a service limit */
+#define TP_DENSITY_FLEX 1.0e4    /* W/m2 (1 W/cm2): flexible silicone/polyimide heaters above
+                                    this need good bonding to a metal plate (common practice,
+                                    no source) */
+
+void tp_fmt_duration(double s, char *buf, size_t size)
+{
+    if (!isfinite(s))
+        snprintf(buf, size, "-");
+    else if (s < 60.0)
+        snprintf(buf, size, "%.1f s", s);
+    else if (s < 3600.0)
+        snprintf(buf, size, "%d min %02d s", (int)(s / 60.0), (int)fmod(s, 60.0));
+    else
+        snprintf(buf, size, "%d h %02d min", (int)(s / 3600.0), (int)fmod(s / 60.0, 60.0));
+}
+
+void tp_report_network(FILE *fp, const tp_network *net)
+{
+    fprintf(fp, "network: %d nodes (%d with capacity), %d links, %d source%s", net->n_nodes,
+            net->n_free, net->n_links, net->n_sources, net->n_sources == 1 ? "" : "s");
+    if (net->has_control) {
+        const tp_control *c = &net->control;
+        fprintf(fp, "; %s control of '%s' reading '%s'", tp_mode_name(c->mode),
+                net->sources[c->source].id, net->nodes[c->sensor].id);
+        if (isfinite(c->setpoint))
+            fprintf(fp, " at %.1f degC", c->setpoint - TP_KELVIN_0C);
+    }
+    fputc('\n', fp);
+}
+
+static double supply_voltage(const tp_network *net)
+{
+    int i;
+    double v = 0.0;
+    for (i = 0; i < net->n_sources; i++)
+        if (net->sources[i].kind == TP_SRC_ELECTRIC && net->sources[i].supply > v)
+            v = net->sources[i].supply;
+    return v;
+}
+
+int tp_report_caution_lines(const tp_desc *desc, const tp_network *net, const tp_exposure *ex,
+                            char lines[][TP_CAUTION_MAX])
+{
+    int n = 0;
+    double v = supply_voltage(net);
+    double hot = isfinite(ex->surface_max) ? ex->surface_max : ex->node_max;
+    if (isfinite(hot) && hot > TP_BURN_LONG) {
+        snprintf(lines[n++], TP_CAUTION_MAX,
+                 "Hot surface: the plate reaches %.0f degC. Skin contact with bare metal above "
+                 "about %.0f degC burns within a second, and above %.0f degC with long contact "
+                 "(EN ISO 13732-1 contact-burn thresholds). Guard or mark the plate, and let it "
+                 "cool before handling.", hot - TP_KELVIN_0C, TP_BURN_SHORT - TP_KELVIN_0C,
+                 TP_BURN_LONG - TP_KELVIN_0C);
+    }
+    if (v > TP_ELV_LIMIT) {
+        snprintf(lines[n++], TP_CAUTION_MAX,
+                 "Mains voltage (%.0f V): installation by a qualified person; protective earth "
+                 "on every accessible metal part, a fuse and a residual-current device, and a "
+                 "non-self-resetting thermal cut-out in series with the heater, independent of "
+                 "the controller. Follow your local electrical codes.", v);
+    } else if (isfinite(ex->current_max) && ex->current_max > TP_HIGH_CURRENT) {
+        snprintf(lines[n++], TP_CAUTION_MAX,
+                 "High current (%.1f A at %.0f V): rate connectors, wiring and the switch for "
+                 "it with margin; a loose crimp at this current is a fire risk.",
+                 ex->current_max, v);
+    }
+    if (desc && desc->form == TP_FORM_PHYSICAL) {
+        size_t i;
+        double hottest = isfinite(ex->node_max) ? ex->node_max : hot;
+        for (i = 0; i < desc->bed.n_layers && n < TP_CAUTIONS_MAX - 2; i++) {
+            const tp_material_spec *m = tp_materials_find(desc, desc->bed.layers[i].material);
+            if (m && isfinite(hottest) && hottest > m->max_temperature - TP_LIMIT_MARGIN) {
+                snprintf(lines[n++], TP_CAUTION_MAX,
+                         "Service limit: layer '%s' (%s) is rated to about %.0f degC and the "
+                         "plate reaches %.0f degC here.", desc->bed.layers[i].id, m->id,
+                         m->max_temperature - TP_KELVIN_0C, hottest - TP_KELVIN_0C);
+            }
+        }
+        if (desc->heater.present && n < TP_CAUTIONS_MAX - 1) {
+            size_t k;
+            for (k = 0; k < desc->bed.n_layers; k++) {
+                const tp_layer *ly = &desc->bed.layers[k];
+                const tp_material_spec *m = tp_materials_find(desc, ly->material);
+                double a, p = desc->heater.power;
+                if (strcmp(ly->id, desc->heater.layer) != 0 || !m)
+                    continue;
+                a = (isfinite(ly->size[0]) ? ly->size[0] : desc->bed.size[0]) *
+                    (isfinite(ly->size[1]) ? ly->size[1] : desc->bed.size[1]);
+                if (!isfinite(p) && isfinite(desc->heater.supply))
+                    p = desc->heater.supply * desc->heater.supply / desc->heater.resistance;
+                if (isfinite(p) && m->conductivity < 1.0 && p / a > TP_DENSITY_FLEX)
+                    snprintf(lines[n++], TP_CAUTION_MAX,
+                             "Heater power density %.2f W/cm2 in a %s layer: above about 1 W/cm2 "
+                             "a flexible heater must be fully bonded to the plate, or it "
+                             "overheats and delaminates.", p / a * 1e-4, m->id);
+            }
+        }
+    }
+    snprintf(lines[n++], TP_CAUTION_MAX,
+             "tepid models no independent over-temperature cut-out. Controller and firmware "
+             "checks do not replace one: fit a thermal fuse or one-shot thermostat on the heated "
+             "part, and never leave a heating plate unattended.");
+    return n;
+}
+
+void tp_report_cautions(FILE *fp, const tp_desc *desc, const tp_network *net,
+                        const tp_exposure *ex)
+{
+    char lines[TP_CAUTIONS_MAX][TP_CAUTION_MAX];
+    int i, n = tp_report_caution_lines(desc, net, ex, lines);
+    fputs("\ncautions:\n", fp);
+    for (i = 0; i < n; i++)
+        fprintf(fp, "  ! %s\n", lines[i]);
+}

@@ -1,0 +1,38 @@
+/* Text summaries: formatting of durations and temperatures, the network line, and the safety
+ * cautions that close every run. */
+#ifndef TP_REPORT_H
+#define TP_REPORT_H
+
+#include <stddef.h>
+#include <stdio.h>
+
+#include "desc.h"
+#include "network.h"
+
+#define TP_KELVIN_0C 273.15 /* K at 0 degC */
+
+/* "6 min 12 s", "1 h 02 min", "45.0 s" into buf. */
+void tp_fmt_duration(double seconds, char *buf, size_t size);
+
+/* One line describing the network: nodes, links, sources, controller. */
+void tp_report_network(FILE *fp, const tp_network *net);
+
+/* What a run saw, for the cautions. Unknown values are NaN. */
+typedef struct tp_exposure {
+    double surface_max;   /* K, hottest working surface */
+    double node_max;      /* K, hottest node of the plate (the heater layer, usually) */
+    double current_max;   /* A drawn by the heater */
+} tp_exposure;
+
+/* The safety cautions that apply to this case (always at least the cut-out line). */
+void tp_report_cautions(FILE *fp, const tp_desc *desc, const tp_network *net,
+                        const tp_exposure *ex);
+
+/* The cautions as separate lines into lines[] (static strings or buf-backed), for JSON;
+ * returns how many. Each line fits in TP_CAUTION_MAX bytes. */
+#define TP_CAUTION_MAX 400
+#define TP_CAUTIONS_MAX 8
+int tp_report_caution_lines(const tp_desc *desc, const tp_network *net, const tp_exposure *ex,
+                            char lines[][TP_CAUTION_MAX]);
+
+#endif

@@ -1,0 +1,30 @@
+/* A verb's session: the config loaded with its overrides, the description, the assembled
+ * network and where the text summary goes. Every verb with a FILE starts here. */
+#ifndef TP_SESSION_H
+#define TP_SESSION_H
+
+#include <stdio.h>
+
+#include "cli.h"
+#include "desc.h"
+#include "diag.h"
+#include "doc.h"
+#include "network.h"
+#include "status.h"
+
+typedef struct tp_session {
+    const tp_cli *cli;
+    tp_doc *doc;
+    tp_desc desc;
+    tp_network *net;
+    FILE *text; /* the summary stream, NULL with -q */
+} tp_session;
+
+/* Load cli->file with the --set overrides, read and assemble it. On failure everything is
+ * released and diagnostics name the file, line, column and key. */
+tp_status tp_session_open(tp_session *s, const tp_cli *cli, tp_diag *d);
+
+/* Release the session. */
+void tp_session_close(tp_session *s);
+
+#endif
