@@ -74,8 +74,8 @@ typedef struct tp_material_spec {
     double conductivity_through; /* W/(m.K) */
     double emissivity;           /* - */
     double max_temperature;      /* K */
-    char source[TP_TEXT_MAX * 3];
-    char note[TP_TEXT_MAX * 2];
+    char source[1024];
+    char note[1024];
 } tp_material_spec;
 
 typedef struct tp_room {

@@ -10,6 +10,8 @@
  *                          (Eqs. 7.30/7.38, Churchill 1977 n = 3), and gray radiation;
  *   edges                  Churchill-Chu vertical plate (Eq. 9.26), height = stack thickness;
  *   mounts                 G = mounts.conductance to the room (or the enclosure walls);
+ *   closed gaps            a layer smaller than both neighbours leaves a gap of its thickness:
+ *                          still-air conduction k_air A / t plus parallel-plate radiation;
  *   enclosure              faces convect to `air`, radiate to `walls` (body in an enclosure,
  *                          Incropera Eq. 13.24 form); air to walls by Churchill-Chu on the wall
  *                          area; walls to room G = U A.
@@ -318,8 +320,8 @@ static void physical_warnings(const tp_desc *desc, const tp_doc *doc, const tp_n
         if (bi > TP_BIOT_LIMIT) {
             snprintf(path, sizeof path, "bed.layers.%zu", i);
             snprintf(hint, sizeof hint,
-                     "its node is an average over the thickness; temperatures inside it differ "
-                     "(the spatial model, bed.grid, resolves the plane)");
+                     "its node is the average over its thickness; to resolve the gradient, "
+                     "split it into thinner layers of the same material");
             tp_diag_warn(d, at(doc, path), path, hint,
                          "layer '%s' (%s) has a Biot number of %.2g > %.1f: it is not isothermal",
                          desc->bed.layers[i].id, m->id, bi, TP_BIOT_LIMIT);
@@ -345,6 +347,7 @@ tp_status tp_plate_lower(const tp_desc *desc, const tp_doc *doc, tp_network *net
 {
     const tp_bed *bed = &desc->bed;
     geom g[TP_MAX_LAYERS];
+    double gap[TP_MAX_LAYERS][2]; /* closed-gap area below [0] and above [1] each layer, m2 */
     size_t i, n = bed->n_layers;
     int room, air = -1, walls = -1, conv_sink, rad_sink;
     double stack = 0.0, tr = desc->room.temperature;
@@ -359,6 +362,7 @@ tp_status tp_plate_lower(const tp_desc *desc, const tp_doc *doc, tp_network *net
         return TP_ERR_CONFIG;
     }
     memset(g, 0, sizeof g);
+    memset(gap, 0, sizeof gap);
     if (lower_layers(desc, doc, net, d, g) != 0)
         return TP_ERR_CONFIG;
     st = lower_sensor(desc, doc, net, d, g);
@@ -378,10 +382,38 @@ tp_status tp_plate_lower(const tp_desc *desc, const tp_doc *doc, tp_network *net
 
     for (i = 0; i < n; i++)
         stack += g[i].t;
+    /* A layer smaller than both neighbours leaves a closed gap of its own thickness between
+     * them: still air conducts across it and the two faces exchange radiation. */
+    for (i = 1; i + 1 < n; i++) {
+        double w = fmin(fmin(g[i - 1].w, g[i + 1].w), g[i].w);
+        double dd = fmin(fmin(g[i - 1].d, g[i + 1].d), g[i].d);
+        double a = overlap(&g[i - 1], &g[i + 1]) - w * dd;
+        tp_air air_gap;
+        tp_net_link *l;
+        if (a <= 1e-12)
+            continue;
+        gap[i - 1][1] = a;
+        gap[i + 1][0] = a;
+        tp_air_props(0.5 * (tr + tp_plate_design_temperature(desc)), desc->room.pressure, &air_gap);
+        l = tp_network_add_link(net, g[i - 1].node, g[i + 1].node, TP_LAW_CONDUCTION);
+        if (!l)
+            return TP_ERR_NOMEM;
+        l->g = air_gap.k * a / g[i].t;
+        snprintf(l->label, sizeof l->label, "%s-%s air gap", bed->layers[i - 1].id,
+                 bed->layers[i + 1].id);
+        l = tp_network_add_link(net, g[i - 1].node, g[i + 1].node, TP_LAW_RADIATION);
+        if (!l)
+            return TP_ERR_NOMEM;
+        l->area = a;
+        l->eps = tp_rad_eps_parallel(g[i - 1].m->emissivity, g[i + 1].m->emissivity);
+        l->scale = desc->losses.radiation_scale;
+        snprintf(l->label, sizeof l->label, "%s-%s gap radiation", bed->layers[i - 1].id,
+                 bed->layers[i + 1].id);
+    }
     for (i = 0; i < n; i++) {
         const char *id = bed->layers[i].id;
-        double up = i + 1 == n ? g[i].area : g[i].area - overlap(&g[i], &g[i + 1]);
-        double down = i == 0 ? g[i].area : g[i].area - overlap(&g[i - 1], &g[i]);
+        double up = (i + 1 == n ? g[i].area : g[i].area - overlap(&g[i], &g[i + 1])) - gap[i][1];
+        double down = (i == 0 ? g[i].area : g[i].area - overlap(&g[i - 1], &g[i])) - gap[i][0];
         double eps_up = g[i].m->emissivity, eps_down = g[i].m->emissivity;
         int is_top = i + 1 == n, is_bottom = i == 0;
         if (is_top && tp_isset(bed->top.emissivity))
