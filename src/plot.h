@@ -1,0 +1,93 @@
+/* Figures: time charts (stacked panels sharing the x axis) and plate heat maps, drawn with
+ * PLplot's cairo driver from plain arrays and written atomically as PNG, SVG or PDF.
+ * PLplot keeps process-wide state: draw figures from one thread only. */
+#ifndef TP_PLOT_H
+#define TP_PLOT_H
+
+#include <stddef.h>
+
+#include "diag.h"
+#include "status.h"
+
+#define TP_PLOT_CHART_WIDTH 1200 /* default chart width, px (PNG) or pt (SVG, PDF) */
+#define TP_PLOT_CHART_HEIGHT 800 /* default chart height, px or pt */
+#define TP_PLOT_MAP_WIDTH 1000   /* default heat-map width, px or pt */
+#define TP_PLOT_MAP_HEIGHT 800   /* default heat-map height, px or pt */
+#define TP_PLOT_SIZE_MIN 200     /* smallest width or height accepted, px or pt */
+#define TP_PLOT_SIZE_MAX 6000    /* largest width or height accepted, px or pt */
+#define TP_PLOT_LABEL_MAX 160    /* longest label drawn, bytes; longer ones are cut */
+#define TP_PLOT_PANELS_MAX 8     /* panels in one chart */
+#define TP_PLOT_LEGEND_MAX 12    /* legend entries per panel; further series get none */
+#define TP_PLOT_CELLS_MAX 250000 /* cells in one heat map (nx * ny) */
+
+/* One curve. Points with a non-finite x or y are skipped (a line breaks there). */
+typedef struct tp_plot_series {
+    const char *label;   /* legend text; NULL: no legend entry */
+    const double *x, *y; /* n points; x in the chart's x unit */
+    size_t n;
+    int dash;       /* 0 solid, 1 dashed, 2 dotted */
+    int markers;    /* nonzero: markers instead of a line (measured data) */
+    int right_axis; /* nonzero: plotted against the panel's right axis (y2label) */
+} tp_plot_series;
+
+/* A horizontal reference line (setpoint, threshold), labelled, on the left axis. */
+typedef struct tp_plot_hline {
+    const char *label;
+    double y;
+} tp_plot_hline;
+
+/* One panel of a chart. */
+typedef struct tp_plot_panel {
+    const char *ylabel, *y2label; /* y2label NULL: no right axis */
+    const tp_plot_series *series;
+    size_t n_series;
+    const tp_plot_hline *hlines;
+    size_t n_hlines;
+    double height_share; /* relative height of this panel; 0 = equal share */
+} tp_plot_panel;
+
+/* A chart: panels stacked vertically (the first on top), sharing the x axis. */
+typedef struct tp_plot_chart {
+    const char *title, *xlabel;
+    const tp_plot_panel *panels;
+    size_t n_panels;
+    int width, height; /* pixels; 0 means TP_PLOT_CHART_WIDTH x TP_PLOT_CHART_HEIGHT */
+} tp_plot_chart;
+
+/* Write `chart` to `path`; the format comes from the extension (.png .svg .pdf, any case).
+ * A PNG is width x height pixels; SVG and PDF pages are width x height points.
+ * Checks the chart first: an unknown extension, missing arrays, a series without points, a
+ * right-axis series in a panel without y2label, a negative or non-finite height share, a size
+ * outside TP_PLOT_SIZE_MIN..TP_PLOT_SIZE_MAX, more than TP_PLOT_PANELS_MAX panels return
+ * TP_ERR_USAGE; a series of more than INT_MAX points is TP_ERR_LIMIT. Non-finite points are
+ * skipped (with a warning); a panel with nothing finite to draw is an error. A height share of 0
+ * counts as 1.
+ * Atomic: PLplot draws into a temporary file beside `path` (tp_outfile_reserve), which is renamed
+ * onto `path` only when drawing succeeded and the file is complete; on any failure (TP_ERR_IO for
+ * drawing and file errors) no file is left and an existing `path` is untouched.
+ * Nothing is written to standard output. Not thread-safe: PLplot state is global. */
+tp_status tp_plot_chart_write(const char *path, const tp_plot_chart *chart, tp_diag *d);
+
+/* A heat map of a plate. */
+typedef struct tp_plot_map {
+    const char *title, *xlabel, *ylabel, *zlabel; /* zlabel: colour-bar label */
+    const double *z;                              /* z[j * nx + i] is cell (i, j) */
+    size_t nx, ny;                                /* i along x, j along y */
+    double x0, x1, y0, y1;                        /* extent of the cells (axis units, e.g. mm) */
+    int contours;                                 /* nonzero: also draw labelled contour lines */
+    const double *mark_x, *mark_y;                /* markers (sensor, hottest, coldest cell) ... */
+    const char *const *mark_label; /* ... with labels (NULL array or entry: no label) */
+    size_t n_marks;
+    int width, height; /* pixels; 0 means TP_PLOT_MAP_WIDTH x TP_PLOT_MAP_HEIGHT */
+} tp_plot_map;
+
+/* Write a heat map with a colour bar and the plate outline (the extent rectangle) to `path`,
+ * with x and y drawn to the same scale. Format, size limits, atomic write and status as for
+ * tp_plot_chart_write. Non-finite cells are left blank (and disable contours, with a warning);
+ * markers off the map (or not finite) are left out with a warning;
+ * a map without any finite cell, an extent that is not finite or has x1 < x0 or y1 < y0 is
+ * TP_ERR_USAGE, more than TP_PLOT_CELLS_MAX cells TP_ERR_LIMIT. An extent of zero width is
+ * widened. The plate keeps its shape unless it is so slender that a side would be unreadable. */
+tp_status tp_plot_map_write(const char *path, const tp_plot_map *map, tp_diag *d);
+
+#endif
