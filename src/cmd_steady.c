@@ -59,7 +59,7 @@ static tp_status run_steady(const tp_cli *cli, tp_diag *d)
     if (rc == TP_OK && tp_cli_get(cli, "json"))
         rc = write_json(tp_cli_get(cli, "json"), s.net, holding ? &hold : &full, d);
     if (rc == TP_OK && s.text) {
-        tp_exposure ex = {TP_UNSET, TP_UNSET, TP_UNSET};
+        tp_exposure ex = {TP_UNSET, TP_UNSET, TP_UNSET, NULL};
         int i;
         const double *shown = holding ? hold.temps : full.temps;
         fprintf(s.text, "tepid steady %s\n  ", cli->file);
@@ -75,6 +75,8 @@ static tp_status run_steady(const tp_cli *cli, tp_diag *d)
             if (s.net->nodes[i].capacity > 0 && (!isfinite(ex.node_max) || shown[i] > ex.node_max))
                 ex.node_max = shown[i];
         ex.surface_max = tp_network_surface(s.net, shown);
+        ex.node_peak = shown;
+        ex.current_max = tp_network_current(s.net, shown);
         tp_report_cautions(s.text, &s.desc, s.net, &ex);
     }
     tp_steady_clear(&full);

@@ -9,5 +9,6 @@ extern const tp_verb tp_verb_steady;
 extern const tp_verb tp_verb_explain;
 extern const tp_verb tp_verb_check;
 extern const tp_verb tp_verb_materials;
+extern const tp_verb tp_verb_tune;
 
 #endif

@@ -44,7 +44,9 @@ double tp_control_tick(const tp_control *c, tp_ctrl_state *s, double reading)
         /* Positional PID: u_k = kp e_k + I_k - kd (y_k - y_{k-1}) / T,
          * I_k = clamp(I_{k-1} + ki T e_k, 0, u_max), u_k clamped to [0, u_max]. */
         e = c->setpoint - reading;
-        s->integral = clamp(s->integral + c->ki * c->period * e, 0.0, c->max_duty);
+        s->integral += c->ki * c->period * e;
+        if (!c->unclamped)
+            s->integral = clamp(s->integral, 0.0, c->max_duty);
         d_term = s->ticks > 0 ? -c->kd * (reading - s->last_reading) / c->period : 0.0;
         u = c->kp * e + s->integral + d_term;
         s->duty = clamp(u, 0.0, c->max_duty);

@@ -31,6 +31,8 @@ typedef struct tp_control {
     double ki;       /* 1/(K.s) */
     double kd;       /* s/K */
     double max_duty; /* upper limit of the output, 0..1 */
+    int unclamped;   /* nonzero: no anti-windup (the integral is not clamped); only for
+                        comparisons, never from a config */
     tp_reading_model reading;
 } tp_control;
 

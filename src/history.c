@@ -27,6 +27,7 @@ void tp_history_clear(tp_history *h)
     free(h->temps);
     free(h->power);
     free(h->wire);
+    free(h->current);
     free(h->duty);
     free(h->reading);
     free(h->surface);
@@ -48,7 +49,7 @@ static int grow(tp_history *h)
     long cap = h->cap ? h->cap * 2 : 1024;
     int ns = h->net->n_sources > 0 ? h->net->n_sources : 1;
     if (grow_array(&h->t, cap, 1) || grow_array(&h->temps, cap, h->n_out > 0 ? h->n_out : 1) ||
-        grow_array(&h->power, cap, ns) || grow_array(&h->wire, cap, 1) ||
+        grow_array(&h->power, cap, ns) || grow_array(&h->wire, cap, 1) || grow_array(&h->current, cap, 1) ||
         grow_array(&h->duty, cap, 1) || grow_array(&h->reading, cap, 1) ||
         grow_array(&h->surface, cap, 1) || grow_array(&h->energy, cap, TP_N_QUAD))
         return -1;
@@ -76,6 +77,7 @@ int tp_history_record(void *user, const tp_sample *s)
             tp_network_source_power(&net->sources[k], s->temps, net->duty[k], &w);
         h->wire[i] += w;
     }
+    h->current[i] = tp_network_current(net, s->temps);
     h->duty[i] = s->duty;
     h->reading[i] = s->reading;
     h->surface[i] = tp_network_surface(net, s->temps);

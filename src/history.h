@@ -16,6 +16,7 @@ typedef struct tp_history {
     double *temps;     /* n x n_out, K */
     double *power;     /* n x n_sources, W delivered */
     double *wire;      /* n: W lost in wiring, all sources */
+    double *current;   /* n: A through the controlled (or first electrical) source when on */
     double *duty;      /* n: the controlled source's duty */
     double *reading;   /* n: K (NaN without a controller) */
     double *surface;   /* n: working-surface estimate, K (NaN for the raw form) */

@@ -193,6 +193,10 @@ void tp_flows_clear(tp_flows *f);
  * h A, radiation eps sigma A (ta^2 + tb^2)(ta + tb); and the coefficient h used (W/(m2.K)). */
 double tp_network_link_conductance(const tp_net_link *l, double ta, double tb, double *h);
 
+/* The current through the controlled source (or the first electrical one) while it is on, at
+ * node temperatures `t`: V / (R(T) + R_series), A. NaN when no source is electrical. */
+double tp_network_current(const tp_network *net, const double *t);
+
 /* The working-surface temperature at node temperatures `t` (K); the top node's temperature
  * when the network has no physical top layer. */
 double tp_network_surface(const tp_network *net, const double *t);

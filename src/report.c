@@ -87,11 +87,13 @@ int tp_report_caution_lines(const tp_desc *desc, const tp_network *net, const tp
         double hottest = isfinite(ex->node_max) ? ex->node_max : hot;
         for (i = 0; i < desc->bed.n_layers && n < TP_CAUTIONS_MAX - 2; i++) {
             const tp_material_spec *m = tp_materials_find(desc, desc->bed.layers[i].material);
-            if (m && isfinite(hottest) && hottest > m->max_temperature - TP_LIMIT_MARGIN) {
+            int node = tp_network_find_node(net, desc->bed.layers[i].id);
+            double peak = ex->node_peak && node >= 0 ? ex->node_peak[node] : hottest;
+            if (m && isfinite(peak) && peak > m->max_temperature - TP_LIMIT_MARGIN) {
                 snprintf(lines[n++], TP_CAUTION_MAX,
-                         "Service limit: layer '%s' (%s) is rated to about %.0f degC and the "
-                         "plate reaches %.0f degC here.", desc->bed.layers[i].id, m->id,
-                         m->max_temperature - TP_KELVIN_0C, hottest - TP_KELVIN_0C);
+                         "Service limit: layer '%s' (%s) is rated to about %.0f degC and "
+                         "reaches %.0f degC here.", desc->bed.layers[i].id, m->id,
+                         m->max_temperature - TP_KELVIN_0C, peak - TP_KELVIN_0C);
             }
         }
         if (desc->heater.present && n < TP_CAUTIONS_MAX - 1) {

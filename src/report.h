@@ -22,6 +22,7 @@ typedef struct tp_exposure {
     double surface_max;   /* K, hottest working surface */
     double node_max;      /* K, hottest node of the plate (the heater layer, usually) */
     double current_max;   /* A drawn by the heater */
+    const double *node_peak; /* per node index, K: the hottest each node got (NULL: unknown) */
 } tp_exposure;
 
 /* The safety cautions that apply to this case (always at least the cut-out line). */

@@ -1,7 +1,8 @@
-/* Metrics from a run's history. */
+/* Metrics from a run's history (definitions in docs/metrics.md). */
 #include "results.h"
 
 #include <math.h>
+#include <string.h>
 
 #include "desc.h"
 
@@ -35,6 +36,23 @@ double tp_first_fall(const double *t, const double *v, long n, long stride, doub
     return TP_UNSET;
 }
 
+double tp_settle_time(const double *t, const double *v, long n, long stride, double target,
+                      double band)
+{
+    long i;
+    if (n <= 0 || fabs(v[(n - 1) * stride] - target) > band)
+        return TP_UNSET;
+    for (i = n - 1; i > 0; i--) {
+        double a = v[(i - 1) * stride], b = v[i * stride];
+        if (fabs(a - target) > band) {
+            /* Interpolate where the series enters the band between samples i-1 and i. */
+            double edge = a > target ? target + band : target - band;
+            return t[i - 1] + (t[i] - t[i - 1]) * (a - edge) / (a - b);
+        }
+    }
+    return t[0];
+}
+
 double tp_series_max(const double *v, long n, long stride)
 {
     long i;
@@ -43,4 +61,102 @@ double tp_series_max(const double *v, long n, long stride)
         if (v[i * stride] > m)
             m = v[i * stride];
     return n > 0 ? m : TP_UNSET;
+}
+
+/* Energy drawn from the supply (delivered plus wiring) at time t, interpolated. */
+static double energy_at(const tp_history *h, double t)
+{
+    long i;
+    const double *e = h->energy;
+    if (!isfinite(t) || h->n == 0)
+        return TP_UNSET;
+    for (i = 1; i < h->n; i++) {
+        if (h->t[i] >= t) {
+            double f = (t - h->t[i - 1]) / (h->t[i] - h->t[i - 1]);
+            double a = e[(i - 1) * TP_N_QUAD + TP_Q_SOURCE] + e[(i - 1) * TP_N_QUAD + TP_Q_WIRE];
+            double b = e[i * TP_N_QUAD + TP_Q_SOURCE] + e[i * TP_N_QUAD + TP_Q_WIRE];
+            return a + f * (b - a);
+        }
+    }
+    return e[(h->n - 1) * TP_N_QUAD + TP_Q_SOURCE] + e[(h->n - 1) * TP_N_QUAD + TP_Q_WIRE];
+}
+
+void tp_metrics_compute(const tp_history *h, const tp_network *net, const tp_steady *hold,
+                        const tp_steady *full, tp_metrics *m)
+{
+    long n = h->n, i;
+    int k, ns = net->n_sources, has_sp;
+    double sum = 0.0;
+    const double u = TP_UNSET;
+    *m = (tp_metrics){.setpoint = u, .t_setpoint = u, .surface_hold = u, .t_surface_ready = u,
+                      .overshoot_reading = u, .overshoot_surface = u, .steady_offset = u,
+                      .lag = u, .energy_to_ready = u, .power_mean = u, .power_peak = u,
+                      .duty_mean = u, .duty_peak = u, .wire_mean = u, .current_peak = u,
+                      .hold_power = u, .hold_duty = u, .air_final = u, .highest_reachable = u,
+                      .not_reached = NULL, .surface_max = u, .node_max = u, .duration = u};
+    if (n == 0)
+        return;
+    m->duration = h->t[n - 1];
+    has_sp = net->has_control && isfinite(net->control.setpoint) &&
+             (net->control.mode == TP_MODE_ONOFF || net->control.mode == TP_MODE_PID);
+    m->setpoint = has_sp ? net->control.setpoint : TP_UNSET;
+
+    /* Power, duty, wiring and current over the run. */
+    m->power_mean = (h->energy[(n - 1) * TP_N_QUAD + TP_Q_SOURCE]) / fmax(m->duration, 1e-300);
+    m->wire_mean = (h->energy[(n - 1) * TP_N_QUAD + TP_Q_WIRE]) / fmax(m->duration, 1e-300);
+    m->power_peak = 0.0;
+    for (i = 0; i < n; i++) {
+        double p = 0.0;
+        for (k = 0; k < ns; k++)
+            p += h->power[i * ns + k];
+        m->power_peak = fmax(m->power_peak, p);
+        sum += h->duty[i];
+    }
+    m->duty_mean = sum / (double)n;
+    m->duty_peak = tp_series_max(h->duty, n, 1);
+    m->current_peak = tp_series_max(h->current, n, 1);
+    m->surface_max = tp_series_max(h->surface, n, 1);
+    for (k = 0; k < h->n_out; k++) {
+        double v = tp_series_max(h->temps + k, n, h->n_out);
+        if (!isfinite(m->node_max) || v > m->node_max)
+            m->node_max = v;
+    }
+    k = tp_network_find_node(net, "air");
+    if (k >= 0 && net->nodes[k].capacity > 0 && tp_history_column(h, k) >= 0)
+        m->air_final = tp_history_temp(h, n - 1, tp_history_column(h, k));
+    if (full && full->temps)
+        m->highest_reachable = full->reading;
+    if (hold && hold->temps) {
+        m->hold_power = hold->power;
+        m->hold_duty = hold->duty;
+        m->surface_hold = tp_network_surface(net, hold->temps);
+        if (isfinite(m->surface_hold))
+            m->steady_offset = hold->reading - m->surface_hold;
+    }
+    if (!has_sp)
+        return;
+
+    /* The reading against the setpoint. */
+    m->t_setpoint = tp_first_rise(h->t, h->reading, n, 1, m->setpoint);
+    m->overshoot_reading = fmax(0.0, tp_series_max(h->reading, n, 1) - m->setpoint);
+    if (!isfinite(m->t_setpoint)) {
+        if (isfinite(m->highest_reachable) && m->highest_reachable < m->setpoint)
+            m->not_reached = "not enough power: at full power the reading levels off below the "
+                             "setpoint";
+        else
+            m->not_reached = "the simulated time is too short for this plate (increase "
+                             "run.duration)";
+    }
+    /* The working surface against its holding value. */
+    if (isfinite(m->surface_hold)) {
+        double s0 = h->surface[0], r0 = h->reading[0];
+        double ts, tr;
+        m->t_surface_ready = tp_settle_time(h->t, h->surface, n, 1, m->surface_hold,
+                                            TP_READY_BAND);
+        m->overshoot_surface = fmax(0.0, m->surface_max - m->surface_hold);
+        m->energy_to_ready = energy_at(h, m->t_surface_ready);
+        ts = tp_first_rise(h->t, h->surface, n, 1, s0 + TP_LAG_FRACTION * (m->surface_hold - s0));
+        tr = tp_first_rise(h->t, h->reading, n, 1, r0 + TP_LAG_FRACTION * (m->setpoint - r0));
+        m->lag = ts - tr;
+    }
 }

@@ -1,9 +1,45 @@
-/* Metrics from a run's history: crossing times, extremes, energy and power statistics. The
- * definitions are in docs/metrics.md. */
+/* Metrics from a run's history: crossing times, readiness of the working surface, overshoot,
+ * lag, energy, power and duty statistics. The definitions are in docs/metrics.md. */
 #ifndef TP_RESULTS_H
 #define TP_RESULTS_H
 
 #include "history.h"
+#include "steady.h"
+
+#define TP_READY_BAND 1.0          /* K: the surface is ready within this of its holding value */
+#define TP_LAG_FRACTION 0.6321205588 /* -, 1 - 1/e: the fraction of the rise used for the lag */
+
+typedef struct tp_metrics {
+    double setpoint;          /* K, NaN without a setpoint */
+    double t_setpoint;        /* s: the reading first reaches the setpoint; NaN: never */
+    double surface_hold;      /* K: working surface at the holding point */
+    double t_surface_ready;   /* s: from here on the surface stays within TP_READY_BAND of
+                                 surface_hold; NaN: not in the simulated time */
+    double overshoot_reading; /* K above the setpoint (0 when none) */
+    double overshoot_surface; /* K above surface_hold (0 when none) */
+    double steady_offset;     /* K: reading minus surface at the holding point */
+    double lag;               /* s: surface crossing minus reading crossing of the same fraction
+                                 (TP_LAG_FRACTION) of their rises; > 0: the surface is behind */
+    double energy_to_ready;   /* J drawn (delivered + wiring) until the surface is ready */
+    double power_mean;        /* W delivered by all sources over the run */
+    double power_peak;        /* W, largest sampled */
+    double duty_mean, duty_peak;
+    double wire_mean;         /* W lost in wiring over the run */
+    double current_peak;      /* A, largest on-current (cold start with a positive tempco) */
+    double hold_power;        /* W at the holding point */
+    double hold_duty;
+    double air_final;         /* K, enclosure air at the end (NaN without an enclosure) */
+    double highest_reachable; /* K, the reading at full power in steady state */
+    const char *not_reached;  /* why the setpoint was not reached, or NULL */
+    double surface_max;       /* K */
+    double node_max;          /* K, hottest node with capacity */
+    double duration;          /* s simulated */
+} tp_metrics;
+
+/* Compute the metrics. `hold` and `full` (the holding point and full-power steady state) may
+ * be NULL when unknown. Never fails: unknown values are NaN. */
+void tp_metrics_compute(const tp_history *h, const tp_network *net, const tp_steady *hold,
+                        const tp_steady *full, tp_metrics *m);
 
 /* The first time the series v (n samples at times t) reaches `level` going up, linearly
  * interpolated between samples; NaN when it never does. */
@@ -11,6 +47,11 @@ double tp_first_rise(const double *t, const double *v, long n, long stride, doub
 
 /* Same for a series going down through `level`. */
 double tp_first_fall(const double *t, const double *v, long n, long stride, double level);
+
+/* The time after which |v - target| <= band holds to the end; NaN when it does not hold at the
+ * last sample. Interpolated at the last exit from the band. */
+double tp_settle_time(const double *t, const double *v, long n, long stride, double target,
+                      double band);
 
 /* The largest value of a strided series. */
 double tp_series_max(const double *v, long n, long stride);

@@ -427,8 +427,9 @@ tp_status tp_steady_full(tp_network *net, double duty_scale, tp_steady *out, tp_
         return TP_ERR_NOMEM;
     }
     for (i = 0; i < net->n_sources; i++) {
+        int controlled = !net->has_control || i == net->control.source;
         saved[i] = net->duty[i];
-        net->duty[i] = duty_scale * net->sources[i].max_duty;
+        net->duty[i] = (controlled ? duty_scale : 1.0) * net->sources[i].max_duty;
     }
     for (i = 0; i < s.nf; i++)
         x[i] = net->nodes[net->free_nodes[i]].t0;

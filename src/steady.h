@@ -16,7 +16,8 @@ typedef struct tp_steady {
     long iterations;
 } tp_steady;
 
-/* Equilibrium with every source at `duty_scale` times its max_duty (1: full power).
+/* Equilibrium with the controlled source at `duty_scale` times its max_duty (1: full power)
+ * and every other source fully on (without a controller, every source at duty_scale).
  * TP_ERR_SOLVER when no steady state exists (heated nodes with no path to a fixed node) or the
  * solver fails; the message says which. The network's duties are restored. */
 tp_status tp_steady_full(tp_network *net, double duty_scale, tp_steady *out, tp_diag *d);
