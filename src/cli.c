@@ -5,6 +5,7 @@
 #include <string.h>
 
 #include "outfile.h"
+#include "plot.h"
 
 const tp_opt tp_common_opts[] = {
     {"set", 0, 1, 1, 0, "KEY=VALUE", "override a config key, e.g. --set heater.power=200W"},
@@ -134,6 +135,9 @@ tp_status tp_cli_parse(const tp_verb *verb, int argc, char **argv, tp_cli *cli, 
         int j;
         if (!cli->args[i].opt->is_output)
             continue;
+        if (cli->args[i].opt->is_output == TP_OUT_FIGURE &&
+            tp_plot_check_path(cli->args[i].value, d) != TP_OK)
+            return TP_ERR_USAGE;
         if (cli->file && (tp_path_same_file(cli->args[i].value, cli->file) ||
                           strcmp(cli->args[i].value, cli->file) == 0)) {
             tp_diag_error(d, tp_loc_none(), NULL, "choose another output name",

@@ -10,12 +10,16 @@
 
 #define TP_CLI_MAX_ARGS 256 /* option occurrences on one command line */
 
+#define TP_OUT_FILE 1   /* tp_opt.is_output: a data file */
+#define TP_OUT_FIGURE 2 /* tp_opt.is_output: a figure (.png .svg .pdf) */
+
 typedef struct tp_opt {
     const char *name;    /* long name without dashes, e.g. "csv" */
     char short_name;     /* e.g. 'q', or 0 */
     int takes_value;     /* 1: --name VALUE (or --name=VALUE) */
     int repeatable;
-    int is_output;       /* the value is an output path (checked against inputs) */
+    int is_output;       /* the value is an output path (checked against inputs);
+                            TP_OUT_FIGURE: a figure, its format checked too */
     const char *metavar; /* e.g. "FILE" */
     const char *help;
 } tp_opt;

@@ -21,7 +21,7 @@ static const tp_opt tune_opts[] = {
                                   "the effective dead time (SIMC 'tight' choice)"},
     {"step", 0, 1, 0, 0, "FRACTION", "duty step of the identification (default 0.1)"},
     {"json", 0, 1, 0, 1, "FILE", "write the model, the gains and the resulting metrics as JSON"},
-    {"plot", 0, 1, 0, 1, "FILE", "draw the warm-up with the suggested gains"},
+    {"plot", 0, 1, 0, TP_OUT_FIGURE, "FILE", "draw the warm-up with the suggested gains"},
     {NULL, 0, 0, 0, 0, NULL, NULL},
 };
 

@@ -19,7 +19,7 @@
 static const tp_opt warmup_opts[] = {
     {"csv", 0, 1, 0, 1, "FILE", "write the history as CSV (- for standard output)"},
     {"json", 0, 1, 0, 1, "FILE", "write the metrics as JSON (- for standard output)"},
-    {"plot", 0, 1, 0, 1, "FILE", "draw temperatures, power and duty (.png, .svg or .pdf)"},
+    {"plot", 0, 1, 0, TP_OUT_FIGURE, "FILE", "draw temperatures, power and duty (.png, .svg or .pdf)"},
     {NULL, 0, 0, 0, 0, NULL, NULL},
 };
 

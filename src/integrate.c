@@ -266,7 +266,8 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
 
     /* Breaks at t = 0 apply before anything else. */
     while (r.hooks && next_break < r.hooks->n_breaks && r.hooks->breaks[next_break] <= 0.0)
-        r.hooks->at_break(r.hooks->user, r.hooks->breaks[next_break++], net);
+        r.hooks->at_break(r.hooks->user, r.hooks->breaks[next_break++], net,
+                          N_VGetArrayPointer(y));
     tick(&r, 0.0, N_VGetArrayPointer(y));
     stats->ticks = net->has_control ? 1 : 0;
     if (emit(&r, 0.0, N_VGetArrayPointer(y)))
@@ -363,7 +364,8 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
             if (restart == 2) {
                 /* Apply every break at this time, then a tick due at the same instant. */
                 while (next_break < r.hooks->n_breaks && r.hooks->breaks[next_break] <= t_restart)
-                    r.hooks->at_break(r.hooks->user, r.hooks->breaks[next_break++], net);
+                    r.hooks->at_break(r.hooks->user, r.hooks->breaks[next_break++], net,
+                                      N_VGetArrayPointer(yi));
                 if (k_tick * period <= t_restart) {
                     tick(&r, (double)k_tick * period, N_VGetArrayPointer(yi));
                     k_tick++;

@@ -26,10 +26,11 @@ typedef int (*tp_output_fn)(void *user, const tp_sample *s);
 typedef struct tp_hooks {
     void *user;
     /* Times at which the network may change (sorted, ascending); at each the driver calls
-     * `at_break`, which may edit link and source parameters, then restarts the integrator. */
+     * `at_break`, which may edit link, node and source parameters and the state vector `y`
+     * (free temperatures then energy totals), then restarts the integrator from `y`. */
     const double *breaks;
     int n_breaks;
-    void (*at_break)(void *user, double t, tp_network *net);
+    void (*at_break)(void *user, double t, tp_network *net, double *y);
     /* Replace the reading the controller sees (a shorted or open sensor). */
     double (*reading)(void *user, double t, double reading);
     /* Replace the duty applied to the controlled source (a stuck switch, an open heater). */

@@ -116,6 +116,11 @@ static const plot_format *format_for(const char *path, tp_diag *d)
     return NULL;
 }
 
+tp_status tp_plot_check_path(const char *path, tp_diag *d)
+{
+    return format_for(path, d) ? TP_OK : TP_ERR_USAGE;
+}
+
 /* The format for writing a `what` (`figure`, may be NULL) to `path` (may be NULL), or NULL with
  * an error reported. */
 static const plot_format *figure_target(const char *path, const void *figure, const char *what,

@@ -54,6 +54,10 @@ typedef struct tp_plot_chart {
     int width, height; /* pixels; 0 means TP_PLOT_CHART_WIDTH x TP_PLOT_CHART_HEIGHT */
 } tp_plot_chart;
 
+/* TP_OK when `path` names a figure format tepid can write (.png .svg .pdf), else
+ * TP_ERR_USAGE with a message. Lets commands refuse a bad name before any work. */
+tp_status tp_plot_check_path(const char *path, tp_diag *d);
+
 /* Write `chart` to `path`; the format comes from the extension (.png .svg .pdf, any case).
  * A PNG is width x height pixels; SVG and PDF pages are width x height points.
  * Checks the chart first: an unknown extension, missing arrays, a series without points, a
