@@ -26,13 +26,58 @@
 #define TP_ATOL_KELVIN 10.0 /* K: absolute tolerance on temperatures is rtol times this */
 #define TP_ATOL_JOULE 1.0   /* J: absolute tolerance on energy totals is rtol times this */
 
+#define TP_JAC_REUSE_DT 0.5   /* K: a Jacobian is reused while no temperature moved more */
+#define TP_JAC_REUSE_DUTY 0.1 /* -, and no duty moved more (duty enters only via tempco) */
+
 typedef struct driver {
     tp_network *net;
     SUNMatrix jac;
     int sparse;
-    double *jvals; /* pattern-ordered Jacobian values */
+    double *jvals;  /* pattern-ordered Jacobian values */
+    double *jy;     /* the state the values were computed at */
+    double *jduty;  /* and the duties */
+    int jvalid;
+    long jreused;
     char cv_msg[512];
 } driver;
+
+/* Whether the cached Jacobian still describes the network at y. CVODE itself keeps a Jacobian
+ * for many steps; across controller restarts (which make CVODE ask again at once) the cached
+ * one is reused while the temperatures and duties have hardly moved. Only Newton's convergence
+ * rate depends on it, never the accuracy of the solution. */
+static int jac_fresh(const driver *dr, const double *y)
+{
+    const tp_network *net = dr->net;
+    int i;
+    if (!dr->jvalid)
+        return 0;
+    for (i = 0; i < net->n_sources; i++)
+        if (fabs(net->duty[i] - dr->jduty[i]) > TP_JAC_REUSE_DUTY)
+            return 0;
+    for (i = 0; i < net->n_free; i++)
+        if (fabs(y[i] - dr->jy[i]) > TP_JAC_REUSE_DT)
+            return 0;
+    return 1;
+}
+
+static int jac_values(driver *dr, const double *y)
+{
+    const tp_network *net = dr->net;
+    int rc;
+    if (jac_fresh(dr, y)) {
+        dr->jreused++;
+        return 0;
+    }
+    rc = tp_network_jacobian(net, y, dr->jvals);
+    if (rc != 0) {
+        dr->jvalid = 0;
+        return rc;
+    }
+    memcpy(dr->jy, y, (size_t)net->n_free * sizeof *y);
+    memcpy(dr->jduty, net->duty, (size_t)net->n_sources * sizeof *net->duty);
+    dr->jvalid = 1;
+    return 0;
+}
 
 static int rhs_cb(realtype t, N_Vector y, N_Vector ydot, void *user)
 {
@@ -52,6 +97,9 @@ static int jac_cb(realtype t, N_Vector y, N_Vector fy, SUNMatrix J, void *user, 
     (void)t1;
     (void)t2;
     (void)t3;
+    rc = jac_values(dr, N_VGetArrayPointer(y));
+    if (rc != 0)
+        return rc;
     if (dr->sparse) {
         /* The pattern never changes; KLU refactors numerically on it. */
         sunindextype *ptr = SUNSparseMatrix_IndexPointers(J);
@@ -61,11 +109,9 @@ static int jac_cb(realtype t, N_Vector y, N_Vector fy, SUNMatrix J, void *user, 
             ptr[col] = net->colptr[col];
         for (k = 0; k < net->nnz; k++)
             ind[k] = net->rowind[k];
-        return tp_network_jacobian(net, N_VGetArrayPointer(y), SUNSparseMatrix_Data(J));
+        memcpy(SUNSparseMatrix_Data(J), dr->jvals, (size_t)net->nnz * sizeof *dr->jvals);
+        return 0;
     }
-    rc = tp_network_jacobian(net, N_VGetArrayPointer(y), dr->jvals);
-    if (rc != 0)
-        return rc;
     SUNMatZero(J);
     for (col = 0; col < tp_network_state_size(net); col++)
         for (k = net->colptr[col]; k < net->colptr[col + 1]; k++)
@@ -286,13 +332,19 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
     }
     dr.sparse = net->n_free > TP_DENSE_MAX;
     stats->sparse = dr.sparse;
+    dr.jvals = malloc((size_t)(net->nnz > 0 ? net->nnz : 1) * sizeof *dr.jvals);
+    dr.jy = malloc((size_t)(net->n_free > 0 ? net->n_free : 1) * sizeof *dr.jy);
+    dr.jduty = malloc((size_t)(net->n_sources > 0 ? net->n_sources : 1) * sizeof *dr.jduty);
+    if (!dr.jvals || !dr.jy || !dr.jduty) {
+        st = TP_ERR_NOMEM;
+        goto done;
+    }
     if (dr.sparse) {
         dr.jac = SUNSparseMatrix(n, n, net->nnz, CSC_MAT, ctx);
         ls = dr.jac ? SUNLinSol_KLU(y, dr.jac, ctx) : NULL;
     } else {
         dr.jac = SUNDenseMatrix(n, n, ctx);
-        dr.jvals = malloc((size_t)(net->nnz > 0 ? net->nnz : 1) * sizeof *dr.jvals);
-        ls = dr.jac && dr.jvals ? SUNLinSol_Dense(y, dr.jac, ctx) : NULL;
+        ls = dr.jac ? SUNLinSol_Dense(y, dr.jac, ctx) : NULL;
     }
     if (!ls || CVodeSetLinearSolver(mem, ls, dr.jac) != CV_SUCCESS ||
         CVodeSetJacFn(mem, jac_cb) != CV_SUCCESS) {
@@ -376,10 +428,18 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
             stats->restarts++;
             t = t_restart;
             N_VScale(1.0, yi, y);
-            if (CVodeReInit(mem, t, y) != CV_SUCCESS ||
-                CVodeSetStopTime(mem, o->t_end) != CV_SUCCESS) {
-                st = fail(d, "restart", t, NULL, dr.cv_msg);
-                goto done;
+            {
+                /* Start again with the last step size (capped at the controller period)
+                 * instead of CVODE's initial-step estimate, which costs evaluations. */
+                double hlast = 0.0;
+                CVodeGetLastStep(mem, &hlast);
+                if (CVodeReInit(mem, t, y) != CV_SUCCESS ||
+                    CVodeSetStopTime(mem, o->t_end) != CV_SUCCESS ||
+                    CVodeSetInitStep(mem, fmin(hlast, period) > 0 ? fmin(hlast, period) : 0.0) !=
+                        CV_SUCCESS) {
+                    st = fail(d, "restart", t, NULL, dr.cv_msg);
+                    goto done;
+                }
             }
             /* An output exactly at the restart time shows the new duty. */
             while (r.next_out < r.n_out && out_time(&r, r.next_out) <= t) {
@@ -432,6 +492,8 @@ done:
     if (ctx)
         SUNContext_Free(&ctx);
     free(dr.jvals);
+    free(dr.jy);
+    free(dr.jduty);
     free(r.temps);
     return st;
 }
