@@ -1,4 +1,6 @@
-/* tepid steady: the equilibrium at full power and, with a controller, the holding point. */
+/* tepid steady: the holding point and where its watts go, the highest reachable temperatures
+ * at full power and at the firmware's duty limit, the power margin, and the reading-to-surface
+ * offset; --room answers "what if the room is colder". */
 #include <math.h>
 #include <stdio.h>
 #include <string.h>
@@ -10,34 +12,177 @@
 #include "steady.h"
 
 static const tp_opt steady_opts[] = {
-    {"json", 0, 1, 0, 1, "FILE", "write nodes_C and power_W as JSON (- for standard output)"},
+    {"json", 0, 1, 0, TP_OUT_FILE, "FILE", "write the results as JSON (- for standard output)"},
+    {"room", 0, 1, 0, 0, "TEMP", "solve for this room temperature instead (e.g. 12degC)"},
     {NULL, 0, 0, 0, 0, NULL, NULL},
 };
 
-static void print_temps(FILE *fp, const tp_network *net, const double *temps)
+typedef struct answer {
+    int holding;          /* a controller with a setpoint */
+    tp_steady full;       /* duty 1: the hardware's full power */
+    tp_steady limit;      /* duty max_duty: the firmware's limit (same as full when 1) */
+    tp_steady hold;       /* the holding point (holding only) */
+    tp_flows flows;       /* at the holding point, or at full power without a controller */
+    double max_duty;
+} answer;
+
+static double surface_or_nan(const tp_network *net, const double *t)
+{
+    return tp_network_surface(net, t);
+}
+
+static tp_status solve(tp_network *net, answer *a, tp_diag *d)
+{
+    tp_status st;
+    const tp_steady *shown;
+    int src = net->has_control ? net->control.source : -1;
+    a->max_duty = src >= 0 ? net->sources[src].max_duty : 1.0;
+    a->holding = net->has_control && isfinite(net->control.setpoint) &&
+                 (net->control.mode == TP_MODE_ONOFF || net->control.mode == TP_MODE_PID);
+    st = tp_steady_full(net, 1.0 / a->max_duty, &a->full, d);
+    if (st == TP_OK)
+        st = tp_steady_full(net, 1.0, &a->limit, d);
+    if (st == TP_OK && a->holding)
+        st = tp_steady_hold(net, &a->hold, d);
+    if (st != TP_OK)
+        return st;
+    shown = a->holding ? &a->hold : &a->limit;
+    st = tp_flows_init(&a->flows, net);
+    if (st != TP_OK)
+        return st;
+    if (src >= 0) {
+        double saved = net->duty[src];
+        net->duty[src] = shown->duty;
+        tp_network_flows(net, shown->temps, &a->flows);
+        net->duty[src] = saved;
+    } else {
+        tp_network_flows(net, shown->temps, &a->flows);
+    }
+    return TP_OK;
+}
+
+static double plate_loss_total(const tp_flows *f)
+{
+    int p;
+    double sum = 0.0;
+    for (p = TP_PATH_INTERNAL + 1; p < TP_PATH_COUNT; p++)
+        if (p != TP_PATH_WALLS)
+            sum += f->path[p];
+    return sum;
+}
+
+static void print_nodes(FILE *fp, const tp_network *net, const double *t)
 {
     int i;
     for (i = 0; i < net->n_nodes; i++)
         if (net->nodes[i].capacity > 0)
-            fprintf(fp, "    %-16s %8.2f degC\n", net->nodes[i].id, temps[i] - TP_KELVIN_0C);
+            fprintf(fp, "    %-16s %8.2f degC\n", net->nodes[i].id, t[i] - TP_KELVIN_0C);
 }
 
-static tp_status write_json(const char *path, const tp_network *net, const tp_steady *s,
-                            tp_diag *d)
+static void print_reach(FILE *fp, const tp_network *net, const char *what, const tp_steady *s)
 {
-    cJSON *root = cJSON_CreateObject(), *nodes;
-    tp_status st;
+    double surf = surface_or_nan(net, s->temps);
+    fprintf(fp, "  %-26s %.1f W:", what, s->power);
+    if (net->has_control)
+        fprintf(fp, " reading %.1f degC", s->reading - TP_KELVIN_0C);
+    if (isfinite(surf))
+        fprintf(fp, ", surface %.1f degC", surf - TP_KELVIN_0C);
+    fputc('\n', fp);
+}
+
+static void summary(FILE *fp, const tp_session *s, const answer *a)
+{
+    const tp_network *net = s->net;
+    const tp_steady *shown = a->holding ? &a->hold : &a->limit;
+    double total = plate_loss_total(&a->flows), surf = surface_or_nan(net, shown->temps);
+    tp_exposure ex = {TP_UNSET, TP_UNSET, TP_UNSET, NULL};
+    int p, i;
+    fprintf(fp, "tepid steady %s%s%s\n  ", s->cli->file, s->desc.title[0] ? ": " : "",
+            s->desc.title);
+    tp_report_network(fp, net);
+    if (a->holding) {
+        fprintf(fp, "\n  holding %.1f degC (reading): %.2f W at duty %.3f\n",
+                net->control.setpoint - TP_KELVIN_0C, a->hold.power, a->hold.duty);
+        fprintf(fp, "  power margin (available at max duty / holding): %.2f\n",
+                a->max_duty / a->hold.duty);
+        if (isfinite(surf))
+            fprintf(fp, "  working surface %.2f degC: the reading is %+.2f K from the surface\n",
+                    surf - TP_KELVIN_0C, a->hold.reading - surf);
+        if (a->hold.wire > 0)
+            fprintf(fp, "  wiring loss %.2f W\n", a->hold.wire);
+    }
+    fprintf(fp, "\n  where the %s goes:\n", a->holding ? "holding power" : "full power");
+    for (p = TP_PATH_INTERNAL + 1; p < TP_PATH_COUNT; p++) {
+        if (p == TP_PATH_WALLS || fabs(a->flows.path[p]) < 1e-12)
+            continue;
+        fprintf(fp, "    %-18s %8.2f W %6.1f %%\n", tp_loss_path_name((tp_loss_path)p),
+                a->flows.path[p], total != 0 ? 100.0 * a->flows.path[p] / total : 0.0);
+    }
+    fprintf(fp, "    %-18s %8.2f W\n", "total", total);
+    if (fabs(a->flows.path[TP_PATH_WALLS]) > 0)
+        fprintf(fp, "    (%.2f W leave the enclosure through its walls)\n",
+                a->flows.path[TP_PATH_WALLS]);
+    fputs("\n  steady temperatures:\n", fp);
+    print_nodes(fp, net, shown->temps);
+    fputs("\n  highest reachable:\n", fp);
+    if (a->max_duty < 1.0)
+        print_reach(fp, net, "at the duty limit", &a->limit);
+    print_reach(fp, net, "at full power", &a->full);
+    for (i = 0; i < net->n_nodes; i++)
+        if (net->nodes[i].capacity > 0 && (!isfinite(ex.node_max) || shown->temps[i] > ex.node_max))
+            ex.node_max = shown->temps[i];
+    ex.surface_max = surf;
+    ex.node_peak = shown->temps;
+    ex.current_max = tp_network_current(net, shown->temps);
+    tp_report_cautions(fp, &s->desc, net, &ex);
+}
+
+static void put_reach(cJSON *root, const char *name, const tp_network *net, const tp_steady *s)
+{
+    cJSON *o = cJSON_AddObjectToObject(root, name), *nodes;
     int i;
+    if (!o)
+        return;
+    tp_json_number(o, "power_W", s->power);
+    tp_json_number(o, "duty", s->duty);
+    tp_json_number(o, "reading", s->reading - TP_KELVIN_0C);
+    tp_json_number(o, "surface", surface_or_nan(net, s->temps) - TP_KELVIN_0C);
+    nodes = cJSON_AddObjectToObject(o, "nodes");
+    for (i = 0; nodes && i < net->n_nodes; i++)
+        if (net->nodes[i].capacity > 0)
+            tp_json_number(nodes, net->nodes[i].id, s->temps[i] - TP_KELVIN_0C);
+}
+
+static tp_status write_json(const char *path, const tp_network *net, const answer *a, tp_diag *d)
+{
+    const tp_steady *shown = a->holding ? &a->hold : &a->limit;
+    cJSON *root = cJSON_CreateObject(), *nodes, *losses;
+    tp_status st;
+    int i, p;
     if (!root)
         return TP_ERR_NOMEM;
     nodes = cJSON_AddObjectToObject(root, "nodes_C");
     for (i = 0; nodes && i < net->n_nodes; i++)
         if (net->nodes[i].capacity > 0)
-            tp_json_number(nodes, net->nodes[i].id, s->temps[i] - TP_KELVIN_0C);
-    tp_json_number(root, "power_W", s->power);
+            tp_json_number(nodes, net->nodes[i].id, shown->temps[i] - TP_KELVIN_0C);
+    tp_json_number(root, "power_W", shown->power);
     if (net->has_control)
-        tp_json_number(root, "duty", s->duty);
-    st = nodes ? tp_json_write(path, root, d) : TP_ERR_NOMEM;
+        tp_json_number(root, "duty", shown->duty);
+    losses = cJSON_AddObjectToObject(root, "losses_W");
+    for (p = TP_PATH_INTERNAL + 1; losses && p < TP_PATH_COUNT; p++)
+        if (fabs(a->flows.path[p]) > 0)
+            tp_json_number(losses, tp_loss_path_name((tp_loss_path)p), a->flows.path[p]);
+    put_reach(root, "max_C", net, &a->limit);
+    if (a->max_duty < 1.0)
+        put_reach(root, "max_full_duty_C", net, &a->full);
+    if (a->holding) {
+        double surf = surface_or_nan(net, a->hold.temps);
+        tp_json_number(root, "margin", a->max_duty / a->hold.duty);
+        tp_json_number(root, "surface_C", surf - TP_KELVIN_0C);
+        tp_json_number(root, "offset_K", a->hold.reading - surf);
+        tp_json_number(root, "wiring_loss_W", a->hold.wire);
+    }
+    st = nodes && losses ? tp_json_write(path, root, d) : TP_ERR_NOMEM;
     cJSON_Delete(root);
     return st;
 }
@@ -45,49 +190,29 @@ static tp_status write_json(const char *path, const tp_network *net, const tp_st
 static tp_status run_steady(const tp_cli *cli, tp_diag *d)
 {
     tp_session s;
-    tp_steady full, hold;
-    tp_status rc = tp_session_open(&s, cli, d);
-    int holding;
-    memset(&hold, 0, sizeof hold);
+    answer a;
+    tp_status rc;
+    memset(&a, 0, sizeof a);
+    rc = tp_session_open_room(&s, cli, tp_cli_get(cli, "room"), d);
     if (rc != TP_OK)
         return rc;
-    holding = s.net->has_control && isfinite(s.net->control.setpoint) &&
-              (s.net->control.mode == TP_MODE_ONOFF || s.net->control.mode == TP_MODE_PID);
-    rc = tp_steady_full(s.net, 1.0, &full, d);
-    if (rc == TP_OK && holding)
-        rc = tp_steady_hold(s.net, &hold, d);
+    rc = solve(s.net, &a, d);
     if (rc == TP_OK && tp_cli_get(cli, "json"))
-        rc = write_json(tp_cli_get(cli, "json"), s.net, holding ? &hold : &full, d);
-    if (rc == TP_OK && s.text) {
-        tp_exposure ex = {TP_UNSET, TP_UNSET, TP_UNSET, NULL};
-        int i;
-        const double *shown = holding ? hold.temps : full.temps;
-        fprintf(s.text, "tepid steady %s\n  ", cli->file);
-        tp_report_network(s.text, s.net);
-        fprintf(s.text, "  at full power (%.1f W):\n", full.power);
-        print_temps(s.text, s.net, full.temps);
-        if (holding) {
-            fprintf(s.text, "  holding the setpoint %.1f degC: %.2f W at duty %.3f\n",
-                    s.net->control.setpoint - TP_KELVIN_0C, hold.power, hold.duty);
-            print_temps(s.text, s.net, hold.temps);
-        }
-        for (i = 0; i < s.net->n_nodes; i++)
-            if (s.net->nodes[i].capacity > 0 && (!isfinite(ex.node_max) || shown[i] > ex.node_max))
-                ex.node_max = shown[i];
-        ex.surface_max = tp_network_surface(s.net, shown);
-        ex.node_peak = shown;
-        ex.current_max = tp_network_current(s.net, shown);
-        tp_report_cautions(s.text, &s.desc, s.net, &ex);
-    }
-    tp_steady_clear(&full);
-    tp_steady_clear(&hold);
+        rc = write_json(tp_cli_get(cli, "json"), s.net, &a, d);
+    if (rc == TP_OK && s.text)
+        summary(s.text, &s, &a);
+    tp_flows_clear(&a.flows);
+    tp_steady_clear(&a.full);
+    tp_steady_clear(&a.limit);
+    tp_steady_clear(&a.hold);
     tp_session_close(&s);
     return rc;
 }
 
 const tp_verb tp_verb_steady = {
-    "steady", run_steady, "Find the steady state at full power and the holding power.", 1,
-    steady_opts,
-    "Solves for the equilibrium with KINSOL. With an on-off or PID controller, also finds the\n"
-    "power that holds the sensor at the setpoint. Exits 1 when no steady state exists or the\n"
-    "setpoint is out of reach at full power."};
+    "steady", run_steady, "Holding power, where the watts go, and the highest reachable "
+                          "temperatures.", 1, steady_opts,
+    "Solves the steady states with KINSOL: the holding point (the duty that keeps the reading\n"
+    "at the setpoint) with its loss split by path, and the equilibria at full power and at\n"
+    "heater.max_duty. Without a controller, the full-power state. --room solves for another\n"
+    "room temperature. Exits 1 when no steady state exists or the setpoint is out of reach."};

@@ -253,6 +253,32 @@ static const key losses_keys[] = {
 };
 static const section losses_sec = {losses_keys, N(losses_keys)};
 
+static const key supply_keys[] = {
+    QTY(tp_supply_spec, voltage, "voltage", TP_DIM_VOLTAGE, F_REQ | F_POS, 1000, too_big),
+    QTY(tp_supply_spec, power, "power", TP_DIM_POWER, F_POS, 1e5, too_big),
+    QTY(tp_supply_spec, current, "current", TP_DIM_CURRENT, F_POS, 1000, too_big),
+    QTY(tp_supply_spec, efficiency, "efficiency", TP_DIM_NONE, F_FRAC, 0, NULL),
+    QTY(tp_supply_spec, output_resistance, "output_resistance", TP_DIM_RESISTANCE, F_NONNEG, 100,
+        too_big),
+};
+static const section supply_sec = {supply_keys, N(supply_keys)};
+
+static const key load_keys[] = {
+    ID(tp_load, id, "id", F_REQ),
+    QTY(tp_load, power, "power", TP_DIM_POWER, F_NONNEG, 1e5, too_big),
+    QTY(tp_load, current, "current", TP_DIM_CURRENT, F_NONNEG, 1000, too_big),
+};
+static const section load_sec = {load_keys, N(load_keys)};
+
+static const key wiring_keys[] = {
+    QTY(tp_wiring, cross_section, "cross_section", TP_DIM_AREA, F_POS, 1e-3, too_big),
+    QTY(tp_wiring, awg, "awg", TP_DIM_NONE, F_INT, 40, "AWG numbers run from 0000 (-3) to 40"),
+    QTY(tp_wiring, length, "length", TP_DIM_LENGTH, F_REQ | F_POS, 100, too_big),
+    QTY(tp_wiring, switch_resistance, "switch_resistance", TP_DIM_RESISTANCE, F_NONNEG, 100,
+        too_big),
+};
+static const section wiring_sec = {wiring_keys, N(wiring_keys)};
+
 static const key top_keys[] = {
     TEXT(tp_desc, title, "title"),
     MAP(tp_desc, network, "network", network_sec, F_PRESENT),
@@ -266,6 +292,9 @@ static const key top_keys[] = {
     MAP(tp_desc, control, "control", control_sec, F_PRESENT),
     MAP(tp_desc, run, "run", run_sec, 0),
     MAP(tp_desc, losses, "losses", losses_sec, 0),
+    MAP(tp_desc, supply, "supply", supply_sec, F_PRESENT),
+    LIST(tp_desc, loads, n_loads, tp_load, "loads", load_sec, 0, 64),
+    MAP(tp_desc, wiring, "wiring", wiring_sec, F_PRESENT),
 };
 static const section top_sec = {top_keys, N(top_keys)};
 

@@ -183,6 +183,30 @@ typedef struct tp_losses {
     double radiation_scale;  /* -, multiplies every radiation exchange */
 } tp_losses;
 
+/* The supply, other loads and wiring, for the power budget. */
+typedef struct tp_supply_spec {
+    int present;
+    double voltage;           /* V, nominal output */
+    double power;             /* W, rated output (or current) */
+    double current;           /* A, rated output */
+    double efficiency;        /* -, output / input */
+    double output_resistance; /* ohm */
+} tp_supply_spec;
+
+typedef struct tp_load {
+    char id[TP_ID_MAX];
+    double power;   /* W (or current) */
+    double current; /* A */
+} tp_load;
+
+typedef struct tp_wiring {
+    int present;
+    double cross_section;     /* m2 of copper per conductor (or awg) */
+    double awg;               /* American Wire Gauge number */
+    double length;            /* m, one way from the supply to the heater */
+    double switch_resistance; /* ohm, on-resistance of the switching element */
+} tp_wiring;
+
 typedef struct tp_desc {
     tp_form form;
     char title[TP_TEXT_MAX];
@@ -197,6 +221,10 @@ typedef struct tp_desc {
     tp_control_spec control;
     tp_run run;
     tp_losses losses;
+    tp_supply_spec supply;
+    tp_load *loads;
+    size_t n_loads;
+    tp_wiring wiring;
 } tp_desc;
 
 /* Name of a control mode as written in configs ("on-off"); defined in config.c. */

@@ -10,7 +10,8 @@
 #include "units.h"
 
 static const tp_verb *const verbs[] = {
-    &tp_verb_warmup, &tp_verb_steady, &tp_verb_tune, &tp_verb_explain, &tp_verb_check,
+    &tp_verb_warmup, &tp_verb_steady, &tp_verb_budget, &tp_verb_tune, &tp_verb_explain,
+    &tp_verb_check,
     &tp_verb_materials,
 };
 #define N_VERBS (sizeof verbs / sizeof verbs[0])
@@ -78,6 +79,7 @@ static int run(int argc, char **argv)
         tp_cli_help(verb, stdout);
         return TP_EXIT_OK;
     }
+    d.quiet = tp_cli_flag(&cli, "quiet");
     st = verb->run(&cli, &d);
     return tp_status_exit_code(st);
 }

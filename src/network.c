@@ -645,16 +645,14 @@ void tp_network_flows(const tp_network *net, const double *t, tp_flows *f)
         int fa = net->nodes[l->a].state < 0, fb = net->nodes[l->b].state < 0;
         f->q[l->a] -= q;
         f->q[l->b] += q;
-        if (fb && !fa) {
+        if (fb && !fa)
             f->lost += q;
-            f->path[l->path] += q;
-        } else if (fa && !fb) {
+        else if (fa && !fb)
             f->lost -= q;
-            f->path[l->path] -= q;
-        } else if (l->path != TP_PATH_INTERNAL && !fa && !fb) {
-            /* A loss path between free nodes (plate to enclosure air): still counted. */
-            f->path[l->path] += q;
-        }
+        /* Loss paths point away from the plate: the surface is `a`, except in raw links that
+         * name the fixed node first. */
+        if (l->path != TP_PATH_INTERNAL)
+            f->path[l->path] += (fa && !fb) ? -q : q;
     }
     for (i = 0; i < net->n_sources; i++) {
         const tp_net_source *s = &net->sources[i];

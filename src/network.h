@@ -111,7 +111,9 @@ typedef struct tp_flows {
     double *src_power;  /* n_sources: delivered into nodes, W */
     double *src_wire;   /* n_sources: lost in wiring, W */
     double lost;        /* W into fixed nodes */
-    double path[TP_PATH_COUNT]; /* W leaving the free nodes by each loss path */
+    double path[TP_PATH_COUNT]; /* W by each loss path, pointing away from the plate. The plate
+                                   paths (all but TP_PATH_WALLS) sum to the power at steady
+                                   state; with an enclosure TP_PATH_WALLS is what leaves it */
 } tp_flows;
 
 /* An empty network; add nodes, links, sources, then tp_network_finish. */

@@ -8,23 +8,48 @@
 
 #define TP_MAX_SETS 128 /* --set options on one command line */
 
-tp_status tp_session_open(tp_session *s, const tp_cli *cli, tp_diag *d)
+static tp_status open_with(tp_session *s, const tp_cli *cli, const char *room, tp_diag *d)
 {
-    const char *sets[TP_MAX_SETS];
-    int n_sets = tp_cli_all(cli, "set", sets, TP_MAX_SETS);
+    const char *sets[TP_MAX_SETS + 1];
+    int n_sets = tp_cli_all(cli, "set", sets, TP_MAX_SETS), i;
+    char room_set[160];
     tp_status st;
     memset(s, 0, sizeof *s);
     s->cli = cli;
     s->text = tp_cli_text_stream(cli);
-    st = tp_config_load(cli->file, sets, n_sets, &s->doc, &s->desc, d);
+    st = tp_doc_load_file(cli->file, &s->doc, d);
     if (st != TP_OK)
         return st;
+    if (room) {
+        int raw = s->doc->root && tp_doc_get(s->doc->root, "network") != NULL;
+        snprintf(room_set, sizeof room_set, "%s=%s",
+                 raw ? "network.nodes.room.fixed" : "room.temperature", room);
+        sets[n_sets++] = room_set;
+    }
+    for (i = 0; i < n_sets && st == TP_OK; i++)
+        st = tp_doc_set(s->doc, sets[i], d);
+    if (st == TP_OK)
+        st = tp_config_read(s->doc, &s->desc, d);
+    if (st != TP_OK) {
+        tp_doc_destroy(&s->doc);
+        return st == TP_ERR_USAGE ? TP_ERR_CONFIG : st;
+    }
     st = tp_assemble(&s->desc, s->doc, d, &s->net);
     if (st != TP_OK) {
         tp_session_close(s);
         return st;
     }
     return TP_OK;
+}
+
+tp_status tp_session_open(tp_session *s, const tp_cli *cli, tp_diag *d)
+{
+    return open_with(s, cli, NULL, d);
+}
+
+tp_status tp_session_open_room(tp_session *s, const tp_cli *cli, const char *room, tp_diag *d)
+{
+    return open_with(s, cli, room, d);
 }
 
 void tp_session_close(tp_session *s)
