@@ -301,7 +301,9 @@ static void physical_warnings(const tp_desc *desc, const tp_doc *doc, const tp_n
             for (k = 0; k < net->n_links; k++) {
                 const tp_net_link *l = &net->links[k];
                 double hh;
-                if (l->a != g[i].node || l->law == TP_LAW_CONDUCTION)
+                /* Gap links between two layers are internal: not a surface loss. */
+                if (l->a != g[i].node || l->law == TP_LAW_CONDUCTION ||
+                    l->path == TP_PATH_INTERNAL)
                     continue;
                 tp_network_link_conductance(l, td, tr, &hh);
                 if (l->law == TP_LAW_CONVECTION)
