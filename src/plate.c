@@ -350,6 +350,7 @@ tp_status tp_plate_lower(const tp_desc *desc, const tp_doc *doc, tp_network *net
     const tp_bed *bed = &desc->bed;
     geom g[TP_MAX_LAYERS];
     double gap[TP_MAX_LAYERS][2]; /* closed-gap area below [0] and above [1] each layer, m2 */
+    int inside[TP_MAX_LAYERS];    /* 1: the layer lies within a closed gap, edges unexposed */
     size_t i, n = bed->n_layers;
     int room, air = -1, walls = -1, conv_sink, rad_sink;
     double stack = 0.0, tr = desc->room.temperature;
@@ -365,6 +366,7 @@ tp_status tp_plate_lower(const tp_desc *desc, const tp_doc *doc, tp_network *net
     }
     memset(g, 0, sizeof g);
     memset(gap, 0, sizeof gap);
+    memset(inside, 0, sizeof inside);
     if (lower_layers(desc, doc, net, d, g) != 0)
         return TP_ERR_CONFIG;
     st = lower_sensor(desc, doc, net, d, g);
@@ -396,6 +398,9 @@ tp_status tp_plate_lower(const tp_desc *desc, const tp_doc *doc, tp_network *net
             continue;
         gap[i - 1][1] = a;
         gap[i + 1][0] = a;
+        /* Within both neighbours' plan, its edges face the gap, not the room. */
+        inside[i] = g[i].w <= fmin(g[i - 1].w, g[i + 1].w) &&
+                    g[i].d <= fmin(g[i - 1].d, g[i + 1].d);
         tp_air_props(0.5 * (tr + tp_plate_design_temperature(desc)), desc->room.pressure, &air_gap);
         l = tp_network_add_link(net, g[i - 1].node, g[i + 1].node, TP_LAW_CONDUCTION);
         if (!l)
@@ -430,11 +435,13 @@ tp_status tp_plate_lower(const tp_desc *desc, const tp_doc *doc, tp_network *net
                      0.0, eps_down, desc, TP_PATH_BOTTOM_CONV, TP_PATH_BOTTOM_RAD, id) != 0)
             return TP_ERR_NOMEM;
         snprintf(label, sizeof label, "%s edges", id);
-        if (!add_conv(net, g[i].node, conv_sink, 2.0 * (g[i].w + g[i].d) * g[i].t,
+        if (!inside[i] &&
+            !add_conv(net, g[i].node, conv_sink, 2.0 * (g[i].w + g[i].d) * g[i].t,
                       TP_FACE_VERTICAL, stack, 0.0, 0.0, desc, TP_PATH_EDGE, label))
             return TP_ERR_NOMEM;
         snprintf(label, sizeof label, "%s edges radiation", id);
-        if (!add_rad(net, g[i].node, rad_sink, 2.0 * (g[i].w + g[i].d) * g[i].t,
+        if (!inside[i] &&
+            !add_rad(net, g[i].node, rad_sink, 2.0 * (g[i].w + g[i].d) * g[i].t,
                      g[i].m->emissivity, desc, TP_PATH_EDGE, label))
             return TP_ERR_NOMEM;
         if (i + 1 < n) {
