@@ -59,6 +59,21 @@ static tp_loc at(const tp_doc *doc, const char *path)
     return n ? tp_doc_loc(n) : (tp_loc){doc ? doc->file : NULL, 0, 0};
 }
 
+/* The config path of layer i, "bed.layers.<id>" (or its index when an earlier layer has the
+ * same id), with ".key" appended when `key` is not NULL: the form config.c uses in messages. */
+static void layer_path(const tp_desc *desc, size_t i, const char *key, char *out, size_t size)
+{
+    const tp_layer *ly = desc->bed.layers;
+    size_t j;
+    int unique = 1;
+    for (j = 0; j < i; j++)
+        unique &= strcmp(ly[j].id, ly[i].id) != 0;
+    if (unique)
+        snprintf(out, size, "bed.layers.%s%s%s", ly[i].id, key ? "." : "", key ? key : "");
+    else
+        snprintf(out, size, "bed.layers.%zu%s%s", i, key ? "." : "", key ? key : "");
+}
+
 double tp_plate_design_temperature(const tp_desc *desc)
 {
     if (desc->control.present && tp_isset(desc->control.setpoint) &&
@@ -150,7 +165,7 @@ static int lower_layers(const tp_desc *desc, const tp_doc *doc, tp_network *net,
                               "the layer id '%s' is reserved", ly->id);
         g[i].m = tp_materials_find(desc, ly->material);
         if (!g[i].m) {
-            snprintf(path, sizeof path, "bed.layers.%zu.material", i);
+            layer_path(desc, i, "material", path, sizeof path);
             tp_materials_hint(desc, ly->material, hint, sizeof hint);
             tp_diag_error(d, at(doc, path), path, hint, "unknown material '%s'", ly->material);
             continue;
@@ -160,7 +175,7 @@ static int lower_layers(const tp_desc *desc, const tp_doc *doc, tp_network *net,
         g[i].t = ly->thickness;
         g[i].area = g[i].w * g[i].d;
         if (g[i].t >= fmin(g[i].w, g[i].d)) {
-            snprintf(path, sizeof path, "bed.layers.%zu.thickness", i);
+            layer_path(desc, i, "thickness", path, sizeof path);
             tp_diag_error(d, at(doc, path), path,
                           "a layer of a plate is thinner than it is wide; check the units",
                           "layer '%s' is thicker (%g mm) than its plan size (%g x %g mm)", ly->id,
@@ -169,6 +184,15 @@ static int lower_layers(const tp_desc *desc, const tp_doc *doc, tp_network *net,
     }
     if (d->errors != errors0)
         return d->errors - errors0;
+    if (tp_isset(bed->layers[0].contact)) {
+        char path[128];
+        layer_path(desc, 0, "contact", path, sizeof path);
+        tp_diag_warn(d, at(doc, path), path,
+                     "contact belongs to the upper layer of an interface; mounts: {conductance} "
+                     "couples the bottom layer to the frame",
+                     "the bottom layer '%s' has no layer below; its contact is ignored",
+                     bed->layers[0].id);
+    }
     for (i = 0; i < bed->n_layers; i++) {
         double c = g[i].m->density * g[i].m->specific_heat * g[i].area * g[i].t;
         g[i].node = tp_network_add_node(net, bed->layers[i].id, c, desc->room.temperature);
@@ -286,7 +310,6 @@ static void physical_warnings(const tp_desc *desc, const tp_doc *doc, const tp_n
         char path[128], hint[200];
         if (desc->control.present && tp_isset(desc->control.setpoint) &&
             desc->control.mode != TP_MODE_OFF && desc->control.setpoint > m->max_temperature) {
-            snprintf(path, sizeof path, "bed.layers.%zu.material", i);
             tp_diag_warn(d, at(doc, "control.setpoint"), "control.setpoint",
                          "lower the setpoint or choose a material rated for it",
                          "the setpoint %.0f degC is above the service limit of %s in layer "
@@ -320,7 +343,7 @@ static void physical_warnings(const tp_desc *desc, const tp_doc *doc, const tp_n
         }
         bi = h * (g[i].area * g[i].t / as) / tp_material_k_through(m);
         if (bi > TP_BIOT_LIMIT) {
-            snprintf(path, sizeof path, "bed.layers.%zu", i);
+            layer_path(desc, i, NULL, path, sizeof path);
             snprintf(hint, sizeof hint,
                      "its node is the average over its thickness; to resolve the gradient, "
                      "split it into thinner layers of the same material");
@@ -332,16 +355,26 @@ static void physical_warnings(const tp_desc *desc, const tp_doc *doc, const tp_n
     for (k = 0; k < net->n_links; k++) {
         const tp_net_link *l = &net->links[k];
         tp_conv_info info;
+        tp_loc loc = at(doc, "enclosure.walls");
+        char path[128];
         double tsink = net->nodes[l->b].capacity > 0 ? tr : net->nodes[l->b].t0;
         if (l->law != TP_LAW_CONVECTION || !l->correlated)
             continue;
         tp_conv_h(&l->conv, td, tsink, &info);
-        if (info.out_of_range)
-            tp_diag_warn(d, tp_loc_none(), l->label,
-                         "tepid uses the nearest form; treat this coefficient as approximate",
-                         "at %.0f degC, Ra = %.3g%s%.3g is outside the validity range of %s",
-                         td - 273.15, info.ra, info.re > 0 ? ", Re = " : "",
-                         info.re > 0 ? info.re : 0.0, info.method);
+        if (!info.out_of_range)
+            continue;
+        /* Point at the layer whose face it is (the walls otherwise). */
+        for (i = 0; i < desc->bed.n_layers; i++) {
+            if (g[i].node == l->a) {
+                layer_path(desc, i, NULL, path, sizeof path);
+                loc = at(doc, path);
+            }
+        }
+        tp_diag_warn(d, loc, l->label,
+                     "tepid uses the nearest form; treat this coefficient as approximate",
+                     "at %.0f degC, Ra = %.3g%s%.3g is outside the validity range of %s",
+                     td - 273.15, info.ra, info.re > 0 ? ", Re = " : "",
+                     info.re > 0 ? info.re : 0.0, info.method);
     }
 }
 
