@@ -11,7 +11,8 @@
  *   edges                  Churchill-Chu vertical plate (Eq. 9.26), height = stack thickness;
  *   mounts                 G = mounts.conductance to the room (or the enclosure walls);
  *   closed gaps            a layer smaller than both neighbours leaves a gap of its thickness:
- *                          still-air conduction k_air A / t plus parallel-plate radiation;
+ *                          still-air conduction k_air A / t plus parallel-plate radiation,
+ *                          and the layer's edges, when it fits inside both, face the gap;
  *   enclosure              faces convect to `air`, radiate to `walls` (body in an enclosure,
  *                          Incropera Eq. 13.24 form); air to walls by Churchill-Chu on the wall
  *                          area; walls to room G = U A.
