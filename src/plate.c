@@ -11,7 +11,8 @@
  *   edges                  Churchill-Chu vertical plate (Eq. 9.26), height = stack thickness;
  *   mounts                 G = mounts.conductance to the room (or the enclosure walls);
  *   closed gaps            a layer smaller than both neighbours leaves a gap of its thickness:
- *                          still-air conduction k_air A / t plus parallel-plate radiation;
+ *                          still-air conduction k_air A / t plus parallel-plate radiation,
+ *                          and the layer's edges, when it fits inside both, face the gap;
  *   enclosure              faces convect to `air`, radiate to `walls` (body in an enclosure,
  *                          Incropera Eq. 13.24 form); air to walls by Churchill-Chu on the wall
  *                          area; walls to room G = U A.
@@ -57,6 +58,21 @@ static tp_loc at(const tp_doc *doc, const char *path)
             break;
     }
     return n ? tp_doc_loc(n) : (tp_loc){doc ? doc->file : NULL, 0, 0};
+}
+
+/* The config path of layer i, "bed.layers.<id>" (or its index when an earlier layer has the
+ * same id), with ".key" appended when `key` is not NULL: the form config.c uses in messages. */
+static void layer_path(const tp_desc *desc, size_t i, const char *key, char *out, size_t size)
+{
+    const tp_layer *ly = desc->bed.layers;
+    size_t j;
+    int unique = 1;
+    for (j = 0; j < i; j++)
+        unique &= strcmp(ly[j].id, ly[i].id) != 0;
+    if (unique)
+        snprintf(out, size, "bed.layers.%s%s%s", ly[i].id, key ? "." : "", key ? key : "");
+    else
+        snprintf(out, size, "bed.layers.%zu%s%s", i, key ? "." : "", key ? key : "");
 }
 
 double tp_plate_design_temperature(const tp_desc *desc)
@@ -150,7 +166,7 @@ static int lower_layers(const tp_desc *desc, const tp_doc *doc, tp_network *net,
                               "the layer id '%s' is reserved", ly->id);
         g[i].m = tp_materials_find(desc, ly->material);
         if (!g[i].m) {
-            snprintf(path, sizeof path, "bed.layers.%zu.material", i);
+            layer_path(desc, i, "material", path, sizeof path);
             tp_materials_hint(desc, ly->material, hint, sizeof hint);
             tp_diag_error(d, at(doc, path), path, hint, "unknown material '%s'", ly->material);
             continue;
@@ -160,7 +176,7 @@ static int lower_layers(const tp_desc *desc, const tp_doc *doc, tp_network *net,
         g[i].t = ly->thickness;
         g[i].area = g[i].w * g[i].d;
         if (g[i].t >= fmin(g[i].w, g[i].d)) {
-            snprintf(path, sizeof path, "bed.layers.%zu.thickness", i);
+            layer_path(desc, i, "thickness", path, sizeof path);
             tp_diag_error(d, at(doc, path), path,
                           "a layer of a plate is thinner than it is wide; check the units",
                           "layer '%s' is thicker (%g mm) than its plan size (%g x %g mm)", ly->id,
@@ -169,6 +185,15 @@ static int lower_layers(const tp_desc *desc, const tp_doc *doc, tp_network *net,
     }
     if (d->errors != errors0)
         return d->errors - errors0;
+    if (tp_isset(bed->layers[0].contact)) {
+        char path[128];
+        layer_path(desc, 0, "contact", path, sizeof path);
+        tp_diag_warn(d, at(doc, path), path,
+                     "contact belongs to the upper layer of an interface; mounts: {conductance} "
+                     "couples the bottom layer to the frame",
+                     "the bottom layer '%s' has no layer below; its contact is ignored",
+                     bed->layers[0].id);
+    }
     for (i = 0; i < bed->n_layers; i++) {
         double c = g[i].m->density * g[i].m->specific_heat * g[i].area * g[i].t;
         g[i].node = tp_network_add_node(net, bed->layers[i].id, c, desc->room.temperature);
@@ -286,7 +311,6 @@ static void physical_warnings(const tp_desc *desc, const tp_doc *doc, const tp_n
         char path[128], hint[200];
         if (desc->control.present && tp_isset(desc->control.setpoint) &&
             desc->control.mode != TP_MODE_OFF && desc->control.setpoint > m->max_temperature) {
-            snprintf(path, sizeof path, "bed.layers.%zu.material", i);
             tp_diag_warn(d, at(doc, "control.setpoint"), "control.setpoint",
                          "lower the setpoint or choose a material rated for it",
                          "the setpoint %.0f degC is above the service limit of %s in layer "
@@ -301,7 +325,9 @@ static void physical_warnings(const tp_desc *desc, const tp_doc *doc, const tp_n
             for (k = 0; k < net->n_links; k++) {
                 const tp_net_link *l = &net->links[k];
                 double hh;
-                if (l->a != g[i].node || l->law == TP_LAW_CONDUCTION)
+                /* Gap links between two layers are internal: not a surface loss. */
+                if (l->a != g[i].node || l->law == TP_LAW_CONDUCTION ||
+                    l->path == TP_PATH_INTERNAL)
                     continue;
                 tp_network_link_conductance(l, td, tr, &hh);
                 if (l->law == TP_LAW_CONVECTION)
@@ -318,7 +344,7 @@ static void physical_warnings(const tp_desc *desc, const tp_doc *doc, const tp_n
         }
         bi = h * (g[i].area * g[i].t / as) / tp_material_k_through(m);
         if (bi > TP_BIOT_LIMIT) {
-            snprintf(path, sizeof path, "bed.layers.%zu", i);
+            layer_path(desc, i, NULL, path, sizeof path);
             snprintf(hint, sizeof hint,
                      "its node is the average over its thickness; to resolve the gradient, "
                      "split it into thinner layers of the same material");
@@ -330,16 +356,26 @@ static void physical_warnings(const tp_desc *desc, const tp_doc *doc, const tp_n
     for (k = 0; k < net->n_links; k++) {
         const tp_net_link *l = &net->links[k];
         tp_conv_info info;
+        tp_loc loc = at(doc, "enclosure.walls");
+        char path[128];
         double tsink = net->nodes[l->b].capacity > 0 ? tr : net->nodes[l->b].t0;
         if (l->law != TP_LAW_CONVECTION || !l->correlated)
             continue;
         tp_conv_h(&l->conv, td, tsink, &info);
-        if (info.out_of_range)
-            tp_diag_warn(d, tp_loc_none(), l->label,
-                         "tepid uses the nearest form; treat this coefficient as approximate",
-                         "at %.0f degC, Ra = %.3g%s%.3g is outside the validity range of %s",
-                         td - 273.15, info.ra, info.re > 0 ? ", Re = " : "",
-                         info.re > 0 ? info.re : 0.0, info.method);
+        if (!info.out_of_range)
+            continue;
+        /* Point at the layer whose face it is (the walls otherwise). */
+        for (i = 0; i < desc->bed.n_layers; i++) {
+            if (g[i].node == l->a) {
+                layer_path(desc, i, NULL, path, sizeof path);
+                loc = at(doc, path);
+            }
+        }
+        tp_diag_warn(d, loc, l->label,
+                     "tepid uses the nearest form; treat this coefficient as approximate",
+                     "at %.0f degC, Ra = %.3g%s%.3g is outside the validity range of %s",
+                     td - 273.15, info.ra, info.re > 0 ? ", Re = " : "",
+                     info.re > 0 ? info.re : 0.0, info.method);
     }
 }
 
@@ -348,6 +384,7 @@ tp_status tp_plate_lower(const tp_desc *desc, const tp_doc *doc, tp_network *net
     const tp_bed *bed = &desc->bed;
     geom g[TP_MAX_LAYERS];
     double gap[TP_MAX_LAYERS][2]; /* closed-gap area below [0] and above [1] each layer, m2 */
+    int inside[TP_MAX_LAYERS];    /* 1: the layer lies within a closed gap, edges unexposed */
     size_t i, n = bed->n_layers;
     int room, air = -1, walls = -1, conv_sink, rad_sink;
     double stack = 0.0, tr = desc->room.temperature;
@@ -363,6 +400,7 @@ tp_status tp_plate_lower(const tp_desc *desc, const tp_doc *doc, tp_network *net
     }
     memset(g, 0, sizeof g);
     memset(gap, 0, sizeof gap);
+    memset(inside, 0, sizeof inside);
     if (lower_layers(desc, doc, net, d, g) != 0)
         return TP_ERR_CONFIG;
     st = lower_sensor(desc, doc, net, d, g);
@@ -394,6 +432,9 @@ tp_status tp_plate_lower(const tp_desc *desc, const tp_doc *doc, tp_network *net
             continue;
         gap[i - 1][1] = a;
         gap[i + 1][0] = a;
+        /* Within both neighbours' plan, its edges face the gap, not the room. */
+        inside[i] = g[i].w <= fmin(g[i - 1].w, g[i + 1].w) &&
+                    g[i].d <= fmin(g[i - 1].d, g[i + 1].d);
         tp_air_props(0.5 * (tr + tp_plate_design_temperature(desc)), desc->room.pressure, &air_gap);
         l = tp_network_add_link(net, g[i - 1].node, g[i + 1].node, TP_LAW_CONDUCTION);
         if (!l)
@@ -428,11 +469,13 @@ tp_status tp_plate_lower(const tp_desc *desc, const tp_doc *doc, tp_network *net
                      0.0, eps_down, desc, TP_PATH_BOTTOM_CONV, TP_PATH_BOTTOM_RAD, id) != 0)
             return TP_ERR_NOMEM;
         snprintf(label, sizeof label, "%s edges", id);
-        if (!add_conv(net, g[i].node, conv_sink, 2.0 * (g[i].w + g[i].d) * g[i].t,
+        if (!inside[i] &&
+            !add_conv(net, g[i].node, conv_sink, 2.0 * (g[i].w + g[i].d) * g[i].t,
                       TP_FACE_VERTICAL, stack, 0.0, 0.0, desc, TP_PATH_EDGE, label))
             return TP_ERR_NOMEM;
         snprintf(label, sizeof label, "%s edges radiation", id);
-        if (!add_rad(net, g[i].node, rad_sink, 2.0 * (g[i].w + g[i].d) * g[i].t,
+        if (!inside[i] &&
+            !add_rad(net, g[i].node, rad_sink, 2.0 * (g[i].w + g[i].d) * g[i].t,
                      g[i].m->emissivity, desc, TP_PATH_EDGE, label))
             return TP_ERR_NOMEM;
         if (i + 1 < n) {

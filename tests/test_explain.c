@@ -1,0 +1,298 @@
+/* Tests of `tepid explain` through the binary: the JSON contract of DESIGN.md, the radiation
+ * linearisation at --at, and every demo in configs/ through check, explain, warmup and steady. */
+#include <stdarg.h>
+#include <stddef.h>
+#include <stdint.h>
+#include <setjmp.h>
+#include <cmocka.h>
+
+#include <cjson/cJSON.h>
+#include <math.h>
+
+#include "run_tepid.h"
+
+#define T0C 273.15            /* 0 degC in kelvin, K */
+#define SIGMA 5.670374419e-8  /* Stefan-Boltzmann constant, CODATA 2018, W/(m2.K4) */
+#define REL_JSON 1.0e-12      /* cJSON prints doubles that read back exactly; the expected
+                                 values take a few roundings: 1e-12 relative */
+#define JSON_MAX (1 << 20)    /* bytes of an explain --json document read back */
+
+static char json_text[JSON_MAX];
+static run_result res;
+
+/* Run `tepid explain` on config text with the extra option `at` (NULL for none); returns the
+ * parsed JSON (the caller deletes it). */
+static cJSON *explain_json(const char *name, const char *yaml, const char *at)
+{
+    char path[512], json[512], at_opt[64];
+    char *argv[8] = {NULL, "explain", path, "--json", json, "-q", NULL, NULL};
+    cJSON *root;
+    assert_int_equal(write_text(scratch_dir, name, yaml, path, sizeof path), 0);
+    snprintf(json, sizeof json, "%s/%s.json", scratch_dir, name);
+    if (at) {
+        snprintf(at_opt, sizeof at_opt, "--at=%s", at);
+        argv[6] = at_opt;
+    }
+    assert_int_equal(run_tepid(scratch_dir, argv, &res), 0);
+    if (res.status != 0) {
+        print_error("explain exited %d:\n%s", res.status, res.err);
+        fail();
+    }
+    assert_true(read_text(json, json_text, sizeof json_text) > 0);
+    root = cJSON_Parse(json_text);
+    assert_non_null(root);
+    return root;
+}
+
+static double number(const cJSON *o, const char *key)
+{
+    const cJSON *v = cJSON_GetObjectItemCaseSensitive(o, key);
+    if (!cJSON_IsNumber(v)) {
+        print_error("'%s' is not a number in %s\n", key, cJSON_PrintUnformatted(o));
+        fail();
+    }
+    return v->valuedouble;
+}
+
+static int has(const cJSON *o, const char *key)
+{
+    return cJSON_GetObjectItemCaseSensitive(o, key) != NULL;
+}
+
+/* The link between a and b (in that order) with this law and area (0: any area). */
+static const cJSON *find_link(const cJSON *root, const char *a, const char *b, const char *law,
+                              double area)
+{
+    const cJSON *l;
+    cJSON_ArrayForEach(l, cJSON_GetObjectItemCaseSensitive(root, "links"))
+    {
+        const cJSON *bt = cJSON_GetObjectItemCaseSensitive(l, "between");
+        const cJSON *lw = cJSON_GetObjectItemCaseSensitive(l, "law");
+        if (cJSON_GetArraySize(bt) == 2 &&
+            strcmp(cJSON_GetArrayItem(bt, 0)->valuestring, a) == 0 &&
+            strcmp(cJSON_GetArrayItem(bt, 1)->valuestring, b) == 0 &&
+            strcmp(lw->valuestring, law) == 0 &&
+            (area == 0.0 || fabs(number(l, "area_m2") - area) <= 1e-12 * area))
+            return l;
+    }
+    print_error("no %s link %s-%s of area %g\n", law, a, b, area);
+    fail();
+    return NULL;
+}
+
+/* A 200 x 100 x 5 mm aluminium-like plate (invented round values) under a 150 x 80 x 1 mm
+ * steel-like sheet; top emissivity 0.8, room 20 degC. */
+static const char plate_yaml[] =
+    "materials:\n"
+    "  spreader: {density: 2500 kg/m3, specific_heat: 800 J/(kg.K), conductivity: 100 W/(m.K),\n"
+    "             emissivity: 0.1, max_temperature: 300 degC, source: test values}\n"
+    "  skin:     {density: 8000 kg/m3, specific_heat: 500 J/(kg.K), conductivity: 50 W/(m.K),\n"
+    "             emissivity: 0.3, max_temperature: 300 degC, source: test values}\n"
+    "room: {temperature: 20 degC}\n"
+    "bed:\n"
+    "  size: [200 mm, 100 mm]\n"
+    "  layers:\n"
+    "    - {id: plate, material: spreader, thickness: 5 mm}\n"
+    "    - {id: sheet, material: skin, thickness: 1 mm, size: [150 mm, 80 mm],\n"
+    "       contact: 500 W/(m2.K)}\n"
+    "  top: {emissivity: 0.8}\n"
+    "  mounts: {conductance: 0.1 W/K}\n"
+    "heater: {layer: plate, power: 30 W}\n";
+
+/* Linearised radiation at --at 90 degC: G = eps sigma A (T^2 + Ts^2)(T + Ts) with T = 363.15 K,
+ * Ts = 293.15 K (Incropera 7th ed. Eq. 1.9, from memory): the sheet's top (A = 0.15 * 0.08 =
+ * 0.012 m2, eps 0.8 from bed.top) and the plate's exposed top (0.02 - 0.012 = 0.008 m2, the
+ * material's 0.1). Without --at every node is at its initial 20 degC, T = Ts, and the same
+ * formula gives 4 eps sigma A T^3. */
+static void test_explain_radiation_linearised(void **state)
+{
+    const double t = T0C + 90.0, ts = T0C + 20.0;
+    const double lin = SIGMA * (t * t + ts * ts) * (t + ts);
+    cJSON *root = explain_json("rad.yaml", plate_yaml, "90degC");
+    const cJSON *l;
+    (void)state;
+    l = find_link(root, "sheet", "room", "radiation", 0.012);
+    check_rel("eps sheet top", number(l, "emissivity"), 0.8, REL_JSON);
+    check_rel("G sheet top", number(l, "conductance_W_per_K"), 0.8 * lin * 0.012, REL_JSON);
+    l = find_link(root, "plate", "room", "radiation", 0.008);
+    check_rel("G plate top", number(l, "conductance_W_per_K"), 0.1 * lin * 0.008, REL_JSON);
+    cJSON_Delete(root);
+
+    root = explain_json("rad0.yaml", plate_yaml, NULL);
+    l = find_link(root, "sheet", "room", "radiation", 0.012);
+    check_rel("G sheet top at 20 degC", number(l, "conductance_W_per_K"),
+              4.0 * 0.8 * SIGMA * 0.012 * ts * ts * ts, REL_JSON);
+    cJSON_Delete(root);
+}
+
+/* DESIGN.md, explain --json: `nodes`, an array of {id, capacity_J_per_K} or {id, fixed_C};
+ * `links`, an array of {between: [a, b], law, conductance_W_per_K}, law one of conduction,
+ * convection, radiation; convection adds h_W_per_m2K and area_m2, radiation area_m2 and
+ * emissivity. Values by hand: C plate = 2500 * 800 * 0.02 * 0.005 = 200 J/K, C sheet =
+ * 8000 * 500 * 0.012 * 0.001 = 48 J/K, room fixed at 20 degC; plate-sheet
+ * G = 1/(0.005/(2*100*0.012) + 1/(500*0.012) + 0.001/(2*50*0.012)) (plane walls and contact in
+ * series); mounts 0.1 W/K. For convection, G = h A. */
+static void test_explain_json_contract(void **state)
+{
+    static const char *const expect_ids[] = {"plate", "sheet", "room"};
+    static const double expect_c[] = {200.0, 48.0, 0.0};
+    cJSON *root = explain_json("contract.yaml", plate_yaml, "70degC");
+    const cJSON *nodes = cJSON_GetObjectItemCaseSensitive(root, "nodes");
+    const cJSON *links = cJSON_GetObjectItemCaseSensitive(root, "links");
+    const cJSON *n, *l;
+    int i = 0, laws[3] = {0, 0, 0};
+    (void)state;
+    assert_true(cJSON_IsArray(nodes));
+    assert_true(cJSON_IsArray(links));
+    assert_int_equal(cJSON_GetArraySize(nodes), 3);
+    cJSON_ArrayForEach(n, nodes)
+    {
+        const cJSON *id = cJSON_GetObjectItemCaseSensitive(n, "id");
+        assert_true(cJSON_IsString(id));
+        assert_string_equal(id->valuestring, expect_ids[i]);
+        /* exactly one of the two */
+        assert_int_equal(has(n, "capacity_J_per_K") + has(n, "fixed_C"), 1);
+        if (expect_c[i] > 0)
+            check_rel(id->valuestring, number(n, "capacity_J_per_K"), expect_c[i], REL_JSON);
+        else
+            check_rel("room", number(n, "fixed_C"), 20.0, REL_JSON);
+        i++;
+    }
+    cJSON_ArrayForEach(l, links)
+    {
+        const cJSON *bt = cJSON_GetObjectItemCaseSensitive(l, "between");
+        const cJSON *law = cJSON_GetObjectItemCaseSensitive(l, "law");
+        double g = number(l, "conductance_W_per_K");
+        assert_true(cJSON_IsArray(bt));
+        assert_int_equal(cJSON_GetArraySize(bt), 2);
+        assert_true(cJSON_IsString(cJSON_GetArrayItem(bt, 0)));
+        assert_true(cJSON_IsString(cJSON_GetArrayItem(bt, 1)));
+        assert_true(cJSON_IsString(law));
+        assert_true(g >= 0.0);
+        if (strcmp(law->valuestring, "conduction") == 0) {
+            laws[0]++;
+            assert_false(has(l, "h_W_per_m2K") || has(l, "area_m2") || has(l, "emissivity"));
+        } else if (strcmp(law->valuestring, "convection") == 0) {
+            laws[1]++;
+            check_rel("G = h A", g, number(l, "h_W_per_m2K") * number(l, "area_m2"), REL_JSON);
+            assert_false(has(l, "emissivity"));
+        } else if (strcmp(law->valuestring, "radiation") == 0) {
+            double eps = number(l, "emissivity");
+            laws[2]++;
+            assert_true(number(l, "area_m2") > 0.0);
+            assert_true(eps > 0.0 && eps <= 1.0);
+            assert_false(has(l, "h_W_per_m2K"));
+        } else {
+            print_error("unknown law '%s'\n", law->valuestring);
+            fail();
+        }
+    }
+    assert_true(laws[0] >= 2 && laws[1] >= 1 && laws[2] >= 1);
+    check_rel("G plate-sheet", number(find_link(root, "plate", "sheet", "conduction", 0.0),
+                                      "conductance_W_per_K"),
+              1.0 / (0.005 / 2.4 + 1.0 / 6.0 + 0.001 / 1.2), REL_JSON);
+    cJSON_Delete(root);
+}
+
+/* The raw form's laws come out unchanged: h = coefficient, G = h A = 9 * 0.05 = 0.45 W/K, and
+ * radiation with its own emissivity (the DESIGN.md example values). */
+static void test_explain_json_raw_links(void **state)
+{
+    static const char raw[] =
+        "network:\n"
+        "  nodes:\n"
+        "    - {id: plate, capacity: 640 J/K, initial: 21 degC}\n"
+        "    - {id: room, fixed: 21 degC}\n"
+        "  links:\n"
+        "    - {between: [plate, room], conductance: 1.6 W/K}\n"
+        "    - {between: [plate, room], convection: {area: 0.05 m2, coefficient: 9 W/(m2.K)}}\n"
+        "    - {between: [plate, room], radiation: {area: 0.05 m2, emissivity: 0.9}}\n"
+        "  sources:\n"
+        "    - {id: pad, node: plate, power: 120 W}\n";
+    cJSON *root = explain_json("raw.yaml", raw, NULL);
+    const cJSON *l;
+    (void)state;
+    check_rel("C plate", number(cJSON_GetArrayItem(cJSON_GetObjectItemCaseSensitive(root, "nodes"),
+                                                   0),
+                                "capacity_J_per_K"),
+              640.0, REL_JSON);
+    l = find_link(root, "plate", "room", "convection", 0.05);
+    check_rel("h", number(l, "h_W_per_m2K"), 9.0, REL_JSON);
+    check_rel("G", number(l, "conductance_W_per_K"), 0.45, REL_JSON);
+    check_rel("G cond", number(find_link(root, "plate", "room", "conduction", 0.0),
+                               "conductance_W_per_K"),
+              1.6, REL_JSON);
+    check_rel("eps", number(find_link(root, "plate", "room", "radiation", 0.05), "emissivity"),
+              0.9, REL_JSON);
+    cJSON_Delete(root);
+}
+
+/* Every demo in configs/ passes check, explain, warmup and steady with exit status 0 (issue 3:
+ * "tepid explain and tepid warmup work on all three demos"). At least the three physical demos
+ * and the raw one must be there, so the loop cannot pass empty. */
+static void test_explain_demos_run(void **state)
+{
+    static const char *const verbs[] = {"check", "explain", "warmup", "steady"};
+    char path[1024];
+    DIR *dp = opendir(TP_SOURCE_DIR "/configs");
+    struct dirent *e;
+    int files = 0;
+    size_t v;
+    (void)state;
+    assert_non_null(dp);
+    while ((e = readdir(dp)) != NULL) {
+        size_t len = strlen(e->d_name);
+        if (len < 6 || strcmp(e->d_name + len - 5, ".yaml") != 0)
+            continue;
+        snprintf(path, sizeof path, "%s/configs/%s", TP_SOURCE_DIR, e->d_name);
+        files++;
+        for (v = 0; v < sizeof verbs / sizeof verbs[0]; v++) {
+            char *argv[] = {NULL, (char *)verbs[v], path, NULL};
+            assert_int_equal(run_tepid(scratch_dir, argv, &res), 0);
+            if (res.status != 0) {
+                print_error("tepid %s %s exited %d:\n%s", verbs[v], e->d_name, res.status,
+                            res.err);
+                fail();
+            }
+        }
+    }
+    closedir(dp);
+    assert_true(files >= 4);
+}
+
+/* The mains demo carries the mains cautions in its file and in tepid's output (issue 3 item 8;
+ * the cautions are common practice for mains heaters, no source: REFERENCES.md §9). */
+static void test_explain_mains_demo_cautions(void **state)
+{
+    static char file[65536];
+    char path[1024];
+    char *argv[] = {NULL, "warmup", path, NULL};
+    static const char *const in_file[] = {"qualified person", "protective earth",
+                                          "non-self-resetting thermal cut-out",
+                                          "electrical codes"};
+    size_t i;
+    (void)state;
+    snprintf(path, sizeof path, "%s/configs/lab-hotplate-230v.yaml", TP_SOURCE_DIR);
+    assert_true(read_text(path, file, sizeof file) > 0);
+    for (i = 0; i < sizeof in_file / sizeof in_file[0]; i++)
+        if (!strstr(file, in_file[i])) {
+            print_error("the file lacks '%s'\n", in_file[i]);
+            fail();
+        }
+    assert_int_equal(run_tepid(scratch_dir, argv, &res), 0);
+    assert_int_equal(res.status, 0);
+    assert_non_null(strstr(res.out, "Mains voltage (230 V)"));
+    assert_non_null(strstr(res.out, "local electrical codes"));
+}
+
+int main(void)
+{
+    const struct CMUnitTest tests[] = {
+        cmocka_unit_test(test_explain_radiation_linearised),
+        cmocka_unit_test(test_explain_json_contract),
+        cmocka_unit_test(test_explain_json_raw_links),
+        cmocka_unit_test(test_explain_demos_run),
+        cmocka_unit_test(test_explain_mains_demo_cautions),
+    };
+    return cmocka_run_group_tests(tests, scratch_setup, scratch_teardown);
+}
