@@ -137,14 +137,19 @@ static void summary(FILE *fp, const tp_session *s, const answer *a)
     tp_report_cautions(fp, &s->desc, net, &ex);
 }
 
+/* The highest reachable temperatures at one duty: {reading, surface, nodes{}} in degC; the
+ * power and duty beside it as <name>_power_W and <name>_duty. */
 static void put_reach(cJSON *root, const char *name, const tp_network *net, const tp_steady *s)
 {
     cJSON *o = cJSON_AddObjectToObject(root, name), *nodes;
+    char key[64];
     int i;
     if (!o)
         return;
-    tp_json_number(o, "power_W", s->power);
-    tp_json_number(o, "duty", s->duty);
+    snprintf(key, sizeof key, "%s_power_W", name);
+    tp_json_number(root, key, s->power);
+    snprintf(key, sizeof key, "%s_duty", name);
+    tp_json_number(root, key, s->duty);
     tp_json_number(o, "reading", s->reading - TP_KELVIN_0C);
     tp_json_number(o, "surface", surface_or_nan(net, s->temps) - TP_KELVIN_0C);
     nodes = cJSON_AddObjectToObject(o, "nodes");
