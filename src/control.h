@@ -1,6 +1,6 @@
 /* Discrete controllers (off, full, on-off, PID) sampled every `period` with a zero-order hold,
  * and the reading model: what the controller sees of the sensor node (offset, NTC thermistor
- * divider and ADC quantisation). Equations: docs/model.md, "Control". */
+ * divider and ADC quantisation). Equations: docs/control.md. */
 #ifndef TP_CONTROL_H
 #define TP_CONTROL_H
 

@@ -8,7 +8,8 @@
 #include "network.h"
 #include "status.h"
 
-#define TP_DENSE_MAX 60 /* free nodes up to which the dense LU is used; KLU above (docs/model.md) */
+#define TP_DENSE_MAX 60 /* free nodes up to which the dense LU is used; KLU above
+                           (measured: docs/performance.md) */
 
 /* What the driver reports at each output time. */
 typedef struct tp_sample {
