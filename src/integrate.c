@@ -330,7 +330,8 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
         st = TP_ERR_NOMEM;
         goto done;
     }
-    dr.sparse = net->n_free > TP_DENSE_MAX;
+    dr.sparse = o->linear_solver == TP_LS_SPARSE ||
+                (o->linear_solver == TP_LS_AUTO && net->n_free > TP_DENSE_MAX);
     stats->sparse = dr.sparse;
     dr.jvals = malloc((size_t)(net->nnz > 0 ? net->nnz : 1) * sizeof *dr.jvals);
     dr.jy = malloc((size_t)(net->n_free > 0 ? net->n_free : 1) * sizeof *dr.jy);

@@ -8,7 +8,7 @@
 #include "network.h"
 #include "status.h"
 
-#define TP_DENSE_MAX 60 /* free nodes up to which the dense LU is used; KLU above
+#define TP_DENSE_MAX 12 /* free nodes up to which the dense LU is used; KLU above
                            (measured: docs/performance.md) */
 
 /* What the driver reports at each output time. */
@@ -49,7 +49,11 @@ typedef struct tp_integrate_opts {
     tp_output_fn out;
     void *user;
     const tp_hooks *hooks;
+    int linear_solver;     /* TP_LS_AUTO (dense up to TP_DENSE_MAX free nodes), TP_LS_DENSE,
+                              TP_LS_SPARSE (benchmarks compare them) */
 } tp_integrate_opts;
+
+enum { TP_LS_AUTO = 0, TP_LS_DENSE, TP_LS_SPARSE };
 
 typedef struct tp_integrate_stats {
     long steps, rhs_evals, jac_evals, lin_setups, error_test_fails, nonlin_fails;
