@@ -7,19 +7,19 @@
 /* A valid raw network (an invented case) with slots for the variations:
  *   1 plate's capacity   2 extra node lines   3 extra link lines
  *   4 pad's power        5 extra source lines 6 the top-level tail (run, control) */
-static const char *const base_yaml =
-    "network:\n"
-    "  nodes:\n"
-    "    - {id: plate, capacity: %s, initial: 21 degC}\n"
-    "    - {id: room, fixed: 21 degC}\n"
+#define BASE_YAML                                                                                  \
+    "network:\n"                                                                                   \
+    "  nodes:\n"                                                                                   \
+    "    - {id: plate, capacity: %s, initial: 21 degC}\n"                                          \
+    "    - {id: room, fixed: 21 degC}\n"                                                           \
+    "%s"                                                                                           \
+    "  links:\n"                                                                                   \
+    "    - {between: [plate, room], conductance: 1.6 W/K}\n"                                       \
+    "%s"                                                                                           \
+    "  sources:\n"                                                                                 \
+    "    - {id: pad, node: plate, power: %s}\n"                                                    \
+    "%s"                                                                                           \
     "%s"
-    "  links:\n"
-    "    - {between: [plate, room], conductance: 1.6 W/K}\n"
-    "%s"
-    "  sources:\n"
-    "    - {id: pad, node: plate, power: %s}\n"
-    "%s"
-    "%s";
 
 typedef struct variant {
     const char *capacity, *nodes, *links, *power, *sources, *tail;
@@ -29,8 +29,8 @@ static const variant valid = {"640 J/K", "", "", "120 W", "", "run: {duration: 1
 
 static void compose(const variant *v, char *out, size_t size)
 {
-    int n = snprintf(out, size, base_yaml, v->capacity, v->nodes, v->links, v->power,
-                     v->sources, v->tail);
+    int n = snprintf(out, size, BASE_YAML, v->capacity, v->nodes, v->links, v->power, v->sources,
+                     v->tail);
     assert_true(n > 0 && (size_t)n < size);
 }
 
@@ -86,73 +86,130 @@ typedef struct bad_case {
  * must say comes from issue 2 items 2-3 and DESIGN.md (config contract). */
 static const bad_case bad_cases[] = {
     /* A bare number for a dimensional key. */
-    {{"640", "", "", "120 W", "", ""}, "640, initial", "network.nodes.plate.capacity",
+    {{"640", "", "", "120 W", "", ""},
+     "640, initial",
+     "network.nodes.plate.capacity",
      "'640' has no unit; expected a quantity in J/K, e.g. '640 J/K'",
      "every dimensional value carries a unit"},
     /* A unit of the wrong dimension. */
-    {{"640 W", "", "", "120 W", "", ""}, "640 W", "network.nodes.plate.capacity",
+    {{"640 W", "", "", "120 W", "", ""},
+     "640 W",
+     "network.nodes.plate.capacity",
      "'640 W' has the wrong kind of unit; expected a quantity in J/K, e.g. '640 J/K'",
      "check the unit"},
-    {{"640 J/K", "", "", "120 W/K", "", ""}, "120 W/K", "network.sources.pad.power",
+    {{"640 J/K", "", "", "120 W/K", "", ""},
+     "120 W/K",
+     "network.sources.pad.power",
      "'120 W/K' has the wrong kind of unit; expected a quantity in W, e.g. '220 W'",
      "check the unit"},
     /* An unknown key, with a did-you-mean hint. */
-    {{"640 J/K", "", "", "120 W", "", "run: {duration: 10 s, stpe: 1 s}\n"}, "stpe", "run.stpe",
-     "unknown key", "did you mean 'step'?"},
-    {{"640 J/K", "", "", "120 W", "", "rnu: {duration: 10 s}\n"}, "rnu", "rnu", "unknown key",
+    {{"640 J/K", "", "", "120 W", "", "run: {duration: 10 s, stpe: 1 s}\n"},
+     "stpe",
+     "run.stpe",
+     "unknown key",
+     "did you mean 'step'?"},
+    {{"640 J/K", "", "", "120 W", "", "rnu: {duration: 10 s}\n"},
+     "rnu",
+     "rnu",
+     "unknown key",
      "did you mean 'run'?"},
     /* A duplicate key: the second one is reported. */
     {{"640 J/K", "", "", "120 W", "", "run: {duration: 10 s, step: 1 s, duration: 20 s}\n"},
-     "duration: 20 s", "run.duration", "duplicate key", "the first 'duration' is at line 9"},
+     "duration: 20 s",
+     "run.duration",
+     "duplicate key",
+     "the first 'duration' is at line 9"},
     /* A missing required key: reported at the section that lacks it. */
     {{"640 J/K", "    - {capacity: 5 J/K, initial: 21 degC}\n", "", "120 W", "", ""},
-     "{capacity: 5", "network.nodes.2.id", "missing required key", "add 'id:'"},
+     "{capacity: 5",
+     "network.nodes.2.id",
+     "missing required key",
+     "add 'id:'"},
     {{"640 J/K", "", "    - {between: [plate, room], convection: {coefficient: 8 W/(m2.K)}}\n",
       "120 W", "", ""},
-     "{coefficient", "network.links.1.convection.area", "missing required key",
+     "{coefficient",
+     "network.links.1.convection.area",
+     "missing required key",
      "add 'area:', e.g. 0.05 m2"},
     /* NaN and infinity, in YAML's spelling and in words. */
-    {{"640 J/K", "", "", "nan W", "", ""}, "nan W", "network.sources.pad.power",
-     "'nan W' is not a number with a unit", "write a number then a unit"},
-    {{"640 J/K", "", "", ".nan", "", ""}, ".nan", "network.sources.pad.power",
-     "'.nan' is not a number with a unit", "write a number then a unit"},
-    {{"640 J/K", "", "", ".inf", "", ""}, ".inf", "network.sources.pad.power",
-     "'.inf' is not a number with a unit", "write a number then a unit"},
-    {{"640 J/K", "", "", "inf W", "", ""}, "inf W", "network.sources.pad.power",
-     "'inf W' is not a number with a unit", "write a number then a unit"},
+    {{"640 J/K", "", "", "nan W", "", ""},
+     "nan W",
+     "network.sources.pad.power",
+     "'nan W' is not a number with a unit",
+     "write a number then a unit"},
+    {{"640 J/K", "", "", ".nan", "", ""},
+     ".nan",
+     "network.sources.pad.power",
+     "'.nan' is not a number with a unit",
+     "write a number then a unit"},
+    {{"640 J/K", "", "", ".inf", "", ""},
+     ".inf",
+     "network.sources.pad.power",
+     "'.inf' is not a number with a unit",
+     "write a number then a unit"},
+    {{"640 J/K", "", "", "inf W", "", ""},
+     "inf W",
+     "network.sources.pad.power",
+     "'inf W' is not a number with a unit",
+     "write a number then a unit"},
     /* Unknown node ids (with the closest id as a hint) and a duplicate id. */
     {{"640 J/K", "", "    - {between: [plate, rooom], conductance: 0.5 W/K}\n", "120 W", "", ""},
-     "[plate, rooom]", "network.links.1.between", "no node 'rooom'", "did you mean 'room'?"},
-    {{"640 J/K", "", "", "120 W", "    - {id: lamp, node: plaet, power: 5 W}\n", ""}, "plaet",
-     "network.sources.1.node", "no node 'plaet'", "did you mean 'plate'?"},
+     "[plate, rooom]",
+     "network.links.1.between",
+     "no node 'rooom'",
+     "did you mean 'room'?"},
+    {{"640 J/K", "", "", "120 W", "    - {id: lamp, node: plaet, power: 5 W}\n", ""},
+     "plaet",
+     "network.sources.1.node",
+     "no node 'plaet'",
+     "did you mean 'plate'?"},
     {{"640 J/K", "", "", "120 W", "",
       "control: {source: pad, sensor: plat, mode: on-off, setpoint: 60 degC}\n"},
-     "plat, mode", "control.sensor", "the controller reads a node that does not exist: 'plat'",
+     "plat, mode",
+     "control.sensor",
+     "the controller reads a node that does not exist: 'plat'",
      "did you mean 'plate'?"},
     {{"640 J/K", "    - {id: plate, capacity: 5 J/K, initial: 21 degC}\n", "", "120 W", "", ""},
-     "plate, capacity: 5 J/K", "network.nodes", "duplicate node id 'plate'",
+     "plate, capacity: 5 J/K",
+     "network.nodes",
+     "duplicate node id 'plate'",
      "give every node its own id"},
     /* A node with neither capacity nor fixed. */
-    {{"640 J/K", "    - {id: x}\n", "", "120 W", "", ""}, "{id: x}", "network.nodes",
-     "node 'x' has neither capacity nor fixed", "add capacity and initial, or fixed"},
+    {{"640 J/K", "    - {id: x}\n", "", "120 W", "", ""},
+     "{id: x}",
+     "network.nodes",
+     "node 'x' has neither capacity nor fixed",
+     "add capacity and initial, or fixed"},
     /* Non-positive capacity. */
-    {{"0 J/K", "", "", "120 W", "", ""}, "0 J/K", "network.nodes.plate.capacity",
-     "must be positive, got '0 J/K'", "use a value above zero"},
-    {{"-5 J/K", "", "", "120 W", "", ""}, "-5 J/K", "network.nodes.plate.capacity",
-     "must be positive, got '-5 J/K'", "use a value above zero"},
+    {{"0 J/K", "", "", "120 W", "", ""},
+     "0 J/K",
+     "network.nodes.plate.capacity",
+     "must be positive, got '0 J/K'",
+     "use a value above zero"},
+    {{"-5 J/K", "", "", "120 W", "", ""},
+     "-5 J/K",
+     "network.nodes.plate.capacity",
+     "must be positive, got '-5 J/K'",
+     "use a value above zero"},
     /* Emissivity outside (0, 1]. */
     {{"640 J/K", "",
-      "    - {between: [plate, room], radiation: {area: 0.05 m2, emissivity: 1.2}}\n", "120 W",
-      "", ""},
-     "1.2}", "network.links.1.radiation.emissivity", "'1.2' is outside (0, 1]",
+      "    - {between: [plate, room], radiation: {area: 0.05 m2, emissivity: 1.2}}\n", "120 W", "",
+      ""},
+     "1.2}",
+     "network.links.1.radiation.emissivity",
+     "'1.2' is outside (0, 1]",
      "a fraction lies in (0, 1]"},
     {{"640 J/K", "", "    - {between: [plate, room], radiation: {area: 0.05 m2, emissivity: 0}}\n",
       "120 W", "", ""},
-     "0}}", "network.links.1.radiation.emissivity", "'0' is outside (0, 1]",
+     "0}}",
+     "network.links.1.radiation.emissivity",
+     "'0' is outside (0, 1]",
      "a fraction lies in (0, 1]"},
     /* A link from a node to itself. */
     {{"640 J/K", "", "    - {between: [plate, plate], conductance: 1 W/K}\n", "120 W", "", ""},
-     "[plate, plate]", "network.links.1.between", "link from 'plate' to itself",
+     "[plate, plate]",
+     "network.links.1.between",
+     "link from 'plate' to itself",
      "a link connects two different nodes"},
 };
 
@@ -245,13 +302,15 @@ static void test_config_warnings(void **state)
     } cases[] = {
         {{"640 J/K", "    - {id: lonely, capacity: 5 J/K, initial: 21 degC}\n", "", "120 W", "",
           ""},
-         "- {id: plate", "warning: node 'lonely' has no link"},
+         "- {id: plate",
+         "warning: node 'lonely' has no link"},
         {{"640 J/K",
           "    - {id: island, capacity: 5 J/K, initial: 21 degC}\n"
           "    - {id: isle, capacity: 5 J/K, initial: 21 degC}\n",
           "    - {between: [island, isle], conductance: 1 W/K}\n", "120 W",
           "    - {id: lamp, node: island, power: 5 W}\n", ""},
-         "- {id: pad", "warning: source 'lamp' heats nodes with no path to a fixed node"},
+         "- {id: pad",
+         "warning: source 'lamp' heats nodes with no path to a fixed node"},
     };
     tp_scratch s;
     char csv[TP_TEST_PATH];
@@ -352,8 +411,8 @@ static void test_config_set_value_and_error(void **state)
     tp_scratch_write(&s, "set.yaml", yaml, cfg);
     tp_scratch_path(&s, "out.csv", csv, sizeof csv);
     {
-        const char *args[] = {"warmup", cfg, "--set", "run.duration=20 s", "--csv", csv, "-q",
-                              NULL};
+        const char *args[] = {"warmup", cfg, "--set", "run.duration=20 s",
+                              "--csv",  csv, "-q",    NULL};
         tp_run_tepid(&s, args, &r);
     }
     assert_int_equal(r.status, 0);
@@ -364,8 +423,8 @@ static void test_config_set_value_and_error(void **state)
     free(text);
     remove(csv);
     {
-        const char *args[] = {"warmup", cfg, "--set", "network.nodes.plate.capacity=5", "--csv",
-                              csv, NULL};
+        const char *args[] = {"warmup", cfg, "--set", "network.nodes.plate.capacity=5",
+                              "--csv",  csv, NULL};
         tp_run_tepid(&s, args, &r);
     }
     first_line(r.err, got, sizeof got);

@@ -132,7 +132,7 @@ static void test_onoff_settled_band_and_mean_power(void **state)
     tp_yaml_net_close(&y);
 }
 
-/* ---- PID -------------------------------------------------------------------------------------- */
+/* ---- PID ------------------------------------------------------------------------------------ */
 
 /* The discrete PID of control.c (documented there and in control.h):
  *   e_k = setpoint - y_k

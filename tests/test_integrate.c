@@ -41,10 +41,10 @@ static void run_net(tp_network *net, double t_end, double step, double rtol, tp_
 
 /* ---- one node, constant power, linear loss -------------------------------------------------- */
 
-#define ONE_C 800.0    /* J/K */
-#define ONE_G 1.6      /* W/K: tau = C/G = 500 s */
-#define ONE_P 120.0    /* W: rise P/G = 75 K */
-#define ONE_TA 294.15  /* K, 21 degC */
+#define ONE_C 800.0   /* J/K */
+#define ONE_G 1.6     /* W/K: tau = C/G = 500 s */
+#define ONE_P 120.0   /* W: rise P/G = 75 K */
+#define ONE_TA 294.15 /* K, 21 degC */
 
 /* plate (C) --G-- room (fixed Ta), P into the plate; built with the network API. */
 static tp_network *one_node(void)
@@ -122,19 +122,19 @@ static void test_integrate_one_node_time_constant(void **state)
 /* REFERENCES.md §7(e): heater 1 - plate 2 - ambient, C1 = 50 J/K, C2 = 800 J/K, G12 = 5 W/K,
  * G1a = 0.05 W/K, G2a = 0.8 W/K, P = 200 W into node 1, Ta = T1(0) = T2(0) = 25 degC. Written
  * in the raw network form so the config reader and assembly are on the path too. */
-static const char *const two_node_yaml =
-    "network:\n"
-    "  nodes:\n"
-    "    - {id: heater, capacity: 50 J/K, initial: 25 degC}\n"
-    "    - {id: plate, capacity: 800 J/K, initial: 25 degC}\n"
-    "    - {id: room, fixed: 25 degC}\n"
-    "  links:\n"
-    "    - {between: [heater, plate], conductance: 5 W/K}\n"
-    "    - {between: [heater, room], conductance: 0.05 W/K}\n"
-    "    - {between: [plate, room], conductance: 0.8 W/K}\n"
-    "  sources:\n"
-    "    - {id: element, node: heater, power: 200 W}\n"
-    "run: {duration: 1 h, step: 10 s, tolerance: %s}\n";
+#define TWO_NODE_YAML                                                                              \
+    "network:\n"                                                                                   \
+    "  nodes:\n"                                                                                   \
+    "    - {id: heater, capacity: 50 J/K, initial: 25 degC}\n"                                     \
+    "    - {id: plate, capacity: 800 J/K, initial: 25 degC}\n"                                     \
+    "    - {id: room, fixed: 25 degC}\n"                                                           \
+    "  links:\n"                                                                                   \
+    "    - {between: [heater, plate], conductance: 5 W/K}\n"                                       \
+    "    - {between: [heater, room], conductance: 0.05 W/K}\n"                                     \
+    "    - {between: [plate, room], conductance: 0.8 W/K}\n"                                       \
+    "  sources:\n"                                                                                 \
+    "    - {id: element, node: heater, power: 200 W}\n"                                            \
+    "run: {duration: 1 h, step: 10 s, tolerance: %s}\n"
 
 /* The eigen-solution of x' = A x + b for the 2x2 system above (standard linear ODE theory,
  * REFERENCES.md §7(e)): T(t) = T_ss + sum_i c_i v_i exp(lambda_i t), temperatures in degC. */
@@ -175,9 +175,8 @@ static double eigen2_at(const eigen2 *e, int node, double t)
 /* The table of REFERENCES.md §7(e) ([CALC]; analytic solution checked there against scipy to
  * 1e-8 K), values in degC printed to 5 decimals. */
 static const double two_node_table[][3] = {
-    {10.0, 50.43309, 25.89797},     {60.0, 73.74830, 36.51210},
-    {300.0, 121.08610, 83.79006},   {600.0, 166.26412, 128.96808},
-    {1800.0, 256.50241, 219.20638}, {3600.0, 288.96716, 251.67112},
+    {10.0, 50.43309, 25.89797},    {60.0, 73.74830, 36.51210},     {300.0, 121.08610, 83.79006},
+    {600.0, 166.26412, 128.96808}, {1800.0, 256.50241, 219.20638}, {3600.0, 288.96716, 251.67112},
 };
 #define N_TABLE (sizeof two_node_table / sizeof two_node_table[0])
 
@@ -217,7 +216,7 @@ static void test_integrate_two_node_eigen(void **state)
         tp_integrate_stats st;
         double rtol = k == 0 ? 1.0e-10 : 1.0e-6;
         double bound = error_bound(rtol, 296.0 + TP_TEST_KELVIN);
-        snprintf(yaml, sizeof yaml, two_node_yaml, rtols[k]);
+        snprintf(yaml, sizeof yaml, TWO_NODE_YAML, rtols[k]);
         assert_int_equal(tp_yaml_net_open(&y, yaml), TP_OK);
         run_net(y.net, y.net->run.duration, y.net->run.step, y.net->run.tolerance, &h, &st);
         assert_int_equal(h.n, 361);
@@ -429,29 +428,29 @@ static double cell(const char *text)
 
 /* Nodes a, room (fixed), b in that order; sources p1 (constant) and p2 (electric); on-off
  * control of p1 reading b. An invented case. */
-static const char *const csv_yaml =
-    "network:\n"
-    "  nodes:\n"
-    "    - {id: a, capacity: 400 J/K, initial: 21 degC}\n"
-    "    - {id: room, fixed: 21 degC}\n"
-    "    - {id: b, capacity: 2 J/K, initial: 30 degC}\n"
-    "  links:\n"
-    "    - {between: [a, room], conductance: 1.2 W/K}\n"
-    "    - {between: [a, b], conductance: 0.1 W/K}\n"
-    "  sources:\n"
-    "    - {id: p1, node: a, power: 80 W}\n"
-    "    - {id: p2, node: b, supply: 24 V, resistance: 480 ohm, tempco: 0.004 1/K,"
-    " reference: 20 degC}\n"
-    "%s"
-    "run: {duration: 1 min, step: 5 s}\n";
+#define CSV_YAML                                                                                   \
+    "network:\n"                                                                                   \
+    "  nodes:\n"                                                                                   \
+    "    - {id: a, capacity: 400 J/K, initial: 21 degC}\n"                                         \
+    "    - {id: room, fixed: 21 degC}\n"                                                           \
+    "    - {id: b, capacity: 2 J/K, initial: 30 degC}\n"                                           \
+    "  links:\n"                                                                                   \
+    "    - {between: [a, room], conductance: 1.2 W/K}\n"                                           \
+    "    - {between: [a, b], conductance: 0.1 W/K}\n"                                              \
+    "  sources:\n"                                                                                 \
+    "    - {id: p1, node: a, power: 80 W}\n"                                                       \
+    "    - {id: p2, node: b, supply: 24 V, resistance: 480 ohm, tempco: 0.004 1/K,"                \
+    " reference: 20 degC}\n"                                                                       \
+    "%s"                                                                                           \
+    "run: {duration: 1 min, step: 5 s}\n"
 
-/* Run warmup on csv_yaml with `control` spliced in; returns the CSV text (caller frees). */
+/* Run warmup on CSV_YAML with `control` spliced in; returns the CSV text (caller frees). */
 static char *warmup_csv(tp_scratch *s, const char *control)
 {
     char yaml[2048], cfg[TP_TEST_PATH], csv[TP_TEST_PATH];
     tp_run_result r;
     char *text;
-    snprintf(yaml, sizeof yaml, csv_yaml, control);
+    snprintf(yaml, sizeof yaml, CSV_YAML, control);
     tp_scratch_write(s, "plate.yaml", yaml, cfg);
     tp_scratch_path(s, "out.csv", csv, sizeof csv);
     {
@@ -478,8 +477,8 @@ static char *warmup_csv(tp_scratch *s, const char *control)
  * 1.15384615 W. Tolerance 1e-8 relative: the cells carry 9 significant digits. */
 static void test_integrate_csv_columns_with_control(void **state)
 {
-    static const char *const header[] = {"time_s", "a_C", "b_C", "p1_W", "p2_W", "duty",
-                                         "reading_C"};
+    static const char *const header[] = {"time_s", "a_C",  "b_C",      "p1_W",
+                                         "p2_W",   "duty", "reading_C"};
     static const double first[] = {0.0, 21.0, 30.0, 80.0, 576.0 / (480.0 * 1.04), 1.0, 30.0};
     tp_scratch s;
     char *text, *line, *save = NULL, *f[16];

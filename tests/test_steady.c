@@ -39,17 +39,16 @@ static void full_steady(tp_yaml_net *y, const char *yaml, tp_steady *s)
  * T_a = 45 degC, T_b = 40 degC (series resistances add: 1/2 + 1/0.5 = 2.5 K/W). */
 static void test_steady_series_chain(void **state)
 {
-    static const char *const yaml =
-        "network:\n"
-        "  nodes:\n"
-        "    - {id: a, capacity: 100 J/K, initial: 20 degC}\n"
-        "    - {id: b, capacity: 100 J/K, initial: 20 degC}\n"
-        "    - {id: room, fixed: 20 degC}\n"
-        "  links:\n"
-        "    - {between: [a, b], conductance: 2 W/K}\n"
-        "    - {between: [b, room], conductance: 0.5 W/K}\n"
-        "  sources:\n"
-        "    - {id: pad, node: a, power: 10 W}\n";
+    static const char *const yaml = "network:\n"
+                                    "  nodes:\n"
+                                    "    - {id: a, capacity: 100 J/K, initial: 20 degC}\n"
+                                    "    - {id: b, capacity: 100 J/K, initial: 20 degC}\n"
+                                    "    - {id: room, fixed: 20 degC}\n"
+                                    "  links:\n"
+                                    "    - {between: [a, b], conductance: 2 W/K}\n"
+                                    "    - {between: [b, room], conductance: 0.5 W/K}\n"
+                                    "  sources:\n"
+                                    "    - {id: pad, node: a, power: 10 W}\n";
     tp_yaml_net y;
     tp_steady s;
     (void)state;
@@ -98,17 +97,16 @@ static void test_steady_series_parallel(void **state)
  * the node d hangs off m alone and carries no heat, so T_d = T_m. */
 static void test_steady_weighted_mean_between_boundaries(void **state)
 {
-    static const char *const yaml =
-        "network:\n"
-        "  nodes:\n"
-        "    - {id: hot, fixed: 80 degC}\n"
-        "    - {id: m, capacity: 50 J/K, initial: 20 degC}\n"
-        "    - {id: d, capacity: 5 J/K, initial: 20 degC}\n"
-        "    - {id: cold, fixed: 20 degC}\n"
-        "  links:\n"
-        "    - {between: [hot, m], conductance: 3 W/K}\n"
-        "    - {between: [m, cold], conductance: 1 W/K}\n"
-        "    - {between: [m, d], conductance: 0.2 W/K}\n";
+    static const char *const yaml = "network:\n"
+                                    "  nodes:\n"
+                                    "    - {id: hot, fixed: 80 degC}\n"
+                                    "    - {id: m, capacity: 50 J/K, initial: 20 degC}\n"
+                                    "    - {id: d, capacity: 5 J/K, initial: 20 degC}\n"
+                                    "    - {id: cold, fixed: 20 degC}\n"
+                                    "  links:\n"
+                                    "    - {between: [hot, m], conductance: 3 W/K}\n"
+                                    "    - {between: [m, cold], conductance: 1 W/K}\n"
+                                    "    - {between: [m, d], conductance: 0.2 W/K}\n";
     tp_yaml_net y;
     tp_steady s;
     (void)state;
@@ -149,19 +147,19 @@ static void test_steady_radiation_only(void **state)
 
 /* A simple controlled plant (invented): plate --1.5 W/K-- room (20 degC), plate --0.05 W/K--
  * sensor --0.01 W/K-- room, a 100 W pad on the plate, the controller reading the sensor. */
-static const char *const plant_yaml =
-    "network:\n"
-    "  nodes:\n"
-    "    - {id: plate, capacity: 500 J/K, initial: 20 degC}\n"
-    "    - {id: sensor, capacity: 0.2 J/K, initial: 20 degC}\n"
-    "    - {id: room, fixed: 20 degC}\n"
-    "  links:\n"
-    "    - {between: [plate, room], conductance: 1.5 W/K}\n"
-    "    - {between: [plate, sensor], conductance: 0.05 W/K}\n"
-    "    - {between: [sensor, room], conductance: 0.01 W/K}\n"
-    "  sources:\n"
-    "    - {id: pad, node: plate, power: 100 W}\n"
-    "control: {source: pad, sensor: sensor, mode: on-off, setpoint: %s, band: 2 K}\n";
+#define PLANT_YAML                                                                                 \
+    "network:\n"                                                                                   \
+    "  nodes:\n"                                                                                   \
+    "    - {id: plate, capacity: 500 J/K, initial: 20 degC}\n"                                     \
+    "    - {id: sensor, capacity: 0.2 J/K, initial: 20 degC}\n"                                    \
+    "    - {id: room, fixed: 20 degC}\n"                                                           \
+    "  links:\n"                                                                                   \
+    "    - {between: [plate, room], conductance: 1.5 W/K}\n"                                       \
+    "    - {between: [plate, sensor], conductance: 0.05 W/K}\n"                                    \
+    "    - {between: [sensor, room], conductance: 0.01 W/K}\n"                                     \
+    "  sources:\n"                                                                                 \
+    "    - {id: pad, node: plate, power: 100 W}\n"                                                 \
+    "control: {source: pad, sensor: sensor, mode: on-off, setpoint: %s, band: 2 K}\n"
 
 /* Holding power, hand calculation. With the sensor held at T_s = 70 degC:
  *   sensor: 0.05 (T_p - T_s) = 0.01 (T_s - T_r)  -> T_p - T_s = 0.2 x 50 = 10 K, T_p = 80 degC
@@ -172,7 +170,7 @@ static void test_steady_holding_power(void **state)
     tp_yaml_net y;
     tp_steady s;
     (void)state;
-    snprintf(yaml, sizeof yaml, plant_yaml, "70 degC");
+    snprintf(yaml, sizeof yaml, PLANT_YAML, "70 degC");
     assert_int_equal(tp_yaml_net_open(&y, yaml), TP_OK);
     assert_int_equal(tp_steady_hold(y.net, &s, &y.diag), TP_OK);
     tp_check_abs("T_sensor", node_c(y.net, &s, "sensor"), 70.0, TEMP_TOL);
@@ -197,7 +195,7 @@ static void test_steady_setpoint_out_of_reach(void **state)
     tp_yaml_net y;
     tp_steady s;
     (void)state;
-    snprintf(yaml, sizeof yaml, plant_yaml, "150 degC");
+    snprintf(yaml, sizeof yaml, PLANT_YAML, "150 degC");
     assert_int_equal(tp_yaml_net_open(&y, yaml), TP_OK);
     assert_int_equal(tp_steady_hold(y.net, &s, &y.diag), TP_ERR_SOLVER);
     tp_check_contains("message", y.diag.log, "out of reach");
@@ -212,16 +210,15 @@ static void test_steady_setpoint_out_of_reach(void **state)
  * only a and b are linked. */
 static void test_steady_no_path_to_fixed(void **state)
 {
-    static const char *const yaml =
-        "network:\n"
-        "  nodes:\n"
-        "    - {id: a, capacity: 100 J/K, initial: 20 degC}\n"
-        "    - {id: b, capacity: 100 J/K, initial: 20 degC}\n"
-        "    - {id: room, fixed: 20 degC}\n"
-        "  links:\n"
-        "    - {between: [a, b], conductance: 2 W/K}\n"
-        "  sources:\n"
-        "    - {id: pad, node: a, power: 10 W}\n";
+    static const char *const yaml = "network:\n"
+                                    "  nodes:\n"
+                                    "    - {id: a, capacity: 100 J/K, initial: 20 degC}\n"
+                                    "    - {id: b, capacity: 100 J/K, initial: 20 degC}\n"
+                                    "    - {id: room, fixed: 20 degC}\n"
+                                    "  links:\n"
+                                    "    - {between: [a, b], conductance: 2 W/K}\n"
+                                    "  sources:\n"
+                                    "    - {id: pad, node: a, power: 10 W}\n";
     tp_yaml_net y;
     tp_steady s;
     (void)state;
@@ -254,7 +251,7 @@ static void test_steady_cli_json(void **state)
     cJSON *root, *nodes;
     (void)state;
     tp_scratch_create(&sc);
-    snprintf(yaml, sizeof yaml, plant_yaml, "70 degC");
+    snprintf(yaml, sizeof yaml, PLANT_YAML, "70 degC");
     tp_scratch_write(&sc, "plant.yaml", yaml, cfg);
     tp_scratch_path(&sc, "steady.json", out, sizeof out);
     {
@@ -288,7 +285,7 @@ static void test_steady_cli_failures_exit_1(void **state)
     (void)state;
     tp_scratch_create(&sc);
     tp_scratch_path(&sc, "steady.json", out, sizeof out);
-    snprintf(yaml, sizeof yaml, plant_yaml, "150 degC");
+    snprintf(yaml, sizeof yaml, PLANT_YAML, "150 degC");
     tp_scratch_write(&sc, "reach.yaml", yaml, cfg);
     {
         const char *args[] = {"steady", cfg, "--json", out, NULL};

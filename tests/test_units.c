@@ -110,8 +110,8 @@ static void test_units_absolute_versus_interval(void **state)
                      TP_OK);
     tp_check_rel("2 degC absolute", abs_k, 275.15, UNIT_TOL);
     tp_check_rel("2 degC interval", int_k, 2.0, UNIT_TOL);
-    assert_int_equal(tp_units_parse("3.6 degF", TP_DIM_TEMPERATURE, &abs_k, msg, sizeof msg,
-                                    &hint), TP_OK);
+    assert_int_equal(tp_units_parse("3.6 degF", TP_DIM_TEMPERATURE, &abs_k, msg, sizeof msg, &hint),
+                     TP_OK);
     tp_check_rel("3.6 degF absolute", abs_k, (3.6 + 459.67) / 1.8, UNIT_TOL);
 }
 
@@ -188,8 +188,8 @@ static void test_units_surrounding_whitespace(void **state)
     const char *hint;
     double si = NAN;
     (void)state;
-    assert_int_equal(tp_units_parse("  21 degC  ", TP_DIM_TEMPERATURE, &si, msg, sizeof msg,
-                                    &hint), TP_OK);
+    assert_int_equal(tp_units_parse("  21 degC  ", TP_DIM_TEMPERATURE, &si, msg, sizeof msg, &hint),
+                     TP_OK);
     tp_check_rel("21 degC", si, 294.15, UNIT_TOL);
     assert_int_equal(tp_units_parse("4 mm ", TP_DIM_LENGTH, &si, msg, sizeof msg, &hint), TP_OK);
     tp_check_rel("4 mm", si, 0.004, UNIT_TOL);
@@ -216,8 +216,8 @@ static void test_units_from_si(void **state)
  * config takes plain decimals only). */
 static void test_units_parse_double_strict(void **state)
 {
-    static const char *const bad[] = {"", "  ", "0x10", "0x1p3", "nan", "NAN", "inf",
-                                      "-Infinity", "1e999", "3 x", "1,5", "1e", "--1"};
+    static const char *const bad[] = {"",          "  ",    "0x10", "0x1p3", "nan", "NAN", "inf",
+                                      "-Infinity", "1e999", "3 x",  "1,5",   "1e",  "--1"};
     double v;
     (void)state;
     assert_int_equal(tp_parse_double(" 3.5 ", &v), 0);

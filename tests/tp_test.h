@@ -169,10 +169,10 @@ static inline void tp_run_tepid(const tp_scratch *s, const char *const *args, tp
     tp_scratch_path(s, "run.stdout", out_path, sizeof out_path);
     tp_scratch_path(s, "run.stderr", err_path, sizeof err_path);
     assert_int_equal(posix_spawn_file_actions_init(&fa), 0);
-    assert_int_equal(posix_spawn_file_actions_addopen(&fa, 1, out_path,
-                                                      O_WRONLY | O_CREAT | O_TRUNC, 0644), 0);
-    assert_int_equal(posix_spawn_file_actions_addopen(&fa, 2, err_path,
-                                                      O_WRONLY | O_CREAT | O_TRUNC, 0644), 0);
+    assert_int_equal(
+        posix_spawn_file_actions_addopen(&fa, 1, out_path, O_WRONLY | O_CREAT | O_TRUNC, 0644), 0);
+    assert_int_equal(
+        posix_spawn_file_actions_addopen(&fa, 2, err_path, O_WRONLY | O_CREAT | O_TRUNC, 0644), 0);
     assert_int_equal(posix_spawn(&pid, TP_TEPID_EXE, &fa, NULL, argv, environ), 0);
     posix_spawn_file_actions_destroy(&fa);
     assert_int_equal(waitpid(pid, &wstatus, 0), pid);
