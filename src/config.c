@@ -322,31 +322,41 @@ static size_t *count_at(void *base, size_t off)
     return (size_t *)(void *)((char *)base + off);
 }
 
-/* Levenshtein distance, capped: enough to suggest a key name. */
+/* Edit distance with adjacent transpositions (optimal string alignment), case-insensitive,
+ * capped: enough to suggest a key name. A swapped pair ("stpe" for "step") costs 1, as the
+ * commonest typo should; plain Levenshtein counts it 2. */
 static int distance(const char *a, const char *b)
 {
     size_t la = strlen(a), lb = strlen(b), i, j;
-    int row[64], prev, tmp;
+    int rows[3][64], *back2, *back, *row, *t;
     if (la >= 63 || lb >= 63)
         return 99;
+    back2 = rows[0];
+    back = rows[1];
+    row = rows[2];
     for (j = 0; j <= lb; j++)
-        row[j] = (int)j;
+        back[j] = (int)j;
     for (i = 1; i <= la; i++) {
-        prev = row[0];
+        int ai = tolower((unsigned char)a[i - 1]);
         row[0] = (int)i;
         for (j = 1; j <= lb; j++) {
-            int cost = tolower((unsigned char)a[i - 1]) != tolower((unsigned char)b[j - 1]);
-            int best = prev + cost;
-            if (row[j] + 1 < best)
-                best = row[j] + 1;
+            int bj = tolower((unsigned char)b[j - 1]);
+            int best = back[j - 1] + (ai != bj);
+            if (back[j] + 1 < best)
+                best = back[j] + 1;
             if (row[j - 1] + 1 < best)
                 best = row[j - 1] + 1;
-            tmp = row[j];
+            if (i > 1 && j > 1 && ai == tolower((unsigned char)b[j - 2]) &&
+                tolower((unsigned char)a[i - 2]) == bj && back2[j - 2] + 1 < best)
+                best = back2[j - 2] + 1;
             row[j] = best;
-            prev = tmp;
         }
+        t = back2;
+        back2 = back;
+        back = row;
+        row = t;
     }
-    return row[lb];
+    return back[lb];
 }
 
 /* "did you mean" for `word` among `names`; writes into hint (empty when nothing is close). */

@@ -171,6 +171,30 @@ static tp_loc mark_loc(builder *b, const yaml_mark_t *m)
     return loc;
 }
 
+/* The dotted path of `key` in the map on top of the stack, named as config.c names keys in
+ * its messages: map keys, list items by their id when they have one, else by index. */
+static void key_path(const builder *b, const char *key, char *out, size_t size)
+{
+    size_t len = 0;
+    int i;
+    out[0] = '\0';
+    for (i = 1; i < b->depth && len < size; i++) {
+        const tp_doc_node *up = b->stack[i - 1];
+        const tp_doc_node *id = tp_doc_get(b->stack[i], "id");
+        char label[32];
+        const char *name = label;
+        if (up->kind == TP_DOC_MAP)
+            name = up->keys[up->n - 1]->text;
+        else if (id && id->kind == TP_DOC_SCALAR)
+            name = id->text;
+        else
+            snprintf(label, sizeof label, "%zu", up->n - 1);
+        len += (size_t)snprintf(out + len, size - len, "%s.", name);
+    }
+    if (len < size)
+        snprintf(out + len, size - len, "%s", key);
+}
+
 /* Attach a finished node to the open parent (or make it the root). */
 static int attach(builder *b, tp_doc_node *n)
 {
@@ -192,10 +216,11 @@ static int attach(builder *b, tp_doc_node *n)
         }
         for (i = 0; i < parent->n; i++) {
             if (strcmp(parent->keys[i]->text, n->text) == 0) {
-                char hint[96];
+                char hint[96], path[256];
                 snprintf(hint, sizeof hint, "the first '%s' is at line %d; keep one of them",
                          n->text, parent->keys[i]->line);
-                tp_diag_error(b->d, tp_doc_loc(n), n->text, hint, "duplicate key");
+                key_path(b, n->text, path, sizeof path);
+                tp_diag_error(b->d, tp_doc_loc(n), path, hint, "duplicate key");
                 node_free(n);
                 return -1;
             }

@@ -219,6 +219,8 @@ tp_status tp_units_parse(const char *text, tp_dim dim, double *si, char *msg, si
 {
     double number, offset, scale, value;
     const char *unit;
+    char trimmed[UNIT_TEXT_MAX];
+    size_t len;
     int rc;
 
     *hint = "";
@@ -232,6 +234,15 @@ tp_status tp_units_parse(const char *text, tp_dim dim, double *si, char *msg, si
         *hint = dim == TP_DIM_NONE ? "write a plain decimal number, e.g. 0.9"
                                    : "write a number then a unit, e.g. the example in the docs";
         return TP_ERR_CONFIG;
+    }
+    /* Trailing blanks (a quoted YAML value keeps them) are not part of the unit. */
+    len = strlen(unit);
+    while (len > 0 && isspace((unsigned char)unit[len - 1]))
+        len--;
+    if (len < sizeof trimmed) {
+        memcpy(trimmed, unit, len);
+        trimmed[len] = '\0';
+        unit = trimmed;
     }
     if (*unit == '\0') {
         if (dim == TP_DIM_NONE) {

@@ -1,0 +1,71 @@
+#!/usr/bin/env bash
+# Benchmark (not a ctest test): wall time of the whole `tepid warmup` process on the five-node
+# raw demo (4 free nodes, on-off control sampled every 1 s, 30 simulated minutes), and the
+# solver's work from the run summary: CVODE steps, right-hand-side and Jacobian evaluations,
+# restarts. Issue 2 target: under 20 ms for the whole process on one core.
+#
+#   tests/bench/bench_five_node.sh [CONFIG]     (after cmake --build build)
+#   RUNS=200 TEPID=build/tepid tests/bench/bench_five_node.sh
+#
+# Timing: hyperfine when installed (no shell, warm-up runs), else a loop timed with bash's
+# $EPOCHREALTIME (no fork per sample). The process is pinned to one core with taskset when
+# available. The figure reported is the median; min and max show the spread.
+set -euo pipefail
+
+here=$(cd "$(dirname "$0")" && pwd)
+root=$(cd "$here/../.." && pwd)
+exe=${TEPID:-$root/build/tepid}
+cfg=${1:-$root/configs/raw-five-node.yaml}
+runs=${RUNS:-100}
+target_ms=20
+
+if [ ! -x "$exe" ]; then
+  echo "bench: no binary at $exe; build first (cmake -S . -B build && cmake --build build)" >&2
+  exit 2
+fi
+pin=()
+if command -v taskset >/dev/null 2>&1; then pin=(taskset -c 0); fi
+
+# The solver's work, from the summary line
+#   simulated 30 min 00 s: 880 steps, 1163 right-hand sides, 21 Jacobians, 19 restarts (dense LU)
+line=$("$exe" warmup "$cfg" | grep -E '^ +simulated .*steps') || {
+  echo "bench: no 'simulated ...' line in the warmup summary" >&2
+  exit 1
+}
+steps=$(sed -E 's/.*: ([0-9]+) steps.*/\1/' <<<"$line")
+rhs=$(sed -E 's/.* ([0-9]+) right-hand sides.*/\1/' <<<"$line")
+jac=$(sed -E 's/.* ([0-9]+) Jacobians.*/\1/' <<<"$line")
+restarts=$(sed -E 's/.* ([0-9]+) restarts.*/\1/' <<<"$line")
+
+# Whole-process wall times in milliseconds, one per line, sorted.
+times_file=$(mktemp)
+trap 'rm -f "$times_file" "$times_file.json"' EXIT
+if command -v hyperfine >/dev/null 2>&1; then
+  tool=hyperfine
+  hyperfine -N --warmup 5 --runs "$runs" --export-json "$times_file.json" \
+    "${pin[*]} $exe warmup $cfg -q" >/dev/null
+  python3 -c 'import json,sys
+for t in json.load(open(sys.argv[1]))["results"][0]["times"]: print("%.4f" % (1000 * t))' \
+    "$times_file.json" | sort -n >"$times_file"
+else
+  tool='bash $EPOCHREALTIME loop'
+  for _ in 1 2 3 4 5; do "${pin[@]}" "$exe" warmup "$cfg" -q; done # page cache, CPU clock
+  for ((i = 0; i < runs; i++)); do
+    t0=$EPOCHREALTIME
+    "${pin[@]}" "$exe" warmup "$cfg" -q
+    t1=$EPOCHREALTIME
+    awk -v a="$t0" -v b="$t1" 'BEGIN { printf "%.4f\n", 1000 * (b - a) }'
+  done | sort -n >"$times_file"
+fi
+
+n=$(wc -l <"$times_file")
+median=$(awk -v n="$n" 'NR == int((n + 1) / 2) { m = $1 } NR == int(n / 2) + 1 { m2 = $1 }
+  END { printf "%.2f", (n % 2) ? m : (m + m2) / 2 }' "$times_file")
+min=$(head -n 1 "$times_file")
+max=$(tail -n 1 "$times_file")
+
+echo "tepid warmup $(basename "$cfg") -q: $n runs ($tool${pin:+, pinned to CPU 0})"
+printf '  wall time, whole process: median %s ms (min %.2f, max %.2f); target < %d ms: %s\n' \
+  "$median" "$min" "$max" "$target_ms" \
+  "$(awk -v m="$median" -v t="$target_ms" 'BEGIN { print (m < t) ? "met" : "NOT met" }')"
+echo "  CVODE: $steps steps, $rhs right-hand sides, $jac Jacobians, $restarts restarts"

@@ -1,0 +1,225 @@
+/* Helpers shared by the cmocka tests: tolerance checks, a scratch directory, running the tepid
+ * binary with its output captured, and a network built from a YAML string. Header only: each
+ * test program is one translation unit (tests/CMakeLists.txt builds tests/test_*.c). */
+#ifndef TP_TEST_H
+#define TP_TEST_H
+
+#include <stdarg.h>
+#include <stddef.h>
+#include <stdint.h>
+#include <setjmp.h>
+#include <cmocka.h>
+
+#include <dirent.h>
+#include <fcntl.h>
+#include <math.h>
+#include <spawn.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+#include <sys/wait.h>
+#include <unistd.h>
+
+#include "assemble.h"
+#include "config.h"
+#include "diag.h"
+#include "doc.h"
+#include "network.h"
+
+#define TP_TEST_KELVIN 273.15 /* K at 0 degC (BIPM SI Brochure, 9th ed., 2.3.1) */
+#define TP_TEST_PATH 1024     /* bytes of a scratch path */
+
+extern char **environ;
+
+/* |actual - expected| <= tol, else fail naming `what`. */
+static inline void tp_check_abs(const char *what, double actual, double expected, double tol)
+{
+    if (!(fabs(actual - expected) <= tol)) {
+        print_error("%s: got %.17g, expected %.17g (absolute tolerance %g)\n", what, actual,
+                    expected, tol);
+        fail();
+    }
+}
+
+/* |actual - expected| <= tol |expected|. */
+static inline void tp_check_rel(const char *what, double actual, double expected, double tol)
+{
+    if (!(fabs(actual - expected) <= tol * fabs(expected))) {
+        print_error("%s: got %.17g, expected %.17g (relative tolerance %g)\n", what, actual,
+                    expected, tol);
+        fail();
+    }
+}
+
+/* `text` contains `part`, else fail showing both. */
+static inline void tp_check_contains(const char *what, const char *text, const char *part)
+{
+    if (!text || !strstr(text, part)) {
+        print_error("%s: expected to find\n  [%s]\nin\n  [%s]\n", what, part, text ? text : "");
+        fail();
+    }
+}
+
+/* ---- a scratch directory ------------------------------------------------------------------ */
+
+typedef struct tp_scratch {
+    char dir[TP_TEST_PATH];
+} tp_scratch;
+
+/* A fresh empty directory under the build tree. */
+static inline void tp_scratch_create(tp_scratch *s)
+{
+    int n = snprintf(s->dir, sizeof s->dir, "%s/tests/scratch.XXXXXX", TP_BINARY_DIR);
+    assert_true(n > 0 && (size_t)n < sizeof s->dir);
+    assert_non_null(mkdtemp(s->dir));
+}
+
+/* The path of `name` inside the directory. */
+static inline void tp_scratch_path(const tp_scratch *s, const char *name, char *out, size_t size)
+{
+    int n = snprintf(out, size, "%s/%s", s->dir, name);
+    assert_true(n > 0 && (size_t)n < size);
+}
+
+/* Write `text` into `name`; the path goes to `out` (TP_TEST_PATH bytes) when not NULL. */
+static inline void tp_scratch_write(const tp_scratch *s, const char *name, const char *text,
+                                    char *out)
+{
+    char path[TP_TEST_PATH];
+    FILE *fp;
+    tp_scratch_path(s, name, path, sizeof path);
+    fp = fopen(path, "w");
+    assert_non_null(fp);
+    assert_true(fputs(text, fp) >= 0);
+    assert_int_equal(fclose(fp), 0);
+    if (out)
+        snprintf(out, TP_TEST_PATH, "%s", path);
+}
+
+/* Remove the directory and the files in it (it holds no subdirectories). */
+static inline void tp_scratch_destroy(tp_scratch *s)
+{
+    DIR *dp = opendir(s->dir);
+    struct dirent *e;
+    char path[TP_TEST_PATH];
+    if (!dp)
+        return;
+    while ((e = readdir(dp)) != NULL) {
+        if (strcmp(e->d_name, ".") == 0 || strcmp(e->d_name, "..") == 0)
+            continue;
+        tp_scratch_path(s, e->d_name, path, sizeof path);
+        remove(path);
+    }
+    closedir(dp);
+    rmdir(s->dir);
+}
+
+static inline int tp_file_exists(const char *path)
+{
+    struct stat st;
+    return stat(path, &st) == 0;
+}
+
+/* The whole file as a NUL-terminated string (caller frees), or NULL when unreadable. */
+static inline char *tp_read_file(const char *path)
+{
+    FILE *fp = fopen(path, "rb");
+    char *buf = NULL;
+    long len;
+    if (!fp)
+        return NULL;
+    if (fseek(fp, 0, SEEK_END) == 0 && (len = ftell(fp)) >= 0 && fseek(fp, 0, SEEK_SET) == 0) {
+        buf = malloc((size_t)len + 1);
+        if (buf && fread(buf, 1, (size_t)len, fp) != (size_t)len) {
+            free(buf);
+            buf = NULL;
+        }
+        if (buf)
+            buf[len] = '\0';
+    }
+    fclose(fp);
+    return buf;
+}
+
+/* ---- running the binary ------------------------------------------------------------------- */
+
+typedef struct tp_run_result {
+    int status; /* exit status; -1 when the process did not exit normally */
+    char *out;  /* standard output */
+    char *err;  /* standard error */
+} tp_run_result;
+
+/* Run TP_TEPID_EXE with `args` (NULL-terminated, without the program name), standard output
+ * and error captured through files in the scratch directory. */
+static inline void tp_run_tepid(const tp_scratch *s, const char *const *args, tp_run_result *r)
+{
+    char out_path[TP_TEST_PATH], err_path[TP_TEST_PATH];
+    char *argv[64];
+    posix_spawn_file_actions_t fa;
+    pid_t pid;
+    int n = 0, wstatus = 0;
+    argv[n++] = (char *)TP_TEPID_EXE;
+    while (args[n - 1]) {
+        assert_true(n < 63);
+        argv[n] = (char *)args[n - 1];
+        n++;
+    }
+    argv[n] = NULL;
+    tp_scratch_path(s, "run.stdout", out_path, sizeof out_path);
+    tp_scratch_path(s, "run.stderr", err_path, sizeof err_path);
+    assert_int_equal(posix_spawn_file_actions_init(&fa), 0);
+    assert_int_equal(
+        posix_spawn_file_actions_addopen(&fa, 1, out_path, O_WRONLY | O_CREAT | O_TRUNC, 0644), 0);
+    assert_int_equal(
+        posix_spawn_file_actions_addopen(&fa, 2, err_path, O_WRONLY | O_CREAT | O_TRUNC, 0644), 0);
+    assert_int_equal(posix_spawn(&pid, TP_TEPID_EXE, &fa, NULL, argv, environ), 0);
+    posix_spawn_file_actions_destroy(&fa);
+    assert_int_equal(waitpid(pid, &wstatus, 0), pid);
+    r->status = WIFEXITED(wstatus) ? WEXITSTATUS(wstatus) : -1;
+    r->out = tp_read_file(out_path);
+    r->err = tp_read_file(err_path);
+    assert_non_null(r->out);
+    assert_non_null(r->err);
+    remove(out_path);
+    remove(err_path);
+}
+
+static inline void tp_run_clear(tp_run_result *r)
+{
+    free(r->out);
+    free(r->err);
+    r->out = r->err = NULL;
+}
+
+/* ---- a network from a YAML string ----------------------------------------------------------- */
+
+typedef struct tp_yaml_net {
+    tp_doc *doc;
+    tp_desc desc;
+    tp_network *net; /* NULL when the text did not assemble */
+    tp_diag diag;    /* messages kept in diag.log, not printed */
+} tp_yaml_net;
+
+/* Read and assemble `text` as the file "test.yaml"; returns the first failing status. */
+static inline tp_status tp_yaml_net_open(tp_yaml_net *y, const char *text)
+{
+    tp_status st;
+    memset(y, 0, sizeof *y);
+    tp_diag_init(&y->diag, NULL);
+    st = tp_doc_load_text("test.yaml", text, strlen(text), &y->doc, &y->diag);
+    if (st == TP_OK)
+        st = tp_config_read(y->doc, &y->desc, &y->diag);
+    if (st == TP_OK)
+        st = tp_assemble(&y->desc, y->doc, &y->diag, &y->net);
+    return st;
+}
+
+static inline void tp_yaml_net_close(tp_yaml_net *y)
+{
+    tp_network_destroy(&y->net);
+    tp_desc_clear(&y->desc);
+    tp_doc_destroy(&y->doc);
+}
+
+#endif
