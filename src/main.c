@@ -80,7 +80,6 @@ static int run(int argc, char **argv)
         tp_cli_help(verb, stdout);
         return TP_EXIT_OK;
     }
-    d.quiet = tp_cli_flag(&cli, "quiet");
     st = verb->run(&cli, &d);
     return tp_status_exit_code(st);
 }
