@@ -283,10 +283,11 @@ static void summary(FILE *fp, const tp_session *s, const tp_guard_study *st, int
     fprintf(fp, "tepid guard %s%s%s\n  ", s->cli->file, s->desc.title[0] ? ": " : "",
             s->desc.title);
     tp_report_network(fp, s->net);
-    fprintf(fp, "  %d healthy run%s (nominal%s), 6 faults from the cold start and from hold, "
+    fprintf(fp, "  %d healthy run%s (nominal%s), %d faults from the cold start and from hold, "
                 "followed %.0f min; reading step near the setpoint %.3f K\n\n",
             st->n_corners, st->n_corners == 1 ? "" : "s",
             st->n_corners > 1 ? " and every combination of the ranges' ends" : " only",
+            TP_FAULT_COUNT,
             st->horizon / 60.0, st->resolution);
     print_settings(fp, st, evaluating);
     print_corners(fp, st);
@@ -543,7 +544,10 @@ static tp_status write_plot(const char *path, const tp_session *s, const tp_guar
     lines[nl++] = (tp_plot_hline){"setpoint", st->setpoint - TP_KELVIN_0C};
     if (isfinite(st->used.ceiling))
         lines[nl++] = (tp_plot_hline){"ceiling", st->used.ceiling - TP_KELVIN_0C};
-    if (isfinite(st->used.approach))
+    /* The end of the rise check only when it stands clear of the other lines (labels
+     * overlap within a few kelvin). */
+    if (isfinite(st->used.approach) && st->used.approach >= 3.0 &&
+        !(fabs(st->used.approach - st->used.hold_band) < 3.0))
         lines[nl++] = (tp_plot_hline){"rise check ends", st->setpoint - st->used.approach -
                                                               TP_KELVIN_0C};
     if (isfinite(st->used.hold_band))
