@@ -278,6 +278,48 @@ static const key wiring_keys[] = {
         too_big),
 };
 static const section wiring_sec = {wiring_keys, N(wiring_keys)};
+/* Protection design (docs/guard.md). */
+static const key guard_step_keys[] = {
+    QTY(tp_guard_step, after, "after", TP_DIM_TIME, F_REQ | F_NONNEG, 86400, too_big),
+    QTY(tp_guard_step, airflow, "airflow", TP_DIM_SPEED, F_REQ | F_NONNEG, 30, too_big),
+};
+static const section guard_step_sec = {guard_step_keys, N(guard_step_keys)};
+
+static const key guard_sheet_keys[] = {
+    QTY(tp_guard_sheet, after, "after", TP_DIM_TIME, F_REQ | F_NONNEG, 86400, too_big),
+    QTY(tp_guard_sheet, capacity, "capacity", TP_DIM_CAPACITY, F_REQ | F_POS, 1e6, too_big),
+};
+static const section guard_sheet_sec = {guard_sheet_keys, N(guard_sheet_keys)};
+
+static const key guard_settings_keys[] = {
+    QTY(tp_guard_settings, rise_window, "rise_window", TP_DIM_TIME, F_POS, 86400, too_big),
+    QTY(tp_guard_settings, rise_min, "rise_min", TP_DIM_INTERVAL, F_POS, 500, too_big),
+    QTY(tp_guard_settings, approach, "approach", TP_DIM_INTERVAL, F_NONNEG, 500, too_big),
+    QTY(tp_guard_settings, hold_band, "hold_band", TP_DIM_INTERVAL, F_POS, 500, too_big),
+    QTY(tp_guard_settings, hold_grace, "hold_grace", TP_DIM_TIME, F_NONNEG, 86400, too_big),
+    QTY(tp_guard_settings, ceiling, "ceiling", TP_DIM_TEMPERATURE, F_POS, 3000, too_big),
+};
+static const section guard_settings_sec = {guard_settings_keys, N(guard_settings_keys)};
+
+static const key guard_keys[] = {
+    QPAIR(tp_guard_spec, supply, "supply", TP_DIM_VOLTAGE, F_POS, 1000, too_big),
+    QTY(tp_guard_spec, resistance, "resistance", TP_DIM_NONE, F_NONNEG, 0.5,
+        "a tolerance as a fraction or a percentage, e.g. 5 %"),
+    QPAIR(tp_guard_spec, room, "room", TP_DIM_TEMPERATURE, F_POS, 400,
+          "a room is between about -40 and 120 degC"),
+    QPAIR(tp_guard_spec, airflow, "airflow", TP_DIM_SPEED, F_NONNEG, 30, too_big),
+    MAP(tp_guard_spec, gust, "gust", guard_step_sec, F_PRESENT),
+    MAP(tp_guard_spec, sheet, "sheet", guard_sheet_sec, F_PRESENT),
+    QTY(tp_guard_spec, hold, "hold", TP_DIM_TIME, F_POS, 86400, too_big),
+    QTY(tp_guard_spec, horizon, "horizon", TP_DIM_TIME, F_POS, 30 * 86400.0,
+        "follow a fault at most 30 days"),
+    QTY(tp_guard_spec, detached_loss, "detached_loss", TP_DIM_CONDUCTANCE, F_POS, 1e3, too_big),
+    QTY(tp_guard_spec, time_factor, "time_factor", TP_DIM_NONE, F_POS, 100,
+        "a factor of 1 or more on healthy durations, e.g. 1.5"),
+    QTY(tp_guard_spec, rise_factor, "rise_factor", TP_DIM_NONE, F_FRAC, 0, NULL),
+    MAP(tp_guard_spec, settings, "settings", guard_settings_sec, F_PRESENT),
+};
+static const section guard_sec = {guard_keys, N(guard_keys)};
 
 static const key top_keys[] = {
     TEXT(tp_desc, title, "title"),
@@ -295,6 +337,7 @@ static const key top_keys[] = {
     MAP(tp_desc, supply, "supply", supply_sec, F_PRESENT),
     LIST(tp_desc, loads, n_loads, tp_load, "loads", load_sec, 0, 64),
     MAP(tp_desc, wiring, "wiring", wiring_sec, F_PRESENT),
+    MAP(tp_desc, guard, "guard", guard_sec, F_PRESENT),
 };
 static const section top_sec = {top_keys, N(top_keys)};
 
@@ -690,6 +733,9 @@ static void set_default(double *x, double v)
 #define TP_DEFAULT_BAND 2.0         /* K, on-off hysteresis */
 #define TP_REFERENCE_20C 293.15     /* K, resistance reference temperature 20 degC */
 #define TP_ATMOSPHERE 101325.0      /* Pa, standard atmosphere */
+#define TP_GUARD_HOLD 600.0         /* s a healthy corner is followed after reaching the setpoint */
+#define TP_GUARD_TIME_FACTOR 1.5    /* -, safety factor on healthy durations (docs/guard.md) */
+#define TP_GUARD_RISE_FACTOR 0.67   /* -, safety factor on healthy rises (docs/guard.md) */
 
 static void apply_defaults(tp_desc *c)
 {
@@ -714,6 +760,10 @@ static void apply_defaults(tp_desc *c)
     set_default(&c->heater.supply_resistance, 0.0);
     set_default(&c->sensor.offset, 0.0);
     set_default(&c->bed.mounts.conductance, 0.0);
+    set_default(&c->guard.resistance, 0.0);
+    set_default(&c->guard.hold, TP_GUARD_HOLD);
+    set_default(&c->guard.time_factor, TP_GUARD_TIME_FACTOR);
+    set_default(&c->guard.rise_factor, TP_GUARD_RISE_FACTOR);
     if (c->sensor.thermistor.present) {
         set_default(&c->sensor.thermistor.supply, 3.3);
         set_default(&c->sensor.thermistor.adc_reference, c->sensor.thermistor.supply);

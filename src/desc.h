@@ -206,6 +206,45 @@ typedef struct tp_wiring {
     double length;            /* m, one way from the supply to the heater */
     double switch_resistance; /* ohm, on-resistance of the switching element */
 } tp_wiring;
+/* ---- protection design (`guard:`, docs/guard.md) ---- */
+typedef struct tp_guard_step {
+    int present;
+    double after;   /* s after the reading first reaches the setpoint */
+    double airflow; /* m/s: the gust's airflow across the top face */
+} tp_guard_step;
+
+typedef struct tp_guard_sheet {
+    int present;
+    double after;    /* s after the reading first reaches the setpoint */
+    double capacity; /* J/K of the cold sheet, at room temperature, added to the top layer */
+} tp_guard_sheet;
+
+/* The thresholds of the three checks; unset members are recommended. */
+typedef struct tp_guard_settings {
+    int present;
+    double rise_window; /* s */
+    double rise_min;    /* K, interval */
+    double approach;    /* K, interval below the setpoint where the rise check ends */
+    double hold_band;   /* K, interval */
+    double hold_grace;  /* s */
+    double ceiling;     /* K, absolute */
+} tp_guard_settings;
+
+typedef struct tp_guard_spec {
+    int present;
+    double supply[2];     /* V, range of the supply voltage; unset: none */
+    double resistance;    /* -, heater resistance tolerance (R0 times 1 -/+ this) */
+    double room[2];       /* K, range of the room temperature */
+    double airflow[2];    /* m/s, range of the airflow across the top face */
+    tp_guard_step gust;   /* a step in airflow during hold */
+    tp_guard_sheet sheet; /* a cold sheet placed on the plate during hold */
+    double hold;          /* s each healthy corner is followed after reaching the setpoint */
+    double horizon;       /* s each fault is followed; unset: run.duration */
+    double detached_loss; /* W/K a detached sensor keeps to the air; unset: coupling / 10 */
+    double time_factor;   /* -, safety factor on healthy durations (>= 1) */
+    double rise_factor;   /* -, safety factor on healthy rises and margins (<= 1) */
+    tp_guard_settings settings;
+} tp_guard_spec;
 
 typedef struct tp_desc {
     tp_form form;
@@ -225,6 +264,7 @@ typedef struct tp_desc {
     tp_load *loads;
     size_t n_loads;
     tp_wiring wiring;
+    tp_guard_spec guard;
 } tp_desc;
 
 /* Name of a control mode as written in configs ("on-off"); defined in config.c. */

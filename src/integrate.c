@@ -415,10 +415,12 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
         }
         if (restart) {
             if (restart == 2) {
-                /* Apply every break at this time, then a tick due at the same instant. */
+                /* Apply every break at this time, then a tick due at the same instant. A break
+                 * may change links and capacities: the cached Jacobian no longer holds. */
                 while (next_break < r.hooks->n_breaks && r.hooks->breaks[next_break] <= t_restart)
                     r.hooks->at_break(r.hooks->user, r.hooks->breaks[next_break++], net,
                                       N_VGetArrayPointer(yi));
+                dr.jvalid = 0;
                 if (k_tick * period <= t_restart) {
                     tick(&r, (double)k_tick * period, N_VGetArrayPointer(yi));
                     k_tick++;

@@ -678,20 +678,25 @@ double tp_network_surface(const tp_network *net, const double *t)
     return t[net->top_node] - q / net->top_area * net->top_half_r;
 }
 
+/* The on-current of one electrical source at node temperatures t, A. */
+static double source_current(const tp_net_source *s, const double *t)
+{
+    double r = 0.0;
+    int k;
+    for (k = 0; k < s->n_nodes; k++) {
+        double rk = s->weights[k] * s->r0 * (1.0 + s->tempco * (t[s->nodes[k]] - s->tref));
+        r += fmax(rk, s->weights[k] * s->r0 * TP_R_FLOOR);
+    }
+    return s->supply / (r + s->r_series);
+}
+
 double tp_network_current(const tp_network *net, const double *t)
 {
-    int i, k;
-    for (i = 0; i < net->n_sources; i++) {
-        const tp_net_source *s = &net->sources[net->has_control && i == 0 ? net->control.source
-                                                                          : i];
-        double r = 0.0;
-        if (s->kind != TP_SRC_ELECTRIC)
-            continue;
-        for (k = 0; k < s->n_nodes; k++) {
-            double rk = s->weights[k] * s->r0 * (1.0 + s->tempco * (t[s->nodes[k]] - s->tref));
-            r += fmax(rk, s->weights[k] * s->r0 * TP_R_FLOOR);
-        }
-        return s->supply / (r + s->r_series);
-    }
+    int i;
+    if (net->has_control && net->sources[net->control.source].kind == TP_SRC_ELECTRIC)
+        return source_current(&net->sources[net->control.source], t);
+    for (i = 0; i < net->n_sources; i++)
+        if (net->sources[i].kind == TP_SRC_ELECTRIC)
+            return source_current(&net->sources[i], t);
     return TP_UNSET;
 }

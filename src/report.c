@@ -108,7 +108,9 @@ int tp_report_caution_lines(const tp_desc *desc, const tp_network *net, const tp
                     (isfinite(ly->size[1]) ? ly->size[1] : desc->bed.size[1]);
                 if (!isfinite(p) && isfinite(desc->heater.supply))
                     p = desc->heater.supply * desc->heater.supply / desc->heater.resistance;
-                if (isfinite(p) && m->conductivity < 1.0 && p / a > TP_DENSITY_FLEX)
+                /* Flexible heaters: silicone-rubber pads and polyimide film. */
+                if (isfinite(p) && (strstr(m->id, "silicone") || strstr(m->id, "polyimide")) &&
+                    p / a > TP_DENSITY_FLEX)
                     snprintf(lines[n++], TP_CAUTION_MAX,
                              "Heater power density %.2f W/cm2 in a %s layer: above about 1 W/cm2 "
                              "a flexible heater must be fully bonded to the plate, or it "

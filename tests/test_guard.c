@@ -1,0 +1,392 @@
+/* Tests of the protection design: the three checks as pure functions on hand-made series, the
+ * rise recommendation against the closed form of a first-order plant, the stuck-on equilibrium
+ * against closed form and `tepid steady`, healthy corners re-simulated with the recommended
+ * checks, and a detached sensor caught before a service limit (and --strict on loose ones). */
+#include <stdarg.h>
+#include <stddef.h>
+#include <stdint.h>
+#include <setjmp.h>
+#include <cmocka.h>
+
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/wait.h>
+
+#include <cjson/cJSON.h>
+
+#include "assemble.h"
+#include "config.h"
+#include "doc.h"
+#include "guard.h"
+#include "integrate.h"
+#include "materials.h"
+#include "network.h"
+#include "units.h"
+
+#define KELVIN 273.15
+#define HOT_PLATE TP_SOURCE_DIR "/tests/cases/guard-hot-plate.yaml"
+
+static const tp_guard_settings none = {0, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET};
+
+/* ---- the checks on hand-made series --------------------------------------------------------- */
+
+static void test_rise_check_fires_when_the_window_rise_falls_short(void **state)
+{
+    /* Hand calculation: r = 20, 21, 22, 23, 24, 25, 25, 25, 25 at t = 0..8 s, window 3 s,
+     * rise_min 2 K, armed throughout (r < 100 - 5). Rises over 3 s: t=3: 3, t=4: 3, t=5: 3,
+     * t=6: 25-23 = 2 (not below 2), t=7: 25-24 = 1 < 2 -> fires at t = 7 s. */
+    const double t[] = {0, 1, 2, 3, 4, 5, 6, 7, 8};
+    const double r[] = {20, 21, 22, 23, 24, 25, 25, 25, 25};
+    tp_guard_settings s = none;
+    tp_guard_detect det;
+    double at;
+    (void)state;
+    s.rise_window = 3.0;
+    s.rise_min = 2.0;
+    s.approach = 5.0;
+    det = tp_guard_check(t, r, 9, 100.0, 0, &s);
+    assert_true(det.rise == 7.0);
+    assert_true(isnan(det.hold) && isnan(det.ceiling));
+    /* The smallest rise over a judged window: 0 K (t = 8, 25 - 25), hand calculation. */
+    assert_true(tp_guard_min_rise(t, r, 9, 100.0, 0, 5.0, 3.0, &at) == 0.0);
+    assert_true(at == 8.0);
+    /* The same series near the setpoint: above setpoint - approach (24.5) the check is off, so
+     * the flat end is never judged; windows ending at t = 3, 4 rise 3 K: no firing. */
+    det = tp_guard_check(t, r, 9, 29.5, 0, &s);
+    assert_true(isnan(det.rise));
+    /* From the holding state (reached) the rise check is never armed. */
+    det = tp_guard_check(t, r, 9, 100.0, 1, &s);
+    assert_true(isnan(det.rise));
+}
+
+static void test_rise_check_restarts_its_window_after_disarming(void **state)
+{
+    /* Hand calculation: setpoint 30, approach 2 -> armed below 28. r = 20, 29 (disarmed), then
+     * 20, 20, 20 at t = 2..4. Window 2 s: the stretch restarts at t = 2, the first judged window
+     * ends at t = 4 (20 - 20 = 0 < 1) -> fires at 4 s, not at 2 s (which would straddle the
+     * disarmed sample). */
+    const double t[] = {0, 1, 2, 3, 4};
+    const double r[] = {20, 29, 20, 20, 20};
+    tp_guard_settings s = none;
+    (void)state;
+    s.rise_window = 2.0;
+    s.rise_min = 1.0;
+    s.approach = 2.0;
+    assert_true(tp_guard_check(t, r, 5, 30.0, 0, &s).rise == 4.0);
+}
+
+static void test_hold_check_counts_the_stay_below_the_band(void **state)
+{
+    /* Hand calculation: setpoint 100, band 2 (below 98 counts), grace 5 s. Reached at t = 1;
+     * below from t = 3; t - 3 > 5 first at t = 9 -> fires at 9 s. */
+    const double t[] = {0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 10};
+    const double r[] = {99, 100, 100, 97, 97, 97, 97, 97, 97, 97, 100};
+    const double cold[] = {20, 20, 20, 20, 20, 20, 20, 20, 20, 20, 20};
+    tp_guard_settings s = none;
+    double at;
+    (void)state;
+    s.hold_band = 2.0;
+    s.hold_grace = 5.0;
+    assert_true(tp_guard_check(t, r, 11, 100.0, 0, &s).hold == 9.0);
+    /* The longest stay is 9 - 3 = 6 s, from t = 3 (hand calculation). */
+    assert_true(tp_guard_longest_below(t, r, 11, 100.0, 0, 2.0, &at) == 6.0);
+    assert_true(at == 3.0);
+    /* A grace of 6 s is not exceeded (6 is not more than 6). */
+    s.hold_grace = 6.0;
+    assert_true(isnan(tp_guard_check(t, r, 11, 100.0, 0, &s).hold));
+    /* Never reached: the hold check stays off however low the reading. */
+    s.hold_grace = 1.0;
+    assert_true(isnan(tp_guard_check(t, cold, 11, 100.0, 0, &s).hold));
+    /* From the holding state it is armed at once: below from t = 0, 2 > 1 at t = 2. */
+    assert_true(tp_guard_check(t, cold, 11, 100.0, 1, &s).hold == 2.0);
+}
+
+static void test_ceiling_fires_above_not_at(void **state)
+{
+    /* Hand calculation: ceiling 110; 110 does not fire (not above), 110.5 at t = 3 does. */
+    const double t[] = {0, 1, 2, 3};
+    const double r[] = {100, 110, 109, 110.5};
+    tp_guard_settings s = none;
+    tp_guard_detect det;
+    (void)state;
+    s.ceiling = 110.0;
+    det = tp_guard_check(t, r, 4, 100.0, 0, &s);
+    assert_true(det.ceiling == 3.0);
+    assert_true(tp_guard_first(&det) == 3.0);
+}
+
+/* ---- the first-order plant ------------------------------------------------------------------ */
+
+/* One node of C = 1000 J/K through G = 2 W/K to a 20 degC room, 400 W, on-off at 100 degC:
+ * tau = C/G = 500 s, T_inf = 20 + 400/2 = 220 degC (hand calculation). */
+static const char *first_order =
+    "network:\n"
+    "  nodes:\n"
+    "    - {id: plate, capacity: 1000 J/K, initial: 20 degC}\n"
+    "    - {id: room, fixed: 20 degC}\n"
+    "  links:\n"
+    "    - {between: [plate, room], conductance: 2 W/K}\n"
+    "  sources:\n"
+    "    - {id: pad, node: plate, power: 400 W}\n"
+    "control: {source: pad, sensor: plate, mode: on-off, setpoint: 100 degC, band: 2 K,"
+    " period: 1 s}\n"
+    "run: {duration: 20 min, step: 1 s}\n";
+
+static void load(const char *yaml, tp_doc **doc, tp_desc *desc)
+{
+    tp_diag d;
+    tp_diag_init(&d, stderr);
+    assert_int_equal(tp_doc_load_text("test.yaml", yaml, strlen(yaml), doc, &d), TP_OK);
+    assert_int_equal(tp_config_read(*doc, desc, &d), TP_OK);
+}
+
+static void test_rise_recommendation_matches_first_order_closed_form(void **state)
+{
+    tp_doc *doc = NULL;
+    tp_desc desc;
+    tp_guard_study *st = calloc(1, sizeof *st);
+    tp_diag d;
+    double tau = 500.0, tinf = 220.0 + KELVIN, ta, w, m_cf, slope, tol;
+    (void)state;
+    assert_non_null(st);
+    load(first_order, &doc, &desc);
+    tp_diag_init(&d, stderr);
+    assert_int_equal(tp_guard_study_run(&desc, doc, NULL, st, &d), TP_OK);
+    /* On-off stays fully on up to setpoint + band/2, so the approach is the 0.5 K floor and the
+     * rise check ends at Ta = 99.5 degC. */
+    assert_true(fabs(st->rec.approach - 0.5) < 1e-12);
+    ta = st->setpoint - st->rec.approach;
+    w = st->rec.rise_window;
+    assert_true(w > 0 && w <= TP_GUARD_WINDOW_MAX);
+    /* Closed form: T(t) = T_inf - (T_inf - T0) exp(-t/tau), so the rise over [t - W, t] is
+     * (T_inf - T(t)) (exp(W/tau) - 1), falling with t: the smallest judged rise is at the last
+     * armed sample, where T is just below Ta. With Ta itself: m = (T_inf - Ta)(e^{W/tau} - 1).
+     * The last armed sample lies less than one period (1 s) of slope (T_inf - Ta)/tau below
+     * Ta, which bounds the difference: tol = slope * 1 s * (e^{W/tau} - 1), plus 1e-3 K for the
+     * integrator (rtol 1e-6 on ~370 K). */
+    m_cf = (tinf - ta) * (exp(w / tau) - 1.0);
+    slope = (tinf - ta) / tau;
+    tol = desc.guard.rise_factor * slope * 1.0 * (exp(w / tau) - 1.0) + 1e-3;
+    assert_true(fabs(st->rise_min_raw - desc.guard.rise_factor * m_cf) <= tol);
+    /* 0.67 is the documented default rise factor (docs/guard.md). */
+    assert_true(fabs(desc.guard.rise_factor - 0.67) < 1e-12);
+    /* The recommendation is the factor times the rise, rounded down to 0.1 K, and at least the
+     * 1 K floor. */
+    assert_true(st->rec.rise_min <= st->rise_min_raw + 1e-9);
+    assert_true(st->rec.rise_min > st->rise_min_raw - 0.1 - 1e-9);
+    assert_true(st->rec.rise_min >= TP_GUARD_RISE_FLOOR - 1e-9);
+    /* The window is the shortest on the 1 s grid whose closed-form rise clears the floor, or
+     * longer (it may trade length for detection): 0.67 (T_inf - Ta)(e^{W/tau} - 1) >= 1 K needs
+     * W >= tau ln(1 + 1/(0.67 * 120.5)) = 6.16 s (hand calculation). */
+    assert_true(w >= 7.0);
+    /* Stuck on: the equilibrium at full power is T_inf = 220 degC (hand calculation). */
+    assert_true(st->has_stuck);
+    assert_true(fabs(st->stuck.temps[0] - tinf) < 1e-6);
+    tp_guard_study_clear(st);
+    free(st);
+    tp_desc_clear(&desc);
+    tp_doc_destroy(&doc);
+}
+
+/* ---- through the command line --------------------------------------------------------------- */
+
+static int run_tepid(const char *args)
+{
+    char cmd[1024];
+    int rc;
+    snprintf(cmd, sizeof cmd, "%s %s >/dev/null 2>&1", TP_TEPID_EXE, args);
+    rc = system(cmd);
+    return WIFEXITED(rc) ? WEXITSTATUS(rc) : -1;
+}
+
+static cJSON *read_json(const char *path)
+{
+    FILE *fp = fopen(path, "rb");
+    char *text;
+    long n;
+    cJSON *root;
+    assert_non_null(fp);
+    fseek(fp, 0, SEEK_END);
+    n = ftell(fp);
+    fseek(fp, 0, SEEK_SET);
+    text = malloc((size_t)n + 1);
+    assert_non_null(text);
+    assert_int_equal(fread(text, 1, (size_t)n, fp), (size_t)n);
+    text[n] = '\0';
+    fclose(fp);
+    root = cJSON_Parse(text);
+    free(text);
+    assert_non_null(root);
+    return root;
+}
+
+static void test_stuck_on_equilibrium_equals_steady(void **state)
+{
+    /* The stuck-on equilibrium of `guard` must be the full-power state of `steady`; both solve
+     * the same network, so they agree to the solver's tolerance (1e-6 K here). */
+    const char *gj = TP_BINARY_DIR "/guard_stuck.json", *sj = TP_BINARY_DIR "/guard_steady.json";
+    char args[512];
+    cJSON *g, *s, *gn, *sn, *it;
+    int count = 0;
+    (void)state;
+    snprintf(args, sizeof args, "guard %s --json %s", HOT_PLATE, gj);
+    assert_int_equal(run_tepid(args), 0);
+    snprintf(args, sizeof args, "steady %s --set control.mode=full --json %s", HOT_PLATE, sj);
+    assert_int_equal(run_tepid(args), 0);
+    g = read_json(gj);
+    s = read_json(sj);
+    gn = cJSON_GetObjectItem(cJSON_GetObjectItem(g, "stuck_on"), "nodes_C");
+    sn = cJSON_GetObjectItem(s, "nodes_C");
+    assert_non_null(gn);
+    assert_non_null(sn);
+    cJSON_ArrayForEach(it, sn) {
+        cJSON *o = cJSON_GetObjectItem(gn, it->string);
+        assert_non_null(o);
+        assert_true(fabs(o->valuedouble - it->valuedouble) < 1e-6);
+        count++;
+    }
+    assert_true(count >= 4);
+    /* The laminate (150 degC) is passed at full power: a cut-out is required. */
+    assert_true(cJSON_IsTrue(cJSON_GetObjectItem(cJSON_GetObjectItem(g, "stuck_on"),
+                                                 "cutout_required")));
+    cJSON_Delete(g);
+    cJSON_Delete(s);
+    remove(gj);
+    remove(sj);
+}
+
+static void test_detached_sensor_caught_before_the_limit(void **state)
+{
+    const char *gj = TP_BINARY_DIR "/guard_detached.json";
+    char args[512];
+    cJSON *g, *it;
+    int seen = 0;
+    (void)state;
+    snprintf(args, sizeof args, "guard %s --json %s --strict", HOT_PLATE, gj);
+    assert_int_equal(run_tepid(args), 0);
+    g = read_json(gj);
+    cJSON_ArrayForEach(it, cJSON_GetObjectItem(g, "faults")) {
+        const char *name = cJSON_GetObjectItem(it, "fault")->valuestring;
+        cJSON *first = cJSON_GetObjectItem(it, "first_detection_s");
+        cJSON *limit = cJSON_GetObjectItem(it, "limit_crossed_s");
+        if (strcmp(name, "sensor-detached") != 0)
+            continue;
+        /* This plate takes its laminate past 150 degC at full power (the file's comment), and
+         * a detached sensor makes the controller drive full power: the limit is crossed ... */
+        assert_true(cJSON_IsNumber(limit));
+        /* ... and the recommended checks fire first. */
+        assert_true(cJSON_IsNumber(first));
+        assert_true(first->valuedouble < limit->valuedouble);
+        seen++;
+    }
+    assert_int_equal(seen, 2);
+    cJSON_Delete(g);
+    remove(gj);
+    /* Loose settings: no window fits in the run, no grace runs out, the ceiling is far above:
+     * the detached sensor cooks the laminate unnoticed, and --strict says so with exit 3. */
+    snprintf(args, sizeof args,
+             "guard %s --rise-window 1h --hold-grace 1h --ceiling '400 degC' --strict -q",
+             HOT_PLATE);
+    assert_int_equal(run_tepid(args), 3);
+    /* Without --strict the same evaluation succeeds (exit 0). */
+    snprintf(args, sizeof args,
+             "guard %s --rise-window 1h --hold-grace 1h --ceiling '400 degC' -q", HOT_PLATE);
+    assert_int_equal(run_tepid(args), 0);
+}
+
+/* ---- healthy corners re-simulated with the checks ------------------------------------------- */
+
+typedef struct series {
+    double t[4096], r[4096];
+    long n;
+} series;
+
+static int keep(void *user, const tp_sample *s)
+{
+    series *se = user;
+    if (se->n < 4096) {
+        se->t[se->n] = s->t;
+        se->r[se->n] = s->reading;
+        se->n++;
+    }
+    return 0;
+}
+
+static void test_healthy_corners_never_trip_recommended_settings(void **state)
+{
+    tp_doc *doc = NULL;
+    tp_desc desc;
+    tp_diag d;
+    tp_guard_study *st = calloc(1, sizeof *st);
+    series *se = calloc(1, sizeof *se);
+    int c;
+    (void)state;
+    assert_non_null(st);
+    assert_non_null(se);
+    tp_diag_init(&d, stderr);
+    assert_int_equal(tp_config_load(HOT_PLATE, NULL, 0, &doc, &desc, &d), TP_OK);
+    assert_int_equal(tp_guard_study_run(&desc, doc, NULL, st, &d), TP_OK);
+    assert_int_equal(st->n_corners, 17); /* 2^4 ends plus nominal */
+    for (c = 0; c < st->n_corners; c++) {
+        const tp_guard_corner *co = &st->corners[c];
+        tp_desc cd;
+        tp_network *net = NULL;
+        tp_integrate_opts o;
+        tp_integrate_stats stats;
+        tp_guard_detect det;
+        tp_diag quiet;
+        /* Set the corner by its config keys (independent of the study's own path) and run
+         * one uninterrupted warm-up, sampled at every tick, for run.duration. */
+        assert_int_equal(tp_desc_copy(&cd, &desc), TP_OK);
+        assert_int_equal(tp_config_set(&cd, "heater.supply", co->supply), TP_OK);
+        assert_int_equal(tp_config_set(&cd, "heater.resistance", co->resistance), TP_OK);
+        assert_int_equal(tp_config_set(&cd, "room.temperature", co->room), TP_OK);
+        assert_int_equal(tp_config_set(&cd, "room.airflow", co->airflow), TP_OK);
+        tp_diag_init(&quiet, NULL);
+        assert_int_equal(tp_assemble(&cd, doc, &quiet, &net), TP_OK);
+        tp_integrate_defaults(net, &o);
+        o.step = net->control.period;
+        o.out = keep;
+        o.user = se;
+        se->n = 0;
+        assert_int_equal(tp_integrate(net, &o, &stats, &quiet), TP_OK);
+        assert_true(se->n > 100);
+        det = tp_guard_check(se->t, se->r, se->n, st->setpoint, 0, &st->rec);
+        if (isfinite(tp_guard_first(&det)))
+            fail_msg("corner '%s' trips: rise %g hold %g ceiling %g", co->name, det.rise,
+                     det.hold, det.ceiling);
+        tp_network_destroy(&net);
+        tp_desc_clear(&cd);
+    }
+    assert_int_equal(st->healthy_trips, 0);
+    tp_guard_study_clear(st);
+    free(st);
+    free(se);
+    tp_desc_clear(&desc);
+    tp_doc_destroy(&doc);
+}
+
+static int teardown(void **state)
+{
+    (void)state;
+    tp_materials_shutdown();
+    tp_units_shutdown();
+    return 0;
+}
+
+int main(void)
+{
+    const struct CMUnitTest tests[] = {
+        cmocka_unit_test(test_rise_check_fires_when_the_window_rise_falls_short),
+        cmocka_unit_test(test_rise_check_restarts_its_window_after_disarming),
+        cmocka_unit_test(test_hold_check_counts_the_stay_below_the_band),
+        cmocka_unit_test(test_ceiling_fires_above_not_at),
+        cmocka_unit_test(test_rise_recommendation_matches_first_order_closed_form),
+        cmocka_unit_test(test_stuck_on_equilibrium_equals_steady),
+        cmocka_unit_test(test_detached_sensor_caught_before_the_limit),
+        cmocka_unit_test(test_healthy_corners_never_trip_recommended_settings),
+    };
+    return cmocka_run_group_tests(tests, NULL, teardown);
+}
