@@ -74,25 +74,50 @@ static int digits_for(double v, double se)
     return n < 4 ? 4 : n > 8 ? 8 : n;
 }
 
+/* A number with `digits` significant digits, without an exponent for ordinary magnitudes
+ * (configs read "10000 W/(m2.K)" better than "1e+04 W/(m2.K)"). */
+static void fmt_number(double v, int digits, char *buf, size_t size)
+{
+    double a = fabs(v);
+    if (v != 0.0 && (a < 1e-4 || a >= 1e7 || !isfinite(v))) {
+        snprintf(buf, size, "%.*g", digits, v);
+        return;
+    }
+    {
+        int mag = v == 0.0 ? 0 : (int)floor(log10(a)), dec = digits - 1 - mag;
+        char *e;
+        snprintf(buf, size, "%.*f", dec > 0 ? dec : 0, v);
+        /* Trailing zeros after the point say nothing more. */
+        if (strchr(buf, '.')) {
+            e = buf + strlen(buf);
+            while (e > buf && e[-1] == '0')
+                *--e = '\0';
+            if (e > buf && e[-1] == '.')
+                *--e = '\0';
+        }
+    }
+}
+
 /* "2.553 ohm" for an SI value of key q. */
 static void fmt_value(const tp_doc *doc, const tp_fit_param *q, double si, int digits, char *buf,
                       size_t size)
 {
-    char unit[32];
+    char unit[32], num[48];
     double v;
     key_unit(doc, q, unit, sizeof unit);
     if (tp_units_from_si(si, unit, q->dim, &v) != TP_OK) {
         snprintf(unit, sizeof unit, "%s", tp_units_si_name(q->dim));
         v = si;
     }
-    snprintf(buf, size, "%.*g%s%s", digits, v, unit[0] && strcmp(unit, "1") ? " " : "",
+    fmt_number(v, digits, num, sizeof num);
+    snprintf(buf, size, "%s%s%s", num, unit[0] && strcmp(unit, "1") ? " " : "",
              strcmp(unit, "1") ? unit : "");
 }
 
 /* A standard error in the key's unit (temperatures as differences). */
 static void fmt_se(const tp_doc *doc, const tp_fit_param *q, double se, char *buf, size_t size)
 {
-    char unit[32];
+    char unit[32], num[48];
     double v;
     tp_dim dim = q->dim == TP_DIM_TEMPERATURE ? TP_DIM_INTERVAL : q->dim;
     if (!isfinite(se)) {
@@ -106,7 +131,8 @@ static void fmt_se(const tp_doc *doc, const tp_fit_param *q, double se, char *bu
         snprintf(unit, sizeof unit, "%s", tp_units_si_name(dim));
         v = se;
     }
-    snprintf(buf, size, "%.2g%s%s", v, unit[0] && strcmp(unit, "1") ? " " : "",
+    fmt_number(v, 2, num, sizeof num);
+    snprintf(buf, size, "%s%s%s", num, unit[0] && strcmp(unit, "1") ? " " : "",
              strcmp(unit, "1") ? unit : "");
 }
 
@@ -266,6 +292,7 @@ static tp_status write_json(const char *path, const fit_run *f, tp_diag *d)
     tp_json_number(solver, "starts", r->starts_run);
     tp_json_number(solver, "starts_at_best", r->starts_at_best);
     tp_json_number(solver, "model_runs", (double)r->evals);
+    tp_json_number(solver, "failed_runs", (double)r->failed_runs);
     tp_json_number(solver, "rank", r->rank);
     tp_json_number(solver, "lm_info", r->lm_info);
     tp_json_number(solver, "seconds", r->seconds);
@@ -316,6 +343,17 @@ static tp_status write_plot(const char *path, const fit_run *f, tp_diag *d)
     st = tp_plot_chart_write(path, &chart, d);
     free(b);
     return st;
+}
+
+/* Why parameter i is flagged, in a few words. */
+static const char *weak_reason(const fit_run *f, int i)
+{
+    int j, p = f->n_params;
+    for (j = 0; j < p; j++)
+        if (j != i && isfinite(f->res.corr[i * p + j]) &&
+            fabs(f->res.corr[i * p + j]) > TP_FIT_CORR_MAX)
+            return "strongly correlated with another fitted key";
+    return "not identifiable from this log";
 }
 
 /* The config with the fitted values (and the --set overrides) written into its text. */
@@ -375,11 +413,11 @@ static tp_status write_config(const char *path, const fit_run *f, tp_diag *d)
         snprintf(items[n].path, sizeof items[n].path, "%s", q->path);
         snprintf(items[n].value, sizeof items[n].value, "%s", v);
         n++;
-        if (clen + 400 < ccap)
+        if (clen + 600 < ccap)
             clen += (size_t)snprintf(comment + clen, ccap - clen,
-                                     "#   %s: %s%s -> %s (standard error %s)%s\n", q->path,
+                                     "#   %s: %s%s -> %s (standard error %s)%s%s\n", q->path,
                                      q->start_unset ? "unset, started at " : "", s0, v, se,
-                                     q->weak ? " - not identifiable from this log" : "");
+                                     q->weak ? " - " : "", q->weak ? weak_reason(f, i) : "");
     }
     if (n > f->n_params && clen + 200 < ccap)
         clen += (size_t)snprintf(comment + clen, ccap - clen,

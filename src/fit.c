@@ -29,16 +29,21 @@
 #include "integrate.h"
 #include "network.h"
 
-#define TP_FIT_FD_STEP 1.0e-3    /* step of the forward-difference Jacobian in z, rad */
-#define TP_FIT_COV_STEP 1.0e-3   /* step of the central differences at the optimum, in u */
-#define TP_FIT_STEP_MAX 1.0      /* s, longest output interval of a model run */
-#define TP_FIT_RTOL 1.0e-6       /* -, CVODE relative tolerance of model runs at most */
-#define TP_FIT_MAXFEV 60         /* residual evaluations per start (Jacobians come extra) */
-#define TP_FIT_FTOL 1.0e-7       /* -, lmder: relative reduction of the sum of squares */
-#define TP_FIT_XTOL 1.0e-6       /* -, lmder: relative change of the scaled parameters */
-#define TP_FIT_FACTOR 100.0      /* -, lmder: initial step bound (z is of order 1) */
-#define TP_FIT_PENALTY 1.0e3     /* K, every residual of a failed model run */
-#define TP_FIT_SAME 1.0e-4       /* -, relative sum-of-squares difference of "the same" minimum */
+#define TP_FIT_FD_STEP 1.0e-3  /* step of the forward-difference Jacobian in z, rad */
+#define TP_FIT_COV_STEP 1.0e-3 /* step of the central differences at the optimum, in u */
+#define TP_FIT_STEP_MAX 1.0    /* s, longest output interval of a model run */
+#define TP_FIT_RTOL 1.0e-6     /* -, CVODE relative tolerance of model runs at most */
+#define TP_FIT_MAXFEV 60       /* residual evaluations per start (Jacobians come extra) */
+#define TP_FIT_FTOL 1.0e-7     /* -, lmder: relative reduction of the sum of squares */
+#define TP_FIT_XTOL 1.0e-6     /* -, lmder: relative change of the scaled parameters */
+#define TP_FIT_FACTOR 100.0    /* -, lmder: initial step bound (z is of order 1) */
+#define TP_FIT_PENALTY 1.0e3   /* K, every residual of a failed model run */
+#define TP_FIT_SAME 1.0e-4     /* -, relative sum-of-squares difference of "the same" minimum */
+#define TP_FIT_MERGE_U 0.01    /* -, a later start this close (in u) to the best minimum ... */
+#define TP_FIT_MERGE_CHI2                                                                          \
+    10.0                         /* ... whose sum of squares exceeds the best by less than this    \
+                                    many s^2 (about 3 standard errors away) has found it: it is    \
+                                    stopped there and counted as reaching the best fit */
 #define TP_FIT_BOUND_EDGE 1.0e-3 /* -, share of the bound range that counts as on the bound */
 #define TP_FIT_U_START_MIN                                                                         \
     0.02 /* -, starts are kept this far inside the bounds (u), because                             \
@@ -419,6 +424,10 @@ static int evaluate(evaluator *ev, const double *x, double *model, tp_diag *d)
         first_line(ev->why, sizeof ev->why, sink->log);
         return -1;
     }
+    /* The controller reads the sensor without ADC quantisation: the steps would make the sum
+     * of squares jump with the parameters (a finite-difference Jacobian cannot work on that),
+     * while they move the controlled trajectory by far less than a log's noise. */
+    net->control.reading.thermistor = 0;
     if (ev->drive == TP_FIT_BY_DUTY || ev->drive == TP_FIT_BY_POWER) {
         if (open_loop(ev, net) != 0) {
             snprintf(ev->why, sizeof ev->why, "no heater source to drive");
@@ -592,6 +601,10 @@ typedef struct lmctx {
     double *model; /* m, scratch */
     double *fh;    /* m, scratch for Jacobian columns */
     long fails;
+    int have_best;   /* a previous start has finished */
+    double best_rss; /* its sum of squares, K^2 */
+    double best_u[TP_FIT_MAX_PARAMS];
+    int merged; /* this start was stopped in the best minimum's basin */
 } lmctx;
 
 static void z_to_x(const tp_fit_problem *pb, const double *z, double *x)
@@ -619,6 +632,15 @@ static int residuals(lmctx *c, const double *z, double *f)
     return 0;
 }
 
+static double sum_sq(const double *f, long m)
+{
+    double s = 0.0;
+    long i;
+    for (i = 0; i < m; i++)
+        s += f[i] * f[i];
+    return s;
+}
+
 static int lm_fcn(void *p, int m, int n, const double *z, double *fvec, double *fjac, int ldfjac,
                   int iflag)
 {
@@ -630,6 +652,18 @@ static int lm_fcn(void *p, int m, int n, const double *z, double *fvec, double *
     if (iflag == 1) {
         residuals(c, z, fvec);
         return 0;
+    }
+    /* A later start that has walked into the minimum found before stops here: the rest of
+     * its path is known (lmder returns with this iterate). */
+    if (c->have_best) {
+        double rss = sum_sq(fvec, m), s2 = c->best_rss / (double)(m - n);
+        int near = rss >= c->best_rss && rss - c->best_rss < TP_FIT_MERGE_CHI2 * s2;
+        for (j = 0; j < n && near; j++)
+            near = fabs(z_to_u(z[j]) - c->best_u[j]) < TP_FIT_MERGE_U;
+        if (near) {
+            c->merged = 1;
+            return -1;
+        }
     }
     /* Forward differences in z; backward when the forward run fails. */
     memcpy(zz, z, (size_t)n * sizeof *zz);
@@ -663,15 +697,6 @@ static double halton(int index, int base)
         index /= base;
     }
     return r;
-}
-
-static double sum_sq(const double *f, long m)
-{
-    double s = 0.0;
-    long i;
-    for (i = 0; i < m; i++)
-        s += f[i] * f[i];
-    return s;
 }
 
 /* ---- statistics at the optimum ------------------------------------------------------------ */
@@ -937,6 +962,12 @@ tp_status tp_fit_run(const tp_fit_problem *pb, tp_fit_result *res, tp_diag *d)
             lmder(lm_fcn, &c, m, p, z, fvec, fjac, m, TP_FIT_FTOL, TP_FIT_XTOL, 0.0, TP_FIT_MAXFEV,
                   diag, 1, TP_FIT_FACTOR, 0, &nfev, &njev, ipvt, qtf, wa1, wa2, wa3, wa4);
         rss_of[s] = sum_sq(fvec, m);
+        if (c.merged) {
+            rss_of[s] = best; /* it was on its way to the best minimum */
+            c.merged = 0;
+            res->starts_run++;
+            continue;
+        }
         res->starts_run++;
         if (rss_of[s] < best) {
             best = rss_of[s];
@@ -944,6 +975,10 @@ tp_status tp_fit_run(const tp_fit_problem *pb, tp_fit_result *res, tp_diag *d)
             memcpy(zbest, z, (size_t)p * sizeof *z);
             memcpy(fbest, fvec, (size_t)m * sizeof *fvec);
         }
+        c.have_best = 1;
+        c.best_rss = best;
+        for (k = 0; k < p; k++)
+            c.best_u[k] = z_to_u(zbest[k]);
     }
     if (!(best < TP_FIT_PENALTY * TP_FIT_PENALTY * 0.5 * m)) {
         tp_diag_error(d, tp_loc_none(), NULL, "check the config and the bounds of --free",
@@ -995,6 +1030,7 @@ tp_status tp_fit_run(const tp_fit_problem *pb, tp_fit_result *res, tp_diag *d)
     st = statistics(&c, ubest, fbest, res);
 done:
     res->evals = ev.evals;
+    res->failed_runs = c.fails;
     res->seconds = now_seconds() - t0;
     evaluator_clear(&ev);
     free(fvec);

@@ -84,6 +84,7 @@ typedef struct tp_fit_result {
     int starts_run;      /* starting points tried */
     int starts_at_best;  /* of those, how many ended at the best sum of squares (0.01 %) */
     long evals;          /* model runs */
+    long failed_runs;    /* of those, runs that failed (trial points where the model breaks) */
     int lm_info;         /* cminpack's info code of the best start */
     double seconds;      /* wall time of the fit */
     /* what the calibrated model saw, for the safety cautions */

@@ -288,6 +288,20 @@ static void test_fit_first_order_against_closed_form(void **state)
     assert_int_equal(
         fit(&f, rc_yaml, "network.nodes.plate.capacity,network.links.0.conductance", &lg, 3),
         TP_OK);
+    {
+        /* The forward model at the true values is the closed form. Tolerance 0.01 K: CVODE at
+         * rtol 1e-6 on temperatures of 300..400 K (atol 1e-5 K), accumulated over some hundreds
+         * of steps, plus the linear interpolation between 1 s outputs of a curve whose second
+         * derivative is at most P G / C^2 = 0.33 mK/s^2, i.e. 1/8 x 0.33 mK (hand calculation). */
+        double x[2] = {C, G}, *model = malloc((size_t)lg.n * sizeof *model);
+        assert_non_null(model);
+        assert_int_equal(tp_fit_model(&f.pb, x, model, &d), TP_OK);
+        for (i = 0; i < lg.n; i++) {
+            double t = lg.t[i], y = 20.0 + KELVIN + P / G * (1.0 - exp(-G * t / C));
+            assert_true(fabs(model[i] - y) < 0.01);
+        }
+        free(model);
+    }
     assert_int_equal(f.res.drive, TP_FIT_FULL_POWER);
     /* Truth within 3 standard errors: 99.7 % of fits for a Gaussian estimate. */
     assert_within_se(&f.params[0], C, 3.0);
