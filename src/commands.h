@@ -12,5 +12,6 @@ extern const tp_verb tp_verb_materials;
 extern const tp_verb tp_verb_tune;
 extern const tp_verb tp_verb_budget;
 extern const tp_verb tp_verb_guard;
+extern const tp_verb tp_verb_fit;
 
 #endif
