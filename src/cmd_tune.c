@@ -5,6 +5,7 @@
 #include <string.h>
 
 #include "commands.h"
+#include "csv.h"
 #include "json.h"
 #include "report.h"
 #include "session.h"
@@ -13,6 +14,9 @@
 #include "warmup.h"
 
 #define TP_TUNE_STEP 0.1 /* -, default duty step of the identification, a fraction of max_duty */
+#define TP_TAU_C_FLOOR 0.02 /* -, default tau_c at least this share of the time constant: when
+                               the identified delay is near zero, SIMC's tau_c = dead would
+                               tune the loop to the sampling period (our choice, documented) */
 
 static const tp_opt tune_opts[] = {
     {"rule", 0, 1, 0, 0, "NAME", "simc (PI, Skogestad 2003; default) or imc (PID, Rivera et al. "
@@ -20,7 +24,8 @@ static const tp_opt tune_opts[] = {
     {"tau-c", 0, 1, 0, 0, "TIME", "closed-loop time constant (SIMC) or lambda (IMC); default: "
                                   "the effective dead time (SIMC 'tight' choice)"},
     {"step", 0, 1, 0, 0, "FRACTION", "duty step of the identification (default 0.1)"},
-    {"json", 0, 1, 0, 1, "FILE", "write the model, the gains and the resulting metrics as JSON"},
+    {"json", 0, 1, 0, TP_OUT_FILE, "FILE", "write the model, the gains and the resulting metrics as JSON"},
+    {"csv", 0, 1, 0, TP_OUT_FILE, "FILE", "write the warm-up with the suggested gains as CSV"},
     {"plot", 0, 1, 0, TP_OUT_FIGURE, "FILE", "draw the warm-up with the suggested gains"},
     {NULL, 0, 0, 0, 0, NULL, NULL},
 };
@@ -111,7 +116,8 @@ static tp_status run_tune(const tp_cli *cli, tp_diag *d)
      * "half rule" for the zero-order hold). */
     dead_eff = m.dead + 0.5 * s.net->control.period;
     if (!isfinite(tau_c))
-        tau_c = rule == TP_RULE_SIMC ? dead_eff : fmax(0.8 * dead_eff, 0.1 * m.tau);
+        tau_c = rule == TP_RULE_SIMC ? fmax(dead_eff, TP_TAU_C_FLOOR * m.tau)
+                                     : fmax(0.8 * dead_eff, 0.1 * m.tau);
     if (rule == TP_RULE_SIMC) {
         tp_fopdt me = m;
         me.dead = dead_eff;
@@ -126,6 +132,8 @@ static tp_status run_tune(const tp_cli *cli, tp_diag *d)
     s.net->control.ki = g.ki;
     s.net->control.kd = g.kd;
     rc = tp_warmup_run(s.net, &w, d);
+    if (rc == TP_OK && tp_cli_get(cli, "csv"))
+        rc = tp_csv_write_history(tp_cli_get(cli, "csv"), &w.history, d);
     if (rc == TP_OK && tp_cli_get(cli, "json"))
         rc = write_json(tp_cli_get(cli, "json"), &m, &g, rule, &w.metrics, d);
     if (rc == TP_OK && tp_cli_get(cli, "plot"))
