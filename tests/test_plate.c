@@ -13,7 +13,7 @@
 #include "config.h"
 #include "history.h"
 #include "integrate.h"
-#include "run_tepid.h"
+#include "tp_test.h"
 
 #define T0C 273.15                 /* 0 degC in kelvin, K */
 #define SIGMA 5.670374419e-8       /* Stefan-Boltzmann constant, CODATA 2018, W/(m2.K4) */
@@ -124,15 +124,15 @@ static void test_plate_stack_by_hand(void **state)
     lowered lw;
     (void)state;
     lower(stack_text, &lw);
-    check_rel("C heat", lw.net->nodes[node(&lw, "heat")].capacity, 80.0, REL_EXACT);
-    check_rel("C plate", lw.net->nodes[node(&lw, "plate")].capacity, 200.0, REL_EXACT);
-    check_rel("C sheet", lw.net->nodes[node(&lw, "sheet")].capacity, 48.0, REL_EXACT);
-    check_rel("G heat-plate", must_link(&lw, "heat-plate")->g, 1.0 / 0.12625, REL_EXACT);
-    check_rel("G plate-sheet", must_link(&lw, "plate-sheet")->g,
-              1.0 / (0.005 / 2.4 + 1.0 / 6.0 + 0.001 / 1.2), REL_EXACT);
-    check_rel("A plate top", must_link(&lw, "plate top")->area, 0.008, REL_EXACT);
-    check_rel("A sheet top", must_link(&lw, "sheet top")->area, 0.012, REL_EXACT);
-    check_rel("A sheet edges", must_link(&lw, "sheet edges")->area, 0.00046, REL_EXACT);
+    tp_check_rel("C heat", lw.net->nodes[node(&lw, "heat")].capacity, 80.0, REL_EXACT);
+    tp_check_rel("C plate", lw.net->nodes[node(&lw, "plate")].capacity, 200.0, REL_EXACT);
+    tp_check_rel("C sheet", lw.net->nodes[node(&lw, "sheet")].capacity, 48.0, REL_EXACT);
+    tp_check_rel("G heat-plate", must_link(&lw, "heat-plate")->g, 1.0 / 0.12625, REL_EXACT);
+    tp_check_rel("G plate-sheet", must_link(&lw, "plate-sheet")->g,
+                 1.0 / (0.005 / 2.4 + 1.0 / 6.0 + 0.001 / 1.2), REL_EXACT);
+    tp_check_rel("A plate top", must_link(&lw, "plate top")->area, 0.008, REL_EXACT);
+    tp_check_rel("A sheet top", must_link(&lw, "sheet top")->area, 0.012, REL_EXACT);
+    tp_check_rel("A sheet edges", must_link(&lw, "sheet edges")->area, 0.00046, REL_EXACT);
     assert_null(link_named(&lw, "plate bottom"));
     assert_int_equal(lw.net->sources[0].nodes[0], node(&lw, "heat"));
     release(&lw);
@@ -168,13 +168,13 @@ static void test_plate_closed_gap_by_hand(void **state)
     lower(text, &lw);
     /* Sutherland's law reproduces itself to rounding; the air module may round constants
      * differently: 1e-9. */
-    check_rel("G gap", must_link(&lw, "base-plate air gap")->g, k_air * 0.008 / 0.001, 1.0e-9);
-    check_rel("A gap", must_link(&lw, "base-plate gap radiation")->area, 0.008, REL_EXACT);
-    check_rel("eps gap", must_link(&lw, "base-plate gap radiation")->eps,
-              1.0 / (1.0 / 0.9 + 1.0 / 0.1 - 1.0), REL_EXACT);
-    check_rel("G base-pad", must_link(&lw, "base-pad")->g, 1.0 / 0.1675, REL_EXACT);
-    check_rel("G pad-plate", must_link(&lw, "pad-plate")->g,
-              1.0 / (0.001 / 1.2 + 1.0 / 24.0 + 0.005 / 2.4), REL_EXACT);
+    tp_check_rel("G gap", must_link(&lw, "base-plate air gap")->g, k_air * 0.008 / 0.001, 1.0e-9);
+    tp_check_rel("A gap", must_link(&lw, "base-plate gap radiation")->area, 0.008, REL_EXACT);
+    tp_check_rel("eps gap", must_link(&lw, "base-plate gap radiation")->eps,
+                 1.0 / (1.0 / 0.9 + 1.0 / 0.1 - 1.0), REL_EXACT);
+    tp_check_rel("G base-pad", must_link(&lw, "base-pad")->g, 1.0 / 0.1675, REL_EXACT);
+    tp_check_rel("G pad-plate", must_link(&lw, "pad-plate")->g,
+                 1.0 / (0.001 / 1.2 + 1.0 / 24.0 + 0.005 / 2.4), REL_EXACT);
     /* The gap covers the rest of the faces between base and plate, and the pad's edges face
      * the gap: none of them loses to the room. */
     assert_null(link_named(&lw, "base top"));
@@ -305,12 +305,13 @@ typedef struct message_case {
  * and the fragment on the same line. */
 static void check_message(const message_case *mc)
 {
-    char path[512], head[700], *argv[] = {NULL, "check", path, NULL};
+    char path[TP_TEST_PATH], head[TP_TEST_PATH + 200];
+    const char *args[] = {"check", path, NULL};
     const char *line_start;
-    static run_result r;
+    tp_run_result r;
     int line, col;
-    assert_int_equal(write_text(scratch_dir, mc->name, mc->yaml, path, sizeof path), 0);
-    assert_int_equal(run_tepid(scratch_dir, argv, &r), 0);
+    tp_scratch_write(tp_group_scratch(), mc->name, mc->yaml, path);
+    tp_run_tepid(tp_group_scratch(), args, &r);
     locate(mc->yaml, mc->at, &line, &col);
     snprintf(head, sizeof head, "%s:%d:%d: %s", path, line, col, mc->status ? "" : "warning: ");
     line_start = strstr(r.err, head);
@@ -321,6 +322,7 @@ static void check_message(const message_case *mc)
                     mc->name, r.status, mc->status, head, mc->fragment, r.err);
         fail();
     }
+    tp_run_clear(&r);
 }
 
 #define ROOM_BED "room: {temperature: 20 degC}\nbed:\n  size: [200 mm, 100 mm]\n"
@@ -407,15 +409,16 @@ static void test_plate_message_service_limit(void **state)
         "limit.yaml", LIMIT_YAML("150 degC"), "150 degC",
         "the setpoint 150 degC is above the service limit of soft in layer 'heat' (120 degC)",
         0};
-    char path[512], *argv[] = {NULL, "check", path, NULL};
-    static run_result r;
+    char path[TP_TEST_PATH];
+    const char *args[] = {"check", path, NULL};
+    tp_run_result r;
     (void)state;
     check_message(&mc);
-    assert_int_equal(write_text(scratch_dir, "limit-ok.yaml", LIMIT_YAML("110 degC"), path, sizeof path),
-                     0);
-    assert_int_equal(run_tepid(scratch_dir, argv, &r), 0);
+    tp_scratch_write(tp_group_scratch(), "limit-ok.yaml", LIMIT_YAML("110 degC"), path);
+    tp_run_tepid(tp_group_scratch(), args, &r);
     assert_int_equal(r.status, 0);
     assert_null(strstr(r.err, "service limit"));
+    tp_run_clear(&r);
 #undef LIMIT_YAML
 }
 
@@ -442,13 +445,15 @@ static void test_plate_message_biot(void **state)
         "losses: {convection_scale: 0}\n",
         "{id: wool", "layer 'wool' (wool) has a Biot number of 1.1 > 0.1: it is not isothermal",
         0};
-    static run_result r;
-    char path[512], *argv[] = {NULL, "check", path, NULL};
+    tp_run_result r;
+    char path[TP_TEST_PATH];
+    const char *args[] = {"check", path, NULL};
     (void)state;
     check_message(&mc);
-    snprintf(path, sizeof path, "%s/%s", scratch_dir, mc.name);
-    assert_int_equal(run_tepid(scratch_dir, argv, &r), 0);
+    tp_scratch_path(tp_group_scratch(), mc.name, path, sizeof path);
+    tp_run_tepid(tp_group_scratch(), args, &r);
     assert_null(strstr(r.err, "layer 'plate' (spreader) has a Biot"));
+    tp_run_clear(&r);
 }
 
 /* A contact on the bottom layer has nothing below it: a warning at the value, not silence. */
@@ -495,5 +500,5 @@ int main(void)
         cmocka_unit_test(test_plate_message_bottom_contact),
         cmocka_unit_test(test_plate_message_correlation_range),
     };
-    return cmocka_run_group_tests(tests, scratch_setup, scratch_teardown);
+    return cmocka_run_group_tests(tests, tp_scratch_group_setup, tp_scratch_group_teardown);
 }
