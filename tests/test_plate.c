@@ -33,35 +33,17 @@
     "  wool:     {density: 100 kg/m3, specific_heat: 800 J/(kg.K), conductivity: 0.05 W/(m.K),\n" \
     "             emissivity: 0.9, max_temperature: 300 degC, source: test values}\n"
 
-/* A network lowered in-process from config text; the caller destroys it. */
-typedef struct lowered {
-    tp_doc *doc;
-    tp_desc desc;
-    tp_network *net;
-    tp_diag diag;
-} lowered;
-
-static void lower(const char *text, lowered *lw)
+/* A network lowered in-process from config text (tp_yaml_net); the caller closes it with
+ * tp_yaml_net_close. */
+static void lower(const char *text, tp_yaml_net *lw)
 {
-    memset(lw, 0, sizeof *lw);
-    tp_diag_init(&lw->diag, NULL);
-    assert_int_equal(tp_doc_load_text("test.yaml", text, strlen(text), &lw->doc, &lw->diag),
-                     TP_OK);
-    if (tp_config_read(lw->doc, &lw->desc, &lw->diag) != TP_OK ||
-        tp_assemble(&lw->desc, lw->doc, &lw->diag, &lw->net) != TP_OK) {
+    if (tp_yaml_net_open(lw, text) != TP_OK) {
         print_error("%s", lw->diag.log);
         fail();
     }
 }
 
-static void release(lowered *lw)
-{
-    tp_network_destroy(&lw->net);
-    tp_desc_clear(&lw->desc);
-    tp_doc_destroy(&lw->doc);
-}
-
-static int node(const lowered *lw, const char *id)
+static int node(const tp_yaml_net *lw, const char *id)
 {
     int i = tp_network_find_node(lw->net, id);
     if (i < 0) {
@@ -72,7 +54,7 @@ static int node(const lowered *lw, const char *id)
 }
 
 /* The link with this label, or NULL. */
-static const tp_net_link *link_named(const lowered *lw, const char *label)
+static const tp_net_link *link_named(const tp_yaml_net *lw, const char *label)
 {
     int i;
     for (i = 0; i < lw->net->n_links; i++)
@@ -81,7 +63,7 @@ static const tp_net_link *link_named(const lowered *lw, const char *label)
     return NULL;
 }
 
-static const tp_net_link *must_link(const lowered *lw, const char *label)
+static const tp_net_link *must_link(const tp_yaml_net *lw, const char *label)
 {
     const tp_net_link *l = link_named(lw, label);
     if (!l) {
@@ -121,7 +103,7 @@ static const char stack_text[] =
  *     2 (0.15 + 0.08) 0.001 = 0.00046 m2; the plate's bottom is covered by heat (no face). */
 static void test_plate_stack_by_hand(void **state)
 {
-    lowered lw;
+    tp_yaml_net lw;
     (void)state;
     lower(stack_text, &lw);
     tp_check_rel("C heat", lw.net->nodes[node(&lw, "heat")].capacity, 80.0, REL_EXACT);
@@ -135,7 +117,7 @@ static void test_plate_stack_by_hand(void **state)
     tp_check_rel("A sheet edges", must_link(&lw, "sheet edges")->area, 0.00046, REL_EXACT);
     assert_null(link_named(&lw, "plate bottom"));
     assert_int_equal(lw.net->sources[0].nodes[0], node(&lw, "heat"));
-    release(&lw);
+    tp_yaml_net_close(&lw);
 }
 
 /* A middle layer smaller than both neighbours: base (soft, 2 mm), pad (skin, 1 mm,
@@ -163,7 +145,7 @@ static void test_plate_closed_gap_by_hand(void **state)
         "heater: {layer: pad, power: 50 W}\n";
     const double tf = T0C + 50.0;
     const double k_air = 0.0241 * pow(tf / 273.0, 1.5) * (273.0 + 194.0) / (tf + 194.0);
-    lowered lw;
+    tp_yaml_net lw;
     (void)state;
     lower(text, &lw);
     /* Sutherland's law reproduces itself to rounding; the air module may round constants
@@ -180,11 +162,11 @@ static void test_plate_closed_gap_by_hand(void **state)
     assert_null(link_named(&lw, "base top"));
     assert_null(link_named(&lw, "plate bottom"));
     assert_null(link_named(&lw, "pad edges"));
-    release(&lw);
+    tp_yaml_net_close(&lw);
 }
 
 /* Integrate a lowered network and keep its history. */
-static void simulate(lowered *lw, tp_history *h)
+static void simulate(tp_yaml_net *lw, tp_history *h)
 {
     tp_integrate_opts o;
     tp_integrate_stats stats;
@@ -247,7 +229,7 @@ static void test_plate_matches_raw_by_hand(void **state)
         "  sources:\n"
         "    - {id: heater, node: plate, power: 30 W}\n"
         "run: {duration: 40 min, step: 10 s, tolerance: 1e-9}\n";
-    lowered a, b;
+    tp_yaml_net a, b;
     tp_history ha, hb;
     long i;
     int c;
@@ -270,8 +252,8 @@ static void test_plate_matches_raw_by_hand(void **state)
     assert_true(tp_history_temp(&ha, ha.n - 1, 0) > T0C + 60.0);
     tp_history_clear(&ha);
     tp_history_clear(&hb);
-    release(&a);
-    release(&b);
+    tp_yaml_net_close(&a);
+    tp_yaml_net_close(&b);
 }
 
 /* ---- validation messages, through the binary -------------------------------------------- */
