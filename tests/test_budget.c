@@ -19,11 +19,10 @@
 static cJSON *run_json(const char *verb, const char *config, const char *extra, int expect)
 {
     const tp_scratch *s = tp_group_scratch();
-    char path[TP_TEST_PATH], jpath[TP_TEST_PATH], *text;
+    char path[TP_TEST_PATH], jpath[TP_TEST_PATH];
     const char *args[8];
     int n = 0;
     tp_run_result r;
-    cJSON *root;
     tp_scratch_write(s, "case.yaml", config, path);
     tp_scratch_path(s, "out.json", jpath, sizeof jpath);
     args[n++] = verb;
@@ -39,12 +38,7 @@ static cJSON *run_json(const char *verb, const char *config, const char *extra, 
         print_error("stderr: %s\n", r.err);
     assert_int_equal(r.status, expect);
     tp_run_clear(&r);
-    text = tp_read_file(jpath);
-    assert_true(text != NULL && text[0] != '\0');
-    root = cJSON_Parse(text);
-    free(text);
-    assert_non_null(root);
-    return root;
+    return tp_read_json(jpath);
 }
 
 static double num(const cJSON *obj, const char *key)
@@ -58,7 +52,7 @@ static double num(const cJSON *obj, const char *key)
 
 static void test_loss_paths_sum_to_holding_power(void **state)
 {
-    char path[TP_TEST_PATH], jpath[TP_TEST_PATH], *text;
+    char path[TP_TEST_PATH], jpath[TP_TEST_PATH];
     static const char *demos[] = {"workshop-bed-24v.yaml", "enclosed-printer.yaml",
                                   "lab-hotplate-230v.yaml"};
     size_t i;
@@ -73,11 +67,7 @@ static void test_loss_paths_sum_to_holding_power(void **state)
         tp_run_tepid(tp_group_scratch(), args, &r);
         assert_int_equal(r.status, 0);
         tp_run_clear(&r);
-        text = tp_read_file(jpath);
-        assert_true(text != NULL && text[0] != '\0');
-        root = cJSON_Parse(text);
-        free(text);
-        assert_non_null(root);
+        root = tp_read_json(jpath);
         power = num(root, "power_W");
         losses = cJSON_GetObjectItemCaseSensitive(root, "losses_W");
         assert_non_null(losses);

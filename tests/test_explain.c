@@ -21,10 +21,9 @@
 static cJSON *explain_json(const char *name, const char *yaml, const char *at)
 {
     const tp_scratch *s = tp_group_scratch();
-    char path[TP_TEST_PATH], json[TP_TEST_PATH], json_name[256], at_opt[64], *text;
+    char path[TP_TEST_PATH], json[TP_TEST_PATH], json_name[256], at_opt[64];
     const char *args[7] = {"explain", path, "--json", json, "-q", NULL, NULL};
     tp_run_result res;
-    cJSON *root;
     tp_scratch_write(s, name, yaml, path);
     snprintf(json_name, sizeof json_name, "%s.json", name);
     tp_scratch_path(s, json_name, json, sizeof json);
@@ -38,12 +37,7 @@ static cJSON *explain_json(const char *name, const char *yaml, const char *at)
         fail();
     }
     tp_run_clear(&res);
-    text = tp_read_file(json);
-    assert_true(text != NULL && text[0] != '\0');
-    root = cJSON_Parse(text);
-    free(text);
-    assert_non_null(root);
-    return root;
+    return tp_read_json(json);
 }
 
 static double number(const cJSON *o, const char *key)

@@ -654,10 +654,7 @@ static void test_fit_command_line_demo(void **state)
         assert_int_equal(tp_run_status(&sc, args), 0);
     }
     /* The estimates are within 3 standard errors of the values the demo log was made with. */
-    text = tp_read_file(json);
-    assert_non_null(text);
-    root = cJSON_Parse(text);
-    assert_non_null(root);
+    root = tp_read_json(json);
     params = cJSON_GetObjectItem(root, "parameters");
     assert_int_equal(cJSON_GetArraySize(params), 3);
     for (i = 0; i < 3; i++) {
@@ -671,7 +668,6 @@ static void test_fit_command_line_demo(void **state)
         }
     }
     cJSON_Delete(root);
-    free(text);
     /* The written config reads back with the fitted values in the file's own units. */
     text = tp_read_file(cfg);
     assert_non_null(text);

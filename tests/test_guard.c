@@ -192,17 +192,6 @@ static void test_rise_recommendation_matches_first_order_closed_form(void **stat
 
 /* ---- through the command line --------------------------------------------------------------- */
 
-static cJSON *read_json(const char *path)
-{
-    char *text = tp_read_file(path);
-    cJSON *root;
-    assert_non_null(text);
-    root = cJSON_Parse(text);
-    free(text);
-    assert_non_null(root);
-    return root;
-}
-
 static void test_stuck_on_equilibrium_equals_steady(void **state)
 {
     /* The stuck-on equilibrium of `guard` must be the full-power state of `steady`; both solve
@@ -222,8 +211,8 @@ static void test_stuck_on_equilibrium_equals_steady(void **state)
                               "--json", sj,        NULL};
         assert_int_equal(tp_run_status(&sc, args), 0);
     }
-    g = read_json(gj);
-    s = read_json(sj);
+    g = tp_read_json(gj);
+    s = tp_read_json(sj);
     gn = cJSON_GetObjectItem(cJSON_GetObjectItem(g, "stuck_on"), "nodes_C");
     sn = cJSON_GetObjectItem(s, "nodes_C");
     assert_non_null(gn);
@@ -257,7 +246,7 @@ static void test_detached_sensor_caught_before_the_limit(void **state)
         const char *args[] = {"guard", HOT_PLATE, "--json", gj, "--strict", NULL};
         assert_int_equal(tp_run_status(&sc, args), 0);
     }
-    g = read_json(gj);
+    g = tp_read_json(gj);
     cJSON_ArrayForEach(it, cJSON_GetObjectItem(g, "faults")) {
         const char *name = cJSON_GetObjectItem(it, "fault")->valuestring;
         cJSON *first = cJSON_GetObjectItem(it, "first_detection_s");

@@ -1,7 +1,7 @@
 /* Helpers shared by the cmocka tests: tolerance checks, a scratch directory (per test or per
- * cmocka group), running the tepid binary with its output captured, and a network built from a
- * YAML string. Header only: each test program is one translation unit (tests/CMakeLists.txt
- * builds tests/test_*.c). */
+ * cmocka group), files read back (as text or JSON), running the tepid binary with its output
+ * captured, and a network built from a YAML string. Header only: each test program is one
+ * translation unit (tests/CMakeLists.txt builds tests/test_*.c). */
 #ifndef TP_TEST_H
 #define TP_TEST_H
 
@@ -21,6 +21,8 @@
 #include <sys/stat.h>
 #include <sys/wait.h>
 #include <unistd.h>
+
+#include <cjson/cJSON.h>
 
 #include "assemble.h"
 #include "config.h"
@@ -171,6 +173,19 @@ static inline char *tp_read_file(const char *path)
     }
     fclose(fp);
     return buf;
+}
+
+/* The file parsed as JSON (the caller deletes it); fails the test when the file is unreadable,
+ * empty or not JSON. */
+static inline cJSON *tp_read_json(const char *path)
+{
+    char *text = tp_read_file(path);
+    cJSON *root;
+    assert_true(text != NULL && text[0] != '\0');
+    root = cJSON_Parse(text);
+    free(text);
+    assert_non_null(root);
+    return root;
 }
 
 /* ---- running the binary ------------------------------------------------------------------- */
