@@ -300,9 +300,9 @@ static tp_status attach_control(const tp_desc *desc, const tp_doc *doc, tp_netwo
 /* Warnings: isolated nodes, and powered nodes with no path to a fixed node. */
 static void check_graph(const tp_network *net, tp_diag *d, const tp_doc *doc)
 {
-    int n = net->n_nodes, i, changed = 1;
+    int n = net->n_nodes, i;
     int *degree = calloc((size_t)n + 1, sizeof *degree);
-    int *grounded = calloc((size_t)n + 1, sizeof *grounded);
+    int *grounded = tp_network_grounded(net); /* reachability of a fixed node */
     if (!degree || !grounded) {
         free(degree);
         free(grounded);
@@ -312,24 +312,11 @@ static void check_graph(const tp_network *net, tp_diag *d, const tp_doc *doc)
         degree[net->links[i].a]++;
         degree[net->links[i].b]++;
     }
-    for (i = 0; i < n; i++) {
-        grounded[i] = net->nodes[i].capacity <= 0;
+    for (i = 0; i < n; i++)
         if (degree[i] == 0)
             tp_diag_warn(d, where(doc, "network.nodes"), NULL,
                          "link it to the rest of the network or remove it",
                          "node '%s' has no link", net->nodes[i].id);
-    }
-    /* Reachability of a fixed node, by relaxation (networks are small or sparse). */
-    while (changed) {
-        changed = 0;
-        for (i = 0; i < net->n_links; i++) {
-            int a = net->links[i].a, b = net->links[i].b;
-            if (grounded[a] != grounded[b]) {
-                grounded[a] = grounded[b] = 1;
-                changed = 1;
-            }
-        }
-    }
     for (i = 0; i < net->n_sources; i++) {
         int k, lost = 0;
         for (k = 0; k < net->sources[i].n_nodes; k++)

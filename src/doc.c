@@ -2,12 +2,13 @@
  * alias expansion by copy (bounded), plus dotted-path lookup and --set overrides. */
 #include "doc.h"
 
-#include <errno.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
 #include <yaml.h>
+
+#include "infile.h"
 
 #define ANCHORS_MAX 1024 /* anchors remembered per document */
 
@@ -453,17 +454,22 @@ static int build(tp_doc *doc, const char *file, const char *text, size_t len, in
     return rc;
 }
 
+/* The error for a text over TP_DOC_MAX_BYTES, whether read from a file or given. */
+static tp_status too_large(const char *name, tp_diag *d)
+{
+    tp_diag_error(d, (tp_loc){name, 0, 0}, NULL,
+                  "a plate description is a few kilobytes; is this the right file?",
+                  "the file is larger than %d bytes", TP_DOC_MAX_BYTES);
+    return TP_ERR_LIMIT;
+}
+
 tp_status tp_doc_load_text(const char *name, const char *text, size_t len, tp_doc **out,
                            tp_diag *d)
 {
     tp_doc *doc;
     *out = NULL;
-    if (len > TP_DOC_MAX_BYTES) {
-        tp_diag_error(d, (tp_loc){name, 0, 0}, NULL,
-                      "a plate description is a few kilobytes; is this the right file?",
-                      "the file is larger than %d bytes", TP_DOC_MAX_BYTES);
-        return TP_ERR_LIMIT;
-    }
+    if (len > TP_DOC_MAX_BYTES)
+        return too_large(name, d);
     if (memchr(text, '\0', len)) {
         tp_diag_error(d, (tp_loc){name, 0, 0}, NULL, "give a YAML text file",
                       "the file contains binary data (NUL bytes)");
@@ -492,43 +498,19 @@ tp_status tp_doc_load_text(const char *name, const char *text, size_t len, tp_do
 
 tp_status tp_doc_load_file(const char *path, tp_doc **out, tp_diag *d)
 {
-    FILE *fp;
-    char *buf = NULL;
-    size_t len = 0, cap = 0, got;
+    char *buf;
+    size_t len;
     tp_status st;
 
     *out = NULL;
-    fp = fopen(path, "rb");
-    if (!fp) {
-        tp_diag_error(d, (tp_loc){path, 0, 0}, NULL, "check the file name",
-                      "cannot open: %s", strerror(errno));
-        return TP_ERR_CONFIG;
-    }
-    do {
-        if (len == cap) {
-            char *nb;
-            if (cap > TP_DOC_MAX_BYTES)
-                break;
-            cap = cap ? cap * 2 : 8192;
-            nb = realloc(buf, cap);
-            if (!nb) {
-                free(buf);
-                fclose(fp);
-                return TP_ERR_NOMEM;
-            }
-            buf = nb;
-        }
-        got = fread(buf + len, 1, cap - len, fp);
-        len += got;
-    } while (got > 0);
-    if (ferror(fp)) {
-        tp_diag_error(d, (tp_loc){path, 0, 0}, NULL, NULL, "cannot read: %s", strerror(errno));
-        free(buf);
-        fclose(fp);
-        return TP_ERR_CONFIG;
-    }
-    fclose(fp);
-    st = tp_doc_load_text(path, buf ? buf : "", len, out, d);
+    st = tp_infile_read(path, TP_DOC_MAX_BYTES, &buf, &len, d);
+    if (st == TP_ERR_LIMIT)
+        return too_large(path, d);
+    if (st == TP_ERR_IO)
+        return TP_ERR_CONFIG; /* an unreadable config is an input error (exit 2) */
+    if (st != TP_OK)
+        return st;
+    st = tp_doc_load_text(path, buf, len, out, d);
     free(buf);
     return st;
 }

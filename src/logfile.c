@@ -4,13 +4,13 @@
 #include "logfile.h"
 
 #include <ctype.h>
-#include <errno.h>
 #include <math.h>
 #include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
+#include "infile.h"
 #include "units.h"
 
 #define KELVIN_0C 273.15 /* K at 0 degC */
@@ -905,50 +905,17 @@ done:
 
 tp_status tp_log_load(const char *path, const tp_log_opts *opts, tp_log *log, tp_diag *d)
 {
-    FILE *fp;
-    char *buf = NULL;
-    size_t len = 0, cap = 0, got;
+    char *buf;
+    size_t len;
     tp_status st;
     memset(log, 0, sizeof *log);
-    fp = fopen(path, "rb");
-    if (!fp) {
-        tp_diag_error(d, (tp_loc){path, 0, 0}, NULL, "check the file name", "cannot open: %s",
-                      strerror(errno));
-        return TP_ERR_IO;
-    }
-    do {
-        if (len == cap) {
-            char *nb;
-            if (cap >= (size_t)TP_LOG_MAX_BYTES) {
-                tp_diag_error(d, (tp_loc){path, 0, 0}, NULL,
-                              "thin the log or cut it to the warm-up",
-                              "the log is larger than %ld bytes", TP_LOG_MAX_BYTES);
-                free(buf);
-                fclose(fp);
-                return TP_ERR_LIMIT;
-            }
-            cap = cap ? cap * 2 : 65536;
-            if (cap > (size_t)TP_LOG_MAX_BYTES)
-                cap = (size_t)TP_LOG_MAX_BYTES;
-            nb = realloc(buf, cap + 1);
-            if (!nb) {
-                free(buf);
-                fclose(fp);
-                return TP_ERR_NOMEM;
-            }
-            buf = nb;
-        }
-        got = fread(buf + len, 1, cap - len, fp);
-        len += got;
-    } while (got > 0);
-    if (ferror(fp)) {
-        tp_diag_error(d, (tp_loc){path, 0, 0}, NULL, NULL, "cannot read: %s", strerror(errno));
-        free(buf);
-        fclose(fp);
-        return TP_ERR_IO;
-    }
-    fclose(fp);
-    st = tp_log_parse(path, buf ? buf : "", len, opts, log, d);
+    st = tp_infile_read(path, (size_t)TP_LOG_MAX_BYTES, &buf, &len, d);
+    if (st == TP_ERR_LIMIT)
+        tp_diag_error(d, (tp_loc){path, 0, 0}, NULL, "thin the log or cut it to the warm-up",
+                      "the log is larger than %ld bytes", TP_LOG_MAX_BYTES);
+    if (st != TP_OK)
+        return st;
+    st = tp_log_parse(path, buf, len, opts, log, d);
     free(buf);
     return st;
 }

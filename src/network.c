@@ -196,6 +196,27 @@ int tp_network_find_source(const tp_network *net, const char *id)
     return -1;
 }
 
+int *tp_network_grounded(const tp_network *net)
+{
+    int *grounded = calloc((size_t)net->n_nodes + 1, sizeof *grounded), i, changed = 1;
+    if (!grounded)
+        return NULL;
+    for (i = 0; i < net->n_nodes; i++)
+        grounded[i] = net->nodes[i].capacity <= 0;
+    /* By relaxation: networks are small or sparse. */
+    while (changed) {
+        changed = 0;
+        for (i = 0; i < net->n_links; i++) {
+            int a = net->links[i].a, b = net->links[i].b;
+            if (grounded[a] != grounded[b]) {
+                grounded[a] = grounded[b] = 1;
+                changed = 1;
+            }
+        }
+    }
+    return grounded;
+}
+
 int tp_network_state_size(const tp_network *net)
 {
     return net->n_free + TP_N_QUAD;

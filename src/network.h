@@ -143,6 +143,11 @@ int tp_network_find_node(const tp_network *net, const char *id);
 /* Index of a source by id, or -1. */
 int tp_network_find_source(const tp_network *net, const char *id);
 
+/* Which nodes reach a fixed node: a new array of n_nodes flags (the caller frees it), 1 for a
+ * fixed node (capacity <= 0) and for every node joined to one through links, 0 for the rest.
+ * NULL when memory runs out. */
+int *tp_network_grounded(const tp_network *net);
+
 /* Number the free nodes, build the Jacobian pattern, set every duty to the source's max_duty.
  * Call once after the last node, link and source. */
 tp_status tp_network_finish(tp_network *net);

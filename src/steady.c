@@ -236,22 +236,10 @@ static void kin_info(const char *module, const char *function, char *msg, void *
 /* Every free node must reach a fixed node through links, or no steady state exists. */
 static const char *isolated_node(const tp_network *net)
 {
-    int *ok = calloc((size_t)net->n_nodes + 1, sizeof *ok), i, changed = 1;
+    int *ok = tp_network_grounded(net), i;
     const char *bad = NULL;
     if (!ok)
         return NULL;
-    for (i = 0; i < net->n_nodes; i++)
-        ok[i] = net->nodes[i].state < 0;
-    while (changed) {
-        changed = 0;
-        for (i = 0; i < net->n_links; i++) {
-            int a = net->links[i].a, b = net->links[i].b;
-            if (ok[a] != ok[b]) {
-                ok[a] = ok[b] = 1;
-                changed = 1;
-            }
-        }
-    }
     for (i = 0; i < net->n_nodes && !bad; i++)
         if (!ok[i])
             bad = net->nodes[i].id;

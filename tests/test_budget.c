@@ -11,39 +11,34 @@
 #include <cjson/cJSON.h>
 
 #include "budget.h"
-#include "run_tepid.h"
+#include "tp_test.h"
 
 #define KELVIN 273.15
 #define SIGMA 5.670374419e-8 /* W/(m2.K4), CODATA 2018 */
 
 static cJSON *run_json(const char *verb, const char *config, const char *extra, int expect)
 {
-    char path[512], jpath[512], text[RUN_OUT_MAX];
-    char *argv[12];
+    const tp_scratch *s = tp_group_scratch();
+    char path[TP_TEST_PATH], jpath[TP_TEST_PATH];
+    const char *args[8];
     int n = 0;
-    run_result *r = malloc(sizeof *r);
-    cJSON *root;
-    assert_non_null(r);
-    assert_int_equal(write_text(scratch_dir, "case.yaml", config, path, sizeof path), 0);
-    snprintf(jpath, sizeof jpath, "%s/out.json", scratch_dir);
-    argv[n++] = NULL;
-    argv[n++] = (char *)verb;
-    argv[n++] = path;
-    argv[n++] = (char *)"-q";
-    argv[n++] = (char *)"--json";
-    argv[n++] = jpath;
+    tp_run_result r;
+    tp_scratch_write(s, "case.yaml", config, path);
+    tp_scratch_path(s, "out.json", jpath, sizeof jpath);
+    args[n++] = verb;
+    args[n++] = path;
+    args[n++] = "-q";
+    args[n++] = "--json";
+    args[n++] = jpath;
     if (extra)
-        argv[n++] = (char *)extra;
-    argv[n] = NULL;
-    assert_int_equal(run_tepid(scratch_dir, argv, r), 0);
-    if (r->status != expect)
-        print_error("stderr: %s\n", r->err);
-    assert_int_equal(r->status, expect);
-    free(r);
-    assert_true(read_text(jpath, text, sizeof text) > 0);
-    root = cJSON_Parse(text);
-    assert_non_null(root);
-    return root;
+        args[n++] = extra;
+    args[n] = NULL;
+    tp_run_tepid(s, args, &r);
+    if (r.status != expect)
+        print_error("stderr: %s\n", r.err);
+    assert_int_equal(r.status, expect);
+    tp_run_clear(&r);
+    return tp_read_json(jpath);
 }
 
 static double num(const cJSON *obj, const char *key)
@@ -57,24 +52,22 @@ static double num(const cJSON *obj, const char *key)
 
 static void test_loss_paths_sum_to_holding_power(void **state)
 {
-    char path[512], jpath[512], text[RUN_OUT_MAX];
+    char path[TP_TEST_PATH], jpath[TP_TEST_PATH];
     static const char *demos[] = {"workshop-bed-24v.yaml", "enclosed-printer.yaml",
                                   "lab-hotplate-230v.yaml"};
     size_t i;
     (void)state;
     for (i = 0; i < sizeof demos / sizeof demos[0]; i++) {
-        char *argv[] = {NULL, (char *)"steady", path, (char *)"-q", (char *)"--json", jpath, NULL};
-        run_result *r = malloc(sizeof *r);
+        const char *args[] = {"steady", path, "-q", "--json", jpath, NULL};
+        tp_run_result r;
         cJSON *root, *losses, *item;
         double sum = 0.0, power;
         snprintf(path, sizeof path, "%s/configs/%s", TP_SOURCE_DIR, demos[i]);
-        snprintf(jpath, sizeof jpath, "%s/steady.json", scratch_dir);
-        assert_int_equal(run_tepid(scratch_dir, argv, r), 0);
-        assert_int_equal(r->status, 0);
-        free(r);
-        assert_true(read_text(jpath, text, sizeof text) > 0);
-        root = cJSON_Parse(text);
-        assert_non_null(root);
+        tp_scratch_path(tp_group_scratch(), "steady.json", jpath, sizeof jpath);
+        tp_run_tepid(tp_group_scratch(), args, &r);
+        assert_int_equal(r.status, 0);
+        tp_run_clear(&r);
+        root = tp_read_json(jpath);
         power = num(root, "power_W");
         losses = cJSON_GetObjectItemCaseSensitive(root, "losses_W");
         assert_non_null(losses);
@@ -86,9 +79,9 @@ static void test_loss_paths_sum_to_holding_power(void **state)
         }
         /* Energy balance at steady state: what the heater delivers leaves by the paths; the
          * KINSOL residual tolerance (1e-9 W scaled) bounds the mismatch far below 1e-6. */
-        check_rel("sum of loss paths", sum, power, 1e-6);
+        tp_check_rel("sum of loss paths", sum, power, 1e-6);
         if (cJSON_GetObjectItemCaseSensitive(losses, "walls"))
-            check_rel("heat through the walls", num(losses, "walls"), power, 1e-6);
+            tp_check_rel("heat through the walls", num(losses, "walls"), power, 1e-6);
         cJSON_Delete(root);
     }
 }
@@ -114,8 +107,8 @@ static void test_holding_power_by_hand(void **state)
     double expect = 10 * 0.05 * 80 + 0.9 * SIGMA * 0.05 * (t * t * t * t - ta * ta * ta * ta);
     cJSON *root = run_json("steady", cfg, NULL, 0);
     (void)state;
-    check_rel("holding power", num(root, "power_W"), expect, 1e-9);
-    check_rel("duty", num(root, "duty"), expect / 200.0, 1e-9);
+    tp_check_rel("holding power", num(root, "power_W"), expect, 1e-9);
+    tp_check_rel("duty", num(root, "duty"), expect / 200.0, 1e-9);
     cJSON_Delete(root);
 }
 
@@ -136,8 +129,8 @@ static void test_room_option_changes_the_room(void **state)
     cJSON *a = run_json("steady", cfg, NULL, 0);
     cJSON *b = run_json("steady", cfg, "--room=0degC", 0);
     (void)state;
-    check_rel("holding at 20 degC", num(a, "power_W"), 40.0, 1e-9);
-    check_rel("holding at 0 degC", num(b, "power_W"), 50.0, 1e-9);
+    tp_check_rel("holding at 20 degC", num(a, "power_W"), 40.0, 1e-9);
+    tp_check_rel("holding at 0 degC", num(b, "power_W"), 50.0, 1e-9);
     cJSON_Delete(a);
     cJSON_Delete(b);
 }
@@ -152,7 +145,7 @@ static void test_copper_wire_resistance(void **state)
      * calculation). IEC 60228 Table 1 allows at most 12.1 ohm/km for a class 1 (solid) plain
      * copper 1.5 mm2 conductor (from memory): the nominal value must lie below it. */
     r15 = tp_copper_resistance(1.5e-6, 1.0, 293.15);
-    check_rel("1.5 mm2", r15, 1.0 / 58.0 / 1.5, 1e-12);
+    tp_check_rel("1.5 mm2", r15, 1.0 / 58.0 / 1.5, 1e-12);
     assert_true(r15 < 12.1e-3);
     /* AWG 16: d = 0.127 mm x 92^(20/39) = 1.2908 mm, area 1.3087 mm2 (ASTM B258 definition);
      * R = 13.17 mohm/m; published AWG tables list 13.2 ohm/km at 20 degC (from memory). */
@@ -161,10 +154,10 @@ static void test_copper_wire_resistance(void **state)
     assert_true(fabs(r16 - 13.17e-3) < 0.01e-3);
     assert_true(fabs(r16 - 13.2e-3) / 13.2e-3 < 0.005);
     /* At 70 degC copper gains 0.00393 * 50 = 19.65 % (IEC 60028 temperature coefficient). */
-    check_rel("1.5 mm2 at 70 degC", tp_copper_resistance(1.5e-6, 1.0, 343.15), r15 * 1.1965,
-              1e-12);
+    tp_check_rel("1.5 mm2 at 70 degC", tp_copper_resistance(1.5e-6, 1.0, 343.15), r15 * 1.1965,
+                 1e-12);
     /* Voltage drop for 10 A over a 2 x 1 m loop of 1.5 mm2: 10 * 2 * 11.494e-3 = 0.2299 V. */
-    check_rel("drop", 10.0 * tp_copper_resistance(1.5e-6, 2.0, 293.15), 0.22989, 1e-4);
+    tp_check_rel("drop", 10.0 * tp_copper_resistance(1.5e-6, 2.0, 293.15), 0.22989, 1e-4);
 }
 
 static void test_fuse_rule(void **state)
@@ -209,11 +202,11 @@ static void test_cold_start_current_with_tempco(void **state)
     r_cold = 2.4 * (1.0 + 0.00393 * (15.0 - 20.0));
     r_series = 0.02 + 2.0 / 58.0 / 1.5 + 0.01;
     i_cold = 24.0 / (r_cold + r_series);
-    check_rel("cold resistance", num(root, "heater_cold_ohm"), r_cold, 1e-12);
-    check_rel("cold current", num(root, "cold_current_A"), i_cold, 1e-12);
-    check_rel("cold power", num(root, "cold_power_W"), i_cold * i_cold * r_cold, 1e-12);
-    check_rel("supply at cold start", num(root, "supply_cold_A"), i_cold + 2.0, 1e-12);
-    check_rel("wiring drop", num(root, "wiring_drop_V"), i_cold * 2.0 / 58.0 / 1.5, 1e-12);
+    tp_check_rel("cold resistance", num(root, "heater_cold_ohm"), r_cold, 1e-12);
+    tp_check_rel("cold current", num(root, "cold_current_A"), i_cold, 1e-12);
+    tp_check_rel("cold power", num(root, "cold_power_W"), i_cold * i_cold * r_cold, 1e-12);
+    tp_check_rel("supply at cold start", num(root, "supply_cold_A"), i_cold + 2.0, 1e-12);
+    tp_check_rel("wiring drop", num(root, "wiring_drop_V"), i_cold * 2.0 / 58.0 / 1.5, 1e-12);
     assert_true(num(root, "warnings") == 0.0);
     cJSON_Delete(root);
 }
@@ -246,8 +239,8 @@ static void test_budget_over_rating_warns_and_strict_exits_3(void **state)
 
 static void test_holding_power_matches_long_onoff_warmup(void **state)
 {
-    char path[512], cpath[512];
-    char *text = malloc(4u << 20);
+    char path[TP_TEST_PATH], cpath[TP_TEST_PATH];
+    char *text;
     static const char *cfg =
         "network:\n"
         "  nodes:\n"
@@ -263,25 +256,21 @@ static void test_holding_power_matches_long_onoff_warmup(void **state)
         "control: {source: pad, sensor: sensor, mode: on-off, setpoint: 90 degC, band: 1 K,"
         " period: 1 s}\n"
         "run: {duration: 3 h, step: 1 s}\n";
-    char *argv[] = {NULL, (char *)"warmup", path, (char *)"-q", (char *)"--csv", cpath, NULL};
-    run_result *r = malloc(sizeof *r);
+    const char *args[] = {"warmup", path, "-q", "--csv", cpath, NULL};
     cJSON *root;
     char *line, *save = NULL;
     double t0 = -1, t1 = -1, energy = 0, prev_t = 0, prev_p = 0, hold;
     long row = 0, rising[4096];
     int n_rise = 0, last_duty = -1;
     (void)state;
-    assert_non_null(text);
-    assert_non_null(r);
     root = run_json("steady", cfg, NULL, 0);
     hold = num(root, "power_W");
     cJSON_Delete(root);
-    assert_int_equal(write_text(scratch_dir, "long.yaml", cfg, path, sizeof path), 0);
-    snprintf(cpath, sizeof cpath, "%s/long.csv", scratch_dir);
-    assert_int_equal(run_tepid(scratch_dir, argv, r), 0);
-    assert_int_equal(r->status, 0);
-    free(r);
-    assert_true(read_text(cpath, text, 4u << 20) > 0);
+    tp_scratch_write(tp_group_scratch(), "long.yaml", cfg, path);
+    tp_scratch_path(tp_group_scratch(), "long.csv", cpath, sizeof cpath);
+    assert_int_equal(tp_run_status(tp_group_scratch(), args), 0);
+    text = tp_read_file(cpath);
+    assert_true(text != NULL && text[0] != '\0');
     /* Columns: time_s, plate_C, sensor_C, pad_W, duty, reading_C. Whole cycles run from one
      * switch-on to a later one; the mean power over the last ones is integrated exactly from
      * the piecewise-constant power (it changes only at the 1 s controller ticks, which are
@@ -300,7 +289,9 @@ static void test_holding_power_matches_long_onoff_warmup(void **state)
     }
     assert_true(n_rise > 12);
     /* Second pass: integrate the power between the 10th-last and the last switch-on. */
-    assert_true(read_text(cpath, text, 4u << 20) > 0);
+    free(text);
+    text = tp_read_file(cpath);
+    assert_true(text != NULL && text[0] != '\0');
     row = 0;
     save = NULL;
     for (line = strtok_r(text, "\n", &save); line; line = strtok_r(NULL, "\n", &save), row++) {
@@ -318,7 +309,7 @@ static void test_holding_power_matches_long_onoff_warmup(void **state)
     }
     /* Issue 5: the holding power from steady equals the mean power over whole cycles within
      * 1 % (the on-off limit cycle straddles the setpoint, so only a small bias remains). */
-    check_rel("mean power over 10 whole cycles", energy / (t1 - t0), hold, 0.01);
+    tp_check_rel("mean power over 10 whole cycles", energy / (t1 - t0), hold, 0.01);
     free(text);
 }
 
@@ -334,5 +325,5 @@ int main(void)
         cmocka_unit_test(test_budget_over_rating_warns_and_strict_exits_3),
         cmocka_unit_test(test_holding_power_matches_long_onoff_warmup),
     };
-    return cmocka_run_group_tests(tests, scratch_setup, scratch_teardown);
+    return cmocka_run_group_tests(tests, tp_scratch_group_setup, tp_scratch_group_teardown);
 }

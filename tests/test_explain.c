@@ -9,39 +9,35 @@
 #include <cjson/cJSON.h>
 #include <math.h>
 
-#include "run_tepid.h"
+#include "tp_test.h"
 
 #define T0C 273.15            /* 0 degC in kelvin, K */
 #define SIGMA 5.670374419e-8  /* Stefan-Boltzmann constant, CODATA 2018, W/(m2.K4) */
 #define REL_JSON 1.0e-12      /* cJSON prints doubles that read back exactly; the expected
                                  values take a few roundings: 1e-12 relative */
-#define JSON_MAX (1 << 20)    /* bytes of an explain --json document read back */
-
-static char json_text[JSON_MAX];
-static run_result res;
 
 /* Run `tepid explain` on config text with the extra option `at` (NULL for none); returns the
  * parsed JSON (the caller deletes it). */
 static cJSON *explain_json(const char *name, const char *yaml, const char *at)
 {
-    char path[512], json[512], at_opt[64];
-    char *argv[8] = {NULL, "explain", path, "--json", json, "-q", NULL, NULL};
-    cJSON *root;
-    assert_int_equal(write_text(scratch_dir, name, yaml, path, sizeof path), 0);
-    snprintf(json, sizeof json, "%s/%s.json", scratch_dir, name);
+    const tp_scratch *s = tp_group_scratch();
+    char path[TP_TEST_PATH], json[TP_TEST_PATH], json_name[256], at_opt[64];
+    const char *args[7] = {"explain", path, "--json", json, "-q", NULL, NULL};
+    tp_run_result res;
+    tp_scratch_write(s, name, yaml, path);
+    snprintf(json_name, sizeof json_name, "%s.json", name);
+    tp_scratch_path(s, json_name, json, sizeof json);
     if (at) {
         snprintf(at_opt, sizeof at_opt, "--at=%s", at);
-        argv[6] = at_opt;
+        args[5] = at_opt;
     }
-    assert_int_equal(run_tepid(scratch_dir, argv, &res), 0);
+    tp_run_tepid(s, args, &res);
     if (res.status != 0) {
         print_error("explain exited %d:\n%s", res.status, res.err);
         fail();
     }
-    assert_true(read_text(json, json_text, sizeof json_text) > 0);
-    root = cJSON_Parse(json_text);
-    assert_non_null(root);
-    return root;
+    tp_run_clear(&res);
+    return tp_read_json(json);
 }
 
 static double number(const cJSON *o, const char *key)
@@ -112,16 +108,16 @@ static void test_explain_radiation_linearised(void **state)
     const cJSON *l;
     (void)state;
     l = find_link(root, "sheet", "room", "radiation", 0.012);
-    check_rel("eps sheet top", number(l, "emissivity"), 0.8, REL_JSON);
-    check_rel("G sheet top", number(l, "conductance_W_per_K"), 0.8 * lin * 0.012, REL_JSON);
+    tp_check_rel("eps sheet top", number(l, "emissivity"), 0.8, REL_JSON);
+    tp_check_rel("G sheet top", number(l, "conductance_W_per_K"), 0.8 * lin * 0.012, REL_JSON);
     l = find_link(root, "plate", "room", "radiation", 0.008);
-    check_rel("G plate top", number(l, "conductance_W_per_K"), 0.1 * lin * 0.008, REL_JSON);
+    tp_check_rel("G plate top", number(l, "conductance_W_per_K"), 0.1 * lin * 0.008, REL_JSON);
     cJSON_Delete(root);
 
     root = explain_json("rad0.yaml", plate_yaml, NULL);
     l = find_link(root, "sheet", "room", "radiation", 0.012);
-    check_rel("G sheet top at 20 degC", number(l, "conductance_W_per_K"),
-              4.0 * 0.8 * SIGMA * 0.012 * ts * ts * ts, REL_JSON);
+    tp_check_rel("G sheet top at 20 degC", number(l, "conductance_W_per_K"),
+                 4.0 * 0.8 * SIGMA * 0.012 * ts * ts * ts, REL_JSON);
     cJSON_Delete(root);
 }
 
@@ -153,9 +149,9 @@ static void test_explain_json_contract(void **state)
         /* exactly one of the two */
         assert_int_equal(has(n, "capacity_J_per_K") + has(n, "fixed_C"), 1);
         if (expect_c[i] > 0)
-            check_rel(id->valuestring, number(n, "capacity_J_per_K"), expect_c[i], REL_JSON);
+            tp_check_rel(id->valuestring, number(n, "capacity_J_per_K"), expect_c[i], REL_JSON);
         else
-            check_rel("room", number(n, "fixed_C"), 20.0, REL_JSON);
+            tp_check_rel("room", number(n, "fixed_C"), 20.0, REL_JSON);
         i++;
     }
     cJSON_ArrayForEach(l, links)
@@ -174,7 +170,7 @@ static void test_explain_json_contract(void **state)
             assert_false(has(l, "h_W_per_m2K") || has(l, "area_m2") || has(l, "emissivity"));
         } else if (strcmp(law->valuestring, "convection") == 0) {
             laws[1]++;
-            check_rel("G = h A", g, number(l, "h_W_per_m2K") * number(l, "area_m2"), REL_JSON);
+            tp_check_rel("G = h A", g, number(l, "h_W_per_m2K") * number(l, "area_m2"), REL_JSON);
             assert_false(has(l, "emissivity"));
         } else if (strcmp(law->valuestring, "radiation") == 0) {
             double eps = number(l, "emissivity");
@@ -188,9 +184,10 @@ static void test_explain_json_contract(void **state)
         }
     }
     assert_true(laws[0] >= 2 && laws[1] >= 1 && laws[2] >= 1);
-    check_rel("G plate-sheet", number(find_link(root, "plate", "sheet", "conduction", 0.0),
-                                      "conductance_W_per_K"),
-              1.0 / (0.005 / 2.4 + 1.0 / 6.0 + 0.001 / 1.2), REL_JSON);
+    tp_check_rel(
+        "G plate-sheet",
+        number(find_link(root, "plate", "sheet", "conduction", 0.0), "conductance_W_per_K"),
+        1.0 / (0.005 / 2.4 + 1.0 / 6.0 + 0.001 / 1.2), REL_JSON);
     cJSON_Delete(root);
 }
 
@@ -212,18 +209,18 @@ static void test_explain_json_raw_links(void **state)
     cJSON *root = explain_json("raw.yaml", raw, NULL);
     const cJSON *l;
     (void)state;
-    check_rel("C plate", number(cJSON_GetArrayItem(cJSON_GetObjectItemCaseSensitive(root, "nodes"),
-                                                   0),
-                                "capacity_J_per_K"),
-              640.0, REL_JSON);
+    tp_check_rel("C plate",
+                 number(cJSON_GetArrayItem(cJSON_GetObjectItemCaseSensitive(root, "nodes"), 0),
+                        "capacity_J_per_K"),
+                 640.0, REL_JSON);
     l = find_link(root, "plate", "room", "convection", 0.05);
-    check_rel("h", number(l, "h_W_per_m2K"), 9.0, REL_JSON);
-    check_rel("G", number(l, "conductance_W_per_K"), 0.45, REL_JSON);
-    check_rel("G cond", number(find_link(root, "plate", "room", "conduction", 0.0),
-                               "conductance_W_per_K"),
-              1.6, REL_JSON);
-    check_rel("eps", number(find_link(root, "plate", "room", "radiation", 0.05), "emissivity"),
-              0.9, REL_JSON);
+    tp_check_rel("h", number(l, "h_W_per_m2K"), 9.0, REL_JSON);
+    tp_check_rel("G", number(l, "conductance_W_per_K"), 0.45, REL_JSON);
+    tp_check_rel("G cond",
+                 number(find_link(root, "plate", "room", "conduction", 0.0), "conductance_W_per_K"),
+                 1.6, REL_JSON);
+    tp_check_rel("eps", number(find_link(root, "plate", "room", "radiation", 0.05), "emissivity"),
+                 0.9, REL_JSON);
     cJSON_Delete(root);
 }
 
@@ -247,13 +244,15 @@ static void test_explain_demos_run(void **state)
         snprintf(path, sizeof path, "%s/configs/%s", TP_SOURCE_DIR, e->d_name);
         files++;
         for (v = 0; v < sizeof verbs / sizeof verbs[0]; v++) {
-            char *argv[] = {NULL, (char *)verbs[v], path, NULL};
-            assert_int_equal(run_tepid(scratch_dir, argv, &res), 0);
+            const char *args[] = {verbs[v], path, NULL};
+            tp_run_result res;
+            tp_run_tepid(tp_group_scratch(), args, &res);
             if (res.status != 0) {
                 print_error("tepid %s %s exited %d:\n%s", verbs[v], e->d_name, res.status,
                             res.err);
                 fail();
             }
+            tp_run_clear(&res);
         }
     }
     closedir(dp);
@@ -264,25 +263,28 @@ static void test_explain_demos_run(void **state)
  * the cautions are common practice for mains heaters, no source: REFERENCES.md §9). */
 static void test_explain_mains_demo_cautions(void **state)
 {
-    static char file[65536];
-    char path[1024];
-    char *argv[] = {NULL, "warmup", path, NULL};
+    char path[TP_TEST_PATH], *file;
+    const char *args[] = {"warmup", path, NULL};
+    tp_run_result res;
     static const char *const in_file[] = {"qualified person", "protective earth",
                                           "non-self-resetting thermal cut-out",
                                           "electrical codes"};
     size_t i;
     (void)state;
     snprintf(path, sizeof path, "%s/configs/lab-hotplate-230v.yaml", TP_SOURCE_DIR);
-    assert_true(read_text(path, file, sizeof file) > 0);
+    file = tp_read_file(path);
+    assert_true(file != NULL && file[0] != '\0');
     for (i = 0; i < sizeof in_file / sizeof in_file[0]; i++)
         if (!strstr(file, in_file[i])) {
             print_error("the file lacks '%s'\n", in_file[i]);
             fail();
         }
-    assert_int_equal(run_tepid(scratch_dir, argv, &res), 0);
+    free(file);
+    tp_run_tepid(tp_group_scratch(), args, &res);
     assert_int_equal(res.status, 0);
     assert_non_null(strstr(res.out, "Mains voltage (230 V)"));
     assert_non_null(strstr(res.out, "local electrical codes"));
+    tp_run_clear(&res);
 }
 
 int main(void)
@@ -294,5 +296,5 @@ int main(void)
         cmocka_unit_test(test_explain_demos_run),
         cmocka_unit_test(test_explain_mains_demo_cautions),
     };
-    return cmocka_run_group_tests(tests, scratch_setup, scratch_teardown);
+    return cmocka_run_group_tests(tests, tp_scratch_group_setup, tp_scratch_group_teardown);
 }

@@ -13,8 +13,6 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#include <sys/wait.h>
-#include <unistd.h>
 
 #include <cjson/cJSON.h>
 
@@ -25,6 +23,7 @@
 #include "integrate.h"
 #include "logfile.h"
 #include "network.h"
+#include "tp_test.h"
 
 #define KELVIN 273.15 /* K at 0 degC */
 #define PI 3.14159265358979323846
@@ -48,28 +47,6 @@ static double gauss(uint64_t *s)
     double u1 = ((double)(splitmix(s) >> 11) + 1.0) / 9007199254740992.0;
     double u2 = ((double)(splitmix(s) >> 11) + 1.0) / 9007199254740992.0;
     return sqrt(-2.0 * log(u1)) * cos(2.0 * PI * u2);
-}
-
-/* The whole of a file, NUL-terminated (caller frees); NULL when unreadable. */
-static char *read_file(const char *path)
-{
-    FILE *fp = fopen(path, "rb");
-    char *s;
-    long n;
-    if (!fp)
-        return NULL;
-    fseek(fp, 0, SEEK_END);
-    n = ftell(fp);
-    fseek(fp, 0, SEEK_SET);
-    s = malloc((size_t)n + 1);
-    if (s && fread(s, 1, (size_t)n, fp) != (size_t)n) {
-        free(s);
-        s = NULL;
-    }
-    if (s)
-        s[n] = '\0';
-    fclose(fp);
-    return s;
 }
 
 /* ---- synthetic logs ------------------------------------------------------------------------ */
@@ -622,7 +599,7 @@ static void test_fit_demo_log_matches_its_generator(void **state)
      * printed digit, since optimised and debug builds may round differently). Set
      * TEPID_WRITE_DEMO_LOG to a path to write the log there instead. */
     const char *out = getenv("TEPID_WRITE_DEMO_LOG");
-    char *config = read_file(DEMO_CONFIG), *text;
+    char *config = tp_read_file(DEMO_CONFIG), *text;
     (void)state;
     assert_non_null(config);
     text = synth_text(config, demo_truth, 3, DEMO_SIGMA, DEMO_SEED, 1, 2, demo_preamble);
@@ -635,7 +612,7 @@ static void test_fit_demo_log_matches_its_generator(void **state)
     } else {
         tp_log shipped, now;
         tp_diag d;
-        char *file = read_file(DEMO_LOG);
+        char *file = tp_read_file(DEMO_LOG);
         long i, differ = 0;
         assert_non_null(file);
         tp_diag_init(&d, stderr);
@@ -654,18 +631,10 @@ static void test_fit_demo_log_matches_its_generator(void **state)
     free(text);
 }
 
-static int run_tepid(const char *args)
-{
-    char cmd[4096];
-    int rc;
-    snprintf(cmd, sizeof cmd, "%s %s >/dev/null 2>&1", TP_TEPID_EXE, args);
-    rc = system(cmd);
-    return WIFEXITED(rc) ? WEXITSTATUS(rc) : -1;
-}
-
 static void test_fit_command_line_demo(void **state)
 {
-    char args[3072], dir[] = "/tmp/tepid-fit-XXXXXX", cfg[600], json[600], csv[600];
+    tp_scratch sc;
+    char cfg[TP_TEST_PATH], json[TP_TEST_PATH], csv[TP_TEST_PATH];
     char *text;
     cJSON *root, *params, *p;
     tp_doc *doc = NULL;
@@ -674,20 +643,18 @@ static void test_fit_command_line_demo(void **state)
     static const double demo_values[3] = {2.6, 1.3, 11.0};
     int i;
     (void)state;
-    assert_non_null(mkdtemp(dir));
-    snprintf(cfg, sizeof cfg, "%s/calibrated.yaml", dir);
-    snprintf(json, sizeof json, "%s/fit.json", dir);
-    snprintf(csv, sizeof csv, "%s/fit.csv", dir);
-    snprintf(args, sizeof args,
-             "fit %s --log %s --free heater.resistance --free "
-             "losses.convection_scale,sensor.time_constant --write-config %s --json %s --csv %s",
-             DEMO_CONFIG, DEMO_LOG, cfg, json, csv);
-    assert_int_equal(run_tepid(args), 0);
+    tp_scratch_create(&sc);
+    tp_scratch_path(&sc, "calibrated.yaml", cfg, sizeof cfg);
+    tp_scratch_path(&sc, "fit.json", json, sizeof json);
+    tp_scratch_path(&sc, "fit.csv", csv, sizeof csv);
+    {
+        const char *args[] = {"fit", DEMO_CONFIG, "--log", DEMO_LOG, "--free", "heater.resistance",
+                              "--free", "losses.convection_scale,sensor.time_constant",
+                              "--write-config", cfg, "--json", json, "--csv", csv, NULL};
+        assert_int_equal(tp_run_status(&sc, args), 0);
+    }
     /* The estimates are within 3 standard errors of the values the demo log was made with. */
-    text = read_file(json);
-    assert_non_null(text);
-    root = cJSON_Parse(text);
-    assert_non_null(root);
+    root = tp_read_json(json);
     params = cJSON_GetObjectItem(root, "parameters");
     assert_int_equal(cJSON_GetArraySize(params), 3);
     for (i = 0; i < 3; i++) {
@@ -701,9 +668,8 @@ static void test_fit_command_line_demo(void **state)
         }
     }
     cJSON_Delete(root);
-    free(text);
     /* The written config reads back with the fitted values in the file's own units. */
-    text = read_file(cfg);
+    text = tp_read_file(cfg);
     assert_non_null(text);
     assert_non_null(strstr(text, "# Calibrated with 'tepid fit' against"));
     assert_non_null(strstr(text, "\nlosses: {convection_scale: "));
@@ -717,20 +683,27 @@ static void test_fit_command_line_demo(void **state)
     tp_desc_clear(&desc);
     tp_doc_destroy(&doc);
     /* Refusals: an output onto the log or the config, a missing --log or --free. */
-    snprintf(args, sizeof args, "fit %s --log %s --free heater.resistance --write-config %s",
-             DEMO_CONFIG, DEMO_LOG, DEMO_LOG);
-    assert_int_equal(run_tepid(args), 2);
-    snprintf(args, sizeof args, "fit %s --log %s --free heater.resistance --write-config %s",
-             DEMO_CONFIG, DEMO_LOG, DEMO_CONFIG);
-    assert_int_equal(run_tepid(args), 2);
-    snprintf(args, sizeof args, "fit %s --free heater.resistance", DEMO_CONFIG);
-    assert_int_equal(run_tepid(args), 2);
-    snprintf(args, sizeof args, "fit %s --log %s", DEMO_CONFIG, DEMO_LOG);
-    assert_int_equal(run_tepid(args), 2);
-    remove(cfg);
-    remove(json);
-    remove(csv);
-    rmdir(dir);
+    {
+        const char *args[] = {"fit",    DEMO_CONFIG,         "--log",          DEMO_LOG,
+                              "--free", "heater.resistance", "--write-config", DEMO_LOG,
+                              NULL};
+        assert_int_equal(tp_run_status(&sc, args), 2);
+    }
+    {
+        const char *args[] = {"fit",    DEMO_CONFIG,         "--log",          DEMO_LOG,
+                              "--free", "heater.resistance", "--write-config", DEMO_CONFIG,
+                              NULL};
+        assert_int_equal(tp_run_status(&sc, args), 2);
+    }
+    {
+        const char *args[] = {"fit", DEMO_CONFIG, "--free", "heater.resistance", NULL};
+        assert_int_equal(tp_run_status(&sc, args), 2);
+    }
+    {
+        const char *args[] = {"fit", DEMO_CONFIG, "--log", DEMO_LOG, NULL};
+        assert_int_equal(tp_run_status(&sc, args), 2);
+    }
+    tp_scratch_destroy(&sc);
 }
 
 int main(void)

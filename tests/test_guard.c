@@ -12,7 +12,6 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#include <sys/wait.h>
 
 #include <cjson/cJSON.h>
 
@@ -23,6 +22,7 @@
 #include "integrate.h"
 #include "materials.h"
 #include "network.h"
+#include "tp_test.h"
 #include "units.h"
 
 #define KELVIN 273.15
@@ -192,51 +192,27 @@ static void test_rise_recommendation_matches_first_order_closed_form(void **stat
 
 /* ---- through the command line --------------------------------------------------------------- */
 
-static int run_tepid(const char *args)
-{
-    char cmd[1024];
-    int rc;
-    snprintf(cmd, sizeof cmd, "%s %s >/dev/null 2>&1", TP_TEPID_EXE, args);
-    rc = system(cmd);
-    return WIFEXITED(rc) ? WEXITSTATUS(rc) : -1;
-}
-
-static cJSON *read_json(const char *path)
-{
-    FILE *fp = fopen(path, "rb");
-    char *text;
-    long n;
-    cJSON *root;
-    assert_non_null(fp);
-    fseek(fp, 0, SEEK_END);
-    n = ftell(fp);
-    fseek(fp, 0, SEEK_SET);
-    text = malloc((size_t)n + 1);
-    assert_non_null(text);
-    assert_int_equal(fread(text, 1, (size_t)n, fp), (size_t)n);
-    text[n] = '\0';
-    fclose(fp);
-    root = cJSON_Parse(text);
-    free(text);
-    assert_non_null(root);
-    return root;
-}
-
 static void test_stuck_on_equilibrium_equals_steady(void **state)
 {
     /* The stuck-on equilibrium of `guard` must be the full-power state of `steady`; both solve
      * the same network, so they agree to the solver's tolerance (1e-6 K here). */
     const char *gj = TP_BINARY_DIR "/guard_stuck.json", *sj = TP_BINARY_DIR "/guard_steady.json";
-    char args[512];
+    tp_scratch sc;
     cJSON *g, *s, *gn, *sn, *it;
     int count = 0;
     (void)state;
-    snprintf(args, sizeof args, "guard %s --json %s", HOT_PLATE, gj);
-    assert_int_equal(run_tepid(args), 0);
-    snprintf(args, sizeof args, "steady %s --set control.mode=full --json %s", HOT_PLATE, sj);
-    assert_int_equal(run_tepid(args), 0);
-    g = read_json(gj);
-    s = read_json(sj);
+    tp_scratch_create(&sc);
+    {
+        const char *args[] = {"guard", HOT_PLATE, "--json", gj, NULL};
+        assert_int_equal(tp_run_status(&sc, args), 0);
+    }
+    {
+        const char *args[] = {"steady", HOT_PLATE, "--set", "control.mode=full",
+                              "--json", sj,        NULL};
+        assert_int_equal(tp_run_status(&sc, args), 0);
+    }
+    g = tp_read_json(gj);
+    s = tp_read_json(sj);
     gn = cJSON_GetObjectItem(cJSON_GetObjectItem(g, "stuck_on"), "nodes_C");
     sn = cJSON_GetObjectItem(s, "nodes_C");
     assert_non_null(gn);
@@ -255,18 +231,22 @@ static void test_stuck_on_equilibrium_equals_steady(void **state)
     cJSON_Delete(s);
     remove(gj);
     remove(sj);
+    tp_scratch_destroy(&sc);
 }
 
 static void test_detached_sensor_caught_before_the_limit(void **state)
 {
     const char *gj = TP_BINARY_DIR "/guard_detached.json";
-    char args[512];
+    tp_scratch sc;
     cJSON *g, *it;
     int seen = 0;
     (void)state;
-    snprintf(args, sizeof args, "guard %s --json %s --strict", HOT_PLATE, gj);
-    assert_int_equal(run_tepid(args), 0);
-    g = read_json(gj);
+    tp_scratch_create(&sc);
+    {
+        const char *args[] = {"guard", HOT_PLATE, "--json", gj, "--strict", NULL};
+        assert_int_equal(tp_run_status(&sc, args), 0);
+    }
+    g = tp_read_json(gj);
     cJSON_ArrayForEach(it, cJSON_GetObjectItem(g, "faults")) {
         const char *name = cJSON_GetObjectItem(it, "fault")->valuestring;
         cJSON *first = cJSON_GetObjectItem(it, "first_detection_s");
@@ -286,14 +266,19 @@ static void test_detached_sensor_caught_before_the_limit(void **state)
     remove(gj);
     /* Loose settings: no window fits in the run, no grace runs out, the ceiling is far above:
      * the detached sensor cooks the laminate unnoticed, and --strict says so with exit 3. */
-    snprintf(args, sizeof args,
-             "guard %s --rise-window 1h --hold-grace 1h --ceiling '400 degC' --strict -q",
-             HOT_PLATE);
-    assert_int_equal(run_tepid(args), 3);
+    {
+        const char *args[] = {"guard", HOT_PLATE,   "--rise-window", "1h",       "--hold-grace",
+                              "1h",    "--ceiling", "400 degC",      "--strict", "-q",
+                              NULL};
+        assert_int_equal(tp_run_status(&sc, args), 3);
+    }
     /* Without --strict the same evaluation succeeds (exit 0). */
-    snprintf(args, sizeof args,
-             "guard %s --rise-window 1h --hold-grace 1h --ceiling '400 degC' -q", HOT_PLATE);
-    assert_int_equal(run_tepid(args), 0);
+    {
+        const char *args[] = {"guard", HOT_PLATE,   "--rise-window", "1h", "--hold-grace",
+                              "1h",    "--ceiling", "400 degC",      "-q", NULL};
+        assert_int_equal(tp_run_status(&sc, args), 0);
+    }
+    tp_scratch_destroy(&sc);
 }
 
 /* ---- healthy corners re-simulated with the checks ------------------------------------------- */

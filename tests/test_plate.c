@@ -13,7 +13,7 @@
 #include "config.h"
 #include "history.h"
 #include "integrate.h"
-#include "run_tepid.h"
+#include "tp_test.h"
 
 #define T0C 273.15                 /* 0 degC in kelvin, K */
 #define SIGMA 5.670374419e-8       /* Stefan-Boltzmann constant, CODATA 2018, W/(m2.K4) */
@@ -33,35 +33,17 @@
     "  wool:     {density: 100 kg/m3, specific_heat: 800 J/(kg.K), conductivity: 0.05 W/(m.K),\n" \
     "             emissivity: 0.9, max_temperature: 300 degC, source: test values}\n"
 
-/* A network lowered in-process from config text; the caller destroys it. */
-typedef struct lowered {
-    tp_doc *doc;
-    tp_desc desc;
-    tp_network *net;
-    tp_diag diag;
-} lowered;
-
-static void lower(const char *text, lowered *lw)
+/* A network lowered in-process from config text (tp_yaml_net); the caller closes it with
+ * tp_yaml_net_close. */
+static void lower(const char *text, tp_yaml_net *lw)
 {
-    memset(lw, 0, sizeof *lw);
-    tp_diag_init(&lw->diag, NULL);
-    assert_int_equal(tp_doc_load_text("test.yaml", text, strlen(text), &lw->doc, &lw->diag),
-                     TP_OK);
-    if (tp_config_read(lw->doc, &lw->desc, &lw->diag) != TP_OK ||
-        tp_assemble(&lw->desc, lw->doc, &lw->diag, &lw->net) != TP_OK) {
+    if (tp_yaml_net_open(lw, text) != TP_OK) {
         print_error("%s", lw->diag.log);
         fail();
     }
 }
 
-static void release(lowered *lw)
-{
-    tp_network_destroy(&lw->net);
-    tp_desc_clear(&lw->desc);
-    tp_doc_destroy(&lw->doc);
-}
-
-static int node(const lowered *lw, const char *id)
+static int node(const tp_yaml_net *lw, const char *id)
 {
     int i = tp_network_find_node(lw->net, id);
     if (i < 0) {
@@ -72,7 +54,7 @@ static int node(const lowered *lw, const char *id)
 }
 
 /* The link with this label, or NULL. */
-static const tp_net_link *link_named(const lowered *lw, const char *label)
+static const tp_net_link *link_named(const tp_yaml_net *lw, const char *label)
 {
     int i;
     for (i = 0; i < lw->net->n_links; i++)
@@ -81,7 +63,7 @@ static const tp_net_link *link_named(const lowered *lw, const char *label)
     return NULL;
 }
 
-static const tp_net_link *must_link(const lowered *lw, const char *label)
+static const tp_net_link *must_link(const tp_yaml_net *lw, const char *label)
 {
     const tp_net_link *l = link_named(lw, label);
     if (!l) {
@@ -121,21 +103,21 @@ static const char stack_text[] =
  *     2 (0.15 + 0.08) 0.001 = 0.00046 m2; the plate's bottom is covered by heat (no face). */
 static void test_plate_stack_by_hand(void **state)
 {
-    lowered lw;
+    tp_yaml_net lw;
     (void)state;
     lower(stack_text, &lw);
-    check_rel("C heat", lw.net->nodes[node(&lw, "heat")].capacity, 80.0, REL_EXACT);
-    check_rel("C plate", lw.net->nodes[node(&lw, "plate")].capacity, 200.0, REL_EXACT);
-    check_rel("C sheet", lw.net->nodes[node(&lw, "sheet")].capacity, 48.0, REL_EXACT);
-    check_rel("G heat-plate", must_link(&lw, "heat-plate")->g, 1.0 / 0.12625, REL_EXACT);
-    check_rel("G plate-sheet", must_link(&lw, "plate-sheet")->g,
-              1.0 / (0.005 / 2.4 + 1.0 / 6.0 + 0.001 / 1.2), REL_EXACT);
-    check_rel("A plate top", must_link(&lw, "plate top")->area, 0.008, REL_EXACT);
-    check_rel("A sheet top", must_link(&lw, "sheet top")->area, 0.012, REL_EXACT);
-    check_rel("A sheet edges", must_link(&lw, "sheet edges")->area, 0.00046, REL_EXACT);
+    tp_check_rel("C heat", lw.net->nodes[node(&lw, "heat")].capacity, 80.0, REL_EXACT);
+    tp_check_rel("C plate", lw.net->nodes[node(&lw, "plate")].capacity, 200.0, REL_EXACT);
+    tp_check_rel("C sheet", lw.net->nodes[node(&lw, "sheet")].capacity, 48.0, REL_EXACT);
+    tp_check_rel("G heat-plate", must_link(&lw, "heat-plate")->g, 1.0 / 0.12625, REL_EXACT);
+    tp_check_rel("G plate-sheet", must_link(&lw, "plate-sheet")->g,
+                 1.0 / (0.005 / 2.4 + 1.0 / 6.0 + 0.001 / 1.2), REL_EXACT);
+    tp_check_rel("A plate top", must_link(&lw, "plate top")->area, 0.008, REL_EXACT);
+    tp_check_rel("A sheet top", must_link(&lw, "sheet top")->area, 0.012, REL_EXACT);
+    tp_check_rel("A sheet edges", must_link(&lw, "sheet edges")->area, 0.00046, REL_EXACT);
     assert_null(link_named(&lw, "plate bottom"));
     assert_int_equal(lw.net->sources[0].nodes[0], node(&lw, "heat"));
-    release(&lw);
+    tp_yaml_net_close(&lw);
 }
 
 /* A middle layer smaller than both neighbours: base (soft, 2 mm), pad (skin, 1 mm,
@@ -163,28 +145,28 @@ static void test_plate_closed_gap_by_hand(void **state)
         "heater: {layer: pad, power: 50 W}\n";
     const double tf = T0C + 50.0;
     const double k_air = 0.0241 * pow(tf / 273.0, 1.5) * (273.0 + 194.0) / (tf + 194.0);
-    lowered lw;
+    tp_yaml_net lw;
     (void)state;
     lower(text, &lw);
     /* Sutherland's law reproduces itself to rounding; the air module may round constants
      * differently: 1e-9. */
-    check_rel("G gap", must_link(&lw, "base-plate air gap")->g, k_air * 0.008 / 0.001, 1.0e-9);
-    check_rel("A gap", must_link(&lw, "base-plate gap radiation")->area, 0.008, REL_EXACT);
-    check_rel("eps gap", must_link(&lw, "base-plate gap radiation")->eps,
-              1.0 / (1.0 / 0.9 + 1.0 / 0.1 - 1.0), REL_EXACT);
-    check_rel("G base-pad", must_link(&lw, "base-pad")->g, 1.0 / 0.1675, REL_EXACT);
-    check_rel("G pad-plate", must_link(&lw, "pad-plate")->g,
-              1.0 / (0.001 / 1.2 + 1.0 / 24.0 + 0.005 / 2.4), REL_EXACT);
+    tp_check_rel("G gap", must_link(&lw, "base-plate air gap")->g, k_air * 0.008 / 0.001, 1.0e-9);
+    tp_check_rel("A gap", must_link(&lw, "base-plate gap radiation")->area, 0.008, REL_EXACT);
+    tp_check_rel("eps gap", must_link(&lw, "base-plate gap radiation")->eps,
+                 1.0 / (1.0 / 0.9 + 1.0 / 0.1 - 1.0), REL_EXACT);
+    tp_check_rel("G base-pad", must_link(&lw, "base-pad")->g, 1.0 / 0.1675, REL_EXACT);
+    tp_check_rel("G pad-plate", must_link(&lw, "pad-plate")->g,
+                 1.0 / (0.001 / 1.2 + 1.0 / 24.0 + 0.005 / 2.4), REL_EXACT);
     /* The gap covers the rest of the faces between base and plate, and the pad's edges face
      * the gap: none of them loses to the room. */
     assert_null(link_named(&lw, "base top"));
     assert_null(link_named(&lw, "plate bottom"));
     assert_null(link_named(&lw, "pad edges"));
-    release(&lw);
+    tp_yaml_net_close(&lw);
 }
 
 /* Integrate a lowered network and keep its history. */
-static void simulate(lowered *lw, tp_history *h)
+static void simulate(tp_yaml_net *lw, tp_history *h)
 {
     tp_integrate_opts o;
     tp_integrate_stats stats;
@@ -247,7 +229,7 @@ static void test_plate_matches_raw_by_hand(void **state)
         "  sources:\n"
         "    - {id: heater, node: plate, power: 30 W}\n"
         "run: {duration: 40 min, step: 10 s, tolerance: 1e-9}\n";
-    lowered a, b;
+    tp_yaml_net a, b;
     tp_history ha, hb;
     long i;
     int c;
@@ -270,8 +252,8 @@ static void test_plate_matches_raw_by_hand(void **state)
     assert_true(tp_history_temp(&ha, ha.n - 1, 0) > T0C + 60.0);
     tp_history_clear(&ha);
     tp_history_clear(&hb);
-    release(&a);
-    release(&b);
+    tp_yaml_net_close(&a);
+    tp_yaml_net_close(&b);
 }
 
 /* ---- validation messages, through the binary -------------------------------------------- */
@@ -305,12 +287,13 @@ typedef struct message_case {
  * and the fragment on the same line. */
 static void check_message(const message_case *mc)
 {
-    char path[512], head[700], *argv[] = {NULL, "check", path, NULL};
+    char path[TP_TEST_PATH], head[TP_TEST_PATH + 200];
+    const char *args[] = {"check", path, NULL};
     const char *line_start;
-    static run_result r;
+    tp_run_result r;
     int line, col;
-    assert_int_equal(write_text(scratch_dir, mc->name, mc->yaml, path, sizeof path), 0);
-    assert_int_equal(run_tepid(scratch_dir, argv, &r), 0);
+    tp_scratch_write(tp_group_scratch(), mc->name, mc->yaml, path);
+    tp_run_tepid(tp_group_scratch(), args, &r);
     locate(mc->yaml, mc->at, &line, &col);
     snprintf(head, sizeof head, "%s:%d:%d: %s", path, line, col, mc->status ? "" : "warning: ");
     line_start = strstr(r.err, head);
@@ -321,6 +304,7 @@ static void check_message(const message_case *mc)
                     mc->name, r.status, mc->status, head, mc->fragment, r.err);
         fail();
     }
+    tp_run_clear(&r);
 }
 
 #define ROOM_BED "room: {temperature: 20 degC}\nbed:\n  size: [200 mm, 100 mm]\n"
@@ -407,15 +391,16 @@ static void test_plate_message_service_limit(void **state)
         "limit.yaml", LIMIT_YAML("150 degC"), "150 degC",
         "the setpoint 150 degC is above the service limit of soft in layer 'heat' (120 degC)",
         0};
-    char path[512], *argv[] = {NULL, "check", path, NULL};
-    static run_result r;
+    char path[TP_TEST_PATH];
+    const char *args[] = {"check", path, NULL};
+    tp_run_result r;
     (void)state;
     check_message(&mc);
-    assert_int_equal(write_text(scratch_dir, "limit-ok.yaml", LIMIT_YAML("110 degC"), path, sizeof path),
-                     0);
-    assert_int_equal(run_tepid(scratch_dir, argv, &r), 0);
+    tp_scratch_write(tp_group_scratch(), "limit-ok.yaml", LIMIT_YAML("110 degC"), path);
+    tp_run_tepid(tp_group_scratch(), args, &r);
     assert_int_equal(r.status, 0);
     assert_null(strstr(r.err, "service limit"));
+    tp_run_clear(&r);
 #undef LIMIT_YAML
 }
 
@@ -442,13 +427,15 @@ static void test_plate_message_biot(void **state)
         "losses: {convection_scale: 0}\n",
         "{id: wool", "layer 'wool' (wool) has a Biot number of 1.1 > 0.1: it is not isothermal",
         0};
-    static run_result r;
-    char path[512], *argv[] = {NULL, "check", path, NULL};
+    tp_run_result r;
+    char path[TP_TEST_PATH];
+    const char *args[] = {"check", path, NULL};
     (void)state;
     check_message(&mc);
-    snprintf(path, sizeof path, "%s/%s", scratch_dir, mc.name);
-    assert_int_equal(run_tepid(scratch_dir, argv, &r), 0);
+    tp_scratch_path(tp_group_scratch(), mc.name, path, sizeof path);
+    tp_run_tepid(tp_group_scratch(), args, &r);
     assert_null(strstr(r.err, "layer 'plate' (spreader) has a Biot"));
+    tp_run_clear(&r);
 }
 
 /* A contact on the bottom layer has nothing below it: a warning at the value, not silence. */
@@ -495,5 +482,5 @@ int main(void)
         cmocka_unit_test(test_plate_message_bottom_contact),
         cmocka_unit_test(test_plate_message_correlation_range),
     };
-    return cmocka_run_group_tests(tests, scratch_setup, scratch_teardown);
+    return cmocka_run_group_tests(tests, tp_scratch_group_setup, tp_scratch_group_teardown);
 }

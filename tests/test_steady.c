@@ -247,7 +247,7 @@ static void test_steady_cli_json(void **state)
 {
     tp_scratch sc;
     tp_run_result r;
-    char yaml[2048], cfg[TP_TEST_PATH], out[TP_TEST_PATH], *text;
+    char yaml[2048], cfg[TP_TEST_PATH], out[TP_TEST_PATH];
     cJSON *root, *nodes;
     (void)state;
     tp_scratch_create(&sc);
@@ -260,10 +260,7 @@ static void test_steady_cli_json(void **state)
     }
     assert_int_equal(r.status, 0);
     tp_run_clear(&r);
-    text = tp_read_file(out);
-    assert_non_null(text);
-    root = cJSON_Parse(text);
-    assert_non_null(root);
+    root = tp_read_json(out);
     nodes = cJSON_GetObjectItemCaseSensitive(root, "nodes_C");
     assert_true(cJSON_IsObject(nodes));
     assert_int_equal(cJSON_GetArraySize(nodes), 2); /* plate and sensor; not the fixed room */
@@ -271,7 +268,6 @@ static void test_steady_cli_json(void **state)
     tp_check_abs("sensor", json_number(nodes, "sensor"), 70.0, TEMP_TOL);
     tp_check_abs("power_W", json_number(root, "power_W"), 90.5, 1.51 * TEMP_TOL);
     cJSON_Delete(root);
-    free(text);
     tp_scratch_destroy(&sc);
 }
 

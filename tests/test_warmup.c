@@ -12,7 +12,6 @@
 #include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
-#include <unistd.h>
 
 #include "assemble.h"
 #include "config.h"
@@ -22,6 +21,7 @@
 #include "network.h"
 #include "results.h"
 #include "steady.h"
+#include "tp_test.h"
 #include "tune.h"
 #include "warmup.h"
 
@@ -305,17 +305,6 @@ static void test_identify_first_order_plant(void **state)
 
 /* ---- the figure through the command line ---------------------------------------------------- */
 
-static char tmpdir[256];
-
-static int run_tepid(const char *args)
-{
-    char cmd[2048];
-    int rc;
-    snprintf(cmd, sizeof cmd, "%s %s >/dev/null 2>&1", TP_TEPID_EXE, args);
-    rc = system(cmd);
-    return WIFEXITED(rc) ? WEXITSTATUS(rc) : -1;
-}
-
 static int has_prefix(const char *path, const unsigned char *magic, size_t n)
 {
     unsigned char buf[16];
@@ -330,45 +319,28 @@ static int has_prefix(const char *path, const unsigned char *magic, size_t n)
 
 static void test_plot_png_and_failures(void **state)
 {
-    char args[1024], path[512];
+    const tp_scratch *sc = tp_group_scratch();
+    const char *config = TP_SOURCE_DIR "/configs/raw-five-node.yaml";
+    char path[TP_TEST_PATH], csv[TP_TEST_PATH];
+    const char *plot_args[] = {"warmup", config, "-q", "--plot", path, NULL};
+    const char *csv_plot_args[] = {"warmup", config, "-q", "--csv", csv, "--plot", path, NULL};
     /* PNG signature, ISO/IEC 15948 Sec. 5.2. */
     static const unsigned char png[8] = {0x89, 'P', 'N', 'G', 0x0d, 0x0a, 0x1a, 0x0a};
     struct stat sb;
     (void)state;
-    snprintf(path, sizeof path, "%s/run.png", tmpdir);
-    snprintf(args, sizeof args, "warmup %s/configs/raw-five-node.yaml -q --plot %s",
-             TP_SOURCE_DIR, path);
-    assert_int_equal(run_tepid(args), 0);
+    tp_scratch_path(sc, "run.png", path, sizeof path);
+    assert_int_equal(tp_run_status(sc, plot_args), 0);
     assert_true(has_prefix(path, png, 8));
     /* A plot into a directory that does not exist fails (exit 1) and leaves nothing. */
-    snprintf(path, sizeof path, "%s/missing/run.png", tmpdir);
-    snprintf(args, sizeof args, "warmup %s/configs/raw-five-node.yaml -q --plot %s",
-             TP_SOURCE_DIR, path);
-    assert_int_equal(run_tepid(args), 1);
+    tp_scratch_path(sc, "missing/run.png", path, sizeof path);
+    assert_int_equal(tp_run_status(sc, plot_args), 1);
     assert_int_not_equal(stat(path, &sb), 0);
     /* An unknown format is a usage error (exit 2) and writes nothing, not even the CSV. */
-    snprintf(path, sizeof path, "%s/run.bmp", tmpdir);
-    snprintf(args, sizeof args, "warmup %s/configs/raw-five-node.yaml -q --csv %s/run.csv "
-             "--plot %s", TP_SOURCE_DIR, tmpdir, path);
-    assert_int_equal(run_tepid(args), 2);
+    tp_scratch_path(sc, "run.bmp", path, sizeof path);
+    tp_scratch_path(sc, "run.csv", csv, sizeof csv);
+    assert_int_equal(tp_run_status(sc, csv_plot_args), 2);
     assert_int_not_equal(stat(path, &sb), 0);
-    snprintf(path, sizeof path, "%s/run.csv", tmpdir);
-    assert_int_not_equal(stat(path, &sb), 0);
-}
-
-static int setup_dir(void **state)
-{
-    (void)state;
-    snprintf(tmpdir, sizeof tmpdir, "/tmp/tepid-warmup-XXXXXX");
-    return mkdtemp(tmpdir) ? 0 : -1;
-}
-
-static int remove_dir(void **state)
-{
-    char cmd[512];
-    (void)state;
-    snprintf(cmd, sizeof cmd, "rm -rf '%s'", tmpdir);
-    return system(cmd) == 0 ? 0 : -1;
+    assert_int_not_equal(stat(csv, &sb), 0);
 }
 
 int main(void)
@@ -387,5 +359,5 @@ int main(void)
         cmocka_unit_test(test_identify_first_order_plant),
         cmocka_unit_test(test_plot_png_and_failures),
     };
-    return cmocka_run_group_tests(tests, setup_dir, remove_dir);
+    return cmocka_run_group_tests(tests, tp_scratch_group_setup, tp_scratch_group_teardown);
 }

@@ -1,6 +1,7 @@
-/* Helpers shared by the cmocka tests: tolerance checks, a scratch directory, running the tepid
- * binary with its output captured, and a network built from a YAML string. Header only: each
- * test program is one translation unit (tests/CMakeLists.txt builds tests/test_*.c). */
+/* Helpers shared by the cmocka tests: tolerance checks, a scratch directory (per test or per
+ * cmocka group), files read back (as text or JSON), running the tepid binary with its output
+ * captured, and a network built from a YAML string. Header only: each test program is one
+ * translation unit (tests/CMakeLists.txt builds tests/test_*.c). */
 #ifndef TP_TEST_H
 #define TP_TEST_H
 
@@ -20,6 +21,8 @@
 #include <sys/stat.h>
 #include <sys/wait.h>
 #include <unistd.h>
+
+#include <cjson/cJSON.h>
 
 #include "assemble.h"
 #include "config.h"
@@ -115,6 +118,36 @@ static inline void tp_scratch_destroy(tp_scratch *s)
     rmdir(s->dir);
 }
 
+/* ---- the scratch directory of a cmocka group ---------------------------------------------- */
+
+/* The group's directory, made by tp_scratch_group_setup and removed by
+ * tp_scratch_group_teardown; pass those two to cmocka_run_group_tests. */
+static inline tp_scratch *tp_group_scratch(void)
+{
+    static tp_scratch group;
+    return &group;
+}
+
+/* cmocka group setup: a fresh empty directory as tp_scratch_create makes; 0, or -1 when it
+ * cannot be made (no assertions: a group fixture reports by its return value). */
+static inline int tp_scratch_group_setup(void **state)
+{
+    tp_scratch *s = tp_group_scratch();
+    int n = snprintf(s->dir, sizeof s->dir, "%s/tests/scratch.XXXXXX", TP_BINARY_DIR);
+    (void)state;
+    if (n <= 0 || (size_t)n >= sizeof s->dir)
+        return -1;
+    return mkdtemp(s->dir) ? 0 : -1;
+}
+
+/* cmocka group teardown: remove the group's directory and its files. */
+static inline int tp_scratch_group_teardown(void **state)
+{
+    (void)state;
+    tp_scratch_destroy(tp_group_scratch());
+    return 0;
+}
+
 static inline int tp_file_exists(const char *path)
 {
     struct stat st;
@@ -140,6 +173,19 @@ static inline char *tp_read_file(const char *path)
     }
     fclose(fp);
     return buf;
+}
+
+/* The file parsed as JSON (the caller deletes it); fails the test when the file is unreadable,
+ * empty or not JSON. */
+static inline cJSON *tp_read_json(const char *path)
+{
+    char *text = tp_read_file(path);
+    cJSON *root;
+    assert_true(text != NULL && text[0] != '\0');
+    root = cJSON_Parse(text);
+    free(text);
+    assert_non_null(root);
+    return root;
 }
 
 /* ---- running the binary ------------------------------------------------------------------- */
@@ -190,6 +236,16 @@ static inline void tp_run_clear(tp_run_result *r)
     free(r->out);
     free(r->err);
     r->out = r->err = NULL;
+}
+
+/* Run as tp_run_tepid and return only the exit status (-1 when the process did not exit
+ * normally); the captured output is dropped. */
+static inline int tp_run_status(const tp_scratch *s, const char *const *args)
+{
+    tp_run_result r;
+    tp_run_tepid(s, args, &r);
+    tp_run_clear(&r);
+    return r.status;
 }
 
 /* ---- a network from a YAML string ----------------------------------------------------------- */
