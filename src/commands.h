@@ -10,5 +10,6 @@ extern const tp_verb tp_verb_explain;
 extern const tp_verb tp_verb_check;
 extern const tp_verb tp_verb_materials;
 extern const tp_verb tp_verb_tune;
+extern const tp_verb tp_verb_sweep;
 
 #endif
