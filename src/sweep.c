@@ -718,8 +718,9 @@ static void point_cautions(worker *wk, const tp_desc *desc, const tp_network *ne
     int n = tp_report_caution_lines(desc, net, &ex, lines), i;
     for (i = 0; i < n; i++) {
         caution_slot c;
+        memset(&c, 0, sizeof c); /* whole buffers defined: results compare bytewise */
         caution_parse(lines[i], &c);
-        memcpy(c.line, lines[i], sizeof c.line);
+        snprintf(c.line, sizeof c.line, "%.*s", (int)sizeof c.line - 1, lines[i]);
         c.index = index;
         c.from_end = n - 1 - i;
         caution_merge(wk->cautions, &wk->n_cautions, &c);
@@ -926,7 +927,7 @@ tp_status tp_sweep_run(const tp_sweep_plan *plan, const tp_desc *base, int jobs,
         }
         qsort(all, (size_t)n, sizeof *all, cmp_caution);
         for (k = 0; k < n; k++)
-            memcpy(totals->cautions[k], all[k].line, TP_CAUTION_MAX);
+            snprintf(totals->cautions[k], TP_CAUTION_MAX, "%s", all[k].line);
         totals->n_cautions = n;
     }
     free(wk);

@@ -759,6 +759,22 @@ static void test_cli_usage_errors(void **state)
     assert_int_not_equal(stat(out, &sb), 0);
 }
 
+static void test_cli_readme_commands(void **state)
+{
+    /* The two sweep commands of README.md, on the 24 V demo, succeed. */
+    char args[1024];
+    (void)state;
+    snprintf(args, sizeof args,
+             "sweep %s/configs/workshop-bed-24v.yaml --vary heater.supply=20V:28V:2V",
+             TP_SOURCE_DIR);
+    assert_int_equal(run_tepid(args), 0);
+    snprintf(args, sizeof args,
+             "sweep %s/configs/workshop-bed-24v.yaml --spread heater.resistance=normal:5%% "
+             "--spread room.temperature=uniform:16degC:28degC --samples 200",
+             TP_SOURCE_DIR);
+    assert_int_equal(run_tepid(args), 0);
+}
+
 static int setup_dir(void **state)
 {
     (void)state;
@@ -799,6 +815,7 @@ int main(void)
         cmocka_unit_test(test_progress_ends_complete),
         cmocka_unit_test(test_cli_files_identical_for_1_and_2_jobs),
         cmocka_unit_test(test_cli_usage_errors),
+        cmocka_unit_test(test_cli_readme_commands),
     };
     return cmocka_run_group_tests(tests, setup_dir, remove_dir);
 }
