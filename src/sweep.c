@@ -223,6 +223,8 @@ tp_status tp_sweep_add_vary(tp_sweep_plan *plan, const tp_desc *desc, const char
             return TP_ERR_USAGE;
         }
         n = (long)floor(span * (1.0 + GRID_EPS) + GRID_EPS) + 1;
+        if (n < 1)
+            n = 1; /* TO a rounding error short of FROM: the single value FROM */
         p.values = malloc((size_t)n * sizeof *p.values);
         if (!p.values)
             return TP_ERR_NOMEM;
@@ -830,6 +832,7 @@ static void *work(void *arg)
     worker *wk = arg;
     pool *p = wk->p;
     tp_desc desc;
+    double cpu0 = now_seconds(CLOCK_THREAD_CPUTIME_ID);
     int have_desc = tp_desc_copy(&desc, p->base) == TP_OK;
     for (;;) {
         long i = atomic_fetch_add(&p->next, 1);
@@ -848,7 +851,7 @@ static void *work(void *arg)
     }
     if (have_desc)
         tp_desc_clear(&desc);
-    wk->cpu = now_seconds(CLOCK_THREAD_CPUTIME_ID);
+    wk->cpu = now_seconds(CLOCK_THREAD_CPUTIME_ID) - cpu0;
     return NULL;
 }
 
