@@ -33,7 +33,8 @@ static const tp_opt sweep_opts[] = {
     {"seed", 0, 1, 0, 0, "S", "seed of the sample streams (default 1)"},
     {"jobs", 'j', 1, 0, 0, "N", "worker threads (default: the number of processors)"},
     {"metric", 0, 1, 0, 0, "NAME",
-     "metric of the heat map or distribution plot (default time_surface_ready_s)"},
+     "metric of the heat map or distribution plot (default time_surface_ready_s, or "
+     "time_to_setpoint_s without a working surface)"},
     {"csv", 0, 1, 0, 1, "FILE", "one row per point or sample (- for standard output)"},
     {"json", 0, 1, 0, 1, "FILE", "points, failures and statistics as JSON"},
     {"plot", 0, 1, 0, TP_OUT_FIGURE, "FILE",
@@ -94,7 +95,7 @@ static tp_status parse_options(const tp_cli *cli, options *o, tp_diag *d)
     o->samples = TP_SWEEP_SAMPLES;
     o->seed = 1;
     o->jobs = tp_sweep_default_jobs();
-    o->metric = TP_SM_TIME_READY;
+    o->metric = -1; /* chosen after the run (default_metric) */
     if (o->n_vary == 0 && o->n_spread == 0) {
         tp_diag_error(d, tp_loc_none(), NULL,
                       "e.g. --vary heater.power=150W:400W:25W or --spread heater.resistance="
@@ -736,6 +737,22 @@ static tp_status plot_distribution(const char *path, const tp_session *s,
 
 /* ---- the verb -------------------------------------------------------------------------------- */
 
+/* The metric drawn when --metric is not given: the surface's ready time, or where there is no
+ * working surface (the raw form) the time to the setpoint, or without a controller the mean
+ * power: the first of these that some successful point has. */
+static int default_metric(const tp_sweep_result *res, long total)
+{
+    static const int order[] = {TP_SM_TIME_READY, TP_SM_TIME_SETPOINT, TP_SM_HOLD_POWER,
+                                TP_SM_POWER_MEAN};
+    size_t k;
+    long i;
+    for (k = 0; k < sizeof order / sizeof order[0]; k++)
+        for (i = 0; i < total; i++)
+            if (res[i].ok && isfinite(res[i].metric[order[k]]))
+                return order[k];
+    return TP_SM_TIME_READY;
+}
+
 static tp_status build_plan(const options *o, const tp_session *s, tp_sweep_plan *plan, tp_diag *d)
 {
     int k;
@@ -852,6 +869,8 @@ static tp_status run_sweep(const tp_cli *cli, tp_diag *d)
         rc = write_csv(out, &plan, res, total, d);
     if (rc == TP_OK && (out = tp_cli_get(cli, "json")))
         rc = write_json(out, &s, &plan, res, total, sum, &tot, d);
+    if (o.metric < 0)
+        o.metric = default_metric(res, total);
     if (rc == TP_OK && (out = tp_cli_get(cli, "plot")) && tot.failed < total) {
         if (plan.mode == TP_SWEEP_SPREAD)
             rc = plot_distribution(out, &s, res, total, o.metric, d);

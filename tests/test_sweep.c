@@ -759,6 +759,48 @@ static void test_cli_usage_errors(void **state)
     assert_int_not_equal(stat(out, &sb), 0);
 }
 
+/* Whether a file starts with the PNG signature (ISO/IEC 15948 Sec. 5.2). */
+static int is_png(const char *path)
+{
+    static const unsigned char sig[8] = {0x89, 'P', 'N', 'G', 0x0d, 0x0a, 0x1a, 0x0a};
+    unsigned char buf[8];
+    FILE *fp = fopen(path, "rb");
+    size_t got;
+    if (!fp)
+        return 0;
+    got = fread(buf, 1, 8, fp);
+    fclose(fp);
+    return got == 8 && memcmp(buf, sig, 8) == 0;
+}
+
+static void test_cli_figures(void **state)
+{
+    /* The three figures on the raw form, which has no working surface: the default metric
+     * falls back to the time to the setpoint, so the heat map and the distribution draw. */
+    char args[2048], path[512];
+    const char *cfg = TP_SOURCE_DIR "/configs/raw-five-node.yaml";
+    (void)state;
+    snprintf(path, sizeof path, "%s/line.png", tmpdir);
+    snprintf(args, sizeof args,
+             "sweep %s -q --vary network.sources.heater.supply=20V:28V:4V --plot %s", cfg, path);
+    assert_int_equal(run_tepid(args), 0);
+    assert_true(is_png(path));
+    snprintf(path, sizeof path, "%s/map.png", tmpdir);
+    snprintf(args, sizeof args,
+             "sweep %s -q --vary network.sources.heater.supply=28V:20V:-4V "
+             "--vary network.nodes.room.fixed=15degC:25degC:5K --plot %s",
+             cfg, path);
+    assert_int_equal(run_tepid(args), 0);
+    assert_true(is_png(path));
+    snprintf(path, sizeof path, "%s/dist.png", tmpdir);
+    snprintf(args, sizeof args,
+             "sweep %s -q --spread network.links.0.conductance=normal:10%% --samples 12 "
+             "--plot %s",
+             cfg, path);
+    assert_int_equal(run_tepid(args), 0);
+    assert_true(is_png(path));
+}
+
 static void test_cli_readme_commands(void **state)
 {
     /* The two sweep commands of README.md, on the 24 V demo, succeed. */
@@ -815,6 +857,7 @@ int main(void)
         cmocka_unit_test(test_progress_ends_complete),
         cmocka_unit_test(test_cli_files_identical_for_1_and_2_jobs),
         cmocka_unit_test(test_cli_usage_errors),
+        cmocka_unit_test(test_cli_figures),
         cmocka_unit_test(test_cli_readme_commands),
     };
     return cmocka_run_group_tests(tests, setup_dir, remove_dir);
