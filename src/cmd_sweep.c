@@ -322,47 +322,74 @@ static void list_failed(FILE *fp, const tp_sweep_plan *plan, const tp_sweep_resu
     }
 }
 
+/* The metric columns of a grid table: the usual ones that some point has; without any (no
+ * controller) the power, current and surface figures instead. Returns the count. */
+static int grid_columns_present(const tp_sweep_result *res, long total, int *cols)
+{
+    static const int fallback[] = {TP_SM_POWER_MEAN, TP_SM_POWER_PEAK, TP_SM_CURRENT_PEAK,
+                                   TP_SM_SURFACE_MAX};
+    const int *sets[2] = {grid_columns, fallback};
+    size_t sizes[2] = {N_GRID_COLUMNS, sizeof fallback / sizeof fallback[0]}, c;
+    int n = 0, set;
+    long i;
+    for (set = 0; set < 2 && n == 0; set++)
+        for (c = 0; c < sizes[set]; c++)
+            for (i = 0; i < total; i++)
+                if (res[i].ok && isfinite(res[i].metric[sets[set][c]])) {
+                    cols[n++] = sets[set][c];
+                    break;
+                }
+    return n;
+}
+
 static void grid_table(FILE *fp, const tp_sweep_plan *plan, const tp_sweep_result *res, long total)
 {
-    size_t c;
-    int k;
+    int cols[N_GRID_COLUMNS + 4], nc = grid_columns_present(res, total, cols), c, k;
+    int width[TP_SWEEP_MAX_AXES];
     long i;
     char buf[64];
+    for (k = 0; k < plan->n_params; k++) {
+        size_t len = strlen(plan->params[k].path);
+        width[k] = len > 14 ? (int)len : 14;
+    }
     fputc('\n', fp);
     for (k = 0; k < plan->n_params; k++)
-        fprintf(fp, "  %14s", plan->params[k].path);
-    for (c = 0; c < N_GRID_COLUMNS; c++)
-        fprintf(fp, " %14s", tp_sweep_metric_get(grid_columns[c])->label);
+        fprintf(fp, "  %*s", width[k], plan->params[k].path);
+    for (c = 0; c < nc; c++)
+        fprintf(fp, " %14s", tp_sweep_metric_get(cols[c])->label);
     fputc('\n', fp);
     for (k = 0; k < plan->n_params; k++) {
         const char *u = param_unit(&plan->params[k]);
         snprintf(buf, sizeof buf, "(%s)", u[0] ? u : "-");
-        fprintf(fp, "  %14s", buf);
+        fprintf(fp, "  %*s", width[k], buf);
     }
-    for (c = 0; c < N_GRID_COLUMNS; c++) {
-        snprintf(buf, sizeof buf, "(%s)", tp_sweep_metric_get(grid_columns[c])->unit);
+    for (c = 0; c < nc; c++) {
+        snprintf(buf, sizeof buf, "(%s)", tp_sweep_metric_get(cols[c])->unit);
         fprintf(fp, " %14s", buf);
     }
     fputc('\n', fp);
     for (i = 0; i < total; i++) {
         for (k = 0; k < plan->n_params; k++)
-            fprintf(fp, "  %14.6g", param_out(&plan->params[k], tp_sweep_value(plan, i, k)));
+            fprintf(fp, "  %*.6g", width[k],
+                    param_out(&plan->params[k], tp_sweep_value(plan, i, k)));
         if (!res[i].ok) {
             fprintf(fp, "  failed: %s\n", res[i].reason);
             continue;
         }
-        for (c = 0; c < N_GRID_COLUMNS; c++) {
-            metric_text(grid_columns[c], res[i].metric[grid_columns[c]], buf, sizeof buf);
+        for (c = 0; c < nc; c++) {
+            metric_text(cols[c], res[i].metric[cols[c]], buf, sizeof buf);
             fprintf(fp, " %14s", buf);
         }
         fputc('\n', fp);
     }
-    fputs("  (- : not reached in the simulated time, or not defined for this point)\n", fp);
+    fputs("  (- : not reached in the simulated time, or not defined for this point; every metric "
+          "is in --csv and --json)\n",
+          fp);
 }
 
 static void spread_table(FILE *fp, const tp_sweep_plan *plan, const tp_sweep_summary *sum)
 {
-    int m;
+    int m, none;
     char v[6][32], unit[16], worst[48];
     fprintf(fp, "\n  %-18s %5s %9s %9s %9s %9s %9s %9s %-9s %s\n", "metric", "unit", "mean", "sd",
             "p5", "p50", "p95", "worst", "(sample)", "driven most by (Spearman rho)");
@@ -370,8 +397,8 @@ static void spread_table(FILE *fp, const tp_sweep_plan *plan, const tp_sweep_sum
         const tp_sweep_metric_info *mi = tp_sweep_metric_get(m);
         const tp_sweep_summary *s = &sum[m];
         double sd_text = isfinite(s->sd) ? s->sd * mi->scale : TP_UNSET;
-        if (s->n == 0 && s->absent == 0)
-            continue;
+        if (s->n == 0)
+            continue; /* listed below as not defined */
         metric_text(m, s->mean, v[0], sizeof v[0]);
         if (isfinite(sd_text))
             snprintf(v[1], sizeof v[1], "%.*f", mi->decimals, sd_text);
@@ -395,12 +422,20 @@ static void spread_table(FILE *fp, const tp_sweep_plan *plan, const tp_sweep_sum
         fputc('\n', fp);
     }
     for (m = 0; m < TP_SM_COUNT; m++)
-        if (sum[m].absent > 0)
+        if (sum[m].absent > 0 && sum[m].n > 0)
             fprintf(fp,
-                    "  %s: absent in %ld sample%s (not reached in the simulated time, or "
-                    "not defined); statistics over the other %ld\n",
+                    "  %s: absent in %ld sample%s (not reached in the simulated time); "
+                    "statistics over the other %ld\n",
                     tp_sweep_metric_get(m)->label, sum[m].absent, sum[m].absent == 1 ? "" : "s",
                     sum[m].n);
+    for (m = 0, none = 0; m < TP_SM_COUNT; m++)
+        if (sum[m].n == 0) {
+            fprintf(fp, "%s%s",
+                    none ? ", " : "  not defined for any sample: ", tp_sweep_metric_get(m)->key);
+            none = 1;
+        }
+    if (none)
+        fputc('\n', fp);
 }
 
 /* ---- files ------------------------------------------------------------------------------------
@@ -592,44 +627,91 @@ static const char *chart_title(const tp_session *s)
     return s->desc.title[0] ? s->desc.title : s->cli->file;
 }
 
-/* One --vary: times, overshoot, and holding power with the margin against the parameter. */
+/* The curves of the one-parameter chart: panel, metric, legend, dash, right axis. */
+static const struct line_curve {
+    int panel, metric;
+    const char *label;
+    int dash, right;
+} line_curves[] = {
+    {0, TP_SM_TIME_SETPOINT, "reading at the setpoint", 0, 0},
+    {0, TP_SM_TIME_READY, "surface ready", 1, 0},
+    {1, TP_SM_OVERSHOOT_READING, "reading", 0, 0},
+    {1, TP_SM_OVERSHOOT_SURFACE, "surface", 1, 0},
+    {2, TP_SM_HOLD_POWER, "holding power", 0, 0},
+    {2, TP_SM_MARGIN, "margin", 1, 1},
+    {3, TP_SM_POWER_MEAN, "mean power", 0, 0}, /* only when nothing above exists */
+    {3, TP_SM_POWER_PEAK, "peak power", 1, 0},
+};
+#define N_LINE_CURVES (sizeof line_curves / sizeof line_curves[0])
+
+static const struct line_panel {
+    const char *ylabel, *y2label;
+    double share;
+} line_panels[] = {
+    {"time (min)", NULL, 1.5},
+    {"overshoot (K)", NULL, 1.0},
+    {"holding power (W)", "margin (x)", 1.0},
+    {"power (W)", NULL, 1.0},
+};
+#define N_LINE_PANELS (sizeof line_panels / sizeof line_panels[0])
+
+/* One --vary: the times, the overshoot, and the holding power with the margin against the
+ * parameter. Curves of metrics no point has (the surface in the raw form) are left out, and so
+ * are empty panels; without a controller the mean and peak power are drawn instead. */
 static tp_status plot_line(const char *path, const tp_session *s, const tp_sweep_plan *plan,
                            const tp_sweep_result *res, long total, tp_diag *d)
 {
-    static const int cols[] = {TP_SM_TIME_SETPOINT,     TP_SM_TIME_READY, TP_SM_OVERSHOOT_READING,
-                               TP_SM_OVERSHOOT_SURFACE, TP_SM_HOLD_POWER, TP_SM_MARGIN};
-    enum { NC = sizeof cols / sizeof cols[0] };
-    double *buf = malloc((size_t)total * (NC + 1) * sizeof *buf), *x, *y[NC];
-    tp_plot_series ser[NC];
-    tp_plot_panel panels[3];
+    double *buf = malloc((size_t)total * (N_LINE_CURVES + 1) * sizeof *buf), *x;
+    tp_plot_series ser[N_LINE_CURVES];
+    tp_plot_panel panels[N_LINE_PANELS];
     tp_plot_chart chart;
     char xl[TP_SWEEP_PATH_MAX + 32], title[TP_TEXT_MAX + 32];
-    int markers = total < 2, c;
+    int markers = total < 2, ns = 0, np = 0;
+    size_t c, p;
     long i;
     tp_status st;
     if (!buf)
         return TP_ERR_NOMEM;
     x = buf;
-    for (c = 0; c < NC; c++)
-        y[c] = buf + (size_t)(c + 1) * (size_t)total;
-    for (i = 0; i < total; i++) {
+    for (i = 0; i < total; i++)
         x[i] = param_out(&plan->params[0], tp_sweep_value(plan, i, 0));
-        for (c = 0; c < NC; c++)
-            y[c][i] = res[i].ok ? metric_plot(cols[c], res[i].metric[cols[c]]) : TP_UNSET;
+    for (p = 0; p < N_LINE_PANELS; p++) {
+        int first = ns;
+        if (p == N_LINE_PANELS - 1 && np > 0)
+            break; /* the power panel stands in only for an otherwise empty chart */
+        for (c = 0; c < N_LINE_CURVES; c++) {
+            const struct line_curve *lc = &line_curves[c];
+            double *y = buf + (c + 1) * (size_t)total;
+            int finite = 0;
+            if (lc->panel != (int)p)
+                continue;
+            for (i = 0; i < total; i++) {
+                y[i] = res[i].ok ? metric_plot(lc->metric, res[i].metric[lc->metric]) : TP_UNSET;
+                finite += isfinite(y[i]) != 0;
+            }
+            if (finite > 0)
+                ser[ns++] =
+                    (tp_plot_series){lc->label, x, y, (size_t)total, lc->dash, markers, lc->right};
+        }
+        if (ns > first) {
+            int right = 0, k;
+            for (k = first; k < ns; k++)
+                right |= ser[k].right_axis;
+            panels[np++] = (tp_plot_panel){line_panels[p].ylabel,
+                                           right ? line_panels[p].y2label : NULL,
+                                           ser + first,
+                                           (size_t)(ns - first),
+                                           NULL,
+                                           0,
+                                           line_panels[p].share};
+        }
     }
-    ser[0] = (tp_plot_series){"reading at the setpoint", x, y[0], (size_t)total, 0, markers, 0};
-    ser[1] = (tp_plot_series){"surface ready", x, y[1], (size_t)total, 1, markers, 0};
-    ser[2] = (tp_plot_series){"reading", x, y[2], (size_t)total, 0, markers, 0};
-    ser[3] = (tp_plot_series){"surface", x, y[3], (size_t)total, 1, markers, 0};
-    ser[4] = (tp_plot_series){"holding power", x, y[4], (size_t)total, 0, markers, 0};
-    ser[5] = (tp_plot_series){"margin", x, y[5], (size_t)total, 1, markers, 1};
-    panels[0] = (tp_plot_panel){"time (min)", NULL, ser, 2, NULL, 0, 1.5};
-    panels[1] = (tp_plot_panel){"overshoot (K)", NULL, ser + 2, 2, NULL, 0, 1.0};
-    panels[2] = (tp_plot_panel){"holding power (W)", "margin (x)", ser + 4, 2, NULL, 0, 1.0};
     axis_label(&plan->params[0], xl, sizeof xl);
     snprintf(title, sizeof title, "%s: sweep", chart_title(s));
-    chart = (tp_plot_chart){title, xl, panels, 3, 0, 0};
-    st = tp_plot_chart_write(path, &chart, d);
+    chart = (tp_plot_chart){title, xl, panels, (size_t)np, 0, 0};
+    st = np > 0 ? tp_plot_chart_write(path, &chart, d) : TP_ERR_SOLVER;
+    if (np == 0)
+        tp_diag_error(d, tp_loc_none(), path, NULL, "no metric to draw");
     free(buf);
     return st;
 }

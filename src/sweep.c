@@ -9,6 +9,7 @@
  * scratch buffers and are not shared), and write only their points' result slots. */
 #include "sweep.h"
 
+#include <float.h>
 #include <math.h>
 #include <pthread.h>
 #include <stdatomic.h>
@@ -601,6 +602,12 @@ tp_status tp_sweep_summarise(const tp_sweep_plan *plan, const tp_sweep_result *r
         out->p5 = tp_sweep_quantile(sorted, (size_t)n, 0.05);
         out->p50 = tp_sweep_quantile(sorted, (size_t)n, 0.50);
         out->p95 = tp_sweep_quantile(sorted, (size_t)n, 0.95);
+    }
+    /* A metric that does not vary beyond solver noise (a holding power that no spread
+     * parameter affects) has no driver: ranks of rounding errors mean nothing. */
+    if (!(n > 1 && out->sd > TP_SWEEP_NOISE * fmax(fabs(out->mean), DBL_MIN))) {
+        free(x);
+        return TP_OK;
     }
     for (k = 0; k < plan->n_params; k++) {
         long m = 0;

@@ -14,12 +14,12 @@
 #include "status.h"
 #include "units.h"
 
-#define TP_SWEEP_MAX_AXES 2         /* --vary parameters in one grid */
-#define TP_SWEEP_MAX_PARAMS 16      /* --spread parameters in one study */
+#define TP_SWEEP_MAX_AXES 2        /* --vary parameters in one grid */
+#define TP_SWEEP_MAX_PARAMS 16     /* --spread parameters in one study */
 #define TP_SWEEP_MAX_POINTS 200000 /* grid points or samples in one run (~370 B each) */
-#define TP_SWEEP_MAX_JOBS 256       /* worker threads */
-#define TP_SWEEP_PATH_MAX 128       /* longest key path, bytes incl. NUL */
-#define TP_SWEEP_REASON_MAX 240     /* longest failure reason kept per point, bytes incl. NUL */
+#define TP_SWEEP_MAX_JOBS 256      /* worker threads */
+#define TP_SWEEP_PATH_MAX 128      /* longest key path, bytes incl. NUL */
+#define TP_SWEEP_REASON_MAX 240    /* longest failure reason kept per point, bytes incl. NUL */
 
 /* The metrics kept per point, in output order. Definitions: docs/metrics.md and docs/sweep.md. */
 typedef enum tp_sweep_metric {
@@ -205,6 +205,10 @@ typedef struct tp_sweep_summary {
     double rho[TP_SWEEP_MAX_PARAMS]; /* Spearman correlation with each parameter (NaN: none) */
     int driver;                      /* the parameter with the largest |rho|, or -1 */
 } tp_sweep_summary;
+
+#define TP_SWEEP_NOISE                                                                             \
+    1e-7 /* -, a metric whose sd is below this share of its mean does not                          \
+            vary (solver noise): no rank correlation is given */
 
 /* Summarise metric `metric` over the successful samples. TP_ERR_NOMEM on failure. */
 tp_status tp_sweep_summarise(const tp_sweep_plan *plan, const tp_sweep_result *results, int metric,

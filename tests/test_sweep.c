@@ -534,6 +534,49 @@ static void test_holding_power_statistics_uniform(void **state)
                         9.0 / 5.0);
 }
 
+static void test_driver_and_constant_metrics(void **state)
+{
+    /* Capacity and conductance spread together: the holding power G (Tset - Ta) depends on G
+     * only (closed form of the steady state), so G drives it; the time to the setpoint
+     * -C/G ln(1 - 50 G/P) rises with C. A spread of the capacity alone leaves the holding power
+     * constant up to solver noise: no driver is named. */
+    tp_desc desc;
+    tp_sweep_plan plan;
+    tp_sweep_totals tot;
+    tp_sweep_result *res;
+    tp_sweep_summary sum;
+    tp_diag d;
+    (void)state;
+    tp_diag_init(&d, stderr);
+    load(linear_node, &desc);
+    tp_sweep_plan_init(&plan, TP_SWEEP_SPREAD);
+    plan.n_samples = 64;
+    assert_int_equal(
+        tp_sweep_add_spread(&plan, &desc, "network.nodes.plate.capacity=uniform:-20%:20%", &d),
+        TP_OK);
+    assert_int_equal(tp_sweep_add_spread(&plan, &desc, "network.links.0.conductance=normal:5%", &d),
+                     TP_OK);
+    res = run_plan(&plan, &desc, 2, &tot);
+    assert_int_equal(tp_sweep_summarise(&plan, res, TP_SM_HOLD_POWER, &sum), TP_OK);
+    assert_int_equal(sum.driver, 1);
+    assert_true(fabs(sum.rho[1] - 1.0) < 1e-12);
+    free(res);
+    tp_sweep_plan_clear(&plan);
+    tp_sweep_plan_init(&plan, TP_SWEEP_SPREAD);
+    plan.n_samples = 16;
+    assert_int_equal(
+        tp_sweep_add_spread(&plan, &desc, "network.nodes.plate.capacity=uniform:-20%:20%", &d),
+        TP_OK);
+    res = run_plan(&plan, &desc, 2, &tot);
+    assert_int_equal(tp_sweep_summarise(&plan, res, TP_SM_HOLD_POWER, &sum), TP_OK);
+    assert_true(fabs(sum.mean - 100.0) < 1e-6);
+    assert_int_equal(sum.driver, -1);
+    assert_true(isnan(sum.rho[0]));
+    free(res);
+    tp_sweep_plan_clear(&plan);
+    tp_desc_clear(&desc);
+}
+
 static void test_same_results_for_any_jobs(void **state)
 {
     tp_desc desc;
@@ -852,6 +895,7 @@ int main(void)
         cmocka_unit_test(test_first_order_time_at_every_power),
         cmocka_unit_test(test_holding_power_statistics_normal),
         cmocka_unit_test(test_holding_power_statistics_uniform),
+        cmocka_unit_test(test_driver_and_constant_metrics),
         cmocka_unit_test(test_same_results_for_any_jobs),
         cmocka_unit_test(test_failed_samples_are_reported),
         cmocka_unit_test(test_progress_ends_complete),
