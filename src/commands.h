@@ -13,5 +13,6 @@ extern const tp_verb tp_verb_tune;
 extern const tp_verb tp_verb_budget;
 extern const tp_verb tp_verb_guard;
 extern const tp_verb tp_verb_fit;
+extern const tp_verb tp_verb_sweep;
 
 #endif

@@ -477,6 +477,24 @@ static int expect_kind(reader *r, const tp_doc_node *n, tp_doc_kind want, const 
     return 0;
 }
 
+#define BOUND_HI (1 << 8) /* bounds_broken: the plausibility bound `hi` */
+
+/* Which of a key's bounds `v` breaks: F_POS, F_NONNEG, F_FRAC, F_INT, BOUND_HI, or 0. */
+static unsigned bounds_broken(const key *k, double v)
+{
+    if ((k->flags & F_POS) && !(v > 0))
+        return F_POS;
+    if ((k->flags & F_NONNEG) && !(v >= 0))
+        return F_NONNEG;
+    if ((k->flags & F_FRAC) && !(v > 0 && v <= 1))
+        return F_FRAC;
+    if ((k->flags & F_INT) && v != (double)(long long)v)
+        return F_INT;
+    if (k->hi > 0 && fabs(v) > k->hi)
+        return BOUND_HI;
+    return 0;
+}
+
 /* Parse one scalar quantity and check flags and bounds. Returns 0 on success. */
 static int read_number(reader *r, const key *k, const tp_doc_node *n, const char *path,
                        double *out)
@@ -495,31 +513,30 @@ static int read_number(reader *r, const key *k, const tp_doc_node *n, const char
         tp_diag_error(r->d, tp_doc_loc(n), path, hint, "%s", msg);
         return -1;
     }
-    if ((k->flags & F_POS) && !(v > 0)) {
+    switch (bounds_broken(k, v)) {
+    case F_POS:
         tp_diag_error(r->d, tp_doc_loc(n), path, "use a value above zero",
                       "must be positive, got '%s'", n->text);
         return -1;
-    }
-    if ((k->flags & F_NONNEG) && v < 0) {
+    case F_NONNEG:
         tp_diag_error(r->d, tp_doc_loc(n), path, "use zero or more", "must not be negative");
         return -1;
-    }
-    if ((k->flags & F_FRAC) && !(v > 0 && v <= 1)) {
+    case F_FRAC:
         tp_diag_error(r->d, tp_doc_loc(n), path,
                       "a fraction lies in (0, 1], e.g. 0.9 (or 90 %)",
                       "'%s' is outside (0, 1]", n->text);
         return -1;
-    }
-    if ((k->flags & F_INT) && v != (double)(long long)v) {
+    case F_INT:
         tp_diag_error(r->d, tp_doc_loc(n), path, "use a whole number", "'%s' is not whole",
                       n->text);
         return -1;
-    }
-    if (k->hi > 0 && fabs(v) > k->hi) {
+    case BOUND_HI:
         tp_diag_error(r->d, tp_doc_loc(n), path, k->why ? k->why : too_big,
                       "'%s' is implausibly large (limit %g %s)", n->text, k->hi,
                       tp_units_si_name(k->dim));
         return -1;
+    default:
+        break;
     }
     *out = v;
     return 0;
@@ -1063,4 +1080,41 @@ tp_status tp_config_set(tp_desc *desc, const char *path, double si)
         return TP_ERR_CONFIG;
     *where = si;
     return TP_OK;
+}
+
+tp_status tp_config_check(const tp_desc *desc, const char *path, double si, char *msg,
+                          size_t msg_size)
+{
+    double *where;
+    const key *k;
+    if (resolve_path(&top_sec, (void *)(uintptr_t)desc, path, &where, &k) != 0) {
+        snprintf(msg, msg_size, "%s is not a numeric key of this config", path);
+        return TP_ERR_CONFIG;
+    }
+    if (!isfinite(si)) {
+        snprintf(msg, msg_size, "%s = %g is not a finite number", path, si);
+        return TP_ERR_CONFIG;
+    }
+    switch (bounds_broken(k, si)) {
+    case F_POS:
+        snprintf(msg, msg_size, "%s = %.6g %s must be positive", path, si,
+                 tp_units_si_name(k->dim));
+        return TP_ERR_CONFIG;
+    case F_NONNEG:
+        snprintf(msg, msg_size, "%s = %.6g %s must not be negative", path, si,
+                 tp_units_si_name(k->dim));
+        return TP_ERR_CONFIG;
+    case F_FRAC:
+        snprintf(msg, msg_size, "%s = %.6g is outside (0, 1]", path, si);
+        return TP_ERR_CONFIG;
+    case F_INT:
+        snprintf(msg, msg_size, "%s = %.6g is not a whole number", path, si);
+        return TP_ERR_CONFIG;
+    case BOUND_HI:
+        snprintf(msg, msg_size, "%s = %.6g %s is implausibly large (limit %g)", path, si,
+                 tp_units_si_name(k->dim), k->hi);
+        return TP_ERR_CONFIG;
+    default:
+        return TP_OK;
+    }
 }

@@ -42,4 +42,10 @@ tp_status tp_config_key_dim(const tp_desc *desc, const char *path, tp_dim *dim, 
 tp_status tp_config_get(const tp_desc *desc, const char *path, double *si);
 tp_status tp_config_set(tp_desc *desc, const char *path, double si);
 
+/* Check an SI value against the bounds the schema gives the key at `path` (positive,
+ * non-negative, a fraction, whole, the plausibility limit), as the reader checks a file's
+ * values. TP_OK, or TP_ERR_CONFIG with a one-line reason in msg. Thread-safe (reads only). */
+tp_status tp_config_check(const tp_desc *desc, const char *path, double si, char *msg,
+                          size_t msg_size);
+
 #endif

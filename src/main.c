@@ -11,7 +11,7 @@
 
 static const tp_verb *const verbs[] = {
     &tp_verb_warmup, &tp_verb_steady, &tp_verb_budget, &tp_verb_guard, &tp_verb_fit,
-    &tp_verb_tune, &tp_verb_explain, &tp_verb_check, &tp_verb_materials,
+    &tp_verb_sweep, &tp_verb_tune, &tp_verb_explain, &tp_verb_check, &tp_verb_materials,
 };
 #define N_VERBS (sizeof verbs / sizeof verbs[0])
 

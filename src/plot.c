@@ -1165,6 +1165,7 @@ static void map_draw(const void *plan)
 static tp_status map_plan_build(map_plan *mp, const tp_plot_map *m, const char *path, tp_diag *d)
 {
     double page_w, page_h, top, bottom, left, right, bw, bh, vw, vh, span, aspect, step;
+    double pad_x, pad_y;
     size_t i, j, nonfinite = 0;
     tp_status st;
 
@@ -1259,9 +1260,13 @@ static tp_status map_plan_build(map_plan *mp, const tp_plot_map *m, const char *
     page_w = mp->width * PLOT_MM_PER_PX;
     page_h = mp->height * PLOT_MM_PER_PX;
     span = fmax(mp->x1 - mp->x0, mp->y1 - mp->y0);
+    /* A plate is padded by a share of its longer side on both axes; axes of unrelated
+     * quantities (free_aspect) each by a share of their own range. */
+    pad_x = PLOT_MAP_PAD * (m->free_aspect ? mp->x1 - mp->x0 : span);
+    pad_y = PLOT_MAP_PAD * (m->free_aspect ? mp->y1 - mp->y0 : span);
     top = (m->title && *m->title ? 3.6 : 1.5) * mp->ht;
     bottom = 4.8 * mp->ht;
-    axis_fit(&mp->y, mp->y0 - PLOT_MAP_PAD * span, mp->y1 + PLOT_MAP_PAD * span, 0.0,
+    axis_fit(&mp->y, mp->y0 - pad_y, mp->y1 + pad_y, 0.0,
              (page_h - top - bottom) / (4.0 * mp->ht));
     mp->ylabel_disp = 0.8 + mp->y.label_len * PLOT_DIGIT_W + 1.2;
     left = (mp->ylabel_disp + 1.2) * mp->ht;
@@ -1274,9 +1279,9 @@ static tp_status map_plan_build(map_plan *mp, const tp_plot_map *m, const char *
                       "the figure is too small for a heat map");
         return TP_ERR_USAGE;
     }
-    aspect = (mp->y.hi - mp->y.lo) / (mp->x1 - mp->x0 + 2.0 * PLOT_MAP_PAD * span);
+    aspect = (mp->y.hi - mp->y.lo) / (mp->x1 - mp->x0 + 2.0 * pad_x);
     vw = bw;
-    vh = bw * aspect;
+    vh = m->free_aspect ? bh : bw * aspect;
     if (vh > bh) {
         vh = bh;
         vw = bh / aspect;
@@ -1287,10 +1292,9 @@ static tp_status map_plan_build(map_plan *mp, const tp_plot_map *m, const char *
     mp->vx1 = mp->vx0 + vw;
     mp->vy0 = bottom + 0.5 * (bh - vh);
     mp->vy1 = mp->vy0 + vh;
-    axis_fit(&mp->x, mp->x0 - PLOT_MAP_PAD * span, mp->x1 + PLOT_MAP_PAD * span, 0.0,
+    axis_fit(&mp->x, mp->x0 - pad_x, mp->x1 + pad_x, 0.0,
              vw / (9.0 * mp->ht));
-    axis_fit(&mp->y, mp->y0 - PLOT_MAP_PAD * span, mp->y1 + PLOT_MAP_PAD * span, 0.0,
-             vh / (4.0 * mp->ht));
+    axis_fit(&mp->y, mp->y0 - pad_y, mp->y1 + pad_y, 0.0, vh / (4.0 * mp->ht));
     for (i = 0; i < m->n_marks; i++)
         if (!mark_inside(mp, i))
             tp_diag_warn(d, tp_loc_none(), path, NULL,

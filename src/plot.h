@@ -83,10 +83,12 @@ typedef struct tp_plot_map {
     const char *const *mark_label; /* ... with labels (NULL array or entry: no label) */
     size_t n_marks;
     int width, height; /* pixels; 0 means TP_PLOT_MAP_WIDTH x TP_PLOT_MAP_HEIGHT */
+    int free_aspect;   /* nonzero: x and y are unrelated quantities (a map over two swept
+                          parameters): the map fills the frame instead of keeping the scale */
 } tp_plot_map;
 
 /* Write a heat map with a colour bar and the plate outline (the extent rectangle) to `path`,
- * with x and y drawn to the same scale. Format, size limits, atomic write and status as for
+ * with x and y drawn to the same scale (unless free_aspect). Format, size limits, atomic write and status as for
  * tp_plot_chart_write. Non-finite cells are left blank (and disable contours, with a warning);
  * markers off the map (or not finite) are left out with a warning;
  * a map without any finite cell, an extent that is not finite or has x1 < x0 or y1 < y0 is

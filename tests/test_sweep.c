@@ -1,0 +1,908 @@
+/* Tests of sweeps and tolerance studies: the random streams against published test vectors,
+ * the statistics against hand calculations, grid and spread parsing, a swept first-order
+ * warm-up against its closed form, sample statistics against the input distribution's
+ * moments, failed samples, and byte-identical output for 1 and 2 jobs. */
+#include <stdarg.h>
+#include <stddef.h>
+#include <stdint.h>
+#include <setjmp.h>
+#include <cmocka.h>
+
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+#include <sys/wait.h>
+#include <unistd.h>
+
+#include "config.h"
+#include "doc.h"
+#include "sweep.h"
+
+#define KELVIN 273.15
+
+static char tmpdir[256];
+
+/* Read a description from YAML text; fails the test on any error. */
+static void load(const char *yaml, tp_desc *desc)
+{
+    tp_diag d;
+    tp_doc *doc = NULL;
+    tp_diag_init(&d, stderr);
+    assert_int_equal(tp_doc_load_text("test.yaml", yaml, strlen(yaml), &doc, &d), TP_OK);
+    assert_int_equal(tp_config_read(doc, desc, &d), TP_OK);
+    tp_doc_destroy(&doc);
+}
+
+/* Run a plan on `jobs` threads into a fresh results array (caller frees). */
+static tp_sweep_result *run_plan(const tp_sweep_plan *plan, const tp_desc *desc, int jobs,
+                                 tp_sweep_totals *tot)
+{
+    long n = tp_sweep_count(plan);
+    tp_sweep_result *res = calloc((size_t)n, sizeof *res);
+    assert_non_null(res);
+    assert_int_equal(tp_sweep_run(plan, desc, jobs, res, NULL, NULL, tot), TP_OK);
+    return res;
+}
+
+/* A single node (C, G to a fixed room, a constant-power pad) under on-off control. */
+static const char *single_node =
+    "network:\n"
+    "  nodes:\n"
+    "    - {id: plate, capacity: 1000 J/K, initial: 20 degC}\n"
+    "    - {id: room, fixed: 20 degC}\n"
+    "  links:\n"
+    "    - {between: [plate, room], conductance: 2 W/K}\n"
+    "    - {between: [plate, room], radiation: {area: 0.01 m2, emissivity: 0.8}}\n"
+    "  sources:\n"
+    "    - {id: pad, node: plate, power: 200 W}\n"
+    "control: {source: pad, sensor: plate, mode: on-off, setpoint: 70 degC, band: 2 K,"
+    " period: 0.5 s}\n"
+    "run: {duration: 20 min, step: 1 s, tolerance: 1e-9}\n";
+
+/* The same without the radiation link (a linear plant), short run: for statistics. */
+static const char *linear_node =
+    "network:\n"
+    "  nodes:\n"
+    "    - {id: plate, capacity: 200 J/K, initial: 20 degC}\n"
+    "    - {id: room, fixed: 20 degC}\n"
+    "  links:\n"
+    "    - {between: [plate, room], conductance: 2 W/K}\n"
+    "  sources:\n"
+    "    - {id: pad, node: plate, power: 400 W}\n"
+    "control: {source: pad, sensor: plate, mode: on-off, setpoint: 70 degC, band: 2 K,"
+    " period: 1 s}\n"
+    "run: {duration: 20 s, step: 1 s}\n";
+
+/* ---- random streams ------------------------------------------------------------------------ */
+
+static void test_splitmix64_reference_outputs(void **state)
+{
+    /* The first five outputs for seed 1234567, from the Rosetta Code task "Pseudo-random
+     * numbers/Splitmix64" (algorithm of Steele, Lea & Flood, OOPSLA 2014). */
+    static const uint64_t want[5] = {6457827717110365317ULL, 3203168211198807973ULL,
+                                     9817491932198370423ULL, 4593380528125082431ULL,
+                                     16408922859458223821ULL};
+    uint64_t s = 1234567;
+    int i;
+    (void)state;
+    for (i = 0; i < 5; i++)
+        assert_true(tp_sweep_splitmix64(&s) == want[i]);
+}
+
+static void test_unit_interval_is_open(void **state)
+{
+    (void)state;
+    /* Closed form: ((bits >> 12) + 1/2) / 2^52 lies in [2^-53, 1 - 2^-53], both exact. */
+    assert_true(tp_sweep_unit(0) == ldexp(1.0, -53));
+    assert_true(tp_sweep_unit(UINT64_MAX) == 1.0 - ldexp(1.0, -53));
+    assert_true(tp_sweep_unit(UINT64_MAX) < 1.0);
+    assert_true(tp_sweep_unit(1ULL << 63) == 0.5 + ldexp(1.0, -53));
+}
+
+static void test_box_muller_hand_values(void **state)
+{
+    (void)state;
+    /* Hand calculation: u1 = exp(-2) gives sqrt(-2 ln u1) = 2; cos(0) = 1, cos(pi) = -1,
+     * cos(pi/3) = 1/2 (Box & Muller 1958). */
+    assert_true(fabs(tp_sweep_box_muller(exp(-2.0), 0.0) - 2.0) < 1e-15);
+    assert_true(fabs(tp_sweep_box_muller(exp(-2.0), 0.5) + 2.0) < 1e-15);
+    assert_true(fabs(tp_sweep_box_muller(exp(-2.0), 1.0 / 6.0) - 1.0) < 1e-14);
+    /* u1 = exp(-1/2): sqrt(1) = 1. */
+    assert_true(fabs(tp_sweep_box_muller(exp(-0.5), 0.0) - 1.0) < 1e-15);
+}
+
+static void test_hash_depends_on_every_coordinate(void **state)
+{
+    uint64_t h = tp_sweep_hash(1, 2, 3);
+    (void)state;
+    /* Changing any coordinate changes the output (a collision of 64-bit outputs here would
+     * have probability about 2^-64; common practice, no source). */
+    assert_true(h != tp_sweep_hash(2, 2, 3));
+    assert_true(h != tp_sweep_hash(1, 3, 3));
+    assert_true(h != tp_sweep_hash(1, 2, 4));
+    assert_true(h == tp_sweep_hash(1, 2, 3));
+}
+
+static void test_normal_draws_match_standard_normal(void **state)
+{
+    /* Spread a key normal with sd 10 % and look at the drawn values themselves: their mean,
+     * sd and the share within one sd must match N(mu, sigma) within sampling error. */
+    tp_desc desc;
+    tp_sweep_plan plan;
+    tp_diag d;
+    const long n = 20000;
+    double *v = malloc((size_t)n * sizeof *v), mean, sd;
+    long i, inside = 0;
+    (void)state;
+    assert_non_null(v);
+    tp_diag_init(&d, stderr);
+    load(linear_node, &desc);
+    tp_sweep_plan_init(&plan, TP_SWEEP_SPREAD);
+    plan.n_samples = n;
+    plan.seed = 42;
+    assert_int_equal(
+        tp_sweep_add_spread(&plan, &desc, "network.links.0.conductance=normal:10%", &d), TP_OK);
+    for (i = 0; i < n; i++) {
+        v[i] = tp_sweep_value(&plan, i, 0);
+        inside += fabs(v[i] - 2.0) <= 0.2;
+    }
+    tp_sweep_mean_sd(v, (size_t)n, &mean, &sd);
+    /* mu = 2, sigma = 0.2. Standard error of the mean sigma/sqrt(N) = 1.41e-3, of the sd
+     * about sigma/sqrt(2N) = 1.0e-3 (normal data); allow 4 standard errors. P(|Z| <= 1) =
+     * 0.682689 (standard normal table), binomial standard error sqrt(p(1-p)/N) = 3.3e-3. */
+    assert_true(fabs(mean - 2.0) < 4.0 * 0.2 / sqrt((double)n));
+    assert_true(fabs(sd - 0.2) < 4.0 * 0.2 / sqrt(2.0 * (double)n));
+    assert_true(fabs((double)inside / (double)n - 0.682689) <
+                4.0 * sqrt(0.682689 * 0.317311 / (double)n));
+    free(v);
+    tp_sweep_plan_clear(&plan);
+    tp_desc_clear(&desc);
+}
+
+/* ---- statistics ---------------------------------------------------------------------------- */
+
+static void test_mean_sd_hand_example(void **state)
+{
+    static const double x[8] = {2, 4, 4, 4, 5, 5, 7, 9};
+    double mean, sd;
+    (void)state;
+    /* Hand calculation: sum 40, mean 5; squared deviations 9+1+1+1+0+0+4+16 = 32, sample
+     * variance 32/7. */
+    tp_sweep_mean_sd(x, 8, &mean, &sd);
+    assert_true(fabs(mean - 5.0) < 1e-15);
+    assert_true(fabs(sd - sqrt(32.0 / 7.0)) < 1e-15);
+    tp_sweep_mean_sd(x, 1, &mean, &sd);
+    assert_true(mean == 2.0 && sd == 0.0);
+}
+
+static void test_quantile_hand_examples(void **state)
+{
+    static const double five[5] = {1, 2, 3, 4, 5};
+    static const double eight[8] = {1, 1, 2, 3, 4, 5, 6, 9}; /* 3 1 4 1 5 9 2 6, sorted */
+    (void)state;
+    /* Hyndman & Fan (1996) definition 7, h = (n - 1) p, worked by hand:
+     * n = 5: p = 0.05 -> h = 0.2 -> 1 + 0.2 (2 - 1) = 1.2; p = 0.5 -> 3; p = 0.95 -> h = 3.8
+     * -> 4 + 0.8 (5 - 4) = 4.8. */
+    assert_true(fabs(tp_sweep_quantile(five, 5, 0.05) - 1.2) < 1e-14);
+    assert_true(fabs(tp_sweep_quantile(five, 5, 0.50) - 3.0) < 1e-14);
+    assert_true(fabs(tp_sweep_quantile(five, 5, 0.95) - 4.8) < 1e-14);
+    /* n = 8: p = 0.05 -> h = 0.35 -> 1 + 0.35 (1 - 1) = 1; p = 0.5 -> h = 3.5 -> 3 + 0.5 = 3.5;
+     * p = 0.95 -> h = 6.65 -> 6 + 0.65 (9 - 6) = 7.95. */
+    assert_true(fabs(tp_sweep_quantile(eight, 8, 0.05) - 1.0) < 1e-14);
+    assert_true(fabs(tp_sweep_quantile(eight, 8, 0.50) - 3.5) < 1e-14);
+    assert_true(fabs(tp_sweep_quantile(eight, 8, 0.95) - 7.95) < 1e-14);
+    /* The ends are the extremes; one value is every quantile. */
+    assert_true(tp_sweep_quantile(eight, 8, 0.0) == 1.0);
+    assert_true(tp_sweep_quantile(eight, 8, 1.0) == 9.0);
+    assert_true(tp_sweep_quantile(five + 2, 1, 0.95) == 3.0);
+    assert_true(isnan(tp_sweep_quantile(five, 0, 0.5)));
+}
+
+static void test_ranks_average_ties(void **state)
+{
+    static const double x[5] = {30, 10, 20, 20, 5};
+    double r[5];
+    (void)state;
+    /* Hand calculation: 5 -> 1, 10 -> 2, the two 20s share ranks 3 and 4 -> 3.5, 30 -> 5. */
+    assert_int_equal(tp_sweep_ranks(x, 5, r), TP_OK);
+    assert_true(r[0] == 5.0 && r[1] == 2.0 && r[2] == 3.5 && r[3] == 3.5 && r[4] == 1.0);
+}
+
+static void test_spearman_hand_examples(void **state)
+{
+    static const double x[5] = {1, 2, 3, 4, 5};
+    static const double y[5] = {5, 6, 7, 8, 7};
+    static const double cube[5] = {-8, -1, 0, 27, 1000};
+    static const double flat[5] = {3, 3, 3, 3, 3};
+    double rev[5];
+    int i;
+    (void)state;
+    /* Hand calculation: ranks of y are 1, 2, 3.5, 5, 3.5 (the 7s tie); deviations from the
+     * mean rank 3 are x: -2 -1 0 1 2, y: -2 -1 0.5 2 0.5; sum of products 4+1+0+2+1 = 8, sums of
+     * squares 10 and 9.5; rho = 8 / sqrt(95) = 0.8207826816681233. */
+    assert_true(fabs(tp_sweep_spearman(x, y, 5) - 8.0 / sqrt(95.0)) < 1e-14);
+    /* Any increasing relation has rho = 1, any decreasing one -1 (definition). */
+    assert_true(fabs(tp_sweep_spearman(x, cube, 5) - 1.0) < 1e-15);
+    for (i = 0; i < 5; i++)
+        rev[i] = -cube[i];
+    assert_true(fabs(tp_sweep_spearman(x, rev, 5) + 1.0) < 1e-15);
+    /* No spread, no correlation. */
+    assert_true(isnan(tp_sweep_spearman(x, flat, 5)));
+    assert_true(isnan(tp_sweep_spearman(x, y, 1)));
+}
+
+/* ---- plans --------------------------------------------------------------------------------- */
+
+static void test_vary_range_with_units(void **state)
+{
+    tp_desc desc;
+    tp_sweep_plan plan;
+    tp_diag d;
+    int i;
+    (void)state;
+    tp_diag_init(&d, NULL);
+    load(single_node, &desc);
+    tp_sweep_plan_init(&plan, TP_SWEEP_GRID);
+    /* 150 W to 400 W by 25 W: 11 values, the last exactly 400 W (hand count). */
+    assert_int_equal(tp_sweep_add_vary(&plan, &desc, "network.sources.pad.power=150W:400W:25W", &d),
+                     TP_OK);
+    assert_int_equal(plan.params[0].n_values, 11);
+    for (i = 0; i < 11; i++)
+        assert_true(fabs(plan.params[0].values[i] - (150.0 + 25.0 * i)) < 1e-12);
+    assert_true(plan.params[0].values[10] == 400.0);
+    /* An absolute temperature range with an interval step: 16 degC to 28 degC by 2 K is
+     * 289.15 K .. 301.15 K in 7 values (hand calculation; 2 K is never offset). */
+    assert_int_equal(
+        tp_sweep_add_vary(&plan, &desc, "network.nodes.room.fixed = 16 degC : 28 degC : 2 K", &d),
+        TP_OK);
+    assert_int_equal(plan.params[1].n_values, 7);
+    assert_true(fabs(plan.params[1].values[0] - 289.15) < 1e-9);
+    assert_true(fabs(plan.params[1].values[6] - 301.15) < 1e-9);
+    /* Points: the first axis varies slowest; point 8 of 11 x 7 is (1, 1), point 76 (10, 6). */
+    assert_int_equal(tp_sweep_count(&plan), 77);
+    assert_int_equal(tp_sweep_axis_index(&plan, 8, 0), 1);
+    assert_int_equal(tp_sweep_axis_index(&plan, 8, 1), 1);
+    assert_int_equal(tp_sweep_axis_index(&plan, 76, 0), 10);
+    assert_int_equal(tp_sweep_axis_index(&plan, 76, 1), 6);
+    assert_true(tp_sweep_value(&plan, 8, 0) == 175.0);
+    tp_sweep_plan_clear(&plan);
+    /* A list with mixed units: 0.1 kW is 100 W. A downward range works too. */
+    assert_int_equal(tp_sweep_add_vary(&plan, &desc, "network.sources.pad.power=0.1kW,250 W", &d),
+                     TP_OK);
+    assert_true(plan.params[0].n_values == 2 && plan.params[0].values[0] == 100.0 &&
+                plan.params[0].values[1] == 250.0);
+    tp_sweep_plan_clear(&plan);
+    assert_int_equal(
+        tp_sweep_add_vary(&plan, &desc, "network.links.0.conductance=3W/K:1W/K:-0.5W/K", &d),
+        TP_OK);
+    assert_int_equal(plan.params[0].n_values, 5);
+    assert_true(plan.params[0].values[4] == 1.0);
+    tp_sweep_plan_clear(&plan);
+    tp_desc_clear(&desc);
+}
+
+static void test_vary_refuses_bad_input(void **state)
+{
+    static const char *bad[] = {
+        "network.sources.pad.power=150:400:25",             /* bare numbers for a power */
+        "network.sources.pad.power=150W:400W:0W",           /* zero step */
+        "network.sources.pad.power=150W:400W:-25W",         /* away from TO */
+        "network.sources.pad.power=150W:400W",              /* two parts */
+        "network.sources.pad.power=150V:400V:25V",          /* wrong dimension */
+        "network.sources.pad.supply=10V:20V:1V",            /* not set in this file */
+        "heater.power=1W:2W:1W",                            /* not in this form */
+        "network.links.1.radiation.emissivity=0.5:1.2:0.1", /* beyond (0, 1] */
+        "network.sources.pad.power=-50W:50W:50W",           /* negative power */
+        "network.sources.pad.power",                        /* no '=' */
+    };
+    tp_desc desc;
+    tp_sweep_plan plan;
+    tp_diag d;
+    size_t i;
+    (void)state;
+    load(single_node, &desc);
+    for (i = 0; i < sizeof bad / sizeof bad[0]; i++) {
+        tp_diag_init(&d, NULL);
+        tp_sweep_plan_init(&plan, TP_SWEEP_GRID);
+        assert_int_equal(tp_sweep_add_vary(&plan, &desc, bad[i], &d), TP_ERR_USAGE);
+        assert_int_equal(plan.n_params, 0);
+        tp_sweep_plan_clear(&plan);
+    }
+    /* A step in degF is an interval too: 10 K in steps of 5/9 K is 19 values (hand count). */
+    tp_diag_init(&d, NULL);
+    tp_sweep_plan_init(&plan, TP_SWEEP_GRID);
+    assert_int_equal(
+        tp_sweep_add_vary(&plan, &desc, "network.nodes.room.fixed=20degC:30degC:1degF", &d), TP_OK);
+    assert_int_equal(plan.params[0].n_values, 19);
+    tp_sweep_plan_clear(&plan);
+    /* A key varied twice. */
+    tp_diag_init(&d, NULL);
+    tp_sweep_plan_init(&plan, TP_SWEEP_GRID);
+    assert_int_equal(tp_sweep_add_vary(&plan, &desc, "network.sources.pad.power=1W,2W", &d), TP_OK);
+    assert_int_equal(tp_sweep_add_vary(&plan, &desc, "network.sources.pad.power=3W", &d),
+                     TP_ERR_USAGE);
+    tp_sweep_plan_clear(&plan);
+    tp_desc_clear(&desc);
+}
+
+static void test_spread_forms(void **state)
+{
+    tp_desc desc;
+    tp_sweep_plan plan;
+    tp_diag d;
+    static const char *bad[] = {
+        "network.nodes.room.fixed=normal:5%",                   /* % of an absolute temperature */
+        "network.links.0.conductance=uniform:-10%:0.1W/K",      /* mixed */
+        "network.links.0.conductance=uniform:10%:-10%",         /* LOW above HIGH */
+        "network.links.0.conductance=normal:0%",                /* no spread */
+        "network.links.0.conductance=lognormal:5%",             /* unknown law */
+        "network.links.1.radiation.emissivity=uniform:0.7:1.1", /* a bound beyond (0, 1] */
+    };
+    size_t i;
+    (void)state;
+    tp_diag_init(&d, NULL);
+    load(single_node, &desc);
+    tp_sweep_plan_init(&plan, TP_SWEEP_SPREAD);
+    assert_int_equal(tp_sweep_add_spread(&plan, &desc, "network.links.0.conductance=normal:5%", &d),
+                     TP_OK);
+    assert_true(plan.params[0].relative && plan.params[0].sigma == 0.05);
+    /* An absolute sd of a temperature is an interval: 2 K. */
+    assert_int_equal(tp_sweep_add_spread(&plan, &desc, "network.nodes.room.fixed=normal:2K", &d),
+                     TP_OK);
+    assert_true(!plan.params[1].relative && plan.params[1].sigma == 2.0);
+    /* Uniform bounds with units are absolute temperatures: 16 degC = 289.15 K. */
+    assert_int_equal(
+        tp_sweep_add_spread(&plan, &desc, "network.nodes.plate.initial=uniform:16degC:28degC", &d),
+        TP_OK);
+    assert_true(fabs(plan.params[2].low - 289.15) < 1e-9);
+    assert_int_equal(
+        tp_sweep_add_spread(&plan, &desc, "network.sources.pad.power=uniform:-10%:+10%", &d),
+        TP_OK);
+    /* Every uniform draw stays in [180 W, 220 W] (10 % of 200 W either side). */
+    plan.n_samples = 1000;
+    for (i = 0; i < 1000; i++) {
+        double v = tp_sweep_value(&plan, (long)i, 3), t = tp_sweep_value(&plan, (long)i, 2);
+        assert_true(v > 180.0 && v < 220.0);
+        assert_true(t > 289.15 && t < 301.15);
+    }
+    tp_sweep_plan_clear(&plan);
+    for (i = 0; i < sizeof bad / sizeof bad[0]; i++) {
+        tp_diag_init(&d, NULL);
+        tp_sweep_plan_init(&plan, TP_SWEEP_SPREAD);
+        assert_int_equal(tp_sweep_add_spread(&plan, &desc, bad[i], &d), TP_ERR_USAGE);
+        tp_sweep_plan_clear(&plan);
+    }
+    tp_desc_clear(&desc);
+}
+
+static void test_draws_do_not_depend_on_option_order(void **state)
+{
+    tp_desc desc;
+    tp_sweep_plan a, b;
+    tp_diag d;
+    long i;
+    (void)state;
+    tp_diag_init(&d, stderr);
+    load(single_node, &desc);
+    tp_sweep_plan_init(&a, TP_SWEEP_SPREAD);
+    tp_sweep_plan_init(&b, TP_SWEEP_SPREAD);
+    a.n_samples = b.n_samples = 50;
+    assert_int_equal(tp_sweep_add_spread(&a, &desc, "network.links.0.conductance=normal:5%", &d),
+                     TP_OK);
+    assert_int_equal(tp_sweep_add_spread(&a, &desc, "network.sources.pad.power=normal:5%", &d),
+                     TP_OK);
+    assert_int_equal(tp_sweep_add_spread(&b, &desc, "network.sources.pad.power=normal:5%", &d),
+                     TP_OK);
+    assert_int_equal(tp_sweep_add_spread(&b, &desc, "network.links.0.conductance=normal:5%", &d),
+                     TP_OK);
+    /* Each parameter's stream follows its key, not its position. */
+    for (i = 0; i < 50; i++) {
+        assert_true(tp_sweep_value(&a, i, 0) == tp_sweep_value(&b, i, 1));
+        assert_true(tp_sweep_value(&a, i, 1) == tp_sweep_value(&b, i, 0));
+    }
+    /* Another seed, other draws. */
+    b.seed = 2;
+    assert_true(tp_sweep_value(&a, 0, 0) != tp_sweep_value(&b, 0, 1));
+    tp_sweep_plan_clear(&a);
+    tp_sweep_plan_clear(&b);
+    tp_desc_clear(&desc);
+}
+
+static void test_config_check_uses_schema_bounds(void **state)
+{
+    tp_desc desc;
+    char msg[256];
+    (void)state;
+    load(single_node, &desc);
+    /* The schema's bounds (src/config.c): emissivity in (0, 1], power >= 0, capacity > 0. */
+    assert_int_equal(
+        tp_config_check(&desc, "network.links.1.radiation.emissivity", 1.0, msg, sizeof msg),
+        TP_OK);
+    assert_int_equal(
+        tp_config_check(&desc, "network.links.1.radiation.emissivity", 1.01, msg, sizeof msg),
+        TP_ERR_CONFIG);
+    assert_non_null(strstr(msg, "outside (0, 1]"));
+    assert_int_equal(tp_config_check(&desc, "network.sources.pad.power", -1.0, msg, sizeof msg),
+                     TP_ERR_CONFIG);
+    assert_int_equal(tp_config_check(&desc, "network.nodes.plate.capacity", 0.0, msg, sizeof msg),
+                     TP_ERR_CONFIG);
+    assert_int_equal(tp_config_check(&desc, "network.nodes.plate.capacity", NAN, msg, sizeof msg),
+                     TP_ERR_CONFIG);
+    assert_int_equal(tp_config_check(&desc, "network.nodes.nothing.capacity", 1.0, msg, sizeof msg),
+                     TP_ERR_CONFIG);
+    tp_desc_clear(&desc);
+}
+
+/* ---- runs ----------------------------------------------------------------------------------- */
+
+static void test_first_order_time_at_every_power(void **state)
+{
+    /* Single node, full power until the reading reaches the setpoint (on-off stays on below
+     * it): T(t) = Ta + (P/G)(1 - exp(-t/tau)), tau = C/G = 1000/2 = 500 s, so the setpoint
+     * 50 K above the room is reached at t = -tau ln(1 - 50 G / P) (closed form of the lumped
+     * first-order response, Incropera 7th ed. Sec. 5.2; from memory). The plant is linear
+     * (no radiation link); C is raised to 1000 J/K for a 500 s time constant. */
+    tp_desc desc;
+    tp_sweep_plan plan;
+    tp_sweep_totals tot;
+    tp_sweep_result *res;
+    tp_diag d;
+    long i;
+    (void)state;
+    tp_diag_init(&d, stderr);
+    load(linear_node, &desc);
+    desc.network.nodes[0].capacity = 1000.0;
+    desc.run.duration = 1200.0;
+    desc.run.tolerance = 1e-9;
+    tp_sweep_plan_init(&plan, TP_SWEEP_GRID);
+    assert_int_equal(tp_sweep_add_vary(&plan, &desc, "network.sources.pad.power=150W:400W:50W", &d),
+                     TP_OK);
+    res = run_plan(&plan, &desc, 2, &tot);
+    assert_int_equal(tot.failed, 0);
+    for (i = 0; i < tp_sweep_count(&plan); i++) {
+        double p = tp_sweep_value(&plan, i, 0);
+        double t = -500.0 * log(1.0 - 50.0 * 2.0 / p);
+        assert_true(res[i].ok);
+        /* Linear interpolation between 1 s samples of this concave curve errs by at most
+         * dt^2 / (8 tau) = 2.5e-4 s; CVODE at rtol 1e-9 adds well under 1e-4 s. */
+        assert_true(fabs(res[i].metric[TP_SM_TIME_SETPOINT] - t) < 1e-3);
+        /* Holding power G (Tset - Ta) = 100 W, margin P / 100 W (hand calculation). */
+        assert_true(fabs(res[i].metric[TP_SM_HOLD_POWER] - 100.0) < 1e-6);
+        assert_true(fabs(res[i].metric[TP_SM_MARGIN] - p / 100.0) < 1e-8);
+        /* Highest reachable: Ta + P/G (closed form steady state). */
+        assert_true(fabs(res[i].metric[TP_SM_HIGHEST] - (20.0 + KELVIN + p / 2.0)) < 1e-6);
+    }
+    free(res);
+    tp_sweep_plan_clear(&plan);
+    tp_desc_clear(&desc);
+}
+
+/* Check the statistics of holding power G (Tset - Ta) = 50 G with G spread. The sample mean
+ * has standard error sigma/sqrt(N); the sample sd has standard error sqrt((mu4/sigma^4 - 1)/(4N))
+ * sigma for large N (the variance of the sample variance is (mu4 - sigma^4)/N; Kendall & Stuart,
+ * The Advanced Theory of Statistics, Vol. 1, Sec. 10.5; from memory), which is sigma/sqrt(2N)
+ * for normal data (kurtosis 3) and sigma sqrt(0.2/N) for uniform data (kurtosis 9/5). Checks
+ * allow 4 standard errors; with the fixed seed they are deterministic. */
+static void check_holding_stats(const char *spread, double mu, double sigma, double kurtosis)
+{
+    tp_desc desc;
+    tp_sweep_plan plan;
+    tp_sweep_totals tot;
+    tp_sweep_result *res;
+    tp_sweep_summary sum;
+    tp_diag d;
+    const long n = 2000;
+    double se_mean = sigma / sqrt((double)n);
+    double se_sd = sigma * sqrt((kurtosis - 1.0) / (4.0 * (double)n));
+    tp_diag_init(&d, stderr);
+    load(linear_node, &desc);
+    tp_sweep_plan_init(&plan, TP_SWEEP_SPREAD);
+    plan.n_samples = n;
+    plan.seed = 2024;
+    assert_int_equal(tp_sweep_add_spread(&plan, &desc, spread, &d), TP_OK);
+    res = run_plan(&plan, &desc, 2, &tot);
+    assert_int_equal(tot.failed, 0);
+    assert_int_equal(tp_sweep_summarise(&plan, res, TP_SM_HOLD_POWER, &sum), TP_OK);
+    assert_int_equal(sum.n, n);
+    assert_true(fabs(sum.mean - mu) < 4.0 * se_mean);
+    assert_true(fabs(sum.sd - sigma) < 4.0 * se_sd);
+    /* The holding power rises with G exactly: rank correlation 1, and G drives it. */
+    assert_true(fabs(sum.rho[0] - 1.0) < 1e-12);
+    assert_int_equal(sum.driver, 0);
+    /* The worst (largest) holding power is the largest drawn G times 50 K. */
+    assert_true(sum.p5 < sum.p50 && sum.p50 < sum.p95 && sum.p95 <= sum.worst);
+    free(res);
+    tp_sweep_plan_clear(&plan);
+    tp_desc_clear(&desc);
+}
+
+static void test_holding_power_statistics_normal(void **state)
+{
+    (void)state;
+    /* G ~ N(2, 0.2) W/K: holding power 50 G ~ N(100, 10) W (closed form, linear map). */
+    check_holding_stats("network.links.0.conductance=normal:10%", 100.0, 10.0, 3.0);
+}
+
+static void test_holding_power_statistics_uniform(void **state)
+{
+    (void)state;
+    /* G ~ U(1.6, 2.4) W/K: holding power 50 G ~ U(80, 120) W, mean 100 W, sd 40/sqrt(12) W
+     * (closed form of the uniform distribution). */
+    check_holding_stats("network.links.0.conductance=uniform:-20%:20%", 100.0, 40.0 / sqrt(12.0),
+                        9.0 / 5.0);
+}
+
+static void test_driver_and_constant_metrics(void **state)
+{
+    /* Capacity and conductance spread together: the holding power G (Tset - Ta) depends on G
+     * only (closed form of the steady state), so G drives it; the time to the setpoint
+     * -C/G ln(1 - 50 G/P) rises with C. A spread of the capacity alone leaves the holding power
+     * constant up to solver noise: no driver is named. */
+    tp_desc desc;
+    tp_sweep_plan plan;
+    tp_sweep_totals tot;
+    tp_sweep_result *res;
+    tp_sweep_summary sum;
+    tp_diag d;
+    (void)state;
+    tp_diag_init(&d, stderr);
+    load(linear_node, &desc);
+    tp_sweep_plan_init(&plan, TP_SWEEP_SPREAD);
+    plan.n_samples = 64;
+    assert_int_equal(
+        tp_sweep_add_spread(&plan, &desc, "network.nodes.plate.capacity=uniform:-20%:20%", &d),
+        TP_OK);
+    assert_int_equal(tp_sweep_add_spread(&plan, &desc, "network.links.0.conductance=normal:5%", &d),
+                     TP_OK);
+    res = run_plan(&plan, &desc, 2, &tot);
+    assert_int_equal(tp_sweep_summarise(&plan, res, TP_SM_HOLD_POWER, &sum), TP_OK);
+    assert_int_equal(sum.driver, 1);
+    assert_true(fabs(sum.rho[1] - 1.0) < 1e-12);
+    free(res);
+    tp_sweep_plan_clear(&plan);
+    tp_sweep_plan_init(&plan, TP_SWEEP_SPREAD);
+    plan.n_samples = 16;
+    assert_int_equal(
+        tp_sweep_add_spread(&plan, &desc, "network.nodes.plate.capacity=uniform:-20%:20%", &d),
+        TP_OK);
+    res = run_plan(&plan, &desc, 2, &tot);
+    assert_int_equal(tp_sweep_summarise(&plan, res, TP_SM_HOLD_POWER, &sum), TP_OK);
+    assert_true(fabs(sum.mean - 100.0) < 1e-6);
+    assert_int_equal(sum.driver, -1);
+    assert_true(isnan(sum.rho[0]));
+    free(res);
+    tp_sweep_plan_clear(&plan);
+    tp_desc_clear(&desc);
+}
+
+static void test_same_results_for_any_jobs(void **state)
+{
+    tp_desc desc;
+    tp_sweep_plan plan;
+    tp_sweep_totals t1, t2, t3;
+    tp_sweep_result *r1, *r2, *r3;
+    tp_diag d;
+    long n;
+    (void)state;
+    tp_diag_init(&d, stderr);
+    load(single_node, &desc);
+    desc.run.tolerance = 1e-6;
+    tp_sweep_plan_init(&plan, TP_SWEEP_SPREAD);
+    plan.n_samples = 24;
+    plan.seed = 7;
+    assert_int_equal(
+        tp_sweep_add_spread(&plan, &desc, "network.links.0.conductance=normal:10%", &d), TP_OK);
+    assert_int_equal(tp_sweep_add_spread(&plan, &desc,
+                                         "network.nodes.room.fixed=uniform:10degC:"
+                                         "30degC",
+                                         &d),
+                     TP_OK);
+    n = tp_sweep_count(&plan);
+    r1 = run_plan(&plan, &desc, 1, &t1);
+    r2 = run_plan(&plan, &desc, 2, &t2);
+    r3 = run_plan(&plan, &desc, 3, &t3);
+    /* Bit for bit: each sample depends only on its index. */
+    assert_memory_equal(r1, r2, (size_t)n * sizeof *r1);
+    assert_memory_equal(r1, r3, (size_t)n * sizeof *r1);
+    assert_int_equal(t1.n_cautions, t2.n_cautions);
+    assert_memory_equal(t1.cautions, t2.cautions, sizeof t1.cautions);
+    assert_memory_equal(t1.cautions, t3.cautions, sizeof t1.cautions);
+    free(r1);
+    free(r2);
+    free(r3);
+    tp_sweep_plan_clear(&plan);
+    tp_desc_clear(&desc);
+}
+
+static void test_failed_samples_are_reported(void **state)
+{
+    /* Emissivity 0.8 with sd 30 %: draws above 1 are refused by the schema. Each is marked
+     * failed with a reason naming the value, counted, and left out of the statistics. */
+    tp_desc desc;
+    tp_sweep_plan plan;
+    tp_sweep_totals tot;
+    tp_sweep_result *res;
+    tp_sweep_summary sum;
+    tp_diag d;
+    long i, n, refused = 0;
+    (void)state;
+    tp_diag_init(&d, stderr);
+    load(single_node, &desc);
+    desc.run.duration = 60.0;
+    desc.run.tolerance = 1e-6;
+    tp_sweep_plan_init(&plan, TP_SWEEP_SPREAD);
+    plan.n_samples = 60;
+    assert_int_equal(
+        tp_sweep_add_spread(&plan, &desc, "network.links.1.radiation.emissivity=normal:30%", &d),
+        TP_OK);
+    n = tp_sweep_count(&plan);
+    res = run_plan(&plan, &desc, 2, &tot);
+    for (i = 0; i < n; i++) {
+        double e = tp_sweep_value(&plan, i, 0);
+        int bad = !(e > 0.0 && e <= 1.0);
+        refused += bad;
+        assert_int_equal(res[i].ok, !bad);
+        if (bad)
+            assert_non_null(strstr(res[i].reason, "outside (0, 1]"));
+    }
+    /* P(Z > 0.2/0.24) = 0.20 (standard normal table): some of 60 fail, most do not. */
+    assert_true(refused > 0 && refused < n / 2);
+    assert_int_equal(tot.failed, refused);
+    assert_int_equal(tp_sweep_summarise(&plan, res, TP_SM_HOLD_POWER, &sum), TP_OK);
+    assert_int_equal(sum.n + sum.absent, n - refused);
+    free(res);
+    tp_sweep_plan_clear(&plan);
+    /* An integration that hits its step limit fails the same way, with the solver's reason. */
+    tp_sweep_plan_init(&plan, TP_SWEEP_GRID);
+    assert_int_equal(tp_sweep_add_vary(&plan, &desc, "run.max_steps=3,1000000", &d), TP_OK);
+    res = run_plan(&plan, &desc, 2, &tot);
+    assert_int_equal(res[0].ok, 0);
+    assert_non_null(strstr(res[0].reason, "integration steps"));
+    assert_int_equal(res[1].ok, 1);
+    assert_int_equal(tot.failed, 1);
+    free(res);
+    tp_sweep_plan_clear(&plan);
+    tp_desc_clear(&desc);
+}
+
+typedef struct seen {
+    long calls, last_done, total;
+    int monotone;
+} seen;
+
+static void count_progress(void *user, long done, long total, double elapsed)
+{
+    seen *s = user;
+    (void)elapsed;
+    s->monotone &= done >= s->last_done;
+    s->last_done = done;
+    s->total = total;
+    s->calls++;
+}
+
+static void test_progress_ends_complete(void **state)
+{
+    tp_desc desc;
+    tp_sweep_plan plan;
+    tp_sweep_totals tot;
+    tp_sweep_result res[3];
+    tp_diag d;
+    seen s = {0, 0, 0, 1};
+    (void)state;
+    tp_diag_init(&d, stderr);
+    load(linear_node, &desc);
+    tp_sweep_plan_init(&plan, TP_SWEEP_GRID);
+    assert_int_equal(
+        tp_sweep_add_vary(&plan, &desc, "network.sources.pad.power=300W,350W,400W", &d), TP_OK);
+    assert_int_equal(tp_sweep_run(&plan, &desc, 2, res, count_progress, &s, &tot), TP_OK);
+    assert_true(s.calls >= 1 && s.monotone);
+    assert_int_equal(s.last_done, 3);
+    assert_int_equal(s.total, 3);
+    assert_int_equal(tot.jobs, 2);
+    tp_sweep_plan_clear(&plan);
+    tp_desc_clear(&desc);
+}
+
+/* ---- the command line ------------------------------------------------------------------------ */
+
+static int run_tepid(const char *args)
+{
+    char cmd[4096];
+    int rc;
+    snprintf(cmd, sizeof cmd, "%s %s >/dev/null 2>&1", TP_TEPID_EXE, args);
+    rc = system(cmd);
+    return WIFEXITED(rc) ? WEXITSTATUS(rc) : -1;
+}
+
+/* Whole-file comparison; 1 when equal and non-empty. */
+static int same_bytes(const char *a, const char *b)
+{
+    FILE *fa = fopen(a, "rb"), *fb = fopen(b, "rb");
+    int ca, cb, equal = fa && fb;
+    long n = 0;
+    while (equal) {
+        ca = fgetc(fa);
+        cb = fgetc(fb);
+        equal = ca == cb;
+        if (ca == EOF || cb == EOF)
+            break;
+        n++;
+    }
+    if (fa)
+        fclose(fa);
+    if (fb)
+        fclose(fb);
+    return equal && n > 0;
+}
+
+static void test_cli_files_identical_for_1_and_2_jobs(void **state)
+{
+    char args[2048], c1[512], c2[512], j1[512], j2[512];
+    const char *spread = "--spread network.links.0.conductance=normal:10% "
+                         "--spread network.nodes.room.fixed=uniform:15degC:25degC "
+                         "--spread network.sources.heater.resistance=normal:3% "
+                         "--samples 16 --seed 11";
+    (void)state;
+    snprintf(c1, sizeof c1, "%s/j1.csv", tmpdir);
+    snprintf(c2, sizeof c2, "%s/j2.csv", tmpdir);
+    snprintf(j1, sizeof j1, "%s/j1.json", tmpdir);
+    snprintf(j2, sizeof j2, "%s/j2.json", tmpdir);
+    snprintf(args, sizeof args,
+             "sweep %s/configs/raw-five-node.yaml -q %s --jobs 1 --csv %s "
+             "--json %s",
+             TP_SOURCE_DIR, spread, c1, j1);
+    assert_int_equal(run_tepid(args), 0);
+    snprintf(args, sizeof args,
+             "sweep %s/configs/raw-five-node.yaml -q %s --jobs 2 --csv %s "
+             "--json %s",
+             TP_SOURCE_DIR, spread, c2, j2);
+    assert_int_equal(run_tepid(args), 0);
+    assert_true(same_bytes(c1, c2));
+    assert_true(same_bytes(j1, j2));
+}
+
+static void test_cli_usage_errors(void **state)
+{
+    char args[1024];
+    const char *cfg = TP_SOURCE_DIR "/configs/raw-five-node.yaml";
+    struct stat sb;
+    char out[512];
+    (void)state;
+    snprintf(out, sizeof out, "%s/never.csv", tmpdir);
+    /* Exit 2, before any work, and no file written. */
+    snprintf(args, sizeof args, "sweep %s --csv %s", cfg, out);
+    assert_int_equal(run_tepid(args), 2);
+    snprintf(args, sizeof args,
+             "sweep %s --vary network.sources.heater.supply=20V,24V "
+             "--spread network.links.0.conductance=normal:5%% --csv %s",
+             cfg, out);
+    assert_int_equal(run_tepid(args), 2);
+    snprintf(args, sizeof args,
+             "sweep %s --vary network.sources.heater.supply=20V,24V "
+             "--samples 10 --csv %s",
+             cfg, out);
+    assert_int_equal(run_tepid(args), 2);
+    snprintf(args, sizeof args,
+             "sweep %s --vary network.sources.heater.supply=20V,24V "
+             "--vary network.links.0.conductance=5W/K,6W/K,8W/K --plot %s/m.png --csv %s",
+             cfg, tmpdir, out);
+    assert_int_equal(run_tepid(args), 2); /* a heat map needs evenly spaced values */
+    snprintf(args, sizeof args,
+             "sweep %s --spread network.links.0.conductance=normal:5%% "
+             "--jobs 0 --csv %s",
+             cfg, out);
+    assert_int_equal(run_tepid(args), 2);
+    snprintf(args, sizeof args,
+             "sweep %s --spread network.links.0.conductance=normal:5%% "
+             "--metric nothing --csv %s",
+             cfg, out);
+    assert_int_equal(run_tepid(args), 2);
+    assert_int_not_equal(stat(out, &sb), 0);
+}
+
+/* Whether a file starts with the PNG signature (ISO/IEC 15948 Sec. 5.2). */
+static int is_png(const char *path)
+{
+    static const unsigned char sig[8] = {0x89, 'P', 'N', 'G', 0x0d, 0x0a, 0x1a, 0x0a};
+    unsigned char buf[8];
+    FILE *fp = fopen(path, "rb");
+    size_t got;
+    if (!fp)
+        return 0;
+    got = fread(buf, 1, 8, fp);
+    fclose(fp);
+    return got == 8 && memcmp(buf, sig, 8) == 0;
+}
+
+static void test_cli_figures(void **state)
+{
+    /* The three figures on the raw form, which has no working surface: the default metric
+     * falls back to the time to the setpoint, so the heat map and the distribution draw. */
+    char args[2048], path[512];
+    const char *cfg = TP_SOURCE_DIR "/configs/raw-five-node.yaml";
+    (void)state;
+    snprintf(path, sizeof path, "%s/line.png", tmpdir);
+    snprintf(args, sizeof args,
+             "sweep %s -q --vary network.sources.heater.supply=20V:28V:4V --plot %s", cfg, path);
+    assert_int_equal(run_tepid(args), 0);
+    assert_true(is_png(path));
+    snprintf(path, sizeof path, "%s/map.png", tmpdir);
+    snprintf(args, sizeof args,
+             "sweep %s -q --vary network.sources.heater.supply=28V:20V:-4V "
+             "--vary network.nodes.room.fixed=15degC:25degC:5K --plot %s",
+             cfg, path);
+    assert_int_equal(run_tepid(args), 0);
+    assert_true(is_png(path));
+    snprintf(path, sizeof path, "%s/dist.png", tmpdir);
+    snprintf(args, sizeof args,
+             "sweep %s -q --spread network.links.0.conductance=normal:10%% --samples 12 "
+             "--plot %s",
+             cfg, path);
+    assert_int_equal(run_tepid(args), 0);
+    assert_true(is_png(path));
+}
+
+static void test_cli_readme_commands(void **state)
+{
+    /* The two sweep commands of README.md, on the 24 V demo, succeed. */
+    char args[1024];
+    (void)state;
+    snprintf(args, sizeof args,
+             "sweep %s/configs/workshop-bed-24v.yaml --vary heater.supply=20V:28V:2V",
+             TP_SOURCE_DIR);
+    assert_int_equal(run_tepid(args), 0);
+    snprintf(args, sizeof args,
+             "sweep %s/configs/workshop-bed-24v.yaml --spread heater.resistance=normal:5%% "
+             "--spread room.temperature=uniform:16degC:28degC --samples 200",
+             TP_SOURCE_DIR);
+    assert_int_equal(run_tepid(args), 0);
+}
+
+static int setup_dir(void **state)
+{
+    (void)state;
+    snprintf(tmpdir, sizeof tmpdir, "/tmp/tepid-sweep-XXXXXX");
+    return mkdtemp(tmpdir) ? 0 : -1;
+}
+
+static int remove_dir(void **state)
+{
+    char cmd[512];
+    (void)state;
+    snprintf(cmd, sizeof cmd, "rm -rf '%s'", tmpdir);
+    return system(cmd) == 0 ? 0 : -1;
+}
+
+int main(void)
+{
+    const struct CMUnitTest tests[] = {
+        cmocka_unit_test(test_splitmix64_reference_outputs),
+        cmocka_unit_test(test_unit_interval_is_open),
+        cmocka_unit_test(test_box_muller_hand_values),
+        cmocka_unit_test(test_hash_depends_on_every_coordinate),
+        cmocka_unit_test(test_normal_draws_match_standard_normal),
+        cmocka_unit_test(test_mean_sd_hand_example),
+        cmocka_unit_test(test_quantile_hand_examples),
+        cmocka_unit_test(test_ranks_average_ties),
+        cmocka_unit_test(test_spearman_hand_examples),
+        cmocka_unit_test(test_vary_range_with_units),
+        cmocka_unit_test(test_vary_refuses_bad_input),
+        cmocka_unit_test(test_spread_forms),
+        cmocka_unit_test(test_draws_do_not_depend_on_option_order),
+        cmocka_unit_test(test_config_check_uses_schema_bounds),
+        cmocka_unit_test(test_first_order_time_at_every_power),
+        cmocka_unit_test(test_holding_power_statistics_normal),
+        cmocka_unit_test(test_holding_power_statistics_uniform),
+        cmocka_unit_test(test_driver_and_constant_metrics),
+        cmocka_unit_test(test_same_results_for_any_jobs),
+        cmocka_unit_test(test_failed_samples_are_reported),
+        cmocka_unit_test(test_progress_ends_complete),
+        cmocka_unit_test(test_cli_files_identical_for_1_and_2_jobs),
+        cmocka_unit_test(test_cli_usage_errors),
+        cmocka_unit_test(test_cli_figures),
+        cmocka_unit_test(test_cli_readme_commands),
+    };
+    return cmocka_run_group_tests(tests, setup_dir, remove_dir);
+}
