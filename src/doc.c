@@ -21,8 +21,9 @@ typedef struct builder {
     tp_doc *doc;
     const char *file;
     tp_diag *d;
-    int line_base; /* added to libyaml lines (for --set values) */
-    int col_base;
+    int line_base; /* --set values: the ordinal of the --set (its "line") minus 1 */
+    int col_base;  /* --set values: the column where the value starts, minus 1 */
+    int one_line;  /* a --set value: every position is on line line_base + 1 */
     tp_doc_node *stack[TP_DOC_MAX_DEPTH + 1];
     int expect_value[TP_DOC_MAX_DEPTH + 1]; /* map on the stack awaits a value for its last key */
     int depth;
@@ -80,14 +81,25 @@ void tp_doc_destroy(tp_doc **doc)
     *doc = NULL;
 }
 
+/* The position of a libyaml mark. A --set value is one command-line argument: its line is
+ * the ordinal of the --set and its column the byte offset in the argument, even where libyaml
+ * puts the mark on a following line (an unclosed bracket is reported past the end). */
+static tp_loc mark_loc(const builder *b, const yaml_mark_t *m)
+{
+    tp_loc loc = {b->file, (int)m->line + 1 + b->line_base, (int)m->column + 1 + b->col_base};
+    if (b->one_line) {
+        loc.line = b->line_base + 1;
+        loc.col = (int)m->index + 1 + b->col_base;
+    }
+    return loc;
+}
+
 static tp_doc_node *node_new(builder *b, tp_doc_kind kind, const yaml_mark_t *start,
                              const yaml_mark_t *end)
 {
     tp_doc_node *n;
     if (b->doc->n_nodes >= TP_DOC_MAX_NODES) {
-        tp_diag_error(b->d, (tp_loc){b->file, (int)start->line + 1 + b->line_base,
-                                     (int)start->column + 1 + b->col_base},
-                      NULL, "split the file or remove repeated anchors",
+        tp_diag_error(b->d, mark_loc(b, start), NULL, "split the file or remove repeated anchors",
                       "the document has more than %d nodes", TP_DOC_MAX_NODES);
         return NULL;
     }
@@ -96,8 +108,8 @@ static tp_doc_node *node_new(builder *b, tp_doc_kind kind, const yaml_mark_t *st
         return NULL;
     n->kind = kind;
     n->file = b->file;
-    n->line = (int)start->line + 1 + b->line_base;
-    n->col = (int)start->column + 1 + b->col_base;
+    n->line = mark_loc(b, start).line;
+    n->col = mark_loc(b, start).col;
     n->start = start->index;
     n->end = end->index;
     b->doc->n_nodes++;
@@ -163,12 +175,6 @@ static tp_doc_node *node_copy(builder *b, const tp_doc_node *src, int line, int 
 fail:
     node_free(n);
     return NULL;
-}
-
-static tp_loc mark_loc(builder *b, const yaml_mark_t *m)
-{
-    tp_loc loc = {b->file, (int)m->line + 1 + b->line_base, (int)m->column + 1 + b->col_base};
-    return loc;
 }
 
 /* Attach a finished node to the open parent (or make it the root). */
@@ -429,6 +435,7 @@ static int build(tp_doc *doc, const char *file, const char *text, size_t len, in
     b->d = d;
     b->line_base = line_base;
     b->col_base = col_base;
+    b->one_line = strcmp(file, "--set") == 0;
     if (!yaml_parser_initialize(&parser)) {
         free(b);
         return -1;
