@@ -435,8 +435,9 @@ static int read_number(reader *r, const key *k, const tp_doc_node *n, const char
     }
     if (k->hi > 0 && fabs(v) > k->hi) {
         tp_diag_error(r->d, tp_doc_loc(n), path, k->why ? k->why : too_big,
-                      "'%s' is implausibly large (limit %g %s)", n->text, k->hi,
-                      tp_units_si_name(k->dim));
+                      "'%s' is implausibly large (limit %g%s%s)", n->text, k->hi,
+                      k->dim == TP_DIM_NONE ? "" : " ", k->dim == TP_DIM_NONE ? ""
+                                                            : tp_units_si_name(k->dim));
         return -1;
     }
     *out = v;
