@@ -726,6 +726,42 @@ static void check_form(reader *r, const tp_doc *doc, tp_desc *c)
                       "add heater: {layer: ..., power: 200 W}", "missing required key");
 }
 
+/* The position of the key at `path` if the file gave it, else of the nearest enclosing
+ * section, else of the top. */
+static tp_loc key_loc(const tp_doc *doc, const char *path)
+{
+    char buf[64];
+    const tp_doc_node *n = tp_doc_find(doc, path);
+    snprintf(buf, sizeof buf, "%s", path);
+    while (!n) {
+        char *dot = strrchr(buf, '.');
+        if (!dot)
+            break;
+        *dot = '\0';
+        n = tp_doc_find(doc, buf);
+    }
+    return tp_doc_loc(n ? n : doc->root);
+}
+
+/* Limits that involve two keys, checked with the defaults in place and before anything is
+ * allocated for the run (docs/limits.md). */
+static void check_run_size(reader *r, const tp_doc *doc, const tp_desc *c)
+{
+    double rows = c->run.duration / c->run.step + 1.0;
+    if (!(rows <= TP_MAX_OUTPUT_ROWS))
+        tp_diag_error(r->d, key_loc(doc, "run.step"), "run.step",
+                      "raise run.step (the output interval) or shorten run.duration",
+                      "%.3g output rows (run.duration / run.step) exceed the limit of %.0f",
+                      rows, TP_MAX_OUTPUT_ROWS);
+    if (c->control.present && c->control.mode != TP_MODE_OFF &&
+        !(c->run.duration / c->control.period <= TP_MAX_TICKS))
+        tp_diag_error(r->d, key_loc(doc, "control.period"), "control.period",
+                      "raise control.period (real controllers sample every 0.1 s to a few "
+                      "seconds) or shorten run.duration",
+                      "%.3g controller samples (run.duration / control.period) exceed the "
+                      "limit of %.0f", c->run.duration / c->control.period, TP_MAX_TICKS);
+}
+
 tp_status tp_config_read(const tp_doc *doc, tp_desc *desc, tp_diag *d)
 {
     reader r = {d};
@@ -751,6 +787,11 @@ tp_status tp_config_read(const tp_doc *doc, tp_desc *desc, tp_diag *d)
         return TP_ERR_CONFIG;
     }
     apply_defaults(desc);
+    check_run_size(&r, doc, desc);
+    if (d->errors != errors0) {
+        tp_desc_clear(desc);
+        return TP_ERR_CONFIG;
+    }
     return TP_OK;
 }
 
