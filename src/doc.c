@@ -411,9 +411,18 @@ static void report_parser_error(builder *b, const yaml_parser_t *p, const char *
                 break;
             }
     }
-    tp_diag_error(b->d, mark_loc(b, m), NULL, hint, "YAML syntax error: %s%s%s",
-                  p->problem ? p->problem : "unreadable", p->context ? " " : "",
-                  p->context ? p->context : "");
+    {
+        /* libyaml reports where it gave up; the construct it was reading (an unclosed
+         * bracket or quote) often starts lines earlier, so say where. */
+        char started[64] = "";
+        tp_loc at = mark_loc(b, &p->context_mark);
+        if (p->context && p->context_mark.index != m->index)
+            snprintf(started, sizeof started, " that starts at line %d, column %d", at.line,
+                     at.col);
+        tp_diag_error(b->d, mark_loc(b, m), NULL, hint, "YAML syntax error: %s%s%s%s",
+                      p->problem ? p->problem : "unreadable", p->context ? " " : "",
+                      p->context ? p->context : "", started);
+    }
 }
 
 /* Parse `text` into a tree; shared by files and --set values. Returns the root (may be NULL for
