@@ -492,6 +492,13 @@ tp_status tp_doc_load_text(const char *name, const char *text, size_t len, tp_do
                       "the file is larger than %d bytes", TP_DOC_MAX_BYTES);
         return TP_ERR_LIMIT;
     }
+    if (len >= 2 && (((unsigned char)text[0] == 0xff && (unsigned char)text[1] == 0xfe) ||
+                     ((unsigned char)text[0] == 0xfe && (unsigned char)text[1] == 0xff))) {
+        tp_diag_error(d, (tp_loc){name, 0, 0}, NULL,
+                      "save it as UTF-8 (most editors offer the encoding under 'Save as')",
+                      "the file is UTF-16 text; tepid reads UTF-8");
+        return TP_ERR_CONFIG;
+    }
     if (memchr(text, '\0', len)) {
         tp_diag_error(d, (tp_loc){name, 0, 0}, NULL, "give a YAML text file",
                       "the file contains binary data (NUL bytes)");
