@@ -103,11 +103,16 @@ tp_status tp_outfile_commit(tp_outfile *o, tp_diag *d)
         }
         return TP_OK;
     }
+    errno = 0;
     bad = fflush(o->fp) != 0 || ferror(o->fp);
     bad |= fclose(o->fp) != 0;
     o->fp = NULL;
     if (bad) {
-        tp_diag_error(d, tp_loc_none(), NULL, "check free disk space", "cannot write %s", o->path);
+        /* errno is that of the failed flush or close when they failed (an earlier failed
+         * write alone leaves it 0 here). */
+        int e = errno;
+        tp_diag_error(d, tp_loc_none(), NULL, "check free disk space", "cannot write %s%s%s",
+                      o->path, e ? ": " : "", e ? strerror(e) : "");
         unlink(o->tmp);
         o->tmp[0] = '\0';
         return TP_ERR_IO;
