@@ -30,6 +30,8 @@ static void append(tp_diag *d, const char *text, int print)
 }
 
 static void emit(tp_diag *d, int is_error, tp_loc loc, const char *path, const char *hint,
+                 const char *fmt, va_list ap) __attribute__((format(printf, 6, 0)));
+static void emit(tp_diag *d, int is_error, tp_loc loc, const char *path, const char *hint,
                  const char *fmt, va_list ap)
 {
     char head[600], body[1024], line[1800];
