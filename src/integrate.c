@@ -12,6 +12,7 @@
 
 #include <math.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 #include <time.h>
 
@@ -347,8 +348,11 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
         flag = CVode(mem, o->t_end, y, &t, CV_ONE_STEP);
         if (flag < 0) {
             add_stats(mem, stats);
-            st = fail(d, CVodeGetReturnFlagName(flag), t, worst_node(mem, net, yi, tmp),
+            /* SUNDIALS allocates the flag's name; the caller frees it. */
+            char *name = CVodeGetReturnFlagName(flag);
+            st = fail(d, name ? name : "CVode failed", t, worst_node(mem, net, yi, tmp),
                       dr.cv_msg, o->rtol);
+            free(name);
             goto done;
         }
         /* A break (fault, disturbance) or a tick that changes a duty inside this step ends

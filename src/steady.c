@@ -337,10 +337,13 @@ static tp_status solve(sys *s, double *x, long *iters, tp_diag *d)
     flag = KINSol(kin, u, KIN_LINESEARCH, us, fs);
     KINGetNumNonlinSolvIters(kin, iters);
     if (flag < 0) {
+        /* SUNDIALS allocates the flag's name; the caller frees it. */
+        char *name = KINGetReturnFlagName(flag);
         tp_diag_error(d, tp_loc_none(), NULL,
                       "check for nodes coupled only by very weak or very strong links",
-                      "the steady-state solver failed (%s)%s%s", KINGetReturnFlagName(flag),
+                      "the steady-state solver failed (%s)%s%s", name ? name : "KINSOL failed",
                       s->msg[0] ? ": " : "", s->msg);
+        free(name);
         st = TP_ERR_SOLVER;
         goto done;
     }
