@@ -608,8 +608,12 @@ static void read_section(reader *r, const section *sec, const tp_doc_node *map, 
             size_t m = sec->n < 64 ? sec->n : 64;
             for (j = 0; j < m; j++)
                 names[j] = sec->keys[j].name;
-            suggest(kn->text, names, m, hint, sizeof hint);
-            if (!hint[0]) {
+            hint[0] = '\0';
+            /* Past the errors that are shown, a hint would only cost time (a file of 90,000
+             * unknown keys spent most of its seconds in edit distances). */
+            if (r->d->errors < TP_DIAG_SHOW_MAX)
+                suggest(kn->text, names, m, hint, sizeof hint);
+            if (!hint[0] && r->d->errors < TP_DIAG_SHOW_MAX) {
                 key_list(sec, list, sizeof list);
                 snprintf(hint, sizeof hint, "keys here: %s", list);
             }
