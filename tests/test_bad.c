@@ -23,8 +23,8 @@
 #define CATALOGUE_MIN 60        /* entries the catalogue must hold (issue 10) */
 #define MAX_CASES 512           /* case files read from tests/bad */
 #define MAX_LINES 16            /* message:, stdout:, absent: and existing: lines per case */
-#define MAX_ARGV 400            /* words of an args: line */
-#define LINE_MAX_ 4096          /* longest directive line, bytes */
+#define MAX_ARGV 1024           /* words of an args: line */
+#define LINE_MAX_ 16384         /* longest directive line, bytes */
 #define DEFAULT_TIMEOUT 5.0     /* s: a case must end within this (a hang is a failure) */
 #define OUTPUT_MAX (1 << 20)    /* bytes of a case's stdout or stderr read back */
 #define EXISTING_TEXT "precious: this file must survive a failed run\n"
@@ -43,7 +43,7 @@ typedef struct bad_case {
     int n_existing;
     char *with[MAX_LINES];   /* more files under tests/bad copied beside the input */
     int n_with;
-    char args[LINE_MAX_];
+    char *args;           /* the args: line (malloc'ed) */
     char input[1024];     /* input: another file under tests/bad */
     char generate[256];   /* generate: KIND N */
     double timeout;
@@ -83,13 +83,20 @@ static void read_case(bad_case *c)
     char line[LINE_MAX_];
     c->exit_code = -1;
     c->timeout = DEFAULT_TIMEOUT;
-    strcpy(c->args, "warmup @FILE@ --csv out.csv");
+    c->args = strdup("warmup @FILE@ --csv out.csv");
     if (!fp) {
         snprintf(c->error, sizeof c->error, "cannot open: %s", strerror(errno));
         return;
     }
     while (fgets(line, sizeof line, fp) && line[0] == '#') {
-        char *key = trim(line + 1), *colon = strchr(key, ':'), *value;
+        char *key, *colon, *value;
+        if (!strchr(line, '\n') && !feof(fp)) {
+            snprintf(c->error, sizeof c->error, "a directive line longer than %d bytes",
+                     LINE_MAX_ - 2);
+            break;
+        }
+        key = trim(line + 1);
+        colon = strchr(key, ':');
         if (!colon)
             continue;
         *colon = '\0';
@@ -108,7 +115,8 @@ static void read_case(bad_case *c)
         } else if (strcmp(key, "with") == 0) {
             add_line(c->with, &c->n_with, value, c);
         } else if (strcmp(key, "args") == 0) {
-            snprintf(c->args, sizeof c->args, "%s", value);
+            free(c->args);
+            c->args = strdup(value);
         } else if (strcmp(key, "input") == 0) {
             snprintf(c->input, sizeof c->input, "%s", value);
         } else if (strcmp(key, "generate") == 0) {
@@ -249,6 +257,15 @@ static int generate(const char *spec, const char *path)
         /* One map of n distinct keys: the duplicate-key check must stay fast. */
         for (i = 0; i < n; i++)
             fprintf(fp, "k%ld: 1\n", i);
+    } else if (strcmp(kind, "items") == 0) {
+        /* One list of n one-character items: n + 2 nodes without any alias. */
+        fputs("title: items\nlist:\n", fp);
+        for (i = 0; i < n; i++)
+            fputs("- 1\n", fp);
+    } else if (strcmp(kind, "anchors") == 0) {
+        /* n distinct anchors, each on its own small value. */
+        for (i = 0; i < n; i++)
+            fprintf(fp, "k%ld: &a%ld 1\n", i, i);
     } else if (strcmp(kind, "utf16") == 0) {
         /* "title: utf16" in UTF-16LE with its byte-order mark, as some editors save. */
         static const char text[] = "title: utf16\n";
@@ -583,6 +600,7 @@ int main(void)
             free(cases[i].existing[k]);
         for (k = 0; k < cases[i].n_with; k++)
             free(cases[i].with[k]);
+        free(cases[i].args);
     }
     return rc;
 }
