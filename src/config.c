@@ -747,10 +747,18 @@ static tp_loc key_loc(const tp_doc *doc, const char *path)
     return tp_doc_loc(n ? n : doc->root);
 }
 
+#define TP_ROOM_MIN 223.15 /* K, -50 degC: colder rooms are typos ("5 K" for 5 degC) */
+#define TP_ZERO_CELSIUS 273.15 /* K at 0 degC */
+
 /* Limits that involve two keys, checked with the defaults in place and before anything is
- * allocated for the run (docs/limits.md). */
+ * allocated for the run (docs/limits.md); and the lower plausibility bound of the room. */
 static void check_run_size(reader *r, const tp_doc *doc, const tp_desc *c)
 {
+    if (c->form == TP_FORM_PHYSICAL && c->room.temperature < TP_ROOM_MIN)
+        tp_diag_error(r->d, key_loc(doc, "room.temperature"), "room.temperature",
+                      "a room is between about -40 and 120 degC",
+                      "%.2f degC is implausibly low (limit -50 degC)",
+                      c->room.temperature - TP_ZERO_CELSIUS);
     double rows = c->run.duration / c->run.step + 1.0;
     if (!(rows <= TP_MAX_OUTPUT_ROWS))
         tp_diag_error(r->d, key_loc(doc, "run.step"), "run.step",
