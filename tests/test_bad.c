@@ -20,6 +20,8 @@
 #include <time.h>
 #include <unistd.h>
 
+#include "testfs.h"
+
 #define CATALOGUE_MIN 60        /* entries the catalogue must hold (issue 10) */
 #define MAX_CASES 512           /* case files read from tests/bad */
 #define MAX_LINES 16            /* message:, stdout:, absent: and existing: lines per case */
@@ -420,26 +422,6 @@ static void leftovers(const char *work, const bad_case *c, const char *input, ch
     closedir(dp);
 }
 
-static void remove_tree(const char *path)
-{
-    DIR *dp = opendir(path);
-    struct dirent *e;
-    if (dp) {
-        while ((e = readdir(dp))) {
-            char sub[8192];
-            if (strcmp(e->d_name, ".") == 0 || strcmp(e->d_name, "..") == 0)
-                continue;
-            snprintf(sub, sizeof sub, "%s/%s", path, e->d_name);
-            remove_tree(sub);
-        }
-        closedir(dp);
-        chmod(path, 0700);
-        rmdir(path);
-    } else {
-        unlink(path);
-    }
-}
-
 static void test_bad_case(void **state)
 {
     bad_case *c = *state;
@@ -557,7 +539,7 @@ static void test_bad_case(void **state)
     free(before);
     free(stdout_text);
     free(stderr_text);
-    remove_tree(work);
+    testfs_remove_tree(work);
     unlink(out);
     unlink(err);
 }
@@ -587,7 +569,7 @@ int main(void)
         tests[i + 1] = (struct CMUnitTest){cases[i].name, test_bad_case, NULL, NULL, &cases[i]};
     }
     rc = _cmocka_run_group_tests("bad inputs", tests, (size_t)n_cases + 1, NULL, NULL);
-    remove_tree(base_dir);
+    testfs_remove_tree(base_dir);
     for (i = 0; i < n_cases; i++) {
         int k;
         for (k = 0; k < cases[i].n_messages; k++)

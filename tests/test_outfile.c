@@ -22,6 +22,8 @@
 #include <sys/wait.h>
 #include <unistd.h>
 
+#include "testfs.h"
+
 #include "outfile.h"
 
 #define NOBODY_ID 65534    /* uid and gid of 'nobody' on Debian (common practice, no source) */
@@ -419,26 +421,6 @@ static void test_outfile_no_nan_in_outputs(void **state)
     }
 }
 
-static void remove_tree(const char *path)
-{
-    DIR *dp = opendir(path);
-    struct dirent *e;
-    if (dp) {
-        while ((e = readdir(dp))) {
-            char sub[1024];
-            if (strcmp(e->d_name, ".") == 0 || strcmp(e->d_name, "..") == 0)
-                continue;
-            snprintf(sub, sizeof sub, "%s/%s", path, e->d_name);
-            remove_tree(sub);
-        }
-        closedir(dp);
-        chmod(path, 0700);
-        rmdir(path);
-    } else {
-        unlink(path);
-    }
-}
-
 static int group_setup(void **state)
 {
     (void)state;
@@ -451,7 +433,7 @@ static int group_setup(void **state)
 static int group_teardown(void **state)
 {
     (void)state;
-    remove_tree(dir);
+    testfs_remove_tree(dir);
     return 0;
 }
 
