@@ -2,7 +2,8 @@
  * to end: a failed run leaves an existing output byte for byte, a write that fails half way
  * (file-size limit) leaves no temporary file, an output is never written onto the input, --csv -
  * writes to standard output, an unwritable directory gives a clear message and exit 1, and no
- * cell of an output is NaN or empty. */
+ * cell of an output is NaN or empty; an output through a symbolic link or into a FIFO keeps the
+ * link or the FIFO. */
 #include <stdarg.h>
 #include <stddef.h>
 #include <stdint.h>
@@ -332,6 +333,60 @@ static void test_outfile_csv_to_stdout(void **state)
     free(err);
 }
 
+/* An output named through a symbolic link is written to the link's target; the link stays. */
+static void test_outfile_follows_symlink(void **state)
+{
+    char cfg[320], real[320], link_path[320], *out, *err, *text;
+    const char *argv[] = {"tepid", "warmup", "plate.yaml", "-q", "--csv", "link.csv", NULL};
+    struct stat st;
+    (void)state;
+    in_case(cfg, sizeof cfg, "plate.yaml");
+    in_case(real, sizeof real, "real.csv");
+    in_case(link_path, sizeof link_path, "link.csv");
+    write_text(cfg, raw_config);
+    write_text(real, PRECIOUS);
+    assert_int_equal(symlink("real.csv", link_path), 0);
+    assert_int_equal(run_tepid(casedir, argv, NULL, &out, &err), 0);
+    assert_int_equal(lstat(link_path, &st), 0);
+    assert_true(S_ISLNK(st.st_mode));
+    text = read_text(real);
+    assert_true(strncmp(text, "time_s,plate_C,pad_W\n", 21) == 0);
+    assert_int_equal(count_entries(casedir), 3);
+    free(text);
+    free(out);
+    free(err);
+}
+
+/* An output that is a FIFO (as /dev/stdout may be) is written into, not replaced by a file. */
+static void test_outfile_writes_into_fifo(void **state)
+{
+    char cfg[320], fifo[320], buf[4096], *out, *err;
+    const char *argv[] = {"tepid", "warmup", "plate.yaml", "-q", "--csv", "pipe", NULL};
+    struct stat st;
+    ssize_t n;
+    int fd;
+    (void)state;
+    in_case(cfg, sizeof cfg, "plate.yaml");
+    in_case(fifo, sizeof fifo, "pipe");
+    write_text(cfg, raw_config);
+    assert_int_equal(mkfifo(fifo, 0644), 0);
+    /* Our reading end keeps the FIFO open, so tepid's open for writing does not block; the
+     * 61-row history (about 1 kB) fits the pipe's buffer. */
+    fd = open(fifo, O_RDONLY | O_NONBLOCK);
+    assert_true(fd >= 0);
+    assert_int_equal(run_tepid(casedir, argv, NULL, &out, &err), 0);
+    n = read(fd, buf, sizeof buf - 1);
+    close(fd);
+    assert_true(n > 21);
+    buf[n] = '\0';
+    assert_true(strncmp(buf, "time_s,plate_C,pad_W\n", 21) == 0);
+    assert_int_equal(stat(fifo, &st), 0);
+    assert_true(S_ISFIFO(st.st_mode));
+    assert_int_equal(count_entries(casedir), 2);
+    free(out);
+    free(err);
+}
+
 /* An output directory tepid may not write to: exit 1, a message naming the path and the
  * reason, and no file (temporary or final) in it. Run as 'nobody' when the test runs as root,
  * since root writes anywhere. */
@@ -447,6 +502,8 @@ int main(void)
         cmocka_unit_test_setup(test_outfile_write_failure_keeps_existing, per_test_setup),
         cmocka_unit_test_setup(test_outfile_refuses_own_input, per_test_setup),
         cmocka_unit_test_setup(test_outfile_csv_to_stdout, per_test_setup),
+        cmocka_unit_test_setup(test_outfile_follows_symlink, per_test_setup),
+        cmocka_unit_test_setup(test_outfile_writes_into_fifo, per_test_setup),
         cmocka_unit_test_setup(test_outfile_unwritable_directory, per_test_setup),
         cmocka_unit_test_setup(test_outfile_no_nan_in_outputs, per_test_setup),
     };
