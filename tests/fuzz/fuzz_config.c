@@ -1,6 +1,6 @@
 /* libFuzzer target: the config loader. The input is a YAML text, optionally followed by a NUL
  * byte and NUL-separated --set assignments; it goes through tp_doc_load_text, tp_doc_set,
- * tp_config_read and tp_assemble, and one right-hand-side evaluation of the network. Any crash,
+ * tp_config_read and tp_assemble, and one right-hand side and Jacobian of the network. Any crash,
  * sanitizer report, leak or hang is a finding (tests/fuzz/README.md). */
 #include <stddef.h>
 #include <stdint.h>
@@ -56,12 +56,15 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
             int n = tp_network_state_size(net);
             double *y = malloc((size_t)(n > 0 ? n : 1) * sizeof *y);
             double *ydot = malloc((size_t)(n > 0 ? n : 1) * sizeof *ydot);
-            if (y && ydot) {
+            double *jac = malloc((size_t)(net->nnz > 0 ? net->nnz : 1) * sizeof *jac);
+            if (y && ydot && jac) {
                 tp_network_initial_state(net, y);
                 (void)tp_network_rhs(net, y, ydot);
+                (void)tp_network_jacobian(net, y, jac);
             }
             free(y);
             free(ydot);
+            free(jac);
             tp_network_destroy(&net);
         }
         tp_desc_clear(&desc);

@@ -20,7 +20,12 @@ for t in $targets; do
   case "$t" in
     config)
       # Every demo config and every catalogue input (their directive lines are YAML comments).
-      cp "$src"/configs/*.yaml "$src"/tests/bad/*.yaml "$src"/tests/bad/inputs/* "$seeds"/ ;;
+      cp "$src"/configs/*.yaml "$src"/tests/bad/*.yaml "$src"/tests/bad/inputs/* "$seeds"/
+      # And the demos with --set assignments after a NUL byte (fuzz_config.c).
+      for f in "$src"/configs/*.yaml; do
+        { cat "$f"; printf '\0heater.power=150 W\0bed.layers.0.thickness=2 mm\0run=&r {step: *r}'; } \
+          > "$seeds/set-$(basename "$f")"
+      done ;;
     units)
       # One quantity per file, from the committed list.
       n=0
