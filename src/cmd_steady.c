@@ -150,8 +150,12 @@ static void put_reach(cJSON *root, const char *name, const tp_network *net, cons
     tp_json_number(root, key, s->power);
     snprintf(key, sizeof key, "%s_duty", name);
     tp_json_number(root, key, s->duty);
-    tp_json_number(o, "reading", s->reading - TP_KELVIN_0C);
-    tp_json_number(o, "surface", surface_or_nan(net, s->temps) - TP_KELVIN_0C);
+    /* Keys that do not apply (no controller, no working surface in the raw form) are left
+     * out rather than written as null. */
+    if (net->has_control)
+        tp_json_number(o, "reading", s->reading - TP_KELVIN_0C);
+    if (isfinite(surface_or_nan(net, s->temps)))
+        tp_json_number(o, "surface", surface_or_nan(net, s->temps) - TP_KELVIN_0C);
     nodes = cJSON_AddObjectToObject(o, "nodes");
     for (i = 0; nodes && i < net->n_nodes; i++)
         if (net->nodes[i].capacity > 0)
@@ -183,8 +187,10 @@ static tp_status write_json(const char *path, const tp_network *net, const answe
     if (a->holding) {
         double surf = surface_or_nan(net, a->hold.temps);
         tp_json_number(root, "margin", a->max_duty / a->hold.duty);
-        tp_json_number(root, "surface_C", surf - TP_KELVIN_0C);
-        tp_json_number(root, "offset_K", a->hold.reading - surf);
+        if (isfinite(surf)) {
+            tp_json_number(root, "surface_C", surf - TP_KELVIN_0C);
+            tp_json_number(root, "offset_K", a->hold.reading - surf);
+        }
         tp_json_number(root, "wiring_loss_W", a->hold.wire);
     }
     st = nodes && losses ? tp_json_write(path, root, d) : TP_ERR_NOMEM;

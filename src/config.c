@@ -532,8 +532,9 @@ static int read_number(reader *r, const key *k, const tp_doc_node *n, const char
         return -1;
     case BOUND_HI:
         tp_diag_error(r->d, tp_doc_loc(n), path, k->why ? k->why : too_big,
-                      "'%s' is implausibly large (limit %g %s)", n->text, k->hi,
-                      tp_units_si_name(k->dim));
+                      "'%s' is implausibly large (limit %g%s%s)", n->text, k->hi,
+                      k->dim == TP_DIM_NONE ? "" : " ", k->dim == TP_DIM_NONE ? ""
+                                                            : tp_units_si_name(k->dim));
         return -1;
     default:
         break;
@@ -706,8 +707,12 @@ static void read_section(reader *r, const section *sec, const tp_doc_node *map, 
             size_t m = sec->n < 64 ? sec->n : 64;
             for (j = 0; j < m; j++)
                 names[j] = sec->keys[j].name;
-            suggest(kn->text, names, m, hint, sizeof hint);
-            if (!hint[0]) {
+            hint[0] = '\0';
+            /* Past the errors that are shown, a hint would only cost time (a file of 90,000
+             * unknown keys spent most of its seconds in edit distances). */
+            if (r->d->errors < TP_DIAG_SHOW_MAX)
+                suggest(kn->text, names, m, hint, sizeof hint);
+            if (!hint[0] && r->d->errors < TP_DIAG_SHOW_MAX) {
                 key_list(sec, list, sizeof list);
                 snprintf(hint, sizeof hint, "keys here: %s", list);
             }
@@ -831,6 +836,50 @@ static void check_form(reader *r, const tp_doc *doc, tp_desc *c)
                       "add heater: {layer: ..., power: 200 W}", "missing required key");
 }
 
+/* The position of the key at `path` if the file gave it, else of the nearest enclosing
+ * section, else of the top. */
+static tp_loc key_loc(const tp_doc *doc, const char *path)
+{
+    char buf[64];
+    const tp_doc_node *n = tp_doc_find(doc, path);
+    snprintf(buf, sizeof buf, "%s", path);
+    while (!n) {
+        char *dot = strrchr(buf, '.');
+        if (!dot)
+            break;
+        *dot = '\0';
+        n = tp_doc_find(doc, buf);
+    }
+    return tp_doc_loc(n ? n : doc->root);
+}
+
+#define TP_ROOM_MIN 223.15 /* K, -50 degC: colder rooms are typos ("5 K" for 5 degC) */
+#define TP_ZERO_CELSIUS 273.15 /* K at 0 degC */
+
+/* Limits that involve two keys, checked with the defaults in place and before anything is
+ * allocated for the run (docs/limits.md); and the lower plausibility bound of the room. */
+static void check_run_size(reader *r, const tp_doc *doc, const tp_desc *c)
+{
+    if (c->form == TP_FORM_PHYSICAL && c->room.temperature < TP_ROOM_MIN)
+        tp_diag_error(r->d, key_loc(doc, "room.temperature"), "room.temperature",
+                      "a room is between about -40 and 120 degC",
+                      "%.2f degC is implausibly low (limit -50 degC)",
+                      c->room.temperature - TP_ZERO_CELSIUS);
+    double rows = c->run.duration / c->run.step + 1.0;
+    if (!(rows <= TP_MAX_OUTPUT_ROWS))
+        tp_diag_error(r->d, key_loc(doc, "run.step"), "run.step",
+                      "raise run.step (the output interval) or shorten run.duration",
+                      "%.3g output rows (run.duration / run.step) exceed the limit of %.0f",
+                      rows, TP_MAX_OUTPUT_ROWS);
+    if (c->control.present && c->control.mode != TP_MODE_OFF &&
+        !(c->run.duration / c->control.period <= TP_MAX_TICKS))
+        tp_diag_error(r->d, key_loc(doc, "control.period"), "control.period",
+                      "raise control.period (real controllers sample every 0.1 s to a few "
+                      "seconds) or shorten run.duration",
+                      "%.3g controller samples (run.duration / control.period) exceed the "
+                      "limit of %.0f", c->run.duration / c->control.period, TP_MAX_TICKS);
+}
+
 tp_status tp_config_read(const tp_doc *doc, tp_desc *desc, tp_diag *d)
 {
     reader r = {d};
@@ -856,6 +905,11 @@ tp_status tp_config_read(const tp_doc *doc, tp_desc *desc, tp_diag *d)
         return TP_ERR_CONFIG;
     }
     apply_defaults(desc);
+    check_run_size(&r, doc, desc);
+    if (d->errors != errors0) {
+        tp_desc_clear(desc);
+        return TP_ERR_CONFIG;
+    }
     return TP_OK;
 }
 

@@ -14,6 +14,10 @@
 #define TP_MAX_RAW_NODES 100000 /* nodes in a raw network */
 #define TP_MAX_RAW_LINKS 400000 /* links in a raw network */
 #define TP_MAX_MATERIALS 256    /* materials defined in one file */
+#define TP_MAX_OUTPUT_ROWS 5000000.0 /* output times in one run, run.duration / run.step + 1
+                                        (30 days at 1 s fits) */
+#define TP_MAX_TICKS 10000000.0      /* controller samples in one run, run.duration /
+                                        control.period */
 
 /* Read the description from a parsed document. Every problem is reported to `d`; on error
  * returns TP_ERR_CONFIG and *desc is cleared (nothing to free). Defaults are applied. */

@@ -71,7 +71,10 @@ long tp_adc_code(const tp_reading_model *m, double t)
 {
     /* Divider: `series` from the supply to the ADC input, the thermistor from there to ground. */
     double rt = tp_thermistor_resistance(m, t);
-    double v = m->supply * rt / (rt + m->series);
+    /* supply rt / (rt + series), written so that rt = inf (a sensor below about 25 K with a
+     * large beta: exp overflows) gives the supply rather than inf/inf = NaN, whose conversion
+     * to long below would be undefined. */
+    double v = m->supply / (1.0 + m->series / rt);
     double full = ldexp(1.0, m->adc_bits);
     double code = floor(v / m->adc_reference * full);
     return (long)clamp(code, 0.0, full - 1.0);

@@ -30,10 +30,23 @@ static void append(tp_diag *d, const char *text, int print)
 }
 
 static void emit(tp_diag *d, int is_error, tp_loc loc, const char *path, const char *hint,
+                 const char *fmt, va_list ap) __attribute__((format(printf, 6, 0)));
+static void emit(tp_diag *d, int is_error, tp_loc loc, const char *path, const char *hint,
                  const char *fmt, va_list ap)
 {
     char head[600], body[1024], line[1800];
     int print = is_error || !d->quiet;
+    int count = is_error ? d->errors : d->warnings;
+
+    if (count > TP_DIAG_SHOW_MAX) {
+        if (count == TP_DIAG_SHOW_MAX + 1) {
+            snprintf(line, sizeof line, "tepid: more than %d %s; the rest are not shown\n",
+                     TP_DIAG_SHOW_MAX, is_error ? "errors" : "warnings");
+            append(d, line, print);
+        }
+        d->held++;
+        return;
+    }
 
     if (loc.file && loc.line > 0)
         snprintf(head, sizeof head, "%s:%d:%d: ", loc.file, loc.line, loc.col > 0 ? loc.col : 1);

@@ -12,6 +12,8 @@ typedef struct tp_loc {
 } tp_loc;
 
 #define TP_DIAG_LOG_MAX 16384 /* bytes of messages kept for tests and reports */
+#define TP_DIAG_SHOW_MAX 50    /* errors, and separately warnings, printed before the rest are
+                                  only counted (a broken file must not flood the terminal) */
 
 /* A diagnostics sink. Messages go to `stream` (may be NULL) and are kept in `log`. */
 typedef struct tp_diag {
@@ -19,6 +21,7 @@ typedef struct tp_diag {
     int errors;
     int warnings;
     int quiet;                  /* nonzero: warnings are counted and logged but not printed */
+    int held;                   /* errors and warnings beyond TP_DIAG_SHOW_MAX, counted only */
     char log[TP_DIAG_LOG_MAX];  /* every message, newline separated, truncated when full */
     size_t log_len;
 } tp_diag;
@@ -26,7 +29,9 @@ typedef struct tp_diag {
 /* Start a sink writing to `stream` (NULL: keep messages in the log only). */
 void tp_diag_init(tp_diag *d, FILE *stream);
 
-/* An error at `loc` about `path` (may be NULL), with an optional `hint` (may be NULL). */
+/* An error at `loc` about `path` (may be NULL), with an optional `hint` (may be NULL).
+ * Past TP_DIAG_SHOW_MAX errors (or warnings) one line says so and later ones are only
+ * counted in `errors` (`warnings`) and `held`. */
 void tp_diag_error(tp_diag *d, tp_loc loc, const char *path, const char *hint, const char *fmt,
                    ...) __attribute__((format(printf, 5, 6)));
 

@@ -12,6 +12,7 @@
 
 #include <math.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 #include <time.h>
 
@@ -23,8 +24,11 @@
 #include <sunmatrix/sunmatrix_dense.h>
 #include <sunmatrix/sunmatrix_sparse.h>
 
+#include "config.h"
+
 #define TP_ATOL_KELVIN 10.0 /* K: absolute tolerance on temperatures is rtol times this */
 #define TP_ATOL_JOULE 1.0   /* J: absolute tolerance on energy totals is rtol times this */
+#define TP_WALL_CHECK_TICKS 1024 /* controller ticks between wall-clock checks inside a step */
 
 #define TP_JAC_REUSE_DT 0.5   /* K: a Jacobian is reused while no temperature moved more */
 #define TP_JAC_REUSE_DUTY 0.1 /* -, and no duty moved more (duty enters only via tempco) */
@@ -189,6 +193,8 @@ typedef struct run {
     long next_out; /* index of the next output time */
     long n_out;    /* output times 0..n_out-1 at k * step (the last one is t_end) */
     int stop;
+    int bad_node;  /* a node whose temperature was not finite at an output time, or -1 */
+    double bad_t;  /* s, that output time */
 } run;
 
 static double out_time(const run *r, long k)
@@ -209,13 +215,22 @@ static double reading_of(run *r, double t, const double *y)
     return reading;
 }
 
+/* Hand one output row to the caller. A state that is not finite is never handed out: the run
+ * ends there and tp_integrate reports it (no NaN reaches an output file). */
 static int emit(run *r, double t, const double *y)
 {
     tp_sample s;
+    int i;
     s.t = t;
     s.y = y;
     s.reading = reading_of(r, t, y);
     tp_network_temperatures(r->net, y, r->temps);
+    for (i = 0; i < r->net->n_nodes; i++)
+        if (!isfinite(r->temps[i])) {
+            r->bad_node = i;
+            r->bad_t = t;
+            return 1;
+        }
     s.temps = r->temps;
     s.duty = r->net->has_control ? r->net->duty[r->net->control.source] : 1.0;
     if (r->o->out && r->o->out(r->o->user, &s) != 0)
@@ -243,15 +258,23 @@ static int tick(run *r, double t, const double *y)
     return 0;
 }
 
-static tp_status fail(tp_diag *d, const char *what, double t, const char *node, const char *msg)
+#define TP_RTOL_TIGHT 1.0e-9 /* -, relative tolerances below this are themselves suspect */
+
+/* Report a failed integration: the time, the node with the largest weighted error (when
+ * known), CVODE's own words, and a hint that fits the tolerance in use. */
+static tp_status fail(tp_diag *d, const char *what, double t, const char *node, const char *msg,
+                      double rtol)
 {
-    char hint[256];
+    char hint[320], where[TP_ID_MAX + 48] = "";
+    if (node)
+        snprintf(where, sizeof where, ", largest error in node '%s'", node);
     snprintf(hint, sizeof hint,
-             "tighten run.tolerance (e.g. 1e-8), check for a tiny capacity%s%s%s, or a "
-             "link far stronger than the rest",
-             node ? " (node '" : "", node ? node : "", node ? "')" : "");
-    tp_diag_error(d, tp_loc_none(), NULL, hint, "integration failed at t = %.6g s: %s%s%s",
-                  t, what, msg && *msg ? " - " : "", msg ? msg : "");
+             "%s; check %s%s%s for a tiny capacity or a link far stronger than the rest",
+             rtol < TP_RTOL_TIGHT ? "run.tolerance is very tight: try 1e-6"
+                                  : "tighten run.tolerance (e.g. 1e-8)",
+             node ? "node '" : "the nodes", node ? node : "", node ? "'" : "");
+    tp_diag_error(d, tp_loc_none(), NULL, hint, "integration failed at t = %.6g s%s: %s%s%s", t,
+                  where, what, msg && *msg ? " - " : "", msg ? msg : "");
     return TP_ERR_SOLVER;
 }
 
@@ -276,13 +299,32 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
     r.net = net;
     r.o = o;
     r.hooks = o->hooks;
+    r.bad_node = -1;
     if (!(o->t_end > 0) || !(o->step > 0)) {
         tp_diag_error(d, tp_loc_none(), "run", "set run.duration and run.step above zero",
                       "nothing to integrate");
         return TP_ERR_CONFIG;
     }
-    r.n_out = (long)ceil(o->t_end / o->step - 1e-9) + 1;
+    /* Sizes are judged in double before any conversion or allocation: a step of 1e-300 s
+     * made (long)(t_end / step) undefined and the run silently empty. */
+    if (!(o->t_end / o->step + 1.0 <= TP_MAX_OUTPUT_ROWS) ||
+        !((o->t_end / o->step + 1.0) * (net->n_nodes + net->n_sources) <=
+          TP_MAX_OUTPUT_VALUES)) {
+        tp_diag_error(d, tp_loc_none(), "run.step",
+                      "raise run.step (the output interval) or shorten run.duration",
+                      "%.3g output rows of %d nodes exceed the limits of %.0f rows and %.0f "
+                      "values", o->t_end / o->step + 1.0, net->n_nodes, TP_MAX_OUTPUT_ROWS,
+                      TP_MAX_OUTPUT_VALUES);
+        return TP_ERR_LIMIT;
+    }
     period = net->has_control ? net->control.period : HUGE_VAL;
+    if (net->has_control && !(o->t_end / period <= TP_MAX_TICKS)) {
+        tp_diag_error(d, tp_loc_none(), "control.period", "raise control.period",
+                      "%.3g controller samples exceed the limit of %.0f", o->t_end / period,
+                      TP_MAX_TICKS);
+        return TP_ERR_LIMIT;
+    }
+    r.n_out = (long)ceil(o->t_end / o->step - 1e-9) + 1;
     r.temps = malloc((size_t)(net->n_nodes > 0 ? net->n_nodes : 1) * sizeof *r.temps);
     if (!r.temps)
         return TP_ERR_NOMEM;
@@ -360,8 +402,11 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
         flag = CVode(mem, o->t_end, y, &t, CV_ONE_STEP);
         if (flag < 0) {
             add_stats(mem, stats);
-            st = fail(d, CVodeGetReturnFlagName(flag), t, worst_node(mem, net, yi, tmp),
-                      dr.cv_msg);
+            /* SUNDIALS allocates the flag's name; the caller frees it. */
+            char *name = CVodeGetReturnFlagName(flag);
+            st = fail(d, name ? name : "CVode failed", t, worst_node(mem, net, yi, tmp),
+                      dr.cv_msg, o->rtol);
+            free(name);
             goto done;
         }
         /* A break (fault, disturbance) or a tick that changes a duty inside this step ends
@@ -371,13 +416,13 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
         while (k_tick * period <= t && k_tick * period < t_break) {
             double tk = (double)k_tick * period;
             if (CVodeGetDky(mem, tk, 0, yi) != CV_SUCCESS) {
-                st = fail(d, "interpolation", tk, NULL, dr.cv_msg);
+                st = fail(d, "interpolation", tk, NULL, dr.cv_msg, o->rtol);
                 goto done;
             }
             /* Outputs up to tk use the old duty. */
             while (r.next_out < r.n_out && out_time(&r, r.next_out) < tk) {
                 if (CVodeGetDky(mem, out_time(&r, r.next_out), 0, tmp) != CV_SUCCESS) {
-                    st = fail(d, "interpolation", t, NULL, dr.cv_msg);
+                    st = fail(d, "interpolation", t, NULL, dr.cv_msg, o->rtol);
                     goto done;
                 }
                 if (emit(&r, out_time(&r, r.next_out++), N_VGetArrayPointer(tmp)))
@@ -390,10 +435,21 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
                 restart = 1;
                 break;
             }
+            /* One long step may hold many ticks that change nothing; the wall clock is
+             * watched here too, or a tiny period would run on far past the limit. */
+            if (stats->ticks % TP_WALL_CHECK_TICKS == 0 && now_seconds() - wall0 > o->wall_time) {
+                tp_diag_error(d, tp_loc_none(), "run.wall_time",
+                              "raise run.wall_time, or control.period",
+                              "stopped at t = %.6g s: the wall-clock limit of %g s was reached",
+                              tk, o->wall_time);
+                add_stats(mem, stats);
+                st = TP_ERR_LIMIT;
+                goto done;
+            }
         }
         if (!restart && t_break <= t) {
             if (CVodeGetDky(mem, t_break, 0, yi) != CV_SUCCESS) {
-                st = fail(d, "interpolation", t_break, NULL, dr.cv_msg);
+                st = fail(d, "interpolation", t_break, NULL, dr.cv_msg, o->rtol);
                 goto done;
             }
             t_restart = t_break;
@@ -406,7 +462,7 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
             if (to == t) {
                 memcpy(N_VGetArrayPointer(tmp), N_VGetArrayPointer(y), (size_t)n * sizeof(double));
             } else if (CVodeGetDky(mem, to, 0, tmp) != CV_SUCCESS) {
-                st = fail(d, "interpolation", to, NULL, dr.cv_msg);
+                st = fail(d, "interpolation", to, NULL, dr.cv_msg, o->rtol);
                 goto done;
             }
             r.next_out++;
@@ -440,7 +496,7 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
                     CVodeSetStopTime(mem, o->t_end) != CV_SUCCESS ||
                     CVodeSetInitStep(mem, fmin(hlast, period) > 0 ? fmin(hlast, period) : 0.0) !=
                         CV_SUCCESS) {
-                    st = fail(d, "restart", t, NULL, dr.cv_msg);
+                    st = fail(d, "restart", t, NULL, dr.cv_msg, o->rtol);
                     goto done;
                 }
             }
@@ -476,6 +532,9 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
     }
     add_stats(mem, stats);
 done:
+    if (st == TP_OK && r.bad_node >= 0)
+        st = fail(d, "a temperature is not finite", r.bad_t, net->nodes[r.bad_node].id, NULL,
+                  o->rtol);
     stats->t_reached = t;
     stats->stopped = r.stop;
     if (mem)

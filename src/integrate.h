@@ -10,6 +10,8 @@
 
 #define TP_DENSE_MAX 12 /* free nodes up to which the dense LU is used; KLU above
                            (measured: docs/performance.md) */
+#define TP_MAX_OUTPUT_VALUES 5.0e7 /* output rows times (nodes + sources): bounds the history a
+                                      caller keeps (about 8 bytes each), values */
 
 /* What the driver reports at each output time. */
 typedef struct tp_sample {
@@ -68,8 +70,9 @@ typedef struct tp_integrate_stats {
 void tp_integrate_defaults(const tp_network *net, tp_integrate_opts *o);
 
 /* Integrate. On failure reports the time, the node with the largest error estimate and a hint
- * to `d`, and returns TP_ERR_SOLVER (TP_ERR_LIMIT for a step or wall-clock limit). The network's
- * duties are left as at the end of the run. */
+ * to `d`, and returns TP_ERR_SOLVER (TP_ERR_LIMIT for a step or wall-clock limit, or for more
+ * output rows or values than TP_MAX_OUTPUT_ROWS and TP_MAX_OUTPUT_VALUES, refused before
+ * anything is allocated). The network's duties are left as at the end of the run. */
 tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate_stats *stats,
                        tp_diag *d);
 

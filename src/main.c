@@ -1,5 +1,6 @@
 /* tepid: command-line entry. Finds the verb in the table, parses its options, runs it, and
  * maps its status to the exit code. */
+#include <signal.h>
 #include <stdio.h>
 #include <string.h>
 
@@ -85,7 +86,11 @@ static int run(int argc, char **argv)
 
 int main(int argc, char **argv)
 {
-    int code = run(argc, argv);
+    int code;
+    /* Past a file-size limit (ulimit -f) a write should fail with EFBIG, reported and cleaned
+     * up like a full disk, rather than kill the process with a temporary file left behind. */
+    signal(SIGXFSZ, SIG_IGN);
+    code = run(argc, argv);
     tp_materials_shutdown();
     tp_units_shutdown();
     return finish_stdout(code);

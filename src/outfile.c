@@ -10,6 +10,37 @@
 #include <fcntl.h>
 #include <stdlib.h>
 
+/* Where an output really goes. A symbolic link is followed to its target (renaming onto the
+ * link would replace the link by a file and leave its target stale); the result is `path`
+ * itself otherwise, or when the link dangles. Returns 0, or -1 when the result does not fit. */
+static int resolve_target(const char *path, char *out, size_t size)
+{
+    struct stat st;
+    if (lstat(path, &st) == 0 && S_ISLNK(st.st_mode)) {
+        char *real = realpath(path, NULL);
+        if (real) {
+            int fits = strlen(real) < size;
+            if (fits)
+                strcpy(out, real);
+            free(real);
+            return fits ? 0 : -1;
+        }
+    }
+    if (strlen(path) >= size)
+        return -1;
+    strcpy(out, path);
+    return 0;
+}
+
+/* Nonzero when `path` exists and is neither a regular file nor a directory: a terminal, a
+ * pipe, a device such as /dev/stdout or /dev/null. Those are written in place: a temporary
+ * file renamed onto them would replace the device node or FIFO by a plain file. */
+static int is_special(const char *path)
+{
+    struct stat st;
+    return stat(path, &st) == 0 && !S_ISREG(st.st_mode) && !S_ISDIR(st.st_mode);
+}
+
 static int make_tmp_name(const char *path, const char *suffix, char *tmp, size_t size)
 {
     const char *slash = strrchr(path, '/');
@@ -31,16 +62,33 @@ static const char *extension(const char *path)
 
 tp_status tp_outfile_reserve(const char *path, char *tmp, size_t tmp_size, tp_diag *d)
 {
+    char target[TP_PATH_MAX];
     const char *ext = extension(path);
-    int fd;
-    if (strlen(path) >= TP_PATH_MAX - 32 || !make_tmp_name(path, ext, tmp, tmp_size)) {
+    int fd, ok, special;
+    if (resolve_target(path, target, sizeof target) != 0 || strlen(target) >= TP_PATH_MAX - 32) {
+        tp_diag_error(d, tp_loc_none(), NULL, NULL, "output path too long: %s", path);
+        return TP_ERR_IO;
+    }
+    special = is_special(target);
+    if (special) {
+        /* A device or pipe takes no rename: the writer fills a temporary file in the working
+         * directory and tp_outfile_place copies it in. */
+        int n = snprintf(tmp, tmp_size, ".tepid-output.XXXXXX%s", ext);
+        ok = n > 0 && (size_t)n < tmp_size;
+    } else {
+        ok = make_tmp_name(target, ext, tmp, tmp_size);
+    }
+    if (!ok) {
         tp_diag_error(d, tp_loc_none(), NULL, NULL, "output path too long: %s", path);
         return TP_ERR_IO;
     }
     fd = mkstemps(tmp, (int)strlen(ext));
     if (fd < 0) {
-        tp_diag_error(d, tp_loc_none(), NULL, "check that the directory exists and is writable",
-                      "cannot create an output file beside %s: %s", path, strerror(errno));
+        tp_diag_error(d, tp_loc_none(), NULL,
+                      special ? "run tepid in a writable directory"
+                              : "check that the directory exists and is writable",
+                      "cannot create an output file beside %s: %s", special ? "." : target,
+                      strerror(errno));
         tmp[0] = '\0';
         return TP_ERR_IO;
     }
@@ -54,8 +102,35 @@ tp_status tp_outfile_reserve(const char *path, char *tmp, size_t tmp_size, tp_di
     return TP_OK;
 }
 
+/* Copy the finished temporary file into a special file (a pipe, a terminal, /dev/stdout). */
+static tp_status copy_into(const char *tmp, const char *path, tp_diag *d)
+{
+    FILE *in = fopen(tmp, "rb"), *out = in ? fopen(path, "wb") : NULL;
+    char buf[8192];
+    size_t n;
+    int bad = !in || !out;
+    while (!bad && (n = fread(buf, 1, sizeof buf, in)) > 0)
+        bad = fwrite(buf, 1, n, out) != n;
+    bad |= in && ferror(in);
+    if (in)
+        fclose(in);
+    if (out)
+        bad |= fclose(out) != 0;
+    unlink(tmp);
+    if (bad) {
+        tp_diag_error(d, tp_loc_none(), NULL, NULL, "cannot write %s: %s", path, strerror(errno));
+        return TP_ERR_IO;
+    }
+    return TP_OK;
+}
+
 tp_status tp_outfile_place(const char *tmp, const char *path, tp_diag *d)
 {
+    char target[TP_PATH_MAX];
+    if (resolve_target(path, target, sizeof target) == 0)
+        path = target;
+    if (is_special(path))
+        return copy_into(tmp, path, d);
     if (rename(tmp, path) != 0) {
         int e = errno;
         unlink(tmp);
@@ -77,6 +152,21 @@ tp_status tp_outfile_open(tp_outfile *o, const char *path, tp_diag *d)
         o->fp = stdout;
         return TP_OK;
     }
+    if (is_special(path)) {
+        /* Written in place, like standard output (o->tmp stays empty). */
+        o->fp = fopen(path, "w");
+        if (!o->fp) {
+            tp_diag_error(d, tp_loc_none(), NULL, NULL, "cannot write %s: %s", path,
+                          strerror(errno));
+            return TP_ERR_IO;
+        }
+        return TP_OK;
+    }
+    if (resolve_target(path, o->path, sizeof o->path) != 0) {
+        tp_diag_error(d, tp_loc_none(), NULL, NULL, "output path too long: %s", path);
+        return TP_ERR_IO;
+    }
+    path = o->path;
     if (tp_outfile_reserve(path, o->tmp, sizeof o->tmp, d) != TP_OK)
         return TP_ERR_IO;
     o->fp = fopen(o->tmp, "w");
@@ -103,15 +193,23 @@ tp_status tp_outfile_commit(tp_outfile *o, tp_diag *d)
         }
         return TP_OK;
     }
+    errno = 0;
     bad = fflush(o->fp) != 0 || ferror(o->fp);
     bad |= fclose(o->fp) != 0;
     o->fp = NULL;
     if (bad) {
-        tp_diag_error(d, tp_loc_none(), NULL, "check free disk space", "cannot write %s", o->path);
-        unlink(o->tmp);
+        /* errno is that of the failed flush or close when they failed (an earlier failed
+         * write alone leaves it 0 here). */
+        int e = errno;
+        tp_diag_error(d, tp_loc_none(), NULL, "check free disk space", "cannot write %s%s%s",
+                      o->path, e ? ": " : "", e ? strerror(e) : "");
+        if (o->tmp[0])
+            unlink(o->tmp);
         o->tmp[0] = '\0';
         return TP_ERR_IO;
     }
+    if (!o->tmp[0])
+        return TP_OK; /* a special file, written in place */
     if (tp_outfile_place(o->tmp, o->path, d) != TP_OK) {
         o->tmp[0] = '\0';
         return TP_ERR_IO;

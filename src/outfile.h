@@ -16,8 +16,10 @@ typedef struct tp_outfile {
     FILE *fp;               /* the stream to write to */
 } tp_outfile;
 
-/* Open `path` for writing through a temporary file in the same directory. On failure nothing
- * is left on disk and an error naming the path is reported to `d`. */
+/* Open `path` for writing through a temporary file in the same directory. A symbolic link is
+ * followed (the temporary file goes beside its target, the link stays); an existing FIFO,
+ * terminal or device (/dev/stdout) is written in place, like "-". On failure nothing is left
+ * on disk and an error naming the path is reported to `d`. */
 tp_status tp_outfile_open(tp_outfile *o, const char *path, tp_diag *d);
 
 /* Finish: flush, close and rename the temporary file onto the target. On failure the temporary
@@ -27,11 +29,13 @@ tp_status tp_outfile_commit(tp_outfile *o, tp_diag *d);
 /* Abandon: close and remove the temporary file; the target is untouched. Safe to call twice. */
 void tp_outfile_abort(tp_outfile *o);
 
-/* Reserve a temporary file name beside `path` for writers that open files by name (PLplot).
+/* Reserve a temporary file name beside `path` (beside a symbolic link's target; in the working
+ * directory when `path` is a FIFO or device) for writers that open files by name (PLplot).
  * The empty file is created; the caller later calls tp_outfile_place or removes it. */
 tp_status tp_outfile_reserve(const char *path, char *tmp, size_t tmp_size, tp_diag *d);
 
-/* Rename a reserved temporary file onto `path`; on failure remove it and report. */
+/* Rename a reserved temporary file onto `path` (a symbolic link's target), or copy it into a
+ * FIFO or device and remove it; on failure remove it and report. */
 tp_status tp_outfile_place(const char *tmp, const char *path, tp_diag *d);
 
 /* Nonzero when `a` and `b` name the same existing file (same device and inode). */

@@ -10,12 +10,18 @@
 
 static tp_status open_with(tp_session *s, const tp_cli *cli, const char *room, tp_diag *d)
 {
-    const char *sets[TP_MAX_SETS + 1];
-    int n_sets = tp_cli_all(cli, "set", sets, TP_MAX_SETS), i;
+    const char *sets[TP_MAX_SETS + 2]; /* one more to notice too many, one for --room */
+    int n_sets = tp_cli_all(cli, "set", sets, TP_MAX_SETS + 1), i;
     char room_set[160];
     tp_status st;
     memset(s, 0, sizeof *s);
     s->cli = cli;
+    /* More overrides than the table holds were once dropped without a word. */
+    if (n_sets > TP_MAX_SETS) {
+        tp_diag_error(d, tp_loc_none(), NULL, "put the values in the file instead",
+                      "more than %d --set options", TP_MAX_SETS);
+        return TP_ERR_USAGE;
+    }
     s->text = tp_cli_text_stream(cli);
     st = tp_doc_load_file(cli->file, &s->doc, d);
     if (st != TP_OK)

@@ -325,10 +325,13 @@ static tp_status solve(sys *s, double *x, long *iters, tp_diag *d)
     flag = KINSol(kin, u, KIN_LINESEARCH, us, fs);
     KINGetNumNonlinSolvIters(kin, iters);
     if (flag < 0) {
+        /* SUNDIALS allocates the flag's name; the caller frees it. */
+        char *name = KINGetReturnFlagName(flag);
         tp_diag_error(d, tp_loc_none(), NULL,
                       "check for nodes coupled only by very weak or very strong links",
-                      "the steady-state solver failed (%s)%s%s", KINGetReturnFlagName(flag),
+                      "the steady-state solver failed (%s)%s%s", name ? name : "KINSOL failed",
                       s->msg[0] ? ": " : "", s->msg);
+        free(name);
         st = TP_ERR_SOLVER;
         goto done;
     }
@@ -357,7 +360,9 @@ done:
     return st;
 }
 
-static tp_status finish(tp_network *net, sys *s, const double *x, tp_steady *out)
+/* Fill `out` from the solution x. A solution with a temperature that is not finite (or not
+ * above absolute zero) is refused, so no NaN reaches a report or an output file. */
+static tp_status finish(tp_network *net, sys *s, const double *x, tp_steady *out, tp_diag *d)
 {
     int i;
     out->temps = malloc((size_t)net->n_nodes * sizeof *out->temps);
@@ -365,6 +370,14 @@ static tp_status finish(tp_network *net, sys *s, const double *x, tp_steady *out
         return TP_ERR_NOMEM;
     load(s, x);
     tp_network_temperatures(net, s->y, out->temps);
+    for (i = 0; i < net->n_nodes; i++)
+        if (!isfinite(out->temps[i]) || !(out->temps[i] > 0.0)) {
+            tp_diag_error(d, tp_loc_none(), NULL,
+                          "check for nodes coupled only by very weak or very strong links",
+                          "the steady-state solver returned an impossible temperature for "
+                          "node '%s'", net->nodes[i].id);
+            return TP_ERR_SOLVER;
+        }
     out->power = 0.0;
     out->wire = 0.0;
     for (i = 0; i < net->n_sources; i++) {
@@ -423,7 +436,7 @@ tp_status tp_steady_full(tp_network *net, double duty_scale, tp_steady *out, tp_
         x[i] = net->nodes[net->free_nodes[i]].t0;
     st = solve(&s, x, &out->iterations, d);
     if (st == TP_OK)
-        st = finish(net, &s, x, out);
+        st = finish(net, &s, x, out, d);
     for (i = 0; i < net->n_sources; i++)
         net->duty[i] = saved[i];
     free(x);
@@ -487,7 +500,7 @@ tp_status tp_steady_hold_at(tp_network *net, double target, tp_steady *out, tp_d
         double saved = net->duty[s.src];
         st = solve(&s, x, &out->iterations, d);
         if (st == TP_OK)
-            st = finish(net, &s, x, out);
+            st = finish(net, &s, x, out, d);
         net->duty[s.src] = saved;
     }
     net->control.setpoint = saved_sp;
