@@ -227,7 +227,7 @@ static tp_status parse_one(char *item, const tp_desc *desc, tp_fit_param *q, tp_
     }
     q->start = start;
     q->value = start;
-    q->se = q->se_scaled = NAN;
+    q->se = q->se_scaled = (double)NAN;
     return TP_OK;
 }
 
@@ -498,7 +498,7 @@ static tp_status evaluator_init(evaluator *ev, const tp_fit_problem *pb, tp_diag
 
     memset(ev, 0, sizeof *ev);
     ev->pb = pb;
-    ev->surface_max = ev->current_max = NAN;
+    ev->surface_max = ev->current_max = (double)NAN;
     if (log->n < 2) {
         tp_diag_error(d, (tp_loc){log->name, 0, 0}, NULL, NULL, "the log has too few rows");
         return TP_ERR_CONFIG;
@@ -838,7 +838,7 @@ static tp_status statistics(lmctx *c, const double *ubest, const double *f0, tp_
     }
     for (i = 0; i < p; i++)
         for (j = 0; j < p; j++) {
-            double cij = NAN;
+            double cij = (double)NAN;
             if (i == j)
                 cij = lost[i] ? (double)NAN : 1.0;
             else if (!lost[i] && !lost[j])

@@ -924,7 +924,7 @@ double tp_log_drive_at(const tp_log *log, double t)
 {
     long lo = 0, hi;
     if (!log->drive || log->n == 0)
-        return NAN;
+        return (double)NAN;
     hi = log->n - 1;
     if (t >= log->t[hi])
         return log->drive[hi];

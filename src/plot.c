@@ -843,7 +843,7 @@ static size_t series_range(const tp_plot_series *s, double *xlo, double *xhi, do
 static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c, const char *path,
                                   tp_diag *d)
 {
-    double xlo = INFINITY, xhi = -INFINITY, page_w, page_h, top, bottom, gap, avail, share = 0.0;
+    double xlo = HUGE_VAL, xhi = -HUGE_VAL, page_w, page_h, top, bottom, gap, avail, share = 0.0;
     double left, right, ytop;
     size_t i, j, first = 0;
     int lchars = 1, rchars = 1, any_right = 0;
@@ -871,7 +871,7 @@ static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c, const 
     for (i = 0; i < c->n_panels; i++) {
         const tp_plot_panel *p = &c->panels[i];
         panel_plan *pp = &cp->panels[i];
-        double ylo = INFINITY, yhi = -INFINITY, rlo = INFINITY, rhi = -INFINITY;
+        double ylo = HUGE_VAL, yhi = -HUGE_VAL, rlo = HUGE_VAL, rhi = -HUGE_VAL;
         size_t finite = 0, skipped = 0;
         pp->p = p;
         pp->first = first;

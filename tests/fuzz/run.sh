@@ -6,7 +6,7 @@ set -euo pipefail
 src="$(cd "$(dirname "$0")/../.." && pwd)"
 build="$(cd "${1:?usage: tests/fuzz/run.sh BUILD_DIR [SECONDS]}" && pwd)"
 secs="${2:-60}"
-targets="config units" # add "log" with fuzz_log.c (tepid fit's CSV logs)
+targets="config units log"
 
 export ASAN_OPTIONS="${ASAN_OPTIONS:-detect_leaks=1}"
 export LSAN_OPTIONS="suppressions=$src/tests/lsan.supp"
@@ -33,6 +33,12 @@ for t in $targets; do
         n=$((n + 1))
         printf '%s' "$line" > "$seeds/q$n"
       done < "$src/tests/fuzz/units.seeds" ;;
+    log)
+      # The demo log and the catalogue's logs.
+      cp "$src"/configs/*.csv "$seeds"/
+      for f in "$src"/tests/bad/inputs/*.csv; do
+        [ -e "$f" ] && cp "$f" "$seeds"/
+      done ;;
   esac
   echo "== fuzz_$t for ${secs} s"
   set +e
