@@ -1197,8 +1197,8 @@ static tp_status map_plan_build(map_plan *mp, const tp_plot_map *m, const char *
     if (st != TP_OK)
         return st;
 
-    mp->zlo = INFINITY;
-    mp->zhi = -INFINITY;
+    mp->zlo = HUGE_VAL;
+    mp->zhi = -HUGE_VAL;
     for (i = 0; i < m->nx * m->ny; i++) {
         if (isfinite(m->z[i])) {
             mp->zlo = fmin(mp->zlo, m->z[i]);
