@@ -6,6 +6,8 @@
 #
 #   tests/bench/bench_five_node.sh [CONFIG]     (after cmake --build build)
 #   RUNS=200 TEPID=build/tepid tests/bench/bench_five_node.sh
+#   TARGET_MS= tests/bench/bench_five_node.sh configs/workshop-bed-24v.yaml   (any warmup config;
+#                                                     an empty TARGET_MS drops the target check)
 #
 # Timing: hyperfine when installed (no shell, warm-up runs), else a loop timed with bash's
 # $EPOCHREALTIME (no fork per sample). The process is pinned to one core with taskset when
@@ -17,7 +19,7 @@ root=$(cd "$here/../.." && pwd)
 exe=${TEPID:-$root/build/tepid}
 cfg=${1:-$root/configs/raw-five-node.yaml}
 runs=${RUNS:-100}
-target_ms=20
+target_ms=${TARGET_MS-20}
 
 if [ ! -x "$exe" ]; then
   echo "bench: no binary at $exe; build first (cmake -S . -B build && cmake --build build)" >&2
@@ -65,7 +67,11 @@ min=$(head -n 1 "$times_file")
 max=$(tail -n 1 "$times_file")
 
 echo "tepid warmup $(basename "$cfg") -q: $n runs ($tool${pin:+, pinned to CPU 0})"
-printf '  wall time, whole process: median %s ms (min %.2f, max %.2f); target < %d ms: %s\n' \
-  "$median" "$min" "$max" "$target_ms" \
-  "$(awk -v m="$median" -v t="$target_ms" 'BEGIN { print (m < t) ? "met" : "NOT met" }')"
+if [ -n "$target_ms" ]; then
+  printf '  wall time, whole process: median %s ms (min %.2f, max %.2f); target < %d ms: %s\n' \
+    "$median" "$min" "$max" "$target_ms" \
+    "$(awk -v m="$median" -v t="$target_ms" 'BEGIN { print (m < t) ? "met" : "NOT met" }')"
+else
+  printf '  wall time, whole process: median %s ms (min %.2f, max %.2f)\n' "$median" "$min" "$max"
+fi
 echo "  CVODE: $steps steps, $rhs right-hand sides, $jac Jacobians, $restarts restarts"
