@@ -65,6 +65,7 @@ void tp_network_destroy(tp_network **net)
         free(n->sources[i].weights);
     }
     free(n->nodes);
+    free(n->id_index);
     free(n->links);
     free(n->sources);
     free(n->free_nodes);
@@ -78,6 +79,42 @@ void tp_network_destroy(tp_network **net)
     free(n->src_work);
     free(n);
     *net = NULL;
+}
+
+/* FNV-1a over an id: the hash of the node-id index (Fowler, Noll and Vo; common practice). */
+static unsigned long id_hash(const char *id)
+{
+    unsigned long h = 2166136261UL;
+    for (; *id; id++)
+        h = (h ^ (unsigned char)*id) * 16777619UL;
+    return h;
+}
+
+static void index_put(int *slots, int n_slots, const char *id, int node)
+{
+    unsigned long i = id_hash(id) & (unsigned long)(n_slots - 1);
+    while (slots[i])
+        i = (i + 1) & (unsigned long)(n_slots - 1);
+    slots[i] = node + 1;
+}
+
+/* Keep the id index at most half full; rebuilt when it grows, so lookups stay O(1) and
+ * assembling a large raw network stays linear in its size. */
+static int index_node(tp_network *net, int node)
+{
+    if (2 * (net->n_nodes + 1) > net->id_slots) {
+        int n_slots = net->id_slots ? net->id_slots * 2 : 64, i;
+        int *slots = calloc((size_t)n_slots, sizeof *slots);
+        if (!slots)
+            return -1;
+        for (i = 0; i < node; i++)
+            index_put(slots, n_slots, net->nodes[i].id, i);
+        free(net->id_index);
+        net->id_index = slots;
+        net->id_slots = n_slots;
+    }
+    index_put(net->id_index, net->id_slots, net->nodes[node].id, node);
+    return 0;
 }
 
 int tp_network_add_node(tp_network *net, const char *id, double capacity, double t0)
@@ -97,6 +134,8 @@ int tp_network_add_node(tp_network *net, const char *id, double capacity, double
     node->t0 = t0;
     node->state = -1;
     node->output = capacity > 0;
+    if (index_node(net, n) != 0)
+        return -1;
     net->n_nodes++;
     return n;
 }
@@ -180,10 +219,16 @@ tp_status tp_network_spread_source(tp_network *net, tp_net_source *src, const in
 
 int tp_network_find_node(const tp_network *net, const char *id)
 {
-    int i;
-    for (i = 0; i < net->n_nodes; i++)
-        if (strcmp(net->nodes[i].id, id) == 0)
-            return i;
+    unsigned long i;
+    if (!net->id_slots)
+        return -1;
+    /* The first node added with an id wins, as the linear search it replaces did. */
+    for (i = id_hash(id) & (unsigned long)(net->id_slots - 1); net->id_index[i];
+         i = (i + 1) & (unsigned long)(net->id_slots - 1)) {
+        int k = net->id_index[i] - 1;
+        if (strcmp(net->nodes[k].id, id) == 0)
+            return k;
+    }
     return -1;
 }
 

@@ -79,6 +79,8 @@ typedef struct tp_net_source {
 typedef struct tp_network {
     tp_net_node *nodes;
     int n_nodes;
+    int *id_index;      /* open-addressing hash of node ids: node index + 1, 0 empty */
+    int id_slots;       /* its size, a power of two kept above twice n_nodes */
     tp_net_link *links;
     int n_links;
     tp_net_source *sources;
