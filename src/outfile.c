@@ -41,12 +41,17 @@ static int is_special(const char *path)
     return stat(path, &st) == 0 && !S_ISREG(st.st_mode) && !S_ISDIR(st.st_mode);
 }
 
+/* mkstemps replaces the six characters before the suffix with a unique name. */
+#define TP_TMP_UNIQUE "%.6s"
+static const char tmp_unique[] = {'X', 'X', 'X', 'X', 'X', 'X', '\0'};
+
 static int make_tmp_name(const char *path, const char *suffix, char *tmp, size_t size)
 {
     const char *slash = strrchr(path, '/');
     const char *base = slash ? slash + 1 : path;
     int dirlen = slash ? (int)(slash - path + 1) : 0;
-    int n = snprintf(tmp, size, "%.*s.%s.XXXXXX%s", dirlen, path, base, suffix);
+    int n = snprintf(tmp, size, "%.*s.%s." TP_TMP_UNIQUE "%s", dirlen, path, base, tmp_unique,
+                     suffix);
     return n > 0 && (size_t)n < size;
 }
 
@@ -73,7 +78,7 @@ tp_status tp_outfile_reserve(const char *path, char *tmp, size_t tmp_size, tp_di
     if (special) {
         /* A device or pipe takes no rename: the writer fills a temporary file in the working
          * directory and tp_outfile_place copies it in. */
-        int n = snprintf(tmp, tmp_size, ".tepid-output.XXXXXX%s", ext);
+        int n = snprintf(tmp, tmp_size, ".tepid-output." TP_TMP_UNIQUE "%s", tmp_unique, ext);
         ok = n > 0 && (size_t)n < tmp_size;
     } else {
         ok = make_tmp_name(target, ext, tmp, tmp_size);

@@ -1,7 +1,9 @@
 /* The bad-input catalogue: every case in tests/bad/ (format in tests/bad/README.md) runs the
  * tepid binary in a fresh directory with a time limit, and must end with the expected exit
  * status and message fragments, without a signal, a sanitizer report, a hang, or a file left
- * behind. One cmocka test per case, named after its file. */
+ * behind. One cmocka test per case, named after its file. The expected positions and messages
+ * are written in each case file, worked out from the case's own text (source: the case file,
+ * by hand), never copied from tepid's output. */
 #include <stdarg.h>
 #include <stddef.h>
 #include <stdint.h>

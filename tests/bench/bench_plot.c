@@ -1,6 +1,7 @@
 /* Benchmark figure: wall time against unknowns on log-log axes, one line per series, drawn with
  * tepid's own plot module from the long-format CSV tests/bench/run.sh writes
- * (series,unknowns,seconds). Built by CMake as bench_plot (not a test).
+ * (series,unknowns,seconds). Built by CMake as bench_plot (not a test; it checks no values, the
+ * figures' source is the measured results file).
  *
  *   bench_plot OUT.png|svg|pdf SCALING.csv [TITLE] */
 #include <errno.h>
