@@ -95,7 +95,7 @@ static void summary(FILE *fp, const tp_session *s, const answer *a)
     const tp_network *net = s->net;
     const tp_steady *shown = a->holding ? &a->hold : &a->limit;
     double total = plate_loss_total(&a->flows), surf = surface_or_nan(net, shown->temps);
-    tp_exposure ex = {TP_UNSET, TP_UNSET, TP_UNSET, NULL};
+    tp_exposure ex = {TP_UNSET, TP_UNSET, TP_UNSET, NULL, NULL};
     int p, i;
     fprintf(fp, "tepid steady %s%s%s\n  ", s->cli->file, s->desc.title[0] ? ": " : "",
             s->desc.title);

@@ -14,6 +14,7 @@
 #define TP_MAX_RAW_NODES 100000 /* nodes in a raw network */
 #define TP_MAX_RAW_LINKS 400000 /* links in a raw network */
 #define TP_MAX_MATERIALS 256    /* materials defined in one file */
+#define TP_GRID_SIDE_MAX 500    /* cells along one side of bed.grid */
 
 /* Read the description from a parsed document. Every problem is reported to `d`; on error
  * returns TP_ERR_CONFIG and *desc is cleared (nothing to free). Defaults are applied. */

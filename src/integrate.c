@@ -10,16 +10,21 @@
  * the network's analytic Jacobian. */
 #include "integrate.h"
 
+#include "multigrid.h"
+
 #include <math.h>
 #include <stdio.h>
 #include <string.h>
 #include <time.h>
+
+#include <klu.h>
 
 #include <cvode/cvode.h>
 #include <nvector/nvector_serial.h>
 #include <sundials/sundials_context.h>
 #include <sunlinsol/sunlinsol_dense.h>
 #include <sunlinsol/sunlinsol_klu.h>
+#include <sunlinsol/sunlinsol_spgmr.h>
 #include <sunmatrix/sunmatrix_dense.h>
 #include <sunmatrix/sunmatrix_sparse.h>
 
@@ -29,15 +34,175 @@
 #define TP_JAC_REUSE_DT 0.5   /* K: a Jacobian is reused while no temperature moved more */
 #define TP_JAC_REUSE_DUTY 0.1 /* -, and no duty moved more (duty enters only via tempco) */
 
+/* ---- a KLU solver that keeps its factorization across restarts (gridded networks) --------
+ *
+ * SUNDIALS's KLU module forgets its symbolic analysis whenever CVODE initialises the linear
+ * solver, which CVodeReInit makes it do at every controller restart. The pattern of M = I -
+ * gamma J never changes, so this solver analyses it once. After a restart CVODE rebuilds M from
+ * the same (cached) Jacobian and the same gamma whenever the step size is the same, so the
+ * numeric factorization is skipped when M is bitwise identical to the matrix last factored:
+ * never when any value changed, so every solve is exact for the matrix CVODE passes. */
+
+typedef struct kluwrap {
+    klu_l_common common;
+    klu_l_symbolic *sym;
+    klu_l_numeric *num;
+    double *last;       /* values of the matrix last factored */
+    sunindextype nnz;
+    long factors, refactors, skips;
+    int last_flag;
+} kluwrap;
+
+#define TP_KLU_RCOND_MIN 1.0e-11 /* -, below this estimate a refactorization re-pivots
+                                    (SUNDIALS uses uround^(2/3), about 3.7e-11) */
+
+static kluwrap *kw_of(SUNLinearSolver S)
+{
+    return S->content;
+}
+
+static SUNLinearSolver_Type kw_type(SUNLinearSolver S)
+{
+    (void)S;
+    return SUNLINEARSOLVER_DIRECT;
+}
+
+static SUNLinearSolver_ID kw_id(SUNLinearSolver S)
+{
+    (void)S;
+    return SUNLINEARSOLVER_CUSTOM;
+}
+
+static int kw_initialize(SUNLinearSolver S)
+{
+    kw_of(S)->last_flag = SUNLS_SUCCESS;
+    return SUNLS_SUCCESS;
+}
+
+static int kw_setup(SUNLinearSolver S, SUNMatrix A)
+{
+    kluwrap *k = kw_of(S);
+    sunindextype n = SUNSparseMatrix_Columns(A), nnz = SUNSparseMatrix_NNZ(A);
+    SuiteSparse_long *ptr = (SuiteSparse_long *)SUNSparseMatrix_IndexPointers(A);
+    SuiteSparse_long *ind = (SuiteSparse_long *)SUNSparseMatrix_IndexValues(A);
+    double *val = SUNSparseMatrix_Data(A);
+    nnz = ptr[n];
+    if (k->num && nnz == k->nnz && memcmp(val, k->last, (size_t)nnz * sizeof *val) == 0) {
+        k->skips++;
+        return k->last_flag = SUNLS_SUCCESS;
+    }
+    if (!k->sym) {
+        k->sym = klu_l_analyze((SuiteSparse_long)n, ptr, ind, &k->common);
+        if (!k->sym)
+            return k->last_flag = SUNLS_PACKAGE_FAIL_UNREC;
+    }
+    if (k->num && klu_l_refactor(ptr, ind, val, k->sym, k->num, &k->common) &&
+        klu_l_rcond(k->sym, k->num, &k->common) && k->common.rcond >= TP_KLU_RCOND_MIN) {
+        k->refactors++;
+    } else {
+        if (k->num)
+            klu_l_free_numeric(&k->num, &k->common);
+        k->num = klu_l_factor(ptr, ind, val, k->sym, &k->common);
+        if (!k->num)
+            return k->last_flag = SUNLS_PACKAGE_FAIL_REC;
+        k->factors++;
+    }
+    if (nnz != k->nnz) {
+        double *p = realloc(k->last, (size_t)nnz * sizeof *p);
+        if (!p)
+            return k->last_flag = SUNLS_MEM_FAIL;
+        k->last = p;
+        k->nnz = nnz;
+    }
+    memcpy(k->last, val, (size_t)nnz * sizeof *val);
+    return k->last_flag = SUNLS_SUCCESS;
+}
+
+static int kw_solve(SUNLinearSolver S, SUNMatrix A, N_Vector x, N_Vector b, realtype tol)
+{
+    kluwrap *k = kw_of(S);
+    (void)tol;
+    N_VScale(1.0, b, x);
+    if (!klu_l_solve(k->sym, k->num, SUNSparseMatrix_Columns(A), 1, N_VGetArrayPointer(x),
+                     &k->common))
+        return k->last_flag = SUNLS_PACKAGE_FAIL_REC;
+    return k->last_flag = SUNLS_SUCCESS;
+}
+
+static sunindextype kw_lastflag(SUNLinearSolver S)
+{
+    return kw_of(S)->last_flag;
+}
+
+static int kw_free(SUNLinearSolver S)
+{
+    kluwrap *k;
+    if (!S)
+        return SUNLS_SUCCESS;
+    k = kw_of(S);
+    if (k) {
+        if (k->num)
+            klu_l_free_numeric(&k->num, &k->common);
+        if (k->sym)
+            klu_l_free_symbolic(&k->sym, &k->common);
+        free(k->last);
+        free(k);
+    }
+    S->content = NULL;
+    SUNLinSolFreeEmpty(S);
+    return SUNLS_SUCCESS;
+}
+
+static SUNLinearSolver kluwrap_create(SUNContext ctx)
+{
+    SUNLinearSolver S = SUNLinSolNewEmpty(ctx);
+    kluwrap *k = calloc(1, sizeof *k);
+    if (!S || !k) {
+        free(k);
+        if (S)
+            SUNLinSolFreeEmpty(S);
+        return NULL;
+    }
+    klu_l_defaults(&k->common);
+    k->common.ordering = 0; /* AMD: less fill than COLAMD on plate grids (docs/grid.md) */
+    S->content = k;
+    S->ops->gettype = kw_type;
+    S->ops->getid = kw_id;
+    S->ops->initialize = kw_initialize;
+    S->ops->setup = kw_setup;
+    S->ops->solve = kw_solve;
+    S->ops->lastflag = kw_lastflag;
+    S->ops->free = kw_free;
+    return S;
+}
+
+/* The multigrid preconditioner of the iterative path (large gridded networks): M = I - gamma J
+ * is solved by GMRES (SPGMR) with products by the cached Jacobian, preconditioned by one V-cycle
+ * of tp_mg on C M (capacities times M: the network's own symmetric form) for the temperatures,
+ * then exactly for the energy totals (their rows only read temperatures). */
+typedef struct precond {
+    tp_mg *mg;
+    int *map;       /* network pattern slot -> slot of the hierarchy's fine matrix, -1 */
+    double *a;      /* fine values C (I - gamma J) */
+    double *b;      /* n_free work */
+    double gamma;   /* of the hierarchy's values */
+    long jversion;  /* and of the Jacobian they came from */
+    int valid;
+    long setups;
+} precond;
+
 typedef struct driver {
     tp_network *net;
     SUNMatrix jac;
     int sparse;
+    int iterative;  /* GMRES with the multigrid preconditioner */
     double *jvals;  /* pattern-ordered Jacobian values */
     double *jy;     /* the state the values were computed at */
     double *jduty;  /* and the duties */
     int jvalid;
     long jreused;
+    long jversion;  /* counts evaluations of jvals */
+    precond pc;
     char cv_msg[512];
 } driver;
 
@@ -76,6 +241,96 @@ static int jac_values(driver *dr, const double *y)
     memcpy(dr->jy, y, (size_t)net->n_free * sizeof *y);
     memcpy(dr->jduty, net->duty, (size_t)net->n_sources * sizeof *net->duty);
     dr->jvalid = 1;
+    dr->jversion++;
+    return 0;
+}
+
+/* ---- the iterative path -------------------------------------------------------------------- */
+
+static int psetup_cb(realtype t, N_Vector y, N_Vector fy, booleantype jok, booleantype *jcur,
+                     realtype gamma, void *user)
+{
+    driver *dr = user;
+    const tp_network *net = dr->net;
+    precond *pc = &dr->pc;
+    int c, k, rc;
+    (void)t;
+    (void)fy;
+    if (!jok || !dr->jvalid) {
+        rc = jac_values(dr, N_VGetArrayPointer(y));
+        if (rc != 0)
+            return rc;
+        *jcur = SUNTRUE;
+    } else {
+        *jcur = SUNFALSE;
+    }
+    if (pc->valid && pc->gamma == gamma && pc->jversion == dr->jversion)
+        return 0;
+    for (c = 0; c < net->n_free; c++)
+        for (k = net->colptr[c]; k < net->colptr[c + 1]; k++) {
+            int r = net->rowind[k];
+            if (pc->map[k] >= 0)
+                pc->a[pc->map[k]] = net->nodes[net->free_nodes[r]].capacity *
+                                    ((r == c ? 1.0 : 0.0) - gamma * dr->jvals[k]);
+        }
+    pc->valid = 0;
+    if (tp_mg_setup(pc->mg, pc->a) != TP_OK)
+        return 1; /* recoverable: CVODE retries with a smaller step */
+    pc->gamma = gamma;
+    pc->jversion = dr->jversion;
+    pc->valid = 1;
+    pc->setups++;
+    return 0;
+}
+
+static int psolve_cb(realtype t, N_Vector y, N_Vector fy, N_Vector r, N_Vector z,
+                     realtype gamma, realtype delta, int lr, void *user)
+{
+    driver *dr = user;
+    const tp_network *net = dr->net;
+    precond *pc = &dr->pc;
+    const double *rr = N_VGetArrayPointer(r);
+    double *zz = N_VGetArrayPointer(z);
+    int nf = net->n_free, n = tp_network_state_size(net), c, k;
+    (void)t;
+    (void)y;
+    (void)fy;
+    (void)delta;
+    (void)lr;
+    for (c = 0; c < nf; c++)
+        pc->b[c] = net->nodes[net->free_nodes[c]].capacity * rr[c];
+    tp_mg_vcycle(pc->mg, pc->b, zz);
+    for (c = nf; c < n; c++)
+        zz[c] = rr[c];
+    for (c = 0; c < nf; c++)
+        for (k = net->colptr[c]; k < net->colptr[c + 1]; k++)
+            if (net->rowind[k] >= nf)
+                zz[net->rowind[k]] += gamma * dr->jvals[k] * zz[c];
+    return 0;
+}
+
+/* J v with the cached Jacobian (the one the preconditioner was built from). */
+static int jtimes_cb(N_Vector v, N_Vector jv, realtype t, N_Vector y, N_Vector fy, void *user,
+                     N_Vector tmp)
+{
+    driver *dr = user;
+    const tp_network *net = dr->net;
+    const double *vv = N_VGetArrayPointer(v);
+    double *out = N_VGetArrayPointer(jv);
+    int n = tp_network_state_size(net), c, k;
+    (void)t;
+    (void)fy;
+    (void)tmp;
+    if (!dr->jvalid && jac_values(dr, N_VGetArrayPointer(y)) != 0)
+        return 1;
+    memset(out, 0, (size_t)n * sizeof *out);
+    for (c = 0; c < n; c++) {
+        double x = vv[c];
+        if (x == 0.0)
+            continue;
+        for (k = net->colptr[c]; k < net->colptr[c + 1]; k++)
+            out[net->rowind[k]] += dr->jvals[k] * x;
+    }
     return 0;
 }
 
@@ -159,6 +414,10 @@ static void add_stats(void *mem, tp_integrate_stats *st)
         st->error_test_fails += v;
     if (CVodeGetNumNonlinSolvConvFails(mem, &v) == CV_SUCCESS)
         st->nonlin_fails += v;
+    if (CVodeGetNumNonlinSolvIters(mem, &v) == CV_SUCCESS)
+        st->newton_iters += v;
+    if (CVodeGetNumLinIters(mem, &v) == CV_SUCCESS)
+        st->lin_iters += v;
 }
 
 /* The free node with the largest weighted local error estimate, for failure messages. */
@@ -314,6 +573,7 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
     while (r.hooks && next_break < r.hooks->n_breaks && r.hooks->breaks[next_break] <= 0.0)
         r.hooks->at_break(r.hooks->user, r.hooks->breaks[next_break++], net,
                           N_VGetArrayPointer(y));
+    tp_network_refresh(net);
     tick(&r, 0.0, N_VGetArrayPointer(y));
     stats->ticks = net->has_control ? 1 : 0;
     if (emit(&r, 0.0, N_VGetArrayPointer(y)))
@@ -331,7 +591,9 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
         goto done;
     }
     dr.sparse = net->n_free > TP_DENSE_MAX;
+    dr.iterative = net->grid && net->n_free > TP_ITERATIVE_MIN;
     stats->sparse = dr.sparse;
+    stats->iterative = dr.iterative;
     dr.jvals = malloc((size_t)(net->nnz > 0 ? net->nnz : 1) * sizeof *dr.jvals);
     dr.jy = malloc((size_t)(net->n_free > 0 ? net->n_free : 1) * sizeof *dr.jy);
     dr.jduty = malloc((size_t)(net->n_sources > 0 ? net->n_sources : 1) * sizeof *dr.jduty);
@@ -339,15 +601,32 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
         st = TP_ERR_NOMEM;
         goto done;
     }
-    if (dr.sparse) {
+    if (dr.iterative) {
+        dr.pc.map = malloc((size_t)(net->nnz > 0 ? net->nnz : 1) * sizeof *dr.pc.map);
+        dr.pc.b = malloc((size_t)net->n_free * sizeof *dr.pc.b);
+        dr.pc.a = malloc((size_t)(net->nnz > 0 ? net->nnz : 1) * sizeof *dr.pc.a);
+        dr.pc.mg = dr.pc.map ? tp_mg_for_network(net, dr.pc.map) : NULL;
+        ls = dr.pc.mg && dr.pc.b && dr.pc.a ? SUNLinSol_SPGMR(y, SUN_PREC_RIGHT, TP_KRYLOV_MAX,
+                                                              ctx)
+                                            : NULL;
+        if (!ls || CVodeSetLinearSolver(mem, ls, NULL) != CV_SUCCESS ||
+            CVodeSetPreconditioner(mem, psetup_cb, psolve_cb) != CV_SUCCESS ||
+            CVodeSetJacTimes(mem, NULL, jtimes_cb) != CV_SUCCESS) {
+            st = TP_ERR_NOMEM;
+            goto done;
+        }
+    } else if (dr.sparse) {
         dr.jac = SUNSparseMatrix(n, n, net->nnz, CSC_MAT, ctx);
-        ls = dr.jac ? SUNLinSol_KLU(y, dr.jac, ctx) : NULL;
+        if (net->grid)
+            ls = dr.jac ? kluwrap_create(ctx) : NULL;
+        else
+            ls = dr.jac ? SUNLinSol_KLU(y, dr.jac, ctx) : NULL;
     } else {
         dr.jac = SUNDenseMatrix(n, n, ctx);
         ls = dr.jac ? SUNLinSol_Dense(y, dr.jac, ctx) : NULL;
     }
-    if (!ls || CVodeSetLinearSolver(mem, ls, dr.jac) != CV_SUCCESS ||
-        CVodeSetJacFn(mem, jac_cb) != CV_SUCCESS) {
+    if (!dr.iterative && (!ls || CVodeSetLinearSolver(mem, ls, dr.jac) != CV_SUCCESS ||
+                          CVodeSetJacFn(mem, jac_cb) != CV_SUCCESS)) {
         st = TP_ERR_NOMEM;
         goto done;
     }
@@ -418,6 +697,7 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
                 while (next_break < r.hooks->n_breaks && r.hooks->breaks[next_break] <= t_restart)
                     r.hooks->at_break(r.hooks->user, r.hooks->breaks[next_break++], net,
                                       N_VGetArrayPointer(yi));
+                tp_network_refresh(net);
                 if (k_tick * period <= t_restart) {
                     tick(&r, (double)k_tick * period, N_VGetArrayPointer(yi));
                     k_tick++;
@@ -473,6 +753,12 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
     }
     add_stats(mem, stats);
 done:
+    if (dr.iterative)
+        stats->factorizations = dr.pc.setups;
+    else if (ls && net->grid && dr.sparse) {
+        stats->factorizations = kw_of(ls)->factors + kw_of(ls)->refactors;
+        stats->factorizations_skipped = kw_of(ls)->skips;
+    }
     stats->t_reached = t;
     stats->stopped = r.stop;
     if (mem)
@@ -491,6 +777,10 @@ done:
         N_VDestroy(tmp);
     if (ctx)
         SUNContext_Free(&ctx);
+    tp_mg_destroy(&dr.pc.mg);
+    free(dr.pc.map);
+    free(dr.pc.a);
+    free(dr.pc.b);
     free(dr.jvals);
     free(dr.jy);
     free(dr.jduty);

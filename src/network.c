@@ -76,20 +76,46 @@ void tp_network_destroy(tp_network **net)
     free(n->src_first);
     free(n->work);
     free(n->src_work);
+    free(n->groups);
+    free(n->group_links);
+    free(n->fast);
+    free(n->inv_cap);
+    free(n->fixed_nodes);
+    if (n->grid) {
+        free(n->grid->layer_id);
+        free(n->grid->cell);
+        free(n->grid->layer_capacity);
+        free(n->grid->top_area);
+        free(n->grid->top_link);
+        free(n->grid);
+    }
     free(n);
     *net = NULL;
+}
+
+/* Make room for one more element in an array of `*cap` entries holding `n`; capacities grow
+ * geometrically (from `first`) so that large gridded networks are built in linear time. */
+static int reserve(void **p, int n, int *cap, int first, size_t size)
+{
+    int c;
+    void *q;
+    if (n < *cap)
+        return 0;
+    c = *cap > 0 ? 2 * *cap : first;
+    q = realloc(*p, (size_t)c * size);
+    if (!q)
+        return -1;
+    *p = q;
+    *cap = c;
+    return 0;
 }
 
 int tp_network_add_node(tp_network *net, const char *id, double capacity, double t0)
 {
     int n = net->n_nodes;
     tp_net_node *node;
-    if (net->n_nodes % 64 == 0) {
-        void *p = realloc(net->nodes, (size_t)(n + 64) * sizeof *net->nodes);
-        if (!p)
-            return -1;
-        net->nodes = p;
-    }
+    if (reserve((void **)&net->nodes, n, &net->cap_nodes, 64, sizeof *net->nodes) != 0)
+        return -1;
     node = &net->nodes[n];
     memset(node, 0, sizeof *node);
     snprintf(node->id, sizeof node->id, "%s", id);
@@ -104,12 +130,8 @@ int tp_network_add_node(tp_network *net, const char *id, double capacity, double
 tp_net_link *tp_network_add_link(tp_network *net, int a, int b, tp_law law)
 {
     tp_net_link *l;
-    if (net->n_links % 256 == 0) {
-        void *p = realloc(net->links, (size_t)(net->n_links + 256) * sizeof *net->links);
-        if (!p)
-            return NULL;
-        net->links = p;
-    }
+    if (reserve((void **)&net->links, net->n_links, &net->cap_links, 256, sizeof *net->links) != 0)
+        return NULL;
     l = &net->links[net->n_links++];
     memset(l, 0, sizeof *l);
     l->a = a;
@@ -117,18 +139,16 @@ tp_net_link *tp_network_add_link(tp_network *net, int a, int b, tp_law law)
     l->law = law;
     l->scale = 1.0;
     l->path = TP_PATH_INTERNAL;
+    l->group = -1;
     return l;
 }
 
 tp_net_source *tp_network_add_source(tp_network *net, const char *id, int node)
 {
     tp_net_source *s;
-    if (net->n_sources % 16 == 0) {
-        void *p = realloc(net->sources, (size_t)(net->n_sources + 16) * sizeof *net->sources);
-        if (!p)
-            return NULL;
-        net->sources = p;
-    }
+    if (reserve((void **)&net->sources, net->n_sources, &net->cap_sources, 16,
+                sizeof *net->sources) != 0)
+        return NULL;
     s = &net->sources[net->n_sources];
     memset(s, 0, sizeof *s);
     snprintf(s->id, sizeof s->id, "%s", id);
@@ -176,6 +196,19 @@ tp_status tp_network_spread_source(tp_network *net, tp_net_source *src, const in
     src->weights = ww;
     src->n_nodes = n;
     return TP_OK;
+}
+
+int tp_network_add_group(tp_network *net, const tp_conv_case *conv, int sink)
+{
+    tp_net_group *g;
+    if (reserve((void **)&net->groups, net->n_groups, &net->cap_groups, 16,
+                sizeof *net->groups) != 0)
+        return -1;
+    g = &net->groups[net->n_groups];
+    memset(g, 0, sizeof *g);
+    g->conv = *conv;
+    g->sink = sink;
+    return net->n_groups++;
 }
 
 int tp_network_find_node(const tp_network *net, const char *id)
@@ -321,6 +354,98 @@ static tp_status build_pattern(tp_network *net)
     return TP_OK;
 }
 
+/* Members of every coefficient group, and each group's total area. */
+static tp_status build_groups(tp_network *net)
+{
+    int i, g, *fill;
+    if (net->n_groups == 0)
+        return TP_OK;
+    net->group_links = malloc((size_t)(net->n_links > 0 ? net->n_links : 1) *
+                              sizeof *net->group_links);
+    fill = calloc((size_t)net->n_groups, sizeof *fill);
+    if (!net->group_links || !fill) {
+        free(fill);
+        return TP_ERR_NOMEM;
+    }
+    for (g = 0; g < net->n_groups; g++) {
+        net->groups[g].count = 0;
+        net->groups[g].area = 0.0;
+    }
+    for (i = 0; i < net->n_links; i++) {
+        const tp_net_link *l = &net->links[i];
+        if (l->group < 0)
+            continue;
+        net->groups[l->group].count++;
+        net->groups[l->group].area += l->area;
+    }
+    for (g = 0, i = 0; g < net->n_groups; g++) {
+        net->groups[g].first = i;
+        i += net->groups[g].count;
+    }
+    for (i = 0; i < net->n_links; i++) {
+        int gi = net->links[i].group;
+        if (gi >= 0)
+            net->group_links[net->groups[gi].first + fill[gi]++] = i;
+    }
+    free(fill);
+    return TP_OK;
+}
+
+enum { FAST_LINEAR, FAST_RADIATION, FAST_GROUP, FAST_OTHER };
+
+void tp_network_refresh(tp_network *net)
+{
+    int i;
+    if (!net->fast)
+        return;
+    for (i = 0; i < net->n_links; i++) {
+        const tp_net_link *l = &net->links[i];
+        tp_fast_link *f = &net->fast[i];
+        f->a = l->a;
+        f->b = l->b;
+        f->sa = net->nodes[l->a].state;
+        f->sb = net->nodes[l->b].state;
+        f->group = l->group;
+        f->eps = l->eps;
+        switch (l->law) {
+        case TP_LAW_CONDUCTION:
+            f->kind = FAST_LINEAR;
+            f->k = l->g;
+            break;
+        case TP_LAW_CONVECTION:
+            f->kind = l->group >= 0 ? FAST_GROUP : l->correlated ? FAST_OTHER : FAST_LINEAR;
+            f->k = l->group >= 0 ? l->area * l->scale : l->h * l->area * l->scale;
+            break;
+        case TP_LAW_RADIATION:
+            f->kind = FAST_RADIATION;
+            f->k = l->area * l->scale;
+            break;
+        }
+    }
+    for (i = 0; i < net->n_free; i++)
+        net->inv_cap[i] = 1.0 / net->nodes[net->free_nodes[i]].capacity;
+}
+
+/* The compact evaluation arrays of a gridded network. */
+static tp_status build_fast(tp_network *net)
+{
+    int i, k = 0;
+    if (!net->grid)
+        return TP_OK;
+    net->fast = malloc((size_t)(net->n_links > 0 ? net->n_links : 1) * sizeof *net->fast);
+    net->inv_cap = malloc((size_t)(net->n_free > 0 ? net->n_free : 1) * sizeof *net->inv_cap);
+    net->fixed_nodes = malloc((size_t)(net->n_nodes - net->n_free + 1) *
+                              sizeof *net->fixed_nodes);
+    if (!net->fast || !net->inv_cap || !net->fixed_nodes)
+        return TP_ERR_NOMEM;
+    for (i = 0; i < net->n_nodes; i++)
+        if (net->nodes[i].state < 0)
+            net->fixed_nodes[k++] = i;
+    net->n_fixed = k;
+    tp_network_refresh(net);
+    return TP_OK;
+}
+
 tp_status tp_network_finish(tp_network *net)
 {
     int i, n = 0, most = 1;
@@ -347,6 +472,8 @@ tp_status tp_network_finish(tp_network *net)
     }
     for (i = 0; i < net->n_sources; i++)
         net->duty[i] = net->sources[i].max_duty;
+    if (build_groups(net) != TP_OK || build_fast(net) != TP_OK)
+        return TP_ERR_NOMEM;
     return build_pattern(net);
 }
 
@@ -368,7 +495,60 @@ void tp_network_temperatures(const tp_network *net, const double *y, double *t)
     }
 }
 
+/* Node temperatures of a gridded network from a state vector (free nodes through the compact
+ * arrays, then the few fixed ones). */
+static void fast_temperatures(const tp_network *net, const double *y, double *t)
+{
+    int i;
+    for (i = 0; i < net->n_free; i++)
+        t[net->free_nodes[i]] = y[i];
+    for (i = 0; i < net->n_fixed; i++)
+        t[net->fixed_nodes[i]] = net->nodes[net->fixed_nodes[i]].t0;
+}
+
 /* ---- flows ---------------------------------------------------------------------------------- */
+
+/* Each coefficient group's h at node temperatures `t`: the correlation at the area-weighted mean
+ * temperature of its members' surfaces against the sink. `derivs` 1 also takes dh/dT of the
+ * mean and of the sink by central differences (TP_DH_STEP), 2 the secant coefficient (the
+ * difference kept at least TP_SECANT_MIN, as for single links). */
+#define TP_SECANT_MIN 1.0 /* K */
+static void eval_groups(const tp_network *net, const double *t, int derivs)
+{
+    int g, k;
+    for (g = 0; g < net->n_groups; g++) {
+        tp_net_group *gr = &net->groups[g];
+        double sum = 0.0, tm, tb = t[gr->sink];
+        for (k = 0; k < gr->count; k++) {
+            const tp_net_link *l = &net->links[net->group_links[gr->first + k]];
+            sum += l->area * t[l->a];
+        }
+        tm = gr->area > 0 ? sum / gr->area : tb;
+        gr->h = tp_conv_h(&gr->conv, tm, tb, NULL);
+        if (derivs == 1) {
+            gr->dh_ds = (tp_conv_h(&gr->conv, tm + TP_DH_STEP, tb, NULL) -
+                         tp_conv_h(&gr->conv, tm - TP_DH_STEP, tb, NULL)) / (2.0 * TP_DH_STEP);
+            gr->dh_db = (tp_conv_h(&gr->conv, tm, tb + TP_DH_STEP, NULL) -
+                         tp_conv_h(&gr->conv, tm, tb - TP_DH_STEP, NULL)) / (2.0 * TP_DH_STEP);
+        } else if (derivs == 2) {
+            double dt = tm - tb;
+            gr->h_secant = fabs(dt) < TP_SECANT_MIN
+                               ? tp_conv_h(&gr->conv, tb + (dt < 0 ? -TP_SECANT_MIN
+                                                                   : TP_SECANT_MIN), tb, NULL)
+                               : gr->h;
+        }
+    }
+}
+
+/* The flow through link i at node temperatures `t`; group members use their group's h from
+ * the last eval_groups. */
+static double link_q(const tp_network *net, int i, const double *t)
+{
+    const tp_net_link *l = &net->links[i];
+    if (l->group >= 0)
+        return net->groups[l->group].h * l->area * l->scale * (t[l->a] - t[l->b]);
+    return tp_network_link_flow(l, t[l->a], t[l->b], NULL, NULL);
+}
 
 static double convective_flow(const tp_net_link *l, double ta, double tb)
 {
@@ -496,10 +676,79 @@ double tp_network_source_power(const tp_net_source *s, const double *t, double d
     return source_eval(s, t, duty, NULL, NULL, NULL, NULL, wire);
 }
 
+/* Add every source's power into ydot (W, before the division by capacities) and its totals
+ * into *src and *wire. */
+static void add_sources(const tp_network *net, const double *t, double *ydot, double *src,
+                        double *wire)
+{
+    int i, k;
+    for (i = 0; i < net->n_sources; i++) {
+        const tp_net_source *s = &net->sources[i];
+        double w = 0.0, *pk = net->src_work;
+        *src += source_eval(s, t, net->duty[i], pk, NULL, NULL, NULL, &w);
+        for (k = 0; k < s->n_nodes; k++) {
+            int st = net->nodes[s->nodes[k]].state;
+            if (st >= 0)
+                ydot[st] += pk[k];
+        }
+        *wire += w;
+    }
+}
+
+/* The right-hand side of a gridded network from the compact links. */
+static int fast_rhs(const tp_network *net, const double *y, double *ydot)
+{
+    double *t = net->work, lost = 0.0, src = 0.0, wire = 0.0;
+    int i, nf = net->n_free;
+    fast_temperatures(net, y, t);
+    if (net->n_groups > 0)
+        eval_groups(net, t, 0);
+    for (i = 0; i < nf; i++)
+        ydot[i] = 0.0;
+    for (i = 0; i < net->n_links; i++) {
+        const tp_fast_link *f = &net->fast[i];
+        double ta = t[f->a], tb = t[f->b], q;
+        switch (f->kind) {
+        case FAST_LINEAR:
+            q = f->k * (ta - tb);
+            break;
+        case FAST_RADIATION:
+            q = tp_rad_flux(f->eps, ta, tb) * f->k;
+            break;
+        case FAST_GROUP:
+            q = net->groups[f->group].h * f->k * (ta - tb);
+            break;
+        default:
+            q = tp_network_link_flow(&net->links[i], ta, tb, NULL, NULL);
+            break;
+        }
+        if (f->sa >= 0)
+            ydot[f->sa] -= q;
+        else
+            lost -= q;
+        if (f->sb >= 0)
+            ydot[f->sb] += q;
+        else
+            lost += q;
+    }
+    add_sources(net, t, ydot, &src, &wire);
+    for (i = 0; i < nf; i++) {
+        ydot[i] *= net->inv_cap[i];
+        if (!isfinite(ydot[i]))
+            return 1;
+    }
+    ydot[nf + TP_Q_SOURCE] = src;
+    ydot[nf + TP_Q_LOST] = lost;
+    ydot[nf + TP_Q_WIRE] = wire;
+    return isfinite(src) && isfinite(lost) && isfinite(wire) ? 0 : 1;
+}
+
 int tp_network_rhs(const tp_network *net, const double *y, double *ydot)
 {
     double *t = net->work, lost = 0.0, src = 0.0, wire = 0.0;
-    int i, k, nf = net->n_free;
+    int i, nf = net->n_free;
+    if (net->fast)
+        return fast_rhs(net, y, ydot);
     tp_network_temperatures(net, y, t);
     for (i = 0; i < nf; i++)
         ydot[i] = 0.0;
@@ -516,17 +765,7 @@ int tp_network_rhs(const tp_network *net, const double *y, double *ydot)
         else
             lost += q;
     }
-    for (i = 0; i < net->n_sources; i++) {
-        const tp_net_source *s = &net->sources[i];
-        double w = 0.0, *pk = net->src_work;
-        src += source_eval(s, t, net->duty[i], pk, NULL, NULL, NULL, &w);
-        for (k = 0; k < s->n_nodes; k++) {
-            int st = net->nodes[s->nodes[k]].state;
-            if (st >= 0)
-                ydot[st] += pk[k];
-        }
-        wire += w;
-    }
+    add_sources(net, t, ydot, &src, &wire);
     for (i = 0; i < nf; i++) {
         ydot[i] /= net->nodes[net->free_nodes[i]].capacity;
         if (!isfinite(ydot[i]))
@@ -545,7 +784,6 @@ double tp_network_source_split(const tp_net_source *s, const double *t, double d
 
 /* The secant conductance Q / (T_a - T_b) of a link, with the difference kept at least
  * TP_SECANT_MIN so laws that vanish at equal temperatures still couple their nodes. */
-#define TP_SECANT_MIN 1.0 /* K */
 static void secant(const tp_net_link *l, double ta, double tb, double *dqa, double *dqb)
 {
     double dt = ta - tb, q;
@@ -564,10 +802,96 @@ int tp_network_jacobian(const tp_network *net, const double *y, double *values)
     return tp_network_jacobian_mode(net, y, values, 0);
 }
 
+/* The Jacobian of a gridded network from the compact links. A group member's coefficient
+ * depends on the mean of all members; only its own share of that dependence is kept (the
+ * diagonal), which keeps the pattern sparse: the Jacobian is then inexact by the cross terms,
+ * which Newton's method tolerates (it changes the convergence rate, not the solution). */
+static int fast_jacobian(const tp_network *net, const double *y, double *values, int use_secant)
+{
+    double *t = net->work;
+    int i, k;
+    fast_temperatures(net, y, t);
+    if (net->n_groups > 0)
+        eval_groups(net, t, use_secant ? 2 : 1);
+    memset(values, 0, (size_t)net->nnz * sizeof *values);
+    for (i = 0; i < net->n_links; i++) {
+        const tp_fast_link *f = &net->fast[i];
+        const int *sl = net->link_slot[i];
+        double ta = t[f->a], tb = t[f->b], dqa, dqb, ia, ib;
+        switch (f->kind) {
+        case FAST_LINEAR:
+            dqa = f->k;
+            dqb = -f->k;
+            break;
+        case FAST_RADIATION:
+            if (use_secant) {
+                secant(&net->links[i], ta, tb, &dqa, &dqb);
+            } else {
+                dqa = 4.0 * f->eps * TP_STEFAN_BOLTZMANN * f->k * ta * ta * ta;
+                dqb = -4.0 * f->eps * TP_STEFAN_BOLTZMANN * f->k * tb * tb * tb;
+            }
+            break;
+        case FAST_GROUP: {
+            const tp_net_group *g = &net->groups[f->group];
+            if (use_secant) {
+                dqa = g->h_secant * f->k;
+                dqb = -dqa;
+            } else {
+                double share = net->links[i].area / g->area;
+                dqa = g->h * f->k + g->dh_ds * share * f->k * (ta - tb);
+                dqb = -g->h * f->k + g->dh_db * f->k * (ta - tb);
+            }
+            break;
+        }
+        default:
+            if (use_secant)
+                secant(&net->links[i], ta, tb, &dqa, &dqb);
+            else
+                tp_network_link_flow(&net->links[i], ta, tb, &dqa, &dqb);
+            break;
+        }
+        ia = f->sa >= 0 ? net->inv_cap[f->sa] : 0.0;
+        ib = f->sb >= 0 ? net->inv_cap[f->sb] : 0.0;
+        if (sl[0] >= 0)
+            values[sl[0]] -= dqa * ia;
+        if (sl[1] >= 0)
+            values[sl[1]] -= dqb * ia;
+        if (sl[2] >= 0)
+            values[sl[2]] += dqa * ib;
+        if (sl[3] >= 0)
+            values[sl[3]] += dqb * ib;
+        if (sl[4] >= 0)
+            values[sl[4]] += dqa;
+        if (sl[5] >= 0)
+            values[sl[5]] -= dqb;
+    }
+    for (i = 0; i < net->n_sources; i++) {
+        const tp_net_source *s = &net->sources[i];
+        const int *sl = net->src_slot + net->src_first[i];
+        double *buf = net->src_work;
+        source_eval(s, t, net->duty[i], NULL, buf, buf + s->n_nodes, buf + 2 * s->n_nodes, NULL);
+        for (k = 0; k < s->n_nodes; k++) {
+            int st = net->nodes[s->nodes[k]].state;
+            if (sl[3 * k] >= 0)
+                values[sl[3 * k]] += buf[k] * net->inv_cap[st];
+            if (sl[3 * k + 1] >= 0)
+                values[sl[3 * k + 1]] += buf[s->n_nodes + k];
+            if (sl[3 * k + 2] >= 0)
+                values[sl[3 * k + 2]] += buf[2 * s->n_nodes + k];
+        }
+    }
+    for (i = 0; i < net->nnz; i++)
+        if (!isfinite(values[i]))
+            return 1;
+    return 0;
+}
+
 int tp_network_jacobian_mode(const tp_network *net, const double *y, double *values, int use_secant)
 {
     double *t = net->work;
     int i, k;
+    if (net->fast)
+        return fast_jacobian(net, y, values, use_secant);
     tp_network_temperatures(net, y, t);
     memset(values, 0, (size_t)net->nnz * sizeof *values);
     for (i = 0; i < net->n_links; i++) {
@@ -639,9 +963,11 @@ void tp_network_flows(const tp_network *net, const double *t, tp_flows *f)
     memset(f->q, 0, (size_t)net->n_nodes * sizeof *f->q);
     memset(f->path, 0, sizeof f->path);
     f->lost = 0.0;
+    if (net->n_groups > 0)
+        eval_groups(net, t, 0);
     for (i = 0; i < net->n_links; i++) {
         const tp_net_link *l = &net->links[i];
-        double q = tp_network_link_flow(l, t[l->a], t[l->b], NULL, NULL);
+        double q = link_q(net, i, t);
         int fa = net->nodes[l->a].state < 0, fb = net->nodes[l->b].state < 0;
         f->q[l->a] -= q;
         f->q[l->b] += q;
@@ -664,10 +990,46 @@ void tp_network_flows(const tp_network *net, const double *t, tp_flows *f)
     }
 }
 
+/* The surface of each top cell of a gridded plate into map (may be NULL); returns the
+ * area-weighted mean. */
+static double surface_cells(const tp_network *net, const double *t, double *map)
+{
+    const tp_net_grid *g = net->grid;
+    int c, n = g->nx * g->ny, top = (g->n_layers - 1) * n;
+    double sum = 0.0, area = 0.0;
+    if (net->n_groups > 0)
+        eval_groups(net, t, 0);
+    for (c = 0; c < n; c++) {
+        int node = g->cell[top + c], k;
+        double q = 0.0, ts;
+        if (node < 0 || !(g->top_area[c] > 0)) {
+            if (map)
+                map[c] = TP_UNSET;
+            continue;
+        }
+        for (k = 0; k < 2; k++)
+            if (g->top_link[2 * c + k] >= 0)
+                q += link_q(net, g->top_link[2 * c + k], t);
+        ts = t[node] - q / g->top_area[c] * net->top_half_r;
+        if (map)
+            map[c] = ts;
+        sum += g->top_area[c] * ts;
+        area += g->top_area[c];
+    }
+    return area > 0 ? sum / area : TP_UNSET;
+}
+
+double tp_network_surface_map(const tp_network *net, const double *t, double *map)
+{
+    return net->grid ? surface_cells(net, t, map) : TP_UNSET;
+}
+
 double tp_network_surface(const tp_network *net, const double *t)
 {
     int i;
     double q = 0.0;
+    if (net->grid)
+        return surface_cells(net, t, NULL);
     if (net->top_node < 0)
         return TP_UNSET;
     for (i = 0; i < net->n_links; i++) {

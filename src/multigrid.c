@@ -1,0 +1,505 @@
+/* Aggregation multigrid.
+ *
+ * Level 0 is the fine matrix A (n x n, CSR). Level k+1 has one unknown per aggregate of level
+ * k: the cells (i, j) of one layer with the same (i / 2, j / 2); unknowns outside the grid stay
+ * alone. With P the piecewise-constant prolongation (P_iI = 1 when i belongs to aggregate I),
+ * the coarse matrix is the Galerkin product A_c = P^T A P: for a thermal network (C + gamma K,
+ * or the conductance matrix K of a steady state) it is the network of the aggregates, with
+ * their capacities and the conductances between them summed. A V-cycle smooths with one
+ * Gauss-Seidel sweep, restricts the residual by summing it over each aggregate, corrects from
+ * the next level, prolongs by injection and smooths with one backward sweep. The coarsest level
+ * (at most TP_MG_COARSE_MAX unknowns) is solved by dense LU with partial pivoting. */
+#include "multigrid.h"
+
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+typedef struct level {
+    int n, nnz;
+    int *rowptr, *colind;
+    int *diag;     /* slot of each row's diagonal */
+    int *order;    /* rows by colour: (layer + i + j) even, odd, then unknowns off the grid;
+                      rows of one colour do not couple (5-point cells, layers stacked), so a
+                      sweep in this order has no chain of dependent updates */
+    double *val;
+    double *inv_diag;
+    int *agg;      /* n: the aggregate (unknown of the next level) of each unknown */
+    int *cslot;    /* nnz: the next level's slot each entry adds to */
+    int *layer, *ci, *cj;
+    double *x, *b, *r; /* work vectors */
+} level;
+
+struct tp_mg {
+    int n_levels;
+    level lv[TP_MG_LEVELS_MAX];
+    double *lu;    /* coarsest level, dense LU (row major) */
+    int *piv;
+};
+
+static void level_free(level *l)
+{
+    free(l->rowptr);
+    free(l->colind);
+    free(l->diag);
+    free(l->order);
+    free(l->val);
+    free(l->inv_diag);
+    free(l->agg);
+    free(l->cslot);
+    free(l->layer);
+    free(l->ci);
+    free(l->cj);
+    free(l->x);
+    free(l->b);
+    free(l->r);
+}
+
+void tp_mg_destroy(tp_mg **mg)
+{
+    int k;
+    if (!mg || !*mg)
+        return;
+    for (k = 0; k < (*mg)->n_levels; k++)
+        level_free(&(*mg)->lv[k]);
+    free((*mg)->lu);
+    free((*mg)->piv);
+    free(*mg);
+    *mg = NULL;
+}
+
+int tp_mg_levels(const tp_mg *mg)
+{
+    return mg->n_levels;
+}
+
+int tp_mg_size(const tp_mg *mg, int k)
+{
+    return k >= 0 && k < mg->n_levels ? mg->lv[k].n : 0;
+}
+
+static int level_alloc(level *l, int n, int nnz)
+{
+    l->n = n;
+    l->nnz = nnz;
+    l->rowptr = malloc((size_t)(n + 1) * sizeof *l->rowptr);
+    l->colind = malloc((size_t)(nnz > 0 ? nnz : 1) * sizeof *l->colind);
+    l->diag = malloc((size_t)(n > 0 ? n : 1) * sizeof *l->diag);
+    l->order = malloc((size_t)(n > 0 ? n : 1) * sizeof *l->order);
+    l->val = calloc((size_t)(nnz > 0 ? nnz : 1), sizeof *l->val);
+    l->inv_diag = malloc((size_t)(n > 0 ? n : 1) * sizeof *l->inv_diag);
+    l->layer = malloc((size_t)(n > 0 ? n : 1) * sizeof *l->layer);
+    l->ci = malloc((size_t)(n > 0 ? n : 1) * sizeof *l->ci);
+    l->cj = malloc((size_t)(n > 0 ? n : 1) * sizeof *l->cj);
+    l->x = malloc((size_t)(n > 0 ? n : 1) * sizeof *l->x);
+    l->b = malloc((size_t)(n > 0 ? n : 1) * sizeof *l->b);
+    l->r = malloc((size_t)(n > 0 ? n : 1) * sizeof *l->r);
+    return l->rowptr && l->colind && l->diag && l->order && l->val && l->inv_diag && l->layer &&
+                   l->ci && l->cj && l->x && l->b && l->r
+               ? 0
+               : -1;
+}
+
+/* Diagonal slots and the sweep order (by colour) of a level whose layer/ci/cj are set. */
+static int find_diag(level *l)
+{
+    int i, k, m = 0, colour;
+    for (i = 0; i < l->n; i++) {
+        l->diag[i] = -1;
+        for (k = l->rowptr[i]; k < l->rowptr[i + 1]; k++)
+            if (l->colind[k] == i)
+                l->diag[i] = k;
+        if (l->diag[i] < 0)
+            return -1;
+    }
+    for (colour = 0; colour < 3; colour++)
+        for (i = 0; i < l->n; i++)
+            if ((l->layer[i] < 0 ? 2 : (l->layer[i] + l->ci[i] + l->cj[i]) % 2) == colour)
+                l->order[m++] = i;
+    return 0;
+}
+
+/* Aggregates of level f into f->agg; returns the number of aggregates. Unknowns are visited in
+ * order, so an aggregate's index is that of its first member's first appearance. */
+static int aggregate(level *f, int *key_first)
+{
+    int i, m = 0, maxi = 0, maxj = 0, maxl = 0;
+    int *seen;
+    for (i = 0; i < f->n; i++) {
+        if (f->layer[i] < 0)
+            continue;
+        if (f->ci[i] / 2 > maxi)
+            maxi = f->ci[i] / 2;
+        if (f->cj[i] / 2 > maxj)
+            maxj = f->cj[i] / 2;
+        if (f->layer[i] > maxl)
+            maxl = f->layer[i];
+    }
+    seen = malloc((size_t)(maxl + 1) * (size_t)(maxi + 1) * (size_t)(maxj + 1) * sizeof *seen);
+    if (!seen)
+        return -1;
+    for (i = 0; i < (maxl + 1) * (maxi + 1) * (maxj + 1); i++)
+        seen[i] = -1;
+    for (i = 0; i < f->n; i++) {
+        if (f->layer[i] < 0) {
+            f->agg[i] = m;
+            key_first[m++] = i;
+            continue;
+        }
+        {
+            int key = (f->layer[i] * (maxj + 1) + f->cj[i] / 2) * (maxi + 1) + f->ci[i] / 2;
+            if (seen[key] < 0) {
+                seen[key] = m;
+                key_first[m++] = i;
+            }
+            f->agg[i] = seen[key];
+        }
+    }
+    free(seen);
+    return m;
+}
+
+static int cmp_int(const void *a, const void *b)
+{
+    int x = *(const int *)a, y = *(const int *)b;
+    return x < y ? -1 : x > y;
+}
+
+/* The next level's pattern (and f's cslot map) from f's aggregates. */
+static int coarsen(level *f, level *c)
+{
+    int *first = malloc((size_t)f->n * sizeof *first), m, i, k, nnz = 0;
+    int *cnt = NULL, *fill = NULL, *rows = NULL, *start = NULL;
+    int rc = -1;
+    f->agg = malloc((size_t)f->n * sizeof *f->agg);
+    f->cslot = malloc((size_t)(f->nnz > 0 ? f->nnz : 1) * sizeof *f->cslot);
+    if (!first || !f->agg || !f->cslot)
+        goto done;
+    m = aggregate(f, first);
+    if (m < 0)
+        goto done;
+    /* Members of each aggregate, then each coarse row's columns (sorted, unique). */
+    cnt = calloc((size_t)m + 1, sizeof *cnt);
+    fill = calloc((size_t)m + 1, sizeof *fill);
+    rows = malloc((size_t)f->n * sizeof *rows);
+    start = malloc(((size_t)m + 1) * sizeof *start);
+    if (!cnt || !fill || !rows || !start)
+        goto done;
+    for (i = 0; i < f->n; i++)
+        cnt[f->agg[i] + 1]++;
+    for (i = 0; i < m; i++)
+        cnt[i + 1] += cnt[i];
+    for (i = 0; i < f->n; i++)
+        rows[cnt[f->agg[i]] + fill[f->agg[i]]++] = i;
+    /* Upper bound of the coarse nonzeros: the fine ones. */
+    {
+        int *cols = malloc((size_t)(f->nnz > 0 ? f->nnz : 1) * sizeof *cols);
+        int *crow = malloc((size_t)(m + 1) * sizeof *crow);
+        int I;
+        if (!cols || !crow) {
+            free(cols);
+            free(crow);
+            goto done;
+        }
+        crow[0] = 0;
+        for (I = 0; I < m; I++) {
+            int a = nnz, u;
+            for (k = cnt[I]; k < cnt[I + 1]; k++) {
+                int r = rows[k], s;
+                for (s = f->rowptr[r]; s < f->rowptr[r + 1]; s++)
+                    cols[nnz++] = f->agg[f->colind[s]];
+            }
+            qsort(cols + a, (size_t)(nnz - a), sizeof *cols, cmp_int);
+            for (k = a, u = a; k < nnz; k++)
+                if (u == a || cols[k] != cols[u - 1])
+                    cols[u++] = cols[k];
+            nnz = u;
+            crow[I + 1] = nnz;
+        }
+        if (level_alloc(c, m, nnz) != 0) {
+            free(cols);
+            free(crow);
+            goto done;
+        }
+        memcpy(c->rowptr, crow, (size_t)(m + 1) * sizeof *crow);
+        memcpy(c->colind, cols, (size_t)(nnz > 0 ? nnz : 1) * sizeof *cols);
+        free(cols);
+        free(crow);
+    }
+    /* Where each fine entry lands. */
+    for (i = 0; i < f->n; i++) {
+        int I = f->agg[i], s;
+        for (s = f->rowptr[i]; s < f->rowptr[i + 1]; s++) {
+            int J = f->agg[f->colind[s]], lo = c->rowptr[I], hi = c->rowptr[I + 1] - 1;
+            while (lo < hi) {
+                int mid = (lo + hi) / 2;
+                if (c->colind[mid] < J)
+                    lo = mid + 1;
+                else
+                    hi = mid;
+            }
+            f->cslot[s] = lo;
+        }
+    }
+    for (i = 0; i < m; i++) {
+        int p = first[i];
+        c->layer[i] = f->layer[p];
+        c->ci[i] = f->layer[p] >= 0 ? f->ci[p] / 2 : 0;
+        c->cj[i] = f->layer[p] >= 0 ? f->cj[p] / 2 : 0;
+    }
+    rc = find_diag(c);
+done:
+    free(first);
+    free(cnt);
+    free(fill);
+    free(rows);
+    free(start);
+    return rc;
+}
+
+tp_mg *tp_mg_create(int n, const int *rowptr, const int *colind, const int *layer,
+                    const int *ci, const int *cj)
+{
+    tp_mg *mg = calloc(1, sizeof *mg);
+    level *l;
+    int nnz = rowptr[n];
+    if (!mg)
+        return NULL;
+    l = &mg->lv[0];
+    mg->n_levels = 1;
+    if (level_alloc(l, n, nnz) != 0)
+        goto fail;
+    memcpy(l->rowptr, rowptr, (size_t)(n + 1) * sizeof *rowptr);
+    memcpy(l->colind, colind, (size_t)(nnz > 0 ? nnz : 1) * sizeof *colind);
+    memcpy(l->layer, layer, (size_t)n * sizeof *layer);
+    memcpy(l->ci, ci, (size_t)n * sizeof *ci);
+    memcpy(l->cj, cj, (size_t)n * sizeof *cj);
+    if (find_diag(l) != 0)
+        goto fail;
+    while (mg->n_levels < TP_MG_LEVELS_MAX && mg->lv[mg->n_levels - 1].n > TP_MG_COARSE_MAX) {
+        level *f = &mg->lv[mg->n_levels - 1], *c = &mg->lv[mg->n_levels];
+        if (coarsen(f, c) != 0) {
+            mg->n_levels++;
+            goto fail;
+        }
+        mg->n_levels++;
+        if (c->n >= f->n) /* nothing left to join */
+            break;
+    }
+    l = &mg->lv[mg->n_levels - 1];
+    mg->lu = malloc((size_t)l->n * (size_t)l->n * sizeof *mg->lu);
+    mg->piv = malloc((size_t)(l->n > 0 ? l->n : 1) * sizeof *mg->piv);
+    if (!mg->lu || !mg->piv)
+        goto fail;
+    return mg;
+fail:
+    tp_mg_destroy(&mg);
+    return NULL;
+}
+
+/* Dense LU with partial pivoting of the coarsest level. */
+static int factor_coarsest(tp_mg *mg)
+{
+    level *l = &mg->lv[mg->n_levels - 1];
+    int n = l->n, i, j, k;
+    double *a = mg->lu;
+    memset(a, 0, (size_t)n * (size_t)n * sizeof *a);
+    for (i = 0; i < n; i++)
+        for (k = l->rowptr[i]; k < l->rowptr[i + 1]; k++)
+            a[(size_t)i * n + l->colind[k]] += l->val[k];
+    for (k = 0; k < n; k++) {
+        int p = k;
+        double best = fabs(a[(size_t)k * n + k]);
+        for (i = k + 1; i < n; i++)
+            if (fabs(a[(size_t)i * n + k]) > best) {
+                best = fabs(a[(size_t)i * n + k]);
+                p = i;
+            }
+        if (!(best > 0) || !isfinite(best))
+            return -1;
+        mg->piv[k] = p;
+        if (p != k)
+            for (j = 0; j < n; j++) {
+                double t = a[(size_t)k * n + j];
+                a[(size_t)k * n + j] = a[(size_t)p * n + j];
+                a[(size_t)p * n + j] = t;
+            }
+        for (i = k + 1; i < n; i++) {
+            double f = a[(size_t)i * n + k] / a[(size_t)k * n + k];
+            a[(size_t)i * n + k] = f;
+            if (f != 0.0)
+                for (j = k + 1; j < n; j++)
+                    a[(size_t)i * n + j] -= f * a[(size_t)k * n + j];
+        }
+    }
+    return 0;
+}
+
+static void solve_coarsest(const tp_mg *mg, const double *b, double *x)
+{
+    const level *l = &mg->lv[mg->n_levels - 1];
+    int n = l->n, i, j;
+    const double *a = mg->lu;
+    memcpy(x, b, (size_t)n * sizeof *x);
+    for (i = 0; i < n; i++) {
+        int p = mg->piv[i];
+        if (p != i) {
+            double t = x[i];
+            x[i] = x[p];
+            x[p] = t;
+        }
+    }
+    for (i = 0; i < n; i++)
+        for (j = 0; j < i; j++)
+            x[i] -= a[(size_t)i * n + j] * x[j];
+    for (i = n - 1; i >= 0; i--) {
+        for (j = i + 1; j < n; j++)
+            x[i] -= a[(size_t)i * n + j] * x[j];
+        x[i] /= a[(size_t)i * n + i];
+    }
+}
+
+tp_status tp_mg_setup(tp_mg *mg, const double *values)
+{
+    int k, i;
+    level *f = &mg->lv[0];
+    memcpy(f->val, values, (size_t)(f->nnz > 0 ? f->nnz : 1) * sizeof *values);
+    for (k = 0; k + 1 < mg->n_levels; k++) {
+        level *a = &mg->lv[k], *c = &mg->lv[k + 1];
+        memset(c->val, 0, (size_t)(c->nnz > 0 ? c->nnz : 1) * sizeof *c->val);
+        for (i = 0; i < a->nnz; i++)
+            c->val[a->cslot[i]] += a->val[i];
+    }
+    for (k = 0; k < mg->n_levels; k++) {
+        level *l = &mg->lv[k];
+        for (i = 0; i < l->n; i++) {
+            if (!(l->val[l->diag[i]] != 0.0) || !isfinite(l->val[l->diag[i]]))
+                return TP_ERR_SOLVER;
+            l->inv_diag[i] = 1.0 / l->val[l->diag[i]];
+        }
+    }
+    return factor_coarsest(mg) == 0 ? TP_OK : TP_ERR_SOLVER;
+}
+
+static void gs_row(const level *l, const double *b, double *x, int i)
+{
+    int k;
+    double s = b[i];
+    for (k = l->rowptr[i]; k < l->rowptr[i + 1]; k++)
+        s -= l->val[k] * x[l->colind[k]];
+    x[i] += s * l->inv_diag[i];
+}
+
+static void gs_forward(const level *l, const double *b, double *x)
+{
+    int m;
+    for (m = 0; m < l->n; m++)
+        gs_row(l, b, x, l->order[m]);
+}
+
+static void gs_backward(const level *l, const double *b, double *x)
+{
+    int m;
+    for (m = l->n - 1; m >= 0; m--)
+        gs_row(l, b, x, l->order[m]);
+}
+
+static void residual(const level *l, const double *b, const double *x, double *r)
+{
+    int i, k;
+    for (i = 0; i < l->n; i++) {
+        double s = b[i];
+        for (k = l->rowptr[i]; k < l->rowptr[i + 1]; k++)
+            s -= l->val[k] * x[l->colind[k]];
+        r[i] = s;
+    }
+}
+
+void tp_mg_residual(const tp_mg *mg, const double *b, const double *x, double *r)
+{
+    residual(&mg->lv[0], b, x, r);
+}
+
+static void cycle(tp_mg *mg, int k, const double *b, double *x)
+{
+    level *l = &mg->lv[k], *c;
+    int i;
+    if (k == mg->n_levels - 1) {
+        solve_coarsest(mg, b, x);
+        return;
+    }
+    c = &mg->lv[k + 1];
+    memset(x, 0, (size_t)l->n * sizeof *x);
+    gs_forward(l, b, x);
+    memset(c->b, 0, (size_t)c->n * sizeof *c->b);
+    for (i = 0; i < l->n; i++) {
+        int s;
+        double r = b[i];
+        for (s = l->rowptr[i]; s < l->rowptr[i + 1]; s++)
+            r -= l->val[s] * x[l->colind[s]];
+        c->b[l->agg[i]] += r;
+    }
+    cycle(mg, k + 1, c->b, c->x);
+    for (i = 0; i < l->n; i++)
+        x[i] += c->x[l->agg[i]];
+    gs_backward(l, b, x);
+}
+
+void tp_mg_vcycle(tp_mg *mg, const double *b, double *x)
+{
+    cycle(mg, 0, b, x);
+}
+
+tp_mg *tp_mg_for_network(const tp_network *net, int *map)
+{
+    int nf = net->n_free, c, k, i, j, l;
+    int *rowptr = calloc((size_t)nf + 1, sizeof *rowptr), *fill = calloc((size_t)nf + 1, sizeof *fill);
+    int *colind = malloc((size_t)(net->nnz > 0 ? net->nnz : 1) * sizeof *colind);
+    int *layer = malloc((size_t)(nf > 0 ? nf : 1) * sizeof *layer);
+    int *ci = calloc((size_t)(nf > 0 ? nf : 1), sizeof *ci);
+    int *cj = calloc((size_t)(nf > 0 ? nf : 1), sizeof *cj);
+    tp_mg *mg = NULL;
+    if (!rowptr || !fill || !colind || !layer || !ci || !cj)
+        goto done;
+    /* CSC columns in increasing order give each CSR row its columns sorted. */
+    for (c = 0; c < nf; c++)
+        for (k = net->colptr[c]; k < net->colptr[c + 1]; k++)
+            if (net->rowind[k] < nf)
+                rowptr[net->rowind[k] + 1]++;
+    for (i = 0; i < nf; i++)
+        rowptr[i + 1] += rowptr[i];
+    for (k = 0; k < net->nnz; k++)
+        map[k] = -1;
+    for (c = 0; c < nf; c++)
+        for (k = net->colptr[c]; k < net->colptr[c + 1]; k++) {
+            int r = net->rowind[k];
+            if (r >= nf)
+                continue;
+            map[k] = rowptr[r] + fill[r]++;
+            colind[map[k]] = c;
+        }
+    for (i = 0; i < nf; i++)
+        layer[i] = -1;
+    if (net->grid) {
+        const tp_net_grid *g = net->grid;
+        for (l = 0; l < g->n_layers; l++)
+            for (j = 0; j < g->ny; j++)
+                for (i = 0; i < g->nx; i++) {
+                    int node = g->cell[(l * g->ny + j) * g->nx + i], s;
+                    if (node < 0 || (s = net->nodes[node].state) < 0)
+                        continue;
+                    layer[s] = l;
+                    ci[s] = i;
+                    cj[s] = j;
+                }
+    }
+    mg = tp_mg_create(nf, rowptr, colind, layer, ci, cj);
+done:
+    free(rowptr);
+    free(fill);
+    free(colind);
+    free(layer);
+    free(ci);
+    free(cj);
+    return mg;
+}
