@@ -12,7 +12,9 @@
  *   top face of layer k                  its area minus the overlap with k+1 and the gap above
  *   bottom face                          likewise below
  *   edges                                t x the length of the layer's outline in the cell
- *   mounts                               the bottom layer's four corner cells, a quarter each
+ *   mounts                               the bottom layer's cells by area (tepid does not know
+ *                                        where screws sit, and a conductance into one cell would
+ *                                        not converge as cells shrink: a point sink)
  *   sensor                               the cell(s) at sensor.position, shared equally when
  *                                        the point lies on a cell boundary
  * (conductances G and radiating or convecting areas A scale with that share). Convection keeps
@@ -275,7 +277,7 @@ static double weights(refine *r, int kind, int k, int other)
                     ((j == g->j0) + (j == g->j1)) * g->fx[i] * r->dx;
                 break;
             case W_MOUNTS:
-                w = 0.25 * (((i == g->i0) + (i == g->i1)) * ((j == g->j0) + (j == g->j1)));
+                w = layer_area(r, k, i, j);
                 break;
             case W_INTERFACE:
                 w = cell_node(r, other, i, j) >= 0 ? common_area(r, k, other, -1, i, j) : 0.0;
@@ -584,9 +586,10 @@ static tp_status make_grid(refine *r)
     return TP_OK;
 }
 
-tp_status tp_grid_refine(const tp_desc *desc, const tp_doc *doc, const tp_network *lumped,
+tp_status tp_grid_refine(const tp_desc *desc, const tp_doc *doc, tp_network **owned,
                          tp_network *net, tp_diag *d)
 {
+    const tp_network *lumped = *owned;
     refine r;
     tp_status st;
     int k;
@@ -612,6 +615,24 @@ tp_status tp_grid_refine(const tp_desc *desc, const tp_doc *doc, const tp_networ
         st = links(&r);
     if (st == TP_OK)
         st = sources(&r);
+    if (st == TP_OK) {
+        int i;
+        net->grid->from = malloc((size_t)net->n_nodes * sizeof *net->grid->from);
+        if (!net->grid->from)
+            st = TP_ERR_NOMEM;
+        for (k = 0; st == TP_OK && k < r.nl; k++)
+            for (i = 0; i < r.nx * r.ny; i++)
+                if (net->grid->cell[k * r.nx * r.ny + i] >= 0)
+                    net->grid->from[net->grid->cell[k * r.nx * r.ny + i]] = k;
+        for (k = r.nl; st == TP_OK && k < lumped->n_nodes; k++)
+            net->grid->from[r.node_map[k]] = k;
+        if (st == TP_OK)
+            st = tp_network_finish(*owned);
+        if (st == TP_OK) {
+            net->grid->lumped = *owned;
+            *owned = NULL;
+        }
+    }
     if (st == TP_OK) {
         net->top_node = -1;
         net->top_half_r = lumped->top_half_r;

@@ -17,13 +17,14 @@ int tp_grid_wanted(const tp_desc *desc);
  * lowering of the same description (tp_plate_lower without a grid: one node per layer first,
  * in layer order, then the other nodes). Each layer node becomes the cells it covers (by area
  * fraction), each of its links is split over the cells by the area it concerns (faces, edges,
- * interfaces, gaps), in-plane conduction joins neighbouring cells, the mounts sit at the bottom
- * layer's corners, the heater's power follows its coverage map (heater.pattern), and the sensor
+ * interfaces, gaps), in-plane conduction joins neighbouring cells, the mounts spread over the
+ * bottom layer by area, the heater's power follows its coverage map (heater.pattern), and the sensor
  * couples to the cell(s) at sensor.position. Convection of a face keeps one coefficient for all
- * its cells (a tp_net_group). Sets net->grid. Input errors (a layer beyond the bed, a sensor
+ * its cells (a tp_net_group). Sets net->grid, which takes `*lumped` (finished; *lumped becomes
+ * NULL) as the starting point of steady states. Input errors (a layer beyond the bed, a sensor
  * outside its layer, a pattern border too wide, layer ids too long for cell ids) go to `d` and
  * return TP_ERR_CONFIG; `net` is then incomplete (destroy it). */
-tp_status tp_grid_refine(const tp_desc *desc, const tp_doc *doc, const tp_network *lumped,
+tp_status tp_grid_refine(const tp_desc *desc, const tp_doc *doc, tp_network **lumped,
                          tp_network *net, tp_diag *d);
 
 /* Column and row of the cell at (x, y) m from the bed's lower-left corner, clamped to the grid. */

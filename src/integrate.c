@@ -14,6 +14,7 @@
 
 #include <math.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 #include <time.h>
 
@@ -24,7 +25,6 @@
 #include <sundials/sundials_context.h>
 #include <sunlinsol/sunlinsol_dense.h>
 #include <sunlinsol/sunlinsol_klu.h>
-#include <sunlinsol/sunlinsol_spgmr.h>
 #include <sunmatrix/sunmatrix_dense.h>
 #include <sunmatrix/sunmatrix_sparse.h>
 
@@ -185,6 +185,9 @@ typedef struct precond {
     int *map;       /* network pattern slot -> slot of the hierarchy's fine matrix, -1 */
     double *a;      /* fine values C (I - gamma J) */
     double *b;      /* n_free work */
+    double *cap;    /* n_free: capacity of each state, J/K */
+    int n_quad;     /* Jacobian entries in the energy-total rows */
+    int *quad;      /* 3 per entry: row, column, pattern slot */
     double gamma;   /* of the hierarchy's values */
     long jversion;  /* and of the Jacobian they came from */
     int valid;
@@ -298,15 +301,207 @@ static int psolve_cb(realtype t, N_Vector y, N_Vector fy, N_Vector r, N_Vector z
     (void)delta;
     (void)lr;
     for (c = 0; c < nf; c++)
-        pc->b[c] = net->nodes[net->free_nodes[c]].capacity * rr[c];
+        pc->b[c] = pc->cap[c] * rr[c];
     tp_mg_vcycle(pc->mg, pc->b, zz);
     for (c = nf; c < n; c++)
         zz[c] = rr[c];
-    for (c = 0; c < nf; c++)
-        for (k = net->colptr[c]; k < net->colptr[c + 1]; k++)
-            if (net->rowind[k] >= nf)
-                zz[net->rowind[k]] += gamma * dr->jvals[k] * zz[c];
+    for (k = 0; k < pc->n_quad; k++) {
+        const int *q = pc->quad + 3 * k;
+        zz[q[0]] += gamma * dr->jvals[q[2]] * zz[q[1]];
+    }
     return 0;
+}
+
+/* The preconditioner's arrays: capacities by state, the energy-total entries of the pattern. */
+static int precond_init(precond *pc, const tp_network *net)
+{
+    int nf = net->n_free, c, k, m = 0;
+    pc->map = malloc((size_t)(net->nnz > 0 ? net->nnz : 1) * sizeof *pc->map);
+    pc->b = malloc((size_t)nf * sizeof *pc->b);
+    pc->cap = malloc((size_t)nf * sizeof *pc->cap);
+    pc->a = malloc((size_t)(net->nnz > 0 ? net->nnz : 1) * sizeof *pc->a);
+    pc->quad = malloc((size_t)(3 * (net->nnz > 0 ? net->nnz : 1)) * sizeof *pc->quad);
+    if (!pc->map || !pc->b || !pc->cap || !pc->a || !pc->quad)
+        return -1;
+    for (c = 0; c < nf; c++) {
+        pc->cap[c] = net->nodes[net->free_nodes[c]].capacity;
+        for (k = net->colptr[c]; k < net->colptr[c + 1]; k++)
+            if (net->rowind[k] >= nf) {
+                pc->quad[3 * m] = net->rowind[k];
+                pc->quad[3 * m + 1] = c;
+                pc->quad[3 * m + 2] = k;
+                m++;
+            }
+    }
+    pc->n_quad = m;
+    pc->mg = tp_mg_for_network(net, pc->map);
+    return pc->mg ? 0 : -1;
+}
+
+static void precond_clear(precond *pc)
+{
+    tp_mg_destroy(&pc->mg);
+    free(pc->map);
+    free(pc->a);
+    free(pc->b);
+    free(pc->cap);
+    free(pc->quad);
+}
+
+/* ---- a solver that applies the preconditioner ----------------------------------------------
+ * With the multigrid V-cycle a close approximation of M^-1, GMRES spends most of its work on
+ * vector operations and a second preconditioner solve to form its answer. This solver returns
+ * x = P^-1 b, then while the weighted residual of M x = b is above CVODE's tolerance (at most
+ * TP_MG_CYCLES_MAX times) corrects it with x += P^-1 (b - M x). An inexact solve only slows
+ * Newton's convergence; CVODE's nonlinear test still decides when a step is solved. */
+#define TP_MG_CYCLES_MAX 4 /* preconditioner applications per linear solve, at most */
+
+typedef struct mgsolve {
+    void *a_data, *p_data;
+    SUNATimesFn atimes;
+    SUNPSetupFn psetup;
+    SUNPSolveFn psolve;
+    N_Vector s1, r, z; /* scaling (borrowed), residual and correction work */
+    int iters, last_flag;
+    double resnorm;
+} mgsolve;
+
+static mgsolve *ms_of(SUNLinearSolver S)
+{
+    return S->content;
+}
+
+static SUNLinearSolver_Type ms_type(SUNLinearSolver S)
+{
+    (void)S;
+    return SUNLINEARSOLVER_ITERATIVE;
+}
+
+static int ms_setatimes(SUNLinearSolver S, void *data, SUNATimesFn atimes)
+{
+    ms_of(S)->a_data = data;
+    ms_of(S)->atimes = atimes;
+    return SUNLS_SUCCESS;
+}
+
+static int ms_setprec(SUNLinearSolver S, void *data, SUNPSetupFn psetup, SUNPSolveFn psolve)
+{
+    ms_of(S)->p_data = data;
+    ms_of(S)->psetup = psetup;
+    ms_of(S)->psolve = psolve;
+    return SUNLS_SUCCESS;
+}
+
+static int ms_setscaling(SUNLinearSolver S, N_Vector s1, N_Vector s2)
+{
+    (void)s2;
+    ms_of(S)->s1 = s1;
+    return SUNLS_SUCCESS;
+}
+
+static int ms_initialize(SUNLinearSolver S)
+{
+    ms_of(S)->last_flag = SUNLS_SUCCESS;
+    return SUNLS_SUCCESS;
+}
+
+static int ms_setup(SUNLinearSolver S, SUNMatrix A)
+{
+    mgsolve *m = ms_of(S);
+    (void)A;
+    if (m->psetup && m->psetup(m->p_data) != 0)
+        return m->last_flag = SUNLS_PSET_FAIL_REC;
+    return m->last_flag = SUNLS_SUCCESS;
+}
+
+static int ms_solve(SUNLinearSolver S, SUNMatrix A, N_Vector x, N_Vector b, realtype tol)
+{
+    mgsolve *m = ms_of(S);
+    int k;
+    (void)A;
+    m->iters = 0;
+    if (m->psolve(m->p_data, b, x, tol, SUN_PREC_LEFT) != 0)
+        return m->last_flag = SUNLS_PSOLVE_FAIL_REC;
+    m->iters = 1;
+    for (k = 1; k < TP_MG_CYCLES_MAX; k++) {
+        if (m->atimes(m->a_data, x, m->r) != 0)
+            return m->last_flag = SUNLS_ATIMES_FAIL_REC;
+        N_VLinearSum(1.0, b, -1.0, m->r, m->r);
+        /* CVODE's test: || S (b - M x) ||_2 < tol with S its weights. */
+        m->resnorm = m->s1 ? sqrt(N_VWSqrSumLocal(m->r, m->s1)) : sqrt(N_VDotProd(m->r, m->r));
+        if (m->resnorm < tol)
+            break;
+        if (m->psolve(m->p_data, m->r, m->z, tol, SUN_PREC_LEFT) != 0)
+            return m->last_flag = SUNLS_PSOLVE_FAIL_REC;
+        N_VLinearSum(1.0, x, 1.0, m->z, x);
+        m->iters++;
+    }
+    return m->last_flag = SUNLS_SUCCESS;
+}
+
+static int ms_numiters(SUNLinearSolver S)
+{
+    return ms_of(S)->iters;
+}
+
+static realtype ms_resnorm(SUNLinearSolver S)
+{
+    return ms_of(S)->resnorm;
+}
+
+static sunindextype ms_lastflag(SUNLinearSolver S)
+{
+    return ms_of(S)->last_flag;
+}
+
+static int ms_free(SUNLinearSolver S)
+{
+    if (!S)
+        return SUNLS_SUCCESS;
+    if (S->content) {
+        N_VDestroy(ms_of(S)->r);
+        N_VDestroy(ms_of(S)->z);
+        free(S->content);
+    }
+    S->content = NULL;
+    SUNLinSolFreeEmpty(S);
+    return SUNLS_SUCCESS;
+}
+
+static SUNLinearSolver mgsolve_create(N_Vector y, SUNContext ctx)
+{
+    SUNLinearSolver S = SUNLinSolNewEmpty(ctx);
+    mgsolve *m = calloc(1, sizeof *m);
+    if (m) {
+        m->r = N_VClone(y);
+        m->z = N_VClone(y);
+    }
+    if (!S || !m || !m->r || !m->z) {
+        if (m) {
+            if (m->r)
+                N_VDestroy(m->r);
+            if (m->z)
+                N_VDestroy(m->z);
+            free(m);
+        }
+        if (S)
+            SUNLinSolFreeEmpty(S);
+        return NULL;
+    }
+    S->content = m;
+    S->ops->gettype = ms_type;
+    S->ops->getid = kw_id;
+    S->ops->setatimes = ms_setatimes;
+    S->ops->setpreconditioner = ms_setprec;
+    S->ops->setscalingvectors = ms_setscaling;
+    S->ops->initialize = ms_initialize;
+    S->ops->setup = ms_setup;
+    S->ops->solve = ms_solve;
+    S->ops->numiters = ms_numiters;
+    S->ops->resnorm = ms_resnorm;
+    S->ops->lastflag = ms_lastflag;
+    S->ops->free = ms_free;
+    return S;
 }
 
 /* J v with the cached Jacobian (the one the preconditioner was built from). */
@@ -418,6 +613,12 @@ static void add_stats(void *mem, tp_integrate_stats *st)
         st->newton_iters += v;
     if (CVodeGetNumLinIters(mem, &v) == CV_SUCCESS)
         st->lin_iters += v;
+    if (CVodeGetNumPrecSolves(mem, &v) == CV_SUCCESS)
+        st->prec_solves += v;
+    if (CVodeGetNumJtimesEvals(mem, &v) == CV_SUCCESS)
+        st->jtimes += v;
+    if (CVodeGetNumLinConvFails(mem, &v) == CV_SUCCESS)
+        st->lin_fails += v;
 }
 
 /* The free node with the largest weighted local error estimate, for failure messages. */
@@ -591,7 +792,7 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
         goto done;
     }
     dr.sparse = net->n_free > TP_DENSE_MAX;
-    dr.iterative = net->grid && net->n_free > TP_ITERATIVE_MIN;
+    dr.iterative = net->grid && net->n_free >= TP_MG_MIN_UNKNOWNS;
     stats->sparse = dr.sparse;
     stats->iterative = dr.iterative;
     dr.jvals = malloc((size_t)(net->nnz > 0 ? net->nnz : 1) * sizeof *dr.jvals);
@@ -602,13 +803,7 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
         goto done;
     }
     if (dr.iterative) {
-        dr.pc.map = malloc((size_t)(net->nnz > 0 ? net->nnz : 1) * sizeof *dr.pc.map);
-        dr.pc.b = malloc((size_t)net->n_free * sizeof *dr.pc.b);
-        dr.pc.a = malloc((size_t)(net->nnz > 0 ? net->nnz : 1) * sizeof *dr.pc.a);
-        dr.pc.mg = dr.pc.map ? tp_mg_for_network(net, dr.pc.map) : NULL;
-        ls = dr.pc.mg && dr.pc.b && dr.pc.a ? SUNLinSol_SPGMR(y, SUN_PREC_RIGHT, TP_KRYLOV_MAX,
-                                                              ctx)
-                                            : NULL;
+        ls = precond_init(&dr.pc, net) == 0 ? mgsolve_create(y, ctx) : NULL;
         if (!ls || CVodeSetLinearSolver(mem, ls, NULL) != CV_SUCCESS ||
             CVodeSetPreconditioner(mem, psetup_cb, psolve_cb) != CV_SUCCESS ||
             CVodeSetJacTimes(mem, NULL, jtimes_cb) != CV_SUCCESS) {
@@ -755,6 +950,8 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
 done:
     if (dr.iterative)
         stats->factorizations = dr.pc.setups;
+    if (getenv("TP_DEBUG_STATS"))
+        fprintf(stderr, "DEBUG prec solves %ld jtimes %ld linconvfails %ld lsetups %ld jversion %ld\n", stats->prec_solves, stats->jtimes, stats->lin_fails, stats->lin_setups, dr.jversion);
     else if (ls && net->grid && dr.sparse) {
         stats->factorizations = kw_of(ls)->factors + kw_of(ls)->refactors;
         stats->factorizations_skipped = kw_of(ls)->skips;
@@ -777,10 +974,7 @@ done:
         N_VDestroy(tmp);
     if (ctx)
         SUNContext_Free(&ctx);
-    tp_mg_destroy(&dr.pc.mg);
-    free(dr.pc.map);
-    free(dr.pc.a);
-    free(dr.pc.b);
+    precond_clear(&dr.pc);
     free(dr.jvals);
     free(dr.jy);
     free(dr.jduty);

@@ -10,9 +10,6 @@
 
 #define TP_DENSE_MAX 60 /* free nodes up to which the dense LU is used; KLU above
                            (measured: docs/performance.md) */
-#define TP_ITERATIVE_MIN 3000 /* free nodes of a gridded network above which GMRES with the
-                                 multigrid preconditioner replaces KLU (docs/grid.md) */
-#define TP_KRYLOV_MAX 20      /* Krylov vectors of GMRES (no restarts) */
 
 /* What the driver reports at each output time. */
 typedef struct tp_sample {
@@ -61,6 +58,8 @@ typedef struct tp_integrate_stats {
     int sparse;            /* 1 when KLU was used */
     int iterative;         /* 1 when GMRES with the multigrid preconditioner was used */
     long newton_iters, lin_iters; /* Newton iterations, and linear (Krylov) iterations */
+    long prec_solves, jtimes, lin_fails; /* preconditioner solves, Jacobian-vector products,
+                                            linear solves that did not converge */
     long factorizations;   /* gridded networks: numeric factorizations of M = I - gamma J, or
                               setups of the multigrid preconditioner */
     long factorizations_skipped; /* setups with M bitwise equal to the last factored one */

@@ -45,6 +45,11 @@ const char *tp_loss_path_name(tp_loss_path p)
     return (unsigned)p < TP_PATH_COUNT ? path_names[p] : "?";
 }
 
+static void fast_free(tp_net_fast **f);
+static tp_status build_fast(tp_network *net);
+static int fast_rhs(const tp_network *net, const double *y, double *ydot);
+static int fast_jacobian(const tp_network *net, const double *y, double *values, int use_secant);
+
 tp_network *tp_network_create(void)
 {
     tp_network *net = calloc(1, sizeof(tp_network));
@@ -78,20 +83,21 @@ void tp_network_destroy(tp_network **net)
     free(n->src_work);
     free(n->groups);
     free(n->group_links);
-    free(n->fast);
-    free(n->inv_cap);
-    free(n->fixed_nodes);
+    fast_free(&n->fast);
     if (n->grid) {
         free(n->grid->layer_id);
         free(n->grid->cell);
         free(n->grid->layer_capacity);
         free(n->grid->top_area);
         free(n->grid->top_link);
+        free(n->grid->from);
+        tp_network_destroy(&n->grid->lumped);
         free(n->grid);
     }
     free(n);
     *net = NULL;
 }
+
 
 /* Make room for one more element in an array of `*cap` entries holding `n`; capacities grow
  * geometrically (from `first`) so that large gridded networks are built in linear time. */
@@ -391,61 +397,6 @@ static tp_status build_groups(tp_network *net)
     return TP_OK;
 }
 
-enum { FAST_LINEAR, FAST_RADIATION, FAST_GROUP, FAST_OTHER };
-
-void tp_network_refresh(tp_network *net)
-{
-    int i;
-    if (!net->fast)
-        return;
-    for (i = 0; i < net->n_links; i++) {
-        const tp_net_link *l = &net->links[i];
-        tp_fast_link *f = &net->fast[i];
-        f->a = l->a;
-        f->b = l->b;
-        f->sa = net->nodes[l->a].state;
-        f->sb = net->nodes[l->b].state;
-        f->group = l->group;
-        f->eps = l->eps;
-        switch (l->law) {
-        case TP_LAW_CONDUCTION:
-            f->kind = FAST_LINEAR;
-            f->k = l->g;
-            break;
-        case TP_LAW_CONVECTION:
-            f->kind = l->group >= 0 ? FAST_GROUP : l->correlated ? FAST_OTHER : FAST_LINEAR;
-            f->k = l->group >= 0 ? l->area * l->scale : l->h * l->area * l->scale;
-            break;
-        case TP_LAW_RADIATION:
-            f->kind = FAST_RADIATION;
-            f->k = l->area * l->scale;
-            break;
-        }
-    }
-    for (i = 0; i < net->n_free; i++)
-        net->inv_cap[i] = 1.0 / net->nodes[net->free_nodes[i]].capacity;
-}
-
-/* The compact evaluation arrays of a gridded network. */
-static tp_status build_fast(tp_network *net)
-{
-    int i, k = 0;
-    if (!net->grid)
-        return TP_OK;
-    net->fast = malloc((size_t)(net->n_links > 0 ? net->n_links : 1) * sizeof *net->fast);
-    net->inv_cap = malloc((size_t)(net->n_free > 0 ? net->n_free : 1) * sizeof *net->inv_cap);
-    net->fixed_nodes = malloc((size_t)(net->n_nodes - net->n_free + 1) *
-                              sizeof *net->fixed_nodes);
-    if (!net->fast || !net->inv_cap || !net->fixed_nodes)
-        return TP_ERR_NOMEM;
-    for (i = 0; i < net->n_nodes; i++)
-        if (net->nodes[i].state < 0)
-            net->fixed_nodes[k++] = i;
-    net->n_fixed = k;
-    tp_network_refresh(net);
-    return TP_OK;
-}
-
 tp_status tp_network_finish(tp_network *net)
 {
     int i, n = 0, most = 1;
@@ -472,7 +423,7 @@ tp_status tp_network_finish(tp_network *net)
     }
     for (i = 0; i < net->n_sources; i++)
         net->duty[i] = net->sources[i].max_duty;
-    if (build_groups(net) != TP_OK || build_fast(net) != TP_OK)
+    if (build_groups(net) != TP_OK || (net->grid && build_fast(net) != TP_OK))
         return TP_ERR_NOMEM;
     return build_pattern(net);
 }
@@ -495,17 +446,6 @@ void tp_network_temperatures(const tp_network *net, const double *y, double *t)
     }
 }
 
-/* Node temperatures of a gridded network from a state vector (free nodes through the compact
- * arrays, then the few fixed ones). */
-static void fast_temperatures(const tp_network *net, const double *y, double *t)
-{
-    int i;
-    for (i = 0; i < net->n_free; i++)
-        t[net->free_nodes[i]] = y[i];
-    for (i = 0; i < net->n_fixed; i++)
-        t[net->fixed_nodes[i]] = net->nodes[net->fixed_nodes[i]].t0;
-}
-
 /* ---- flows ---------------------------------------------------------------------------------- */
 
 /* Each coefficient group's h at node temperatures `t`: the correlation at the area-weighted mean
@@ -513,6 +453,23 @@ static void fast_temperatures(const tp_network *net, const double *y, double *t)
  * mean and of the sink by central differences (TP_DH_STEP), 2 the secant coefficient (the
  * difference kept at least TP_SECANT_MIN, as for single links). */
 #define TP_SECANT_MIN 1.0 /* K */
+static void group_coefficients(tp_net_group *gr, double tm, double tb, int derivs)
+{
+    gr->h = tp_conv_h(&gr->conv, tm, tb, NULL);
+    if (derivs == 1) {
+        gr->dh_ds = (tp_conv_h(&gr->conv, tm + TP_DH_STEP, tb, NULL) -
+                     tp_conv_h(&gr->conv, tm - TP_DH_STEP, tb, NULL)) / (2.0 * TP_DH_STEP);
+        gr->dh_db = (tp_conv_h(&gr->conv, tm, tb + TP_DH_STEP, NULL) -
+                     tp_conv_h(&gr->conv, tm, tb - TP_DH_STEP, NULL)) / (2.0 * TP_DH_STEP);
+    } else if (derivs == 2) {
+        double dt = tm - tb;
+        gr->h_secant = fabs(dt) < TP_SECANT_MIN
+                           ? tp_conv_h(&gr->conv, tb + (dt < 0 ? -TP_SECANT_MIN : TP_SECANT_MIN),
+                                       tb, NULL)
+                           : gr->h;
+    }
+}
+
 static void eval_groups(const tp_network *net, const double *t, int derivs)
 {
     int g, k;
@@ -524,19 +481,7 @@ static void eval_groups(const tp_network *net, const double *t, int derivs)
             sum += l->area * t[l->a];
         }
         tm = gr->area > 0 ? sum / gr->area : tb;
-        gr->h = tp_conv_h(&gr->conv, tm, tb, NULL);
-        if (derivs == 1) {
-            gr->dh_ds = (tp_conv_h(&gr->conv, tm + TP_DH_STEP, tb, NULL) -
-                         tp_conv_h(&gr->conv, tm - TP_DH_STEP, tb, NULL)) / (2.0 * TP_DH_STEP);
-            gr->dh_db = (tp_conv_h(&gr->conv, tm, tb + TP_DH_STEP, NULL) -
-                         tp_conv_h(&gr->conv, tm, tb - TP_DH_STEP, NULL)) / (2.0 * TP_DH_STEP);
-        } else if (derivs == 2) {
-            double dt = tm - tb;
-            gr->h_secant = fabs(dt) < TP_SECANT_MIN
-                               ? tp_conv_h(&gr->conv, tb + (dt < 0 ? -TP_SECANT_MIN
-                                                                   : TP_SECANT_MIN), tb, NULL)
-                               : gr->h;
-        }
+        group_coefficients(gr, tm, tb, derivs);
     }
 }
 
@@ -695,54 +640,6 @@ static void add_sources(const tp_network *net, const double *t, double *ydot, do
     }
 }
 
-/* The right-hand side of a gridded network from the compact links. */
-static int fast_rhs(const tp_network *net, const double *y, double *ydot)
-{
-    double *t = net->work, lost = 0.0, src = 0.0, wire = 0.0;
-    int i, nf = net->n_free;
-    fast_temperatures(net, y, t);
-    if (net->n_groups > 0)
-        eval_groups(net, t, 0);
-    for (i = 0; i < nf; i++)
-        ydot[i] = 0.0;
-    for (i = 0; i < net->n_links; i++) {
-        const tp_fast_link *f = &net->fast[i];
-        double ta = t[f->a], tb = t[f->b], q;
-        switch (f->kind) {
-        case FAST_LINEAR:
-            q = f->k * (ta - tb);
-            break;
-        case FAST_RADIATION:
-            q = tp_rad_flux(f->eps, ta, tb) * f->k;
-            break;
-        case FAST_GROUP:
-            q = net->groups[f->group].h * f->k * (ta - tb);
-            break;
-        default:
-            q = tp_network_link_flow(&net->links[i], ta, tb, NULL, NULL);
-            break;
-        }
-        if (f->sa >= 0)
-            ydot[f->sa] -= q;
-        else
-            lost -= q;
-        if (f->sb >= 0)
-            ydot[f->sb] += q;
-        else
-            lost += q;
-    }
-    add_sources(net, t, ydot, &src, &wire);
-    for (i = 0; i < nf; i++) {
-        ydot[i] *= net->inv_cap[i];
-        if (!isfinite(ydot[i]))
-            return 1;
-    }
-    ydot[nf + TP_Q_SOURCE] = src;
-    ydot[nf + TP_Q_LOST] = lost;
-    ydot[nf + TP_Q_WIRE] = wire;
-    return isfinite(src) && isfinite(lost) && isfinite(wire) ? 0 : 1;
-}
-
 int tp_network_rhs(const tp_network *net, const double *y, double *ydot)
 {
     double *t = net->work, lost = 0.0, src = 0.0, wire = 0.0;
@@ -800,90 +697,6 @@ static void secant(const tp_net_link *l, double ta, double tb, double *dqa, doub
 int tp_network_jacobian(const tp_network *net, const double *y, double *values)
 {
     return tp_network_jacobian_mode(net, y, values, 0);
-}
-
-/* The Jacobian of a gridded network from the compact links. A group member's coefficient
- * depends on the mean of all members; only its own share of that dependence is kept (the
- * diagonal), which keeps the pattern sparse: the Jacobian is then inexact by the cross terms,
- * which Newton's method tolerates (it changes the convergence rate, not the solution). */
-static int fast_jacobian(const tp_network *net, const double *y, double *values, int use_secant)
-{
-    double *t = net->work;
-    int i, k;
-    fast_temperatures(net, y, t);
-    if (net->n_groups > 0)
-        eval_groups(net, t, use_secant ? 2 : 1);
-    memset(values, 0, (size_t)net->nnz * sizeof *values);
-    for (i = 0; i < net->n_links; i++) {
-        const tp_fast_link *f = &net->fast[i];
-        const int *sl = net->link_slot[i];
-        double ta = t[f->a], tb = t[f->b], dqa, dqb, ia, ib;
-        switch (f->kind) {
-        case FAST_LINEAR:
-            dqa = f->k;
-            dqb = -f->k;
-            break;
-        case FAST_RADIATION:
-            if (use_secant) {
-                secant(&net->links[i], ta, tb, &dqa, &dqb);
-            } else {
-                dqa = 4.0 * f->eps * TP_STEFAN_BOLTZMANN * f->k * ta * ta * ta;
-                dqb = -4.0 * f->eps * TP_STEFAN_BOLTZMANN * f->k * tb * tb * tb;
-            }
-            break;
-        case FAST_GROUP: {
-            const tp_net_group *g = &net->groups[f->group];
-            if (use_secant) {
-                dqa = g->h_secant * f->k;
-                dqb = -dqa;
-            } else {
-                double share = net->links[i].area / g->area;
-                dqa = g->h * f->k + g->dh_ds * share * f->k * (ta - tb);
-                dqb = -g->h * f->k + g->dh_db * f->k * (ta - tb);
-            }
-            break;
-        }
-        default:
-            if (use_secant)
-                secant(&net->links[i], ta, tb, &dqa, &dqb);
-            else
-                tp_network_link_flow(&net->links[i], ta, tb, &dqa, &dqb);
-            break;
-        }
-        ia = f->sa >= 0 ? net->inv_cap[f->sa] : 0.0;
-        ib = f->sb >= 0 ? net->inv_cap[f->sb] : 0.0;
-        if (sl[0] >= 0)
-            values[sl[0]] -= dqa * ia;
-        if (sl[1] >= 0)
-            values[sl[1]] -= dqb * ia;
-        if (sl[2] >= 0)
-            values[sl[2]] += dqa * ib;
-        if (sl[3] >= 0)
-            values[sl[3]] += dqb * ib;
-        if (sl[4] >= 0)
-            values[sl[4]] += dqa;
-        if (sl[5] >= 0)
-            values[sl[5]] -= dqb;
-    }
-    for (i = 0; i < net->n_sources; i++) {
-        const tp_net_source *s = &net->sources[i];
-        const int *sl = net->src_slot + net->src_first[i];
-        double *buf = net->src_work;
-        source_eval(s, t, net->duty[i], NULL, buf, buf + s->n_nodes, buf + 2 * s->n_nodes, NULL);
-        for (k = 0; k < s->n_nodes; k++) {
-            int st = net->nodes[s->nodes[k]].state;
-            if (sl[3 * k] >= 0)
-                values[sl[3 * k]] += buf[k] * net->inv_cap[st];
-            if (sl[3 * k + 1] >= 0)
-                values[sl[3 * k + 1]] += buf[s->n_nodes + k];
-            if (sl[3 * k + 2] >= 0)
-                values[sl[3 * k + 2]] += buf[2 * s->n_nodes + k];
-        }
-    }
-    for (i = 0; i < net->nnz; i++)
-        if (!isfinite(values[i]))
-            return 1;
-    return 0;
 }
 
 int tp_network_jacobian_mode(const tp_network *net, const double *y, double *values, int use_secant)
@@ -1056,4 +869,383 @@ double tp_network_current(const tp_network *net, const double *t)
         return s->supply / (r + s->r_series);
     }
     return TP_UNSET;
+}
+
+/* ---- compact evaluation of gridded networks -------------------------------------------------
+ * A gridded network spends its time in the right-hand side, so its links are copied into
+ * compact arrays by kind. The linear ones (conduction, fixed-coefficient convection) form one
+ * sparse matrix L over the states, with the conductance to fixed nodes on the side:
+ *   sum_links Q into i = sum_j L_ij T_j + b_i,  L_ij = G_ij (j != i),  L_ii = -sum_j G_ij - g_i,
+ *   g_i = sum of G to fixed nodes,  b_i = sum of G T_fixed,
+ * so their part is one matrix-vector product. Radiation, coefficient-group and other links keep
+ * short records. The accumulation order differs from the generic loop, so results agree with
+ * it to rounding, not bit for bit (only gridded networks take this path). */
+
+enum { FAST_LINEAR, FAST_RADIATION, FAST_GROUP, FAST_OTHER };
+
+typedef struct fast_link {
+    int a, b;     /* node indices */
+    int sa, sb;   /* their states, -1 for fixed nodes */
+    int kind;
+    int group;
+    double k;     /* linear: G, W/K; radiation: eps sigma A s, W/K4; group: A s, m2 */
+} fast_link;
+
+struct tp_net_fast {
+    fast_link *link;      /* n_links, in link order */
+    int *rad, n_rad;      /* radiation links */
+    int *grp, n_grp;      /* coefficient-group links */
+    int *oth, n_oth;      /* other links (correlated convection of their own) */
+    int *rowptr, *col;    /* L over the states (CSR) */
+    double *val;
+    double *gfix, *bfix;  /* per state: g_i (W/K) and b_i (W) */
+    double *inv_cap;      /* per state: 1 / C, K/J */
+    int *fixed, n_fixed;  /* the fixed nodes */
+    int *gnode;           /* group members by group (as net->group_links): surface node */
+    double *garea;        /* and area, m2 */
+};
+
+static void fast_free(tp_net_fast **f)
+{
+    if (!f || !*f)
+        return;
+    free((*f)->link);
+    free((*f)->rad);
+    free((*f)->grp);
+    free((*f)->oth);
+    free((*f)->rowptr);
+    free((*f)->col);
+    free((*f)->val);
+    free((*f)->gfix);
+    free((*f)->bfix);
+    free((*f)->inv_cap);
+    free((*f)->fixed);
+    free((*f)->gnode);
+    free((*f)->garea);
+    free(*f);
+    *f = NULL;
+}
+
+/* An entry of L while it is assembled. */
+typedef struct lin_entry {
+    int row, col;
+    double v;
+} lin_entry;
+
+static int lin_cmp(const void *pa, const void *pb)
+{
+    const lin_entry *a = pa, *b = pb;
+    if (a->row != b->row)
+        return a->row < b->row ? -1 : 1;
+    return a->col < b->col ? -1 : a->col > b->col;
+}
+
+/* L, g and b from the linear links. */
+static tp_status build_linear(tp_network *net, tp_net_fast *f)
+{
+    int i, m = 0, u, nf = net->n_free;
+    lin_entry *e = malloc((size_t)(4 * net->n_links + 1) * sizeof *e);
+    if (!e)
+        return TP_ERR_NOMEM;
+    for (i = 0; i < net->n_links; i++) {
+        const fast_link *l = &f->link[i];
+        if (l->kind != FAST_LINEAR)
+            continue;
+        if (l->sa >= 0 && l->sb >= 0) {
+            e[m++] = (lin_entry){l->sa, l->sa, -l->k};
+            e[m++] = (lin_entry){l->sa, l->sb, l->k};
+            e[m++] = (lin_entry){l->sb, l->sb, -l->k};
+            e[m++] = (lin_entry){l->sb, l->sa, l->k};
+        } else if (l->sa >= 0) {
+            f->gfix[l->sa] += l->k;
+            f->bfix[l->sa] += l->k * net->nodes[l->b].t0;
+        } else if (l->sb >= 0) {
+            f->gfix[l->sb] += l->k;
+            f->bfix[l->sb] += l->k * net->nodes[l->a].t0;
+        }
+    }
+    for (i = 0; i < nf; i++)
+        e[m++] = (lin_entry){i, i, -f->gfix[i]};
+    qsort(e, (size_t)m, sizeof *e, lin_cmp);
+    for (i = 0, u = 0; i < m; i++) {
+        if (u > 0 && e[u - 1].row == e[i].row && e[u - 1].col == e[i].col)
+            e[u - 1].v += e[i].v;
+        else
+            e[u++] = e[i];
+    }
+    f->rowptr = calloc((size_t)nf + 1, sizeof *f->rowptr);
+    f->col = malloc((size_t)(u > 0 ? u : 1) * sizeof *f->col);
+    f->val = malloc((size_t)(u > 0 ? u : 1) * sizeof *f->val);
+    if (!f->rowptr || !f->col || !f->val) {
+        free(e);
+        return TP_ERR_NOMEM;
+    }
+    for (i = 0; i < u; i++) {
+        f->rowptr[e[i].row + 1]++;
+        f->col[i] = e[i].col;
+        f->val[i] = e[i].v;
+    }
+    for (i = 0; i < nf; i++)
+        f->rowptr[i + 1] += f->rowptr[i];
+    free(e);
+    return TP_OK;
+}
+
+static tp_status build_fast(tp_network *net)
+{
+    tp_net_fast *f = calloc(1, sizeof *f);
+    int i, nl = net->n_links > 0 ? net->n_links : 1, nf = net->n_free > 0 ? net->n_free : 1;
+    if (!f)
+        return TP_ERR_NOMEM;
+    net->fast = f;
+    f->link = malloc((size_t)nl * sizeof *f->link);
+    f->rad = malloc((size_t)nl * sizeof *f->rad);
+    f->grp = malloc((size_t)nl * sizeof *f->grp);
+    f->oth = malloc((size_t)nl * sizeof *f->oth);
+    f->gfix = calloc((size_t)nf, sizeof *f->gfix);
+    f->bfix = calloc((size_t)nf, sizeof *f->bfix);
+    f->inv_cap = malloc((size_t)nf * sizeof *f->inv_cap);
+    f->fixed = malloc((size_t)(net->n_nodes - net->n_free + 1) * sizeof *f->fixed);
+    f->gnode = malloc((size_t)nl * sizeof *f->gnode);
+    f->garea = malloc((size_t)nl * sizeof *f->garea);
+    if (!f->link || !f->rad || !f->grp || !f->oth || !f->gfix || !f->bfix || !f->inv_cap ||
+        !f->fixed || !f->gnode || !f->garea)
+        return TP_ERR_NOMEM;
+    for (i = 0; i < net->n_links; i++) {
+        const tp_net_link *l = &net->links[i];
+        fast_link *c = &f->link[i];
+        c->a = l->a;
+        c->b = l->b;
+        c->sa = net->nodes[l->a].state;
+        c->sb = net->nodes[l->b].state;
+        c->group = l->group;
+        switch (l->law) {
+        case TP_LAW_CONDUCTION:
+            c->kind = FAST_LINEAR;
+            c->k = l->g;
+            break;
+        case TP_LAW_CONVECTION:
+            c->kind = l->group >= 0 ? FAST_GROUP : l->correlated ? FAST_OTHER : FAST_LINEAR;
+            c->k = l->group >= 0 ? l->area * l->scale : l->h * l->area * l->scale;
+            break;
+        case TP_LAW_RADIATION:
+            c->kind = FAST_RADIATION;
+            c->k = l->eps * TP_STEFAN_BOLTZMANN * l->area * l->scale;
+            break;
+        }
+        if (c->kind == FAST_RADIATION)
+            f->rad[f->n_rad++] = i;
+        else if (c->kind == FAST_GROUP)
+            f->grp[f->n_grp++] = i;
+        else if (c->kind == FAST_OTHER)
+            f->oth[f->n_oth++] = i;
+    }
+    for (i = 0; i < net->n_free; i++)
+        f->inv_cap[i] = 1.0 / net->nodes[net->free_nodes[i]].capacity;
+    for (i = 0; i < net->n_nodes; i++)
+        if (net->nodes[i].state < 0)
+            f->fixed[f->n_fixed++] = i;
+    for (i = 0; net->group_links && i < net->n_links; i++) {
+        f->gnode[i] = 0;
+        f->garea[i] = 0.0;
+    }
+    for (i = 0; i < net->n_groups; i++) {
+        int k;
+        for (k = net->groups[i].first; k < net->groups[i].first + net->groups[i].count; k++) {
+            const tp_net_link *l = &net->links[net->group_links[k]];
+            f->gnode[k] = l->a;
+            f->garea[k] = l->area;
+        }
+    }
+    return build_linear(net, f);
+}
+
+void tp_network_refresh(tp_network *net)
+{
+    int g, k;
+    if (!net->fast)
+        return;
+    for (g = 0; g < net->n_groups; g++) {
+        net->groups[g].area = 0.0;
+        for (k = net->groups[g].first; k < net->groups[g].first + net->groups[g].count; k++)
+            net->groups[g].area += net->links[net->group_links[k]].area;
+    }
+    fast_free(&net->fast);
+    if (build_fast(net) != TP_OK)
+        fast_free(&net->fast); /* out of memory: the generic evaluation still works */
+}
+
+/* Node temperatures from a state vector (the free ones by state, then the few fixed ones). */
+static void fast_temperatures(const tp_network *net, const double *y, double *t)
+{
+    const tp_net_fast *f = net->fast;
+    int i;
+    for (i = 0; i < net->n_free; i++)
+        t[net->free_nodes[i]] = y[i];
+    for (i = 0; i < f->n_fixed; i++)
+        t[f->fixed[i]] = net->nodes[f->fixed[i]].t0;
+}
+
+/* eval_groups with the compact member arrays. */
+static void fast_groups(const tp_network *net, const double *t, int derivs)
+{
+    const tp_net_fast *f = net->fast;
+    int g, k;
+    for (g = 0; g < net->n_groups; g++) {
+        tp_net_group *gr = &net->groups[g];
+        double sum = 0.0, tm, tb = t[gr->sink];
+        for (k = gr->first; k < gr->first + gr->count; k++)
+            sum += f->garea[k] * t[f->gnode[k]];
+        tm = gr->area > 0 ? sum / gr->area : tb;
+        group_coefficients(gr, tm, tb, derivs);
+    }
+}
+
+static int fast_rhs(const tp_network *net, const double *y, double *ydot)
+{
+    const tp_net_fast *f = net->fast;
+    double *t = net->work, lost = 0.0, src = 0.0, wire = 0.0;
+    int i, k, nf = net->n_free;
+    fast_temperatures(net, y, t);
+    if (net->n_groups > 0)
+        fast_groups(net, t, 0);
+    for (i = 0; i < nf; i++) {
+        double q = f->bfix[i];
+        for (k = f->rowptr[i]; k < f->rowptr[i + 1]; k++)
+            q += f->val[k] * y[f->col[k]];
+        ydot[i] = q;
+        lost += f->gfix[i] * y[i] - f->bfix[i];
+    }
+    for (k = 0; k < f->n_rad; k++) {
+        const fast_link *l = &f->link[f->rad[k]];
+        double ta = t[l->a], tb = t[l->b];
+        double q = l->k * (ta * ta + tb * tb) * (ta + tb) * (ta - tb);
+        if (l->sa >= 0)
+            ydot[l->sa] -= q;
+        else
+            lost -= q;
+        if (l->sb >= 0)
+            ydot[l->sb] += q;
+        else
+            lost += q;
+    }
+    for (k = 0; k < f->n_grp; k++) {
+        const fast_link *l = &f->link[f->grp[k]];
+        double q = net->groups[l->group].h * l->k * (t[l->a] - t[l->b]);
+        if (l->sa >= 0)
+            ydot[l->sa] -= q;
+        else
+            lost -= q;
+        if (l->sb >= 0)
+            ydot[l->sb] += q;
+        else
+            lost += q;
+    }
+    for (k = 0; k < f->n_oth; k++) {
+        const fast_link *l = &f->link[f->oth[k]];
+        double q = tp_network_link_flow(&net->links[f->oth[k]], t[l->a], t[l->b], NULL, NULL);
+        if (l->sa >= 0)
+            ydot[l->sa] -= q;
+        else
+            lost -= q;
+        if (l->sb >= 0)
+            ydot[l->sb] += q;
+        else
+            lost += q;
+    }
+    add_sources(net, t, ydot, &src, &wire);
+    for (i = 0; i < nf; i++) {
+        ydot[i] *= f->inv_cap[i];
+        if (!isfinite(ydot[i]))
+            return 1;
+    }
+    ydot[nf + TP_Q_SOURCE] = src;
+    ydot[nf + TP_Q_LOST] = lost;
+    ydot[nf + TP_Q_WIRE] = wire;
+    return isfinite(src) && isfinite(lost) && isfinite(wire) ? 0 : 1;
+}
+
+/* The Jacobian from the compact links. A group member's coefficient depends on the mean of all
+ * members; only its own share of that dependence is kept (the diagonal), which keeps the
+ * pattern sparse: the Jacobian is then inexact by the cross terms, which Newton's method
+ * tolerates (it changes the convergence rate, not the solution). */
+static int fast_jacobian(const tp_network *net, const double *y, double *values, int use_secant)
+{
+    const tp_net_fast *f = net->fast;
+    double *t = net->work;
+    int i, k;
+    fast_temperatures(net, y, t);
+    if (net->n_groups > 0)
+        fast_groups(net, t, use_secant ? 2 : 1);
+    memset(values, 0, (size_t)net->nnz * sizeof *values);
+    for (i = 0; i < net->n_links; i++) {
+        const fast_link *l = &f->link[i];
+        const int *sl = net->link_slot[i];
+        double ta = t[l->a], tb = t[l->b], dqa, dqb, ia, ib;
+        switch (l->kind) {
+        case FAST_LINEAR:
+            dqa = l->k;
+            dqb = -l->k;
+            break;
+        case FAST_RADIATION:
+            if (use_secant) {
+                secant(&net->links[i], ta, tb, &dqa, &dqb);
+            } else {
+                dqa = 4.0 * l->k * ta * ta * ta;
+                dqb = -4.0 * l->k * tb * tb * tb;
+            }
+            break;
+        case FAST_GROUP: {
+            const tp_net_group *g = &net->groups[l->group];
+            if (use_secant) {
+                dqa = g->h_secant * l->k;
+                dqb = -dqa;
+            } else {
+                double share = net->links[i].area / g->area;
+                dqa = g->h * l->k + g->dh_ds * share * l->k * (ta - tb);
+                dqb = -g->h * l->k + g->dh_db * l->k * (ta - tb);
+            }
+            break;
+        }
+        default:
+            if (use_secant)
+                secant(&net->links[i], ta, tb, &dqa, &dqb);
+            else
+                tp_network_link_flow(&net->links[i], ta, tb, &dqa, &dqb);
+            break;
+        }
+        ia = l->sa >= 0 ? f->inv_cap[l->sa] : 0.0;
+        ib = l->sb >= 0 ? f->inv_cap[l->sb] : 0.0;
+        if (sl[0] >= 0)
+            values[sl[0]] -= dqa * ia;
+        if (sl[1] >= 0)
+            values[sl[1]] -= dqb * ia;
+        if (sl[2] >= 0)
+            values[sl[2]] += dqa * ib;
+        if (sl[3] >= 0)
+            values[sl[3]] += dqb * ib;
+        if (sl[4] >= 0)
+            values[sl[4]] += dqa;
+        if (sl[5] >= 0)
+            values[sl[5]] -= dqb;
+    }
+    for (i = 0; i < net->n_sources; i++) {
+        const tp_net_source *s = &net->sources[i];
+        const int *sl = net->src_slot + net->src_first[i];
+        double *buf = net->src_work;
+        source_eval(s, t, net->duty[i], NULL, buf, buf + s->n_nodes, buf + 2 * s->n_nodes, NULL);
+        for (k = 0; k < s->n_nodes; k++) {
+            int st = net->nodes[s->nodes[k]].state;
+            if (sl[3 * k] >= 0)
+                values[sl[3 * k]] += buf[k] * f->inv_cap[st];
+            if (sl[3 * k + 1] >= 0)
+                values[sl[3 * k + 1]] += buf[s->n_nodes + k];
+            if (sl[3 * k + 2] >= 0)
+                values[sl[3 * k + 2]] += buf[2 * s->n_nodes + k];
+        }
+    }
+    for (i = 0; i < net->nnz; i++)
+        if (!isfinite(values[i]))
+            return 1;
+    return 0;
 }

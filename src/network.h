@@ -90,18 +90,13 @@ typedef struct tp_net_grid {
     int *top_link;              /* 2 * nx * ny: that face's convection and radiation link of
                                    each cell (-1 when none) */
     double sensor_x, sensor_y;  /* m: where the sensor sits (NaN without a sensor) */
+    struct tp_network *lumped;  /* the lumped network it was refined from (owned, finished):
+                                   its steady states start the grid's */
+    int *from;                  /* per node: the node of `lumped` it was refined from */
 } tp_net_grid;
 
-/* Compact copies of the links for fast evaluation of large (gridded) networks; built by
- * tp_network_finish. */
-typedef struct tp_fast_link {
-    int a, b;       /* node indices */
-    int sa, sb;     /* their states, -1 for fixed nodes */
-    int kind;       /* how Q is computed (network.c) */
-    int group;      /* coefficient group (TP_FAST_GROUP) */
-    double k;       /* W/K (linear), or m2 (area x scale: radiation, groups) */
-    double eps;     /* radiation */
-} tp_fast_link;
+/* Compact arrays for evaluating a large (gridded) network fast; private to network.c. */
+typedef struct tp_net_fast tp_net_fast;
 
 typedef enum tp_source_kind { TP_SRC_POWER, TP_SRC_ELECTRIC } tp_source_kind;
 
@@ -142,10 +137,7 @@ typedef struct tp_network {
     int n_groups, cap_groups;
     int *group_links;   /* members of every group, by group (built by tp_network_finish) */
     int cap_nodes, cap_links, cap_sources; /* allocated entries */
-    tp_fast_link *fast; /* n_links compact links (gridded networks), NULL otherwise */
-    double *inv_cap;    /* n_free: 1 / capacity of each state (with `fast`) */
-    int *fixed_nodes;   /* node indices of the fixed nodes (with `fast`) */
-    int n_fixed;
+    tp_net_fast *fast;  /* gridded networks (owned), NULL otherwise */
     tp_run run;
     /* Jacobian sparsity (compressed sparse columns over the whole state), built once. */
     int nnz;

@@ -554,7 +554,7 @@ tp_status tp_plate_lower(const tp_desc *desc, const tp_doc *doc, tp_network *net
         return TP_ERR_NOMEM;
     st = lower_lumped(desc, doc, lumped, d);
     if (st == TP_OK)
-        st = tp_grid_refine(desc, doc, lumped, net, d);
+        st = tp_grid_refine(desc, doc, &lumped, net, d);
     tp_network_destroy(&lumped);
     return st;
 }

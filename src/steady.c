@@ -11,6 +11,7 @@
 #include "steady.h"
 
 #include "desc.h"
+#include "multigrid.h"
 
 #include <math.h>
 #include <stdio.h>
@@ -21,6 +22,7 @@
 #include <nvector/nvector_serial.h>
 #include <sundials/sundials_context.h>
 #include <sunlinsol/sunlinsol_klu.h>
+#include <sunlinsol/sunlinsol_spgmr.h>
 #include <sunmatrix/sunmatrix_sparse.h>
 
 #define TP_SECANT_ITERS 60       /* secant iterations at most before Newton */
@@ -28,6 +30,8 @@
 #define TP_MAX_MOVE 300.0        /* K: largest temperature change of one secant step */
 #define TP_FNORM_TOL 1.0e-9      /* W (scaled): KINSOL residual tolerance */
 #define TP_KIN_ITERS 200         /* Newton iterations at most */
+#define TP_STEADY_KRYLOV 40      /* Krylov vectors of GMRES (gridded networks) */
+#define TP_STEADY_RESTARTS 20    /* GMRES restarts at most (gridded networks) */
 
 typedef struct sys {
     tp_network *net;
@@ -47,6 +51,14 @@ typedef struct sys {
     int *map;        /* network slot -> system slot (-1: dropped) */
     int *ucol;       /* hold: slots of column u, one per source node (-1 when fixed) */
     int urow;        /* hold: slot of (n-1, sensor) */
+    /* Gridded networks: Newton-Krylov with the multigrid preconditioner (docs/grid.md). */
+    int iterative;
+    tp_mg *mg;
+    int *mgslot;     /* system slot -> slot of the hierarchy's fine matrix, -1 */
+    double *mgval;   /* the temperature block of the system Jacobian */
+    double *jsys;    /* the system Jacobian (pattern order) at the last setup */
+    double *w;       /* hold: the preconditioner applied to the column of u */
+    double *ytmp;    /* n_free work */
     char msg[512];
 } sys;
 
@@ -60,6 +72,37 @@ static void sys_clear(sys *s)
     free(s->rowind);
     free(s->map);
     free(s->ucol);
+    tp_mg_destroy(&s->mg);
+    free(s->mgslot);
+    free(s->mgval);
+    free(s->jsys);
+    free(s->w);
+    free(s->ytmp);
+}
+
+/* The multigrid hierarchy of a gridded network's temperature block. */
+static tp_status sys_init_iterative(sys *s)
+{
+    const tp_network *net = s->net;
+    int k, *netmap = malloc((size_t)(net->nnz > 0 ? net->nnz : 1) * sizeof *netmap);
+    s->iterative = 1;
+    s->mgslot = malloc((size_t)(s->nnz > 0 ? s->nnz : 1) * sizeof *s->mgslot);
+    s->mgval = calloc((size_t)(net->nnz > 0 ? net->nnz : 1), sizeof *s->mgval);
+    s->jsys = calloc((size_t)(s->nnz > 0 ? s->nnz : 1), sizeof *s->jsys);
+    s->w = calloc((size_t)s->nf + 1, sizeof *s->w);
+    s->ytmp = calloc((size_t)s->nf + 1, sizeof *s->ytmp);
+    s->mg = netmap ? tp_mg_for_network(net, netmap) : NULL;
+    if (!netmap || !s->mgslot || !s->mgval || !s->jsys || !s->w || !s->ytmp || !s->mg) {
+        free(netmap);
+        return TP_ERR_NOMEM;
+    }
+    for (k = 0; k < s->nnz; k++)
+        s->mgslot[k] = -1;
+    for (k = 0; k < net->nnz; k++)
+        if (s->map[k] >= 0 && netmap[k] >= 0)
+            s->mgslot[s->map[k]] = netmap[k];
+    free(netmap);
+    return TP_OK;
 }
 
 static tp_status sys_init(sys *s, tp_network *net, int hold)
@@ -142,6 +185,10 @@ static tp_status sys_init(sys *s, tp_network *net, int hold)
     }
     s->colptr[s->n] = m;
     s->nnz = m;
+    if (net->grid && net->n_free >= TP_MG_MIN_UNKNOWNS && sys_init_iterative(s) != TP_OK) {
+        sys_clear(s);
+        return TP_ERR_NOMEM;
+    }
     return TP_OK;
 }
 
@@ -233,6 +280,79 @@ static void kin_info(const char *module, const char *function, char *msg, void *
     (void)user;
 }
 
+/* ---- Newton-Krylov for gridded networks ------------------------------------------------------
+ * The system Jacobian is K = [A p; e_s^T 0] (the border only for the holding point: p the
+ * power of the controlled source per unit duty, e_s the sensor's row). The preconditioner
+ * replaces A^-1 by one multigrid V-cycle M and eliminates the border exactly:
+ *   y = M v_T,  u = (y_s - v_u) / (M p)_s,  x = y - (M p) u. */
+
+static int kin_psetup(N_Vector uu, N_Vector us, N_Vector fval, N_Vector fs, void *user)
+{
+    sys *s = user;
+    int k;
+    (void)us;
+    (void)fval;
+    (void)fs;
+    if (jacobian(s, N_VGetArrayPointer(uu), s->jsys, 0) != 0)
+        return 1;
+    for (k = 0; k < s->nnz; k++)
+        if (s->mgslot[k] >= 0)
+            s->mgval[s->mgslot[k]] = s->jsys[k];
+    if (tp_mg_setup(s->mg, s->mgval) != TP_OK)
+        return 1;
+    if (s->hold) {
+        for (k = 0; k < s->nf; k++)
+            s->ytmp[k] = 0.0;
+        for (k = s->colptr[s->nf]; k < s->colptr[s->nf + 1]; k++)
+            s->ytmp[s->rowind[k]] = s->jsys[k];
+        tp_mg_vcycle(s->mg, s->ytmp, s->w);
+        if (!(s->w[s->sensor] != 0.0))
+            return 1;
+    }
+    return 0;
+}
+
+static int kin_psolve(N_Vector uu, N_Vector us, N_Vector fval, N_Vector fs, N_Vector vv,
+                      void *user)
+{
+    sys *s = user;
+    double *v = N_VGetArrayPointer(vv);
+    int k;
+    (void)uu;
+    (void)us;
+    (void)fval;
+    (void)fs;
+    tp_mg_vcycle(s->mg, v, s->ytmp);
+    if (s->hold) {
+        double u = (s->ytmp[s->sensor] - v[s->nf]) / s->w[s->sensor];
+        for (k = 0; k < s->nf; k++)
+            v[k] = s->ytmp[k] - s->w[k] * u;
+        v[s->nf] = u;
+    } else {
+        memcpy(v, s->ytmp, (size_t)s->nf * sizeof *v);
+    }
+    return 0;
+}
+
+/* K v with the Jacobian of the last preconditioner setup (refreshed when u moved). */
+static int kin_jtimes(N_Vector vv, N_Vector jv, N_Vector uu, booleantype *new_uu, void *user)
+{
+    sys *s = user;
+    const double *v = N_VGetArrayPointer(vv);
+    double *out = N_VGetArrayPointer(jv);
+    int c, k;
+    if (*new_uu) {
+        if (jacobian(s, N_VGetArrayPointer(uu), s->jsys, 0) != 0)
+            return 1;
+        *new_uu = SUNFALSE;
+    }
+    memset(out, 0, (size_t)s->n * sizeof *out);
+    for (c = 0; c < s->n; c++)
+        for (k = s->colptr[c]; k < s->colptr[c + 1]; k++)
+            out[s->rowind[k]] += s->jsys[k] * v[c];
+    return 0;
+}
+
 /* Every free node must reach a fixed node through links, or no steady state exists. */
 static const char *isolated_node(const tp_network *net)
 {
@@ -286,14 +406,16 @@ static tp_status solve(sys *s, double *x, long *iters, tp_diag *d)
         st = TP_ERR_NOMEM;
         goto done;
     }
-    /* Secant phase: solve J_sec dx = -F by KLU, damped to TP_MAX_MOVE per step. */
-    lss = SUNLinSol_KLU(u, Js, ctx);
-    if (!lss) {
+    /* Secant phase: solve J_sec dx = -F by KLU, damped to TP_MAX_MOVE per step. A gridded
+     * network starts from its lumped network's steady state instead, close enough for Newton. */
+    lss = s->iterative ? NULL : SUNLinSol_KLU(u, Js, ctx);
+    if (!lss && !s->iterative) {
         st = TP_ERR_NOMEM;
         goto done;
     }
-    copy_pattern(s, Js);
-    for (it = 0; it < TP_SECANT_ITERS; it++) {
+    if (!s->iterative)
+        copy_pattern(s, Js);
+    for (it = 0; it < TP_SECANT_ITERS && !s->iterative; it++) {
         double move = 0.0, scale = 1.0;
         N_Vector b = fs, xx = us;
         if (residual(s, x, f) != 0 || jacobian(s, x, SUNSparseMatrix_Data(Js), 1) != 0)
@@ -321,7 +443,8 @@ static tp_status solve(sys *s, double *x, long *iters, tp_diag *d)
         N_VGetArrayPointer(fs)[i] = 1.0;
     }
     kin = KINCreate(ctx);
-    ls = SUNLinSol_KLU(u, J, ctx);
+    ls = s->iterative ? SUNLinSol_SPGMR(u, SUN_PREC_RIGHT, TP_STEADY_KRYLOV, ctx)
+                      : SUNLinSol_KLU(u, J, ctx);
     if (!kin || !ls || KINInit(kin, kin_f, u) != KIN_SUCCESS ||
         KINSetUserData(kin, s) != KIN_SUCCESS ||
         KINSetErrHandlerFn(kin, kin_err, s) != KIN_SUCCESS ||
@@ -329,8 +452,16 @@ static tp_status solve(sys *s, double *x, long *iters, tp_diag *d)
         KINSetFuncNormTol(kin, TP_FNORM_TOL) != KIN_SUCCESS ||
         KINSetScaledStepTol(kin, 1e-13) != KIN_SUCCESS ||
         KINSetNumMaxIters(kin, TP_KIN_ITERS) != KIN_SUCCESS ||
-        KINSetMaxSetupCalls(kin, 1) != KIN_SUCCESS ||
-        KINSetLinearSolver(kin, ls, J) != KIN_SUCCESS || KINSetJacFn(kin, kin_jac) != KIN_SUCCESS) {
+        KINSetMaxSetupCalls(kin, 1) != KIN_SUCCESS) {
+        st = TP_ERR_NOMEM;
+        goto done;
+    }
+    if (s->iterative ? (SUNLinSol_SPGMRSetMaxRestarts(ls, TP_STEADY_RESTARTS) != SUNLS_SUCCESS ||
+                        KINSetLinearSolver(kin, ls, NULL) != KIN_SUCCESS ||
+                        KINSetPreconditioner(kin, kin_psetup, kin_psolve) != KIN_SUCCESS ||
+                        KINSetJacTimesVecFn(kin, kin_jtimes) != KIN_SUCCESS)
+                     : (KINSetLinearSolver(kin, ls, J) != KIN_SUCCESS ||
+                        KINSetJacFn(kin, kin_jac) != KIN_SUCCESS)) {
         st = TP_ERR_NOMEM;
         goto done;
     }
@@ -406,6 +537,35 @@ static tp_status check_grounded(const tp_network *net, tp_diag *d)
     return TP_OK;
 }
 
+/* A gridded network's starting point: the steady state of the lumped network it was refined
+ * from, each cell at its layer's temperature (and, for the holding point, the lumped duty).
+ * Returns 0, or -1 when the lumped network has no such state. */
+static int lumped_guess(tp_network *net, int hold, double target, double duty_scale, double *x)
+{
+    tp_network *lp = net->grid->lumped;
+    const int *from = net->grid->from;
+    tp_steady st;
+    tp_diag quiet;
+    int i, rc;
+    tp_diag_init(&quiet, NULL);
+    lp->has_control = net->has_control;
+    lp->control = net->control;
+    if (net->has_control)
+        lp->control.sensor = from[net->control.sensor];
+    for (i = 0; i < net->n_sources && i < lp->n_sources; i++)
+        lp->duty[i] = net->duty[i];
+    rc = hold ? tp_steady_hold_at(lp, target, &st, &quiet)
+              : tp_steady_full(lp, duty_scale, &st, &quiet);
+    if (rc != TP_OK)
+        return -1;
+    for (i = 0; i < net->n_free; i++)
+        x[i] = st.temps[from[net->free_nodes[i]]];
+    if (hold)
+        x[net->n_free] = st.duty;
+    tp_steady_clear(&st);
+    return 0;
+}
+
 tp_status tp_steady_full(tp_network *net, double duty_scale, tp_steady *out, tp_diag *d)
 {
     sys s;
@@ -433,6 +593,8 @@ tp_status tp_steady_full(tp_network *net, double duty_scale, tp_steady *out, tp_
     }
     for (i = 0; i < s.nf; i++)
         x[i] = net->nodes[net->free_nodes[i]].t0;
+    if (s.iterative)
+        lumped_guess(net, 0, TP_UNSET, duty_scale, x);
     st = solve(&s, x, &out->iterations, d);
     if (st == TP_OK)
         st = finish(net, &s, x, out);
@@ -446,8 +608,28 @@ tp_status tp_steady_full(tp_network *net, double duty_scale, tp_steady *out, tp_
 
 tp_status tp_steady_hold_at(tp_network *net, double target, tp_steady *out, tp_diag *d)
 {
-    sys s;
     tp_steady full;
+    tp_status st;
+    memset(out, 0, sizeof *out);
+    if (!net->has_control) {
+        tp_diag_error(d, tp_loc_none(), "control", "add a control: section with a setpoint",
+                      "a holding point needs a controller");
+        return TP_ERR_CONFIG;
+    }
+    /* Reachable at all? The full-power equilibrium bounds the reading. */
+    st = tp_steady_full(net, 1.0, &full, d);
+    if (st != TP_OK)
+        return st;
+    full.reading = full.temps[net->control.sensor] + net->control.reading.offset;
+    st = tp_steady_hold_given(net, target, &full, out, d);
+    tp_steady_clear(&full);
+    return st;
+}
+
+tp_status tp_steady_hold_given(tp_network *net, double target, const tp_steady *full,
+                               tp_steady *out, tp_diag *d)
+{
+    sys s;
     double *x, umax, saved_sp;
     tp_status st;
     int i;
@@ -458,43 +640,38 @@ tp_status tp_steady_hold_at(tp_network *net, double target, tp_steady *out, tp_d
         return TP_ERR_CONFIG;
     }
     umax = net->sources[net->control.source].max_duty;
-    /* Reachable at all? The full-power equilibrium bounds the reading. */
-    st = tp_steady_full(net, 1.0, &full, d);
-    if (st != TP_OK)
-        return st;
-    if (full.reading < target) {
+    if (full->reading < target) {
         tp_diag_error(d, tp_loc_none(), "control.setpoint",
                       "more heater power, better insulation, or a lower setpoint",
                       "the setpoint %.2f degC is out of reach: at full power (duty %.2f) the "
                       "reading levels off at %.2f degC", target - 273.15, umax,
-                      full.reading - 273.15);
-        tp_steady_clear(&full);
+                      full->reading - 273.15);
         return TP_ERR_SOLVER;
     }
     saved_sp = net->control.setpoint;
     net->control.setpoint = target;
     if (sys_init(&s, net, 1) != TP_OK) {
         net->control.setpoint = saved_sp;
-        tp_steady_clear(&full);
         return TP_ERR_NOMEM;
     }
     x = malloc((size_t)s.n * sizeof *x);
     if (!x) {
         net->control.setpoint = saved_sp;
         sys_clear(&s);
-        tp_steady_clear(&full);
         return TP_ERR_NOMEM;
     }
     /* Start between the room and the full-power state, at the duty that scales to it. */
     {
-        double tr = full.reading, t0 = net->nodes[net->control.sensor].t0;
+        double tr = full->reading, t0 = net->nodes[net->control.sensor].t0;
         double frac = (target - t0) / fmax(tr - t0, 1e-9);
         for (i = 0; i < s.nf; i++) {
             int node = net->free_nodes[i];
-            x[i] = net->nodes[node].t0 + frac * (full.temps[node] - net->nodes[node].t0);
+            x[i] = net->nodes[node].t0 + frac * (full->temps[node] - net->nodes[node].t0);
         }
         x[s.nf] = umax * fmin(fmax(frac, 0.0), 1.0);
     }
+    if (s.iterative)
+        lumped_guess(net, 1, target, 1.0, x);
     {
         double saved = net->duty[s.src];
         st = solve(&s, x, &out->iterations, d);
@@ -505,7 +682,6 @@ tp_status tp_steady_hold_at(tp_network *net, double target, tp_steady *out, tp_d
     net->control.setpoint = saved_sp;
     free(x);
     sys_clear(&s);
-    tp_steady_clear(&full);
     return st;
 }
 

@@ -91,11 +91,13 @@ tp_status tp_warmup_run(tp_network *net, tp_warmup *w, tp_diag *d)
      * summary says why), so their messages go to a silent sink. */
     tp_diag_init(&quiet, NULL);
     w->has_full = tp_steady_full(net, 1.0, &w->full, &quiet) == TP_OK;
-    if (net->has_control && isfinite(net->control.setpoint) &&
-        (net->control.mode == TP_MODE_ONOFF || net->control.mode == TP_MODE_PID))
-        w->has_hold = tp_steady_hold(net, &w->hold, &quiet) == TP_OK;
     if (net->has_control && w->has_full)
         w->full.reading = w->full.temps[net->control.sensor] + net->control.reading.offset;
+    /* The holding point starts from the full-power state just found (not solved twice). */
+    if (net->has_control && isfinite(net->control.setpoint) && w->has_full &&
+        (net->control.mode == TP_MODE_ONOFF || net->control.mode == TP_MODE_PID))
+        w->has_hold = tp_steady_hold_given(net, net->control.setpoint, &w->full, &w->hold,
+                                           &quiet) == TP_OK;
     if (net->grid && (st = grid_before(net, w)) != TP_OK)
         return st;
     tp_integrate_defaults(net, &o);
