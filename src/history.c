@@ -19,11 +19,15 @@ static tp_status grid_columns(tp_history *h, const tp_network *net)
     h->map = malloc((size_t)(g->nx * g->ny) * sizeof *h->map);
     h->map_prev = malloc((size_t)(g->nx * g->ny) * sizeof *h->map_prev);
     h->map_cross = malloc((size_t)(g->nx * g->ny) * sizeof *h->map_cross);
+    h->cell_cap = calloc((size_t)cells, sizeof *h->cell_cap);
     if (!in_grid || !h->out_nodes || !h->out_kind || !h->out_layer || !h->map || !h->map_prev ||
-        !h->map_cross) {
+        !h->map_cross || !h->cell_cap) {
         free(in_grid);
         return TP_ERR_NOMEM;
     }
+    for (i = 0; i < cells; i++)
+        if (g->cell[i] >= 0)
+            h->cell_cap[i] = net->nodes[g->cell[i]].capacity;
     for (l = 0; l < g->n_layers; l++) {
         static const tp_col_kind kinds[3] = {TP_COL_MEAN, TP_COL_MIN, TP_COL_MAX};
         for (i = 0; i < 3; i++) {
@@ -91,6 +95,7 @@ void tp_history_clear(tp_history *h)
     free(h->map);
     free(h->map_prev);
     free(h->map_cross);
+    free(h->cell_cap);
     memset(h, 0, sizeof *h);
 }
 
@@ -128,12 +133,13 @@ static void layer_stats(tp_history *h, long i, const double *temps)
     for (l = 0; l < g->n_layers; l++) {
         double sum = 0.0, lo = HUGE_VAL, hi = -HUGE_VAL;
         const int *cell = g->cell + (size_t)l * (size_t)n;
+        const double *cap = h->cell_cap + (size_t)l * (size_t)n;
         for (c = 0; c < n; c++) {
             double t;
             if (cell[c] < 0)
                 continue;
             t = temps[cell[c]];
-            sum += h->net->nodes[cell[c]].capacity * t;
+            sum += cap[c] * t;
             lo = t < lo ? t : lo;
             hi = t > hi ? t : hi;
         }

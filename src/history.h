@@ -45,6 +45,7 @@ typedef struct tp_history {
     double cross_level;    /* K: keep the map when the reading first reaches this (NaN: none) */
     double cross_time;     /* s, interpolated between rows (NaN until it happens) */
     double *map_cross;     /* nx * ny: the map at cross_time, interpolated likewise */
+    double *cell_cap;      /* n_layers * nx * ny: capacity of each cell, J/K (0: no cell) */
 } tp_history;
 
 /* Prepare an empty history for `net` (borrowed; must outlive the history). For a gridded

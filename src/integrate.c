@@ -34,6 +34,250 @@
 #define TP_JAC_REUSE_DT 0.5   /* K: a Jacobian is reused while no temperature moved more */
 #define TP_JAC_REUSE_DUTY 0.1 /* -, and no duty moved more (duty enters only via tempco) */
 
+/* ---- vector operations for large networks ---------------------------------------------------
+ * The SUNDIALS libraries of the distribution may be built without optimisation (Debian 12's
+ * 6.4.1 is: every serial vector operation keeps its loop variables in memory, several
+ * nanoseconds per element). For gridded networks, whose vectors have tens of thousands of
+ * entries, the integrator and the steady-state solver give their vectors these operations
+ * instead, with the same element-wise definitions (sums may round differently). */
+
+#define NV_LEN(v) ((long)NV_LENGTH_S(v))
+#define NV_DAT(v) NV_DATA_S(v)
+
+static void fv_linearsum(realtype a, N_Vector x, realtype b, N_Vector y, N_Vector z)
+{
+    const double *xd = NV_DAT(x), *yd = NV_DAT(y);
+    double *zd = NV_DAT(z);
+    long i, n = NV_LEN(x);
+    for (i = 0; i < n; i++)
+        zd[i] = a * xd[i] + b * yd[i];
+}
+
+static void fv_const(realtype c, N_Vector z)
+{
+    double *zd = NV_DAT(z);
+    long i, n = NV_LEN(z);
+    for (i = 0; i < n; i++)
+        zd[i] = c;
+}
+
+static void fv_prod(N_Vector x, N_Vector y, N_Vector z)
+{
+    const double *xd = NV_DAT(x), *yd = NV_DAT(y);
+    double *zd = NV_DAT(z);
+    long i, n = NV_LEN(x);
+    for (i = 0; i < n; i++)
+        zd[i] = xd[i] * yd[i];
+}
+
+static void fv_div(N_Vector x, N_Vector y, N_Vector z)
+{
+    const double *xd = NV_DAT(x), *yd = NV_DAT(y);
+    double *zd = NV_DAT(z);
+    long i, n = NV_LEN(x);
+    for (i = 0; i < n; i++)
+        zd[i] = xd[i] / yd[i];
+}
+
+static void fv_scale(realtype c, N_Vector x, N_Vector z)
+{
+    const double *xd = NV_DAT(x);
+    double *zd = NV_DAT(z);
+    long i, n = NV_LEN(x);
+    for (i = 0; i < n; i++)
+        zd[i] = c * xd[i];
+}
+
+static void fv_abs(N_Vector x, N_Vector z)
+{
+    const double *xd = NV_DAT(x);
+    double *zd = NV_DAT(z);
+    long i, n = NV_LEN(x);
+    for (i = 0; i < n; i++)
+        zd[i] = fabs(xd[i]);
+}
+
+static void fv_inv(N_Vector x, N_Vector z)
+{
+    const double *xd = NV_DAT(x);
+    double *zd = NV_DAT(z);
+    long i, n = NV_LEN(x);
+    for (i = 0; i < n; i++)
+        zd[i] = 1.0 / xd[i];
+}
+
+static void fv_addconst(N_Vector x, realtype b, N_Vector z)
+{
+    const double *xd = NV_DAT(x);
+    double *zd = NV_DAT(z);
+    long i, n = NV_LEN(x);
+    for (i = 0; i < n; i++)
+        zd[i] = xd[i] + b;
+}
+
+static realtype fv_dotprod(N_Vector x, N_Vector y)
+{
+    const double *xd = NV_DAT(x), *yd = NV_DAT(y);
+    double s0 = 0.0, s1 = 0.0;
+    long i, n = NV_LEN(x);
+    for (i = 0; i + 1 < n; i += 2) {
+        s0 += xd[i] * yd[i];
+        s1 += xd[i + 1] * yd[i + 1];
+    }
+    if (i < n)
+        s0 += xd[i] * yd[i];
+    return s0 + s1;
+}
+
+static realtype fv_maxnorm(N_Vector x)
+{
+    const double *xd = NV_DAT(x);
+    double m = 0.0;
+    long i, n = NV_LEN(x);
+    for (i = 0; i < n; i++)
+        if (fabs(xd[i]) > m)
+            m = fabs(xd[i]);
+    return m;
+}
+
+static realtype fv_wsqrsum(N_Vector x, N_Vector w)
+{
+    const double *xd = NV_DAT(x), *wd = NV_DAT(w);
+    double s0 = 0.0, s1 = 0.0;
+    long i, n = NV_LEN(x);
+    for (i = 0; i + 1 < n; i += 2) {
+        double p = xd[i] * wd[i], q = xd[i + 1] * wd[i + 1];
+        s0 += p * p;
+        s1 += q * q;
+    }
+    if (i < n)
+        s0 += (xd[i] * wd[i]) * (xd[i] * wd[i]);
+    return s0 + s1;
+}
+
+static realtype fv_wrmsnorm(N_Vector x, N_Vector w)
+{
+    return sqrt(fv_wsqrsum(x, w) / (double)NV_LEN(x));
+}
+
+static realtype fv_wl2norm(N_Vector x, N_Vector w)
+{
+    return sqrt(fv_wsqrsum(x, w));
+}
+
+static realtype fv_min(N_Vector x)
+{
+    const double *xd = NV_DAT(x);
+    double m = xd[0];
+    long i, n = NV_LEN(x);
+    for (i = 1; i < n; i++)
+        if (xd[i] < m)
+            m = xd[i];
+    return m;
+}
+
+static realtype fv_l1norm(N_Vector x)
+{
+    const double *xd = NV_DAT(x);
+    double s = 0.0;
+    long i, n = NV_LEN(x);
+    for (i = 0; i < n; i++)
+        s += fabs(xd[i]);
+    return s;
+}
+
+static void fv_compare(realtype c, N_Vector x, N_Vector z)
+{
+    const double *xd = NV_DAT(x);
+    double *zd = NV_DAT(z);
+    long i, n = NV_LEN(x);
+    for (i = 0; i < n; i++)
+        zd[i] = fabs(xd[i]) >= c ? 1.0 : 0.0;
+}
+
+static booleantype fv_invtest(N_Vector x, N_Vector z)
+{
+    const double *xd = NV_DAT(x);
+    double *zd = NV_DAT(z);
+    long i, n = NV_LEN(x);
+    booleantype ok = SUNTRUE;
+    for (i = 0; i < n; i++) {
+        if (xd[i] == 0.0)
+            ok = SUNFALSE;
+        else
+            zd[i] = 1.0 / xd[i];
+    }
+    return ok;
+}
+
+static int fv_linearcombination(int nv, realtype *c, N_Vector *X, N_Vector z)
+{
+    double *zd = NV_DAT(z);
+    long i, n = NV_LEN(z);
+    int j;
+    if (nv < 1)
+        return -1;
+    for (i = 0; i < n; i++) {
+        double s = c[0] * NV_DAT(X[0])[i];
+        for (j = 1; j < nv; j++)
+            s += c[j] * NV_DAT(X[j])[i];
+        zd[i] = s;
+    }
+    return 0;
+}
+
+static int fv_scaleaddmulti(int nv, realtype *a, N_Vector x, N_Vector *Y, N_Vector *Z)
+{
+    const double *xd = NV_DAT(x);
+    long i, n = NV_LEN(x);
+    int j;
+    for (j = 0; j < nv; j++) {
+        const double *yd = NV_DAT(Y[j]);
+        double *zd = NV_DAT(Z[j]);
+        for (i = 0; i < n; i++)
+            zd[i] = a[j] * xd[i] + yd[i];
+    }
+    return 0;
+}
+
+static int fv_dotprodmulti(int nv, N_Vector x, N_Vector *Y, realtype *d)
+{
+    int j;
+    for (j = 0; j < nv; j++)
+        d[j] = fv_dotprod(x, Y[j]);
+    return 0;
+}
+
+void tp_integrate_vector_ops(void *vector)
+{
+    N_Vector v = vector;
+    v->ops->nvlinearsum = fv_linearsum;
+    v->ops->nvconst = fv_const;
+    v->ops->nvprod = fv_prod;
+    v->ops->nvdiv = fv_div;
+    v->ops->nvscale = fv_scale;
+    v->ops->nvabs = fv_abs;
+    v->ops->nvinv = fv_inv;
+    v->ops->nvaddconst = fv_addconst;
+    v->ops->nvdotprod = fv_dotprod;
+    v->ops->nvmaxnorm = fv_maxnorm;
+    v->ops->nvwrmsnorm = fv_wrmsnorm;
+    v->ops->nvmin = fv_min;
+    v->ops->nvwl2norm = fv_wl2norm;
+    v->ops->nvl1norm = fv_l1norm;
+    v->ops->nvcompare = fv_compare;
+    v->ops->nvinvtest = fv_invtest;
+    v->ops->nvlinearcombination = fv_linearcombination;
+    v->ops->nvscaleaddmulti = fv_scaleaddmulti;
+    v->ops->nvdotprodmulti = fv_dotprodmulti;
+    v->ops->nvdotprodlocal = fv_dotprod;
+    v->ops->nvmaxnormlocal = fv_maxnorm;
+    v->ops->nvminlocal = fv_min;
+    v->ops->nvl1normlocal = fv_l1norm;
+    v->ops->nvinvtestlocal = fv_invtest;
+    v->ops->nvwsqrsumlocal = fv_wsqrsum;
+}
+
 /* ---- a KLU solver that keeps its factorization across restarts (gridded networks) --------
  *
  * SUNDIALS's KLU module forgets its symbolic analysis whenever CVODE initialises the linear
@@ -180,6 +424,8 @@ static SUNLinearSolver kluwrap_create(SUNContext ctx)
  * is solved by GMRES (SPGMR) with products by the cached Jacobian, preconditioned by one V-cycle
  * of tp_mg on C M (capacities times M: the network's own symmetric form) for the temperatures,
  * then exactly for the energy totals (their rows only read temperatures). */
+#define TP_MG_CYCLES 2 /* V-cycles per preconditioner solve (docs/grid.md, "Solver") */
+
 typedef struct precond {
     tp_mg *mg;
     int *map;       /* network pattern slot -> slot of the hierarchy's fine matrix, -1 */
@@ -302,7 +548,7 @@ static int psolve_cb(realtype t, N_Vector y, N_Vector fy, N_Vector r, N_Vector z
     (void)lr;
     for (c = 0; c < nf; c++)
         pc->b[c] = pc->cap[c] * rr[c];
-    tp_mg_vcycle(pc->mg, pc->b, zz);
+    tp_mg_solve(pc->mg, pc->b, zz, TP_MG_CYCLES);
     for (c = nf; c < n; c++)
         zz[c] = rr[c];
     for (k = 0; k < pc->n_quad; k++) {
@@ -354,7 +600,7 @@ static void precond_clear(precond *pc)
  * x = P^-1 b, then while the weighted residual of M x = b is above CVODE's tolerance (at most
  * TP_MG_CYCLES_MAX times) corrects it with x += P^-1 (b - M x). An inexact solve only slows
  * Newton's convergence; CVODE's nonlinear test still decides when a step is solved. */
-#define TP_MG_CYCLES_MAX 4 /* preconditioner applications per linear solve, at most */
+#define TP_MG_CYCLES_MAX 1 /* preconditioner applications per linear solve, at most */
 
 typedef struct mgsolve {
     void *a_data, *p_data;
@@ -659,11 +905,14 @@ static double out_time(const run *r, long k)
 
 static double reading_of(run *r, double t, const double *y)
 {
+    const tp_net_node *sensor;
     double reading;
     if (!r->net->has_control)
         return TP_UNSET;
-    tp_network_temperatures(r->net, y, r->temps);
-    reading = tp_reading(&r->net->control.reading, r->temps[r->net->control.sensor]);
+    /* Only the sensor's temperature: a large network is not copied at every tick. */
+    sensor = &r->net->nodes[r->net->control.sensor];
+    reading = tp_reading(&r->net->control.reading, sensor->state >= 0 ? y[sensor->state]
+                                                                       : sensor->t0);
     if (r->hooks && r->hooks->reading)
         reading = r->hooks->reading(r->hooks->user, t, reading);
     return reading;
@@ -756,9 +1005,11 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
         goto done;
     }
     y = N_VNew_Serial(n, ctx);
-    yi = N_VNew_Serial(n, ctx);
-    atol = N_VNew_Serial(n, ctx);
-    tmp = N_VNew_Serial(n, ctx);
+    if (y && net->grid)
+        tp_integrate_vector_ops(y); /* CVODE's vectors are clones of y and share its ops */
+    yi = y ? N_VClone(y) : NULL;
+    atol = y ? N_VClone(y) : NULL;
+    tmp = y ? N_VClone(y) : NULL;
     if (!y || !yi || !atol || !tmp) {
         st = TP_ERR_NOMEM;
         goto done;

@@ -67,6 +67,11 @@ typedef struct tp_integrate_stats {
     int stopped;           /* the output callback stopped the run */
 } tp_integrate_stats;
 
+/* Give a SUNDIALS serial vector (an N_Vector, passed untyped so that SUNDIALS types stay in the
+ * solver modules) compiled vector operations with the same definitions as the library's, for
+ * large networks (the library may be built without optimisation). Clones share them. */
+void tp_integrate_vector_ops(void *vector);
+
 /* Options from the network's run settings (duration, step, tolerance, limits). */
 void tp_integrate_defaults(const tp_network *net, tp_integrate_opts *o);
 

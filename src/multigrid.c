@@ -19,11 +19,12 @@ typedef struct level {
     int n, nnz;
     int *rowptr, *colind;
     int *diag;     /* slot of each row's diagonal */
-    int *order;    /* rows by colour: (layer + i + j) even, odd, then unknowns off the grid;
-                      rows of one colour do not couple (5-point cells, layers stacked), so a
-                      sweep in this order has no chain of dependent updates */
     double *val;
     double *inv_diag;
+    double *dval;    /* diagonal */
+    int *optr, *ocol; /* the off-diagonal entries by row, for the sweeps */
+    float *oval;     /* their values in single precision: a preconditioner needs no more,
+                        and the sweeps read half the memory */
     int *agg;      /* n: the aggregate (unknown of the next level) of each unknown */
     int *cslot;    /* nnz: the next level's slot each entry adds to */
     char *inplane; /* nnz: the entry couples two different aggregates of one layer (coarse
@@ -37,6 +38,9 @@ struct tp_mg {
     level lv[TP_MG_LEVELS_MAX];
     double *lu;    /* coarsest level, dense LU (row major) */
     int *piv;
+    int *perm;     /* fine level: the caller's unknown of each internal one (colour order) */
+    int *vmap;     /* fine level: the caller's slot of each internal entry */
+    double *b0, *x0; /* the caller's vectors in internal order */
 };
 
 static void level_free(level *l)
@@ -44,9 +48,12 @@ static void level_free(level *l)
     free(l->rowptr);
     free(l->colind);
     free(l->diag);
-    free(l->order);
     free(l->val);
     free(l->inv_diag);
+    free(l->dval);
+    free(l->optr);
+    free(l->ocol);
+    free(l->oval);
     free(l->agg);
     free(l->cslot);
     free(l->inplane);
@@ -67,6 +74,10 @@ void tp_mg_destroy(tp_mg **mg)
         level_free(&(*mg)->lv[k]);
     free((*mg)->lu);
     free((*mg)->piv);
+    free((*mg)->perm);
+    free((*mg)->vmap);
+    free((*mg)->b0);
+    free((*mg)->x0);
     free(*mg);
     *mg = NULL;
 }
@@ -88,38 +99,62 @@ static int level_alloc(level *l, int n, int nnz)
     l->rowptr = malloc((size_t)(n + 1) * sizeof *l->rowptr);
     l->colind = malloc((size_t)(nnz > 0 ? nnz : 1) * sizeof *l->colind);
     l->diag = malloc((size_t)(n > 0 ? n : 1) * sizeof *l->diag);
-    l->order = malloc((size_t)(n > 0 ? n : 1) * sizeof *l->order);
     l->val = calloc((size_t)(nnz > 0 ? nnz : 1), sizeof *l->val);
     l->inv_diag = malloc((size_t)(n > 0 ? n : 1) * sizeof *l->inv_diag);
+    l->dval = malloc((size_t)(n > 0 ? n : 1) * sizeof *l->dval);
+    l->optr = malloc((size_t)(n + 1) * sizeof *l->optr);
+    l->ocol = malloc((size_t)(nnz > 0 ? nnz : 1) * sizeof *l->ocol);
+    l->oval = malloc((size_t)(nnz > 0 ? nnz : 1) * sizeof *l->oval);
     l->layer = malloc((size_t)(n > 0 ? n : 1) * sizeof *l->layer);
     l->ci = malloc((size_t)(n > 0 ? n : 1) * sizeof *l->ci);
     l->cj = malloc((size_t)(n > 0 ? n : 1) * sizeof *l->cj);
     l->x = malloc((size_t)(n > 0 ? n : 1) * sizeof *l->x);
     l->b = malloc((size_t)(n > 0 ? n : 1) * sizeof *l->b);
     l->r = malloc((size_t)(n > 0 ? n : 1) * sizeof *l->r);
-    return l->rowptr && l->colind && l->diag && l->order && l->val && l->inv_diag && l->layer &&
+    return l->rowptr && l->colind && l->diag && l->val && l->inv_diag && l->dval && l->optr &&
+                   l->ocol && l->oval && l->layer &&
                    l->ci && l->cj && l->x && l->b && l->r
                ? 0
                : -1;
 }
 
-/* Diagonal slots and the sweep order (by colour) of a level whose layer/ci/cj are set. */
+/* Every level numbers its unknowns by colour: (layer + i + j) even, odd, then the unknowns off
+ * the grid. Unknowns of one colour do not couple (cells meet their four neighbours and the
+ * cells above and below), so a Gauss-Seidel sweep in this order has no chain of dependent
+ * updates and reads the matrix front to back. */
+static int colour(int layer, int i, int j)
+{
+    return layer < 0 ? 2 : (layer + i + j) % 2;
+}
+
+/* The diagonal slot of every row, and the off-diagonal pattern. */
 static int find_diag(level *l)
 {
-    int i, k, m = 0, colour;
+    int i, k, m = 0;
     for (i = 0; i < l->n; i++) {
         l->diag[i] = -1;
-        for (k = l->rowptr[i]; k < l->rowptr[i + 1]; k++)
+        l->optr[i] = m;
+        for (k = l->rowptr[i]; k < l->rowptr[i + 1]; k++) {
             if (l->colind[k] == i)
                 l->diag[i] = k;
+            else
+                l->ocol[m++] = l->colind[k];
+        }
         if (l->diag[i] < 0)
             return -1;
     }
-    for (colour = 0; colour < 3; colour++)
-        for (i = 0; i < l->n; i++)
-            if ((l->layer[i] < 0 ? 2 : (l->layer[i] + l->ci[i] + l->cj[i]) % 2) == colour)
-                l->order[m++] = i;
+    l->optr[l->n] = m;
     return 0;
+}
+
+/* A stable ordering by colour of n unknowns: perm[new] = old. */
+static void colour_order(int n, const int *layer, const int *ci, const int *cj, int *perm)
+{
+    int c, i, m = 0;
+    for (c = 0; c < 3; c++)
+        for (i = 0; i < n; i++)
+            if (colour(layer[i], ci[i], cj[i]) == c)
+                perm[m++] = i;
 }
 
 /* Aggregates of level f into f->agg; returns the number of aggregates. Unknowns are visited in
@@ -181,6 +216,37 @@ static int coarsen(level *f, level *c)
     m = aggregate(f, first);
     if (m < 0)
         goto done;
+    /* Renumber the aggregates by colour (their representative's position, halved). */
+    {
+        int *lay = malloc((size_t)m * sizeof *lay), *ai = malloc((size_t)m * sizeof *ai);
+        int *aj = malloc((size_t)m * sizeof *aj), *perm = malloc((size_t)m * sizeof *perm);
+        int *inv = malloc((size_t)m * sizeof *inv), *first2 = malloc((size_t)m * sizeof *first2);
+        int ok = lay && ai && aj && perm && inv && first2;
+        for (i = 0; ok && i < m; i++) {
+            int p = first[i];
+            lay[i] = f->layer[p];
+            ai[i] = f->layer[p] >= 0 ? f->ci[p] / 2 : 0;
+            aj[i] = f->layer[p] >= 0 ? f->cj[p] / 2 : 0;
+        }
+        if (ok) {
+            colour_order(m, lay, ai, aj, perm);
+            for (i = 0; i < m; i++) {
+                inv[perm[i]] = i;
+                first2[i] = first[perm[i]];
+            }
+            for (i = 0; i < f->n; i++)
+                f->agg[i] = inv[f->agg[i]];
+            memcpy(first, first2, (size_t)m * sizeof *first);
+        }
+        free(lay);
+        free(ai);
+        free(aj);
+        free(perm);
+        free(inv);
+        free(first2);
+        if (!ok)
+            goto done;
+    }
     /* Members of each aggregate, then each coarse row's columns (sorted, unique). */
     cnt = calloc((size_t)m + 1, sizeof *cnt);
     fill = calloc((size_t)m + 1, sizeof *fill);
@@ -278,13 +344,42 @@ tp_mg *tp_mg_create(int n, const int *rowptr, const int *colind, const int *laye
         return NULL;
     l = &mg->lv[0];
     mg->n_levels = 1;
-    if (level_alloc(l, n, nnz) != 0)
+    mg->perm = malloc((size_t)(n > 0 ? n : 1) * sizeof *mg->perm);
+    mg->vmap = malloc((size_t)(nnz > 0 ? nnz : 1) * sizeof *mg->vmap);
+    mg->b0 = malloc((size_t)(n > 0 ? n : 1) * sizeof *mg->b0);
+    mg->x0 = malloc((size_t)(n > 0 ? n : 1) * sizeof *mg->x0);
+    if (!mg->perm || !mg->vmap || !mg->b0 || !mg->x0 || level_alloc(l, n, nnz) != 0)
         goto fail;
-    memcpy(l->rowptr, rowptr, (size_t)(n + 1) * sizeof *rowptr);
-    memcpy(l->colind, colind, (size_t)(nnz > 0 ? nnz : 1) * sizeof *colind);
-    memcpy(l->layer, layer, (size_t)n * sizeof *layer);
-    memcpy(l->ci, ci, (size_t)n * sizeof *ci);
-    memcpy(l->cj, cj, (size_t)n * sizeof *cj);
+    /* The fine level in colour order: row r is the caller's row perm[r], its columns renumbered
+     * and sorted, vmap[k] the caller's slot of entry k. */
+    {
+        int *inv = malloc((size_t)(n > 0 ? n : 1) * sizeof *inv), r, k, m = 0;
+        if (!inv)
+            goto fail;
+        colour_order(n, layer, ci, cj, mg->perm);
+        for (r = 0; r < n; r++)
+            inv[mg->perm[r]] = r;
+        l->rowptr[0] = 0;
+        for (r = 0; r < n; r++) {
+            int o = mg->perm[r], a = m;
+            for (k = rowptr[o]; k < rowptr[o + 1]; k++, m++) {
+                int c = inv[colind[k]], q = m;
+                /* insertion into the sorted row */
+                while (q > a && l->colind[q - 1] > c) {
+                    l->colind[q] = l->colind[q - 1];
+                    mg->vmap[q] = mg->vmap[q - 1];
+                    q--;
+                }
+                l->colind[q] = c;
+                mg->vmap[q] = k;
+            }
+            l->rowptr[r + 1] = m;
+            l->layer[r] = layer[o];
+            l->ci[r] = ci[o];
+            l->cj[r] = cj[o];
+        }
+        free(inv);
+    }
     if (find_diag(l) != 0)
         goto fail;
     while (mg->n_levels < TP_MG_LEVELS_MAX && mg->lv[mg->n_levels - 1].n > TP_MG_COARSE_MAX) {
@@ -372,9 +467,10 @@ static void solve_coarsest(const tp_mg *mg, const double *b, double *x)
 
 tp_status tp_mg_setup(tp_mg *mg, const double *values)
 {
-    int k, i;
+    int k, i, k2;
     level *f = &mg->lv[0];
-    memcpy(f->val, values, (size_t)(f->nnz > 0 ? f->nnz : 1) * sizeof *values);
+    for (i = 0; i < f->nnz; i++)
+        f->val[i] = values[mg->vmap[i]];
     for (k = 0; k + 1 < mg->n_levels; k++) {
         level *a = &mg->lv[k], *c = &mg->lv[k + 1];
         memset(c->val, 0, (size_t)(c->nnz > 0 ? c->nnz : 1) * sizeof *c->val);
@@ -398,51 +494,77 @@ tp_status tp_mg_setup(tp_mg *mg, const double *values)
     for (k = 0; k < mg->n_levels; k++) {
         level *l = &mg->lv[k];
         for (i = 0; i < l->n; i++) {
+            int m = l->optr[i];
             if (!(l->val[l->diag[i]] != 0.0) || !isfinite(l->val[l->diag[i]]))
                 return TP_ERR_SOLVER;
-            l->inv_diag[i] = 1.0 / l->val[l->diag[i]];
+            l->dval[i] = l->val[l->diag[i]];
+            l->inv_diag[i] = 1.0 / l->dval[i];
+            for (k2 = l->rowptr[i]; k2 < l->rowptr[i + 1]; k2++)
+                if (k2 != l->diag[i])
+                    l->oval[m++] = (float)l->val[k2];
         }
     }
     return factor_coarsest(mg) == 0 ? TP_OK : TP_ERR_SOLVER;
 }
 
+/* b_i - sum of the off-diagonal a_ij x_j, with two partial sums (a shorter chain of dependent
+ * additions). */
+static double row_off(const level *l, const double *b, const double *x, int i)
+{
+    int k = l->optr[i], end = l->optr[i + 1];
+    double s0 = b[i], s1 = 0.0;
+    for (; k + 1 < end; k += 2) {
+        s0 -= (double)l->oval[k] * x[l->ocol[k]];
+        s1 -= (double)l->oval[k + 1] * x[l->ocol[k + 1]];
+    }
+    if (k < end)
+        s0 -= (double)l->oval[k] * x[l->ocol[k]];
+    return s0 + s1;
+}
+
+/* b_i - (A x)_i. */
+static double row_residual(const level *l, const double *b, const double *x, int i)
+{
+    return row_off(l, b, x, i) - l->dval[i] * x[i];
+}
+
 static void gs_row(const level *l, const double *b, double *x, int i)
 {
-    int k;
-    double s = b[i];
-    for (k = l->rowptr[i]; k < l->rowptr[i + 1]; k++)
-        s -= l->val[k] * x[l->colind[k]];
-    x[i] += s * l->inv_diag[i];
+    x[i] = row_off(l, b, x, i) * l->inv_diag[i];
 }
 
 static void gs_forward(const level *l, const double *b, double *x)
 {
-    int m;
-    for (m = 0; m < l->n; m++)
-        gs_row(l, b, x, l->order[m]);
+    int i;
+    for (i = 0; i < l->n; i++)
+        gs_row(l, b, x, i);
 }
 
 static void gs_backward(const level *l, const double *b, double *x)
 {
-    int m;
-    for (m = l->n - 1; m >= 0; m--)
-        gs_row(l, b, x, l->order[m]);
+    int i;
+    for (i = l->n - 1; i >= 0; i--)
+        gs_row(l, b, x, i);
 }
 
 static void residual(const level *l, const double *b, const double *x, double *r)
 {
-    int i, k;
-    for (i = 0; i < l->n; i++) {
-        double s = b[i];
-        for (k = l->rowptr[i]; k < l->rowptr[i + 1]; k++)
-            s -= l->val[k] * x[l->colind[k]];
-        r[i] = s;
-    }
+    int i;
+    for (i = 0; i < l->n; i++)
+        r[i] = row_residual(l, b, x, i);
 }
 
 void tp_mg_residual(const tp_mg *mg, const double *b, const double *x, double *r)
 {
-    residual(&mg->lv[0], b, x, r);
+    const level *l = &mg->lv[0];
+    int i;
+    for (i = 0; i < l->n; i++) {
+        mg->b0[i] = b[mg->perm[i]];
+        mg->x0[i] = x[mg->perm[i]];
+    }
+    residual(l, mg->b0, mg->x0, l->r);
+    for (i = 0; i < l->n; i++)
+        r[mg->perm[i]] = l->r[i];
 }
 
 static void cycle(tp_mg *mg, int k, const double *b, double *x)
@@ -457,13 +579,8 @@ static void cycle(tp_mg *mg, int k, const double *b, double *x)
     memset(x, 0, (size_t)l->n * sizeof *x);
     gs_forward(l, b, x);
     memset(c->b, 0, (size_t)c->n * sizeof *c->b);
-    for (i = 0; i < l->n; i++) {
-        int s;
-        double r = b[i];
-        for (s = l->rowptr[i]; s < l->rowptr[i + 1]; s++)
-            r -= l->val[s] * x[l->colind[s]];
-        c->b[l->agg[i]] += r;
-    }
+    for (i = 0; i < l->n; i++)
+        c->b[l->agg[i]] += row_residual(l, b, x, i);
     cycle(mg, k + 1, c->b, c->x);
     for (i = 0; i < l->n; i++)
         x[i] += c->x[l->agg[i]];
@@ -472,7 +589,25 @@ static void cycle(tp_mg *mg, int k, const double *b, double *x)
 
 void tp_mg_vcycle(tp_mg *mg, const double *b, double *x)
 {
-    cycle(mg, 0, b, x);
+    tp_mg_solve(mg, b, x, 1);
+}
+
+void tp_mg_solve(tp_mg *mg, const double *b, double *x, int cycles)
+{
+    level *l = &mg->lv[0];
+    int i, k, n = l->n;
+    for (i = 0; i < n; i++)
+        mg->b0[i] = b[mg->perm[i]];
+    cycle(mg, 0, mg->b0, mg->x0);
+    for (k = 1; k < cycles; k++) {
+        /* Correct from the residual; the fine level's work vectors are free here. */
+        residual(l, mg->b0, mg->x0, l->r);
+        cycle(mg, 0, l->r, l->b);
+        for (i = 0; i < n; i++)
+            mg->x0[i] += l->b[i];
+    }
+    for (i = 0; i < n; i++)
+        x[mg->perm[i]] = mg->x0[i];
 }
 
 tp_mg *tp_mg_for_network(const tp_network *net, int *map)

@@ -42,6 +42,10 @@ tp_status tp_mg_setup(tp_mg *mg, const double *values);
  * correction, forward then backward, so the cycle is symmetric for a symmetric A). */
 void tp_mg_vcycle(tp_mg *mg, const double *b, double *x);
 
+/* x approximating A^-1 b by `cycles` V-cycles, each after the first correcting from the
+ * residual of the one before (the error shrinks by the cycle's contraction each time). */
+void tp_mg_solve(tp_mg *mg, const double *b, double *x, int cycles);
+
 /* r = b - A x on the fine level. */
 void tp_mg_residual(const tp_mg *mg, const double *b, const double *x, double *r);
 

@@ -48,6 +48,9 @@ const char *tp_loss_path_name(tp_loss_path p)
 static void fast_free(tp_net_fast **f);
 static tp_status build_fast(tp_network *net);
 static int fast_rhs(const tp_network *net, const double *y, double *ydot);
+static void fast_groups(const tp_network *net, const double *t, int derivs);
+static void fast_temperatures(const tp_network *net, const double *y, double *t);
+static double fast_q(const tp_network *net, int i, const double *t);
 static int fast_jacobian(const tp_network *net, const double *y, double *values, int use_secant);
 
 tp_network *tp_network_create(void)
@@ -440,6 +443,10 @@ void tp_network_initial_state(const tp_network *net, double *y)
 void tp_network_temperatures(const tp_network *net, const double *y, double *t)
 {
     int i;
+    if (net->fast) {
+        fast_temperatures(net, y, t);
+        return;
+    }
     for (i = 0; i < net->n_nodes; i++) {
         int s = net->nodes[i].state;
         t[i] = s >= 0 ? y[s] : net->nodes[i].t0;
@@ -810,7 +817,9 @@ static double surface_cells(const tp_network *net, const double *t, double *map)
     const tp_net_grid *g = net->grid;
     int c, n = g->nx * g->ny, top = (g->n_layers - 1) * n;
     double sum = 0.0, area = 0.0;
-    if (net->n_groups > 0)
+    if (net->n_groups > 0 && net->fast)
+        fast_groups(net, t, 0);
+    else if (net->n_groups > 0)
         eval_groups(net, t, 0);
     for (c = 0; c < n; c++) {
         int node = g->cell[top + c], k;
@@ -822,7 +831,8 @@ static double surface_cells(const tp_network *net, const double *t, double *map)
         }
         for (k = 0; k < 2; k++)
             if (g->top_link[2 * c + k] >= 0)
-                q += link_q(net, g->top_link[2 * c + k], t);
+                q += net->fast ? fast_q(net, g->top_link[2 * c + k], t)
+                               : link_q(net, g->top_link[2 * c + k], t);
         ts = t[node] - q / g->top_area[c] * net->top_half_r;
         if (map)
             map[c] = ts;
@@ -1098,6 +1108,23 @@ static void fast_groups(const tp_network *net, const double *t, int derivs)
             sum += f->garea[k] * t[f->gnode[k]];
         tm = gr->area > 0 ? sum / gr->area : tb;
         group_coefficients(gr, tm, tb, derivs);
+    }
+}
+
+/* The flow through link i from the compact record (groups evaluated). */
+static double fast_q(const tp_network *net, int i, const double *t)
+{
+    const fast_link *l = &net->fast->link[i];
+    double ta = t[l->a], tb = t[l->b];
+    switch (l->kind) {
+    case FAST_LINEAR:
+        return l->k * (ta - tb);
+    case FAST_RADIATION:
+        return l->k * (ta * ta + tb * tb) * (ta + tb) * (ta - tb);
+    case FAST_GROUP:
+        return net->groups[l->group].h * l->k * (ta - tb);
+    default:
+        return tp_network_link_flow(&net->links[i], ta, tb, NULL, NULL);
     }
 }
 
