@@ -119,9 +119,9 @@ static void summary(FILE *fp, const tp_session *s, const tp_warmup *w, const dou
     fprintf(fp, "  simulated %s: %ld steps, %ld right-hand sides, %ld Jacobians, %ld restarts "
                 "(%s", buf, w->stats.steps, w->stats.rhs_evals, w->stats.jac_evals,
             w->stats.restarts,
-            w->stats.iterative ? "GMRES with multigrid" : w->stats.sparse ? "KLU" : "dense LU");
+            w->stats.iterative ? "multigrid" : w->stats.sparse ? "KLU" : "dense LU");
     if (net->grid && w->stats.iterative)
-        fprintf(fp, "; %ld Newton and %ld linear iterations, %ld preconditioner setups",
+        fprintf(fp, "; %ld Newton iterations, %ld multigrid solves, %ld setups",
                 w->stats.newton_iters, w->stats.lin_iters, w->stats.factorizations);
     else if (net->grid)
         fprintf(fp, "; %ld factorizations, %ld reused", w->stats.factorizations,
@@ -307,7 +307,9 @@ static tp_status write_json(const char *path, const tp_session *s, const tp_warm
         tp_json_number(stats, "rhs_evals", (double)w->stats.rhs_evals);
         tp_json_number(stats, "jac_evals", (double)w->stats.jac_evals);
         tp_json_number(stats, "restarts", (double)w->stats.restarts);
-        cJSON_AddStringToObject(stats, "linear_solver", w->stats.sparse ? "klu" : "dense");
+        cJSON_AddStringToObject(stats, "linear_solver",
+                                w->stats.iterative ? "multigrid" : w->stats.sparse ? "klu"
+                                                                                   : "dense");
     }
     exposure(w, peak, &ex);
     nc = tp_report_caution_lines(&s->desc, s->net, &ex, lines);

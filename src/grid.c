@@ -81,6 +81,28 @@ void tp_grid_cell_at(const tp_net_grid *g, double x, double y, int *i, int *j)
     *j = b < 0 ? 0 : b >= g->ny ? g->ny - 1 : b;
 }
 
+void tp_grid_layer_stats(const tp_network *net, int layer, const double *t, double *mean,
+                         double *min, double *max)
+{
+    const tp_net_grid *g = net->grid;
+    int c, n = g->nx * g->ny;
+    const int *cell = g->cell + (size_t)layer * (size_t)n;
+    double sum = 0.0, cap = 0.0, lo = TP_UNSET, hi = TP_UNSET;
+    for (c = 0; c < n; c++) {
+        double v;
+        if (cell[c] < 0)
+            continue;
+        v = t[cell[c]];
+        sum += net->nodes[cell[c]].capacity * v;
+        cap += net->nodes[cell[c]].capacity;
+        lo = !(v >= lo) ? v : lo;
+        hi = !(v <= hi) ? v : hi;
+    }
+    *mean = cap > 0 ? sum / cap : TP_UNSET;
+    *min = lo;
+    *max = hi;
+}
+
 void tp_grid_cell_centre(const tp_net_grid *g, int i, int j, double *x, double *y)
 {
     *x = (i + 0.5) * g->width / g->nx;

@@ -30,6 +30,11 @@ tp_status tp_grid_refine(const tp_desc *desc, const tp_doc *doc, tp_network **lu
 /* Column and row of the cell at (x, y) m from the bed's lower-left corner, clamped to the grid. */
 void tp_grid_cell_at(const tp_net_grid *g, double x, double y, int *i, int *j);
 
+/* Capacity-weighted mean, coldest and hottest cell of layer `layer` at node temperatures `t`
+ * (K); NaN when the layer has no cell. */
+void tp_grid_layer_stats(const tp_network *net, int layer, const double *t, double *mean,
+                         double *min, double *max);
+
 /* Centre of cell (i, j), m from the bed's lower-left corner. */
 void tp_grid_cell_centre(const tp_net_grid *g, int i, int j, double *x, double *y);
 

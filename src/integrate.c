@@ -1199,10 +1199,10 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
     }
     add_stats(mem, stats);
 done:
-    if (dr.iterative)
+    if (dr.iterative) {
         stats->factorizations = dr.pc.setups;
-    if (getenv("TP_DEBUG_STATS"))
-        fprintf(stderr, "DEBUG prec solves %ld jtimes %ld linconvfails %ld lsetups %ld jversion %ld\n", stats->prec_solves, stats->jtimes, stats->lin_fails, stats->lin_setups, dr.jversion);
+        stats->jac_evals = dr.jversion; /* CVODE does not count the preconditioner's */
+    }
     else if (ls && net->grid && dr.sparse) {
         stats->factorizations = kw_of(ls)->factors + kw_of(ls)->refactors;
         stats->factorizations_skipped = kw_of(ls)->skips;

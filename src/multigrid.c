@@ -1,8 +1,9 @@
 /* Aggregation multigrid.
  *
  * Level 0 is the fine matrix A (n x n, CSR). Level k+1 has one unknown per aggregate of level
- * k: the cells (i, j) of one layer with the same (i / 2, j / 2); unknowns outside the grid stay
- * alone. With P the piecewise-constant prolongation (P_iI = 1 when i belongs to aggregate I),
+ * k: the cells (i, j) of one layer with the same (i / fx, j / fy), fx = fy = 2 for cells about
+ * square, only the short side joined (2 x 1 or 1 x 2) for slender ones; unknowns outside the
+ * grid stay alone. With P the piecewise-constant prolongation (P_iI = 1 when i belongs to aggregate I),
  * the coarse matrix is the Galerkin product A_c = P^T A P: for a thermal network (C + gamma K,
  * or the conductance matrix K of a steady state) it is the network of the aggregates, with
  * their capacities and the conductances between them summed. A V-cycle smooths with one
@@ -30,6 +31,8 @@ typedef struct level {
     char *inplane; /* nnz: the entry couples two different aggregates of one layer (coarse
                       levels; their Galerkin value is halved, see tp_mg_setup) */
     int *layer, *ci, *cj;
+    double aspect; /* width / depth of this level's cells */
+    int fx, fy;    /* cells joined along x and y into the next level (1 or 2) */
     double *x, *b, *r; /* work vectors */
 } level;
 
@@ -161,15 +164,16 @@ static void colour_order(int n, const int *layer, const int *ci, const int *cj, 
  * order, so an aggregate's index is that of its first member's first appearance. */
 static int aggregate(level *f, int *key_first)
 {
+    const int fx = f->fx, fy = f->fy;
     int i, m = 0, maxi = 0, maxj = 0, maxl = 0;
     int *seen;
     for (i = 0; i < f->n; i++) {
         if (f->layer[i] < 0)
             continue;
-        if (f->ci[i] / 2 > maxi)
-            maxi = f->ci[i] / 2;
-        if (f->cj[i] / 2 > maxj)
-            maxj = f->cj[i] / 2;
+        if (f->ci[i] / fx > maxi)
+            maxi = f->ci[i] / fx;
+        if (f->cj[i] / fy > maxj)
+            maxj = f->cj[i] / fy;
         if (f->layer[i] > maxl)
             maxl = f->layer[i];
     }
@@ -185,7 +189,7 @@ static int aggregate(level *f, int *key_first)
             continue;
         }
         {
-            int key = (f->layer[i] * (maxj + 1) + f->cj[i] / 2) * (maxi + 1) + f->ci[i] / 2;
+            int key = (f->layer[i] * (maxj + 1) + f->cj[i] / fy) * (maxi + 1) + f->ci[i] / fx;
             if (seen[key] < 0) {
                 seen[key] = m;
                 key_first[m++] = i;
@@ -225,8 +229,8 @@ static int coarsen(level *f, level *c)
         for (i = 0; ok && i < m; i++) {
             int p = first[i];
             lay[i] = f->layer[p];
-            ai[i] = f->layer[p] >= 0 ? f->ci[p] / 2 : 0;
-            aj[i] = f->layer[p] >= 0 ? f->cj[p] / 2 : 0;
+            ai[i] = f->layer[p] >= 0 ? f->ci[p] / f->fx : 0;
+            aj[i] = f->layer[p] >= 0 ? f->cj[p] / f->fy : 0;
         }
         if (ok) {
             colour_order(m, lay, ai, aj, perm);
@@ -313,16 +317,20 @@ static int coarsen(level *f, level *c)
     for (i = 0; i < m; i++) {
         int p = first[i];
         c->layer[i] = f->layer[p];
-        c->ci[i] = f->layer[p] >= 0 ? f->ci[p] / 2 : 0;
-        c->cj[i] = f->layer[p] >= 0 ? f->cj[p] / 2 : 0;
+        c->ci[i] = f->layer[p] >= 0 ? f->ci[p] / f->fx : 0;
+        c->cj[i] = f->layer[p] >= 0 ? f->cj[p] / f->fy : 0;
     }
+    c->aspect = f->aspect * f->fx / f->fy;
     c->inplane = malloc((size_t)(c->nnz > 0 ? c->nnz : 1));
     if (!c->inplane)
         goto done;
+    /* Which coarse links join aggregates along a direction in which cells were joined. */
     for (i = 0; i < m; i++)
         for (k = c->rowptr[i]; k < c->rowptr[i + 1]; k++) {
-            int J = c->colind[k];
-            c->inplane[k] = J != i && c->layer[i] >= 0 && c->layer[i] == c->layer[J];
+            int J = c->colind[k], same = J != i && c->layer[i] >= 0 && c->layer[i] == c->layer[J];
+            int along_x = same && c->ci[i] != c->ci[J] && c->cj[i] == c->cj[J];
+            int along_y = same && c->cj[i] != c->cj[J] && c->ci[i] == c->ci[J];
+            c->inplane[k] = (along_x && f->fx == 2) || (along_y && f->fy == 2);
         }
     rc = find_diag(c);
 done:
@@ -334,8 +342,11 @@ done:
     return rc;
 }
 
+#define TP_MG_SLENDER 0.5 /* -, cells narrower than this (width / depth, or its inverse) are
+                             joined across their short side only */
+
 tp_mg *tp_mg_create(int n, const int *rowptr, const int *colind, const int *layer,
-                    const int *ci, const int *cj)
+                    const int *ci, const int *cj, double aspect)
 {
     tp_mg *mg = calloc(1, sizeof *mg);
     level *l;
@@ -382,8 +393,13 @@ tp_mg *tp_mg_create(int n, const int *rowptr, const int *colind, const int *laye
     }
     if (find_diag(l) != 0)
         goto fail;
+    l->aspect = aspect > 0 && isfinite(aspect) ? aspect : 1.0;
     while (mg->n_levels < TP_MG_LEVELS_MAX && mg->lv[mg->n_levels - 1].n > TP_MG_COARSE_MAX) {
         level *f = &mg->lv[mg->n_levels - 1], *c = &mg->lv[mg->n_levels];
+        /* Join cells across their short side only while they are slender (semi-coarsening:
+         * conduction is strong across the short side), both ways once they are about square. */
+        f->fx = f->aspect < TP_MG_SLENDER ? 2 : f->aspect > 1.0 / TP_MG_SLENDER ? 1 : 2;
+        f->fy = f->aspect > 1.0 / TP_MG_SLENDER ? 2 : f->aspect < TP_MG_SLENDER ? 1 : 2;
         if (coarsen(f, c) != 0) {
             mg->n_levels++;
             goto fail;
@@ -476,11 +492,12 @@ tp_status tp_mg_setup(tp_mg *mg, const double *values)
         memset(c->val, 0, (size_t)(c->nnz > 0 ? c->nnz : 1) * sizeof *c->val);
         for (i = 0; i < a->nnz; i++)
             c->val[a->cslot[i]] += a->val[i];
-        /* Joining 2 x 2 cells, two fine links cross each side of an aggregate where one link
-         * of twice the length and twice the distance carries the same conduction: the Galerkin
-         * product with piecewise-constant transfer doubles in-plane conductances. Halving them
-         * (the diagonal keeping the row sum) restores the coarse network's conduction, so the
-         * coarse correction is not too small by a factor two for smooth errors. */
+        /* Joining cells along a direction, the Galerkin product with piecewise-constant
+         * transfer keeps the conductance of the links that cross the new cell boundary, where
+         * the coarse cells' centres are twice as far apart: it doubles the in-plane conduction
+         * along that direction. Halving those links (the diagonal keeping the row sum) restores
+         * the coarse network's conduction, so the coarse correction of smooth errors is not too
+         * small by a factor two. Links across a direction that was not joined are exact. */
         for (i = 0; i < c->n; i++) {
             int s;
             for (s = c->rowptr[i]; s < c->rowptr[i + 1]; s++)
@@ -653,7 +670,10 @@ tp_mg *tp_mg_for_network(const tp_network *net, int *map)
                     cj[s] = j;
                 }
     }
-    mg = tp_mg_create(nf, rowptr, colind, layer, ci, cj);
+    mg = tp_mg_create(nf, rowptr, colind, layer, ci, cj,
+                      net->grid ? (net->grid->width / net->grid->nx) /
+                                      (net->grid->depth / net->grid->ny)
+                                : 1.0);
 done:
     free(rowptr);
     free(fill);

@@ -1,6 +1,6 @@
 /* Aggregation multigrid for the linear systems of gridded plates: a hierarchy of coarser
- * networks built by joining 2 x 2 cells of a layer per level (Galerkin products with piecewise-
- * constant transfer), Gauss-Seidel smoothing and a dense LU at the coarsest level. Used as a
+ * networks built by joining 2 x 2 cells of a layer per level (2 x 1 while cells are slender;
+ * Galerkin products with piecewise-constant transfer), Gauss-Seidel smoothing and a dense LU at the coarsest level. Used as a
  * preconditioner by the integrator and the steady-state solver (docs/grid.md). Plain arrays
  * only: no SUNDIALS types. */
 #ifndef TP_MULTIGRID_H
@@ -19,10 +19,11 @@ typedef struct tp_mg tp_mg;
 
 /* A hierarchy for n unknowns with the square CSR pattern (rowptr[n + 1], colind; every row
  * holds its diagonal). Unknown k sits in cell (ci[k], cj[k]) of layer layer[k] >= 0, or outside
- * the grid (layer[k] < 0), where it stays alone at every level. Returns NULL when out of
- * memory. The arrays are copied. */
+ * the grid (layer[k] < 0), where it stays alone at every level. `aspect` is the cells' width
+ * (along i) over their depth (along j): slender cells are joined across their short side first.
+ * Returns NULL when out of memory. The arrays are copied. */
 tp_mg *tp_mg_create(int n, const int *rowptr, const int *colind, const int *layer,
-                    const int *ci, const int *cj);
+                    const int *ci, const int *cj, double aspect);
 
 /* A hierarchy for the temperature block (the first n_free states) of a network's Jacobian
  * pattern: the cells of a gridded network aggregate per layer, other nodes stay alone. For

@@ -11,6 +11,7 @@
 #include "steady.h"
 
 #include "desc.h"
+#include "integrate.h"
 #include "multigrid.h"
 
 #include <math.h>
@@ -398,8 +399,10 @@ static tp_status solve(sys *s, double *x, long *iters, tp_diag *d)
         goto done;
     }
     u = N_VNew_Serial(s->n, ctx);
-    us = N_VNew_Serial(s->n, ctx);
-    fs = N_VNew_Serial(s->n, ctx);
+    if (u && s->iterative)
+        tp_integrate_vector_ops(u); /* KINSOL's vectors are clones of u */
+    us = u ? N_VClone(u) : NULL;
+    fs = u ? N_VClone(u) : NULL;
     J = SUNSparseMatrix(s->n, s->n, s->nnz > 0 ? s->nnz : 1, CSC_MAT, ctx);
     Js = SUNSparseMatrix(s->n, s->n, s->nnz > 0 ? s->nnz : 1, CSC_MAT, ctx);
     if (!u || !us || !fs || !J || !Js) {
