@@ -424,7 +424,7 @@ static SUNLinearSolver kluwrap_create(SUNContext ctx)
  * is solved by GMRES (SPGMR) with products by the cached Jacobian, preconditioned by one V-cycle
  * of tp_mg on C M (capacities times M: the network's own symmetric form) for the temperatures,
  * then exactly for the energy totals (their rows only read temperatures). */
-#define TP_MG_CYCLES 2 /* V-cycles per preconditioner solve (docs/grid.md, "Solver") */
+#define TP_MG_CYCLES 1 /* V-cycles per preconditioner solve (docs/grid.md, "Solver") */
 
 typedef struct precond {
     tp_mg *mg;
@@ -595,21 +595,17 @@ static void precond_clear(precond *pc)
 }
 
 /* ---- a solver that applies the preconditioner ----------------------------------------------
- * With the multigrid V-cycle a close approximation of M^-1, GMRES spends most of its work on
- * vector operations and a second preconditioner solve to form its answer. This solver returns
- * x = P^-1 b, then while the weighted residual of M x = b is above CVODE's tolerance (at most
- * TP_MG_CYCLES_MAX times) corrects it with x += P^-1 (b - M x). An inexact solve only slows
- * Newton's convergence; CVODE's nonlinear test still decides when a step is solved. */
-#define TP_MG_CYCLES_MAX 1 /* preconditioner applications per linear solve, at most */
+ * The multigrid V-cycle is a close approximation of M^-1 (it shrinks the error about tenfold),
+ * so GMRES would spend most of its work on vector operations and a second preconditioner solve
+ * to form its answer. This solver returns x = P^-1 b. An inexact solve only slows Newton's
+ * convergence; CVODE's nonlinear test still decides when a step is solved (docs/grid.md). */
 
 typedef struct mgsolve {
     void *a_data, *p_data;
-    SUNATimesFn atimes;
+    SUNATimesFn atimes; /* kept because CVODE requires iterative solvers to take it */
     SUNPSetupFn psetup;
     SUNPSolveFn psolve;
-    N_Vector s1, r, z; /* scaling (borrowed), residual and correction work */
-    int iters, last_flag;
-    double resnorm;
+    int last_flag;
 } mgsolve;
 
 static mgsolve *ms_of(SUNLinearSolver S)
@@ -638,13 +634,6 @@ static int ms_setprec(SUNLinearSolver S, void *data, SUNPSetupFn psetup, SUNPSol
     return SUNLS_SUCCESS;
 }
 
-static int ms_setscaling(SUNLinearSolver S, N_Vector s1, N_Vector s2)
-{
-    (void)s2;
-    ms_of(S)->s1 = s1;
-    return SUNLS_SUCCESS;
-}
-
 static int ms_initialize(SUNLinearSolver S)
 {
     ms_of(S)->last_flag = SUNLS_SUCCESS;
@@ -663,36 +652,22 @@ static int ms_setup(SUNLinearSolver S, SUNMatrix A)
 static int ms_solve(SUNLinearSolver S, SUNMatrix A, N_Vector x, N_Vector b, realtype tol)
 {
     mgsolve *m = ms_of(S);
-    int k;
     (void)A;
-    m->iters = 0;
     if (m->psolve(m->p_data, b, x, tol, SUN_PREC_LEFT) != 0)
         return m->last_flag = SUNLS_PSOLVE_FAIL_REC;
-    m->iters = 1;
-    for (k = 1; k < TP_MG_CYCLES_MAX; k++) {
-        if (m->atimes(m->a_data, x, m->r) != 0)
-            return m->last_flag = SUNLS_ATIMES_FAIL_REC;
-        N_VLinearSum(1.0, b, -1.0, m->r, m->r);
-        /* CVODE's test: || S (b - M x) ||_2 < tol with S its weights. */
-        m->resnorm = m->s1 ? sqrt(N_VWSqrSumLocal(m->r, m->s1)) : sqrt(N_VDotProd(m->r, m->r));
-        if (m->resnorm < tol)
-            break;
-        if (m->psolve(m->p_data, m->r, m->z, tol, SUN_PREC_LEFT) != 0)
-            return m->last_flag = SUNLS_PSOLVE_FAIL_REC;
-        N_VLinearSum(1.0, x, 1.0, m->z, x);
-        m->iters++;
-    }
     return m->last_flag = SUNLS_SUCCESS;
 }
 
 static int ms_numiters(SUNLinearSolver S)
 {
-    return ms_of(S)->iters;
+    (void)S;
+    return 1;
 }
 
 static realtype ms_resnorm(SUNLinearSolver S)
 {
-    return ms_of(S)->resnorm;
+    (void)S;
+    return 0.0;
 }
 
 static sunindextype ms_lastflag(SUNLinearSolver S)
@@ -704,32 +679,18 @@ static int ms_free(SUNLinearSolver S)
 {
     if (!S)
         return SUNLS_SUCCESS;
-    if (S->content) {
-        N_VDestroy(ms_of(S)->r);
-        N_VDestroy(ms_of(S)->z);
-        free(S->content);
-    }
+    free(S->content);
     S->content = NULL;
     SUNLinSolFreeEmpty(S);
     return SUNLS_SUCCESS;
 }
 
-static SUNLinearSolver mgsolve_create(N_Vector y, SUNContext ctx)
+static SUNLinearSolver mgsolve_create(SUNContext ctx)
 {
     SUNLinearSolver S = SUNLinSolNewEmpty(ctx);
     mgsolve *m = calloc(1, sizeof *m);
-    if (m) {
-        m->r = N_VClone(y);
-        m->z = N_VClone(y);
-    }
-    if (!S || !m || !m->r || !m->z) {
-        if (m) {
-            if (m->r)
-                N_VDestroy(m->r);
-            if (m->z)
-                N_VDestroy(m->z);
-            free(m);
-        }
+    if (!S || !m) {
+        free(m);
         if (S)
             SUNLinSolFreeEmpty(S);
         return NULL;
@@ -739,7 +700,6 @@ static SUNLinearSolver mgsolve_create(N_Vector y, SUNContext ctx)
     S->ops->getid = kw_id;
     S->ops->setatimes = ms_setatimes;
     S->ops->setpreconditioner = ms_setprec;
-    S->ops->setscalingvectors = ms_setscaling;
     S->ops->initialize = ms_initialize;
     S->ops->setup = ms_setup;
     S->ops->solve = ms_solve;
@@ -1054,7 +1014,7 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
         goto done;
     }
     if (dr.iterative) {
-        ls = precond_init(&dr.pc, net) == 0 ? mgsolve_create(y, ctx) : NULL;
+        ls = precond_init(&dr.pc, net) == 0 ? mgsolve_create(ctx) : NULL;
         if (!ls || CVodeSetLinearSolver(mem, ls, NULL) != CV_SUCCESS ||
             CVodeSetPreconditioner(mem, psetup_cb, psolve_cb) != CV_SUCCESS ||
             CVodeSetJacTimes(mem, NULL, jtimes_cb) != CV_SUCCESS) {

@@ -3,12 +3,13 @@
  * Level 0 is the fine matrix A (n x n, CSR). Level k+1 has one unknown per aggregate of level
  * k: the cells (i, j) of one layer with the same (i / fx, j / fy), fx = fy = 2 for cells about
  * square, only the short side joined (2 x 1 or 1 x 2) for slender ones; unknowns outside the
- * grid stay alone. With P the piecewise-constant prolongation (P_iI = 1 when i belongs to aggregate I),
- * the coarse matrix is the Galerkin product A_c = P^T A P: for a thermal network (C + gamma K,
- * or the conductance matrix K of a steady state) it is the network of the aggregates, with
- * their capacities and the conductances between them summed. A V-cycle smooths with one
- * Gauss-Seidel sweep, restricts the residual by summing it over each aggregate, corrects from
- * the next level, prolongs by injection and smooths with one backward sweep. The coarsest level
+ * grid stay alone. With P the piecewise-constant prolongation (P_iI = 1 when i belongs to
+ * aggregate I), the coarse matrix is the Galerkin product A_c = P^T A P: for a thermal network
+ * (C + gamma K, or the conductance matrix K of a steady state) it is the network of the
+ * aggregates, with their capacities and the conductances between them summed (in-plane ones
+ * then halved, see tp_mg_setup). A V-cycle smooths with TP_MG_SWEEPS red-black Gauss-Seidel
+ * sweeps, restricts the residual by summing it over each aggregate, corrects from the next
+ * level, prolongs by injection and smooths with as many backward sweeps. The coarsest level
  * (at most TP_MG_COARSE_MAX unknowns) is solved by dense LU with partial pivoting. */
 #include "multigrid.h"
 
@@ -32,6 +33,7 @@ typedef struct level {
                       levels; their Galerkin value is halved, see tp_mg_setup) */
     int *layer, *ci, *cj;
     double aspect; /* width / depth of this level's cells */
+    int n0;        /* unknowns of the first colour (they come first) */
     int fx, fy;    /* cells joined along x and y into the next level (1 or 2) */
     double *x, *b, *r; /* work vectors */
 } level;
@@ -147,6 +149,9 @@ static int find_diag(level *l)
             return -1;
     }
     l->optr[l->n] = m;
+    for (l->n0 = 0; l->n0 < l->n &&
+                    colour(l->layer[l->n0], l->ci[l->n0], l->cj[l->n0]) == 0; l->n0++)
+        ;
     return 0;
 }
 
@@ -593,15 +598,23 @@ static void cycle(tp_mg *mg, int k, const double *b, double *x)
         return;
     }
     c = &mg->lv[k + 1];
-    memset(x, 0, (size_t)l->n * sizeof *x);
-    gs_forward(l, b, x);
+    /* From x = 0 the first colour's rows see no neighbour yet. */
+    for (i = 0; i < l->n0; i++)
+        x[i] = b[i] * l->inv_diag[i];
+    for (; i < l->n; i++)
+        x[i] = 0.0;
+    for (i = l->n0; i < l->n; i++)
+        gs_row(l, b, x, i);
+    for (i = 1; i < TP_MG_SWEEPS; i++)
+        gs_forward(l, b, x);
     memset(c->b, 0, (size_t)c->n * sizeof *c->b);
     for (i = 0; i < l->n; i++)
         c->b[l->agg[i]] += row_residual(l, b, x, i);
     cycle(mg, k + 1, c->b, c->x);
     for (i = 0; i < l->n; i++)
         x[i] += c->x[l->agg[i]];
-    gs_backward(l, b, x);
+    for (i = 0; i < TP_MG_SWEEPS; i++)
+        gs_backward(l, b, x);
 }
 
 void tp_mg_vcycle(tp_mg *mg, const double *b, double *x)

@@ -14,6 +14,8 @@
                                    the steady-state solver use GMRES with this multigrid
                                    preconditioner instead of KLU (docs/grid.md) */
 #define TP_MG_LEVELS_MAX 12  /* levels at most */
+#define TP_MG_SWEEPS 2       /* Gauss-Seidel sweeps before and after each coarse correction
+                                (measured best per unit of work: docs/grid.md) */
 
 typedef struct tp_mg tp_mg;
 
@@ -39,8 +41,8 @@ void tp_mg_destroy(tp_mg **mg);
  * the coarsest LU. TP_ERR_SOLVER when a diagonal or a pivot is zero or not finite. */
 tp_status tp_mg_setup(tp_mg *mg, const double *values);
 
-/* One V-cycle for A x = b from x = 0 (one Gauss-Seidel sweep before and after each coarse
- * correction, forward then backward, so the cycle is symmetric for a symmetric A). */
+/* One V-cycle for A x = b from x = 0 (TP_MG_SWEEPS Gauss-Seidel sweeps before and after each
+ * coarse correction, forward then backward, so the cycle is symmetric for a symmetric A). */
 void tp_mg_vcycle(tp_mg *mg, const double *b, double *x);
 
 /* x approximating A^-1 b by `cycles` V-cycles, each after the first correcting from the
