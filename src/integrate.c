@@ -210,18 +210,30 @@ static booleantype fv_invtest(N_Vector x, N_Vector z)
     return ok;
 }
 
+#define TP_NV_FUSED_MAX 16 /* vectors combined in one pass; CVODE uses at most 6 (order 5) */
+
 static int fv_linearcombination(int nv, realtype *c, N_Vector *X, N_Vector z)
 {
+    const double *x[TP_NV_FUSED_MAX];
     double *zd = NV_DAT(z);
     long i, n = NV_LEN(z);
-    int j;
+    int j, m = nv < TP_NV_FUSED_MAX ? nv : TP_NV_FUSED_MAX;
     if (nv < 1)
         return -1;
+    for (j = 0; j < m; j++)
+        x[j] = NV_DAT(X[j]);
     for (i = 0; i < n; i++) {
-        double s = c[0] * NV_DAT(X[0])[i];
-        for (j = 1; j < nv; j++)
-            s += c[j] * NV_DAT(X[j])[i];
+        double s = c[0] * x[0][i];
+        for (j = 1; j < m; j++)
+            s += c[j] * x[j][i];
         zd[i] = s;
+    }
+    /* Longer combinations (Krylov solvers) add the rest one vector at a time; z may be X[0]
+     * only, as in SUNDIALS. */
+    for (j = m; j < nv; j++) {
+        const double *xj = NV_DAT(X[j]);
+        for (i = 0; i < n; i++)
+            zd[i] += c[j] * xj[i];
     }
     return 0;
 }

@@ -106,6 +106,15 @@ static tp_status sys_init_iterative(sys *s)
     return TP_OK;
 }
 
+/* Order of (row, source node) pairs: by row, then by node. */
+static int pair_cmp(const void *pa, const void *pb)
+{
+    const int *a = pa, *b = pb;
+    if (a[0] != b[0])
+        return a[0] < b[0] ? -1 : 1;
+    return a[1] < b[1] ? -1 : a[1] > b[1];
+}
+
 static tp_status sys_init(sys *s, tp_network *net, int hold)
 {
     int nf = net->n_free, c, k, m = 0;
@@ -153,35 +162,26 @@ static tp_status sys_init(sys *s, tp_network *net, int hold)
     for (k = net->colptr[nf]; k < net->nnz; k++)
         s->map[k] = -1;
     if (hold) {
-        /* Column u: one entry per node of the controlled source (sorted by row). */
-        int *rows = malloc((size_t)src->n_nodes * sizeof *rows), j;
+        /* Column u: one entry per node of the controlled source, sorted by row (state). */
+        int (*rows)[2] = malloc((size_t)src->n_nodes * sizeof *rows), j, n_rows = 0;
         if (!rows) {
             sys_clear(s);
             return TP_ERR_NOMEM;
         }
         s->colptr[nf] = m;
-        for (j = 0; j < src->n_nodes; j++)
-            rows[j] = net->nodes[src->nodes[j]].state;
         for (j = 0; j < src->n_nodes; j++) {
-            int r, best = -1, bi = -1;
-            for (r = 0; r < src->n_nodes; r++)
-                if (rows[r] >= 0 && (best < 0 || rows[r] < best)) {
-                    best = rows[r];
-                    bi = r;
-                }
-            if (bi < 0)
-                break;
-            rows[bi] = -1;
-            s->rowind[m] = best;
-            /* Remember which source node this slot belongs to. */
-            for (r = 0; r < src->n_nodes; r++)
-                if (net->nodes[src->nodes[r]].state == best)
-                    s->ucol[r] = m;
-            m++;
+            int st = net->nodes[src->nodes[j]].state;
+            s->ucol[j] = -1;
+            if (st >= 0) {
+                rows[n_rows][0] = st;
+                rows[n_rows++][1] = j;
+            }
         }
-        for (j = 0; j < src->n_nodes; j++)
-            if (net->nodes[src->nodes[j]].state < 0)
-                s->ucol[j] = -1;
+        qsort(rows, (size_t)n_rows, sizeof *rows, pair_cmp);
+        for (j = 0; j < n_rows; j++) {
+            s->rowind[m] = rows[j][0];
+            s->ucol[rows[j][1]] = m++;
+        }
         free(rows);
     }
     s->colptr[s->n] = m;
