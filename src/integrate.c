@@ -222,11 +222,27 @@ static int fv_linearcombination(int nv, realtype *c, N_Vector *X, N_Vector z)
         return -1;
     for (j = 0; j < m; j++)
         x[j] = NV_DAT(X[j]);
-    for (i = 0; i < n; i++) {
-        double s = c[0] * x[0][i];
-        for (j = 1; j < m; j++)
-            s += c[j] * x[j][i];
-        zd[i] = s;
+    switch (m) { /* the short combinations of CVODE's interpolation, one pass each */
+    case 1:
+        for (i = 0; i < n; i++)
+            zd[i] = c[0] * x[0][i];
+        break;
+    case 2:
+        for (i = 0; i < n; i++)
+            zd[i] = c[0] * x[0][i] + c[1] * x[1][i];
+        break;
+    case 3:
+        for (i = 0; i < n; i++)
+            zd[i] = c[0] * x[0][i] + c[1] * x[1][i] + c[2] * x[2][i];
+        break;
+    default:
+        for (i = 0; i < n; i++) {
+            double s = c[0] * x[0][i];
+            for (j = 1; j < m; j++)
+                s += c[j] * x[j][i];
+            zd[i] = s;
+        }
+        break;
     }
     /* Longer combinations (Krylov solvers) add the rest one vector at a time; z may be X[0]
      * only, as in SUNDIALS. */

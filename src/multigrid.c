@@ -535,6 +535,19 @@ static double row_off(const level *l, const double *b, const double *x, int i)
 {
     int k = l->optr[i], end = l->optr[i + 1];
     double s0 = b[i], s1 = 0.0;
+    const float *v = l->oval + k;
+    const int *c = l->ocol + k;
+    /* The usual rows of a grid (four neighbours in the layer, one or two across) unrolled. */
+    switch (end - k) {
+    case 5:
+        return (s0 - (double)v[0] * x[c[0]] - (double)v[2] * x[c[2]] - (double)v[4] * x[c[4]]) -
+               ((double)v[1] * x[c[1]] + (double)v[3] * x[c[3]]);
+    case 6:
+        return (s0 - (double)v[0] * x[c[0]] - (double)v[2] * x[c[2]] - (double)v[4] * x[c[4]]) -
+               ((double)v[1] * x[c[1]] + (double)v[3] * x[c[3]] + (double)v[5] * x[c[5]]);
+    default:
+        break;
+    }
     for (; k + 1 < end; k += 2) {
         s0 -= (double)l->oval[k] * x[l->ocol[k]];
         s1 -= (double)l->oval[k + 1] * x[l->ocol[k + 1]];

@@ -277,6 +277,51 @@ static int slot_of(const tp_network *net, int row, int col)
     return -1;
 }
 
+static int row_cmp(const void *pa, const void *pb)
+{
+    const entry *a = pa, *b = pb;
+    return a->row < b->row ? -1 : a->row > b->row;
+}
+
+/* Sort pattern entries by column, then row: a counting sort by column (large networks have
+ * hundreds of thousands of entries), then each column by row. */
+static int sort_entries(entry *e, int n, int n_cols)
+{
+    int *start = calloc((size_t)n_cols + 1, sizeof *start), i, c;
+    entry *tmp = malloc((size_t)(n > 0 ? n : 1) * sizeof *tmp);
+    if (!start || !tmp) {
+        free(start);
+        free(tmp);
+        qsort(e, (size_t)n, sizeof *e, entry_cmp);
+        return 0;
+    }
+    for (i = 0; i < n; i++)
+        start[e[i].col + 1]++;
+    for (c = 0; c < n_cols; c++)
+        start[c + 1] += start[c];
+    for (i = 0; i < n; i++)
+        tmp[start[e[i].col]++] = e[i];
+    /* start[c] is now the end of column c */
+    for (c = 0, i = 0; c < n_cols; c++) {
+        int len = start[c] - i, a, b;
+        if (len > 32) {
+            qsort(tmp + i, (size_t)len, sizeof *tmp, row_cmp);
+        } else {
+            for (a = i + 1; a < start[c]; a++) {
+                entry x = tmp[a];
+                for (b = a; b > i && tmp[b - 1].row > x.row; b--)
+                    tmp[b] = tmp[b - 1];
+                tmp[b] = x;
+            }
+        }
+        i = start[c];
+    }
+    memcpy(e, tmp, (size_t)n * sizeof *e);
+    free(start);
+    free(tmp);
+    return 0;
+}
+
 static int state_of(const tp_network *net, int node)
 {
     return net->nodes[node].state;
@@ -317,7 +362,7 @@ static tp_status build_pattern(tp_network *net)
             e[n++] = (entry){s, q_wire};
         }
     }
-    qsort(e, (size_t)n, sizeof *e, entry_cmp);
+    sort_entries(e, n, n_state);
     for (i = 0, u = 0; i < n; i++)
         if (u == 0 || e[i].col != e[u - 1].col || e[i].row != e[u - 1].row)
             e[u++] = e[i];
@@ -913,6 +958,8 @@ struct tp_net_fast {
     int *fixed, n_fixed;  /* the fixed nodes */
     int *gnode;           /* group members by group (as net->group_links): surface node */
     double *garea;        /* and area, m2 */
+    int *src_state;       /* the state of every source's every node (-1 fixed) */
+    int *src_first;       /* n_sources + 1: where each source's nodes start in src_state */
 };
 
 static void fast_free(tp_net_fast **f)
@@ -932,6 +979,8 @@ static void fast_free(tp_net_fast **f)
     free((*f)->fixed);
     free((*f)->gnode);
     free((*f)->garea);
+    free((*f)->src_state);
+    free((*f)->src_first);
     free(*f);
     *f = NULL;
 }
@@ -976,7 +1025,39 @@ static tp_status build_linear(tp_network *net, tp_net_fast *f)
     }
     for (i = 0; i < nf; i++)
         e[m++] = (lin_entry){i, i, -f->gfix[i]};
-    qsort(e, (size_t)m, sizeof *e, lin_cmp);
+    /* By row (counting), then by column within each short row. */
+    {
+        int *start = calloc((size_t)nf + 1, sizeof *start), r, a, b0;
+        lin_entry *tmp = malloc((size_t)(m > 0 ? m : 1) * sizeof *tmp);
+        if (!start || !tmp) {
+            free(start);
+            free(tmp);
+            free(e);
+            return TP_ERR_NOMEM;
+        }
+        for (i = 0; i < m; i++)
+            start[e[i].row + 1]++;
+        for (r = 0; r < nf; r++)
+            start[r + 1] += start[r];
+        for (i = 0; i < m; i++)
+            tmp[start[e[i].row]++] = e[i];
+        for (r = 0, i = 0; r < nf; r++) {
+            if (start[r] - i > 32) {
+                qsort(tmp + i, (size_t)(start[r] - i), sizeof *tmp, lin_cmp);
+            } else {
+                for (a = i + 1; a < start[r]; a++) {
+                    lin_entry x = tmp[a];
+                    for (b0 = a; b0 > i && tmp[b0 - 1].col > x.col; b0--)
+                        tmp[b0] = tmp[b0 - 1];
+                    tmp[b0] = x;
+                }
+            }
+            i = start[r];
+        }
+        memcpy(e, tmp, (size_t)m * sizeof *e);
+        free(start);
+        free(tmp);
+    }
     for (i = 0, u = 0; i < m; i++) {
         if (u > 0 && e[u - 1].row == e[i].row && e[u - 1].col == e[i].col)
             e[u - 1].v += e[i].v;
@@ -1067,6 +1148,20 @@ static tp_status build_fast(tp_network *net)
             f->garea[k] = l->area;
         }
     }
+    f->src_first = malloc((size_t)(net->n_sources + 1) * sizeof *f->src_first);
+    if (!f->src_first)
+        return TP_ERR_NOMEM;
+    f->src_first[0] = 0;
+    for (i = 0; i < net->n_sources; i++)
+        f->src_first[i + 1] = f->src_first[i] + net->sources[i].n_nodes;
+    f->src_state = malloc((size_t)(f->src_first[net->n_sources] + 1) * sizeof *f->src_state);
+    if (!f->src_state)
+        return TP_ERR_NOMEM;
+    for (i = 0; i < net->n_sources; i++) {
+        int k;
+        for (k = 0; k < net->sources[i].n_nodes; k++)
+            f->src_state[f->src_first[i] + k] = net->nodes[net->sources[i].nodes[k]].state;
+    }
     return build_linear(net, f);
 }
 
@@ -1108,6 +1203,46 @@ static void fast_groups(const tp_network *net, const double *t, int derivs)
             sum += f->garea[k] * t[f->gnode[k]];
         tm = gr->area > 0 ? sum / gr->area : tb;
         group_coefficients(gr, tm, tb, derivs);
+    }
+}
+
+/* Every source's power into ydot and its totals (source_eval's formulas, each element's
+ * resistance computed once). */
+static void fast_sources(const tp_network *net, const double *t, double *ydot, double *src,
+                         double *wire)
+{
+    const tp_net_fast *f = net->fast;
+    int i, k;
+    for (i = 0; i < net->n_sources; i++) {
+        const tp_net_source *s = &net->sources[i];
+        const int *st = f->src_state + f->src_first[i];
+        double duty = net->duty[i], total = 0.0;
+        if (s->kind == TP_SRC_POWER) {
+            for (k = 0; k < s->n_nodes; k++) {
+                double p = duty * s->power * s->weights[k];
+                if (st[k] >= 0)
+                    ydot[st[k]] += p;
+                total += p;
+            }
+        } else {
+            double *rk = net->src_work, r = 0.0, i2;
+            for (k = 0; k < s->n_nodes; k++) {
+                double wr = s->weights[k] * s->r0;
+                double raw = wr * (1.0 + s->tempco * (t[s->nodes[k]] - s->tref));
+                rk[k] = raw > wr * TP_R_FLOOR ? raw : wr * TP_R_FLOOR;
+                r += rk[k];
+            }
+            i2 = s->supply / (r + s->r_series);
+            i2 *= i2;
+            for (k = 0; k < s->n_nodes; k++) {
+                double p = duty * i2 * rk[k];
+                if (st[k] >= 0)
+                    ydot[st[k]] += p;
+                total += p;
+            }
+            *wire += duty * i2 * s->r_series;
+        }
+        *src += total;
     }
 }
 
@@ -1186,7 +1321,7 @@ static int fast_rhs(const tp_network *net, const double *y, double *ydot)
         else
             lost += q;
     }
-    add_sources(net, t, ydot, &src, &wire);
+    fast_sources(net, t, ydot, &src, &wire);
     for (i = 0; i < nf; i++) {
         ydot[i] *= f->inv_cap[i];
         if (!isfinite(ydot[i]))

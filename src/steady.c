@@ -59,6 +59,7 @@ typedef struct sys {
     double *mgval;   /* the temperature block of the system Jacobian */
     double *jsys;    /* the system Jacobian (pattern order) at the last setup */
     double *w;       /* hold: the preconditioner applied to the column of u */
+    double *ju;      /* the unknowns jsys was computed at */
     double *ytmp;    /* n_free work */
     char msg[512];
 } sys;
@@ -78,6 +79,7 @@ static void sys_clear(sys *s)
     free(s->mgval);
     free(s->jsys);
     free(s->w);
+    free(s->ju);
     free(s->ytmp);
 }
 
@@ -91,9 +93,10 @@ static tp_status sys_init_iterative(sys *s)
     s->mgval = calloc((size_t)(net->nnz > 0 ? net->nnz : 1), sizeof *s->mgval);
     s->jsys = calloc((size_t)(s->nnz > 0 ? s->nnz : 1), sizeof *s->jsys);
     s->w = calloc((size_t)s->nf + 1, sizeof *s->w);
+    s->ju = calloc((size_t)s->n + 1, sizeof *s->ju);
     s->ytmp = calloc((size_t)s->nf + 1, sizeof *s->ytmp);
     s->mg = netmap ? tp_mg_for_network(net, netmap) : NULL;
-    if (!netmap || !s->mgslot || !s->mgval || !s->jsys || !s->w || !s->ytmp || !s->mg) {
+    if (!netmap || !s->mgslot || !s->mgval || !s->jsys || !s->w || !s->ju || !s->ytmp || !s->mg) {
         free(netmap);
         return TP_ERR_NOMEM;
     }
@@ -296,6 +299,7 @@ static int kin_psetup(N_Vector uu, N_Vector us, N_Vector fval, N_Vector fs, void
     (void)fs;
     if (jacobian(s, N_VGetArrayPointer(uu), s->jsys, 0) != 0)
         return 1;
+    memcpy(s->ju, N_VGetArrayPointer(uu), (size_t)s->n * sizeof *s->ju);
     for (k = 0; k < s->nnz; k++)
         if (s->mgslot[k] >= 0)
             s->mgval[s->mgslot[k]] = s->jsys[k];
@@ -343,8 +347,12 @@ static int kin_jtimes(N_Vector vv, N_Vector jv, N_Vector uu, booleantype *new_uu
     double *out = N_VGetArrayPointer(jv);
     int c, k;
     if (*new_uu) {
-        if (jacobian(s, N_VGetArrayPointer(uu), s->jsys, 0) != 0)
-            return 1;
+        /* Usually the preconditioner setup has just computed it at these unknowns. */
+        if (memcmp(s->ju, N_VGetArrayPointer(uu), (size_t)s->n * sizeof *s->ju) != 0) {
+            if (jacobian(s, N_VGetArrayPointer(uu), s->jsys, 0) != 0)
+                return 1;
+            memcpy(s->ju, N_VGetArrayPointer(uu), (size_t)s->n * sizeof *s->ju);
+        }
         *new_uu = SUNFALSE;
     }
     memset(out, 0, (size_t)s->n * sizeof *out);
