@@ -209,14 +209,8 @@ int tp_history_record(void *user, const tp_sample *s)
             h->temps[i * h->n_out + k] = s->temps[h->out_nodes[k]];
     if (net->grid)
         layer_stats(h, i, s->temps);
-    h->wire[i] = 0.0;
-    for (k = 0; k < net->n_sources; k++) {
-        double w = 0.0;
-        h->power[i * net->n_sources + k] =
-            tp_network_source_power(&net->sources[k], s->temps, net->duty[k], &w);
-        h->wire[i] += w;
-    }
-    h->current[i] = tp_network_current(net, s->temps);
+    tp_network_sample_sources(net, s->temps, h->power + i * net->n_sources, &h->wire[i],
+                              &h->current[i]);
     h->duty[i] = s->duty;
     h->reading[i] = s->reading;
     if (net->grid)

@@ -235,6 +235,20 @@ static int fv_linearcombination(int nv, realtype *c, N_Vector *X, N_Vector z)
         for (i = 0; i < n; i++)
             zd[i] = c[0] * x[0][i] + c[1] * x[1][i] + c[2] * x[2][i];
         break;
+    case 4:
+        for (i = 0; i < n; i++)
+            zd[i] = c[0] * x[0][i] + c[1] * x[1][i] + c[2] * x[2][i] + c[3] * x[3][i];
+        break;
+    case 5:
+        for (i = 0; i < n; i++)
+            zd[i] = c[0] * x[0][i] + c[1] * x[1][i] + c[2] * x[2][i] + c[3] * x[3][i] +
+                    c[4] * x[4][i];
+        break;
+    case 6:
+        for (i = 0; i < n; i++)
+            zd[i] = c[0] * x[0][i] + c[1] * x[1][i] + c[2] * x[2][i] + c[3] * x[3][i] +
+                    c[4] * x[4][i] + c[5] * x[5][i];
+        break;
     default:
         for (i = 0; i < n; i++) {
             double s = c[0] * x[0][i];
@@ -1082,7 +1096,11 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
                                                                : HUGE_VAL;
         while (k_tick * period <= t && k_tick * period < t_break) {
             double tk = (double)k_tick * period;
-            if (CVodeGetDky(mem, tk, 0, yi) != CV_SUCCESS) {
+            if (net->grid && tk == t) {
+                /* The step ended on the tick: the interpolant there is the step's state (the
+                 * same numbers); a large network saves the interpolation. */
+                N_VScale(1.0, y, yi);
+            } else if (CVodeGetDky(mem, tk, 0, yi) != CV_SUCCESS) {
                 st = fail(d, "interpolation", tk, NULL, dr.cv_msg);
                 goto done;
             }

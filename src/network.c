@@ -46,11 +46,14 @@ const char *tp_loss_path_name(tp_loss_path p)
 }
 
 static void fast_free(tp_net_fast **f);
+static tp_status build_top(tp_network *net, tp_net_fast *f);
 static tp_status build_fast(tp_network *net);
 static int fast_rhs(const tp_network *net, const double *y, double *ydot);
 static void fast_groups(const tp_network *net, const double *t, int derivs);
 static void fast_temperatures(const tp_network *net, const double *y, double *t);
 static double fast_q(const tp_network *net, int i, const double *t);
+static double fast_surface(const tp_network *net, const double *t, double *map);
+static int fast_top_ok(const tp_network *net);
 static int fast_jacobian(const tp_network *net, const double *y, double *values, int use_secant);
 
 tp_network *tp_network_create(void)
@@ -862,6 +865,8 @@ static double surface_cells(const tp_network *net, const double *t, double *map)
     const tp_net_grid *g = net->grid;
     int c, n = g->nx * g->ny, top = (g->n_layers - 1) * n;
     double sum = 0.0, area = 0.0;
+    if (net->fast && fast_top_ok(net))
+        return fast_surface(net, t, map);
     if (net->n_groups > 0 && net->fast)
         fast_groups(net, t, 0);
     else if (net->n_groups > 0)
@@ -926,6 +931,49 @@ double tp_network_current(const tp_network *net, const double *t)
     return TP_UNSET;
 }
 
+void tp_network_sample_sources(const tp_network *net, const double *t, double *power,
+                               double *wire, double *current)
+{
+    int i, k, cur = -1;
+    *wire = 0.0;
+    if (!net->fast) {
+        for (i = 0; i < net->n_sources; i++) {
+            double w = 0.0;
+            power[i] = tp_network_source_power(&net->sources[i], t, net->duty[i], &w);
+            *wire += w;
+        }
+        *current = tp_network_current(net, t);
+        return;
+    }
+    /* The source whose current tp_network_current reports. */
+    for (i = 0; i < net->n_sources && cur < 0; i++) {
+        int j = net->has_control && i == 0 ? net->control.source : i;
+        if (net->sources[j].kind == TP_SRC_ELECTRIC)
+            cur = j;
+    }
+    *current = TP_UNSET;
+    for (i = 0; i < net->n_sources; i++) {
+        const tp_net_source *s = &net->sources[i];
+        double d = net->duty[i], total = 0.0, r = 0.0, amp;
+        if (s->kind == TP_SRC_POWER) {
+            for (k = 0; k < s->n_nodes; k++)
+                total += d * s->power * s->weights[k];
+            power[i] = total;
+            continue;
+        }
+        for (k = 0; k < s->n_nodes; k++) {
+            double wr = s->weights[k] * s->r0;
+            double raw = wr * (1.0 + s->tempco * (t[s->nodes[k]] - s->tref));
+            r += raw > wr * TP_R_FLOOR ? raw : wr * TP_R_FLOOR;
+        }
+        amp = s->supply / (r + s->r_series);
+        if (i == cur)
+            *current = amp;
+        power[i] = d * amp * amp * r; /* the sum of d I^2 R_k over the nodes */
+        *wire += d * amp * amp * s->r_series;
+    }
+}
+
 /* ---- compact evaluation of gridded networks -------------------------------------------------
  * A gridded network spends its time in the right-hand side, so its links are copied into
  * compact arrays by kind. The linear ones (conduction, fixed-coefficient convection) form one
@@ -960,6 +1008,16 @@ struct tp_net_fast {
     double *garea;        /* and area, m2 */
     int *src_state;       /* the state of every source's every node (-1 fixed) */
     int *src_first;       /* n_sources + 1: where each source's nodes start in src_state */
+    /* The working surface, cell by cell (gridded plates whose top faces are a convection group
+     * and radiation, the case tp_grid_refine builds): */
+    int top_ok;           /* 1 when the arrays below describe every top cell */
+    int *top_node;        /* nx * ny: the top layer's node (-1 none) */
+    int *top_sink;        /* the node the face convects to / radiates to */
+    int *top_rsink;
+    int *top_group;       /* the convection group */
+    double *top_kc;       /* A s of the convection link, m2 */
+    double *top_kr;       /* eps sigma A s of the radiation link, W/K4 */
+    double *top_w;        /* t / (2 k A): surface drop per watt leaving the face, K/W */
 };
 
 static void fast_free(tp_net_fast **f)
@@ -981,6 +1039,13 @@ static void fast_free(tp_net_fast **f)
     free((*f)->garea);
     free((*f)->src_state);
     free((*f)->src_first);
+    free((*f)->top_node);
+    free((*f)->top_sink);
+    free((*f)->top_rsink);
+    free((*f)->top_group);
+    free((*f)->top_kc);
+    free((*f)->top_kr);
+    free((*f)->top_w);
     free(*f);
     *f = NULL;
 }
@@ -1162,7 +1227,46 @@ static tp_status build_fast(tp_network *net)
         for (k = 0; k < net->sources[i].n_nodes; k++)
             f->src_state[f->src_first[i] + k] = net->nodes[net->sources[i].nodes[k]].state;
     }
+    if (build_top(net, f) != TP_OK)
+        return TP_ERR_NOMEM;
     return build_linear(net, f);
+}
+
+/* The per-cell arrays of the working surface, when every top cell has a grouped convection link
+ * and a radiation link (otherwise the general evaluation is used). */
+static tp_status build_top(tp_network *net, tp_net_fast *f)
+{
+    const tp_net_grid *g = net->grid;
+    int c, n = g->nx * g->ny, top = (g->n_layers - 1) * n;
+    f->top_node = malloc((size_t)n * sizeof *f->top_node);
+    f->top_sink = malloc((size_t)n * sizeof *f->top_sink);
+    f->top_rsink = malloc((size_t)n * sizeof *f->top_rsink);
+    f->top_group = malloc((size_t)n * sizeof *f->top_group);
+    f->top_kc = malloc((size_t)n * sizeof *f->top_kc);
+    f->top_kr = malloc((size_t)n * sizeof *f->top_kr);
+    f->top_w = malloc((size_t)n * sizeof *f->top_w);
+    if (!f->top_node || !f->top_sink || !f->top_rsink || !f->top_group || !f->top_kc ||
+        !f->top_kr || !f->top_w)
+        return TP_ERR_NOMEM;
+    f->top_ok = 1;
+    for (c = 0; c < n; c++) {
+        int lc = g->top_link[2 * c], lr = g->top_link[2 * c + 1];
+        f->top_node[c] = g->cell[top + c];
+        if (f->top_node[c] < 0 || !(g->top_area[c] > 0))
+            continue;
+        if (lc < 0 || lr < 0 || f->link[lc].kind != FAST_GROUP ||
+            f->link[lr].kind != FAST_RADIATION) {
+            f->top_ok = 0;
+            return TP_OK;
+        }
+        f->top_sink[c] = f->link[lc].b;
+        f->top_rsink[c] = f->link[lr].b;
+        f->top_group[c] = f->link[lc].group;
+        f->top_kc[c] = f->link[lc].k;
+        f->top_kr[c] = f->link[lr].k;
+        f->top_w[c] = net->top_half_r / g->top_area[c];
+    }
+    return TP_OK;
 }
 
 void tp_network_refresh(tp_network *net)
@@ -1244,6 +1348,42 @@ static void fast_sources(const tp_network *net, const double *t, double *ydot, d
         }
         *src += total;
     }
+}
+
+static int fast_top_ok(const tp_network *net)
+{
+    return net->fast->top_ok;
+}
+
+/* The working surface from the per-cell arrays (see surface_cells). */
+static double fast_surface(const tp_network *net, const double *t, double *map)
+{
+    const tp_net_fast *f = net->fast;
+    const tp_net_grid *g = net->grid;
+    int c, n = g->nx * g->ny;
+    double sum = 0.0, area = 0.0;
+    if (net->n_groups > 0)
+        fast_groups(net, t, 0);
+    for (c = 0; c < n; c++) {
+        int node = f->top_node[c];
+        double ta, tb, tr, q, ts;
+        if (node < 0 || !(g->top_area[c] > 0)) {
+            if (map)
+                map[c] = TP_UNSET;
+            continue;
+        }
+        ta = t[node];
+        tb = t[f->top_sink[c]];
+        tr = t[f->top_rsink[c]];
+        q = net->groups[f->top_group[c]].h * f->top_kc[c] * (ta - tb) +
+            f->top_kr[c] * (ta * ta + tr * tr) * (ta + tr) * (ta - tr);
+        ts = ta - q * f->top_w[c];
+        if (map)
+            map[c] = ts;
+        sum += g->top_area[c] * ts;
+        area += g->top_area[c];
+    }
+    return area > 0 ? sum / area : TP_UNSET;
 }
 
 /* The flow through link i from the compact record (groups evaluated). */

@@ -254,6 +254,13 @@ double tp_network_link_conductance(const tp_net_link *l, double ta, double tb, d
  * node temperatures `t`: V / (R(T) + R_series), A. NaN when no source is electrical. */
 double tp_network_current(const tp_network *net, const double *t);
 
+/* For a recorded sample: every source's power at its held duty into power[] (W), their wiring
+ * loss into *wire and tp_network_current's value into *current, in one pass over each source's
+ * nodes (the same values as tp_network_source_power and tp_network_current, summed in another
+ * order for gridded networks). */
+void tp_network_sample_sources(const tp_network *net, const double *t, double *power,
+                               double *wire, double *current);
+
 /* The working-surface temperature at node temperatures `t` (K); NaN when the network has no
  * physical top layer. A gridded plate gives the area-weighted mean of its map. */
 double tp_network_surface(const tp_network *net, const double *t);
