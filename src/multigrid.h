@@ -10,7 +10,7 @@
 #include "status.h"
 
 #define TP_MG_COARSE_MAX 100 /* unknowns at most on the coarsest level (dense LU there) */
-#define TP_MG_MIN_UNKNOWNS 3000 /* free nodes of a gridded network from which the integrator and
+#define TP_MG_MIN_UNKNOWNS 1000 /* free nodes of a gridded network from which the integrator and
                                    the steady-state solver use GMRES with this multigrid
                                    preconditioner instead of KLU (docs/grid.md) */
 #define TP_MG_LEVELS_MAX 12  /* levels at most */
