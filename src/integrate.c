@@ -44,11 +44,26 @@
 #define NV_LEN(v) ((long)NV_LENGTH_S(v))
 #define NV_DAT(v) NV_DATA_S(v)
 
+/* z = a x + b y over n elements where z shares no memory with x or y: the compiler may use
+ * vector instructions (the operations below call it when the vectors are distinct, and loop
+ * element by element otherwise, which is correct for z being x or y). */
+static void axpby(long n, double a, const double *restrict x, double b,
+                  const double *restrict y, double *restrict z)
+{
+    long i;
+    for (i = 0; i < n; i++)
+        z[i] = a * x[i] + b * y[i];
+}
+
 static void fv_linearsum(realtype a, N_Vector x, realtype b, N_Vector y, N_Vector z)
 {
     const double *xd = NV_DAT(x), *yd = NV_DAT(y);
     double *zd = NV_DAT(z);
     long i, n = NV_LEN(x);
+    if (zd != xd && zd != yd) {
+        axpby(n, a, xd, b, yd, zd);
+        return;
+    }
     for (i = 0; i < n; i++)
         zd[i] = a * xd[i] + b * yd[i];
 }
@@ -79,11 +94,25 @@ static void fv_div(N_Vector x, N_Vector y, N_Vector z)
         zd[i] = xd[i] / yd[i];
 }
 
+static void scale_into(long n, double c, const double *restrict x, double *restrict z)
+{
+    long i;
+    for (i = 0; i < n; i++)
+        z[i] = c * x[i];
+}
+
 static void fv_scale(realtype c, N_Vector x, N_Vector z)
 {
     const double *xd = NV_DAT(x);
     double *zd = NV_DAT(z);
     long i, n = NV_LEN(x);
+    if (zd != xd) {
+        if (c == 1.0)
+            memcpy(zd, xd, (size_t)n * sizeof *zd); /* a copy (1.0 * x is x) */
+        else
+            scale_into(n, c, xd, zd);
+        return;
+    }
     for (i = 0; i < n; i++)
         zd[i] = c * xd[i];
 }
