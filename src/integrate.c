@@ -1114,9 +1114,10 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
         dr.cv_msg[0] = '\0';
         flag = CVode(mem, o->t_end, y, &t, CV_ONE_STEP);
         if (flag < 0) {
+            char *name = CVodeGetReturnFlagName(flag); /* allocated by SUNDIALS: ours to free */
             add_stats(mem, stats);
-            st = fail(d, CVodeGetReturnFlagName(flag), t, worst_node(mem, net, yi, tmp),
-                      dr.cv_msg);
+            st = fail(d, name ? name : "?", t, worst_node(mem, net, yi, tmp), dr.cv_msg);
+            free(name);
             goto done;
         }
         /* A break (fault, disturbance) or a tick that changes a duty inside this step ends

@@ -479,10 +479,12 @@ static tp_status solve(sys *s, double *x, long *iters, tp_diag *d)
     flag = KINSol(kin, u, KIN_LINESEARCH, us, fs);
     KINGetNumNonlinSolvIters(kin, iters);
     if (flag < 0) {
+        char *name = KINGetReturnFlagName(flag); /* allocated by SUNDIALS: ours to free */
         tp_diag_error(d, tp_loc_none(), NULL,
                       "check for nodes coupled only by very weak or very strong links",
-                      "the steady-state solver failed (%s)%s%s", KINGetReturnFlagName(flag),
+                      "the steady-state solver failed (%s)%s%s", name ? name : "?",
                       s->msg[0] ? ": " : "", s->msg);
+        free(name);
         st = TP_ERR_SOLVER;
         goto done;
     }
