@@ -372,8 +372,8 @@ static tp_status run_warmup(const tp_cli *cli, tp_diag *d)
             tp_diag_error(d, tp_loc_none(), NULL,
                           "add bed.grid: [NX, NY] to the bed (docs/grid.md), or --set "
                           "'bed.grid=[40, 40]'",
-                          "--%s draws the working surface of a gridded plate; this plate is "
-                          "lumped", map_opts[i]);
+                          "--%s draws the working surface of a gridded plate (bed.grid); "
+                          "this file has none", map_opts[i]);
             tp_session_close(&s);
             return TP_ERR_USAGE;
         }

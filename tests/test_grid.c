@@ -790,7 +790,7 @@ static void test_grid_map_needs_grid(void **state)
     snprintf(map, sizeof map, "%s/lumped.png", scratch_dir);
     assert_int_equal(run_tepid(scratch_dir, argv, &r), 0);
     assert_int_equal(r.status, 2);
-    assert_non_null(strstr(r.err, "this plate is lumped"));
+    assert_non_null(strstr(r.err, "--map draws the working surface of a gridded plate"));
 }
 
 /* Input errors of a grid, each at its key and with exit status 2: a sensor off its host layer,
