@@ -280,49 +280,54 @@ static int slot_of(const tp_network *net, int row, int col)
     return -1;
 }
 
-static int row_cmp(const void *pa, const void *pb)
+/* Sort n elements of `size` bytes by an integer key in [0, n_keys) (counting sort), then each
+ * key's elements with `cmp` (insertion sort for the short runs of a network's patterns, qsort
+ * for long ones). Large networks have hundreds of thousands of pattern entries; a comparison
+ * sort of them all took a tenth of a second. Falls back to qsort when out of memory. */
+static void bucket_sort(void *base, int n, size_t size, int n_keys,
+                        int (*key)(const void *), int (*cmp)(const void *, const void *))
 {
-    const entry *a = pa, *b = pb;
-    return a->row < b->row ? -1 : a->row > b->row;
-}
-
-/* Sort pattern entries by column, then row: a counting sort by column (large networks have
- * hundreds of thousands of entries), then each column by row. */
-static int sort_entries(entry *e, int n, int n_cols)
-{
-    int *start = calloc((size_t)n_cols + 1, sizeof *start), i, c;
-    entry *tmp = malloc((size_t)(n > 0 ? n : 1) * sizeof *tmp);
-    if (!start || !tmp) {
+    int *start = calloc((size_t)n_keys + 1, sizeof *start), i, k;
+    char *tmp = malloc((size_t)(n > 0 ? n : 1) * size), *b = base, *x = malloc(size);
+    if (!start || !tmp || !x) {
         free(start);
         free(tmp);
-        qsort(e, (size_t)n, sizeof *e, entry_cmp);
-        return 0;
+        free(x);
+        qsort(base, (size_t)n, size, cmp);
+        return;
     }
     for (i = 0; i < n; i++)
-        start[e[i].col + 1]++;
-    for (c = 0; c < n_cols; c++)
-        start[c + 1] += start[c];
-    for (i = 0; i < n; i++)
-        tmp[start[e[i].col]++] = e[i];
-    /* start[c] is now the end of column c */
-    for (c = 0, i = 0; c < n_cols; c++) {
-        int len = start[c] - i, a, b;
+        start[key(b + (size_t)i * size) + 1]++;
+    for (k = 0; k < n_keys; k++)
+        start[k + 1] += start[k];
+    for (i = 0; i < n; i++) {
+        int kk = key(b + (size_t)i * size);
+        memcpy(tmp + (size_t)start[kk]++ * size, b + (size_t)i * size, size);
+    }
+    /* start[k] is now the end of key k's run */
+    for (k = 0, i = 0; k < n_keys; k++) {
+        int len = start[k] - i, a, c;
         if (len > 32) {
-            qsort(tmp + i, (size_t)len, sizeof *tmp, row_cmp);
+            qsort(tmp + (size_t)i * size, (size_t)len, size, cmp);
         } else {
-            for (a = i + 1; a < start[c]; a++) {
-                entry x = tmp[a];
-                for (b = a; b > i && tmp[b - 1].row > x.row; b--)
-                    tmp[b] = tmp[b - 1];
-                tmp[b] = x;
+            for (a = i + 1; a < start[k]; a++) {
+                memcpy(x, tmp + (size_t)a * size, size);
+                for (c = a; c > i && cmp(tmp + (size_t)(c - 1) * size, x) > 0; c--)
+                    memcpy(tmp + (size_t)c * size, tmp + (size_t)(c - 1) * size, size);
+                memcpy(tmp + (size_t)c * size, x, size);
             }
         }
-        i = start[c];
+        i = start[k];
     }
-    memcpy(e, tmp, (size_t)n * sizeof *e);
+    memcpy(base, tmp, (size_t)n * size);
     free(start);
     free(tmp);
-    return 0;
+    free(x);
+}
+
+static int entry_col(const void *p)
+{
+    return ((const entry *)p)->col;
 }
 
 static int state_of(const tp_network *net, int node)
@@ -365,7 +370,7 @@ static tp_status build_pattern(tp_network *net)
             e[n++] = (entry){s, q_wire};
         }
     }
-    sort_entries(e, n, n_state);
+    bucket_sort(e, n, sizeof *e, n_state, entry_col, entry_cmp);
     for (i = 0, u = 0; i < n; i++)
         if (u == 0 || e[i].col != e[u - 1].col || e[i].row != e[u - 1].row)
             e[u++] = e[i];
@@ -754,35 +759,29 @@ int tp_network_jacobian(const tp_network *net, const double *y, double *values)
     return tp_network_jacobian_mode(net, y, values, 0);
 }
 
-int tp_network_jacobian_mode(const tp_network *net, const double *y, double *values, int use_secant)
+/* A link's derivatives (W/K) into the Jacobian's slots: rows of free nodes divided by their
+ * capacities, the energy total of fixed ends as they are. */
+static void scatter_link(double *values, const int *sl, double dqa, double dqb, double ca,
+                         double cb)
 {
-    double *t = net->work;
+    if (sl[0] >= 0)
+        values[sl[0]] -= dqa / ca;
+    if (sl[1] >= 0)
+        values[sl[1]] -= dqb / ca;
+    if (sl[2] >= 0)
+        values[sl[2]] += dqa / cb;
+    if (sl[3] >= 0)
+        values[sl[3]] += dqb / cb;
+    if (sl[4] >= 0)
+        values[sl[4]] += dqa;
+    if (sl[5] >= 0)
+        values[sl[5]] -= dqb;
+}
+
+/* Every source's derivatives into the Jacobian. */
+static void scatter_sources(const tp_network *net, const double *t, double *values)
+{
     int i, k;
-    if (net->fast)
-        return fast_jacobian(net, y, values, use_secant);
-    tp_network_temperatures(net, y, t);
-    memset(values, 0, (size_t)net->nnz * sizeof *values);
-    for (i = 0; i < net->n_links; i++) {
-        const tp_net_link *l = &net->links[i];
-        const int *sl = net->link_slot[i];
-        double dqa, dqb, ca = net->nodes[l->a].capacity, cb = net->nodes[l->b].capacity;
-        if (use_secant)
-            secant(l, t[l->a], t[l->b], &dqa, &dqb);
-        else
-            tp_network_link_flow(l, t[l->a], t[l->b], &dqa, &dqb);
-        if (sl[0] >= 0)
-            values[sl[0]] -= dqa / ca;
-        if (sl[1] >= 0)
-            values[sl[1]] -= dqb / ca;
-        if (sl[2] >= 0)
-            values[sl[2]] += dqa / cb;
-        if (sl[3] >= 0)
-            values[sl[3]] += dqb / cb;
-        if (sl[4] >= 0)
-            values[sl[4]] += dqa;
-        if (sl[5] >= 0)
-            values[sl[5]] -= dqb;
-    }
     for (i = 0; i < net->n_sources; i++) {
         const tp_net_source *s = &net->sources[i];
         const int *sl = net->src_slot + net->src_first[i];
@@ -798,6 +797,27 @@ int tp_network_jacobian_mode(const tp_network *net, const double *y, double *val
                 values[sl[3 * k + 2]] += buf[2 * s->n_nodes + k];
         }
     }
+}
+
+int tp_network_jacobian_mode(const tp_network *net, const double *y, double *values, int use_secant)
+{
+    double *t = net->work;
+    int i;
+    if (net->fast)
+        return fast_jacobian(net, y, values, use_secant);
+    tp_network_temperatures(net, y, t);
+    memset(values, 0, (size_t)net->nnz * sizeof *values);
+    for (i = 0; i < net->n_links; i++) {
+        const tp_net_link *l = &net->links[i];
+        const int *sl = net->link_slot[i];
+        double dqa, dqb, ca = net->nodes[l->a].capacity, cb = net->nodes[l->b].capacity;
+        if (use_secant)
+            secant(l, t[l->a], t[l->b], &dqa, &dqb);
+        else
+            tp_network_link_flow(l, t[l->a], t[l->b], &dqa, &dqb);
+        scatter_link(values, sl, dqa, dqb, ca, cb);
+    }
+    scatter_sources(net, t, values);
     for (i = 0; i < net->nnz; i++)
         if (!isfinite(values[i]))
             return 1;
@@ -1064,6 +1084,11 @@ static int lin_cmp(const void *pa, const void *pb)
     return a->col < b->col ? -1 : a->col > b->col;
 }
 
+static int lin_row(const void *p)
+{
+    return ((const lin_entry *)p)->row;
+}
+
 /* L, g and b from the linear links. */
 static tp_status build_linear(tp_network *net, tp_net_fast *f)
 {
@@ -1090,39 +1115,7 @@ static tp_status build_linear(tp_network *net, tp_net_fast *f)
     }
     for (i = 0; i < nf; i++)
         e[m++] = (lin_entry){i, i, -f->gfix[i]};
-    /* By row (counting), then by column within each short row. */
-    {
-        int *start = calloc((size_t)nf + 1, sizeof *start), r, a, b0;
-        lin_entry *tmp = malloc((size_t)(m > 0 ? m : 1) * sizeof *tmp);
-        if (!start || !tmp) {
-            free(start);
-            free(tmp);
-            free(e);
-            return TP_ERR_NOMEM;
-        }
-        for (i = 0; i < m; i++)
-            start[e[i].row + 1]++;
-        for (r = 0; r < nf; r++)
-            start[r + 1] += start[r];
-        for (i = 0; i < m; i++)
-            tmp[start[e[i].row]++] = e[i];
-        for (r = 0, i = 0; r < nf; r++) {
-            if (start[r] - i > 32) {
-                qsort(tmp + i, (size_t)(start[r] - i), sizeof *tmp, lin_cmp);
-            } else {
-                for (a = i + 1; a < start[r]; a++) {
-                    lin_entry x = tmp[a];
-                    for (b0 = a; b0 > i && tmp[b0 - 1].col > x.col; b0--)
-                        tmp[b0] = tmp[b0 - 1];
-                    tmp[b0] = x;
-                }
-            }
-            i = start[r];
-        }
-        memcpy(e, tmp, (size_t)m * sizeof *e);
-        free(start);
-        free(tmp);
-    }
+    bucket_sort(e, m, sizeof *e, nf, lin_row, lin_cmp);
     for (i = 0, u = 0; i < m; i++) {
         if (u > 0 && e[u - 1].row == e[i].row && e[u - 1].col == e[i].col)
             e[u - 1].v += e[i].v;
@@ -1386,6 +1379,19 @@ static double fast_surface(const tp_network *net, const double *t, double *map)
     return area > 0 ? sum / area : TP_UNSET;
 }
 
+/* A link's flow q from a (state sa) to b (state sb) into ydot, or into *lost for a fixed end. */
+static void add_flow(double *ydot, double *lost, int sa, int sb, double q)
+{
+    if (sa >= 0)
+        ydot[sa] -= q;
+    else
+        *lost -= q;
+    if (sb >= 0)
+        ydot[sb] += q;
+    else
+        *lost += q;
+}
+
 /* The flow through link i from the compact record (groups evaluated). */
 static double fast_q(const tp_network *net, int i, const double *t)
 {
@@ -1428,38 +1434,17 @@ static int fast_rhs(const tp_network *net, const double *y, double *ydot)
         const fast_link *l = &f->link[f->rad[k]];
         double ta = t[l->a], tb = t[l->b];
         double q = l->k * (ta * ta + tb * tb) * (ta + tb) * (ta - tb);
-        if (l->sa >= 0)
-            ydot[l->sa] -= q;
-        else
-            lost -= q;
-        if (l->sb >= 0)
-            ydot[l->sb] += q;
-        else
-            lost += q;
+        add_flow(ydot, &lost, l->sa, l->sb, q);
     }
     for (k = 0; k < f->n_grp; k++) {
         const fast_link *l = &f->link[f->grp[k]];
         double q = net->groups[l->group].h * l->k * (t[l->a] - t[l->b]);
-        if (l->sa >= 0)
-            ydot[l->sa] -= q;
-        else
-            lost -= q;
-        if (l->sb >= 0)
-            ydot[l->sb] += q;
-        else
-            lost += q;
+        add_flow(ydot, &lost, l->sa, l->sb, q);
     }
     for (k = 0; k < f->n_oth; k++) {
         const fast_link *l = &f->link[f->oth[k]];
         double q = tp_network_link_flow(&net->links[f->oth[k]], t[l->a], t[l->b], NULL, NULL);
-        if (l->sa >= 0)
-            ydot[l->sa] -= q;
-        else
-            lost -= q;
-        if (l->sb >= 0)
-            ydot[l->sb] += q;
-        else
-            lost += q;
+        add_flow(ydot, &lost, l->sa, l->sb, q);
     }
     fast_sources(net, t, ydot, &src, &wire);
     for (i = 0; i < nf; i++) {
@@ -1481,7 +1466,7 @@ static int fast_jacobian(const tp_network *net, const double *y, double *values,
 {
     const tp_net_fast *f = net->fast;
     double *t = net->work;
-    int i, k;
+    int i;
     fast_temperatures(net, y, t);
     if (net->n_groups > 0)
         fast_groups(net, t, use_secant ? 2 : 1);
@@ -1489,7 +1474,7 @@ static int fast_jacobian(const tp_network *net, const double *y, double *values,
     for (i = 0; i < net->n_links; i++) {
         const fast_link *l = &f->link[i];
         const int *sl = net->link_slot[i];
-        double ta = t[l->a], tb = t[l->b], dqa, dqb, ia, ib;
+        double ta = t[l->a], tb = t[l->b], dqa, dqb;
         switch (l->kind) {
         case FAST_LINEAR:
             dqa = l->k;
@@ -1522,36 +1507,10 @@ static int fast_jacobian(const tp_network *net, const double *y, double *values,
                 tp_network_link_flow(&net->links[i], ta, tb, &dqa, &dqb);
             break;
         }
-        ia = l->sa >= 0 ? f->inv_cap[l->sa] : 0.0;
-        ib = l->sb >= 0 ? f->inv_cap[l->sb] : 0.0;
-        if (sl[0] >= 0)
-            values[sl[0]] -= dqa * ia;
-        if (sl[1] >= 0)
-            values[sl[1]] -= dqb * ia;
-        if (sl[2] >= 0)
-            values[sl[2]] += dqa * ib;
-        if (sl[3] >= 0)
-            values[sl[3]] += dqb * ib;
-        if (sl[4] >= 0)
-            values[sl[4]] += dqa;
-        if (sl[5] >= 0)
-            values[sl[5]] -= dqb;
+        scatter_link(values, sl, dqa, dqb, net->nodes[l->a].capacity,
+                     net->nodes[l->b].capacity);
     }
-    for (i = 0; i < net->n_sources; i++) {
-        const tp_net_source *s = &net->sources[i];
-        const int *sl = net->src_slot + net->src_first[i];
-        double *buf = net->src_work;
-        source_eval(s, t, net->duty[i], NULL, buf, buf + s->n_nodes, buf + 2 * s->n_nodes, NULL);
-        for (k = 0; k < s->n_nodes; k++) {
-            int st = net->nodes[s->nodes[k]].state;
-            if (sl[3 * k] >= 0)
-                values[sl[3 * k]] += buf[k] * f->inv_cap[st];
-            if (sl[3 * k + 1] >= 0)
-                values[sl[3 * k + 1]] += buf[s->n_nodes + k];
-            if (sl[3 * k + 2] >= 0)
-                values[sl[3 * k + 2]] += buf[2 * s->n_nodes + k];
-        }
-    }
+    scatter_sources(net, t, values);
     for (i = 0; i < net->nnz; i++)
         if (!isfinite(values[i]))
             return 1;

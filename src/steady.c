@@ -619,16 +619,22 @@ tp_status tp_steady_full(tp_network *net, double duty_scale, tp_steady *out, tp_
     return st;
 }
 
+static tp_status need_control(const tp_network *net, tp_diag *d)
+{
+    if (net->has_control)
+        return TP_OK;
+    tp_diag_error(d, tp_loc_none(), "control", "add a control: section with a setpoint",
+                  "a holding point needs a controller");
+    return TP_ERR_CONFIG;
+}
+
 tp_status tp_steady_hold_at(tp_network *net, double target, tp_steady *out, tp_diag *d)
 {
     tp_steady full;
     tp_status st;
     memset(out, 0, sizeof *out);
-    if (!net->has_control) {
-        tp_diag_error(d, tp_loc_none(), "control", "add a control: section with a setpoint",
-                      "a holding point needs a controller");
+    if (need_control(net, d) != TP_OK)
         return TP_ERR_CONFIG;
-    }
     /* Reachable at all? The full-power equilibrium bounds the reading. */
     st = tp_steady_full(net, 1.0, &full, d);
     if (st != TP_OK)
@@ -647,11 +653,8 @@ tp_status tp_steady_hold_given(tp_network *net, double target, const tp_steady *
     tp_status st;
     int i;
     memset(out, 0, sizeof *out);
-    if (!net->has_control) {
-        tp_diag_error(d, tp_loc_none(), "control", "add a control: section with a setpoint",
-                      "a holding point needs a controller");
+    if (need_control(net, d) != TP_OK)
         return TP_ERR_CONFIG;
-    }
     umax = net->sources[net->control.source].max_duty;
     if (full->reading < target) {
         tp_diag_error(d, tp_loc_none(), "control.setpoint",
