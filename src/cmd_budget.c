@@ -37,7 +37,7 @@ static void summary(FILE *fp, const tp_session *s, const tp_budget *b)
     const tp_desc *desc = &s->desc;
     double v = b->v;
     size_t i;
-    tp_exposure ex = {b->hot_hold, b->node_hold, b->i_cold, NULL};
+    tp_exposure ex = {b->hot_hold, b->node_hold, b->i_cold, NULL, NULL};
     fprintf(fp, "tepid budget %s%s%s\n", s->cli->file, desc->title[0] ? ": " : "", desc->title);
     if (desc->supply.present) {
         fprintf(fp, "  supply %.1f V", desc->supply.voltage);

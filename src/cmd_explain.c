@@ -141,7 +141,7 @@ static tp_status run_explain(const tp_cli *cli, tp_diag *d)
     if (tp_cli_get(cli, "json"))
         rc = write_json(tp_cli_get(cli, "json"), s.net, t, d);
     if (rc == TP_OK && s.text) {
-        tp_exposure ex = {TP_UNSET, TP_UNSET, TP_UNSET, NULL};
+        tp_exposure ex = {TP_UNSET, TP_UNSET, TP_UNSET, NULL, NULL};
         fprintf(s.text, "tepid explain %s\n  ", cli->file);
         tp_report_network(s.text, s.net);
         print_table(s.text, s.net, t, at != NULL);

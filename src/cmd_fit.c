@@ -219,7 +219,7 @@ static tp_status write_json(const char *path, const fit_run *f, tp_diag *d)
     const tp_fit_result *r = &f->res;
     cJSON *root = cJSON_CreateObject(), *lg, *params, *corr, *resid, *solver, *warn, *caut;
     char lines[TP_CAUTIONS_MAX][TP_CAUTION_MAX], buf[96];
-    tp_exposure ex;
+    tp_exposure ex = {TP_UNSET, TP_UNSET, TP_UNSET, NULL, NULL};
     tp_status st;
     int i, j, nc;
     if (!root)
@@ -513,7 +513,7 @@ static void summary(FILE *fp, const fit_run *f)
     const tp_fit_result *r = &f->res;
     const tp_log *lg = &f->log;
     char buf[64], v[96], s0[96], se[96], lo[96], hi[96];
-    tp_exposure ex;
+    tp_exposure ex = {TP_UNSET, TP_UNSET, TP_UNSET, NULL, NULL};
     int i, j, p = f->n_params;
     fprintf(fp, "tepid fit %s%s%s\n", f->s.cli->file, f->s.desc.title[0] ? ": " : "",
             f->s.desc.title);

@@ -246,7 +246,7 @@ static void print_stuck(FILE *fp, const tp_guard_study *st)
 static int cautions(const tp_session *s, const tp_guard_study *st, char lines[][TP_CAUTION_MAX])
 {
     double surface = -HUGE_VAL, node = -HUGE_VAL, *peak;
-    tp_exposure ex;
+    tp_exposure ex = {TP_UNSET, TP_UNSET, TP_UNSET, NULL, NULL};
     int c, k, n;
     long i;
     peak = malloc((size_t)s->net->n_nodes * sizeof *peak);

@@ -3,13 +3,16 @@
  * offset; --room answers "what if the room is colder". */
 #include <math.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 
 #include "commands.h"
+#include "grid.h"
 #include "json.h"
 #include "report.h"
 #include "session.h"
 #include "steady.h"
+#include "surfmap.h"
 
 static const tp_opt steady_opts[] = {
     {"json", 0, 1, 0, TP_OUT_FILE, "FILE", "write the results as JSON (- for standard output)"},
@@ -74,9 +77,44 @@ static double plate_loss_total(const tp_flows *f)
 static void print_nodes(FILE *fp, const tp_network *net, const double *t)
 {
     int i;
+    if (net->grid) {
+        /* A gridded plate: each layer's mean and extremes, then the nodes outside the grid. */
+        const tp_net_grid *g = net->grid;
+        for (i = 0; i < g->n_layers; i++) {
+            double mean, lo, hi;
+            tp_grid_layer_stats(net, i, t, &mean, &lo, &hi);
+            fprintf(fp, "    %-16s %8.2f degC (cells %.2f to %.2f)\n", g->layer_id[i],
+                    mean - TP_KELVIN_0C, lo - TP_KELVIN_0C, hi - TP_KELVIN_0C);
+        }
+        for (i = 0; i < net->n_nodes; i++)
+            if (net->nodes[i].capacity > 0 && g->from[i] >= g->n_layers)
+                fprintf(fp, "    %-16s %8.2f degC\n", net->nodes[i].id, t[i] - TP_KELVIN_0C);
+        return;
+    }
     for (i = 0; i < net->n_nodes; i++)
         if (net->nodes[i].capacity > 0)
             fprintf(fp, "    %-16s %8.2f degC\n", net->nodes[i].id, t[i] - TP_KELVIN_0C);
+}
+
+/* The working-surface map of a gridded plate at a steady state. */
+static void print_map(FILE *fp, const tp_network *net, const double *t)
+{
+    const tp_net_grid *g = net->grid;
+    double *map = malloc((size_t)g->nx * (size_t)g->ny * sizeof *map);
+    tp_map_stats st;
+    if (!map)
+        return;
+    tp_network_surface_map(net, t, map);
+    tp_map_stats_compute(g, map, &st);
+    if (st.cells > 0) {
+        fprintf(fp, "  working surface (%d x %d cells): mean %.2f, coldest %.2f at %.1f, %.1f mm, "
+                    "hottest %.2f at %.1f, %.1f mm degC\n", g->nx, g->ny,
+                st.mean - TP_KELVIN_0C, st.min - TP_KELVIN_0C, st.min_x * 1e3, st.min_y * 1e3,
+                st.max - TP_KELVIN_0C, st.max_x * 1e3, st.max_y * 1e3);
+        fprintf(fp, "    spread %.2f K, standard deviation %.2f K, centre - corners %+.2f K\n",
+                st.spread, st.std, st.centre_corner);
+    }
+    free(map);
 }
 
 static void print_reach(FILE *fp, const tp_network *net, const char *what, const tp_steady *s)
@@ -95,7 +133,8 @@ static void summary(FILE *fp, const tp_session *s, const answer *a)
     const tp_network *net = s->net;
     const tp_steady *shown = a->holding ? &a->hold : &a->limit;
     double total = plate_loss_total(&a->flows), surf = surface_or_nan(net, shown->temps);
-    tp_exposure ex = {TP_UNSET, TP_UNSET, TP_UNSET, NULL};
+    tp_exposure ex = {TP_UNSET, TP_UNSET, TP_UNSET, NULL, NULL};
+    double *layer_peak = NULL;
     int p, i;
     fprintf(fp, "tepid steady %s%s%s\n  ", s->cli->file, s->desc.title[0] ? ": " : "",
             s->desc.title);
@@ -124,6 +163,8 @@ static void summary(FILE *fp, const tp_session *s, const answer *a)
                 a->flows.path[TP_PATH_WALLS]);
     fputs("\n  steady temperatures:\n", fp);
     print_nodes(fp, net, shown->temps);
+    if (net->grid)
+        print_map(fp, net, shown->temps);
     fputs("\n  highest reachable:\n", fp);
     if (a->max_duty < 1.0)
         print_reach(fp, net, "at the duty limit", &a->limit);
@@ -133,8 +174,27 @@ static void summary(FILE *fp, const tp_session *s, const answer *a)
             ex.node_max = shown->temps[i];
     ex.surface_max = surf;
     ex.node_peak = shown->temps;
+    if (net->grid) {
+        /* The hottest cell of the surface and of each layer. */
+        const tp_net_grid *g = net->grid;
+        double *map = malloc((size_t)g->nx * (size_t)g->ny * sizeof *map);
+        tp_map_stats st;
+        layer_peak = malloc((size_t)g->n_layers * sizeof *layer_peak);
+        if (map) {
+            tp_network_surface_map(net, shown->temps, map);
+            tp_map_stats_compute(g, map, &st);
+            ex.surface_max = st.max;
+        }
+        for (i = 0; layer_peak && i < g->n_layers; i++) {
+            double mean, lo;
+            tp_grid_layer_stats(net, i, shown->temps, &mean, &lo, &layer_peak[i]);
+        }
+        ex.layer_peak = layer_peak;
+        free(map);
+    }
     ex.current_max = tp_network_current(net, shown->temps);
     tp_report_cautions(fp, &s->desc, net, &ex);
+    free(layer_peak);
 }
 
 /* The highest reachable temperatures at one duty: {reading, surface, nodes{}} in degC; the

@@ -894,7 +894,7 @@ static void summary_cautions(FILE *fp, const tp_session *s, const tp_sweep_total
 {
     int k;
     if (tot->n_cautions == 0) {
-        tp_exposure ex = {TP_UNSET, TP_UNSET, TP_UNSET, NULL};
+        tp_exposure ex = {TP_UNSET, TP_UNSET, TP_UNSET, NULL, NULL};
         tp_report_cautions(fp, &s->desc, s->net, &ex);
         return;
     }

@@ -140,7 +140,7 @@ static tp_status run_tune(const tp_cli *cli, tp_diag *d)
         rc = tp_warmup_plot(tp_cli_get(cli, "plot"), &s, &w, d);
     if (rc == TP_OK && s.text) {
         tp_exposure ex = {w.metrics.surface_max, w.metrics.node_max, w.metrics.current_peak,
-                          w.peak};
+                          w.peak, w.layer_peak};
         fprintf(s.text, "tepid tune %s\n  ", cli->file);
         tp_report_network(s.text, s.net);
         fprintf(s.text, "  model of the reading at the holding point (duty %.3f -> %.3f):\n"

@@ -14,21 +14,32 @@
 #include "results.h"
 #include "session.h"
 #include "steady.h"
+#include "surfmap.h"
 #include "warmup.h"
 
 static const tp_opt warmup_opts[] = {
     {"csv", 0, 1, 0, 1, "FILE", "write the history as CSV (- for standard output)"},
     {"json", 0, 1, 0, 1, "FILE", "write the metrics as JSON (- for standard output)"},
     {"plot", 0, 1, 0, TP_OUT_FIGURE, "FILE", "draw temperatures, power and duty (.png, .svg or .pdf)"},
+    {"map", 0, 1, 0, TP_OUT_FIGURE, "FILE",
+     "gridded plates: draw the working surface at steady holding (.png, .svg or .pdf)"},
+    {"map-setpoint", 0, 1, 0, TP_OUT_FIGURE, "FILE",
+     "gridded plates: draw it when the reading reaches the setpoint"},
+    {"map-csv", 0, 1, 0, 1, "FILE",
+     "gridded plates: write the surface maps cell by cell as CSV (- for standard output)"},
     {NULL, 0, 0, 0, 0, NULL, NULL},
 };
 
 static void exposure(const tp_warmup *w, const double *peak, tp_exposure *ex)
 {
     ex->surface_max = w->metrics.surface_max;
+    /* A gridded plate: the hottest cell of the surface, not its mean. */
+    if (w->history.surface_max)
+        ex->surface_max = tp_series_max(w->history.surface_max, w->history.n, 1);
     ex->node_max = w->metrics.node_max;
     ex->current_max = w->metrics.current_peak;
     ex->node_peak = peak;
+    ex->layer_peak = w->layer_peak;
 }
 
 static void print_time(FILE *fp, const char *what, double t)
@@ -38,6 +49,61 @@ static void print_time(FILE *fp, const char *what, double t)
     fprintf(fp, "  %-34s %s\n", what, isfinite(t) ? buf : "not in the simulated time");
 }
 
+/* The hottest value of history column k. */
+static double column_peak(const tp_history *h, int k)
+{
+    return tp_series_max(h->temps + k, h->n, h->n_out);
+}
+
+/* One row of the surface-map table: a quantity at the setpoint and at holding. */
+static void map_row(FILE *fp, const char *what, double a, double b, const char *unit, double off)
+{
+    char x[32], y[32];
+    snprintf(x, sizeof x, isfinite(a) ? "%.2f %s" : "-", a - off, unit);
+    snprintf(y, sizeof y, isfinite(b) ? "%.2f %s" : "-", b - off, unit);
+    fprintf(fp, "    %-24s %-26s %s\n", what, x, y);
+}
+
+static void map_cell_row(FILE *fp, const char *what, double va, int ia, int ja, double xa,
+                         double ya, double vb, int ib, int jb, double xb, double yb)
+{
+    char x[64], y[64];
+    snprintf(x, sizeof x, isfinite(va) ? "%.2f degC (%d, %d)" : "-", va - TP_KELVIN_0C, ia, ja);
+    snprintf(y, sizeof y, isfinite(vb) ? "%.2f degC (%d, %d)" : "-", vb - TP_KELVIN_0C, ib, jb);
+    fprintf(fp, "    %-24s %-26s %s\n", what, x, y);
+    snprintf(x, sizeof x, isfinite(va) ? "  at %.1f, %.1f mm" : "", xa * 1e3, ya * 1e3);
+    snprintf(y, sizeof y, isfinite(vb) ? "  at %.1f, %.1f mm" : "", xb * 1e3, yb * 1e3);
+    fprintf(fp, "    %-24s %-26s %s\n", "", x, y);
+}
+
+/* The working-surface map of a gridded plate: at the setpoint and at holding. */
+static void map_summary(FILE *fp, const tp_network *net, const tp_warmup *w)
+{
+    const tp_net_grid *g = net->grid;
+    const tp_map_stats *a = &w->stats_setpoint, *b = &w->stats_hold;
+    char when[64], buf[32];
+    tp_fmt_duration(w->history.cross_time, buf, sizeof buf);
+    snprintf(when, sizeof when, "at setpoint (%s)", isfinite(w->history.cross_time) ? buf : "-");
+    fprintf(fp, "\n  working surface, %d x %d cells of %.2f x %.2f mm:\n", g->nx, g->ny,
+            g->width / g->nx * 1e3, g->depth / g->ny * 1e3);
+    fprintf(fp, "    %-24s %-26s %s\n", "", when, "at steady holding");
+    map_row(fp, "mean", a->mean, b->mean, "degC", TP_KELVIN_0C);
+    map_row(fp, "standard deviation", a->std, b->std, "K", 0.0);
+    map_cell_row(fp, "coldest cell", a->min, a->min_i, a->min_j, a->min_x, a->min_y, b->min,
+                 b->min_i, b->min_j, b->min_x, b->min_y);
+    map_cell_row(fp, "hottest cell", a->max, a->max_i, a->max_j, a->max_x, a->max_y, b->max,
+                 b->max_i, b->max_j, b->max_x, b->max_y);
+    map_row(fp, "spread (max - min)", a->spread, b->spread, "K", 0.0);
+    map_row(fp, "centre - corners", a->centre_corner, b->centre_corner, "K", 0.0);
+    if (w->map_hold) {
+        char what[80];
+        snprintf(what, sizeof what, "all of it ready (every cell within %.0f K)",
+                 TP_MAP_READY_BAND);
+        print_time(fp, what, w->t_all_ready);
+    }
+}
+
+
 static void summary(FILE *fp, const tp_session *s, const tp_warmup *w, const double *peak)
 {
     const tp_network *net = s->net;
@@ -45,14 +111,22 @@ static void summary(FILE *fp, const tp_session *s, const tp_warmup *w, const dou
     const tp_metrics *m = &w->metrics;
     char buf[64];
     int k;
-    tp_exposure ex;
+    tp_exposure ex = {TP_UNSET, TP_UNSET, TP_UNSET, NULL, NULL};
     fprintf(fp, "tepid warmup %s%s%s\n  ", s->cli->file, s->desc.title[0] ? ": " : "",
             s->desc.title);
     tp_report_network(fp, net);
     tp_fmt_duration(m->duration, buf, sizeof buf);
     fprintf(fp, "  simulated %s: %ld steps, %ld right-hand sides, %ld Jacobians, %ld restarts "
-                "(%s)\n\n", buf, w->stats.steps, w->stats.rhs_evals, w->stats.jac_evals,
-            w->stats.restarts, w->stats.sparse ? "KLU" : "dense LU");
+                "(%s", buf, w->stats.steps, w->stats.rhs_evals, w->stats.jac_evals,
+            w->stats.restarts,
+            w->stats.iterative ? "multigrid" : w->stats.sparse ? "KLU" : "dense LU");
+    if (net->grid && w->stats.iterative)
+        fprintf(fp, "; %ld Newton iterations, %ld multigrid solves, %ld setups",
+                w->stats.newton_iters, w->stats.lin_iters, w->stats.factorizations);
+    else if (net->grid)
+        fprintf(fp, "; %ld factorizations, %ld reused", w->stats.factorizations,
+                w->stats.factorizations_skipped);
+    fputs(")\n\n", fp);
     if (isfinite(m->setpoint)) {
         fprintf(fp, "  setpoint %.1f degC\n", m->setpoint - TP_KELVIN_0C);
         print_time(fp, "reading reaches the setpoint", m->t_setpoint);
@@ -95,24 +169,84 @@ static void summary(FILE *fp, const tp_session *s, const tp_warmup *w, const dou
     if (isfinite(m->air_final))
         fprintf(fp, "  %-34s %.1f degC\n", "enclosure air at the end", m->air_final - TP_KELVIN_0C);
     fprintf(fp, "\n  %-16s %10s %10s\n", "node", "final", "peak");
-    for (k = 0; k < h->n_out; k++)
-        fprintf(fp, "  %-16s %10.2f %10.2f degC\n", net->nodes[h->out_nodes[k]].id,
+    for (k = 0; k < h->n_out; k++) {
+        char label[TP_ID_MAX + 8];
+        fprintf(fp, "  %-16s %10.2f %10.2f degC\n", tp_history_label(h, k, label, sizeof label),
                 tp_history_temp(h, h->n - 1, k) - TP_KELVIN_0C,
-                peak[h->out_nodes[k]] - TP_KELVIN_0C);
+                column_peak(h, k) - TP_KELVIN_0C);
+    }
     if (isfinite(m->surface_max))
-        fprintf(fp, "  %-16s %10.2f %10.2f degC (working surface estimate)\n", "surface",
-                h->surface[h->n - 1] - TP_KELVIN_0C, m->surface_max - TP_KELVIN_0C);
+        fprintf(fp, "  %-16s %10.2f %10.2f degC (working surface %s)\n", "surface",
+                h->surface[h->n - 1] - TP_KELVIN_0C, m->surface_max - TP_KELVIN_0C,
+                net->grid ? "mean" : "estimate");
+    if (net->grid)
+        map_summary(fp, net, w);
     exposure(w, peak, &ex);
     tp_report_cautions(fp, &s->desc, net, &ex);
 }
 
 static void put_node_map(cJSON *obj, const char *name, const tp_history *h,
-                         const tp_network *net, const double *values_by_col)
+                         const double *values_by_col)
 {
     cJSON *o = cJSON_AddObjectToObject(obj, name);
     int k;
-    for (k = 0; o && k < h->n_out; k++)
-        tp_json_number(o, net->nodes[h->out_nodes[k]].id, values_by_col[k] - TP_KELVIN_0C);
+    for (k = 0; o && k < h->n_out; k++) {
+        char label[TP_ID_MAX + 8];
+        tp_json_number(o, tp_history_label(h, k, label, sizeof label),
+                       values_by_col[k] - TP_KELVIN_0C);
+    }
+}
+
+static cJSON *json_pair(double a, double b)
+{
+    cJSON *arr = cJSON_CreateArray();
+    if (arr) {
+        cJSON_AddItemToArray(arr, isfinite(a) ? cJSON_CreateNumber(a) : cJSON_CreateNull());
+        cJSON_AddItemToArray(arr, isfinite(b) ? cJSON_CreateNumber(b) : cJSON_CreateNull());
+    }
+    return arr;
+}
+
+/* Statistics of one map, or null when the map does not exist. */
+static void put_map_stats(cJSON *obj, const char *name, const tp_map_stats *st, double time)
+{
+    cJSON *o;
+    if (st->cells == 0) {
+        cJSON_AddNullToObject(obj, name);
+        return;
+    }
+    o = cJSON_AddObjectToObject(obj, name);
+    if (!o)
+        return;
+    if (isfinite(time))
+        tp_json_number(o, "time_s", time);
+    tp_json_number(o, "mean_C", st->mean - TP_KELVIN_0C);
+    tp_json_number(o, "std_K", st->std);
+    tp_json_number(o, "min_C", st->min - TP_KELVIN_0C);
+    cJSON_AddItemToObject(o, "min_cell", json_pair(st->min_i, st->min_j));
+    cJSON_AddItemToObject(o, "min_at_mm", json_pair(st->min_x * 1e3, st->min_y * 1e3));
+    tp_json_number(o, "max_C", st->max - TP_KELVIN_0C);
+    cJSON_AddItemToObject(o, "max_cell", json_pair(st->max_i, st->max_j));
+    cJSON_AddItemToObject(o, "max_at_mm", json_pair(st->max_x * 1e3, st->max_y * 1e3));
+    tp_json_number(o, "spread_K", st->spread);
+    tp_json_number(o, "centre_C", st->centre - TP_KELVIN_0C);
+    tp_json_number(o, "corners_C", st->corner - TP_KELVIN_0C);
+    tp_json_number(o, "centre_minus_corners_K", st->centre_corner);
+}
+
+static void put_surface_map(cJSON *root, const tp_network *net, const tp_warmup *w)
+{
+    const tp_net_grid *g = net->grid;
+    cJSON *o = cJSON_AddObjectToObject(root, "surface_map");
+    if (!o)
+        return;
+    cJSON_AddItemToObject(o, "cells", json_pair(g->nx, g->ny));
+    cJSON_AddItemToObject(o, "cell_mm", json_pair(g->width / g->nx * 1e3, g->depth / g->ny * 1e3));
+    put_map_stats(o, "at_setpoint", &w->stats_setpoint, w->history.cross_time);
+    put_map_stats(o, "holding", &w->stats_hold, TP_UNSET);
+    put_map_stats(o, "final", &w->stats_final, w->metrics.duration);
+    tp_json_number(o, "ready_band_K", TP_MAP_READY_BAND);
+    tp_json_number(o, "time_all_ready_s", w->t_all_ready);
 }
 
 static tp_status write_json(const char *path, const tp_session *s, const tp_warmup *w,
@@ -123,7 +257,7 @@ static tp_status write_json(const char *path, const tp_session *s, const tp_warm
     cJSON *root = cJSON_CreateObject(), *stats, *cautions;
     double *col = malloc(((size_t)h->n_out + 1) * sizeof *col);
     char lines[TP_CAUTIONS_MAX][TP_CAUTION_MAX];
-    tp_exposure ex;
+    tp_exposure ex = {TP_UNSET, TP_UNSET, TP_UNSET, NULL, NULL};
     tp_status st;
     int k, nc;
     if (!root || !col) {
@@ -160,10 +294,12 @@ static tp_status write_json(const char *path, const tp_session *s, const tp_warm
         cJSON_AddNullToObject(root, "not_reached");
     for (k = 0; k < h->n_out; k++)
         col[k] = tp_history_temp(h, h->n - 1, k);
-    put_node_map(root, "final_C", h, s->net, col);
+    put_node_map(root, "final_C", h, col);
     for (k = 0; k < h->n_out; k++)
-        col[k] = peak[h->out_nodes[k]];
-    put_node_map(root, "max_C", h, s->net, col);
+        col[k] = column_peak(h, k);
+    put_node_map(root, "max_C", h, col);
+    if (s->net->grid)
+        put_surface_map(root, s->net, w);
     tp_json_number(root, "duration_s", m->duration);
     stats = cJSON_AddObjectToObject(root, "solver");
     if (stats) {
@@ -171,7 +307,9 @@ static tp_status write_json(const char *path, const tp_session *s, const tp_warm
         tp_json_number(stats, "rhs_evals", (double)w->stats.rhs_evals);
         tp_json_number(stats, "jac_evals", (double)w->stats.jac_evals);
         tp_json_number(stats, "restarts", (double)w->stats.restarts);
-        cJSON_AddStringToObject(stats, "linear_solver", w->stats.sparse ? "klu" : "dense");
+        cJSON_AddStringToObject(stats, "linear_solver",
+                                w->stats.iterative ? "multigrid" : w->stats.sparse ? "klu"
+                                                                                   : "dense");
     }
     exposure(w, peak, &ex);
     nc = tp_report_caution_lines(&s->desc, s->net, &ex, lines);
@@ -184,16 +322,67 @@ static tp_status write_json(const char *path, const tp_session *s, const tp_warm
     return st;
 }
 
+/* The maps a gridded run asked for: --map (at holding, or at the end without a holding
+ * point), --map-setpoint, --map-csv. */
+static tp_status write_maps(const tp_cli *cli, const tp_session *s, const tp_warmup *w,
+                            tp_diag *d)
+{
+    const tp_net_grid *g = s->net->grid;
+    char head[160];
+    tp_status rc = TP_OK;
+    if (tp_cli_get(cli, "map")) {
+        snprintf(head, sizeof head, "Working surface %s (%d x %d cells)",
+                 w->map_hold ? "at steady holding" : "at the end of the run", g->nx, g->ny);
+        rc = tp_map_plot(tp_cli_get(cli, "map"), g, w->map_hold ? w->map_hold : w->map_final,
+                         head, d);
+    }
+    if (rc == TP_OK && tp_cli_get(cli, "map-setpoint")) {
+        if (w->map_setpoint) {
+            char t[32];
+            tp_fmt_duration(w->history.cross_time, t, sizeof t);
+            snprintf(head, sizeof head, "Working surface when the reading reaches the "
+                                        "setpoint (%s)", t);
+            rc = tp_map_plot(tp_cli_get(cli, "map-setpoint"), g, w->map_setpoint, head, d);
+        } else {
+            tp_diag_warn(d, tp_loc_none(), "--map-setpoint",
+                         "give a setpoint the plate reaches within run.duration",
+                         "the reading never reached the setpoint: %s is not written",
+                         tp_cli_get(cli, "map-setpoint"));
+        }
+    }
+    if (rc == TP_OK && tp_cli_get(cli, "map-csv")) {
+        const double *maps[3] = {w->map_setpoint, w->map_hold, w->map_final};
+        const char *const names[3] = {"at_setpoint", "holding", "final"};
+        rc = tp_map_csv(tp_cli_get(cli, "map-csv"), g, maps, names, 3, d);
+    }
+    return rc;
+}
+
 static tp_status run_warmup(const tp_cli *cli, tp_diag *d)
 {
     tp_session s;
     tp_warmup w;
     tp_status rc = tp_session_open(&s, cli, d);
+    static const char *const map_opts[] = {"map", "map-setpoint", "map-csv"};
+    size_t i;
     if (rc != TP_OK)
         return rc;
+    for (i = 0; i < sizeof map_opts / sizeof map_opts[0]; i++) {
+        if (tp_cli_get(cli, map_opts[i]) && !s.net->grid) {
+            tp_diag_error(d, tp_loc_none(), NULL,
+                          "add bed.grid: [NX, NY] to the bed (docs/grid.md), or --set "
+                          "'bed.grid=[40, 40]'",
+                          "--%s draws the working surface of a gridded plate (bed.grid); "
+                          "this file has none", map_opts[i]);
+            tp_session_close(&s);
+            return TP_ERR_USAGE;
+        }
+    }
     rc = tp_warmup_run(s.net, &w, d);
     if (rc == TP_OK && tp_cli_get(cli, "csv"))
         rc = tp_csv_write_history(tp_cli_get(cli, "csv"), &w.history, d);
+    if (rc == TP_OK && s.net->grid)
+        rc = write_maps(cli, &s, &w, d);
     if (rc == TP_OK && tp_cli_get(cli, "json"))
         rc = write_json(tp_cli_get(cli, "json"), &s, &w, w.peak, d);
     if (rc == TP_OK && tp_cli_get(cli, "plot"))
@@ -212,4 +401,7 @@ const tp_verb tp_verb_warmup = {
     "setpoint, when the working surface is ready (within 1 K of its holding temperature for\n"
     "good), overshoot, the reading-to-surface offset and lag, energy, power, duty and current\n"
     "(definitions in docs/metrics.md). The CSV has time_s, <node>_C, <source>_W and, with a\n"
-    "controller, duty and reading_C; --json has the metrics; --plot draws the run."};
+    "controller, duty and reading_C; --json has the metrics; --plot draws the run.\n"
+    "With bed.grid it also answers for the working-surface map at the setpoint and at\n"
+    "holding (mean, spread, extremes, centre against corners, when all of it is ready);\n"
+    "--map, --map-setpoint and --map-csv write the maps (docs/grid.md)."};

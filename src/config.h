@@ -18,6 +18,7 @@
                                         (30 days at 1 s fits) */
 #define TP_MAX_TICKS 10000000.0      /* controller samples in one run, run.duration /
                                         control.period */
+#define TP_GRID_SIDE_MAX 500    /* cells along one side of bed.grid */
 
 /* Read the description from a parsed document. Every problem is reported to `d`; on error
  * returns TP_ERR_CONFIG and *desc is cleared (nothing to free). Defaults are applied. */

@@ -1,4 +1,6 @@
-/* CSV output of a run's history, written through an atomic output file. */
+/* CSV output of a run's history, written through an atomic output file. A gridded plate's
+ * columns are each layer's mean, min and max, the nodes outside the grid, and the working
+ * surface's mean, min and max (docs/grid.md). */
 #include "csv.h"
 
 #include <math.h>
@@ -23,8 +25,12 @@ tp_status tp_csv_write_history(const char *path, const tp_history *h, tp_diag *d
     if (st != TP_OK)
         return st;
     fputs("time_s", o.fp);
-    for (k = 0; k < h->n_out; k++)
-        fprintf(o.fp, ",%s_C", net->nodes[h->out_nodes[k]].id);
+    for (k = 0; k < h->n_out; k++) {
+        char label[TP_ID_MAX + 8];
+        fprintf(o.fp, ",%s_C", tp_history_label(h, k, label, sizeof label));
+    }
+    if (h->surface_min)
+        fputs(",surface_mean_C,surface_min_C,surface_max_C", o.fp);
     for (k = 0; k < net->n_sources; k++)
         fprintf(o.fp, ",%s_W", net->sources[k].id);
     if (net->has_control)
@@ -35,6 +41,14 @@ tp_status tp_csv_write_history(const char *path, const tp_history *h, tp_diag *d
         for (k = 0; k < h->n_out; k++) {
             fputc(',', o.fp);
             tp_csv_real(o.fp, tp_history_temp(h, i, k) - TP_KELVIN);
+        }
+        if (h->surface_min) {
+            fputc(',', o.fp);
+            tp_csv_real(o.fp, h->surface[i] - TP_KELVIN);
+            fputc(',', o.fp);
+            tp_csv_real(o.fp, h->surface_min[i] - TP_KELVIN);
+            fputc(',', o.fp);
+            tp_csv_real(o.fp, h->surface_max[i] - TP_KELVIN);
         }
         for (k = 0; k < net->n_sources; k++) {
             fputc(',', o.fp);

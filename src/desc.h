@@ -103,11 +103,19 @@ typedef struct tp_mounts {
 typedef struct tp_bed {
     int present;
     double size[2]; /* m */
+    double grid[2]; /* -, cells along size[0] and size[1] (whole numbers); unset: lumped */
     tp_layer *layers;
     size_t n_layers;
     tp_face_spec top, bottom;
     tp_mounts mounts;
 } tp_bed;
+
+/* How the heater's power is spread over its area (gridded plates only): a denser outer band. */
+typedef struct tp_heater_pattern {
+    int present;
+    double border;       /* m, width of the outer band of the heater's area */
+    double border_share; /* -, fraction of the heater's power released in that band */
+} tp_heater_pattern;
 
 typedef struct tp_heater {
     int present;
@@ -119,6 +127,7 @@ typedef struct tp_heater {
     double reference;         /* K */
     double max_duty;          /* - */
     double supply_resistance; /* ohm, source and wiring in series */
+    tp_heater_pattern pattern;
 } tp_heater;
 
 typedef struct tp_thermistor {

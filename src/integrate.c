@@ -10,11 +10,15 @@
  * the network's analytic Jacobian. */
 #include "integrate.h"
 
+#include "multigrid.h"
+
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 #include <time.h>
+
+#include <klu.h>
 
 #include <cvode/cvode.h>
 #include <nvector/nvector_serial.h>
@@ -33,15 +37,495 @@
 #define TP_JAC_REUSE_DT 0.5   /* K: a Jacobian is reused while no temperature moved more */
 #define TP_JAC_REUSE_DUTY 0.1 /* -, and no duty moved more (duty enters only via tempco) */
 
+/* ---- vector operations for large networks ---------------------------------------------------
+ * The SUNDIALS libraries of the distribution may be built without optimisation (Debian 12's
+ * 6.4.1 is: every serial vector operation keeps its loop variables in memory, several
+ * nanoseconds per element). For gridded networks, whose vectors have tens of thousands of
+ * entries, the integrator and the steady-state solver give their vectors these operations
+ * instead, with the same element-wise definitions (sums may round differently). */
+
+#define NV_LEN(v) ((long)NV_LENGTH_S(v))
+#define NV_DAT(v) NV_DATA_S(v)
+
+/* z = a x + b y over n elements where z shares no memory with x or y: the compiler may use
+ * vector instructions (the operations below call it when the vectors are distinct, and loop
+ * element by element otherwise, which is correct for z being x or y). */
+static void axpby(long n, double a, const double *restrict x, double b,
+                  const double *restrict y, double *restrict z)
+{
+    long i;
+    for (i = 0; i < n; i++)
+        z[i] = a * x[i] + b * y[i];
+}
+
+static void fv_linearsum(realtype a, N_Vector x, realtype b, N_Vector y, N_Vector z)
+{
+    const double *xd = NV_DAT(x), *yd = NV_DAT(y);
+    double *zd = NV_DAT(z);
+    long i, n = NV_LEN(x);
+    if (zd != xd && zd != yd) {
+        axpby(n, a, xd, b, yd, zd);
+        return;
+    }
+    for (i = 0; i < n; i++)
+        zd[i] = a * xd[i] + b * yd[i];
+}
+
+static void fv_const(realtype c, N_Vector z)
+{
+    double *zd = NV_DAT(z);
+    long i, n = NV_LEN(z);
+    for (i = 0; i < n; i++)
+        zd[i] = c;
+}
+
+static void fv_prod(N_Vector x, N_Vector y, N_Vector z)
+{
+    const double *xd = NV_DAT(x), *yd = NV_DAT(y);
+    double *zd = NV_DAT(z);
+    long i, n = NV_LEN(x);
+    for (i = 0; i < n; i++)
+        zd[i] = xd[i] * yd[i];
+}
+
+static void fv_div(N_Vector x, N_Vector y, N_Vector z)
+{
+    const double *xd = NV_DAT(x), *yd = NV_DAT(y);
+    double *zd = NV_DAT(z);
+    long i, n = NV_LEN(x);
+    for (i = 0; i < n; i++)
+        zd[i] = xd[i] / yd[i];
+}
+
+static void scale_into(long n, double c, const double *restrict x, double *restrict z)
+{
+    long i;
+    for (i = 0; i < n; i++)
+        z[i] = c * x[i];
+}
+
+static void fv_scale(realtype c, N_Vector x, N_Vector z)
+{
+    const double *xd = NV_DAT(x);
+    double *zd = NV_DAT(z);
+    long i, n = NV_LEN(x);
+    if (zd != xd) {
+        if (c == 1.0)
+            memcpy(zd, xd, (size_t)n * sizeof *zd); /* a copy (1.0 * x is x) */
+        else
+            scale_into(n, c, xd, zd);
+        return;
+    }
+    for (i = 0; i < n; i++)
+        zd[i] = c * xd[i];
+}
+
+static void fv_abs(N_Vector x, N_Vector z)
+{
+    const double *xd = NV_DAT(x);
+    double *zd = NV_DAT(z);
+    long i, n = NV_LEN(x);
+    for (i = 0; i < n; i++)
+        zd[i] = fabs(xd[i]);
+}
+
+static void fv_inv(N_Vector x, N_Vector z)
+{
+    const double *xd = NV_DAT(x);
+    double *zd = NV_DAT(z);
+    long i, n = NV_LEN(x);
+    for (i = 0; i < n; i++)
+        zd[i] = 1.0 / xd[i];
+}
+
+static void fv_addconst(N_Vector x, realtype b, N_Vector z)
+{
+    const double *xd = NV_DAT(x);
+    double *zd = NV_DAT(z);
+    long i, n = NV_LEN(x);
+    for (i = 0; i < n; i++)
+        zd[i] = xd[i] + b;
+}
+
+static realtype fv_dotprod(N_Vector x, N_Vector y)
+{
+    const double *xd = NV_DAT(x), *yd = NV_DAT(y);
+    double s0 = 0.0, s1 = 0.0;
+    long i, n = NV_LEN(x);
+    for (i = 0; i + 1 < n; i += 2) {
+        s0 += xd[i] * yd[i];
+        s1 += xd[i + 1] * yd[i + 1];
+    }
+    if (i < n)
+        s0 += xd[i] * yd[i];
+    return s0 + s1;
+}
+
+static realtype fv_maxnorm(N_Vector x)
+{
+    const double *xd = NV_DAT(x);
+    double m = 0.0;
+    long i, n = NV_LEN(x);
+    for (i = 0; i < n; i++)
+        if (fabs(xd[i]) > m)
+            m = fabs(xd[i]);
+    return m;
+}
+
+static realtype fv_wsqrsum(N_Vector x, N_Vector w)
+{
+    const double *xd = NV_DAT(x), *wd = NV_DAT(w);
+    double s0 = 0.0, s1 = 0.0;
+    long i, n = NV_LEN(x);
+    for (i = 0; i + 1 < n; i += 2) {
+        double p = xd[i] * wd[i], q = xd[i + 1] * wd[i + 1];
+        s0 += p * p;
+        s1 += q * q;
+    }
+    if (i < n)
+        s0 += (xd[i] * wd[i]) * (xd[i] * wd[i]);
+    return s0 + s1;
+}
+
+static realtype fv_wrmsnorm(N_Vector x, N_Vector w)
+{
+    return sqrt(fv_wsqrsum(x, w) / (double)NV_LEN(x));
+}
+
+static realtype fv_wl2norm(N_Vector x, N_Vector w)
+{
+    return sqrt(fv_wsqrsum(x, w));
+}
+
+static realtype fv_min(N_Vector x)
+{
+    const double *xd = NV_DAT(x);
+    double m = xd[0];
+    long i, n = NV_LEN(x);
+    for (i = 1; i < n; i++)
+        if (xd[i] < m)
+            m = xd[i];
+    return m;
+}
+
+static realtype fv_l1norm(N_Vector x)
+{
+    const double *xd = NV_DAT(x);
+    double s = 0.0;
+    long i, n = NV_LEN(x);
+    for (i = 0; i < n; i++)
+        s += fabs(xd[i]);
+    return s;
+}
+
+static void fv_compare(realtype c, N_Vector x, N_Vector z)
+{
+    const double *xd = NV_DAT(x);
+    double *zd = NV_DAT(z);
+    long i, n = NV_LEN(x);
+    for (i = 0; i < n; i++)
+        zd[i] = fabs(xd[i]) >= c ? 1.0 : 0.0;
+}
+
+static booleantype fv_invtest(N_Vector x, N_Vector z)
+{
+    const double *xd = NV_DAT(x);
+    double *zd = NV_DAT(z);
+    long i, n = NV_LEN(x);
+    booleantype ok = SUNTRUE;
+    for (i = 0; i < n; i++) {
+        if (xd[i] == 0.0)
+            ok = SUNFALSE;
+        else
+            zd[i] = 1.0 / xd[i];
+    }
+    return ok;
+}
+
+#define TP_NV_FUSED_MAX 16 /* vectors combined in one pass; CVODE uses at most 6 (order 5) */
+
+static int fv_linearcombination(int nv, realtype *c, N_Vector *X, N_Vector z)
+{
+    const double *x[TP_NV_FUSED_MAX];
+    double *zd = NV_DAT(z);
+    long i, n = NV_LEN(z);
+    int j, m = nv < TP_NV_FUSED_MAX ? nv : TP_NV_FUSED_MAX;
+    if (nv < 1)
+        return -1;
+    for (j = 0; j < m; j++)
+        x[j] = NV_DAT(X[j]);
+    switch (m) { /* the short combinations of CVODE's interpolation, one pass each */
+    case 1:
+        for (i = 0; i < n; i++)
+            zd[i] = c[0] * x[0][i];
+        break;
+    case 2:
+        for (i = 0; i < n; i++)
+            zd[i] = c[0] * x[0][i] + c[1] * x[1][i];
+        break;
+    case 3:
+        for (i = 0; i < n; i++)
+            zd[i] = c[0] * x[0][i] + c[1] * x[1][i] + c[2] * x[2][i];
+        break;
+    case 4:
+        for (i = 0; i < n; i++)
+            zd[i] = c[0] * x[0][i] + c[1] * x[1][i] + c[2] * x[2][i] + c[3] * x[3][i];
+        break;
+    case 5:
+        for (i = 0; i < n; i++)
+            zd[i] = c[0] * x[0][i] + c[1] * x[1][i] + c[2] * x[2][i] + c[3] * x[3][i] +
+                    c[4] * x[4][i];
+        break;
+    case 6:
+        for (i = 0; i < n; i++)
+            zd[i] = c[0] * x[0][i] + c[1] * x[1][i] + c[2] * x[2][i] + c[3] * x[3][i] +
+                    c[4] * x[4][i] + c[5] * x[5][i];
+        break;
+    default:
+        for (i = 0; i < n; i++) {
+            double s = c[0] * x[0][i];
+            for (j = 1; j < m; j++)
+                s += c[j] * x[j][i];
+            zd[i] = s;
+        }
+        break;
+    }
+    /* Longer combinations (Krylov solvers) add the rest one vector at a time; z may be X[0]
+     * only, as in SUNDIALS. */
+    for (j = m; j < nv; j++) {
+        const double *xj = NV_DAT(X[j]);
+        for (i = 0; i < n; i++)
+            zd[i] += c[j] * xj[i];
+    }
+    return 0;
+}
+
+static int fv_scaleaddmulti(int nv, realtype *a, N_Vector x, N_Vector *Y, N_Vector *Z)
+{
+    const double *xd = NV_DAT(x);
+    long i, n = NV_LEN(x);
+    int j;
+    for (j = 0; j < nv; j++) {
+        const double *yd = NV_DAT(Y[j]);
+        double *zd = NV_DAT(Z[j]);
+        for (i = 0; i < n; i++)
+            zd[i] = a[j] * xd[i] + yd[i];
+    }
+    return 0;
+}
+
+static int fv_dotprodmulti(int nv, N_Vector x, N_Vector *Y, realtype *d)
+{
+    int j;
+    for (j = 0; j < nv; j++)
+        d[j] = fv_dotprod(x, Y[j]);
+    return 0;
+}
+
+void tp_integrate_vector_ops(void *vector)
+{
+    N_Vector v = vector;
+    v->ops->nvlinearsum = fv_linearsum;
+    v->ops->nvconst = fv_const;
+    v->ops->nvprod = fv_prod;
+    v->ops->nvdiv = fv_div;
+    v->ops->nvscale = fv_scale;
+    v->ops->nvabs = fv_abs;
+    v->ops->nvinv = fv_inv;
+    v->ops->nvaddconst = fv_addconst;
+    v->ops->nvdotprod = fv_dotprod;
+    v->ops->nvmaxnorm = fv_maxnorm;
+    v->ops->nvwrmsnorm = fv_wrmsnorm;
+    v->ops->nvmin = fv_min;
+    v->ops->nvwl2norm = fv_wl2norm;
+    v->ops->nvl1norm = fv_l1norm;
+    v->ops->nvcompare = fv_compare;
+    v->ops->nvinvtest = fv_invtest;
+    v->ops->nvlinearcombination = fv_linearcombination;
+    v->ops->nvscaleaddmulti = fv_scaleaddmulti;
+    v->ops->nvdotprodmulti = fv_dotprodmulti;
+    v->ops->nvdotprodlocal = fv_dotprod;
+    v->ops->nvmaxnormlocal = fv_maxnorm;
+    v->ops->nvminlocal = fv_min;
+    v->ops->nvl1normlocal = fv_l1norm;
+    v->ops->nvinvtestlocal = fv_invtest;
+    v->ops->nvwsqrsumlocal = fv_wsqrsum;
+}
+
+/* ---- a KLU solver that keeps its factorization across restarts (gridded networks) --------
+ *
+ * SUNDIALS's KLU module forgets its symbolic analysis whenever CVODE initialises the linear
+ * solver, which CVodeReInit makes it do at every controller restart. The pattern of M = I -
+ * gamma J never changes, so this solver analyses it once. After a restart CVODE rebuilds M from
+ * the same (cached) Jacobian and the same gamma whenever the step size is the same, so the
+ * numeric factorization is skipped when M is bitwise identical to the matrix last factored:
+ * never when any value changed, so every solve is exact for the matrix CVODE passes. */
+
+typedef struct kluwrap {
+    klu_l_common common;
+    klu_l_symbolic *sym;
+    klu_l_numeric *num;
+    double *last;       /* values of the matrix last factored */
+    sunindextype nnz;
+    long factors, refactors, skips;
+    int last_flag;
+} kluwrap;
+
+#define TP_KLU_RCOND_MIN 1.0e-11 /* -, below this estimate a refactorization re-pivots
+                                    (SUNDIALS uses uround^(2/3), about 3.7e-11) */
+
+static kluwrap *kw_of(SUNLinearSolver S)
+{
+    return S->content;
+}
+
+static SUNLinearSolver_Type kw_type(SUNLinearSolver S)
+{
+    (void)S;
+    return SUNLINEARSOLVER_DIRECT;
+}
+
+static SUNLinearSolver_ID kw_id(SUNLinearSolver S)
+{
+    (void)S;
+    return SUNLINEARSOLVER_CUSTOM;
+}
+
+static int kw_initialize(SUNLinearSolver S)
+{
+    kw_of(S)->last_flag = SUNLS_SUCCESS;
+    return SUNLS_SUCCESS;
+}
+
+static int kw_setup(SUNLinearSolver S, SUNMatrix A)
+{
+    kluwrap *k = kw_of(S);
+    sunindextype n = SUNSparseMatrix_Columns(A), nnz = SUNSparseMatrix_NNZ(A);
+    SuiteSparse_long *ptr = (SuiteSparse_long *)SUNSparseMatrix_IndexPointers(A);
+    SuiteSparse_long *ind = (SuiteSparse_long *)SUNSparseMatrix_IndexValues(A);
+    double *val = SUNSparseMatrix_Data(A);
+    nnz = ptr[n];
+    if (k->num && nnz == k->nnz && memcmp(val, k->last, (size_t)nnz * sizeof *val) == 0) {
+        k->skips++;
+        return k->last_flag = SUNLS_SUCCESS;
+    }
+    if (!k->sym) {
+        k->sym = klu_l_analyze((SuiteSparse_long)n, ptr, ind, &k->common);
+        if (!k->sym)
+            return k->last_flag = SUNLS_PACKAGE_FAIL_UNREC;
+    }
+    if (k->num && klu_l_refactor(ptr, ind, val, k->sym, k->num, &k->common) &&
+        klu_l_rcond(k->sym, k->num, &k->common) && k->common.rcond >= TP_KLU_RCOND_MIN) {
+        k->refactors++;
+    } else {
+        if (k->num)
+            klu_l_free_numeric(&k->num, &k->common);
+        k->num = klu_l_factor(ptr, ind, val, k->sym, &k->common);
+        if (!k->num)
+            return k->last_flag = SUNLS_PACKAGE_FAIL_REC;
+        k->factors++;
+    }
+    if (nnz != k->nnz) {
+        double *p = realloc(k->last, (size_t)nnz * sizeof *p);
+        if (!p)
+            return k->last_flag = SUNLS_MEM_FAIL;
+        k->last = p;
+        k->nnz = nnz;
+    }
+    memcpy(k->last, val, (size_t)nnz * sizeof *val);
+    return k->last_flag = SUNLS_SUCCESS;
+}
+
+static int kw_solve(SUNLinearSolver S, SUNMatrix A, N_Vector x, N_Vector b, realtype tol)
+{
+    kluwrap *k = kw_of(S);
+    (void)tol;
+    N_VScale(1.0, b, x);
+    if (!klu_l_solve(k->sym, k->num, SUNSparseMatrix_Columns(A), 1, N_VGetArrayPointer(x),
+                     &k->common))
+        return k->last_flag = SUNLS_PACKAGE_FAIL_REC;
+    return k->last_flag = SUNLS_SUCCESS;
+}
+
+static sunindextype kw_lastflag(SUNLinearSolver S)
+{
+    return kw_of(S)->last_flag;
+}
+
+static int kw_free(SUNLinearSolver S)
+{
+    kluwrap *k;
+    if (!S)
+        return SUNLS_SUCCESS;
+    k = kw_of(S);
+    if (k) {
+        if (k->num)
+            klu_l_free_numeric(&k->num, &k->common);
+        if (k->sym)
+            klu_l_free_symbolic(&k->sym, &k->common);
+        free(k->last);
+        free(k);
+    }
+    S->content = NULL;
+    SUNLinSolFreeEmpty(S);
+    return SUNLS_SUCCESS;
+}
+
+static SUNLinearSolver kluwrap_create(SUNContext ctx)
+{
+    SUNLinearSolver S = SUNLinSolNewEmpty(ctx);
+    kluwrap *k = calloc(1, sizeof *k);
+    if (!S || !k) {
+        free(k);
+        if (S)
+            SUNLinSolFreeEmpty(S);
+        return NULL;
+    }
+    klu_l_defaults(&k->common);
+    k->common.ordering = 0; /* AMD: less fill than COLAMD on plate grids (docs/grid.md) */
+    S->content = k;
+    S->ops->gettype = kw_type;
+    S->ops->getid = kw_id;
+    S->ops->initialize = kw_initialize;
+    S->ops->setup = kw_setup;
+    S->ops->solve = kw_solve;
+    S->ops->lastflag = kw_lastflag;
+    S->ops->free = kw_free;
+    return S;
+}
+
+/* The multigrid preconditioner of the iterative path (large gridded networks): M = I - gamma J
+ * is solved by GMRES (SPGMR) with products by the cached Jacobian, preconditioned by one V-cycle
+ * of tp_mg on C M (capacities times M: the network's own symmetric form) for the temperatures,
+ * then exactly for the energy totals (their rows only read temperatures). */
+#define TP_MG_CYCLES 1 /* V-cycles per preconditioner solve (docs/grid.md, "Solver") */
+
+typedef struct precond {
+    tp_mg *mg;
+    int *map;       /* network pattern slot -> slot of the hierarchy's fine matrix, -1 */
+    double *a;      /* fine values C (I - gamma J) */
+    double *b;      /* n_free work */
+    double *cap;    /* n_free: capacity of each state, J/K */
+    int n_quad;     /* Jacobian entries in the energy-total rows */
+    int *quad;      /* 3 per entry: row, column, pattern slot */
+    double gamma;   /* of the hierarchy's values */
+    long jversion;  /* and of the Jacobian they came from */
+    int valid;
+    long setups;
+} precond;
+
 typedef struct driver {
     tp_network *net;
     SUNMatrix jac;
     int sparse;
+    int iterative;  /* GMRES with the multigrid preconditioner */
     double *jvals;  /* pattern-ordered Jacobian values */
     double *jy;     /* the state the values were computed at */
     double *jduty;  /* and the duties */
     int jvalid;
     long jreused;
+    long jversion;  /* counts evaluations of jvals */
+    precond pc;
     char cv_msg[512];
 } driver;
 
@@ -80,6 +564,248 @@ static int jac_values(driver *dr, const double *y)
     memcpy(dr->jy, y, (size_t)net->n_free * sizeof *y);
     memcpy(dr->jduty, net->duty, (size_t)net->n_sources * sizeof *net->duty);
     dr->jvalid = 1;
+    dr->jversion++;
+    return 0;
+}
+
+/* ---- the iterative path -------------------------------------------------------------------- */
+
+static int psetup_cb(realtype t, N_Vector y, N_Vector fy, booleantype jok, booleantype *jcur,
+                     realtype gamma, void *user)
+{
+    driver *dr = user;
+    const tp_network *net = dr->net;
+    precond *pc = &dr->pc;
+    int c, k, rc;
+    (void)t;
+    (void)fy;
+    if (!jok || !dr->jvalid) {
+        rc = jac_values(dr, N_VGetArrayPointer(y));
+        if (rc != 0)
+            return rc;
+        *jcur = SUNTRUE;
+    } else {
+        *jcur = SUNFALSE;
+    }
+    if (pc->valid && pc->gamma == gamma && pc->jversion == dr->jversion)
+        return 0;
+    for (c = 0; c < net->n_free; c++)
+        for (k = net->colptr[c]; k < net->colptr[c + 1]; k++) {
+            int r = net->rowind[k];
+            if (pc->map[k] >= 0)
+                pc->a[pc->map[k]] = net->nodes[net->free_nodes[r]].capacity *
+                                    ((r == c ? 1.0 : 0.0) - gamma * dr->jvals[k]);
+        }
+    pc->valid = 0;
+    if (tp_mg_setup(pc->mg, pc->a) != TP_OK)
+        return 1; /* recoverable: CVODE retries with a smaller step */
+    pc->gamma = gamma;
+    pc->jversion = dr->jversion;
+    pc->valid = 1;
+    pc->setups++;
+    return 0;
+}
+
+static int psolve_cb(realtype t, N_Vector y, N_Vector fy, N_Vector r, N_Vector z,
+                     realtype gamma, realtype delta, int lr, void *user)
+{
+    driver *dr = user;
+    const tp_network *net = dr->net;
+    precond *pc = &dr->pc;
+    const double *rr = N_VGetArrayPointer(r);
+    double *zz = N_VGetArrayPointer(z);
+    int nf = net->n_free, n = tp_network_state_size(net), c, k;
+    (void)t;
+    (void)y;
+    (void)fy;
+    (void)delta;
+    (void)lr;
+    for (c = 0; c < nf; c++)
+        pc->b[c] = pc->cap[c] * rr[c];
+    tp_mg_solve(pc->mg, pc->b, zz, TP_MG_CYCLES);
+    for (c = nf; c < n; c++)
+        zz[c] = rr[c];
+    for (k = 0; k < pc->n_quad; k++) {
+        const int *q = pc->quad + 3 * k;
+        zz[q[0]] += gamma * dr->jvals[q[2]] * zz[q[1]];
+    }
+    return 0;
+}
+
+/* The preconditioner's arrays: capacities by state, the energy-total entries of the pattern. */
+static int precond_init(precond *pc, const tp_network *net)
+{
+    int nf = net->n_free, c, k, m = 0;
+    pc->map = malloc((size_t)(net->nnz > 0 ? net->nnz : 1) * sizeof *pc->map);
+    pc->b = malloc((size_t)nf * sizeof *pc->b);
+    pc->cap = malloc((size_t)nf * sizeof *pc->cap);
+    pc->a = malloc((size_t)(net->nnz > 0 ? net->nnz : 1) * sizeof *pc->a);
+    pc->quad = malloc((size_t)(3 * (net->nnz > 0 ? net->nnz : 1)) * sizeof *pc->quad);
+    if (!pc->map || !pc->b || !pc->cap || !pc->a || !pc->quad)
+        return -1;
+    for (c = 0; c < nf; c++) {
+        pc->cap[c] = net->nodes[net->free_nodes[c]].capacity;
+        for (k = net->colptr[c]; k < net->colptr[c + 1]; k++)
+            if (net->rowind[k] >= nf) {
+                pc->quad[3 * m] = net->rowind[k];
+                pc->quad[3 * m + 1] = c;
+                pc->quad[3 * m + 2] = k;
+                m++;
+            }
+    }
+    pc->n_quad = m;
+    pc->mg = tp_mg_for_network(net, pc->map);
+    return pc->mg ? 0 : -1;
+}
+
+static void precond_clear(precond *pc)
+{
+    tp_mg_destroy(&pc->mg);
+    free(pc->map);
+    free(pc->a);
+    free(pc->b);
+    free(pc->cap);
+    free(pc->quad);
+}
+
+/* ---- a solver that applies the preconditioner ----------------------------------------------
+ * The multigrid V-cycle is a close approximation of M^-1 (it shrinks the error about tenfold),
+ * so GMRES would spend most of its work on vector operations and a second preconditioner solve
+ * to form its answer. This solver returns x = P^-1 b. An inexact solve only slows Newton's
+ * convergence; CVODE's nonlinear test still decides when a step is solved (docs/grid.md). */
+
+typedef struct mgsolve {
+    void *a_data, *p_data;
+    SUNATimesFn atimes; /* kept because CVODE requires iterative solvers to take it */
+    SUNPSetupFn psetup;
+    SUNPSolveFn psolve;
+    int last_flag;
+} mgsolve;
+
+static mgsolve *ms_of(SUNLinearSolver S)
+{
+    return S->content;
+}
+
+static SUNLinearSolver_Type ms_type(SUNLinearSolver S)
+{
+    (void)S;
+    return SUNLINEARSOLVER_ITERATIVE;
+}
+
+static int ms_setatimes(SUNLinearSolver S, void *data, SUNATimesFn atimes)
+{
+    ms_of(S)->a_data = data;
+    ms_of(S)->atimes = atimes;
+    return SUNLS_SUCCESS;
+}
+
+static int ms_setprec(SUNLinearSolver S, void *data, SUNPSetupFn psetup, SUNPSolveFn psolve)
+{
+    ms_of(S)->p_data = data;
+    ms_of(S)->psetup = psetup;
+    ms_of(S)->psolve = psolve;
+    return SUNLS_SUCCESS;
+}
+
+static int ms_initialize(SUNLinearSolver S)
+{
+    ms_of(S)->last_flag = SUNLS_SUCCESS;
+    return SUNLS_SUCCESS;
+}
+
+static int ms_setup(SUNLinearSolver S, SUNMatrix A)
+{
+    mgsolve *m = ms_of(S);
+    (void)A;
+    if (m->psetup && m->psetup(m->p_data) != 0)
+        return m->last_flag = SUNLS_PSET_FAIL_REC;
+    return m->last_flag = SUNLS_SUCCESS;
+}
+
+static int ms_solve(SUNLinearSolver S, SUNMatrix A, N_Vector x, N_Vector b, realtype tol)
+{
+    mgsolve *m = ms_of(S);
+    (void)A;
+    if (m->psolve(m->p_data, b, x, tol, SUN_PREC_LEFT) != 0)
+        return m->last_flag = SUNLS_PSOLVE_FAIL_REC;
+    return m->last_flag = SUNLS_SUCCESS;
+}
+
+static int ms_numiters(SUNLinearSolver S)
+{
+    (void)S;
+    return 1;
+}
+
+static realtype ms_resnorm(SUNLinearSolver S)
+{
+    (void)S;
+    return 0.0;
+}
+
+static sunindextype ms_lastflag(SUNLinearSolver S)
+{
+    return ms_of(S)->last_flag;
+}
+
+static int ms_free(SUNLinearSolver S)
+{
+    if (!S)
+        return SUNLS_SUCCESS;
+    free(S->content);
+    S->content = NULL;
+    SUNLinSolFreeEmpty(S);
+    return SUNLS_SUCCESS;
+}
+
+static SUNLinearSolver mgsolve_create(SUNContext ctx)
+{
+    SUNLinearSolver S = SUNLinSolNewEmpty(ctx);
+    mgsolve *m = calloc(1, sizeof *m);
+    if (!S || !m) {
+        free(m);
+        if (S)
+            SUNLinSolFreeEmpty(S);
+        return NULL;
+    }
+    S->content = m;
+    S->ops->gettype = ms_type;
+    S->ops->getid = kw_id;
+    S->ops->setatimes = ms_setatimes;
+    S->ops->setpreconditioner = ms_setprec;
+    S->ops->initialize = ms_initialize;
+    S->ops->setup = ms_setup;
+    S->ops->solve = ms_solve;
+    S->ops->numiters = ms_numiters;
+    S->ops->resnorm = ms_resnorm;
+    S->ops->lastflag = ms_lastflag;
+    S->ops->free = ms_free;
+    return S;
+}
+
+/* J v with the cached Jacobian (the one the preconditioner was built from). */
+static int jtimes_cb(N_Vector v, N_Vector jv, realtype t, N_Vector y, N_Vector fy, void *user,
+                     N_Vector tmp)
+{
+    driver *dr = user;
+    const tp_network *net = dr->net;
+    const double *vv = N_VGetArrayPointer(v);
+    double *out = N_VGetArrayPointer(jv);
+    int n = tp_network_state_size(net), c, k;
+    (void)t;
+    (void)fy;
+    (void)tmp;
+    if (!dr->jvalid && jac_values(dr, N_VGetArrayPointer(y)) != 0)
+        return 1;
+    memset(out, 0, (size_t)n * sizeof *out);
+    for (c = 0; c < n; c++) {
+        double x = vv[c];
+        if (x == 0.0)
+            continue;
+        for (k = net->colptr[c]; k < net->colptr[c + 1]; k++)
+            out[net->rowind[k]] += dr->jvals[k] * x;
+    }
     return 0;
 }
 
@@ -163,6 +889,16 @@ static void add_stats(void *mem, tp_integrate_stats *st)
         st->error_test_fails += v;
     if (CVodeGetNumNonlinSolvConvFails(mem, &v) == CV_SUCCESS)
         st->nonlin_fails += v;
+    if (CVodeGetNumNonlinSolvIters(mem, &v) == CV_SUCCESS)
+        st->newton_iters += v;
+    if (CVodeGetNumLinIters(mem, &v) == CV_SUCCESS)
+        st->lin_iters += v;
+    if (CVodeGetNumPrecSolves(mem, &v) == CV_SUCCESS)
+        st->prec_solves += v;
+    if (CVodeGetNumJtimesEvals(mem, &v) == CV_SUCCESS)
+        st->jtimes += v;
+    if (CVodeGetNumLinConvFails(mem, &v) == CV_SUCCESS)
+        st->lin_fails += v;
 }
 
 /* The free node with the largest weighted local error estimate, for failure messages. */
@@ -205,11 +941,14 @@ static double out_time(const run *r, long k)
 
 static double reading_of(run *r, double t, const double *y)
 {
+    const tp_net_node *sensor;
     double reading;
     if (!r->net->has_control)
         return TP_UNSET;
-    tp_network_temperatures(r->net, y, r->temps);
-    reading = tp_reading(&r->net->control.reading, r->temps[r->net->control.sensor]);
+    /* Only the sensor's temperature: a large network is not copied at every tick. */
+    sensor = &r->net->nodes[r->net->control.sensor];
+    reading = tp_reading(&r->net->control.reading, sensor->state >= 0 ? y[sensor->state]
+                                                                       : sensor->t0);
     if (r->hooks && r->hooks->reading)
         reading = r->hooks->reading(r->hooks->user, t, reading);
     return reading;
@@ -338,9 +1077,11 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
         goto done;
     }
     y = N_VNew_Serial(n, ctx);
-    yi = N_VNew_Serial(n, ctx);
-    atol = N_VNew_Serial(n, ctx);
-    tmp = N_VNew_Serial(n, ctx);
+    if (y && net->grid)
+        tp_integrate_vector_ops(y); /* CVODE's vectors are clones of y and share its ops */
+    yi = y ? N_VClone(y) : NULL;
+    atol = y ? N_VClone(y) : NULL;
+    tmp = y ? N_VClone(y) : NULL;
     if (!y || !yi || !atol || !tmp) {
         st = TP_ERR_NOMEM;
         goto done;
@@ -356,6 +1097,7 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
     while (r.hooks && next_break < r.hooks->n_breaks && r.hooks->breaks[next_break] <= 0.0)
         r.hooks->at_break(r.hooks->user, r.hooks->breaks[next_break++], net,
                           N_VGetArrayPointer(y));
+    tp_network_refresh(net);
     tick(&r, 0.0, N_VGetArrayPointer(y));
     stats->ticks = net->has_control ? 1 : 0;
     if (emit(&r, 0.0, N_VGetArrayPointer(y)))
@@ -374,7 +1116,10 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
     }
     dr.sparse = o->linear_solver == TP_LS_SPARSE ||
                 (o->linear_solver == TP_LS_AUTO && net->n_free > TP_DENSE_MAX);
+    dr.iterative = o->linear_solver == TP_LS_AUTO && net->grid &&
+                   net->n_free >= TP_MG_MIN_UNKNOWNS;
     stats->sparse = dr.sparse;
+    stats->iterative = dr.iterative;
     dr.jvals = malloc((size_t)(net->nnz > 0 ? net->nnz : 1) * sizeof *dr.jvals);
     dr.jy = malloc((size_t)(net->n_free > 0 ? net->n_free : 1) * sizeof *dr.jy);
     dr.jduty = malloc((size_t)(net->n_sources > 0 ? net->n_sources : 1) * sizeof *dr.jduty);
@@ -382,15 +1127,26 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
         st = TP_ERR_NOMEM;
         goto done;
     }
-    if (dr.sparse) {
+    if (dr.iterative) {
+        ls = precond_init(&dr.pc, net) == 0 ? mgsolve_create(ctx) : NULL;
+        if (!ls || CVodeSetLinearSolver(mem, ls, NULL) != CV_SUCCESS ||
+            CVodeSetPreconditioner(mem, psetup_cb, psolve_cb) != CV_SUCCESS ||
+            CVodeSetJacTimes(mem, NULL, jtimes_cb) != CV_SUCCESS) {
+            st = TP_ERR_NOMEM;
+            goto done;
+        }
+    } else if (dr.sparse) {
         dr.jac = SUNSparseMatrix(n, n, net->nnz, CSC_MAT, ctx);
-        ls = dr.jac ? SUNLinSol_KLU(y, dr.jac, ctx) : NULL;
+        if (net->grid)
+            ls = dr.jac ? kluwrap_create(ctx) : NULL;
+        else
+            ls = dr.jac ? SUNLinSol_KLU(y, dr.jac, ctx) : NULL;
     } else {
         dr.jac = SUNDenseMatrix(n, n, ctx);
         ls = dr.jac ? SUNLinSol_Dense(y, dr.jac, ctx) : NULL;
     }
-    if (!ls || CVodeSetLinearSolver(mem, ls, dr.jac) != CV_SUCCESS ||
-        CVodeSetJacFn(mem, jac_cb) != CV_SUCCESS) {
+    if (!dr.iterative && (!ls || CVodeSetLinearSolver(mem, ls, dr.jac) != CV_SUCCESS ||
+                          CVodeSetJacFn(mem, jac_cb) != CV_SUCCESS)) {
         st = TP_ERR_NOMEM;
         goto done;
     }
@@ -401,9 +1157,8 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
         dr.cv_msg[0] = '\0';
         flag = CVode(mem, o->t_end, y, &t, CV_ONE_STEP);
         if (flag < 0) {
+            char *name = CVodeGetReturnFlagName(flag); /* allocated by SUNDIALS: ours to free */
             add_stats(mem, stats);
-            /* SUNDIALS allocates the flag's name; the caller frees it. */
-            char *name = CVodeGetReturnFlagName(flag);
             st = fail(d, name ? name : "CVode failed", t, worst_node(mem, net, yi, tmp),
                       dr.cv_msg, o->rtol);
             free(name);
@@ -415,7 +1170,11 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
                                                                : HUGE_VAL;
         while (k_tick * period <= t && k_tick * period < t_break) {
             double tk = (double)k_tick * period;
-            if (CVodeGetDky(mem, tk, 0, yi) != CV_SUCCESS) {
+            if (net->grid && tk == t) {
+                /* The step ended on the tick: the interpolant there is the step's state (the
+                 * same numbers); a large network saves the interpolation. */
+                N_VScale(1.0, y, yi);
+            } else if (CVodeGetDky(mem, tk, 0, yi) != CV_SUCCESS) {
                 st = fail(d, "interpolation", tk, NULL, dr.cv_msg, o->rtol);
                 goto done;
             }
@@ -477,6 +1236,7 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
                     r.hooks->at_break(r.hooks->user, r.hooks->breaks[next_break++], net,
                                       N_VGetArrayPointer(yi));
                 dr.jvalid = 0;
+                tp_network_refresh(net);
                 if (k_tick * period <= t_restart) {
                     tick(&r, (double)k_tick * period, N_VGetArrayPointer(yi));
                     k_tick++;
@@ -535,6 +1295,14 @@ done:
     if (st == TP_OK && r.bad_node >= 0)
         st = fail(d, "a temperature is not finite", r.bad_t, net->nodes[r.bad_node].id, NULL,
                   o->rtol);
+    if (dr.iterative) {
+        stats->factorizations = dr.pc.setups;
+        stats->jac_evals = dr.jversion; /* CVODE does not count the preconditioner's */
+    }
+    else if (ls && net->grid && dr.sparse) {
+        stats->factorizations = kw_of(ls)->factors + kw_of(ls)->refactors;
+        stats->factorizations_skipped = kw_of(ls)->skips;
+    }
     stats->t_reached = t;
     stats->stopped = r.stop;
     if (mem)
@@ -553,6 +1321,7 @@ done:
         N_VDestroy(tmp);
     if (ctx)
         SUNContext_Free(&ctx);
+    precond_clear(&dr.pc);
     free(dr.jvals);
     free(dr.jy);
     free(dr.jduty);

@@ -62,9 +62,21 @@ typedef struct tp_integrate_stats {
     long restarts;         /* CVodeReInit calls */
     long ticks;            /* controller ticks */
     int sparse;            /* 1 when KLU was used */
+    int iterative;         /* 1 when GMRES with the multigrid preconditioner was used */
+    long newton_iters, lin_iters; /* Newton iterations, and linear (Krylov) iterations */
+    long prec_solves, jtimes, lin_fails; /* preconditioner solves, Jacobian-vector products,
+                                            linear solves that did not converge */
+    long factorizations;   /* gridded networks: numeric factorizations of M = I - gamma J, or
+                              setups of the multigrid preconditioner */
+    long factorizations_skipped; /* setups with M bitwise equal to the last factored one */
     double t_reached;      /* s */
     int stopped;           /* the output callback stopped the run */
 } tp_integrate_stats;
+
+/* Give a SUNDIALS serial vector (an N_Vector, passed untyped so that SUNDIALS types stay in the
+ * solver modules) compiled vector operations with the same definitions as the library's, for
+ * large networks (the library may be built without optimisation). Clones share them. */
+void tp_integrate_vector_ops(void *vector);
 
 /* Options from the network's run settings (duration, step, tolerance, limits). */
 void tp_integrate_defaults(const tp_network *net, tp_integrate_opts *o);

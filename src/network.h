@@ -56,8 +56,47 @@ typedef struct tp_net_link {
     double eps;          /* radiation: effective emissivity */
     double scale;        /* multiplier from losses.*_scale */
     tp_loss_path path;
+    int group;           /* convection: index of the coefficient group it shares (gridded faces,
+                            tp_network_add_group), -1 when the link has its own */
     char label[128];
 } tp_net_link;
+
+/* Convection links that share one coefficient: the cells of one face of a gridded layer. The
+ * coefficient is the correlation's h at the area-weighted mean temperature of the members'
+ * surface nodes against their common sink; each member carries h A s (T_a - T_b). */
+typedef struct tp_net_group {
+    tp_conv_case conv;
+    int sink;          /* the node every member convects to */
+    double area;       /* m2, the members' total area (set by tp_network_finish) */
+    int first, count;  /* members: group_links[first .. first + count - 1] */
+    double h;          /* W/(m2.K) at the last evaluation (scratch) */
+    double dh_ds;      /* dh/dT of the mean surface temperature, W/(m2.K2) (scratch) */
+    double dh_db;      /* dh/dT of the sink, W/(m2.K2) (scratch) */
+    double h_secant;   /* h for the secant Jacobian, W/(m2.K) (scratch) */
+} tp_net_group;
+
+/* The cells of a gridded plate (bed.grid): which node sits at each cell of each layer, and the
+ * working surface as a map. Cell (i, j) spans [i dx, (i+1) dx] x [j dy, (j+1) dy] from the bed's
+ * lower-left corner, dx = width / nx, dy = depth / ny. */
+typedef struct tp_net_grid {
+    int nx, ny;                 /* cells along the bed's first (x) and second (y) side */
+    int n_layers;
+    double width, depth;        /* m */
+    char (*layer_id)[TP_ID_MAX];
+    int *cell;                  /* n_layers * nx * ny: node of (layer l, i, j) at
+                                   (l * ny + j) * nx + i; -1 where the layer has no cell */
+    double *layer_capacity;     /* n_layers: J/K, the layer's cells together */
+    double *top_area;           /* nx * ny: exposed top area of the top layer's cell, m2 */
+    int *top_link;              /* 2 * nx * ny: that face's convection and radiation link of
+                                   each cell (-1 when none) */
+    double sensor_x, sensor_y;  /* m: where the sensor sits (NaN without a sensor) */
+    struct tp_network *lumped;  /* the lumped network it was refined from (owned, finished):
+                                   its steady states start the grid's */
+    int *from;                  /* per node: the node of `lumped` it was refined from */
+} tp_net_grid;
+
+/* Compact arrays for evaluating a large (gridded) network fast; private to network.c. */
+typedef struct tp_net_fast tp_net_fast;
 
 typedef enum tp_source_kind { TP_SRC_POWER, TP_SRC_ELECTRIC } tp_source_kind;
 
@@ -92,9 +131,15 @@ typedef struct tp_network {
     tp_control control;
     /* The working surface (physical form): the top face of the top layer, estimated from the
      * top node as T_s = T_top - q'' t / (2 k) with q'' the flux leaving that face. */
-    int top_node;       /* node index, -1 when unknown (raw form) */
+    int top_node;       /* node index, -1 when unknown (raw form) or gridded */
     double top_area;    /* m2 */
-    double top_half_r;  /* t / (2 k) of the top layer, K.m2/W */
+    double top_half_r;  /* t / (2 k) of the top layer, K.m2/W (gridded plates too) */
+    tp_net_grid *grid;  /* gridded plate (owned), NULL when lumped */
+    tp_net_group *groups; /* convection coefficient groups */
+    int n_groups, cap_groups;
+    int *group_links;   /* members of every group, by group (built by tp_network_finish) */
+    int cap_nodes, cap_links, cap_sources; /* allocated entries */
+    tp_net_fast *fast;  /* gridded networks (owned), NULL otherwise */
     tp_run run;
     /* Jacobian sparsity (compressed sparse columns over the whole state), built once. */
     int nnz;
@@ -139,6 +184,11 @@ tp_net_source *tp_network_add_source(tp_network *net, const char *id, int node);
 tp_status tp_network_spread_source(tp_network *net, tp_net_source *src, const int *nodes,
                                    const double *weights, int n);
 
+/* Add a coefficient group for convection links (copied case; sink: the node all its links
+ * convect to). Returns its index, or -1 when out of memory. Links join it by setting their
+ * `group` (law convection, `correlated` 1 with the same case, b == sink). */
+int tp_network_add_group(tp_network *net, const tp_conv_case *conv, int sink);
+
 /* Index of a node by id, or -1. */
 int tp_network_find_node(const tp_network *net, const char *id);
 
@@ -154,6 +204,10 @@ int *tp_network_grounded(const tp_network *net);
  * Call once after the last node, link and source. */
 tp_status tp_network_finish(tp_network *net);
 
+/* Copy edited link and node parameters into the compact evaluation arrays of a gridded network
+ * (after a break hook changed them); nothing to do for other networks. */
+void tp_network_refresh(tp_network *net);
+
 /* Size of the state vector: free temperatures then TP_N_QUAD energy totals. */
 int tp_network_state_size(const tp_network *net);
 
@@ -164,7 +218,8 @@ void tp_network_initial_state(const tp_network *net, double *y);
 void tp_network_temperatures(const tp_network *net, const double *y, double *t);
 
 /* The heat flow through a link from a to b, W, at node temperatures ta, tb (kelvin), and its
- * partial derivatives (either pointer may be NULL). */
+ * partial derivatives (either pointer may be NULL). A link of a coefficient group is evaluated
+ * here as if its own surface were the group's mean (uniform face). */
 double tp_network_link_flow(const tp_net_link *l, double ta, double tb, double *dqa,
                             double *dqb);
 
@@ -206,9 +261,22 @@ double tp_network_link_conductance(const tp_net_link *l, double ta, double tb, d
  * node temperatures `t`: V / (R(T) + R_series), A. NaN when no source is electrical. */
 double tp_network_current(const tp_network *net, const double *t);
 
-/* The working-surface temperature at node temperatures `t` (K); the top node's temperature
- * when the network has no physical top layer. */
+/* For a recorded sample: every source's power at its held duty into power[] (W), their wiring
+ * loss into *wire and tp_network_current's value into *current, in one pass over each source's
+ * nodes (the same values as tp_network_source_power and tp_network_current, summed in another
+ * order for gridded networks). */
+void tp_network_sample_sources(const tp_network *net, const double *t, double *power,
+                               double *wire, double *current);
+
+/* The working-surface temperature at node temperatures `t` (K); NaN when the network has no
+ * physical top layer. A gridded plate gives the area-weighted mean of its map. */
 double tp_network_surface(const tp_network *net, const double *t);
+
+/* The working-surface map of a gridded plate at node temperatures `t`: map[j * nx + i] is the
+ * top face of the top layer's cell (i, j), K, estimated as for the lumped surface from that
+ * cell's node and the flux leaving its top face; NaN where the top layer has no cell. Returns
+ * the area-weighted mean, or NaN (map untouched) when the network is not gridded. */
+double tp_network_surface_map(const tp_network *net, const double *t, double *map);
 
 /* Name of a law as in explain output: "conduction", "convection", "radiation". */
 const char *tp_law_name(tp_law law);

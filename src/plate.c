@@ -27,6 +27,7 @@
 #include "air.h"
 #include "config.h"
 #include "convection.h"
+#include "grid.h"
 #include "materials.h"
 #include "radiation.h"
 
@@ -35,11 +36,18 @@
 #define TP_BIOT_LIMIT 0.1       /* -, lumped-capacitance criterion (Incropera 7th ed. Eq. 5.10) */
 #define TP_DESIGN_RISE 60.0     /* K above the room, design temperature without a setpoint */
 
+static tp_loc at(const tp_doc *doc, const char *path);
+
 typedef struct geom {
     double w, d, area, t;
     const tp_material_spec *m;
     int node;
 } geom;
+
+tp_loc tp_plate_at(const tp_doc *doc, const char *path)
+{
+    return at(doc, path);
+}
 
 static tp_loc at(const tp_doc *doc, const char *path)
 {
@@ -379,7 +387,9 @@ static void physical_warnings(const tp_desc *desc, const tp_doc *doc, const tp_n
     }
 }
 
-tp_status tp_plate_lower(const tp_desc *desc, const tp_doc *doc, tp_network *net, tp_diag *d)
+/* The lumped lowering: one node per layer. */
+static tp_status lower_lumped(const tp_desc *desc, const tp_doc *doc, tp_network *net,
+                              tp_diag *d)
 {
     const tp_bed *bed = &desc->bed;
     geom g[TP_MAX_LAYERS];
@@ -522,6 +532,31 @@ tp_status tp_plate_lower(const tp_desc *desc, const tp_doc *doc, tp_network *net
         return st;
     physical_warnings(desc, doc, net, d, g);
     return TP_OK;
+}
+
+tp_status tp_plate_lower(const tp_desc *desc, const tp_doc *doc, tp_network *net, tp_diag *d)
+{
+    tp_network *lumped;
+    tp_status st;
+    if (!tp_grid_wanted(desc)) {
+        st = lower_lumped(desc, doc, net, d);
+        if (st == TP_OK && desc->heater.pattern.present)
+            tp_diag_warn(d, at(doc, "heater.pattern"), "heater.pattern",
+                         "set bed.grid: [NX, NY] to resolve the plate into cells",
+                         "the heater pattern only shapes the power over the cells of a "
+                         "gridded plate; the lumped plate ignores it");
+        return st;
+    }
+    /* A gridded plate refines the lumped lowering, which also validates the description and
+     * gives the physical warnings once per layer. */
+    lumped = tp_network_create();
+    if (!lumped)
+        return TP_ERR_NOMEM;
+    st = lower_lumped(desc, doc, lumped, d);
+    if (st == TP_OK)
+        st = tp_grid_refine(desc, doc, &lumped, net, d);
+    tp_network_destroy(&lumped);
+    return st;
 }
 
 tp_status tp_plate_attach_sensor(const tp_desc *desc, tp_network *net)

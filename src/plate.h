@@ -10,10 +10,14 @@
 #include "network.h"
 #include "status.h"
 
-/* Add the nodes, links and the heater source of `desc` (physical form) to an empty network.
- * Validation errors go to `d` (TP_ERR_CONFIG); physical warnings (Biot number, correlation
- * ranges, service limits) are warnings. */
+/* Add the nodes, links and the heater source of `desc` (physical form) to an empty network;
+ * with bed.grid the plate is refined into cells (grid.h). Validation errors go to `d`
+ * (TP_ERR_CONFIG); physical warnings (Biot number, correlation ranges, service limits) are
+ * warnings. */
 tp_status tp_plate_lower(const tp_desc *desc, const tp_doc *doc, tp_network *net, tp_diag *d);
+
+/* The position in `doc` of the key at `path`, or of its nearest enclosing key that exists. */
+tp_loc tp_plate_at(const tp_doc *doc, const char *path);
 
 /* After the controller is attached: the reading model from sensor: (offset, thermistor). */
 tp_status tp_plate_attach_sensor(const tp_desc *desc, tp_network *net);

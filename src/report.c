@@ -88,7 +88,9 @@ int tp_report_caution_lines(const tp_desc *desc, const tp_network *net, const tp
         for (i = 0; i < desc->bed.n_layers && n < TP_CAUTIONS_MAX - 2; i++) {
             const tp_material_spec *m = tp_materials_find(desc, desc->bed.layers[i].material);
             int node = tp_network_find_node(net, desc->bed.layers[i].id);
-            double peak = ex->node_peak && node >= 0 ? ex->node_peak[node] : hottest;
+            double peak = ex->layer_peak   ? ex->layer_peak[i]
+                          : ex->node_peak && node >= 0 ? ex->node_peak[node]
+                                                       : hottest;
             if (m && isfinite(peak) && peak > m->max_temperature - TP_LIMIT_MARGIN) {
                 snprintf(lines[n++], TP_CAUTION_MAX,
                          "Service limit: layer '%s' (%s) is rated to about %.0f degC and "

@@ -23,6 +23,7 @@ typedef struct tp_exposure {
     double node_max;      /* K, hottest node of the plate (the heater layer, usually) */
     double current_max;   /* A drawn by the heater */
     const double *node_peak; /* per node index, K: the hottest each node got (NULL: unknown) */
+    const double *layer_peak; /* per bed layer, K (gridded plates; NULL: from node_peak) */
 } tp_exposure;
 
 /* The safety cautions that apply to this case (always at least the cut-out line). */

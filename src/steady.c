@@ -11,6 +11,8 @@
 #include "steady.h"
 
 #include "desc.h"
+#include "integrate.h"
+#include "multigrid.h"
 
 #include <math.h>
 #include <stdio.h>
@@ -21,6 +23,7 @@
 #include <nvector/nvector_serial.h>
 #include <sundials/sundials_context.h>
 #include <sunlinsol/sunlinsol_klu.h>
+#include <sunlinsol/sunlinsol_spgmr.h>
 #include <sunmatrix/sunmatrix_sparse.h>
 
 #define TP_SECANT_ITERS 60       /* secant iterations at most before Newton */
@@ -28,6 +31,8 @@
 #define TP_MAX_MOVE 300.0        /* K: largest temperature change of one secant step */
 #define TP_FNORM_TOL 1.0e-9      /* W (scaled): KINSOL residual tolerance */
 #define TP_KIN_ITERS 200         /* Newton iterations at most */
+#define TP_STEADY_KRYLOV 40      /* Krylov vectors of GMRES (gridded networks) */
+#define TP_STEADY_RESTARTS 20    /* GMRES restarts at most (gridded networks) */
 
 typedef struct sys {
     tp_network *net;
@@ -47,6 +52,15 @@ typedef struct sys {
     int *map;        /* network slot -> system slot (-1: dropped) */
     int *ucol;       /* hold: slots of column u, one per source node (-1 when fixed) */
     int urow;        /* hold: slot of (n-1, sensor) */
+    /* Gridded networks: Newton-Krylov with the multigrid preconditioner (docs/grid.md). */
+    int iterative;
+    tp_mg *mg;
+    int *mgslot;     /* system slot -> slot of the hierarchy's fine matrix, -1 */
+    double *mgval;   /* the temperature block of the system Jacobian */
+    double *jsys;    /* the system Jacobian (pattern order) at the last setup */
+    double *w;       /* hold: the preconditioner applied to the column of u */
+    double *ju;      /* the unknowns jsys was computed at */
+    double *ytmp;    /* n_free work */
     char msg[512];
 } sys;
 
@@ -60,6 +74,48 @@ static void sys_clear(sys *s)
     free(s->rowind);
     free(s->map);
     free(s->ucol);
+    tp_mg_destroy(&s->mg);
+    free(s->mgslot);
+    free(s->mgval);
+    free(s->jsys);
+    free(s->w);
+    free(s->ju);
+    free(s->ytmp);
+}
+
+/* The multigrid hierarchy of a gridded network's temperature block. */
+static tp_status sys_init_iterative(sys *s)
+{
+    const tp_network *net = s->net;
+    int k, *netmap = malloc((size_t)(net->nnz > 0 ? net->nnz : 1) * sizeof *netmap);
+    s->iterative = 1;
+    s->mgslot = malloc((size_t)(s->nnz > 0 ? s->nnz : 1) * sizeof *s->mgslot);
+    s->mgval = calloc((size_t)(net->nnz > 0 ? net->nnz : 1), sizeof *s->mgval);
+    s->jsys = calloc((size_t)(s->nnz > 0 ? s->nnz : 1), sizeof *s->jsys);
+    s->w = calloc((size_t)s->nf + 1, sizeof *s->w);
+    s->ju = calloc((size_t)s->n + 1, sizeof *s->ju);
+    s->ytmp = calloc((size_t)s->nf + 1, sizeof *s->ytmp);
+    s->mg = netmap ? tp_mg_for_network(net, netmap) : NULL;
+    if (!netmap || !s->mgslot || !s->mgval || !s->jsys || !s->w || !s->ju || !s->ytmp || !s->mg) {
+        free(netmap);
+        return TP_ERR_NOMEM;
+    }
+    for (k = 0; k < s->nnz; k++)
+        s->mgslot[k] = -1;
+    for (k = 0; k < net->nnz; k++)
+        if (s->map[k] >= 0 && netmap[k] >= 0)
+            s->mgslot[s->map[k]] = netmap[k];
+    free(netmap);
+    return TP_OK;
+}
+
+/* Order of (row, source node) pairs: by row, then by node. */
+static int pair_cmp(const void *pa, const void *pb)
+{
+    const int *a = pa, *b = pb;
+    if (a[0] != b[0])
+        return a[0] < b[0] ? -1 : 1;
+    return a[1] < b[1] ? -1 : a[1] > b[1];
 }
 
 static tp_status sys_init(sys *s, tp_network *net, int hold)
@@ -109,39 +165,34 @@ static tp_status sys_init(sys *s, tp_network *net, int hold)
     for (k = net->colptr[nf]; k < net->nnz; k++)
         s->map[k] = -1;
     if (hold) {
-        /* Column u: one entry per node of the controlled source (sorted by row). */
-        int *rows = malloc((size_t)src->n_nodes * sizeof *rows), j;
+        /* Column u: one entry per node of the controlled source, sorted by row (state). */
+        int (*rows)[2] = malloc((size_t)src->n_nodes * sizeof *rows), j, n_rows = 0;
         if (!rows) {
             sys_clear(s);
             return TP_ERR_NOMEM;
         }
         s->colptr[nf] = m;
-        for (j = 0; j < src->n_nodes; j++)
-            rows[j] = net->nodes[src->nodes[j]].state;
         for (j = 0; j < src->n_nodes; j++) {
-            int r, best = -1, bi = -1;
-            for (r = 0; r < src->n_nodes; r++)
-                if (rows[r] >= 0 && (best < 0 || rows[r] < best)) {
-                    best = rows[r];
-                    bi = r;
-                }
-            if (bi < 0)
-                break;
-            rows[bi] = -1;
-            s->rowind[m] = best;
-            /* Remember which source node this slot belongs to. */
-            for (r = 0; r < src->n_nodes; r++)
-                if (net->nodes[src->nodes[r]].state == best)
-                    s->ucol[r] = m;
-            m++;
+            int st = net->nodes[src->nodes[j]].state;
+            s->ucol[j] = -1;
+            if (st >= 0) {
+                rows[n_rows][0] = st;
+                rows[n_rows++][1] = j;
+            }
         }
-        for (j = 0; j < src->n_nodes; j++)
-            if (net->nodes[src->nodes[j]].state < 0)
-                s->ucol[j] = -1;
+        qsort(rows, (size_t)n_rows, sizeof *rows, pair_cmp);
+        for (j = 0; j < n_rows; j++) {
+            s->rowind[m] = rows[j][0];
+            s->ucol[rows[j][1]] = m++;
+        }
         free(rows);
     }
     s->colptr[s->n] = m;
     s->nnz = m;
+    if (net->grid && net->n_free >= TP_MG_MIN_UNKNOWNS && sys_init_iterative(s) != TP_OK) {
+        sys_clear(s);
+        return TP_ERR_NOMEM;
+    }
     return TP_OK;
 }
 
@@ -233,6 +284,84 @@ static void kin_info(const char *module, const char *function, char *msg, void *
     (void)user;
 }
 
+/* ---- Newton-Krylov for gridded networks ------------------------------------------------------
+ * The system Jacobian is K = [A p; e_s^T 0] (the border only for the holding point: p the
+ * power of the controlled source per unit duty, e_s the sensor's row). The preconditioner
+ * replaces A^-1 by one multigrid V-cycle M and eliminates the border exactly:
+ *   y = M v_T,  u = (y_s - v_u) / (M p)_s,  x = y - (M p) u. */
+
+static int kin_psetup(N_Vector uu, N_Vector us, N_Vector fval, N_Vector fs, void *user)
+{
+    sys *s = user;
+    int k;
+    (void)us;
+    (void)fval;
+    (void)fs;
+    if (jacobian(s, N_VGetArrayPointer(uu), s->jsys, 0) != 0)
+        return 1;
+    memcpy(s->ju, N_VGetArrayPointer(uu), (size_t)s->n * sizeof *s->ju);
+    for (k = 0; k < s->nnz; k++)
+        if (s->mgslot[k] >= 0)
+            s->mgval[s->mgslot[k]] = s->jsys[k];
+    if (tp_mg_setup(s->mg, s->mgval) != TP_OK)
+        return 1;
+    if (s->hold) {
+        for (k = 0; k < s->nf; k++)
+            s->ytmp[k] = 0.0;
+        for (k = s->colptr[s->nf]; k < s->colptr[s->nf + 1]; k++)
+            s->ytmp[s->rowind[k]] = s->jsys[k];
+        tp_mg_vcycle(s->mg, s->ytmp, s->w);
+        if (!(s->w[s->sensor] != 0.0))
+            return 1;
+    }
+    return 0;
+}
+
+static int kin_psolve(N_Vector uu, N_Vector us, N_Vector fval, N_Vector fs, N_Vector vv,
+                      void *user)
+{
+    sys *s = user;
+    double *v = N_VGetArrayPointer(vv);
+    int k;
+    (void)uu;
+    (void)us;
+    (void)fval;
+    (void)fs;
+    tp_mg_vcycle(s->mg, v, s->ytmp);
+    if (s->hold) {
+        double u = (s->ytmp[s->sensor] - v[s->nf]) / s->w[s->sensor];
+        for (k = 0; k < s->nf; k++)
+            v[k] = s->ytmp[k] - s->w[k] * u;
+        v[s->nf] = u;
+    } else {
+        memcpy(v, s->ytmp, (size_t)s->nf * sizeof *v);
+    }
+    return 0;
+}
+
+/* K v with the Jacobian of the last preconditioner setup (refreshed when u moved). */
+static int kin_jtimes(N_Vector vv, N_Vector jv, N_Vector uu, booleantype *new_uu, void *user)
+{
+    sys *s = user;
+    const double *v = N_VGetArrayPointer(vv);
+    double *out = N_VGetArrayPointer(jv);
+    int c, k;
+    if (*new_uu) {
+        /* Usually the preconditioner setup has just computed it at these unknowns. */
+        if (memcmp(s->ju, N_VGetArrayPointer(uu), (size_t)s->n * sizeof *s->ju) != 0) {
+            if (jacobian(s, N_VGetArrayPointer(uu), s->jsys, 0) != 0)
+                return 1;
+            memcpy(s->ju, N_VGetArrayPointer(uu), (size_t)s->n * sizeof *s->ju);
+        }
+        *new_uu = SUNFALSE;
+    }
+    memset(out, 0, (size_t)s->n * sizeof *out);
+    for (c = 0; c < s->n; c++)
+        for (k = s->colptr[c]; k < s->colptr[c + 1]; k++)
+            out[s->rowind[k]] += s->jsys[k] * v[c];
+    return 0;
+}
+
 /* Every free node must reach a fixed node through links, or no steady state exists. */
 static const char *isolated_node(const tp_network *net)
 {
@@ -266,22 +395,26 @@ static tp_status solve(sys *s, double *x, long *iters, tp_diag *d)
         goto done;
     }
     u = N_VNew_Serial(s->n, ctx);
-    us = N_VNew_Serial(s->n, ctx);
-    fs = N_VNew_Serial(s->n, ctx);
+    if (u && s->iterative)
+        tp_integrate_vector_ops(u); /* KINSOL's vectors are clones of u */
+    us = u ? N_VClone(u) : NULL;
+    fs = u ? N_VClone(u) : NULL;
     J = SUNSparseMatrix(s->n, s->n, s->nnz > 0 ? s->nnz : 1, CSC_MAT, ctx);
     Js = SUNSparseMatrix(s->n, s->n, s->nnz > 0 ? s->nnz : 1, CSC_MAT, ctx);
     if (!u || !us || !fs || !J || !Js) {
         st = TP_ERR_NOMEM;
         goto done;
     }
-    /* Secant phase: solve J_sec dx = -F by KLU, damped to TP_MAX_MOVE per step. */
-    lss = SUNLinSol_KLU(u, Js, ctx);
-    if (!lss) {
+    /* Secant phase: solve J_sec dx = -F by KLU, damped to TP_MAX_MOVE per step. A gridded
+     * network starts from its lumped network's steady state instead, close enough for Newton. */
+    lss = s->iterative ? NULL : SUNLinSol_KLU(u, Js, ctx);
+    if (!lss && !s->iterative) {
         st = TP_ERR_NOMEM;
         goto done;
     }
-    copy_pattern(s, Js);
-    for (it = 0; it < TP_SECANT_ITERS; it++) {
+    if (!s->iterative)
+        copy_pattern(s, Js);
+    for (it = 0; it < TP_SECANT_ITERS && !s->iterative; it++) {
         double move = 0.0, scale = 1.0;
         N_Vector b = fs, xx = us;
         if (residual(s, x, f) != 0 || jacobian(s, x, SUNSparseMatrix_Data(Js), 1) != 0)
@@ -309,7 +442,8 @@ static tp_status solve(sys *s, double *x, long *iters, tp_diag *d)
         N_VGetArrayPointer(fs)[i] = 1.0;
     }
     kin = KINCreate(ctx);
-    ls = SUNLinSol_KLU(u, J, ctx);
+    ls = s->iterative ? SUNLinSol_SPGMR(u, SUN_PREC_RIGHT, TP_STEADY_KRYLOV, ctx)
+                      : SUNLinSol_KLU(u, J, ctx);
     if (!kin || !ls || KINInit(kin, kin_f, u) != KIN_SUCCESS ||
         KINSetUserData(kin, s) != KIN_SUCCESS ||
         KINSetErrHandlerFn(kin, kin_err, s) != KIN_SUCCESS ||
@@ -317,19 +451,26 @@ static tp_status solve(sys *s, double *x, long *iters, tp_diag *d)
         KINSetFuncNormTol(kin, TP_FNORM_TOL) != KIN_SUCCESS ||
         KINSetScaledStepTol(kin, 1e-13) != KIN_SUCCESS ||
         KINSetNumMaxIters(kin, TP_KIN_ITERS) != KIN_SUCCESS ||
-        KINSetMaxSetupCalls(kin, 1) != KIN_SUCCESS ||
-        KINSetLinearSolver(kin, ls, J) != KIN_SUCCESS || KINSetJacFn(kin, kin_jac) != KIN_SUCCESS) {
+        KINSetMaxSetupCalls(kin, 1) != KIN_SUCCESS) {
+        st = TP_ERR_NOMEM;
+        goto done;
+    }
+    if (s->iterative ? (SUNLinSol_SPGMRSetMaxRestarts(ls, TP_STEADY_RESTARTS) != SUNLS_SUCCESS ||
+                        KINSetLinearSolver(kin, ls, NULL) != KIN_SUCCESS ||
+                        KINSetPreconditioner(kin, kin_psetup, kin_psolve) != KIN_SUCCESS ||
+                        KINSetJacTimesVecFn(kin, kin_jtimes) != KIN_SUCCESS)
+                     : (KINSetLinearSolver(kin, ls, J) != KIN_SUCCESS ||
+                        KINSetJacFn(kin, kin_jac) != KIN_SUCCESS)) {
         st = TP_ERR_NOMEM;
         goto done;
     }
     flag = KINSol(kin, u, KIN_LINESEARCH, us, fs);
     KINGetNumNonlinSolvIters(kin, iters);
     if (flag < 0) {
-        /* SUNDIALS allocates the flag's name; the caller frees it. */
-        char *name = KINGetReturnFlagName(flag);
+        char *name = KINGetReturnFlagName(flag); /* allocated by SUNDIALS: ours to free */
         tp_diag_error(d, tp_loc_none(), NULL,
                       "check for nodes coupled only by very weak or very strong links",
-                      "the steady-state solver failed (%s)%s%s", name ? name : "KINSOL failed",
+                      "the steady-state solver failed (%s)%s%s", name ? name : "?",
                       s->msg[0] ? ": " : "", s->msg);
         free(name);
         st = TP_ERR_SOLVER;
@@ -407,6 +548,35 @@ static tp_status check_grounded(const tp_network *net, tp_diag *d)
     return TP_OK;
 }
 
+/* A gridded network's starting point: the steady state of the lumped network it was refined
+ * from, each cell at its layer's temperature (and, for the holding point, the lumped duty).
+ * Returns 0, or -1 when the lumped network has no such state. */
+static int lumped_guess(tp_network *net, int hold, double target, double duty_scale, double *x)
+{
+    tp_network *lp = net->grid->lumped;
+    const int *from = net->grid->from;
+    tp_steady st;
+    tp_diag quiet;
+    int i, rc;
+    tp_diag_init(&quiet, NULL);
+    lp->has_control = net->has_control;
+    lp->control = net->control;
+    if (net->has_control)
+        lp->control.sensor = from[net->control.sensor];
+    for (i = 0; i < net->n_sources && i < lp->n_sources; i++)
+        lp->duty[i] = net->duty[i];
+    rc = hold ? tp_steady_hold_at(lp, target, &st, &quiet)
+              : tp_steady_full(lp, duty_scale, &st, &quiet);
+    if (rc != TP_OK)
+        return -1;
+    for (i = 0; i < net->n_free; i++)
+        x[i] = st.temps[from[net->free_nodes[i]]];
+    if (hold)
+        x[net->n_free] = st.duty;
+    tp_steady_clear(&st);
+    return 0;
+}
+
 tp_status tp_steady_full(tp_network *net, double duty_scale, tp_steady *out, tp_diag *d)
 {
     sys s;
@@ -434,6 +604,8 @@ tp_status tp_steady_full(tp_network *net, double duty_scale, tp_steady *out, tp_
     }
     for (i = 0; i < s.nf; i++)
         x[i] = net->nodes[net->free_nodes[i]].t0;
+    if (s.iterative)
+        lumped_guess(net, 0, TP_UNSET, duty_scale, x);
     st = solve(&s, x, &out->iterations, d);
     if (st == TP_OK)
         st = finish(net, &s, x, out, d);
@@ -445,57 +617,75 @@ tp_status tp_steady_full(tp_network *net, double duty_scale, tp_steady *out, tp_
     return st;
 }
 
+static tp_status need_control(const tp_network *net, tp_diag *d)
+{
+    if (net->has_control)
+        return TP_OK;
+    tp_diag_error(d, tp_loc_none(), "control", "add a control: section with a setpoint",
+                  "a holding point needs a controller");
+    return TP_ERR_CONFIG;
+}
+
 tp_status tp_steady_hold_at(tp_network *net, double target, tp_steady *out, tp_diag *d)
 {
-    sys s;
     tp_steady full;
-    double *x, umax, saved_sp;
     tp_status st;
-    int i;
     memset(out, 0, sizeof *out);
-    if (!net->has_control) {
-        tp_diag_error(d, tp_loc_none(), "control", "add a control: section with a setpoint",
-                      "a holding point needs a controller");
+    if (need_control(net, d) != TP_OK)
         return TP_ERR_CONFIG;
-    }
-    umax = net->sources[net->control.source].max_duty;
     /* Reachable at all? The full-power equilibrium bounds the reading. */
     st = tp_steady_full(net, 1.0, &full, d);
     if (st != TP_OK)
         return st;
-    if (full.reading < target) {
+    full.reading = full.temps[net->control.sensor] + net->control.reading.offset;
+    st = tp_steady_hold_given(net, target, &full, out, d);
+    tp_steady_clear(&full);
+    return st;
+}
+
+tp_status tp_steady_hold_given(tp_network *net, double target, const tp_steady *full,
+                               tp_steady *out, tp_diag *d)
+{
+    sys s;
+    double *x, umax, saved_sp;
+    tp_status st;
+    int i;
+    memset(out, 0, sizeof *out);
+    if (need_control(net, d) != TP_OK)
+        return TP_ERR_CONFIG;
+    umax = net->sources[net->control.source].max_duty;
+    if (full->reading < target) {
         tp_diag_error(d, tp_loc_none(), "control.setpoint",
                       "more heater power, better insulation, or a lower setpoint",
                       "the setpoint %.2f degC is out of reach: at full power (duty %.2f) the "
                       "reading levels off at %.2f degC", target - 273.15, umax,
-                      full.reading - 273.15);
-        tp_steady_clear(&full);
+                      full->reading - 273.15);
         return TP_ERR_SOLVER;
     }
     saved_sp = net->control.setpoint;
     net->control.setpoint = target;
     if (sys_init(&s, net, 1) != TP_OK) {
         net->control.setpoint = saved_sp;
-        tp_steady_clear(&full);
         return TP_ERR_NOMEM;
     }
     x = malloc((size_t)s.n * sizeof *x);
     if (!x) {
         net->control.setpoint = saved_sp;
         sys_clear(&s);
-        tp_steady_clear(&full);
         return TP_ERR_NOMEM;
     }
     /* Start between the room and the full-power state, at the duty that scales to it. */
     {
-        double tr = full.reading, t0 = net->nodes[net->control.sensor].t0;
+        double tr = full->reading, t0 = net->nodes[net->control.sensor].t0;
         double frac = (target - t0) / fmax(tr - t0, 1e-9);
         for (i = 0; i < s.nf; i++) {
             int node = net->free_nodes[i];
-            x[i] = net->nodes[node].t0 + frac * (full.temps[node] - net->nodes[node].t0);
+            x[i] = net->nodes[node].t0 + frac * (full->temps[node] - net->nodes[node].t0);
         }
         x[s.nf] = umax * fmin(fmax(frac, 0.0), 1.0);
     }
+    if (s.iterative)
+        lumped_guess(net, 1, target, 1.0, x);
     {
         double saved = net->duty[s.src];
         st = solve(&s, x, &out->iterations, d);
@@ -506,7 +696,6 @@ tp_status tp_steady_hold_at(tp_network *net, double target, tp_steady *out, tp_d
     net->control.setpoint = saved_sp;
     free(x);
     sys_clear(&s);
-    tp_steady_clear(&full);
     return st;
 }
 

@@ -30,6 +30,11 @@ tp_status tp_steady_hold(tp_network *net, tp_steady *out, tp_diag *d);
 /* The same at an arbitrary target reading (K); used by sweeps and tuning. */
 tp_status tp_steady_hold_at(tp_network *net, double target, tp_steady *out, tp_diag *d);
 
+/* The same with the full-power equilibrium already known (`full`, from tp_steady_full at
+ * duty scale 1, its reading set), which saves solving it again. */
+tp_status tp_steady_hold_given(tp_network *net, double target, const tp_steady *full,
+                               tp_steady *out, tp_diag *d);
+
 /* Free what a result owns. */
 void tp_steady_clear(tp_steady *s);
 

@@ -723,7 +723,7 @@ static void point_cautions(worker *wk, const tp_desc *desc, const tp_network *ne
 {
     char lines[TP_CAUTIONS_MAX][TP_CAUTION_MAX];
     tp_exposure ex = {w->metrics.surface_max, w->metrics.node_max, w->metrics.current_peak,
-                      w->peak};
+                      w->peak, w->layer_peak};
     int n = tp_report_caution_lines(desc, net, &ex, lines), i;
     for (i = 0; i < n; i++) {
         caution_slot c;

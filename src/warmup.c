@@ -19,9 +19,59 @@ static double *node_peaks(const tp_history *h, const tp_network *net)
         return NULL;
     for (i = 0; i < net->n_nodes; i++) {
         int col = tp_history_column(h, i);
-        peak[i] = col >= 0 ? tp_series_max(h->temps + col, h->n, h->n_out) : net->nodes[i].t0;
+        peak[i] = col >= 0 ? tp_series_max(h->temps + col, h->n, h->n_out)
+                  : net->nodes[i].capacity > 0 ? TP_UNSET : net->nodes[i].t0;
     }
     return peak;
+}
+
+/* The answers about the working-surface map of a gridded plate: the map at the holding point
+ * (prepared before the run, as the history's reference), and after it the maps when the
+ * reading reached the setpoint and at the end, their statistics, the time the whole surface is
+ * ready, and each layer's peak. */
+static tp_status grid_before(tp_network *net, tp_warmup *w)
+{
+    size_t n = (size_t)net->grid->nx * (size_t)net->grid->ny;
+    w->map_hold = w->has_hold ? malloc(n * sizeof *w->map_hold) : NULL;
+    if (w->has_hold && !w->map_hold)
+        return TP_ERR_NOMEM;
+    if (w->map_hold) {
+        tp_network_surface_map(net, w->hold.temps, w->map_hold);
+        w->history.map_ref = w->map_hold;
+    }
+    if (net->has_control && isfinite(net->control.setpoint) &&
+        (net->control.mode == TP_MODE_ONOFF || net->control.mode == TP_MODE_PID))
+        w->history.cross_level = net->control.setpoint;
+    return TP_OK;
+}
+
+static tp_status grid_after(tp_network *net, tp_warmup *w)
+{
+    const tp_net_grid *g = net->grid;
+    const tp_history *h = &w->history;
+    size_t n = (size_t)g->nx * (size_t)g->ny;
+    int k;
+    w->layer_peak = malloc((size_t)g->n_layers * sizeof *w->layer_peak);
+    w->map_final = malloc(n * sizeof *w->map_final);
+    if (!w->layer_peak || !w->map_final)
+        return TP_ERR_NOMEM;
+    for (k = 0; k < h->n_out; k++)
+        if (h->out_kind[k] == TP_COL_MAX)
+            w->layer_peak[h->out_layer[k]] = tp_series_max(h->temps + k, h->n, h->n_out);
+    memcpy(w->map_final, h->map, n * sizeof *w->map_final);
+    tp_map_stats_compute(g, w->map_final, &w->stats_final);
+    if (isfinite(h->cross_time)) {
+        w->map_setpoint = malloc(n * sizeof *w->map_setpoint);
+        if (!w->map_setpoint)
+            return TP_ERR_NOMEM;
+        memcpy(w->map_setpoint, h->map_cross, n * sizeof *w->map_setpoint);
+        tp_map_stats_compute(g, w->map_setpoint, &w->stats_setpoint);
+    }
+    if (w->map_hold) {
+        tp_map_stats_compute(g, w->map_hold, &w->stats_hold);
+        w->t_all_ready = tp_settle_time(h->t, h->surface_dev, h->n, 1, 0.0, TP_MAP_READY_BAND);
+    }
+    return TP_OK;
 }
 
 tp_status tp_warmup_run(tp_network *net, tp_warmup *w, tp_diag *d)
@@ -30,6 +80,10 @@ tp_status tp_warmup_run(tp_network *net, tp_warmup *w, tp_diag *d)
     tp_status st;
     tp_diag quiet;
     memset(w, 0, sizeof *w);
+    w->t_all_ready = TP_UNSET;
+    tp_map_stats_compute_empty(&w->stats_hold);
+    tp_map_stats_compute_empty(&w->stats_setpoint);
+    tp_map_stats_compute_empty(&w->stats_final);
     st = tp_history_init(&w->history, net);
     if (st != TP_OK)
         return st;
@@ -37,11 +91,15 @@ tp_status tp_warmup_run(tp_network *net, tp_warmup *w, tp_diag *d)
      * summary says why), so their messages go to a silent sink. */
     tp_diag_init(&quiet, NULL);
     w->has_full = tp_steady_full(net, 1.0, &w->full, &quiet) == TP_OK;
-    if (net->has_control && isfinite(net->control.setpoint) &&
-        (net->control.mode == TP_MODE_ONOFF || net->control.mode == TP_MODE_PID))
-        w->has_hold = tp_steady_hold(net, &w->hold, &quiet) == TP_OK;
     if (net->has_control && w->has_full)
         w->full.reading = w->full.temps[net->control.sensor] + net->control.reading.offset;
+    /* The holding point starts from the full-power state just found (not solved twice). */
+    if (net->has_control && isfinite(net->control.setpoint) && w->has_full &&
+        (net->control.mode == TP_MODE_ONOFF || net->control.mode == TP_MODE_PID))
+        w->has_hold = tp_steady_hold_given(net, net->control.setpoint, &w->full, &w->hold,
+                                           &quiet) == TP_OK;
+    if (net->grid && (st = grid_before(net, w)) != TP_OK)
+        return st;
     tp_integrate_defaults(net, &o);
     o.out = tp_history_record;
     o.user = &w->history;
@@ -53,6 +111,8 @@ tp_status tp_warmup_run(tp_network *net, tp_warmup *w, tp_diag *d)
                            w->has_full ? &w->full : NULL, &w->metrics);
     if (st == TP_OK && !(w->peak = node_peaks(&w->history, net)))
         st = TP_ERR_NOMEM;
+    if (st == TP_OK && net->grid)
+        st = grid_after(net, w);
     return st;
 }
 
@@ -62,7 +122,11 @@ void tp_warmup_clear(tp_warmup *w)
     tp_steady_clear(&w->full);
     tp_steady_clear(&w->hold);
     free(w->peak);
-    w->peak = NULL;
+    free(w->layer_peak);
+    free(w->map_hold);
+    free(w->map_setpoint);
+    free(w->map_final);
+    w->peak = w->layer_peak = w->map_hold = w->map_setpoint = w->map_final = NULL;
 }
 
 tp_status tp_warmup_plot(const char *path, const tp_session *s, const tp_warmup *w, tp_diag *d)
@@ -71,18 +135,20 @@ tp_status tp_warmup_plot(const char *path, const tp_session *s, const tp_warmup 
     const tp_network *net = s->net;
     long n = h->n, i;
     int k, ns = 0, np = 0;
-    size_t cells = (size_t)n * ((size_t)h->n_out + 6);
+    size_t cells = (size_t)n * ((size_t)h->n_out + 8);
     double *buf = malloc(cells * sizeof *buf), *minutes, *power, *reading, *surface;
-    tp_plot_series *temp_series = calloc((size_t)h->n_out + 2, sizeof *temp_series);
+    tp_plot_series *temp_series = calloc((size_t)h->n_out + 4, sizeof *temp_series);
+    char(*labels)[TP_ID_MAX + 8] = calloc((size_t)h->n_out + 1, sizeof *labels);
     tp_plot_series power_series[2];
     tp_plot_hline setpoint = {"setpoint", w->metrics.setpoint - TP_KELVIN_0C};
     tp_plot_panel panels[2];
     tp_plot_chart chart;
     char title[256];
     tp_status st;
-    if (!buf || !temp_series) {
+    if (!buf || !temp_series || !labels) {
         free(buf);
         free(temp_series);
+        free(labels);
         return TP_ERR_NOMEM;
     }
     minutes = buf;
@@ -99,14 +165,28 @@ tp_status tp_warmup_plot(const char *path, const tp_session *s, const tp_warmup 
     }
     for (k = 0; k < h->n_out; k++) {
         double *col = buf + (size_t)(4 + k) * (size_t)n;
+        /* A gridded plate draws each layer's mean and the other nodes. */
+        if (h->out_kind[k] == TP_COL_MIN || h->out_kind[k] == TP_COL_MAX)
+            continue;
         for (i = 0; i < n; i++)
             col[i] = tp_history_temp(h, i, k) - TP_KELVIN_0C;
-        temp_series[ns++] = (tp_plot_series){net->nodes[h->out_nodes[k]].id, minutes, col,
-                                             (size_t)n, 0, 0, 0};
+        tp_history_label(h, k, labels[k], sizeof labels[k]);
+        temp_series[ns++] = (tp_plot_series){labels[k], minutes, col, (size_t)n, 0, 0, 0};
     }
     if (isfinite(w->metrics.surface_max))
-        temp_series[ns++] = (tp_plot_series){"surface (estimate)", minutes, surface, (size_t)n,
-                                             1, 0, 0};
+        temp_series[ns++] = (tp_plot_series){h->surface_min ? "surface mean" : "surface (estimate)",
+                                             minutes, surface, (size_t)n, 1, 0, 0};
+    if (h->surface_min) {
+        double *lo = buf + (size_t)(4 + h->n_out) * (size_t)n, *hi = lo + n;
+        for (i = 0; i < n; i++) {
+            lo[i] = h->surface_min[i] - TP_KELVIN_0C;
+            hi[i] = h->surface_max[i] - TP_KELVIN_0C;
+        }
+        temp_series[ns++] = (tp_plot_series){"surface coldest cell", minutes, lo, (size_t)n, 2, 0,
+                                             0};
+        temp_series[ns++] = (tp_plot_series){"surface hottest cell", minutes, hi, (size_t)n, 2, 0,
+                                             0};
+    }
     if (net->has_control)
         temp_series[ns++] = (tp_plot_series){"reading", minutes, reading, (size_t)n, 2, 0, 0};
     power_series[np++] = (tp_plot_series){"heater power", minutes, power, (size_t)n, 0, 0, 0};
@@ -121,6 +201,7 @@ tp_status tp_warmup_plot(const char *path, const tp_session *s, const tp_warmup 
     st = tp_plot_chart_write(path, &chart, d);
     free(buf);
     free(temp_series);
+    free(labels);
     return st;
 }
 

@@ -11,6 +11,7 @@
 #include "session.h"
 #include "status.h"
 #include "steady.h"
+#include "surfmap.h"
 
 typedef struct tp_warmup {
     tp_history history;
@@ -19,7 +20,16 @@ typedef struct tp_warmup {
     int has_full, has_hold;
     tp_integrate_stats stats;
     tp_metrics metrics;
-    double *peak;     /* per node index: the hottest it got, K (fixed nodes: their value) */
+    double *peak;     /* per node index: the hottest it got, K (fixed nodes: their value;
+                         cells of a gridded plate: NaN, see layer_peak) */
+    /* Gridded plates (docs/grid.md); NULL or NaN otherwise. */
+    double *layer_peak;   /* per layer: its hottest cell over the run, K */
+    double *map_hold;     /* the working-surface map at the holding point, K */
+    double *map_setpoint; /* the map when the reading reached the setpoint (history) */
+    double *map_final;    /* the map at the end of the run (history) */
+    tp_map_stats stats_hold, stats_setpoint, stats_final;
+    double t_all_ready;   /* s: from here on every cell is within TP_MAP_READY_BAND of its
+                             holding value; NaN: not in the simulated time */
 } tp_warmup;
 
 /* Run the warm-up of `net` from its initial state over run.duration and compute the metrics.

@@ -1,0 +1,42 @@
+/* The working-surface map of a gridded plate: its statistics (mean, spread, extremes and where
+ * they are, centre against corners), and the heat-map figure and CSV of one or two maps.
+ * Definitions in docs/grid.md. */
+#ifndef TP_SURFMAP_H
+#define TP_SURFMAP_H
+
+#include "diag.h"
+#include "network.h"
+#include "status.h"
+
+#define TP_MAP_READY_BAND 2.0 /* K: the whole surface is ready when every cell is within this
+                                 of its value at the holding point */
+
+typedef struct tp_map_stats {
+    int cells;               /* cells with a value */
+    double mean, std;        /* area-weighted mean (K) and standard deviation (K) */
+    double min, max, spread; /* coldest and hottest cell, and max - min, K */
+    int min_i, min_j, max_i, max_j; /* the cells of the extremes (column, row) */
+    double min_x, min_y, max_x, max_y; /* their centres, m from the bed's lower-left corner */
+    double centre;           /* K at the bed's centre, bilinear between the nearest cell centres */
+    double corner;           /* K, mean of the four corner cells of the top layer */
+    double centre_corner;    /* K, centre - corner */
+} tp_map_stats;
+
+/* Statistics of `map` (nx * ny values, NaN where the top layer has no cell), weighted by each
+ * cell's exposed top area. All NaN (cells 0) when no cell has a value. */
+void tp_map_stats_compute(const tp_net_grid *g, const double *map, tp_map_stats *s);
+
+/* Set every statistic to "unknown" (NaN, cells 0). */
+void tp_map_stats_compute_empty(tp_map_stats *s);
+
+/* Draw `map` (K) as a heat map in degC with the plate outline, the sensor and the hottest and
+ * coldest cells marked; the format follows the extension (tp_plot_map_write). */
+tp_status tp_map_plot(const char *path, const tp_net_grid *g, const double *map,
+                      const char *title, tp_diag *d);
+
+/* Write the cells as CSV: i, j, x_mm, y_mm (cell centres) and one column per map in degC
+ * (names[k] then "_C"; an empty cell where a map has no value or is NULL). Atomic. */
+tp_status tp_map_csv(const char *path, const tp_net_grid *g, const double *const *maps,
+                     const char *const *names, int n_maps, tp_diag *d);
+
+#endif
