@@ -1029,7 +1029,7 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
     tp_status st = TP_OK;
     int n = tp_network_state_size(net), i, flag, next_break = 0;
     long k_tick = 1;
-    double t = 0.0, wall0 = now_seconds(), period;
+    double t = 0.0, wall0 = now_seconds(), period, width;
 
     memset(stats, 0, sizeof *stats);
     memset(&dr, 0, sizeof dr);
@@ -1046,13 +1046,16 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
     }
     /* Sizes are judged in double before any conversion or allocation: a step of 1e-300 s
      * made (long)(t_end / step) undefined and the run silently empty. */
+    /* A history keeps every node of a lumped network, but only per-layer statistics (mean,
+     * minimum, maximum) and the nodes outside the grid of a gridded one. */
+    width = net->grid ? 3.0 * net->grid->n_layers + net->grid->lumped->n_nodes + net->n_sources
+                      : (double)(net->n_nodes + net->n_sources);
     if (!(o->t_end / o->step + 1.0 <= TP_MAX_OUTPUT_ROWS) ||
-        !((o->t_end / o->step + 1.0) * (net->n_nodes + net->n_sources) <=
-          TP_MAX_OUTPUT_VALUES)) {
+        !((o->t_end / o->step + 1.0) * width <= TP_MAX_OUTPUT_VALUES)) {
         tp_diag_error(d, tp_loc_none(), "run.step",
                       "raise run.step (the output interval) or shorten run.duration",
-                      "%.3g output rows of %d nodes exceed the limits of %.0f rows and %.0f "
-                      "values", o->t_end / o->step + 1.0, net->n_nodes, TP_MAX_OUTPUT_ROWS,
+                      "%.3g output rows of %.0f values exceed the limits of %.0f rows and %.0f "
+                      "values", o->t_end / o->step + 1.0, width, TP_MAX_OUTPUT_ROWS,
                       TP_MAX_OUTPUT_VALUES);
         return TP_ERR_LIMIT;
     }
