@@ -345,7 +345,7 @@ fi
 if [ "$(wc -l <"$out/scaling.csv")" -le 1 ]; then
   say "no grid timings: no figure"
 elif "$BUILD/bench_plot" "$out/scaling.png" "$out/scaling.csv" \
-  "raw grids of N x N cells, 30 simulated minutes, one core" 2>>"$log"; then
+  "time against unknowns: raw grids and the gridded demo, 30 simulated minutes, one core" 2>>"$log"; then
   [ $docs = 1 ] && cp "$out/scaling.png" "$root/docs/performance-scaling.png"
 else
   say "bench_plot failed (see $log)"
