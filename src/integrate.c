@@ -1080,7 +1080,7 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
         goto done;
     }
     y = N_VNew_Serial(n, ctx);
-    if (y && net->grid)
+    if (y)
         tp_integrate_vector_ops(y); /* CVODE's vectors are clones of y and share its ops */
     yi = y ? N_VClone(y) : NULL;
     atol = y ? N_VClone(y) : NULL;
