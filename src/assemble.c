@@ -292,6 +292,7 @@ static tp_status attach_control(const tp_desc *desc, const tp_doc *doc, tp_netwo
     k->kp = c->kp;
     k->ki = c->ki;
     k->kd = c->kd;
+    k->duty_levels = c->duty_levels;
     k->max_duty = net->sources[src].max_duty;
     net->has_control = 1;
     return d->errors == errors0 ? TP_OK : TP_ERR_CONFIG;

@@ -42,7 +42,8 @@ double tp_control_tick(const tp_control *c, tp_ctrl_state *s, double reading)
         break;
     case TP_MODE_PID:
         /* Positional PID: u_k = kp e_k + I_k - kd (y_k - y_{k-1}) / T,
-         * I_k = clamp(I_{k-1} + ki T e_k, 0, u_max), u_k clamped to [0, u_max]. */
+         * I_k = clamp(I_{k-1} + ki T e_k, 0, u_max), u_k clamped to [0, u_max], then rounded
+         * to the nearest of duty_levels steps when given. */
         e = c->setpoint - reading;
         s->integral += c->ki * c->period * e;
         if (!c->unclamped)
@@ -50,6 +51,13 @@ double tp_control_tick(const tp_control *c, tp_ctrl_state *s, double reading)
         d_term = s->ticks > 0 ? -c->kd * (reading - s->last_reading) / c->period : 0.0;
         u = c->kp * e + s->integral + d_term;
         s->duty = clamp(u, 0.0, c->max_duty);
+        /* Firmware writes an integer PWM value: the duty the heater gets is the nearest level,
+         * never above the limit. */
+        if (c->duty_levels > 0) {
+            s->duty = floor(s->duty * c->duty_levels + 0.5) / c->duty_levels;
+            if (s->duty > c->max_duty)
+                s->duty = floor(c->max_duty * c->duty_levels) / c->duty_levels;
+        }
         s->last_reading = reading;
         break;
     }

@@ -30,6 +30,8 @@ typedef struct tp_control {
     double kp;       /* 1/K */
     double ki;       /* 1/(K.s) */
     double kd;       /* s/K */
+    double duty_levels; /* PID output rounded to k / duty_levels, as firmware writes an
+                           integer PWM value (255 for 8 bits); 0: not rounded */
     double max_duty; /* upper limit of the output, 0..1 */
     int unclamped;   /* nonzero: no anti-windup (the integral is not clamped); only for
                         comparisons, never from a config */

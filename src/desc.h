@@ -177,6 +177,7 @@ typedef struct tp_control_spec {
     double kp;       /* 1/K */
     double ki;       /* 1/(K.s) */
     double kd;       /* s/K */
+    double duty_levels; /* -, PID output rounded to multiples of 1/duty_levels (0: exact) */
 } tp_control_spec;
 
 typedef struct tp_run {

@@ -167,6 +167,27 @@ static void test_pid_three_ticks_by_hand(void **state)
     assert_int_equal(s.ticks, 3);
 }
 
+/* PWM levels (hand calculation): with 255 levels (an 8-bit PWM value, common practice, no
+ * source) an output of 0.1003 1/K * 4 K = 0.4012 is written as round(0.4012 * 255) = 102,
+ * i.e. 102/255 = 0.4; at a 0.5 limit the nearest level 128/255 = 0.50196 would exceed it, so
+ * the output is the level below, 127/255. */
+static void test_pid_duty_levels(void **state)
+{
+    tp_control c = make_control(TP_MODE_PID, 90.0 + TP_TEST_KELVIN, 0.0, 1.0);
+    tp_ctrl_state s;
+    (void)state;
+    c.kp = 0.1003;
+    c.duty_levels = 255;
+    tp_control_start(&c, &s);
+    tp_check_abs("rounded", tp_control_tick(&c, &s, 86.0 + TP_TEST_KELVIN), 102.0 / 255.0,
+                 1e-15);
+    c.kp = 0.125;
+    c.max_duty = 0.5;
+    tp_control_start(&c, &s);
+    tp_check_abs("below the limit", tp_control_tick(&c, &s, 86.0 + TP_TEST_KELVIN),
+                 127.0 / 255.0, 1e-15);
+}
+
 /* Integrator clamping (anti-windup), hand-stepped with kp = 0.02 1/K, ki = 0.01 1/(K.s),
  * kd = 0, T = 1 s, u_max = 0.8, setpoint 373 K:
  *   50 ticks at 323 K (e = 50): I grows by 0.5 per tick and stops at u_max = 0.8; u = 0.8.
@@ -301,6 +322,7 @@ int main(void)
         cmocka_unit_test(test_onoff_settled_band_and_mean_power),
         cmocka_unit_test(test_pid_three_ticks_by_hand),
         cmocka_unit_test(test_pid_integrator_clamped),
+        cmocka_unit_test(test_pid_duty_levels),
         cmocka_unit_test(test_thermistor_beta_table),
         cmocka_unit_test(test_thermistor_adc_quantisation_12bit),
     };
