@@ -1023,7 +1023,7 @@ static void recommend_rise(tp_guard_study *st, const tp_guard_settings *given,
     double ws = st->period * ceil(1.0 / st->period - 1e-9), best_cost = HUGE_VAL;
     double floor_r = fmax(TP_GUARD_RISE_FLOOR, TP_GUARD_QUANTA * st->resolution);
     double best_w = TP_UNSET, best_min = TP_UNSET, best_raw = TP_UNSET, best_m = TP_UNSET;
-    int k, kmax = (int)floor(TP_GUARD_WINDOW_MAX / ws + 1e-9), best_at = -1, best_missed = 0;
+    int k, kmax = (int)floor(TP_GUARD_WINDOW_MAX / ws + 1e-9), best_at = -1;
     if (ws < st->period)
         ws = st->period;
     for (k = 1; k <= kmax; k++) {
@@ -1054,12 +1054,10 @@ static void recommend_rise(tp_guard_study *st, const tp_guard_settings *given,
             best_raw = raw;
             best_m = m;
             best_at = at;
-            best_missed = missed;
         }
         if (isfinite(given->rise_window))
             break;
     }
-    (void)best_missed;
     if (!isfinite(best_w)) {
         st->rec_ok[TP_G_RISE_WINDOW] = st->rec_ok[TP_G_RISE_MIN] = 0;
         r->rise_window = r->rise_min = TP_UNSET;

@@ -22,7 +22,7 @@
 #include <time.h>
 #include <unistd.h>
 
-#include "testfs.h"
+#include "tp_test.h"
 
 #define CATALOGUE_MIN 60        /* entries the catalogue must hold (issue 10) */
 #define MAX_CASES 512           /* case files read from tests/bad */
@@ -541,7 +541,7 @@ static void test_bad_case(void **state)
     free(before);
     free(stdout_text);
     free(stderr_text);
-    testfs_remove_tree(work);
+    tp_remove_tree(work);
     unlink(out);
     unlink(err);
 }
@@ -571,7 +571,7 @@ int main(void)
         tests[i + 1] = (struct CMUnitTest){cases[i].name, test_bad_case, NULL, NULL, &cases[i]};
     }
     rc = _cmocka_run_group_tests("bad inputs", tests, (size_t)n_cases + 1, NULL, NULL);
-    testfs_remove_tree(base_dir);
+    tp_remove_tree(base_dir);
     for (i = 0; i < n_cases; i++) {
         int k;
         for (k = 0; k < cases[i].n_messages; k++)

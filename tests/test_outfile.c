@@ -23,7 +23,7 @@
 #include <sys/wait.h>
 #include <unistd.h>
 
-#include "testfs.h"
+#include "tp_test.h"
 
 #include "outfile.h"
 
@@ -49,36 +49,6 @@ static char dir[64];      /* this run's directory (mkdtemp), made in the group s
 static char casedir[256]; /* a fresh subdirectory per test */
 
 /* ---- helpers ------------------------------------------------------------------------------ */
-
-static void write_text(const char *path, const char *text)
-{
-    FILE *fp = fopen(path, "wb");
-    assert_non_null(fp);
-    assert_int_equal(fwrite(text, 1, strlen(text), fp), strlen(text));
-    assert_int_equal(fclose(fp), 0);
-}
-
-/* The whole file as a NUL-terminated string, or NULL. */
-static char *read_text(const char *path)
-{
-    FILE *fp = fopen(path, "rb");
-    char *buf;
-    long n;
-    if (!fp)
-        return NULL;
-    fseek(fp, 0, SEEK_END);
-    n = ftell(fp);
-    fseek(fp, 0, SEEK_SET);
-    buf = malloc((size_t)n + 1);
-    if (buf && fread(buf, 1, (size_t)n, fp) != (size_t)n) {
-        free(buf);
-        buf = NULL;
-    }
-    if (buf)
-        buf[n] = '\0';
-    fclose(fp);
-    return buf;
-}
 
 /* Entries of `path` other than "." and "..". */
 static int count_entries(const char *path)
@@ -134,8 +104,8 @@ static int run_tepid(const char *cwd, const char *const *argv, const run_opts *r
         _exit(127);
     }
     assert_int_equal(waitpid(pid, &status, 0), pid);
-    *out = read_text(out_path);
-    *err = read_text(err_path);
+    *out = tp_read_file(out_path);
+    *err = tp_read_file(err_path);
     assert_non_null(*out);
     assert_non_null(*err);
     if (WIFSIGNALED(status))
@@ -170,16 +140,16 @@ static void test_outfile_commit_replaces_target(void **state)
     (void)state;
     tp_diag_init(&d, NULL);
     in_case(path, sizeof path, "out.txt");
-    write_text(path, PRECIOUS);
+    tp_write_file(path, PRECIOUS);
     assert_int_equal(tp_outfile_open(&o, path, &d), TP_OK);
     fputs("new\n", o.fp);
     /* Until commit the target is the old file and a temporary file sits beside it. */
-    text = read_text(path);
+    text = tp_read_file(path);
     assert_string_equal(text, PRECIOUS);
     free(text);
     assert_int_equal(count_entries(casedir), 2);
     assert_int_equal(tp_outfile_commit(&o, &d), TP_OK);
-    text = read_text(path);
+    text = tp_read_file(path);
     assert_string_equal(text, "new\n");
     free(text);
     assert_int_equal(count_entries(casedir), 1);
@@ -193,12 +163,12 @@ static void test_outfile_abort_leaves_target(void **state)
     (void)state;
     tp_diag_init(&d, NULL);
     in_case(path, sizeof path, "out.txt");
-    write_text(path, PRECIOUS);
+    tp_write_file(path, PRECIOUS);
     assert_int_equal(tp_outfile_open(&o, path, &d), TP_OK);
     fputs("half a file", o.fp);
     tp_outfile_abort(&o);
     tp_outfile_abort(&o); /* safe twice (contract in outfile.h) */
-    text = read_text(path);
+    text = tp_read_file(path);
     assert_string_equal(text, PRECIOUS);
     free(text);
     assert_int_equal(count_entries(casedir), 1);
@@ -244,10 +214,10 @@ static void test_outfile_failed_run_keeps_existing(void **state)
         per_test_setup(NULL);
         in_case(cfg, sizeof cfg, "plate.yaml");
         in_case(csv, sizeof csv, "out.csv");
-        write_text(cfg, configs[i]);
-        write_text(csv, PRECIOUS);
+        tp_write_file(cfg, configs[i]);
+        tp_write_file(csv, PRECIOUS);
         assert_int_equal(run_tepid(casedir, argv, NULL, &out, &err), codes[i]);
-        text = read_text(csv);
+        text = tp_read_file(csv);
         assert_string_equal(text, PRECIOUS);
         assert_int_equal(count_entries(casedir), 2); /* the config and out.csv, nothing else */
         free(text);
@@ -267,11 +237,11 @@ static void test_outfile_write_failure_keeps_existing(void **state)
     (void)state;
     in_case(cfg, sizeof cfg, "plate.yaml");
     in_case(csv, sizeof csv, "out.csv");
-    write_text(cfg, raw_config);
-    write_text(csv, PRECIOUS);
+    tp_write_file(cfg, raw_config);
+    tp_write_file(csv, PRECIOUS);
     assert_int_equal(run_tepid(casedir, argv, &ro, &out, &err), 1);
     assert_non_null(strstr(err, "cannot write out.csv: File too large"));
-    text = read_text(csv);
+    text = tp_read_file(csv);
     assert_string_equal(text, PRECIOUS);
     assert_int_equal(count_entries(casedir), 2);
     free(text);
@@ -290,7 +260,7 @@ static void test_outfile_refuses_own_input(void **state)
     in_case(cfg, sizeof cfg, "plate.yaml");
     in_case(hard, sizeof hard, "hard.yaml");
     in_case(soft, sizeof soft, "soft.yaml");
-    write_text(cfg, raw_config);
+    tp_write_file(cfg, raw_config);
     assert_int_equal(link(cfg, hard), 0);
     assert_int_equal(symlink("plate.yaml", soft), 0);
     for (i = 0; i < 4; i++) {
@@ -305,7 +275,7 @@ static void test_outfile_refuses_own_input(void **state)
         assert_non_null(strstr(err, "--json would overwrite the input file plate.yaml"));
         free(out);
         free(err);
-        text = read_text(cfg);
+        text = tp_read_file(cfg);
         assert_string_equal(text, raw_config);
         free(text);
     }
@@ -321,7 +291,7 @@ static void test_outfile_csv_to_stdout(void **state)
     int rows = 0;
     (void)state;
     in_case(cfg, sizeof cfg, "plate.yaml");
-    write_text(cfg, raw_config);
+    tp_write_file(cfg, raw_config);
     assert_int_equal(run_tepid(casedir, argv, NULL, &out, &err), 0);
     assert_true(strncmp(out, "time_s,plate_C,pad_W\n", 21) == 0);
     for (line = strtok_r(out, "\n", &save); line; line = strtok_r(NULL, "\n", &save))
@@ -343,13 +313,13 @@ static void test_outfile_follows_symlink(void **state)
     in_case(cfg, sizeof cfg, "plate.yaml");
     in_case(real, sizeof real, "real.csv");
     in_case(link_path, sizeof link_path, "link.csv");
-    write_text(cfg, raw_config);
-    write_text(real, PRECIOUS);
+    tp_write_file(cfg, raw_config);
+    tp_write_file(real, PRECIOUS);
     assert_int_equal(symlink("real.csv", link_path), 0);
     assert_int_equal(run_tepid(casedir, argv, NULL, &out, &err), 0);
     assert_int_equal(lstat(link_path, &st), 0);
     assert_true(S_ISLNK(st.st_mode));
-    text = read_text(real);
+    text = tp_read_file(real);
     assert_true(strncmp(text, "time_s,plate_C,pad_W\n", 21) == 0);
     assert_int_equal(count_entries(casedir), 3);
     free(text);
@@ -368,7 +338,7 @@ static void test_outfile_writes_into_fifo(void **state)
     (void)state;
     in_case(cfg, sizeof cfg, "plate.yaml");
     in_case(fifo, sizeof fifo, "pipe");
-    write_text(cfg, raw_config);
+    tp_write_file(cfg, raw_config);
     assert_int_equal(mkfifo(fifo, 0644), 0);
     /* Our reading end keeps the FIFO open, so tepid's open for writing does not block; the
      * 61-row history (about 1 kB) fits the pipe's buffer. */
@@ -417,7 +387,7 @@ static void test_outfile_unwritable_directory(void **state)
     (void)state;
     in_case(cfg, sizeof cfg, "plate.yaml");
     in_case(locked, sizeof locked, "locked");
-    write_text(cfg, raw_config);
+    tp_write_file(cfg, raw_config);
     assert_int_equal(chmod(cfg, 0644), 0);
     assert_int_equal(mkdir(locked, 0555), 0);
     assert_int_equal(chmod(locked, 0555), 0);
@@ -511,7 +481,7 @@ static int group_setup(void **state)
 static int group_teardown(void **state)
 {
     (void)state;
-    testfs_remove_tree(dir);
+    tp_remove_tree(dir);
     return 0;
 }
 

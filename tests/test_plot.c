@@ -19,6 +19,7 @@
 #include <unistd.h>
 
 #include "plot.h"
+#include "tp_test.h"
 
 #define N_POINTS 301 /* samples of the synthetic warm-up, one per 6 s over 30 min */
 #define MAP_NX 25    /* heat-map cells along x */
@@ -206,34 +207,12 @@ static int group_setup(void **state)
     return 0;
 }
 
-/* Remove `path` and, for a directory, everything under it. */
-static int remove_tree(const char *path)
-{
-    struct stat st;
-    struct dirent *e;
-    DIR *dp;
-    char sub[512];
-    if (lstat(path, &st) != 0)
-        return -1;
-    if (!S_ISDIR(st.st_mode))
-        return unlink(path);
-    dp = opendir(path);
-    if (!dp)
-        return -1;
-    while ((e = readdir(dp)) != NULL) {
-        if (strcmp(e->d_name, ".") == 0 || strcmp(e->d_name, "..") == 0)
-            continue;
-        snprintf(sub, sizeof sub, "%s/%s", path, e->d_name);
-        remove_tree(sub);
-    }
-    closedir(dp);
-    return rmdir(path);
-}
-
+/* Remove the group's directory and everything under it. */
 static int group_teardown(void **state)
 {
     (void)state;
-    return remove_tree(dir);
+    tp_remove_tree(dir);
+    return access(dir, F_OK) == 0 ? -1 : 0; /* the directory must be gone */
 }
 
 static int unset_driver_dir(void **state)

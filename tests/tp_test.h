@@ -100,22 +100,48 @@ static inline void tp_scratch_write(const tp_scratch *s, const char *name, const
         snprintf(out, TP_TEST_PATH, "%s", path);
 }
 
-/* Remove the directory and the files in it (it holds no subdirectories). */
+/* Remove `path` and everything below it; symbolic links are removed, never followed. Read-only
+ * directories are made writable first. Errors are ignored (best effort at teardown). */
+static inline void tp_remove_tree(const char *path)
+{
+    struct stat st;
+    DIR *dp;
+    struct dirent *e;
+    if (lstat(path, &st) != 0)
+        return;
+    if (!S_ISDIR(st.st_mode)) {
+        unlink(path);
+        return;
+    }
+    chmod(path, 0700);
+    dp = opendir(path);
+    if (dp) {
+        while ((e = readdir(dp))) {
+            char sub[8192];
+            if (strcmp(e->d_name, ".") == 0 || strcmp(e->d_name, "..") == 0)
+                continue;
+            if (snprintf(sub, sizeof sub, "%s/%s", path, e->d_name) >= (int)sizeof sub)
+                continue; /* too long to name: left for rmdir to report */
+            tp_remove_tree(sub);
+        }
+        closedir(dp);
+    }
+    rmdir(path);
+}
+
+/* Remove the scratch directory and everything in it. */
 static inline void tp_scratch_destroy(tp_scratch *s)
 {
-    DIR *dp = opendir(s->dir);
-    struct dirent *e;
-    char path[TP_TEST_PATH];
-    if (!dp)
-        return;
-    while ((e = readdir(dp)) != NULL) {
-        if (strcmp(e->d_name, ".") == 0 || strcmp(e->d_name, "..") == 0)
-            continue;
-        tp_scratch_path(s, e->d_name, path, sizeof path);
-        remove(path);
-    }
-    closedir(dp);
-    rmdir(s->dir);
+    tp_remove_tree(s->dir);
+}
+
+/* Write `text` to `path` (any path), failing the test when it cannot. */
+static inline void tp_write_file(const char *path, const char *text)
+{
+    FILE *fp = fopen(path, "wb");
+    assert_non_null(fp);
+    assert_int_equal(fwrite(text, 1, strlen(text), fp), strlen(text));
+    assert_int_equal(fclose(fp), 0);
 }
 
 /* ---- the scratch directory of a cmocka group ---------------------------------------------- */
