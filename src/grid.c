@@ -263,7 +263,7 @@ static int split_link(refine *r, const tp_net_link *l, int a, int b, double shar
     else
         n->area = l->area * share;
     n->group = group;
-    snprintf(n->label, sizeof n->label, "%.100s %s", l->label, suffix);
+    snprintf(n->label, sizeof n->label, "%.95s %.31s", l->label, suffix);
     return net->n_links - 1;
 }
 

@@ -544,7 +544,7 @@ tp_status tp_network_finish(tp_network *net)
     }
     for (i = 0; i < net->n_sources; i++)
         net->duty[i] = net->sources[i].max_duty;
-    if (build_groups(net) != TP_OK || (net->grid && build_fast(net) != TP_OK))
+    if (build_groups(net) != TP_OK || ((net->grid || getenv("TP_FAST")) && build_fast(net) != TP_OK))
         return TP_ERR_NOMEM;
     return build_pattern(net);
 }
@@ -1290,7 +1290,7 @@ static tp_status build_fast(tp_network *net)
         for (k = 0; k < net->sources[i].n_nodes; k++)
             f->src_state[f->src_first[i] + k] = net->nodes[net->sources[i].nodes[k]].state;
     }
-    if (build_top(net, f) != TP_OK)
+    if (net->grid && build_top(net, f) != TP_OK)
         return TP_ERR_NOMEM;
     return build_linear(net, f);
 }
