@@ -36,8 +36,9 @@ static const double nasa_o2[5] = {3.78245636e+00, -2.99673416e-03, 9.84730201e-0
 
 static double clamp(double x, double lo, double hi)
 {
-    /* fmax returns `lo` for a NaN `x`, so NaN lands on the lower bound. */
-    return fmin(fmax(x, lo), hi);
+    /* A NaN `x` fails the first comparison and lands on the lower bound. (Comparisons, not
+     * fmin/fmax: those are library calls, and this runs in every right-hand side.) */
+    return x > lo ? (x < hi ? x : hi) : lo;
 }
 
 static double horner5(const double *a, double t)

@@ -95,7 +95,7 @@ typedef struct tp_net_grid {
     int *from;                  /* per node: the node of `lumped` it was refined from */
 } tp_net_grid;
 
-/* Compact arrays for evaluating a large (gridded) network fast; private to network.c. */
+/* Compact arrays for evaluating a network fast; private to network.c. */
 typedef struct tp_net_fast tp_net_fast;
 
 typedef enum tp_source_kind { TP_SRC_POWER, TP_SRC_ELECTRIC } tp_source_kind;
@@ -139,7 +139,7 @@ typedef struct tp_network {
     int n_groups, cap_groups;
     int *group_links;   /* members of every group, by group (built by tp_network_finish) */
     int cap_nodes, cap_links, cap_sources; /* allocated entries */
-    tp_net_fast *fast;  /* gridded networks (owned), NULL otherwise */
+    tp_net_fast *fast;  /* compact arrays (owned); NULL only when they could not be built */
     tp_run run;
     /* Jacobian sparsity (compressed sparse columns over the whole state), built once. */
     int nnz;
@@ -204,8 +204,8 @@ int *tp_network_grounded(const tp_network *net);
  * Call once after the last node, link and source. */
 tp_status tp_network_finish(tp_network *net);
 
-/* Copy edited link and node parameters into the compact evaluation arrays of a gridded network
- * (after a break hook changed them); nothing to do for other networks. */
+/* Copy edited link and node parameters into the compact evaluation arrays (after a break hook
+ * changed them). */
 void tp_network_refresh(tp_network *net);
 
 /* Size of the state vector: free temperatures then TP_N_QUAD energy totals. */
