@@ -46,12 +46,6 @@ static double horner5(const double *a, double t)
     return a[0] + t * (a[1] + t * (a[2] + t * (a[3] + t * a[4])));
 }
 
-static double sutherland(double q0, double s, double t)
-{
-    double r = t / SUTH_T0;
-    return q0 * r * sqrt(r) * (SUTH_T0 + s) / (t + s);
-}
-
 /* Ideal-gas specific heat of the N2/O2/Ar mixture, J/(kg.K). The real-gas correction at
  * 1 atm is below 0.2 % here (REFERENCES.md §3.2, Lemmon 2000 cp 1006.6 vs 1005.0 at 300 K). */
 static double heat_capacity(double t)
@@ -62,19 +56,30 @@ static double heat_capacity(double t)
 
 void tp_air_props(double t, double p, tp_air *out)
 {
+    /* Four divisions instead of nine: this runs in every right-hand side, through the
+     * convection correlations. Reciprocals are formed once and multiplied. */
+    double inv_t, inv_p, r, r15, inv_sums, inv_cp_k;
     t = clamp(t, TP_AIR_T_MIN, TP_AIR_T_MAX);
     p = clamp(p, TP_AIR_P_MIN, TP_AIR_P_MAX);
+    inv_t = 1.0 / t;
+    inv_p = 1.0 / p;
     /* Ideal gas: beta = 1/T is within 0.3 % of the real-gas value at 1 atm and 300..400 K
      * (REFERENCES.md §1.0); the ideal-gas density is within 0.1 % of Lemmon et al. (2000) at
      * 1 atm over 250..500 K (REFERENCES.md §3.2). */
-    out->rho = p * TP_AIR_MOLAR_MASS / (TP_GAS_CONSTANT * t);
+    out->rho = p * (TP_AIR_MOLAR_MASS / TP_GAS_CONSTANT) * inv_t;
     out->cp = heat_capacity(t);
-    out->mu = sutherland(SUTH_MU0, SUTH_S_MU, t);
-    out->k = sutherland(SUTH_K0, SUTH_S_K, t);
-    out->nu = out->mu / out->rho;
-    out->alpha = out->k / (out->rho * out->cp);
-    out->pr = out->mu * out->cp / out->k;
-    out->beta = 1.0 / t;
+    /* Sutherland's law for both: q0 (T/T0)^(3/2) (T0 + S)/(T + S). */
+    r = t * (1.0 / SUTH_T0);
+    r15 = r * sqrt(r);
+    inv_sums = 1.0 / ((t + SUTH_S_MU) * (t + SUTH_S_K));
+    out->mu = SUTH_MU0 * (SUTH_T0 + SUTH_S_MU) * r15 * (t + SUTH_S_K) * inv_sums;
+    out->k = SUTH_K0 * (SUTH_T0 + SUTH_S_K) * r15 * (t + SUTH_S_MU) * inv_sums;
+    /* 1/rho = R T / (M p); 1/cp = k/(cp k) and 1/k = cp/(cp k). */
+    inv_cp_k = 1.0 / (out->cp * out->k);
+    out->nu = out->mu * t * (TP_GAS_CONSTANT / TP_AIR_MOLAR_MASS) * inv_p;
+    out->alpha = out->k * t * (TP_GAS_CONSTANT / TP_AIR_MOLAR_MASS) * inv_p * out->k * inv_cp_k;
+    out->pr = out->mu * out->cp * out->cp * inv_cp_k;
+    out->beta = inv_t;
 }
 
 int tp_air_in_range(double t, double p)
