@@ -31,10 +31,6 @@
 #include "config.h"
 
 #define TP_ATOL_KELVIN 10.0 /* K: absolute tolerance on temperatures is rtol times this */
-/* -, first step after a controller restart as a fraction of the last step: on the demo's
- * warm-up, 1.0 took 1872 steps, 3589 right-hand sides and 255 error-test failures; 0.5 took
- * 1607, 2981 and 3; 0.35 and 0.7 were slower (docs/performance.md). */
-#define TP_RESTART_STEP 0.5
 #define TP_ATOL_JOULE 1.0   /* J: absolute tolerance on energy totals is rtol times this */
 #define TP_WALL_CHECK_TICKS 1024 /* controller ticks between wall-clock checks inside a step */
 
@@ -1383,17 +1379,18 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
             t = t_restart;
             N_VScale(1.0, yi, y);
             {
-                /* Start again from a fraction of the last step size (capped at the controller
-                 * period) instead of CVODE's initial-step estimate, which costs evaluations.
-                 * The restart is at order 1, whose error constant is larger than that of the
-                 * order in use before: the full last step failed the error test on about 60 %
-                 * of the demo's restarts. TP_RESTART_STEP is measured (docs/performance.md). */
-                double hlast = 0.0, h0;
+                /* Start again with the last step size (capped at the controller period)
+                 * instead of CVODE's initial-step estimate, which costs evaluations. A fixed
+                 * fraction of it was tried and dropped: 0.5 saved 17 % of the right-hand sides
+                 * on the 24 V demo but cost 28 to 100 % more steps on the other demos and the
+                 * gridded benchmark, whose restarts rarely fail the error test
+                 * (docs/performance.md). */
+                double hlast = 0.0;
                 CVodeGetLastStep(mem, &hlast);
-                h0 = TP_RESTART_STEP * fmin(hlast, period);
                 if (CVodeReInit(mem, t, y) != CV_SUCCESS ||
                     CVodeSetStopTime(mem, o->t_end) != CV_SUCCESS ||
-                    CVodeSetInitStep(mem, h0 > 0 ? h0 : 0.0) != CV_SUCCESS) {
+                    CVodeSetInitStep(mem, fmin(hlast, period) > 0 ? fmin(hlast, period) : 0.0) !=
+                        CV_SUCCESS) {
                     st = fail(d, "restart", t, NULL, dr.cv_msg, o->rtol);
                     goto done;
                 }
