@@ -97,8 +97,7 @@ double tp_nu_vertical_churchill_chu(double ra, double pr, int *out_of_range)
     }
     set_flag(out_of_range, ra < TP_RA_VERTICAL_MIN || ra > TP_RA_VERTICAL_MAX);
     /* CC_B Ra^1/6 / [1 + (CC_PR/Pr)^9/16]^8/27 as one exponential of the logarithms. */
-    root = CC_A + CC_B * exp(log(ra) / 6.0 -
-                             8.0 / 27.0 * log(1.0 + power(CC_PR / pr, 9.0 / 16.0)));
+    root = CC_A + CC_B * exp(log(ra) / 6.0 - 8.0 / 27.0 * log(1.0 + power(CC_PR / pr, 9.0 / 16.0)));
     return root * root;
 }
 
