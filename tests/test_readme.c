@@ -12,6 +12,32 @@
 
 #define MAX_ARGS 32
 
+/* Every option of every verb that names a file tepid writes (the FILE options of the verbs'
+ * --help that write or draw). A missing one made an example write into the source tree. */
+static int is_output_option(const char *tok)
+{
+    static const char *const outputs[] = {"--plot",    "--json",         "--csv",         "--map",
+                                          "--map-csv", "--map-setpoint", "--write-config"};
+    size_t i;
+    for (i = 0; i < sizeof outputs / sizeof outputs[0]; i++)
+        if (strcmp(tok, outputs[i]) == 0)
+            return 1;
+    return 0;
+}
+
+/* A bare file name with an output's extension (not an input under configs/, not an option). */
+static int looks_like_output(const char *tok)
+{
+    static const char *const ext[] = {".png", ".svg", ".pdf", ".csv", ".json", ".yaml"};
+    size_t i, n = strlen(tok);
+    if (tok[0] == '-' || strchr(tok, '=') || strchr(tok, '/'))
+        return 0;
+    for (i = 0; i < sizeof ext / sizeof ext[0]; i++)
+        if (n > strlen(ext[i]) && strcmp(tok + n - strlen(ext[i]), ext[i]) == 0)
+            return 1;
+    return 0;
+}
+
 /* Run one README line: "./build/tepid VERB configs/X ... [--plot F]". Paths under configs/ are
  * made absolute; output names are put into the scratch directory. */
 static void run_line(const tp_scratch *s, char *line)
@@ -28,11 +54,13 @@ static void run_line(const tp_scratch *s, char *line)
             snprintf(store[n], TP_TEST_PATH, "%s/%s", TP_SOURCE_DIR, tok);
         else if (prev_out && tok[0] != '-')
             tp_scratch_path(s, tok, store[n], TP_TEST_PATH);
+        else if (looks_like_output(tok))
+            fail_msg("README example names the file '%s' after an option this test does not "
+                     "treat as an output: add the option to is_output_option",
+                     tok);
         else
             snprintf(store[n], TP_TEST_PATH, "%s", tok);
-        prev_out = strcmp(tok, "--plot") == 0 || strcmp(tok, "--json") == 0 ||
-                   strcmp(tok, "--csv") == 0 || strcmp(tok, "--map") == 0 ||
-                   strcmp(tok, "--write-config") == 0;
+        prev_out = is_output_option(tok);
         args[n] = store[n];
         n++;
     }
