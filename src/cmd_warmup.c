@@ -71,8 +71,11 @@ static void map_cell_row(FILE *fp, const char *what, double va, int ia, int ja, 
     snprintf(x, sizeof x, isfinite(va) ? "%.2f degC (%d, %d)" : "-", va - TP_KELVIN_0C, ia, ja);
     snprintf(y, sizeof y, isfinite(vb) ? "%.2f degC (%d, %d)" : "-", vb - TP_KELVIN_0C, ib, jb);
     fprintf(fp, "    %-24s %-26s %s\n", what, x, y);
-    snprintf(x, sizeof x, isfinite(va) ? "  at %.1f, %.1f mm" : "", xa * 1e3, ya * 1e3);
-    snprintf(y, sizeof y, isfinite(vb) ? "  at %.1f, %.1f mm" : "", xb * 1e3, yb * 1e3);
+    x[0] = y[0] = '\0';
+    if (isfinite(va))
+        snprintf(x, sizeof x, "  at %.1f, %.1f mm", xa * 1e3, ya * 1e3);
+    if (isfinite(vb))
+        snprintf(y, sizeof y, "  at %.1f, %.1f mm", xb * 1e3, yb * 1e3);
     fprintf(fp, "    %-24s %-26s %s\n", "", x, y);
 }
 

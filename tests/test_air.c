@@ -157,11 +157,11 @@ static void test_air_props_clamped_out_of_range(void **state)
     assert_true(air_equal(&a, &lo));
     tp_air_props(0.0, TP_AIR_PRESSURE, &a);
     assert_true(air_equal(&a, &lo));
-    tp_air_props(NAN, TP_AIR_PRESSURE, &a);
+    tp_air_props((double)NAN, TP_AIR_PRESSURE, &a);
     assert_true(air_equal(&a, &lo));
     tp_air_props(5000.0, TP_AIR_PRESSURE, &a);
     assert_true(air_equal(&a, &hi));
-    tp_air_props(INFINITY, TP_AIR_PRESSURE, &a);
+    tp_air_props((double)INFINITY, TP_AIR_PRESSURE, &a);
     assert_true(air_equal(&a, &hi));
 
     const double temps[] = {-1.0e300, -1.0, 0.0, 1.0e-300, 199.9, 200.0, 650.0, 900.0, 1.0e300};
@@ -175,7 +175,7 @@ static void test_air_props_clamped_out_of_range(void **state)
     assert_true(tp_air_in_range(300.0, TP_AIR_PRESSURE));
     assert_false(tp_air_in_range(199.0, TP_AIR_PRESSURE));
     assert_false(tp_air_in_range(300.0, 10.0));
-    assert_false(tp_air_in_range(NAN, TP_AIR_PRESSURE));
+    assert_false(tp_air_in_range((double)NAN, TP_AIR_PRESSURE));
 }
 
 /* Physical trends that any air model must show (common practice, no source): mu and k rise

@@ -78,7 +78,7 @@ static void test_nu_horizontal_up_out_of_range(void **state)
     assert_true(tp_nu_horizontal_up(0.0, &oor) == 0.0);
     assert_int_equal(oor, 1);
     assert_true(tp_nu_horizontal_up(-5.0, NULL) == 0.0);
-    assert_true(tp_nu_horizontal_up(NAN, NULL) == 0.0);
+    assert_true(tp_nu_horizontal_up((double)NAN, NULL) == 0.0);
     assert_true(isfinite(tp_nu_horizontal_up(1.0e300, NULL)));
 }
 
@@ -99,7 +99,7 @@ static void test_nu_horizontal_down_formula(void **state)
     check_rel("Nu(1e10)", tp_nu_horizontal_down(1.0e10, &oor), 52.0, FORMULA_TOL);
     assert_int_equal(oor, 1);
     assert_true(tp_nu_horizontal_down(0.0, NULL) == 0.0);
-    assert_true(tp_nu_horizontal_down(NAN, NULL) == 0.0);
+    assert_true(tp_nu_horizontal_down((double)NAN, NULL) == 0.0);
 }
 
 static void test_nu_vertical_churchill_chu_published(void **state)
@@ -184,7 +184,7 @@ static void test_conv_mixed_rule(void **state)
     assert_true(tp_conv_mixed(5.5, 0.0) == 5.5);
     assert_true(tp_conv_mixed(0.0, 0.0) == 0.0);
     assert_true(tp_conv_mixed(-1.0, 2.0) == 2.0);
-    assert_true(tp_conv_mixed(NAN, 2.0) == 2.0);
+    assert_true(tp_conv_mixed((double)NAN, 2.0) == 2.0);
     /* No overflow of the cubes: closed form 1e300 * 2^(1/3). */
     check_rel("mix(big)", tp_conv_mixed(1.0e300, 1.0e300), 1.2599210498948732e300, FORMULA_TOL);
 }
@@ -199,10 +199,10 @@ static void test_length_horizontal_rectangles(void **state)
     /* Hand calculation: 0.25 x 0.21 / (2 x 0.46) = 0.057065217391304348 m. */
     check_rel("L(250 x 210)", tp_length_horizontal(0.25, 0.21), 0.057065217391304348, 1.0e-14);
     /* An infinite strip of width d: A/P -> d/2 (closed form). */
-    check_rel("L(strip)", tp_length_horizontal(INFINITY, 0.3), 0.15, 1.0e-14);
+    check_rel("L(strip)", tp_length_horizontal((double)INFINITY, 0.3), 0.15, 1.0e-14);
     assert_true(tp_length_horizontal(0.0, 1.0) == 0.0);
     assert_true(tp_length_horizontal(1.0, -1.0) == 0.0);
-    assert_true(tp_length_horizontal(NAN, 1.0) == 0.0);
+    assert_true(tp_length_horizontal((double)NAN, 1.0) == 0.0);
 }
 
 /* ---- tp_conv_h end to end ---------------------------------------------------------------- */
@@ -411,7 +411,7 @@ static void test_conv_h_continuous_across_equal(void **state)
 static void test_conv_h_finite_for_extreme_inputs(void **state)
 {
     const double temps[] = {-1.0e300, -50.0, 0.0, 1.0e-300, 150.0, 300.0, 1500.0, 1.0e300};
-    const double lengths[] = {-1.0, 0.0, 1.0e-9, 0.05, 1.0e6, INFINITY};
+    const double lengths[] = {-1.0, 0.0, 1.0e-9, 0.05, 1.0e6, (double)INFINITY};
     const double flows[] = {-3.0, 0.0, 1.0e-300, 50.0, 1.0e300};
     const double pressures[] = {0.0, 1.0, 101325.0, 1.0e12};
     (void)state;

@@ -319,8 +319,8 @@ static void test_chart_nonfinite_points_skipped(void **state)
     char path[256];
     tp_diag d;
     (void)state;
-    y[2] = NAN;
-    y[5] = INFINITY;
+    y[2] = (double)NAN;
+    y[5] = (double)INFINITY;
     tp_diag_init(&d, NULL);
     path_in_dir(path, sizeof path, "gaps.png");
     assert_int_equal(tp_plot_chart_write(path, &c, &d), TP_OK);
@@ -354,8 +354,8 @@ static void test_chart_bad_input_rejected(void **state)
     char path[256];
     tp_diag d;
     (void)state;
-    nan_y[0] = NAN;
-    nan_y[1] = NAN;
+    nan_y[0] = (double)NAN;
+    nan_y[1] = (double)NAN;
     path_in_dir(path, sizeof path, "bad.png");
 
     make_chart(&f);

@@ -130,7 +130,7 @@ static void test_rad_eps_parallel_closed_form(void **state)
     check_rel("1/1", tp_rad_eps_parallel(1.0, 1.0), 1.0, 1.0e-15);
     /* Clamps (contract): a non-emitting plate exchanges nothing; eps > 1 counts as 1. */
     assert_true(tp_rad_eps_parallel(0.0, 0.9) == 0.0);
-    assert_true(tp_rad_eps_parallel(NAN, 0.9) == 0.0);
+    assert_true(tp_rad_eps_parallel((double)NAN, 0.9) == 0.0);
     check_rel("1.2/0.5", tp_rad_eps_parallel(1.2, 0.5), 0.5, 1.0e-15);
 }
 
@@ -143,7 +143,7 @@ static void test_rad_eps_enclosed_closed_form(void **state)
 {
     (void)state;
     check_rel("0.8 in 0.5", tp_rad_eps_enclosed(0.8, 1.0, 0.5, 4.0), 2.0 / 3.0, 1.0e-14);
-    check_rel("large room", tp_rad_eps_enclosed(0.8, 1.0, 0.5, INFINITY), 0.8, 1.0e-15);
+    check_rel("large room", tp_rad_eps_enclosed(0.8, 1.0, 0.5, (double)INFINITY), 0.8, 1.0e-15);
     check_rel("A1 = A2", tp_rad_eps_enclosed(0.05, 2.0, 0.9, 2.0), 9.0 / 181.0, 1.0e-14);
     /* A black enclosure absorbs everything: e1 whatever the areas. */
     check_rel("black", tp_rad_eps_enclosed(0.3, 1.0, 1.0, 1.5), 0.3, 1.0e-15);

@@ -428,7 +428,7 @@ static void test_config_check_uses_schema_bounds(void **state)
                      TP_ERR_CONFIG);
     assert_int_equal(tp_config_check(&desc, "network.nodes.plate.capacity", 0.0, msg, sizeof msg),
                      TP_ERR_CONFIG);
-    assert_int_equal(tp_config_check(&desc, "network.nodes.plate.capacity", NAN, msg, sizeof msg),
+    assert_int_equal(tp_config_check(&desc, "network.nodes.plate.capacity", (double)NAN, msg, sizeof msg),
                      TP_ERR_CONFIG);
     assert_int_equal(tp_config_check(&desc, "network.nodes.nothing.capacity", 1.0, msg, sizeof msg),
                      TP_ERR_CONFIG);

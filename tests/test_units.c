@@ -85,7 +85,7 @@ static void test_units_accepted_forms(void **state)
         const accepted *a = &accepted_forms[i];
         char msg[256] = "";
         const char *hint = NULL;
-        double si = NAN;
+        double si = (double)NAN;
         tp_status st = tp_units_parse(a->text, a->dim, &si, msg, sizeof msg, &hint);
         if (st != TP_OK)
             print_error("'%s' rejected: %s\n", a->text, msg);
@@ -186,7 +186,7 @@ static void test_units_surrounding_whitespace(void **state)
 {
     char msg[256] = "";
     const char *hint;
-    double si = NAN;
+    double si = (double)NAN;
     (void)state;
     assert_int_equal(tp_units_parse("  21 degC  ", TP_DIM_TEMPERATURE, &si, msg, sizeof msg, &hint),
                      TP_OK);
@@ -216,7 +216,7 @@ static void test_units_from_si(void **state)
  * config takes plain decimals only). */
 static void test_units_parse_double_strict(void **state)
 {
-    static const char *const bad[] = {"",          "  ",    "0x10", "0x1p3", "nan", "NAN", "inf",
+    static const char *const bad[] = {"",          "  ",    "0x10", "0x1p3", "nan", "(double)NAN", "inf",
                                       "-Infinity", "1e999", "3 x",  "1,5",   "1e",  "--1"};
     double v;
     (void)state;
