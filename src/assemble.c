@@ -292,6 +292,7 @@ static tp_status attach_control(const tp_desc *desc, const tp_doc *doc, tp_netwo
     k->kp = c->kp;
     k->ki = c->ki;
     k->kd = c->kd;
+    k->d_filter = c->derivative_filter;
     k->duty_levels = c->duty_levels;
     k->max_duty = net->sources[src].max_duty;
     net->has_control = 1;

@@ -240,6 +240,8 @@ static const key control_keys[] = {
     QTY(tp_control_spec, kp, "kp", TP_DIM_PER_KELVIN, F_NONNEG, 1e3, too_big),
     QTY(tp_control_spec, ki, "ki", TP_DIM_PER_KELVIN_SEC, F_NONNEG, 1e3, too_big),
     QTY(tp_control_spec, kd, "kd", TP_DIM_SEC_PER_KELVIN, F_NONNEG, 1e5, too_big),
+    QTY(tp_control_spec, derivative_filter, "derivative_filter", TP_DIM_TIME, F_NONNEG, 3600,
+        too_big),
     QTY(tp_control_spec, duty_levels, "duty_levels", TP_DIM_NONE, F_POS | F_INT, 1e6,
         "PWM outputs have at most a few thousand levels (255 for 8 bits)"),
 };
@@ -790,6 +792,7 @@ static void apply_defaults(tp_desc *c)
     set_default(&c->control.kp, 0.0);
     set_default(&c->control.ki, 0.0);
     set_default(&c->control.kd, 0.0);
+    set_default(&c->control.derivative_filter, 0.0);
     set_default(&c->control.duty_levels, 0.0);
     set_default(&c->room.airflow, 0.0);
     set_default(&c->room.pressure, TP_ATMOSPHERE);

@@ -16,6 +16,7 @@ void tp_control_start(const tp_control *c, tp_ctrl_state *s)
     s->on = 0;
     s->integral = 0.0;
     s->last_reading = 0.0;
+    s->d_term = 0.0;
     s->duty = 0.0;
 }
 
@@ -41,14 +42,20 @@ double tp_control_tick(const tp_control *c, tp_ctrl_state *s, double reading)
         s->duty = s->on ? c->max_duty : 0.0;
         break;
     case TP_MODE_PID:
-        /* Positional PID: u_k = kp e_k + I_k - kd (y_k - y_{k-1}) / T,
+        /* Positional PID: u_k = kp e_k + I_k + D_k,
          * I_k = clamp(I_{k-1} + ki T e_k, 0, u_max), u_k clamped to [0, u_max], then rounded
-         * to the nearest of duty_levels steps when given. */
+         * to the nearest of duty_levels steps when given. D is on the measurement, through a
+         * first-order filter of time constant Tf discretised by backward differences
+         * (docs/control.md): D_k = (Tf D_{k-1} - kd (y_k - y_{k-1})) / (Tf + T); Tf = 0 gives
+         * the plain difference -kd (y_k - y_{k-1}) / T. */
         e = c->setpoint - reading;
         s->integral += c->ki * c->period * e;
         if (!c->unclamped)
             s->integral = clamp(s->integral, 0.0, c->max_duty);
-        d_term = s->ticks > 0 ? -c->kd * (reading - s->last_reading) / c->period : 0.0;
+        d_term = s->ticks > 0 ? (c->d_filter * s->d_term - c->kd * (reading - s->last_reading)) /
+                                    (c->d_filter + c->period)
+                              : 0.0;
+        s->d_term = d_term;
         u = c->kp * e + s->integral + d_term;
         s->duty = clamp(u, 0.0, c->max_duty);
         /* Firmware writes an integer PWM value: the duty the heater gets is the nearest level,

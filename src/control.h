@@ -22,19 +22,20 @@ typedef struct tp_reading_model {
 
 typedef struct tp_control {
     tp_mode mode;
-    int source;      /* index of the switched source in the network */
-    int sensor;      /* index of the node read */
-    double setpoint; /* K */
-    double band;     /* K, on-off hysteresis */
-    double period;   /* s */
-    double kp;       /* 1/K */
-    double ki;       /* 1/(K.s) */
-    double kd;       /* s/K */
+    int source;         /* index of the switched source in the network */
+    int sensor;         /* index of the node read */
+    double setpoint;    /* K */
+    double band;        /* K, on-off hysteresis */
+    double period;      /* s */
+    double kp;          /* 1/K */
+    double ki;          /* 1/(K.s) */
+    double kd;          /* s/K */
+    double d_filter;    /* s, time constant of the first-order filter on the derivative term */
     double duty_levels; /* PID output rounded to k / duty_levels, as firmware writes an
                            integer PWM value (255 for 8 bits); 0: not rounded */
-    double max_duty; /* upper limit of the output, 0..1 */
-    int unclamped;   /* nonzero: no anti-windup (the integral is not clamped); only for
-                        comparisons, never from a config */
+    double max_duty;    /* upper limit of the output, 0..1 */
+    int unclamped;      /* nonzero: no anti-windup (the integral is not clamped); only for
+                           comparisons, never from a config */
     tp_reading_model reading;
 } tp_control;
 
@@ -44,6 +45,7 @@ typedef struct tp_ctrl_state {
     int on;              /* on-off: current state */
     double integral;     /* PID: integral term, in duty */
     double last_reading; /* PID: previous reading, K */
+    double d_term;       /* PID: derivative term of the last tick (filtered), in duty */
     double duty;         /* the output being held */
 } tp_ctrl_state;
 

@@ -7,8 +7,8 @@
 #include <math.h>
 #include <stddef.h>
 
-#define TP_ID_MAX 48       /* longest id (node, layer, source, material), bytes incl. NUL */
-#define TP_TEXT_MAX 160    /* longest free text (title, source note), bytes incl. NUL */
+#define TP_ID_MAX 48    /* longest id (node, layer, source, material), bytes incl. NUL */
+#define TP_TEXT_MAX 160 /* longest free text (title, source note), bytes incl. NUL */
 #define TP_UNSET ((double)NAN)
 #define tp_isset(x) (!isnan(x))
 
@@ -171,13 +171,14 @@ typedef struct tp_control_spec {
     char source[TP_ID_MAX];
     char sensor[TP_ID_MAX];
     tp_mode mode;
-    double setpoint; /* K */
-    double band;     /* K, on-off hysteresis */
-    double period;   /* s */
-    double kp;       /* 1/K */
-    double ki;       /* 1/(K.s) */
-    double kd;       /* s/K */
-    double duty_levels; /* -, PID output rounded to multiples of 1/duty_levels (0: exact) */
+    double setpoint;          /* K */
+    double band;              /* K, on-off hysteresis */
+    double period;            /* s */
+    double kp;                /* 1/K */
+    double ki;                /* 1/(K.s) */
+    double kd;                /* s/K */
+    double derivative_filter; /* s, first-order filter on the PID derivative term (0: none) */
+    double duty_levels;       /* -, PID output rounded to multiples of 1/duty_levels (0: exact) */
 } tp_control_spec;
 
 typedef struct tp_run {

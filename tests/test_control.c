@@ -188,6 +188,44 @@ static void test_pid_duty_levels(void **state)
                  127.0 / 255.0, 1e-15);
 }
 
+/* Derivative filter. A first-order filter of time constant Tf on the derivative of the
+ * measurement, -kd s / (1 + Tf s), discretised by backward differences (the usual firmware
+ * form; Astrom & Hagglund, Advanced PID Control, ISA 2006, chapter on implementation; chapter
+ * from memory) is the recurrence D_k = (Tf D_{k-1} - kd (y_k - y_{k-1})) / (Tf + T). The checks
+ * are closed forms of that recurrence (hand-derived), with kd = 0.1 s/K, T = 1 s, Tf = 4 s,
+ * a = Tf / (Tf + T) = 0.8:
+ *   a step of 2 K in the reading at tick 1:  D_k = -kd 2 / (Tf + T) a^(k-1) = -0.04 0.8^(k-1);
+ *   a ramp of r = 0.5 K/s from tick 0:       D_k = -kd r (1 - a^k) = -0.05 (1 - 0.8^k);
+ *   Tf = 0 gives the plain difference -kd (y_k - y_{k-1}) / T. */
+static void test_pid_derivative_filter(void **state)
+{
+    tp_control c = make_control(TP_MODE_PID, 100.0 + TP_TEST_KELVIN, 0.0, 1.0);
+    tp_ctrl_state s;
+    int k;
+    (void)state;
+    c.kp = 0.05;
+    c.kd = 0.1;
+    c.d_filter = 4.0;
+    tp_control_start(&c, &s);
+    tp_check_abs("u_0", tp_control_tick(&c, &s, 90.0 + TP_TEST_KELVIN), 0.5, 1e-12);
+    for (k = 1; k <= 10; k++) {
+        double u = tp_control_tick(&c, &s, 92.0 + TP_TEST_KELVIN);
+        tp_check_abs("step: u_k", u, 0.4 - 0.04 * pow(0.8, k - 1), 1e-12);
+    }
+    c.kp = 0.02;
+    tp_control_start(&c, &s);
+    for (k = 0; k <= 15; k++) {
+        double y = 80.0 + 0.5 * k, u = tp_control_tick(&c, &s, y + TP_TEST_KELVIN);
+        tp_check_abs("ramp: u_k", u, 0.02 * (100.0 - y) - 0.05 * (1.0 - pow(0.8, k)), 1e-12);
+    }
+    c.kp = 0.05;
+    c.d_filter = 0.0;
+    tp_control_start(&c, &s);
+    tp_control_tick(&c, &s, 90.0 + TP_TEST_KELVIN);
+    tp_check_abs("unfiltered", tp_control_tick(&c, &s, 92.0 + TP_TEST_KELVIN), 0.4 - 0.2,
+                 1e-12);
+}
+
 /* Integrator clamping (anti-windup), hand-stepped with kp = 0.02 1/K, ki = 0.01 1/(K.s),
  * kd = 0, T = 1 s, u_max = 0.8, setpoint 373 K:
  *   50 ticks at 323 K (e = 50): I grows by 0.5 per tick and stops at u_max = 0.8; u = 0.8.
@@ -323,6 +361,7 @@ int main(void)
         cmocka_unit_test(test_pid_three_ticks_by_hand),
         cmocka_unit_test(test_pid_integrator_clamped),
         cmocka_unit_test(test_pid_duty_levels),
+        cmocka_unit_test(test_pid_derivative_filter),
         cmocka_unit_test(test_thermistor_beta_table),
         cmocka_unit_test(test_thermistor_adc_quantisation_12bit),
     };

@@ -160,6 +160,32 @@ static void test_pid_antiwindup_bounds_overshoot(void **state)
     tp_network_destroy(&wound);
 }
 
+/* control.derivative_filter reaches the controller in seconds: 0.1 min is 6 s (the recurrence
+ * itself is checked in test_control). */
+static void test_derivative_filter_from_config(void **state)
+{
+    static const char *const yaml =
+        "network:\n"
+        "  nodes:\n"
+        "    - {id: plate, capacity: 500 J/K, initial: 20 degC}\n"
+        "    - {id: room, fixed: 20 degC}\n"
+        "  links:\n"
+        "    - {between: [plate, room], conductance: 1 W/K}\n"
+        "  sources:\n"
+        "    - {id: pad, node: plate, power: 100 W}\n"
+        "control: {source: pad, sensor: plate, mode: pid, setpoint: 60 degC, period: 2 s,"
+        " kp: 0.05 1/K, kd: 0.2 s/K, derivative_filter: 0.1 min}\n"
+        "run: {duration: 10 min, step: 10 s}\n";
+    tp_network *net = build(yaml), *plain = build(pid_plant);
+    (void)state;
+    tp_check_abs("Tf", net->control.d_filter, 6.0, 1e-12);
+    tp_check_abs("kd", net->control.kd, 0.2, 1e-12);
+    tp_check_abs("period", net->control.period, 2.0, 1e-12);
+    assert_true(plain->control.d_filter == 0.0); /* the default: no filter */
+    tp_network_destroy(&net);
+    tp_network_destroy(&plain);
+}
+
 /* ---- metrics against closed forms ------------------------------------------------------------ */
 
 static void test_time_to_level_first_order(void **state)
@@ -350,6 +376,7 @@ int main(void)
         cmocka_unit_test(test_supply_resistance_divides_voltage),
         cmocka_unit_test(test_pid_no_steady_state_error),
         cmocka_unit_test(test_pid_antiwindup_bounds_overshoot),
+        cmocka_unit_test(test_derivative_filter_from_config),
         cmocka_unit_test(test_time_to_level_first_order),
         cmocka_unit_test(test_sensor_lag_behind_ramp_is_time_constant),
         cmocka_unit_test(test_settle_time_definition),

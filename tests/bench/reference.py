@@ -229,6 +229,10 @@ class Network:
                 ctl["band"] = quantity(c["band"], "interval", "control.band") if "band" in c \
                     else DEFAULT_BAND
             elif mode == "pid":
+                for k in ("duty_levels", "derivative_filter"):
+                    if k in c:
+                        raise ConfigError("control.%s is not supported by this reference "
+                                          "solver" % k)
                 ctl["kp"] = quantity(c.get("kp", "0 1/K"), "per_kelvin", "control.kp")
                 ctl["ki"] = quantity(c.get("ki", "0 1/(K.s)"), "per_kelvin_s", "control.ki")
                 ctl["kd"] = quantity(c.get("kd", "0 s/K"), "s_per_kelvin", "control.kd")
