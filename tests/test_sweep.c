@@ -8,21 +8,12 @@
 #include <setjmp.h>
 #include <cmocka.h>
 
-#include <math.h>
-#include <stdio.h>
-#include <stdlib.h>
-#include <string.h>
-#include <sys/stat.h>
-#include <sys/wait.h>
-#include <unistd.h>
-
 #include "config.h"
 #include "doc.h"
 #include "sweep.h"
+#include "tp_test.h"
 
 #define KELVIN 273.15
-
-static char tmpdir[256];
 
 /* Read a description from YAML text; fails the test on any error. */
 static void load(const char *yaml, tp_desc *desc)
@@ -428,8 +419,9 @@ static void test_config_check_uses_schema_bounds(void **state)
                      TP_ERR_CONFIG);
     assert_int_equal(tp_config_check(&desc, "network.nodes.plate.capacity", 0.0, msg, sizeof msg),
                      TP_ERR_CONFIG);
-    assert_int_equal(tp_config_check(&desc, "network.nodes.plate.capacity", (double)NAN, msg, sizeof msg),
-                     TP_ERR_CONFIG);
+    assert_int_equal(
+        tp_config_check(&desc, "network.nodes.plate.capacity", (double)NAN, msg, sizeof msg),
+        TP_ERR_CONFIG);
     assert_int_equal(tp_config_check(&desc, "network.nodes.nothing.capacity", 1.0, msg, sizeof msg),
                      TP_ERR_CONFIG);
     tp_desc_clear(&desc);
@@ -707,34 +699,37 @@ static void test_progress_ends_complete(void **state)
 
 /* ---- the command line ------------------------------------------------------------------------ */
 
+/* The group's scratch directory (tp_test.h). */
+static const char *scratch_dir(void)
+{
+    return tp_group_scratch()->dir;
+}
+
+/* Run tepid with a command line of space-separated arguments (none contains a space) through
+ * tp_run_status; the exit status. */
 static int run_tepid(const char *args)
 {
-    char cmd[4096];
-    int rc;
-    snprintf(cmd, sizeof cmd, "%s %s >/dev/null 2>&1", TP_TEPID_EXE, args);
-    rc = system(cmd);
-    return WIFEXITED(rc) ? WEXITSTATUS(rc) : -1;
+    char buf[4096], *tok, *save = NULL;
+    const char *argv[64];
+    int n = 0;
+    assert_true(strlen(args) < sizeof buf);
+    snprintf(buf, sizeof buf, "%s", args);
+    for (tok = strtok_r(buf, " ", &save); tok; tok = strtok_r(NULL, " ", &save)) {
+        assert_true(n < 63);
+        argv[n++] = tok;
+    }
+    argv[n] = NULL;
+    return tp_run_status(tp_group_scratch(), argv);
 }
 
 /* Whole-file comparison; 1 when equal and non-empty. */
 static int same_bytes(const char *a, const char *b)
 {
-    FILE *fa = fopen(a, "rb"), *fb = fopen(b, "rb");
-    int ca, cb, equal = fa && fb;
-    long n = 0;
-    while (equal) {
-        ca = fgetc(fa);
-        cb = fgetc(fb);
-        equal = ca == cb;
-        if (ca == EOF || cb == EOF)
-            break;
-        n++;
-    }
-    if (fa)
-        fclose(fa);
-    if (fb)
-        fclose(fb);
-    return equal && n > 0;
+    char *ta = tp_read_file(a), *tb = tp_read_file(b);
+    int equal = ta && tb && ta[0] != '\0' && strcmp(ta, tb) == 0;
+    free(ta);
+    free(tb);
+    return equal;
 }
 
 static void test_cli_files_identical_for_1_and_2_jobs(void **state)
@@ -745,10 +740,10 @@ static void test_cli_files_identical_for_1_and_2_jobs(void **state)
                          "--spread network.sources.heater.resistance=normal:3% "
                          "--samples 16 --seed 11";
     (void)state;
-    snprintf(c1, sizeof c1, "%s/j1.csv", tmpdir);
-    snprintf(c2, sizeof c2, "%s/j2.csv", tmpdir);
-    snprintf(j1, sizeof j1, "%s/j1.json", tmpdir);
-    snprintf(j2, sizeof j2, "%s/j2.json", tmpdir);
+    snprintf(c1, sizeof c1, "%s/j1.csv", scratch_dir());
+    snprintf(c2, sizeof c2, "%s/j2.csv", scratch_dir());
+    snprintf(j1, sizeof j1, "%s/j1.json", scratch_dir());
+    snprintf(j2, sizeof j2, "%s/j2.json", scratch_dir());
     snprintf(args, sizeof args,
              "sweep %s/configs/raw-five-node.yaml -q %s --jobs 1 --csv %s "
              "--json %s",
@@ -770,7 +765,7 @@ static void test_cli_usage_errors(void **state)
     struct stat sb;
     char out[512];
     (void)state;
-    snprintf(out, sizeof out, "%s/never.csv", tmpdir);
+    snprintf(out, sizeof out, "%s/never.csv", scratch_dir());
     /* Exit 2, before any work, and no file written. */
     snprintf(args, sizeof args, "sweep %s --csv %s", cfg, out);
     assert_int_equal(run_tepid(args), 2);
@@ -787,7 +782,7 @@ static void test_cli_usage_errors(void **state)
     snprintf(args, sizeof args,
              "sweep %s --vary network.sources.heater.supply=20V,24V "
              "--vary network.links.0.conductance=5W/K,6W/K,8W/K --plot %s/m.png --csv %s",
-             cfg, tmpdir, out);
+             cfg, scratch_dir(), out);
     assert_int_equal(run_tepid(args), 2); /* a heat map needs evenly spaced values */
     snprintf(args, sizeof args,
              "sweep %s --spread network.links.0.conductance=normal:5%% "
@@ -823,19 +818,19 @@ static void test_cli_figures(void **state)
     char args[2048], path[512];
     const char *cfg = TP_SOURCE_DIR "/configs/raw-five-node.yaml";
     (void)state;
-    snprintf(path, sizeof path, "%s/line.png", tmpdir);
+    snprintf(path, sizeof path, "%s/line.png", scratch_dir());
     snprintf(args, sizeof args,
              "sweep %s -q --vary network.sources.heater.supply=20V:28V:4V --plot %s", cfg, path);
     assert_int_equal(run_tepid(args), 0);
     assert_true(is_png(path));
-    snprintf(path, sizeof path, "%s/map.png", tmpdir);
+    snprintf(path, sizeof path, "%s/map.png", scratch_dir());
     snprintf(args, sizeof args,
              "sweep %s -q --vary network.sources.heater.supply=28V:20V:-4V "
              "--vary network.nodes.room.fixed=15degC:25degC:5K --plot %s",
              cfg, path);
     assert_int_equal(run_tepid(args), 0);
     assert_true(is_png(path));
-    snprintf(path, sizeof path, "%s/dist.png", tmpdir);
+    snprintf(path, sizeof path, "%s/dist.png", scratch_dir());
     snprintf(args, sizeof args,
              "sweep %s -q --spread network.links.0.conductance=normal:10%% --samples 12 "
              "--plot %s",
@@ -858,21 +853,6 @@ static void test_cli_readme_commands(void **state)
              "--spread room.temperature=uniform:16degC:28degC --samples 200",
              TP_SOURCE_DIR);
     assert_int_equal(run_tepid(args), 0);
-}
-
-static int setup_dir(void **state)
-{
-    (void)state;
-    snprintf(tmpdir, sizeof tmpdir, "/tmp/tepid-sweep-XXXXXX");
-    return mkdtemp(tmpdir) ? 0 : -1;
-}
-
-static int remove_dir(void **state)
-{
-    char cmd[512];
-    (void)state;
-    snprintf(cmd, sizeof cmd, "rm -rf '%s'", tmpdir);
-    return system(cmd) == 0 ? 0 : -1;
 }
 
 int main(void)
@@ -904,5 +884,5 @@ int main(void)
         cmocka_unit_test(test_cli_figures),
         cmocka_unit_test(test_cli_readme_commands),
     };
-    return cmocka_run_group_tests(tests, setup_dir, remove_dir);
+    return cmocka_run_group_tests(tests, tp_scratch_group_setup, tp_scratch_group_teardown);
 }
