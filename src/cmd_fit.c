@@ -37,7 +37,9 @@ static const tp_opt fit_opts[] = {
     {"csv", 0, 1, 0, 1, "FILE", "write time, log, model and residual as CSV"},
     {"json", 0, 1, 0, 1, "FILE", "write the estimates and statistics as JSON"},
     {"plot", 0, 1, 0, TP_OUT_FIGURE, "FILE", "draw the log, the fitted model and the residuals"},
-    {NULL, 0, 0, 0, 0, NULL, NULL},
+    TP_OPT_SET,
+    TP_OPT_QUIET,
+    TP_OPT_END,
 };
 
 typedef struct fit_run {

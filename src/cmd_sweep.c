@@ -39,7 +39,9 @@ static const tp_opt sweep_opts[] = {
     {"json", 0, 1, 0, 1, "FILE", "points, failures and statistics as JSON"},
     {"plot", 0, 1, 0, TP_OUT_FIGURE, "FILE",
      "line chart (one --vary), heat map (two), distribution (--spread)"},
-    {NULL, 0, 0, 0, 0, NULL, NULL},
+    TP_OPT_SET,
+    TP_OPT_QUIET,
+    TP_OPT_END,
 };
 
 /* The metrics of the text table of a grid, in order. */

@@ -27,7 +27,9 @@ static const tp_opt tune_opts[] = {
     {"json", 0, 1, 0, TP_OUT_FILE, "FILE", "write the model, the gains and the resulting metrics as JSON"},
     {"csv", 0, 1, 0, TP_OUT_FILE, "FILE", "write the warm-up with the suggested gains as CSV"},
     {"plot", 0, 1, 0, TP_OUT_FIGURE, "FILE", "draw the warm-up with the suggested gains"},
-    {NULL, 0, 0, 0, 0, NULL, NULL},
+    TP_OPT_SET,
+    TP_OPT_QUIET,
+    TP_OPT_END,
 };
 
 static tp_status parse_options(const tp_cli *cli, tp_tune_rule *rule, double *tau_c,

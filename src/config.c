@@ -378,61 +378,6 @@ static size_t *count_at(void *base, size_t off)
     return (size_t *)(void *)((char *)base + off);
 }
 
-/* Edit distance with adjacent transpositions (optimal string alignment), case-insensitive,
- * capped: enough to suggest a key name. A swapped pair ("stpe" for "step") costs 1, as the
- * commonest typo should; plain Levenshtein counts it 2. */
-static int distance(const char *a, const char *b)
-{
-    size_t la = strlen(a), lb = strlen(b), i, j;
-    int rows[3][64], *back2, *back, *row, *t;
-    if (la >= 63 || lb >= 63)
-        return 99;
-    back2 = rows[0];
-    back = rows[1];
-    row = rows[2];
-    for (j = 0; j <= lb; j++)
-        back[j] = (int)j;
-    for (i = 1; i <= la; i++) {
-        int ai = tolower((unsigned char)a[i - 1]);
-        row[0] = (int)i;
-        for (j = 1; j <= lb; j++) {
-            int bj = tolower((unsigned char)b[j - 1]);
-            int best = back[j - 1] + (ai != bj);
-            if (back[j] + 1 < best)
-                best = back[j] + 1;
-            if (row[j - 1] + 1 < best)
-                best = row[j - 1] + 1;
-            if (i > 1 && j > 1 && ai == tolower((unsigned char)b[j - 2]) &&
-                tolower((unsigned char)a[i - 2]) == bj && back2[j - 2] + 1 < best)
-                best = back2[j - 2] + 1;
-            row[j] = best;
-        }
-        t = back2;
-        back2 = back;
-        back = row;
-        row = t;
-    }
-    return back[lb];
-}
-
-/* "did you mean" for `word` among `names`; writes into hint (empty when nothing is close). */
-static void suggest(const char *word, const char *const *names, size_t n, char *hint,
-                    size_t size)
-{
-    size_t i, best = n;
-    int bestd = 99, limit = strlen(word) <= 4 ? 1 : 2;
-    for (i = 0; i < n; i++) {
-        int dd = distance(word, names[i]);
-        if (dd < bestd) {
-            bestd = dd;
-            best = i;
-        }
-    }
-    hint[0] = '\0';
-    if (best < n && bestd <= limit)
-        snprintf(hint, size, "did you mean '%s'?", names[best]);
-}
-
 static void key_list(const section *sec, char *out, size_t size)
 {
     size_t i, len = 0;
@@ -682,7 +627,7 @@ static void read_value(reader *r, const key *k, const tp_doc_node *n, void *base
                 return;
             }
         }
-        suggest(n->text, mode_names, N(mode_names), hint, sizeof hint);
+        tp_diag_suggest(n->text, mode_names, N(mode_names), hint, sizeof hint);
         tp_diag_error(r->d, tp_doc_loc(n), path,
                       hint[0] ? hint : "modes are off, full, on-off and pid",
                       "unknown mode '%s'", n->text);
@@ -724,7 +669,7 @@ static void read_section(reader *r, const section *sec, const tp_doc_node *map, 
             /* Past the errors that are shown, a hint would only cost time (a file of 90,000
              * unknown keys spent most of its seconds in edit distances). */
             if (r->d->errors < TP_DIAG_SHOW_MAX)
-                suggest(kn->text, names, m, hint, sizeof hint);
+                tp_diag_suggest(kn->text, names, m, hint, sizeof hint);
             if (!hint[0] && r->d->errors < TP_DIAG_SHOW_MAX) {
                 key_list(sec, list, sizeof list);
                 snprintf(hint, sizeof hint, "keys here: %s", list);
