@@ -819,12 +819,45 @@ static tp_loc key_loc(const tp_doc *doc, const char *path)
 }
 
 #define TP_ROOM_MIN 223.15 /* K, -50 degC: colder rooms are typos ("5 K" for 5 degC) */
+#define TP_SETPOINT_MIN 200.0 /* K, -73 degC: colder setpoints are typos ("60 K" for 60 degC) */
 #define TP_ZERO_CELSIUS 273.15 /* K at 0 degC */
+
+/* A setpoint below TP_SETPOINT_MIN, refused before anything is assembled (the convection
+ * correlations would otherwise be evaluated at it and warn first, issue 15 item 11). When the
+ * value was written in kelvin, the hint offers the same number in degC. */
+static void check_setpoint(reader *r, const tp_doc *doc, const tp_desc *c)
+{
+    const tp_doc_node *n;
+    char hint[160];
+    const char *unit = NULL;
+    if (!c->control.present || !tp_isset(c->control.setpoint) ||
+        c->control.setpoint >= TP_SETPOINT_MIN)
+        return;
+    n = tp_doc_find(doc, "control.setpoint");
+    if (n && n->text) {
+        char *end;
+        (void)strtod(n->text, &end);
+        while (*end == ' ')
+            end++;
+        unit = end;
+    }
+    if (unit && strcmp(unit, "K") == 0)
+        snprintf(hint, sizeof hint, "did you mean %.6g degC? A temperature in K is absolute "
+                 "(0 degC is 273.15 K)", c->control.setpoint);
+    else
+        snprintf(hint, sizeof hint, "tepid models heating: a setpoint is above the room, "
+                 "e.g. 60 degC");
+    tp_diag_error(r->d, key_loc(doc, "control.setpoint"), "control.setpoint", hint,
+                  "%.6g K (%.2f degC) is implausibly low for a setpoint (limit %.0f K, %.2f "
+                  "degC)", c->control.setpoint, c->control.setpoint - TP_ZERO_CELSIUS,
+                  TP_SETPOINT_MIN, TP_SETPOINT_MIN - TP_ZERO_CELSIUS);
+}
 
 /* Limits that involve two keys, checked with the defaults in place and before anything is
  * allocated for the run (docs/limits.md); and the lower plausibility bound of the room. */
 static void check_run_size(reader *r, const tp_doc *doc, const tp_desc *c)
 {
+    check_setpoint(r, doc, c);
     if (c->form == TP_FORM_PHYSICAL && c->room.temperature < TP_ROOM_MIN)
         tp_diag_error(r->d, key_loc(doc, "room.temperature"), "room.temperature",
                       "a room is between about -40 and 120 degC",
