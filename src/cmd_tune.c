@@ -107,7 +107,9 @@ static tp_status run_tune(const tp_cli *cli, tp_diag *d)
     tp_status rc = parse_options(cli, &rule, &tau_c, &step, d);
     if (rc != TP_OK)
         return rc;
-    rc = tp_session_open(&s, cli, d);
+    /* The plant is identified in open loop: a pid controller needs no gains yet (issue 15
+     * item 12). */
+    rc = tp_session_open_plant(&s, cli, d);
     if (rc != TP_OK)
         return rc;
     memset(&w, 0, sizeof w);
@@ -153,9 +155,11 @@ static tp_status run_tune(const tp_cli *cli, tp_diag *d)
                 rule == TP_RULE_SIMC ? "SIMC PI (Skogestad 2003)"
                                      : "IMC-PID (Rivera, Morari & Skogestad 1986)",
                 rule == TP_RULE_SIMC ? "tau_c" : "lambda", tau_c);
-        fprintf(s.text, "  suggested gains (paste into control:):\n"
-                        "    kp: %.4g 1/K\n    ki: %.4g 1/(K.s)\n    kd: %.4g s/K\n",
-                g.kp, g.ki, g.kd);
+        fprintf(s.text, "  suggested settings (paste into control:, in place of its mode%s and any "
+                        "gains):\n"
+                        "    mode: pid\n    kp: %.4g 1/K\n    ki: %.4g 1/(K.s)\n"
+                        "    kd: %.4g s/K\n",
+                s.desc.control.mode == TP_MODE_ONOFF ? ", band" : "", g.kp, g.ki, g.kd);
         tp_fmt_duration(w.metrics.t_setpoint, buf, sizeof buf);
         tp_fmt_duration(w.metrics.t_surface_ready, buf2, sizeof buf2);
         fprintf(s.text, "  warm-up with these gains: reading at the setpoint after %s, "

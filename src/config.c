@@ -878,6 +878,42 @@ static void check_run_size(reader *r, const tp_doc *doc, const tp_desc *c)
                       "limit of %.0f", c->run.duration / c->control.period, TP_MAX_TICKS);
 }
 
+/* Keys the chosen mode does not use: the PID keys outside pid, band outside on-off. They are
+ * read and kept (a file switched between modes keeps its values) but do nothing, so say so
+ * (issue 15 item 12). */
+static void check_mode_keys(reader *r, const tp_doc *doc, const tp_desc *c)
+{
+    static const char *const pid_keys[] = {"kp", "ki", "kd", "derivative_filter",
+                                           "duty_levels"};
+    size_t i;
+    char path[64];
+    if (!c->control.present)
+        return;
+    if (c->control.mode != TP_MODE_PID)
+        for (i = 0; i < N(pid_keys); i++) {
+            snprintf(path, sizeof path, "control.%s", pid_keys[i]);
+            if (tp_doc_find(doc, path))
+                tp_diag_warn(r->d, key_loc(doc, path), path,
+                             "it applies to mode pid only; remove it or set mode: pid",
+                             "has no effect in mode %s", tp_mode_name(c->control.mode));
+        }
+    if (c->control.mode != TP_MODE_ONOFF && tp_doc_find(doc, "control.band"))
+        tp_diag_warn(r->d, key_loc(doc, "control.band"), "control.band",
+                     "it applies to mode on-off only; remove it or set mode: on-off",
+                     "has no effect in mode %s", tp_mode_name(c->control.mode));
+}
+
+tp_status tp_config_check_gains(const tp_doc *doc, const tp_desc *desc, tp_diag *d)
+{
+    const tp_control_spec *c = &desc->control;
+    if (!c->present || c->mode != TP_MODE_PID || c->kp > 0 || c->ki > 0)
+        return TP_OK;
+    tp_diag_error(d, key_loc(doc, "control"), "control.kp",
+                  "give kp (and usually ki), e.g. kp: 0.05 1/K, ki: 0.001 1/(K.s); "
+                  "'tepid tune' suggests gains", "mode pid needs gains");
+    return TP_ERR_CONFIG;
+}
+
 tp_status tp_config_read(const tp_doc *doc, tp_desc *desc, tp_diag *d)
 {
     reader r = {d};
@@ -904,6 +940,7 @@ tp_status tp_config_read(const tp_doc *doc, tp_desc *desc, tp_diag *d)
     }
     apply_defaults(desc);
     check_run_size(&r, doc, desc);
+    check_mode_keys(&r, doc, desc);
     if (d->errors != errors0) {
         tp_desc_clear(desc);
         return TP_ERR_CONFIG;

@@ -24,6 +24,11 @@
  * returns TP_ERR_CONFIG and *desc is cleared (nothing to free). Defaults are applied. */
 tp_status tp_config_read(const tp_doc *doc, tp_desc *desc, tp_diag *d);
 
+/* A pid controller without gains (kp and ki both 0) is an error for every verb that runs the
+ * closed loop; tune, which identifies the plant in open loop, does not ask (tp_session_open_plant).
+ * TP_OK or TP_ERR_CONFIG with a message naming control.kp. */
+tp_status tp_config_check_gains(const tp_doc *doc, const tp_desc *desc, tp_diag *d);
+
 /* Load a file, apply the overrides ("key.path=value", n_sets of them) and read it. On success
  * the caller owns *doc and *desc (tp_doc_destroy, tp_desc_clear). */
 tp_status tp_config_load(const char *path, const char *const *sets, int n_sets, tp_doc **doc,
