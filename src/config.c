@@ -248,7 +248,7 @@ static const key control_keys[] = {
 static const section control_sec = {control_keys, N(control_keys)};
 
 static const key run_keys[] = {
-    QTY(tp_run, duration, "duration", TP_DIM_TIME, F_POS, 30 * 86400.0,
+    QTY(tp_run, duration, "duration", TP_DIM_TIME, F_POS, TP_MAX_DURATION,
         "simulate at most 30 days"),
     QTY(tp_run, step, "step", TP_DIM_TIME, F_POS, 86400, too_big),
     QTY(tp_run, tolerance, "tolerance", TP_DIM_NONE, F_POS, 1e-2,

@@ -18,6 +18,8 @@
                                         (30 days at 1 s fits) */
 #define TP_MAX_TICKS 10000000.0      /* controller samples in one run, run.duration /
                                         control.period */
+#define TP_MAX_DURATION (30 * 86400.0) /* s, longest model run: run.duration, or the span of a
+                                          measured log that fit reproduces */
 #define TP_GRID_SIDE_MAX 500    /* cells along one side of bed.grid */
 
 /* Read the description from a parsed document. Every problem is reported to `d`; on error
