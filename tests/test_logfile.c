@@ -440,14 +440,18 @@ static void test_log_drive_is_held_between_rows(void **state)
     tp_log_clear(&log);
 }
 
+/* An unreadable log is an input error, as an unreadable config is (exit 2; issue 15 item 24). */
 static void test_log_load_missing_file(void **state)
 {
     tp_log log;
     tp_diag d;
     (void)state;
     tp_diag_init(&d, NULL);
-    assert_int_equal(tp_log_load("/nonexistent/log.csv", NULL, &log, &d), TP_ERR_IO);
+    assert_int_equal(tp_log_load("/nonexistent/log.csv", NULL, &log, &d), TP_ERR_CONFIG);
     assert_says(&d, "/nonexistent/log.csv: cannot open");
+    tp_diag_init(&d, NULL);
+    assert_int_equal(tp_log_load("/", NULL, &log, &d), TP_ERR_CONFIG);
+    assert_says(&d, "/: cannot read");
 }
 
 int main(void)
