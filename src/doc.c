@@ -331,6 +331,24 @@ static int on_alias(builder *b, const yaml_event_t *ev)
     return -1;
 }
 
+/* A "\0" escape in a quoted string puts a NUL inside the scalar: the C strings downstream would
+ * silently end there ("0.7 mm\0 km" read as 0.7 mm; issue 15 item 26). Reported, nonzero. */
+static int has_nul(builder *b, const yaml_event_t *ev)
+{
+    const unsigned char *v = ev->data.scalar.value;
+    const unsigned char *nul = memchr(v, '\0', ev->data.scalar.length), *c;
+    size_t chars = 0;
+    if (!nul)
+        return 0;
+    for (c = v; c < nul; c++)
+        chars += (*c & 0xC0) != 0x80; /* UTF-8 characters, not bytes */
+    tp_diag_error(b->d, mark_loc(b, &ev->start_mark), NULL,
+                  "remove the \\0 escape: keys and values are text without NUL characters",
+                  "the string has a NUL character (\\0) after its first %zu character%s", chars,
+                  chars == 1 ? "" : "s");
+    return 1;
+}
+
 static int on_event(builder *b, const yaml_event_t *ev)
 {
     tp_doc_node *n;
@@ -352,6 +370,8 @@ static int on_event(builder *b, const yaml_event_t *ev)
     case YAML_ALIAS_EVENT:
         return on_alias(b, ev);
     case YAML_SCALAR_EVENT:
+        if (has_nul(b, ev))
+            return -1;
         n = node_new(b, TP_DOC_SCALAR, &ev->start_mark, &ev->end_mark);
         if (!n)
             return -1;
