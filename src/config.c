@@ -9,6 +9,8 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "materials.h"
+
 /* ---- the schema --------------------------------------------------------------------------- */
 
 typedef enum kind {
@@ -1136,14 +1138,46 @@ static int resolve_path(const section *sec, void *base, const char *path, double
     return -1;
 }
 
-tp_status tp_config_key_dim(const tp_desc *desc, const char *path, tp_dim *dim, tp_diag *d)
+/* The hint for a path that names no number: a built-in material's property cannot be varied
+ * in place (the table is shared and read-only), so say how to make it the config's own. */
+static void key_hint(const tp_desc *desc, const char *path, char *hint, size_t size)
+{
+    char id[TP_ID_MAX];
+    const char *dot;
+    const tp_material_spec *m;
+    const tp_material_spec *table;
+    size_t n, i;
+    tp_diag quiet;
+    snprintf(hint, size, "give the dotted path of a number in the config, e.g. heater.power, "
+             "bed.layers.plate.contact, sensor.coupling or losses.convection_scale");
+    if (strncmp(path, "materials.", 10) != 0)
+        return;
+    dot = strchr(path + 10, '.');
+    if (!dot || (size_t)(dot - path - 10) >= sizeof id)
+        return;
+    memcpy(id, path + 10, (size_t)(dot - path - 10));
+    id[dot - path - 10] = '\0';
+    for (i = 0; i < desc->n_materials; i++)
+        if (strcmp(desc->materials[i].id, id) == 0)
+            return; /* the config's own material: the property is what is wrong */
+    tp_diag_init(&quiet, NULL);
+    if (tp_materials_builtin(&table, &n, &quiet) != TP_OK || !(m = tp_materials_find(desc, id)))
+        return;
+    snprintf(hint, size, "'%s' is a built-in material, which cannot be varied or fitted in "
+             "place: copy its entry into the config's materials: under the same id (its values "
+             "and source: 'tepid materials --sources', docs/materials.md); then --vary, --spread "
+             "and --free accept its %s", m->id, dot + 1);
+}
+
+tp_status tp_config_key_dim(const tp_desc *desc, const char *path, const char *opt, tp_dim *dim,
+                            tp_diag *d)
 {
     double *where;
     const key *k;
     if (resolve_path(&top_sec, (void *)(uintptr_t)desc, path, &where, &k) != 0) {
-        tp_diag_error(d, tp_loc_none(), path,
-                      "give the dotted path of a number in the config, e.g. heater.power or "
-                      "bed.layers.plate.contact",
+        char hint[512];
+        key_hint(desc, path, hint, sizeof hint);
+        tp_diag_error(d, opt ? (tp_loc){opt, 1, 1} : tp_loc_none(), path, hint,
                       "not a numeric key of this config");
         return TP_ERR_CONFIG;
     }

@@ -47,8 +47,11 @@ void tp_desc_clear(tp_desc *desc);
 tp_status tp_desc_copy(tp_desc *dst, const tp_desc *src);
 
 /* The dimension of the numeric key at `path` (e.g. "heater.power", "bed.layers.plate.contact",
- * "bed.size.0"). Returns TP_ERR_CONFIG with a message in `d` when the path names no number. */
-tp_status tp_config_key_dim(const tp_desc *desc, const char *path, tp_dim *dim, tp_diag *d);
+ * "bed.size.0"). Returns TP_ERR_CONFIG with a message in `d` when the path names no number, at
+ * the option `opt` that gave the path (e.g. "--vary"; NULL: no position), with a hint (for a
+ * built-in material's property: copy the material into materials: first). */
+tp_status tp_config_key_dim(const tp_desc *desc, const char *path, const char *opt, tp_dim *dim,
+                            tp_diag *d);
 
 /* Read or set the numeric key at `path` in SI units (same paths as tp_config_key_dim). */
 tp_status tp_config_get(const tp_desc *desc, const char *path, double *si);

@@ -157,7 +157,6 @@ static tp_status parse_one(char *item, const tp_desc *desc, tp_fit_param *q, tp_
 {
     char *eq = strchr(item, '='), *path = item;
     double start;
-    tp_diag quiet;
     memset(q, 0, sizeof *q);
     if (eq)
         *eq = '\0';
@@ -176,14 +175,8 @@ static tp_status parse_one(char *item, const tp_desc *desc, tp_fit_param *q, tp_
                       "run settings are numerical choices, not something a log can measure");
         return TP_ERR_USAGE;
     }
-    tp_diag_init(&quiet, NULL);
-    if (tp_config_key_dim(desc, q->path, &q->dim, &quiet) != TP_OK) {
-        tp_diag_error(d, (tp_loc){"--free", 1, 1}, q->path,
-                      "give the dotted path of a number in the config, e.g. heater.power, "
-                      "bed.layers.plate.contact, sensor.coupling, losses.convection_scale",
-                      "not a numeric key of this config");
+    if (tp_config_key_dim(desc, q->path, "--free", &q->dim, d) != TP_OK)
         return TP_ERR_USAGE;
-    }
     tp_config_get(desc, q->path, &start);
     q->start_unset = !isfinite(start);
     if (eq) {

@@ -1,8 +1,8 @@
 /* Tests of the command line (src/cli.c, src/main.c, src/commands.c) through the binary: every
  * output option of every verb is checked before anything is computed, two outputs never share
  * standard output, a verb refuses options it does not use, --set ignores blanks around its key
- * and value, 'tepid help VERB' is the verb's help, and unknown verbs and options get a
- * did-you-mean. The verb and option tables are read from the library, so a verb or output
+ * and value, 'tepid help VERB' is the verb's help, unknown verbs and options get a
+ * did-you-mean, and sweep's --jobs states its cap. The verb and option tables are read from the library, so a verb or output
  * option added later is covered without editing this file. */
 #include <stdarg.h>
 #include <stddef.h>
@@ -11,6 +11,7 @@
 #include <cmocka.h>
 
 #include "commands.h"
+#include "sweep.h"
 #include "tp_test.h"
 
 #define DEMO TP_SOURCE_DIR "/configs/workshop-bed-24v.yaml"
@@ -274,6 +275,34 @@ static void test_cli_did_you_mean(void **state)
     }
 }
 
+/* Issue 15 item 27: --jobs was capped at 256 without a word. The help states the cap, which is
+ * the library's TP_SWEEP_MAX_JOBS; the cap is accepted and one more is refused naming it. */
+static void test_cli_jobs_limit_stated(void **state)
+{
+    tp_scratch *s = tp_group_scratch();
+    char want[64], max[16], over[16];
+    const char *help[] = {"help", "sweep", NULL};
+    const char *at_max[] = {"sweep", DEMO, "-q", "--vary", "heater.supply=20V,24V", "--jobs",
+                            max, NULL};
+    const char *above[] = {"sweep", DEMO, "-q", "--vary", "heater.supply=20V,24V", "--jobs",
+                           over, NULL};
+    tp_run_result r;
+    (void)state;
+    snprintf(max, sizeof max, "%d", TP_SWEEP_MAX_JOBS);
+    snprintf(over, sizeof over, "%d", TP_SWEEP_MAX_JOBS + 1);
+    tp_run_tepid(s, help, &r);
+    assert_int_equal(r.status, 0);
+    snprintf(want, sizeof want, "worker threads, 1 to %d", TP_SWEEP_MAX_JOBS);
+    tp_check_contains("sweep --help", r.out, want);
+    tp_run_clear(&r);
+    assert_int_equal(tp_run_status(s, at_max), 0);
+    tp_run_tepid(s, above, &r);
+    assert_int_equal(r.status, 2);
+    snprintf(want, sizeof want, "is not a whole number from 1 to %d", TP_SWEEP_MAX_JOBS);
+    tp_check_contains("--jobs above the cap", r.err, want);
+    tp_run_clear(&r);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -285,6 +314,7 @@ int main(void)
         cmocka_unit_test(test_cli_set_trims_blanks),
         cmocka_unit_test(test_cli_help_verb),
         cmocka_unit_test(test_cli_did_you_mean),
+        cmocka_unit_test(test_cli_jobs_limit_stated),
     };
     return cmocka_run_group_tests(tests, tp_scratch_group_setup, tp_scratch_group_teardown);
 }
