@@ -266,12 +266,6 @@ static tp_status attach_control(const tp_desc *desc, const tp_doc *doc, tp_netwo
                       "mode %s needs a setpoint", tp_mode_name(c->mode));
         return TP_ERR_CONFIG;
     }
-    if (c->mode == TP_MODE_PID && !(c->kp > 0 || c->ki > 0)) {
-        tp_diag_error(d, where(doc, "control"), "control.kp",
-                      "give kp (and usually ki), e.g. kp: 0.05 1/K, ki: 0.001 1/(K.s); "
-                      "'tepid tune' suggests gains", "mode pid needs gains");
-        return TP_ERR_CONFIG;
-    }
     for (i = 0; i < net->n_nodes; i++)
         if (net->nodes[i].capacity <= 0 && net->nodes[i].t0 < coldest)
             coldest = net->nodes[i].t0;

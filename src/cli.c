@@ -1,5 +1,5 @@
-/* The command line parser: long options with values (--csv F or --csv=F), short flags, the
- * common options, and the guard against writing an output onto an input. */
+/* The command line parser: long options with values (--csv F or --csv=F), short flags, each
+ * verb's own option table, and the checks of output paths before anything is computed. */
 #include "cli.h"
 
 #include <string.h>
@@ -7,27 +7,84 @@
 #include "outfile.h"
 #include "plot.h"
 
-const tp_opt tp_common_opts[] = {
-    {"set", 0, 1, 1, 0, "KEY=VALUE", "override a config key, e.g. --set heater.power=200W"},
-    {"quiet", 'q', 0, 0, 0, NULL, "print no summary (errors still go to standard error)"},
-    {"help", 'h', 0, 0, 0, NULL, "show this help"},
-    {NULL, 0, 0, 0, 0, NULL, NULL},
-};
+const tp_opt tp_opt_help = {"help", 'h', 0, 0, 0, NULL, "show this help"};
+
+#define TP_CLI_MAX_OPTS 64 /* entries of one verb's option table (for the did-you-mean) */
 
 static const tp_opt *find_opt(const tp_verb *verb, const char *name, char short_name)
 {
-    const tp_opt *sets[2] = {verb->opts, tp_common_opts};
-    int s;
-    for (s = 0; s < 2; s++) {
-        const tp_opt *o;
-        for (o = sets[s]; o && o->name; o++) {
-            if (name && strcmp(o->name, name) == 0)
-                return o;
-            if (!name && short_name && o->short_name == short_name)
-                return o;
+    const tp_opt *o;
+    for (o = verb->opts; o && o->name; o++) {
+        if (name && strcmp(o->name, name) == 0)
+            return o;
+        if (!name && short_name && o->short_name == short_name)
+            return o;
+    }
+    if (name ? strcmp(name, tp_opt_help.name) == 0 : short_name == tp_opt_help.short_name)
+        return &tp_opt_help;
+    return NULL;
+}
+
+/* An option the verb does not have, with the closest of its own as a hint. */
+static void unknown_option(const tp_verb *verb, const char *shown, const char *name, tp_diag *d)
+{
+    const char *names[TP_CLI_MAX_OPTS + 1];
+    char hint[200];
+    size_t n = 0;
+    const tp_opt *o;
+    int best;
+    for (o = verb->opts; o && o->name && n < TP_CLI_MAX_OPTS; o++)
+        names[n++] = o->name;
+    names[n++] = tp_opt_help.name;
+    best = name ? tp_diag_closest(name, names, n) : -1;
+    if (best >= 0)
+        snprintf(hint, sizeof hint, "did you mean --%s? ('tepid help %s' lists its options)",
+                 names[best], verb->name);
+    else
+        snprintf(hint, sizeof hint, "'tepid help %s' lists its options", verb->name);
+    tp_diag_error(d, tp_loc_none(), NULL, hint, "unknown option %s for '%s'", shown, verb->name);
+}
+
+/* Every output must be creatable before the verb computes anything (issue 15 item 6). */
+static tp_status check_outputs(const tp_cli *cli, tp_diag *d)
+{
+    int i, j;
+    for (i = 0; i < cli->n_args; i++) {
+        const tp_opt *o = cli->args[i].opt;
+        const char *path = cli->args[i].value;
+        char why[320];
+        if (!o->is_output)
+            continue;
+        if (o->is_output == TP_OUT_FIGURE && tp_plot_check_path(path, d) != TP_OK)
+            return TP_ERR_USAGE;
+        if (cli->file && (tp_path_same_file(path, cli->file) || strcmp(path, cli->file) == 0)) {
+            tp_diag_error(d, tp_loc_none(), NULL, "choose another output name",
+                          "--%s would overwrite the input file %s", o->name, cli->file);
+            return TP_ERR_USAGE;
+        }
+        for (j = 0; j < i; j++) {
+            const tp_opt *p = cli->args[j].opt;
+            if (!p->is_output || strcmp(cli->args[j].value, path) != 0)
+                continue;
+            if (strcmp(path, "-") == 0)
+                tp_diag_error(d, tp_loc_none(), NULL,
+                              "send all but one of them to a file",
+                              "--%s and --%s both write to standard output (-)", p->name,
+                              o->name);
+            else
+                tp_diag_error(d, tp_loc_none(), NULL, "give each output its own name",
+                              "--%s and --%s name the same file", p->name, o->name);
+            return TP_ERR_USAGE;
+        }
+        if (tp_outfile_check(path, o->is_output == TP_OUT_FIGURE, why, sizeof why) != 0) {
+            tp_diag_error(d, tp_loc_none(), NULL,
+                          "check that the directory exists and is writable; nothing was "
+                          "computed",
+                          "--%s: cannot create %s: %s", o->name, path, why);
+            return TP_ERR_USAGE;
         }
     }
-    return NULL;
+    return TP_OK;
 }
 
 static tp_status add(tp_cli *cli, const tp_opt *o, const char *value, tp_diag *d)
@@ -75,8 +132,9 @@ tp_status tp_cli_parse(const tp_verb *verb, int argc, char **argv, tp_cli *cli, 
             name[len] = '\0';
             o = find_opt(verb, name, 0);
             if (!o) {
-                tp_diag_error(d, tp_loc_none(), NULL, "see 'tepid VERB --help'",
-                              "unknown option --%s for '%s'", name, verb->name);
+                char shown[72];
+                snprintf(shown, sizeof shown, "--%s", name);
+                unknown_option(verb, shown, name, d);
                 return TP_ERR_USAGE;
             }
             if (o->takes_value) {
@@ -95,8 +153,7 @@ tp_status tp_cli_parse(const tp_verb *verb, int argc, char **argv, tp_cli *cli, 
             }
         } else if (a[0] == '-' && a[1] != '\0') {
             if (a[2] != '\0' || !(o = find_opt(verb, NULL, a[1]))) {
-                tp_diag_error(d, tp_loc_none(), NULL, "see 'tepid VERB --help'",
-                              "unknown option %s for '%s'", a, verb->name);
+                unknown_option(verb, a, NULL, d);
                 return TP_ERR_USAGE;
             }
             if (o->takes_value) {
@@ -131,54 +188,32 @@ tp_status tp_cli_parse(const tp_verb *verb, int argc, char **argv, tp_cli *cli, 
                       verb->name);
         return TP_ERR_USAGE;
     }
-    for (i = 0; i < cli->n_args; i++) {
-        int j;
-        if (!cli->args[i].opt->is_output)
-            continue;
-        if (cli->args[i].opt->is_output == TP_OUT_FIGURE &&
-            tp_plot_check_path(cli->args[i].value, d) != TP_OK)
-            return TP_ERR_USAGE;
-        if (cli->file && (tp_path_same_file(cli->args[i].value, cli->file) ||
-                          strcmp(cli->args[i].value, cli->file) == 0)) {
-            tp_diag_error(d, tp_loc_none(), NULL, "choose another output name",
-                          "--%s would overwrite the input file %s", cli->args[i].opt->name,
-                          cli->file);
-            return TP_ERR_USAGE;
-        }
-        for (j = 0; j < i; j++)
-            if (cli->args[j].opt->is_output && strcmp(cli->args[j].value, "-") != 0 &&
-                strcmp(cli->args[j].value, cli->args[i].value) == 0) {
-                tp_diag_error(d, tp_loc_none(), NULL, "give each output its own name",
-                              "--%s and --%s name the same file", cli->args[j].opt->name,
-                              cli->args[i].opt->name);
-                return TP_ERR_USAGE;
-            }
-    }
-    return TP_OK;
+    return check_outputs(cli, d);
+}
+
+static void print_opt(const tp_opt *o, FILE *fp)
+{
+    char left[64];
+    if (o->short_name)
+        snprintf(left, sizeof left, "-%c, --%s%s%s", o->short_name, o->name,
+                 o->takes_value ? " " : "", o->takes_value ? o->metavar : "");
+    else
+        snprintf(left, sizeof left, "    --%s%s%s", o->name, o->takes_value ? " " : "",
+                 o->takes_value ? o->metavar : "");
+    fprintf(fp, "  %-26s %s\n", left, o->help);
 }
 
 void tp_cli_help(const tp_verb *verb, FILE *fp)
 {
-    const tp_opt *sets[2] = {verb->opts, tp_common_opts};
-    int s;
+    const tp_opt *o;
     fprintf(fp, "usage: tepid %s%s [options]\n\n%s\n", verb->name,
             verb->needs_file ? " FILE" : "", verb->summary);
     if (verb->details)
         fprintf(fp, "\n%s\n", verb->details);
     fputs("\noptions:\n", fp);
-    for (s = 0; s < 2; s++) {
-        const tp_opt *o;
-        for (o = sets[s]; o && o->name; o++) {
-            char left[64];
-            if (o->short_name)
-                snprintf(left, sizeof left, "-%c, --%s%s%s", o->short_name, o->name,
-                         o->takes_value ? " " : "", o->takes_value ? o->metavar : "");
-            else
-                snprintf(left, sizeof left, "    --%s%s%s", o->name, o->takes_value ? " " : "",
-                         o->takes_value ? o->metavar : "");
-            fprintf(fp, "  %-26s %s\n", left, o->help);
-        }
-    }
+    for (o = verb->opts; o && o->name; o++)
+        print_opt(o, fp);
+    print_opt(&tp_opt_help, fp);
 }
 
 const char *tp_cli_get(const tp_cli *cli, const char *name)

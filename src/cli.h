@@ -13,16 +13,34 @@
 #define TP_OUT_FILE 1   /* tp_opt.is_output: a data file */
 #define TP_OUT_FIGURE 2 /* tp_opt.is_output: a figure (.png .svg .pdf) */
 
+/* One option of a verb. Each verb lists every option it accepts in one table (tp_verb.opts),
+ * in the order its help and manual page show them, ended by TP_OPT_END. The options several
+ * verbs share are the entries TP_OPT_SET and TP_OPT_QUIET, listed by the verbs that use them;
+ * --help (tp_opt_help) is accepted by every verb and not listed. An option a verb's table does
+ * not hold is refused, with a did-you-mean. */
 typedef struct tp_opt {
     const char *name;    /* long name without dashes, e.g. "csv" */
     char short_name;     /* e.g. 'q', or 0 */
     int takes_value;     /* 1: --name VALUE (or --name=VALUE) */
     int repeatable;
-    int is_output;       /* the value is an output path (checked against inputs);
-                            TP_OUT_FIGURE: a figure, its format checked too */
+    int is_output;       /* 0, or the value is an output path: TP_OUT_FILE a data file,
+                            TP_OUT_FIGURE a figure (its format checked too). The parser refuses
+                            an output onto the input, two outputs on one name or both on "-",
+                            and an output that cannot be created, before the verb runs */
     const char *metavar; /* e.g. "FILE" */
     const char *help;
 } tp_opt;
+
+/* The shared entries of the option tables. */
+#define TP_OPT_SET                                                                            \
+    {"set", 0, 1, 1, 0, "KEY=VALUE", "override a config key, e.g. --set heater.power=200W "    \
+                                     "(repeatable)"}
+#define TP_OPT_QUIET                                                                          \
+    {"quiet", 'q', 0, 0, 0, NULL, "print no summary (errors still go to standard error)"}
+#define TP_OPT_END {NULL, 0, 0, 0, 0, NULL, NULL}
+
+/* --help, accepted by every verb. */
+extern const tp_opt tp_opt_help;
 
 typedef struct tp_cli {
     const char *verb;
@@ -44,11 +62,9 @@ typedef struct tp_verb {
     const char *details; /* paragraph printed by VERB --help */
 } tp_verb;
 
-/* The options every verb with a file accepts: --set, -q, --help. */
-extern const tp_opt tp_common_opts[];
-
 /* Parse argv (after the verb). Returns TP_OK, TP_ERR_USAGE (message printed), or TP_OK with
- * *help set when --help was given. */
+ * *help set when --help was given. Every output option's path is checked here (see tp_opt), so
+ * a verb never computes for an output it cannot write; it still writes through outfile.h. */
 tp_status tp_cli_parse(const tp_verb *verb, int argc, char **argv, tp_cli *cli, int *help,
                        tp_diag *d);
 

@@ -15,7 +15,9 @@
 static const tp_opt budget_opts[] = {
     {"json", 0, 1, 0, TP_OUT_FILE, "FILE", "write every figure and verdict as JSON"},
     {"strict", 0, 0, 0, 0, NULL, "exit 3 when any check gives WARN"},
-    {NULL, 0, 0, 0, 0, NULL, NULL},
+    TP_OPT_SET,
+    TP_OPT_QUIET,
+    TP_OPT_END,
 };
 
 static void print_checks(FILE *fp, const tp_budget *b)

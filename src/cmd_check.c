@@ -6,7 +6,9 @@
 #include "session.h"
 
 static const tp_opt check_opts[] = {
-    {NULL, 0, 0, 0, 0, NULL, NULL},
+    TP_OPT_SET,
+    TP_OPT_QUIET,
+    TP_OPT_END,
 };
 
 static tp_status run_check(const tp_cli *cli, tp_diag *d)

@@ -15,7 +15,9 @@ static const tp_opt explain_opts[] = {
     {"at", 0, 1, 0, 0, "TEMP", "evaluate temperature-dependent links with every free node at TEMP "
                                "(default: each node's initial temperature)"},
     {"json", 0, 1, 0, 1, "FILE", "write nodes and links as JSON (- for standard output)"},
-    {NULL, 0, 0, 0, 0, NULL, NULL},
+    TP_OPT_SET,
+    TP_OPT_QUIET,
+    TP_OPT_END,
 };
 
 static tp_status write_json(const char *path, const tp_network *net, const double *t, tp_diag *d)

@@ -37,7 +37,9 @@ static const tp_opt fit_opts[] = {
     {"csv", 0, 1, 0, 1, "FILE", "write time, log, model and residual as CSV"},
     {"json", 0, 1, 0, 1, "FILE", "write the estimates and statistics as JSON"},
     {"plot", 0, 1, 0, TP_OUT_FIGURE, "FILE", "draw the log, the fitted model and the residuals"},
-    {NULL, 0, 0, 0, 0, NULL, NULL},
+    TP_OPT_SET,
+    TP_OPT_QUIET,
+    TP_OPT_END,
 };
 
 typedef struct fit_run {
@@ -520,9 +522,14 @@ static void summary(FILE *fp, const fit_run *f)
     tp_fmt_duration(lg->t[lg->n - 1], buf, sizeof buf);
     fprintf(fp, "  log %s: %ld rows over %s; reading '%s' (%s)", lg->name, lg->n, buf, lg->temp_col,
             lg->temp_unit);
-    if (lg->drive_kind != TP_LOG_DRIVE_NONE)
-        fprintf(fp, ", %s '%s'%s", lg->drive_kind == TP_LOG_DRIVE_DUTY ? "duty" : "power",
-                lg->drive_col, lg->duty_percent ? " (percent)" : "");
+    if (lg->drive_kind == TP_LOG_DRIVE_POWER)
+        fprintf(fp, ", power '%s'", lg->drive_col);
+    else if (lg->drive_kind == TP_LOG_DRIVE_DUTY && lg->duty_percent)
+        fprintf(fp, ", duty '%s' (percent)", lg->drive_col);
+    else if (lg->drive_kind == TP_LOG_DRIVE_DUTY && lg->duty_full_scale > 1.0)
+        fprintf(fp, ", duty '%s' (counts of %.0f)", lg->drive_col, lg->duty_full_scale);
+    else if (lg->drive_kind == TP_LOG_DRIVE_DUTY)
+        fprintf(fp, ", duty '%s'", lg->drive_col);
     fprintf(fp, "\n  the model's heater follows %s; the model reading is node '%s'\n",
             tp_fit_drive_name(r->drive), f->net ? f->net->nodes[r->sensor].id : "?");
     fprintf(fp,

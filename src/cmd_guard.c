@@ -27,7 +27,9 @@ static const tp_opt guard_opts[] = {
     {"json", 0, 1, 0, 1, "FILE", "write every figure as JSON (- for standard output)"},
     {"plot", 0, 1, 0, TP_OUT_FIGURE, "FILE", "draw the worst healthy readings and the faults' "
                                              "readings with the thresholds"},
-    {NULL, 0, 0, 0, 0, NULL, NULL},
+    TP_OPT_SET,
+    TP_OPT_QUIET,
+    TP_OPT_END,
 };
 
 static const struct {

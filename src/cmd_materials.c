@@ -8,7 +8,7 @@
 
 static const tp_opt materials_opts[] = {
     {"sources", 0, 0, 0, 0, NULL, "print each entry's full source and note"},
-    {NULL, 0, 0, 0, 0, NULL, NULL},
+    TP_OPT_END,
 };
 
 static tp_status run_materials(const tp_cli *cli, tp_diag *d)

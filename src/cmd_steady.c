@@ -17,7 +17,9 @@
 static const tp_opt steady_opts[] = {
     {"json", 0, 1, 0, TP_OUT_FILE, "FILE", "write the results as JSON (- for standard output)"},
     {"room", 0, 1, 0, 0, "TEMP", "solve for this room temperature instead (e.g. 12degC)"},
-    {NULL, 0, 0, 0, 0, NULL, NULL},
+    TP_OPT_SET,
+    TP_OPT_QUIET,
+    TP_OPT_END,
 };
 
 typedef struct answer {

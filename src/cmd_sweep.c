@@ -31,7 +31,8 @@ static const tp_opt sweep_opts[] = {
      "tolerance: normal:SIGMA or uniform:LOW:HIGH, in % or with units (repeatable)"},
     {"samples", 0, 1, 0, 0, "N", "samples of a tolerance study (default 500)"},
     {"seed", 0, 1, 0, 0, "S", "seed of the sample streams (default 1)"},
-    {"jobs", 'j', 1, 0, 0, "N", "worker threads (default: the number of processors)"},
+    {"jobs", 'j', 1, 0, 0, "N",
+     "worker threads, 1 to 256 (default: the number of processors, at most 256)"},
     {"metric", 0, 1, 0, 0, "NAME",
      "metric of the heat map or distribution plot (default time_surface_ready_s, or "
      "time_to_setpoint_s without a working surface)"},
@@ -39,7 +40,9 @@ static const tp_opt sweep_opts[] = {
     {"json", 0, 1, 0, 1, "FILE", "points, failures and statistics as JSON"},
     {"plot", 0, 1, 0, TP_OUT_FIGURE, "FILE",
      "line chart (one --vary), heat map (two), distribution (--spread)"},
-    {NULL, 0, 0, 0, 0, NULL, NULL},
+    TP_OPT_SET,
+    TP_OPT_QUIET,
+    TP_OPT_END,
 };
 
 /* The metrics of the text table of a grid, in order. */

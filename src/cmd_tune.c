@@ -27,7 +27,9 @@ static const tp_opt tune_opts[] = {
     {"json", 0, 1, 0, TP_OUT_FILE, "FILE", "write the model, the gains and the resulting metrics as JSON"},
     {"csv", 0, 1, 0, TP_OUT_FILE, "FILE", "write the warm-up with the suggested gains as CSV"},
     {"plot", 0, 1, 0, TP_OUT_FIGURE, "FILE", "draw the warm-up with the suggested gains"},
-    {NULL, 0, 0, 0, 0, NULL, NULL},
+    TP_OPT_SET,
+    TP_OPT_QUIET,
+    TP_OPT_END,
 };
 
 static tp_status parse_options(const tp_cli *cli, tp_tune_rule *rule, double *tau_c,
@@ -105,7 +107,9 @@ static tp_status run_tune(const tp_cli *cli, tp_diag *d)
     tp_status rc = parse_options(cli, &rule, &tau_c, &step, d);
     if (rc != TP_OK)
         return rc;
-    rc = tp_session_open(&s, cli, d);
+    /* The plant is identified in open loop: a pid controller needs no gains yet (issue 15
+     * item 12). */
+    rc = tp_session_open_plant(&s, cli, d);
     if (rc != TP_OK)
         return rc;
     memset(&w, 0, sizeof w);
@@ -151,9 +155,11 @@ static tp_status run_tune(const tp_cli *cli, tp_diag *d)
                 rule == TP_RULE_SIMC ? "SIMC PI (Skogestad 2003)"
                                      : "IMC-PID (Rivera, Morari & Skogestad 1986)",
                 rule == TP_RULE_SIMC ? "tau_c" : "lambda", tau_c);
-        fprintf(s.text, "  suggested gains (paste into control:):\n"
-                        "    kp: %.4g 1/K\n    ki: %.4g 1/(K.s)\n    kd: %.4g s/K\n",
-                g.kp, g.ki, g.kd);
+        fprintf(s.text, "  suggested settings (paste into control:, in place of its mode%s and any "
+                        "gains):\n"
+                        "    mode: pid\n    kp: %.4g 1/K\n    ki: %.4g 1/(K.s)\n"
+                        "    kd: %.4g s/K\n",
+                s.desc.control.mode == TP_MODE_ONOFF ? ", band" : "", g.kp, g.ki, g.kd);
         tp_fmt_duration(w.metrics.t_setpoint, buf, sizeof buf);
         tp_fmt_duration(w.metrics.t_surface_ready, buf2, sizeof buf2);
         fprintf(s.text, "  warm-up with these gains: reading at the setpoint after %s, "

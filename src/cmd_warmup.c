@@ -27,7 +27,9 @@ static const tp_opt warmup_opts[] = {
      "gridded plates: draw it when the reading reaches the setpoint"},
     {"map-csv", 0, 1, 0, 1, "FILE",
      "gridded plates: write the surface maps cell by cell as CSV (- for standard output)"},
-    {NULL, 0, 0, 0, 0, NULL, NULL},
+    TP_OPT_SET,
+    TP_OPT_QUIET,
+    TP_OPT_END,
 };
 
 static void exposure(const tp_warmup *w, const double *peak, tp_exposure *ex)

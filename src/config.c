@@ -9,6 +9,8 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "materials.h"
+
 /* ---- the schema --------------------------------------------------------------------------- */
 
 typedef enum kind {
@@ -248,7 +250,7 @@ static const key control_keys[] = {
 static const section control_sec = {control_keys, N(control_keys)};
 
 static const key run_keys[] = {
-    QTY(tp_run, duration, "duration", TP_DIM_TIME, F_POS, 30 * 86400.0,
+    QTY(tp_run, duration, "duration", TP_DIM_TIME, F_POS, TP_MAX_DURATION,
         "simulate at most 30 days"),
     QTY(tp_run, step, "step", TP_DIM_TIME, F_POS, 86400, too_big),
     QTY(tp_run, tolerance, "tolerance", TP_DIM_NONE, F_POS, 1e-2,
@@ -376,61 +378,6 @@ static void *field(void *base, size_t off)
 static size_t *count_at(void *base, size_t off)
 {
     return (size_t *)(void *)((char *)base + off);
-}
-
-/* Edit distance with adjacent transpositions (optimal string alignment), case-insensitive,
- * capped: enough to suggest a key name. A swapped pair ("stpe" for "step") costs 1, as the
- * commonest typo should; plain Levenshtein counts it 2. */
-static int distance(const char *a, const char *b)
-{
-    size_t la = strlen(a), lb = strlen(b), i, j;
-    int rows[3][64], *back2, *back, *row, *t;
-    if (la >= 63 || lb >= 63)
-        return 99;
-    back2 = rows[0];
-    back = rows[1];
-    row = rows[2];
-    for (j = 0; j <= lb; j++)
-        back[j] = (int)j;
-    for (i = 1; i <= la; i++) {
-        int ai = tolower((unsigned char)a[i - 1]);
-        row[0] = (int)i;
-        for (j = 1; j <= lb; j++) {
-            int bj = tolower((unsigned char)b[j - 1]);
-            int best = back[j - 1] + (ai != bj);
-            if (back[j] + 1 < best)
-                best = back[j] + 1;
-            if (row[j - 1] + 1 < best)
-                best = row[j - 1] + 1;
-            if (i > 1 && j > 1 && ai == tolower((unsigned char)b[j - 2]) &&
-                tolower((unsigned char)a[i - 2]) == bj && back2[j - 2] + 1 < best)
-                best = back2[j - 2] + 1;
-            row[j] = best;
-        }
-        t = back2;
-        back2 = back;
-        back = row;
-        row = t;
-    }
-    return back[lb];
-}
-
-/* "did you mean" for `word` among `names`; writes into hint (empty when nothing is close). */
-static void suggest(const char *word, const char *const *names, size_t n, char *hint,
-                    size_t size)
-{
-    size_t i, best = n;
-    int bestd = 99, limit = strlen(word) <= 4 ? 1 : 2;
-    for (i = 0; i < n; i++) {
-        int dd = distance(word, names[i]);
-        if (dd < bestd) {
-            bestd = dd;
-            best = i;
-        }
-    }
-    hint[0] = '\0';
-    if (best < n && bestd <= limit)
-        snprintf(hint, size, "did you mean '%s'?", names[best]);
 }
 
 static void key_list(const section *sec, char *out, size_t size)
@@ -682,7 +629,7 @@ static void read_value(reader *r, const key *k, const tp_doc_node *n, void *base
                 return;
             }
         }
-        suggest(n->text, mode_names, N(mode_names), hint, sizeof hint);
+        tp_diag_suggest(n->text, mode_names, N(mode_names), hint, sizeof hint);
         tp_diag_error(r->d, tp_doc_loc(n), path,
                       hint[0] ? hint : "modes are off, full, on-off and pid",
                       "unknown mode '%s'", n->text);
@@ -724,7 +671,7 @@ static void read_section(reader *r, const section *sec, const tp_doc_node *map, 
             /* Past the errors that are shown, a hint would only cost time (a file of 90,000
              * unknown keys spent most of its seconds in edit distances). */
             if (r->d->errors < TP_DIAG_SHOW_MAX)
-                suggest(kn->text, names, m, hint, sizeof hint);
+                tp_diag_suggest(kn->text, names, m, hint, sizeof hint);
             if (!hint[0] && r->d->errors < TP_DIAG_SHOW_MAX) {
                 key_list(sec, list, sizeof list);
                 snprintf(hint, sizeof hint, "keys here: %s", list);
@@ -874,12 +821,45 @@ static tp_loc key_loc(const tp_doc *doc, const char *path)
 }
 
 #define TP_ROOM_MIN 223.15 /* K, -50 degC: colder rooms are typos ("5 K" for 5 degC) */
+#define TP_SETPOINT_MIN 200.0 /* K, -73 degC: colder setpoints are typos ("60 K" for 60 degC) */
 #define TP_ZERO_CELSIUS 273.15 /* K at 0 degC */
+
+/* A setpoint below TP_SETPOINT_MIN, refused before anything is assembled (the convection
+ * correlations would otherwise be evaluated at it and warn first, issue 15 item 11). When the
+ * value was written in kelvin, the hint offers the same number in degC. */
+static void check_setpoint(reader *r, const tp_doc *doc, const tp_desc *c)
+{
+    const tp_doc_node *n;
+    char hint[160];
+    const char *unit = NULL;
+    if (!c->control.present || !tp_isset(c->control.setpoint) ||
+        c->control.setpoint >= TP_SETPOINT_MIN)
+        return;
+    n = tp_doc_find(doc, "control.setpoint");
+    if (n && n->text) {
+        char *end;
+        (void)strtod(n->text, &end);
+        while (*end == ' ')
+            end++;
+        unit = end;
+    }
+    if (unit && strcmp(unit, "K") == 0)
+        snprintf(hint, sizeof hint, "did you mean %.6g degC? A temperature in K is absolute "
+                 "(0 degC is 273.15 K)", c->control.setpoint);
+    else
+        snprintf(hint, sizeof hint, "tepid models heating: a setpoint is above the room, "
+                 "e.g. 60 degC");
+    tp_diag_error(r->d, key_loc(doc, "control.setpoint"), "control.setpoint", hint,
+                  "%.6g K (%.2f degC) is implausibly low for a setpoint (limit %.0f K, %.2f "
+                  "degC)", c->control.setpoint, c->control.setpoint - TP_ZERO_CELSIUS,
+                  TP_SETPOINT_MIN, TP_SETPOINT_MIN - TP_ZERO_CELSIUS);
+}
 
 /* Limits that involve two keys, checked with the defaults in place and before anything is
  * allocated for the run (docs/limits.md); and the lower plausibility bound of the room. */
 static void check_run_size(reader *r, const tp_doc *doc, const tp_desc *c)
 {
+    check_setpoint(r, doc, c);
     if (c->form == TP_FORM_PHYSICAL && c->room.temperature < TP_ROOM_MIN)
         tp_diag_error(r->d, key_loc(doc, "room.temperature"), "room.temperature",
                       "a room is between about -40 and 120 degC",
@@ -898,6 +878,42 @@ static void check_run_size(reader *r, const tp_doc *doc, const tp_desc *c)
                       "seconds) or shorten run.duration",
                       "%.3g controller samples (run.duration / control.period) exceed the "
                       "limit of %.0f", c->run.duration / c->control.period, TP_MAX_TICKS);
+}
+
+/* Keys the chosen mode does not use: the PID keys outside pid, band outside on-off. They are
+ * read and kept (a file switched between modes keeps its values) but do nothing, so say so
+ * (issue 15 item 12). */
+static void check_mode_keys(reader *r, const tp_doc *doc, const tp_desc *c)
+{
+    static const char *const pid_keys[] = {"kp", "ki", "kd", "derivative_filter",
+                                           "duty_levels"};
+    size_t i;
+    char path[64];
+    if (!c->control.present)
+        return;
+    if (c->control.mode != TP_MODE_PID)
+        for (i = 0; i < N(pid_keys); i++) {
+            snprintf(path, sizeof path, "control.%s", pid_keys[i]);
+            if (tp_doc_find(doc, path))
+                tp_diag_warn(r->d, key_loc(doc, path), path,
+                             "it applies to mode pid only; remove it or set mode: pid",
+                             "has no effect in mode %s", tp_mode_name(c->control.mode));
+        }
+    if (c->control.mode != TP_MODE_ONOFF && tp_doc_find(doc, "control.band"))
+        tp_diag_warn(r->d, key_loc(doc, "control.band"), "control.band",
+                     "it applies to mode on-off only; remove it or set mode: on-off",
+                     "has no effect in mode %s", tp_mode_name(c->control.mode));
+}
+
+tp_status tp_config_check_gains(const tp_doc *doc, const tp_desc *desc, tp_diag *d)
+{
+    const tp_control_spec *c = &desc->control;
+    if (!c->present || c->mode != TP_MODE_PID || c->kp > 0 || c->ki > 0)
+        return TP_OK;
+    tp_diag_error(d, key_loc(doc, "control"), "control.kp",
+                  "give kp (and usually ki), e.g. kp: 0.05 1/K, ki: 0.001 1/(K.s); "
+                  "'tepid tune' suggests gains", "mode pid needs gains");
+    return TP_ERR_CONFIG;
 }
 
 tp_status tp_config_read(const tp_doc *doc, tp_desc *desc, tp_diag *d)
@@ -926,6 +942,7 @@ tp_status tp_config_read(const tp_doc *doc, tp_desc *desc, tp_diag *d)
     }
     apply_defaults(desc);
     check_run_size(&r, doc, desc);
+    check_mode_keys(&r, doc, desc);
     if (d->errors != errors0) {
         tp_desc_clear(desc);
         return TP_ERR_CONFIG;
@@ -1121,14 +1138,46 @@ static int resolve_path(const section *sec, void *base, const char *path, double
     return -1;
 }
 
-tp_status tp_config_key_dim(const tp_desc *desc, const char *path, tp_dim *dim, tp_diag *d)
+/* The hint for a path that names no number: a built-in material's property cannot be varied
+ * in place (the table is shared and read-only), so say how to make it the config's own. */
+static void key_hint(const tp_desc *desc, const char *path, char *hint, size_t size)
+{
+    char id[TP_ID_MAX];
+    const char *dot;
+    const tp_material_spec *m;
+    const tp_material_spec *table;
+    size_t n, i;
+    tp_diag quiet;
+    snprintf(hint, size, "give the dotted path of a number in the config, e.g. heater.power, "
+             "bed.layers.plate.contact, sensor.coupling or losses.convection_scale");
+    if (strncmp(path, "materials.", 10) != 0)
+        return;
+    dot = strchr(path + 10, '.');
+    if (!dot || (size_t)(dot - path - 10) >= sizeof id)
+        return;
+    memcpy(id, path + 10, (size_t)(dot - path - 10));
+    id[dot - path - 10] = '\0';
+    for (i = 0; i < desc->n_materials; i++)
+        if (strcmp(desc->materials[i].id, id) == 0)
+            return; /* the config's own material: the property is what is wrong */
+    tp_diag_init(&quiet, NULL);
+    if (tp_materials_builtin(&table, &n, &quiet) != TP_OK || !(m = tp_materials_find(desc, id)))
+        return;
+    snprintf(hint, size, "'%s' is a built-in material, which cannot be varied or fitted in "
+             "place: copy its entry into the config's materials: under the same id (its values "
+             "and source: 'tepid materials --sources', docs/materials.md); then --vary, --spread "
+             "and --free accept its %s", m->id, dot + 1);
+}
+
+tp_status tp_config_key_dim(const tp_desc *desc, const char *path, const char *opt, tp_dim *dim,
+                            tp_diag *d)
 {
     double *where;
     const key *k;
     if (resolve_path(&top_sec, (void *)(uintptr_t)desc, path, &where, &k) != 0) {
-        tp_diag_error(d, tp_loc_none(), path,
-                      "give the dotted path of a number in the config, e.g. heater.power or "
-                      "bed.layers.plate.contact",
+        char hint[512];
+        key_hint(desc, path, hint, sizeof hint);
+        tp_diag_error(d, opt ? (tp_loc){opt, 1, 1} : tp_loc_none(), path, hint,
                       "not a numeric key of this config");
         return TP_ERR_CONFIG;
     }

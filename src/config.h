@@ -18,11 +18,18 @@
                                         (30 days at 1 s fits) */
 #define TP_MAX_TICKS 10000000.0      /* controller samples in one run, run.duration /
                                         control.period */
+#define TP_MAX_DURATION (30 * 86400.0) /* s, longest model run: run.duration, or the span of a
+                                          measured log that fit reproduces */
 #define TP_GRID_SIDE_MAX 500    /* cells along one side of bed.grid */
 
 /* Read the description from a parsed document. Every problem is reported to `d`; on error
  * returns TP_ERR_CONFIG and *desc is cleared (nothing to free). Defaults are applied. */
 tp_status tp_config_read(const tp_doc *doc, tp_desc *desc, tp_diag *d);
+
+/* A pid controller without gains (kp and ki both 0) is an error for every verb that runs the
+ * closed loop; tune, which identifies the plant in open loop, does not ask (tp_session_open_plant).
+ * TP_OK or TP_ERR_CONFIG with a message naming control.kp. */
+tp_status tp_config_check_gains(const tp_doc *doc, const tp_desc *desc, tp_diag *d);
 
 /* Load a file, apply the overrides ("key.path=value", n_sets of them) and read it. On success
  * the caller owns *doc and *desc (tp_doc_destroy, tp_desc_clear). */
@@ -40,8 +47,11 @@ void tp_desc_clear(tp_desc *desc);
 tp_status tp_desc_copy(tp_desc *dst, const tp_desc *src);
 
 /* The dimension of the numeric key at `path` (e.g. "heater.power", "bed.layers.plate.contact",
- * "bed.size.0"). Returns TP_ERR_CONFIG with a message in `d` when the path names no number. */
-tp_status tp_config_key_dim(const tp_desc *desc, const char *path, tp_dim *dim, tp_diag *d);
+ * "bed.size.0"). Returns TP_ERR_CONFIG with a message in `d` when the path names no number, at
+ * the option `opt` that gave the path (e.g. "--vary"; NULL: no position), with a hint (for a
+ * built-in material's property: copy the material into materials: first). */
+tp_status tp_config_key_dim(const tp_desc *desc, const char *path, const char *opt, tp_dim *dim,
+                            tp_diag *d);
 
 /* Read or set the numeric key at `path` in SI units (same paths as tp_config_key_dim). */
 tp_status tp_config_get(const tp_desc *desc, const char *path, double *si);

@@ -1,6 +1,7 @@
 /* Diagnostics: formatting of errors and warnings, kept in a log and printed to a stream. */
 #include "diag.h"
 
+#include <ctype.h>
 #include <stdarg.h>
 #include <string.h>
 
@@ -93,4 +94,64 @@ void tp_diag_note(tp_diag *d, const char *fmt, ...)
     va_end(ap);
     snprintf(line, sizeof line, "tepid: %s\n", body);
     append(d, line, 1);
+}
+
+/* Edit distance with adjacent transpositions (optimal string alignment), case-insensitive,
+ * capped: enough to suggest a key name. A swapped pair ("stpe" for "step") costs 1, as the
+ * commonest typo should; plain Levenshtein counts it 2. */
+static int distance(const char *a, const char *b)
+{
+    size_t la = strlen(a), lb = strlen(b), i, j;
+    int rows[3][64], *back2, *back, *row, *t;
+    if (la >= 63 || lb >= 63)
+        return 99;
+    back2 = rows[0];
+    back = rows[1];
+    row = rows[2];
+    for (j = 0; j <= lb; j++)
+        back[j] = (int)j;
+    for (i = 1; i <= la; i++) {
+        int ai = tolower((unsigned char)a[i - 1]);
+        row[0] = (int)i;
+        for (j = 1; j <= lb; j++) {
+            int bj = tolower((unsigned char)b[j - 1]);
+            int best = back[j - 1] + (ai != bj);
+            if (back[j] + 1 < best)
+                best = back[j] + 1;
+            if (row[j - 1] + 1 < best)
+                best = row[j - 1] + 1;
+            if (i > 1 && j > 1 && ai == tolower((unsigned char)b[j - 2]) &&
+                tolower((unsigned char)a[i - 2]) == bj && back2[j - 2] + 1 < best)
+                best = back2[j - 2] + 1;
+            row[j] = best;
+        }
+        t = back2;
+        back2 = back;
+        back = row;
+        row = t;
+    }
+    return back[lb];
+}
+
+int tp_diag_closest(const char *word, const char *const *names, size_t n)
+{
+    size_t i, best = n;
+    int bestd = 99, limit = strlen(word) <= 4 ? 1 : 2;
+    for (i = 0; i < n; i++) {
+        int dd = distance(word, names[i]);
+        if (dd < bestd) {
+            bestd = dd;
+            best = i;
+        }
+    }
+    return best < n && bestd <= limit ? (int)best : -1;
+}
+
+void tp_diag_suggest(const char *word, const char *const *names, size_t n, char *hint,
+                     size_t size)
+{
+    int best = tp_diag_closest(word, names, n);
+    hint[0] = '\0';
+    if (best >= 0)
+        snprintf(hint, size, "did you mean '%s'?", names[best]);
 }

@@ -45,4 +45,14 @@ void tp_diag_note(tp_diag *d, const char *fmt, ...) __attribute__((format(printf
 /* A location with no file position. */
 tp_loc tp_loc_none(void);
 
+/* The index of the name in `names` closest to `word` (edit distance, case-insensitive, a
+ * swapped pair counting 1), or -1 when none is within 1 edit (words of up to 4 characters) or
+ * 2 edits (longer words). */
+int tp_diag_closest(const char *word, const char *const *names, size_t n);
+
+/* "did you mean 'NAME'?" for the tp_diag_closest name into `hint`; empty when nothing is close.
+ * Used for config keys, modes, verbs and options. */
+void tp_diag_suggest(const char *word, const char *const *names, size_t n, char *hint,
+                     size_t size);
+
 #endif

@@ -331,6 +331,24 @@ static int on_alias(builder *b, const yaml_event_t *ev)
     return -1;
 }
 
+/* A "\0" escape in a quoted string puts a NUL inside the scalar: the C strings downstream would
+ * silently end there ("0.7 mm\0 km" read as 0.7 mm; issue 15 item 26). Reported, nonzero. */
+static int has_nul(builder *b, const yaml_event_t *ev)
+{
+    const unsigned char *v = ev->data.scalar.value;
+    const unsigned char *nul = memchr(v, '\0', ev->data.scalar.length), *c;
+    size_t chars = 0;
+    if (!nul)
+        return 0;
+    for (c = v; c < nul; c++)
+        chars += (*c & 0xC0) != 0x80; /* UTF-8 characters, not bytes */
+    tp_diag_error(b->d, mark_loc(b, &ev->start_mark), NULL,
+                  "remove the \\0 escape: keys and values are text without NUL characters",
+                  "the string has a NUL character (\\0) after its first %zu character%s", chars,
+                  chars == 1 ? "" : "s");
+    return 1;
+}
+
 static int on_event(builder *b, const yaml_event_t *ev)
 {
     tp_doc_node *n;
@@ -352,6 +370,8 @@ static int on_event(builder *b, const yaml_event_t *ev)
     case YAML_ALIAS_EVENT:
         return on_alias(b, ev);
     case YAML_SCALAR_EVENT:
+        if (has_nul(b, ev))
+            return -1;
         n = node_new(b, TP_DOC_SCALAR, &ev->start_mark, &ev->end_mark);
         if (!n)
             return -1;
@@ -647,34 +667,55 @@ tp_status tp_doc_set(tp_doc *doc, const char *assignment, tp_diag *d)
     tp_doc_node *value = NULL, *n;
     int line = ++doc->n_sets;
     tp_loc loc = {"--set", line, 1};
-    size_t plen;
+    const char *name, *text;
+    size_t plen, tlen;
 
     if (!eq || eq == assignment) {
         tp_diag_error(d, loc, NULL, "write --set key.path=value, e.g. --set heater.power=200W",
                       "'%s' is not an assignment", assignment);
         return TP_ERR_USAGE;
     }
-    plen = (size_t)(eq - assignment);
+    /* Blanks around the key and the value are not part of them: --set 'key = 70 degC' is
+     * --set key=70degC (issue 15 item 9). */
+    name = assignment;
+    while (*name == ' ' || *name == '\t')
+        name++;
+    plen = (size_t)(eq - name);
+    while (plen > 0 && (name[plen - 1] == ' ' || name[plen - 1] == '\t'))
+        plen--;
+    if (plen == 0) {
+        tp_diag_error(d, loc, NULL, "write --set key.path=value, e.g. --set heater.power=200W",
+                      "'%s' is not an assignment", assignment);
+        return TP_ERR_USAGE;
+    }
     if (plen >= sizeof path) {
         tp_diag_error(d, loc, NULL, NULL, "key path too long");
         return TP_ERR_USAGE;
     }
-    memcpy(path, assignment, plen);
+    memcpy(path, name, plen);
     path[plen] = '\0';
     if (path[0] == '.' || path[plen - 1] == '.' || strstr(path, "..")) {
-        tp_diag_error(d, loc, path, "separate keys with single dots, e.g. bed.top.emissivity",
+        tp_diag_error(d, (tp_loc){"--set", line, (int)(name - assignment) + 1}, path,
+                      "separate keys with single dots, e.g. bed.top.emissivity",
                       "empty key in the path");
         return TP_ERR_USAGE;
     }
-    if (eq[1] == '\0') {
-        tp_diag_error(d, (tp_loc){"--set", line, (int)plen + 2}, path,
+    text = eq + 1;
+    while (*text == ' ' || *text == '\t')
+        text++;
+    tlen = strlen(text);
+    while (tlen > 0 && (text[tlen - 1] == ' ' || text[tlen - 1] == '\t'))
+        tlen--;
+    if (tlen == 0) {
+        tp_diag_error(d, (tp_loc){"--set", line, (int)(eq - assignment) + 2}, path,
                       "give a value after '=', e.g. --set heater.power=200W", "missing value");
         return TP_ERR_USAGE;
     }
-    if (build(doc, "--set", eq + 1, strlen(eq + 1), line - 1, (int)plen + 1, &value, d) != 0)
+    if (build(doc, "--set", text, tlen, line - 1, (int)(text - assignment), &value, d) != 0)
         return TP_ERR_USAGE;
     if (!value) {
-        tp_diag_error(d, (tp_loc){"--set", line, (int)plen + 2}, path, NULL, "missing value");
+        tp_diag_error(d, (tp_loc){"--set", line, (int)(text - assignment) + 1}, path, NULL,
+                      "missing value");
         return TP_ERR_USAGE;
     }
     mark_override(value, line);

@@ -157,7 +157,6 @@ static tp_status parse_one(char *item, const tp_desc *desc, tp_fit_param *q, tp_
 {
     char *eq = strchr(item, '='), *path = item;
     double start;
-    tp_diag quiet;
     memset(q, 0, sizeof *q);
     if (eq)
         *eq = '\0';
@@ -176,14 +175,8 @@ static tp_status parse_one(char *item, const tp_desc *desc, tp_fit_param *q, tp_
                       "run settings are numerical choices, not something a log can measure");
         return TP_ERR_USAGE;
     }
-    tp_diag_init(&quiet, NULL);
-    if (tp_config_key_dim(desc, q->path, &q->dim, &quiet) != TP_OK) {
-        tp_diag_error(d, (tp_loc){"--free", 1, 1}, q->path,
-                      "give the dotted path of a number in the config, e.g. heater.power, "
-                      "bed.layers.plate.contact, sensor.coupling, losses.convection_scale",
-                      "not a numeric key of this config");
+    if (tp_config_key_dim(desc, q->path, "--free", &q->dim, d) != TP_OK)
         return TP_ERR_USAGE;
-    }
     tp_config_get(desc, q->path, &start);
     q->start_unset = !isfinite(start);
     if (eq) {
@@ -485,6 +478,36 @@ static void evaluator_clear(evaluator *ev)
     memset(ev, 0, sizeof *ev);
 }
 
+/* The log sets the model run's length, output interval and (open loop) controller period: the
+ * limits of a run (docs/limits.md) are checked against it here, before anything is allocated,
+ * and reported at the log's last row rather than at run.step or control.period, which fit does
+ * not use (issue 15 item 25). `period` is HUGE_VAL when no controller samples. */
+static tp_status check_log_span(const tp_log *log, double step, double period, tp_diag *d)
+{
+    double span = log->t[log->n - 1];
+    tp_loc at = {log->name, log->line[log->n - 1], 1};
+    const char *hint = "fit the warm-up and some holding (minutes to hours): cut the rest of the "
+                       "log (docs/limits.md)";
+    if (!(span <= TP_MAX_DURATION)) {
+        tp_diag_error(d, at, NULL, hint, "the log runs for %.6g s (%.4g days), past the limit "
+                      "of %.0f days on a model run", span, span / 86400.0,
+                      TP_MAX_DURATION / 86400.0);
+        return TP_ERR_LIMIT;
+    }
+    if (!(span / step + 1.0 <= TP_MAX_OUTPUT_ROWS)) {
+        tp_diag_error(d, at, NULL, hint, "the log runs for %.6g s: %.3g model outputs at %g s "
+                      "(its median row interval, at most %g s) exceed the limit of %.0f", span,
+                      span / step + 1.0, step, TP_FIT_STEP_MAX, TP_MAX_OUTPUT_ROWS);
+        return TP_ERR_LIMIT;
+    }
+    if (!(span / period <= TP_MAX_TICKS)) {
+        tp_diag_error(d, at, NULL, hint, "the log runs for %.6g s: %.3g controller samples at "
+                      "%g s exceed the limit of %.0f", span, span / period, period, TP_MAX_TICKS);
+        return TP_ERR_LIMIT;
+    }
+    return TP_OK;
+}
+
 /* Prepare the runs: the working description, the drive, the output grid, the sensor node.
  * The first assembly (at the starting values) reports its errors to `d`. */
 static tp_status evaluator_init(evaluator *ev, const tp_fit_problem *pb, tp_diag *d)
@@ -516,6 +539,11 @@ static tp_status evaluator_init(evaluator *ev, const tp_fit_problem *pb, tp_diag
     ev->period = dt[(log->n - 1) / 2];
     free(dt);
     ev->step = fmin(ev->period, TP_FIT_STEP_MAX);
+    st = check_log_span(log, ev->step, HUGE_VAL, d);
+    if (st != TP_OK) {
+        evaluator_clear(ev);
+        return st;
+    }
     ev->cap = (long)ceil(log->t[log->n - 1] / ev->step - 1e-9) + 2;
     ev->rec_t = malloc((size_t)ev->cap * sizeof *ev->rec_t);
     ev->rec_v = malloc((size_t)ev->cap * sizeof *ev->rec_v);
@@ -566,6 +594,13 @@ static tp_status evaluator_init(evaluator *ev, const tp_fit_problem *pb, tp_diag
     } else {
         ev->drive = net->has_control ? TP_FIT_BY_CONTROLLER : TP_FIT_FULL_POWER;
     }
+    if (st == TP_OK)
+        st = check_log_span(log, ev->step,
+                            ev->drive == TP_FIT_BY_DUTY || ev->drive == TP_FIT_BY_POWER
+                                ? ev->period
+                            : net->has_control ? net->control.period
+                                               : HUGE_VAL,
+                            d);
     tp_network_destroy(&net);
     if (st == TP_OK &&
         !(ev->peak = malloc((size_t)(ev->n_nodes > 0 ? ev->n_nodes : 1) * sizeof *ev->peak)))

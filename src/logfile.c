@@ -391,7 +391,9 @@ typedef struct parser {
     int icol[3]; /* column index per role; -1: none */
     double time_scale;
     int temp_kind; /* 0 C, 1 F, 2 K */
-    int duty_unit; /* 1 percent, -1 fraction, 0 decide from the values */
+    int duty_unit; /* 1 percent, -1 fraction, 2 counts of full_scale, 0 not declared */
+    double full_scale; /* duty_unit 2: the count that means full duty (e.g. 255) */
+    int drive_line, drive_colno; /* where the drive column is named, for messages */
     double power_scale;
 } parser;
 
@@ -554,9 +556,29 @@ static tp_status analyse_header(parser *p, const tp_log_opts *o, int line, tp_lo
     k = p->icol[ROLE_DRIVE];
     if (k >= 0) {
         split_name(h->cell[k], ROLE_DRIVE, base, sizeof base, unit, sizeof unit, &br);
+        p->drive_line = line;
+        p->drive_colno = h->col[k];
+        if (br && (unit[0] == 'o' || unit[0] == 'O') && (unit[1] == 'f' || unit[1] == 'F') &&
+            (unit[2] == ' ' || unit[2] == '\t')) {
+            /* "pwm (of 255)": counts, with the count that means full duty. */
+            double fs;
+            if (tp_parse_double(unit + 3, &fs) != 0 || !(fs >= 1.0 && fs <= 1e9) ||
+                fs != floor(fs)) {
+                row_error(p, line, h->col[k], "write the count that means full duty, e.g. "
+                          "pwm (of 255) for an 8-bit PWM register",
+                          "'%s' in column '%s' is not a full scale of counts", unit, h->cell[k]);
+                return TP_ERR_CONFIG;
+            }
+            log->drive_kind = TP_LOG_DRIVE_DUTY;
+            p->duty_unit = 2;
+            p->full_scale = fs;
+            snprintf(log->drive_col, sizeof log->drive_col, "%s", h->cell[k]);
+            goto columns;
+        }
         u = unit[0] ? find_unit(unit, ROLE_DRIVE) : NULL;
         if (unit[0] && !u) {
-            row_error(p, line, h->col[k], "duty: %, pct or none (0..1); power: W or kW",
+            row_error(p, line, h->col[k],
+                      "duty: (%), (1) for a fraction, (of 255) for counts of 255; power: W or kW",
                       "unknown unit '%s' in column '%s'", unit, h->cell[k]);
             return TP_ERR_CONFIG;
         }
@@ -569,6 +591,7 @@ static tp_status analyse_header(parser *p, const tp_log_opts *o, int line, tp_lo
         }
         snprintf(log->drive_col, sizeof log->drive_col, "%s", h->cell[k]);
     }
+columns:
     snprintf(log->time_col, sizeof log->time_col, "%s", h->cell[p->icol[ROLE_TIME]]);
     snprintf(log->temp_col, sizeof log->temp_col, "%s", h->cell[p->icol[ROLE_TEMP]]);
     return TP_OK;
@@ -612,20 +635,37 @@ static void check_rows(parser *p, tp_log *log, int last_line)
         return;
     }
     if (log->drive_kind == TP_LOG_DRIVE_DUTY) {
+        double top;
         for (i = 0; i < log->n; i++)
             vmax = fmax(vmax, log->drive[i]);
-        log->duty_percent = p->duty_unit == 1 || (p->duty_unit == 0 && vmax > 1.0);
+        /* Values within 0..1 with no declared scale are a fraction. Above 1 they could be
+         * percent or PWM counts (0..255 counts that stay below 100 look like percent): the
+         * header must say which (issue 15 item 23). */
+        if (p->duty_unit == 0 && vmax > 1.0) {
+            char hint[320];
+            const char *c = log->drive_col;
+            snprintf(hint, sizeof hint, "declare the scale in the header: %s (%%) for percent, "
+                     "%s (of 255) for PWM counts of 255, %s (1) for a fraction (docs/fit.md)",
+                     c, c, c);
+            row_error(p, p->drive_line, p->drive_colno, hint,
+                      "the duty column '%s' has values up to %g and no declared scale: "
+                      "percent, or PWM counts?", c, vmax);
+            return;
+        }
+        log->duty_percent = p->duty_unit == 1;
+        log->duty_full_scale = p->duty_unit == 1 ? 100.0 : p->duty_unit == 2 ? p->full_scale : 1.0;
+        top = log->duty_full_scale;
         for (i = 0; i < log->n; i++) {
             double v = log->drive[i];
-            double top = log->duty_percent ? 100.0 : 1.0;
             if (v < 0.0 || v > top)
                 row_error(p, log->line[i], 0,
-                          log->duty_percent ? "duty is 0..1 or 0..100 %; rescale other ranges "
-                                              "(e.g. 0..255 PWM counts) before fitting"
-                                            : "duty as a fraction lies in 0..1",
+                          p->duty_unit == 1   ? "duty in percent lies in 0..100"
+                          : p->duty_unit == 2 ? "counts lie between 0 and the declared full "
+                                                "scale; check the header's (of N)"
+                                              : "duty as a fraction lies in 0..1",
                           "duty %g in column '%s' is outside 0..%g", v, log->drive_col, top);
-            else if (log->duty_percent)
-                log->drive[i] = v / 100.0;
+            else
+                log->drive[i] = v / top;
         }
     }
     span = log->t[log->n - 1] - log->t[0];
@@ -913,6 +953,8 @@ tp_status tp_log_load(const char *path, const tp_log_opts *opts, tp_log *log, tp
     if (st == TP_ERR_LIMIT)
         tp_diag_error(d, (tp_loc){path, 0, 0}, NULL, "thin the log or cut it to the warm-up",
                       "the log is larger than %ld bytes", TP_LOG_MAX_BYTES);
+    if (st == TP_ERR_IO)
+        return TP_ERR_CONFIG; /* an unreadable log is an input error (exit 2), as a config is */
     if (st != TP_OK)
         return st;
     st = tp_log_parse(path, buf, len, opts, log, d);

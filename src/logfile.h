@@ -23,7 +23,7 @@
 /* What the optional third column holds. */
 typedef enum tp_log_drive {
     TP_LOG_DRIVE_NONE, /* no drive column: the configured controller runs */
-    TP_LOG_DRIVE_DUTY, /* the heater's duty, 0..1 */
+    TP_LOG_DRIVE_DUTY, /* the heater's duty, 0..1 (converted from percent or counts) */
     TP_LOG_DRIVE_POWER /* the power delivered into the heater, W */
 } tp_log_drive;
 
@@ -51,6 +51,8 @@ typedef struct tp_log {
     tp_log_drive drive_kind;
     tp_log_time_format time_format;
     int duty_percent; /* the duty column was in percent (converted to 0..1) */
+    double duty_full_scale; /* what full duty was written as: 1, 100 (percent) or the
+                               declared count, e.g. 255 for "pwm (of 255)" */
     char time_col[TP_LOG_NAME_MAX];
     char temp_col[TP_LOG_NAME_MAX];
     char drive_col[TP_LOG_NAME_MAX];
@@ -67,7 +69,8 @@ tp_status tp_log_parse(const char *name, const char *text, size_t len, const tp_
                        tp_log *log, tp_diag *d);
 
 /* Read a file (at most TP_LOG_MAX_BYTES) and parse it as tp_log_parse does. An unreadable
- * file is TP_ERR_IO. */
+ * file (missing, a directory, no permission) is reported and is TP_ERR_CONFIG, an input error
+ * like an unreadable config. */
 tp_status tp_log_load(const char *path, const tp_log_opts *opts, tp_log *log, tp_diag *d);
 
 /* Free what a log owns and clear it; accepts a cleared log. */

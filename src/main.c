@@ -10,12 +10,6 @@
 #include "materials.h"
 #include "units.h"
 
-static const tp_verb *const verbs[] = {
-    &tp_verb_warmup, &tp_verb_steady, &tp_verb_budget, &tp_verb_guard, &tp_verb_fit,
-    &tp_verb_sweep, &tp_verb_tune, &tp_verb_explain, &tp_verb_check, &tp_verb_materials,
-};
-#define N_VERBS (sizeof verbs / sizeof verbs[0])
-
 static void usage(FILE *fp)
 {
     size_t i;
@@ -23,11 +17,11 @@ static void usage(FILE *fp)
           "tepid predicts how an electrically heated plate warms up, what power it needs, and\n"
           "how its protection must react, from a YAML description of the plate.\n\nverbs:\n",
           fp);
-    for (i = 0; i < N_VERBS; i++)
-        fprintf(fp, "  %-10s %s\n", verbs[i]->name, verbs[i]->summary);
-    fputs("\ncommon options: --set KEY=VALUE (repeatable), -q, --help\n"
-          "'tepid VERB --help' describes a verb. Exit status: 0 success, 1 the computation\n"
-          "failed, 2 usage or input error, 3 a --strict check failed.\n",
+    for (i = 0; i < tp_n_verbs; i++)
+        fprintf(fp, "  %-10s %s\n", tp_verbs[i]->name, tp_verbs[i]->summary);
+    fputs("\nEach verb has its own options; 'tepid help VERB' (or 'tepid VERB --help') lists\n"
+          "them. Exit status: 0 success, 1 the computation failed, 2 usage or input error,\n"
+          "3 a --strict check failed.\n",
           fp);
 }
 
@@ -47,7 +41,6 @@ static int run(int argc, char **argv)
     tp_cli cli;
     tp_diag d;
     int help = 0;
-    size_t i;
     tp_status st;
 
     if (argc < 2) {
@@ -55,24 +48,35 @@ static int run(int argc, char **argv)
         fputs("usage: tepid VERB FILE [options]; 'tepid --help' lists the verbs\n", stderr);
         return TP_EXIT_INPUT;
     }
+    tp_diag_init(&d, stderr);
     if (strcmp(argv[1], "--help") == 0 || strcmp(argv[1], "-h") == 0 ||
         strcmp(argv[1], "help") == 0) {
-        usage(stdout);
+        /* 'tepid help VERB' is that verb's help (issue 15 item 10). */
+        if (argc == 2) {
+            usage(stdout);
+            return TP_EXIT_OK;
+        }
+        if (argc > 3) {
+            tp_diag_error(&d, tp_loc_none(), NULL, NULL, "usage: tepid help [VERB]");
+            return TP_EXIT_INPUT;
+        }
+        verb = tp_verb_find(argv[2]);
+        if (!verb) {
+            tp_verb_unknown(argv[2], &d);
+            return TP_EXIT_INPUT;
+        }
+        tp_cli_help(verb, stdout);
         return TP_EXIT_OK;
     }
     if (strcmp(argv[1], "--version") == 0) {
         printf("tepid %s\n", TP_VERSION);
         return TP_EXIT_OK;
     }
-    for (i = 0; i < N_VERBS; i++)
-        if (strcmp(argv[1], verbs[i]->name) == 0)
-            verb = verbs[i];
+    verb = tp_verb_find(argv[1]);
     if (!verb) {
-        fprintf(stderr, "tepid: unknown verb '%s'\nusage: tepid VERB FILE [options]; "
-                        "'tepid --help' lists the verbs\n", argv[1]);
+        tp_verb_unknown(argv[1], &d);
         return TP_EXIT_INPUT;
     }
-    tp_diag_init(&d, stderr);
     st = tp_cli_parse(verb, argc - 2, argv + 2, &cli, &help, &d);
     if (st != TP_OK)
         return TP_EXIT_INPUT;

@@ -65,37 +65,40 @@ static const char *extension(const char *path)
     return dot;
 }
 
-tp_status tp_outfile_reserve(const char *path, char *tmp, size_t tmp_size, tp_diag *d)
+/* Create the empty temporary file for `path` (beside a symbolic link's target; in the working
+ * directory when the target is a FIFO or device) with the permissions a plain fopen would give.
+ * Returns 0, or an errno value (ENAMETOOLONG for a path that does not fit); *special tells
+ * whether the target is a FIFO or device, *shown the directory named in a message. */
+static int make_tmp(const char *path, char *tmp, size_t tmp_size, int *special,
+                    const char **shown, char *target)
 {
-    char target[TP_PATH_MAX];
     const char *ext = extension(path);
-    int fd, ok, special;
-    if (resolve_target(path, target, sizeof target) != 0 || strlen(target) >= TP_PATH_MAX - 32) {
-        tp_diag_error(d, tp_loc_none(), NULL, NULL, "output path too long: %s", path);
-        return TP_ERR_IO;
-    }
-    special = is_special(target);
-    if (special) {
+    int fd, ok;
+    *special = 0;
+    *shown = path;
+    tmp[0] = '\0';
+    if (resolve_target(path, target, TP_PATH_MAX) != 0 || strlen(target) >= TP_PATH_MAX - 32)
+        return ENAMETOOLONG;
+    *shown = target;
+    *special = is_special(target);
+    if (*special) {
         /* A device or pipe takes no rename: the writer fills a temporary file in the working
          * directory and tp_outfile_place copies it in. */
         int n = snprintf(tmp, tmp_size, ".tepid-output." TP_TMP_UNIQUE "%s", tmp_unique, ext);
         ok = n > 0 && (size_t)n < tmp_size;
+        *shown = ".";
     } else {
         ok = make_tmp_name(target, ext, tmp, tmp_size);
     }
     if (!ok) {
-        tp_diag_error(d, tp_loc_none(), NULL, NULL, "output path too long: %s", path);
-        return TP_ERR_IO;
+        tmp[0] = '\0';
+        return ENAMETOOLONG;
     }
     fd = mkstemps(tmp, (int)strlen(ext));
     if (fd < 0) {
-        tp_diag_error(d, tp_loc_none(), NULL,
-                      special ? "run tepid in a writable directory"
-                              : "check that the directory exists and is writable",
-                      "cannot create an output file beside %s: %s", special ? "." : target,
-                      strerror(errno));
+        int e = errno;
         tmp[0] = '\0';
-        return TP_ERR_IO;
+        return e;
     }
     {
         /* mkstemps creates mode 0600; give the result the permissions a plain fopen would. */
@@ -104,7 +107,61 @@ tp_status tp_outfile_reserve(const char *path, char *tmp, size_t tmp_size, tp_di
         (void)fchmod(fd, 0666 & ~mask);
     }
     close(fd);
+    return 0;
+}
+
+tp_status tp_outfile_reserve(const char *path, char *tmp, size_t tmp_size, tp_diag *d)
+{
+    char target[TP_PATH_MAX];
+    const char *shown;
+    int special;
+    int e = make_tmp(path, tmp, tmp_size, &special, &shown, target);
+    if (e == ENAMETOOLONG) {
+        tp_diag_error(d, tp_loc_none(), NULL, NULL, "output path too long: %s", path);
+        return TP_ERR_IO;
+    }
+    if (e) {
+        tp_diag_error(d, tp_loc_none(), NULL,
+                      special ? "run tepid in a writable directory"
+                              : "check that the directory exists and is writable",
+                      "cannot create an output file beside %s: %s", shown, strerror(e));
+        return TP_ERR_IO;
+    }
     return TP_OK;
+}
+
+int tp_outfile_check(const char *path, int by_name, char *why, size_t size)
+{
+    char target[TP_PATH_MAX], tmp[TP_PATH_MAX];
+    const char *shown;
+    struct stat st;
+    int special, e;
+    if (strcmp(path, "-") == 0)
+        return 0;
+    if (stat(path, &st) == 0 && S_ISDIR(st.st_mode)) {
+        snprintf(why, size, "it is a directory");
+        return -1;
+    }
+    if (!by_name && is_special(path)) {
+        /* Written in place (tp_outfile_open): no temporary file, only the device itself. */
+        if (access(path, W_OK) == 0)
+            return 0;
+        snprintf(why, size, "%s", strerror(errno));
+        return -1;
+    }
+    e = make_tmp(path, tmp, sizeof tmp, &special, &shown, target);
+    if (e == 0) {
+        unlink(tmp);
+        return 0;
+    }
+    if (e == ENAMETOOLONG)
+        snprintf(why, size, "the path is longer than %d bytes", TP_PATH_MAX - 33);
+    else if (special)
+        snprintf(why, size, "no temporary file can be made in the working directory: %s",
+                 strerror(e));
+    else
+        snprintf(why, size, "%s", strerror(e));
+    return -1;
 }
 
 /* Copy the finished temporary file into a special file (a pipe, a terminal, /dev/stdout). */

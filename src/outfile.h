@@ -34,6 +34,13 @@ void tp_outfile_abort(tp_outfile *o);
  * The empty file is created; the caller later calls tp_outfile_place or removes it. */
 tp_status tp_outfile_reserve(const char *path, char *tmp, size_t tmp_size, tp_diag *d);
 
+/* Whether an output to `path` can be created, without writing it: 0, or -1 with the reason in
+ * `why` (a directory, a missing or unwritable directory, a path too long). Makes and removes the
+ * temporary file tp_outfile_open or tp_outfile_reserve (`by_name` nonzero: writers that open files
+ * by name) would make. "-" always passes. The command-line parser calls it for every output
+ * option before a verb runs, so that no computation is thrown away for want of an output. */
+int tp_outfile_check(const char *path, int by_name, char *why, size_t size);
+
 /* Rename a reserved temporary file onto `path` (a symbolic link's target), or copy it into a
  * FIFO or device and remove it; on failure remove it and report. */
 tp_status tp_outfile_place(const char *tmp, const char *path, tp_diag *d);

@@ -8,7 +8,8 @@
 
 #define TP_MAX_SETS 128 /* --set options on one command line */
 
-static tp_status open_with(tp_session *s, const tp_cli *cli, const char *room, tp_diag *d)
+static tp_status open_with(tp_session *s, const tp_cli *cli, const char *room, int open_loop,
+                           tp_diag *d)
 {
     const char *sets[TP_MAX_SETS + 2]; /* one more to notice too many, one for --room */
     int n_sets = tp_cli_all(cli, "set", sets, TP_MAX_SETS + 1), i;
@@ -36,7 +37,10 @@ static tp_status open_with(tp_session *s, const tp_cli *cli, const char *room, t
         st = tp_doc_set(s->doc, sets[i], d);
     if (st == TP_OK)
         st = tp_config_read(s->doc, &s->desc, d);
+    if (st == TP_OK && !open_loop)
+        st = tp_config_check_gains(s->doc, &s->desc, d);
     if (st != TP_OK) {
+        tp_desc_clear(&s->desc);
         tp_doc_destroy(&s->doc);
         return st == TP_ERR_USAGE ? TP_ERR_CONFIG : st;
     }
@@ -50,12 +54,17 @@ static tp_status open_with(tp_session *s, const tp_cli *cli, const char *room, t
 
 tp_status tp_session_open(tp_session *s, const tp_cli *cli, tp_diag *d)
 {
-    return open_with(s, cli, NULL, d);
+    return open_with(s, cli, NULL, 0, d);
+}
+
+tp_status tp_session_open_plant(tp_session *s, const tp_cli *cli, tp_diag *d)
+{
+    return open_with(s, cli, NULL, 1, d);
 }
 
 tp_status tp_session_open_room(tp_session *s, const tp_cli *cli, const char *room, tp_diag *d)
 {
-    return open_with(s, cli, room, d);
+    return open_with(s, cli, room, 0, d);
 }
 
 void tp_session_close(tp_session *s)

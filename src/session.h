@@ -24,6 +24,10 @@ typedef struct tp_session {
  * released and diagnostics name the file, line, column and key. */
 tp_status tp_session_open(tp_session *s, const tp_cli *cli, tp_diag *d);
 
+/* The same for a verb that identifies the plant in open loop (tune): a pid controller without
+ * gains is accepted (tp_config_check_gains is not asked). */
+tp_status tp_session_open_plant(tp_session *s, const tp_cli *cli, tp_diag *d);
+
 /* The same with the room temperature replaced by `room` (text with a unit): room.temperature in
  * the physical form, the fixed temperature of the node `room` in the raw form. */
 tp_status tp_session_open_room(tp_session *s, const tp_cli *cli, const char *room, tp_diag *d);

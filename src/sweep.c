@@ -116,7 +116,7 @@ static tp_status parse_key(const tp_sweep_plan *plan, const tp_desc *desc, const
                       "expected a key path and '=' in '%s'", text);
         return TP_ERR_USAGE;
     }
-    if (tp_config_key_dim(desc, p->path, &p->dim, d) != TP_OK)
+    if (tp_config_key_dim(desc, p->path, opt, &p->dim, d) != TP_OK)
         return TP_ERR_USAGE;
     if (tp_config_get(desc, p->path, &p->nominal) != TP_OK || !isfinite(p->nominal)) {
         tp_diag_error(d, loc, p->path,

@@ -254,8 +254,8 @@ static void test_log_duty_fraction_percent_and_power(void **state)
     assert_true(fabs(log.drive[0] - 0.5) < 1e-12);
     tp_log_clear(&log);
     free(text);
-    /* Values above 1 without a unit are percent. */
-    text = rows12("time_s,temp_C,pwm", "0");
+    /* Percent declared in the header. */
+    text = rows12("time_s,temp_C,pwm (%)", "0");
     replace_first(&text, "0,20.0,0", "0,20.0,75");
     assert_int_equal(parse(text, NULL, &log, &d), TP_OK);
     assert_true(log.duty_percent);
@@ -271,15 +271,58 @@ static void test_log_duty_fraction_percent_and_power(void **state)
     free(text);
 }
 
-static void test_log_duty_above_hundred_rejected(void **state)
+/* Issue 15 item 23: a duty logged as PWM counts (0..255) whose values stay at or below 100 was
+ * read as percent. Values above 1 need a declared scale; counts declare their full scale. */
+static void test_log_duty_scale_must_be_declared(void **state)
 {
     tp_log log;
     tp_diag d;
-    char *text = rows12("time_s,temp_C,duty", "0");
+    char *text = rows12("time_s,temp_C,pwm", "0");
     (void)state;
+    /* 87 counts of 255: no scale declared, ambiguous: refused at the column's name (line 1,
+     * column 15: "time_s,temp_C," is 14 characters). */
+    replace_first(&text, "0,20.0,0", "0,20.0,87");
+    assert_int_equal(parse(text, NULL, &log, &d), TP_ERR_CONFIG);
+    assert_says(&d, "log.csv:1:15: the duty column 'pwm' has values up to 87 and no declared "
+                    "scale: percent, or PWM counts?");
+    assert_says(&d, "pwm (of 255)");
+    free(text);
+    /* 255 (above 100) is no clearer. */
+    text = rows12("time_s,temp_C,duty", "0");
     replace_first(&text, "0,20.0,0", "0,20.0,255");
     assert_int_equal(parse(text, NULL, &log, &d), TP_ERR_CONFIG);
-    assert_says(&d, "log.csv:2:1: duty 255 in column 'duty' is outside 0..100");
+    assert_says(&d, "log.csv:1:15: the duty column 'duty' has values up to 255");
+    free(text);
+    /* Declared: 87 counts of 255 is 87/255 = 0.341176 (hand calculation), 255 is full duty. */
+    text = rows12("time_s,temp_C,pwm (of 255)", "0");
+    replace_first(&text, "0,20.0,0", "0,20.0,87");
+    replace_first(&text, "1,21.0,0", "1,21.0,255");
+    assert_int_equal(parse(text, NULL, &log, &d), TP_OK);
+    assert_int_equal(log.drive_kind, TP_LOG_DRIVE_DUTY);
+    assert_false(log.duty_percent);
+    assert_true(fabs(log.drive[0] - 87.0 / 255.0) < 1e-12);
+    assert_true(fabs(log.drive[1] - 1.0) < 1e-12);
+    assert_true(log.duty_full_scale == 255.0);
+    tp_log_clear(&log);
+    free(text);
+    /* Square brackets, another full scale (a 10-bit register); a count above it is an error at
+     * its row. */
+    text = rows12("time_s,temp_C,duty [of 1023]", "0");
+    replace_first(&text, "0,20.0,0", "0,20.0,1024");
+    assert_int_equal(parse(text, NULL, &log, &d), TP_ERR_CONFIG);
+    assert_says(&d, "log.csv:2:1: duty 1024 in column 'duty [of 1023]' is outside 0..1023");
+    free(text);
+    /* A full scale that is not a whole count. */
+    text = rows12("time_s,temp_C,pwm (of 25.5)", "0");
+    assert_int_equal(parse(text, NULL, &log, &d), TP_ERR_CONFIG);
+    assert_says(&d, "log.csv:1:15: 'of 25.5' in column 'pwm (of 25.5)' is not a full scale of "
+                    "counts");
+    free(text);
+    /* Percent declared, above 100. */
+    text = rows12("time_s,temp_C,duty_%", "0");
+    replace_first(&text, "0,20.0,0", "0,20.0,101");
+    assert_int_equal(parse(text, NULL, &log, &d), TP_ERR_CONFIG);
+    assert_says(&d, "log.csv:2:1: duty 101 in column 'duty_%' is outside 0..100");
     free(text);
 }
 
@@ -397,14 +440,18 @@ static void test_log_drive_is_held_between_rows(void **state)
     tp_log_clear(&log);
 }
 
+/* An unreadable log is an input error, as an unreadable config is (exit 2; issue 15 item 24). */
 static void test_log_load_missing_file(void **state)
 {
     tp_log log;
     tp_diag d;
     (void)state;
     tp_diag_init(&d, NULL);
-    assert_int_equal(tp_log_load("/nonexistent/log.csv", NULL, &log, &d), TP_ERR_IO);
+    assert_int_equal(tp_log_load("/nonexistent/log.csv", NULL, &log, &d), TP_ERR_CONFIG);
     assert_says(&d, "/nonexistent/log.csv: cannot open");
+    tp_diag_init(&d, NULL);
+    assert_int_equal(tp_log_load("/", NULL, &log, &d), TP_ERR_CONFIG);
+    assert_says(&d, "/: cannot read");
 }
 
 int main(void)
@@ -422,7 +469,7 @@ int main(void)
         cmocka_unit_test(test_log_iso_timestamps_with_offsets),
         cmocka_unit_test(test_log_bad_iso_date_rejected),
         cmocka_unit_test(test_log_duty_fraction_percent_and_power),
-        cmocka_unit_test(test_log_duty_above_hundred_rejected),
+        cmocka_unit_test(test_log_duty_scale_must_be_declared),
         cmocka_unit_test(test_log_column_options_and_errors),
         cmocka_unit_test(test_log_comments_crlf_bom_and_minutes),
         cmocka_unit_test(test_log_short_row_and_empty_and_binary),

@@ -1,9 +1,9 @@
 /* Tests of output files: the atomic writer (src/outfile.c) directly, and the tepid binary end
  * to end: a failed run leaves an existing output byte for byte, a write that fails half way
  * (file-size limit) leaves no temporary file, an output is never written onto the input, --csv -
- * writes to standard output, an unwritable directory gives a clear message and exit 1, and no
- * cell of an output is NaN or empty; an output through a symbolic link or into a FIFO keeps the
- * link or the FIFO. */
+ * writes to standard output, an unwritable directory gives a clear message and exit 2 before
+ * anything is computed, and no cell of an output is NaN or empty; an output through a symbolic
+ * link or into a FIFO keeps the link or the FIFO. */
 #include <stdarg.h>
 #include <stddef.h>
 #include <stdint.h>
@@ -375,8 +375,9 @@ static int nobody_can_run(const char *path)
     return waitpid(pid, &status, 0) == pid && WIFEXITED(status) && WEXITSTATUS(status) == 0;
 }
 
-/* An output directory tepid may not write to: exit 1, a message naming the path and the
- * reason, and no file (temporary or final) in it. Run as 'nobody' when the test runs as root,
+/* An output directory tepid may not write to: exit 2 (refused when the command line is read, before
+ * anything is computed), a message naming the option, the path and the reason, and no file
+ * (temporary or final) in it. Run as 'nobody' when the test runs as root,
  * since root writes anywhere. */
 static void test_outfile_unwritable_directory(void **state)
 {
@@ -396,10 +397,11 @@ static void test_outfile_unwritable_directory(void **state)
         print_message("skipped: 'nobody' cannot reach %s\n", TP_TEPID_EXE);
         skip();
     }
-    assert_int_equal(run_tepid(casedir, argv, &ro, &out, &err), 1);
-    assert_non_null(strstr(err, "cannot create an output file beside locked/out.csv"));
+    assert_int_equal(run_tepid(casedir, argv, &ro, &out, &err), 2);
+    assert_non_null(strstr(err, "--csv: cannot create locked/out.csv"));
     assert_non_null(strstr(err, "Permission denied"));
-    assert_non_null(strstr(err, "check that the directory exists and is writable"));
+    assert_non_null(strstr(err, "check that the directory exists and is writable; nothing was "
+                            "computed"));
     assert_int_equal(count_entries(locked), 0);
     assert_int_equal(chmod(locked, 0755), 0);
     free(out);

@@ -351,9 +351,10 @@ static void test_plot_png_and_failures(void **state)
     tp_scratch_path(sc, "run.png", path, sizeof path);
     assert_int_equal(tp_run_status(sc, plot_args), 0);
     assert_true(has_prefix(path, png, 8));
-    /* A plot into a directory that does not exist fails (exit 1) and leaves nothing. */
+    /* A plot into a directory that does not exist is refused before the run (exit 2, issue 15
+     * item 6) and leaves nothing. */
     tp_scratch_path(sc, "missing/run.png", path, sizeof path);
-    assert_int_equal(tp_run_status(sc, plot_args), 1);
+    assert_int_equal(tp_run_status(sc, plot_args), 2);
     assert_int_not_equal(stat(path, &sb), 0);
     /* An unknown format is a usage error (exit 2) and writes nothing, not even the CSV. */
     tp_scratch_path(sc, "run.bmp", path, sizeof path);
