@@ -178,11 +178,4 @@ void tp_guard_evaluate(tp_guard_study *st, const tp_guard_settings *s);
 /* Name of a threshold as in configs ("rise_window"). */
 const char *tp_guard_setting_name(int which);
 
-/* Build the network of `desc` with an extra conduction link of conductance 0 from the sensor
- * node to the air (the enclosure air, else the room or the first fixed node), so that a
- * detached sensor can be given its loss. *link gets its index. Diagnostics of assembly go to
- * `d`. */
-tp_status tp_guard_network(const tp_desc *desc, const tp_doc *doc, tp_diag *d, tp_network **out,
-                           int *link);
-
 #endif

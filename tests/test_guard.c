@@ -281,6 +281,109 @@ static void test_detached_sensor_caught_before_the_limit(void **state)
     tp_scratch_destroy(&sc);
 }
 
+/* ---- gridded plates ------------------------------------------------------------------------- */
+
+/* A key of a JSON object as a number, failing the test when it is missing. */
+static double json_number(const cJSON *obj, const char *key)
+{
+    const cJSON *it = cJSON_GetObjectItem(obj, key);
+    if (!cJSON_IsNumber(it))
+        fail_msg("no number '%s' in the JSON output", key);
+    return it->valuedouble;
+}
+
+static void test_guard_runs_on_a_gridded_plate(void **state)
+{
+    /* Guard once crashed on every gridded plate (its hand-made copy of the network lost the
+     * grid). On a 3 x 3 grid its stuck-on equilibrium must be `steady`'s full-power state of
+     * the same grid (the heater's cells at full power, the sensor read on its cell): both solve
+     * one network, so they agree to the solver's tolerance, 1e-6 K. */
+    tp_scratch sc;
+    char gj[TP_TEST_PATH], sj[TP_TEST_PATH];
+    cJSON *g, *s, *gn, *it;
+    int count = 0, detached = 0;
+    (void)state;
+    tp_scratch_create(&sc);
+    tp_scratch_path(&sc, "grid-guard.json", gj, sizeof gj);
+    tp_scratch_path(&sc, "grid-steady.json", sj, sizeof sj);
+    {
+        const char *args[] = {"guard", HOT_PLATE, "--set", "bed.grid=[3, 3]", "--json", gj,
+                              "-q",    NULL};
+        assert_int_equal(tp_run_status(&sc, args), 0);
+    }
+    {
+        const char *args[] = {"steady", HOT_PLATE, "--set", "bed.grid=[3, 3]", "--set",
+                              "control.mode=full", "--json", sj, "-q", NULL};
+        assert_int_equal(tp_run_status(&sc, args), 0);
+    }
+    g = tp_read_json(gj);
+    s = tp_read_json(sj);
+    gn = cJSON_GetObjectItem(cJSON_GetObjectItem(g, "stuck_on"), "nodes_C");
+    assert_non_null(gn);
+    cJSON_ArrayForEach(it, cJSON_GetObjectItem(s, "nodes_C")) {
+        tp_check_abs(it->string, json_number(gn, it->string), it->valuedouble, 1e-6);
+        count++;
+    }
+    assert_true(count >= 3 * 9); /* three layers of nine cells at least */
+    /* The sensor is a node of its own on its cell: detaching it applies, from both starts,
+     * and the recommended checks catch it before the laminate passes 150 degC, as on the
+     * lumped plate (test_detached_sensor_caught_before_the_limit). */
+    cJSON_ArrayForEach(it, cJSON_GetObjectItem(g, "faults")) {
+        if (strcmp(cJSON_GetObjectItem(it, "fault")->valuestring, "sensor-detached") != 0)
+            continue;
+        assert_true(cJSON_IsTrue(cJSON_GetObjectItem(it, "applicable")));
+        if (cJSON_IsNumber(cJSON_GetObjectItem(it, "limit_crossed_s")))
+            assert_true(json_number(it, "first_detection_s") <
+                        json_number(it, "limit_crossed_s"));
+        detached++;
+    }
+    assert_int_equal(detached, 2);
+    cJSON_Delete(g);
+    cJSON_Delete(s);
+    tp_scratch_destroy(&sc);
+}
+
+static void test_a_cold_sheet_dips_a_gridded_plate(void **state)
+{
+    /* The 24 V demo lays a cold 150 J/K sheet on the plate during hold. On a gridded plate it
+     * lands on the top cells (in proportion to their area) and takes their heat, so the
+     * reading dips. Hand calculation: the sheet at room temperature (20 degC) takes
+     * 150 J/K x 70 K = 10.5 kJ from a plate at 90 degC; shared with the pad, plate, magnet and
+     * sheet layers (87 + 793 + 123 + 115 = 1118 J/K, `tepid explain` of the demo) that is
+     * 10.5 kJ / (1118 + 150) J/K = 8.3 K before the heater answers. A dip of more than 2 K is a
+     * loose lower bound. A negligible sheet (1 mJ/K) takes nothing; what remains is the gust,
+     * which the PID holds closely, so the two dips differ by more than 2 K. Before the fix the
+     * sheet did nothing on a grid (and guard crashed first). */
+    tp_scratch sc;
+    char path[TP_TEST_PATH];
+    double dip, dip_none;
+    cJSON *g;
+    (void)state;
+    tp_scratch_create(&sc);
+    tp_scratch_path(&sc, "sheet.json", path, sizeof path);
+    {
+        const char *args[] = {"guard", TP_SOURCE_DIR "/configs/workshop-bed-24v.yaml", "--set",
+                              "bed.grid=[3, 3]", "--json", path, "-q", NULL};
+        assert_int_equal(tp_run_status(&sc, args), 0);
+    }
+    g = tp_read_json(path);
+    dip = json_number(cJSON_GetArrayItem(cJSON_GetObjectItem(g, "corners"), 0), "deepest_dip_K");
+    cJSON_Delete(g);
+    {
+        const char *args[] = {"guard", TP_SOURCE_DIR "/configs/workshop-bed-24v.yaml", "--set",
+                              "bed.grid=[3, 3]", "--set", "guard.sheet.capacity=0.001 J/K",
+                              "--json", path, "-q", NULL};
+        assert_int_equal(tp_run_status(&sc, args), 0);
+    }
+    g = tp_read_json(path);
+    dip_none = json_number(cJSON_GetArrayItem(cJSON_GetObjectItem(g, "corners"), 0),
+                           "deepest_dip_K");
+    cJSON_Delete(g);
+    assert_true(dip > 2.0);
+    assert_true(dip > dip_none + 2.0);
+    tp_scratch_destroy(&sc);
+}
+
 /* ---- healthy corners re-simulated with the checks ------------------------------------------- */
 
 typedef struct series {
@@ -372,6 +475,8 @@ int main(void)
         cmocka_unit_test(test_stuck_on_equilibrium_equals_steady),
         cmocka_unit_test(test_detached_sensor_caught_before_the_limit),
         cmocka_unit_test(test_healthy_corners_never_trip_recommended_settings),
+        cmocka_unit_test(test_guard_runs_on_a_gridded_plate),
+        cmocka_unit_test(test_a_cold_sheet_dips_a_gridded_plate),
     };
     return cmocka_run_group_tests(tests, NULL, teardown);
 }
