@@ -841,74 +841,129 @@ static void corner_name(tp_guard_corner *c, const factor *f)
                  c->airflow);
 }
 
-/* The nominal values and the ranges' ends; errors for ranges the form cannot vary. */
-static tp_status factors(ctx *cx, const tp_network *net, factor *f, tp_guard_corner *nominal)
+static const char *const range_names[TP_RANGE_COUNT] = {"supply", "resistance", "room",
+                                                        "airflow"};
+
+const char *tp_guard_range_name(int which)
 {
-    const tp_desc *desc = cx->st->desc;
+    return which >= 0 && which < TP_RANGE_COUNT ? range_names[which] : "?";
+}
+
+/* A range declared as [low, high] in guard:, else NULL. */
+static const double *declared_pair(const tp_guard_spec *g, int which)
+{
+    const double *p = which == TP_RANGE_SUPPLY ? g->supply
+                      : which == TP_RANGE_ROOM ? g->room
+                      : which == TP_RANGE_AIRFLOW ? g->airflow : NULL;
+    return p && tp_isset(p[0]) && tp_isset(p[1]) ? p : NULL;
+}
+
+tp_status tp_guard_ranges_resolve(const tp_desc *desc, const tp_network *net, tp_guard_ranges *rr,
+                                  tp_diag *d)
+{
     const tp_guard_spec *g = &desc->guard;
-    const tp_net_source *src = &net->sources[net->control.source];
+    const tp_net_source *src = net->has_control ? &net->sources[net->control.source] : NULL;
+    int electric = src && src->kind == TP_SRC_ELECTRIC;
     int physical = desc->form == TP_FORM_PHYSICAL, k, bad = 0;
-    double room0 = TP_UNSET;
+    double room0 = physical ? desc->room.temperature : TP_UNSET;
     size_t i;
-    static const char *const names[4] = {"guard.supply", "guard.resistance", "guard.room",
-                                         "guard.airflow"};
-    const double *pairs[4] = {g->supply, NULL, g->room, g->airflow};
-    if (physical)
-        room0 = desc->room.temperature;
     for (i = 0; !physical && i < desc->network.n_nodes && !tp_isset(room0); i++)
         if (tp_isset(desc->network.nodes[i].fixed))
             room0 = desc->network.nodes[i].fixed;
-    nominal->nominal = 1;
-    nominal->supply = src->kind == TP_SRC_ELECTRIC ? src->supply : TP_UNSET;
-    nominal->resistance = src->kind == TP_SRC_ELECTRIC ? src->r0 : TP_UNSET;
-    nominal->room = room0;
-    nominal->airflow = physical ? desc->room.airflow : TP_UNSET;
-    for (k = 0; k < 4; k++) {
-        f[k].name = names[k];
-        f[k].n = 1;
-        if (k == 1) {
-            if (g->resistance > 0) {
-                f[k].n = 2;
-                f[k].level[0] = nominal->resistance * (1.0 - g->resistance);
-                f[k].level[1] = nominal->resistance * (1.0 + g->resistance);
-            }
-        } else if (tp_isset(pairs[k][0]) && tp_isset(pairs[k][1])) {
-            if (pairs[k][1] < pairs[k][0]) {
-                tp_diag_error(cx->d, tp_loc_none(), names[k], "write [low, high]",
-                              "the range is reversed");
+    memset(rr, 0, sizeof *rr);
+    rr->r[TP_RANGE_SUPPLY].nominal = electric ? src->supply : TP_UNSET;
+    rr->r[TP_RANGE_RESISTANCE].nominal = electric ? src->r0 : TP_UNSET;
+    rr->r[TP_RANGE_ROOM].nominal = room0;
+    rr->r[TP_RANGE_AIRFLOW].nominal = physical ? desc->room.airflow : TP_UNSET;
+    for (k = 0; k < TP_RANGE_COUNT; k++) {
+        tp_guard_range *r = &rr->r[k];
+        const double *pair = declared_pair(g, k);
+        char key[32];
+        snprintf(key, sizeof key, "guard.%s", range_names[k]);
+        r->tolerance = TP_UNSET;
+        r->lo = r->hi = r->nominal;
+        if (pair) {
+            r->origin = TP_RANGE_DECLARED;
+            r->lo = pair[0];
+            r->hi = pair[1];
+            if (pair[1] < pair[0]) {
+                tp_diag_error(d, tp_loc_none(), key, "write [low, high]", "the range is reversed");
                 bad = 1;
             }
-            f[k].n = pairs[k][1] > pairs[k][0] ? 2 : 1;
-            f[k].level[0] = pairs[k][0];
-            f[k].level[1] = pairs[k][1];
+        } else if (k == TP_RANGE_RESISTANCE && tp_isset(g->resistance)) {
+            r->origin = TP_RANGE_DECLARED;
+            r->tolerance = g->resistance;
+        } else if (k == TP_RANGE_SUPPLY && electric) {
+            r->origin = TP_RANGE_DEFAULT;
+            r->lo = r->nominal * (1.0 - TP_GUARD_DEFAULT_SUPPLY);
+            r->hi = r->nominal * (1.0 + TP_GUARD_DEFAULT_SUPPLY);
+        } else if (k == TP_RANGE_RESISTANCE && electric) {
+            r->origin = TP_RANGE_DEFAULT;
+            r->tolerance = TP_GUARD_DEFAULT_RESISTANCE;
+        } else if (k == TP_RANGE_ROOM && tp_isset(room0)) {
+            r->origin = TP_RANGE_DEFAULT;
+            r->lo = fmin(TP_GUARD_DEFAULT_ROOM_LOW, room0);
+            r->hi = fmax(TP_GUARD_DEFAULT_ROOM_HIGH, room0);
         }
+        if (k == TP_RANGE_RESISTANCE && tp_isset(r->tolerance) && electric) {
+            r->lo = r->nominal * (1.0 - r->tolerance);
+            r->hi = r->nominal * (1.0 + r->tolerance);
+        }
+        if (r->origin == TP_RANGE_DEFAULT)
+            rr->n_default++;
     }
-    if ((f[0].n == 2 || f[1].n == 2) && src->kind != TP_SRC_ELECTRIC) {
-        tp_diag_error(cx->d, tp_loc_none(), f[0].n == 2 ? names[0] : names[1],
-                      "give the heater a supply and a resistance, or drop the range",
-                      "the controlled heater has a fixed power: no supply or resistance to vary");
-        bad = 1;
-    }
-    if (!physical && (f[3].n == 2 || g->gust.present || g->sheet.present)) {
-        tp_diag_error(cx->d, tp_loc_none(),
-                      f[3].n == 2 ? names[3] : g->gust.present ? "guard.gust" : "guard.sheet",
+    for (k = TP_RANGE_SUPPLY; k <= TP_RANGE_RESISTANCE; k++)
+        if (!electric && rr->r[k].origin == TP_RANGE_DECLARED &&
+            (k == TP_RANGE_SUPPLY || rr->r[k].tolerance > 0)) {
+            tp_diag_error(d, tp_loc_none(),
+                          k == TP_RANGE_SUPPLY ? "guard.supply" : "guard.resistance",
+                          "give the heater a supply and a resistance, or drop the range",
+                          "the controlled heater has a fixed power: no supply or resistance to "
+                          "vary");
+            bad = 1;
+            break;
+        }
+    if (!physical && rr->r[TP_RANGE_AIRFLOW].origin == TP_RANGE_DECLARED) {
+        tp_diag_error(d, tp_loc_none(), "guard.airflow",
                       "airflow, gusts and sheets need the physical form (bed:, room:)",
                       "not available in the raw network form");
         bad = 1;
     }
-    {
-        const double nom[4] = {nominal->supply, nominal->resistance, nominal->room,
-                               nominal->airflow};
-        for (k = 0; k < 4; k++)
-            if (f[k].n == 1 && !(k != 1 && tp_isset(pairs[k][0]) && tp_isset(pairs[k][1])))
-                f[k].level[0] = f[k].level[1] = nom[k];
-    }
-    if (f[2].n == 2 && !tp_isset(room0)) {
-        tp_diag_error(cx->d, tp_loc_none(), names[2], "add a fixed node (the room)",
+    if (rr->r[TP_RANGE_ROOM].origin == TP_RANGE_DECLARED && !tp_isset(room0)) {
+        tp_diag_error(d, tp_loc_none(), "guard.room", "add a fixed node (the room)",
                       "the network has no room temperature to vary");
         bad = 1;
     }
     return bad ? TP_ERR_CONFIG : TP_OK;
+}
+
+/* The nominal corner and the factors (the ranges' ends) of the study's ranges; errors for
+ * disturbances the form cannot apply. */
+static tp_status factors(ctx *cx, factor *f, tp_guard_corner *nominal)
+{
+    const tp_desc *desc = cx->st->desc;
+    const tp_guard_spec *g = &desc->guard;
+    const tp_guard_ranges *rr = &cx->st->ranges;
+    int k;
+    nominal->nominal = 1;
+    nominal->supply = rr->r[TP_RANGE_SUPPLY].nominal;
+    nominal->resistance = rr->r[TP_RANGE_RESISTANCE].nominal;
+    nominal->room = rr->r[TP_RANGE_ROOM].nominal;
+    nominal->airflow = rr->r[TP_RANGE_AIRFLOW].nominal;
+    for (k = 0; k < TP_RANGE_COUNT; k++) {
+        const tp_guard_range *r = &rr->r[k];
+        f[k].name = range_names[k];
+        f[k].n = r->origin != TP_RANGE_NONE && r->hi > r->lo ? 2 : 1;
+        f[k].level[0] = r->lo;
+        f[k].level[1] = r->hi;
+    }
+    if (desc->form != TP_FORM_PHYSICAL && (g->gust.present || g->sheet.present)) {
+        tp_diag_error(cx->d, tp_loc_none(), g->gust.present ? "guard.gust" : "guard.sheet",
+                      "airflow, gusts and sheets need the physical form (bed:, room:)",
+                      "not available in the raw network form");
+        return TP_ERR_CONFIG;
+    }
+    return TP_OK;
 }
 
 /* ---- recommendation ----------------------------------------------------------------------- */
@@ -1348,7 +1403,9 @@ tp_status tp_guard_study_run(const tp_desc *desc, const tp_doc *doc,
         st->pin_low = TP_GUARD_PIN_LOW;
     }
     setup_layers(st);
-    rs = factors(&cx, net, f, &nominal);
+    rs = tp_guard_ranges_resolve(desc, net, &st->ranges, d);
+    if (rs == TP_OK)
+        rs = factors(&cx, f, &nominal);
     if (rs != TP_OK)
         goto done;
     /* Nominal first, then every combination of the ends (factors with one level fixed). */
