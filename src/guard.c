@@ -19,6 +19,7 @@
 #include "config.h"
 #include "integrate.h"
 #include "materials.h"
+#include "plate.h"
 #include "report.h"
 
 #define TP_GUARD_TIME_EPS 1.0e-6 /* s: sample times closer than this are the same time */
@@ -580,10 +581,9 @@ static tp_status run_hold(ctx *cx, const tp_desc *cd, tp_network *net, tp_guard_
             tp_network *next = NULL;
             rs = tp_network_copy(net, chg, due, &next);
             if (rs != TP_OK) {
-                tp_diag_error(cx->d, tp_loc_none(), due == 1 && g->gust.present &&
-                                                            chg[0].kind == TP_CHANGE_TOP_AIRFLOW
-                                                        ? "guard.gust"
-                                                        : "guard.sheet",
+                const char *key = chg[due - 1].kind == TP_CHANGE_TOP_AIRFLOW ? "guard.gust"
+                                                                               : "guard.sheet";
+                tp_diag_error(cx->d, tp_plate_at(cx->doc, key), key,
                               "drop it, or use the physical form with a top layer",
                               "the disturbance cannot be applied to this plate");
                 break;
@@ -858,8 +858,8 @@ static const double *declared_pair(const tp_guard_spec *g, int which)
     return p && tp_isset(p[0]) && tp_isset(p[1]) ? p : NULL;
 }
 
-tp_status tp_guard_ranges_resolve(const tp_desc *desc, const tp_network *net, tp_guard_ranges *rr,
-                                  tp_diag *d)
+tp_status tp_guard_ranges_resolve(const tp_desc *desc, const tp_doc *doc, const tp_network *net,
+                                  tp_guard_ranges *rr, tp_diag *d)
 {
     const tp_guard_spec *g = &desc->guard;
     const tp_net_source *src = net->has_control ? &net->sources[net->control.source] : NULL;
@@ -887,7 +887,8 @@ tp_status tp_guard_ranges_resolve(const tp_desc *desc, const tp_network *net, tp
             r->lo = pair[0];
             r->hi = pair[1];
             if (pair[1] < pair[0]) {
-                tp_diag_error(d, tp_loc_none(), key, "write [low, high]", "the range is reversed");
+                tp_diag_error(d, tp_plate_at(doc, key), key, "write [low, high]",
+                              "the range is reversed");
                 bad = 1;
             }
         } else if (k == TP_RANGE_RESISTANCE && tp_isset(g->resistance)) {
@@ -915,8 +916,8 @@ tp_status tp_guard_ranges_resolve(const tp_desc *desc, const tp_network *net, tp
     for (k = TP_RANGE_SUPPLY; k <= TP_RANGE_RESISTANCE; k++)
         if (!electric && rr->r[k].origin == TP_RANGE_DECLARED &&
             (k == TP_RANGE_SUPPLY || rr->r[k].tolerance > 0)) {
-            tp_diag_error(d, tp_loc_none(),
-                          k == TP_RANGE_SUPPLY ? "guard.supply" : "guard.resistance",
+            const char *key = k == TP_RANGE_SUPPLY ? "guard.supply" : "guard.resistance";
+            tp_diag_error(d, tp_plate_at(doc, key), key,
                           "give the heater a supply and a resistance, or drop the range",
                           "the controlled heater has a fixed power: no supply or resistance to "
                           "vary");
@@ -924,13 +925,13 @@ tp_status tp_guard_ranges_resolve(const tp_desc *desc, const tp_network *net, tp
             break;
         }
     if (!physical && rr->r[TP_RANGE_AIRFLOW].origin == TP_RANGE_DECLARED) {
-        tp_diag_error(d, tp_loc_none(), "guard.airflow",
+        tp_diag_error(d, tp_plate_at(doc, "guard.airflow"), "guard.airflow",
                       "airflow, gusts and sheets need the physical form (bed:, room:)",
                       "not available in the raw network form");
         bad = 1;
     }
     if (rr->r[TP_RANGE_ROOM].origin == TP_RANGE_DECLARED && !tp_isset(room0)) {
-        tp_diag_error(d, tp_loc_none(), "guard.room", "add a fixed node (the room)",
+        tp_diag_error(d, tp_plate_at(doc, "guard.room"), "guard.room", "add a fixed node (the room)",
                       "the network has no room temperature to vary");
         bad = 1;
     }
@@ -958,7 +959,8 @@ static tp_status factors(ctx *cx, factor *f, tp_guard_corner *nominal)
         f[k].level[1] = r->hi;
     }
     if (desc->form != TP_FORM_PHYSICAL && (g->gust.present || g->sheet.present)) {
-        tp_diag_error(cx->d, tp_loc_none(), g->gust.present ? "guard.gust" : "guard.sheet",
+        const char *key = g->gust.present ? "guard.gust" : "guard.sheet";
+        tp_diag_error(cx->d, tp_plate_at(cx->doc, key), key,
                       "airflow, gusts and sheets need the physical form (bed:, room:)",
                       "not available in the raw network form");
         return TP_ERR_CONFIG;
@@ -1330,17 +1332,25 @@ static double resolution(const tp_reading_model *m, double setpoint)
     return c0 != c1 ? 2.0 / fabs((double)(c0 - c1)) : 2.0;
 }
 
-static tp_status check_control(const tp_desc *desc, const tp_network *net, tp_diag *d)
+static tp_status check_control(const tp_desc *desc, const tp_doc *doc, const tp_network *net,
+                                tp_diag *d)
 {
     if (!net->has_control || !isfinite(net->control.setpoint) ||
         (net->control.mode != TP_MODE_ONOFF && net->control.mode != TP_MODE_PID)) {
-        tp_diag_error(d, tp_loc_none(), "control",
-                      "add control: {mode: pid, setpoint: ...} or mode on-off",
-                      "guard judges a controller holding a setpoint");
+        if (net->has_control)
+            tp_diag_error(d, tp_plate_at(doc, "control.mode"), "control.mode",
+                          "use mode pid or on-off with a setpoint",
+                          "guard judges a controller holding a setpoint; mode '%s' holds none",
+                          tp_mode_name(net->control.mode));
+        else
+            tp_diag_error(d, tp_plate_at(doc, "control"), "control",
+                          "add control: {mode: pid, setpoint: ...} or mode on-off",
+                          "guard judges a controller holding a setpoint; the file has none");
         return TP_ERR_CONFIG;
     }
     if (desc->guard.time_factor < 1.0) {
-        tp_diag_error(d, tp_loc_none(), "guard.time_factor", "use 1 or more, e.g. 1.5",
+        tp_diag_error(d, tp_plate_at(doc, "guard.time_factor"), "guard.time_factor",
+                      "use 1 or more, e.g. 1.5",
                       "a safety factor on healthy durations below 1 gives no margin");
         return TP_ERR_CONFIG;
     }
@@ -1374,7 +1384,7 @@ tp_status tp_guard_study_run(const tp_desc *desc, const tp_doc *doc,
     rs = build(&cx, desc, "nominal case", &net);
     if (rs != TP_OK)
         return rs;
-    rs = check_control(desc, net, d);
+    rs = check_control(desc, doc, net, d);
     if (rs != TP_OK)
         goto done;
     st->setpoint = net->control.setpoint;
@@ -1403,7 +1413,7 @@ tp_status tp_guard_study_run(const tp_desc *desc, const tp_doc *doc,
         st->pin_low = TP_GUARD_PIN_LOW;
     }
     setup_layers(st);
-    rs = tp_guard_ranges_resolve(desc, net, &st->ranges, d);
+    rs = tp_guard_ranges_resolve(desc, doc, net, &st->ranges, d);
     if (rs == TP_OK)
         rs = factors(&cx, f, &nominal);
     if (rs != TP_OK)

@@ -66,9 +66,9 @@ typedef struct tp_guard_ranges {
  * (the raw form's room is its first fixed node); airflow only when declared. The one place
  * that decides guard's ranges and their defaults. A declared range that cannot apply (reversed,
  * a supply for a fixed-power heater, airflow in the raw form, a room without a fixed node) is
- * an error reported to `d` (TP_ERR_CONFIG). */
-tp_status tp_guard_ranges_resolve(const tp_desc *desc, const tp_network *net, tp_guard_ranges *r,
-                                  tp_diag *d);
+ * an error reported to `d` (TP_ERR_CONFIG), at its position in `doc` (may be NULL). */
+tp_status tp_guard_ranges_resolve(const tp_desc *desc, const tp_doc *doc, const tp_network *net,
+                                  tp_guard_ranges *r, tp_diag *d);
 
 /* The range's name as in `guard:` ("supply", "resistance", "room", "airflow"). */
 const char *tp_guard_range_name(int which);
