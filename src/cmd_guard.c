@@ -554,7 +554,7 @@ static tp_status write_plot(const char *path, const tp_session *s, const tp_guar
     tp_plot_panel panels[3];
     tp_plot_hline lines[4];
     tp_plot_chart chart;
-    char title[256], labels[2][TP_FAULT_COUNT][96];
+    char title[256], labels[TP_FAULT_COUNT][96];
     int pick[TP_GUARD_PLOT_HEALTHY] = {0, 0, 0}, np = 1, nh = 0, nl = 0, c, f, from;
     size_t nf[2] = {0, 0}, total = 0, off = 0;
     double *buf, lo, hi, room = st->corners[0].room - TP_KELVIN_0C;
@@ -595,19 +595,27 @@ static tp_status write_plot(const char *path, const tp_session *s, const tp_guar
                                          buf + off + (size_t)tr->n, (size_t)tr->n, c, 0, 0};
         off += 2 * (size_t)tr->n;
     }
+    /* A fault has one label in both panels, so that it keeps its colour (the chart gives a
+     * label one colour): "(clipped)" when either of its runs is. */
     for (f = 0; f < TP_FAULT_COUNT; f++) {
+        int clipped = 0;
+        size_t at[2] = {off, off};
         for (from = 0; from < 2; from++) {
             const tp_guard_trace *tr = &st->faults[f][from].trace;
-            int clipped;
+            at[from] = off;
             if (tr->n == 0)
                 continue;
-            clipped = series_of(tr, lo, hi, buf + off, buf + off + (size_t)tr->n);
-            snprintf(labels[from][f], sizeof labels[0][0], "%s%s", tp_guard_fault_phrase(f),
-                     clipped ? " (clipped)" : "");
-            faults[from][nf[from]++] = (tp_plot_series){labels[from][f], buf + off,
-                                                        buf + off + (size_t)tr->n,
-                                                        (size_t)tr->n, 0, 0, 0};
+            clipped |= series_of(tr, lo, hi, buf + off, buf + off + (size_t)tr->n);
             off += 2 * (size_t)tr->n;
+        }
+        snprintf(labels[f], sizeof labels[0], "%s%s", tp_guard_fault_phrase(f),
+                 clipped ? " (clipped)" : "");
+        for (from = 0; from < 2; from++) {
+            const tp_guard_trace *tr = &st->faults[f][from].trace;
+            if (tr->n > 0)
+                faults[from][nf[from]++] =
+                    (tp_plot_series){labels[f], buf + at[from], buf + at[from] + (size_t)tr->n,
+                                     (size_t)tr->n, 0, 0, 0};
         }
     }
     lines[nl++] = (tp_plot_hline){"setpoint", st->setpoint - TP_KELVIN_0C};
