@@ -121,6 +121,53 @@ static void fmt_temp(double t, char *buf, size_t size)
         snprintf(buf, size, "-");
 }
 
+static const char *const origin_names[] = {"none", "declared", "default"};
+
+/* One range for the summary: "supply 22.8 to 25.2 V (declared)". */
+static void fmt_range(const tp_guard_study *st, int k, char *buf, size_t size)
+{
+    const tp_guard_range *r = &st->ranges.r[k];
+    const char *name = k == TP_RANGE_RESISTANCE ? "heater resistance" : tp_guard_range_name(k);
+    double off = k == TP_RANGE_ROOM ? TP_KELVIN_0C : 0.0;
+    const char *unit = k == TP_RANGE_SUPPLY ? "V" : k == TP_RANGE_RESISTANCE ? "ohm"
+                       : k == TP_RANGE_ROOM ? "degC" : "m/s";
+    char tol[32] = "";
+    if (r->origin == TP_RANGE_NONE || !(r->hi > r->lo)) {
+        snprintf(buf, size, "%s not varied", name);
+        return;
+    }
+    if (k == TP_RANGE_RESISTANCE)
+        snprintf(tol, sizeof tol, "+-%.3g %%, ", 100.0 * r->tolerance);
+    else if (k == TP_RANGE_SUPPLY && r->origin == TP_RANGE_DEFAULT)
+        snprintf(tol, sizeof tol, "+-%.3g %%, ", 100.0 * TP_GUARD_DEFAULT_SUPPLY);
+    snprintf(buf, size, "%s %.4g to %.4g %s (%s%s)", name, r->lo - off, r->hi - off, unit, tol,
+             origin_names[r->origin]);
+}
+
+/* The healthy ranges and, when defaults stand in for some, a line that says so. */
+static void print_ranges(FILE *fp, const tp_guard_study *st)
+{
+    char buf[128];
+    int k, n = 0;
+    fprintf(fp, "  healthy ranges:");
+    for (k = 0; k < TP_RANGE_COUNT; k++) {
+        fmt_range(st, k, buf, sizeof buf);
+        fprintf(fp, "%s %s", k ? "," : "", buf);
+    }
+    fputc('\n', fp);
+    if (st->ranges.n_default > 0) {
+        fprintf(fp, "  ! guard: declares no range for");
+        for (k = 0; k < TP_RANGE_COUNT; k++)
+            if (st->ranges.r[k].origin == TP_RANGE_DEFAULT)
+                fprintf(fp, "%s %s", n++ ? "," : "", tp_guard_range_name(k));
+        fprintf(fp, ": the defaults (common practice, no source) stand in; declare your "
+                    "machine's tolerances (docs/guard.md)\n");
+    }
+    if (st->n_corners == 1)
+        fprintf(fp, "  ! no healthy range at all: the thresholds come from the nominal run alone "
+                    "and are not robust\n");
+}
+
 static void print_settings(FILE *fp, const tp_guard_study *st, int evaluating)
 {
     const tp_guard_spec *g = &st->desc->guard;
@@ -286,11 +333,13 @@ static void summary(FILE *fp, const tp_session *s, const tp_guard_study *st, int
             s->desc.title);
     tp_report_network(fp, s->net);
     fprintf(fp, "  %d healthy run%s (nominal%s), %d faults from the cold start and from hold, "
-                "followed %.0f min; reading step near the setpoint %.3f K\n\n",
+                "followed %.0f min; reading step near the setpoint %.3f K\n",
             st->n_corners, st->n_corners == 1 ? "" : "s",
             st->n_corners > 1 ? " and every combination of the ranges' ends" : " only",
             TP_FAULT_COUNT,
             st->horizon / 60.0, st->resolution);
+    print_ranges(fp, st);
+    fputc('\n', fp);
     print_settings(fp, st, evaluating);
     print_corners(fp, st);
     print_faults(fp, st);
@@ -355,6 +404,26 @@ static tp_status write_json(const char *path, const tp_session *s, const tp_guar
     tp_json_number(root, "detached_loss_W_per_K", st->detached_loss);
     tp_json_number(root, "pinned_high_C", st->pin_high - TP_KELVIN_0C);
     tp_json_number(root, "pinned_low_C", st->pin_low - TP_KELVIN_0C);
+    o = cJSON_AddObjectToObject(root, "ranges");
+    for (k = 0; o && k < TP_RANGE_COUNT; k++) {
+        static const char *const keys[TP_RANGE_COUNT] = {"supply_V", "resistance_ohm", "room_C",
+                                                         "airflow_m_per_s"};
+        const tp_guard_range *r = &st->ranges.r[k];
+        double off = k == TP_RANGE_ROOM ? TP_KELVIN_0C : 0.0;
+        cJSON *ro = cJSON_AddObjectToObject(o, keys[k]);
+        if (!ro)
+            break;
+        tp_json_number(ro, "low", r->lo - off);
+        tp_json_number(ro, "high", r->hi - off);
+        tp_json_number(ro, "nominal", r->nominal - off);
+        if (k == TP_RANGE_RESISTANCE)
+            tp_json_number(ro, "tolerance", r->tolerance);
+        cJSON_AddStringToObject(ro, "origin", origin_names[r->origin]);
+    }
+    arr = cJSON_AddArrayToObject(root, "default_ranges");
+    for (k = 0; arr && k < TP_RANGE_COUNT; k++)
+        if (st->ranges.r[k].origin == TP_RANGE_DEFAULT)
+            cJSON_AddItemToArray(arr, cJSON_CreateString(tp_guard_range_name(k)));
     put_settings(root, "recommended", &st->rec);
     tp_json_number(root, "rise_min_unrounded_K", st->rise_min_raw);
     o = cJSON_AddObjectToObject(root, "explanations");
@@ -487,7 +556,7 @@ static tp_status write_plot(const char *path, const tp_session *s, const tp_guar
     tp_plot_panel panels[3];
     tp_plot_hline lines[4];
     tp_plot_chart chart;
-    char title[256], labels[2][TP_FAULT_COUNT][96];
+    char title[256], labels[TP_FAULT_COUNT][96];
     int pick[TP_GUARD_PLOT_HEALTHY] = {0, 0, 0}, np = 1, nh = 0, nl = 0, c, f, from;
     size_t nf[2] = {0, 0}, total = 0, off = 0;
     double *buf, lo, hi, room = st->corners[0].room - TP_KELVIN_0C;
@@ -528,19 +597,27 @@ static tp_status write_plot(const char *path, const tp_session *s, const tp_guar
                                          buf + off + (size_t)tr->n, (size_t)tr->n, c, 0, 0};
         off += 2 * (size_t)tr->n;
     }
+    /* A fault has one label in both panels, so that it keeps its colour (the chart gives a
+     * label one colour): "(clipped)" when either of its runs is. */
     for (f = 0; f < TP_FAULT_COUNT; f++) {
+        int clipped = 0;
+        size_t at[2] = {off, off};
         for (from = 0; from < 2; from++) {
             const tp_guard_trace *tr = &st->faults[f][from].trace;
-            int clipped;
+            at[from] = off;
             if (tr->n == 0)
                 continue;
-            clipped = series_of(tr, lo, hi, buf + off, buf + off + (size_t)tr->n);
-            snprintf(labels[from][f], sizeof labels[0][0], "%s%s", tp_guard_fault_phrase(f),
-                     clipped ? " (clipped)" : "");
-            faults[from][nf[from]++] = (tp_plot_series){labels[from][f], buf + off,
-                                                        buf + off + (size_t)tr->n,
-                                                        (size_t)tr->n, 0, 0, 0};
+            clipped |= series_of(tr, lo, hi, buf + off, buf + off + (size_t)tr->n);
             off += 2 * (size_t)tr->n;
+        }
+        snprintf(labels[f], sizeof labels[0], "%s%s", tp_guard_fault_phrase(f),
+                 clipped ? " (clipped)" : "");
+        for (from = 0; from < 2; from++) {
+            const tp_guard_trace *tr = &st->faults[f][from].trace;
+            if (tr->n > 0)
+                faults[from][nf[from]++] =
+                    (tp_plot_series){labels[f], buf + at[from], buf + at[from] + (size_t)tr->n,
+                                     (size_t)tr->n, 0, 0, 0};
         }
     }
     lines[nl++] = (tp_plot_hline){"setpoint", st->setpoint - TP_KELVIN_0C};
@@ -619,9 +696,10 @@ const tp_verb tp_verb_guard = {
     "guard", run_guard,
     "Protection thresholds from worst-case healthy runs, tested against injected faults.", 1,
     guard_opts,
-    "Runs every corner of guard: (supply, resistance tolerance, room, airflow; the ends of each\n"
-    "range and the nominal case) through the warm-up and a hold with the disturbances given,\n"
-    "then injects six faults from the cold start and from the holding state. Recommends the\n"
+    "Runs every corner of the healthy ranges (guard: supply, resistance tolerance, room,\n"
+    "airflow; a range not declared takes its default, supply and resistance +-5 %, room 15 to\n"
+    "30 degC, and the summary says so) through the warm-up and a hold with the disturbances\n"
+    "given, then injects six faults from the cold start and from the holding state. Recommends the\n"
     "rise check (rise_window, rise_min, approach), the hold check (hold_band, hold_grace) and\n"
     "the ceiling, each explained; with --rise-window ... or guard.settings: it evaluates the\n"
     "given values instead. Definitions in docs/guard.md. The checks supplement and never\n"

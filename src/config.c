@@ -749,7 +749,6 @@ static void apply_defaults(tp_desc *c)
     set_default(&c->heater.supply_resistance, 0.0);
     set_default(&c->sensor.offset, 0.0);
     set_default(&c->bed.mounts.conductance, 0.0);
-    set_default(&c->guard.resistance, 0.0);
     set_default(&c->guard.hold, TP_GUARD_HOLD);
     set_default(&c->guard.time_factor, TP_GUARD_TIME_FACTOR);
     set_default(&c->guard.rise_factor, TP_GUARD_RISE_FACTOR);

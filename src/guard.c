@@ -19,6 +19,7 @@
 #include "config.h"
 #include "integrate.h"
 #include "materials.h"
+#include "plate.h"
 #include "report.h"
 
 #define TP_GUARD_TIME_EPS 1.0e-6 /* s: sample times closer than this are the same time */
@@ -205,79 +206,9 @@ static double *setting_ptr(tp_guard_settings *s, int which)
     }
 }
 
-/* ---- the network with a detachable sensor ------------------------------------------------- */
-
-/* A copy of a finished network with one more link; the copy is finished too. */
-static tp_status clone_with_link(const tp_network *src, int a, int b, tp_network **out,
-                                 int *link)
-{
-    tp_network *net = tp_network_create();
-    tp_net_link *l;
-    tp_status st = TP_OK;
-    int i;
-    *out = NULL;
-    if (!net)
-        return TP_ERR_NOMEM;
-    for (i = 0; i < src->n_nodes && st == TP_OK; i++) {
-        int k = tp_network_add_node(net, src->nodes[i].id, src->nodes[i].capacity,
-                                    src->nodes[i].t0);
-        if (k < 0)
-            st = TP_ERR_NOMEM;
-        else
-            net->nodes[k].output = src->nodes[i].output;
-    }
-    for (i = 0; i < src->n_links && st == TP_OK; i++) {
-        l = tp_network_add_link(net, src->links[i].a, src->links[i].b, src->links[i].law);
-        if (!l)
-            st = TP_ERR_NOMEM;
-        else
-            *l = src->links[i];
-    }
-    for (i = 0; i < src->n_sources && st == TP_OK; i++) {
-        const tp_net_source *o = &src->sources[i];
-        tp_net_source *s = tp_network_add_source(net, o->id, o->nodes[0]);
-        int *nodes;
-        double *weights;
-        if (!s) {
-            st = TP_ERR_NOMEM;
-            break;
-        }
-        nodes = s->nodes;
-        weights = s->weights;
-        *s = *o;
-        s->nodes = nodes;
-        s->weights = weights;
-        s->n_nodes = 1;
-        if (o->n_nodes > 1)
-            st = tp_network_spread_source(net, s, o->nodes, o->weights, o->n_nodes);
-    }
-    if (st == TP_OK) {
-        l = tp_network_add_link(net, a, b, TP_LAW_CONDUCTION);
-        if (!l)
-            st = TP_ERR_NOMEM;
-        else {
-            l->g = 0.0;
-            l->path = net->nodes[b].capacity > 0 ? TP_PATH_INTERNAL : TP_PATH_OTHER;
-            snprintf(l->label, sizeof l->label, "%s detached to %s", src->nodes[a].id,
-                     src->nodes[b].id);
-            *link = net->n_links - 1;
-        }
-    }
-    if (st == TP_OK)
-        st = tp_network_finish(net);
-    if (st != TP_OK) {
-        tp_network_destroy(&net);
-        return st;
-    }
-    net->has_control = src->has_control;
-    net->control = src->control;
-    net->top_node = src->top_node;
-    net->top_area = src->top_area;
-    net->top_half_r = src->top_half_r;
-    net->run = src->run;
-    *out = net;
-    return TP_OK;
-}
+/* ---- the network and its variations ------------------------------------------------------- *
+ * The study assembles each corner's network once and never edits it: a fault or a disturbance
+ * runs on a copy made with the change (tp_network_copy). */
 
 /* Where a detached sensor loses its heat: the enclosure air, else the room, else the first
  * fixed node; -1 when there is none. */
@@ -295,25 +226,75 @@ static int air_node(const tp_network *net)
     return -1;
 }
 
-tp_status tp_guard_network(const tp_desc *desc, const tp_doc *doc, tp_diag *d, tp_network **out,
-                           int *link)
+/* The node of the lumped network that `node` stands for: itself, or on a gridded plate the node
+ * it was refined from (every cell of a layer stands for that layer). */
+static int lumped_of(const tp_network *net, int node)
 {
-    tp_network *base = NULL;
-    tp_status st;
-    int air;
-    *out = NULL;
-    *link = -1;
-    st = tp_assemble(desc, doc, d, &base);
-    if (st != TP_OK)
-        return st;
-    air = air_node(base);
-    if (!base->has_control || air < 0 || air == base->control.sensor) {
-        *out = base;
-        return TP_OK;
+    return net->grid && net->grid->from ? net->grid->from[node] : node;
+}
+
+/* Whether the sensor is a node of its own that can come off its host: no source heats it, there
+ * is air to lose heat to, and its links to free nodes reach one host (one node, or the cells of
+ * one layer of a gridded plate). */
+static int detachable(const tp_network *net)
+{
+    int sensor = net->control.sensor, host = -1, air = air_node(net), i, k;
+    if (air < 0 || air == sensor)
+        return 0;
+    for (i = 0; i < net->n_sources; i++)
+        for (k = 0; k < net->sources[i].n_nodes; k++)
+            if (net->sources[i].nodes[k] == sensor)
+                return 0;
+    for (i = 0; i < net->n_links; i++) {
+        const tp_net_link *l = &net->links[i];
+        int other = l->a == sensor ? l->b : l->b == sensor ? l->a : -1;
+        if (other < 0 || net->nodes[other].capacity <= 0)
+            continue;
+        if (host >= 0 && lumped_of(net, other) != host)
+            return 0;
+        host = lumped_of(net, other);
     }
-    st = clone_with_link(base, base->control.sensor, air, out, link);
-    tp_network_destroy(&base);
-    return st;
+    return host >= 0;
+}
+
+/* The network of a detached sensor: a copy of `net` in which the sensor has lost every link to
+ * the plate and keeps `loss` (W/K) to the air. */
+static tp_status detached_network(const tp_network *net, double loss, tp_network **out)
+{
+    int sensor = net->control.sensor, air = air_node(net);
+    char label[128];
+    tp_net_change ch[2];
+    snprintf(label, sizeof label, "%s detached to %s", net->nodes[sensor].id,
+             net->nodes[air].id);
+    ch[0] = (tp_net_change){TP_CHANGE_ISOLATE, sensor, -1, 0.0, NULL};
+    ch[1] = (tp_net_change){TP_CHANGE_ADD_CONDUCTION, sensor, air, loss, label};
+    return tp_network_copy(net, ch, 2, out);
+}
+
+/* A study layer on a network: its node (lumped), or its index among the layers of a gridded
+ * plate; -1 for what does not exist. */
+typedef struct layer_ref {
+    int node, grid_layer;
+} layer_ref;
+
+/* The temperature of a study layer at node temperatures `temps`: its node's, or the hottest of
+ * its cells on a gridded plate (NaN when the network has neither). */
+static double layer_temp(const tp_network *net, layer_ref ref, const double *temps)
+{
+    const tp_net_grid *g = net->grid;
+    double hot = -HUGE_VAL;
+    int c, n;
+    if (ref.node >= 0)
+        return temps[ref.node];
+    if (ref.grid_layer < 0 || !g)
+        return TP_UNSET;
+    n = g->nx * g->ny;
+    for (c = 0; c < n; c++) {
+        int node = g->cell[ref.grid_layer * n + c];
+        if (node >= 0 && temps[node] > hot)
+            hot = temps[node];
+    }
+    return isfinite(hot) ? hot : TP_UNSET;
 }
 
 /* ---- traces -------------------------------------------------------------------------------- */
@@ -366,11 +347,12 @@ static int trace_push(tp_guard_trace *tr, double t, double reading, double surfa
 typedef struct recorder {
     tp_guard_trace *tr;
     const tp_network *net;
-    const int *layer_node; /* n_layers node indices (-1: not a single node) */
-    double t0;             /* added to the run's times */
-    int skip_first;        /* drop the first sample (it repeats the previous stage's last) */
-    double stop_level;     /* stop after the first reading at or above this (NaN: never) */
-    double *y_stop;        /* the state where the run stopped */
+    const layer_ref *layers; /* n_layers */
+    double *map;             /* nx * ny scratch for the surface of a gridded plate, else NULL */
+    double t0;               /* added to the run's times */
+    double stop_level;       /* stop after the first reading at or above this (NaN: never) */
+    double end_time;         /* keep the state of the sample at this time (NaN: none) */
+    double *y_stop;          /* the state where the run stopped, or at end_time */
     int n_state;
     int stopped, failed;
 } recorder;
@@ -386,22 +368,36 @@ static double heater_temp(const tp_network *net, const double *temps)
     return hot;
 }
 
+/* The working surface: the estimate of the lumped plate, or the hottest cell of a gridded one
+ * (`map`: its nx * ny scratch). */
+static double surface_temp(const tp_network *net, const double *temps, double *map)
+{
+    const tp_net_grid *g = net->grid;
+    double hot = -HUGE_VAL;
+    int c;
+    if (!g || !map)
+        return tp_network_surface(net, temps);
+    tp_network_surface_map(net, temps, map);
+    for (c = 0; c < g->nx * g->ny; c++)
+        if (isfinite(map[c]) && map[c] > hot)
+            hot = map[c];
+    return isfinite(hot) ? hot : TP_UNSET;
+}
+
 static int record(void *user, const tp_sample *s)
 {
     recorder *rc = user;
     double layers[TP_GUARD_LAYERS_MAX];
     int k;
-    if (rc->skip_first) {
-        rc->skip_first = 0;
-        return 0;
-    }
     for (k = 0; k < rc->tr->n_layers; k++)
-        layers[k] = rc->layer_node[k] >= 0 ? s->temps[rc->layer_node[k]] : TP_UNSET;
-    if (trace_push(rc->tr, rc->t0 + s->t, s->reading, tp_network_surface(rc->net, s->temps),
+        layers[k] = layer_temp(rc->net, rc->layers[k], s->temps);
+    if (trace_push(rc->tr, rc->t0 + s->t, s->reading, surface_temp(rc->net, s->temps, rc->map),
                    heater_temp(rc->net, s->temps), s->duty, layers) != 0) {
         rc->failed = 1;
         return 1;
     }
+    if (s->t >= rc->end_time - TP_GUARD_TIME_EPS)
+        memcpy(rc->y_stop, s->y, (size_t)rc->n_state * sizeof *s->y);
     if (s->reading >= rc->stop_level) {
         memcpy(rc->y_stop, s->y, (size_t)rc->n_state * sizeof *s->y);
         rc->stopped = 1;
@@ -410,57 +406,19 @@ static int record(void *user, const tp_sample *s)
     return 0;
 }
 
-/* ---- fault and disturbance hooks ---------------------------------------------------------- */
+/* ---- fault hooks ---------------------------------------------------------------------------- */
 
 typedef struct hook_ctx {
     tp_guard_fault fault;
-    int active;          /* a fault is injected */
-    int detach_link;     /* the sensor's link to the air */
-    double detach_loss;  /* W/K */
-    double pin;          /* K, pinned reading */
+    double pin;      /* K, pinned reading */
     double max_duty;
-    /* disturbances during hold */
-    double gust_at, gust_airflow;
-    double sheet_at, sheet_capacity, sheet_temp;
 } hook_ctx;
-
-static void at_break(void *user, double t, tp_network *net, double *y)
-{
-    hook_ctx *h = user;
-    int i;
-    if (h->active && h->fault == TP_FAULT_DETACHED && t <= 0.0) {
-        int sensor = net->control.sensor;
-        for (i = 0; i < net->n_links; i++) {
-            tp_net_link *l = &net->links[i];
-            int other = l->a == sensor ? l->b : l->b == sensor ? l->a : -1;
-            if (i == h->detach_link)
-                l->g = h->detach_loss;
-            else if (other >= 0 && net->nodes[other].capacity > 0)
-                l->g = 0.0, l->h = 0.0, l->eps = 0.0, l->scale = 0.0;
-        }
-    }
-    if (isfinite(h->gust_at) && fabs(t - h->gust_at) < TP_GUARD_TIME_EPS) {
-        for (i = 0; i < net->n_links; i++)
-            if (net->links[i].path == TP_PATH_TOP_CONV && net->links[i].correlated)
-                net->links[i].conv.airflow = h->gust_airflow;
-    }
-    if (isfinite(h->sheet_at) && fabs(t - h->sheet_at) < TP_GUARD_TIME_EPS &&
-        net->top_node >= 0) {
-        tp_net_node *top = &net->nodes[net->top_node];
-        double c = top->capacity;
-        /* The sheet takes the top layer's temperature at once: energy is conserved,
-         * C T + Cs Ts = (C + Cs) T'. */
-        y[top->state] = (c * y[top->state] + h->sheet_capacity * h->sheet_temp) /
-                        (c + h->sheet_capacity);
-        top->capacity = c + h->sheet_capacity;
-    }
-}
 
 static double hook_reading(void *user, double t, double reading)
 {
     const hook_ctx *h = user;
     (void)t;
-    if (h->active && (h->fault == TP_FAULT_SENSOR_SHORT || h->fault == TP_FAULT_SENSOR_OPEN))
+    if (h->fault == TP_FAULT_SENSOR_SHORT || h->fault == TP_FAULT_SENSOR_OPEN)
         return h->pin;
     return reading;
 }
@@ -469,8 +427,6 @@ static double hook_duty(void *user, double t, double duty)
 {
     const hook_ctx *h = user;
     (void)t;
-    if (!h->active)
-        return duty;
     switch (h->fault) {
     case TP_FAULT_HEATER_OPEN:
         return 0.0;
@@ -489,7 +445,7 @@ typedef struct ctx {
     tp_guard_study *st;
     const tp_doc *doc;
     tp_diag *d;
-    int layer_node[TP_GUARD_LAYERS_MAX];
+    layer_ref layers[TP_GUARD_LAYERS_MAX];
 } ctx;
 
 /* The controller memory after ticking on readings r[0..n-1], and the gap below the setpoint at
@@ -506,21 +462,48 @@ static void replay(const tp_control *c, const double *r, long n, tp_ctrl_state *
     }
 }
 
-static void layer_nodes(const tp_guard_study *st, const tp_network *net, int *out)
+/* Where each study layer is on `net`. */
+static void layer_refs(const tp_guard_study *st, const tp_network *net, layer_ref *out)
 {
-    int k;
-    for (k = 0; k < st->n_layers; k++)
-        out[k] = tp_network_find_node(net, st->layer_id[k]);
+    int k, l;
+    for (k = 0; k < st->n_layers; k++) {
+        out[k].node = tp_network_find_node(net, st->layer_id[k]);
+        out[k].grid_layer = -1;
+        for (l = 0; net->grid && out[k].node < 0 && l < net->grid->n_layers; l++)
+            if (strcmp(net->grid->layer_id[l], st->layer_id[k]) == 0)
+                out[k].grid_layer = l;
+    }
+}
+
+/* A recorder of `tr` on `net`, with its scratch; tp_guard_trace n_layers set. Returns 0, or -1
+ * when out of memory. */
+static int recorder_init(recorder *rc, ctx *cx, const tp_network *net, tp_guard_trace *tr,
+                         double *y)
+{
+    memset(rc, 0, sizeof *rc);
+    tr->n_layers = cx->st->n_layers;
+    layer_refs(cx->st, net, cx->layers);
+    rc->tr = tr;
+    rc->net = net;
+    rc->layers = cx->layers;
+    rc->stop_level = rc->end_time = TP_UNSET;
+    rc->y_stop = y;
+    rc->n_state = tp_network_state_size(net);
+    if (net->grid) {
+        rc->map = malloc((size_t)(net->grid->nx * net->grid->ny) * sizeof *rc->map);
+        if (!rc->map)
+            return -1;
+    }
+    return 0;
 }
 
 /* Assemble quietly (corners repeat the nominal case's warnings); errors are passed on. */
-static tp_status build(ctx *cx, const tp_desc *desc, const char *what, tp_network **net,
-                       int *link)
+static tp_status build(ctx *cx, const tp_desc *desc, const char *what, tp_network **net)
 {
     tp_diag quiet;
     tp_status rc;
     tp_diag_init(&quiet, NULL);
-    rc = tp_guard_network(desc, cx->doc, &quiet, net, link);
+    rc = tp_assemble(desc, cx->doc, &quiet, net);
     if (rc != TP_OK)
         tp_diag_error(cx->d, tp_loc_none(), "guard", "narrow the ranges in guard:",
                       "the %s cannot be assembled: %s", what, quiet.log);
@@ -533,48 +516,145 @@ static void solver_error(ctx *cx, const char *what, const tp_diag *quiet)
                   "the %s failed: %s", what, quiet->log);
 }
 
+/* The first controller tick at or after `t` (s): disturbances keep the tick grid. */
+static double on_tick(double t, double period)
+{
+    return period > 0 ? ceil(t / period - 1e-9) * period : t;
+}
+
+/* The state `y` of network `from` carried to `to`, a copy with more heat capacity on some
+ * nodes: what a node gains is a body at `temp` (K) that takes the node's temperature at once,
+ * conserving energy, C T + Cs Ts = (C + Cs) T'. */
+static void add_cold_mass(const tp_network *from, const tp_network *to, double temp, double *y)
+{
+    int i;
+    for (i = 0; i < to->n_free; i++) {
+        int node = to->free_nodes[i];
+        double c = from->nodes[node].capacity, cn = to->nodes[node].capacity;
+        if (cn > c)
+            y[i] = (c * y[i] + (cn - c) * temp) / cn;
+    }
+}
+
+/* The hold of a healthy corner on `net`, from the state `y` at which the reading first reached
+ * the setpoint (the trace's last sample), for guard.hold; the disturbances split it into stages.
+ * Each stage runs on a copy of `net` with every disturbance due so far, from the first
+ * controller tick at or after its `after` time. The trace's last sample before a stage is
+ * taken again by the stage's first tick, which reads the plate as changed (the sample before
+ * the change is dropped); the controller's memory is replayed over every reading before it. */
+static tp_status run_hold(ctx *cx, const tp_desc *cd, tp_network *net, tp_guard_corner *c,
+                          double *y, recorder *rc)
+{
+    const tp_guard_study *st = cx->st;
+    const tp_guard_spec *g = &st->desc->guard;
+    tp_network *cur = net, *varied = NULL;
+    tp_net_change chg[2];
+    double when[2], t_at = 0.0, gap;
+    int ne = 0, applied = 0;
+    tp_status rs = TP_OK;
+    if (g->gust.present) {
+        when[ne] = on_tick(g->gust.after, st->period);
+        chg[ne++] = (tp_net_change){TP_CHANGE_TOP_AIRFLOW, -1, -1, g->gust.airflow, NULL};
+    }
+    if (g->sheet.present) {
+        when[ne] = on_tick(g->sheet.after, st->period);
+        chg[ne++] = (tp_net_change){TP_CHANGE_TOP_CAPACITY, -1, -1, g->sheet.capacity, NULL};
+    }
+    if (ne == 2 && when[1] < when[0]) {
+        double tw = when[0];
+        tp_net_change tc = chg[0];
+        when[0] = when[1];
+        chg[0] = chg[1];
+        when[1] = tw;
+        chg[1] = tc;
+    }
+    for (;;) {
+        tp_integrate_opts o;
+        tp_integrate_stats stats;
+        tp_ctrl_state ctrl;
+        tp_diag quiet;
+        double t_next;
+        int due = applied;
+        while (due < ne && when[due] <= t_at + TP_GUARD_TIME_EPS)
+            due++;
+        if (due > applied) {
+            tp_network *next = NULL;
+            rs = tp_network_copy(net, chg, due, &next);
+            if (rs != TP_OK) {
+                const char *key = chg[due - 1].kind == TP_CHANGE_TOP_AIRFLOW ? "guard.gust"
+                                                                               : "guard.sheet";
+                tp_diag_error(cx->d, tp_plate_at(cx->doc, key), key,
+                              "drop it, or use the physical form with a top layer",
+                              "the disturbance cannot be applied to this plate");
+                break;
+            }
+            add_cold_mass(cur, next, cd->room.temperature, y);
+            tp_network_destroy(&varied);
+            varied = next;
+            cur = varied;
+            applied = due;
+        }
+        t_next = applied < ne && when[applied] < g->hold ? when[applied] : g->hold;
+        c->trace.n--; /* taken again by this stage's first tick */
+        replay(&cur->control, c->trace.reading, c->trace.n, &ctrl, &gap);
+        tp_diag_init(&quiet, NULL);
+        tp_integrate_defaults(cur, &o);
+        o.step = st->period;
+        o.t_end = t_next - t_at;
+        o.y0 = y;
+        o.ctrl0 = &ctrl;
+        o.out = record;
+        o.user = rc;
+        rc->net = cur;
+        rc->t0 = c->t_setpoint + t_at;
+        rc->stop_level = TP_UNSET;
+        rc->end_time = o.t_end;
+        rs = tp_integrate(cur, &o, &stats, &quiet);
+        if (rs == TP_OK && rc->failed)
+            rs = TP_ERR_NOMEM;
+        if (rs != TP_OK) {
+            solver_error(cx, c->name, &quiet);
+            break;
+        }
+        if (t_next >= g->hold - TP_GUARD_TIME_EPS)
+            break;
+        t_at = t_next;
+    }
+    rc->net = net;
+    tp_network_destroy(&varied);
+    return rs;
+}
+
 /* The healthy run of one corner: from the cold start until the reading first reaches the
  * setpoint (or run.duration), then `guard.hold` more with the disturbances. */
 static tp_status run_corner(ctx *cx, const tp_desc *cd, tp_guard_corner *c)
 {
     tp_guard_study *st = cx->st;
-    const tp_guard_spec *g = &st->desc->guard;
     tp_network *net = NULL;
     tp_integrate_opts o;
     tp_integrate_stats stats;
     tp_ctrl_state ctrl;
-    tp_hooks hooks;
-    hook_ctx h;
     recorder rc;
     tp_diag quiet;
     tp_steady full;
-    double breaks[2], *y = NULL;
-    int link, nb = 0;
-    tp_status rs = build(cx, cd, "corner", &net, &link);
+    double *y = NULL;
+    tp_status rs = build(cx, cd, "corner", &net);
     if (rs != TP_OK)
         return rs;
     memset(&full, 0, sizeof full);
     tp_diag_init(&quiet, NULL);
-    c->trace.n_layers = st->n_layers;
-    layer_nodes(st, net, cx->layer_node);
     y = malloc((size_t)tp_network_state_size(net) * sizeof *y);
-    if (!y) {
+    if (!y || recorder_init(&rc, cx, net, &c->trace, y) != 0) {
         rs = TP_ERR_NOMEM;
         goto done;
     }
-    /* The stuck-on equilibrium at this corner, before any disturbance edits the network. */
+    /* The stuck-on equilibrium at this corner. */
     c->stuck_reading = c->stuck_heater = TP_UNSET;
     if (tp_steady_full(net, 1.0, &full, &quiet) == TP_OK) {
         c->stuck_reading = full.temps[net->control.sensor] + net->control.reading.offset;
         c->stuck_heater = heater_temp(net, full.temps);
     }
-    memset(&rc, 0, sizeof rc);
-    rc.tr = &c->trace;
-    rc.net = net;
-    rc.layer_node = cx->layer_node;
     rc.stop_level = st->setpoint;
-    rc.y_stop = y;
-    rc.n_state = tp_network_state_size(net);
     tp_integrate_defaults(net, &o);
     o.step = st->period;
     o.out = record;
@@ -590,45 +670,9 @@ static tp_status run_corner(ctx *cx, const tp_desc *cd, tp_guard_corner *c)
     replay(&net->control, c->trace.reading, c->trace.n - (rc.stopped ? 1 : 0), &ctrl,
            &c->backoff_gap);
     if (rc.stopped) {
-        /* Hold: continue from the stopped state with the controller's memory. */
-        memset(&h, 0, sizeof h);
-        h.gust_at = h.sheet_at = TP_UNSET;
-        if (g->gust.present) {
-            h.gust_at = g->gust.after;
-            h.gust_airflow = g->gust.airflow;
-            breaks[nb++] = g->gust.after;
-        }
-        if (g->sheet.present) {
-            h.sheet_at = g->sheet.after;
-            h.sheet_capacity = g->sheet.capacity;
-            h.sheet_temp = cd->room.temperature;
-            breaks[nb++] = g->sheet.after;
-        }
-        if (nb == 2 && breaks[1] < breaks[0]) {
-            double tmp = breaks[0];
-            breaks[0] = breaks[1];
-            breaks[1] = tmp;
-        }
-        memset(&hooks, 0, sizeof hooks);
-        hooks.user = &h;
-        hooks.breaks = breaks;
-        hooks.n_breaks = nb;
-        hooks.at_break = at_break;
-        rc.t0 = c->t_setpoint;
-        rc.skip_first = 1;
-        rc.stop_level = TP_UNSET;
-        rc.stopped = 0;
-        o.y0 = y;
-        o.ctrl0 = &ctrl;
-        o.t_end = g->hold;
-        o.hooks = &hooks;
-        rs = tp_integrate(net, &o, &stats, &quiet);
-        if (rs == TP_OK && rc.failed)
-            rs = TP_ERR_NOMEM;
-        if (rs != TP_OK) {
-            solver_error(cx, c->name, &quiet);
+        rs = run_hold(cx, cd, net, c, y, &rc);
+        if (rs != TP_OK)
             goto done;
-        }
     }
     /* Figures of the healthy run. */
     {
@@ -648,36 +692,16 @@ static tp_status run_corner(ctx *cx, const tp_desc *cd, tp_guard_corner *c)
     }
 done:
     tp_steady_clear(&full);
+    free(rc.map);
     free(y);
     tp_network_destroy(&net);
     return rs;
 }
 
-/* Whether the sensor is a node of its own that can come off its host: no source heats it and
- * its links reach one free node at most. */
-static int detachable(const tp_network *net, int link)
-{
-    int sensor = net->control.sensor, host = -1, i, k;
-    if (link < 0)
-        return 0;
-    for (i = 0; i < net->n_sources; i++)
-        for (k = 0; k < net->sources[i].n_nodes; k++)
-            if (net->sources[i].nodes[k] == sensor)
-                return 0;
-    for (i = 0; i < net->n_links; i++) {
-        const tp_net_link *l = &net->links[i];
-        int other = l->a == sensor ? l->b : l->b == sensor ? l->a : -1;
-        if (i == link || other < 0 || net->nodes[other].capacity <= 0)
-            continue;
-        if (host >= 0 && other != host)
-            return 0;
-        host = other;
-    }
-    return host >= 0;
-}
-
-/* One fault from the cold start or from the holding state, followed for the horizon. */
-static tp_status run_fault(ctx *cx, tp_guard_fault_run *fr, const tp_steady *hold)
+/* One fault from the cold start or from the holding state of the nominal network, followed for
+ * the horizon, on a copy of it (with the sensor detached for that fault). */
+static tp_status run_fault(ctx *cx, const tp_network *nominal, tp_guard_fault_run *fr,
+                           const tp_steady *hold)
 {
     tp_guard_study *st = cx->st;
     tp_network *net = NULL;
@@ -688,37 +712,28 @@ static tp_status run_fault(ctx *cx, tp_guard_fault_run *fr, const tp_steady *hol
     hook_ctx h;
     recorder rc;
     tp_diag quiet;
-    double zero = 0.0, *y = NULL;
-    int link;
+    double *y = NULL;
     char what[96];
-    tp_status rs = build(cx, st->desc, "nominal case", &net, &link);
+    tp_status rs = fr->fault == TP_FAULT_DETACHED
+                       ? detached_network(nominal, st->detached_loss, &net)
+                       : tp_network_copy(nominal, NULL, 0, &net);
+    memset(&rc, 0, sizeof rc);
     if (rs != TP_OK)
         return rs;
     tp_diag_init(&quiet, NULL);
-    fr->trace.n_layers = st->n_layers;
-    layer_nodes(st, net, cx->layer_node);
+    y = malloc((size_t)tp_network_state_size(net) * sizeof *y);
+    if (!y || recorder_init(&rc, cx, net, &fr->trace, y) != 0) {
+        rs = TP_ERR_NOMEM;
+        goto done;
+    }
     memset(&h, 0, sizeof h);
-    h.active = 1;
     h.fault = fr->fault;
-    h.detach_link = link;
-    h.detach_loss = st->detached_loss;
     h.max_duty = st->max_duty;
     h.pin = fr->fault == TP_FAULT_SENSOR_SHORT ? st->pin_high : st->pin_low;
-    h.gust_at = h.sheet_at = TP_UNSET;
     memset(&hooks, 0, sizeof hooks);
     hooks.user = &h;
-    hooks.at_break = at_break;
     hooks.reading = hook_reading;
     hooks.duty = hook_duty;
-    if (fr->fault == TP_FAULT_DETACHED) {
-        hooks.breaks = &zero;
-        hooks.n_breaks = 1;
-    }
-    memset(&rc, 0, sizeof rc);
-    rc.tr = &fr->trace;
-    rc.net = net;
-    rc.layer_node = cx->layer_node;
-    rc.stop_level = TP_UNSET;
     tp_integrate_defaults(net, &o);
     o.step = st->period;
     o.t_end = st->horizon;
@@ -726,11 +741,6 @@ static tp_status run_fault(ctx *cx, tp_guard_fault_run *fr, const tp_steady *hol
     o.user = &rc;
     o.hooks = &hooks;
     if (fr->from_hold) {
-        y = malloc((size_t)tp_network_state_size(net) * sizeof *y);
-        if (!y) {
-            rs = TP_ERR_NOMEM;
-            goto done;
-        }
         tp_steady_state_vector(net, hold, y);
         /* The controller as it would be after holding for long: the integral carries the
          * holding duty, the last reading is the setpoint. */
@@ -752,6 +762,7 @@ static tp_status run_fault(ctx *cx, tp_guard_fault_run *fr, const tp_steady *hol
         solver_error(cx, what, &quiet);
     }
 done:
+    free(rc.map);
     free(y);
     tp_network_destroy(&net);
     return rs;
@@ -830,74 +841,131 @@ static void corner_name(tp_guard_corner *c, const factor *f)
                  c->airflow);
 }
 
-/* The nominal values and the ranges' ends; errors for ranges the form cannot vary. */
-static tp_status factors(ctx *cx, const tp_network *net, factor *f, tp_guard_corner *nominal)
+static const char *const range_names[TP_RANGE_COUNT] = {"supply", "resistance", "room",
+                                                        "airflow"};
+
+const char *tp_guard_range_name(int which)
 {
-    const tp_desc *desc = cx->st->desc;
+    return which >= 0 && which < TP_RANGE_COUNT ? range_names[which] : "?";
+}
+
+/* A range declared as [low, high] in guard:, else NULL. */
+static const double *declared_pair(const tp_guard_spec *g, int which)
+{
+    const double *p = which == TP_RANGE_SUPPLY ? g->supply
+                      : which == TP_RANGE_ROOM ? g->room
+                      : which == TP_RANGE_AIRFLOW ? g->airflow : NULL;
+    return p && tp_isset(p[0]) && tp_isset(p[1]) ? p : NULL;
+}
+
+tp_status tp_guard_ranges_resolve(const tp_desc *desc, const tp_doc *doc, const tp_network *net,
+                                  tp_guard_ranges *rr, tp_diag *d)
+{
     const tp_guard_spec *g = &desc->guard;
-    const tp_net_source *src = &net->sources[net->control.source];
+    const tp_net_source *src = net->has_control ? &net->sources[net->control.source] : NULL;
+    int electric = src && src->kind == TP_SRC_ELECTRIC;
     int physical = desc->form == TP_FORM_PHYSICAL, k, bad = 0;
-    double room0 = TP_UNSET;
+    double room0 = physical ? desc->room.temperature : TP_UNSET;
     size_t i;
-    static const char *const names[4] = {"guard.supply", "guard.resistance", "guard.room",
-                                         "guard.airflow"};
-    const double *pairs[4] = {g->supply, NULL, g->room, g->airflow};
-    if (physical)
-        room0 = desc->room.temperature;
     for (i = 0; !physical && i < desc->network.n_nodes && !tp_isset(room0); i++)
         if (tp_isset(desc->network.nodes[i].fixed))
             room0 = desc->network.nodes[i].fixed;
-    nominal->nominal = 1;
-    nominal->supply = src->kind == TP_SRC_ELECTRIC ? src->supply : TP_UNSET;
-    nominal->resistance = src->kind == TP_SRC_ELECTRIC ? src->r0 : TP_UNSET;
-    nominal->room = room0;
-    nominal->airflow = physical ? desc->room.airflow : TP_UNSET;
-    for (k = 0; k < 4; k++) {
-        f[k].name = names[k];
-        f[k].n = 1;
-        if (k == 1) {
-            if (g->resistance > 0) {
-                f[k].n = 2;
-                f[k].level[0] = nominal->resistance * (1.0 - g->resistance);
-                f[k].level[1] = nominal->resistance * (1.0 + g->resistance);
-            }
-        } else if (tp_isset(pairs[k][0]) && tp_isset(pairs[k][1])) {
-            if (pairs[k][1] < pairs[k][0]) {
-                tp_diag_error(cx->d, tp_loc_none(), names[k], "write [low, high]",
+    memset(rr, 0, sizeof *rr);
+    rr->r[TP_RANGE_SUPPLY].nominal = electric ? src->supply : TP_UNSET;
+    rr->r[TP_RANGE_RESISTANCE].nominal = electric ? src->r0 : TP_UNSET;
+    rr->r[TP_RANGE_ROOM].nominal = room0;
+    rr->r[TP_RANGE_AIRFLOW].nominal = physical ? desc->room.airflow : TP_UNSET;
+    for (k = 0; k < TP_RANGE_COUNT; k++) {
+        tp_guard_range *r = &rr->r[k];
+        const double *pair = declared_pair(g, k);
+        char key[32];
+        snprintf(key, sizeof key, "guard.%s", range_names[k]);
+        r->tolerance = TP_UNSET;
+        r->lo = r->hi = r->nominal;
+        if (pair) {
+            r->origin = TP_RANGE_DECLARED;
+            r->lo = pair[0];
+            r->hi = pair[1];
+            if (pair[1] < pair[0]) {
+                tp_diag_error(d, tp_plate_at(doc, key), key, "write [low, high]",
                               "the range is reversed");
                 bad = 1;
             }
-            f[k].n = pairs[k][1] > pairs[k][0] ? 2 : 1;
-            f[k].level[0] = pairs[k][0];
-            f[k].level[1] = pairs[k][1];
+        } else if (k == TP_RANGE_RESISTANCE && tp_isset(g->resistance)) {
+            r->origin = TP_RANGE_DECLARED;
+            r->tolerance = g->resistance;
+        } else if (k == TP_RANGE_SUPPLY && electric) {
+            r->origin = TP_RANGE_DEFAULT;
+            r->lo = r->nominal * (1.0 - TP_GUARD_DEFAULT_SUPPLY);
+            r->hi = r->nominal * (1.0 + TP_GUARD_DEFAULT_SUPPLY);
+        } else if (k == TP_RANGE_RESISTANCE && electric) {
+            r->origin = TP_RANGE_DEFAULT;
+            r->tolerance = TP_GUARD_DEFAULT_RESISTANCE;
+        } else if (k == TP_RANGE_ROOM && tp_isset(room0)) {
+            r->origin = TP_RANGE_DEFAULT;
+            r->lo = fmin(TP_GUARD_DEFAULT_ROOM_LOW, room0);
+            r->hi = fmax(TP_GUARD_DEFAULT_ROOM_HIGH, room0);
         }
+        if (k == TP_RANGE_RESISTANCE && tp_isset(r->tolerance) && electric) {
+            r->lo = r->nominal * (1.0 - r->tolerance);
+            r->hi = r->nominal * (1.0 + r->tolerance);
+        }
+        if (r->origin == TP_RANGE_DEFAULT)
+            rr->n_default++;
     }
-    if ((f[0].n == 2 || f[1].n == 2) && src->kind != TP_SRC_ELECTRIC) {
-        tp_diag_error(cx->d, tp_loc_none(), f[0].n == 2 ? names[0] : names[1],
-                      "give the heater a supply and a resistance, or drop the range",
-                      "the controlled heater has a fixed power: no supply or resistance to vary");
-        bad = 1;
-    }
-    if (!physical && (f[3].n == 2 || g->gust.present || g->sheet.present)) {
-        tp_diag_error(cx->d, tp_loc_none(),
-                      f[3].n == 2 ? names[3] : g->gust.present ? "guard.gust" : "guard.sheet",
+    for (k = TP_RANGE_SUPPLY; k <= TP_RANGE_RESISTANCE; k++)
+        if (!electric && rr->r[k].origin == TP_RANGE_DECLARED &&
+            (k == TP_RANGE_SUPPLY || rr->r[k].tolerance > 0)) {
+            const char *key = k == TP_RANGE_SUPPLY ? "guard.supply" : "guard.resistance";
+            tp_diag_error(d, tp_plate_at(doc, key), key,
+                          "give the heater a supply and a resistance, or drop the range",
+                          "the controlled heater has a fixed power: no supply or resistance to "
+                          "vary");
+            bad = 1;
+            break;
+        }
+    if (!physical && rr->r[TP_RANGE_AIRFLOW].origin == TP_RANGE_DECLARED) {
+        tp_diag_error(d, tp_plate_at(doc, "guard.airflow"), "guard.airflow",
                       "airflow, gusts and sheets need the physical form (bed:, room:)",
                       "not available in the raw network form");
         bad = 1;
     }
-    {
-        const double nom[4] = {nominal->supply, nominal->resistance, nominal->room,
-                               nominal->airflow};
-        for (k = 0; k < 4; k++)
-            if (f[k].n == 1 && !(k != 1 && tp_isset(pairs[k][0]) && tp_isset(pairs[k][1])))
-                f[k].level[0] = f[k].level[1] = nom[k];
-    }
-    if (f[2].n == 2 && !tp_isset(room0)) {
-        tp_diag_error(cx->d, tp_loc_none(), names[2], "add a fixed node (the room)",
+    if (rr->r[TP_RANGE_ROOM].origin == TP_RANGE_DECLARED && !tp_isset(room0)) {
+        tp_diag_error(d, tp_plate_at(doc, "guard.room"), "guard.room", "add a fixed node (the room)",
                       "the network has no room temperature to vary");
         bad = 1;
     }
     return bad ? TP_ERR_CONFIG : TP_OK;
+}
+
+/* The nominal corner and the factors (the ranges' ends) of the study's ranges; errors for
+ * disturbances the form cannot apply. */
+static tp_status factors(ctx *cx, factor *f, tp_guard_corner *nominal)
+{
+    const tp_desc *desc = cx->st->desc;
+    const tp_guard_spec *g = &desc->guard;
+    const tp_guard_ranges *rr = &cx->st->ranges;
+    int k;
+    nominal->nominal = 1;
+    nominal->supply = rr->r[TP_RANGE_SUPPLY].nominal;
+    nominal->resistance = rr->r[TP_RANGE_RESISTANCE].nominal;
+    nominal->room = rr->r[TP_RANGE_ROOM].nominal;
+    nominal->airflow = rr->r[TP_RANGE_AIRFLOW].nominal;
+    for (k = 0; k < TP_RANGE_COUNT; k++) {
+        const tp_guard_range *r = &rr->r[k];
+        f[k].name = range_names[k];
+        f[k].n = r->origin != TP_RANGE_NONE && r->hi > r->lo ? 2 : 1;
+        f[k].level[0] = r->lo;
+        f[k].level[1] = r->hi;
+    }
+    if (desc->form != TP_FORM_PHYSICAL && (g->gust.present || g->sheet.present)) {
+        const char *key = g->gust.present ? "guard.gust" : "guard.sheet";
+        tp_diag_error(cx->d, tp_plate_at(cx->doc, key), key,
+                      "airflow, gusts and sheets need the physical form (bed:, room:)",
+                      "not available in the raw network form");
+        return TP_ERR_CONFIG;
+    }
+    return TP_OK;
 }
 
 /* ---- recommendation ----------------------------------------------------------------------- */
@@ -1264,17 +1332,25 @@ static double resolution(const tp_reading_model *m, double setpoint)
     return c0 != c1 ? 2.0 / fabs((double)(c0 - c1)) : 2.0;
 }
 
-static tp_status check_control(const tp_desc *desc, const tp_network *net, tp_diag *d)
+static tp_status check_control(const tp_desc *desc, const tp_doc *doc, const tp_network *net,
+                                tp_diag *d)
 {
     if (!net->has_control || !isfinite(net->control.setpoint) ||
         (net->control.mode != TP_MODE_ONOFF && net->control.mode != TP_MODE_PID)) {
-        tp_diag_error(d, tp_loc_none(), "control",
-                      "add control: {mode: pid, setpoint: ...} or mode on-off",
-                      "guard judges a controller holding a setpoint");
+        if (net->has_control)
+            tp_diag_error(d, tp_plate_at(doc, "control.mode"), "control.mode",
+                          "use mode pid or on-off with a setpoint",
+                          "guard judges a controller holding a setpoint; mode '%s' holds none",
+                          tp_mode_name(net->control.mode));
+        else
+            tp_diag_error(d, tp_plate_at(doc, "control"), "control",
+                          "add control: {mode: pid, setpoint: ...} or mode on-off",
+                          "guard judges a controller holding a setpoint; the file has none");
         return TP_ERR_CONFIG;
     }
     if (desc->guard.time_factor < 1.0) {
-        tp_diag_error(d, tp_loc_none(), "guard.time_factor", "use 1 or more, e.g. 1.5",
+        tp_diag_error(d, tp_plate_at(doc, "guard.time_factor"), "guard.time_factor",
+                      "use 1 or more, e.g. 1.5",
                       "a safety factor on healthy durations below 1 gives no margin");
         return TP_ERR_CONFIG;
     }
@@ -1293,7 +1369,7 @@ tp_status tp_guard_study_run(const tp_desc *desc, const tp_doc *doc,
     tp_guard_settings none = {0, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET};
     ctx cx;
     tp_status rs;
-    int link, c, k, fi, n2 = 0, mask;
+    int c, k, fi, n2 = 0, mask;
     memset(st, 0, sizeof *st);
     memset(&hold, 0, sizeof hold);
     memset(&cd, 0, sizeof cd);
@@ -1305,10 +1381,10 @@ tp_status tp_guard_study_run(const tp_desc *desc, const tp_doc *doc,
     cx.st = st;
     cx.doc = doc;
     cx.d = d;
-    rs = build(&cx, desc, "nominal case", &net, &link);
+    rs = build(&cx, desc, "nominal case", &net);
     if (rs != TP_OK)
         return rs;
-    rs = check_control(desc, net, d);
+    rs = check_control(desc, doc, net, d);
     if (rs != TP_OK)
         goto done;
     st->setpoint = net->control.setpoint;
@@ -1322,7 +1398,7 @@ tp_status tp_guard_study_run(const tp_desc *desc, const tp_doc *doc,
         double g = 0.0;
         int i, s = net->control.sensor;
         for (i = 0; i < net->n_links; i++)
-            if (i != link && net->links[i].law == TP_LAW_CONDUCTION &&
+            if (net->links[i].law == TP_LAW_CONDUCTION &&
                 (net->links[i].a == s || net->links[i].b == s))
                 g += net->links[i].g;
         st->detached_loss = TP_GUARD_DETACH_FRACTION * g;
@@ -1337,7 +1413,9 @@ tp_status tp_guard_study_run(const tp_desc *desc, const tp_doc *doc,
         st->pin_low = TP_GUARD_PIN_LOW;
     }
     setup_layers(st);
-    rs = factors(&cx, net, f, &nominal);
+    rs = tp_guard_ranges_resolve(desc, doc, net, &st->ranges, d);
+    if (rs == TP_OK)
+        rs = factors(&cx, f, &nominal);
     if (rs != TP_OK)
         goto done;
     /* Nominal first, then every combination of the ends (factors with one level fixed). */
@@ -1391,16 +1469,16 @@ tp_status tp_guard_study_run(const tp_desc *desc, const tp_doc *doc,
     }
     st->has_stuck = tp_steady_full(net, 1.0, &st->stuck, &quiet) == TP_OK;
     if (st->has_stuck) {
+        double over = -HUGE_VAL;
         st->stuck.reading = st->stuck.temps[net->control.sensor] + net->control.reading.offset;
-        layer_nodes(st, net, cx.layer_node);
-        for (k = 0; k < st->n_layers; k++)
-            if (cx.layer_node[k] >= 0 && isfinite(st->layer_limit[k]) &&
-                st->stuck.temps[cx.layer_node[k]] > st->layer_limit[k] &&
-                (st->stuck_over_layer < 0 ||
-                 st->stuck.temps[cx.layer_node[k]] - st->layer_limit[k] >
-                     st->stuck.temps[cx.layer_node[st->stuck_over_layer]] -
-                         st->layer_limit[st->stuck_over_layer]))
+        layer_refs(st, net, cx.layers);
+        for (k = 0; k < st->n_layers; k++) {
+            double t = layer_temp(net, cx.layers[k], st->stuck.temps) - st->layer_limit[k];
+            if (t > 0 && t > over) {
+                over = t;
                 st->stuck_over_layer = k;
+            }
+        }
     }
     for (c = 0; c < st->n_corners; c++)
         if (isfinite(st->corners[c].stuck_heater) &&
@@ -1414,15 +1492,12 @@ tp_status tp_guard_study_run(const tp_desc *desc, const tp_doc *doc,
         tp_guard_corner *w = &st->corners[st->stuck_worst];
         tp_network *wn = NULL;
         tp_steady ws;
-        int wl;
         memset(&ws, 0, sizeof ws);
-        if (apply_corner(desc, net, &cd, w) == TP_OK && build(&cx, &cd, "corner", &wn, &wl) ==
-                                                           TP_OK &&
+        if (apply_corner(desc, net, &cd, w) == TP_OK && build(&cx, &cd, "corner", &wn) == TP_OK &&
             tp_steady_full(wn, 1.0, &ws, &quiet) == TP_OK) {
-            layer_nodes(st, wn, cx.layer_node);
+            layer_refs(st, wn, cx.layers);
             for (k = 0; k < st->n_layers; k++)
-                if (cx.layer_node[k] >= 0 && isfinite(st->layer_limit[k]) &&
-                    ws.temps[cx.layer_node[k]] > st->layer_limit[k])
+                if (layer_temp(wn, cx.layers[k], ws.temps) > st->layer_limit[k])
                     st->cutout_required = 1;
         }
         tp_steady_clear(&ws);
@@ -1434,9 +1509,9 @@ tp_status tp_guard_study_run(const tp_desc *desc, const tp_doc *doc,
             tp_guard_fault_run *fr = &st->faults[fi][k];
             fr->fault = (tp_guard_fault)fi;
             fr->from_hold = k;
-            if (fi == TP_FAULT_DETACHED && !detachable(net, link))
+            if (fi == TP_FAULT_DETACHED && !detachable(net))
                 continue;
-            rs = run_fault(&cx, fr, &hold);
+            rs = run_fault(&cx, net, fr, &hold);
             if (rs != TP_OK)
                 goto done;
         }

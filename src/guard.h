@@ -30,6 +30,49 @@
 #define TP_GUARD_CORNERS_MAX 17    /* 2^4 corners plus nominal */
 #define TP_GUARD_LAYERS_MAX 16     /* layers followed for service limits */
 
+/* The tolerances of a healthy machine where `guard:` declares none (each range on its own):
+ * common practice, no source (docs/guard.md, "Healthy corners"). */
+#define TP_GUARD_DEFAULT_SUPPLY 0.05      /* -, supply voltage: nominal times 1 -/+ this */
+#define TP_GUARD_DEFAULT_RESISTANCE 0.05  /* -, heater resistance: R0 times 1 -/+ this */
+#define TP_GUARD_DEFAULT_ROOM_LOW 288.15  /* K (15 degC), coolest room */
+#define TP_GUARD_DEFAULT_ROOM_HIGH 303.15 /* K (30 degC), warmest room */
+
+/* Where a healthy range came from. */
+typedef enum tp_guard_origin {
+    TP_RANGE_NONE = 0, /* not varied: nothing declared and no default applies */
+    TP_RANGE_DECLARED, /* from guard: */
+    TP_RANGE_DEFAULT   /* the default above */
+} tp_guard_origin;
+
+/* One healthy range: its ends (equal when it is not varied) and the nominal value, in V, ohm,
+ * K or m/s; NaN where the quantity does not exist (the supply of a fixed-power heater). */
+typedef struct tp_guard_range {
+    double lo, hi, nominal;
+    double tolerance; /* -, the resistance's relative tolerance (NaN for the others) */
+    tp_guard_origin origin;
+} tp_guard_range;
+
+enum { TP_RANGE_SUPPLY, TP_RANGE_RESISTANCE, TP_RANGE_ROOM, TP_RANGE_AIRFLOW, TP_RANGE_COUNT };
+
+typedef struct tp_guard_ranges {
+    tp_guard_range r[TP_RANGE_COUNT]; /* by TP_RANGE_* */
+    int n_default;                    /* how many took their default */
+} tp_guard_ranges;
+
+/* The healthy ranges of `desc` on its assembled network `net` (with a controller): each range
+ * `guard:` declares, else its default: supply and resistance of an electric controlled heater
+ * +-TP_GUARD_DEFAULT_SUPPLY and +-TP_GUARD_DEFAULT_RESISTANCE; the room from
+ * TP_GUARD_DEFAULT_ROOM_LOW to TP_GUARD_DEFAULT_ROOM_HIGH, widened to take in the nominal room
+ * (the raw form's room is its first fixed node); airflow only when declared. The one place
+ * that decides guard's ranges and their defaults. A declared range that cannot apply (reversed,
+ * a supply for a fixed-power heater, airflow in the raw form, a room without a fixed node) is
+ * an error reported to `d` (TP_ERR_CONFIG), at its position in `doc` (may be NULL). */
+tp_status tp_guard_ranges_resolve(const tp_desc *desc, const tp_doc *doc, const tp_network *net,
+                                  tp_guard_ranges *r, tp_diag *d);
+
+/* The range's name as in `guard:` ("supply", "resistance", "room", "airflow"). */
+const char *tp_guard_range_name(int which);
+
 /* The checks, each by its first firing time (s; NaN: never). */
 typedef struct tp_guard_detect {
     double rise, hold, ceiling;
@@ -136,6 +179,7 @@ typedef struct tp_guard_study {
     double pin_high, pin_low; /* K, pinned readings of the sensor faults */
     double detached_loss;   /* W/K */
     double horizon;         /* s each fault is followed */
+    tp_guard_ranges ranges; /* the healthy ranges, declared or default */
     int n_corners;
     tp_guard_corner corners[TP_GUARD_CORNERS_MAX];
     tp_guard_fault_run faults[TP_FAULT_COUNT][2];
@@ -177,12 +221,5 @@ void tp_guard_evaluate(tp_guard_study *st, const tp_guard_settings *s);
 
 /* Name of a threshold as in configs ("rise_window"). */
 const char *tp_guard_setting_name(int which);
-
-/* Build the network of `desc` with an extra conduction link of conductance 0 from the sensor
- * node to the air (the enclosure air, else the room or the first fixed node), so that a
- * detached sensor can be given its loss. *link gets its index. Diagnostics of assembly go to
- * `d`. */
-tp_status tp_guard_network(const tp_desc *desc, const tp_doc *doc, tp_diag *d, tp_network **out,
-                           int *link);
 
 #endif

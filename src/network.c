@@ -105,6 +105,199 @@ void tp_network_destroy(tp_network **net)
     *net = NULL;
 }
 
+/* ---- copies ---------------------------------------------------------------------------------- */
+
+/* A new array of n elements of `size` bytes copied from p (NULL when p is NULL or n is 0, or
+ * when out of memory: *fail is then set). */
+static void *dup_array(const void *p, size_t n, size_t size, int *fail)
+{
+    void *q;
+    if (!p || n == 0)
+        return NULL;
+    q = malloc(n * size);
+    if (!q) {
+        *fail = 1;
+        return NULL;
+    }
+    memcpy(q, p, n * size);
+    return q;
+}
+
+/* The grid of `src` copied into `dst` (its lumped twin copied with `changes`, see
+ * tp_network_copy). */
+static tp_status copy_grid(const tp_network *src, tp_network *dst, const tp_net_change *changes,
+                           int n_changes)
+{
+    const tp_net_grid *g = src->grid;
+    tp_net_grid *c = calloc(1, sizeof *c);
+    tp_net_change *mapped = NULL;
+    size_t n = (size_t)g->nx * (size_t)g->ny, nl = (size_t)g->n_layers;
+    int fail = 0, i, m = 0;
+    tp_status st;
+    if (!c)
+        return TP_ERR_NOMEM;
+    dst->grid = c;
+    *c = *g;
+    c->lumped = NULL;
+    c->layer_id = dup_array(g->layer_id, nl, sizeof *g->layer_id, &fail);
+    c->cell = dup_array(g->cell, nl * n, sizeof *g->cell, &fail);
+    c->layer_capacity = dup_array(g->layer_capacity, nl, sizeof *g->layer_capacity, &fail);
+    c->top_area = dup_array(g->top_area, n, sizeof *g->top_area, &fail);
+    c->top_link = dup_array(g->top_link, 2 * n, sizeof *g->top_link, &fail);
+    c->from = dup_array(g->from, (size_t)src->n_nodes, sizeof *g->from, &fail);
+    if (fail)
+        return TP_ERR_NOMEM;
+    if (!g->lumped)
+        return TP_OK;
+    /* The twin gets the changes that name no cell, its nodes by grid->from. */
+    if (n_changes > 0) {
+        mapped = malloc((size_t)n_changes * sizeof *mapped);
+        if (!mapped)
+            return TP_ERR_NOMEM;
+    }
+    for (i = 0; i < n_changes; i++) {
+        tp_net_change ch = changes[i];
+        int uses_b = ch.kind == TP_CHANGE_ADD_CONDUCTION;
+        if (ch.kind == TP_CHANGE_ADD_CONDUCTION || ch.kind == TP_CHANGE_ISOLATE) {
+            if (!g->from || g->from[ch.a] < g->n_layers || (uses_b && g->from[ch.b] < g->n_layers))
+                continue;
+            ch.a = g->from[ch.a];
+            if (uses_b)
+                ch.b = g->from[ch.b];
+        }
+        mapped[m++] = ch;
+    }
+    st = tp_network_copy(g->lumped, mapped, m, &c->lumped);
+    free(mapped);
+    return st;
+}
+
+/* Apply one change to an unfinished copy. */
+static tp_status apply_change(tp_network *net, const tp_net_change *ch)
+{
+    int i, ok = 0;
+    switch (ch->kind) {
+    case TP_CHANGE_ADD_CONDUCTION: {
+        tp_net_link *l;
+        if (ch->a < 0 || ch->a >= net->n_nodes || ch->b < 0 || ch->b >= net->n_nodes)
+            return TP_ERR_CONFIG;
+        l = tp_network_add_link(net, ch->a, ch->b, TP_LAW_CONDUCTION);
+        if (!l)
+            return TP_ERR_NOMEM;
+        l->g = ch->value;
+        l->path = net->nodes[ch->b].capacity > 0 && net->nodes[ch->a].capacity > 0
+                      ? TP_PATH_INTERNAL
+                      : TP_PATH_OTHER;
+        if (ch->label)
+            snprintf(l->label, sizeof l->label, "%s", ch->label);
+        else
+            snprintf(l->label, sizeof l->label, "%s - %s", net->nodes[ch->a].id,
+                     net->nodes[ch->b].id);
+        return TP_OK;
+    }
+    case TP_CHANGE_ISOLATE:
+        if (ch->a < 0 || ch->a >= net->n_nodes)
+            return TP_ERR_CONFIG;
+        for (i = 0; i < net->n_links; i++) {
+            tp_net_link *l = &net->links[i];
+            int other = l->a == ch->a ? l->b : l->b == ch->a ? l->a : -1;
+            if (other >= 0 && net->nodes[other].capacity > 0) {
+                l->g = l->h = l->eps = l->scale = 0.0;
+            }
+        }
+        return TP_OK;
+    case TP_CHANGE_TOP_AIRFLOW:
+        if (net->top_node < 0 && !net->grid)
+            return TP_ERR_CONFIG;
+        for (i = 0; i < net->n_links; i++) {
+            tp_net_link *l = &net->links[i];
+            if (l->path != TP_PATH_TOP_CONV || !l->correlated)
+                continue;
+            l->conv.airflow = ch->value;
+            if (l->group >= 0 && l->group < net->n_groups)
+                net->groups[l->group].conv.airflow = ch->value;
+        }
+        return TP_OK;
+    case TP_CHANGE_TOP_CAPACITY:
+        if (net->grid) {
+            tp_net_grid *g = net->grid;
+            int c, n = g->nx * g->ny, top = (g->n_layers - 1) * n;
+            double area = 0.0;
+            for (c = 0; c < n; c++)
+                if (g->cell[top + c] >= 0)
+                    area += g->top_area[c];
+            for (c = 0; c < n && area > 0; c++) {
+                int node = g->cell[top + c];
+                if (node < 0 || !(g->top_area[c] > 0))
+                    continue;
+                net->nodes[node].capacity += ch->value * g->top_area[c] / area;
+                ok = 1;
+            }
+            if (ok)
+                g->layer_capacity[g->n_layers - 1] += ch->value;
+            return ok ? TP_OK : TP_ERR_CONFIG;
+        }
+        if (net->top_node < 0 || net->nodes[net->top_node].capacity <= 0)
+            return TP_ERR_CONFIG;
+        net->nodes[net->top_node].capacity += ch->value;
+        return TP_OK;
+    }
+    return TP_ERR_CONFIG;
+}
+
+tp_status tp_network_copy(const tp_network *src, const tp_net_change *changes, int n_changes,
+                          tp_network **out)
+{
+    tp_network *net = calloc(1, sizeof *net);
+    tp_status st = TP_OK;
+    int fail = 0, i;
+    *out = NULL;
+    if (!net)
+        return TP_ERR_NOMEM;
+    net->n_nodes = src->n_nodes;
+    net->cap_nodes = src->n_nodes;
+    net->nodes = dup_array(src->nodes, (size_t)src->n_nodes, sizeof *src->nodes, &fail);
+    net->id_slots = src->id_slots;
+    net->id_index = dup_array(src->id_index, (size_t)src->id_slots, sizeof *src->id_index,
+                              &fail);
+    net->n_links = net->cap_links = src->n_links;
+    net->links = dup_array(src->links, (size_t)src->n_links, sizeof *src->links, &fail);
+    net->n_groups = net->cap_groups = src->n_groups;
+    net->groups = dup_array(src->groups, (size_t)src->n_groups, sizeof *src->groups, &fail);
+    net->sources = calloc((size_t)(src->n_sources > 0 ? src->n_sources : 1),
+                          sizeof *net->sources);
+    if (!net->sources)
+        fail = 1;
+    for (i = 0; !fail && i < src->n_sources; i++) {
+        const tp_net_source *o = &src->sources[i];
+        tp_net_source *s = &net->sources[i];
+        *s = *o;
+        s->nodes = dup_array(o->nodes, (size_t)o->n_nodes, sizeof *o->nodes, &fail);
+        s->weights = dup_array(o->weights, (size_t)o->n_nodes, sizeof *o->weights, &fail);
+        net->n_sources = net->cap_sources = i + 1; /* destroy frees what is copied so far */
+    }
+    net->has_control = src->has_control;
+    net->control = src->control;
+    net->top_node = src->top_node;
+    net->top_area = src->top_area;
+    net->top_half_r = src->top_half_r;
+    net->run = src->run;
+    if (fail)
+        st = TP_ERR_NOMEM;
+    if (st == TP_OK && src->grid)
+        st = copy_grid(src, net, changes, n_changes);
+    for (i = 0; st == TP_OK && i < n_changes; i++)
+        st = apply_change(net, &changes[i]);
+    if (st == TP_OK)
+        st = tp_network_finish(net);
+    if (st != TP_OK) {
+        tp_network_destroy(&net);
+        return st;
+    }
+    *out = net;
+    return TP_OK;
+}
+
 /* FNV-1a over an id: the hash of the node-id index (Fowler, Noll and Vo; common practice). */
 static unsigned long id_hash(const char *id)
 {

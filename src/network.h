@@ -169,6 +169,40 @@ tp_network *tp_network_create(void);
 /* Free a network and NULL the handle; accepts NULL. */
 void tp_network_destroy(tp_network **net);
 
+/* One change a copy makes to the network it copies (tp_network_copy): the only way to get a
+ * varied network (a fault, a disturbance) without editing a shared one. */
+typedef enum tp_net_change_kind {
+    TP_CHANGE_ADD_CONDUCTION, /* a new conduction link between nodes a and b of conductance
+                                 `value` (W/K), labelled `label` (may be NULL); it is the last
+                                 link of the copy */
+    TP_CHANGE_ISOLATE,        /* every link between node a and a free node carries nothing
+                                 (conductance, coefficient and emissivity 0); links to fixed
+                                 nodes stay */
+    TP_CHANGE_TOP_AIRFLOW,    /* the working surface's correlated convection (its links and
+                                 coefficient groups) at airflow `value` (m/s) */
+    TP_CHANGE_TOP_CAPACITY    /* `value` (J/K) more heat capacity on the top layer: its node, or
+                                 its cells in proportion to their top area */
+} tp_net_change_kind;
+
+typedef struct tp_net_change {
+    tp_net_change_kind kind;
+    int a, b;          /* node indices of the source network (ADD_CONDUCTION: both, ISOLATE: a) */
+    double value;      /* W/K, m/s or J/K as the kind says */
+    const char *label; /* ADD_CONDUCTION: the new link's label, copied; NULL: "a - b" */
+} tp_net_change;
+
+/* A deep copy of the finished network `src` (nodes, links, sources with their node lists,
+ * coefficient groups, controller, run, working surface, and the grid with its lumped twin),
+ * with `changes[0 .. n_changes - 1]` applied in order, then finished: its compact arrays and
+ * Jacobian pattern are its own and its duties are reset to each source's max_duty. `src` is
+ * only read. Node and state numbering are those of `src` (an added link changes neither), so a
+ * state vector of `src` is one of the copy. A gridded copy's twin gets the same changes where
+ * they name no cell (nodes mapped through grid->from). Returns TP_OK with *out set, or
+ * TP_ERR_CONFIG for a change that cannot apply (a node index out of range, a top-layer change
+ * on a network without a physical top layer) and TP_ERR_NOMEM; *out is NULL on failure. */
+tp_status tp_network_copy(const tp_network *src, const tp_net_change *changes, int n_changes,
+                          tp_network **out);
+
 /* Append a node (capacity > 0 with its initial temperature, or capacity 0 and fixed t0).
  * Returns its index, or -1 when out of memory. */
 int tp_network_add_node(tp_network *net, const char *id, double capacity, double t0);

@@ -522,6 +522,8 @@ static void halo_text(double x, double y, double ox, double oy, double just, con
 typedef struct legend_plan {
     PLINT n;
     PLINT position; /* PL_POSITION_* corner */
+    double box[4];  /* its box x0, x1, y0, y1, normalised to the viewport */
+    PLINT ncol;     /* columns (entries run down each column) */
     PLFLT sample_w; /* length of the line sample, fraction of the viewport width */
     PLINT opt[TP_PLOT_LEGEND_MAX], colour[TP_PLOT_LEGEND_MAX], ink[TP_PLOT_LEGEND_MAX];
     PLINT style[TP_PLOT_LEGEND_MAX], nsym[TP_PLOT_LEGEND_MAX];
@@ -535,6 +537,10 @@ typedef struct panel_plan {
     size_t first;              /* chart-wide index of its first series (colours) */
     int right;                 /* has a right axis */
     plot_axis y, y2;           /* left and right axes */
+    double ticks;              /* labelled ticks wanted on the y axes */
+    double (*label_box)[4];    /* per reference line: its label's box x0, x1, y0, y1,
+                                  normalised (x0 > x1: no label) */
+    int *label_on;             /* per reference line: the label sits on its line */
     double vx0, vx1, vy0, vy1; /* viewport, mm from the lower-left corner of the page */
     legend_plan legend;
 } panel_plan;
@@ -547,6 +553,9 @@ typedef struct chart_plan {
     plot_axis x;
     double ylabel_disp, y2label_disp; /* axis titles from the frame, character heights */
     panel_plan *panels;
+    size_t *key; /* per series (chart-wide index): whose colour and glyph it takes, the first
+                    series with the same label, so that one quantity keeps its colour in every
+                    panel */
 } chart_plan;
 
 static int series_colour(size_t k)
@@ -590,16 +599,19 @@ static void series_draw(const chart_plan *cp, const tp_plot_series *s, size_t k)
     pllsty(1);
 }
 
-/* Corner hit counts: which of the four candidate legend boxes a normalised point falls in. */
+/* Hit counts: which of up to PLOT_BOXES candidate boxes (a legend's corners, a label's places)
+ * a normalised point falls in. */
+#define PLOT_BOXES 16
 typedef struct corner_boxes {
-    double x0[4], x1[4], y0[4], y1[4];
-    size_t hits[4];
+    int n;
+    double x0[PLOT_BOXES], x1[PLOT_BOXES], y0[PLOT_BOXES], y1[PLOT_BOXES];
+    size_t hits[PLOT_BOXES];
 } corner_boxes;
 
 static void corner_hit(corner_boxes *cb, double u, double v)
 {
     int c;
-    for (c = 0; c < 4; c++)
+    for (c = 0; c < cb->n; c++)
         if (u >= cb->x0[c] && u <= cb->x1[c] && v >= cb->y0[c] && v <= cb->y1[c])
             cb->hits[c]++;
 }
@@ -646,43 +658,114 @@ static void hline_line(const chart_plan *cp, const tp_plot_hline *h)
     pllsty(1);
 }
 
-/* Label a reference line at whichever end, above or below it, covers the fewest data. */
-static void hline_label(const chart_plan *cp, const panel_plan *pp, const tp_plot_hline *h)
+/* Whether two boxes (x0, x1, y0, y1, normalised) overlap. */
+static int boxes_overlap(const double *a, const double *b)
+{
+    return a[0] < b[1] && b[0] < a[1] && a[2] < b[3] && b[2] < a[3];
+}
+
+/* Label every reference line of a panel. A label goes above or below its line, at one of the
+ * ends or across the middle, where it covers the fewest data without another line between it
+ * and its own; when every such place has one (lines a few units apart: a setpoint, its band, a
+ * ceiling), it sits on its line, its halo cutting the line. It never covers a label already
+ * placed or the legend. */
+static void labels_plan(const chart_plan *cp, panel_plan *pp)
+{
+    static const double xs[4] = {0.99, 0.01, 0.62, 0.30}; /* anchors: right end, left end, ... */
+    const tp_plot_panel *p = pp->p;
+    double vw = pp->vx1 - pp->vx0, vh = pp->vy1 - pp->vy0;
+    double lh = 1.3 * PLOT_LEGEND_SCALE * cp->ht / vh, off = 0.35 * cp->ht / vh;
+    size_t i, j, k;
+    for (i = 0; i < p->n_hlines; i++) {
+        const tp_plot_hline *h = &p->hlines[i];
+        double v = (h->y - pp->y.lo) / (pp->y.hi - pp->y.lo), w;
+        corner_boxes cb;
+        size_t cost[PLOT_BOXES];
+        int c, best = 0;
+        pp->label_box[i][0] = 1.0;
+        pp->label_box[i][1] = 0.0;
+        pp->label_on[i] = 0;
+        if (!isfinite(h->y) || !h->label || !*h->label)
+            continue;
+        w = ((double)text_chars(h->label) * PLOT_TEXT_W * PLOT_LEGEND_SCALE + 0.5) * cp->ht / vw;
+        /* candidates: 4 anchors x (above, below, on the line) */
+        cb.n = 0;
+        for (c = 0; c < 12; c++) {
+            int anchor = c % 4, place = c / 4; /* 0 above, 1 below, 2 on the line */
+            double x = xs[anchor];
+            cb.x0[cb.n] = anchor == 0 ? x - w : anchor == 1 ? x : x - w / 2;
+            cb.x1[cb.n] = cb.x0[cb.n] + w;
+            cb.y0[cb.n] = place == 0 ? v + off : place == 1 ? v - off - lh : v - lh / 2;
+            cb.y1[cb.n] = cb.y0[cb.n] + lh;
+            cb.hits[cb.n] = 0;
+            cb.n++;
+        }
+        for (j = 0; j < p->n_series; j++) {
+            const tp_plot_series *s = &p->series[j];
+            corner_series(&cb, s, &cp->x, s->right_axis ? &pp->y2 : &pp->y);
+        }
+        for (c = 0; c < cb.n; c++) {
+            double box[4] = {cb.x0[c], cb.x1[c], cb.y0[c], cb.y1[c]};
+            double near = c < 4 ? v : box[2], far = c < 4 ? box[3] : v;
+            cost[c] = cb.hits[c];
+            if (c >= 8) {
+                cost[c] += (size_t)1 << 12; /* on the line only when needed */
+            } else {
+                for (j = 0; j < p->n_hlines; j++) { /* another line between label and line */
+                    double vj = (p->hlines[j].y - pp->y.lo) / (pp->y.hi - pp->y.lo);
+                    if (j != i && vj >= near && vj <= far)
+                        cost[c] += (size_t)1 << 16;
+                }
+            }
+            if (box[2] < 0.0 || box[3] > 1.0 || box[0] < 0.0 || box[1] > 1.0)
+                cost[c] = (size_t)-1 / 2;
+            if (pp->legend.n > 0 && boxes_overlap(box, pp->legend.box))
+                cost[c] += (size_t)1 << 24;
+            for (k = 0; k < i; k++)
+                if (pp->label_box[k][0] < pp->label_box[k][1] &&
+                    boxes_overlap(box, pp->label_box[k]))
+                    cost[c] += (size_t)1 << 24;
+        }
+        for (c = 1; c < cb.n; c++)
+            if (cost[c] < cost[best])
+                best = c;
+        pp->label_box[i][0] = cb.x0[best];
+        pp->label_box[i][1] = cb.x1[best];
+        pp->label_box[i][2] = cb.y0[best];
+        pp->label_box[i][3] = cb.y1[best];
+        pp->label_on[i] = best >= 8;
+    }
+}
+
+/* Draw the labels placed by labels_plan. */
+static void labels_draw(const chart_plan *cp, const panel_plan *pp)
 {
     const tp_plot_panel *p = pp->p;
-    char text[PLOT_TEXT_SIZE];
     double vw = pp->vx1 - pp->vx0, vh = pp->vy1 - pp->vy0;
-    double v = (h->y - pp->y.lo) / (pp->y.hi - pp->y.lo);
-    double w, lh = 1.3 * PLOT_LEGEND_SCALE * cp->ht / vh, off = 0.35 * cp->ht / vh;
-    double xspan = cp->x.hi - cp->x.lo, yspan = pp->y.hi - pp->y.lo, u, yc;
-    corner_boxes cb;
+    double lh = 1.3 * PLOT_LEGEND_SCALE * cp->ht / vh;
+    double xspan = cp->x.hi - cp->x.lo, yspan = pp->y.hi - pp->y.lo;
     size_t i;
-    int c, best = 0;
-    if (!isfinite(h->y) || !h->label || !*h->label)
-        return;
-    text_copy(text, h->label);
-    w = ((double)text_chars(h->label) * PLOT_TEXT_W * PLOT_LEGEND_SCALE + 0.5) * cp->ht / vw;
-    for (c = 0; c < 4; c++) { /* right above, left above, right below, left below */
-        int right = c == 0 || c == 2, above = c < 2;
-        cb.x0[c] = right ? 0.99 - w : 0.01;
-        cb.x1[c] = right ? 0.99 : 0.01 + w;
-        cb.y0[c] = above ? v + off : v - off - lh;
-        cb.y1[c] = above ? v + off + lh : v - off;
-        cb.hits[c] = cb.y0[c] < 0.0 || cb.y1[c] > 1.0 ? (size_t)-1 / 2 : 0;
+    for (i = 0; i < p->n_hlines; i++) {
+        const double *b = pp->label_box[i];
+        char text[PLOT_TEXT_SIZE];
+        double u = 0.5 * (b[0] + b[1]), yc = 0.5 * (b[2] + b[3]);
+        if (!(b[0] < b[1]))
+            continue;
+        text_copy(text, p->hlines[i].label);
+        if (pp->label_on[i]) { /* on its line: a background box cuts the line under the text */
+            PLFLT bx[4], by[4];
+            bx[0] = bx[3] = cp->x.lo + b[0] * xspan;
+            bx[1] = bx[2] = cp->x.lo + b[1] * xspan;
+            by[0] = by[1] = pp->y.lo + (b[2] + 0.15 * lh) * yspan;
+            by[2] = by[3] = pp->y.lo + (b[3] - 0.15 * lh) * yspan;
+            plcol0(COL_BG);
+            plfill(4, bx, by);
+        }
+        plschr(0.0, PLOT_LEGEND_SCALE);
+        halo_text(cp->x.lo + u * xspan, pp->y.lo + yc * yspan, 0.08 * cp->ht / vw * xspan,
+                  0.08 * cp->ht / vh * yspan, 0.5, text);
+        plschr(0.0, 1.0);
     }
-    for (i = 0; i < p->n_series; i++) {
-        const tp_plot_series *s = &p->series[i];
-        corner_series(&cb, s, &cp->x, s->right_axis ? &pp->y2 : &pp->y);
-    }
-    for (c = 1; c < 4; c++)
-        if (cb.hits[c] < cb.hits[best])
-            best = c;
-    u = best == 0 || best == 2 ? 0.99 : 0.01;
-    yc = 0.5 * (cb.y0[best] + cb.y1[best]);
-    plschr(0.0, PLOT_LEGEND_SCALE);
-    halo_text(cp->x.lo + u * xspan, pp->y.lo + yc * yspan, 0.08 * cp->ht / vw * xspan,
-              0.08 * cp->ht / vh * yspan, best == 0 || best == 2 ? 1.0 : 0.0, text);
-    plschr(0.0, 1.0);
 }
 
 static void panel_draw(const chart_plan *cp, const panel_plan *pp, int top, int bottom)
@@ -702,12 +785,12 @@ static void panel_draw(const chart_plan *cp, const panel_plan *pp, int top, int 
         hline_line(cp, &p->hlines[i]);
     for (i = 0; i < p->n_series; i++)
         if (!p->series[i].right_axis)
-            series_draw(cp, &p->series[i], pp->first + i);
+            series_draw(cp, &p->series[i], cp->key[pp->first + i]);
     if (pp->right) {
         plwind(cp->x.lo, cp->x.hi, pp->y2.lo, pp->y2.hi);
         for (i = 0; i < p->n_series; i++)
             if (p->series[i].right_axis)
-                series_draw(cp, &p->series[i], pp->first + i);
+                series_draw(cp, &p->series[i], cp->key[pp->first + i]);
         plcol0(COL_INK);
         plwidth(PLOT_AXIS_W * cp->scale);
         box_draw("", NULL, "cmostv", &pp->y2);
@@ -715,8 +798,7 @@ static void panel_draw(const chart_plan *cp, const panel_plan *pp, int top, int 
         plmtex("r", cp->y2label_disp, 0.5, 0.5, text);
         plwind(cp->x.lo, cp->x.hi, pp->y.lo, pp->y.hi);
     }
-    for (i = 0; i < p->n_hlines; i++)
-        hline_label(cp, pp, &p->hlines[i]);
+    labels_draw(cp, pp);
     plcol0(COL_INK);
     plwidth(PLOT_AXIS_W * cp->scale);
     box_draw(bottom ? "bcnost" : "bcst", &cp->x, pp->right ? "bnostv" : "bcnostv", &pp->y);
@@ -735,7 +817,8 @@ static void panel_draw(const chart_plan *cp, const panel_plan *pp, int top, int 
     if (lg->n > 0) {
         plwidth(PLOT_AXIS_W * cp->scale);
         pllegend(&lw, &lh, PL_LEGEND_BACKGROUND | PL_LEGEND_BOUNDING_BOX, lg->position, 0.012,
-                 0.025, lg->sample_w, COL_BG, COL_INK, 1, 0, 0, lg->n, lg->opt, 1.0,
+                 0.025, lg->sample_w, COL_BG, COL_INK, 1, (lg->n + lg->ncol - 1) / lg->ncol,
+                 lg->ncol, lg->n, lg->opt, 1.0,
                  PLOT_LEGEND_SCALE, PLOT_LEGEND_SPACING, 0.0, lg->ink, lg->text, NULL, NULL, NULL,
                  NULL, lg->colour, lg->style, lg->width, lg->colour, lg->sscale, lg->nsym,
                  lg->glyph);
@@ -751,6 +834,129 @@ static void chart_draw(const void *plan)
         panel_draw(cp, &cp->panels[i], i == 0, i + 1 == cp->c->n_panels);
 }
 
+/* The data and reference lines that a legend of bw x bh (normalised) would hide in each
+ * corner (right top, left top, right bottom, left bottom). */
+static void legend_hits(const chart_plan *cp, const panel_plan *pp, double bw, double bh,
+                        corner_boxes *cb)
+{
+    const tp_plot_panel *p = pp->p;
+    size_t i;
+    int c;
+    cb->n = 4;
+    for (c = 0; c < 4; c++) {
+        int right = c == 0 || c == 2, topc = c < 2;
+        cb->x0[c] = right ? 1.0 - bw : 0.0;
+        cb->x1[c] = right ? 1.0 : bw;
+        cb->y0[c] = topc ? 1.0 - bh : 0.0;
+        cb->y1[c] = topc ? 1.0 : bh;
+        cb->hits[c] = 0;
+    }
+    for (i = 0; i < p->n_series; i++) {
+        const tp_plot_series *s = &p->series[i];
+        corner_series(cb, s, &cp->x, s->right_axis ? &pp->y2 : &pp->y);
+    }
+    for (i = 0; i < p->n_hlines; i++) {
+        double v = (p->hlines[i].y - pp->y.lo) / (pp->y.hi - pp->y.lo);
+        int k;
+        for (k = 0; k <= 100 && isfinite(v); k++)
+            corner_hit(cb, k / 100.0, v);
+    }
+}
+
+/* The highest (top) or lowest (!top) normalised value of the panel's data and reference lines
+ * within [u0, u1] of the x axis (line segments sampled every 1 % of the viewport). */
+static double span_extreme(const chart_plan *cp, const panel_plan *pp, double u0, double u1,
+                           int top)
+{
+    const tp_plot_panel *p = pp->p;
+    double ext = top ? -HUGE_VAL : HUGE_VAL;
+    size_t i, j;
+    for (i = 0; i < p->n_hlines; i++) {
+        double v = (p->hlines[i].y - pp->y.lo) / (pp->y.hi - pp->y.lo);
+        if (isfinite(v))
+            ext = top ? fmax(ext, v) : fmin(ext, v);
+    }
+    for (i = 0; i < p->n_series; i++) {
+        const tp_plot_series *s = &p->series[i];
+        double pu = (double)NAN, pv = (double)NAN;
+        for (j = 0; j < s->n; j++) {
+            double u, v;
+            int k, m;
+            if (!isfinite(s->x[j]) || !isfinite(s->y[j])) {
+                pu = pv = (double)NAN;
+                continue;
+            }
+            u = (s->x[j] - cp->x.lo) / (cp->x.hi - cp->x.lo);
+            v = (s->y[j] - pp->y.lo) / (pp->y.hi - pp->y.lo);
+            m = isfinite(pu) && !s->markers ? (int)fmin(ceil(fabs(u - pu) / 0.01), 100.0) : 0;
+            for (k = 0; k <= m; k++) {
+                double uu = m ? pu + (u - pu) * k / m : u, vv = m ? pv + (v - pv) * k / m : v;
+                if (uu >= u0 && uu <= u1)
+                    ext = top ? fmax(ext, vv) : fmin(ext, vv);
+            }
+            pu = u;
+            pv = v;
+        }
+    }
+    return ext;
+}
+
+#define PLOT_LEGEND_GAP 0.03  /* space between a legend and the data it clears, of the panel */
+#define PLOT_LEGEND_GROW 2.5  /* the most a panel's y range grows to clear its legend, times */
+
+/* How much a panel's y range must grow (times) for a legend of bw x bh to clear the data in
+ * one corner (upwards for a top corner, down for a bottom one), and that corner; HUGE_VAL when
+ * no corner can be cleared within PLOT_LEGEND_GROW or the panel has a right axis. */
+static double legend_need(const chart_plan *cp, const panel_plan *pp, double bw, double bh,
+                          int *corner)
+{
+    double need = HUGE_VAL, room = 1.0 - bh - PLOT_LEGEND_GAP;
+    int c;
+    *corner = -1;
+    if (pp->right || room <= 0.2)
+        return HUGE_VAL;
+    for (c = 0; c < 4; c++) {
+        int right = c == 0 || c == 2, topc = c < 2;
+        double u0 = right ? 1.0 - bw : 0.0, u1 = right ? 1.0 : bw, grow;
+        double ext = span_extreme(cp, pp, u0, u1, topc);
+        /* the data must end below 1 - bh (top) or start above bh (bottom) of the new range */
+        grow = fmax(1.0, topc ? ext / room : (1.0 - ext) / room);
+        if (isfinite(grow) && grow < need) {
+            need = grow;
+            *corner = c;
+        }
+    }
+    return need <= PLOT_LEGEND_GROW ? need : HUGE_VAL;
+}
+
+/* Grow the y range by `need` (from legend_need) away from the legend's corner. */
+static void legend_room(panel_plan *pp, double need, int corner)
+{
+    double span = pp->y.hi - pp->y.lo, lo = pp->y.lo, hi = pp->y.hi;
+    if (corner < 2)
+        hi = lo + need * span;
+    else
+        lo = hi - need * span;
+    axis_fit(&pp->y, lo, hi, 0.0, pp->ticks);
+}
+
+/* The estimated legend box of `ncol` columns, normalised to the viewport, with the offsets
+ * given to pllegend; 0 when it is wider than the panel. */
+static int legend_size(const chart_plan *cp, const panel_plan *pp, PLINT n, PLINT ncol,
+                       size_t longest, double *bw, double *bh)
+{
+    PLINT rows = (n + ncol - 1) / ncol;
+    double vw = pp->vx1 - pp->vx0, vh = pp->vy1 - pp->vy0;
+    *bw = (double)ncol * (3.5 + 2.0 + (double)longest * PLOT_TEXT_W * PLOT_LEGEND_SCALE) *
+              cp->ht / vw + 0.012;
+    *bh = ((double)rows * PLOT_LEGEND_SPACING * PLOT_LEGEND_SCALE + 1.0) * cp->ht / vh + 0.025;
+    if (ncol > 1 && *bw > 0.98)
+        return 0;
+    *bw = fmin(*bw, 1.0);
+    *bh = fmin(*bh, 1.0);
+    return 1;
+}
+
 /* Fill the legend of a panel and choose the corner where it hides the fewest data. */
 static void legend_plan_fill(const chart_plan *cp, panel_plan *pp)
 {
@@ -759,7 +965,7 @@ static void legend_plan_fill(const chart_plan *cp, panel_plan *pp)
         PL_POSITION_BOTTOM | PL_POSITION_RIGHT, PL_POSITION_BOTTOM | PL_POSITION_LEFT};
     const tp_plot_panel *p = pp->p;
     legend_plan *lg = &pp->legend;
-    double vw = pp->vx1 - pp->vx0, vh = pp->vy1 - pp->vy0, bw, bh;
+    double vw = pp->vx1 - pp->vx0, bw, bh;
     size_t i, longest = 0;
     corner_boxes cb;
     int c, best = 0;
@@ -776,13 +982,13 @@ static void legend_plan_fill(const chart_plan *cp, panel_plan *pp)
             strcat(lg->store[k], " (right axis)");
         lg->text[k] = lg->store[k];
         lg->opt[k] = s->markers ? PL_LEGEND_SYMBOL : PL_LEGEND_LINE;
-        lg->colour[k] = series_colour(pp->first + i);
+        lg->colour[k] = series_colour(cp->key[pp->first + i]);
         lg->ink[k] = COL_INK;
         lg->style[k] = series_style(s);
         lg->width[k] = PLOT_LINE_W * cp->scale;
         lg->sscale[k] = PLOT_MARK_SCALE / PLOT_LEGEND_SCALE;
         lg->nsym[k] = 2;
-        lg->glyph[k] = series_glyph(pp->first + i);
+        lg->glyph[k] = series_glyph(cp->key[pp->first + i]);
         if (text_chars(lg->store[k]) > longest)
             longest = text_chars(lg->store[k]);
         lg->n++;
@@ -790,33 +996,46 @@ static void legend_plan_fill(const chart_plan *cp, panel_plan *pp)
     if (lg->n == 0)
         return;
 
-    /* estimated legend box, normalised to the viewport, with the offsets given to pllegend */
-    bw = (3.5 + 2.0 + (double)longest * PLOT_TEXT_W * PLOT_LEGEND_SCALE) * cp->ht / vw + 0.012;
-    bh = ((double)lg->n * PLOT_LEGEND_SPACING * PLOT_LEGEND_SCALE + 1.0) * cp->ht / vh + 0.025;
-    bw = fmin(bw, 1.0);
-    bh = fmin(bh, 1.0);
-    for (c = 0; c < 4; c++) {
-        int right = c == 0 || c == 2, topc = c < 2;
-        cb.x0[c] = right ? 1.0 - bw : 0.0;
-        cb.x1[c] = right ? 1.0 : bw;
-        cb.y0[c] = topc ? 1.0 - bh : 0.0;
-        cb.y1[c] = topc ? 1.0 : bh;
-        cb.hits[c] = 0;
-    }
-    for (i = 0; i < p->n_series; i++) {
-        const tp_plot_series *s = &p->series[i];
-        corner_series(&cb, s, &cp->x, s->right_axis ? &pp->y2 : &pp->y);
-    }
-    for (i = 0; i < p->n_hlines; i++) {
-        double v = (p->hlines[i].y - pp->y.lo) / (pp->y.hi - pp->y.lo);
-        int k;
-        for (k = 0; k <= 100 && isfinite(v); k++)
-            corner_hit(&cb, k / 100.0, v);
-    }
+    /* One column where a corner is free of data. Otherwise the number of columns (as many as
+     * fit across) and the corner that need the y range to grow least to clear the data. */
+    lg->ncol = 1;
+    legend_size(cp, pp, lg->n, 1, longest, &bw, &bh);
+    legend_hits(cp, pp, bw, bh, &cb);
     for (c = 1; c < 4; c++)
         if (cb.hits[c] < cb.hits[best])
             best = c;
+    if (cb.hits[best] > 0) {
+        double need = HUGE_VAL;
+        PLINT ncol, pick_ncol = 1;
+        int corner, pick = -1;
+        for (ncol = 1; ncol <= lg->n && legend_size(cp, pp, lg->n, ncol, longest, &bw, &bh);
+             ncol++) {
+            double g = legend_need(cp, pp, bw, bh, &corner);
+            if (g < need - 1e-9) {
+                need = g;
+                pick = corner;
+                pick_ncol = ncol;
+            }
+        }
+        if (pick >= 0) {
+            lg->ncol = pick_ncol;
+            legend_size(cp, pp, lg->n, lg->ncol, longest, &bw, &bh);
+            legend_room(pp, need, pick);
+            legend_hits(cp, pp, bw, bh, &cb);
+            best = pick;
+            for (c = 0; c < 4; c++)
+                if (cb.hits[c] < cb.hits[best])
+                    best = c;
+        } else {
+            legend_size(cp, pp, lg->n, 1, longest, &bw, &bh);
+            legend_hits(cp, pp, bw, bh, &cb);
+        }
+    }
     lg->position = PL_POSITION_INSIDE | PL_POSITION_VIEWPORT | corner_pos[best];
+    lg->box[0] = cb.x0[best];
+    lg->box[1] = cb.x1[best];
+    lg->box[2] = cb.y0[best];
+    lg->box[3] = cb.y1[best];
 }
 
 /* Finite range of a series' y values into [*lo, *hi]; returns the count of finite points and
@@ -839,6 +1058,19 @@ static size_t series_range(const tp_plot_series *s, double *xlo, double *xhi, do
     return n;
 }
 
+static void chart_plan_free(chart_plan *cp)
+{
+    size_t i;
+    for (i = 0; cp->panels && i < cp->c->n_panels; i++) {
+        free(cp->panels[i].label_box);
+        free(cp->panels[i].label_on);
+    }
+    free(cp->panels);
+    free(cp->key);
+    cp->panels = NULL;
+    cp->key = NULL;
+}
+
 /* Check a chart and lay it out; on failure report and return non-OK (nothing allocated). */
 static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c, const char *path,
                                   tp_diag *d)
@@ -846,7 +1078,7 @@ static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c, const 
     double xlo = HUGE_VAL, xhi = -HUGE_VAL, page_w, page_h, top, bottom, gap, avail, share = 0.0;
     double left, right, ytop;
     size_t i, j, first = 0;
-    int lchars = 1, rchars = 1, any_right = 0;
+    int lchars = 1, rchars = 1, any_right = 0, pass;
     tp_status st;
 
     memset(cp, 0, sizeof *cp);
@@ -875,6 +1107,13 @@ static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c, const 
         size_t finite = 0, skipped = 0;
         pp->p = p;
         pp->first = first;
+        pp->label_box = calloc(p->n_hlines + 1, sizeof *pp->label_box);
+        pp->label_on = calloc(p->n_hlines + 1, sizeof *pp->label_on);
+        if (!pp->label_box || !pp->label_on) {
+            tp_diag_error(d, tp_loc_none(), path, NULL, "out of memory");
+            chart_plan_free(cp);
+            return TP_ERR_NOMEM;
+        }
         pp->right = p->y2label != NULL;
         any_right |= pp->right;
         first += p->n_series;
@@ -900,7 +1139,7 @@ static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c, const 
             if (s->n > INT_MAX) {
                 tp_diag_error(d, tp_loc_none(), path, NULL,
                               "panel %zu, series %zu: more than %d points", i + 1, j + 1, INT_MAX);
-                free(cp->panels);
+                chart_plan_free(cp);
                 return TP_ERR_LIMIT;
             }
             if (s->right_axis && !pp->right) {
@@ -942,6 +1181,29 @@ static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c, const 
         pp->y2.lo = rlo;
         pp->y2.hi = rhi;
     }
+    /* colour keys: a series takes the colour of the first series with its label */
+    cp->key = malloc((first > 0 ? first : 1) * sizeof *cp->key);
+    if (!cp->key) {
+        tp_diag_error(d, tp_loc_none(), path, NULL, "out of memory");
+        chart_plan_free(cp);
+        return TP_ERR_NOMEM;
+    }
+    for (i = 0, first = 0; i < c->n_panels; i++) {
+        for (j = 0; j < c->panels[i].n_series; j++, first++) {
+            const char *label = c->panels[i].series[j].label;
+            size_t a, b, k = first;
+            cp->key[first] = first;
+            for (a = 0; label && *label && a <= i && k == first; a++)
+                for (b = 0; b < c->panels[a].n_series && (a < i || b < j); b++) {
+                    const char *other = c->panels[a].series[b].label;
+                    if (other && strcmp(other, label) == 0) {
+                        k = cp->panels[a].first + b;
+                        break;
+                    }
+                }
+            cp->key[first] = cp->key[k];
+        }
+    }
     if (!(xlo <= xhi))
         xlo = xhi = 0.0; /* reference lines only */
     if (!isfinite(xhi - xlo)) {
@@ -976,37 +1238,46 @@ static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c, const 
                           i + 1);
             goto usage;
         }
-        axis_fit(&pp->y, pp->y.lo, pp->y.hi, PLOT_PAD, h / (3.5 * cp->ht));
-        if (pp->y.label_len > lchars)
-            lchars = pp->y.label_len;
-        if (pp->right) {
-            axis_fit(&pp->y2, pp->y2.lo, pp->y2.hi, PLOT_PAD, h / (3.5 * cp->ht));
-            if (pp->y2.label_len > rchars)
-                rchars = pp->y2.label_len;
-        }
+        pp->ticks = h / (3.5 * cp->ht);
+        axis_fit(&pp->y, pp->y.lo, pp->y.hi, PLOT_PAD, pp->ticks);
+        if (pp->right)
+            axis_fit(&pp->y2, pp->y2.lo, pp->y2.hi, PLOT_PAD, pp->ticks);
     }
 
-    /* horizontal layout: room for the widest tick labels and the axis titles */
-    cp->ylabel_disp = 0.8 + lchars * PLOT_DIGIT_W + 1.2;
-    cp->y2label_disp = 0.8 + rchars * PLOT_DIGIT_W + 1.2;
-    left = (cp->ylabel_disp + 1.2) * cp->ht;
-    right = any_right ? (cp->y2label_disp + 1.2) * cp->ht : 2.5 * cp->ht;
-    if (page_w - left - right < 10.0 * cp->ht) {
-        tp_diag_error(d, tp_loc_none(), path, "make the figure wider",
-                      "the figure is too narrow for its axis labels");
-        goto usage;
-    }
-    axis_fit(&cp->x, xlo, xhi, 0.0, (page_w - left - right) / (9.0 * cp->ht));
-    for (i = 0; i < c->n_panels; i++) {
-        cp->panels[i].vx0 = left;
-        cp->panels[i].vx1 = page_w - right;
-        legend_plan_fill(cp, &cp->panels[i]);
+    /* horizontal layout: room for the widest tick labels and the axis titles; again when a
+     * legend made room for itself and lengthened a panel's tick labels */
+    for (pass = 0; pass < 2; pass++) {
+        int wider = 0;
+        for (i = 0; i < c->n_panels; i++) {
+            wider |= cp->panels[i].y.label_len > lchars ||
+                     (cp->panels[i].right && cp->panels[i].y2.label_len > rchars);
+            lchars = cp->panels[i].y.label_len > lchars ? cp->panels[i].y.label_len : lchars;
+            if (cp->panels[i].right && cp->panels[i].y2.label_len > rchars)
+                rchars = cp->panels[i].y2.label_len;
+        }
+        if (pass > 0 && !wider)
+            break;
+        cp->ylabel_disp = 0.8 + lchars * PLOT_DIGIT_W + 1.2;
+        cp->y2label_disp = 0.8 + rchars * PLOT_DIGIT_W + 1.2;
+        left = (cp->ylabel_disp + 1.2) * cp->ht;
+        right = any_right ? (cp->y2label_disp + 1.2) * cp->ht : 2.5 * cp->ht;
+        if (page_w - left - right < 10.0 * cp->ht) {
+            tp_diag_error(d, tp_loc_none(), path, "make the figure wider",
+                          "the figure is too narrow for its axis labels");
+            goto usage;
+        }
+        axis_fit(&cp->x, xlo, xhi, 0.0, (page_w - left - right) / (9.0 * cp->ht));
+        for (i = 0; i < c->n_panels; i++) {
+            cp->panels[i].vx0 = left;
+            cp->panels[i].vx1 = page_w - right;
+            legend_plan_fill(cp, &cp->panels[i]);
+            labels_plan(cp, &cp->panels[i]);
+        }
     }
     return TP_OK;
 
 usage:
-    free(cp->panels);
-    cp->panels = NULL;
+    chart_plan_free(cp);
     return TP_ERR_USAGE;
 }
 
@@ -1021,8 +1292,68 @@ tp_status tp_plot_chart_write(const char *path, const tp_plot_chart *chart, tp_d
     if (st != TP_OK)
         return st;
     st = plot_write(path, fmt, cp.width, cp.height, chart_draw, &cp, d);
-    free(cp.panels);
+    chart_plan_free(&cp);
     return st;
+}
+
+tp_status tp_plot_chart_layout(const char *path, const tp_plot_chart *chart, tp_plot_layout *out,
+                               tp_diag *d)
+{
+    chart_plan cp;
+    tp_status st;
+    size_t i, k;
+    memset(out, 0, sizeof *out);
+    if (!figure_target(path, chart, "chart", d))
+        return TP_ERR_USAGE;
+    st = chart_plan_build(&cp, chart, path, d);
+    if (st != TP_OK)
+        return st;
+    out->panels = calloc(chart->n_panels, sizeof *out->panels);
+    if (!out->panels) {
+        chart_plan_free(&cp);
+        return TP_ERR_NOMEM;
+    }
+    out->n_panels = chart->n_panels;
+    out->xlo = cp.x.lo;
+    out->xhi = cp.x.hi;
+    for (i = 0; i < chart->n_panels; i++) {
+        const panel_plan *pp = &cp.panels[i];
+        tp_plot_panel_layout *pl = &out->panels[i];
+        pl->ylo = pp->y.lo;
+        pl->yhi = pp->y.hi;
+        pl->legend_columns = pp->legend.n > 0 ? (int)pp->legend.ncol : 0;
+        pl->legend = (tp_plot_box){pp->legend.box[0], pp->legend.box[1], pp->legend.box[2],
+                                   pp->legend.box[3]};
+        pl->labels = calloc(pp->p->n_hlines + 1, sizeof *pl->labels);
+        pl->label_on_line = calloc(pp->p->n_hlines + 1, sizeof *pl->label_on_line);
+        pl->colour = calloc(pp->p->n_series + 1, sizeof *pl->colour);
+        if (!pl->labels || !pl->label_on_line || !pl->colour) {
+            chart_plan_free(&cp);
+            tp_plot_layout_clear(out);
+            return TP_ERR_NOMEM;
+        }
+        for (k = 0; k < pp->p->n_hlines; k++) {
+            pl->labels[k] = (tp_plot_box){pp->label_box[k][0], pp->label_box[k][1],
+                                          pp->label_box[k][2], pp->label_box[k][3]};
+            pl->label_on_line[k] = pp->label_on[k];
+        }
+        for (k = 0; k < pp->p->n_series; k++)
+            pl->colour[k] = series_colour(cp.key[pp->first + k]) - COL_SERIES;
+    }
+    chart_plan_free(&cp);
+    return TP_OK;
+}
+
+void tp_plot_layout_clear(tp_plot_layout *l)
+{
+    size_t i;
+    for (i = 0; l->panels && i < l->n_panels; i++) {
+        free(l->panels[i].labels);
+        free(l->panels[i].label_on_line);
+        free(l->panels[i].colour);
+    }
+    free(l->panels);
+    memset(l, 0, sizeof *l);
 }
 
 /* ---- heat maps --------------------------------------------------------------------------- */

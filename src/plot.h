@@ -72,6 +72,34 @@ tp_status tp_plot_check_path(const char *path, tp_diag *d);
  * Nothing is written to standard output. Not thread-safe: PLplot state is global. */
 tp_status tp_plot_chart_write(const char *path, const tp_plot_chart *chart, tp_diag *d);
 
+/* Where tp_plot_chart_write puts each panel's legend and reference-line labels, and which
+ * palette colour each series takes; boxes are normalised to the panel's plotting area (0 to 1
+ * along x and y). */
+typedef struct tp_plot_box {
+    double x0, x1, y0, y1; /* x0 > x1: nothing there */
+} tp_plot_box;
+
+typedef struct tp_plot_panel_layout {
+    double ylo, yhi;     /* the y axis as drawn (a legend may have grown it to clear the data) */
+    int legend_columns;  /* 0: no legend */
+    tp_plot_box legend;
+    tp_plot_box *labels; /* per reference line: its label */
+    int *label_on_line;  /* per reference line: nonzero when the label sits on its line */
+    int *colour;         /* per series: palette index (series with one label share one) */
+} tp_plot_panel_layout;
+
+typedef struct tp_plot_layout {
+    double xlo, xhi; /* the x axis as drawn */
+    size_t n_panels;
+    tp_plot_panel_layout *panels;
+} tp_plot_layout;
+
+/* Lay `chart` out as tp_plot_chart_write would for `path` (its extension and size checked the
+ * same way), without drawing; free with tp_plot_layout_clear. */
+tp_status tp_plot_chart_layout(const char *path, const tp_plot_chart *chart, tp_plot_layout *out,
+                               tp_diag *d);
+void tp_plot_layout_clear(tp_plot_layout *l);
+
 /* A heat map of a plate. */
 typedef struct tp_plot_map {
     const char *title, *xlabel, *ylabel, *zlabel; /* zlabel: colour-bar label */

@@ -148,7 +148,7 @@ static void test_rise_recommendation_matches_first_order_closed_form(void **stat
     tp_desc desc;
     tp_guard_study *st = calloc(1, sizeof *st);
     tp_diag d;
-    double tau = 500.0, tinf = 220.0 + KELVIN, ta, w, m_cf, slope, tol;
+    double tau = 500.0, tinf = 220.0 + KELVIN, tinf_cold = 215.0 + KELVIN, ta, w, m_cf, slope, tol;
     (void)state;
     assert_non_null(st);
     load(first_order, &doc, &desc);
@@ -163,11 +163,15 @@ static void test_rise_recommendation_matches_first_order_closed_form(void **stat
     /* Closed form: T(t) = T_inf - (T_inf - T0) exp(-t/tau), so the rise over [t - W, t] is
      * (T_inf - T(t)) (exp(W/tau) - 1), falling with t: the smallest judged rise is at the last
      * armed sample, where T is just below Ta. With Ta itself: m = (T_inf - Ta)(e^{W/tau} - 1).
-     * The last armed sample lies less than one period (1 s) of slope (T_inf - Ta)/tau below
-     * Ta, which bounds the difference: tol = slope * 1 s * (e^{W/tau} - 1), plus 1e-3 K for the
-     * integrator (rtol 1e-6 on ~370 K). */
-    m_cf = (tinf - ta) * (exp(w / tau) - 1.0);
-    slope = (tinf - ta) / tau;
+     * The file declares no guard: ranges, so the default room range applies (15 to 30 degC,
+     * common practice, no source) and the slowest corner is the 15 degC room, where
+     * T_inf = 15 + 400/2 = 215 degC (hand calculation). The last armed sample lies less than
+     * one period (1 s) of slope (T_inf - Ta)/tau below Ta, which bounds the difference:
+     * tol = slope * 1 s * (e^{W/tau} - 1), plus 1e-3 K for the integrator (rtol 1e-6 on
+     * ~370 K). */
+    assert_int_equal(st->n_corners, 3); /* nominal, 15 degC, 30 degC */
+    m_cf = (tinf_cold - ta) * (exp(w / tau) - 1.0);
+    slope = (tinf_cold - ta) / tau;
     tol = desc.guard.rise_factor * slope * 1.0 * (exp(w / tau) - 1.0) + 1e-3;
     assert_true(fabs(st->rise_min_raw - desc.guard.rise_factor * m_cf) <= tol);
     /* 0.67 is the documented default rise factor (docs/guard.md). */
@@ -179,7 +183,7 @@ static void test_rise_recommendation_matches_first_order_closed_form(void **stat
     assert_true(st->rec.rise_min >= TP_GUARD_RISE_FLOOR - 1e-9);
     /* The window is the shortest on the 1 s grid whose closed-form rise clears the floor, or
      * longer (it may trade length for detection): 0.67 (T_inf - Ta)(e^{W/tau} - 1) >= 1 K needs
-     * W >= tau ln(1 + 1/(0.67 * 120.5)) = 6.16 s (hand calculation). */
+     * W >= tau ln(1 + 1/(0.67 * 115.5)) = 6.43 s (hand calculation). */
     assert_true(w >= 7.0);
     /* Stuck on: the equilibrium at full power is T_inf = 220 degC (hand calculation). */
     assert_true(st->has_stuck);
@@ -281,6 +285,187 @@ static void test_detached_sensor_caught_before_the_limit(void **state)
     tp_scratch_destroy(&sc);
 }
 
+/* A key of a JSON object as a number, failing the test when it is missing. */
+static double json_number(const cJSON *obj, const char *key)
+{
+    const cJSON *it = cJSON_GetObjectItem(obj, key);
+    if (!cJSON_IsNumber(it))
+        fail_msg("no number '%s' in the JSON output", key);
+    return it->valuedouble;
+}
+
+/* ---- ranges and their defaults --------------------------------------------------------------- */
+
+static void test_guard_without_ranges_uses_stated_defaults(void **state)
+{
+    /* The 230 V hotplate declares no guard: ranges. The defaults are supply +-5 %, heater
+     * resistance +-5 % and a room of 15 to 30 degC (common practice, no source), so guard
+     * runs 2^3 corners plus nominal and says which ranges are defaults. The ends, by hand:
+     * 230 V x 0.95 = 218.5 V, x 1.05 = 241.5 V; 88 ohm x 0.95 = 83.6 ohm, x 1.05 = 92.4 ohm. */
+    tp_scratch sc;
+    tp_run_result r;
+    char path[TP_TEST_PATH];
+    cJSON *g, *rg, *def;
+    (void)state;
+    tp_scratch_create(&sc);
+    tp_scratch_path(&sc, "defaults.json", path, sizeof path);
+    {
+        const char *args[] = {"guard", TP_SOURCE_DIR "/configs/lab-hotplate-230v.yaml", "--json",
+                              path, NULL};
+        tp_run_tepid(&sc, args, &r);
+    }
+    assert_int_equal(r.status, 0);
+    tp_check_contains("summary", r.out, "supply 218.5 to 241.5 V (+-5 %, default)");
+    tp_check_contains("summary", r.out, "heater resistance 83.6 to 92.4 ohm (+-5 %, default)");
+    tp_check_contains("summary", r.out, "room 15 to 30 degC (default)");
+    tp_check_contains("summary", r.out, "guard: declares no range for supply, resistance, room: "
+                                        "the defaults (common practice, no source) stand in");
+    tp_run_clear(&r);
+    g = tp_read_json(path);
+    assert_int_equal(cJSON_GetArraySize(cJSON_GetObjectItem(g, "corners")), 9);
+    def = cJSON_GetObjectItem(g, "default_ranges");
+    assert_int_equal(cJSON_GetArraySize(def), 3);
+    assert_string_equal(cJSON_GetArrayItem(def, 0)->valuestring, "supply");
+    assert_string_equal(cJSON_GetArrayItem(def, 1)->valuestring, "resistance");
+    assert_string_equal(cJSON_GetArrayItem(def, 2)->valuestring, "room");
+    rg = cJSON_GetObjectItem(g, "ranges");
+    tp_check_abs("supply low", json_number(cJSON_GetObjectItem(rg, "supply_V"), "low"), 218.5,
+                 1e-9);
+    tp_check_abs("supply high", json_number(cJSON_GetObjectItem(rg, "supply_V"), "high"), 241.5,
+                 1e-9);
+    tp_check_abs("resistance low", json_number(cJSON_GetObjectItem(rg, "resistance_ohm"), "low"),
+                 83.6, 1e-9);
+    tp_check_abs("room low", json_number(cJSON_GetObjectItem(rg, "room_C"), "low"), 15.0, 1e-9);
+    tp_check_abs("room high", json_number(cJSON_GetObjectItem(rg, "room_C"), "high"), 30.0,
+                 1e-9);
+    assert_string_equal(
+        cJSON_GetObjectItem(cJSON_GetObjectItem(rg, "room_C"), "origin")->valuestring, "default");
+    assert_string_equal(
+        cJSON_GetObjectItem(cJSON_GetObjectItem(rg, "airflow_m_per_s"), "origin")->valuestring,
+        "none");
+    cJSON_Delete(g);
+    /* The 24 V demo declares all four: no defaults, and no line saying so. */
+    {
+        const char *args[] = {"guard", TP_SOURCE_DIR "/configs/workshop-bed-24v.yaml", "--json",
+                              path, NULL};
+        tp_run_tepid(&sc, args, &r);
+    }
+    assert_int_equal(r.status, 0);
+    tp_check_contains("summary", r.out, "room 15 to 30 degC (declared)");
+    assert_null(strstr(r.out, "stand in"));
+    tp_run_clear(&r);
+    g = tp_read_json(path);
+    assert_int_equal(cJSON_GetArraySize(cJSON_GetObjectItem(g, "default_ranges")), 0);
+    assert_int_equal(cJSON_GetArraySize(cJSON_GetObjectItem(g, "corners")), 17);
+    cJSON_Delete(g);
+    /* A range pinned to one value is declared, not defaulted: a fixed room of 22 degC leaves
+     * supply and resistance to their defaults, 2^2 corners plus nominal. */
+    {
+        const char *args[] = {"guard", TP_SOURCE_DIR "/configs/lab-hotplate-230v.yaml", "--set",
+                              "guard.room=[22 degC, 22 degC]", "--json", path, "-q", NULL};
+        assert_int_equal(tp_run_status(&sc, args), 0);
+    }
+    g = tp_read_json(path);
+    assert_int_equal(cJSON_GetArraySize(cJSON_GetObjectItem(g, "corners")), 5);
+    assert_int_equal(cJSON_GetArraySize(cJSON_GetObjectItem(g, "default_ranges")), 2);
+    cJSON_Delete(g);
+    tp_scratch_destroy(&sc);
+}
+
+/* ---- gridded plates ------------------------------------------------------------------------- */
+
+static void test_guard_runs_on_a_gridded_plate(void **state)
+{
+    /* Guard once crashed on every gridded plate (its hand-made copy of the network lost the
+     * grid). On a 3 x 3 grid its stuck-on equilibrium must be `steady`'s full-power state of
+     * the same grid (the heater's cells at full power, the sensor read on its cell): both solve
+     * one network, so they agree to the solver's tolerance, 1e-6 K. */
+    tp_scratch sc;
+    char gj[TP_TEST_PATH], sj[TP_TEST_PATH];
+    cJSON *g, *s, *gn, *it;
+    int count = 0, detached = 0;
+    (void)state;
+    tp_scratch_create(&sc);
+    tp_scratch_path(&sc, "grid-guard.json", gj, sizeof gj);
+    tp_scratch_path(&sc, "grid-steady.json", sj, sizeof sj);
+    {
+        const char *args[] = {"guard", HOT_PLATE, "--set", "bed.grid=[3, 3]", "--json", gj,
+                              "-q",    NULL};
+        assert_int_equal(tp_run_status(&sc, args), 0);
+    }
+    {
+        const char *args[] = {"steady", HOT_PLATE, "--set", "bed.grid=[3, 3]", "--set",
+                              "control.mode=full", "--json", sj, "-q", NULL};
+        assert_int_equal(tp_run_status(&sc, args), 0);
+    }
+    g = tp_read_json(gj);
+    s = tp_read_json(sj);
+    gn = cJSON_GetObjectItem(cJSON_GetObjectItem(g, "stuck_on"), "nodes_C");
+    assert_non_null(gn);
+    cJSON_ArrayForEach(it, cJSON_GetObjectItem(s, "nodes_C")) {
+        tp_check_abs(it->string, json_number(gn, it->string), it->valuedouble, 1e-6);
+        count++;
+    }
+    assert_true(count >= 3 * 9); /* three layers of nine cells at least */
+    /* The sensor is a node of its own on its cell: detaching it applies, from both starts,
+     * and the recommended checks catch it before the laminate passes 150 degC, as on the
+     * lumped plate (test_detached_sensor_caught_before_the_limit). */
+    cJSON_ArrayForEach(it, cJSON_GetObjectItem(g, "faults")) {
+        if (strcmp(cJSON_GetObjectItem(it, "fault")->valuestring, "sensor-detached") != 0)
+            continue;
+        assert_true(cJSON_IsTrue(cJSON_GetObjectItem(it, "applicable")));
+        if (cJSON_IsNumber(cJSON_GetObjectItem(it, "limit_crossed_s")))
+            assert_true(json_number(it, "first_detection_s") <
+                        json_number(it, "limit_crossed_s"));
+        detached++;
+    }
+    assert_int_equal(detached, 2);
+    cJSON_Delete(g);
+    cJSON_Delete(s);
+    tp_scratch_destroy(&sc);
+}
+
+static void test_a_cold_sheet_dips_a_gridded_plate(void **state)
+{
+    /* The 24 V demo lays a cold 150 J/K sheet on the plate during hold. On a gridded plate it
+     * lands on the top cells (in proportion to their area) and takes their heat, so the
+     * reading dips. Hand calculation: the sheet at room temperature (20 degC) takes
+     * 150 J/K x 70 K = 10.5 kJ from a plate at 90 degC; shared with the pad, plate, magnet and
+     * sheet layers (87 + 793 + 123 + 115 = 1118 J/K, `tepid explain` of the demo) that is
+     * 10.5 kJ / (1118 + 150) J/K = 8.3 K before the heater answers. A dip of more than 2 K is a
+     * loose lower bound. A negligible sheet (1 mJ/K) takes nothing; what remains is the gust,
+     * which the PID holds closely, so the two dips differ by more than 2 K. Before the fix the
+     * sheet did nothing on a grid (and guard crashed first). */
+    tp_scratch sc;
+    char path[TP_TEST_PATH];
+    double dip, dip_none;
+    cJSON *g;
+    (void)state;
+    tp_scratch_create(&sc);
+    tp_scratch_path(&sc, "sheet.json", path, sizeof path);
+    {
+        const char *args[] = {"guard", TP_SOURCE_DIR "/configs/workshop-bed-24v.yaml", "--set",
+                              "bed.grid=[3, 3]", "--json", path, "-q", NULL};
+        assert_int_equal(tp_run_status(&sc, args), 0);
+    }
+    g = tp_read_json(path);
+    dip = json_number(cJSON_GetArrayItem(cJSON_GetObjectItem(g, "corners"), 0), "deepest_dip_K");
+    cJSON_Delete(g);
+    {
+        const char *args[] = {"guard", TP_SOURCE_DIR "/configs/workshop-bed-24v.yaml", "--set",
+                              "bed.grid=[3, 3]", "--set", "guard.sheet.capacity=0.001 J/K",
+                              "--json", path, "-q", NULL};
+        assert_int_equal(tp_run_status(&sc, args), 0);
+    }
+    g = tp_read_json(path);
+    dip_none = json_number(cJSON_GetArrayItem(cJSON_GetObjectItem(g, "corners"), 0),
+                           "deepest_dip_K");
+    cJSON_Delete(g);
+    assert_true(dip > 2.0);
+    assert_true(dip > dip_none + 2.0);
+    tp_scratch_destroy(&sc);
+}
+
 /* ---- healthy corners re-simulated with the checks ------------------------------------------- */
 
 typedef struct series {
@@ -372,6 +557,9 @@ int main(void)
         cmocka_unit_test(test_stuck_on_equilibrium_equals_steady),
         cmocka_unit_test(test_detached_sensor_caught_before_the_limit),
         cmocka_unit_test(test_healthy_corners_never_trip_recommended_settings),
+        cmocka_unit_test(test_guard_without_ranges_uses_stated_defaults),
+        cmocka_unit_test(test_guard_runs_on_a_gridded_plate),
+        cmocka_unit_test(test_a_cold_sheet_dips_a_gridded_plate),
     };
     return cmocka_run_group_tests(tests, NULL, teardown);
 }

@@ -1,0 +1,203 @@
+/* Tests of a chart's layout (tp_plot_chart_layout, what tp_plot_chart_write draws): labels of
+ * reference lines a few units apart do not print over each other or read as a neighbour's, a
+ * legend hides no data even when every corner holds some, and a series keeps its colour in
+ * every panel where its label appears. Cases modelled on the guard chart (setpoint, hold band
+ * and ceiling; six fault readings pinned at both edges). */
+#include "tp_test.h"
+
+#include "plot.h"
+
+#define N 181 /* points per series: 0 to 30 min every 10 s */
+
+static double t_min[N], ramp[N], pinned_high[N], pinned_low[N], half[N], cold[N], fall[N];
+
+/* Readings like those of the guard chart's cold-start faults: a ramp clipped at 130, one
+ * pinned at 130 and one at 5, one at the room's 20, a slow rise to 90 and a decay towards
+ * 20 (shapes of our own choosing). */
+static void make_data(void)
+{
+    int i;
+    for (i = 0; i < N; i++) {
+        double t = i / 6.0;
+        t_min[i] = t;
+        ramp[i] = fmin(20.0 + 8.0 * t, 130.0);
+        pinned_high[i] = 130.0;
+        pinned_low[i] = 5.0;
+        cold[i] = 20.0;
+        half[i] = 20.0 + 70.0 * (1.0 - exp(-t / 8.0));
+        fall[i] = 20.0 + 70.0 * exp(-t / 6.0);
+    }
+}
+
+static const tp_plot_hline guard_lines[] = {
+    {"setpoint", 90.0}, {"ceiling", 101.0}, {"hold band", 88.0}};
+
+static int overlap(const tp_plot_box *a, const tp_plot_box *b)
+{
+    return a->x0 < b->x1 && b->x0 < a->x1 && a->y0 < b->y1 && b->y0 < a->y1;
+}
+
+static void layout(const tp_plot_chart *chart, tp_plot_layout *l)
+{
+    tp_diag d;
+    tp_diag_init(&d, NULL);
+    assert_int_equal(tp_plot_chart_layout("layout.png", chart, l, &d), TP_OK);
+    assert_int_equal(l->n_panels, chart->n_panels);
+}
+
+static void test_labels_of_close_lines_stay_apart(void **state)
+{
+    /* Three lines 2 and 11 degC apart on a 0 to 130 axis, whose labels are taller than the
+     * gap between the lines: each label must be clear of the others, and none may have
+     * another line between it and its own (or it reads as that line's). */
+    tp_plot_series s[] = {{"reading", t_min, half, N, 0, 0, 0}};
+    tp_plot_panel panel = {"reading (degC)", NULL, s, 1, guard_lines, 3, 1.0};
+    tp_plot_chart chart = {"labels", "time (min)", &panel, 1, 0, 0};
+    tp_plot_layout l;
+    const tp_plot_panel_layout *pl;
+    size_t i, j;
+    (void)state;
+    make_data();
+    layout(&chart, &l);
+    pl = &l.panels[0];
+    for (i = 0; i < 3; i++) {
+        const tp_plot_box *b = &pl->labels[i];
+        double v = (guard_lines[i].y - pl->ylo) / (pl->yhi - pl->ylo);
+        assert_true(b->x0 < b->x1 && b->y0 < b->y1);
+        assert_true(b->x0 >= 0.0 && b->x1 <= 1.0 && b->y0 >= 0.0 && b->y1 <= 1.0);
+        for (j = 0; j < 3; j++) {
+            double vj = (guard_lines[j].y - pl->ylo) / (pl->yhi - pl->ylo);
+            if (j == i)
+                continue;
+            if (overlap(b, &pl->labels[j]))
+                fail_msg("labels '%s' and '%s' overlap", guard_lines[i].label,
+                         guard_lines[j].label);
+            /* the stretch from the label to its own line holds no other line */
+            if (!pl->label_on_line[i] && vj >= fmin(v, b->y0) && vj <= fmax(v, b->y1))
+                fail_msg("line '%s' runs between label '%s' and its line", guard_lines[j].label,
+                         guard_lines[i].label);
+        }
+        if (pl->label_on_line[i])
+            assert_true(v > b->y0 && v < b->y1);
+    }
+    tp_plot_layout_clear(&l);
+}
+
+/* Whether any point of the series, or of its segments sampled every 1/200 of the x axis, lies
+ * inside box `b` (panel coordinates). */
+static int hides(const tp_plot_layout *l, const tp_plot_panel_layout *pl, const tp_plot_series *s,
+                 const tp_plot_box *b)
+{
+    size_t i;
+    int k;
+    for (i = 0; i + 1 < s->n; i++) {
+        for (k = 0; k < 200; k++) {
+            double f = k / 200.0;
+            double u = (s->x[i] + f * (s->x[i + 1] - s->x[i]) - l->xlo) / (l->xhi - l->xlo);
+            double v = (s->y[i] + f * (s->y[i + 1] - s->y[i]) - pl->ylo) / (pl->yhi - pl->ylo);
+            if (u > b->x0 && u < b->x1 && v > b->y0 && v < b->y1)
+                return 1;
+        }
+    }
+    return 0;
+}
+
+static void test_legend_hides_no_data_when_every_corner_has_some(void **state)
+{
+    /* Six labelled readings: lines along the top and bottom edges and curves through the
+     * middle leave no corner free for a legend of six entries. The legend must then make room
+     * (more columns, a taller axis) rather than cover a curve. */
+    tp_plot_series s[] = {{"sensor detached", t_min, cold, N, 0, 0, 0},
+                          {"heater open circuit", t_min, fall, N, 0, 0, 0},
+                          {"switch stuck on (clipped)", t_min, ramp, N, 0, 0, 0},
+                          {"heater at half power", t_min, half, N, 0, 0, 0},
+                          {"sensor shorted (reads high) (clipped)", t_min, pinned_high, N, 0, 0, 0},
+                          {"sensor open (reads low) (clipped)", t_min, pinned_low, N, 0, 0, 0}};
+    tp_plot_panel panels[3] = {{"healthy (degC)", NULL, s + 3, 1, guard_lines, 3, 1.0},
+                               {"faults from cold (degC)", NULL, s, 6, guard_lines, 3, 1.0},
+                               {"faults from hold (degC)", NULL, s, 6, guard_lines, 3, 1.0}};
+    tp_plot_chart chart = {"legend", "time (min)", panels, 3, 0, 1000};
+    tp_plot_layout l;
+    size_t p, i, k;
+    (void)state;
+    make_data();
+    layout(&chart, &l);
+    for (p = 1; p < 3; p++) {
+        const tp_plot_panel_layout *pl = &l.panels[p];
+        assert_true(pl->legend_columns >= 1);
+        assert_true(pl->legend.x0 >= 0.0 && pl->legend.x1 <= 1.0 + 1e-9);
+        assert_true(pl->legend.y0 >= 0.0 && pl->legend.y1 <= 1.0 + 1e-9);
+        for (i = 0; i < 6; i++)
+            if (hides(&l, pl, &s[i], &pl->legend))
+                fail_msg("panel %zu: the legend hides '%s'", p + 1, s[i].label);
+        /* nor does a reference line's label sit on the legend */
+        for (k = 0; k < 3; k++)
+            assert_false(overlap(&pl->labels[k], &pl->legend));
+    }
+    tp_plot_layout_clear(&l);
+}
+
+static void test_a_label_keeps_its_colour_in_every_panel(void **state)
+{
+    /* The same readings in two panels, after a first panel of one other series: with colours
+     * by position, each would change colour from one panel to the next. */
+    tp_plot_series top[] = {{"nominal", t_min, half, N, 0, 0, 0}};
+    tp_plot_series a[] = {{"heater open circuit", t_min, fall, N, 0, 0, 0},
+                          {"heater at half power", t_min, half, N, 0, 0, 0},
+                          {"switch stuck on", t_min, ramp, N, 0, 0, 0}};
+    tp_plot_series b[] = {{"heater at half power", t_min, half, N, 0, 0, 0},
+                          {"switch stuck on", t_min, ramp, N, 0, 0, 0},
+                          {"sensor open", t_min, pinned_low, N, 0, 0, 0}};
+    tp_plot_panel panels[3] = {{"one", NULL, top, 1, NULL, 0, 1.0},
+                               {"two", NULL, a, 3, NULL, 0, 1.0},
+                               {"three", NULL, b, 3, NULL, 0, 1.0}};
+    tp_plot_chart chart = {"colours", "time (min)", panels, 3, 0, 1000};
+    tp_plot_layout l;
+    (void)state;
+    make_data();
+    layout(&chart, &l);
+    assert_int_equal(l.panels[2].colour[0], l.panels[1].colour[1]); /* heater at half power */
+    assert_int_equal(l.panels[2].colour[1], l.panels[1].colour[2]); /* switch stuck on */
+    /* distinct labels in one panel keep distinct colours */
+    assert_int_not_equal(l.panels[1].colour[0], l.panels[1].colour[1]);
+    assert_int_not_equal(l.panels[1].colour[1], l.panels[1].colour[2]);
+    assert_int_not_equal(l.panels[2].colour[2], l.panels[2].colour[0]);
+    assert_int_not_equal(l.panels[2].colour[2], l.panels[2].colour[1]);
+    tp_plot_layout_clear(&l);
+}
+
+static void test_a_legend_with_a_free_corner_changes_nothing(void **state)
+{
+    /* One rising series leaves the lower right corner free: one column, and the axis keeps
+     * its plain fit, the data range 20..90 padded by 5 % of it on each side (PLOT_PAD):
+     * 16.5 to 93.5 (hand calculation). */
+    tp_plot_series s[] = {{"reading", t_min, half, N, 0, 0, 0}};
+    tp_plot_panel panel = {"reading (degC)", NULL, s, 1, NULL, 0, 1.0};
+    tp_plot_chart chart = {"plain", "time (min)", &panel, 1, 0, 0};
+    tp_plot_layout l;
+    double lo = HUGE_VAL, hi = -HUGE_VAL;
+    int i;
+    (void)state;
+    make_data();
+    for (i = 0; i < N; i++) {
+        lo = fmin(lo, half[i]);
+        hi = fmax(hi, half[i]);
+    }
+    layout(&chart, &l);
+    assert_int_equal(l.panels[0].legend_columns, 1);
+    tp_check_abs("y low", l.panels[0].ylo, lo - 0.05 * (hi - lo), 1e-9);
+    tp_check_abs("y high", l.panels[0].yhi, hi + 0.05 * (hi - lo), 1e-9);
+    assert_false(hides(&l, &l.panels[0], &s[0], &l.panels[0].legend));
+    tp_plot_layout_clear(&l);
+}
+
+int main(void)
+{
+    const struct CMUnitTest tests[] = {
+        cmocka_unit_test(test_labels_of_close_lines_stay_apart),
+        cmocka_unit_test(test_legend_hides_no_data_when_every_corner_has_some),
+        cmocka_unit_test(test_a_label_keeps_its_colour_in_every_panel),
+        cmocka_unit_test(test_a_legend_with_a_free_corner_changes_nothing),
+    };
+    return cmocka_run_group_tests(tests, NULL, NULL);
+}
