@@ -148,7 +148,7 @@ static void summary(FILE *fp, const tp_session *s, const answer *a)
             fprintf(fp, "  working surface %.2f degC: the reading is %+.2f K from the surface\n",
                     surf - TP_KELVIN_0C, a->hold.reading - surf);
         if (a->hold.wire > 0)
-            fprintf(fp, "  wiring loss %.2f W\n", a->hold.wire);
+            fprintf(fp, "  wiring loss %.2f W (the series path: docs/control.md)\n", a->hold.wire);
     }
     fprintf(fp, "\n  where the %s goes:\n", a->holding ? "holding power" : "full power");
     for (p = TP_PATH_INTERNAL + 1; p < TP_PATH_COUNT; p++) {

@@ -285,6 +285,19 @@ int tp_network_find_source(const tp_network *net, const char *id)
     return -1;
 }
 
+int tp_network_heater(const tp_network *net)
+{
+    int i;
+    if (net->has_control)
+        return net->control.source;
+    if ((i = tp_network_find_source(net, "heater")) >= 0)
+        return i;
+    for (i = 0; i < net->n_sources; i++)
+        if (net->sources[i].kind == TP_SRC_ELECTRIC)
+            return i;
+    return net->n_sources > 0 ? 0 : -1;
+}
+
 int *tp_network_grounded(const tp_network *net)
 {
     int *grounded = calloc((size_t)net->n_nodes + 1, sizeof *grounded), i, changed = 1;
@@ -1008,6 +1021,11 @@ static double source_current(const tp_net_source *s, const double *t)
         r += fmax(rk, s->weights[k] * s->r0 * TP_R_FLOOR);
     }
     return s->supply / (r + s->r_series);
+}
+
+double tp_network_source_current(const tp_net_source *s, const double *t)
+{
+    return s->kind == TP_SRC_ELECTRIC ? source_current(s, t) : TP_UNSET;
 }
 
 double tp_network_current(const tp_network *net, const double *t)

@@ -219,7 +219,7 @@ static void test_budget_over_rating_warns_and_strict_exits_3(void **state)
     int warned = 0;
     (void)state;
     /* 8 A of rating against about 12 A at cold start: the supply check must say WARN, and
-     * --strict turns that into exit status 3 (DESIGN.md exit codes). */
+     * --strict turns that into exit status 3 (README.md, exit status). */
     snprintf(cfg, sizeof cfg, BUDGET_BED, "8 A");
     root = run_json("budget", cfg, NULL, 0);
     cJSON_ArrayForEach(c, cJSON_GetObjectItemCaseSensitive(root, "checks"))
@@ -233,6 +233,129 @@ static void test_budget_over_rating_warns_and_strict_exits_3(void **state)
     cJSON_Delete(root);
     root = run_json("budget", cfg, "--strict", 3);
     cJSON_Delete(root);
+}
+
+/* ---- consistency: budget, warmup and steady on the same files ---------------------------- */
+
+/* Run `verb` on the file at `path` (with `set`, a --set argument, when not NULL) and return its
+ * JSON. */
+static cJSON *run_file_json(const char *verb, const char *path, const char *set)
+{
+    const tp_scratch *s = tp_group_scratch();
+    char jpath[TP_TEST_PATH];
+    const char *args[] = {verb, path, "-q", "--json", jpath, set ? "--set" : NULL, set, NULL};
+    tp_run_result r;
+    tp_scratch_path(s, "verb.json", jpath, sizeof jpath);
+    tp_run_tepid(s, args, &r);
+    if (r.status != 0)
+        print_error("%s %s: stderr: %s\n", verb, path, r.err);
+    assert_int_equal(r.status, 0);
+    tp_run_clear(&r);
+    return tp_read_json(jpath);
+}
+
+/* The figures budget shares with warmup and steady: cold current and power (warmup's peaks:
+ * every file here has a tempco >= 0, so the cold element draws the most), holding power and
+ * duty (the same KINSOL holding point in all three, 1e-9 relative). */
+static void check_budget_agrees(const char *path, const char *what)
+{
+    /* One simulated minute is enough: the cold start is the first sample, and the holding
+     * point is a steady state, not read from the run. */
+    cJSON *out[3];
+    static const struct {
+        const char *budget_key;
+        int other; /* 1: warmup, 2: steady */
+        const char *other_key;
+        double tol;
+    } pairs[] = {
+        {"cold_current_A", 1, "current_peak_A", 1e-12}, {"cold_power_W", 1, "power_peak_W", 1e-12},
+        {"hold_duty", 1, "holding_duty", 1e-9},          {"hold_duty", 2, "duty", 1e-9},
+        {"hold_power_W", 1, "holding_power_W", 1e-9},    {"hold_power_W", 2, "power_W", 1e-9},
+    };
+    size_t i;
+    out[0] = run_file_json("budget", path, NULL);
+    out[1] = run_file_json("warmup", path, "run.duration=1min");
+    out[2] = run_file_json("steady", path, NULL);
+    for (i = 0; i < sizeof pairs / sizeof pairs[0]; i++) {
+        char name[200];
+        snprintf(name, sizeof name, "%s: budget %s against %s %s", what, pairs[i].budget_key,
+                 pairs[i].other == 1 ? "warmup" : "steady", pairs[i].other_key);
+        tp_check_rel(name, num(out[0], pairs[i].budget_key),
+                     num(out[pairs[i].other], pairs[i].other_key), pairs[i].tol);
+    }
+    for (i = 0; i < 3; i++)
+        cJSON_Delete(out[i]);
+}
+
+/* A small aluminium plate; the heater line is the case's. */
+#define AGREE_BED(heater, extra) \
+    "room: {temperature: 20 degC}\n" \
+    "bed:\n" \
+    "  size: [150 mm, 150 mm]\n" \
+    "  layers:\n" \
+    "    - {id: plate, material: aluminium-6061, thickness: 4 mm}\n" \
+    "heater: " heater "\n" \
+    "sensor: {layer: plate, coupling: 0.05 W/K, capacity: 0.2 J/K}\n" \
+    "control: {mode: on-off, setpoint: 60 degC, band: 2 K}\n" extra
+
+static void test_budget_uses_heater_supply_resistance(void **state)
+{
+    char path[TP_TEST_PATH];
+    cJSON *b;
+    (void)state;
+    tp_scratch_write(tp_group_scratch(), "agree12.yaml",
+                     AGREE_BED("{layer: plate, supply: 12 V, resistance: 1.0 ohm, "
+                               "supply_resistance: 0.25 ohm}", ""), path);
+    b = run_file_json("budget", path, NULL);
+    /* Hand calculation (Ohm's law): I = 12 V / (1.0 + 0.25) ohm = 9.6 A; into the heater
+     * 9.6^2 x 1.0 = 92.16 W; in the supply path 9.6^2 x 0.25 = 23.04 W. The fuse: 1.25 x
+     * 9.6 A = 12 A, next standard size 12.5 A (the 125 % rule, common practice, no source);
+     * ignoring the supply resistance gave 12 A and 15 A. */
+    tp_check_rel("cold current", num(b, "cold_current_A"), 9.6, 1e-12);
+    tp_check_rel("cold power", num(b, "cold_power_W"), 92.16, 1e-12);
+    tp_check_rel("series loss", num(b, "series_loss_cold_W"), 23.04, 1e-12);
+    tp_check_rel("series resistance", num(b, "series_resistance_ohm"), 0.25, 1e-12);
+    tp_check_rel("fuse", num(b, "fuse_A"), 12.5, 1e-12);
+    cJSON_Delete(b);
+    check_budget_agrees(path, "12 V, 1 ohm, 0.25 ohm supply resistance");
+}
+
+static void test_budget_agrees_with_warmup_and_steady(void **state)
+{
+    char path[TP_TEST_PATH];
+    static const char *demos[] = {"workshop-bed-24v.yaml", "enclosed-printer.yaml",
+                                  "lab-hotplate-230v.yaml", "raw-five-node.yaml"};
+    size_t i;
+    cJSON *b;
+    double r_cold, r_series, i_cold;
+    (void)state;
+    /* A copper-track heater (positive tempco, so the cold current is the largest) behind every
+     * part of a series path: its own supply_resistance, the supply's output resistance, the
+     * wiring loop and the switch. */
+    tp_scratch_write(tp_group_scratch(), "agree24.yaml",
+                     AGREE_BED("{layer: plate, supply: 24 V, resistance: 2.4 ohm, "
+                               "tempco: 0.00393 1/K, reference: 25 degC, "
+                               "supply_resistance: 0.05 ohm}",
+                               "supply: {voltage: 24 V, current: 20 A, output_resistance: "
+                               "0.02 ohm}\n"
+                               "wiring: {cross_section: 1.5 mm2, length: 1 m, "
+                               "switch_resistance: 0.01 ohm}\n"), path);
+    b = run_file_json("budget", path, NULL);
+    /* Hand calculation: the element at the 20 degC room, R = 2.4 (1 + 0.00393 (20 - 25)) =
+     * 2.352840 ohm; series 0.05 + 0.02 + 2 x 1 m of 1.5 mm2 copper (2/58/1.5 = 0.0229885 ohm,
+     * IEC 60028) + 0.01 = 0.1029885 ohm; I = 24 / 2.4558285 = 9.772668 A. */
+    r_cold = 2.4 * (1.0 + 0.00393 * (20.0 - 25.0));
+    r_series = 0.05 + 0.02 + 2.0 / 58.0 / 1.5 + 0.01;
+    i_cold = 24.0 / (r_cold + r_series);
+    tp_check_rel("cold current with tempco", num(b, "cold_current_A"), i_cold, 1e-12);
+    tp_check_rel("cold power with tempco", num(b, "cold_power_W"), i_cold * i_cold * r_cold,
+                 1e-12);
+    cJSON_Delete(b);
+    check_budget_agrees(path, "24 V copper track with a series path");
+    for (i = 0; i < sizeof demos / sizeof demos[0]; i++) {
+        snprintf(path, sizeof path, "%s/configs/%s", TP_SOURCE_DIR, demos[i]);
+        check_budget_agrees(path, demos[i]);
+    }
 }
 
 /* ---- consistency: steady against a long warm-up -------------------------------------------- */
@@ -323,6 +446,8 @@ int main(void)
         cmocka_unit_test(test_fuse_rule),
         cmocka_unit_test(test_cold_start_current_with_tempco),
         cmocka_unit_test(test_budget_over_rating_warns_and_strict_exits_3),
+        cmocka_unit_test(test_budget_uses_heater_supply_resistance),
+        cmocka_unit_test(test_budget_agrees_with_warmup_and_steady),
         cmocka_unit_test(test_holding_power_matches_long_onoff_warmup),
     };
     return cmocka_run_group_tests(tests, tp_scratch_group_setup, tp_scratch_group_teardown);
