@@ -235,6 +235,43 @@ static void test_budget_over_rating_warns_and_strict_exits_3(void **state)
     cJSON_Delete(root);
 }
 
+static void test_budget_setpoint_out_of_reach_warns(void **state)
+{
+    static const char *cfg =
+        "network:\n"
+        "  nodes:\n"
+        "    - {id: plate, capacity: 700 J/K, initial: 20 degC}\n"
+        "    - {id: room, fixed: 20 degC}\n"
+        "  links:\n"
+        "    - {between: [plate, room], conductance: 1 W/K}\n"
+        "  sources:\n"
+        "    - {id: pad, node: plate, supply: 10 V, resistance: 2 ohm}\n"
+        "control: {source: pad, sensor: plate, mode: on-off, setpoint: 100 degC}\n";
+    cJSON *root;
+    const cJSON *c;
+    int found = 0;
+    (void)state;
+    /* 10 V across 2 ohm is 50 W; through 1 W/K the plate levels off at 20 + 50 = 70 degC
+     * (hand calculation), below the 100 degC setpoint: budget still answers (the running
+     * point is full power) and says WARN; --strict exits 3. */
+    root = run_json("budget", cfg, NULL, 0);
+    cJSON_ArrayForEach(c, cJSON_GetObjectItemCaseSensitive(root, "checks"))
+    {
+        if (strcmp(cJSON_GetObjectItemCaseSensitive(c, "check")->valuestring,
+                   "setpoint within reach") != 0)
+            continue;
+        found = 1;
+        assert_string_equal(cJSON_GetObjectItemCaseSensitive(c, "verdict")->valuestring, "WARN");
+        tp_check_rel("highest reading", num(c, "value"), 70.0, 1e-9);
+        tp_check_rel("setpoint", num(c, "limit"), 100.0, 1e-12);
+    }
+    assert_true(found);
+    tp_check_rel("full power", num(root, "hold_power_W"), 50.0, 1e-12);
+    cJSON_Delete(root);
+    root = run_json("budget", cfg, "--strict", 3);
+    cJSON_Delete(root);
+}
+
 /* ---- consistency: budget, warmup and steady on the same files ---------------------------- */
 
 /* Run `verb` on the file at `path` (with `set`, a --set argument, when not NULL) and return its
@@ -446,6 +483,7 @@ int main(void)
         cmocka_unit_test(test_fuse_rule),
         cmocka_unit_test(test_cold_start_current_with_tempco),
         cmocka_unit_test(test_budget_over_rating_warns_and_strict_exits_3),
+        cmocka_unit_test(test_budget_setpoint_out_of_reach_warns),
         cmocka_unit_test(test_budget_uses_heater_supply_resistance),
         cmocka_unit_test(test_budget_agrees_with_warmup_and_steady),
         cmocka_unit_test(test_holding_power_matches_long_onoff_warmup),
