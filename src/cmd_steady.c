@@ -225,7 +225,7 @@ static void put_reach(cJSON *root, const char *name, const tp_network *net, cons
 static tp_status write_json(const char *path, const tp_network *net, const answer *a, tp_diag *d)
 {
     const tp_steady *shown = a->holding ? &a->hold : &a->limit;
-    cJSON *root = cJSON_CreateObject(), *nodes, *losses;
+    cJSON *root = cJSON_CreateObject(), *nodes, *losses, *walls = NULL;
     tp_status st;
     int i, p;
     if (!root)
@@ -237,10 +237,17 @@ static tp_status write_json(const char *path, const tp_network *net, const answe
     tp_json_number(root, "power_W", shown->power);
     if (net->has_control)
         tp_json_number(root, "duty", shown->duty);
+    /* What leaves the plate (its paths sum to power_W), and apart from it what leaves the
+     * enclosure (the same watts again, through its walls). */
     losses = cJSON_AddObjectToObject(root, "losses_W");
     for (p = TP_PATH_INTERNAL + 1; losses && p < TP_PATH_COUNT; p++)
-        if (fabs(a->flows.path[p]) > 0)
+        if (p != TP_PATH_WALLS && fabs(a->flows.path[p]) > 0)
             tp_json_number(losses, tp_loss_path_name((tp_loss_path)p), a->flows.path[p]);
+    if (fabs(a->flows.path[TP_PATH_WALLS]) > 0) {
+        walls = cJSON_AddObjectToObject(root, "enclosure_losses_W");
+        if (walls)
+            tp_json_number(walls, tp_loss_path_name(TP_PATH_WALLS), a->flows.path[TP_PATH_WALLS]);
+    }
     put_reach(root, "max_C", net, &a->limit);
     if (a->max_duty < 1.0)
         put_reach(root, "max_full_duty_C", net, &a->full);
@@ -253,7 +260,9 @@ static tp_status write_json(const char *path, const tp_network *net, const answe
         }
         tp_json_number(root, "wiring_loss_W", a->hold.wire);
     }
-    st = nodes && losses ? tp_json_write(path, root, d) : TP_ERR_NOMEM;
+    st = nodes && losses && (walls || !(fabs(a->flows.path[TP_PATH_WALLS]) > 0))
+             ? tp_json_write(path, root, d)
+             : TP_ERR_NOMEM;
     cJSON_Delete(root);
     return st;
 }
