@@ -142,8 +142,9 @@ static void summary(FILE *fp, const tp_session *s, const answer *a)
     if (a->holding) {
         fprintf(fp, "\n  holding %.1f degC (reading): %.2f W at duty %.3f\n",
                 net->control.setpoint - TP_KELVIN_0C, a->hold.power, a->hold.duty);
-        fprintf(fp, "  power margin (available at max duty / holding): %.2f\n",
-                a->max_duty / a->hold.duty);
+        fprintf(fp, "  power margin (available at max duty / holding): %.2f%s\n",
+                a->max_duty / a->hold.duty,
+                a->max_duty / a->hold.duty < TP_MARGIN_LOW ? " (low: see the warning)" : "");
         if (isfinite(surf))
             fprintf(fp, "  working surface %.2f degC: the reading is %+.2f K from the surface\n",
                     surf - TP_KELVIN_0C, a->hold.reading - surf);
@@ -254,6 +255,8 @@ static tp_status write_json(const char *path, const tp_network *net, const answe
     if (a->holding) {
         double surf = surface_or_nan(net, a->hold.temps);
         tp_json_number(root, "margin", a->max_duty / a->hold.duty);
+        cJSON_AddBoolToObject(root, "margin_low", a->max_duty / a->hold.duty < TP_MARGIN_LOW);
+        tp_json_number(root, "margin_advised", TP_MARGIN_LOW);
         if (isfinite(surf)) {
             tp_json_number(root, "surface_C", surf - TP_KELVIN_0C);
             tp_json_number(root, "offset_K", a->hold.reading - surf);
@@ -267,6 +270,13 @@ static tp_status write_json(const char *path, const tp_network *net, const answe
     return st;
 }
 
+/* Where the setpoint is written, for a warning about it. */
+static tp_loc setpoint_at(const tp_session *s)
+{
+    tp_doc_node *n = tp_doc_find(s->doc, "control.setpoint");
+    return n ? tp_doc_loc(n) : tp_loc_none();
+}
+
 static tp_status run_steady(const tp_cli *cli, tp_diag *d)
 {
     tp_session s;
@@ -277,6 +287,15 @@ static tp_status run_steady(const tp_cli *cli, tp_diag *d)
     if (rc != TP_OK)
         return rc;
     rc = solve(s.net, &a, d);
+    if (rc == TP_OK && a.holding && a.max_duty / a.hold.duty < TP_MARGIN_LOW)
+        tp_diag_warn(d, setpoint_at(&s), "control.setpoint",
+                     "a stronger heater, better insulation, or a lower setpoint",
+                     "the power margin is %.2f (%.1f W to hold %.1f degC, %.1f W available at "
+                     "the duty limit), below %.1f: little in reserve to recover from a "
+                     "disturbance, and a slow warm-up (docs/sizing.md)",
+                     a.max_duty / a.hold.duty, a.hold.power,
+                     s.net->control.setpoint - TP_KELVIN_0C,
+                     a.hold.power * a.max_duty / a.hold.duty, TP_MARGIN_LOW);
     if (rc == TP_OK && tp_cli_get(cli, "json"))
         rc = write_json(tp_cli_get(cli, "json"), s.net, &a, d);
     if (rc == TP_OK && s.text)
