@@ -118,8 +118,7 @@ tp_status tp_budget_compute(const tp_desc *desc, tp_network *net, tp_budget *b, 
     /* The running point: the holding point, or full power without a setpoint or when the
      * setpoint is out of reach (a WARN below); the same steady states as `steady` and
      * `warmup`. */
-    b->holding = net->has_control && isfinite(net->control.setpoint) &&
-                 (net->control.mode == TP_MODE_ONOFF || net->control.mode == TP_MODE_PID);
+    b->holding = tp_network_holds(net);
     st = tp_steady_full(net, 1.0, &full, d);
     if (st != TP_OK)
         return st;

@@ -40,8 +40,7 @@ static tp_status solve(tp_network *net, answer *a, tp_diag *d)
     const tp_steady *shown;
     int src = net->has_control ? net->control.source : -1;
     a->max_duty = src >= 0 ? net->sources[src].max_duty : 1.0;
-    a->holding = net->has_control && isfinite(net->control.setpoint) &&
-                 (net->control.mode == TP_MODE_ONOFF || net->control.mode == TP_MODE_PID);
+    a->holding = tp_network_holds(net);
     st = tp_steady_full(net, 1.0 / a->max_duty, &a->full, d);
     if (st == TP_OK)
         st = tp_steady_full(net, 1.0, &a->limit, d);

@@ -27,6 +27,7 @@ static const tp_opt warmup_opts[] = {
      "gridded plates: draw it when the reading reaches the setpoint"},
     {"map-csv", 0, 1, 0, 1, "FILE",
      "gridded plates: write the surface maps cell by cell as CSV (- for standard output)"},
+    {"strict", 0, 0, 0, 0, NULL, "exit 3 when the reading does not reach the setpoint in the run"},
     {NULL, 0, 0, 0, 0, NULL, NULL},
 };
 
@@ -381,6 +382,14 @@ static tp_status run_warmup(const tp_cli *cli, tp_diag *d)
             return TP_ERR_USAGE;
         }
     }
+    if (tp_cli_flag(cli, "strict") && !tp_network_holds(s.net)) {
+        tp_diag_error(d, tp_loc_none(), NULL,
+                      "give control: a setpoint with mode on-off or pid, or leave out --strict",
+                      "--strict checks that the reading reaches the setpoint; this file's "
+                      "controller holds none");
+        tp_session_close(&s);
+        return TP_ERR_USAGE;
+    }
     rc = tp_warmup_run(s.net, &w, d);
     if (rc == TP_OK && tp_cli_get(cli, "csv"))
         rc = tp_csv_write_history(tp_cli_get(cli, "csv"), &w.history, d);
@@ -392,6 +401,14 @@ static tp_status run_warmup(const tp_cli *cli, tp_diag *d)
         rc = tp_warmup_plot(tp_cli_get(cli, "plot"), &s, &w, d);
     if (rc == TP_OK && s.text)
         summary(s.text, &s, &w, w.peak);
+    if (rc == TP_OK && tp_cli_flag(cli, "strict") && !isfinite(w.metrics.t_setpoint)) {
+        char buf[64];
+        tp_fmt_duration(w.metrics.duration, buf, sizeof buf);
+        tp_diag_note(d, "--strict: the reading did not reach the setpoint %.1f degC within the "
+                        "%s run: %s", w.metrics.setpoint - TP_KELVIN_0C, buf,
+                     w.metrics.not_reached ? w.metrics.not_reached : "not reached");
+        rc = TP_ERR_STRICT;
+    }
     tp_warmup_clear(&w);
     tp_session_close(&s);
     return rc;
@@ -403,7 +420,8 @@ const tp_verb tp_verb_warmup = {
     "Integrates the network with CVODE over run.duration. Reports when the reading reaches the\n"
     "setpoint, when the working surface is ready (within 1 K of its holding temperature for\n"
     "good), overshoot, the reading-to-surface offset and lag, energy, power, duty and current\n"
-    "(definitions in docs/metrics.md). The CSV has time_s, <node>_C, <source>_W and, with a\n"
+    "(definitions in docs/metrics.md); --strict exits 3 when the reading does not reach the\n"
+    "setpoint within run.duration. The CSV has time_s, <node>_C, <source>_W and, with a\n"
     "controller, duty and reading_C; --json has the metrics; --plot draws the run.\n"
     "With bed.grid it also answers for the working-surface map at the setpoint and at\n"
     "holding (mean, spread, extremes, centre against corners, when all of it is ready);\n"

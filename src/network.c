@@ -298,6 +298,12 @@ int tp_network_heater(const tp_network *net)
     return net->n_sources > 0 ? 0 : -1;
 }
 
+int tp_network_holds(const tp_network *net)
+{
+    return net->has_control && isfinite(net->control.setpoint) &&
+           (net->control.mode == TP_MODE_ONOFF || net->control.mode == TP_MODE_PID);
+}
+
 int *tp_network_grounded(const tp_network *net)
 {
     int *grounded = calloc((size_t)net->n_nodes + 1, sizeof *grounded), i, changed = 1;

@@ -200,6 +200,10 @@ int tp_network_find_source(const tp_network *net, const char *id);
  * else the first source; -1 when there is none. Its circuit (circuit.h) is the supply's. */
 int tp_network_heater(const tp_network *net);
 
+/* Nonzero when a controller holds a setpoint (mode on-off or pid, with a setpoint): the
+ * network has a holding point, and warm-ups have a time to setpoint. */
+int tp_network_holds(const tp_network *net);
+
 /* Which nodes reach a fixed node: a new array of n_nodes flags (the caller frees it), 1 for a
  * fixed node (capacity <= 0) and for every node joined to one through links, 0 for the rest.
  * NULL when memory runs out. */

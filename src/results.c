@@ -97,8 +97,7 @@ void tp_metrics_compute(const tp_history *h, const tp_network *net, const tp_ste
     if (n == 0)
         return;
     m->duration = h->t[n - 1];
-    has_sp = net->has_control && isfinite(net->control.setpoint) &&
-             (net->control.mode == TP_MODE_ONOFF || net->control.mode == TP_MODE_PID);
+    has_sp = tp_network_holds(net);
     m->setpoint = has_sp ? net->control.setpoint : TP_UNSET;
 
     /* Power, duty, wiring and current over the run. */

@@ -214,6 +214,62 @@ static void test_time_to_level_first_order(void **state)
     tp_network_destroy(&net);
 }
 
+/* `warmup --strict` exits 3 when the reading does not reach the setpoint within the run, and
+ * still writes its outputs; without --strict the same run exits 0. Closed form as in
+ * test_time_to_level_first_order: the 60 degC setpoint is reached at 255.4 s, so a 200 s run
+ * misses it and a 300 s run does not. A file whose controller holds no setpoint has nothing
+ * for --strict to check: exit 2. */
+static void test_strict_exits_3_when_setpoint_not_reached(void **state)
+{
+    static const struct {
+        const char *mode, *duration;
+        int strict, status;
+    } cases[] = {
+        {"on-off", "200 s", 0, 0}, {"on-off", "200 s", 1, 3}, {"on-off", "300 s", 1, 0},
+        {"full", "300 s", 1, 2},
+    };
+    tp_scratch sc;
+    char text[1024], cfg[TP_TEST_PATH], out[TP_TEST_PATH];
+    size_t i;
+    (void)state;
+    tp_scratch_create(&sc);
+    tp_scratch_path(&sc, "w.json", out, sizeof out);
+    for (i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+        const char *args[] = {"warmup", cfg, "-q", "--json", out,
+                              cases[i].strict ? "--strict" : NULL, NULL};
+        tp_run_result r;
+        snprintf(text, sizeof text,
+                 "network:\n"
+                 "  nodes:\n"
+                 "    - {id: plate, capacity: 500 J/K, initial: 20 degC}\n"
+                 "    - {id: room, fixed: 20 degC}\n"
+                 "  links:\n"
+                 "    - {between: [plate, room], conductance: 1 W/K}\n"
+                 "  sources:\n"
+                 "    - {id: pad, node: plate, power: 100 W}\n"
+                 "control: {source: pad, sensor: plate, mode: %s, setpoint: 60 degC}\n"
+                 "run: {duration: %s, step: 1 s}\n",
+                 cases[i].mode, cases[i].duration);
+        tp_scratch_write(&sc, "plate.yaml", text, cfg);
+        remove(out);
+        tp_run_tepid(&sc, args, &r);
+        if (r.status != cases[i].status)
+            print_error("case %zu: stderr %s\n", i, r.err);
+        assert_int_equal(r.status, cases[i].status);
+        if (cases[i].status == 3) {
+            cJSON *root = tp_read_json(out);
+            tp_check_contains("note", r.err, "--strict: the reading did not reach the setpoint");
+            assert_true(cJSON_IsFalse(cJSON_GetObjectItemCaseSensitive(root, "reached")));
+            cJSON_Delete(root);
+        } else if (cases[i].status == 2) {
+            tp_check_contains("refusal", r.err, "--strict checks that the reading reaches");
+            assert_false(tp_file_exists(out));
+        }
+        tp_run_clear(&r);
+    }
+    tp_scratch_destroy(&sc);
+}
+
 static void test_sensor_lag_behind_ramp_is_time_constant(void **state)
 {
     /* A plate heated at constant power without losses ramps; a first-order sensor (C_s/G_s =
@@ -372,6 +428,7 @@ int main(void)
         cmocka_unit_test(test_pid_antiwindup_bounds_overshoot),
         cmocka_unit_test(test_derivative_filter_from_config),
         cmocka_unit_test(test_time_to_level_first_order),
+        cmocka_unit_test(test_strict_exits_3_when_setpoint_not_reached),
         cmocka_unit_test(test_sensor_lag_behind_ramp_is_time_constant),
         cmocka_unit_test(test_settle_time_definition),
         cmocka_unit_test(test_simc_formula),
