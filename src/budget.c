@@ -48,14 +48,6 @@ static void check(tp_budget *b, const char *name, int ok, double value, double l
         b->n_warn++;
 }
 
-/* The element's resistance at node temperatures t (the sum over its nodes, as the network
- * evaluates it: V^2 / R is the on-power without a series path). */
-static double element_r(const tp_net_source *s, const double *t)
-{
-    double i = tp_network_source_current(s, t);
-    return s->supply / i - s->r_series;
-}
-
 /* The element's mean temperature (weighted by its share in each node), K. */
 static double element_t(const tp_net_source *s, const double *t)
 {
@@ -73,7 +65,7 @@ tp_status tp_budget_compute(const tp_desc *desc, tp_network *net, tp_budget *b, 
     tp_steady run, full;
     tp_status st;
     size_t i;
-    double p_loads_v, *t0, wire;
+    double p_loads_v, wire;
     memset(b, 0, sizeof *b);
     b->i_rating = TP_UNSET;
     b->node_hold = TP_UNSET;
@@ -100,21 +92,14 @@ tp_status tp_budget_compute(const tp_desc *desc, tp_network *net, tp_budget *b, 
     b->heater_on_supply = b->circuit.on_supply;
 
     /* Cold start: the network's initial state (the room), full on: the current warmup draws at
-     * its first step. */
-    t0 = malloc((size_t)net->n_nodes * sizeof *t0);
-    if (!t0)
-        return TP_ERR_NOMEM;
-    for (i = 0; i < (size_t)net->n_nodes; i++)
-        t0[i] = net->nodes[i].t0;
+     * its first step, and every summary's header states. */
+    tp_network_cold_start(net, &b->i_cold, &b->p_cold, &b->wire_cold);
     if (s->kind == TP_SRC_ELECTRIC) {
-        b->i_cold = tp_network_source_current(s, t0);
-        b->r_cold = element_r(s, t0);
-        b->p_cold = tp_network_source_power(s, t0, 1.0, &b->wire_cold);
+        b->r_cold = s->supply / b->i_cold - s->r_series;
     } else {
         b->i_cold = s->power / b->v;
-        b->p_cold = s->power;
+        b->wire_cold = 0.0;
     }
-    free(t0);
     /* The running point: the holding point, or full power without a setpoint or when the
      * setpoint is out of reach (a WARN below); the same steady states as `steady` and
      * `warmup`. */

@@ -60,7 +60,8 @@ static void summary(FILE *fp, const tp_session *s, const tp_budget *b)
     double v = b->v;
     size_t i;
     tp_exposure ex = {b->hot_hold, b->node_hold, b->i_cold, NULL, NULL};
-    fprintf(fp, "tepid budget %s%s%s\n", s->cli->file, desc->title[0] ? ": " : "", desc->title);
+    fprintf(fp, "tepid budget %s%s%s\n  ", s->cli->file, desc->title[0] ? ": " : "", desc->title);
+    tp_report_network(fp, s->net);
     if (desc->supply.present) {
         fprintf(fp, "  supply %.1f V", desc->supply.voltage);
         if (isfinite(b->i_rating))
@@ -127,13 +128,15 @@ static void summary(FILE *fp, const tp_session *s, const tp_budget *b)
     tp_report_cautions(fp, desc, s->net, &ex);
 }
 
-static tp_status write_json(const char *path, const tp_budget *b, tp_diag *d)
+static tp_status write_json(const char *path, const tp_network *net, const tp_budget *b,
+                            tp_diag *d)
 {
     cJSON *root = cJSON_CreateObject(), *checks;
     tp_status st;
     int i;
     if (!root)
         return TP_ERR_NOMEM;
+    tp_json_conditions(root, net);
     cJSON_AddBoolToObject(root, "heater_on_supply", b->heater_on_supply);
     tp_json_number(root, "supply_V", b->v);
     tp_json_number(root, "heater_cold_ohm", b->r_cold);
@@ -185,7 +188,7 @@ static tp_status run_budget(const tp_cli *cli, tp_diag *d)
         return rc;
     rc = tp_budget_compute(&s.desc, s.net, &b, d);
     if (rc == TP_OK && tp_cli_get(cli, "json"))
-        rc = write_json(tp_cli_get(cli, "json"), &b, d);
+        rc = write_json(tp_cli_get(cli, "json"), s.net, &b, d);
     if (rc == TP_OK && s.text)
         summary(s.text, &s, &b);
     if (rc == TP_OK && tp_cli_flag(cli, "strict") && b.n_warn > 0) {

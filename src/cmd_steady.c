@@ -230,6 +230,7 @@ static tp_status write_json(const char *path, const tp_network *net, const answe
     int i, p;
     if (!root)
         return TP_ERR_NOMEM;
+    tp_json_conditions(root, net);
     nodes = cJSON_AddObjectToObject(root, "nodes_C");
     for (i = 0; nodes && i < net->n_nodes; i++)
         if (net->nodes[i].capacity > 0)

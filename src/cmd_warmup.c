@@ -161,13 +161,17 @@ static void summary(FILE *fp, const tp_session *s, const tp_warmup *w, const dou
         if (isfinite(m->hold_power))
             fprintf(fp, "  %-34s %.1f W at duty %.3f\n", "holding power", m->hold_power,
                     m->hold_duty);
+    } else if (net->has_control && net->control.mode == TP_MODE_OFF) {
+        fputs("  the controller holds the heater off (mode off): no setpoint to reach\n", fp);
     } else if (net->has_control) {
         fprintf(fp, "  controller mode %s (no setpoint)\n", tp_mode_name(net->control.mode));
     }
     fprintf(fp, "  %-34s mean %.1f W, peak %.1f W; duty mean %.3f, peak %.3f\n", "power",
             m->power_mean, m->power_peak, m->duty_mean, m->duty_peak);
-    if (isfinite(m->current_peak))
+    if (isfinite(m->current_peak) && m->current_peak > 0.0)
         fprintf(fp, "  %-34s %.2f A (on-current)\n", "peak current", m->current_peak);
+    else if (isfinite(m->current_peak))
+        fprintf(fp, "  %-34s 0 A (the heater never switched on)\n", "peak current");
     if (m->wire_mean > 0)
         fprintf(fp, "  %-34s %.2f W mean\n", "wiring loss", m->wire_mean);
     if (isfinite(m->air_final))
@@ -269,6 +273,7 @@ static tp_status write_json(const char *path, const tp_session *s, const tp_warm
         free(col);
         return TP_ERR_NOMEM;
     }
+    tp_json_conditions(root, s->net);
     tp_json_number(root, "setpoint_C", m->setpoint - TP_KELVIN_0C);
     cJSON_AddBoolToObject(root, "reached", isfinite(m->t_setpoint));
     tp_json_number(root, "time_to_setpoint_s", m->t_setpoint);

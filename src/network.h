@@ -200,6 +200,16 @@ int tp_network_find_source(const tp_network *net, const char *id);
  * else the first source; -1 when there is none. Its circuit (circuit.h) is the supply's. */
 int tp_network_heater(const tp_network *net);
 
+/* The heater (tp_network_heater) full on at the network's initial state, the cold start every
+ * verb reports: its on-current into *current (NaN for a constant-power heater), the power into
+ * the heater into *power, and the loss in its series path into *series (each may be NULL).
+ * Returns the heater's index, or -1 (outputs NaN) when there is none. */
+int tp_network_cold_start(const tp_network *net, double *current, double *power, double *series);
+
+/* The room temperature, K: the fixed node `room` (both forms have one unless a raw network
+ * names its boundaries otherwise); NaN when there is none. */
+double tp_network_room(const tp_network *net);
+
 /* Nonzero when a controller holds a setpoint (mode on-off or pid, with a setpoint): the
  * network has a holding point, and warm-ups have a time to setpoint. */
 int tp_network_holds(const tp_network *net);

@@ -113,7 +113,15 @@ void tp_metrics_compute(const tp_history *h, const tp_network *net, const tp_ste
     }
     m->duty_mean = sum / (double)n;
     m->duty_peak = tp_series_max(h->duty, n, 1);
-    m->current_peak = tp_series_max(h->current, n, 1);
+    /* The on-current counts only while the heater is on: a heater held off draws nothing. When
+     * it was on only between samples (a controller faster than the output step), every
+     * sample's on-current counts. */
+    m->current_peak = 0.0;
+    for (i = 0; i < n; i++)
+        if (h->duty[i] > 0.0 && !(h->current[i] <= m->current_peak))
+            m->current_peak = h->current[i];
+    if (m->duty_peak <= 0.0 && h->energy[(n - 1) * TP_N_QUAD + TP_Q_SOURCE] > 0.0)
+        m->current_peak = tp_series_max(h->current, n, 1);
     m->surface_max = tp_series_max(h->surface, n, 1);
     for (k = 0; k < h->n_out; k++) {
         double v = tp_series_max(h->temps + k, n, h->n_out);

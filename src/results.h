@@ -25,7 +25,9 @@ typedef struct tp_metrics {
     double power_peak;        /* W, largest sampled */
     double duty_mean, duty_peak;
     double wire_mean;         /* W lost in wiring over the run */
-    double current_peak;      /* A, largest on-current (cold start with a positive tempco) */
+    double current_peak;      /* A, largest on-current while the heater is on (cold start with
+                                 a positive tempco); 0 when it never switched on; NaN when no
+                                 source is electrical */
     double hold_power;        /* W at the holding point */
     double hold_duty;
     double air_final;         /* K, enclosure air at the end (NaN without an enclosure) */

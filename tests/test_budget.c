@@ -401,6 +401,68 @@ static void test_budget_agrees_with_warmup_and_steady(void **state)
     }
 }
 
+/* ---- what every summary states ----------------------------------------------------------- */
+
+/* Run `verb` on `path` with `extra` (NULL-terminated words), the text summary in r->out and the
+ * JSON returned. */
+static cJSON *run_text_and_json(const char *verb, const char *path, const char *const *extra,
+                                tp_run_result *r)
+{
+    const tp_scratch *s = tp_group_scratch();
+    char jpath[TP_TEST_PATH];
+    const char *args[16];
+    int n = 0;
+    tp_scratch_path(s, "summary.json", jpath, sizeof jpath);
+    args[n++] = verb;
+    args[n++] = path;
+    args[n++] = "--json";
+    args[n++] = jpath;
+    while (extra && *extra && n < 15)
+        args[n++] = *extra++;
+    args[n] = NULL;
+    tp_run_tepid(s, args, r);
+    if (r->status != 0)
+        print_error("%s: stderr %s\n", verb, r->err);
+    assert_int_equal(r->status, 0);
+    return tp_read_json(jpath);
+}
+
+static void test_summaries_state_room_and_heater(void **state)
+{
+    static const char *const room_set[] = {"--set", "room.temperature=12degC", NULL};
+    static const char *const room_opt[] = {"--room", "12degC", NULL};
+    static const struct {
+        const char *verb;
+        const char *const *extra;
+    } runs[] = {{"steady", room_opt}, {"warmup", room_set}, {"budget", room_set}};
+    char path[TP_TEST_PATH];
+    size_t i;
+    double r, amps, watts;
+    (void)state;
+    tp_scratch_write(tp_group_scratch(), "header.yaml",
+                     AGREE_BED("{layer: plate, supply: 24 V, resistance: 2.4 ohm, "
+                               "tempco: 0.00393 1/K, reference: 20 degC}",
+                               "run: {duration: 1 min, step: 1 s}\n"), path);
+    /* Hand calculation: in a 12 degC room the copper-track element is R = 2.4 (1 + 0.00393
+     * (12 - 20)) = 2.324544 ohm, so full on from cold I = 24 / R = 10.3246 A and P = 24^2 / R =
+     * 247.79 W. `steady --room 12degC` and the others with room.temperature set must all state
+     * that room and that power, in text and JSON. */
+    r = 2.4 * (1.0 + 0.00393 * (12.0 - 20.0));
+    amps = 24.0 / r;
+    watts = 24.0 * 24.0 / r;
+    for (i = 0; i < sizeof runs / sizeof runs[0]; i++) {
+        tp_run_result res;
+        cJSON *root = run_text_and_json(runs[i].verb, path, runs[i].extra, &res);
+        tp_check_contains(runs[i].verb, res.out, "room 12.0 degC; heater 24.0 V across 2.400 ohm: "
+                                                 "10.32 A, 247.8 W full on from cold");
+        tp_check_rel("room_C", num(root, "room_C"), 12.0, 1e-12);
+        tp_check_rel("heater_current_A", num(root, "heater_current_A"), amps, 1e-12);
+        tp_check_rel("heater_power_W", num(root, "heater_power_W"), watts, 1e-12);
+        tp_run_clear(&res);
+        cJSON_Delete(root);
+    }
+}
+
 /* ---- consistency: steady against a long warm-up -------------------------------------------- */
 
 static void test_holding_power_matches_long_onoff_warmup(void **state)
@@ -492,6 +554,7 @@ int main(void)
         cmocka_unit_test(test_budget_setpoint_out_of_reach_warns),
         cmocka_unit_test(test_budget_uses_heater_supply_resistance),
         cmocka_unit_test(test_budget_agrees_with_warmup_and_steady),
+        cmocka_unit_test(test_summaries_state_room_and_heater),
         cmocka_unit_test(test_holding_power_matches_long_onoff_warmup),
     };
     return cmocka_run_group_tests(tests, tp_scratch_group_setup, tp_scratch_group_teardown);

@@ -270,6 +270,49 @@ static void test_strict_exits_3_when_setpoint_not_reached(void **state)
     tp_scratch_destroy(&sc);
 }
 
+/* `mode: off`: the controller holds the heater off, so the header names no setpoint and the
+ * run draws no current (issue: the header said "off control ... at 60.0 degC" and the summary a
+ * peak current of 5 A). The on-current of 24 V across 4.8 ohm would be 5 A (hand calculation);
+ * the heater never switches on, so the peak current is 0 A. */
+static void test_mode_off_draws_nothing(void **state)
+{
+    tp_scratch sc;
+    char cfg[TP_TEST_PATH], out[TP_TEST_PATH];
+    const char *args[] = {"warmup", cfg, "--json", out, NULL};
+    tp_run_result r;
+    cJSON *root;
+    const cJSON *v;
+    (void)state;
+    tp_scratch_create(&sc);
+    tp_scratch_write(&sc, "off.yaml",
+                     "network:\n"
+                     "  nodes:\n"
+                     "    - {id: plate, capacity: 500 J/K, initial: 20 degC}\n"
+                     "    - {id: room, fixed: 20 degC}\n"
+                     "  links:\n"
+                     "    - {between: [plate, room], conductance: 1 W/K}\n"
+                     "  sources:\n"
+                     "    - {id: pad, node: plate, supply: 24 V, resistance: 4.8 ohm}\n"
+                     "control: {source: pad, sensor: plate, mode: off, setpoint: 60 degC}\n"
+                     "run: {duration: 2 min, step: 1 s}\n",
+                     cfg);
+    tp_scratch_path(&sc, "off.json", out, sizeof out);
+    tp_run_tepid(&sc, args, &r);
+    assert_int_equal(r.status, 0);
+    assert_null(strstr(r.out, "60.0 degC"));
+    tp_check_contains("header", r.out, "the controller holds 'pad' off (mode off)");
+    tp_check_contains("summary", r.out, "0 A (the heater never switched on)");
+    tp_run_clear(&r);
+    root = tp_read_json(out);
+    v = cJSON_GetObjectItemCaseSensitive(root, "current_peak_A");
+    assert_true(cJSON_IsNumber(v));
+    assert_true(v->valuedouble == 0.0);
+    v = cJSON_GetObjectItemCaseSensitive(root, "power_peak_W");
+    assert_true(cJSON_IsNumber(v) && v->valuedouble == 0.0);
+    cJSON_Delete(root);
+    tp_scratch_destroy(&sc);
+}
+
 static void test_sensor_lag_behind_ramp_is_time_constant(void **state)
 {
     /* A plate heated at constant power without losses ramps; a first-order sensor (C_s/G_s =
@@ -429,6 +472,7 @@ int main(void)
         cmocka_unit_test(test_derivative_filter_from_config),
         cmocka_unit_test(test_time_to_level_first_order),
         cmocka_unit_test(test_strict_exits_3_when_setpoint_not_reached),
+        cmocka_unit_test(test_mode_off_draws_nothing),
         cmocka_unit_test(test_sensor_lag_behind_ramp_is_time_constant),
         cmocka_unit_test(test_settle_time_definition),
         cmocka_unit_test(test_simc_formula),
