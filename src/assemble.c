@@ -7,6 +7,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "circuit.h"
 #include "config.h"
 #include "plate.h"
 
@@ -327,6 +328,30 @@ static void check_graph(const tp_network *net, tp_diag *d, const tp_doc *doc)
     free(grounded);
 }
 
+/* The heater's series path (circuit.h) into its source; a gridded plate's lumped network too,
+ * whose steady states start the grid's. */
+static tp_status attach_circuit(const tp_desc *desc, const tp_doc *doc, tp_network *net,
+                                tp_diag *d)
+{
+    int src = tp_network_heater(net);
+    tp_circuit c;
+    tp_status st;
+    if (src < 0)
+        return TP_OK;
+    st = tp_circuit_series(desc,
+                           net->sources[src].kind == TP_SRC_ELECTRIC ? net->sources[src].supply
+                                                                     : TP_UNSET,
+                           where(doc, "wiring"), &c, d);
+    if (st != TP_OK)
+        return st;
+    for (; net; net = net->grid ? net->grid->lumped : NULL) {
+        src = tp_network_heater(net);
+        if (src >= 0 && net->sources[src].kind == TP_SRC_ELECTRIC)
+            net->sources[src].r_series = c.total;
+    }
+    return TP_OK;
+}
+
 tp_status tp_assemble(const tp_desc *desc, const tp_doc *doc, tp_diag *d, tp_network **out)
 {
     tp_network *net;
@@ -353,6 +378,8 @@ tp_status tp_assemble(const tp_desc *desc, const tp_doc *doc, tp_diag *d, tp_net
         st = attach_control(desc, doc, net, d);
     if (st == TP_OK && desc->form == TP_FORM_PHYSICAL)
         st = tp_plate_attach_sensor(desc, net);
+    if (st == TP_OK)
+        st = attach_circuit(desc, doc, net, d);
     if (st != TP_OK) {
         tp_network_destroy(&net);
         return st;

@@ -4,22 +4,13 @@
 #ifndef TP_BUDGET_H
 #define TP_BUDGET_H
 
+#include "circuit.h"
 #include "desc.h"
 #include "diag.h"
 #include "network.h"
 #include "status.h"
 
-#define TP_COPPER_RHO20 (1.0 / 58.0e6) /* ohm.m, annealed copper at 20 degC (IEC 60028, IACS) */
-#define TP_COPPER_ALPHA20 0.00393      /* 1/K, its temperature coefficient at 20 degC (IEC 60028;
-                                          from memory) */
 #define TP_BUDGET_CHECKS_MAX 12
-
-/* Cross-section of a solid conductor of American Wire Gauge `n` (ASTM B258: d = 0.127 mm x
- * 92^((36 - n)/39)), m2. */
-double tp_awg_area(double n);
-
-/* Resistance of `length` m of copper of cross-section `area` m2 at `t` kelvin, ohm. */
-double tp_copper_resistance(double area, double length, double t);
 
 /* The smallest standard fuse rating at or above 1.25 times `amps` (common practice: a fuse
  * carries its continuous load at no more than 80 % of its rating), A; 0 above the table. */
@@ -35,26 +26,32 @@ typedef struct tp_check {
     char note[200];
 } tp_check;
 
+/* Every electrical figure comes from the network's heater source (tp_network_heater), whose
+ * series path assembly set from the same circuit (circuit.h): the figures `warmup` and
+ * `steady` report for the same file are the same numbers. */
 typedef struct tp_budget {
     int heater_on_supply;   /* the bed heater draws from `supply:` */
     double v;               /* V of the supply (or the heater's own) */
-    double r_series;        /* ohm: supply output + wiring loop + switch */
-    double r_wire;          /* ohm: the wiring loop at 20 degC */
-    double r_cold;          /* ohm: the heater at the room temperature */
+    tp_circuit circuit;     /* ohm: the heater's series path and its parts */
+    double r_cold;          /* ohm: the element at the cold start (NaN: constant power) */
     double i_cold, p_cold;  /* A, W (into the heater) at cold start, full on */
-    double t_hold;          /* K of the heater layer at the running point */
-    double duty_hold;       /* the duty that delivers the holding power through r_series */
+    double wire_cold;       /* W lost in the whole series path at cold start */
+    double t_hold;          /* K: the element at the running point (mean over its nodes) */
+    double duty_hold;       /* the duty at the running point (the holding point's) */
     double hot_hold;        /* K, working surface at the running point (NaN: raw form) */
     double node_hold;       /* K, hottest node at the running point */
     double i_hold_on, i_hold_avg, p_hold; /* A on, A average, W average at the running point */
     double i_loads_cold, i_loads_hold;    /* A of the other loads */
     double i_total_cold, i_total_hold_peak, i_total_hold_avg;
     double i_rating;        /* A the supply is rated for (NaN when no supply:) */
-    double drop_cold, wire_loss_cold, wire_loss_hold; /* V, W, W */
+    double drop_cold, wire_loss_cold, wire_loss_hold; /* V, W, W: the wiring loop only */
     double switch_loss_cold, switch_loss_hold;        /* W */
     double fuse;            /* A suggested */
     double input_power_hold; /* W drawn from the mains by the supply at the running point */
     int holding;            /* the running point is a holding point (else full power) */
+    int out_of_reach;       /* a setpoint the heater cannot hold: the running point is full
+                               power, and a check says WARN */
+    double reading_full;    /* K, the reading at the running point (NaN without a controller) */
     tp_check checks[TP_BUDGET_CHECKS_MAX];
     int n_checks, n_warn;
 } tp_budget;

@@ -34,13 +34,36 @@ static void print_checks(FILE *fp, const tp_budget *b)
         fputs("    (add supply: and wiring: to check the supply and the wiring)\n", fp);
 }
 
+/* The parts of the heater's series path that are there. */
+static void series_path(FILE *fp, const tp_circuit *c)
+{
+    const char *sep = "";
+    fprintf(fp, "    series path %.1f mohm:", 1e3 * c->total);
+    if (c->r_heater > 0) {
+        fprintf(fp, " %.1f mohm heater.supply_resistance", 1e3 * c->r_heater);
+        sep = " +";
+    }
+    if (c->r_output > 0) {
+        fprintf(fp, "%s %.1f mohm supply output", sep, 1e3 * c->r_output);
+        sep = " +";
+    }
+    if (c->r_wire > 0) {
+        fprintf(fp, "%s %.1f mohm wiring loop", sep, 1e3 * c->r_wire);
+        sep = " +";
+    }
+    if (c->r_switch > 0)
+        fprintf(fp, "%s %.1f mohm switch", sep, 1e3 * c->r_switch);
+    fputc('\n', fp);
+}
+
 static void summary(FILE *fp, const tp_session *s, const tp_budget *b)
 {
     const tp_desc *desc = &s->desc;
     double v = b->v;
     size_t i;
     tp_exposure ex = {b->hot_hold, b->node_hold, b->i_cold, NULL, NULL};
-    fprintf(fp, "tepid budget %s%s%s\n", s->cli->file, desc->title[0] ? ": " : "", desc->title);
+    fprintf(fp, "tepid budget %s%s%s\n  ", s->cli->file, desc->title[0] ? ": " : "", desc->title);
+    tp_report_network(fp, s->net);
     if (desc->supply.present) {
         fprintf(fp, "  supply %.1f V", desc->supply.voltage);
         if (isfinite(b->i_rating))
@@ -50,12 +73,19 @@ static void summary(FILE *fp, const tp_session *s, const tp_budget *b)
         fputc('\n', fp);
     }
     fprintf(fp, "  bed heater%s\n", b->heater_on_supply ? "" : " (on its own supply)");
-    if (b->r_cold > 0)
-        fprintf(fp, "    cold start: %.3f ohm -> %.2f A, %.1f W\n", b->r_cold, b->i_cold, b->p_cold);
+    if (b->circuit.total > 0)
+        series_path(fp, &b->circuit);
+    if (isfinite(b->r_cold))
+        fprintf(fp, "    cold start: %.3f ohm -> %.2f A, %.1f W into the heater", b->r_cold,
+                b->i_cold, b->p_cold);
     else
-        fprintf(fp, "    cold start: %.2f A, %.1f W\n", b->i_cold, b->p_cold);
+        fprintf(fp, "    cold start: %.2f A, %.1f W", b->i_cold, b->p_cold);
+    if (b->wire_cold > 0)
+        fprintf(fp, ", %.2f W in the series path", b->wire_cold);
+    fputc('\n', fp);
     fprintf(fp, "    %s (heater at %.1f degC, duty %.3f): on-current %.2f A, mean %.2f A, "
-                "%.1f W\n", b->holding ? "holding" : "full power", b->t_hold - TP_KELVIN_0C,
+                "%.1f W\n", b->holding ? "holding" : b->out_of_reach ? "full power (the "
+                "setpoint is out of reach)" : "full power", b->t_hold - TP_KELVIN_0C,
             b->duty_hold, b->i_hold_on, b->i_hold_avg, b->p_hold);
     if (desc->n_loads) {
         fputs("  other loads:", fp);
@@ -80,7 +110,7 @@ static void summary(FILE *fp, const tp_session *s, const tp_budget *b)
     if (desc->wiring.present) {
         fprintf(fp, "  wiring: copper, 2 x %.2f m, %.1f mohm loop at 20 degC: drop %.3f V and "
                     "%.2f W at cold start, %.2f W mean while holding\n",
-                desc->wiring.length, 1e3 * b->r_wire, b->drop_cold, b->wire_loss_cold,
+                desc->wiring.length, 1e3 * b->circuit.r_wire, b->drop_cold, b->wire_loss_cold,
                 b->wire_loss_hold);
         if (tp_isset(desc->wiring.switch_resistance))
             fprintf(fp, "  switch: %.1f mohm on: %.2f W full on, %.2f W mean while holding\n",
@@ -100,13 +130,15 @@ static void summary(FILE *fp, const tp_session *s, const tp_budget *b)
     tp_report_cautions(fp, desc, s->net, &ex);
 }
 
-static tp_status write_json(const char *path, const tp_budget *b, tp_diag *d)
+static tp_status write_json(const char *path, const tp_network *net, const tp_budget *b,
+                            tp_diag *d)
 {
     cJSON *root = cJSON_CreateObject(), *checks;
     tp_status st;
     int i;
     if (!root)
         return TP_ERR_NOMEM;
+    tp_json_conditions(root, net);
     cJSON_AddBoolToObject(root, "heater_on_supply", b->heater_on_supply);
     tp_json_number(root, "supply_V", b->v);
     tp_json_number(root, "heater_cold_ohm", b->r_cold);
@@ -122,8 +154,9 @@ static tp_status write_json(const char *path, const tp_budget *b, tp_diag *d)
     tp_json_number(root, "supply_hold_peak_A", b->i_total_hold_peak);
     tp_json_number(root, "supply_hold_mean_A", b->i_total_hold_avg);
     tp_json_number(root, "supply_rating_A", b->i_rating);
-    tp_json_number(root, "series_resistance_ohm", b->r_series);
-    tp_json_number(root, "wiring_ohm", b->r_wire);
+    tp_json_number(root, "series_resistance_ohm", b->circuit.total);
+    tp_json_number(root, "wiring_ohm", b->circuit.r_wire);
+    tp_json_number(root, "series_loss_cold_W", b->wire_cold);
     tp_json_number(root, "wiring_drop_V", b->drop_cold);
     tp_json_number(root, "wiring_loss_cold_W", b->wire_loss_cold);
     tp_json_number(root, "wiring_loss_hold_W", b->wire_loss_hold);
@@ -157,7 +190,7 @@ static tp_status run_budget(const tp_cli *cli, tp_diag *d)
         return rc;
     rc = tp_budget_compute(&s.desc, s.net, &b, d);
     if (rc == TP_OK && tp_cli_get(cli, "json"))
-        rc = write_json(tp_cli_get(cli, "json"), &b, d);
+        rc = write_json(tp_cli_get(cli, "json"), s.net, &b, d);
     if (rc == TP_OK && s.text)
         summary(s.text, &s, &b);
     if (rc == TP_OK && tp_cli_flag(cli, "strict") && b.n_warn > 0) {

@@ -21,7 +21,7 @@ static tp_status run_check(const tp_cli *cli, tp_diag *d)
         fprintf(s.text, "%s: valid (%s form, %d warning%s); ", cli->file,
                 s.desc.form == TP_FORM_RAW ? "raw network" : "physical", d->warnings,
                 d->warnings == 1 ? "" : "s");
-        tp_report_network(s.text, s.net);
+        tp_report_network_line(s.text, s.net);
     }
     tp_session_close(&s);
     return TP_OK;

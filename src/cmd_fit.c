@@ -519,6 +519,8 @@ static void summary(FILE *fp, const fit_run *f)
     int i, j, p = f->n_params;
     fprintf(fp, "tepid fit %s%s%s\n", f->s.cli->file, f->s.desc.title[0] ? ": " : "",
             f->s.desc.title);
+    if (f->net)
+        tp_report_conditions(fp, f->net); /* the calibrated plate's */
     tp_fmt_duration(lg->t[lg->n - 1], buf, sizeof buf);
     fprintf(fp, "  log %s: %ld rows over %s; reading '%s' (%s)", lg->name, lg->n, buf, lg->temp_col,
             lg->temp_unit);

@@ -42,8 +42,7 @@ static tp_status solve(tp_network *net, answer *a, tp_diag *d)
     const tp_steady *shown;
     int src = net->has_control ? net->control.source : -1;
     a->max_duty = src >= 0 ? net->sources[src].max_duty : 1.0;
-    a->holding = net->has_control && isfinite(net->control.setpoint) &&
-                 (net->control.mode == TP_MODE_ONOFF || net->control.mode == TP_MODE_PID);
+    a->holding = tp_network_holds(net);
     st = tp_steady_full(net, 1.0 / a->max_duty, &a->full, d);
     if (st == TP_OK)
         st = tp_steady_full(net, 1.0, &a->limit, d);
@@ -144,13 +143,14 @@ static void summary(FILE *fp, const tp_session *s, const answer *a)
     if (a->holding) {
         fprintf(fp, "\n  holding %.1f degC (reading): %.2f W at duty %.3f\n",
                 net->control.setpoint - TP_KELVIN_0C, a->hold.power, a->hold.duty);
-        fprintf(fp, "  power margin (available at max duty / holding): %.2f\n",
-                a->max_duty / a->hold.duty);
+        fprintf(fp, "  power margin (available at max duty / holding): %.2f%s\n",
+                a->max_duty / a->hold.duty,
+                a->max_duty / a->hold.duty < TP_MARGIN_LOW ? " (low: see the warning)" : "");
         if (isfinite(surf))
             fprintf(fp, "  working surface %.2f degC: the reading is %+.2f K from the surface\n",
                     surf - TP_KELVIN_0C, a->hold.reading - surf);
         if (a->hold.wire > 0)
-            fprintf(fp, "  wiring loss %.2f W\n", a->hold.wire);
+            fprintf(fp, "  wiring loss %.2f W (the series path: docs/control.md)\n", a->hold.wire);
     }
     fprintf(fp, "\n  where the %s goes:\n", a->holding ? "holding power" : "full power");
     for (p = TP_PATH_INTERNAL + 1; p < TP_PATH_COUNT; p++) {
@@ -227,11 +227,12 @@ static void put_reach(cJSON *root, const char *name, const tp_network *net, cons
 static tp_status write_json(const char *path, const tp_network *net, const answer *a, tp_diag *d)
 {
     const tp_steady *shown = a->holding ? &a->hold : &a->limit;
-    cJSON *root = cJSON_CreateObject(), *nodes, *losses;
+    cJSON *root = cJSON_CreateObject(), *nodes, *losses, *walls = NULL;
     tp_status st;
     int i, p;
     if (!root)
         return TP_ERR_NOMEM;
+    tp_json_conditions(root, net);
     nodes = cJSON_AddObjectToObject(root, "nodes_C");
     for (i = 0; nodes && i < net->n_nodes; i++)
         if (net->nodes[i].capacity > 0)
@@ -239,25 +240,43 @@ static tp_status write_json(const char *path, const tp_network *net, const answe
     tp_json_number(root, "power_W", shown->power);
     if (net->has_control)
         tp_json_number(root, "duty", shown->duty);
+    /* What leaves the plate (its paths sum to power_W), and apart from it what leaves the
+     * enclosure (the same watts again, through its walls). */
     losses = cJSON_AddObjectToObject(root, "losses_W");
     for (p = TP_PATH_INTERNAL + 1; losses && p < TP_PATH_COUNT; p++)
-        if (fabs(a->flows.path[p]) > 0)
+        if (p != TP_PATH_WALLS && fabs(a->flows.path[p]) > 0)
             tp_json_number(losses, tp_loss_path_name((tp_loss_path)p), a->flows.path[p]);
+    if (fabs(a->flows.path[TP_PATH_WALLS]) > 0) {
+        walls = cJSON_AddObjectToObject(root, "enclosure_losses_W");
+        if (walls)
+            tp_json_number(walls, tp_loss_path_name(TP_PATH_WALLS), a->flows.path[TP_PATH_WALLS]);
+    }
     put_reach(root, "max_C", net, &a->limit);
     if (a->max_duty < 1.0)
         put_reach(root, "max_full_duty_C", net, &a->full);
     if (a->holding) {
         double surf = surface_or_nan(net, a->hold.temps);
         tp_json_number(root, "margin", a->max_duty / a->hold.duty);
+        cJSON_AddBoolToObject(root, "margin_low", a->max_duty / a->hold.duty < TP_MARGIN_LOW);
+        tp_json_number(root, "margin_advised", TP_MARGIN_LOW);
         if (isfinite(surf)) {
             tp_json_number(root, "surface_C", surf - TP_KELVIN_0C);
             tp_json_number(root, "offset_K", a->hold.reading - surf);
         }
         tp_json_number(root, "wiring_loss_W", a->hold.wire);
     }
-    st = nodes && losses ? tp_json_write(path, root, d) : TP_ERR_NOMEM;
+    st = nodes && losses && (walls || !(fabs(a->flows.path[TP_PATH_WALLS]) > 0))
+             ? tp_json_write(path, root, d)
+             : TP_ERR_NOMEM;
     cJSON_Delete(root);
     return st;
+}
+
+/* Where the setpoint is written, for a warning about it. */
+static tp_loc setpoint_at(const tp_session *s)
+{
+    tp_doc_node *n = tp_doc_find(s->doc, "control.setpoint");
+    return n ? tp_doc_loc(n) : tp_loc_none();
 }
 
 static tp_status run_steady(const tp_cli *cli, tp_diag *d)
@@ -270,6 +289,15 @@ static tp_status run_steady(const tp_cli *cli, tp_diag *d)
     if (rc != TP_OK)
         return rc;
     rc = solve(s.net, &a, d);
+    if (rc == TP_OK && a.holding && a.max_duty / a.hold.duty < TP_MARGIN_LOW)
+        tp_diag_warn(d, setpoint_at(&s), "control.setpoint",
+                     "a stronger heater, better insulation, or a lower setpoint",
+                     "the power margin is %.2f (%.1f W to hold %.1f degC, %.1f W available at "
+                     "the duty limit), below %.1f: little in reserve to recover from a "
+                     "disturbance, and a slow warm-up (docs/sizing.md)",
+                     a.max_duty / a.hold.duty, a.hold.power,
+                     s.net->control.setpoint - TP_KELVIN_0C,
+                     a.hold.power * a.max_duty / a.hold.duty, TP_MARGIN_LOW);
     if (rc == TP_OK && tp_cli_get(cli, "json"))
         rc = write_json(tp_cli_get(cli, "json"), s.net, &a, d);
     if (rc == TP_OK && s.text)

@@ -27,6 +27,7 @@ static const tp_opt warmup_opts[] = {
      "gridded plates: draw it when the reading reaches the setpoint"},
     {"map-csv", 0, 1, 0, 1, "FILE",
      "gridded plates: write the surface maps cell by cell as CSV (- for standard output)"},
+    {"strict", 0, 0, 0, 0, NULL, "exit 3 when the reading does not reach the setpoint in the run"},
     TP_OPT_SET,
     TP_OPT_QUIET,
     TP_OPT_END,
@@ -109,6 +110,55 @@ static void map_summary(FILE *fp, const tp_network *net, const tp_warmup *w)
 }
 
 
+/* The lag as a maker means it, with its direction in words: how far the surface is short of
+ * its holding value when the reading reaches the setpoint, and when it comes within the band. */
+static void print_lag(FILE *fp, const tp_metrics *m)
+{
+    char buf[64];
+    if (isfinite(m->lag_k))
+        fprintf(fp, "  %-34s %.2f K %s its holding %.1f degC (%s)\n", "lag: surface at that moment",
+                fabs(m->lag_k), m->lag_k >= 0 ? "below" : "above",
+                m->surface_hold - TP_KELVIN_0C, m->lag_k >= 0 ? "behind" : "ahead");
+    if (!isfinite(m->t_setpoint))
+        return;
+    snprintf(buf, sizeof buf, "lag: surface within %.0f K", TP_READY_BAND);
+    if (isfinite(m->lag)) {
+        char t[32];
+        tp_fmt_duration(fabs(m->lag), t, sizeof t);
+        fprintf(fp, "  %-34s %s %s the reading (%s)\n", buf, t, m->lag >= 0 ? "after" : "before",
+                m->lag >= 0 ? "behind" : "ahead");
+    } else {
+        fprintf(fp, "  %-34s not in the simulated time\n", buf);
+    }
+}
+
+/* When the surface is ready, and by which definition (docs/metrics.md). */
+static void print_ready(FILE *fp, const tp_metrics *m)
+{
+    char t[32], p[32];
+    tp_fmt_duration(m->t_surface_ready, t, sizeof t);
+    fprintf(fp, "  %-34s %s", "surface ready",
+            isfinite(m->t_surface_ready) ? t : "not in the simulated time");
+    switch (m->ready_basis) {
+    case TP_READY_HOLD:
+        fprintf(fp, " (within %.0f K of its holding %.1f degC)\n", TP_READY_BAND,
+                m->surface_hold - TP_KELVIN_0C);
+        break;
+    case TP_READY_CYCLE:
+        tp_fmt_duration(m->cycle_period, p, sizeof p);
+        fprintf(fp, " (on-off: within %.0f K of its limit cycle, %.1f to %.1f degC, mean %.1f, "
+                    "period %s)\n", TP_READY_BAND, m->cycle_min - TP_KELVIN_0C,
+                m->cycle_max - TP_KELVIN_0C, m->cycle_mean - TP_KELVIN_0C, p);
+        break;
+    case TP_READY_NO_CYCLE:
+        fputs(" (on-off: no settled limit cycle by the end of the run; lengthen run.duration)\n",
+              fp);
+        break;
+    default:
+        fputc('\n', fp);
+    }
+}
+
 static void summary(FILE *fp, const tp_session *s, const tp_warmup *w, const double *peak)
 {
     const tp_network *net = s->net;
@@ -143,18 +193,12 @@ static void summary(FILE *fp, const tp_session *s, const tp_warmup *w, const dou
             fputc('\n', fp);
         }
         if (isfinite(m->surface_hold)) {
-            char what[80];
-            snprintf(what, sizeof what, "surface ready (within %.0f K of %.1f)", TP_READY_BAND,
-                     m->surface_hold - TP_KELVIN_0C);
-            print_time(fp, what, m->t_surface_ready);
+            print_lag(fp, m);
+            print_ready(fp, m);
             fprintf(fp, "  %-34s %.2f K (reading) / %.2f K (surface)\n", "overshoot",
                     m->overshoot_reading, m->overshoot_surface);
             fprintf(fp, "  %-34s %+.2f K (reading minus surface at hold)\n", "steady offset",
                     m->steady_offset);
-            if (isfinite(m->lag))
-                fprintf(fp, "  %-34s %.1f s (the surface %s the reading at %.1f %% of the "
-                            "rise)\n", "lag", fabs(m->lag), m->lag >= 0 ? "behind" : "ahead of",
-                        100.0 * TP_LAG_FRACTION);
             if (isfinite(m->energy_to_ready))
                 fprintf(fp, "  %-34s %.1f kJ (%.2f Wh)\n", "energy until ready",
                         m->energy_to_ready * 1e-3, m->energy_to_ready / 3600.0);
@@ -162,13 +206,17 @@ static void summary(FILE *fp, const tp_session *s, const tp_warmup *w, const dou
         if (isfinite(m->hold_power))
             fprintf(fp, "  %-34s %.1f W at duty %.3f\n", "holding power", m->hold_power,
                     m->hold_duty);
+    } else if (net->has_control && net->control.mode == TP_MODE_OFF) {
+        fputs("  the controller holds the heater off (mode off): no setpoint to reach\n", fp);
     } else if (net->has_control) {
         fprintf(fp, "  controller mode %s (no setpoint)\n", tp_mode_name(net->control.mode));
     }
     fprintf(fp, "  %-34s mean %.1f W, peak %.1f W; duty mean %.3f, peak %.3f\n", "power",
             m->power_mean, m->power_peak, m->duty_mean, m->duty_peak);
-    if (isfinite(m->current_peak))
+    if (isfinite(m->current_peak) && m->current_peak > 0.0)
         fprintf(fp, "  %-34s %.2f A (on-current)\n", "peak current", m->current_peak);
+    else if (isfinite(m->current_peak))
+        fprintf(fp, "  %-34s 0 A (the heater never switched on)\n", "peak current");
     if (m->wire_mean > 0)
         fprintf(fp, "  %-34s %.2f W mean\n", "wiring loss", m->wire_mean);
     if (isfinite(m->air_final))
@@ -254,6 +302,30 @@ static void put_surface_map(cJSON *root, const tp_network *net, const tp_warmup 
     tp_json_number(o, "time_all_ready_s", w->t_all_ready);
 }
 
+/* How readiness was judged: ready_definition, the band, and the on-off limit cycle. */
+static void put_ready(cJSON *root, const tp_metrics *m)
+{
+    static const char *const names[] = {NULL, "hold_band", "limit_cycle", "no_limit_cycle"};
+    cJSON *c;
+    if (names[m->ready_basis])
+        cJSON_AddStringToObject(root, "ready_definition", names[m->ready_basis]);
+    else
+        cJSON_AddNullToObject(root, "ready_definition");
+    tp_json_number(root, "ready_low_C", m->ready_low - TP_KELVIN_0C);
+    tp_json_number(root, "ready_high_C", m->ready_high - TP_KELVIN_0C);
+    if (m->ready_basis != TP_READY_CYCLE) {
+        cJSON_AddNullToObject(root, "limit_cycle");
+        return;
+    }
+    c = cJSON_AddObjectToObject(root, "limit_cycle");
+    if (!c)
+        return;
+    tp_json_number(c, "period_s", m->cycle_period);
+    tp_json_number(c, "surface_min_C", m->cycle_min - TP_KELVIN_0C);
+    tp_json_number(c, "surface_max_C", m->cycle_max - TP_KELVIN_0C);
+    tp_json_number(c, "surface_mean_C", m->cycle_mean - TP_KELVIN_0C);
+}
+
 static tp_status write_json(const char *path, const tp_session *s, const tp_warmup *w,
                             const double *peak, tp_diag *d)
 {
@@ -270,17 +342,19 @@ static tp_status write_json(const char *path, const tp_session *s, const tp_warm
         free(col);
         return TP_ERR_NOMEM;
     }
+    tp_json_conditions(root, s->net);
     tp_json_number(root, "setpoint_C", m->setpoint - TP_KELVIN_0C);
     cJSON_AddBoolToObject(root, "reached", isfinite(m->t_setpoint));
     tp_json_number(root, "time_to_setpoint_s", m->t_setpoint);
     tp_json_number(root, "surface_hold_C", m->surface_hold - TP_KELVIN_0C);
     tp_json_number(root, "time_surface_ready_s", m->t_surface_ready);
     tp_json_number(root, "ready_band_K", TP_READY_BAND);
+    put_ready(root, m);
     tp_json_number(root, "overshoot_reading_K", m->overshoot_reading);
     tp_json_number(root, "overshoot_surface_K", m->overshoot_surface);
     tp_json_number(root, "steady_offset_K", m->steady_offset);
+    tp_json_number(root, "lag_K", m->lag_k);
     tp_json_number(root, "lag_s", m->lag);
-    tp_json_number(root, "lag_fraction", TP_LAG_FRACTION);
     tp_json_number(root, "energy_to_ready_J", m->energy_to_ready);
     tp_json_number(root, "power_mean_W", m->power_mean);
     tp_json_number(root, "power_peak_W", m->power_peak);
@@ -383,6 +457,14 @@ static tp_status run_warmup(const tp_cli *cli, tp_diag *d)
             return TP_ERR_USAGE;
         }
     }
+    if (tp_cli_flag(cli, "strict") && !tp_network_holds(s.net)) {
+        tp_diag_error(d, tp_loc_none(), NULL,
+                      "give control: a setpoint with mode on-off or pid, or leave out --strict",
+                      "--strict checks that the reading reaches the setpoint; this file's "
+                      "controller holds none");
+        tp_session_close(&s);
+        return TP_ERR_USAGE;
+    }
     rc = tp_warmup_run(s.net, &w, d);
     if (rc == TP_OK && tp_cli_get(cli, "csv"))
         rc = tp_csv_write_history(tp_cli_get(cli, "csv"), &w.history, d);
@@ -394,6 +476,14 @@ static tp_status run_warmup(const tp_cli *cli, tp_diag *d)
         rc = tp_warmup_plot(tp_cli_get(cli, "plot"), &s, &w, d);
     if (rc == TP_OK && s.text)
         summary(s.text, &s, &w, w.peak);
+    if (rc == TP_OK && tp_cli_flag(cli, "strict") && !isfinite(w.metrics.t_setpoint)) {
+        char buf[64];
+        tp_fmt_duration(w.metrics.duration, buf, sizeof buf);
+        tp_diag_note(d, "--strict: the reading did not reach the setpoint %.1f degC within the "
+                        "%s run: %s", w.metrics.setpoint - TP_KELVIN_0C, buf,
+                     w.metrics.not_reached ? w.metrics.not_reached : "not reached");
+        rc = TP_ERR_STRICT;
+    }
     tp_warmup_clear(&w);
     tp_session_close(&s);
     return rc;
@@ -403,9 +493,11 @@ const tp_verb tp_verb_warmup = {
     "warmup", run_warmup, "Simulate the warm-up: time to setpoint, surface readiness, power.", 1,
     warmup_opts,
     "Integrates the network with CVODE over run.duration. Reports when the reading reaches the\n"
-    "setpoint, when the working surface is ready (within 1 K of its holding temperature for\n"
-    "good), overshoot, the reading-to-surface offset and lag, energy, power, duty and current\n"
-    "(definitions in docs/metrics.md). The CSV has time_s, <node>_C, <source>_W and, with a\n"
+    "setpoint, how far the working surface lags it, when the surface is ready (within 1 K of\n"
+    "its holding temperature for good; under on-off control, of its limit cycle's range),\n"
+    "overshoot, the reading-to-surface offset, energy, power, duty and current\n"
+    "(definitions in docs/metrics.md); --strict exits 3 when the reading does not reach the\n"
+    "setpoint within run.duration. The CSV has time_s, <node>_C, <source>_W and, with a\n"
     "controller, duty and reading_C; --json has the metrics; --plot draws the run.\n"
     "With bed.grid it also answers for the working-surface map at the setpoint and at\n"
     "holding (mean, spread, extremes, centre against corners, when all of it is ready);\n"

@@ -478,6 +478,53 @@ int tp_network_find_source(const tp_network *net, const char *id)
     return -1;
 }
 
+int tp_network_heater(const tp_network *net)
+{
+    int i;
+    if (net->has_control)
+        return net->control.source;
+    if ((i = tp_network_find_source(net, "heater")) >= 0)
+        return i;
+    for (i = 0; i < net->n_sources; i++)
+        if (net->sources[i].kind == TP_SRC_ELECTRIC)
+            return i;
+    return net->n_sources > 0 ? 0 : -1;
+}
+
+int tp_network_cold_start(const tp_network *net, double *current, double *power, double *series)
+{
+    int src = tp_network_heater(net), i;
+    double *t, i_on = TP_UNSET, p = TP_UNSET, w = TP_UNSET;
+    if (src >= 0 && (t = malloc((size_t)net->n_nodes * sizeof *t)) != NULL) {
+        for (i = 0; i < net->n_nodes; i++)
+            t[i] = net->nodes[i].t0;
+        i_on = tp_network_source_current(&net->sources[src], t);
+        p = tp_network_source_power(&net->sources[src], t, 1.0, &w);
+        free(t);
+    } else {
+        src = -1;
+    }
+    if (current)
+        *current = i_on;
+    if (power)
+        *power = p;
+    if (series)
+        *series = w;
+    return src;
+}
+
+double tp_network_room(const tp_network *net)
+{
+    int i = tp_network_find_node(net, "room");
+    return i >= 0 && net->nodes[i].capacity <= 0 ? net->nodes[i].t0 : TP_UNSET;
+}
+
+int tp_network_holds(const tp_network *net)
+{
+    return net->has_control && isfinite(net->control.setpoint) &&
+           (net->control.mode == TP_MODE_ONOFF || net->control.mode == TP_MODE_PID);
+}
+
 int *tp_network_grounded(const tp_network *net)
 {
     int *grounded = calloc((size_t)net->n_nodes + 1, sizeof *grounded), i, changed = 1;
@@ -1201,6 +1248,11 @@ static double source_current(const tp_net_source *s, const double *t)
         r += fmax(rk, s->weights[k] * s->r0 * TP_R_FLOOR);
     }
     return s->supply / (r + s->r_series);
+}
+
+double tp_network_source_current(const tp_net_source *s, const double *t)
+{
+    return s->kind == TP_SRC_ELECTRIC ? source_current(s, t) : TP_UNSET;
 }
 
 double tp_network_current(const tp_network *net, const double *t)

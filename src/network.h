@@ -108,7 +108,8 @@ typedef struct tp_net_source {
     double r0;       /* ohm at tref */
     double tempco;   /* 1/K */
     double tref;     /* K */
-    double r_series; /* ohm of source and wiring in series */
+    double r_series; /* ohm in series with the element (circuit.h: heater.supply_resistance,
+                        supply output, wiring loop, switch) */
     double max_duty; /* fully on means this duty */
     int n_nodes;     /* nodes the power lands in: 1 when lumped */
     int *nodes;      /* node indices */
@@ -229,6 +230,24 @@ int tp_network_find_node(const tp_network *net, const char *id);
 /* Index of a source by id, or -1. */
 int tp_network_find_source(const tp_network *net, const char *id);
 
+/* The heater: the controlled source, else the source "heater", else the first electrical one,
+ * else the first source; -1 when there is none. Its circuit (circuit.h) is the supply's. */
+int tp_network_heater(const tp_network *net);
+
+/* The heater (tp_network_heater) full on at the network's initial state, the cold start every
+ * verb reports: its on-current into *current (NaN for a constant-power heater), the power into
+ * the heater into *power, and the loss in its series path into *series (each may be NULL).
+ * Returns the heater's index, or -1 (outputs NaN) when there is none. */
+int tp_network_cold_start(const tp_network *net, double *current, double *power, double *series);
+
+/* The room temperature, K: the fixed node `room` (both forms have one unless a raw network
+ * names its boundaries otherwise); NaN when there is none. */
+double tp_network_room(const tp_network *net);
+
+/* Nonzero when a controller holds a setpoint (mode on-off or pid, with a setpoint): the
+ * network has a holding point, and warm-ups have a time to setpoint. */
+int tp_network_holds(const tp_network *net);
+
 /* Which nodes reach a fixed node: a new array of n_nodes flags (the caller frees it), 1 for a
  * fixed node (capacity <= 0) and for every node joined to one through links, 0 for the rest.
  * NULL when memory runs out. */
@@ -290,6 +309,10 @@ void tp_flows_clear(tp_flows *f);
 /* The linearised conductance of a link at temperatures ta, tb (W/K): conduction g, convection
  * h A, radiation eps sigma A (ta^2 + tb^2)(ta + tb); and the coefficient h used (W/(m2.K)). */
 double tp_network_link_conductance(const tp_net_link *l, double ta, double tb, double *h);
+
+/* The on-current of one source at node temperatures `t`: V / (R(T) + R_series), A; NaN for a
+ * constant-power source. */
+double tp_network_source_current(const tp_net_source *s, const double *t);
 
 /* The current through the controlled source (or the first electrical one) while it is on, at
  * node temperatures `t`: V / (R(T) + R_series), A. NaN when no source is electrical. */

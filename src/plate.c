@@ -263,8 +263,7 @@ static tp_status lower_heater(const tp_desc *desc, const tp_doc *doc, tp_network
         s->supply = h->supply;
         s->r0 = h->resistance;
         s->tempco = h->tempco;
-        s->tref = h->reference;
-        s->r_series = h->supply_resistance;
+        s->tref = h->reference; /* its series path: assemble.c, circuit.h */
     } else {
         s->kind = TP_SRC_POWER;
         s->power = h->power;

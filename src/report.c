@@ -32,18 +32,66 @@ void tp_fmt_duration(double s, char *buf, size_t size)
         snprintf(buf, size, "%d h %02d min", (int)(s / 3600.0), (int)fmod(s / 60.0, 60.0));
 }
 
-void tp_report_network(FILE *fp, const tp_network *net)
+void tp_report_network_line(FILE *fp, const tp_network *net)
 {
     fprintf(fp, "network: %d nodes (%d with capacity), %d links, %d source%s", net->n_nodes,
             net->n_free, net->n_links, net->n_sources, net->n_sources == 1 ? "" : "s");
     if (net->has_control) {
         const tp_control *c = &net->control;
-        fprintf(fp, "; %s control of '%s' reading '%s'", tp_mode_name(c->mode),
-                net->sources[c->source].id, net->nodes[c->sensor].id);
-        if (isfinite(c->setpoint))
-            fprintf(fp, " at %.1f degC", c->setpoint - TP_KELVIN_0C);
+        if (c->mode == TP_MODE_OFF)
+            fprintf(fp, "; the controller holds '%s' off (mode off)", net->sources[c->source].id);
+        else if (c->mode == TP_MODE_FULL)
+            fprintf(fp, "; the controller keeps '%s' full on (mode full)",
+                    net->sources[c->source].id);
+        else
+            fprintf(fp, "; %s control of '%s' reading '%s' at %.1f degC", tp_mode_name(c->mode),
+                    net->sources[c->source].id, net->nodes[c->sensor].id,
+                    c->setpoint - TP_KELVIN_0C);
     }
     fputc('\n', fp);
+}
+
+void tp_report_conditions(FILE *fp, const tp_network *net)
+{
+    double room = tp_network_room(net), amps, watts;
+    int src = tp_network_cold_start(net, &amps, &watts, NULL), i, shown = 0;
+    fputs("  ", fp);
+    if (isfinite(room)) {
+        fprintf(fp, "room %.1f degC", room - TP_KELVIN_0C);
+    } else {
+        fputs("boundaries", fp);
+        for (i = 0; i < net->n_nodes; i++)
+            if (net->nodes[i].capacity <= 0)
+                fprintf(fp, "%s %s %.1f degC", shown++ ? "," : "", net->nodes[i].id,
+                        net->nodes[i].t0 - TP_KELVIN_0C);
+        if (!shown)
+            fputs(" none", fp);
+    }
+    if (src >= 0) {
+        const tp_net_source *s = &net->sources[src];
+        fprintf(fp, "; heater");
+        if (strcmp(s->id, "heater") != 0)
+            fprintf(fp, " '%s'", s->id);
+        if (s->kind == TP_SRC_ELECTRIC) {
+            fprintf(fp, " %.1f V across %.3f ohm", s->supply, s->r0);
+            if (s->r_series > 0)
+                fprintf(fp, " and a %.1f mohm series path", 1e3 * s->r_series);
+            fprintf(fp, ": %.2f A, %.1f W full on from cold", amps, watts);
+        } else {
+            fprintf(fp, " %.1f W (constant power)", watts);
+        }
+        if (s->max_duty < 1.0)
+            fprintf(fp, ", duty limited to %.2f", s->max_duty);
+    } else {
+        fputs("; no heater", fp);
+    }
+    fputc('\n', fp);
+}
+
+void tp_report_network(FILE *fp, const tp_network *net)
+{
+    tp_report_network_line(fp, net);
+    tp_report_conditions(fp, net);
 }
 
 static double supply_voltage(const tp_network *net)

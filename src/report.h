@@ -14,7 +14,18 @@
 /* "6 min 12 s", "1 h 02 min", "45.0 s" into buf. */
 void tp_fmt_duration(double seconds, char *buf, size_t size);
 
-/* One line describing the network: nodes, links, sources, controller. */
+/* One line describing the network: nodes, links, sources, controller (its setpoint only when
+ * it holds one: modes off and full have none). */
+void tp_report_network_line(FILE *fp, const tp_network *net);
+
+/* One line of the conditions a run assumes: the room temperature (tp_network_room; the raw
+ * form's fixed nodes without one) and the heater full on at the initial state
+ * (tp_network_cold_start): its supply, resistance and series path, current and power. Starts
+ * with two blanks. */
+void tp_report_conditions(FILE *fp, const tp_network *net);
+
+/* The head of every summary after its title line: tp_report_network_line, then
+ * tp_report_conditions. */
 void tp_report_network(FILE *fp, const tp_network *net);
 
 /* What a run saw, for the cautions. Unknown values are NaN. */

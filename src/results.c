@@ -39,18 +39,36 @@ double tp_first_fall(const double *t, const double *v, long n, long stride, doub
 double tp_settle_time(const double *t, const double *v, long n, long stride, double target,
                       double band)
 {
+    return tp_settle_range(t, v, n, stride, target - band, target + band);
+}
+
+double tp_settle_range(const double *t, const double *v, long n, long stride, double lo,
+                       double hi)
+{
     long i;
-    if (n <= 0 || fabs(v[(n - 1) * stride] - target) > band)
+    if (n <= 0 || !(v[(n - 1) * stride] >= lo && v[(n - 1) * stride] <= hi))
         return TP_UNSET;
     for (i = n - 1; i > 0; i--) {
         double a = v[(i - 1) * stride], b = v[i * stride];
-        if (fabs(a - target) > band) {
+        if (!(a >= lo && a <= hi)) {
             /* Interpolate where the series enters the band between samples i-1 and i. */
-            double edge = a > target ? target + band : target - band;
+            double edge = a > hi ? hi : lo;
             return t[i - 1] + (t[i] - t[i - 1]) * (a - edge) / (a - b);
         }
     }
     return t[0];
+}
+
+double tp_series_at(const double *t, const double *v, long n, long stride, double at)
+{
+    long i;
+    if (n <= 0 || !(at >= t[0] && at <= t[n - 1]))
+        return TP_UNSET;
+    for (i = 1; i < n; i++)
+        if (t[i] >= at)
+            return v[(i - 1) * stride] + (v[i * stride] - v[(i - 1) * stride]) *
+                                             (at - t[i - 1]) / (t[i] - t[i - 1]);
+    return v[(n - 1) * stride];
 }
 
 double tp_series_max(const double *v, long n, long stride)
@@ -81,6 +99,39 @@ static double energy_at(const tp_history *h, double t)
     return e[(h->n - 1) * TP_N_QUAD + TP_Q_SOURCE] + e[(h->n - 1) * TP_N_QUAD + TP_Q_WIRE];
 }
 
+/* The on-off limit cycle at the end of the run: the surface over the last full cycle (from one
+ * switch-on to the next). Established when the cycle before it exists and its mean differs by
+ * no more than TP_CYCLE_DRIFT; returns 0 otherwise. */
+static int limit_cycle(const tp_history *h, tp_metrics *m)
+{
+    long i, on[3] = {-1, -1, -1}, k;
+    int found = 0;
+    double mean[2];
+    for (i = h->n - 1; i > 0 && found < 3; i--)
+        if (h->duty[i] > 0.0 && h->duty[i - 1] <= 0.0)
+            on[found++] = i;
+    if (found < 3)
+        return 0;
+    /* on[0] the last switch-on, on[1] the one before, on[2] the one before that. */
+    for (k = 0; k < 2; k++) {
+        long a = on[k + 1], b = on[k];
+        double area = 0.0;
+        for (i = a; i < b; i++)
+            area += 0.5 * (h->surface[i] + h->surface[i + 1]) * (h->t[i + 1] - h->t[i]);
+        mean[k] = area / (h->t[b] - h->t[a]);
+    }
+    if (!(fabs(mean[0] - mean[1]) <= TP_CYCLE_DRIFT))
+        return 0;
+    m->cycle_period = h->t[on[0]] - h->t[on[1]];
+    m->cycle_mean = mean[0];
+    m->cycle_min = m->cycle_max = h->surface[on[1]];
+    for (i = on[1]; i <= on[0]; i++) {
+        m->cycle_min = fmin(m->cycle_min, h->surface[i]);
+        m->cycle_max = fmax(m->cycle_max, h->surface[i]);
+    }
+    return 1;
+}
+
 void tp_metrics_compute(const tp_history *h, const tp_network *net, const tp_steady *hold,
                         const tp_steady *full, tp_metrics *m)
 {
@@ -90,15 +141,16 @@ void tp_metrics_compute(const tp_history *h, const tp_network *net, const tp_ste
     const double u = TP_UNSET;
     *m = (tp_metrics){.setpoint = u, .t_setpoint = u, .surface_hold = u, .t_surface_ready = u,
                       .overshoot_reading = u, .overshoot_surface = u, .steady_offset = u,
-                      .lag = u, .energy_to_ready = u, .power_mean = u, .power_peak = u,
+                      .lag = u, .lag_k = u, .ready_low = u, .ready_high = u,
+                      .cycle_period = u, .cycle_min = u, .cycle_max = u, .cycle_mean = u,
+                      .ready_basis = TP_READY_NONE, .energy_to_ready = u, .power_mean = u, .power_peak = u,
                       .duty_mean = u, .duty_peak = u, .wire_mean = u, .current_peak = u,
                       .hold_power = u, .hold_duty = u, .air_final = u, .highest_reachable = u,
                       .not_reached = NULL, .surface_max = u, .node_max = u, .duration = u};
     if (n == 0)
         return;
     m->duration = h->t[n - 1];
-    has_sp = net->has_control && isfinite(net->control.setpoint) &&
-             (net->control.mode == TP_MODE_ONOFF || net->control.mode == TP_MODE_PID);
+    has_sp = tp_network_holds(net);
     m->setpoint = has_sp ? net->control.setpoint : TP_UNSET;
 
     /* Power, duty, wiring and current over the run. */
@@ -114,7 +166,15 @@ void tp_metrics_compute(const tp_history *h, const tp_network *net, const tp_ste
     }
     m->duty_mean = sum / (double)n;
     m->duty_peak = tp_series_max(h->duty, n, 1);
-    m->current_peak = tp_series_max(h->current, n, 1);
+    /* The on-current counts only while the heater is on: a heater held off draws nothing. When
+     * it was on only between samples (a controller faster than the output step), every
+     * sample's on-current counts. */
+    m->current_peak = 0.0;
+    for (i = 0; i < n; i++)
+        if (h->duty[i] > 0.0 && !(h->current[i] <= m->current_peak))
+            m->current_peak = h->current[i];
+    if (m->duty_peak <= 0.0 && h->energy[(n - 1) * TP_N_QUAD + TP_Q_SOURCE] > 0.0)
+        m->current_peak = tp_series_max(h->current, n, 1);
     m->surface_max = tp_series_max(h->surface, n, 1);
     for (k = 0; k < h->n_out; k++) {
         double v = tp_series_max(h->temps + k, n, h->n_out);
@@ -147,16 +207,31 @@ void tp_metrics_compute(const tp_history *h, const tp_network *net, const tp_ste
             m->not_reached = "the simulated time is too short for this plate (increase "
                              "run.duration)";
     }
-    /* The working surface against its holding value. */
+    /* The working surface against its holding value. Under on-off control the surface never
+     * settles on a value: it rides the limit cycle, whose mean need not be the holding
+     * point's; it is ready once it stays within the cycle's range widened by the band. */
     if (isfinite(m->surface_hold)) {
-        double s0 = h->surface[0], r0 = h->reading[0];
-        double ts, tr;
-        m->t_surface_ready = tp_settle_time(h->t, h->surface, n, 1, m->surface_hold,
-                                            TP_READY_BAND);
+        if (net->control.mode != TP_MODE_ONOFF) {
+            m->ready_basis = TP_READY_HOLD;
+            m->ready_low = m->surface_hold - TP_READY_BAND;
+            m->ready_high = m->surface_hold + TP_READY_BAND;
+        } else if (limit_cycle(h, m)) {
+            m->ready_basis = TP_READY_CYCLE;
+            m->ready_low = m->cycle_min - TP_READY_BAND;
+            m->ready_high = m->cycle_max + TP_READY_BAND;
+        } else {
+            m->ready_basis = TP_READY_NO_CYCLE;
+        }
+        if (isfinite(m->ready_low))
+            m->t_surface_ready = tp_settle_range(h->t, h->surface, n, 1, m->ready_low,
+                                                 m->ready_high);
         m->overshoot_surface = fmax(0.0, m->surface_max - m->surface_hold);
         m->energy_to_ready = energy_at(h, m->t_surface_ready);
-        ts = tp_first_rise(h->t, h->surface, n, 1, s0 + TP_LAG_FRACTION * (m->surface_hold - s0));
-        tr = tp_first_rise(h->t, h->reading, n, 1, r0 + TP_LAG_FRACTION * (m->setpoint - r0));
-        m->lag = ts - tr;
+        /* The lag as a maker sees it: how far the surface is short of its holding value when
+         * the reading first reaches the setpoint, and how long after that it comes within the
+         * band of it. */
+        m->lag_k = m->surface_hold - tp_series_at(h->t, h->surface, n, 1, m->t_setpoint);
+        m->lag = tp_first_rise(h->t, h->surface, n, 1, m->surface_hold - TP_READY_BAND) -
+                 m->t_setpoint;
     }
 }

@@ -6,26 +6,47 @@
 #include "history.h"
 #include "steady.h"
 
-#define TP_READY_BAND 1.0          /* K: the surface is ready within this of its holding value */
-#define TP_LAG_FRACTION 0.6321205588 /* -, 1 - 1/e: the fraction of the rise used for the lag */
+#define TP_READY_BAND 1.0   /* K: the surface is ready within this of its holding value (or,
+                               under on-off control, of its limit cycle's range) */
+#define TP_CYCLE_DRIFT 0.1  /* K: an on-off limit cycle is established when the surface's mean
+                               over the last cycle is within this of the cycle before */
+
+/* How the surface's readiness was judged (docs/metrics.md). */
+typedef enum tp_ready_basis {
+    TP_READY_NONE = 0,   /* no holding value: not judged */
+    TP_READY_HOLD,       /* within TP_READY_BAND of the holding point's surface (PID) */
+    TP_READY_CYCLE,      /* within TP_READY_BAND of the range of the on-off limit cycle */
+    TP_READY_NO_CYCLE    /* on-off, but no established limit cycle within the run */
+} tp_ready_basis;
 
 typedef struct tp_metrics {
     double setpoint;          /* K, NaN without a setpoint */
     double t_setpoint;        /* s: the reading first reaches the setpoint; NaN: never */
     double surface_hold;      /* K: working surface at the holding point */
-    double t_surface_ready;   /* s: from here on the surface stays within TP_READY_BAND of
-                                 surface_hold; NaN: not in the simulated time */
+    double t_surface_ready;   /* s: from here on the surface stays within [ready_low,
+                                 ready_high]; NaN: not in the simulated time */
+    tp_ready_basis ready_basis;
+    double ready_low, ready_high; /* K: the band the surface must settle in: surface_hold +-
+                                 TP_READY_BAND, or the limit cycle's range widened by it */
+    double cycle_period;      /* s, the on-off limit cycle's last full period (NaN: none) */
+    double cycle_min, cycle_max, cycle_mean; /* K, the surface over that cycle (time mean) */
     double overshoot_reading; /* K above the setpoint (0 when none) */
     double overshoot_surface; /* K above surface_hold (0 when none) */
     double steady_offset;     /* K: reading minus surface at the holding point */
-    double lag;               /* s: surface crossing minus reading crossing of the same fraction
-                                 (TP_LAG_FRACTION) of their rises; > 0: the surface is behind */
+    double lag_k;             /* K: surface_hold minus the surface when the reading first
+                                 reaches the setpoint; > 0: the surface is behind (short of its
+                                 holding value) */
+    double lag;               /* s: from the reading first reaching the setpoint until the
+                                 surface first comes within TP_READY_BAND of surface_hold;
+                                 > 0: the surface is behind, < 0: it got there first */
     double energy_to_ready;   /* J drawn (delivered + wiring) until the surface is ready */
     double power_mean;        /* W delivered by all sources over the run */
     double power_peak;        /* W, largest sampled */
     double duty_mean, duty_peak;
     double wire_mean;         /* W lost in wiring over the run */
-    double current_peak;      /* A, largest on-current (cold start with a positive tempco) */
+    double current_peak;      /* A, largest on-current while the heater is on (cold start with
+                                 a positive tempco); 0 when it never switched on; NaN when no
+                                 source is electrical */
     double hold_power;        /* W at the holding point */
     double hold_duty;
     double air_final;         /* K, enclosure air at the end (NaN without an enclosure) */
@@ -52,6 +73,13 @@ double tp_first_fall(const double *t, const double *v, long n, long stride, doub
  * last sample. Interpolated at the last exit from the band. */
 double tp_settle_time(const double *t, const double *v, long n, long stride, double target,
                       double band);
+
+/* The same for the band [lo, hi]. */
+double tp_settle_range(const double *t, const double *v, long n, long stride, double lo,
+                       double hi);
+
+/* The value of the series at time `at`, linearly interpolated (NaN outside the samples). */
+double tp_series_at(const double *t, const double *v, long n, long stride, double at);
 
 /* The largest value of a strided series. */
 double tp_series_max(const double *v, long n, long stride);

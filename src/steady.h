@@ -7,6 +7,10 @@
 #include "network.h"
 #include "status.h"
 
+#define TP_MARGIN_LOW 1.3 /* -, power margin (max_duty / holding duty) below which the controller
+                             has little in reserve to recover from a disturbance and warm-up is
+                             slow (docs/sizing.md; common practice, no source) */
+
 typedef struct tp_steady {
     double *temps; /* n_nodes, K (owned; tp_steady_clear frees) */
     double duty;   /* the controlled source's duty (full power: its max_duty) */

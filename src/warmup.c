@@ -39,8 +39,7 @@ static tp_status grid_before(tp_network *net, tp_warmup *w)
         tp_network_surface_map(net, w->hold.temps, w->map_hold);
         w->history.map_ref = w->map_hold;
     }
-    if (net->has_control && isfinite(net->control.setpoint) &&
-        (net->control.mode == TP_MODE_ONOFF || net->control.mode == TP_MODE_PID))
+    if (tp_network_holds(net))
         w->history.cross_level = net->control.setpoint;
     return TP_OK;
 }
@@ -94,8 +93,7 @@ tp_status tp_warmup_run(tp_network *net, tp_warmup *w, tp_diag *d)
     if (net->has_control && w->has_full)
         w->full.reading = w->full.temps[net->control.sensor] + net->control.reading.offset;
     /* The holding point starts from the full-power state just found (not solved twice). */
-    if (net->has_control && isfinite(net->control.setpoint) && w->has_full &&
-        (net->control.mode == TP_MODE_ONOFF || net->control.mode == TP_MODE_PID))
+    if (tp_network_holds(net) && w->has_full)
         w->has_hold = tp_steady_hold_given(net, net->control.setpoint, &w->full, &w->hold,
                                            &quiet) == TP_OK;
     if (net->grid && (st = grid_before(net, w)) != TP_OK)

@@ -60,7 +60,7 @@ static void test_loss_paths_sum_to_holding_power(void **state)
     for (i = 0; i < sizeof demos / sizeof demos[0]; i++) {
         const char *args[] = {"steady", path, "-q", "--json", jpath, NULL};
         tp_run_result r;
-        cJSON *root, *losses, *item;
+        cJSON *root, *losses, *item, *enclosure;
         double sum = 0.0, power;
         snprintf(path, sizeof path, "%s/configs/%s", TP_SOURCE_DIR, demos[i]);
         tp_scratch_path(tp_group_scratch(), "steady.json", jpath, sizeof jpath);
@@ -72,16 +72,22 @@ static void test_loss_paths_sum_to_holding_power(void **state)
         losses = cJSON_GetObjectItemCaseSensitive(root, "losses_W");
         assert_non_null(losses);
         cJSON_ArrayForEach(item, losses)
-        {
-            /* The walls path is where the enclosure's heat leaves, not a path of the plate. */
-            if (strcmp(item->string, "walls") != 0)
+            sum += item->valuedouble;
+        /* Energy balance at steady state (the first law): what the heater delivers leaves the
+         * plate by its paths, and, with an enclosure, leaves the enclosure too; each group sums
+         * to the power. The KINSOL residual tolerance (1e-9 W scaled) bounds the mismatch far
+         * below 1e-6. */
+        tp_check_rel("sum of the plate's loss paths", sum, power, 1e-6);
+        enclosure = cJSON_GetObjectItemCaseSensitive(root, "enclosure_losses_W");
+        if (strcmp(demos[i], "enclosed-printer.yaml") == 0) {
+            assert_non_null(enclosure);
+            sum = 0.0;
+            cJSON_ArrayForEach(item, enclosure)
                 sum += item->valuedouble;
+            tp_check_rel("sum of the enclosure's loss paths", sum, power, 1e-6);
+        } else {
+            assert_null(enclosure);
         }
-        /* Energy balance at steady state: what the heater delivers leaves by the paths; the
-         * KINSOL residual tolerance (1e-9 W scaled) bounds the mismatch far below 1e-6. */
-        tp_check_rel("sum of loss paths", sum, power, 1e-6);
-        if (cJSON_GetObjectItemCaseSensitive(losses, "walls"))
-            tp_check_rel("heat through the walls", num(losses, "walls"), power, 1e-6);
         cJSON_Delete(root);
     }
 }
@@ -219,7 +225,7 @@ static void test_budget_over_rating_warns_and_strict_exits_3(void **state)
     int warned = 0;
     (void)state;
     /* 8 A of rating against about 12 A at cold start: the supply check must say WARN, and
-     * --strict turns that into exit status 3 (DESIGN.md exit codes). */
+     * --strict turns that into exit status 3 (README.md, exit status). */
     snprintf(cfg, sizeof cfg, BUDGET_BED, "8 A");
     root = run_json("budget", cfg, NULL, 0);
     cJSON_ArrayForEach(c, cJSON_GetObjectItemCaseSensitive(root, "checks"))
@@ -233,6 +239,228 @@ static void test_budget_over_rating_warns_and_strict_exits_3(void **state)
     cJSON_Delete(root);
     root = run_json("budget", cfg, "--strict", 3);
     cJSON_Delete(root);
+}
+
+static void test_budget_setpoint_out_of_reach_warns(void **state)
+{
+    static const char *cfg =
+        "network:\n"
+        "  nodes:\n"
+        "    - {id: plate, capacity: 700 J/K, initial: 20 degC}\n"
+        "    - {id: room, fixed: 20 degC}\n"
+        "  links:\n"
+        "    - {between: [plate, room], conductance: 1 W/K}\n"
+        "  sources:\n"
+        "    - {id: pad, node: plate, supply: 10 V, resistance: 2 ohm}\n"
+        "control: {source: pad, sensor: plate, mode: on-off, setpoint: 100 degC}\n";
+    cJSON *root;
+    const cJSON *c;
+    int found = 0;
+    (void)state;
+    /* 10 V across 2 ohm is 50 W; through 1 W/K the plate levels off at 20 + 50 = 70 degC
+     * (hand calculation), below the 100 degC setpoint: budget still answers (the running
+     * point is full power) and says WARN; --strict exits 3. */
+    root = run_json("budget", cfg, NULL, 0);
+    cJSON_ArrayForEach(c, cJSON_GetObjectItemCaseSensitive(root, "checks"))
+    {
+        if (strcmp(cJSON_GetObjectItemCaseSensitive(c, "check")->valuestring,
+                   "setpoint within reach") != 0)
+            continue;
+        found = 1;
+        assert_string_equal(cJSON_GetObjectItemCaseSensitive(c, "verdict")->valuestring, "WARN");
+        tp_check_rel("highest reading", num(c, "value"), 70.0, 1e-9);
+        tp_check_rel("setpoint", num(c, "limit"), 100.0, 1e-12);
+    }
+    assert_true(found);
+    tp_check_rel("full power", num(root, "hold_power_W"), 50.0, 1e-12);
+    cJSON_Delete(root);
+    root = run_json("budget", cfg, "--strict", 3);
+    cJSON_Delete(root);
+}
+
+/* ---- consistency: budget, warmup and steady on the same files ---------------------------- */
+
+/* Run `verb` on the file at `path` (with `set`, a --set argument, when not NULL) and return its
+ * JSON. */
+static cJSON *run_file_json(const char *verb, const char *path, const char *set)
+{
+    const tp_scratch *s = tp_group_scratch();
+    char jpath[TP_TEST_PATH];
+    const char *args[] = {verb, path, "-q", "--json", jpath, set ? "--set" : NULL, set, NULL};
+    tp_run_result r;
+    tp_scratch_path(s, "verb.json", jpath, sizeof jpath);
+    tp_run_tepid(s, args, &r);
+    if (r.status != 0)
+        print_error("%s %s: stderr: %s\n", verb, path, r.err);
+    assert_int_equal(r.status, 0);
+    tp_run_clear(&r);
+    return tp_read_json(jpath);
+}
+
+/* The figures budget shares with warmup and steady: cold current and power (warmup's peaks:
+ * every file here has a tempco >= 0, so the cold element draws the most), holding power and
+ * duty (the same KINSOL holding point in all three, 1e-9 relative). */
+static void check_budget_agrees(const char *path, const char *what)
+{
+    /* One simulated minute is enough: the cold start is the first sample, and the holding
+     * point is a steady state, not read from the run. */
+    cJSON *out[3];
+    static const struct {
+        const char *budget_key;
+        int other; /* 1: warmup, 2: steady */
+        const char *other_key;
+        double tol;
+    } pairs[] = {
+        {"cold_current_A", 1, "current_peak_A", 1e-12}, {"cold_power_W", 1, "power_peak_W", 1e-12},
+        {"hold_duty", 1, "holding_duty", 1e-9},          {"hold_duty", 2, "duty", 1e-9},
+        {"hold_power_W", 1, "holding_power_W", 1e-9},    {"hold_power_W", 2, "power_W", 1e-9},
+    };
+    size_t i;
+    out[0] = run_file_json("budget", path, NULL);
+    out[1] = run_file_json("warmup", path, "run.duration=1min");
+    out[2] = run_file_json("steady", path, NULL);
+    for (i = 0; i < sizeof pairs / sizeof pairs[0]; i++) {
+        char name[200];
+        snprintf(name, sizeof name, "%s: budget %s against %s %s", what, pairs[i].budget_key,
+                 pairs[i].other == 1 ? "warmup" : "steady", pairs[i].other_key);
+        tp_check_rel(name, num(out[0], pairs[i].budget_key),
+                     num(out[pairs[i].other], pairs[i].other_key), pairs[i].tol);
+    }
+    for (i = 0; i < 3; i++)
+        cJSON_Delete(out[i]);
+}
+
+/* A small aluminium plate; the heater line is the case's. */
+#define AGREE_BED(heater, extra) \
+    "room: {temperature: 20 degC}\n" \
+    "bed:\n" \
+    "  size: [150 mm, 150 mm]\n" \
+    "  layers:\n" \
+    "    - {id: plate, material: aluminium-6061, thickness: 4 mm}\n" \
+    "heater: " heater "\n" \
+    "sensor: {layer: plate, coupling: 0.05 W/K, capacity: 0.2 J/K}\n" \
+    "control: {mode: on-off, setpoint: 60 degC, band: 2 K}\n" extra
+
+static void test_budget_uses_heater_supply_resistance(void **state)
+{
+    char path[TP_TEST_PATH];
+    cJSON *b;
+    (void)state;
+    tp_scratch_write(tp_group_scratch(), "agree12.yaml",
+                     AGREE_BED("{layer: plate, supply: 12 V, resistance: 1.0 ohm, "
+                               "supply_resistance: 0.25 ohm}", ""), path);
+    b = run_file_json("budget", path, NULL);
+    /* Hand calculation (Ohm's law): I = 12 V / (1.0 + 0.25) ohm = 9.6 A; into the heater
+     * 9.6^2 x 1.0 = 92.16 W; in the supply path 9.6^2 x 0.25 = 23.04 W. The fuse: 1.25 x
+     * 9.6 A = 12 A, next standard size 12.5 A (the 125 % rule, common practice, no source);
+     * ignoring the supply resistance gave 12 A and 15 A. */
+    tp_check_rel("cold current", num(b, "cold_current_A"), 9.6, 1e-12);
+    tp_check_rel("cold power", num(b, "cold_power_W"), 92.16, 1e-12);
+    tp_check_rel("series loss", num(b, "series_loss_cold_W"), 23.04, 1e-12);
+    tp_check_rel("series resistance", num(b, "series_resistance_ohm"), 0.25, 1e-12);
+    tp_check_rel("fuse", num(b, "fuse_A"), 12.5, 1e-12);
+    cJSON_Delete(b);
+    check_budget_agrees(path, "12 V, 1 ohm, 0.25 ohm supply resistance");
+}
+
+static void test_budget_agrees_with_warmup_and_steady(void **state)
+{
+    char path[TP_TEST_PATH];
+    static const char *demos[] = {"workshop-bed-24v.yaml", "enclosed-printer.yaml",
+                                  "lab-hotplate-230v.yaml", "raw-five-node.yaml"};
+    size_t i;
+    cJSON *b;
+    double r_cold, r_series, i_cold;
+    (void)state;
+    /* A copper-track heater (positive tempco, so the cold current is the largest) behind every
+     * part of a series path: its own supply_resistance, the supply's output resistance, the
+     * wiring loop and the switch. */
+    tp_scratch_write(tp_group_scratch(), "agree24.yaml",
+                     AGREE_BED("{layer: plate, supply: 24 V, resistance: 2.4 ohm, "
+                               "tempco: 0.00393 1/K, reference: 25 degC, "
+                               "supply_resistance: 0.05 ohm}",
+                               "supply: {voltage: 24 V, current: 20 A, output_resistance: "
+                               "0.02 ohm}\n"
+                               "wiring: {cross_section: 1.5 mm2, length: 1 m, "
+                               "switch_resistance: 0.01 ohm}\n"), path);
+    b = run_file_json("budget", path, NULL);
+    /* Hand calculation: the element at the 20 degC room, R = 2.4 (1 + 0.00393 (20 - 25)) =
+     * 2.352840 ohm; series 0.05 + 0.02 + 2 x 1 m of 1.5 mm2 copper (2/58/1.5 = 0.0229885 ohm,
+     * IEC 60028) + 0.01 = 0.1029885 ohm; I = 24 / 2.4558285 = 9.772668 A. */
+    r_cold = 2.4 * (1.0 + 0.00393 * (20.0 - 25.0));
+    r_series = 0.05 + 0.02 + 2.0 / 58.0 / 1.5 + 0.01;
+    i_cold = 24.0 / (r_cold + r_series);
+    tp_check_rel("cold current with tempco", num(b, "cold_current_A"), i_cold, 1e-12);
+    tp_check_rel("cold power with tempco", num(b, "cold_power_W"), i_cold * i_cold * r_cold,
+                 1e-12);
+    cJSON_Delete(b);
+    check_budget_agrees(path, "24 V copper track with a series path");
+    for (i = 0; i < sizeof demos / sizeof demos[0]; i++) {
+        snprintf(path, sizeof path, "%s/configs/%s", TP_SOURCE_DIR, demos[i]);
+        check_budget_agrees(path, demos[i]);
+    }
+}
+
+/* ---- what every summary states ----------------------------------------------------------- */
+
+/* Run `verb` on `path` with `extra` (NULL-terminated words), the text summary in r->out and the
+ * JSON returned. */
+static cJSON *run_text_and_json(const char *verb, const char *path, const char *const *extra,
+                                tp_run_result *r)
+{
+    const tp_scratch *s = tp_group_scratch();
+    char jpath[TP_TEST_PATH];
+    const char *args[16];
+    int n = 0;
+    tp_scratch_path(s, "summary.json", jpath, sizeof jpath);
+    args[n++] = verb;
+    args[n++] = path;
+    args[n++] = "--json";
+    args[n++] = jpath;
+    while (extra && *extra && n < 15)
+        args[n++] = *extra++;
+    args[n] = NULL;
+    tp_run_tepid(s, args, r);
+    if (r->status != 0)
+        print_error("%s: stderr %s\n", verb, r->err);
+    assert_int_equal(r->status, 0);
+    return tp_read_json(jpath);
+}
+
+static void test_summaries_state_room_and_heater(void **state)
+{
+    static const char *const room_set[] = {"--set", "room.temperature=12degC", NULL};
+    static const char *const room_opt[] = {"--room", "12degC", NULL};
+    static const struct {
+        const char *verb;
+        const char *const *extra;
+    } runs[] = {{"steady", room_opt}, {"warmup", room_set}, {"budget", room_set}};
+    char path[TP_TEST_PATH];
+    size_t i;
+    double r, amps, watts;
+    (void)state;
+    tp_scratch_write(tp_group_scratch(), "header.yaml",
+                     AGREE_BED("{layer: plate, supply: 24 V, resistance: 2.4 ohm, "
+                               "tempco: 0.00393 1/K, reference: 20 degC}",
+                               "run: {duration: 1 min, step: 1 s}\n"), path);
+    /* Hand calculation: in a 12 degC room the copper-track element is R = 2.4 (1 + 0.00393
+     * (12 - 20)) = 2.324544 ohm, so full on from cold I = 24 / R = 10.3246 A and P = 24^2 / R =
+     * 247.79 W. `steady --room 12degC` and the others with room.temperature set must all state
+     * that room and that power, in text and JSON. */
+    r = 2.4 * (1.0 + 0.00393 * (12.0 - 20.0));
+    amps = 24.0 / r;
+    watts = 24.0 * 24.0 / r;
+    for (i = 0; i < sizeof runs / sizeof runs[0]; i++) {
+        tp_run_result res;
+        cJSON *root = run_text_and_json(runs[i].verb, path, runs[i].extra, &res);
+        tp_check_contains(runs[i].verb, res.out, "room 12.0 degC; heater 24.0 V across 2.400 ohm: "
+                                                 "10.32 A, 247.8 W full on from cold");
+        tp_check_rel("room_C", num(root, "room_C"), 12.0, 1e-12);
+        tp_check_rel("heater_current_A", num(root, "heater_current_A"), amps, 1e-12);
+        tp_check_rel("heater_power_W", num(root, "heater_power_W"), watts, 1e-12);
+        tp_run_clear(&res);
+        cJSON_Delete(root);
+    }
 }
 
 /* ---- consistency: steady against a long warm-up -------------------------------------------- */
@@ -323,6 +551,10 @@ int main(void)
         cmocka_unit_test(test_fuse_rule),
         cmocka_unit_test(test_cold_start_current_with_tempco),
         cmocka_unit_test(test_budget_over_rating_warns_and_strict_exits_3),
+        cmocka_unit_test(test_budget_setpoint_out_of_reach_warns),
+        cmocka_unit_test(test_budget_uses_heater_supply_resistance),
+        cmocka_unit_test(test_budget_agrees_with_warmup_and_steady),
+        cmocka_unit_test(test_summaries_state_room_and_heater),
         cmocka_unit_test(test_holding_power_matches_long_onoff_warmup),
     };
     return cmocka_run_group_tests(tests, tp_scratch_group_setup, tp_scratch_group_teardown);

@@ -98,8 +98,8 @@ static const char plate_yaml[] =
 /* Linearised radiation at --at 90 degC: G = eps sigma A (T^2 + Ts^2)(T + Ts) with T = 363.15 K,
  * Ts = 293.15 K (Incropera 7th ed. Eq. 1.9, from memory): the sheet's top (A = 0.15 * 0.08 =
  * 0.012 m2, eps 0.8 from bed.top) and the plate's exposed top (0.02 - 0.012 = 0.008 m2, the
- * material's 0.1). Without --at every node is at its initial 20 degC, T = Ts, and the same
- * formula gives 4 eps sigma A T^3. */
+ * material's 0.1). With --at 20 degC every free node is at the room's temperature, T = Ts, and
+ * the same formula gives 4 eps sigma A T^3. */
 static void test_explain_radiation_linearised(void **state)
 {
     const double t = T0C + 90.0, ts = T0C + 20.0;
@@ -114,10 +114,92 @@ static void test_explain_radiation_linearised(void **state)
     tp_check_rel("G plate top", number(l, "conductance_W_per_K"), 0.1 * lin * 0.008, REL_JSON);
     cJSON_Delete(root);
 
-    root = explain_json("rad0.yaml", plate_yaml, NULL);
+    root = explain_json("rad0.yaml", plate_yaml, "20degC");
     l = find_link(root, "sheet", "room", "radiation", 0.012);
     tp_check_rel("G sheet top at 20 degC", number(l, "conductance_W_per_K"),
                  4.0 * 0.8 * SIGMA * 0.012 * ts * ts * ts, REL_JSON);
+    cJSON_Delete(root);
+}
+
+/* The `kind` of explain's `state` object (fails when either is missing). */
+static const char *state_kind(const cJSON *st)
+{
+    const cJSON *k = cJSON_GetObjectItemCaseSensitive(st, "kind");
+    assert_true(cJSON_IsString(k));
+    return k->valuestring;
+}
+
+/* Without --at, explain shows the links at the steady holding state, or at the full-power
+ * steady state when no setpoint is held, and says which (JSON state.kind, the text header).
+ * Hand calculations on single-node raw networks (Incropera 7th ed. Eq. 1.9 for the linearised
+ * radiation, from memory):
+ * - held at 100 degC by on-off control reading the plate itself: the plate is at 100 degC, and
+ *   the radiation link's G = 0.9 sigma 0.05 (T^2 + Ta^2)(T + Ta), T = 373.15 K, Ta = 293.15 K;
+ * - no controller, 50 W into 1 W/K: 20 + 50 = 70 degC (the radiation link of 1e-6 m2 carries
+ *   2e-8 W, which moves the plate by 2e-8 K), G = 0.5 sigma 1e-6 (T^2 + Ta^2)(T + Ta) at
+ *   T = 343.15 K.
+ * At the initial 20 degC (what explain showed before) G would be 4 eps sigma A Ta^3, 35 % lower
+ * at 100 degC. */
+static void test_explain_default_state_is_steady(void **state)
+{
+    static const char held[] =
+        "network:\n"
+        "  nodes:\n"
+        "    - {id: plate, capacity: 640 J/K, initial: 20 degC}\n"
+        "    - {id: room, fixed: 20 degC}\n"
+        "  links:\n"
+        "    - {between: [plate, room], conductance: 1 W/K}\n"
+        "    - {between: [plate, room], radiation: {area: 0.05 m2, emissivity: 0.9}}\n"
+        "  sources:\n"
+        "    - {id: pad, node: plate, power: 200 W}\n"
+        "control: {source: pad, sensor: plate, mode: on-off, setpoint: 100 degC}\n";
+    static const char free_running[] =
+        "network:\n"
+        "  nodes:\n"
+        "    - {id: plate, capacity: 640 J/K, initial: 20 degC}\n"
+        "    - {id: room, fixed: 20 degC}\n"
+        "  links:\n"
+        "    - {between: [plate, room], conductance: 1 W/K}\n"
+        "    - {between: [plate, room], radiation: {area: 1e-6 m2, emissivity: 0.5}}\n"
+        "  sources:\n"
+        "    - {id: pad, node: plate, power: 50 W}\n";
+    const double ta = T0C + 20.0, th = T0C + 100.0, tf = T0C + 70.0;
+    char path[TP_TEST_PATH];
+    const char *args[] = {"explain", path, NULL};
+    tp_run_result res;
+    cJSON *root;
+    const cJSON *st;
+    (void)state;
+    root = explain_json("held.yaml", held, NULL);
+    st = cJSON_GetObjectItemCaseSensitive(root, "state");
+    assert_string_equal(state_kind(st), "holding");
+    tp_check_rel("plate at hold",
+                 number(cJSON_GetArrayItem(cJSON_GetObjectItemCaseSensitive(root, "nodes"), 0),
+                        "temperature_C"),
+                 100.0, 1e-9);
+    tp_check_rel("G radiation at hold",
+                 number(find_link(root, "plate", "room", "radiation", 0.05), "conductance_W_per_K"),
+                 0.9 * SIGMA * 0.05 * (th * th + ta * ta) * (th + ta), 1e-9);
+    cJSON_Delete(root);
+    tp_scratch_path(tp_group_scratch(), "held.yaml", path, sizeof path);
+    tp_run_tepid(tp_group_scratch(), args, &res);
+    assert_int_equal(res.status, 0);
+    tp_check_contains("header", res.out, "links at the steady holding state: reading 100.00 degC");
+    tp_run_clear(&res);
+
+    root = explain_json("free.yaml", free_running, NULL);
+    st = cJSON_GetObjectItemCaseSensitive(root, "state");
+    assert_string_equal(state_kind(st), "full_power");
+    tp_check_rel("G radiation at full power",
+                 number(find_link(root, "plate", "room", "radiation", 1e-6), "conductance_W_per_K"),
+                 0.5 * SIGMA * 1e-6 * (tf * tf + ta * ta) * (tf + ta), 1e-6);
+    cJSON_Delete(root);
+
+    /* --at still chooses the temperature, and the JSON says so. */
+    root = explain_json("held-at.yaml", held, "150degC");
+    st = cJSON_GetObjectItemCaseSensitive(root, "state");
+    assert_string_equal(state_kind(st), "uniform");
+    tp_check_rel("at", number(st, "at_C"), 150.0, REL_JSON);
     cJSON_Delete(root);
 }
 
@@ -292,6 +374,7 @@ int main(void)
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_explain_radiation_linearised),
         cmocka_unit_test(test_explain_json_contract),
+        cmocka_unit_test(test_explain_default_state_is_steady),
         cmocka_unit_test(test_explain_json_raw_links),
         cmocka_unit_test(test_explain_demos_run),
         cmocka_unit_test(test_explain_mains_demo_cautions),

@@ -271,6 +271,53 @@ static void test_steady_cli_json(void **state)
     tp_scratch_destroy(&sc);
 }
 
+/* The power margin (max duty / holding duty) is flagged below 1.3, the figure docs/sizing.md
+ * calls risky. Hand calculation from test_steady_holding_power: holding 70 degC takes 90.5 W
+ * of the 100 W, margin 100 / 90.5 = 1.105 (flagged); holding 60 degC, with x = 40 K,
+ * T_p - T_r = 1.2 x = 48 K and P = 1.5 x 48 + 0.01 x 40 = 72.4 W, margin 1.381 (not). */
+static void test_steady_low_margin_warns(void **state)
+{
+    static const struct {
+        const char *setpoint;
+        double margin;
+        int low;
+    } cases[] = {{"70 degC", 100.0 / 90.5, 1}, {"60 degC", 100.0 / 72.4, 0}};
+    tp_scratch sc;
+    tp_run_result r;
+    char yaml[2048], cfg[TP_TEST_PATH], out[TP_TEST_PATH];
+    size_t i;
+    (void)state;
+    tp_scratch_create(&sc);
+    tp_scratch_path(&sc, "steady.json", out, sizeof out);
+    for (i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+        const char *args[] = {"steady", cfg, "--json", out, NULL};
+        cJSON *root;
+        snprintf(yaml, sizeof yaml, PLANT_YAML, cases[i].setpoint);
+        tp_scratch_write(&sc, "plant.yaml", yaml, cfg);
+        tp_run_tepid(&sc, args, &r);
+        assert_int_equal(r.status, 0);
+        if (cases[i].low) {
+            /* The setpoint's position: line 12, column 64 of PLANT_YAML (counted by hand). */
+            tp_check_contains("stderr", r.err, "plant.yaml:12:64: warning: control.setpoint");
+            tp_check_contains("stderr", r.err, "the power margin is 1.10");
+            tp_check_contains("stderr", r.err, "below 1.3");
+            tp_check_contains("stdout", r.out, "1.10 (low: see the warning)");
+        } else {
+            assert_null(strstr(r.err, "power margin"));
+            assert_null(strstr(r.out, "(low"));
+        }
+        tp_run_clear(&r);
+        root = tp_read_json(out);
+        tp_check_rel("margin", json_number(root, "margin"), cases[i].margin, 1e-6);
+        assert_true(cJSON_IsBool(cJSON_GetObjectItemCaseSensitive(root, "margin_low")));
+        assert_int_equal(cJSON_IsTrue(cJSON_GetObjectItemCaseSensitive(root, "margin_low")),
+                         cases[i].low);
+        tp_check_rel("margin_advised", json_number(root, "margin_advised"), 1.3, 1e-12);
+        cJSON_Delete(root);
+    }
+    tp_scratch_destroy(&sc);
+}
+
 /* Where no steady state exists or the setpoint is out of reach, `tepid steady` exits 1 and
  * says which (issue 2 item 6); no JSON file is written. */
 static void test_steady_cli_failures_exit_1(void **state)
@@ -324,6 +371,7 @@ int main(void)
         cmocka_unit_test(test_steady_no_path_to_fixed),
         cmocka_unit_test(test_steady_cli_json),
         cmocka_unit_test(test_steady_cli_failures_exit_1),
+        cmocka_unit_test(test_steady_low_margin_warns),
     };
     int rc = cmocka_run_group_tests(tests, NULL, NULL);
     tp_units_shutdown();

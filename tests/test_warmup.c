@@ -214,6 +214,105 @@ static void test_time_to_level_first_order(void **state)
     tp_network_destroy(&net);
 }
 
+/* `warmup --strict` exits 3 when the reading does not reach the setpoint within the run, and
+ * still writes its outputs; without --strict the same run exits 0. Closed form as in
+ * test_time_to_level_first_order: the 60 degC setpoint is reached at 255.4 s, so a 200 s run
+ * misses it and a 300 s run does not. A file whose controller holds no setpoint has nothing
+ * for --strict to check: exit 2. */
+static void test_strict_exits_3_when_setpoint_not_reached(void **state)
+{
+    static const struct {
+        const char *mode, *duration;
+        int strict, status;
+    } cases[] = {
+        {"on-off", "200 s", 0, 0}, {"on-off", "200 s", 1, 3}, {"on-off", "300 s", 1, 0},
+        {"full", "300 s", 1, 2},
+    };
+    tp_scratch sc;
+    char text[1024], cfg[TP_TEST_PATH], out[TP_TEST_PATH];
+    size_t i;
+    (void)state;
+    tp_scratch_create(&sc);
+    tp_scratch_path(&sc, "w.json", out, sizeof out);
+    for (i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+        const char *args[] = {"warmup", cfg, "-q", "--json", out,
+                              cases[i].strict ? "--strict" : NULL, NULL};
+        tp_run_result r;
+        snprintf(text, sizeof text,
+                 "network:\n"
+                 "  nodes:\n"
+                 "    - {id: plate, capacity: 500 J/K, initial: 20 degC}\n"
+                 "    - {id: room, fixed: 20 degC}\n"
+                 "  links:\n"
+                 "    - {between: [plate, room], conductance: 1 W/K}\n"
+                 "  sources:\n"
+                 "    - {id: pad, node: plate, power: 100 W}\n"
+                 "control: {source: pad, sensor: plate, mode: %s, setpoint: 60 degC}\n"
+                 "run: {duration: %s, step: 1 s}\n",
+                 cases[i].mode, cases[i].duration);
+        tp_scratch_write(&sc, "plate.yaml", text, cfg);
+        remove(out);
+        tp_run_tepid(&sc, args, &r);
+        if (r.status != cases[i].status)
+            print_error("case %zu: stderr %s\n", i, r.err);
+        assert_int_equal(r.status, cases[i].status);
+        if (cases[i].status == 3) {
+            cJSON *root = tp_read_json(out);
+            tp_check_contains("note", r.err, "--strict: the reading did not reach the setpoint");
+            assert_true(cJSON_IsFalse(cJSON_GetObjectItemCaseSensitive(root, "reached")));
+            cJSON_Delete(root);
+        } else if (cases[i].status == 2) {
+            tp_check_contains("refusal", r.err, "--strict checks that the reading reaches");
+            assert_false(tp_file_exists(out));
+        }
+        tp_run_clear(&r);
+    }
+    tp_scratch_destroy(&sc);
+}
+
+/* `mode: off`: the controller holds the heater off, so the header names no setpoint and the
+ * run draws no current (issue: the header said "off control ... at 60.0 degC" and the summary a
+ * peak current of 5 A). The on-current of 24 V across 4.8 ohm would be 5 A (hand calculation);
+ * the heater never switches on, so the peak current is 0 A. */
+static void test_mode_off_draws_nothing(void **state)
+{
+    tp_scratch sc;
+    char cfg[TP_TEST_PATH], out[TP_TEST_PATH];
+    const char *args[] = {"warmup", cfg, "--json", out, NULL};
+    tp_run_result r;
+    cJSON *root;
+    const cJSON *v;
+    (void)state;
+    tp_scratch_create(&sc);
+    tp_scratch_write(&sc, "off.yaml",
+                     "network:\n"
+                     "  nodes:\n"
+                     "    - {id: plate, capacity: 500 J/K, initial: 20 degC}\n"
+                     "    - {id: room, fixed: 20 degC}\n"
+                     "  links:\n"
+                     "    - {between: [plate, room], conductance: 1 W/K}\n"
+                     "  sources:\n"
+                     "    - {id: pad, node: plate, supply: 24 V, resistance: 4.8 ohm}\n"
+                     "control: {source: pad, sensor: plate, mode: off, setpoint: 60 degC}\n"
+                     "run: {duration: 2 min, step: 1 s}\n",
+                     cfg);
+    tp_scratch_path(&sc, "off.json", out, sizeof out);
+    tp_run_tepid(&sc, args, &r);
+    assert_int_equal(r.status, 0);
+    assert_null(strstr(r.out, "60.0 degC"));
+    tp_check_contains("header", r.out, "the controller holds 'pad' off (mode off)");
+    tp_check_contains("summary", r.out, "0 A (the heater never switched on)");
+    tp_run_clear(&r);
+    root = tp_read_json(out);
+    v = cJSON_GetObjectItemCaseSensitive(root, "current_peak_A");
+    assert_true(cJSON_IsNumber(v));
+    assert_true(v->valuedouble == 0.0);
+    v = cJSON_GetObjectItemCaseSensitive(root, "power_peak_W");
+    assert_true(cJSON_IsNumber(v) && v->valuedouble == 0.0);
+    cJSON_Delete(root);
+    tp_scratch_destroy(&sc);
+}
+
 static void test_sensor_lag_behind_ramp_is_time_constant(void **state)
 {
     /* A plate heated at constant power without losses ramps; a first-order sensor (C_s/G_s =
@@ -245,6 +344,191 @@ static void test_sensor_lag_behind_ramp_is_time_constant(void **state)
     assert_true(fabs((ts - tp_) - 20.0) < 0.01);
     tp_history_clear(&h);
     tp_network_destroy(&net);
+}
+
+/* Plates whose only loss is the mounts' conductance (every convection and radiation scaled to
+ * zero), so that they are linear and the working surface is the top layer's node exactly (no
+ * flux leaves the top face); a 0.01 s sensor on a 0.05 s controller, so that the reading is
+ * the plate's temperature within a few millikelvin. Invented round values: C = rho c A t. */
+#define LINEAR_PLATE(layers, control) \
+    "materials:\n" \
+    "  base-metal: {density: 2700 kg/m3, specific_heat: 900 J/(kg.K), conductivity: 200 W/(m.K)," \
+    " emissivity: 0.5, max_temperature: 400 degC, source: test values}\n" \
+    "  top-sheet: {density: 8000 kg/m3, specific_heat: 500 J/(kg.K), conductivity: 50 W/(m.K)," \
+    " emissivity: 0.5, max_temperature: 400 degC, source: test values}\n" \
+    "room: {temperature: 20 degC}\n" \
+    "bed:\n" \
+    "  size: [200 mm, 200 mm]\n" \
+    "  layers:\n" layers \
+    "  mounts: {conductance: 1 W/K}\n" \
+    "losses: {convection_scale: 0, radiation_scale: 0}\n" \
+    "heater: {layer: plate, power: 100 W}\n" \
+    "sensor: {layer: plate, coupling: 0.05 W/K, time_constant: 0.01 s}\n" \
+    "control: " control "\n"
+
+/* Two first-order lags: heater -> plate (C1 = 2700 x 900 x 0.04 x 0.005 = 486 J/K, 1 W/K to the
+ * room) -> sheet (C2 = 8000 x 500 x 0.04 x 0.001 = 160 J/K, no loss of its own) through
+ * G12 = 1 / (0.005/(2 x 200 x 0.04) + 1/(100 x 0.04) + 0.001/(2 x 50 x 0.04)) = 3.99102 W/K.
+ * With x = T - T_room and full power P = 100 W:
+ *   C1 x1' = P - x1 - G12 (x1 - x2),   C2 x2' = G12 (x1 - x2),   x(0) = 0,
+ * a linear system with eigenvalues l = (tr +- sqrt(tr^2 - 4 det)) / 2, tr = -(1 + G12)/C1 -
+ * G12/C2, det = G12 / (C1 C2), eigenvectors (1 + l C2 / G12, 1) and the steady state
+ * x1 = x2 = P = 100 K (closed form of a linear ODE system; the crossing times below are its
+ * roots, found by bisection). Held by on-off control at 80 degC, the sheet (the surface) holds
+ * at 80 degC too. The lag: when x1 = 60 K (the reading reaches 80 degC), the surface is
+ * 60 - x2 short of its holding value (behind), and it comes within 1 K (x2 = 59 K) that much
+ * later. The 10 K band keeps the heater full on all that time (checked below: x1 < 65 K). */
+typedef struct two_lags {
+    double l[2], a[2], v[2]; /* eigenvalues, weights, first components of the eigenvectors */
+} two_lags;
+
+static void two_lags_init(two_lags *s)
+{
+    const double c1 = 486.0, c2 = 160.0, g = 1.0 / (0.005 / 16.0 + 0.25 + 0.001 / 4.0);
+    double tr = -(1.0 + g) / c1 - g / c2, det = g / (c1 * c2), disc = sqrt(tr * tr - 4.0 * det);
+    int k;
+    s->l[0] = 0.5 * (tr + disc);
+    s->l[1] = 0.5 * (tr - disc);
+    for (k = 0; k < 2; k++)
+        s->v[k] = 1.0 + s->l[k] * c2 / g;
+    /* a0 v + a1 w = -(100, 100): a0 + a1 = -100 and a0 v0 + a1 v1 = -100. */
+    s->a[0] = -100.0 * (1.0 - s->v[1]) / (s->v[0] - s->v[1]);
+    s->a[1] = -100.0 - s->a[0];
+}
+
+static double two_lags_x(const two_lags *s, int node, double t)
+{
+    double x = 100.0;
+    int k;
+    for (k = 0; k < 2; k++)
+        x += s->a[k] * (node == 0 ? s->v[k] : 1.0) * exp(s->l[k] * t);
+    return x;
+}
+
+/* The time node `node` rises through `level` K, by bisection (both rise monotonically). */
+static double two_lags_cross(const two_lags *s, int node, double level)
+{
+    double lo = 0.0, hi = 5000.0;
+    int i;
+    for (i = 0; i < 200; i++) {
+        double mid = 0.5 * (lo + hi);
+        if (two_lags_x(s, node, mid) < level)
+            lo = mid;
+        else
+            hi = mid;
+    }
+    return 0.5 * (lo + hi);
+}
+
+/* `tepid warmup --json` of `yaml`: the metrics as the command line writes them. */
+static cJSON *warmup_json(const char *yaml)
+{
+    tp_scratch sc;
+    char cfg[TP_TEST_PATH], out[TP_TEST_PATH];
+    const char *args[] = {"warmup", cfg, "-q", "--json", out, NULL};
+    cJSON *root;
+    tp_scratch_create(&sc);
+    tp_scratch_write(&sc, "plate.yaml", yaml, cfg);
+    tp_scratch_path(&sc, "plate.json", out, sizeof out);
+    assert_int_equal(tp_run_status(&sc, args), 0);
+    root = tp_read_json(out);
+    tp_scratch_destroy(&sc);
+    return root;
+}
+
+/* A number of a JSON object (fails when it is missing or null). */
+static double json_num(const cJSON *o, const char *key)
+{
+    const cJSON *v = cJSON_GetObjectItemCaseSensitive(o, key);
+    if (!cJSON_IsNumber(v))
+        fail_msg("'%s' is not a number", key);
+    return v->valuedouble;
+}
+
+static void test_lag_two_first_order_lags(void **state)
+{
+    static const char yaml[] = LINEAR_PLATE(
+        "    - {id: plate, material: base-metal, thickness: 5 mm}\n"
+        "    - {id: sheet, material: top-sheet, thickness: 1 mm, contact: 100 W/(m2.K)}\n",
+        "{mode: on-off, setpoint: 80 degC, band: 10 K, period: 0.05 s}\n"
+        "run: {duration: 15 min, step: 0.5 s, tolerance: 1e-9}");
+    tp_network *net = build(yaml);
+    cJSON *root;
+    two_lags s;
+    tp_warmup w;
+    tp_diag d;
+    double t_sp, t_catch;
+    (void)state;
+    two_lags_init(&s);
+    t_sp = two_lags_cross(&s, 0, 60.0);
+    t_catch = two_lags_cross(&s, 1, 59.0);
+    assert_true(two_lags_x(&s, 0, t_catch) < 65.0); /* still full on: below 80 + 10/2 degC */
+    tp_diag_init(&d, stderr);
+    assert_int_equal(tp_warmup_run(net, &w, &d), TP_OK);
+    tp_check_abs("surface at hold", w.metrics.surface_hold - KELVIN, 80.0, 1e-6);
+    /* The 0.01 s sensor delays the reading by about 0.01 s (a few mK at 0.2 K/s); linear
+     * interpolation over 0.5 s steps errs by far less. */
+    tp_check_abs("time to setpoint", w.metrics.t_setpoint, t_sp, 0.05);
+    tp_check_abs("lag, K behind", w.metrics.lag_k, 60.0 - two_lags_x(&s, 1, t_sp), 0.01);
+    assert_true(w.metrics.lag_k > 1.0); /* the surface is behind: the sign says so */
+    tp_check_abs("lag, s until within 1 K", w.metrics.lag, t_catch - t_sp, 0.05);
+    assert_true(w.metrics.lag > 0.0);
+    tp_warmup_clear(&w);
+    tp_network_destroy(&net);
+    /* The command line reports the same, under lag_K and lag_s. */
+    root = warmup_json(yaml);
+    tp_check_abs("lag_K", json_num(root, "lag_K"), 60.0 - two_lags_x(&s, 1, t_sp), 0.01);
+    tp_check_abs("lag_s", json_num(root, "lag_s"), t_catch - t_sp, 0.05);
+    cJSON_Delete(root);
+}
+
+/* On-off control of one linear plate (C = 486 J/K, 1 W/K, 100 W: tau = 486 s, x_inf = 100 K)
+ * reading itself: the surface rides a limit cycle between the band's edges, 58.5 and 61.5 degC
+ * (x from 38.5 to 41.5 K), on for tau ln((100 - 38.5)/(100 - 41.5)) = 24.30 s and off for
+ * tau ln(41.5/38.5) = 36.47 s, a period of 60.77 s (closed form of the first-order response
+ * between fixed levels). It never stays within 1 K of the 60 degC holding point, so readiness
+ * is judged against the cycle: within 1 K of its range, 57.5 to 62.5 degC, which the rising
+ * plate first reaches at tau ln(100/62.5) = 228.43 s and never leaves. The controller's 0.05 s
+ * ticks, the sensor's 0.01 s and the 0.1 s samples move the cycle's extremes by at most about
+ * 0.03 K (0.2 K/s x 0.15 s), hence the tolerances (0.03 K / 0.129 K/s = 0.25 s at the
+ * ready time). */
+static void test_ready_on_off_limit_cycle(void **state)
+{
+    static const char yaml[] = LINEAR_PLATE(
+        "    - {id: plate, material: base-metal, thickness: 5 mm}\n",
+        "{mode: on-off, setpoint: 60 degC, band: 3 K, period: 0.05 s}\n"
+        "run: {duration: 30 min, step: 0.1 s, tolerance: 1e-9}");
+    tp_network *net = build(yaml);
+    const double tau = 486.0;
+    cJSON *root;
+    const cJSON *def;
+    tp_warmup w;
+    tp_diag d;
+    (void)state;
+    tp_diag_init(&d, stderr);
+    assert_int_equal(tp_warmup_run(net, &w, &d), TP_OK);
+    assert_int_equal(w.metrics.ready_basis, TP_READY_CYCLE);
+    tp_check_abs("cycle low", w.metrics.cycle_min - KELVIN, 58.5, 0.05);
+    tp_check_abs("cycle high", w.metrics.cycle_max - KELVIN, 61.5, 0.05);
+    tp_check_abs("cycle period", w.metrics.cycle_period,
+                 tau * (log(61.5 / 58.5) + log(41.5 / 38.5)), 0.3);
+    tp_check_abs("ready band low", w.metrics.ready_low - KELVIN, 57.5, 0.05);
+    tp_check_abs("ready band high", w.metrics.ready_high - KELVIN, 62.5, 0.05);
+    tp_check_abs("surface ready", w.metrics.t_surface_ready, tau * log(100.0 / 62.5), 0.5);
+    tp_warmup_clear(&w);
+    tp_network_destroy(&net);
+    /* The command line says which definition it used. */
+    root = warmup_json(yaml);
+    tp_check_abs("time_surface_ready_s", json_num(root, "time_surface_ready_s"),
+                 tau * log(100.0 / 62.5), 0.5);
+    def = cJSON_GetObjectItemCaseSensitive(root, "ready_definition");
+    assert_true(cJSON_IsString(def));
+    assert_string_equal(def->valuestring, "limit_cycle");
+    tp_check_abs("ready_low_C", json_num(root, "ready_low_C"), 57.5, 0.05);
+    tp_check_abs("limit cycle period",
+                 json_num(cJSON_GetObjectItemCaseSensitive(root, "limit_cycle"), "period_s"),
+                 tau * (log(61.5 / 58.5) + log(41.5 / 38.5)), 0.3);
+    cJSON_Delete(root);
 }
 
 static void test_settle_time_definition(void **state)
@@ -373,8 +657,12 @@ int main(void)
         cmocka_unit_test(test_pid_antiwindup_bounds_overshoot),
         cmocka_unit_test(test_derivative_filter_from_config),
         cmocka_unit_test(test_time_to_level_first_order),
+        cmocka_unit_test(test_strict_exits_3_when_setpoint_not_reached),
+        cmocka_unit_test(test_mode_off_draws_nothing),
         cmocka_unit_test(test_sensor_lag_behind_ramp_is_time_constant),
         cmocka_unit_test(test_settle_time_definition),
+        cmocka_unit_test(test_lag_two_first_order_lags),
+        cmocka_unit_test(test_ready_on_off_limit_cycle),
         cmocka_unit_test(test_simc_formula),
         cmocka_unit_test(test_imc_formula),
         cmocka_unit_test(test_two_point_recovers_fopdt),
