@@ -65,9 +65,9 @@ void tp_air_props(double t, double p, tp_air *out)
     inv_t = 1.0 / t;
     inv_p = 1.0 / p;
     /* Ideal gas: beta = 1/T is within 0.3 % of the real-gas value at 1 atm and 300..400 K
-     * (beta T = 1.0027 at 300 K and 1.0010 at 400 K from the Lemmon et al. (2000) equation of state,
-     * hand calculation); the ideal-gas density is within 0.1 % of Lemmon et al. (2000) at 1 atm
-     * over 250..500 K (hand calculation). */
+     * (beta T = 1.0027 at 300 K and 1.0010 at 400 K from the Lemmon et al. (2000) equation of
+     * state, hand calculation); the ideal-gas density is within 0.1 % of Lemmon et al. (2000) at
+     * 1 atm over 250..500 K (hand calculation). */
     out->rho = p * (TP_AIR_MOLAR_MASS / TP_GAS_CONSTANT) * inv_t;
     out->cp = heat_capacity(t);
     /* Sutherland's law for both: q0 (T/T0)^(3/2) (T0 + S)/(T + S). */

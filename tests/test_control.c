@@ -275,9 +275,10 @@ static tp_reading_model ntc(void)
 }
 
 /* Beta equation R = R25 exp(B (1/T - 1/T25)), T25 = 298.15 K (the Beta model, common practice,
- * no source; values by hand calculation): R(60 degC) = 24861.6, R(100 degC) = 6975.2, R(200 degC) = 744.6 ohm. Tolerance half
- * a unit of the printed 0.1 ohm. The inverse returns the temperature within the resistance
- * rounding divided by |dR/dT| = B R / T^2 (at least 2.1 ohm/K at 200 degC: 0.024 K). */
+ * no source; values by hand calculation): R(60 degC) = 24861.6, R(100 degC) = 6975.2,
+ * R(200 degC) = 744.6 ohm. Tolerance half a unit of the printed 0.1 ohm. The inverse returns the
+ * temperature within the resistance rounding divided by |dR/dT| = B R / T^2 (at least 2.1 ohm/K
+ * at 200 degC: 0.024 K). */
 static void test_thermistor_beta_table(void **state)
 {
     static const double rows[][2] = {{60.0, 24861.6}, {100.0, 6975.2}, {200.0, 744.6}};

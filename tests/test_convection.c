@@ -51,8 +51,8 @@ static void test_nu_horizontal_up_formula(void **state)
 }
 
 /* Eq. 9.30 holds up to Ra = 1e7, Eq. 9.31 from 1e7 (Incropera; McAdams, Heat Transmission,
- * 3rd ed., switches there too, from memory). Closed-form values on each side. The forms do not meet:
- * at 1e7 they give 30.366 and 32.317, a +6.4 % step that tp_conv_h inherits. */
+ * 3rd ed., switches there too, from memory). Closed-form values on each side. The forms do not
+ * meet: at 1e7 they give 30.366 and 32.317, a +6.4 % step that tp_conv_h inherits. */
 static void test_nu_horizontal_up_switch_at_1e7(void **state)
 {
     int oor = -1;

@@ -1,5 +1,6 @@
-/* Tests of `tepid explain` through the binary: the JSON contract of docs/user-guide.md, the radiation
- * linearisation at --at, and every demo in configs/ through check, explain, warmup and steady. */
+/* Tests of `tepid explain` through the binary: the JSON contract of docs/user-guide.md, the
+ * radiation linearisation at --at, and every demo in configs/ through check, explain, warmup
+ * and steady. */
 #include <stdarg.h>
 #include <stddef.h>
 #include <stdint.h>

@@ -472,8 +472,9 @@ static char *warmup_csv(tp_scratch *s, const char *control)
  * comma separator, no units in cells. Rows on the run.step grid: 1 min at 5 s is 13 rows at
  * t = 0, 5, ..., 60 s. First-row values by hand: a at 21 degC, b at 30 degC; p1 fully on
  * (the reading 30 degC is below the 60 degC setpoint, docs/control.md: "at t = 0 on when the
- * reading is below the setpoint") gives 80 W; p2 = V^2 / (R0 (1 + alpha (T - Tref))) = 576 / (480 x 1.04) =
- * 1.15384615 W. Tolerance 1e-8 relative: the cells carry 9 significant digits. */
+ * reading is below the setpoint") gives 80 W; p2 = V^2 / (R0 (1 + alpha (T - Tref))) =
+ * 576 / (480 x 1.04) = 1.15384615 W. Tolerance 1e-8 relative: the cells carry 9 significant
+ * digits. */
 static void test_integrate_csv_columns_with_control(void **state)
 {
     static const char *const header[] = {"time_s", "a_C",  "b_C",      "p1_W",
@@ -504,7 +505,8 @@ static void test_integrate_csv_columns_with_control(void **state)
     tp_scratch_destroy(&s);
 }
 
-/* Without a controller there is no duty column (docs/user-guide.md), and every source is fully on. */
+/* Without a controller there is no duty column (docs/user-guide.md), and every source is fully
+ * on. */
 static void test_integrate_csv_columns_without_control(void **state)
 {
     tp_scratch s;

@@ -95,9 +95,9 @@ static void test_units_accepted_forms(void **state)
 }
 
 /* The same temperature text means different things as an absolute value and as an interval
- * (docs/user-guide.md, "Quantities and units"): 2 degC is 275.15 K as a temperature and 2 K as a difference;
- * 3.6 degF of difference is 2 K while 3.6 degF as a temperature is (3.6 + 459.67) / 1.8 =
- * 257.3722 K (SP 811 B.9). */
+ * (docs/user-guide.md, "Quantities and units"): 2 degC is 275.15 K as a temperature and 2 K as
+ * a difference; 3.6 degF of difference is 2 K while 3.6 degF as a temperature is
+ * (3.6 + 459.67) / 1.8 = 257.3722 K (SP 811 B.9). */
 static void test_units_absolute_versus_interval(void **state)
 {
     char msg[256];

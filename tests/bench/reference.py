@@ -1,8 +1,9 @@
 #!/usr/bin/env python3
 """The general-purpose reference for tests/bench/run.sh: a raw-form tepid network
 (docs/user-guide.md, `network:`) read from the same YAML file and integrated by SciPy's
-solve_ivp (BDF) at tepid's tolerances, and by a fixed-step explicit Euler scheme (numpy); both compared with tepid's own
-histories (CSV). Needs Debian's python3-numpy, python3-scipy and python3-yaml.
+solve_ivp (BDF) at tepid's tolerances, and by a fixed-step explicit Euler scheme (numpy); both
+compared with tepid's own histories (CSV). Needs Debian's python3-numpy, python3-scipy and
+python3-yaml.
 
 The model is the one src/network.c evaluates, written again from docs/model.md:
 
