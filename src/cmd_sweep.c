@@ -44,9 +44,9 @@ static const tp_opt sweep_opts[] = {
 };
 
 /* The metrics of the text table of a grid, in order. */
-static const int grid_columns[] = {TP_MET_TIME_SETPOINT, TP_MET_TIME_READY, TP_MET_OVERSHOOT_READING,
-                                   TP_MET_HOLD_POWER,    TP_MET_HOLD_DUTY,  TP_MET_MARGIN,
-                                   TP_MET_ENERGY_READY};
+static const int grid_columns[] = {
+    TP_MET_TIME_SETPOINT, TP_MET_TIME_READY, TP_MET_OVERSHOOT_READING, TP_MET_HOLD_POWER,
+    TP_MET_HOLD_DUTY,     TP_MET_MARGIN,     TP_MET_ENERGY_READY};
 #define N_GRID_COLUMNS (sizeof grid_columns / sizeof grid_columns[0])
 
 typedef struct options {
@@ -405,9 +405,8 @@ static void spread_table(FILE *fp, const tp_sweep_plan *plan, const tp_sweep_sum
     int m, none;
     char v[6][32], worst[48];
     fprintf(fp, "\n  %-18s %5s %*s %*s %*s %*s %*s %*s %-8s %-16s %s\n", "metric", "unit",
-            SPREAD_COL, "mean", SPREAD_COL, "sd", SPREAD_COL, "p5", SPREAD_COL, "p50",
-            SPREAD_COL, "p95", SPREAD_COL, "worst", "sample", "worst is",
-            "driven most by (Spearman rho)");
+            SPREAD_COL, "mean", SPREAD_COL, "sd", SPREAD_COL, "p5", SPREAD_COL, "p50", SPREAD_COL,
+            "p95", SPREAD_COL, "worst", "sample", "worst is", "driven most by (Spearman rho)");
     for (m = 0; m < TP_MET_COUNT; m++) {
         const tp_metricdef *mi = tp_metricdef_get(m);
         const tp_sweep_summary *s = &sum[m];
@@ -425,8 +424,8 @@ static void spread_table(FILE *fp, const tp_sweep_plan *plan, const tp_sweep_sum
             snprintf(worst, sizeof worst, "-");
         fprintf(fp, "  %-18s %5s %*s %*s %*s %*s %*s %*s %-8s %-16s", mi->label,
                 mi->form == TP_FORM_DURATION ? "" : mi->text_unit, SPREAD_COL, v[0], SPREAD_COL,
-                v[1], SPREAD_COL, v[2], SPREAD_COL, v[3], SPREAD_COL, v[4], SPREAD_COL, v[5],
-                worst, tp_worse_name(mi->worse));
+                v[1], SPREAD_COL, v[2], SPREAD_COL, v[3], SPREAD_COL, v[4], SPREAD_COL, v[5], worst,
+                tp_worse_name(mi->worse));
         if (s->driver >= 0)
             fprintf(fp, " %s (%+.2f)", plan->params[s->driver].path, s->rho[s->driver]);
         else
@@ -734,7 +733,8 @@ static tp_status plot_map(const char *path, const tp_session *s, const tp_sweep_
     const tp_sweep_param *px = &plan->params[0], *py = &plan->params[1];
     size_t nx = (size_t)px->n_values, ny = (size_t)py->n_values;
     double *z = malloc(nx * ny * sizeof *z), ext[4];
-    char xl[TP_SWEEP_PATH_MAX + TP_SWEEP_UNIT_MAX + 4], yl[TP_SWEEP_PATH_MAX + TP_SWEEP_UNIT_MAX + 4];
+    char xl[TP_SWEEP_PATH_MAX + TP_SWEEP_UNIT_MAX + 4],
+        yl[TP_SWEEP_PATH_MAX + TP_SWEEP_UNIT_MAX + 4];
     char zl[64];
     char title[TP_TEXT_MAX + 64];
     const tp_sweep_param *ax[2] = {px, py};
