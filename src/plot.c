@@ -32,6 +32,15 @@
 #define PLOT_LEGEND_SCALE 0.9   /* legend text size, character heights */
 #define PLOT_LEGEND_SPACING 2.2 /* legend line pitch, legend character heights */
 #define PLOT_TITLE_SCALE 1.2    /* title size, character heights */
+#define PLOT_TITLE_W 0.8        /* width of a title character, title character heights: the sans
+                                   font measured 0.64 (prose) to 0.72 (a file path) on lines of
+                                   95 characters; 0.8 leaves room for capitals */
+#define PLOT_TITLE_PITCH 1.5    /* line pitch of a wrapped title, title character heights */
+#define PLOT_TITLE_MARGIN 1.0   /* free room left and right of a title, character heights */
+#define PLOT_LABEL_GAP 0.6      /* marker or line to its label, character heights */
+#define PLOT_VREF_STYLE 2       /* PLplot line style of marked times (short dashes) */
+#define PLOT_STRETCH_MAX 1.6    /* headroom for a legend may lengthen an axis this much, - */
+#define PLOT_LEGEND_CLEAR 0.02  /* data kept this far from a legend, share of the viewport */
 #define PLOT_PAD 0.05           /* room above and below the data in a panel, fraction of range */
 #define PLOT_MAP_PAD 0.04       /* room around the plate in a heat map, fraction of longer side */
 #define PLOT_LEVELS_MAX 32      /* contour levels at most */
@@ -199,6 +208,166 @@ static size_t text_chars(const char *s)
     for (; s && *s; s++)
         n += ((unsigned char)*s & 0xC0) != 0x80;
     return n;
+}
+
+/* ---- title wrapping and label placement (no PLplot) --------------------------------------- */
+
+static int blank_byte(unsigned char c)
+{
+    return c == ' ' || c < 0x20 || c == 0x7F;
+}
+
+/* Byte length of the UTF-8 character starting at s (1 for a stray continuation byte). */
+static size_t char_bytes(const char *s)
+{
+    size_t n = 1;
+    while (s[n] && ((unsigned char)s[n] & 0xC0) == 0x80)
+        n++;
+    return n;
+}
+
+/* Characters in s[0..len). */
+static size_t span_chars(const char *s, size_t len)
+{
+    size_t i, n = 0;
+    for (i = 0; i < len; i++)
+        n += ((unsigned char)s[i] & 0xC0) != 0x80;
+    return n;
+}
+
+/* Bytes of the first `chars` characters of s[0..len). */
+static size_t span_bytes(const char *s, size_t len, size_t chars)
+{
+    size_t i = 0;
+    while (i < len && chars > 0) {
+        i += char_bytes(s + i);
+        chars--;
+    }
+    return i < len ? i : len;
+}
+
+/* Copy s[0..len) into a line, control characters as blanks, blanks at both ends dropped. */
+static void line_put(char *line, const char *s, size_t len)
+{
+    size_t i, o = 0;
+    while (len > 0 && blank_byte((unsigned char)*s)) {
+        s++;
+        len--;
+    }
+    while (len > 0 && blank_byte((unsigned char)s[len - 1]))
+        len--;
+    for (i = 0; i < len && o + 1 < TP_PLOT_LINE_BYTES; i++)
+        line[o++] = blank_byte((unsigned char)s[i]) ? ' ' : s[i];
+    line[o] = '\0';
+}
+
+int tp_plot_wrap_title(const char *title, size_t width, int max_lines,
+                       char lines[][TP_PLOT_LINE_BYTES])
+{
+    static const char ellipsis[] = "\xe2\x80\xa6"; /* U+2026, one character */
+    size_t pos = 0, stop;
+    int n = 0;
+    if (!title)
+        return 0;
+    width = width < 8 ? 8 : width > TP_PLOT_LABEL_MAX - 1 ? TP_PLOT_LABEL_MAX - 1 : width;
+    max_lines = max_lines < 1                     ? 1
+                : max_lines > TP_PLOT_TITLE_LINES ? TP_PLOT_TITLE_LINES
+                                                  : max_lines;
+    stop = strlen(title);
+    while (stop > 0 && blank_byte((unsigned char)title[stop - 1]))
+        stop--;
+    while (pos < stop && blank_byte((unsigned char)title[pos]))
+        pos++;
+    while (pos < stop && n < max_lines) {
+        const char *s = title + pos;
+        size_t len = stop - pos, cut = 0, i, chars;
+        if (span_chars(s, len) <= width) {
+            line_put(lines[n++], s, len);
+            break;
+        }
+        if (n == max_lines - 1) {
+            /* The last line: its start, an ellipsis, and its end (a file name stays whole). */
+            size_t head = (width - 1) * 2 / 5, tail = width - 1 - head;
+            size_t hb = span_bytes(s, len, head);
+            size_t tb = span_bytes(s, len, span_chars(s, len) - tail);
+            char *line = lines[n++];
+            line_put(line, s, hb);
+            strcat(line, ellipsis);
+            line_put(line + strlen(line), s + tb, len - tb);
+            break;
+        }
+        /* The last break within `width` characters: before a blank, or after a '/' when no
+         * blank leaves at least half a line (a path is cut at its slashes, prose at its blanks). */
+        {
+            size_t blank = 0, slash = 0, blank_chars = 0;
+            for (i = 0, chars = 0; i < len && chars <= width; i += char_bytes(s + i), chars++) {
+                if (i > 0 && blank_byte((unsigned char)s[i])) {
+                    blank = i;
+                    blank_chars = chars;
+                }
+                if (i > 0 && s[i - 1] == '/')
+                    slash = i;
+            }
+            cut = blank > 0 && 2 * blank_chars >= width ? blank : blank > slash ? blank : slash;
+        }
+        if (cut == 0)
+            cut = span_bytes(s, len, width); /* one word longer than a line */
+        line_put(lines[n++], s, cut);
+        pos += cut;
+        while (pos < stop && blank_byte((unsigned char)title[pos]))
+            pos++;
+    }
+    return n;
+}
+
+/* Area of the intersection of two boxes given by their corners. */
+static double box_overlap(double ax0, double ay0, double ax1, double ay1, double bx0, double by0,
+                          double bx1, double by1)
+{
+    double w = fmin(ax1, bx1) - fmax(ax0, bx0), h = fmin(ay1, by1) - fmax(ay0, by0);
+    return w > 0.0 && h > 0.0 ? w * h : 0.0;
+}
+
+void tp_plot_place_labels(tp_plot_label *labels, size_t n, double gap, double fx0, double fy0,
+                          double fx1, double fy1)
+{
+    /* Candidate places: offsets of the box's lower-left corner from the marker, in units of
+     * (w, h) and of gap: right, left, above, below, then the four corners. Places above and
+     * below clear the band of the side places (half a height either way of the marker), so
+     * three labels on one marker fit. */
+    static const double place[8][4] = {
+        /* x: w share, gaps; y: h share, gaps */
+        {0.0, 1.0, -0.5, 0.0},  {-1.0, -1.0, -0.5, 0.0}, {-0.5, 0.0, 0.5, 0.5},
+        {-0.5, 0.0, -1.5, -0.5}, {0.0, 1.0, 0.5, 0.5},   {0.0, 1.0, -1.5, -0.5},
+        {-1.0, -1.0, 0.5, 0.5}, {-1.0, -1.0, -1.5, -0.5},
+    };
+    size_t i, j;
+    int c;
+    for (i = 0; i < n; i++) {
+        tp_plot_label *l = &labels[i];
+        double best = HUGE_VAL;
+        for (c = 0; c < 8; c++) {
+            double x0 = l->x + place[c][0] * l->w + place[c][1] * gap;
+            double y0 = l->y + place[c][2] * l->h + place[c][3] * gap;
+            double x1 = x0 + l->w, y1 = y0 + l->h, cost = 0.0;
+            /* outside the frame: the area that sticks out */
+            cost += l->w * l->h - box_overlap(x0, y0, x1, y1, fx0, fy0, fx1, fy1);
+            for (j = 0; j < n; j++) {
+                if (j < i)
+                    cost += box_overlap(x0, y0, x1, y1, labels[j].x0, labels[j].y0,
+                                        labels[j].x0 + labels[j].w, labels[j].y0 + labels[j].h);
+                cost += box_overlap(x0, y0, x1, y1, labels[j].x - gap, labels[j].y - gap,
+                                    labels[j].x + gap, labels[j].y + gap);
+            }
+            if (cost < best) {
+                best = cost;
+                l->x0 = x0;
+                l->y0 = y0;
+                if (cost == 0.0)
+                    break;
+            }
+        }
+    }
 }
 
 static double clampd(double v, double lo, double hi)
@@ -504,24 +673,69 @@ static tp_status plot_write(const char *path, const plot_format *fmt, int w, int
     return tp_outfile_place(tmp, path, d);
 }
 
-/* Text with a white halo (copies offset by ox, oy world units), for labels drawn over data. */
-static void halo_text(double x, double y, double ox, double oy, double just, const char *text)
+/* Text along (dx, dy) with a white halo (copies offset by ox, oy world units), for labels
+ * drawn over data. */
+static void halo_text_dir(double x, double y, double dx, double dy, double ox, double oy,
+                          double just, const char *text)
 {
     int i, j;
     plcol0(COL_HALO);
     for (i = -1; i <= 1; i++)
         for (j = -1; j <= 1; j++)
             if (i || j)
-                plptex(x + i * ox, y + j * oy, 1.0, 0.0, just, text);
+                plptex(x + i * ox, y + j * oy, dx, dy, just, text);
     plcol0(COL_INK);
-    plptex(x, y, 1.0, 0.0, just, text);
+    plptex(x, y, dx, dy, just, text);
+}
+
+/* Horizontal text with a halo. */
+static void halo_text(double x, double y, double ox, double oy, double just, const char *text)
+{
+    halo_text_dir(x, y, 1.0, 0.0, ox, oy, just, text);
+}
+
+/* ---- titles ------------------------------------------------------------------------------ */
+
+/* A figure's title wrapped for a page `page_w` mm wide at character height `ht` mm. */
+typedef struct title_plan {
+    char line[TP_PLOT_TITLE_LINES][TP_PLOT_LINE_BYTES];
+    int n;
+} title_plan;
+
+/* Wrap `title` (may be NULL) to the page's width; returns the room it needs above the top frame,
+ * mm. */
+static double title_fit(title_plan *tp, const char *title, double page_w, double ht)
+{
+    double cw = PLOT_TITLE_SCALE * PLOT_TITLE_W * ht;
+    double chars = (page_w - 2.0 * PLOT_TITLE_MARGIN * ht) / cw;
+    tp->n = title ? tp_plot_wrap_title(title, chars > 8.0 ? (size_t)chars : 8, TP_PLOT_TITLE_LINES,
+                                       tp->line)
+                  : 0;
+    if (tp->n == 0)
+        return 1.5 * ht;
+    return (3.6 + (tp->n - 1) * PLOT_TITLE_PITCH * PLOT_TITLE_SCALE) * ht;
+}
+
+/* Draw the title above the current viewport (vx0..vx1 mm), centred on the page. */
+static void title_draw(const title_plan *tp, double page_w, double vx0, double vx1)
+{
+    char text[PLOT_TEXT_SIZE];
+    double pos = (0.5 * page_w - vx0) / (vx1 - vx0);
+    int k;
+    plschr(0.0, PLOT_TITLE_SCALE);
+    for (k = 0; k < tp->n; k++) {
+        text_copy(text, tp->line[k]);
+        plmtex("t", 1.3 + (tp->n - 1 - k) * PLOT_TITLE_PITCH, pos, 0.5, text);
+    }
+    plschr(0.0, 1.0);
 }
 
 /* ---- charts ------------------------------------------------------------------------------ */
 
 typedef struct legend_plan {
-    PLINT n;
-    PLINT position; /* PL_POSITION_* corner */
+    PLINT n, nrow, ncol;
+    PLINT position;     /* PL_POSITION_* corner */
+    double box_w, box_h; /* estimated size, shares of the viewport's width and height */
     PLFLT sample_w; /* length of the line sample, fraction of the viewport width */
     PLINT opt[TP_PLOT_LEGEND_MAX], colour[TP_PLOT_LEGEND_MAX], ink[TP_PLOT_LEGEND_MAX];
     PLINT style[TP_PLOT_LEGEND_MAX], nsym[TP_PLOT_LEGEND_MAX];
@@ -547,6 +761,11 @@ typedef struct chart_plan {
     plot_axis x;
     double ylabel_disp, y2label_disp; /* axis titles from the frame, character heights */
     panel_plan *panels;
+    title_plan title;
+    /* Marked times inside the x range, and their labels placed in the top panel (mm). */
+    const tp_plot_vline *vline[TP_PLOT_VLINES_MAX];
+    tp_plot_label vlabel[TP_PLOT_VLINES_MAX];
+    size_t n_vlines;
 } chart_plan;
 
 static int series_colour(size_t k)
@@ -685,6 +904,37 @@ static void hline_label(const chart_plan *cp, const panel_plan *pp, const tp_plo
     plschr(0.0, 1.0);
 }
 
+/* A marked time: a vertical line through the panel. */
+static void vline_line(const chart_plan *cp, const panel_plan *pp, const tp_plot_vline *v)
+{
+    PLFLT x[2], y[2];
+    x[0] = x[1] = v->x;
+    y[0] = pp->y.lo;
+    y[1] = pp->y.hi;
+    plcol0(COL_REF);
+    pllsty(PLOT_VREF_STYLE);
+    plwidth(1.5 * PLOT_AXIS_W * cp->scale);
+    plline(2, x, y);
+    pllsty(1);
+}
+
+/* Its label, reading upwards along the line in the box placed for it (mm of the page). */
+static void vline_label(const chart_plan *cp, const panel_plan *pp, const tp_plot_vline *v,
+                        const tp_plot_label *l)
+{
+    char text[PLOT_TEXT_SIZE];
+    double vw = pp->vx1 - pp->vx0, vh = pp->vy1 - pp->vy0;
+    double xs = (cp->x.hi - cp->x.lo) / vw, ys = (pp->y.hi - pp->y.lo) / vh; /* per mm */
+    double xc = cp->x.lo + (l->x0 + 0.5 * l->w - pp->vx0) * xs;
+    double yc = pp->y.lo + (l->y0 + 0.5 * l->h - pp->vy0) * ys;
+    if (!v->label || !*v->label)
+        return;
+    text_copy(text, v->label);
+    plschr(0.0, PLOT_LEGEND_SCALE);
+    halo_text_dir(xc, yc, 0.0, 1.0, 0.08 * cp->ht * xs, 0.08 * cp->ht * ys, 0.5, text);
+    plschr(0.0, 1.0);
+}
+
 static void panel_draw(const chart_plan *cp, const panel_plan *pp, int top, int bottom)
 {
     const tp_plot_panel *p = pp->p;
@@ -700,6 +950,8 @@ static void panel_draw(const chart_plan *cp, const panel_plan *pp, int top, int 
     box_draw("g", &cp->x, "g", &pp->y);
     for (i = 0; i < p->n_hlines; i++)
         hline_line(cp, &p->hlines[i]);
+    for (i = 0; i < cp->n_vlines; i++)
+        vline_line(cp, pp, cp->vline[i]);
     for (i = 0; i < p->n_series; i++)
         if (!p->series[i].right_axis)
             series_draw(cp, &p->series[i], pp->first + i);
@@ -717,17 +969,15 @@ static void panel_draw(const chart_plan *cp, const panel_plan *pp, int top, int 
     }
     for (i = 0; i < p->n_hlines; i++)
         hline_label(cp, pp, &p->hlines[i]);
+    for (i = 0; top && i < cp->n_vlines; i++)
+        vline_label(cp, pp, cp->vline[i], &cp->vlabel[i]);
     plcol0(COL_INK);
     plwidth(PLOT_AXIS_W * cp->scale);
     box_draw(bottom ? "bcnost" : "bcst", &cp->x, pp->right ? "bnostv" : "bcnostv", &pp->y);
     text_copy(text, p->ylabel);
     plmtex("l", cp->ylabel_disp, 0.5, 0.5, text);
-    if (top && cp->c->title && *cp->c->title) {
-        text_copy(text, cp->c->title);
-        plschr(0.0, PLOT_TITLE_SCALE);
-        plmtex("t", 1.3, 0.5, 0.5, text);
-        plschr(0.0, 1.0);
-    }
+    if (top)
+        title_draw(&cp->title, cp->width * PLOT_MM_PER_PX, pp->vx0, pp->vx1);
     if (bottom && cp->c->xlabel && *cp->c->xlabel) {
         text_copy(text, cp->c->xlabel);
         plmtex("b", 3.3, 0.5, 0.5, text);
@@ -735,7 +985,7 @@ static void panel_draw(const chart_plan *cp, const panel_plan *pp, int top, int 
     if (lg->n > 0) {
         plwidth(PLOT_AXIS_W * cp->scale);
         pllegend(&lw, &lh, PL_LEGEND_BACKGROUND | PL_LEGEND_BOUNDING_BOX, lg->position, 0.012,
-                 0.025, lg->sample_w, COL_BG, COL_INK, 1, 0, 0, lg->n, lg->opt, 1.0,
+                 0.025, lg->sample_w, COL_BG, COL_INK, 1, lg->nrow, lg->ncol, lg->n, lg->opt, 1.0,
                  PLOT_LEGEND_SCALE, PLOT_LEGEND_SPACING, 0.0, lg->ink, lg->text, NULL, NULL, NULL,
                  NULL, lg->colour, lg->style, lg->width, lg->colour, lg->sscale, lg->nsym,
                  lg->glyph);
@@ -749,6 +999,51 @@ static void chart_draw(const void *plan)
     plschr(cp->ht, 1.0);
     for (i = 0; i < cp->c->n_panels; i++)
         panel_draw(cp, &cp->panels[i], i == 0, i + 1 == cp->c->n_panels);
+}
+
+/* Hits of the data, the reference lines, the marked times and (top panel) their labels in the
+ * four corner boxes of a legend bw x bh (shares of the viewport): right top, left top, right
+ * bottom, left bottom. */
+static void legend_corner_hits(const chart_plan *cp, const panel_plan *pp, double bw, double bh,
+                               corner_boxes *cb)
+{
+    const tp_plot_panel *p = pp->p;
+    double vw = pp->vx1 - pp->vx0, vh = pp->vy1 - pp->vy0;
+    size_t i;
+    int c;
+    /* Each box with a clearance of PLOT_LEGEND_CLEAR on its inner sides: a curve along the
+     * legend's border reads as part of it. */
+    for (c = 0; c < 4; c++) {
+        int right = c == 0 || c == 2, topc = c < 2;
+        cb->x0[c] = right ? 1.0 - bw - PLOT_LEGEND_CLEAR : 0.0;
+        cb->x1[c] = right ? 1.0 : bw + PLOT_LEGEND_CLEAR;
+        cb->y0[c] = topc ? 1.0 - bh - PLOT_LEGEND_CLEAR : 0.0;
+        cb->y1[c] = topc ? 1.0 : bh + PLOT_LEGEND_CLEAR;
+        cb->hits[c] = 0;
+    }
+    for (i = 0; i < p->n_series; i++) {
+        const tp_plot_series *s = &p->series[i];
+        corner_series(cb, s, &cp->x, s->right_axis ? &pp->y2 : &pp->y);
+    }
+    for (i = 0; i < p->n_hlines; i++) {
+        double v = (p->hlines[i].y - pp->y.lo) / (pp->y.hi - pp->y.lo);
+        int k;
+        for (k = 0; k <= 100 && isfinite(v); k++)
+            corner_hit(cb, k / 100.0, v);
+    }
+    for (i = 0; i < cp->n_vlines; i++) {
+        double u = (cp->vline[i]->x - cp->x.lo) / (cp->x.hi - cp->x.lo);
+        int k, m;
+        for (k = 0; k <= 100; k++)
+            corner_hit(cb, u, k / 100.0);
+        if (pp != &cp->panels[0])
+            continue;
+        /* The top panel's labels: a legend on them would hide them. */
+        for (k = 0; k <= 10; k++)
+            for (m = 0; m <= 10; m++)
+                corner_hit(cb, (cp->vlabel[i].x0 + cp->vlabel[i].w * k / 10.0 - pp->vx0) / vw,
+                           (cp->vlabel[i].y0 + cp->vlabel[i].h * m / 10.0 - pp->vy0) / vh);
+    }
 }
 
 /* Fill the legend of a panel and choose the corner where it hides the fewest data. */
@@ -790,33 +1085,41 @@ static void legend_plan_fill(const chart_plan *cp, panel_plan *pp)
     if (lg->n == 0)
         return;
 
-    /* estimated legend box, normalised to the viewport, with the offsets given to pllegend */
-    bw = (3.5 + 2.0 + (double)longest * PLOT_TEXT_W * PLOT_LEGEND_SCALE) * cp->ht / vw + 0.012;
-    bh = ((double)lg->n * PLOT_LEGEND_SPACING * PLOT_LEGEND_SCALE + 1.0) * cp->ht / vh + 0.025;
-    bw = fmin(bw, 1.0);
-    bh = fmin(bh, 1.0);
-    for (c = 0; c < 4; c++) {
-        int right = c == 0 || c == 2, topc = c < 2;
-        cb.x0[c] = right ? 1.0 - bw : 0.0;
-        cb.x1[c] = right ? 1.0 : bw;
-        cb.y0[c] = topc ? 1.0 - bh : 0.0;
-        cb.y1[c] = topc ? 1.0 : bh;
-        cb.hits[c] = 0;
+    /* Estimated legend boxes, normalised to the viewport, with the offsets given to pllegend:
+     * in one column, or in two when a single column would cover data in every corner. */
+    {
+        int ncol, best_ncol = 1;
+        size_t best_hits = (size_t)-1;
+        double best_w = 1.0, best_h = 1.0;
+        for (ncol = 1; ncol <= 2 && best_hits > 0; ncol++) {
+            int rows = (int)((lg->n + ncol - 1) / ncol);
+            bw = ncol * (3.5 + 2.0 + (double)longest * PLOT_TEXT_W * PLOT_LEGEND_SCALE) * cp->ht /
+                     vw +
+                 0.012;
+            /* Rows measured at 1.06 times the nominal pitch in the cairo output. */
+            bh = ((double)rows * 1.06 * PLOT_LEGEND_SPACING * PLOT_LEGEND_SCALE + 1.0) * cp->ht /
+                     vh +
+                 0.025;
+            if (ncol > 1 && (lg->n < 3 || bw > 0.9))
+                break;
+            bw = fmin(bw, 1.0);
+            bh = fmin(bh, 1.0);
+            legend_corner_hits(cp, pp, bw, bh, &cb);
+            for (c = 0; c < 4; c++)
+                if (cb.hits[c] < best_hits) {
+                    best_hits = cb.hits[c];
+                    best = c;
+                    best_ncol = ncol;
+                    best_w = bw;
+                    best_h = bh;
+                }
+        }
+        lg->position = PL_POSITION_INSIDE | PL_POSITION_VIEWPORT | corner_pos[best];
+        lg->ncol = best_ncol;
+        lg->nrow = (PLINT)((lg->n + best_ncol - 1) / best_ncol);
+        lg->box_w = best_w;
+        lg->box_h = best_h;
     }
-    for (i = 0; i < p->n_series; i++) {
-        const tp_plot_series *s = &p->series[i];
-        corner_series(&cb, s, &cp->x, s->right_axis ? &pp->y2 : &pp->y);
-    }
-    for (i = 0; i < p->n_hlines; i++) {
-        double v = (p->hlines[i].y - pp->y.lo) / (pp->y.hi - pp->y.lo);
-        int k;
-        for (k = 0; k <= 100 && isfinite(v); k++)
-            corner_hit(&cb, k / 100.0, v);
-    }
-    for (c = 1; c < 4; c++)
-        if (cb.hits[c] < cb.hits[best])
-            best = c;
-    lg->position = PL_POSITION_INSIDE | PL_POSITION_VIEWPORT | corner_pos[best];
 }
 
 /* Finite range of a series' y values into [*lo, *hi]; returns the count of finite points and
@@ -839,8 +1142,89 @@ static size_t series_range(const tp_plot_series *s, double *xlo, double *xhi, do
     return n;
 }
 
+/* Widen window `a` by the factor 1/k on one side (above for top), keeping the other end. */
+static void axis_stretch(plot_axis *a, double k, int top, double target)
+{
+    double span = (a->hi - a->lo) / k;
+    if (top)
+        axis_fit(a, a->lo, a->lo + span, 0.0, target);
+    else
+        axis_fit(a, a->hi - span, a->hi, 0.0, target);
+}
+
+/* The highest (top) or lowest normalised height of the panel's data inside the x band
+ * [u0, u1] of the viewport (each series on its own axis); -1 (top) or 2 when none. */
+static double band_extreme(const chart_plan *cp, const panel_plan *pp, double u0, double u1,
+                           int top)
+{
+    const tp_plot_panel *p = pp->p;
+    double ext = top ? -1.0 : 2.0;
+    size_t i, j;
+    for (i = 0; i < p->n_series; i++) {
+        const tp_plot_series *s = &p->series[i];
+        const plot_axis *y = s->right_axis ? &pp->y2 : &pp->y;
+        for (j = 0; j < s->n; j++) {
+            double u = (s->x[j] - cp->x.lo) / (cp->x.hi - cp->x.lo);
+            double v = (s->y[j] - y->lo) / (y->hi - y->lo);
+            if (!isfinite(u) || !isfinite(v) || u < u0 || u > u1)
+                continue;
+            ext = top ? fmax(ext, v) : fmin(ext, v);
+        }
+    }
+    return ext;
+}
+
+/* When the legend's corner still covers data (every corner had some), stretch the panel's axes
+ * (both alike) on the legend's side just enough for the data under the legend's width to clear
+ * it, when that takes at most PLOT_STRETCH_MAX; then place the legend again. */
+static void legend_headroom(const chart_plan *cp, panel_plan *pp)
+{
+    legend_plan *lg = &pp->legend;
+    int top = (lg->position & PL_POSITION_TOP) != 0;
+    int right = (lg->position & PL_POSITION_RIGHT) != 0;
+    double u0 = right ? 1.0 - lg->box_w - PLOT_LEGEND_CLEAR : 0.0;
+    double u1 = right ? 1.0 : lg->box_w + PLOT_LEGEND_CLEAR;
+    double free_share = 1.0 - lg->box_h - PLOT_LEGEND_CLEAR - 0.01, ext, k;
+    double target = (pp->vy1 - pp->vy0) / (3.5 * cp->ht);
+    if (lg->n == 0 || free_share <= 0.0)
+        return;
+    ext = band_extreme(cp, pp, u0, u1, top);
+    if (top ? ext <= free_share : ext >= 1.0 - free_share)
+        return; /* the data under the legend's width already clear it */
+    k = top ? free_share / ext : free_share / (1.0 - ext);
+    if (!(k > 0.0) || 1.0 / k > PLOT_STRETCH_MAX)
+        return;
+    axis_stretch(&pp->y, k, top, target);
+    if (pp->right)
+        axis_stretch(&pp->y2, k, top, target);
+    legend_plan_fill(cp, pp);
+}
+
+/* Keep the marked times inside the x range and place their labels along the lines, from the
+ * bottom of the top panel up (mm of the page). */
+static void vlines_place(chart_plan *cp, const tp_plot_vline *vlines, size_t n)
+{
+    const panel_plan *top = &cp->panels[0];
+    double lh = PLOT_LEGEND_SCALE * cp->ht, gap = 0.3 * cp->ht;
+    size_t i;
+    cp->n_vlines = 0;
+    for (i = 0; vlines && i < n && cp->n_vlines < TP_PLOT_VLINES_MAX; i++) {
+        const tp_plot_vline *v = &vlines[i];
+        tp_plot_label *l = &cp->vlabel[cp->n_vlines];
+        if (!isfinite(v->x) || v->x < cp->x.lo || v->x > cp->x.hi)
+            continue;
+        cp->vline[cp->n_vlines++] = v;
+        l->w = lh;
+        l->h = ((double)text_chars(v->label) * PLOT_TEXT_W + 0.5) * lh;
+        l->x = top->vx0 + (v->x - cp->x.lo) / (cp->x.hi - cp->x.lo) * (top->vx1 - top->vx0);
+        l->y = top->vy0 + 0.4 * cp->ht + 0.5 * l->h;
+    }
+    tp_plot_place_labels(cp->vlabel, cp->n_vlines, gap, top->vx0, top->vy0, top->vx1, top->vy1);
+}
+
 /* Check a chart and lay it out; on failure report and return non-OK (nothing allocated). */
-static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c, const char *path,
+static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c,
+                                  const tp_plot_vline *vlines, size_t n_vlines, const char *path,
                                   tp_diag *d)
 {
     double xlo = HUGE_VAL, xhi = -HUGE_VAL, page_w, page_h, top, bottom, gap, avail, share = 0.0;
@@ -901,6 +1285,7 @@ static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c, const 
                 tp_diag_error(d, tp_loc_none(), path, NULL,
                               "panel %zu, series %zu: more than %d points", i + 1, j + 1, INT_MAX);
                 free(cp->panels);
+                cp->panels = NULL;
                 return TP_ERR_LIMIT;
             }
             if (s->right_axis && !pp->right) {
@@ -954,7 +1339,7 @@ static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c, const 
     cp->ht = PLOT_CHAR_MM * cp->scale;
     page_w = cp->width * PLOT_MM_PER_PX;
     page_h = cp->height * PLOT_MM_PER_PX;
-    top = (c->title && *c->title ? 3.6 : 1.5) * cp->ht;
+    top = title_fit(&cp->title, c->title, page_w, cp->ht);
     bottom = (c->xlabel && *c->xlabel ? 4.8 : 2.8) * cp->ht;
     gap = 1.2 * cp->ht;
     avail = page_h - top - bottom - gap * (double)(c->n_panels - 1);
@@ -1000,7 +1385,33 @@ static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c, const 
     for (i = 0; i < c->n_panels; i++) {
         cp->panels[i].vx0 = left;
         cp->panels[i].vx1 = page_w - right;
+    }
+    vlines_place(cp, vlines, n_vlines);
+    for (i = 0; i < c->n_panels; i++) {
         legend_plan_fill(cp, &cp->panels[i]);
+        legend_headroom(cp, &cp->panels[i]);
+    }
+    /* Headroom can lengthen the tick labels (98 -> 100): widen the margins to match. */
+    for (i = 0, j = 0; i < c->n_panels; i++) {
+        const panel_plan *pp = &cp->panels[i];
+        if (pp->y.label_len > lchars || (pp->right && pp->y2.label_len > rchars)) {
+            lchars = pp->y.label_len > lchars ? pp->y.label_len : lchars;
+            rchars = pp->right && pp->y2.label_len > rchars ? pp->y2.label_len : rchars;
+            j = 1;
+        }
+    }
+    if (j) {
+        cp->ylabel_disp = 0.8 + lchars * PLOT_DIGIT_W + 1.2;
+        cp->y2label_disp = 0.8 + rchars * PLOT_DIGIT_W + 1.2;
+        left = (cp->ylabel_disp + 1.2) * cp->ht;
+        right = any_right ? (cp->y2label_disp + 1.2) * cp->ht : 2.5 * cp->ht;
+        for (i = 0; i < c->n_panels; i++) {
+            cp->panels[i].vx0 = left;
+            cp->panels[i].vx1 = page_w - right;
+        }
+        vlines_place(cp, vlines, n_vlines);
+        for (i = 0; i < c->n_panels; i++)
+            legend_plan_fill(cp, &cp->panels[i]);
     }
     return TP_OK;
 
@@ -1012,16 +1423,32 @@ usage:
 
 tp_status tp_plot_chart_write(const char *path, const tp_plot_chart *chart, tp_diag *d)
 {
+    return tp_plot_chart_write_marked(path, chart, NULL, 0, d);
+}
+
+tp_status tp_plot_chart_write_marked(const char *path, const tp_plot_chart *chart,
+                                     const tp_plot_vline *vlines, size_t n_vlines, tp_diag *d)
+{
     const plot_format *fmt = figure_target(path, chart, "chart", d);
-    chart_plan cp;
+    chart_plan *cp;
     tp_status st;
     if (!fmt)
         return TP_ERR_USAGE;
-    st = chart_plan_build(&cp, chart, path, d);
-    if (st != TP_OK)
-        return st;
-    st = plot_write(path, fmt, cp.width, cp.height, chart_draw, &cp, d);
-    free(cp.panels);
+    if (n_vlines > 0 && !vlines) {
+        tp_diag_error(d, tp_loc_none(), path, NULL, "marked times without an array");
+        return TP_ERR_USAGE;
+    }
+    /* The plan holds the wrapped title and the labels: on the heap, not the stack. */
+    cp = malloc(sizeof *cp);
+    if (!cp) {
+        tp_diag_error(d, tp_loc_none(), path, NULL, "out of memory");
+        return TP_ERR_NOMEM;
+    }
+    st = chart_plan_build(cp, chart, vlines, n_vlines, path, d);
+    if (st == TP_OK)
+        st = plot_write(path, fmt, cp->width, cp->height, chart_draw, cp, d);
+    free(cp->panels);
+    free(cp);
     return st;
 }
 
@@ -1042,6 +1469,8 @@ typedef struct map_plan {
     PLINT sigdig;              /* significant digits of contour labels */
     double vx0, vx1, vy0, vy1; /* viewport, mm */
     double ylabel_disp;
+    title_plan title;
+    tp_plot_label *labels; /* n_marks: where each marker's label goes, mm of the page */
 } map_plan;
 
 static void map_plan_free(map_plan *mp)
@@ -1050,8 +1479,10 @@ static void map_plan_free(map_plan *mp)
     free(mp->cells);
     free(mp->xc);
     free(mp->yc);
+    free(mp->labels);
     mp->grid = NULL;
     mp->cells = mp->xc = mp->yc = NULL;
+    mp->labels = NULL;
 }
 
 /* Nonzero when marker k lies in the map's window (others are left out: text is not clipped). */
@@ -1110,9 +1541,10 @@ static void map_draw(const void *plan)
 
     for (k = 0; k < m->n_marks; k++) {
         double mx = m->mark_x[k], my = m->mark_y[k];
-        double dx = 1.0 * mp->ht * (mp->x.hi - mp->x.lo) / (mp->vx1 - mp->vx0);
-        double hx = 0.08 * dx, hy = 0.08 * mp->ht * (mp->y.hi - mp->y.lo) / (mp->vy1 - mp->vy0);
-        int left = mx > mp->x0 + 0.7 * (mp->x1 - mp->x0);
+        double xs = (mp->x.hi - mp->x.lo) / (mp->vx1 - mp->vx0); /* world per mm */
+        double ys = (mp->y.hi - mp->y.lo) / (mp->vy1 - mp->vy0);
+        double hx = 0.08 * mp->ht * xs, hy = 0.08 * mp->ht * ys;
+        const tp_plot_label *l = &mp->labels[k];
         if (!mark_inside(mp, k))
             continue;
         plcol0(COL_HALO);
@@ -1123,8 +1555,10 @@ static void map_draw(const void *plan)
         plstring(1, &mx, &my, plot_glyphs[0]);
         plschr(0.0, PLOT_LEGEND_SCALE);
         if (m->mark_label && m->mark_label[k] && *m->mark_label[k]) {
+            /* The box placed for it (map_plan_build), text centred in it. */
             text_copy(text, m->mark_label[k]);
-            halo_text(left ? mx - dx : mx + dx, my, hx, hy, left ? 1.0 : 0.0, text);
+            halo_text(mp->x.lo + (l->x0 + 0.5 * l->w - mp->vx0) * xs,
+                      mp->y.lo + (l->y0 + 0.5 * l->h - mp->vy0) * ys, hx, hy, 0.5, text);
         }
         plschr(0.0, 1.0);
     }
@@ -1133,12 +1567,7 @@ static void map_draw(const void *plan)
     plmtex("b", 3.3, 0.5, 0.5, text);
     text_copy(text, m->ylabel);
     plmtex("l", mp->ylabel_disp, 0.5, 0.5, text);
-    if (m->title && *m->title) {
-        text_copy(text, m->title);
-        plschr(0.0, PLOT_TITLE_SCALE);
-        plmtex("t", 1.3, 0.5, 0.5, text);
-        plschr(0.0, 1.0);
-    }
+    title_draw(&mp->title, mp->width * PLOT_MM_PER_PX, mp->vx0, mp->vx1);
     {
         PLINT label_opts[1] = {PL_COLORBAR_LABEL_RIGHT};
         PLINT sub_ticks[1] = {0};
@@ -1159,6 +1588,43 @@ static void map_draw(const void *plan)
                    COL_BG, COL_INK, 1, 0.0, 0.0, COL_INK, 0.0, 1, label_opts, labels, 1, axis_opts,
                    ticks, sub_ticks, n_values, values);
     }
+}
+
+/* Place the markers' labels (mm of the page) so that they overlap neither each other nor
+ * another marker, inside the map's frame. Markers off the map take no room. */
+static tp_status marks_place(map_plan *mp)
+{
+    const tp_plot_map *m = mp->m;
+    double lh = PLOT_LEGEND_SCALE * mp->ht;
+    size_t k, n = 0, *from;
+    tp_plot_label *placed;
+    if (m->n_marks == 0)
+        return TP_OK;
+    mp->labels = calloc(m->n_marks, sizeof *mp->labels);
+    placed = calloc(m->n_marks, sizeof *placed);
+    from = calloc(m->n_marks, sizeof *from);
+    if (!mp->labels || !placed || !from) {
+        free(placed);
+        free(from);
+        return TP_ERR_NOMEM;
+    }
+    for (k = 0; k < m->n_marks; k++) {
+        const char *text = m->mark_label ? m->mark_label[k] : NULL;
+        tp_plot_label *l = &placed[n];
+        if (!mark_inside(mp, k))
+            continue;
+        l->x = mp->vx0 + (m->mark_x[k] - mp->x.lo) / (mp->x.hi - mp->x.lo) * (mp->vx1 - mp->vx0);
+        l->y = mp->vy0 + (m->mark_y[k] - mp->y.lo) / (mp->y.hi - mp->y.lo) * (mp->vy1 - mp->vy0);
+        l->w = text && *text ? ((double)text_chars(text) * PLOT_TEXT_W + 0.5) * lh : 0.0;
+        l->h = text && *text ? 1.2 * lh : 0.0;
+        from[n++] = k;
+    }
+    tp_plot_place_labels(placed, n, PLOT_LABEL_GAP * mp->ht, mp->vx0, mp->vy0, mp->vx1, mp->vy1);
+    for (k = 0; k < n; k++)
+        mp->labels[from[k]] = placed[k];
+    free(placed);
+    free(from);
+    return TP_OK;
 }
 
 /* Check a map and lay it out; on failure report and return non-OK (nothing allocated). */
@@ -1264,7 +1730,7 @@ static tp_status map_plan_build(map_plan *mp, const tp_plot_map *m, const char *
      * quantities (free_aspect) each by a share of their own range. */
     pad_x = PLOT_MAP_PAD * (m->free_aspect ? mp->x1 - mp->x0 : span);
     pad_y = PLOT_MAP_PAD * (m->free_aspect ? mp->y1 - mp->y0 : span);
-    top = (m->title && *m->title ? 3.6 : 1.5) * mp->ht;
+    top = title_fit(&mp->title, m->title, page_w, mp->ht);
     bottom = 4.8 * mp->ht;
     axis_fit(&mp->y, mp->y0 - pad_y, mp->y1 + pad_y, 0.0,
              (page_h - top - bottom) / (4.0 * mp->ht));
@@ -1300,6 +1766,11 @@ static tp_status map_plan_build(map_plan *mp, const tp_plot_map *m, const char *
             tp_diag_warn(d, tp_loc_none(), path, NULL,
                          "marker %zu (%s) is not on the map; left out", i + 1,
                          m->mark_label && m->mark_label[i] ? m->mark_label[i] : "unlabelled");
+    if (marks_place(mp) != TP_OK) {
+        map_plan_free(mp);
+        tp_diag_error(d, tp_loc_none(), path, NULL, "out of memory");
+        return TP_ERR_NOMEM;
+    }
     return TP_OK;
 }
 
