@@ -110,22 +110,23 @@ double tp_metricdef_text_value(const tp_metricdef *m, double si)
     return (si - m->offset) * m->scale;
 }
 
-void tp_metricdef_format(const tp_metricdef *m, double si, char *buf, size_t size)
+/* The value less `offset`, scaled, as text (durations in their own units). */
+static void format_less(const tp_metricdef *m, double si, double offset, char *buf, size_t size)
 {
     if (!isfinite(si))
         snprintf(buf, size, "-");
     else if (m->form == TP_FORM_DURATION)
         tp_fmt_duration(si, buf, size);
     else
-        snprintf(buf, size, "%.*f", m->decimals, tp_metricdef_text_value(m, si));
+        snprintf(buf, size, "%.*f", m->decimals, (si - offset) * m->scale);
+}
+
+void tp_metricdef_format(const tp_metricdef *m, double si, char *buf, size_t size)
+{
+    format_less(m, si, m->offset, buf, size);
 }
 
 void tp_metricdef_format_spread(const tp_metricdef *m, double si, char *buf, size_t size)
 {
-    if (!isfinite(si))
-        snprintf(buf, size, "-");
-    else if (m->form == TP_FORM_DURATION)
-        tp_fmt_duration(si, buf, size);
-    else
-        snprintf(buf, size, "%.*f", m->decimals, si * m->scale);
+    format_less(m, si, 0.0, buf, size); /* a spread is an interval: no offset */
 }
