@@ -722,7 +722,7 @@ static void test_wrap_title_short_and_empty(void **state)
 static void test_wrap_title_prose_at_blanks(void **state)
 {
     static const char title[] = "a 24 V build plate with a silicone pad and cork";
-    char lines[TP_PLOT_TITLE_LINES][TP_PLOT_LINE_BYTES], joined[256];
+    char lines[TP_PLOT_TITLE_LINES][TP_PLOT_LINE_BYTES], joined[2 * TP_PLOT_LINE_BYTES + 2];
     int n;
     (void)state;
     n = tp_plot_wrap_title(title, 30, 2, lines);
