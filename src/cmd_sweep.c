@@ -9,6 +9,7 @@
 #include <unistd.h>
 
 #include "commands.h"
+#include "confedit.h"
 #include "csv.h"
 #include "json.h"
 #include "outfile.h"
@@ -46,9 +47,9 @@ static const tp_opt sweep_opts[] = {
 };
 
 /* The metrics of the text table of a grid, in order. */
-static const int grid_columns[] = {TP_SM_TIME_SETPOINT, TP_SM_TIME_READY, TP_SM_OVERSHOOT_READING,
-                                   TP_SM_HOLD_POWER,    TP_SM_HOLD_DUTY,  TP_SM_MARGIN,
-                                   TP_SM_ENERGY_READY};
+static const int grid_columns[] = {
+    TP_MET_TIME_SETPOINT, TP_MET_TIME_READY, TP_MET_OVERSHOOT_READING, TP_MET_HOLD_POWER,
+    TP_MET_HOLD_DUTY,     TP_MET_MARGIN,     TP_MET_ENERGY_READY};
 #define N_GRID_COLUMNS (sizeof grid_columns / sizeof grid_columns[0])
 
 typedef struct options {
@@ -72,20 +73,6 @@ static tp_status whole_number(const char *text, const char *opt, double lo, doub
         return TP_ERR_USAGE;
     }
     return TP_OK;
-}
-
-static void metric_names(char *buf, size_t size)
-{
-    size_t used = 0;
-    int i;
-    buf[0] = '\0';
-    for (i = 0; i < TP_SM_COUNT && used < size; i++) {
-        int n =
-            snprintf(buf + used, size - used, "%s%s", i ? ", " : "", tp_sweep_metric_get(i)->key);
-        if (n < 0)
-            break;
-        used += (size_t)n;
-    }
 }
 
 static tp_status parse_options(const tp_cli *cli, options *o, tp_diag *d)
@@ -150,10 +137,10 @@ static tp_status parse_options(const tp_cli *cli, options *o, tp_diag *d)
         o->jobs = (int)v;
     }
     if ((s = tp_cli_get(cli, "metric"))) {
-        o->metric = tp_sweep_metric_find(s);
+        o->metric = tp_metricdef_find(s);
         if (o->metric < 0) {
             char names[1024];
-            metric_names(names, sizeof names);
+            tp_metricdef_keys(names, sizeof names);
             tp_diag_error(d, (tp_loc){"--metric", 1, 1}, NULL, names, "unknown metric '%s'", s);
             return TP_ERR_USAGE;
         }
@@ -163,13 +150,13 @@ static tp_status parse_options(const tp_cli *cli, options *o, tp_diag *d)
 
 /* ---- units and values for output ------------------------------------------------------- */
 
-/* Absolute temperatures are shown and written in degC; everything else in SI. */
+/* Files (CSV, JSON) carry absolute temperatures in degC, everything else in SI. */
 static double param_out(const tp_sweep_param *p, double si)
 {
     return p->dim == TP_DIM_TEMPERATURE ? si - TP_KELVIN_0C : si;
 }
 
-/* The unit of a parameter in text and JSON; "" for a dimensionless key. */
+/* The unit of a parameter in files; "" for a dimensionless key. */
 static const char *param_unit(const tp_sweep_param *p)
 {
     if (p->dim == TP_DIM_NONE)
@@ -177,10 +164,35 @@ static const char *param_unit(const tp_sweep_param *p)
     return p->dim == TP_DIM_TEMPERATURE ? "degC" : tp_units_si_name(p->dim);
 }
 
-/* " W" or "" (dimensionless), to follow a number in text. */
+/* Text and figures show a parameter in the unit the user wrote (the option's, else the
+ * config's: 3 mm, not 0.003), falling back to the file unit when it has none. */
+static const char *param_unit_shown(const tp_sweep_param *p)
+{
+    return p->unit[0] ? p->unit : param_unit(p);
+}
+
+static double param_shown(const tp_sweep_param *p, double si)
+{
+    double v;
+    if (p->unit[0] && tp_units_from_si(si, p->unit, p->dim, &v) == TP_OK)
+        return v;
+    return param_out(p, si);
+}
+
+/* A temperature difference or a standard deviation in the shown unit (never offset). */
+static double param_shown_interval(const tp_sweep_param *p, double si)
+{
+    double v;
+    tp_dim dim = p->dim == TP_DIM_TEMPERATURE ? TP_DIM_INTERVAL : p->dim;
+    if (p->unit[0] && tp_units_from_si(si, p->unit, dim, &v) == TP_OK)
+        return v;
+    return si;
+}
+
+/* " mm" or "" (dimensionless), to follow a shown number in text. */
 static const char *spaced_unit(const tp_sweep_param *p, char *buf, size_t size)
 {
-    const char *u = param_unit(p);
+    const char *u = param_unit_shown(p);
     snprintf(buf, size, "%s%s", u[0] ? " " : "", u);
     return buf;
 }
@@ -206,18 +218,12 @@ static void unit_token(const tp_sweep_param *p, char *buf, size_t size)
 
 static double metric_out(int m, double si)
 {
-    /* Files carry SI values, except absolute temperatures in degC (as warmup --json). */
-    const tp_sweep_metric_info *mi = tp_sweep_metric_get(m);
-    return mi->is_temperature ? si - TP_KELVIN_0C : si;
+    return tp_metricdef_file_value(tp_metricdef_get(m), si);
 }
 
 static void metric_text(int m, double si, char *buf, size_t size)
 {
-    const tp_sweep_metric_info *mi = tp_sweep_metric_get(m);
-    if (!isfinite(si))
-        snprintf(buf, size, "-");
-    else
-        snprintf(buf, size, "%.*f", mi->decimals, (si - mi->offset) * mi->scale);
+    tp_metricdef_format(tp_metricdef_get(m), si, buf, size);
 }
 
 static const char *spread_kind_name(tp_spread_kind k)
@@ -225,29 +231,29 @@ static const char *spread_kind_name(tp_spread_kind k)
     return k == TP_SPREAD_NORMAL ? "normal" : "uniform";
 }
 
-/* One line describing how a parameter is varied. */
+/* One line describing how a parameter is varied, in the shown unit. */
 static void describe_param(FILE *fp, const tp_sweep_plan *plan, int k)
 {
     const tp_sweep_param *p = &plan->params[k];
-    char ub[32];
+    char ub[TP_SWEEP_UNIT_MAX + 2];
     const char *u = spaced_unit(p, ub, sizeof ub);
     if (plan->mode == TP_SWEEP_GRID) {
         fprintf(fp, "    %-28s %ld value%s, %.6g .. %.6g%s (config: %.6g%s)\n", p->path,
-                p->n_values, p->n_values == 1 ? "" : "s", param_out(p, p->values[0]),
-                param_out(p, p->values[p->n_values - 1]), u, param_out(p, p->nominal), u);
+                p->n_values, p->n_values == 1 ? "" : "s", param_shown(p, p->values[0]),
+                param_shown(p, p->values[p->n_values - 1]), u, param_shown(p, p->nominal), u);
     } else if (p->kind == TP_SPREAD_NORMAL) {
         if (p->relative)
             fprintf(fp, "    %-28s normal, sd %.6g %% of %.6g%s\n", p->path, 100.0 * p->sigma,
-                    param_out(p, p->nominal), u);
+                    param_shown(p, p->nominal), u);
         else
-            fprintf(fp, "    %-28s normal, sd %.6g%s about %.6g%s\n", p->path, p->sigma,
-                    p->dim == TP_DIM_TEMPERATURE ? " K" : u, param_out(p, p->nominal), u);
+            fprintf(fp, "    %-28s normal, sd %.6g%s about %.6g%s\n", p->path,
+                    param_shown_interval(p, p->sigma), u, param_shown(p, p->nominal), u);
     } else if (p->relative) {
         fprintf(fp, "    %-28s uniform, %+.6g %% .. %+.6g %% of %.6g%s\n", p->path, 100.0 * p->low,
-                100.0 * p->high, param_out(p, p->nominal), u);
+                100.0 * p->high, param_shown(p, p->nominal), u);
     } else {
         fprintf(fp, "    %-28s uniform, %.6g .. %.6g%s (config: %.6g%s)\n", p->path,
-                param_out(p, p->low), param_out(p, p->high), u, param_out(p, p->nominal), u);
+                param_shown(p, p->low), param_shown(p, p->high), u, param_shown(p, p->nominal), u);
     }
 }
 
@@ -259,9 +265,9 @@ static void point_params(const tp_sweep_plan *plan, long i, char *buf, size_t si
     buf[0] = '\0';
     for (k = 0; k < plan->n_params && used < size; k++) {
         const tp_sweep_param *p = &plan->params[k];
-        char ub[32];
+        char ub[TP_SWEEP_UNIT_MAX + 2];
         int n = snprintf(buf + used, size - used, "%s%s = %.6g%s", k ? ", " : "", p->path,
-                         param_out(p, tp_sweep_value(plan, i, k)), spaced_unit(p, ub, sizeof ub));
+                         param_shown(p, tp_sweep_value(plan, i, k)), spaced_unit(p, ub, sizeof ub));
         if (n < 0)
             break;
         used += (size_t)n;
@@ -329,8 +335,8 @@ static void list_failed(FILE *fp, const tp_sweep_plan *plan, const tp_sweep_resu
  * controller) the power, current and surface figures instead. Returns the count. */
 static int grid_columns_present(const tp_sweep_result *res, long total, int *cols)
 {
-    static const int fallback[] = {TP_SM_POWER_MEAN, TP_SM_POWER_PEAK, TP_SM_CURRENT_PEAK,
-                                   TP_SM_SURFACE_MAX};
+    static const int fallback[] = {TP_MET_POWER_MEAN, TP_MET_POWER_PEAK, TP_MET_CURRENT_PEAK,
+                                   TP_MET_SURFACE_MAX};
     const int *sets[2] = {grid_columns, fallback};
     size_t sizes[2] = {N_GRID_COLUMNS, sizeof fallback / sizeof fallback[0]}, c;
     int n = 0, set;
@@ -359,22 +365,27 @@ static void grid_table(FILE *fp, const tp_sweep_plan *plan, const tp_sweep_resul
     for (k = 0; k < plan->n_params; k++)
         fprintf(fp, "  %*s", width[k], plan->params[k].path);
     for (c = 0; c < nc; c++)
-        fprintf(fp, " %14s", tp_sweep_metric_get(cols[c])->label);
+        fprintf(fp, " %14s", tp_metricdef_get(cols[c])->label);
     fputc('\n', fp);
     for (k = 0; k < plan->n_params; k++) {
-        const char *u = param_unit(&plan->params[k]);
+        const char *u = param_unit_shown(&plan->params[k]);
         snprintf(buf, sizeof buf, "(%s)", u[0] ? u : "-");
         fprintf(fp, "  %*s", width[k], buf);
     }
     for (c = 0; c < nc; c++) {
-        snprintf(buf, sizeof buf, "(%s)", tp_sweep_metric_get(cols[c])->unit);
+        const tp_metricdef *md = tp_metricdef_get(cols[c]);
+        /* A duration carries its own units ("7 min 20 s"). */
+        if (md->form == TP_FORM_DURATION)
+            snprintf(buf, sizeof buf, " ");
+        else
+            snprintf(buf, sizeof buf, "(%s)", md->text_unit);
         fprintf(fp, " %14s", buf);
     }
     fputc('\n', fp);
     for (i = 0; i < total; i++) {
         for (k = 0; k < plan->n_params; k++)
             fprintf(fp, "  %*.6g", width[k],
-                    param_out(&plan->params[k], tp_sweep_value(plan, i, k)));
+                    param_shown(&plan->params[k], tp_sweep_value(plan, i, k)));
         if (!res[i].ok) {
             fprintf(fp, "  failed: %s\n", res[i].reason);
             continue;
@@ -390,51 +401,51 @@ static void grid_table(FILE *fp, const tp_sweep_plan *plan, const tp_sweep_resul
           fp);
 }
 
+#define SPREAD_COL 12 /* characters of a value column of the statistics table */
+
 static void spread_table(FILE *fp, const tp_sweep_plan *plan, const tp_sweep_summary *sum)
 {
     int m, none;
-    char v[6][32], unit[16], worst[48];
-    fprintf(fp, "\n  %-18s %5s %9s %9s %9s %9s %9s %9s %-9s %s\n", "metric", "unit", "mean", "sd",
-            "p5", "p50", "p95", "worst", "(sample)", "driven most by (Spearman rho)");
-    for (m = 0; m < TP_SM_COUNT; m++) {
-        const tp_sweep_metric_info *mi = tp_sweep_metric_get(m);
+    char v[6][32], worst[48];
+    fprintf(fp, "\n  %-18s %5s %*s %*s %*s %*s %*s %*s %-8s %-16s %s\n", "metric", "unit",
+            SPREAD_COL, "mean", SPREAD_COL, "sd", SPREAD_COL, "p5", SPREAD_COL, "p50", SPREAD_COL,
+            "p95", SPREAD_COL, "worst", "sample", "worst is", "driven most by (Spearman rho)");
+    for (m = 0; m < TP_MET_COUNT; m++) {
+        const tp_metricdef *mi = tp_metricdef_get(m);
         const tp_sweep_summary *s = &sum[m];
-        double sd_text = isfinite(s->sd) ? s->sd * mi->scale : TP_UNSET;
         if (s->n == 0)
             continue; /* listed below as not defined */
         metric_text(m, s->mean, v[0], sizeof v[0]);
-        if (isfinite(sd_text))
-            snprintf(v[1], sizeof v[1], "%.*f", mi->decimals, sd_text);
-        else
-            snprintf(v[1], sizeof v[1], "-");
+        tp_metricdef_format_spread(mi, s->sd, v[1], sizeof v[1]);
         metric_text(m, s->p5, v[2], sizeof v[2]);
         metric_text(m, s->p50, v[3], sizeof v[3]);
         metric_text(m, s->p95, v[4], sizeof v[4]);
         metric_text(m, s->worst, v[5], sizeof v[5]);
-        snprintf(unit, sizeof unit, "%s", mi->unit);
         if (s->worst_index >= 0)
             snprintf(worst, sizeof worst, "#%ld", s->worst_index + 1);
         else
             snprintf(worst, sizeof worst, "-");
-        fprintf(fp, "  %-18s %5s %9s %9s %9s %9s %9s %9s %-9s", mi->label, unit, v[0], v[1], v[2],
-                v[3], v[4], v[5], worst);
+        fprintf(fp, "  %-18s %5s %*s %*s %*s %*s %*s %*s %-8s %-16s", mi->label,
+                mi->form == TP_FORM_DURATION ? "" : mi->text_unit, SPREAD_COL, v[0], SPREAD_COL,
+                v[1], SPREAD_COL, v[2], SPREAD_COL, v[3], SPREAD_COL, v[4], SPREAD_COL, v[5], worst,
+                tp_worse_name(mi->worse));
         if (s->driver >= 0)
             fprintf(fp, " %s (%+.2f)", plan->params[s->driver].path, s->rho[s->driver]);
         else
             fputs(" -", fp);
         fputc('\n', fp);
     }
-    for (m = 0; m < TP_SM_COUNT; m++)
+    for (m = 0; m < TP_MET_COUNT; m++)
         if (sum[m].absent > 0 && sum[m].n > 0)
             fprintf(fp,
                     "  %s: absent in %ld sample%s (not reached in the simulated time); "
                     "statistics over the other %ld\n",
-                    tp_sweep_metric_get(m)->label, sum[m].absent, sum[m].absent == 1 ? "" : "s",
+                    tp_metricdef_get(m)->label, sum[m].absent, sum[m].absent == 1 ? "" : "s",
                     sum[m].n);
-    for (m = 0, none = 0; m < TP_SM_COUNT; m++)
+    for (m = 0, none = 0; m < TP_MET_COUNT; m++)
         if (sum[m].n == 0) {
             fprintf(fp, "%s%s",
-                    none ? ", " : "  not defined for any sample: ", tp_sweep_metric_get(m)->key);
+                    none ? ", " : "  not defined for any sample: ", tp_metricdef_get(m)->key);
             none = 1;
         }
     if (none)
@@ -460,8 +471,8 @@ static tp_status write_csv(const char *path, const tp_sweep_plan *plan, const tp
         fprintf(o.fp, ",%s%s%s", plan->params[k].path, tok[0] ? "_" : "", tok);
     }
     fputs(",ok", o.fp);
-    for (k = 0; k < TP_SM_COUNT; k++)
-        fprintf(o.fp, ",%s", tp_sweep_metric_get(k)->key);
+    for (k = 0; k < TP_MET_COUNT; k++)
+        fprintf(o.fp, ",%s", tp_metricdef_get(k)->key);
     fputc('\n', o.fp);
     for (i = 0; i < total; i++) {
         fprintf(o.fp, "%ld", i + 1);
@@ -470,7 +481,7 @@ static tp_status write_csv(const char *path, const tp_sweep_plan *plan, const tp
             tp_csv_real(o.fp, param_out(&plan->params[k], tp_sweep_value(plan, i, k)));
         }
         fprintf(o.fp, ",%d", res[i].ok);
-        for (k = 0; k < TP_SM_COUNT; k++) {
+        for (k = 0; k < TP_MET_COUNT; k++) {
             fputc(',', o.fp);
             tp_csv_real(o.fp, metric_out(k, res[i].metric[k]));
         }
@@ -548,15 +559,15 @@ static tp_status write_json(const char *path, const tp_session *s, const tp_swee
             continue;
         }
         mv = cJSON_AddObjectToObject(pt, "metrics");
-        for (k = 0; mv && k < TP_SM_COUNT; k++)
-            tp_json_number(mv, tp_sweep_metric_get(k)->key, metric_out(k, res[i].metric[k]));
+        for (k = 0; mv && k < TP_MET_COUNT; k++)
+            tp_json_number(mv, tp_metricdef_get(k)->key, metric_out(k, res[i].metric[k]));
     }
     if (sum) {
         cJSON *stats = cJSON_AddObjectToObject(root, "statistics");
         int m;
-        for (m = 0; stats && m < TP_SM_COUNT; m++) {
+        for (m = 0; stats && m < TP_MET_COUNT; m++) {
             const tp_sweep_summary *sm = &sum[m];
-            cJSON *o = cJSON_AddObjectToObject(stats, tp_sweep_metric_get(m)->key), *rho;
+            cJSON *o = cJSON_AddObjectToObject(stats, tp_metricdef_get(m)->key), *rho;
             if (!o)
                 break;
             tp_json_number(o, "n", (double)sm->n);
@@ -606,7 +617,7 @@ static int evenly_spaced(const tp_sweep_param *p)
 
 static void axis_label(const tp_sweep_param *p, char *buf, size_t size)
 {
-    const char *u = param_unit(p);
+    const char *u = param_unit_shown(p);
     if (u[0])
         snprintf(buf, size, "%s (%s)", p->path, u);
     else
@@ -615,14 +626,13 @@ static void axis_label(const tp_sweep_param *p, char *buf, size_t size)
 
 static void metric_label(int m, char *buf, size_t size)
 {
-    const tp_sweep_metric_info *mi = tp_sweep_metric_get(m);
-    snprintf(buf, size, "%s (%s)", mi->label, mi->unit);
+    const tp_metricdef *mi = tp_metricdef_get(m);
+    snprintf(buf, size, "%s (%s)", mi->label, mi->text_unit);
 }
 
 static double metric_plot(int m, double si)
 {
-    const tp_sweep_metric_info *mi = tp_sweep_metric_get(m);
-    return isfinite(si) ? (si - mi->offset) * mi->scale : TP_UNSET;
+    return isfinite(si) ? tp_metricdef_text_value(tp_metricdef_get(m), si) : TP_UNSET;
 }
 
 static const char *chart_title(const tp_session *s)
@@ -636,14 +646,14 @@ static const struct line_curve {
     const char *label;
     int dash, right;
 } line_curves[] = {
-    {0, TP_SM_TIME_SETPOINT, "reading at the setpoint", 0, 0},
-    {0, TP_SM_TIME_READY, "surface ready", 1, 0},
-    {1, TP_SM_OVERSHOOT_READING, "reading", 0, 0},
-    {1, TP_SM_OVERSHOOT_SURFACE, "surface", 1, 0},
-    {2, TP_SM_HOLD_POWER, "holding power", 0, 0},
-    {2, TP_SM_MARGIN, "margin", 1, 1},
-    {3, TP_SM_POWER_MEAN, "mean power", 0, 0}, /* only when nothing above exists */
-    {3, TP_SM_POWER_PEAK, "peak power", 1, 0},
+    {0, TP_MET_TIME_SETPOINT, "reading at the setpoint", 0, 0},
+    {0, TP_MET_TIME_READY, "surface ready", 1, 0},
+    {1, TP_MET_OVERSHOOT_READING, "reading", 0, 0},
+    {1, TP_MET_OVERSHOOT_SURFACE, "surface", 1, 0},
+    {2, TP_MET_HOLD_POWER, "holding power", 0, 0},
+    {2, TP_MET_MARGIN, "margin", 1, 1},
+    {3, TP_MET_POWER_MEAN, "mean power", 0, 0}, /* only when nothing above exists */
+    {3, TP_MET_POWER_PEAK, "peak power", 1, 0},
 };
 #define N_LINE_CURVES (sizeof line_curves / sizeof line_curves[0])
 
@@ -668,7 +678,7 @@ static tp_status plot_line(const char *path, const tp_session *s, const tp_sweep
     tp_plot_series ser[N_LINE_CURVES];
     tp_plot_panel panels[N_LINE_PANELS];
     tp_plot_chart chart;
-    char xl[TP_SWEEP_PATH_MAX + 32], title[TP_TEXT_MAX + 32];
+    char xl[TP_SWEEP_PATH_MAX + TP_SWEEP_UNIT_MAX + 4], title[TP_TEXT_MAX + 32];
     int markers = total < 2, ns = 0, np = 0;
     size_t c, p;
     long i;
@@ -677,7 +687,7 @@ static tp_status plot_line(const char *path, const tp_session *s, const tp_sweep
         return TP_ERR_NOMEM;
     x = buf;
     for (i = 0; i < total; i++)
-        x[i] = param_out(&plan->params[0], tp_sweep_value(plan, i, 0));
+        x[i] = param_shown(&plan->params[0], tp_sweep_value(plan, i, 0));
     for (p = 0; p < N_LINE_PANELS; p++) {
         int first = ns;
         if (p == N_LINE_PANELS - 1 && np > 0)
@@ -726,7 +736,9 @@ static tp_status plot_map(const char *path, const tp_session *s, const tp_sweep_
     const tp_sweep_param *px = &plan->params[0], *py = &plan->params[1];
     size_t nx = (size_t)px->n_values, ny = (size_t)py->n_values;
     double *z = malloc(nx * ny * sizeof *z), ext[4];
-    char xl[TP_SWEEP_PATH_MAX + 32], yl[TP_SWEEP_PATH_MAX + 32], zl[64];
+    char xl[TP_SWEEP_PATH_MAX + TP_SWEEP_UNIT_MAX + 4],
+        yl[TP_SWEEP_PATH_MAX + TP_SWEEP_UNIT_MAX + 4];
+    char zl[64];
     char title[TP_TEXT_MAX + 64];
     const tp_sweep_param *ax[2] = {px, py};
     long i;
@@ -737,8 +749,8 @@ static tp_status plot_map(const char *path, const tp_session *s, const tp_sweep_
         return TP_ERR_NOMEM;
     for (a = 0; a < 2; a++) {
         /* Cells centred on the values, which run up or down evenly. */
-        double v0 = param_out(ax[a], ax[a]->values[0]);
-        double v1 = param_out(ax[a], ax[a]->values[ax[a]->n_values - 1]);
+        double v0 = param_shown(ax[a], ax[a]->values[0]);
+        double v1 = param_shown(ax[a], ax[a]->values[ax[a]->n_values - 1]);
         double half =
             ax[a]->n_values > 1 ? 0.5 * fabs(v1 - v0) / (double)(ax[a]->n_values - 1) : 0.0;
         ext[2 * a] = fmin(v0, v1) - half;
@@ -756,7 +768,7 @@ static tp_status plot_map(const char *path, const tp_session *s, const tp_sweep_
     axis_label(px, xl, sizeof xl);
     axis_label(py, yl, sizeof yl);
     metric_label(metric, zl, sizeof zl);
-    snprintf(title, sizeof title, "%s: %s", chart_title(s), tp_sweep_metric_get(metric)->label);
+    snprintf(title, sizeof title, "%s: %s", chart_title(s), tp_metricdef_get(metric)->label);
     memset(&map, 0, sizeof map);
     map.title = title;
     map.xlabel = xl;
@@ -804,13 +816,13 @@ static tp_status plot_distribution(const char *path, const tp_session *s,
     if (n == 0) {
         free(x);
         tp_diag_error(d, tp_loc_none(), path, "choose another --metric",
-                      "no sample has a value of %s to draw", tp_sweep_metric_get(metric)->key);
+                      "no sample has a value of %s to draw", tp_metricdef_get(metric)->key);
         return TP_ERR_SOLVER;
     }
     qsort(x, (size_t)n, sizeof *x, cmp_double);
     for (i = 0; i < n; i++)
         y[i] = (double)(i + 1) / (double)n;
-    ser = (tp_plot_series){tp_sweep_metric_get(metric)->label, x, y, (size_t)n, 0, n < 2, 0};
+    ser = (tp_plot_series){tp_metricdef_get(metric)->label, x, y, (size_t)n, 0, n < 2, 0};
     panel = (tp_plot_panel){"fraction of samples at or below", NULL, &ser, 1, lines, 3, 1.0};
     metric_label(metric, xl, sizeof xl);
     snprintf(title, sizeof title, "%s: %ld samples", chart_title(s), n);
@@ -827,15 +839,15 @@ static tp_status plot_distribution(const char *path, const tp_session *s,
  * power: the first of these that some successful point has. */
 static int default_metric(const tp_sweep_result *res, long total)
 {
-    static const int order[] = {TP_SM_TIME_READY, TP_SM_TIME_SETPOINT, TP_SM_HOLD_POWER,
-                                TP_SM_POWER_MEAN};
+    static const int order[] = {TP_MET_TIME_READY, TP_MET_TIME_SETPOINT, TP_MET_HOLD_POWER,
+                                TP_MET_POWER_MEAN};
     size_t k;
     long i;
     for (k = 0; k < sizeof order / sizeof order[0]; k++)
         for (i = 0; i < total; i++)
             if (res[i].ok && isfinite(res[i].metric[order[k]]))
                 return order[k];
-    return TP_SM_TIME_READY;
+    return TP_MET_TIME_READY;
 }
 
 static tp_status build_plan(const options *o, const tp_session *s, tp_sweep_plan *plan, tp_diag *d)
@@ -849,6 +861,11 @@ static tp_status build_plan(const options *o, const tp_session *s, tp_sweep_plan
         st = tp_sweep_add_vary(plan, &s->desc, o->vary[k], d);
     for (k = 0; st == TP_OK && k < o->n_spread; k++)
         st = tp_sweep_add_spread(plan, &s->desc, o->spread[k], d);
+    /* A parameter whose option gave no unit (a percentage) is shown in the config's unit. */
+    for (k = 0; st == TP_OK && k < plan->n_params; k++)
+        if (!plan->params[k].unit[0])
+            tp_confedit_unit(s->doc, plan->params[k].path, plan->params[k].unit,
+                             sizeof plan->params[k].unit);
     if (st == TP_OK && plan->mode == TP_SWEEP_GRID && plan->n_params == 2 &&
         tp_cli_get(s->cli, "plot"))
         for (k = 0; k < 2; k++)
@@ -942,8 +959,8 @@ static tp_status run_sweep(const tp_cli *cli, tp_diag *d)
     if (rc != TP_OK)
         goto done;
     if (plan.mode == TP_SWEEP_SPREAD) {
-        sum = calloc(TP_SM_COUNT, sizeof *sum);
-        for (m = 0; sum && rc == TP_OK && m < TP_SM_COUNT; m++)
+        sum = calloc(TP_MET_COUNT, sizeof *sum);
+        for (m = 0; sum && rc == TP_OK && m < TP_MET_COUNT; m++)
             rc = tp_sweep_summarise(&plan, res, m, &sum[m]);
         if (!sum || rc != TP_OK) {
             rc = TP_ERR_NOMEM;

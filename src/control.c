@@ -32,7 +32,7 @@ double tp_control_tick(const tp_control *c, tp_ctrl_state *s, double reading)
         break;
     case TP_MODE_ONOFF:
         /* Hysteresis: off at or above setpoint + band/2, on at or below setpoint - band/2,
-         * otherwise unchanged; the first tick switches on below the setpoint (DESIGN.md). */
+         * otherwise unchanged; the first tick switches on below the setpoint (docs/control.md). */
         if (s->ticks == 0)
             s->on = reading < c->setpoint;
         else if (reading >= c->setpoint + 0.5 * c->band)

@@ -10,7 +10,7 @@
 
 /* Natural convection, horizontal plates, L = A/P (Incropera Eq. 9.29). The 7th edition's
  * lower-face form 0.52 Ra^1/5 replaces the 6th edition's 0.27 Ra^1/4 (1e5..1e10, from memory); they
- * agree within 1 % below Ra = 1e6, the bed-size range (REFERENCES.md §1.2). */
+ * agree within 1 % below Ra = 1e6, the bed-size range (hand calculation). */
 #define C_UP_LAMINAR 0.54   /* upper face of hot plate, Incropera Eq. 9.30, - */
 #define C_UP_TURBULENT 0.15 /* upper face of hot plate, Incropera Eq. 9.31, - */
 #define C_DOWN 0.52         /* lower face of hot plate, Incropera Eq. 9.32, - */

@@ -1,6 +1,6 @@
-/* CSV output: a header row, then one row per output step (DESIGN.md: time_s, <id>_C for every
- * node with capacity in declaration order, <source-id>_W, duty and reading_C with a controller;
- * a gridded plate has per-layer statistics instead of cells, docs/grid.md). */
+/* CSV output: a header row, then one row per output step (docs/user-guide.md: time_s, <id>_C for
+ * every node with capacity in declaration order, <source-id>_W, duty and reading_C with a
+ * controller; a gridded plate has per-layer statistics instead of cells, docs/grid.md). */
 #ifndef TP_CSV_H
 #define TP_CSV_H
 

@@ -1,5 +1,5 @@
 /* The description: what a config file says, in SI units, before it becomes a network.
- * Two forms share it: the raw `network:` form and the physical plate form (DESIGN.md).
+ * Two forms share it: the raw `network:` form and the physical plate form (docs/user-guide.md).
  * Unset numbers hold TP_UNSET (NaN; input NaN is rejected, so the sentinel is unambiguous). */
 #ifndef TP_DESC_H
 #define TP_DESC_H

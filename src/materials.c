@@ -74,11 +74,25 @@ static int closeness(const char *a, const char *b)
     return score;
 }
 
+/* Built-in ids that were renamed (to generic names). The old id is refused with a hint naming
+ * the new one, never taken as a silent alias: a config should say what it means. */
+static const struct {
+    const char *old_id, *new_id;
+} renamed[] = {
+    {"pei-sheet", "polyetherimide-sheet"},
+};
+
 void tp_materials_hint(const tp_desc *desc, const char *id, char *hint, size_t size)
 {
     size_t i;
     const char *best = NULL;
     int bests = 0;
+    for (i = 0; i < sizeof renamed / sizeof renamed[0]; i++)
+        if (strcmp(id, renamed[i].old_id) == 0) {
+            snprintf(hint, size, "the built-in '%s' is now called '%s': write material: %s",
+                     renamed[i].old_id, renamed[i].new_id, renamed[i].new_id);
+            return;
+        }
     for (i = 0; i < table_n; i++) {
         int s = closeness(id, table[i].id);
         if (s > bests) {

@@ -32,6 +32,17 @@
 #define PLOT_LEGEND_SCALE 0.9   /* legend text size, character heights */
 #define PLOT_LEGEND_SPACING 2.2 /* legend line pitch, legend character heights */
 #define PLOT_TITLE_SCALE 1.2    /* title size, character heights */
+#define PLOT_TITLE_W 0.8        /* width of a title character, title character heights: the sans
+                                   font measured 0.64 (prose) to 0.72 (a file path) on lines of
+                                   95 characters; 0.8 leaves room for capitals */
+#define PLOT_TITLE_PITCH 1.5    /* line pitch of a wrapped title, title character heights */
+#define PLOT_TITLE_MARGIN 1.0   /* free room left and right of a title, character heights */
+#define PLOT_LABEL_GAP 0.6      /* marker or line to its label, character heights */
+#define PLOT_VREF_STYLE 2       /* PLplot line style of marked times (short dashes) */
+#define PLOT_LEGEND_CLEAR 0.02  /* data kept this far from a legend, share of the viewport */
+#define PLOT_LEGEND_GAP 0.03    /* room left between a legend and the data it grew an axis to
+                                   clear, share of the viewport (more than PLOT_LEGEND_CLEAR) */
+#define PLOT_LEGEND_GROW 2.5    /* the most a panel's y range grows to clear its legend, times */
 #define PLOT_PAD 0.05           /* room above and below the data in a panel, fraction of range */
 #define PLOT_MAP_PAD 0.04       /* room around the plate in a heat map, fraction of longer side */
 #define PLOT_LEVELS_MAX 32      /* contour levels at most */
@@ -199,6 +210,166 @@ static size_t text_chars(const char *s)
     for (; s && *s; s++)
         n += ((unsigned char)*s & 0xC0) != 0x80;
     return n;
+}
+
+/* ---- title wrapping and label placement (no PLplot) --------------------------------------- */
+
+static int blank_byte(unsigned char c)
+{
+    return c == ' ' || c < 0x20 || c == 0x7F;
+}
+
+/* Byte length of the UTF-8 character starting at s (1 for a stray continuation byte). */
+static size_t char_bytes(const char *s)
+{
+    size_t n = 1;
+    while (s[n] && ((unsigned char)s[n] & 0xC0) == 0x80)
+        n++;
+    return n;
+}
+
+/* Characters in s[0..len). */
+static size_t span_chars(const char *s, size_t len)
+{
+    size_t i, n = 0;
+    for (i = 0; i < len; i++)
+        n += ((unsigned char)s[i] & 0xC0) != 0x80;
+    return n;
+}
+
+/* Bytes of the first `chars` characters of s[0..len). */
+static size_t span_bytes(const char *s, size_t len, size_t chars)
+{
+    size_t i = 0;
+    while (i < len && chars > 0) {
+        i += char_bytes(s + i);
+        chars--;
+    }
+    return i < len ? i : len;
+}
+
+/* Copy s[0..len) into a line, control characters as blanks, blanks at both ends dropped. */
+static void line_put(char *line, const char *s, size_t len)
+{
+    size_t i, o = 0;
+    while (len > 0 && blank_byte((unsigned char)*s)) {
+        s++;
+        len--;
+    }
+    while (len > 0 && blank_byte((unsigned char)s[len - 1]))
+        len--;
+    for (i = 0; i < len && o + 1 < TP_PLOT_LINE_BYTES; i++)
+        line[o++] = blank_byte((unsigned char)s[i]) ? ' ' : s[i];
+    line[o] = '\0';
+}
+
+int tp_plot_wrap_title(const char *title, size_t width, int max_lines,
+                       char lines[][TP_PLOT_LINE_BYTES])
+{
+    static const char ellipsis[] = "\xe2\x80\xa6"; /* U+2026, one character */
+    size_t pos = 0, stop;
+    int n = 0;
+    if (!title)
+        return 0;
+    width = width < 8 ? 8 : width > TP_PLOT_LABEL_MAX - 1 ? TP_PLOT_LABEL_MAX - 1 : width;
+    max_lines = max_lines < 1                     ? 1
+                : max_lines > TP_PLOT_TITLE_LINES ? TP_PLOT_TITLE_LINES
+                                                  : max_lines;
+    stop = strlen(title);
+    while (stop > 0 && blank_byte((unsigned char)title[stop - 1]))
+        stop--;
+    while (pos < stop && blank_byte((unsigned char)title[pos]))
+        pos++;
+    while (pos < stop && n < max_lines) {
+        const char *s = title + pos;
+        size_t len = stop - pos, cut = 0, i, chars;
+        if (span_chars(s, len) <= width) {
+            line_put(lines[n++], s, len);
+            break;
+        }
+        if (n == max_lines - 1) {
+            /* The last line: its start, an ellipsis, and its end (a file name stays whole). */
+            size_t head = (width - 1) * 2 / 5, tail = width - 1 - head;
+            size_t hb = span_bytes(s, len, head);
+            size_t tb = span_bytes(s, len, span_chars(s, len) - tail);
+            char *line = lines[n++];
+            line_put(line, s, hb);
+            strcat(line, ellipsis);
+            line_put(line + strlen(line), s + tb, len - tb);
+            break;
+        }
+        /* The last break within `width` characters: before a blank, or after a '/' when no
+         * blank leaves at least half a line (a path is cut at its slashes, prose at its blanks). */
+        {
+            size_t blank = 0, slash = 0, blank_chars = 0;
+            for (i = 0, chars = 0; i < len && chars <= width; i += char_bytes(s + i), chars++) {
+                if (i > 0 && blank_byte((unsigned char)s[i])) {
+                    blank = i;
+                    blank_chars = chars;
+                }
+                if (i > 0 && s[i - 1] == '/')
+                    slash = i;
+            }
+            cut = blank > 0 && 2 * blank_chars >= width ? blank : blank > slash ? blank : slash;
+        }
+        if (cut == 0)
+            cut = span_bytes(s, len, width); /* one word longer than a line */
+        line_put(lines[n++], s, cut);
+        pos += cut;
+        while (pos < stop && blank_byte((unsigned char)title[pos]))
+            pos++;
+    }
+    return n;
+}
+
+/* Area of the intersection of two boxes given by their corners. */
+static double box_overlap(double ax0, double ay0, double ax1, double ay1, double bx0, double by0,
+                          double bx1, double by1)
+{
+    double w = fmin(ax1, bx1) - fmax(ax0, bx0), h = fmin(ay1, by1) - fmax(ay0, by0);
+    return w > 0.0 && h > 0.0 ? w * h : 0.0;
+}
+
+void tp_plot_place_labels(tp_plot_label *labels, size_t n, double gap, double fx0, double fy0,
+                          double fx1, double fy1)
+{
+    /* Candidate places: offsets of the box's lower-left corner from the marker, in units of
+     * (w, h) and of gap: right, left, above, below, then the four corners. Places above and
+     * below clear the band of the side places (half a height either way of the marker), so
+     * three labels on one marker fit. */
+    static const double place[8][4] = {
+        /* x: w share, gaps; y: h share, gaps */
+        {0.0, 1.0, -0.5, 0.0},  {-1.0, -1.0, -0.5, 0.0}, {-0.5, 0.0, 0.5, 0.5},
+        {-0.5, 0.0, -1.5, -0.5}, {0.0, 1.0, 0.5, 0.5},   {0.0, 1.0, -1.5, -0.5},
+        {-1.0, -1.0, 0.5, 0.5}, {-1.0, -1.0, -1.5, -0.5},
+    };
+    size_t i, j;
+    int c;
+    for (i = 0; i < n; i++) {
+        tp_plot_label *l = &labels[i];
+        double best = HUGE_VAL;
+        for (c = 0; c < 8; c++) {
+            double x0 = l->x + place[c][0] * l->w + place[c][1] * gap;
+            double y0 = l->y + place[c][2] * l->h + place[c][3] * gap;
+            double x1 = x0 + l->w, y1 = y0 + l->h, cost = 0.0;
+            /* outside the frame: the area that sticks out */
+            cost += l->w * l->h - box_overlap(x0, y0, x1, y1, fx0, fy0, fx1, fy1);
+            for (j = 0; j < n; j++) {
+                if (j < i)
+                    cost += box_overlap(x0, y0, x1, y1, labels[j].x0, labels[j].y0,
+                                        labels[j].x0 + labels[j].w, labels[j].y0 + labels[j].h);
+                cost += box_overlap(x0, y0, x1, y1, labels[j].x - gap, labels[j].y - gap,
+                                    labels[j].x + gap, labels[j].y + gap);
+            }
+            if (cost < best) {
+                best = cost;
+                l->x0 = x0;
+                l->y0 = y0;
+                if (cost == 0.0)
+                    break;
+            }
+        }
+    }
 }
 
 static double clampd(double v, double lo, double hi)
@@ -504,17 +675,61 @@ static tp_status plot_write(const char *path, const plot_format *fmt, int w, int
     return tp_outfile_place(tmp, path, d);
 }
 
-/* Text with a white halo (copies offset by ox, oy world units), for labels drawn over data. */
-static void halo_text(double x, double y, double ox, double oy, double just, const char *text)
+/* Text along (dx, dy) with a white halo (copies offset by ox, oy world units), for labels
+ * drawn over data. */
+static void halo_text_dir(double x, double y, double dx, double dy, double ox, double oy,
+                          double just, const char *text)
 {
     int i, j;
     plcol0(COL_HALO);
     for (i = -1; i <= 1; i++)
         for (j = -1; j <= 1; j++)
             if (i || j)
-                plptex(x + i * ox, y + j * oy, 1.0, 0.0, just, text);
+                plptex(x + i * ox, y + j * oy, dx, dy, just, text);
     plcol0(COL_INK);
-    plptex(x, y, 1.0, 0.0, just, text);
+    plptex(x, y, dx, dy, just, text);
+}
+
+/* Horizontal text with a halo. */
+static void halo_text(double x, double y, double ox, double oy, double just, const char *text)
+{
+    halo_text_dir(x, y, 1.0, 0.0, ox, oy, just, text);
+}
+
+/* ---- titles ------------------------------------------------------------------------------ */
+
+/* A figure's title wrapped for a page `page_w` mm wide at character height `ht` mm. */
+typedef struct title_plan {
+    char line[TP_PLOT_TITLE_LINES][TP_PLOT_LINE_BYTES];
+    int n;
+} title_plan;
+
+/* Wrap `title` (may be NULL) to the page's width; returns the room it needs above the top frame,
+ * mm. */
+static double title_fit(title_plan *tp, const char *title, double page_w, double ht)
+{
+    double cw = PLOT_TITLE_SCALE * PLOT_TITLE_W * ht;
+    double chars = (page_w - 2.0 * PLOT_TITLE_MARGIN * ht) / cw;
+    tp->n = title ? tp_plot_wrap_title(title, chars > 8.0 ? (size_t)chars : 8, TP_PLOT_TITLE_LINES,
+                                       tp->line)
+                  : 0;
+    if (tp->n == 0)
+        return 1.5 * ht;
+    return (3.6 + (tp->n - 1) * PLOT_TITLE_PITCH * PLOT_TITLE_SCALE) * ht;
+}
+
+/* Draw the title above the current viewport (vx0..vx1 mm), centred on the page. */
+static void title_draw(const title_plan *tp, double page_w, double vx0, double vx1)
+{
+    char text[PLOT_TEXT_SIZE];
+    double pos = (0.5 * page_w - vx0) / (vx1 - vx0);
+    int k;
+    plschr(0.0, PLOT_TITLE_SCALE);
+    for (k = 0; k < tp->n; k++) {
+        text_copy(text, tp->line[k]);
+        plmtex("t", 1.3 + (tp->n - 1 - k) * PLOT_TITLE_PITCH, pos, 0.5, text);
+    }
+    plschr(0.0, 1.0);
 }
 
 /* ---- charts ------------------------------------------------------------------------------ */
@@ -537,6 +752,7 @@ typedef struct panel_plan {
     size_t first;              /* chart-wide index of its first series (colours) */
     int right;                 /* has a right axis */
     plot_axis y, y2;           /* left and right axes */
+    plot_axis y_fit, y2_fit;   /* the same fitted to the data, before a legend grew them */
     double ticks;              /* labelled ticks wanted on the y axes */
     double (*label_box)[4];    /* per reference line: its label's box x0, x1, y0, y1,
                                   normalised (x0 > x1: no label) */
@@ -556,6 +772,13 @@ typedef struct chart_plan {
     size_t *key; /* per series (chart-wide index): whose colour and glyph it takes, the first
                     series with the same label, so that one quantity keeps its colour in every
                     panel */
+    title_plan title;
+    /* Marked times inside the x range, their indices among those given, and their labels
+     * placed in the top panel (mm of the page). */
+    const tp_plot_vline *vline[TP_PLOT_VLINES_MAX];
+    size_t vline_from[TP_PLOT_VLINES_MAX];
+    tp_plot_label vlabel[TP_PLOT_VLINES_MAX];
+    size_t n_vlines;
 } chart_plan;
 
 static int series_colour(size_t k)
@@ -664,11 +887,24 @@ static int boxes_overlap(const double *a, const double *b)
     return a[0] < b[1] && b[0] < a[1] && a[2] < b[3] && b[2] < a[3];
 }
 
+/* A marked time's label box in the top panel, normalised to its viewport (x0, x1, y0, y1). */
+static void vlabel_box(const chart_plan *cp, size_t i, double *box)
+{
+    const panel_plan *top = &cp->panels[0];
+    const tp_plot_label *l = &cp->vlabel[i];
+    double vw = top->vx1 - top->vx0, vh = top->vy1 - top->vy0;
+    box[0] = (l->x0 - top->vx0) / vw;
+    box[1] = (l->x0 + l->w - top->vx0) / vw;
+    box[2] = (l->y0 - top->vy0) / vh;
+    box[3] = (l->y0 + l->h - top->vy0) / vh;
+}
+
 /* Label every reference line of a panel. A label goes above or below its line, at one of the
  * ends or across the middle, where it covers the fewest data without another line between it
  * and its own; when every such place has one (lines a few units apart: a setpoint, its band, a
  * ceiling), it sits on its line, its halo cutting the line. It never covers a label already
- * placed or the legend. */
+ * placed, the legend or a marked time's label, and crosses a marked time only when every other
+ * place is worse. */
 static void labels_plan(const chart_plan *cp, panel_plan *pp)
 {
     static const double xs[4] = {0.99, 0.01, 0.62, 0.30}; /* anchors: right end, left end, ... */
@@ -725,6 +961,16 @@ static void labels_plan(const chart_plan *cp, panel_plan *pp)
                 if (pp->label_box[k][0] < pp->label_box[k][1] &&
                     boxes_overlap(box, pp->label_box[k]))
                     cost[c] += (size_t)1 << 24;
+            for (k = 0; k < cp->n_vlines; k++) { /* marked times and their labels */
+                double u = (cp->vline[k]->x - cp->x.lo) / (cp->x.hi - cp->x.lo), lb[4];
+                if (u >= box[0] && u <= box[1])
+                    cost[c] += (size_t)1 << 10;
+                if (pp != &cp->panels[0] || cp->vlabel[k].w <= 0.0)
+                    continue;
+                vlabel_box(cp, k, lb);
+                if (boxes_overlap(box, lb))
+                    cost[c] += (size_t)1 << 24;
+            }
         }
         for (c = 1; c < cb.n; c++)
             if (cost[c] < cost[best])
@@ -768,6 +1014,37 @@ static void labels_draw(const chart_plan *cp, const panel_plan *pp)
     }
 }
 
+/* A marked time: a vertical line through the panel. */
+static void vline_line(const chart_plan *cp, const panel_plan *pp, const tp_plot_vline *v)
+{
+    PLFLT x[2], y[2];
+    x[0] = x[1] = v->x;
+    y[0] = pp->y.lo;
+    y[1] = pp->y.hi;
+    plcol0(COL_REF);
+    pllsty(PLOT_VREF_STYLE);
+    plwidth(1.5 * PLOT_AXIS_W * cp->scale);
+    plline(2, x, y);
+    pllsty(1);
+}
+
+/* Its label, reading upwards along the line in the box placed for it (mm of the page). */
+static void vline_label(const chart_plan *cp, const panel_plan *pp, const tp_plot_vline *v,
+                        const tp_plot_label *l)
+{
+    char text[PLOT_TEXT_SIZE];
+    double vw = pp->vx1 - pp->vx0, vh = pp->vy1 - pp->vy0;
+    double xs = (cp->x.hi - cp->x.lo) / vw, ys = (pp->y.hi - pp->y.lo) / vh; /* per mm */
+    double xc = cp->x.lo + (l->x0 + 0.5 * l->w - pp->vx0) * xs;
+    double yc = pp->y.lo + (l->y0 + 0.5 * l->h - pp->vy0) * ys;
+    if (!v->label || !*v->label)
+        return;
+    text_copy(text, v->label);
+    plschr(0.0, PLOT_LEGEND_SCALE);
+    halo_text_dir(xc, yc, 0.0, 1.0, 0.08 * cp->ht * xs, 0.08 * cp->ht * ys, 0.5, text);
+    plschr(0.0, 1.0);
+}
+
 static void panel_draw(const chart_plan *cp, const panel_plan *pp, int top, int bottom)
 {
     const tp_plot_panel *p = pp->p;
@@ -783,6 +1060,8 @@ static void panel_draw(const chart_plan *cp, const panel_plan *pp, int top, int 
     box_draw("g", &cp->x, "g", &pp->y);
     for (i = 0; i < p->n_hlines; i++)
         hline_line(cp, &p->hlines[i]);
+    for (i = 0; i < cp->n_vlines; i++)
+        vline_line(cp, pp, cp->vline[i]);
     for (i = 0; i < p->n_series; i++)
         if (!p->series[i].right_axis)
             series_draw(cp, &p->series[i], cp->key[pp->first + i]);
@@ -799,17 +1078,15 @@ static void panel_draw(const chart_plan *cp, const panel_plan *pp, int top, int 
         plwind(cp->x.lo, cp->x.hi, pp->y.lo, pp->y.hi);
     }
     labels_draw(cp, pp);
+    for (i = 0; top && i < cp->n_vlines; i++)
+        vline_label(cp, pp, cp->vline[i], &cp->vlabel[i]);
     plcol0(COL_INK);
     plwidth(PLOT_AXIS_W * cp->scale);
     box_draw(bottom ? "bcnost" : "bcst", &cp->x, pp->right ? "bnostv" : "bcnostv", &pp->y);
     text_copy(text, p->ylabel);
     plmtex("l", cp->ylabel_disp, 0.5, 0.5, text);
-    if (top && cp->c->title && *cp->c->title) {
-        text_copy(text, cp->c->title);
-        plschr(0.0, PLOT_TITLE_SCALE);
-        plmtex("t", 1.3, 0.5, 0.5, text);
-        plschr(0.0, 1.0);
-    }
+    if (top)
+        title_draw(&cp->title, cp->width * PLOT_MM_PER_PX, pp->vx0, pp->vx1);
     if (bottom && cp->c->xlabel && *cp->c->xlabel) {
         text_copy(text, cp->c->xlabel);
         plmtex("b", 3.3, 0.5, 0.5, text);
@@ -818,10 +1095,9 @@ static void panel_draw(const chart_plan *cp, const panel_plan *pp, int top, int 
         plwidth(PLOT_AXIS_W * cp->scale);
         pllegend(&lw, &lh, PL_LEGEND_BACKGROUND | PL_LEGEND_BOUNDING_BOX, lg->position, 0.012,
                  0.025, lg->sample_w, COL_BG, COL_INK, 1, (lg->n + lg->ncol - 1) / lg->ncol,
-                 lg->ncol, lg->n, lg->opt, 1.0,
-                 PLOT_LEGEND_SCALE, PLOT_LEGEND_SPACING, 0.0, lg->ink, lg->text, NULL, NULL, NULL,
-                 NULL, lg->colour, lg->style, lg->width, lg->colour, lg->sscale, lg->nsym,
-                 lg->glyph);
+                 lg->ncol, lg->n, lg->opt, 1.0, PLOT_LEGEND_SCALE, PLOT_LEGEND_SPACING, 0.0,
+                 lg->ink, lg->text, NULL, NULL, NULL, NULL, lg->colour, lg->style, lg->width,
+                 lg->colour, lg->sscale, lg->nsym, lg->glyph);
     }
 }
 
@@ -834,8 +1110,28 @@ static void chart_draw(const void *plan)
         panel_draw(cp, &cp->panels[i], i == 0, i + 1 == cp->c->n_panels);
 }
 
-/* The data and reference lines that a legend of bw x bh (normalised) would hide in each
- * corner (right top, left top, right bottom, left bottom). */
+/* Nonzero when `box` (normalised to the panel) lies across a marked time or (top panel) on a
+ * marked time's label: things that stay where they are however the y axis grows. */
+static int marks_in_box(const chart_plan *cp, const panel_plan *pp, const double *box)
+{
+    size_t i;
+    for (i = 0; i < cp->n_vlines; i++) {
+        double u = (cp->vline[i]->x - cp->x.lo) / (cp->x.hi - cp->x.lo), lb[4];
+        if (u >= box[0] && u <= box[1])
+            return 1;
+        if (pp != &cp->panels[0] || cp->vlabel[i].w <= 0.0)
+            continue;
+        vlabel_box(cp, i, lb);
+        if (boxes_overlap(box, lb))
+            return 1;
+    }
+    return 0;
+}
+
+/* The data, reference lines, marked times and (top panel) their labels that a legend of
+ * bw x bh (normalised) would hide in each corner (right top, left top, right bottom, left
+ * bottom), each box with a clearance of PLOT_LEGEND_CLEAR on its inner sides: a curve along
+ * the legend's border reads as part of it. */
 static void legend_hits(const chart_plan *cp, const panel_plan *pp, double bw, double bh,
                         corner_boxes *cb)
 {
@@ -845,10 +1141,10 @@ static void legend_hits(const chart_plan *cp, const panel_plan *pp, double bw, d
     cb->n = 4;
     for (c = 0; c < 4; c++) {
         int right = c == 0 || c == 2, topc = c < 2;
-        cb->x0[c] = right ? 1.0 - bw : 0.0;
-        cb->x1[c] = right ? 1.0 : bw;
-        cb->y0[c] = topc ? 1.0 - bh : 0.0;
-        cb->y1[c] = topc ? 1.0 : bh;
+        cb->x0[c] = right ? 1.0 - bw - PLOT_LEGEND_CLEAR : 0.0;
+        cb->x1[c] = right ? 1.0 : bw + PLOT_LEGEND_CLEAR;
+        cb->y0[c] = topc ? 1.0 - bh - PLOT_LEGEND_CLEAR : 0.0;
+        cb->y1[c] = topc ? 1.0 : bh + PLOT_LEGEND_CLEAR;
         cb->hits[c] = 0;
     }
     for (i = 0; i < p->n_series; i++) {
@@ -861,10 +1157,25 @@ static void legend_hits(const chart_plan *cp, const panel_plan *pp, double bw, d
         for (k = 0; k <= 100 && isfinite(v); k++)
             corner_hit(cb, k / 100.0, v);
     }
+    for (i = 0; i < cp->n_vlines; i++) {
+        double u = (cp->vline[i]->x - cp->x.lo) / (cp->x.hi - cp->x.lo), lb[4];
+        int k, m;
+        for (k = 0; k <= 100; k++)
+            corner_hit(cb, u, k / 100.0);
+        if (pp != &cp->panels[0] || cp->vlabel[i].w <= 0.0)
+            continue;
+        /* the top panel's labels of marked times: a legend on them would hide them */
+        vlabel_box(cp, i, lb);
+        for (k = 0; k <= 10; k++)
+            for (m = 0; m <= 10; m++)
+                corner_hit(cb, lb[0] + (lb[1] - lb[0]) * k / 10.0,
+                           lb[2] + (lb[3] - lb[2]) * m / 10.0);
+    }
 }
 
-/* The highest (top) or lowest (!top) normalised value of the panel's data and reference lines
- * within [u0, u1] of the x axis (line segments sampled every 1 % of the viewport). */
+/* The highest (top) or lowest (!top) normalised value of the panel's data (each series on its
+ * own axis) and reference lines within [u0, u1] of the x axis (line segments sampled every 1 %
+ * of the viewport). */
 static double span_extreme(const chart_plan *cp, const panel_plan *pp, double u0, double u1,
                            int top)
 {
@@ -878,6 +1189,7 @@ static double span_extreme(const chart_plan *cp, const panel_plan *pp, double u0
     }
     for (i = 0; i < p->n_series; i++) {
         const tp_plot_series *s = &p->series[i];
+        const plot_axis *y = s->right_axis ? &pp->y2 : &pp->y;
         double pu = (double)NAN, pv = (double)NAN;
         for (j = 0; j < s->n; j++) {
             double u, v;
@@ -887,7 +1199,7 @@ static double span_extreme(const chart_plan *cp, const panel_plan *pp, double u0
                 continue;
             }
             u = (s->x[j] - cp->x.lo) / (cp->x.hi - cp->x.lo);
-            v = (s->y[j] - pp->y.lo) / (pp->y.hi - pp->y.lo);
+            v = (s->y[j] - y->lo) / (y->hi - y->lo);
             m = isfinite(pu) && !s->markers ? (int)fmin(ceil(fabs(u - pu) / 0.01), 100.0) : 0;
             for (k = 0; k <= m; k++) {
                 double uu = m ? pu + (u - pu) * k / m : u, vv = m ? pv + (v - pv) * k / m : v;
@@ -901,24 +1213,28 @@ static double span_extreme(const chart_plan *cp, const panel_plan *pp, double u0
     return ext;
 }
 
-#define PLOT_LEGEND_GAP 0.03  /* space between a legend and the data it clears, of the panel */
-#define PLOT_LEGEND_GROW 2.5  /* the most a panel's y range grows to clear its legend, times */
-
-/* How much a panel's y range must grow (times) for a legend of bw x bh to clear the data in
- * one corner (upwards for a top corner, down for a bottom one), and that corner; HUGE_VAL when
- * no corner can be cleared within PLOT_LEGEND_GROW or the panel has a right axis. */
+/* How much a panel's y range (and its right axis alike) must grow (times) for a legend of
+ * bw x bh to clear the data in one corner (upwards for a top corner, down for a bottom one),
+ * and that corner; HUGE_VAL when no corner can be cleared within PLOT_LEGEND_GROW. A corner
+ * across a marked time or on its label cannot be cleared by growing. */
 static double legend_need(const chart_plan *cp, const panel_plan *pp, double bw, double bh,
                           int *corner)
 {
     double need = HUGE_VAL, room = 1.0 - bh - PLOT_LEGEND_GAP;
     int c;
     *corner = -1;
-    if (pp->right || room <= 0.2)
+    if (room <= 0.2)
         return HUGE_VAL;
     for (c = 0; c < 4; c++) {
         int right = c == 0 || c == 2, topc = c < 2;
-        double u0 = right ? 1.0 - bw : 0.0, u1 = right ? 1.0 : bw, grow;
-        double ext = span_extreme(cp, pp, u0, u1, topc);
+        double u0 = right ? 1.0 - bw - PLOT_LEGEND_CLEAR : 0.0;
+        double u1 = right ? 1.0 : bw + PLOT_LEGEND_CLEAR, grow;
+        double box[4] = {u0, u1, topc ? 1.0 - bh - PLOT_LEGEND_CLEAR : 0.0,
+                         topc ? 1.0 : bh + PLOT_LEGEND_CLEAR};
+        double ext;
+        if (marks_in_box(cp, pp, box))
+            continue;
+        ext = span_extreme(cp, pp, u0, u1, topc);
         /* the data must end below 1 - bh (top) or start above bh (bottom) of the new range */
         grow = fmax(1.0, topc ? ext / room : (1.0 - ext) / room);
         if (isfinite(grow) && grow < need) {
@@ -929,27 +1245,36 @@ static double legend_need(const chart_plan *cp, const panel_plan *pp, double bw,
     return need <= PLOT_LEGEND_GROW ? need : HUGE_VAL;
 }
 
-/* Grow the y range by `need` (from legend_need) away from the legend's corner. */
+/* Grow the y range (and the right axis alike) by `need` (from legend_need) away from the
+ * legend's corner. */
 static void legend_room(panel_plan *pp, double need, int corner)
 {
-    double span = pp->y.hi - pp->y.lo, lo = pp->y.lo, hi = pp->y.hi;
-    if (corner < 2)
-        hi = lo + need * span;
-    else
-        lo = hi - need * span;
-    axis_fit(&pp->y, lo, hi, 0.0, pp->ticks);
+    plot_axis *axes[2] = {&pp->y, &pp->y2};
+    int k;
+    for (k = 0; k < (pp->right ? 2 : 1); k++) {
+        plot_axis *a = axes[k];
+        double span = a->hi - a->lo, lo = a->lo, hi = a->hi;
+        if (corner < 2)
+            hi = lo + need * span;
+        else
+            lo = hi - need * span;
+        axis_fit(a, lo, hi, 0.0, pp->ticks);
+    }
 }
 
 /* The estimated legend box of `ncol` columns, normalised to the viewport, with the offsets
- * given to pllegend; 0 when it is wider than the panel. */
+ * given to pllegend (rows measured at 1.06 times the nominal pitch in the cairo output); 0
+ * when it is wider than the panel. */
 static int legend_size(const chart_plan *cp, const panel_plan *pp, PLINT n, PLINT ncol,
                        size_t longest, double *bw, double *bh)
 {
     PLINT rows = (n + ncol - 1) / ncol;
     double vw = pp->vx1 - pp->vx0, vh = pp->vy1 - pp->vy0;
-    *bw = (double)ncol * (3.5 + 2.0 + (double)longest * PLOT_TEXT_W * PLOT_LEGEND_SCALE) *
-              cp->ht / vw + 0.012;
-    *bh = ((double)rows * PLOT_LEGEND_SPACING * PLOT_LEGEND_SCALE + 1.0) * cp->ht / vh + 0.025;
+    *bw = (double)ncol * (3.5 + 2.0 + (double)longest * PLOT_TEXT_W * PLOT_LEGEND_SCALE) * cp->ht /
+              vw +
+          0.012;
+    *bh =
+        ((double)rows * 1.06 * PLOT_LEGEND_SPACING * PLOT_LEGEND_SCALE + 1.0) * cp->ht / vh + 0.025;
     if (ncol > 1 && *bw > 0.98)
         return 0;
     *bw = fmin(*bw, 1.0);
@@ -1032,10 +1357,11 @@ static void legend_plan_fill(const chart_plan *cp, panel_plan *pp)
         }
     }
     lg->position = PL_POSITION_INSIDE | PL_POSITION_VIEWPORT | corner_pos[best];
-    lg->box[0] = cb.x0[best];
-    lg->box[1] = cb.x1[best];
-    lg->box[2] = cb.y0[best];
-    lg->box[3] = cb.y1[best];
+    /* the box itself, without the clearance counted around it */
+    lg->box[0] = best == 0 || best == 2 ? 1.0 - bw : 0.0;
+    lg->box[1] = best == 0 || best == 2 ? 1.0 : bw;
+    lg->box[2] = best < 2 ? 1.0 - bh : 0.0;
+    lg->box[3] = best < 2 ? 1.0 : bh;
 }
 
 /* Finite range of a series' y values into [*lo, *hi]; returns the count of finite points and
@@ -1071,8 +1397,33 @@ static void chart_plan_free(chart_plan *cp)
     cp->key = NULL;
 }
 
+/* Keep the marked times inside the x range and place their labels along the lines, from the
+ * bottom of the top panel up (mm of the page); an unlabelled mark's label takes no room. */
+static void vlines_place(chart_plan *cp, const tp_plot_vline *vlines, size_t n)
+{
+    const panel_plan *top = &cp->panels[0];
+    double lh = PLOT_LEGEND_SCALE * cp->ht, gap = 0.3 * cp->ht;
+    size_t i;
+    cp->n_vlines = 0;
+    for (i = 0; vlines && i < n && cp->n_vlines < TP_PLOT_VLINES_MAX; i++) {
+        const tp_plot_vline *v = &vlines[i];
+        tp_plot_label *l = &cp->vlabel[cp->n_vlines];
+        int labelled = v->label && *v->label;
+        if (!isfinite(v->x) || v->x < cp->x.lo || v->x > cp->x.hi)
+            continue;
+        cp->vline_from[cp->n_vlines] = i;
+        cp->vline[cp->n_vlines++] = v;
+        l->w = labelled ? lh : 0.0;
+        l->h = labelled ? ((double)text_chars(v->label) * PLOT_TEXT_W + 0.5) * lh : 0.0;
+        l->x = top->vx0 + (v->x - cp->x.lo) / (cp->x.hi - cp->x.lo) * (top->vx1 - top->vx0);
+        l->y = top->vy0 + 0.4 * cp->ht + 0.5 * l->h;
+    }
+    tp_plot_place_labels(cp->vlabel, cp->n_vlines, gap, top->vx0, top->vy0, top->vx1, top->vy1);
+}
+
 /* Check a chart and lay it out; on failure report and return non-OK (nothing allocated). */
-static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c, const char *path,
+static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c,
+                                  const tp_plot_vline *vlines, size_t n_vlines, const char *path,
                                   tp_diag *d)
 {
     double xlo = HUGE_VAL, xhi = -HUGE_VAL, page_w, page_h, top, bottom, gap, avail, share = 0.0;
@@ -1083,6 +1434,10 @@ static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c, const 
 
     memset(cp, 0, sizeof *cp);
     cp->c = c;
+    if (n_vlines > 0 && !vlines) {
+        tp_diag_error(d, tp_loc_none(), path, NULL, "marked times without an array");
+        return TP_ERR_USAGE;
+    }
     if (!c->panels || c->n_panels == 0 || c->n_panels > TP_PLOT_PANELS_MAX) {
         tp_diag_error(d, tp_loc_none(), path, NULL, "a chart needs 1 to %d panels (got %zu)",
                       TP_PLOT_PANELS_MAX, c->panels ? c->n_panels : 0);
@@ -1216,7 +1571,7 @@ static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c, const 
     cp->ht = PLOT_CHAR_MM * cp->scale;
     page_w = cp->width * PLOT_MM_PER_PX;
     page_h = cp->height * PLOT_MM_PER_PX;
-    top = (c->title && *c->title ? 3.6 : 1.5) * cp->ht;
+    top = title_fit(&cp->title, c->title, page_w, cp->ht);
     bottom = (c->xlabel && *c->xlabel ? 4.8 : 2.8) * cp->ht;
     gap = 1.2 * cp->ht;
     avail = page_h - top - bottom - gap * (double)(c->n_panels - 1);
@@ -1242,10 +1597,13 @@ static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c, const 
         axis_fit(&pp->y, pp->y.lo, pp->y.hi, PLOT_PAD, pp->ticks);
         if (pp->right)
             axis_fit(&pp->y2, pp->y2.lo, pp->y2.hi, PLOT_PAD, pp->ticks);
+        pp->y_fit = pp->y;
+        pp->y2_fit = pp->y2;
     }
 
     /* horizontal layout: room for the widest tick labels and the axis titles; again when a
-     * legend made room for itself and lengthened a panel's tick labels */
+     * legend made room for itself and lengthened a panel's tick labels (98 -> 100). The marked
+     * times' labels go first: legends and reference-line labels keep clear of them. */
     for (pass = 0; pass < 2; pass++) {
         int wider = 0;
         for (i = 0; i < c->n_panels; i++) {
@@ -1270,6 +1628,11 @@ static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c, const 
         for (i = 0; i < c->n_panels; i++) {
             cp->panels[i].vx0 = left;
             cp->panels[i].vx1 = page_w - right;
+        }
+        vlines_place(cp, vlines, n_vlines);
+        for (i = 0; i < c->n_panels; i++) {
+            cp->panels[i].y = cp->panels[i].y_fit; /* a legend grows the plain fit, once */
+            cp->panels[i].y2 = cp->panels[i].y2_fit;
             legend_plan_fill(cp, &cp->panels[i]);
             labels_plan(cp, &cp->panels[i]);
         }
@@ -1283,65 +1646,117 @@ usage:
 
 tp_status tp_plot_chart_write(const char *path, const tp_plot_chart *chart, tp_diag *d)
 {
+    return tp_plot_chart_write_marked(path, chart, NULL, 0, d);
+}
+
+/* A chart's plan on the heap (it holds the wrapped title and the labels), built; NULL with
+ * *st set and the reason reported when it cannot be. Free with chart_plan_free and free. */
+static chart_plan *chart_plan_new(const tp_plot_chart *chart, const tp_plot_vline *vlines,
+                                  size_t n_vlines, const char *path, tp_diag *d, tp_status *st)
+{
+    chart_plan *cp = malloc(sizeof *cp);
+    if (!cp) {
+        tp_diag_error(d, tp_loc_none(), path, NULL, "out of memory");
+        *st = TP_ERR_NOMEM;
+        return NULL;
+    }
+    *st = chart_plan_build(cp, chart, vlines, n_vlines, path, d);
+    if (*st != TP_OK) {
+        free(cp);
+        return NULL;
+    }
+    return cp;
+}
+
+tp_status tp_plot_chart_write_marked(const char *path, const tp_plot_chart *chart,
+                                     const tp_plot_vline *vlines, size_t n_vlines, tp_diag *d)
+{
     const plot_format *fmt = figure_target(path, chart, "chart", d);
-    chart_plan cp;
+    chart_plan *cp;
     tp_status st;
     if (!fmt)
         return TP_ERR_USAGE;
-    st = chart_plan_build(&cp, chart, path, d);
-    if (st != TP_OK)
+    cp = chart_plan_new(chart, vlines, n_vlines, path, d, &st);
+    if (!cp)
         return st;
-    st = plot_write(path, fmt, cp.width, cp.height, chart_draw, &cp, d);
-    chart_plan_free(&cp);
+    st = plot_write(path, fmt, cp->width, cp->height, chart_draw, cp, d);
+    chart_plan_free(cp);
+    free(cp);
     return st;
 }
 
-tp_status tp_plot_chart_layout(const char *path, const tp_plot_chart *chart, tp_plot_layout *out,
-                               tp_diag *d)
+/* Copy a laid-out chart into `out` (allocated here). */
+static tp_status layout_copy(const chart_plan *cp, tp_plot_layout *out)
 {
-    chart_plan cp;
-    tp_status st;
+    const tp_plot_chart *chart = cp->c;
     size_t i, k;
-    memset(out, 0, sizeof *out);
-    if (!figure_target(path, chart, "chart", d))
-        return TP_ERR_USAGE;
-    st = chart_plan_build(&cp, chart, path, d);
-    if (st != TP_OK)
-        return st;
     out->panels = calloc(chart->n_panels, sizeof *out->panels);
-    if (!out->panels) {
-        chart_plan_free(&cp);
+    if (!out->panels)
         return TP_ERR_NOMEM;
-    }
     out->n_panels = chart->n_panels;
-    out->xlo = cp.x.lo;
-    out->xhi = cp.x.hi;
+    out->xlo = cp->x.lo;
+    out->xhi = cp->x.hi;
+    for (k = 0; k < TP_PLOT_VLINES_MAX; k++)
+        out->marks[k] = (tp_plot_box){1.0, 0.0, 1.0, 0.0};
+    for (k = 0; k < cp->n_vlines; k++) {
+        double b[4];
+        if (cp->vlabel[k].w <= 0.0)
+            continue;
+        vlabel_box(cp, k, b);
+        out->marks[cp->vline_from[k]] = (tp_plot_box){b[0], b[1], b[2], b[3]};
+    }
     for (i = 0; i < chart->n_panels; i++) {
-        const panel_plan *pp = &cp.panels[i];
+        const panel_plan *pp = &cp->panels[i];
         tp_plot_panel_layout *pl = &out->panels[i];
         pl->ylo = pp->y.lo;
         pl->yhi = pp->y.hi;
+        pl->y2lo = pp->right ? pp->y2.lo : 0.0;
+        pl->y2hi = pp->right ? pp->y2.hi : 0.0;
         pl->legend_columns = pp->legend.n > 0 ? (int)pp->legend.ncol : 0;
         pl->legend = (tp_plot_box){pp->legend.box[0], pp->legend.box[1], pp->legend.box[2],
                                    pp->legend.box[3]};
         pl->labels = calloc(pp->p->n_hlines + 1, sizeof *pl->labels);
         pl->label_on_line = calloc(pp->p->n_hlines + 1, sizeof *pl->label_on_line);
         pl->colour = calloc(pp->p->n_series + 1, sizeof *pl->colour);
-        if (!pl->labels || !pl->label_on_line || !pl->colour) {
-            chart_plan_free(&cp);
-            tp_plot_layout_clear(out);
+        if (!pl->labels || !pl->label_on_line || !pl->colour)
             return TP_ERR_NOMEM;
-        }
         for (k = 0; k < pp->p->n_hlines; k++) {
             pl->labels[k] = (tp_plot_box){pp->label_box[k][0], pp->label_box[k][1],
                                           pp->label_box[k][2], pp->label_box[k][3]};
             pl->label_on_line[k] = pp->label_on[k];
         }
         for (k = 0; k < pp->p->n_series; k++)
-            pl->colour[k] = series_colour(cp.key[pp->first + k]) - COL_SERIES;
+            pl->colour[k] = series_colour(cp->key[pp->first + k]) - COL_SERIES;
     }
-    chart_plan_free(&cp);
     return TP_OK;
+}
+
+tp_status tp_plot_chart_layout(const char *path, const tp_plot_chart *chart, tp_plot_layout *out,
+                               tp_diag *d)
+{
+    return tp_plot_chart_layout_marked(path, chart, NULL, 0, out, d);
+}
+
+tp_status tp_plot_chart_layout_marked(const char *path, const tp_plot_chart *chart,
+                                      const tp_plot_vline *vlines, size_t n_vlines,
+                                      tp_plot_layout *out, tp_diag *d)
+{
+    chart_plan *cp;
+    tp_status st;
+    memset(out, 0, sizeof *out);
+    if (!figure_target(path, chart, "chart", d))
+        return TP_ERR_USAGE;
+    cp = chart_plan_new(chart, vlines, n_vlines, path, d, &st);
+    if (!cp)
+        return st;
+    if (layout_copy(cp, out) != TP_OK) {
+        tp_diag_error(d, tp_loc_none(), path, NULL, "out of memory");
+        tp_plot_layout_clear(out);
+        st = TP_ERR_NOMEM;
+    }
+    chart_plan_free(cp);
+    free(cp);
+    return st;
 }
 
 void tp_plot_layout_clear(tp_plot_layout *l)
@@ -1373,6 +1788,8 @@ typedef struct map_plan {
     PLINT sigdig;              /* significant digits of contour labels */
     double vx0, vx1, vy0, vy1; /* viewport, mm */
     double ylabel_disp;
+    title_plan title;
+    tp_plot_label *labels; /* n_marks: where each marker's label goes, mm of the page */
 } map_plan;
 
 static void map_plan_free(map_plan *mp)
@@ -1381,8 +1798,10 @@ static void map_plan_free(map_plan *mp)
     free(mp->cells);
     free(mp->xc);
     free(mp->yc);
+    free(mp->labels);
     mp->grid = NULL;
     mp->cells = mp->xc = mp->yc = NULL;
+    mp->labels = NULL;
 }
 
 /* Nonzero when marker k lies in the map's window (others are left out: text is not clipped). */
@@ -1441,9 +1860,10 @@ static void map_draw(const void *plan)
 
     for (k = 0; k < m->n_marks; k++) {
         double mx = m->mark_x[k], my = m->mark_y[k];
-        double dx = 1.0 * mp->ht * (mp->x.hi - mp->x.lo) / (mp->vx1 - mp->vx0);
-        double hx = 0.08 * dx, hy = 0.08 * mp->ht * (mp->y.hi - mp->y.lo) / (mp->vy1 - mp->vy0);
-        int left = mx > mp->x0 + 0.7 * (mp->x1 - mp->x0);
+        double xs = (mp->x.hi - mp->x.lo) / (mp->vx1 - mp->vx0); /* world per mm */
+        double ys = (mp->y.hi - mp->y.lo) / (mp->vy1 - mp->vy0);
+        double hx = 0.08 * mp->ht * xs, hy = 0.08 * mp->ht * ys;
+        const tp_plot_label *l = &mp->labels[k];
         if (!mark_inside(mp, k))
             continue;
         plcol0(COL_HALO);
@@ -1454,8 +1874,10 @@ static void map_draw(const void *plan)
         plstring(1, &mx, &my, plot_glyphs[0]);
         plschr(0.0, PLOT_LEGEND_SCALE);
         if (m->mark_label && m->mark_label[k] && *m->mark_label[k]) {
+            /* The box placed for it (map_plan_build), text centred in it. */
             text_copy(text, m->mark_label[k]);
-            halo_text(left ? mx - dx : mx + dx, my, hx, hy, left ? 1.0 : 0.0, text);
+            halo_text(mp->x.lo + (l->x0 + 0.5 * l->w - mp->vx0) * xs,
+                      mp->y.lo + (l->y0 + 0.5 * l->h - mp->vy0) * ys, hx, hy, 0.5, text);
         }
         plschr(0.0, 1.0);
     }
@@ -1464,12 +1886,7 @@ static void map_draw(const void *plan)
     plmtex("b", 3.3, 0.5, 0.5, text);
     text_copy(text, m->ylabel);
     plmtex("l", mp->ylabel_disp, 0.5, 0.5, text);
-    if (m->title && *m->title) {
-        text_copy(text, m->title);
-        plschr(0.0, PLOT_TITLE_SCALE);
-        plmtex("t", 1.3, 0.5, 0.5, text);
-        plschr(0.0, 1.0);
-    }
+    title_draw(&mp->title, mp->width * PLOT_MM_PER_PX, mp->vx0, mp->vx1);
     {
         PLINT label_opts[1] = {PL_COLORBAR_LABEL_RIGHT};
         PLINT sub_ticks[1] = {0};
@@ -1490,6 +1907,43 @@ static void map_draw(const void *plan)
                    COL_BG, COL_INK, 1, 0.0, 0.0, COL_INK, 0.0, 1, label_opts, labels, 1, axis_opts,
                    ticks, sub_ticks, n_values, values);
     }
+}
+
+/* Place the markers' labels (mm of the page) so that they overlap neither each other nor
+ * another marker, inside the map's frame. Markers off the map take no room. */
+static tp_status marks_place(map_plan *mp)
+{
+    const tp_plot_map *m = mp->m;
+    double lh = PLOT_LEGEND_SCALE * mp->ht;
+    size_t k, n = 0, *from;
+    tp_plot_label *placed;
+    if (m->n_marks == 0)
+        return TP_OK;
+    mp->labels = calloc(m->n_marks, sizeof *mp->labels);
+    placed = calloc(m->n_marks, sizeof *placed);
+    from = calloc(m->n_marks, sizeof *from);
+    if (!mp->labels || !placed || !from) {
+        free(placed);
+        free(from);
+        return TP_ERR_NOMEM;
+    }
+    for (k = 0; k < m->n_marks; k++) {
+        const char *text = m->mark_label ? m->mark_label[k] : NULL;
+        tp_plot_label *l = &placed[n];
+        if (!mark_inside(mp, k))
+            continue;
+        l->x = mp->vx0 + (m->mark_x[k] - mp->x.lo) / (mp->x.hi - mp->x.lo) * (mp->vx1 - mp->vx0);
+        l->y = mp->vy0 + (m->mark_y[k] - mp->y.lo) / (mp->y.hi - mp->y.lo) * (mp->vy1 - mp->vy0);
+        l->w = text && *text ? ((double)text_chars(text) * PLOT_TEXT_W + 0.5) * lh : 0.0;
+        l->h = text && *text ? 1.2 * lh : 0.0;
+        from[n++] = k;
+    }
+    tp_plot_place_labels(placed, n, PLOT_LABEL_GAP * mp->ht, mp->vx0, mp->vy0, mp->vx1, mp->vy1);
+    for (k = 0; k < n; k++)
+        mp->labels[from[k]] = placed[k];
+    free(placed);
+    free(from);
+    return TP_OK;
 }
 
 /* Check a map and lay it out; on failure report and return non-OK (nothing allocated). */
@@ -1595,7 +2049,7 @@ static tp_status map_plan_build(map_plan *mp, const tp_plot_map *m, const char *
      * quantities (free_aspect) each by a share of their own range. */
     pad_x = PLOT_MAP_PAD * (m->free_aspect ? mp->x1 - mp->x0 : span);
     pad_y = PLOT_MAP_PAD * (m->free_aspect ? mp->y1 - mp->y0 : span);
-    top = (m->title && *m->title ? 3.6 : 1.5) * mp->ht;
+    top = title_fit(&mp->title, m->title, page_w, mp->ht);
     bottom = 4.8 * mp->ht;
     axis_fit(&mp->y, mp->y0 - pad_y, mp->y1 + pad_y, 0.0,
              (page_h - top - bottom) / (4.0 * mp->ht));
@@ -1631,6 +2085,11 @@ static tp_status map_plan_build(map_plan *mp, const tp_plot_map *m, const char *
             tp_diag_warn(d, tp_loc_none(), path, NULL,
                          "marker %zu (%s) is not on the map; left out", i + 1,
                          m->mark_label && m->mark_label[i] ? m->mark_label[i] : "unlabelled");
+    if (marks_place(mp) != TP_OK) {
+        map_plan_free(mp);
+        tp_diag_error(d, tp_loc_none(), path, NULL, "out of memory");
+        return TP_ERR_NOMEM;
+    }
     return TP_OK;
 }
 

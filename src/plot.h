@@ -19,6 +19,9 @@
 #define TP_PLOT_PANELS_MAX 8     /* panels in one chart */
 #define TP_PLOT_LEGEND_MAX 12    /* legend entries per panel; further series get none */
 #define TP_PLOT_CELLS_MAX 250000 /* cells in one heat map (nx * ny) */
+#define TP_PLOT_TITLE_LINES 2    /* a long title wraps onto at most this many lines */
+#define TP_PLOT_LINE_BYTES 640   /* bytes of one wrapped title line, NUL included */
+#define TP_PLOT_VLINES_MAX 8     /* marked times (vertical lines) in one chart */
 
 /* One curve. Points with a non-finite x or y are skipped (a line breaks there). */
 typedef struct tp_plot_series {
@@ -35,6 +38,13 @@ typedef struct tp_plot_hline {
     const char *label;
     double y;
 } tp_plot_hline;
+
+/* A vertical reference line across every panel (a time worth marking), labelled in the top
+ * panel; x in the chart's x unit. A non-finite x is left out. */
+typedef struct tp_plot_vline {
+    const char *label;
+    double x;
+} tp_plot_vline;
 
 /* One panel of a chart. */
 typedef struct tp_plot_panel {
@@ -54,12 +64,37 @@ typedef struct tp_plot_chart {
     int width, height; /* pixels; 0 means TP_PLOT_CHART_WIDTH x TP_PLOT_CHART_HEIGHT */
 } tp_plot_chart;
 
+/* Break `title` into at most `max_lines` (1..TP_PLOT_TITLE_LINES) lines of at most `width`
+ * characters (UTF-8 characters, width >= 8), at blanks (dropped) or after '/' (kept), or inside
+ * a word longer than a line. When the text still does not fit, the last line keeps its start and
+ * its end (a file name) and loses its middle to an ellipsis. Control characters count as
+ * blanks. Returns the number of lines written into lines[0..] (0 for an empty title). */
+int tp_plot_wrap_title(const char *title, size_t width, int max_lines,
+                       char lines[][TP_PLOT_LINE_BYTES]);
+
+/* A text label beside a marker, in a frame with the same scale on both axes (mm of the page). */
+typedef struct tp_plot_label {
+    double x, y;   /* the marker */
+    double w, h;   /* size of the label's box */
+    double x0, y0; /* out: lower-left corner of the placed box */
+} tp_plot_label;
+
+/* Place each label beside its marker, `gap` away from it: the first of right, left (centred on
+ * the marker's height), above, below (centred on its x, clear of the side places), upper right,
+ * lower right, upper left, lower left that stays inside [fx0, fx1] x [fy0, fy1], overlaps no
+ * label placed before it and covers no marker (a square of half-side `gap` around each); when
+ * every place collides, the one with the least overlap. Labels are placed in order, so the first
+ * keeps its usual place. */
+void tp_plot_place_labels(tp_plot_label *labels, size_t n, double gap, double fx0, double fy0,
+                          double fx1, double fy1);
+
 /* TP_OK when `path` names a figure format tepid can write (.png .svg .pdf), else
  * TP_ERR_USAGE with a message. Lets commands refuse a bad name before any work. */
 tp_status tp_plot_check_path(const char *path, tp_diag *d);
 
 /* Write `chart` to `path`; the format comes from the extension (.png .svg .pdf, any case).
- * A PNG is width x height pixels; SVG and PDF pages are width x height points.
+ * A PNG is width x height pixels; SVG and PDF pages are width x height points. A title too
+ * long for the width wraps (tp_plot_wrap_title) and is never clipped.
  * Checks the chart first: an unknown extension, missing arrays, a series without points, a
  * right-axis series in a panel without y2label, a negative or non-finite height share, a size
  * outside TP_PLOT_SIZE_MIN..TP_PLOT_SIZE_MAX, more than TP_PLOT_PANELS_MAX panels return
@@ -72,6 +107,13 @@ tp_status tp_plot_check_path(const char *path, tp_diag *d);
  * Nothing is written to standard output. Not thread-safe: PLplot state is global. */
 tp_status tp_plot_chart_write(const char *path, const tp_plot_chart *chart, tp_diag *d);
 
+/* The same with marked times: `vlines[0..n_vlines)` (at most TP_PLOT_VLINES_MAX; further ones
+ * are left out) are drawn as vertical lines through every panel and labelled along the line in
+ * the top panel (tp_plot_place_labels). Legends and reference-line labels keep clear of the
+ * marked times and their labels. */
+tp_status tp_plot_chart_write_marked(const char *path, const tp_plot_chart *chart,
+                                     const tp_plot_vline *vlines, size_t n_vlines, tp_diag *d);
+
 /* Where tp_plot_chart_write puts each panel's legend and reference-line labels, and which
  * palette colour each series takes; boxes are normalised to the panel's plotting area (0 to 1
  * along x and y). */
@@ -81,6 +123,7 @@ typedef struct tp_plot_box {
 
 typedef struct tp_plot_panel_layout {
     double ylo, yhi;     /* the y axis as drawn (a legend may have grown it to clear the data) */
+    double y2lo, y2hi;   /* the right axis as drawn (grown alike); 0 and 0 without one */
     int legend_columns;  /* 0: no legend */
     tp_plot_box legend;
     tp_plot_box *labels; /* per reference line: its label */
@@ -92,12 +135,20 @@ typedef struct tp_plot_layout {
     double xlo, xhi; /* the x axis as drawn */
     size_t n_panels;
     tp_plot_panel_layout *panels;
+    /* per marked time (tp_plot_chart_layout_marked, in the order given): its label's box in
+     * the top panel; x0 > x1 when it is left out (off the x range, unlabelled, beyond
+     * TP_PLOT_VLINES_MAX) */
+    tp_plot_box marks[TP_PLOT_VLINES_MAX];
 } tp_plot_layout;
 
 /* Lay `chart` out as tp_plot_chart_write would for `path` (its extension and size checked the
  * same way), without drawing; free with tp_plot_layout_clear. */
 tp_status tp_plot_chart_layout(const char *path, const tp_plot_chart *chart, tp_plot_layout *out,
                                tp_diag *d);
+/* The same for tp_plot_chart_write_marked. */
+tp_status tp_plot_chart_layout_marked(const char *path, const tp_plot_chart *chart,
+                                      const tp_plot_vline *vlines, size_t n_vlines,
+                                      tp_plot_layout *out, tp_diag *d);
 void tp_plot_layout_clear(tp_plot_layout *l);
 
 /* A heat map of a plate. */

@@ -13,7 +13,7 @@ typedef enum tp_status {
     TP_ERR_STRICT       /* a --strict check failed */
 } tp_status;
 
-/* Process exit codes of the command line (DESIGN.md). */
+/* Process exit codes of the command line (docs/user-guide.md). */
 enum {
     TP_EXIT_OK = 0,     /* success */
     TP_EXIT_FAILED = 1, /* the computation failed, with the reason */

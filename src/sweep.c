@@ -25,49 +25,12 @@
 #include "report.h"
 #include "warmup.h"
 
-#define KELVIN_0C 273.15                   /* K at 0 degC */
 #define GOLDEN_GAMMA 0x9e3779b97f4a7c15ULL /* SplitMix64 increment, 2^64 / golden ratio */
 #define FNV_OFFSET 14695981039346656037ULL /* FNV-1a 64-bit offset basis (from memory) */
 #define FNV_PRIME 1099511628211ULL         /* FNV-1a 64-bit prime (from memory) */
 #define GRID_EPS 1e-9               /* relative slack when a range's last step lands on TO, - */
 #define TWO_PI 6.283185307179586477 /* 2 pi, - */
 #define POLL_NS 10000000L           /* ns between checks of the waiting thread */
-
-/* ---- metrics ------------------------------------------------------------------------------ */
-
-static const tp_sweep_metric_info metric_table[TP_SM_COUNT] = {
-    [TP_SM_TIME_SETPOINT] = {"time_to_setpoint_s", "to setpoint", "min", 1.0 / 60.0, 0.0, 1, 0, 2},
-    [TP_SM_TIME_READY] = {"time_surface_ready_s", "surface ready", "min", 1.0 / 60.0, 0.0, 1, 0, 2},
-    [TP_SM_OVERSHOOT_READING] = {"overshoot_reading_K", "overshoot", "K", 1.0, 0.0, 1, 0, 2},
-    [TP_SM_OVERSHOOT_SURFACE] = {"overshoot_surface_K", "surface overshoot", "K", 1.0, 0.0, 1, 0,
-                                 2},
-    [TP_SM_STEADY_OFFSET] = {"steady_offset_K", "steady offset", "K", 1.0, 0.0, 0, 0, 2},
-    [TP_SM_LAG] = {"lag_s", "lag", "s", 1.0, 0.0, 0, 0, 1},
-    [TP_SM_ENERGY_READY] = {"energy_to_ready_J", "energy to ready", "kJ", 1e-3, 0.0, 1, 0, 1},
-    [TP_SM_POWER_MEAN] = {"power_mean_W", "mean power", "W", 1.0, 0.0, 1, 0, 1},
-    [TP_SM_POWER_PEAK] = {"power_peak_W", "peak power", "W", 1.0, 0.0, 1, 0, 1},
-    [TP_SM_CURRENT_PEAK] = {"current_peak_A", "peak current", "A", 1.0, 0.0, 1, 0, 2},
-    [TP_SM_SURFACE_MAX] = {"surface_max_C", "hottest surface", "degC", 1.0, KELVIN_0C, 1, 1, 1},
-    [TP_SM_HOLD_POWER] = {"holding_power_W", "holding power", "W", 1.0, 0.0, 1, 0, 1},
-    [TP_SM_HOLD_DUTY] = {"holding_duty", "holding duty", "-", 1.0, 0.0, 1, 0, 3},
-    [TP_SM_MARGIN] = {"margin", "margin", "x", 1.0, 0.0, -1, 0, 2},
-    [TP_SM_HIGHEST] = {"highest_reachable_C", "highest reachable", "degC", 1.0, KELVIN_0C, -1, 1,
-                       1},
-};
-
-const tp_sweep_metric_info *tp_sweep_metric_get(int metric)
-{
-    return metric >= 0 && metric < TP_SM_COUNT ? &metric_table[metric] : NULL;
-}
-
-int tp_sweep_metric_find(const char *key)
-{
-    int i;
-    for (i = 0; i < TP_SM_COUNT; i++)
-        if (strcmp(metric_table[i].key, key) == 0)
-            return i;
-    return -1;
-}
 
 /* ---- plans -------------------------------------------------------------------------------- */
 
@@ -134,9 +97,10 @@ static tp_status parse_key(const tp_sweep_plan *plan, const tp_desc *desc, const
     return TP_OK;
 }
 
-/* Parse one quantity of dimension dim from text[0..len). */
+/* Parse one quantity of dimension dim from text[0..len); its unit text into `unit`
+ * (TP_SWEEP_UNIT_MAX bytes) unless NULL. */
 static tp_status parse_qty(const char *text, size_t len, tp_dim dim, double *out, const char *opt,
-                           const char *path, tp_diag *d)
+                           const char *path, char *unit, tp_diag *d)
 {
     char buf[128], msg[256];
     const char *hint = NULL;
@@ -149,6 +113,8 @@ static tp_status parse_qty(const char *text, size_t len, tp_dim dim, double *out
         tp_diag_error(d, loc, path, hint, "%s", msg);
         return TP_ERR_USAGE;
     }
+    if (unit)
+        tp_units_unit_text(buf, unit, TP_SWEEP_UNIT_MAX);
     return TP_OK;
 }
 
@@ -208,9 +174,9 @@ tp_status tp_sweep_add_vary(tp_sweep_plan *plan, const tp_desc *desc, const char
                           "a range has three parts");
             return TP_ERR_USAGE;
         }
-        if (parse_qty(start[0], len[0], p.dim, &from, "--vary", p.path, d) != TP_OK ||
-            parse_qty(start[1], len[1], p.dim, &to, "--vary", p.path, d) != TP_OK ||
-            parse_qty(start[2], len[2], step_dim, &step, "--vary", p.path, d) != TP_OK)
+        if (parse_qty(start[0], len[0], p.dim, &from, "--vary", p.path, p.unit, d) != TP_OK ||
+            parse_qty(start[1], len[1], p.dim, &to, "--vary", p.path, NULL, d) != TP_OK ||
+            parse_qty(start[2], len[2], step_dim, &step, "--vary", p.path, NULL, d) != TP_OK)
             return TP_ERR_USAGE;
         span = (to - from) / step;
         if (step == 0.0 || !(span >= -GRID_EPS)) {
@@ -246,7 +212,8 @@ tp_status tp_sweep_add_vary(tp_sweep_plan *plan, const tp_desc *desc, const char
         if (!p.values)
             return TP_ERR_NOMEM;
         for (i = 0; i < n; i++)
-            if (parse_qty(start[i], len[i], p.dim, &p.values[i], "--vary", p.path, d) != TP_OK) {
+            if (parse_qty(start[i], len[i], p.dim, &p.values[i], "--vary", p.path,
+                          i == 0 ? p.unit : NULL, d) != TP_OK) {
                 free(p.values);
                 return TP_ERR_USAGE;
             }
@@ -269,9 +236,10 @@ tp_status tp_sweep_add_vary(tp_sweep_plan *plan, const tp_desc *desc, const char
     return TP_OK;
 }
 
-/* A spread number: "10%" (relative, as a fraction) or a quantity of `dim`. */
+/* A spread number: "10%" (relative, as a fraction) or a quantity of `dim` (its unit text into
+ * `unit` unless NULL). */
 static tp_status spread_number(const char *text, size_t len, tp_dim dim, double *v, int *rel,
-                               const char *path, tp_diag *d)
+                               const char *path, char *unit, tp_diag *d)
 {
     char buf[128];
     if (trimmed(text, len, buf, sizeof buf) == 0 && buf[0] && buf[strlen(buf) - 1] == '%') {
@@ -286,7 +254,7 @@ static tp_status spread_number(const char *text, size_t len, tp_dim dim, double 
         return TP_OK;
     }
     *rel = 0;
-    return parse_qty(text, len, dim, v, "--spread", path, d);
+    return parse_qty(text, len, dim, v, "--spread", path, unit, d);
 }
 
 tp_status tp_sweep_add_spread(tp_sweep_plan *plan, const tp_desc *desc, const char *text,
@@ -309,7 +277,9 @@ tp_status tp_sweep_add_spread(tp_sweep_plan *plan, const tp_desc *desc, const ch
     if (pieces == 2 && len[0] == 6 && strncmp(start[0], "normal", 6) == 0) {
         tp_dim dim = p.dim == TP_DIM_TEMPERATURE ? TP_DIM_INTERVAL : p.dim;
         p.kind = TP_SPREAD_NORMAL;
-        if (spread_number(start[1], len[1], dim, &p.sigma, &p.relative, p.path, d) != TP_OK)
+        /* A temperature's SIGMA is an interval ("2K"): not the unit to show values in. */
+        if (spread_number(start[1], len[1], dim, &p.sigma, &p.relative, p.path,
+                          p.dim == TP_DIM_TEMPERATURE ? NULL : p.unit, d) != TP_OK)
             return TP_ERR_USAGE;
         if (!(p.sigma > 0)) {
             tp_diag_error(d, loc, p.path, "e.g. normal:5% or normal:0.1 ohm",
@@ -318,8 +288,8 @@ tp_status tp_sweep_add_spread(tp_sweep_plan *plan, const tp_desc *desc, const ch
         }
     } else if (pieces == 3 && len[0] == 7 && strncmp(start[0], "uniform", 7) == 0) {
         p.kind = TP_SPREAD_UNIFORM;
-        if (spread_number(start[1], len[1], p.dim, &p.low, &rel_a, p.path, d) != TP_OK ||
-            spread_number(start[2], len[2], p.dim, &p.high, &rel_b, p.path, d) != TP_OK)
+        if (spread_number(start[1], len[1], p.dim, &p.low, &rel_a, p.path, p.unit, d) != TP_OK ||
+            spread_number(start[2], len[2], p.dim, &p.high, &rel_b, p.path, NULL, d) != TP_OK)
             return TP_ERR_USAGE;
         if (rel_a != rel_b) {
             tp_diag_error(d, loc, p.path,
@@ -552,21 +522,12 @@ double tp_sweep_spearman(const double *x, const double *y, size_t n)
     return rho;
 }
 
-/* Whether a is worse than b for a metric judged by `worse`. */
-static int is_worse(double a, double b, int worse)
-{
-    if (worse > 0)
-        return a > b;
-    if (worse < 0)
-        return a < b;
-    return fabs(a) > fabs(b);
-}
-
 tp_status tp_sweep_summarise(const tp_sweep_plan *plan, const tp_sweep_result *results, int metric,
                              tp_sweep_summary *out)
 {
     long total = tp_sweep_count(plan), i, n = 0;
-    int k, worse = metric_table[metric].worse;
+    int k;
+    tp_worse worse = tp_metricdef_get(metric)->worse;
     double *x = malloc(((size_t)total + 1) * 3 * sizeof *x), *sorted, *pv;
     double best_abs = -1.0;
     memset(out, 0, sizeof *out);
@@ -588,7 +549,7 @@ tp_status tp_sweep_summarise(const tp_sweep_plan *plan, const tp_sweep_result *r
             out->absent++;
             continue;
         }
-        if (out->worst_index < 0 || is_worse(v, out->worst, worse)) {
+        if (out->worst_index < 0 || tp_worse_than(v, out->worst, worse)) {
             out->worst = v;
             out->worst_index = i;
         }
@@ -773,26 +734,28 @@ static void take_metrics(const tp_network *net, const tp_warmup *w, tp_sweep_res
 {
     const tp_metrics *m = &w->metrics;
     double *v = res->metric;
-    v[TP_SM_TIME_SETPOINT] = m->t_setpoint;
-    v[TP_SM_TIME_READY] = m->t_surface_ready;
-    v[TP_SM_OVERSHOOT_READING] = m->overshoot_reading;
-    v[TP_SM_OVERSHOOT_SURFACE] = m->overshoot_surface;
-    v[TP_SM_STEADY_OFFSET] = m->steady_offset;
-    v[TP_SM_LAG] = m->lag;
-    v[TP_SM_ENERGY_READY] = m->energy_to_ready;
-    v[TP_SM_POWER_MEAN] = m->power_mean;
-    v[TP_SM_POWER_PEAK] = m->power_peak;
-    v[TP_SM_CURRENT_PEAK] = m->current_peak;
-    v[TP_SM_SURFACE_MAX] = m->surface_max;
-    v[TP_SM_HOLD_POWER] = m->hold_power;
-    v[TP_SM_HOLD_DUTY] = m->hold_duty;
-    v[TP_SM_HIGHEST] = m->highest_reachable;
+    v[TP_MET_TIME_SETPOINT] = m->t_setpoint;
+    v[TP_MET_TIME_READY] = m->t_surface_ready;
+    /* An overshoot exists only once the setpoint was reached: a point that never got there
+     * has none (shown "-"), not an overshoot of 0. */
+    v[TP_MET_OVERSHOOT_READING] = isfinite(m->t_setpoint) ? m->overshoot_reading : TP_UNSET;
+    v[TP_MET_OVERSHOOT_SURFACE] = isfinite(m->t_setpoint) ? m->overshoot_surface : TP_UNSET;
+    v[TP_MET_STEADY_OFFSET] = m->steady_offset;
+    v[TP_MET_LAG] = m->lag;
+    v[TP_MET_ENERGY_READY] = m->energy_to_ready;
+    v[TP_MET_POWER_MEAN] = m->power_mean;
+    v[TP_MET_POWER_PEAK] = m->power_peak;
+    v[TP_MET_CURRENT_PEAK] = m->current_peak;
+    v[TP_MET_SURFACE_MAX] = m->surface_max;
+    v[TP_MET_HOLD_POWER] = m->hold_power;
+    v[TP_MET_HOLD_DUTY] = m->hold_duty;
+    v[TP_MET_HIGHEST] = m->highest_reachable;
     /* Margin: what the heater could deliver at the holding temperatures (its power at
      * max_duty there) over what holding takes. The power at duty u is u times the on-power
      * at those temperatures, so the ratio is max_duty / holding duty. */
-    v[TP_SM_MARGIN] = TP_UNSET;
+    v[TP_MET_MARGIN] = TP_UNSET;
     if (net->has_control && isfinite(m->hold_duty) && m->hold_duty > 0)
-        v[TP_SM_MARGIN] = net->sources[net->control.source].max_duty / m->hold_duty;
+        v[TP_MET_MARGIN] = net->sources[net->control.source].max_duty / m->hold_duty;
 }
 
 static void run_point(worker *wk, tp_desc *desc, long i)
@@ -805,7 +768,7 @@ static void run_point(worker *wk, tp_desc *desc, long i)
     int k;
     memset(res, 0, sizeof *res);
     memset(&w, 0, sizeof w);
-    for (k = 0; k < TP_SM_COUNT; k++)
+    for (k = 0; k < TP_MET_COUNT; k++)
         res->metric[k] = TP_UNSET;
     for (k = 0; k < plan->n_params; k++) {
         double v = tp_sweep_value(plan, i, k);
@@ -850,7 +813,7 @@ static void *work(void *arg)
         } else {
             int k;
             memset(&p->results[i], 0, sizeof p->results[i]);
-            for (k = 0; k < TP_SM_COUNT; k++)
+            for (k = 0; k < TP_MET_COUNT; k++)
                 p->results[i].metric[k] = TP_UNSET;
             snprintf(p->results[i].reason, sizeof p->results[i].reason, "out of memory");
         }

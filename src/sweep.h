@@ -9,6 +9,7 @@
 
 #include "desc.h"
 #include "diag.h"
+#include "metricdef.h"
 #include "network.h"
 #include "report.h"
 #include "status.h"
@@ -20,44 +21,9 @@
 #define TP_SWEEP_MAX_JOBS 256      /* worker threads */
 #define TP_SWEEP_PATH_MAX 128      /* longest key path, bytes incl. NUL */
 #define TP_SWEEP_REASON_MAX 240    /* longest failure reason kept per point, bytes incl. NUL */
+#define TP_SWEEP_UNIT_MAX 32       /* longest unit text kept per parameter, bytes incl. NUL */
 
-/* The metrics kept per point, in output order. Definitions: docs/metrics.md and docs/sweep.md. */
-typedef enum tp_sweep_metric {
-    TP_SM_TIME_SETPOINT,     /* s, the reading first reaches the setpoint */
-    TP_SM_TIME_READY,        /* s, the working surface settles within the ready band */
-    TP_SM_OVERSHOOT_READING, /* K */
-    TP_SM_OVERSHOOT_SURFACE, /* K */
-    TP_SM_STEADY_OFFSET,     /* K, reading minus surface at the holding point */
-    TP_SM_LAG,               /* s */
-    TP_SM_ENERGY_READY,      /* J drawn until the surface is ready */
-    TP_SM_POWER_MEAN,        /* W over the run */
-    TP_SM_POWER_PEAK,        /* W */
-    TP_SM_CURRENT_PEAK,      /* A */
-    TP_SM_SURFACE_MAX,       /* K, hottest working surface */
-    TP_SM_HOLD_POWER,        /* W at the holding point */
-    TP_SM_HOLD_DUTY,         /* - */
-    TP_SM_MARGIN,            /* -, available / holding power at the holding point */
-    TP_SM_HIGHEST,           /* K, the reading at the full-power equilibrium */
-    TP_SM_COUNT
-} tp_sweep_metric;
-
-/* How a metric is named and judged. */
-typedef struct tp_sweep_metric_info {
-    const char *key;    /* CSV column and JSON key, e.g. "time_to_setpoint_s" */
-    const char *label;  /* short text label, e.g. "to setpoint" */
-    const char *unit;   /* unit of the text tables, e.g. "min" */
-    double scale;       /* text value = (SI value - offset) * scale */
-    double offset;      /* e.g. 273.15 for temperatures shown in degC */
-    int worse;          /* +1: higher is worse, -1: lower is worse, 0: farther from zero */
-    int is_temperature; /* an absolute temperature (JSON/CSV in degC) */
-    int decimals;       /* digits after the point in text tables */
-} tp_sweep_metric_info;
-
-/* The row of the metric table; NULL when out of range. */
-const tp_sweep_metric_info *tp_sweep_metric_get(int metric);
-
-/* A metric by its key ("time_surface_ready_s") or -1. */
-int tp_sweep_metric_find(const char *key);
+/* The metrics kept per point: the table of src/metricdef.h (TP_MET_*), in its order. */
 
 typedef enum tp_sweep_mode { TP_SWEEP_GRID, TP_SWEEP_SPREAD } tp_sweep_mode;
 
@@ -68,6 +34,10 @@ typedef struct tp_sweep_param {
     char path[TP_SWEEP_PATH_MAX]; /* dotted key path, e.g. "heater.power" */
     tp_dim dim;
     double nominal; /* SI, the config's value */
+    /* The unit values are shown in to people: as written in the option ("mm" of
+     * "3mm:5mm:1mm"; for a spread, of its absolute numbers); "" when the option gave none
+     * (percentages), for the caller to fill (the config's unit, tp_confedit_unit). */
+    char unit[TP_SWEEP_UNIT_MAX];
     /* grid */
     double *values; /* SI, owned */
     long n_values;
@@ -94,6 +64,7 @@ void tp_sweep_plan_clear(tp_sweep_plan *plan);
 
 /* Add a grid axis from "key.path=FROM:TO:STEP" or "key.path=A,B,C" (values with the key's unit,
  * e.g. "heater.power=150W:400W:25W"; for an absolute temperature STEP is an interval, "2 K").
+ * The unit of FROM (or of A) becomes the parameter's unit.
  * The key must hold a value in `desc`. Errors (unknown key, bad unit, empty or too large range,
  * a value the schema refuses) go to `d` as usage errors; the plan is unchanged on failure. */
 tp_status tp_sweep_add_vary(tp_sweep_plan *plan, const tp_desc *desc, const char *text, tp_diag *d);
@@ -155,7 +126,7 @@ double tp_sweep_spearman(const double *x, const double *y, size_t n);
 /* What one point gave. */
 typedef struct tp_sweep_result {
     int ok;                     /* 1: the metrics hold; 0: failed (reason says why) */
-    double metric[TP_SM_COUNT]; /* SI; NaN where a metric does not exist for this point */
+    double metric[TP_MET_COUNT]; /* SI; NaN where a metric does not exist for this point */
     char reason[TP_SWEEP_REASON_MAX];
 } tp_sweep_result;
 
@@ -200,7 +171,7 @@ typedef struct tp_sweep_summary {
     long n;      /* successful samples with a finite value */
     long absent; /* successful samples where the metric does not exist (e.g. not reached) */
     double mean, sd, p5, p50, p95;
-    double worst;                    /* the worst finite value (tp_sweep_metric_info.worse) */
+    double worst;                    /* the worst finite value (tp_metricdef.worse) */
     long worst_index;                /* its sample index, or -1 */
     double rho[TP_SWEEP_MAX_PARAMS]; /* Spearman correlation with each parameter (NaN: none) */
     int driver;                      /* the parameter with the largest |rho|, or -1 */

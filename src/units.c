@@ -311,6 +311,26 @@ tp_status tp_units_from_si(double si, const char *unit, tp_dim dim, double *out)
     return TP_OK;
 }
 
+tp_status tp_units_unit_text(const char *text, char *unit, size_t size)
+{
+    double number;
+    const char *u;
+    size_t len;
+    if (size == 0)
+        return TP_ERR_CONFIG;
+    unit[0] = '\0';
+    if (!text || split_quantity(text, &number, &u) != 0)
+        return TP_ERR_CONFIG;
+    len = strlen(u);
+    while (len > 0 && isspace((unsigned char)u[len - 1]))
+        len--;
+    if (len >= size)
+        return TP_ERR_CONFIG;
+    memcpy(unit, u, len);
+    unit[len] = '\0';
+    return TP_OK;
+}
+
 void tp_units_shutdown(void)
 {
     pthread_mutex_lock(&lock);

@@ -47,6 +47,11 @@ tp_status tp_units_parse(const char *text, tp_dim dim, double *si, char *msg, si
  * Returns TP_ERR_CONFIG when the unit does not fit the dimension. */
 tp_status tp_units_from_si(double si, const char *unit, tp_dim dim, double *out);
 
+/* The unit text of a quantity ("mm" for "3 mm" or "3mm", "" for a bare number), without
+ * surrounding blanks, into unit. TP_ERR_CONFIG (unit set to "") when the text does not start
+ * with a number or the unit does not fit. */
+tp_status tp_units_unit_text(const char *text, char *unit, size_t size);
+
 /* The SI unit text of a dimension ("W/(m2.K)"), and an example value ("8 W/(m2.K)"). */
 const char *tp_units_si_name(tp_dim dim);
 const char *tp_units_example(tp_dim dim);

@@ -136,12 +136,14 @@ tp_status tp_warmup_plot(const char *path, const tp_session *s, const tp_warmup 
     size_t cells = (size_t)n * ((size_t)h->n_out + 8);
     double *buf = malloc(cells * sizeof *buf), *minutes, *power, *reading, *surface;
     tp_plot_series *temp_series = calloc((size_t)h->n_out + 4, sizeof *temp_series);
-    char(*labels)[TP_ID_MAX + 8] = calloc((size_t)h->n_out + 1, sizeof *labels);
+    char(*labels)[TP_ID_MAX + 16] = calloc((size_t)h->n_out + 1, sizeof *labels);
     tp_plot_series power_series[2];
     tp_plot_hline setpoint = {"setpoint", w->metrics.setpoint - TP_KELVIN_0C};
     tp_plot_panel panels[2];
     tp_plot_chart chart;
-    char title[256];
+    tp_plot_vline marks[TP_WARMUP_MARKS];
+    char title[256], mark_text[TP_WARMUP_MARKS][TP_WARMUP_MARK_TEXT];
+    int reading_col = tp_warmup_reading_column(net, h);
     tp_status st;
     if (!buf || !temp_series || !labels) {
         free(buf);
@@ -169,6 +171,8 @@ tp_status tp_warmup_plot(const char *path, const tp_session *s, const tp_warmup 
         for (i = 0; i < n; i++)
             col[i] = tp_history_temp(h, i, k) - TP_KELVIN_0C;
         tp_history_label(h, k, labels[k], sizeof labels[k]);
+        if (k == reading_col)
+            strncat(labels[k], " = reading", sizeof labels[k] - strlen(labels[k]) - 1);
         temp_series[ns++] = (tp_plot_series){labels[k], minutes, col, (size_t)n, 0, 0, 0};
     }
     if (isfinite(w->metrics.surface_max))
@@ -185,7 +189,7 @@ tp_status tp_warmup_plot(const char *path, const tp_session *s, const tp_warmup 
         temp_series[ns++] = (tp_plot_series){"surface hottest cell", minutes, hi, (size_t)n, 2, 0,
                                              0};
     }
-    if (net->has_control)
+    if (net->has_control && reading_col < 0)
         temp_series[ns++] = (tp_plot_series){"reading", minutes, reading, (size_t)n, 2, 0, 0};
     power_series[np++] = (tp_plot_series){"heater power", minutes, power, (size_t)n, 0, 0, 0};
     if (net->has_control)
@@ -196,10 +200,40 @@ tp_status tp_warmup_plot(const char *path, const tp_session *s, const tp_warmup 
                                 (size_t)np, NULL, 0, 1.0};
     snprintf(title, sizeof title, "%s", s->desc.title[0] ? s->desc.title : s->cli->file);
     chart = (tp_plot_chart){title, "time (min)", panels, 2, 0, 0};
-    st = tp_plot_chart_write(path, &chart, d);
+    st = tp_plot_chart_write_marked(path, &chart, marks,
+                                    tp_warmup_marks(&w->metrics, marks, mark_text), d);
     free(buf);
     free(temp_series);
     free(labels);
     return st;
 }
 
+int tp_warmup_reading_column(const tp_network *net, const tp_history *h)
+{
+    if (!net->has_control || net->control.reading.thermistor || net->control.reading.offset != 0.0)
+        return -1;
+    return tp_history_column(h, net->control.sensor);
+}
+
+size_t tp_warmup_marks(const tp_metrics *m, tp_plot_vline marks[TP_WARMUP_MARKS],
+                       char text[TP_WARMUP_MARKS][TP_WARMUP_MARK_TEXT])
+{
+    /* The times the metrics report (docs/metrics.md), by their fields: a change of their
+     * definitions moves the marks with them. */
+    const struct {
+        double t;
+        const char *what;
+    } times[TP_WARMUP_MARKS] = {{m->t_setpoint, "reading at setpoint"},
+                                {m->t_surface_ready, "surface ready"}};
+    char when[32];
+    size_t k, n = 0;
+    for (k = 0; k < TP_WARMUP_MARKS; k++) {
+        if (!isfinite(times[k].t))
+            continue;
+        tp_fmt_duration(times[k].t, when, sizeof when);
+        snprintf(text[n], TP_WARMUP_MARK_TEXT, "%s %s", times[k].what, when);
+        marks[n] = (tp_plot_vline){text[n], times[k].t / 60.0};
+        n++;
+    }
+    return n;
+}

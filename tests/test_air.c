@@ -27,7 +27,7 @@ typedef struct row {
 
 /* Incropera, DeWitt, Bergman & Lavine, Fundamentals of Heat and Mass Transfer, 6th/7th ed.,
  * Table A.4 "Air" (values recalled, and the same in several independent public transcriptions
- * that cite Table A.4: REFERENCES.md §3.1). The table's densities are those of an ideal gas at
+ * that cite Table A.4). The table's densities are those of an ideal gas at
  * about 1.000 bar, not 1 atm (1.1614 kg/m3 at 300 K implies p = 100.0 kPa), so rho, nu and
  * alpha are compared at p = 100000 Pa; k, mu, cp and Pr do not depend on pressure here. */
 static const row table_a4[] = {
@@ -48,7 +48,7 @@ static void check_row(const row *r, const tp_air *a, double tol)
 }
 
 /* Tolerance 1 %: Sutherland's law for mu and k is within 0.6 % of Table A.4 at 300..400 K and
- * cp within 0.2 %; the table itself prints 3-4 digits (REFERENCES.md recommends 1-2 %). */
+ * cp within 0.2 %; the table itself prints 3-4 digits. */
 static void test_air_props_table_a4(void **state)
 {
     (void)state;
@@ -60,8 +60,8 @@ static void test_air_props_table_a4(void **state)
 }
 
 /* Real-gas air at 101325 Pa from the Lemmon et al. (2000) equation of state (rho, cp) and
- * Lemmon & Jacobsen (2004) transport (mu, k), computed with the CalebBell/chemicals code:
- * REFERENCES.md §3.2 [CALC]. Columns: T, rho, cp, mu, k. */
+ * Lemmon & Jacobsen (2004) transport (mu, k), computed with the CalebBell/chemicals code
+ * (J. Phys. Chem. Ref. Data 29:331; Int. J. Thermophys. 25:21). Columns: T, rho, cp, mu, k. */
 static const double lemmon_1atm[][5] = {
     {250.0, 1.4130, 1005.8, 160.38e-7, 22.564e-3},
     {300.0, 1.1767, 1006.6, 185.37e-7, 26.384e-3},
@@ -71,7 +71,7 @@ static const double lemmon_1atm[][5] = {
 
 /* Tolerances: ideal-gas rho within 0.1 % of the real gas at 1 atm; ideal-gas cp 0.3 % (the
  * real-gas excess at 1 atm is about 0.16 % at 300 K); Sutherland mu 1.4 % and k 1.6 % (both
- * spreads measured in REFERENCES.md §3.3 over 250..500 K). */
+ * spreads over 250..500 K, hand calculation against the Lemmon-Jacobsen values). */
 static void test_air_props_lemmon_1atm(void **state)
 {
     (void)state;

@@ -225,7 +225,7 @@ static void test_budget_over_rating_warns_and_strict_exits_3(void **state)
     int warned = 0;
     (void)state;
     /* 8 A of rating against about 12 A at cold start: the supply check must say WARN, and
-     * --strict turns that into exit status 3 (README.md, exit status). */
+     * --strict turns that into exit status 3 (docs/user-guide.md, exit status). */
     snprintf(cfg, sizeof cfg, BUDGET_BED, "8 A");
     root = run_json("budget", cfg, NULL, 0);
     cJSON_ArrayForEach(c, cJSON_GetObjectItemCaseSensitive(root, "checks"))

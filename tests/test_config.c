@@ -83,7 +83,7 @@ typedef struct bad_case {
 } bad_case;
 
 /* Each case changes one thing in the valid file. Messages are tepid's own wording; what they
- * must say comes from issue 2 items 2-3 and DESIGN.md (config contract). */
+ * must say comes from issue 2 items 2-3 and docs/user-guide.md (quantities and units). */
 static const bad_case bad_cases[] = {
     /* A bare number for a dimensional key. */
     {{"640", "", "", "120 W", "", ""},
@@ -214,7 +214,7 @@ static const bad_case bad_cases[] = {
 };
 
 /* Issue 2 items 2-3: each error is printed as FILE:LINE:COL: key.path: message (LINE:COL of
- * the offending value, key or section) plus a hint, the exit status is 2 (DESIGN.md: usage
+ * the offending value, key or section) plus a hint, the exit status is 2 (docs/user-guide.md: usage
  * or input error), nothing goes to standard output, and no output file is written (--csv
  * names a path that must not exist afterwards). */
 static void test_config_errors_by_message_and_status(void **state)
@@ -373,7 +373,7 @@ static void steady_with_set(tp_scratch *s, const char *set, double *plate, doubl
     remove(json);
 }
 
-/* --set key.path=value overrides any key (DESIGN.md), hand calculations T = 21 + P/G:
+/* --set key.path=value overrides any key (docs/user-guide.md), hand calculations T = 21 + P/G:
  *   a list item by id:  network.sources.pad.power=60 W       -> 21 + 60/1.6 = 58.5 degC
  *   a list item by index, nested: network.links.0.conductance=2.4 W/K -> 21 + 120/2.4 = 71
  *   a new section:      control={...on-off, setpoint: 50 degC} -> holding power

@@ -24,7 +24,7 @@ static tp_control make_control(tp_mode mode, double setpoint, double band, doubl
 
 /* ---- on-off --------------------------------------------------------------------------------- */
 
-/* DESIGN.md (control, on-off): off when reading >= setpoint + band/2, on when reading <=
+/* docs/control.md (on-off): off when reading >= setpoint + band/2, on when reading <=
  * setpoint - band/2, otherwise unchanged; at t = 0 on if reading < setpoint. Setpoint 373 K,
  * band 2 K: edges 374 K and 372 K. */
 static void test_onoff_switching_rules(void **state)
@@ -257,7 +257,7 @@ static void test_pid_integrator_clamped(void **state)
 
 /* ---- thermistor reading --------------------------------------------------------------------- */
 
-/* A 100 kOhm (25 degC), B = 3950 K NTC (a common trade value, REFERENCES.md §6.4) at the
+/* A 100 kOhm (25 degC), B = 3950 K NTC (a common trade value, common practice, no source) at the
  * bottom of a divider: 4.7 kOhm from 3.3 V (common practice, no source), 12-bit ADC with a
  * 3.3 V reference. */
 static tp_reading_model ntc(void)
@@ -274,10 +274,11 @@ static tp_reading_model ntc(void)
     return m;
 }
 
-/* Beta equation R = R25 exp(B (1/T - 1/T25)), T25 = 298.15 K (REFERENCES.md §6.4, [CALC]
- * table): R(60 degC) = 24861.6, R(100 degC) = 6975.2, R(200 degC) = 744.6 ohm. Tolerance half
- * a unit of the printed 0.1 ohm. The inverse returns the temperature within the resistance
- * rounding divided by |dR/dT| = B R / T^2 (at least 2.1 ohm/K at 200 degC: 0.024 K). */
+/* Beta equation R = R25 exp(B (1/T - 1/T25)), T25 = 298.15 K (the Beta model, common practice,
+ * no source; values by hand calculation): R(60 degC) = 24861.6, R(100 degC) = 6975.2,
+ * R(200 degC) = 744.6 ohm. Tolerance half a unit of the printed 0.1 ohm. The inverse returns the
+ * temperature within the resistance rounding divided by |dR/dT| = B R / T^2 (at least 2.1 ohm/K
+ * at 200 degC: 0.024 K). */
 static void test_thermistor_beta_table(void **state)
 {
     static const double rows[][2] = {{60.0, 24861.6}, {100.0, 6975.2}, {200.0, 744.6}};

@@ -44,15 +44,15 @@ static void test_nu_horizontal_up_formula(void **state)
     assert_int_equal(oor, 0);
     /* Open-library check value: CalebBell/ht doctest Nu_horizontal_plate_McAdams(Pr=5.54,
      * Gr=3.21e8) = 181.73121274384457, the 0.15 Ra^1/3 form (McAdams, Heat Transmission, 3rd
-     * ed.), the same as Incropera Eq. 9.31 (REFERENCES.md §1.4). */
+     * ed.), the same as Incropera Eq. 9.31 (from memory). */
     check_rel("Nu(McAdams)", tp_nu_horizontal_up(5.54 * 3.21e8, &oor), 181.73121274384457,
               FORMULA_TOL);
     assert_int_equal(oor, 0);
 }
 
-/* Eq. 9.30 holds up to Ra = 1e7, Eq. 9.31 from 1e7 (Incropera; the same switch in the open
- * codes listed in REFERENCES.md §1.1). Closed-form values on each side. The forms do not meet:
- * at 1e7 they give 30.366 and 32.317, a +6.4 % step that tp_conv_h inherits. */
+/* Eq. 9.30 holds up to Ra = 1e7, Eq. 9.31 from 1e7 (Incropera; McAdams, Heat Transmission,
+ * 3rd ed., switches there too, from memory). Closed-form values on each side. The forms do not
+ * meet: at 1e7 they give 30.366 and 32.317, a +6.4 % step that tp_conv_h inherits. */
 static void test_nu_horizontal_up_switch_at_1e7(void **state)
 {
     int oor = -1;
@@ -89,8 +89,8 @@ static void test_nu_horizontal_down_formula(void **state)
     /* Incropera Eq. 9.32, 0.52 Ra^1/5: closed form at Ra = 1e6. */
     check_rel("Nu(1e6)", tp_nu_horizontal_down(1.0e6, &oor), 8.2414446007977901, FORMULA_TOL);
     assert_int_equal(oor, 0);
-    /* Ra = 1.38e8 of the duct bottom in Incropera Example 9.3 (inputs from memory; REFERENCES.md
-     * §7(b) gives Nu = 22.1 with this form): closed form 22.07898787177517. */
+    /* Ra = 1.38e8 of the duct bottom in Incropera Example 9.3 (inputs from memory; a hand
+     * calculation gives Nu = 22.1 with this form): closed form 22.07898787177517. */
     check_rel("Nu(1.38e8)", tp_nu_horizontal_down(1.38e8, &oor), 22.07898787177517, FORMULA_TOL);
     assert_int_equal(oor, 0);
     /* Outside 1e4..1e9: same form, flagged. */
@@ -108,7 +108,7 @@ static void test_nu_vertical_churchill_chu_published(void **state)
     (void)state;
     /* Open-library check value: CalebBell/ht doctest Nu_vertical_plate_Churchill(Pr=0.69,
      * Gr=2.63e9) = 147.16185223770603 (Churchill & Chu 1975 full-range form, Incropera Eq.
-     * 9.26; the inputs of Incropera Example 9.2), REFERENCES.md §1.4. */
+     * 9.26; the inputs of Incropera Example 9.2). */
     check_rel("Nu(ht)", tp_nu_vertical_churchill_chu(0.69 * 2.63e9, 0.69, &oor), 147.16185223770603,
               FORMULA_TOL);
     assert_int_equal(oor, 0);
@@ -129,7 +129,7 @@ static void test_nu_flat_plate_forced_laminar(void **state)
     (void)state;
     /* Open-library check value: CalebBell/ht doctest Nu_horizontal_plate_laminar_Baehr(1e5,
      * 0.7) = 186.4378528752262, whose 0.6 < Pr < 10 branch is 0.664 Re^1/2 Pr^1/3, Incropera
-     * Eq. 7.30 (REFERENCES.md §2). */
+     * Eq. 7.30 (equation number from memory). */
     check_rel("Nu(1e5, 0.7)", tp_nu_flat_plate_forced(1.0e5, 0.7, &oor), 186.4378528752262,
               FORMULA_TOL);
     assert_int_equal(oor, 0);
@@ -143,7 +143,7 @@ static void test_nu_flat_plate_forced_mixed(void **state)
 {
     int oor = -1;
     (void)state;
-    /* (0.037 Re^4/5 - 871) Pr^1/3, Incropera Eq. 7.38 (REFERENCES.md §2): closed form at
+    /* (0.037 Re^4/5 - 871) Pr^1/3, Incropera Eq. 7.38 (from memory): closed form at
      * (1e6, 0.7) and (1e7, 0.71). */
     check_rel("Nu(1e6, 0.7)", tp_nu_flat_plate_forced(1.0e6, 0.7, &oor), 1299.4849535257332,
               FORMULA_TOL);
@@ -176,7 +176,7 @@ static void test_conv_mixed_rule(void **state)
 {
     (void)state;
     /* (3^3 + 4^3)^(1/3) = 91^(1/3): closed form. Churchill (1977) rule, n = 3, Incropera
-     * Sec. 9.9 (rule and exponent from memory; REFERENCES.md §2). */
+     * Sec. 9.9 (rule and exponent from memory). */
     check_rel("mix(3,4)", tp_conv_mixed(3.0, 4.0), 4.4979414452754148, FORMULA_TOL);
     check_rel("mix(4,3)", tp_conv_mixed(4.0, 3.0), 4.4979414452754148, FORMULA_TOL);
     /* One side zero returns the other exactly (contract). */
@@ -192,9 +192,9 @@ static void test_conv_mixed_rule(void **state)
 static void test_length_horizontal_rectangles(void **state)
 {
     (void)state;
-    /* L = A/P (Incropera Eq. 9.29): a 235 mm square gives 58.75 mm (REFERENCES.md §1.0). */
+    /* L = A/P (Incropera Eq. 9.29): a 235 mm square gives 58.75 mm (hand calculation). */
     check_rel("L(235 mm square)", tp_length_horizontal(0.235, 0.235), 0.05875, 1.0e-14);
-    /* Cengel & Ghajar's 0.6 m square plate: L_c = 0.15 m (REFERENCES.md §7(b), from memory). */
+    /* Cengel & Ghajar's 0.6 m square plate: L_c = 0.15 m (from memory). */
     check_rel("L(0.6 m square)", tp_length_horizontal(0.6, 0.6), 0.15, 1.0e-14);
     /* Hand calculation: 0.25 x 0.21 / (2 x 0.46) = 0.057065217391304348 m. */
     check_rel("L(250 x 210)", tp_length_horizontal(0.25, 0.21), 0.057065217391304348, 1.0e-14);
@@ -208,7 +208,7 @@ static void test_length_horizontal_rectangles(void **state)
 /* ---- tp_conv_h end to end ---------------------------------------------------------------- */
 
 /* Cengel & Ghajar, Heat and Mass Transfer, ch. 9 example "cooling of a plate in different
- * orientations" (inputs and answers from memory, REFERENCES.md §7(b)): 0.6 m x 0.6 m plate at
+ * orientations" (inputs and answers from memory): 0.6 m x 0.6 m plate at
  * 90 degC, air at 30 degC. With the book's properties at 60 degC: Ra = 1.195e7, hot side up
  * Nu = 0.15 Ra^1/3 = 34.3, h = 6.42 W/(m2.K), Q = 139 W (book about 138 W). Tolerance 5 %:
  * Cengel's air table differs from ours by up to 2.4 % in k, and g = 9.81 there. */
@@ -230,7 +230,7 @@ static void test_conv_h_cengel_hot_side_up(void **state)
 
 /* Same plate, hot side down. The book uses 0.27 Ra^1/4 (64.5 W, from memory); with the 7th-ed.
  * Incropera Eq. 9.32 and the book's properties the hand calculation gives Nu = 0.52 Ra^1/5,
- * Q = 54.7 W (REFERENCES.md §7(b)). Tolerance 5 % as above. */
+ * Q = 54.7 W. Tolerance 5 % as above. */
 static void test_conv_h_cengel_hot_side_down(void **state)
 {
     tp_conv_info info;
@@ -242,8 +242,8 @@ static void test_conv_h_cengel_hot_side_down(void **state)
     assert_non_null(strstr(info.method, "Eq. 9.32"));
 }
 
-/* Incropera Example 9.2 (glass fire screen, inputs and answer from memory, REFERENCES.md
- * §7(b)): 0.71 m high, 232 degC, room 23 degC; with Table A.4 at 400 K, Eq. 9.26 gives
+/* Incropera Example 9.2 (glass fire screen, inputs and answer from memory): 0.71 m
+ * high, 232 degC, room 23 degC; with Table A.4 at 400 K, Eq. 9.26 gives
  * h = 7.00 W/(m2.K) (book about 7.0; q = 1060 W for 1.02 m width). Tolerance 3 %: our
  * properties differ from Table A.4 by < 1 %, g = 9.8 in the book, and its rounding. */
 static void test_conv_h_incropera_9_2_vertical(void **state)
@@ -259,7 +259,7 @@ static void test_conv_h_incropera_9_2_vertical(void **state)
     assert_int_equal(info.out_of_range, 0);
 }
 
-/* Bed-scale values of REFERENCES.md §7(b) [CALC]: 235 mm square plate (L = 58.75 mm) in air at
+/* Bed-scale values (hand calculation, not published): 235 mm square plate (L = 58.75 mm) in air at
  * 25 degC, properties from Lemmon (2000) / Lemmon-Jacobsen (2004) at the film temperature,
  * g = 9.80665, beta = 1/T_f, Incropera Eqs. 9.30 (up) and 9.32 (down). Tolerance 1 %: our
  * property fits are within 1 % of Lemmon's at 300..400 K (test_air) and h goes as about

@@ -1,5 +1,6 @@
-/* Tests of `tepid explain` through the binary: the JSON contract of DESIGN.md, the radiation
- * linearisation at --at, and every demo in configs/ through check, explain, warmup and steady. */
+/* Tests of `tepid explain` through the binary: the JSON contract of docs/user-guide.md, the
+ * radiation linearisation at --at, and every demo in configs/ through check, explain, warmup
+ * and steady. */
 #include <stdarg.h>
 #include <stddef.h>
 #include <stdint.h>
@@ -203,7 +204,7 @@ static void test_explain_default_state_is_steady(void **state)
     cJSON_Delete(root);
 }
 
-/* DESIGN.md, explain --json: `nodes`, an array of {id, capacity_J_per_K} or {id, fixed_C};
+/* docs/user-guide.md, explain --json: `nodes`, an array of {id, capacity_J_per_K} or {id, fixed_C};
  * `links`, an array of {between: [a, b], law, conductance_W_per_K}, law one of conduction,
  * convection, radiation; convection adds h_W_per_m2K and area_m2, radiation area_m2 and
  * emissivity. Values by hand: C plate = 2500 * 800 * 0.02 * 0.005 = 200 J/K, C sheet =
@@ -274,7 +275,7 @@ static void test_explain_json_contract(void **state)
 }
 
 /* The raw form's laws come out unchanged: h = coefficient, G = h A = 9 * 0.05 = 0.45 W/K, and
- * radiation with its own emissivity (the DESIGN.md example values). */
+ * radiation with its own emissivity (the example values of docs/user-guide.md). */
 static void test_explain_json_raw_links(void **state)
 {
     static const char raw[] =
@@ -342,7 +343,7 @@ static void test_explain_demos_run(void **state)
 }
 
 /* The mains demo carries the mains cautions in its file and in tepid's output (issue 3 item 8;
- * the cautions are common practice for mains heaters, no source: REFERENCES.md §9). */
+ * the cautions are common practice for mains heaters, no source). */
 static void test_explain_mains_demo_cautions(void **state)
 {
     char path[TP_TEST_PATH], *file;

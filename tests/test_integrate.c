@@ -1,12 +1,12 @@
 /* Tests for integrate.c (with network.c and history.c): CVODE runs against closed-form
  * lumped-capacitance solutions, the energy totals against the stored energy, and the CSV
- * written by `tepid warmup` against the DESIGN.md contract. */
+ * written by `tepid warmup` against the contract of docs/user-guide.md. */
 #include "tp_test.h"
 
 #include "history.h"
 #include "integrate.h"
 
-#define SIGMA 5.670374419e-8 /* W/(m2.K4), CODATA 2018 (REFERENCES.md §4.1) */
+#define SIGMA 5.670374419e-8 /* W/(m2.K4), CODATA 2018 */
 
 /* Global error bound used throughout. CVODE keeps each step's local error estimate within
  * rtol |T| + atol, atol = rtol x 10 K on temperatures (integrate.c, TP_ATOL_KELVIN). All the
@@ -68,8 +68,8 @@ static tp_network *one_node(void)
 }
 
 /* Lumped capacitance with constant heating: T(t) = Ta + (P/G)(1 - exp(-t/tau)), tau = C/G
- * (Incropera, Fundamentals of Heat and Mass Transfer, 7th ed., §5.2, Eqs. 5.6-5.7, from memory;
- * REFERENCES.md §7(a)). Every 10 s sample over 5 tau, at rtol 1e-6 and at 1e-9. */
+ * (Incropera, Fundamentals of Heat and Mass Transfer, 7th ed., §5.2, Eqs. 5.6-5.7, from memory).
+ * Every 10 s sample over 5 tau, at rtol 1e-6 and at 1e-9. */
 static void test_integrate_one_node_closed_form(void **state)
 {
     static const double rtols[] = {1.0e-6, 1.0e-9};
@@ -92,7 +92,7 @@ static void test_integrate_one_node_closed_form(void **state)
 }
 
 /* The first-order response reaches 1 - e^-n of its rise after n time constants: 0.632121 at
- * tau, 0.950213 at 3 tau, 0.993262 at 5 tau (REFERENCES.md §7(d), [CALC]; the 63.2 % rule,
+ * tau, 0.950213 at 3 tau, 0.993262 at 5 tau (closed form; the 63.2 % rule,
  * Incropera 7th ed. §5.2, from memory). Run at rtol 1e-9: tolerance half a unit of the sixth
  * decimal plus the integration bound divided by the 75 K rise. */
 static void test_integrate_one_node_time_constant(void **state)
@@ -119,7 +119,7 @@ static void test_integrate_one_node_time_constant(void **state)
 
 /* ---- two coupled nodes ---------------------------------------------------------------------- */
 
-/* REFERENCES.md §7(e): heater 1 - plate 2 - ambient, C1 = 50 J/K, C2 = 800 J/K, G12 = 5 W/K,
+/* Heater 1 - plate 2 - ambient (a hand-built case), C1 = 50 J/K, C2 = 800 J/K, G12 = 5 W/K,
  * G1a = 0.05 W/K, G2a = 0.8 W/K, P = 200 W into node 1, Ta = T1(0) = T2(0) = 25 degC. Written
  * in the raw network form so the config reader and assembly are on the path too. */
 #define TWO_NODE_YAML                                                                              \
@@ -137,7 +137,7 @@ static void test_integrate_one_node_time_constant(void **state)
     "run: {duration: 1 h, step: 10 s, tolerance: %s}\n"
 
 /* The eigen-solution of x' = A x + b for the 2x2 system above (standard linear ODE theory,
- * REFERENCES.md §7(e)): T(t) = T_ss + sum_i c_i v_i exp(lambda_i t), temperatures in degC. */
+ * closed form): T(t) = T_ss + sum_i c_i v_i exp(lambda_i t), temperatures in degC. */
 typedef struct eigen2 {
     double lambda[2], v[2][2], c[2], tss[2];
 } eigen2;
@@ -172,8 +172,8 @@ static double eigen2_at(const eigen2 *e, int node, double t)
            e->c[1] * e->v[1][node] * exp(e->lambda[1] * t);
 }
 
-/* The table of REFERENCES.md §7(e) ([CALC]; analytic solution checked there against scipy to
- * 1e-8 K), values in degC printed to 5 decimals. */
+/* The eigen-solution above evaluated by hand calculation (lambda = -0.0010000 and -0.10725 1/s,
+ * T_ss = 295.39627 and 258.10023 degC), values in degC printed to 5 decimals. */
 static const double two_node_table[][3] = {
     {10.0, 50.43309, 25.89797},    {60.0, 73.74830, 36.51210},     {300.0, 121.08610, 83.79006},
     {600.0, 166.26412, 128.96808}, {1800.0, 256.50241, 219.20638}, {3600.0, 288.96716, 251.67112},
@@ -244,8 +244,7 @@ static void test_integrate_two_node_eigen(void **state)
 
 /* Time for a lumped body (capacity per area k = rho V c / A, emissivity eps) to cool by
  * radiation alone from Ti to T in surroundings at Tsur (Bejan & Kraus, Heat Transfer Handbook,
- * Wiley 2003, Eq. 3.283; the same form as Incropera 7th ed. Eq. 5.18, from memory;
- * REFERENCES.md §7(c)):
+ * Wiley 2003, Eq. 3.283; the same form as Incropera 7th ed. Eq. 5.18, from memory):
  *   t = k / (4 eps sigma Tsur^3) { ln|(Tsur + T)/(Tsur - T)| - ln|(Tsur + Ti)/(Tsur - Ti)|
  *                                  + 2 [atan(T/Tsur) - atan(Ti/Tsur)] } */
 static double radiative_cooling_time(double k, double eps, double ti, double tsur, double t)
@@ -255,7 +254,7 @@ static double radiative_cooling_time(double k, double eps, double ti, double tsu
             2.0 * (atan(t / tsur) - atan(ti / tsur)));
 }
 
-/* Check value (REFERENCES.md §7(c), [CALC], confirmed there by an rtol 1e-12 ODE solution):
+/* Check value (the closed form above, hand calculation):
  * eps = 1, rho V c / A = 5000 J/(m2.K), Ti = 400 K, Tsur = 300 K: t(350 K) = 399.0762 s.
  * Here a 1 m2 node of 5000 J/K. (1) the closed form above gives 399.0762 s to half a unit of
  * the last digit; (2) CVODE at rtol 1e-10 ends at 350 K after 399.0762 s, within the rounding
@@ -361,7 +360,7 @@ static void test_integrate_energy_balance_onoff_radiation(void **state)
 }
 
 /* The same with the coil alone (an electric source whose power falls as its resistance rises,
- * P = V^2 / (R0 (1 + alpha (T - Tref))), DESIGN.md), so the delivered total is compared with
+ * P = V^2 / (R0 (1 + alpha (T - Tref))), docs/control.md), so the delivered total is compared with
  * an independent quadrature: the trapezoidal rule over the 1 s samples of the recorded power,
  * whose error is below (t_end h^2 / 12) max|P''| ~ 5e-3 J here (P falls by tens of watts over
  * a time constant of about 1800 s). The delivered total is itself a CVODE state with local
@@ -467,14 +466,15 @@ static char *warmup_csv(tp_scratch *s, const char *control)
     return text;
 }
 
-/* DESIGN.md "Output formats": a header row, then one row per output step; columns time_s,
+/* docs/user-guide.md "Outputs": a header row, then one row per output step; columns time_s,
  * <id>_C for every node with capacity in declaration order (the fixed node is skipped),
  * <source-id>_W for every source, then duty (and reading_C) with a controller; decimal point,
  * comma separator, no units in cells. Rows on the run.step grid: 1 min at 5 s is 13 rows at
  * t = 0, 5, ..., 60 s. First-row values by hand: a at 21 degC, b at 30 degC; p1 fully on
- * (the reading 30 degC is below the 60 degC setpoint, DESIGN.md: "at t = 0 on if reading <
- * setpoint") gives 80 W; p2 = V^2 / (R0 (1 + alpha (T - Tref))) = 576 / (480 x 1.04) =
- * 1.15384615 W. Tolerance 1e-8 relative: the cells carry 9 significant digits. */
+ * (the reading 30 degC is below the 60 degC setpoint, docs/control.md: "at t = 0 on when the
+ * reading is below the setpoint") gives 80 W; p2 = V^2 / (R0 (1 + alpha (T - Tref))) =
+ * 576 / (480 x 1.04) = 1.15384615 W. Tolerance 1e-8 relative: the cells carry 9 significant
+ * digits. */
 static void test_integrate_csv_columns_with_control(void **state)
 {
     static const char *const header[] = {"time_s", "a_C",  "b_C",      "p1_W",
@@ -505,7 +505,8 @@ static void test_integrate_csv_columns_with_control(void **state)
     tp_scratch_destroy(&s);
 }
 
-/* Without a controller there is no duty column (DESIGN.md), and every source is fully on. */
+/* Without a controller there is no duty column (docs/user-guide.md), and every source is fully
+ * on. */
 static void test_integrate_csv_columns_without_control(void **state)
 {
     tp_scratch s;

@@ -691,6 +691,194 @@ static void test_map_bad_input_rejected(void **state)
     assert_no_temp_files("badmap.png");
 }
 
+/* ---- title wrapping and label placement ------------------------------------------------- */
+
+/* Characters (not bytes) of a UTF-8 string. */
+static size_t utf8_chars(const char *s)
+{
+    size_t n = 0;
+    for (; *s; s++)
+        n += ((unsigned char)*s & 0xC0) != 0x80;
+    return n;
+}
+
+static void test_wrap_title_short_and_empty(void **state)
+{
+    char lines[TP_PLOT_TITLE_LINES][TP_PLOT_LINE_BYTES];
+    (void)state;
+    assert_int_equal(tp_plot_wrap_title("Warm-up", 40, 2, lines), 1);
+    assert_string_equal(lines[0], "Warm-up");
+    /* surrounding blanks dropped, control characters read as blanks */
+    assert_int_equal(tp_plot_wrap_title("  a\tb  ", 40, 2, lines), 1);
+    assert_string_equal(lines[0], "a b");
+    assert_int_equal(tp_plot_wrap_title("", 40, 2, lines), 0);
+    assert_int_equal(tp_plot_wrap_title("   ", 40, 2, lines), 0);
+    assert_int_equal(tp_plot_wrap_title(NULL, 40, 2, lines), 0);
+}
+
+/* Prose wraps at blanks: every line within the width, nothing lost (the lines joined by one
+ * blank give the title back). The break goes at the last blank that fits: by hand, width 30
+ * puts "a 24 V build plate with a" (25 characters; adding " silicone" would make 34) first. */
+static void test_wrap_title_prose_at_blanks(void **state)
+{
+    static const char title[] = "a 24 V build plate with a silicone pad and cork";
+    char lines[TP_PLOT_TITLE_LINES][TP_PLOT_LINE_BYTES], joined[2 * TP_PLOT_LINE_BYTES + 2];
+    int n;
+    (void)state;
+    n = tp_plot_wrap_title(title, 30, 2, lines);
+    assert_int_equal(n, 2);
+    assert_string_equal(lines[0], "a 24 V build plate with a");
+    assert_true(strlen(lines[0]) <= 30 && strlen(lines[1]) <= 30);
+    snprintf(joined, sizeof joined, "%s %s", lines[0], lines[1]);
+    assert_string_equal(joined, title);
+}
+
+/* A path too long for two lines: the second keeps its start and its end (the file name) and
+ * loses its middle to one ellipsis character; no line is wider than asked. */
+static void test_wrap_title_long_path_shortened(void **state)
+{
+    static const char title[] = "plate: fit to /tmp/a-rather-long-directory-name/for-measured-logs/"
+                                "from-the-bench/workshop-bed-24v-log.csv";
+    char lines[TP_PLOT_TITLE_LINES][TP_PLOT_LINE_BYTES];
+    const char *tail = "workshop-bed-24v-log.csv";
+    size_t len;
+    (void)state;
+    assert_int_equal(tp_plot_wrap_title(title, 40, 2, lines), 2);
+    assert_true(utf8_chars(lines[0]) <= 40);
+    assert_true(utf8_chars(lines[1]) <= 40);
+    assert_non_null(strstr(lines[1], "\xe2\x80\xa6"));
+    len = strlen(lines[1]);
+    assert_true(len > strlen(tail) && strcmp(lines[1] + len - strlen(tail), tail) == 0);
+    /* One line only: the same shortening on the whole title. */
+    assert_int_equal(tp_plot_wrap_title(title, 40, 1, lines), 1);
+    assert_true(utf8_chars(lines[0]) <= 40);
+    assert_int_equal(strncmp(lines[0], "plate: fit", 10), 0);
+}
+
+/* A word longer than a line is cut inside (a path without slashes); multi-byte characters
+ * are never split. */
+static void test_wrap_title_long_word_and_utf8(void **state)
+{
+    char lines[TP_PLOT_TITLE_LINES][TP_PLOT_LINE_BYTES];
+    char word[64];
+    size_t k;
+    (void)state;
+    memset(word, 'x', 30);
+    word[30] = '\0';
+    assert_int_equal(tp_plot_wrap_title(word, 10, 2, lines), 2);
+    assert_int_equal(strlen(lines[0]), 10);
+    assert_true(utf8_chars(lines[1]) <= 10);
+    /* "°C " repeated: 3 characters, 4 bytes each time. */
+    word[0] = '\0';
+    for (k = 0; k < 8; k++)
+        strcat(word, "\xc2\xb0"
+                     "C ");
+    assert_int_equal(tp_plot_wrap_title(word, 10, 2, lines), 2);
+    for (k = 0; k < 2; k++) {
+        const unsigned char *p = (const unsigned char *)lines[k];
+        assert_true(utf8_chars(lines[k]) <= 10);
+        for (; *p; p++) /* no lead byte without its continuation */
+            if (*p == 0xc2)
+                assert_int_equal(p[1], 0xb0);
+    }
+}
+
+static double box_overlap_area(const tp_plot_label *a, const tp_plot_label *b)
+{
+    double w = fmin(a->x0 + a->w, b->x0 + b->w) - fmax(a->x0, b->x0);
+    double h = fmin(a->y0 + a->h, b->y0 + b->h) - fmax(a->y0, b->y0);
+    return w > 0 && h > 0 ? w * h : 0.0;
+}
+
+/* No two boxes overlap, no box covers a marker (a square of half-side gap), every box inside the
+ * frame [0, 100] x [0, 80]. */
+static void assert_clean_placement(const tp_plot_label *l, size_t n, double gap)
+{
+    size_t i, j;
+    for (i = 0; i < n; i++) {
+        assert_true(l[i].x0 >= 0.0 && l[i].x0 + l[i].w <= 100.0);
+        assert_true(l[i].y0 >= 0.0 && l[i].y0 + l[i].h <= 80.0);
+        for (j = 0; j < n; j++) {
+            tp_plot_label mark = {0, 0, 2 * gap, 2 * gap, l[j].x - gap, l[j].y - gap};
+            if (j != i)
+                assert_true(box_overlap_area(&l[i], &l[j]) == 0.0);
+            assert_true(box_overlap_area(&l[i], &mark) == 0.0);
+        }
+    }
+}
+
+/* The case of the heat map: "sensor" and "hottest" a cell apart (markers 2.5 mm apart where a
+ * label is 4 mm high), where both labels used to go right of their markers into each other; also
+ * coincident markers, and a marker at the frame's right edge. */
+static void test_place_labels_without_overlap(void **state)
+{
+    tp_plot_label two[2] = {{50.0, 40.0, 20.0, 4.0, 0, 0}, {51.0, 42.5, 22.0, 4.0, 0, 0}};
+    tp_plot_label same[3] = {{50.0, 40.0, 20.0, 4.0, 0, 0},
+                             {50.0, 40.0, 22.0, 4.0, 0, 0},
+                             {50.0, 40.0, 18.0, 4.0, 0, 0}};
+    tp_plot_label edge[1] = {{98.0, 40.0, 20.0, 4.0, 0, 0}};
+    (void)state;
+    tp_plot_place_labels(two, 2, 1.5, 0.0, 0.0, 100.0, 80.0);
+    assert_clean_placement(two, 2, 1.5);
+    tp_plot_place_labels(same, 3, 1.5, 0.0, 0.0, 100.0, 80.0);
+    assert_clean_placement(same, 3, 1.5);
+    tp_plot_place_labels(edge, 1, 1.5, 0.0, 0.0, 100.0, 80.0);
+    assert_clean_placement(edge, 1, 1.5);
+    assert_true(edge[0].x0 + edge[0].w <= 98.0); /* went to the left of its marker */
+    /* A lone label in open space takes its usual place, right of the marker, centred (by hand:
+     * x0 = 50 + 1.5, y0 = 40 - 4/2). */
+    tp_plot_place_labels(two, 1, 1.5, 0.0, 0.0, 100.0, 80.0);
+    tp_check_abs("x0", two[0].x0, 51.5, 1e-12);
+    tp_check_abs("y0", two[0].y0, 38.0, 1e-12);
+}
+
+/* Every arrangement of three markers on a 5 mm lattice in the middle of the frame (closer than
+ * a label is long) gets a clean placement. */
+static void test_place_labels_lattice(void **state)
+{
+    int a, b;
+    (void)state;
+    for (a = 0; a < 9; a++)
+        for (b = 0; b < 9; b++) {
+            tp_plot_label l[3] = {{50.0, 40.0, 16.0, 4.0, 0, 0},
+                                  {45.0 + 5.0 * (a % 3), 35.0 + 5.0 * (a / 3), 14.0, 4.0, 0, 0},
+                                  {45.0 + 5.0 * (b % 3), 35.0 + 5.0 * (b / 3), 12.0, 4.0, 0, 0}};
+            tp_plot_place_labels(l, 3, 1.0, 0.0, 0.0, 100.0, 80.0);
+            assert_clean_placement(l, 3, 1.0);
+        }
+}
+
+/* Marked times: drawn (a PNG of the default size), a time off the x range left out without
+ * complaint, a count without an array refused. A title far too long for the width is accepted
+ * and wrapped, on charts and maps. */
+static void test_chart_marked_times_and_long_titles(void **state)
+{
+    static const tp_plot_vline marks[3] = {{"reading at setpoint 7 min 20 s", 7.33},
+                                           {"surface ready 7 min 50 s", 7.83},
+                                           {"late", 99.0}};
+    chart_fixture f;
+    tp_plot_map map;
+    char path[256];
+    tp_diag d;
+    (void)state;
+    tp_diag_init(&d, NULL);
+    make_chart(&f);
+    f.chart.title = "a title that runs on and on: fit to /tmp/a/rather/long/directory/name/for/"
+                    "the/measured/logs/of/the/workshop/bench/plate-warm-up-log-2026-12-02.csv";
+    path_in_dir(path, sizeof path, "marked.png");
+    assert_int_equal(tp_plot_chart_write_marked(path, &f.chart, marks, 3, &d), TP_OK);
+    assert_png(path, 1200, 800);
+    assert_int_equal(d.errors + d.warnings, 0);
+    assert_int_equal(tp_plot_chart_write_marked(path, &f.chart, NULL, 1, &d), TP_ERR_USAGE);
+    make_map(&map);
+    map.title = f.chart.title;
+    path_in_dir(path, sizeof path, "longmap.png");
+    tp_diag_init(&d, NULL);
+    assert_int_equal(tp_plot_map_write(path, &map, &d), TP_OK);
+    assert_png(path, 1000, 800);
+    assert_no_temp_files("marked.png");
+}
+
 /* Sanitizer builds: LeakSanitizer takes default options from this hook (sanitizer common
  * interface), here its suppressions of leaks inside PLplot's libraries (tests/lsan.supp).
  * Without the sanitizer nothing calls it. */
@@ -722,6 +910,13 @@ int main(int argc, char **argv)
         cmocka_unit_test(test_map_marker_off_the_map_left_out),
         cmocka_unit_test(test_map_missing_directory_writes_nothing),
         cmocka_unit_test(test_map_bad_input_rejected),
+        cmocka_unit_test(test_wrap_title_short_and_empty),
+        cmocka_unit_test(test_wrap_title_prose_at_blanks),
+        cmocka_unit_test(test_wrap_title_long_path_shortened),
+        cmocka_unit_test(test_wrap_title_long_word_and_utf8),
+        cmocka_unit_test(test_place_labels_without_overlap),
+        cmocka_unit_test(test_place_labels_lattice),
+        cmocka_unit_test(test_chart_marked_times_and_long_titles),
     };
     if (argc == 3 && strcmp(argv[1], CHILD_FLAG) == 0)
         return child_without_drivers(argv[2]);

@@ -84,17 +84,18 @@ static void test_labels_of_close_lines_stay_apart(void **state)
 }
 
 /* Whether any point of the series, or of its segments sampled every 1/200 of the x axis, lies
- * inside box `b` (panel coordinates). */
+ * inside box `b` (panel coordinates; a right-axis series against the right axis). */
 static int hides(const tp_plot_layout *l, const tp_plot_panel_layout *pl, const tp_plot_series *s,
                  const tp_plot_box *b)
 {
+    double lo = s->right_axis ? pl->y2lo : pl->ylo, hi = s->right_axis ? pl->y2hi : pl->yhi;
     size_t i;
     int k;
     for (i = 0; i + 1 < s->n; i++) {
         for (k = 0; k < 200; k++) {
             double f = k / 200.0;
             double u = (s->x[i] + f * (s->x[i + 1] - s->x[i]) - l->xlo) / (l->xhi - l->xlo);
-            double v = (s->y[i] + f * (s->y[i + 1] - s->y[i]) - pl->ylo) / (pl->yhi - pl->ylo);
+            double v = (s->y[i] + f * (s->y[i + 1] - s->y[i]) - lo) / (hi - lo);
             if (u > b->x0 && u < b->x1 && v > b->y0 && v < b->y1)
                 return 1;
         }
@@ -191,6 +192,81 @@ static void test_a_legend_with_a_free_corner_changes_nothing(void **state)
     tp_plot_layout_clear(&l);
 }
 
+static void test_marked_times_stay_clear_of_legend_and_labels(void **state)
+{
+    /* A reading held at 130 all along and one at 20 for the first half leave only the lower
+     * right corner free of data, and the right end of a reference line at 50 degC free for its
+     * label. A time marked near the right end puts its label there, along its line from the
+     * bottom of the panel up: the legend must go elsewhere (and make room), and the reference
+     * line's label too, both clear of the marked time's line and label. */
+    static const tp_plot_hline mid[] = {{"fan on", 50.0}};
+    static const tp_plot_vline marks[] = {{"surface ready 29 min", 29.0}, {"off the axis", 99.0}};
+    tp_plot_series s[] = {{"pinned", t_min, pinned_high, N, 0, 0, 0},
+                          {"cold start", t_min, cold, N / 2, 0, 0, 0}};
+    tp_plot_panel panel = {"reading (degC)", NULL, s, 2, mid, 1, 1.0};
+    tp_plot_chart chart = {"marks", "time (min)", &panel, 1, 0, 0};
+    tp_plot_layout l;
+    const tp_plot_panel_layout *pl;
+    const tp_plot_box *m;
+    double u;
+    size_t i;
+    tp_diag d;
+    (void)state;
+    make_data();
+    tp_diag_init(&d, NULL);
+    assert_int_equal(tp_plot_chart_layout_marked("layout.png", &chart, marks, 2, &l, &d), TP_OK);
+    pl = &l.panels[0];
+    m = &l.marks[0];
+    u = (29.0 - l.xlo) / (l.xhi - l.xlo);
+    assert_true(m->x0 < m->x1 && m->y0 < m->y1);
+    assert_true(m->x0 >= 0.0 && m->x1 <= 1.0 && m->y0 >= 0.0 && m->y1 <= 1.0);
+    assert_true(l.marks[1].x0 > l.marks[1].x1); /* off the x axis: left out */
+    assert_true(pl->legend_columns >= 1);
+    if (overlap(&pl->legend, m))
+        fail_msg("the legend covers the marked time's label");
+    if (u >= pl->legend.x0 && u <= pl->legend.x1)
+        fail_msg("the legend lies across the marked time");
+    for (i = 0; i < 2; i++)
+        if (hides(&l, pl, &s[i], &pl->legend))
+            fail_msg("the legend hides '%s'", s[i].label);
+    if (overlap(&pl->labels[0], m))
+        fail_msg("the labels of the reference line and the marked time overlap");
+    if (u >= pl->labels[0].x0 && u <= pl->labels[0].x1)
+        fail_msg("the marked time runs through the reference line's label");
+    tp_plot_layout_clear(&l);
+}
+
+static void test_legend_grows_a_panel_with_a_right_axis(void **state)
+{
+    /* A rising series on the left axis and a falling one on the right, crossing in the middle
+     * (a sweep's holding power and margin): every corner holds data. Both axes grow alike, by
+     * the same factor (hand calculation: the right axis spans 0.5 to 5.5 plus 5 % of that on
+     * each side, the left 50 to 130 likewise), and the legend hides neither series. */
+    static double x[11], power[11], margin[11];
+    tp_plot_series s[] = {{"holding power", x, power, 11, 0, 0, 0},
+                          {"margin", x, margin, 11, 1, 0, 1}};
+    tp_plot_panel panel = {"holding power (W)", "margin (x)", s, 2, NULL, 0, 1.0};
+    tp_plot_chart chart = {"right axis", "setpoint (degC)", &panel, 1, 0, 0};
+    tp_plot_layout l;
+    const tp_plot_panel_layout *pl;
+    int i;
+    (void)state;
+    for (i = 0; i <= 10; i++) {
+        x[i] = 60.0 + 5.0 * i;
+        power[i] = 50.0 + 8.0 * i;
+        margin[i] = 5.5 - 0.5 * i;
+    }
+    layout(&chart, &l);
+    pl = &l.panels[0];
+    assert_true(pl->legend_columns >= 1);
+    if (hides(&l, pl, &s[0], &pl->legend) || hides(&l, pl, &s[1], &pl->legend))
+        fail_msg("the legend hides a series");
+    /* grown from the plain fits 46..134 and 0.25..5.75, both axes by one factor */
+    assert_true((pl->yhi - pl->ylo) / 88.0 > 1.01);
+    tp_check_rel("same growth", (pl->yhi - pl->ylo) / 88.0, (pl->y2hi - pl->y2lo) / 5.5, 1e-9);
+    tp_plot_layout_clear(&l);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -198,6 +274,8 @@ int main(void)
         cmocka_unit_test(test_legend_hides_no_data_when_every_corner_has_some),
         cmocka_unit_test(test_a_label_keeps_its_colour_in_every_panel),
         cmocka_unit_test(test_a_legend_with_a_free_corner_changes_nothing),
+        cmocka_unit_test(test_marked_times_stay_clear_of_legend_and_labels),
+        cmocka_unit_test(test_legend_grows_a_panel_with_a_right_axis),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

@@ -33,7 +33,7 @@ static double pow4(double t)
 }
 
 /* The constant: CODATA 2018, sigma = 2 pi^5 k^4 / (15 h^3 c^2) with the exact SI values of
- * h, k, c is 5.670374419184429e-8 (REFERENCES.md §4.1, [CALC]); the 10-digit value agrees to
+ * h, k, c is 5.670374419184429e-8 (hand calculation); the 10-digit value agrees to
  * 4e-11 relative. */
 static void test_rad_constant_codata_2018(void **state)
 {
@@ -42,7 +42,7 @@ static void test_rad_constant_codata_2018(void **state)
 }
 
 /* Black body at 400 K into 0 K: sigma 400^4 = 1451.615851 W/m2, the CalebBell/ht doctest
- * q_rad(1, 400) re-evaluated with the 2018 sigma (REFERENCES.md §4.1). Tolerance 5e-10: the
+ * q_rad(1, 400) re-evaluated with the 2018 sigma (hand calculation). Tolerance 5e-10: the
  * printed digits. */
 static void test_rad_flux_black_400k(void **state)
 {
@@ -51,7 +51,7 @@ static void test_rad_flux_black_400k(void **state)
 }
 
 /* Incropera, DeWitt, Bergman & Lavine, Fundamentals of Heat and Mass Transfer, 7th ed.,
- * Example 1.2 (uninsulated steam pipe; inputs and answers from memory, REFERENCES.md §7(c)):
+ * Example 1.2 (uninsulated steam pipe; inputs and answers from memory):
  * D = 70 mm, T_s = 200 degC, T_sur = T_inf = 25 degC, eps = 0.8, h = 15 W/(m2.K).
  * Book: E = 2270 W/m2, G = 448 W/m2, q'_rad = 421 W/m, q' = 577 + 421 = 998 W/m. Tolerances:
  * half a unit of the book's last printed digit (E printed to 3 figures: +-5 W/m2). */
@@ -65,12 +65,12 @@ static void test_rad_flux_incropera_example_1_2(void **state)
     q_rad = tp_rad_flux(0.8, ts, tsur) * PI * d;
     check_abs("q'_rad", q_rad, 421.0, 0.5);
     check_abs("q'", q_rad + 15.0 * PI * d * (ts - tsur), 998.0, 0.5);
-    /* Equivalent h_r = q'_rad / (pi D (T_s - T_sur)) = 10.94 W/(m2.K) (REFERENCES.md §7(c),
-     * [CALC]); tolerance half a unit of the last digit. */
+    /* Equivalent h_r = q'_rad / (pi D (T_s - T_sur)) = 10.94 W/(m2.K) (hand
+     * calculation); tolerance half a unit of the last digit. */
     check_abs("h_r", tp_rad_h(0.8, ts, tsur), 10.94, 0.005);
 }
 
-/* REFERENCES.md §4.2 table [CALC]: h_r = eps sigma (T_s + T_sur)(T_s^2 + T_sur^2) for
+/* Hand calculation: h_r = eps sigma (T_s + T_sur)(T_s^2 + T_sur^2) for
  * T_sur = 298.15 K, printed to 3 decimals; tolerance half a unit of the last digit. */
 static void test_rad_h_reference_table(void **state)
 {
@@ -119,7 +119,7 @@ static void test_rad_flux_near_equilibrium(void **state)
 }
 
 /* Infinite parallel gray plates, 1/(1/e1 + 1/e2 - 1) (Incropera 7th ed. Table 13.3, from
- * memory; REFERENCES.md §4.2). Hand calculations: (0.9, 0.9) -> 9/11; (0.05, 0.9) -> 9/181;
+ * memory). Hand calculations: (0.9, 0.9) -> 9/11; (0.05, 0.9) -> 9/181;
  * black plates -> 1. */
 static void test_rad_eps_parallel_closed_form(void **state)
 {
@@ -136,7 +136,7 @@ static void test_rad_eps_parallel_closed_form(void **state)
 
 /* Body 1 enclosed by surface 2, 1/(1/e1 + (A1/A2)(1/e2 - 1)) (Incropera 7th ed. Table 13.3,
  * from memory; the same formula as Kreith, Principles of Heat Transfer, 7th ed., Eq. 9.74,
- * REFERENCES.md §4.2). Hand calculation: e1 = 0.8, A1/A2 = 1/4, e2 = 0.5 -> 1/1.5. Limits
+ * from memory). Hand calculation: e1 = 0.8, A1/A2 = 1/4, e2 = 0.5 -> 1/1.5. Limits
  * (closed form): A1/A2 -> 0 gives e1 (a small body in a large room); A1 = A2 gives the
  * parallel-plate value. */
 static void test_rad_eps_enclosed_closed_form(void **state)

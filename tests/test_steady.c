@@ -1,13 +1,13 @@
 /* Tests for steady.c: equilibria of small networks solved by hand, the holding power of a
  * controlled plant, radiation-only equilibrium, and the two ways a steady state can fail;
- * plus `tepid steady --json` against the DESIGN.md keys. */
+ * plus `tepid steady --json` against the keys of docs/user-guide.md. */
 #include "tp_test.h"
 
 #include <cjson/cJSON.h>
 
 #include "steady.h"
 
-#define SIGMA 5.670374419e-8 /* W/(m2.K4), CODATA 2018 (REFERENCES.md §4.1) */
+#define SIGMA 5.670374419e-8 /* W/(m2.K4), CODATA 2018 */
 
 /* Steady temperatures are checked to 1e-6 K. KINSOL stops when the scaled residual is below
  * 1e-9 W (steady.c, TP_FNORM_TOL); over the weakest conductance used here (0.01 W/K) that is
@@ -240,7 +240,7 @@ static double json_number(const cJSON *obj, const char *name)
     return v->valuedouble;
 }
 
-/* `tepid steady FILE --json F` (DESIGN.md "Output formats"): an object with nodes_C (id to
+/* `tepid steady FILE --json F` (docs/user-guide.md "Outputs"): an object with nodes_C (id to
  * temperature, every node with capacity) and power_W, the holding power with a controller.
  * Values: the hand calculation of test_steady_holding_power. */
 static void test_steady_cli_json(void **state)

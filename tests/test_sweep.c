@@ -459,12 +459,12 @@ static void test_first_order_time_at_every_power(void **state)
         assert_true(res[i].ok);
         /* Linear interpolation between 1 s samples of this concave curve errs by at most
          * dt^2 / (8 tau) = 2.5e-4 s; CVODE at rtol 1e-9 adds well under 1e-4 s. */
-        assert_true(fabs(res[i].metric[TP_SM_TIME_SETPOINT] - t) < 1e-3);
+        assert_true(fabs(res[i].metric[TP_MET_TIME_SETPOINT] - t) < 1e-3);
         /* Holding power G (Tset - Ta) = 100 W, margin P / 100 W (hand calculation). */
-        assert_true(fabs(res[i].metric[TP_SM_HOLD_POWER] - 100.0) < 1e-6);
-        assert_true(fabs(res[i].metric[TP_SM_MARGIN] - p / 100.0) < 1e-8);
+        assert_true(fabs(res[i].metric[TP_MET_HOLD_POWER] - 100.0) < 1e-6);
+        assert_true(fabs(res[i].metric[TP_MET_MARGIN] - p / 100.0) < 1e-8);
         /* Highest reachable: Ta + P/G (closed form steady state). */
-        assert_true(fabs(res[i].metric[TP_SM_HIGHEST] - (20.0 + KELVIN + p / 2.0)) < 1e-6);
+        assert_true(fabs(res[i].metric[TP_MET_HIGHEST] - (20.0 + KELVIN + p / 2.0)) < 1e-6);
     }
     free(res);
     tp_sweep_plan_clear(&plan);
@@ -496,7 +496,7 @@ static void check_holding_stats(const char *spread, double mu, double sigma, dou
     assert_int_equal(tp_sweep_add_spread(&plan, &desc, spread, &d), TP_OK);
     res = run_plan(&plan, &desc, 2, &tot);
     assert_int_equal(tot.failed, 0);
-    assert_int_equal(tp_sweep_summarise(&plan, res, TP_SM_HOLD_POWER, &sum), TP_OK);
+    assert_int_equal(tp_sweep_summarise(&plan, res, TP_MET_HOLD_POWER, &sum), TP_OK);
     assert_int_equal(sum.n, n);
     assert_true(fabs(sum.mean - mu) < 4.0 * se_mean);
     assert_true(fabs(sum.sd - sigma) < 4.0 * se_sd);
@@ -549,7 +549,7 @@ static void test_driver_and_constant_metrics(void **state)
     assert_int_equal(tp_sweep_add_spread(&plan, &desc, "network.links.0.conductance=normal:5%", &d),
                      TP_OK);
     res = run_plan(&plan, &desc, 2, &tot);
-    assert_int_equal(tp_sweep_summarise(&plan, res, TP_SM_HOLD_POWER, &sum), TP_OK);
+    assert_int_equal(tp_sweep_summarise(&plan, res, TP_MET_HOLD_POWER, &sum), TP_OK);
     assert_int_equal(sum.driver, 1);
     assert_true(fabs(sum.rho[1] - 1.0) < 1e-12);
     free(res);
@@ -560,13 +560,99 @@ static void test_driver_and_constant_metrics(void **state)
         tp_sweep_add_spread(&plan, &desc, "network.nodes.plate.capacity=uniform:-20%:20%", &d),
         TP_OK);
     res = run_plan(&plan, &desc, 2, &tot);
-    assert_int_equal(tp_sweep_summarise(&plan, res, TP_SM_HOLD_POWER, &sum), TP_OK);
+    assert_int_equal(tp_sweep_summarise(&plan, res, TP_MET_HOLD_POWER, &sum), TP_OK);
     assert_true(fabs(sum.mean - 100.0) < 1e-6);
     assert_int_equal(sum.driver, -1);
     assert_true(isnan(sum.rho[0]));
     free(res);
     tp_sweep_plan_clear(&plan);
     tp_desc_clear(&desc);
+}
+
+/* Each metric's worst value follows its stated direction (src/metricdef.h): the highest
+ * reachable temperature is worst when hottest (a heater stuck on), the margin when smallest,
+ * the steady offset when farthest from zero either way, a time when longest. Values chosen by
+ * hand; the expected worst of each column by inspection. A sample without the metric (NaN) is
+ * absent, not worst. */
+static void test_worst_follows_each_metric_direction(void **state)
+{
+    static const struct {
+        int metric;
+        double v[4];
+        double worst;
+        long index;
+    } cols[] = {
+        {TP_MET_HIGHEST, {420.0, 450.0, 430.0, 410.0}, 450.0, 1},
+        {TP_MET_MARGIN, {2.5, 3.0, 1.4, 2.0}, 1.4, 2},
+        {TP_MET_STEADY_OFFSET, {1.0, 1.5, 0.0, -2.0}, -2.0, 3},
+        {TP_MET_TIME_SETPOINT, {100.0, (double)NAN, 300.0, 200.0}, 300.0, 2},
+    };
+    tp_desc desc;
+    tp_sweep_plan plan;
+    tp_sweep_result res[4];
+    tp_sweep_summary sum;
+    tp_diag d;
+    size_t c;
+    int i, m;
+    (void)state;
+    tp_diag_init(&d, stderr);
+    load(linear_node, &desc);
+    tp_sweep_plan_init(&plan, TP_SWEEP_SPREAD);
+    plan.n_samples = 4;
+    assert_int_equal(tp_sweep_add_spread(&plan, &desc, "network.links.0.conductance=normal:5%", &d),
+                     TP_OK);
+    memset(res, 0, sizeof res);
+    for (i = 0; i < 4; i++) {
+        res[i].ok = 1;
+        for (m = 0; m < TP_MET_COUNT; m++)
+            res[i].metric[m] = (double)NAN;
+        for (c = 0; c < sizeof cols / sizeof cols[0]; c++)
+            res[i].metric[cols[c].metric] = cols[c].v[i];
+    }
+    for (c = 0; c < sizeof cols / sizeof cols[0]; c++) {
+        assert_int_equal(tp_sweep_summarise(&plan, res, cols[c].metric, &sum), TP_OK);
+        assert_true(sum.worst == cols[c].worst);
+        assert_int_equal(sum.worst_index, cols[c].index);
+    }
+    assert_int_equal(tp_sweep_summarise(&plan, res, TP_MET_TIME_SETPOINT, &sum), TP_OK);
+    assert_int_equal(sum.absent, 1);
+    assert_int_equal(sum.n, 3);
+    tp_sweep_plan_clear(&plan);
+    tp_desc_clear(&desc);
+}
+
+/* The metric table is the one place a metric's direction is stated, and docs/sweep.md says the
+ * same: every metric has a reason for its direction, and its row in the documentation's metric
+ * table names the direction word ("highest", "lowest", "farthest from 0"). */
+static void test_metric_directions_documented(void **state)
+{
+    char path[TP_TEST_PATH], row[128];
+    char *doc;
+    int m;
+    (void)state;
+    snprintf(path, sizeof path, "%s/docs/sweep.md", TP_SOURCE_DIR);
+    doc = tp_read_file(path);
+    assert_non_null(doc);
+    for (m = 0; m < TP_MET_COUNT; m++) {
+        const tp_metricdef *md = tp_metricdef_get(m);
+        const char *at, *end;
+        assert_non_null(md->why);
+        assert_true(md->why[0] != '\0');
+        assert_int_equal(tp_metricdef_find(md->key), m);
+        snprintf(row, sizeof row, "\n| `%s`", md->key);
+        at = strstr(doc, row);
+        if (!at)
+            print_error("docs/sweep.md has no row for %s\n", md->key);
+        assert_non_null(at);
+        end = strchr(at + 1, '\n');
+        assert_non_null(end);
+        snprintf(row, sizeof row, "| %s |", tp_worse_name(md->worse));
+        if (!strstr(at, row) || strstr(at, row) > end)
+            print_error("docs/sweep.md: the row of %s does not say \"%s\"\n", md->key,
+                        tp_worse_name(md->worse));
+        assert_true(strstr(at, row) && strstr(at, row) < end);
+    }
+    free(doc);
 }
 
 static void test_same_results_for_any_jobs(void **state)
@@ -642,7 +728,7 @@ static void test_failed_samples_are_reported(void **state)
     /* P(Z > 0.2/0.24) = 0.20 (standard normal table): some of 60 fail, most do not. */
     assert_true(refused > 0 && refused < n / 2);
     assert_int_equal(tot.failed, refused);
-    assert_int_equal(tp_sweep_summarise(&plan, res, TP_SM_HOLD_POWER, &sum), TP_OK);
+    assert_int_equal(tp_sweep_summarise(&plan, res, TP_MET_HOLD_POWER, &sum), TP_OK);
     assert_int_equal(sum.n + sum.absent, n - refused);
     free(res);
     tp_sweep_plan_clear(&plan);
@@ -839,6 +925,69 @@ static void test_cli_figures(void **state)
     assert_true(is_png(path));
 }
 
+/* The text shows swept values in the unit the user wrote (the option's, else the config's),
+ * and times as warmup writes them ("7 min 20 s"); the files keep SI. */
+static void test_cli_text_in_user_units(void **state)
+{
+    char csv[512];
+    char *text;
+    tp_run_result r;
+    const char *grid[] = {"sweep", TP_SOURCE_DIR "/configs/workshop-bed-24v.yaml",
+                          "--vary", "bed.layers.plate.thickness=3mm:4mm:1mm", "--csv", csv, NULL};
+    const char *spread[] = {"sweep", TP_SOURCE_DIR "/configs/workshop-bed-24v.yaml", "--spread",
+                            "bed.layers.plate.thickness=normal:5%", "--samples", "3", NULL};
+    (void)state;
+    snprintf(csv, sizeof csv, "%s/units.csv", scratch_dir());
+    tp_run_tepid(tp_group_scratch(), grid, &r);
+    assert_int_equal(r.status, 0);
+    tp_check_contains("grid summary", r.out, "3 .. 4 mm (config: 6 mm)");
+    tp_check_contains("grid header", r.out, "(mm)");
+    tp_check_contains("grid row", r.out, "\n                           3 ");
+    assert_null(strstr(r.out, "0.003"));
+    assert_null(strstr(r.out, "(min)"));
+    /* A duration as "N min SS s" in the to-setpoint column. */
+    tp_check_contains("grid time", r.out, " min ");
+    text = tp_read_file(csv);
+    assert_non_null(text);
+    tp_check_contains("csv in SI", text, "\n1,0.003,1,");
+    free(text);
+    tp_run_clear(&r);
+    tp_run_tepid(tp_group_scratch(), spread, &r);
+    assert_int_equal(r.status, 0);
+    tp_check_contains("spread summary", r.out, "normal, sd 5 % of 6 mm");
+    tp_check_contains("spread time", r.out, " min ");
+    tp_check_contains("spread direction", r.out, "highest");
+    tp_run_clear(&r);
+}
+
+/* A point that never reaches the setpoint (8 V into 2.4 ohm is 27 W, against about 98 W to
+ * hold 90 degC on the 24 V demo: docs of the demo and tepid steady) has no overshoot: "-" in
+ * the table and an empty cell in the CSV, not 0. */
+static void test_cli_unreached_point_shows_dash(void **state)
+{
+    char csv[512];
+    char *text, *row;
+    tp_run_result r;
+    const char *args[] = {"sweep", TP_SOURCE_DIR "/configs/workshop-bed-24v.yaml", "--vary",
+                          "heater.supply=8V,24V", "--csv", csv, NULL};
+    (void)state;
+    snprintf(csv, sizeof csv, "%s/unreached.csv", scratch_dir());
+    tp_run_tepid(tp_group_scratch(), args, &r);
+    assert_int_equal(r.status, 0);
+    row = strstr(r.out, "\n               8 ");
+    assert_non_null(row);
+    assert_null(strstr(row, "0.00\n"));
+    assert_true(strncmp(row, "\n               8              -              -              -",
+                        60) == 0);
+    assert_null(strstr(r.out, "0.00 "));
+    text = tp_read_file(csv);
+    assert_non_null(text);
+    /* point 1, 8 V, ok: time, ready and both overshoots empty. */
+    tp_check_contains("csv row", text, "\n1,8,1,,,,,");
+    free(text);
+    tp_run_clear(&r);
+}
+
 static void test_cli_readme_commands(void **state)
 {
     /* The two sweep commands of README.md, on the 24 V demo, succeed. */
@@ -876,12 +1025,16 @@ int main(void)
         cmocka_unit_test(test_holding_power_statistics_normal),
         cmocka_unit_test(test_holding_power_statistics_uniform),
         cmocka_unit_test(test_driver_and_constant_metrics),
+        cmocka_unit_test(test_worst_follows_each_metric_direction),
+        cmocka_unit_test(test_metric_directions_documented),
         cmocka_unit_test(test_same_results_for_any_jobs),
         cmocka_unit_test(test_failed_samples_are_reported),
         cmocka_unit_test(test_progress_ends_complete),
         cmocka_unit_test(test_cli_files_identical_for_1_and_2_jobs),
         cmocka_unit_test(test_cli_usage_errors),
         cmocka_unit_test(test_cli_figures),
+        cmocka_unit_test(test_cli_text_in_user_units),
+        cmocka_unit_test(test_cli_unreached_point_shows_dash),
         cmocka_unit_test(test_cli_readme_commands),
     };
     return cmocka_run_group_tests(tests, tp_scratch_group_setup, tp_scratch_group_teardown);

@@ -95,9 +95,9 @@ static void test_units_accepted_forms(void **state)
 }
 
 /* The same temperature text means different things as an absolute value and as an interval
- * (DESIGN.md config contract): 2 degC is 275.15 K as a temperature and 2 K as a difference;
- * 3.6 degF of difference is 2 K while 3.6 degF as a temperature is (3.6 + 459.67) / 1.8 =
- * 257.3722 K (SP 811 B.9). */
+ * (docs/user-guide.md, "Quantities and units"): 2 degC is 275.15 K as a temperature and 2 K as
+ * a difference; 3.6 degF of difference is 2 K while 3.6 degF as a temperature is
+ * (3.6 + 459.67) / 1.8 = 257.3722 K (SP 811 B.9). */
 static void test_units_absolute_versus_interval(void **state)
 {
     char msg[256];
@@ -123,7 +123,7 @@ typedef struct rejected {
 
 /* Each row: what a config might say, the kind the key wants, and the reason given. */
 static const rejected rejected_forms[] = {
-    /* A bare number for a dimensional key (DESIGN.md: "an error with a hint"). */
+    /* A bare number for a dimensional key (docs/user-guide.md: an error). */
     {"4", TP_DIM_LENGTH, "'4' has no unit; expected a quantity in m, e.g. '4 mm'"},
     /* The wrong dimension. */
     {"4 W", TP_DIM_LENGTH, "'4 W' has the wrong kind of unit; expected a quantity in m"},
@@ -212,8 +212,8 @@ static void test_units_from_si(void **state)
     assert_int_equal(tp_units_from_si(1.0, "W", TP_DIM_LENGTH, &v), TP_ERR_CONFIG);
 }
 
-/* Strict number parsing (STYLE.md: reject empty, trailing characters, ERANGE, NaN, inf; the
- * config takes plain decimals only). */
+/* Strict number parsing (docs/limits.md: reject empty, trailing characters, ERANGE, NaN,
+ * inf; the config takes plain decimals only). */
 static void test_units_parse_double_strict(void **state)
 {
     static const char *const bad[] = {"",          "  ",    "0x10", "0x1p3", "nan", "(double)NAN", "inf",

@@ -648,9 +648,74 @@ static void test_plot_png_and_failures(void **state)
     assert_int_not_equal(stat(csv, &sb), 0);
 }
 
+/* Open a demo config as a network (assembled, not run). */
+static void open_demo(const char *name, tp_yaml_net *y)
+{
+    char path[TP_TEST_PATH], *text;
+    snprintf(path, sizeof path, "%s/configs/%s", TP_SOURCE_DIR, name);
+    text = tp_read_file(path);
+    assert_non_null(text);
+    assert_int_equal(tp_yaml_net_open(y, text), TP_OK);
+    free(text);
+}
+
+/* One curve for the sensor and the reading exactly when the reading is the sensor node's
+ * temperature (docs/control.md: reading = sensor temperature + offset, without a thermistor):
+ * the 230 V demo (no thermistor, no offset) draws them as one; an offset, a thermistor (the 24 V
+ * demo) or no controller keep them apart. */
+static void test_reading_shares_the_sensor_curve_only_when_equal(void **state)
+{
+    tp_yaml_net y;
+    tp_history h;
+    (void)state;
+    open_demo("lab-hotplate-230v.yaml", &y);
+    assert_int_equal(tp_history_init(&h, y.net), TP_OK);
+    assert_true(tp_warmup_reading_column(y.net, &h) >= 0);
+    assert_int_equal(tp_warmup_reading_column(y.net, &h),
+                     tp_history_column(&h, y.net->control.sensor));
+    y.net->control.reading.offset = 1.0; /* K */
+    assert_int_equal(tp_warmup_reading_column(y.net, &h), -1);
+    y.net->control.reading.offset = 0.0;
+    y.net->has_control = 0;
+    assert_int_equal(tp_warmup_reading_column(y.net, &h), -1);
+    tp_history_clear(&h);
+    tp_yaml_net_close(&y);
+    open_demo("workshop-bed-24v.yaml", &y);
+    assert_int_equal(tp_history_init(&h, y.net), TP_OK);
+    assert_int_equal(tp_warmup_reading_column(y.net, &h), -1);
+    tp_history_clear(&h);
+    tp_yaml_net_close(&y);
+}
+
+/* The chart marks the times the metrics report, by their fields, in minutes (closed form:
+ * 440 s = 7.333... min, 671 s = 11.183... min), labelled as warmup writes times; a time that
+ * does not exist (NaN: not reached) gets no mark. */
+static void test_marks_follow_the_metrics(void **state)
+{
+    tp_metrics m;
+    tp_plot_vline marks[TP_WARMUP_MARKS];
+    char text[TP_WARMUP_MARKS][TP_WARMUP_MARK_TEXT];
+    (void)state;
+    memset(&m, 0, sizeof m);
+    m.t_setpoint = 440.0;
+    m.t_surface_ready = 671.0;
+    assert_int_equal(tp_warmup_marks(&m, marks, text), 2);
+    tp_check_abs("setpoint mark", marks[0].x, 440.0 / 60.0, 1e-12);
+    tp_check_abs("ready mark", marks[1].x, 671.0 / 60.0, 1e-12);
+    assert_string_equal(marks[0].label, "reading at setpoint 7 min 20 s");
+    assert_string_equal(marks[1].label, "surface ready 11 min 11 s");
+    m.t_setpoint = (double)NAN;
+    assert_int_equal(tp_warmup_marks(&m, marks, text), 1);
+    assert_string_equal(marks[0].label, "surface ready 11 min 11 s");
+    m.t_surface_ready = (double)NAN;
+    assert_int_equal(tp_warmup_marks(&m, marks, text), 0);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
+        cmocka_unit_test(test_reading_shares_the_sensor_curve_only_when_equal),
+        cmocka_unit_test(test_marks_follow_the_metrics),
         cmocka_unit_test(test_tempco_cold_start_and_hot_fraction),
         cmocka_unit_test(test_supply_resistance_divides_voltage),
         cmocka_unit_test(test_pid_no_steady_state_error),

@@ -1,5 +1,6 @@
 #!/usr/bin/env python3
-"""Write a raw-form network (DESIGN.md, `network:`) of N x N plate cells for the benchmarks.
+"""Write a raw-form network (docs/user-guide.md, `network:`) of N x N plate cells for the
+benchmarks.
 
 An invented scenario of round, plausible numbers: a square aluminium plate of side --side and
 thickness --thickness cut into N x N equal square cells. Each cell is a node with capacity

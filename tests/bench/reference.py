@@ -1,10 +1,11 @@
 #!/usr/bin/env python3
-"""The general-purpose reference for tests/bench/run.sh: a raw-form tepid network (DESIGN.md,
-`network:`) read from the same YAML file and integrated by SciPy's solve_ivp (BDF) at tepid's
-tolerances, and by a fixed-step explicit Euler scheme (numpy); both compared with tepid's own
-histories (CSV). Needs Debian's python3-numpy, python3-scipy and python3-yaml.
+"""The general-purpose reference for tests/bench/run.sh: a raw-form tepid network
+(docs/user-guide.md, `network:`) read from the same YAML file and integrated by SciPy's
+solve_ivp (BDF) at tepid's tolerances, and by a fixed-step explicit Euler scheme (numpy); both
+compared with tepid's own histories (CSV). Needs Debian's python3-numpy, python3-scipy and
+python3-yaml.
 
-The model is the one src/network.c evaluates, written again from DESIGN.md:
+The model is the one src/network.c evaluates, written again from docs/model.md:
 
   state y = [T_1 .. T_n, E_src, E_lost, E_wire]  (free temperatures in declaration order, K;
             then the energy totals tepid also integrates, J, so both solvers control the error
@@ -20,7 +21,7 @@ The model is the one src/network.c evaluates, written again from DESIGN.md:
 Tolerances: rtol = run.tolerance (default 1e-6) and atol = rtol * 10 K on temperatures,
 rtol * 1 J on the energy totals: src/integrate.c TP_ATOL_KELVIN and TP_ATOL_JOULE.
 
-Control (DESIGN.md): the controller samples the sensor node at t = 0, period, 2 period, ...
+Control (docs/control.md): the controller samples the sensor node at t = 0, period, 2 period, ...
 and holds its output (zero-order hold). on-off: off when the reading >= setpoint + band/2, on
 when <= setpoint - band/2, else unchanged; at t = 0 on when the reading is below the setpoint.
 pid: src/control.c's positional PID (integral clamped to [0, 1], derivative on the reading).
