@@ -38,6 +38,7 @@
 #define PLOT_TITLE_PITCH 1.5    /* line pitch of a wrapped title, title character heights */
 #define PLOT_TITLE_MARGIN 1.0   /* free room left and right of a title, character heights */
 #define PLOT_LABEL_GAP 0.6      /* marker or line to its label, character heights */
+#define PLOT_LABEL_APART 0.3    /* free room kept between two labels, character heights */
 #define PLOT_VREF_STYLE 2       /* PLplot line style of marked times (short dashes) */
 #define PLOT_LEGEND_CLEAR 0.02  /* data kept this far from a legend, share of the viewport */
 #define PLOT_LEGEND_GAP 0.03    /* room left between a legend and the data it grew an axis to
@@ -887,6 +888,18 @@ static int boxes_overlap(const double *a, const double *b)
     return a[0] < b[1] && b[0] < a[1] && a[2] < b[3] && b[2] < a[3];
 }
 
+/* What placing a label's `box` next to `other` (a label or legend already placed) costs: the
+ * most when they overlap; when they only come closer than px, py (normalised), where the two
+ * texts would read as one label, more than a place on the label's own line and less than one
+ * with another line between label and line; nothing otherwise. */
+static size_t label_clash(const double *box, const double *other, double px, double py)
+{
+    const double grown[4] = {other[0] - px, other[1] + px, other[2] - py, other[3] + py};
+    if (boxes_overlap(box, other))
+        return (size_t)1 << 24;
+    return boxes_overlap(box, grown) ? (size_t)1 << 14 : 0;
+}
+
 /* A marked time's label box in the top panel, normalised to its viewport (x0, x1, y0, y1). */
 static void vlabel_box(const chart_plan *cp, size_t i, double *box)
 {
@@ -903,14 +916,15 @@ static void vlabel_box(const chart_plan *cp, size_t i, double *box)
  * ends or across the middle, where it covers the fewest data without another line between it
  * and its own; when every such place has one (lines a few units apart: a setpoint, its band, a
  * ceiling), it sits on its line, its halo cutting the line. It never covers a label already
- * placed, the legend or a marked time's label, and crosses a marked time only when every other
- * place is worse. */
+ * placed, the legend or a marked time's label, keeps PLOT_LABEL_APART clear of them where it can,
+ * and crosses a marked time only when every other place is worse. */
 static void labels_plan(const chart_plan *cp, panel_plan *pp)
 {
     static const double xs[4] = {0.99, 0.01, 0.62, 0.30}; /* anchors: right end, left end, ... */
     const tp_plot_panel *p = pp->p;
     double vw = pp->vx1 - pp->vx0, vh = pp->vy1 - pp->vy0;
     double lh = 1.3 * PLOT_LEGEND_SCALE * cp->ht / vh, off = 0.35 * cp->ht / vh;
+    double px = PLOT_LABEL_APART * cp->ht / vw, py = PLOT_LABEL_APART * cp->ht / vh;
     size_t i, j, k;
     for (i = 0; i < p->n_hlines; i++) {
         const tp_plot_hline *h = &p->hlines[i];
@@ -955,12 +969,11 @@ static void labels_plan(const chart_plan *cp, panel_plan *pp)
             }
             if (box[2] < 0.0 || box[3] > 1.0 || box[0] < 0.0 || box[1] > 1.0)
                 cost[c] = (size_t)-1 / 2;
-            if (pp->legend.n > 0 && boxes_overlap(box, pp->legend.box))
-                cost[c] += (size_t)1 << 24;
+            if (pp->legend.n > 0)
+                cost[c] += label_clash(box, pp->legend.box, px, py);
             for (k = 0; k < i; k++)
-                if (pp->label_box[k][0] < pp->label_box[k][1] &&
-                    boxes_overlap(box, pp->label_box[k]))
-                    cost[c] += (size_t)1 << 24;
+                if (pp->label_box[k][0] < pp->label_box[k][1])
+                    cost[c] += label_clash(box, pp->label_box[k], px, py);
             for (k = 0; k < cp->n_vlines; k++) { /* marked times and their labels */
                 double u = (cp->vline[k]->x - cp->x.lo) / (cp->x.hi - cp->x.lo), lb[4];
                 if (u >= box[0] && u <= box[1])
@@ -968,8 +981,7 @@ static void labels_plan(const chart_plan *cp, panel_plan *pp)
                 if (pp != &cp->panels[0] || cp->vlabel[k].w <= 0.0)
                     continue;
                 vlabel_box(cp, k, lb);
-                if (boxes_overlap(box, lb))
-                    cost[c] += (size_t)1 << 24;
+                cost[c] += label_clash(box, lb, px, py);
             }
         }
         for (c = 1; c < cb.n; c++)

@@ -267,6 +267,45 @@ static void test_legend_grows_a_panel_with_a_right_axis(void **state)
     tp_plot_layout_clear(&l);
 }
 
+static void test_stacked_labels_keep_apart(void **state)
+{
+    /* Labels of lines a few units apart (a ceiling 7 K over the setpoint, a band 2 K under it,
+     * the end of a rise check 39 K under it) on guard-like charts of three panels, for
+     * setpoints from 60 to 250 degC and heights from 400 to 1200 pixels: two labels over one
+     * another keep a fifth of a label's height between them (common practice, no source: text
+     * closer than that reads as one label of two lines). */
+    tp_plot_series s[] = {{"nominal", t_min, ramp, N, 0, 0, 0}};
+    tp_plot_layout l;
+    int h, c, i;
+    size_t a, b;
+    (void)state;
+    make_data();
+    for (h = 400; h <= 1200; h += 100)
+        for (c = 0; c < 20; c++) {
+            double sp = 60.0 + 10.0 * c;
+            tp_plot_hline lines[] = {{"ceiling", sp + 7.0},
+                                     {"setpoint", sp},
+                                     {"hold band", sp - 2.0},
+                                     {"rise check ends", sp - 39.0}};
+            tp_plot_panel panels[3] = {{"healthy (degC)", NULL, s, 1, lines, 4, 1.0},
+                                       {"from cold (degC)", NULL, s, 1, lines, 4, 1.0},
+                                       {"from hold (degC)", NULL, s, 1, lines, 4, 1.0}};
+            tp_plot_chart chart = {"labels", "time (min)", panels, 3, 1200, h};
+            for (i = 0; i < N; i++)
+                ramp[i] = fmin(20.0 + 40.0 * t_min[i], sp + 3.0);
+            layout(&chart, &l);
+            for (a = 0; a < 4; a++)
+                for (b = a + 1; b < 4; b++) {
+                    const tp_plot_box *p = &l.panels[0].labels[a], *q = &l.panels[0].labels[b];
+                    double gap = fmax(q->y0 - p->y1, p->y0 - q->y1);
+                    if (p->x0 < q->x1 && q->x0 < p->x1 && gap < 0.2 * (p->y1 - p->y0))
+                        fail_msg("%d px, setpoint %g: labels '%s' and '%s' %.2f heights apart", h,
+                                 sp, lines[a].label, lines[b].label, gap / (p->y1 - p->y0));
+                }
+            tp_plot_layout_clear(&l);
+        }
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -276,6 +315,7 @@ int main(void)
         cmocka_unit_test(test_a_legend_with_a_free_corner_changes_nothing),
         cmocka_unit_test(test_marked_times_stay_clear_of_legend_and_labels),
         cmocka_unit_test(test_legend_grows_a_panel_with_a_right_axis),
+        cmocka_unit_test(test_stacked_labels_keep_apart),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
