@@ -179,6 +179,15 @@ void tp_cli_help(const tp_verb *verb, FILE *fp)
             fprintf(fp, "  %-26s %s\n", left, o->help);
         }
     }
+    if (verb->examples) {
+        const char *line = verb->examples;
+        fprintf(fp, "\nexamples (%s):\n", TP_CLI_EXAMPLES_NOTE);
+        while (*line) {
+            size_t len = strcspn(line, "\n");
+            fprintf(fp, "  %.*s\n", (int)len, line);
+            line += len + (line[len] == '\n');
+        }
+    }
 }
 
 const char *tp_cli_get(const tp_cli *cli, const char *name)

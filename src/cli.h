@@ -42,7 +42,13 @@ typedef struct tp_verb {
     int needs_file;
     const tp_opt *opts;
     const char *details; /* paragraph printed by VERB --help */
+    const char *examples; /* two or three command lines ("tepid VERB FILE ..."), one per line:
+                             the end of VERB --help and the manual page's EXAMPLES */
 } tp_verb;
+
+/* Where the demo files named in the examples are, as --help and the manual pages say. */
+#define TP_CLI_EXAMPLES_NOTE                                                                     \
+    "demo files in share/tepid/examples/ of an installation, configs/ of the source tree"
 
 /* The options every verb with a file accepts: --set, -q, --help. */
 extern const tp_opt tp_common_opts[];

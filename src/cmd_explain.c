@@ -159,4 +159,6 @@ const tp_verb tp_verb_explain = {
     "Every node's capacity and every link's law and conductance, as tepid assembled them from\n"
     "the file. Convection coefficients from correlations and radiation (linearised, eps sigma\n"
     "(T^2 + Ts^2)(T + Ts)) depend on temperature: --at evaluates them with every free node at\n"
-    "the given temperature."};
+    "the given temperature.",
+    "tepid explain lab-hotplate-230v.yaml --at 150degC\n"
+    "tepid explain raw-five-node.yaml --json network.json"};

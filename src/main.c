@@ -8,7 +8,9 @@
 #include "commands.h"
 #include "diag.h"
 #include "materials.h"
+#include "selfdoc.h"
 #include "units.h"
+#include "version.h"
 
 static const tp_verb *const verbs[] = {
     &tp_verb_warmup, &tp_verb_steady, &tp_verb_budget, &tp_verb_guard, &tp_verb_fit,
@@ -61,9 +63,11 @@ static int run(int argc, char **argv)
         return TP_EXIT_OK;
     }
     if (strcmp(argv[1], "--version") == 0) {
-        printf("tepid %s\n", TP_VERSION);
+        tp_version_print(stdout);
         return TP_EXIT_OK;
     }
+    if (tp_selfdoc_is_hidden(argv[1])) /* the build's and the completion's helpers */
+        return tp_selfdoc_run(verbs, N_VERBS, argc - 1, argv + 1);
     for (i = 0; i < N_VERBS; i++)
         if (strcmp(argv[1], verbs[i]->name) == 0)
             verb = verbs[i];
