@@ -1,8 +1,9 @@
 /* The manual pages against --help: every option a verb's --help lists is in its page and the
  * page lists no other; every verb's --help ends with two or three examples, which are in its
  * page and run; tepid(1) names every verb and common option; --version names the libraries
- * with the versions their headers give. The pages are the build's (build/man, written by
- * 'tepid _man'); tests/test_manpages.sh checks that groff renders them without warnings. */
+ * with the versions their headers give; the package's changelog is this version's. The pages
+ * are the build's (build/man, written by 'tepid _man'); tests/test_manpages.sh checks that
+ * groff renders them without warnings. */
 #include <stdarg.h>
 #include <stddef.h>
 #include <stdint.h>
@@ -362,6 +363,26 @@ static void test_version_names_the_libraries(void **state)
     free(out);
 }
 
+/* The package's changelog (packaging/changelog, installed as changelog.gz) opens with an entry
+ * for this version, in the form Debian Policy 4.6 section 4.4 gives for a changelog entry's
+ * first line: "package (version) distribution(s); urgency=urgency". */
+static void test_changelog_opens_with_this_version(void **state)
+{
+    char path[TP_TEST_PATH], want[64], *text;
+    (void)state;
+    snprintf(path, sizeof path, "%s/packaging/changelog", TP_SOURCE_DIR);
+    text = tp_read_file(path);
+    assert_non_null(text);
+    snprintf(want, sizeof want, "tepid (%s) ", TP_VERSION);
+    if (strncmp(text, want, strlen(want)) != 0)
+        fail_msg("packaging/changelog does not open with an entry '%s...': add one for the "
+                 "version in CMakeLists.txt",
+                 want);
+    tp_check_contains("changelog entry", text, "; urgency=");
+    tp_check_contains("changelog trailer", text, "\n -- ");
+    free(text);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -370,6 +391,7 @@ int main(void)
         cmocka_unit_test(test_help_examples_run),
         cmocka_unit_test(test_main_page_names_verbs_and_common_options),
         cmocka_unit_test(test_version_names_the_libraries),
+        cmocka_unit_test(test_changelog_opens_with_this_version),
     };
     return cmocka_run_group_tests(tests, tp_scratch_group_setup, tp_scratch_group_teardown);
 }
