@@ -155,7 +155,7 @@ static void each_verb(void (*check)(const tp_scratch *s, const char *verb, const
     help_verbs(s, &verbs);
     for (v = 0; v < verbs.n; v++) {
         const char *args[] = {verbs.item[v], "--help", NULL};
-        char *help = tepid_out(s, args), *page, name[64];
+        char *help = tepid_out(s, args), *page, name[ITEM_MAX + 16];
         snprintf(name, sizeof name, "tepid-%s.1", verbs.item[v]);
         page = read_page(name);
         check(s, verbs.item[v], help, page);
@@ -301,7 +301,7 @@ static void test_main_page_names_verbs_and_common_options(void **state)
     (void)state;
     help_verbs(s, &verbs);
     for (v = 0; v < verbs.n; v++) {
-        char want[128];
+        char want[ITEM_MAX + 32];
         snprintf(want, sizeof want, ".TP\n.B %s\n", verbs.item[v]);
         tp_check_contains("tepid.1 VERBS", page, want);
         snprintf(want, sizeof want, ".BR tepid\\-%s (1)", verbs.item[v]);
