@@ -214,6 +214,15 @@ void tp_cli_help(const tp_verb *verb, FILE *fp)
     for (o = verb->opts; o && o->name; o++)
         print_opt(o, fp);
     print_opt(&tp_opt_help, fp);
+    if (verb->examples) {
+        const char *line = verb->examples;
+        fprintf(fp, "\nexamples (%s):\n", TP_CLI_EXAMPLES_NOTE);
+        while (*line) {
+            size_t len = strcspn(line, "\n");
+            fprintf(fp, "  %.*s\n", (int)len, line);
+            line += len + (line[len] == '\n');
+        }
+    }
 }
 
 const char *tp_cli_get(const tp_cli *cli, const char *name)

@@ -60,7 +60,13 @@ typedef struct tp_verb {
     int needs_file;
     const tp_opt *opts;
     const char *details; /* paragraph printed by VERB --help */
+    const char *examples; /* two or three command lines ("tepid VERB FILE ..."), one per line:
+                             the end of VERB --help and the manual page's EXAMPLES */
 } tp_verb;
+
+/* Where the demo files named in the examples are, as --help and the manual pages say. */
+#define TP_CLI_EXAMPLES_NOTE                                                                     \
+    "demo files in share/tepid/examples/ of an installation, configs/ of the source tree"
 
 /* Parse argv (after the verb). Returns TP_OK, TP_ERR_USAGE (message printed), or TP_OK with
  * *help set when --help was given. Every output option's path is checked here (see tp_opt), so

@@ -207,4 +207,6 @@ const tp_verb tp_verb_budget = {
     "Uses the config's supply: (voltage, power or current rating, efficiency,\n"
     "output_resistance), loads: (id with power or current) and wiring: (cross_section or awg,\n"
     "one-way length, switch_resistance). The heater's cold resistance sets the cold-start\n"
-    "current; the holding point (KINSOL) sets the running current."};
+    "current; the holding point (KINSOL) sets the running current.",
+    "tepid budget workshop-bed-24v.yaml\n"
+    "tepid budget workshop-bed-24v.yaml --set heater.supply=20V --json budget.json"};

@@ -29,4 +29,6 @@ static tp_status run_check(const tp_cli *cli, tp_diag *d)
 
 const tp_verb tp_verb_check = {
     "check", run_check, "Validate a file and summarise its network in one line.", 1, check_opts,
-    NULL};
+    NULL,
+    "tepid check workshop-bed-24v.yaml\n"
+    "tepid check workshop-bed-24v.yaml --set bed.layers.plate.thickness=6mm"};

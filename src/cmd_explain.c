@@ -298,4 +298,6 @@ const tp_verb tp_verb_explain = {
     "(T^2 + Ts^2)(T + Ts)) depend on temperature. They are shown at the steady holding state\n"
     "(KINSOL), or at the full-power steady state when no setpoint is held (or it is out of\n"
     "reach); --at evaluates them with every free node at the given temperature instead. The\n"
-    "header says which state is shown."};
+    "header says which state is shown.",
+    "tepid explain lab-hotplate-230v.yaml --at 150degC\n"
+    "tepid explain raw-five-node.yaml --json network.json"};

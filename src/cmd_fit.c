@@ -660,4 +660,8 @@ const tp_verb tp_verb_fit = {
     "estimates with standard errors and correlations, flags parameters the log cannot\n"
     "determine, and writes the calibrated config. A logged duty or power drives the heater\n"
     "open loop; without one the configured controller runs. How to record a useful log, the\n"
-    "log format and the method: docs/fit.md."};
+    "log format and the method: docs/fit.md.",
+    "tepid fit workshop-bed-24v.yaml --log workshop-bed-24v-log.csv "
+    "--free heater.resistance --free losses.convection_scale\n"
+    "tepid fit workshop-bed-24v.yaml --log workshop-bed-24v-log.csv "
+    "--free sensor.time_constant --write-config calibrated.yaml --plot fit.png"};

@@ -703,4 +703,6 @@ const tp_verb tp_verb_guard = {
     "rise check (rise_window, rise_min, approach), the hold check (hold_band, hold_grace) and\n"
     "the ceiling, each explained; with --rise-window ... or guard.settings: it evaluates the\n"
     "given values instead. Definitions in docs/guard.md. The checks supplement and never\n"
-    "replace an independent thermal cut-out."};
+    "replace an independent thermal cut-out.",
+    "tepid guard workshop-bed-24v.yaml --plot guard.png\n"
+    "tepid guard workshop-bed-24v.yaml --rise-window 40s --rise-min 2K --json guard.json"};

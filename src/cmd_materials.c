@@ -50,4 +50,6 @@ const tp_verb tp_verb_materials = {
     materials_opts,
     "Each entry gives density, specific heat, conductivity (in-plane and through-thickness\n"
     "where they differ), total hemispherical emissivity for the finish named, and a service\n"
-    "temperature limit. A config may define its own materials under materials:."};
+    "temperature limit. A config may define its own materials under materials:.",
+    "tepid materials\n"
+    "tepid materials --sources"};

@@ -316,4 +316,6 @@ const tp_verb tp_verb_steady = {
     "Solves the steady states with KINSOL: the holding point (the duty that keeps the reading\n"
     "at the setpoint) with its loss split by path, and the equilibria at full power and at\n"
     "heater.max_duty. Without a controller, the full-power state. --room solves for another\n"
-    "room temperature. Exits 1 when no steady state exists or the setpoint is out of reach."};
+    "room temperature. Exits 1 when no steady state exists or the setpoint is out of reach.",
+    "tepid steady enclosed-printer.yaml\n"
+    "tepid steady enclosed-printer.yaml --room 12degC --json steady.json"};

@@ -1016,4 +1016,9 @@ const tp_verb tp_verb_sweep = {
     "deviation, 5/50/95th percentiles, the worst sample and the parameter that drives each\n"
     "metric most (Spearman rank correlation). Points run on --jobs threads; the results do not\n"
     "depend on the number of jobs. A failed point is listed with its parameters and reason\n"
-    "and left out of the statistics. Details: docs/sweep.md."};
+    "and left out of the statistics. Details: docs/sweep.md.",
+    "tepid sweep workshop-bed-24v.yaml --vary heater.supply=20V:28V:2V\n"
+    "tepid sweep workshop-bed-24v.yaml --vary heater.supply=20V:28V:4V "
+    "--vary room.temperature=15degC:25degC:5degC --plot map.png\n"
+    "tepid sweep workshop-bed-24v.yaml --spread heater.resistance=normal:5% --samples 200 "
+    "--csv samples.csv"};

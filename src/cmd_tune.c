@@ -179,4 +179,6 @@ const tp_verb tp_verb_tune = {
     tune_opts,
     "Identifies a first-order-plus-dead-time model of the reading's response to a duty step\n"
     "at the holding point (two-point method), applies SIMC (PI) or IMC (PID), prints the gains\n"
-    "in the config's units and simulates the warm-up with them."};
+    "in the config's units and simulates the warm-up with them.",
+    "tepid tune workshop-bed-24v.yaml\n"
+    "tepid tune workshop-bed-24v.yaml --rule imc --plot tuned.png"};

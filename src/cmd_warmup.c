@@ -501,4 +501,7 @@ const tp_verb tp_verb_warmup = {
     "controller, duty and reading_C; --json has the metrics; --plot draws the run.\n"
     "With bed.grid it also answers for the working-surface map at the setpoint and at\n"
     "holding (mean, spread, extremes, centre against corners, when all of it is ready);\n"
-    "--map, --map-setpoint and --map-csv write the maps (docs/grid.md)."};
+    "--map, --map-setpoint and --map-csv write the maps (docs/grid.md).",
+    "tepid warmup workshop-bed-24v.yaml\n"
+    "tepid warmup workshop-bed-24v.yaml --plot warmup.png --csv warmup.csv\n"
+    "tepid warmup small-pad-grid.yaml --map hold.png --map-csv cells.csv"};

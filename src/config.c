@@ -1240,3 +1240,81 @@ tp_status tp_config_check(const tp_desc *desc, const char *path, double si, char
         return TP_OK;
     }
 }
+
+/* ---- the key paths, for completion and the manual pages ----------------------------------- */
+
+/* path.name into out; nonzero when it does not fit (the key is then left out). */
+static int extend(char *out, size_t size, const char *path, const char *name)
+{
+    int n = path[0] ? snprintf(out, size, "%s.%s", path, name) : snprintf(out, size, "%s", name);
+    return n < 0 || (size_t)n >= size;
+}
+
+/* The keys of `sec` (from its key `first` on) under `path`; `base` is the section's struct, or
+ * NULL when only the schema is listed. */
+static void each_key(const section *sec, size_t first, void *base, const char *path,
+                     int placeholders, tp_config_key_fn fn, void *ctx)
+{
+    size_t i, j;
+    for (i = first; i < sec->n; i++) {
+        const key *k = &sec->keys[i];
+        char p[256];
+        tp_config_key_info info;
+        if (extend(p, sizeof p, path, k->name))
+            continue;
+        info.path = p;
+        info.dim = k->dim;
+        info.required = (k->flags & F_REQ) != 0;
+        switch (k->kind) {
+        case K_QTY:
+            info.kind = TP_KEY_NUMBER;
+            fn(&info, ctx);
+            break;
+        case K_QPAIR:
+            info.kind = TP_KEY_PAIR;
+            fn(&info, ctx);
+            break;
+        case K_ID:
+        case K_TEXT:
+        case K_IDPAIR:
+        case K_MODE:
+            info.dim = TP_DIM_NONE;
+            info.kind = TP_KEY_TEXT;
+            fn(&info, ctx);
+            break;
+        case K_MAP:
+            each_key(k->sub, 0, base ? field(base, k->offset) : NULL, p, placeholders, fn, ctx);
+            break;
+        case K_LIST:
+        case K_IDMAP: {
+            /* Items are named by their id where they have one (an id map's key, or a list
+             * whose first key is an id), as resolve_path and --set select them; the id key
+             * itself is then left out (the path already names it). */
+            int by_id = k->kind == K_IDMAP || k->sub->keys[0].kind == K_ID;
+            size_t skip = k->kind == K_LIST && by_id ? 1 : 0;
+            size_t id_at = k->kind == K_IDMAP ? 0 : k->sub->keys[0].offset;
+            char *items = base ? *(char **)field(base, k->offset) : NULL;
+            size_t count = items ? *count_at(base, k->count_offset) : 0;
+            char q[256];
+            if (!base) {
+                if (placeholders && !extend(q, sizeof q, p, by_id ? "ID" : "N"))
+                    each_key(k->sub, skip, NULL, q, placeholders, fn, ctx);
+                break;
+            }
+            for (j = 0; j < count; j++) {
+                char *it = items + j * k->size;
+                char idx[32];
+                snprintf(idx, sizeof idx, "%zu", j);
+                if (!extend(q, sizeof q, p, by_id && it[id_at] ? it + id_at : idx))
+                    each_key(k->sub, skip, it, q, placeholders, fn, ctx);
+            }
+            break;
+        }
+        }
+    }
+}
+
+void tp_config_each_key(const tp_desc *desc, int placeholders, tp_config_key_fn fn, void *ctx)
+{
+    each_key(&top_sec, 0, (void *)(uintptr_t)desc, "", placeholders, fn, ctx);
+}

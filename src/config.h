@@ -63,4 +63,27 @@ tp_status tp_config_set(tp_desc *desc, const char *path, double si);
 tp_status tp_config_check(const tp_desc *desc, const char *path, double si, char *msg,
                           size_t msg_size);
 
+/* The keys of the schema, for completion and the manual pages. */
+typedef enum tp_config_key_kind {
+    TP_KEY_NUMBER, /* a number: --set, --vary, --spread and --free take it */
+    TP_KEY_PAIR,   /* a pair of numbers ([250 mm, 210 mm]); PATH.0 and PATH.1 are numbers */
+    TP_KEY_TEXT    /* an id, a mode, free text or a pair of ids: --set only */
+} tp_config_key_kind;
+
+typedef struct tp_config_key_info {
+    const char *path;        /* dotted, e.g. "heater.power" or "bed.layers.plate.contact" */
+    tp_config_key_kind kind;
+    tp_dim dim;              /* the unit's dimension (TP_DIM_NONE for text and bare numbers) */
+    int required;            /* required within its section */
+} tp_config_key_info;
+
+typedef void (*tp_config_key_fn)(const tp_config_key_info *key, void *ctx);
+
+/* Call `fn` for every leaf key of the schema, in schema order. Lists (bed.layers, loads,
+ * network.nodes, materials, ...) are expanded with the items of `desc`, by id where items
+ * have one and by 0-based index otherwise. With desc NULL and `placeholders` set, an item is
+ * named "ID" (or "N" where items have no id, as network.links); with desc NULL and no
+ * placeholders, list items are left out. Reads only. */
+void tp_config_each_key(const tp_desc *desc, int placeholders, tp_config_key_fn fn, void *ctx);
+
 #endif

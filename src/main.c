@@ -8,7 +8,9 @@
 #include "commands.h"
 #include "diag.h"
 #include "materials.h"
+#include "selfdoc.h"
 #include "units.h"
+#include "version.h"
 
 static void usage(FILE *fp)
 {
@@ -69,9 +71,11 @@ static int run(int argc, char **argv)
         return TP_EXIT_OK;
     }
     if (strcmp(argv[1], "--version") == 0) {
-        printf("tepid %s\n", TP_VERSION);
+        tp_version_print(stdout);
         return TP_EXIT_OK;
     }
+    if (tp_selfdoc_is_hidden(argv[1])) /* the build's and the completion's helpers */
+        return tp_selfdoc_run(tp_verbs, tp_n_verbs, argc - 1, argv + 1);
     verb = tp_verb_find(argv[1]);
     if (!verb) {
         tp_verb_unknown(argv[1], &d);

@@ -491,8 +491,9 @@ static void test_cli_help_and_version(void **state)
         tp_run_tepid(&s, args, &r);
     }
     assert_int_equal(r.status, 0);
+    /* the first line; the library versions after it are checked in test_manpage */
     snprintf(expected, sizeof expected, "tepid %s\n", TP_VERSION);
-    assert_string_equal(r.out, expected);
+    assert_int_equal(strncmp(r.out, expected, strlen(expected)), 0);
     tp_run_clear(&r);
     tp_scratch_destroy(&s);
 }

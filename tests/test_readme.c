@@ -25,19 +25,6 @@ static int is_output_option(const char *tok)
     return 0;
 }
 
-/* A bare file name with an output's extension (not an input under configs/, not an option). */
-static int looks_like_output(const char *tok)
-{
-    static const char *const ext[] = {".png", ".svg", ".pdf", ".csv", ".json", ".yaml"};
-    size_t i, n = strlen(tok);
-    if (tok[0] == '-' || strchr(tok, '=') || strchr(tok, '/'))
-        return 0;
-    for (i = 0; i < sizeof ext / sizeof ext[0]; i++)
-        if (n > strlen(ext[i]) && strcmp(tok + n - strlen(ext[i]), ext[i]) == 0)
-            return 1;
-    return 0;
-}
-
 /* Run one README line: "./build/tepid VERB configs/X ... [--plot F]". Paths under configs/ are
  * made absolute; output names are put into the scratch directory. */
 static void run_line(const tp_scratch *s, char *line)
@@ -54,7 +41,7 @@ static void run_line(const tp_scratch *s, char *line)
             snprintf(store[n], TP_TEST_PATH, "%s/%s", TP_SOURCE_DIR, tok);
         else if (prev_out && tok[0] != '-')
             tp_scratch_path(s, tok, store[n], TP_TEST_PATH);
-        else if (looks_like_output(tok))
+        else if (tp_looks_like_output(tok))
             fail_msg("README example names the file '%s' after an option this test does not "
                      "treat as an output: add the option to is_output_option",
                      tok);

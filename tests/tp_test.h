@@ -174,6 +174,21 @@ static inline int tp_scratch_group_teardown(void **state)
     return 0;
 }
 
+/* Nonzero when a command-line word is a bare file name with the extension of a file tepid
+ * writes (not an option, not key=value, not a path into configs/): the README's and the
+ * --help examples' outputs, which tests put into a scratch directory. */
+static inline int tp_looks_like_output(const char *tok)
+{
+    static const char *const ext[] = {".png", ".svg", ".pdf", ".csv", ".json", ".yaml"};
+    size_t i, n = strlen(tok);
+    if (tok[0] == '-' || strchr(tok, '=') || strchr(tok, '/'))
+        return 0;
+    for (i = 0; i < sizeof ext / sizeof ext[0]; i++)
+        if (n > strlen(ext[i]) && strcmp(tok + n - strlen(ext[i]), ext[i]) == 0)
+            return 1;
+    return 0;
+}
+
 static inline int tp_file_exists(const char *path)
 {
     struct stat st;
