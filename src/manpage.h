@@ -12,7 +12,7 @@
  * ones (the tables --help prints), examples, exit status, see also. */
 void tp_manpage_verb(const tp_verb *verb, FILE *fp);
 
-/* The page tepid(1): `tmpl` (packaging/tepid.1.in, roff) with these lines replaced:
+/* The page tepid(1): `tmpl` (docs/man/tepid.1.in, roff) with these lines replaced:
  * "@VERBS@" by the verbs and their summaries, "@COMMON_OPTIONS@" by the common options,
  * "@KEYS@" by every config key path of the schema with its unit, "@EXIT_STATUS@" by the exit
  * codes, "@SEE_ALSO@" by the verbs' pages; and "@VERSION@" anywhere by tepid's version. */

@@ -10,7 +10,7 @@
 #include "manpage.h"
 #include "outfile.h"
 
-#define TEMPLATE_MAX (1u << 20) /* bytes of a template under packaging/ */
+#define TEMPLATE_MAX (1u << 20) /* bytes of a template under docs/ or src/ */
 
 static const char *const hidden[] = {"_man", "_completion", "_keys"};
 

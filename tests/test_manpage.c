@@ -363,19 +363,19 @@ static void test_version_names_the_libraries(void **state)
     free(out);
 }
 
-/* The package's changelog (packaging/changelog, installed as changelog.gz) opens with an entry
+/* The package's changelog (docs/debian/changelog, installed as changelog.gz) opens with an entry
  * for this version, in the form Debian Policy 4.6 section 4.4 gives for a changelog entry's
  * first line: "package (version) distribution(s); urgency=urgency". */
 static void test_changelog_opens_with_this_version(void **state)
 {
     char path[TP_TEST_PATH], want[64], *text;
     (void)state;
-    snprintf(path, sizeof path, "%s/packaging/changelog", TP_SOURCE_DIR);
+    snprintf(path, sizeof path, "%s/docs/debian/changelog", TP_SOURCE_DIR);
     text = tp_read_file(path);
     assert_non_null(text);
     snprintf(want, sizeof want, "tepid (%s) ", TP_VERSION);
     if (strncmp(text, want, strlen(want)) != 0)
-        fail_msg("packaging/changelog does not open with an entry '%s...': add one for the "
+        fail_msg("docs/debian/changelog does not open with an entry '%s...': add one for the "
                  "version in CMakeLists.txt",
                  want);
     tp_check_contains("changelog entry", text, "; urgency=");
