@@ -275,7 +275,7 @@ static tp_status attach_control(const tp_desc *desc, const tp_doc *doc, tp_netwo
         tp_diag_error(d, where(doc, "control.setpoint"), "control.setpoint",
                       "tepid models heating: the setpoint must be above the room",
                       "the setpoint %.2f degC is below the room temperature %.2f degC",
-                      c->setpoint - 273.15, coldest - 273.15);
+                      c->setpoint - TP_KELVIN_0C, coldest - TP_KELVIN_0C);
         return TP_ERR_CONFIG;
     }
     k->mode = c->mode;

@@ -11,12 +11,12 @@
 #include <string.h>
 
 #include "steady.h"
+#include "units.h"
 
 #define TP_DERATE 0.9        /* -, continuous load as a share of the supply rating */
 #define TP_DROP_MAX 0.03     /* -, wiring drop as a share of the supply voltage */
 #define TP_SWITCH_MAX 1.0    /* W in a switch without a heatsink */
 #define TP_FUSE_FACTOR 1.25  /* -, fuse rating over continuous current */
-#define KELVIN_0C 273.15     /* K at 0 degC */
 
 static const double fuse_sizes[] = {0.5,  1.0,  1.6, 2.0,  2.5,  3.15, 4.0,  5.0,  6.3,
                                     7.5,  8.0,  10,  12.5, 15,   16,   20,   25,   30,
@@ -167,8 +167,8 @@ tp_status tp_budget_compute(const tp_desc *desc, tp_network *net, tp_budget *b, 
         check(b, "holding within the duty limit", b->duty_hold <= s->max_duty, b->duty_hold,
               s->max_duty, "-", "the series resistance of supply, wiring and switch included");
     if (b->out_of_reach)
-        check(b, "setpoint within reach", 0, b->reading_full - KELVIN_0C,
-              net->control.setpoint - KELVIN_0C, "degC",
+        check(b, "setpoint within reach", 0, b->reading_full - TP_KELVIN_0C,
+              net->control.setpoint - TP_KELVIN_0C, "degC",
               "at full power the reading levels off below the setpoint");
     if (isfinite(b->i_rating)) {
         check(b, "supply at cold start", b->i_total_cold <= b->i_rating, b->i_total_cold,

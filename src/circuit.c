@@ -5,7 +5,9 @@
 #include <math.h>
 #include <string.h>
 
-#define TP_KELVIN_20C 293.15
+#include "units.h"
+
+#define TP_KELVIN_20C (TP_KELVIN_0C + 20.0) /* K, the reference of the copper data */
 #define TP_PI 3.14159265358979323846
 
 double tp_awg_area(double n)

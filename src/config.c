@@ -714,7 +714,7 @@ static void set_default(double *x, double v)
 #define TP_DEFAULT_WALL_TIME 600.0  /* s, wall-clock limit of one integration */
 #define TP_DEFAULT_PERIOD 1.0       /* s, controller sampling period */
 #define TP_DEFAULT_BAND 2.0         /* K, on-off hysteresis */
-#define TP_REFERENCE_20C 293.15     /* K, resistance reference temperature 20 degC */
+#define TP_REFERENCE_20C (TP_KELVIN_0C + 20.0) /* K, resistance reference temperature 20 degC */
 #define TP_ATMOSPHERE 101325.0      /* Pa, standard atmosphere */
 #define TP_GUARD_HOLD 600.0         /* s a healthy corner is followed after reaching the setpoint */
 #define TP_GUARD_TIME_FACTOR 1.5    /* -, safety factor on healthy durations (docs/guard.md) */
@@ -821,7 +821,6 @@ static tp_loc key_loc(const tp_doc *doc, const char *path)
 
 #define TP_ROOM_MIN 223.15 /* K, -50 degC: colder rooms are typos ("5 K" for 5 degC) */
 #define TP_SETPOINT_MIN 200.0 /* K, -73 degC: colder setpoints are typos ("60 K" for 60 degC) */
-#define TP_ZERO_CELSIUS 273.15 /* K at 0 degC */
 
 /* A setpoint below TP_SETPOINT_MIN, refused before anything is assembled (the convection
  * correlations would otherwise be evaluated at it and warn first, issue 15 item 11). When the
@@ -850,8 +849,8 @@ static void check_setpoint(reader *r, const tp_doc *doc, const tp_desc *c)
                  "e.g. 60 degC");
     tp_diag_error(r->d, key_loc(doc, "control.setpoint"), "control.setpoint", hint,
                   "%.6g K (%.2f degC) is implausibly low for a setpoint (limit %.0f K, %.2f "
-                  "degC)", c->control.setpoint, c->control.setpoint - TP_ZERO_CELSIUS,
-                  TP_SETPOINT_MIN, TP_SETPOINT_MIN - TP_ZERO_CELSIUS);
+                  "degC)", c->control.setpoint, c->control.setpoint - TP_KELVIN_0C,
+                  TP_SETPOINT_MIN, TP_SETPOINT_MIN - TP_KELVIN_0C);
 }
 
 /* Limits that involve two keys, checked with the defaults in place and before anything is
@@ -863,7 +862,7 @@ static void check_run_size(reader *r, const tp_doc *doc, const tp_desc *c)
         tp_diag_error(r->d, key_loc(doc, "room.temperature"), "room.temperature",
                       "a room is between about -40 and 120 degC",
                       "%.2f degC is implausibly low (limit -50 degC)",
-                      c->room.temperature - TP_ZERO_CELSIUS);
+                      c->room.temperature - TP_KELVIN_0C);
     double rows = c->run.duration / c->run.step + 1.0;
     if (!(rows <= TP_MAX_OUTPUT_ROWS))
         tp_diag_error(r->d, key_loc(doc, "run.step"), "run.step",

@@ -5,8 +5,9 @@
 #define TP_CONTROL_H
 
 #include "desc.h"
+#include "units.h"
 
-#define TP_KELVIN_25C 298.15 /* K, the NTC reference temperature 25 degC */
+#define TP_KELVIN_25C (TP_KELVIN_0C + 25.0) /* K, the NTC reference temperature 25 degC */
 
 /* How a sensor temperature becomes a reading. */
 typedef struct tp_reading_model {

@@ -6,8 +6,8 @@
 #include <math.h>
 
 #include "outfile.h"
+#include "units.h"
 
-#define TP_KELVIN 273.15 /* K at 0 degC */
 
 void tp_csv_real(FILE *fp, double v)
 {
@@ -40,15 +40,15 @@ tp_status tp_csv_write_history(const char *path, const tp_history *h, tp_diag *d
         tp_csv_real(o.fp, h->t[i]);
         for (k = 0; k < h->n_out; k++) {
             fputc(',', o.fp);
-            tp_csv_real(o.fp, tp_history_temp(h, i, k) - TP_KELVIN);
+            tp_csv_real(o.fp, tp_history_temp(h, i, k) - TP_KELVIN_0C);
         }
         if (h->surface_min) {
             fputc(',', o.fp);
-            tp_csv_real(o.fp, h->surface[i] - TP_KELVIN);
+            tp_csv_real(o.fp, h->surface[i] - TP_KELVIN_0C);
             fputc(',', o.fp);
-            tp_csv_real(o.fp, h->surface_min[i] - TP_KELVIN);
+            tp_csv_real(o.fp, h->surface_min[i] - TP_KELVIN_0C);
             fputc(',', o.fp);
-            tp_csv_real(o.fp, h->surface_max[i] - TP_KELVIN);
+            tp_csv_real(o.fp, h->surface_max[i] - TP_KELVIN_0C);
         }
         for (k = 0; k < net->n_sources; k++) {
             fputc(',', o.fp);
@@ -58,7 +58,7 @@ tp_status tp_csv_write_history(const char *path, const tp_history *h, tp_diag *d
             fputc(',', o.fp);
             tp_csv_real(o.fp, h->duty[i]);
             fputc(',', o.fp);
-            tp_csv_real(o.fp, h->reading[i] - TP_KELVIN);
+            tp_csv_real(o.fp, h->reading[i] - TP_KELVIN_0C);
         }
         fputc('\n', o.fp);
     }

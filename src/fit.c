@@ -976,10 +976,10 @@ tp_status tp_fit_run(const tp_fit_problem *pb, tp_fit_result *res, tp_diag *d)
         snprintf(hint, sizeof hint,
                  "start the log with the plate cold, or set room.temperature to the log's "
                  "start (--set room.temperature=%.1fdegC)",
-                 log->reading[0] - 273.15);
+                 log->reading[0] - TP_KELVIN_0C);
         tp_diag_warn(d, (tp_loc){log->name, log->line[0], 1}, NULL, hint,
                      "the log starts at %.1f degC but the model starts at %.1f degC",
-                     log->reading[0] - 273.15, res->model_start[0] - 273.15);
+                     log->reading[0] - TP_KELVIN_0C, res->model_start[0] - TP_KELVIN_0C);
     }
 
     for (s = 0; s < starts; s++) {

@@ -5,8 +5,8 @@
 #include <stdlib.h>
 
 #include "outfile.h"
+#include "units.h"
 
-#define TP_JSON_KELVIN_0C 273.15 /* K at 0 degC */
 
 cJSON *tp_json_number(cJSON *obj, const char *name, double v)
 {
@@ -19,7 +19,7 @@ void tp_json_conditions(cJSON *root, const tp_network *net)
 {
     double amps, watts;
     int src = tp_network_cold_start(net, &amps, &watts, NULL);
-    tp_json_number(root, "room_C", tp_network_room(net) - TP_JSON_KELVIN_0C);
+    tp_json_number(root, "room_C", tp_network_room(net) - TP_KELVIN_0C);
     tp_json_number(root, "heater_current_A", amps);
     tp_json_number(root, "heater_power_W", watts);
     tp_json_number(root, "heater_max_duty", src >= 0 ? net->sources[src].max_duty : TP_UNSET);

@@ -13,7 +13,6 @@
 #include "infile.h"
 #include "units.h"
 
-#define KELVIN_0C 273.15 /* K at 0 degC */
 #define DAY 86400.0      /* s in a day */
 #define HALF_DAY 43200.0 /* s: a clock time this far back has passed midnight */
 
@@ -599,7 +598,7 @@ columns:
 
 static double to_kelvin(int kind, double v)
 {
-    return kind == 0 ? v + KELVIN_0C : kind == 1 ? (v - 32.0) * 5.0 / 9.0 + KELVIN_0C : v;
+    return kind == 0 ? v + TP_KELVIN_0C : kind == 1 ? (v - 32.0) * 5.0 / 9.0 + TP_KELVIN_0C : v;
 }
 
 static void fmt_seconds(double s, char *buf, size_t size)
@@ -766,7 +765,7 @@ static tp_status parse_cells(parser *p, tp_log *log, long i, int line, tp_log_ti
                          "check the column and its unit (temp_F for Fahrenheit, temp_K for "
                          "kelvin); a disconnected sensor logs nonsense",
                          "reading %s %s (%.1f degC) is outside -50..500 degC", c, log->temp_unit,
-                         v - KELVIN_0C),
+                         v - TP_KELVIN_0C),
                TP_ERR_CONFIG;
     log->reading[i] = v;
     /* Drive. */

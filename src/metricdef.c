@@ -7,7 +7,6 @@
 
 #include "report.h"
 
-#define KELVIN_0C 273.15 /* K at 0 degC (BIPM SI Brochure, 9th ed., 2.3.1) */
 
 /* Directions: a time, an overshoot, an energy, a power, a current, a duty or a temperature is
  * worse when higher; a margin is worse when lower; an offset or a lag either way from zero. The
@@ -41,8 +40,8 @@ static const tp_metricdef table[TP_MET_COUNT] = {
     [TP_MET_CURRENT_PEAK] = {"current_peak_A", "peak current", "A", 0.0, TP_FORM_NUMBER, "A", 1.0,
                              0.0, 2, TP_WORSE_HIGHER,
                              "more current through the wiring, connectors and switch"},
-    [TP_MET_SURFACE_MAX] = {"surface_max_C", "hottest surface", "degC", KELVIN_0C, TP_FORM_NUMBER,
-                            "degC", 1.0, KELVIN_0C, 1, TP_WORSE_HIGHER,
+    [TP_MET_SURFACE_MAX] = {"surface_max_C", "hottest surface", "degC", TP_KELVIN_0C, TP_FORM_NUMBER,
+                            "degC", 1.0, TP_KELVIN_0C, 1, TP_WORSE_HIGHER,
                             "a hotter surface: burns and material limits"},
     [TP_MET_HOLD_POWER] = {"holding_power_W", "holding power", "W", 0.0, TP_FORM_NUMBER, "W", 1.0,
                            0.0, 1, TP_WORSE_HIGHER, "more power needed to hold the setpoint"},
@@ -50,8 +49,8 @@ static const tp_metricdef table[TP_MET_COUNT] = {
                           3, TP_WORSE_HIGHER, "less duty left to recover from a disturbance"},
     [TP_MET_MARGIN] = {"margin", "margin", "1", 0.0, TP_FORM_NUMBER, "x", 1.0, 0.0, 2,
                        TP_WORSE_LOWER, "less power in reserve over what holding needs"},
-    [TP_MET_HIGHEST] = {"highest_reachable_C", "highest reachable", "degC", KELVIN_0C,
-                        TP_FORM_NUMBER, "degC", 1.0, KELVIN_0C, 1, TP_WORSE_HIGHER,
+    [TP_MET_HIGHEST] = {"highest_reachable_C", "highest reachable", "degC", TP_KELVIN_0C,
+                        TP_FORM_NUMBER, "degC", 1.0, TP_KELVIN_0C, 1, TP_WORSE_HIGHER,
                         "hotter if the heater sticks on: the hazard a cut-out must stop"},
 };
 

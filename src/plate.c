@@ -321,8 +321,8 @@ static void physical_warnings(const tp_desc *desc, const tp_doc *doc, const tp_n
             tp_diag_warn(d, at(doc, "control.setpoint"), "control.setpoint",
                          "lower the setpoint or choose a material rated for it",
                          "the setpoint %.0f degC is above the service limit of %s in layer "
-                         "'%s' (%.0f degC)", desc->control.setpoint - 273.15, m->id,
-                         desc->bed.layers[i].id, m->max_temperature - 273.15);
+                         "'%s' (%.0f degC)", desc->control.setpoint - TP_KELVIN_0C, m->id,
+                         desc->bed.layers[i].id, m->max_temperature - TP_KELVIN_0C);
         }
         /* Lumped-capacitance check on the exterior surfaces: Bi = h L_c / k with
          * L_c = V / A_s (Incropera 7th ed. Eq. 5.10), h = convection + radiation averaged over
@@ -381,7 +381,7 @@ static void physical_warnings(const tp_desc *desc, const tp_doc *doc, const tp_n
         tp_diag_warn(d, loc, l->label,
                      "tepid uses the nearest form; treat this coefficient as approximate",
                      "at %.0f degC, Ra = %.3g%s%.3g is outside the validity range of %s",
-                     td - 273.15, info.ra, info.re > 0 ? ", Re = " : "",
+                     td - TP_KELVIN_0C, info.ra, info.re > 0 ? ", Re = " : "",
                      info.re > 0 ? info.re : 0.0, info.method);
     }
 }

@@ -7,9 +7,9 @@
 
 #include "materials.h"
 
-#define TP_BURN_LONG 316.15      /* K, 43 degC: burn threshold for contact of 8 h and longer
+#define TP_BURN_LONG (TP_KELVIN_0C + 43.0) /* K, 43 degC: burn threshold for contact of 8 h and longer
                                     (EN ISO 13732-1 Table 1, from memory) */
-#define TP_BURN_SHORT 338.15     /* K, 65 degC: about 1 s contact with bare metal burns
+#define TP_BURN_SHORT (TP_KELVIN_0C + 65.0) /* K, 65 degC: about 1 s contact with bare metal burns
                                     (EN ISO 13732-1 Fig. 1, from memory) */
 #define TP_ELV_LIMIT 50.0        /* V: above this the supply is treated as hazardous (extra-low
                                     voltage ends at 50 V AC, IEC 61140; from memory) */

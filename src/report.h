@@ -8,8 +8,7 @@
 
 #include "desc.h"
 #include "network.h"
-
-#define TP_KELVIN_0C 273.15 /* K at 0 degC */
+#include "units.h"
 
 /* "6 min 12 s", "1 h 02 min", "45.0 s" into buf. */
 void tp_fmt_duration(double seconds, char *buf, size_t size);

@@ -13,6 +13,7 @@
 #include "desc.h"
 #include "integrate.h"
 #include "multigrid.h"
+#include "units.h"
 
 #include <math.h>
 #include <stdio.h>
@@ -658,8 +659,8 @@ tp_status tp_steady_hold_given(tp_network *net, double target, const tp_steady *
         tp_diag_error(d, tp_loc_none(), "control.setpoint",
                       "more heater power, better insulation, or a lower setpoint",
                       "the setpoint %.2f degC is out of reach: at full power (duty %.2f) the "
-                      "reading levels off at %.2f degC", target - 273.15, umax,
-                      full->reading - 273.15);
+                      "reading levels off at %.2f degC", target - TP_KELVIN_0C, umax,
+                      full->reading - TP_KELVIN_0C);
         return TP_ERR_SOLVER;
     }
     saved_sp = net->control.setpoint;

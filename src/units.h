@@ -7,6 +7,8 @@
 
 #include "status.h"
 
+#define TP_KELVIN_0C 273.15 /* K at 0 degC (BIPM SI Brochure, 9th ed., 2.3.1); the one definition */
+
 /* The physical kinds a config value may have. The SI unit of each is in tp_units_si_name(). */
 typedef enum tp_dim {
     TP_DIM_NONE,            /* dimensionless: a bare number (or "%") */
