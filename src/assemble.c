@@ -262,7 +262,7 @@ static tp_status attach_control(const tp_desc *desc, const tp_doc *doc, tp_netwo
                       "the controller reads the fixed node '%s', which never changes", c->sensor);
         return TP_ERR_CONFIG;
     }
-    if ((c->mode == TP_MODE_ONOFF || c->mode == TP_MODE_PID) && !tp_isset(c->setpoint)) {
+    if (tp_mode_holds(c->mode) && !tp_isset(c->setpoint)) {
         tp_diag_error(d, where(doc, "control"), "control.setpoint", "add setpoint: 100 degC",
                       "mode %s needs a setpoint", tp_mode_name(c->mode));
         return TP_ERR_CONFIG;
@@ -270,8 +270,7 @@ static tp_status attach_control(const tp_desc *desc, const tp_doc *doc, tp_netwo
     for (i = 0; i < net->n_nodes; i++)
         if (net->nodes[i].capacity <= 0 && net->nodes[i].t0 < coldest)
             coldest = net->nodes[i].t0;
-    if (tp_isset(c->setpoint) && c->mode != TP_MODE_OFF && c->mode != TP_MODE_FULL &&
-        c->setpoint < coldest) {
+    if (tp_isset(c->setpoint) && tp_mode_holds(c->mode) && c->setpoint < coldest) {
         tp_diag_error(d, where(doc, "control.setpoint"), "control.setpoint",
                       "tepid models heating: the setpoint must be above the room",
                       "the setpoint %.2f degC is below the room temperature %.2f degC",

@@ -356,13 +356,6 @@ static const key top_keys[] = {
 };
 static const section top_sec = {top_keys, N(top_keys)};
 
-static const char *const mode_names[] = {"off", "full", "on-off", "pid"};
-
-const char *tp_mode_name(tp_mode mode)
-{
-    return (unsigned)mode < N(mode_names) ? mode_names[mode] : "?";
-}
-
 /* ---- helpers ------------------------------------------------------------------------------ */
 
 static double *dbl(void *base, size_t off)
@@ -623,13 +616,13 @@ static void read_value(reader *r, const key *k, const tp_doc_node *n, void *base
         char hint[160];
         if (!expect_kind(r, n, TP_DOC_SCALAR, path, "one of off, full, on-off, pid"))
             return;
-        for (i = 0; i < N(mode_names); i++) {
-            if (strcmp(n->text, mode_names[i]) == 0) {
+        for (i = 0; i < N(tp_mode_names); i++) {
+            if (strcmp(n->text, tp_mode_names[i]) == 0) {
                 *(tp_mode *)field(base, k->offset) = (tp_mode)i;
                 return;
             }
         }
-        tp_diag_suggest(n->text, mode_names, N(mode_names), hint, sizeof hint);
+        tp_diag_suggest(n->text, tp_mode_names, N(tp_mode_names), hint, sizeof hint);
         tp_diag_error(r->d, tp_doc_loc(n), path,
                       hint[0] ? hint : "modes are off, full, on-off and pid",
                       "unknown mode '%s'", n->text);

@@ -278,7 +278,18 @@ typedef struct tp_desc {
     tp_guard_spec guard;
 } tp_desc;
 
-/* Name of a control mode as written in configs ("on-off"); defined in config.c. */
+/* The modes as written in configs, by tp_mode value ("off", "full", "on-off", "pid"). */
+extern const char *const tp_mode_names[TP_MODE_PID + 1];
+
+/* Name of a control mode as written in configs ("on-off"); "?" when out of range. */
 const char *tp_mode_name(tp_mode mode);
+
+/* Nonzero for the modes that hold a setpoint (on-off and pid); off and full hold none. The one
+ * place that says so: tp_desc_holds and tp_network_holds ask it. */
+int tp_mode_holds(tp_mode mode);
+
+/* Nonzero when the description's controller holds a setpoint: present, a mode that holds one
+ * (tp_mode_holds) and a setpoint given. */
+int tp_desc_holds(const tp_desc *desc);
 
 #endif

@@ -1335,8 +1335,7 @@ static double resolution(const tp_reading_model *m, double setpoint)
 static tp_status check_control(const tp_desc *desc, const tp_doc *doc, const tp_network *net,
                                 tp_diag *d)
 {
-    if (!net->has_control || !isfinite(net->control.setpoint) ||
-        (net->control.mode != TP_MODE_ONOFF && net->control.mode != TP_MODE_PID)) {
+    if (!tp_network_holds(net)) {
         if (net->has_control)
             tp_diag_error(d, tp_plate_at(doc, "control.mode"), "control.mode",
                           "use mode pid or on-off with a setpoint",

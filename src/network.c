@@ -522,7 +522,7 @@ double tp_network_room(const tp_network *net)
 int tp_network_holds(const tp_network *net)
 {
     return net->has_control && isfinite(net->control.setpoint) &&
-           (net->control.mode == TP_MODE_ONOFF || net->control.mode == TP_MODE_PID);
+           tp_mode_holds(net->control.mode);
 }
 
 int *tp_network_grounded(const tp_network *net)

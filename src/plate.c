@@ -85,8 +85,7 @@ static void layer_path(const tp_desc *desc, size_t i, const char *key, char *out
 
 double tp_plate_design_temperature(const tp_desc *desc)
 {
-    if (desc->control.present && tp_isset(desc->control.setpoint) &&
-        (desc->control.mode == TP_MODE_ONOFF || desc->control.mode == TP_MODE_PID))
+    if (tp_desc_holds(desc))
         return desc->control.setpoint;
     return desc->room.temperature + TP_DESIGN_RISE;
 }
