@@ -11,29 +11,16 @@
 #include "config.h"
 #include "plate.h"
 
-/* The location of the config node at a printf-formatted path; no position when unknown. */
+/* tp_doc_nearest for a printf-formatted path. */
 static tp_loc where(const tp_doc *doc, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
 static tp_loc where(const tp_doc *doc, const char *fmt, ...)
 {
     char path[256];
     va_list ap;
-    tp_doc_node *n;
-    tp_loc loc = {doc ? doc->file : NULL, 0, 0};
-    if (!doc)
-        return tp_loc_none();
     va_start(ap, fmt);
     vsnprintf(path, sizeof path, fmt, ap);
     va_end(ap);
-    n = tp_doc_find(doc, path);
-    /* Fall back to the nearest enclosing key that exists. */
-    while (!n) {
-        char *dot = strrchr(path, '.');
-        if (!dot)
-            break;
-        *dot = '\0';
-        n = tp_doc_find(doc, path);
-    }
-    return n ? tp_doc_loc(n) : loc;
+    return tp_doc_nearest(doc, path);
 }
 
 /* A did-you-mean hint among the network's node ids. */

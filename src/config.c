@@ -795,23 +795,6 @@ static void check_form(reader *r, const tp_doc *doc, tp_desc *c)
                       "add heater: {layer: ..., power: 200 W}", "missing required key");
 }
 
-/* The position of the key at `path` if the file gave it, else of the nearest enclosing
- * section, else of the top. */
-static tp_loc key_loc(const tp_doc *doc, const char *path)
-{
-    char buf[64];
-    const tp_doc_node *n = tp_doc_find(doc, path);
-    snprintf(buf, sizeof buf, "%s", path);
-    while (!n) {
-        char *dot = strrchr(buf, '.');
-        if (!dot)
-            break;
-        *dot = '\0';
-        n = tp_doc_find(doc, buf);
-    }
-    return tp_doc_loc(n ? n : doc->root);
-}
-
 #define TP_ROOM_MIN 223.15 /* K, -50 degC: colder rooms are typos ("5 K" for 5 degC) */
 #define TP_SETPOINT_MIN 200.0 /* K, -73 degC: colder setpoints are typos ("60 K" for 60 degC) */
 
@@ -840,7 +823,7 @@ static void check_setpoint(reader *r, const tp_doc *doc, const tp_desc *c)
     else
         snprintf(hint, sizeof hint, "tepid models heating: a setpoint is above the room, "
                  "e.g. 60 degC");
-    tp_diag_error(r->d, key_loc(doc, "control.setpoint"), "control.setpoint", hint,
+    tp_diag_error(r->d, tp_doc_nearest(doc, "control.setpoint"), "control.setpoint", hint,
                   "%.6g K (%.2f degC) is implausibly low for a setpoint (limit %.0f K, %.2f "
                   "degC)", c->control.setpoint, c->control.setpoint - TP_KELVIN_0C,
                   TP_SETPOINT_MIN, TP_SETPOINT_MIN - TP_KELVIN_0C);
@@ -852,19 +835,19 @@ static void check_run_size(reader *r, const tp_doc *doc, const tp_desc *c)
 {
     check_setpoint(r, doc, c);
     if (c->form == TP_FORM_PHYSICAL && c->room.temperature < TP_ROOM_MIN)
-        tp_diag_error(r->d, key_loc(doc, "room.temperature"), "room.temperature",
+        tp_diag_error(r->d, tp_doc_nearest(doc, "room.temperature"), "room.temperature",
                       "a room is between about -40 and 120 degC",
                       "%.2f degC is implausibly low (limit -50 degC)",
                       c->room.temperature - TP_KELVIN_0C);
     double rows = c->run.duration / c->run.step + 1.0;
     if (!(rows <= TP_MAX_OUTPUT_ROWS))
-        tp_diag_error(r->d, key_loc(doc, "run.step"), "run.step",
+        tp_diag_error(r->d, tp_doc_nearest(doc, "run.step"), "run.step",
                       "raise run.step (the output interval) or shorten run.duration",
                       "%.3g output rows (run.duration / run.step) exceed the limit of %.0f",
                       rows, TP_MAX_OUTPUT_ROWS);
     if (c->control.present && c->control.mode != TP_MODE_OFF &&
         !(c->run.duration / c->control.period <= TP_MAX_TICKS))
-        tp_diag_error(r->d, key_loc(doc, "control.period"), "control.period",
+        tp_diag_error(r->d, tp_doc_nearest(doc, "control.period"), "control.period",
                       "raise control.period (real controllers sample every 0.1 s to a few "
                       "seconds) or shorten run.duration",
                       "%.3g controller samples (run.duration / control.period) exceed the "
@@ -886,12 +869,12 @@ static void check_mode_keys(reader *r, const tp_doc *doc, const tp_desc *c)
         for (i = 0; i < N(pid_keys); i++) {
             snprintf(path, sizeof path, "control.%s", pid_keys[i]);
             if (tp_doc_find(doc, path))
-                tp_diag_warn(r->d, key_loc(doc, path), path,
+                tp_diag_warn(r->d, tp_doc_nearest(doc, path), path,
                              "it applies to mode pid only; remove it or set mode: pid",
                              "has no effect in mode %s", tp_mode_name(c->control.mode));
         }
     if (c->control.mode != TP_MODE_ONOFF && tp_doc_find(doc, "control.band"))
-        tp_diag_warn(r->d, key_loc(doc, "control.band"), "control.band",
+        tp_diag_warn(r->d, tp_doc_nearest(doc, "control.band"), "control.band",
                      "it applies to mode on-off only; remove it or set mode: on-off",
                      "has no effect in mode %s", tp_mode_name(c->control.mode));
 }
@@ -901,7 +884,7 @@ tp_status tp_config_check_gains(const tp_doc *doc, const tp_desc *desc, tp_diag 
     const tp_control_spec *c = &desc->control;
     if (!c->present || c->mode != TP_MODE_PID || c->kp > 0 || c->ki > 0)
         return TP_OK;
-    tp_diag_error(d, key_loc(doc, "control"), "control.kp",
+    tp_diag_error(d, tp_doc_nearest(doc, "control"), "control.kp",
                   "give kp (and usually ki), e.g. kp: 0.05 1/K, ki: 0.001 1/(K.s); "
                   "'tepid tune' suggests gains", "mode pid needs gains");
     return TP_ERR_CONFIG;

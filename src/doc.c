@@ -646,6 +646,24 @@ tp_doc_node *tp_doc_find(const tp_doc *doc, const char *path)
     return n;
 }
 
+tp_loc tp_doc_nearest(const tp_doc *doc, const char *path)
+{
+    char buf[512];
+    const tp_doc_node *n = NULL;
+    if (!doc)
+        return tp_loc_none();
+    snprintf(buf, sizeof buf, "%s", path);
+    while (!(n = tp_doc_find(doc, buf))) {
+        char *dot = strrchr(buf, '.');
+        if (!dot)
+            break;
+        *dot = '\0';
+    }
+    if (!n)
+        n = doc->root;
+    return n ? tp_doc_loc(n) : (tp_loc){doc->file, 0, 0};
+}
+
 /* Shift every node of a --set value to the command-line position. */
 static void mark_override(tp_doc_node *n, int line)
 {

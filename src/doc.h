@@ -65,6 +65,13 @@ tp_doc_node *tp_doc_find(const tp_doc *doc, const char *path);
 /* The location of a node for diagnostics. */
 tp_loc tp_doc_loc(const tp_doc_node *node);
 
+/* Where to point a message about the key at `path` (tp_doc_find's rules): the key itself when
+ * the file gives it, else the nearest enclosing key that it gives, else the top of the
+ * document; the file without a position when the document is empty, and no file at all when
+ * `doc` is NULL (a description built without a file). The one helper for "nearest key
+ * position": every layer that reports on a key asks it. */
+tp_loc tp_doc_nearest(const tp_doc *doc, const char *path);
+
 /* A short name of a node's kind for messages: "a value", "a section", "a list". */
 const char *tp_doc_kind_name(tp_doc_kind kind);
 

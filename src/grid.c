@@ -35,7 +35,6 @@
 
 #include "config.h"
 #include "materials.h"
-#include "plate.h"
 
 #define TP_COVER_MIN 1.0e-9 /* -, a smaller covered fraction of a cell counts as none */
 #define TP_SHARE_MIN 1.0e-12 /* -, a smaller share of a lumped link gets no cell link */
@@ -168,7 +167,7 @@ static tp_status geometry(refine *r)
         g->t = ly->thickness;
         if (g->w > W * (1.0 + 1e-12) || g->d > D * (1.0 + 1e-12)) {
             snprintf(path, sizeof path, "bed.layers.%s.size", ly->id);
-            tp_diag_error(r->d, tp_plate_at(r->doc, path), path,
+            tp_diag_error(r->d, tp_doc_nearest(r->doc, path), path,
                           "with bed.grid the cells span bed.size: make bed.size the largest "
                           "layer's plan",
                           "layer '%s' (%g x %g mm) is larger than the bed (%g x %g mm)", ly->id,
@@ -177,7 +176,7 @@ static tp_status geometry(refine *r)
         }
         if (strlen(ly->id) + 10 >= TP_ID_MAX) {
             snprintf(path, sizeof path, "bed.layers.%d.id", k);
-            tp_diag_error(r->d, tp_plate_at(r->doc, path), path,
+            tp_diag_error(r->d, tp_doc_nearest(r->doc, path), path,
                           "cells are named <layer>:<column>:<row>; use a shorter layer id",
                           "with bed.grid a layer id has at most %d characters", TP_ID_MAX - 11);
             continue;
@@ -404,7 +403,7 @@ static tp_status sensor_link(refine *r, const tp_net_link *l, int host)
     char suffix[32];
     if (x < g->x.lo - TP_ON_EDGE * r->dx || x > g->x.hi + TP_ON_EDGE * r->dx ||
         y < g->y.lo - TP_ON_EDGE * r->dy || y > g->y.hi + TP_ON_EDGE * r->dy) {
-        tp_diag_error(r->d, tp_plate_at(r->doc, "sensor.position"), "sensor.position",
+        tp_diag_error(r->d, tp_doc_nearest(r->doc, "sensor.position"), "sensor.position",
                       "the position is measured from the bed's lower-left corner",
                       "the sensor at [%g mm, %g mm] lies outside its host layer '%s' "
                       "([%g, %g] x [%g, %g] mm)", x * 1e3, y * 1e3,
@@ -508,7 +507,7 @@ static int heater_map(refine *r, int k, int *nodes, double *w)
     if (pat->present) {
         b = pat->border;
         if (2.0 * b >= fmin(g->w, g->d)) {
-            tp_diag_error(r->d, tp_plate_at(r->doc, "heater.pattern.border"),
+            tp_diag_error(r->d, tp_doc_nearest(r->doc, "heater.pattern.border"),
                           "heater.pattern.border",
                           "the band runs inside the heater layer's outline",
                           "a border of %g mm leaves nothing inside the %g x %g mm heater layer",

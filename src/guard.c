@@ -19,7 +19,6 @@
 #include "config.h"
 #include "integrate.h"
 #include "materials.h"
-#include "plate.h"
 #include "report.h"
 
 #define TP_GUARD_TIME_EPS 1.0e-6 /* s: sample times closer than this are the same time */
@@ -583,7 +582,7 @@ static tp_status run_hold(ctx *cx, const tp_desc *cd, tp_network *net, tp_guard_
             if (rs != TP_OK) {
                 const char *key = chg[due - 1].kind == TP_CHANGE_TOP_AIRFLOW ? "guard.gust"
                                                                                : "guard.sheet";
-                tp_diag_error(cx->d, tp_plate_at(cx->doc, key), key,
+                tp_diag_error(cx->d, tp_doc_nearest(cx->doc, key), key,
                               "drop it, or use the physical form with a top layer",
                               "the disturbance cannot be applied to this plate");
                 break;
@@ -887,7 +886,7 @@ tp_status tp_guard_ranges_resolve(const tp_desc *desc, const tp_doc *doc, const 
             r->lo = pair[0];
             r->hi = pair[1];
             if (pair[1] < pair[0]) {
-                tp_diag_error(d, tp_plate_at(doc, key), key, "write [low, high]",
+                tp_diag_error(d, tp_doc_nearest(doc, key), key, "write [low, high]",
                               "the range is reversed");
                 bad = 1;
             }
@@ -917,7 +916,7 @@ tp_status tp_guard_ranges_resolve(const tp_desc *desc, const tp_doc *doc, const 
         if (!electric && rr->r[k].origin == TP_RANGE_DECLARED &&
             (k == TP_RANGE_SUPPLY || rr->r[k].tolerance > 0)) {
             const char *key = k == TP_RANGE_SUPPLY ? "guard.supply" : "guard.resistance";
-            tp_diag_error(d, tp_plate_at(doc, key), key,
+            tp_diag_error(d, tp_doc_nearest(doc, key), key,
                           "give the heater a supply and a resistance, or drop the range",
                           "the controlled heater has a fixed power: no supply or resistance to "
                           "vary");
@@ -925,13 +924,13 @@ tp_status tp_guard_ranges_resolve(const tp_desc *desc, const tp_doc *doc, const 
             break;
         }
     if (!physical && rr->r[TP_RANGE_AIRFLOW].origin == TP_RANGE_DECLARED) {
-        tp_diag_error(d, tp_plate_at(doc, "guard.airflow"), "guard.airflow",
+        tp_diag_error(d, tp_doc_nearest(doc, "guard.airflow"), "guard.airflow",
                       "airflow, gusts and sheets need the physical form (bed:, room:)",
                       "not available in the raw network form");
         bad = 1;
     }
     if (rr->r[TP_RANGE_ROOM].origin == TP_RANGE_DECLARED && !tp_isset(room0)) {
-        tp_diag_error(d, tp_plate_at(doc, "guard.room"), "guard.room", "add a fixed node (the room)",
+        tp_diag_error(d, tp_doc_nearest(doc, "guard.room"), "guard.room", "add a fixed node (the room)",
                       "the network has no room temperature to vary");
         bad = 1;
     }
@@ -960,7 +959,7 @@ static tp_status factors(ctx *cx, factor *f, tp_guard_corner *nominal)
     }
     if (desc->form != TP_FORM_PHYSICAL && (g->gust.present || g->sheet.present)) {
         const char *key = g->gust.present ? "guard.gust" : "guard.sheet";
-        tp_diag_error(cx->d, tp_plate_at(cx->doc, key), key,
+        tp_diag_error(cx->d, tp_doc_nearest(cx->doc, key), key,
                       "airflow, gusts and sheets need the physical form (bed:, room:)",
                       "not available in the raw network form");
         return TP_ERR_CONFIG;
@@ -1337,18 +1336,18 @@ static tp_status check_control(const tp_desc *desc, const tp_doc *doc, const tp_
 {
     if (!tp_network_holds(net)) {
         if (net->has_control)
-            tp_diag_error(d, tp_plate_at(doc, "control.mode"), "control.mode",
+            tp_diag_error(d, tp_doc_nearest(doc, "control.mode"), "control.mode",
                           "use mode pid or on-off with a setpoint",
                           "guard judges a controller holding a setpoint; mode '%s' holds none",
                           tp_mode_name(net->control.mode));
         else
-            tp_diag_error(d, tp_plate_at(doc, "control"), "control",
+            tp_diag_error(d, tp_doc_nearest(doc, "control"), "control",
                           "add control: {mode: pid, setpoint: ...} or mode on-off",
                           "guard judges a controller holding a setpoint; the file has none");
         return TP_ERR_CONFIG;
     }
     if (desc->guard.time_factor < 1.0) {
-        tp_diag_error(d, tp_plate_at(doc, "guard.time_factor"), "guard.time_factor",
+        tp_diag_error(d, tp_doc_nearest(doc, "guard.time_factor"), "guard.time_factor",
                       "use 1 or more, e.g. 1.5",
                       "a safety factor on healthy durations below 1 gives no margin");
         return TP_ERR_CONFIG;

@@ -36,37 +36,11 @@
 #define TP_BIOT_LIMIT 0.1       /* -, lumped-capacitance criterion (Incropera 7th ed. Eq. 5.10) */
 #define TP_DESIGN_RISE 60.0     /* K above the room, design temperature without a setpoint */
 
-static tp_loc at(const tp_doc *doc, const char *path);
-
 typedef struct geom {
     double w, d, area, t;
     const tp_material_spec *m;
     int node;
 } geom;
-
-tp_loc tp_plate_at(const tp_doc *doc, const char *path)
-{
-    return at(doc, path);
-}
-
-static tp_loc at(const tp_doc *doc, const char *path)
-{
-    tp_doc_node *n = doc ? tp_doc_find(doc, path) : NULL;
-    char buf[256];
-    while (!n && doc) {
-        char *dot;
-        snprintf(buf, sizeof buf, "%s", path);
-        dot = strrchr(buf, '.');
-        if (!dot)
-            break;
-        *dot = '\0';
-        n = tp_doc_find(doc, buf);
-        path = buf;
-        if (!n && !strchr(buf, '.'))
-            break;
-    }
-    return n ? tp_doc_loc(n) : (tp_loc){doc ? doc->file : NULL, 0, 0};
-}
 
 /* The config path of layer i, "bed.layers.<id>" (or its index when an earlier layer has the
  * same id), with ".key" appended when `key` is not NULL: the form config.c uses in messages. */
@@ -164,18 +138,18 @@ static int lower_layers(const tp_desc *desc, const tp_doc *doc, tp_network *net,
         snprintf(path, sizeof path, "bed.layers.%zu", i);
         for (j = 0; j < i; j++)
             if (strcmp(bed->layers[j].id, ly->id) == 0)
-                tp_diag_error(d, at(doc, path), "bed.layers", "give every layer its own id",
+                tp_diag_error(d, tp_doc_nearest(doc, path), "bed.layers", "give every layer its own id",
                               "duplicate layer id '%s'", ly->id);
         for (j = 0; j < sizeof reserved / sizeof reserved[0]; j++)
             if (strcmp(reserved[j], ly->id) == 0)
-                tp_diag_error(d, at(doc, path), "bed.layers",
+                tp_diag_error(d, tp_doc_nearest(doc, path), "bed.layers",
                               "sensor, room, air and walls name nodes tepid creates itself",
                               "the layer id '%s' is reserved", ly->id);
         g[i].m = tp_materials_find(desc, ly->material);
         if (!g[i].m) {
             layer_path(desc, i, "material", path, sizeof path);
             tp_materials_hint(desc, ly->material, hint, sizeof hint);
-            tp_diag_error(d, at(doc, path), path, hint, "unknown material '%s'", ly->material);
+            tp_diag_error(d, tp_doc_nearest(doc, path), path, hint, "unknown material '%s'", ly->material);
             continue;
         }
         g[i].w = tp_isset(ly->size[0]) ? ly->size[0] : bed->size[0];
@@ -184,7 +158,7 @@ static int lower_layers(const tp_desc *desc, const tp_doc *doc, tp_network *net,
         g[i].area = g[i].w * g[i].d;
         if (g[i].t >= fmin(g[i].w, g[i].d)) {
             layer_path(desc, i, "thickness", path, sizeof path);
-            tp_diag_error(d, at(doc, path), path,
+            tp_diag_error(d, tp_doc_nearest(doc, path), path,
                           "a layer of a plate is thinner than it is wide; check the units",
                           "layer '%s' is thicker (%g mm) than its plan size (%g x %g mm)", ly->id,
                           g[i].t * 1e3, g[i].w * 1e3, g[i].d * 1e3);
@@ -195,7 +169,7 @@ static int lower_layers(const tp_desc *desc, const tp_doc *doc, tp_network *net,
     if (tp_isset(bed->layers[0].contact)) {
         char path[128];
         layer_path(desc, 0, "contact", path, sizeof path);
-        tp_diag_warn(d, at(doc, path), path,
+        tp_diag_warn(d, tp_doc_nearest(doc, path), path,
                      "contact belongs to the upper layer of an interface; mounts: {conductance} "
                      "couples the bottom layer to the frame",
                      "the bottom layer '%s' has no layer below; its contact is ignored",
@@ -235,20 +209,20 @@ static tp_status lower_heater(const tp_desc *desc, const tp_doc *doc, tp_network
     char hint[256];
     if (li < 0) {
         layer_hint(&desc->bed, hint, sizeof hint);
-        tp_diag_error(d, at(doc, "heater.layer"), "heater.layer", hint,
+        tp_diag_error(d, tp_doc_nearest(doc, "heater.layer"), "heater.layer", hint,
                       "the heater layer '%s' does not exist", h->layer);
         return TP_ERR_CONFIG;
     }
     electric = tp_isset(h->supply) || tp_isset(h->resistance);
     if (tp_isset(h->power) == electric) {
-        tp_diag_error(d, at(doc, "heater"), "heater",
+        tp_diag_error(d, tp_doc_nearest(doc, "heater"), "heater",
                       "give either power: 220 W, or supply: 24 V with resistance: 2.6 ohm",
                       tp_isset(h->power) ? "power and supply/resistance are both given"
                                          : "the heater needs power, or supply and resistance");
         return TP_ERR_CONFIG;
     }
     if (electric && !(tp_isset(h->supply) && tp_isset(h->resistance))) {
-        tp_diag_error(d, at(doc, "heater"), tp_isset(h->supply) ? "heater.resistance"
+        tp_diag_error(d, tp_doc_nearest(doc, "heater"), tp_isset(h->supply) ? "heater.resistance"
                                                                 : "heater.supply",
                       "an electrical heater needs both supply and resistance",
                       "missing required key");
@@ -284,12 +258,12 @@ static tp_status lower_sensor(const tp_desc *desc, const tp_doc *doc, tp_network
     li = find_layer(&desc->bed, s->layer);
     if (li < 0) {
         layer_hint(&desc->bed, hint, sizeof hint);
-        tp_diag_error(d, at(doc, "sensor.layer"), "sensor.layer", hint,
+        tp_diag_error(d, tp_doc_nearest(doc, "sensor.layer"), "sensor.layer", hint,
                       "the sensor's host layer '%s' does not exist", s->layer);
         return TP_ERR_CONFIG;
     }
     if (tp_isset(s->capacity) == tp_isset(s->time_constant)) {
-        tp_diag_error(d, at(doc, "sensor"), "sensor",
+        tp_diag_error(d, tp_doc_nearest(doc, "sensor"), "sensor",
                       "give capacity: 0.3 J/K or time_constant: 4 s (not both)",
                       "the sensor needs exactly one of capacity or time_constant");
         return TP_ERR_CONFIG;
@@ -317,7 +291,7 @@ static void physical_warnings(const tp_desc *desc, const tp_doc *doc, const tp_n
         char path[128], hint[200];
         if (desc->control.present && tp_isset(desc->control.setpoint) &&
             desc->control.mode != TP_MODE_OFF && desc->control.setpoint > m->max_temperature) {
-            tp_diag_warn(d, at(doc, "control.setpoint"), "control.setpoint",
+            tp_diag_warn(d, tp_doc_nearest(doc, "control.setpoint"), "control.setpoint",
                          "lower the setpoint or choose a material rated for it",
                          "the setpoint %.0f degC is above the service limit of %s in layer "
                          "'%s' (%.0f degC)", desc->control.setpoint - TP_KELVIN_0C, m->id,
@@ -354,7 +328,7 @@ static void physical_warnings(const tp_desc *desc, const tp_doc *doc, const tp_n
             snprintf(hint, sizeof hint,
                      "its node is the average over its thickness; to resolve the gradient, "
                      "split it into thinner layers of the same material");
-            tp_diag_warn(d, at(doc, path), path, hint,
+            tp_diag_warn(d, tp_doc_nearest(doc, path), path, hint,
                          "layer '%s' (%s) has a Biot number of %.2g > %.1f: it is not isothermal",
                          desc->bed.layers[i].id, m->id, bi, TP_BIOT_LIMIT);
         }
@@ -362,7 +336,7 @@ static void physical_warnings(const tp_desc *desc, const tp_doc *doc, const tp_n
     for (k = 0; k < net->n_links; k++) {
         const tp_net_link *l = &net->links[k];
         tp_conv_info info;
-        tp_loc loc = at(doc, "enclosure.walls");
+        tp_loc loc = tp_doc_nearest(doc, "enclosure.walls");
         char path[128];
         double tsink = net->nodes[l->b].capacity > 0 ? tr : net->nodes[l->b].t0;
         if (l->law != TP_LAW_CONVECTION || !l->correlated)
@@ -374,7 +348,7 @@ static void physical_warnings(const tp_desc *desc, const tp_doc *doc, const tp_n
         for (i = 0; i < desc->bed.n_layers; i++) {
             if (g[i].node == l->a) {
                 layer_path(desc, i, NULL, path, sizeof path);
-                loc = at(doc, path);
+                loc = tp_doc_nearest(doc, path);
             }
         }
         tp_diag_warn(d, loc, l->label,
@@ -402,7 +376,7 @@ static tp_status lower_lumped(const tp_desc *desc, const tp_doc *doc, tp_network
     if (tp_materials_builtin(NULL, NULL, d) != TP_OK)
         return TP_ERR_CONFIG;
     if (n == 0 || n > TP_MAX_LAYERS) {
-        tp_diag_error(d, at(doc, "bed.layers"), "bed.layers", "list the layers bottom to top",
+        tp_diag_error(d, tp_doc_nearest(doc, "bed.layers"), "bed.layers", "list the layers bottom to top",
                       "a bed needs 1 to %d layers", TP_MAX_LAYERS);
         return TP_ERR_CONFIG;
     }
@@ -539,7 +513,7 @@ tp_status tp_plate_lower(const tp_desc *desc, const tp_doc *doc, tp_network *net
     if (!tp_grid_wanted(desc)) {
         st = lower_lumped(desc, doc, net, d);
         if (st == TP_OK && desc->heater.pattern.present)
-            tp_diag_warn(d, at(doc, "heater.pattern"), "heater.pattern",
+            tp_diag_warn(d, tp_doc_nearest(doc, "heater.pattern"), "heater.pattern",
                          "set bed.grid: [NX, NY] to resolve the plate into cells",
                          "the heater pattern only shapes the power over the cells of a "
                          "gridded plate; the lumped plate ignores it");

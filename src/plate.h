@@ -16,9 +16,6 @@
  * warnings. */
 tp_status tp_plate_lower(const tp_desc *desc, const tp_doc *doc, tp_network *net, tp_diag *d);
 
-/* The position in `doc` of the key at `path`, or of its nearest enclosing key that exists. */
-tp_loc tp_plate_at(const tp_doc *doc, const char *path);
-
 /* After the controller is attached: the reading model from sensor: (offset, thermistor). */
 tp_status tp_plate_attach_sensor(const tp_desc *desc, tp_network *net);
 

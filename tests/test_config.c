@@ -38,21 +38,12 @@ static void compose(const variant *v, char *out, size_t size)
  * searching the text, independently of the parser's positions. */
 static void locate(const char *text, const char *needle, int *line, int *col)
 {
-    const char *at = strstr(text, needle), *p;
+    const char *at = strstr(text, needle);
     if (!at || strstr(at + 1, needle))
         print_error("'%s' must occur exactly once in\n%s", needle, text);
     assert_non_null(at);
     assert_null(strstr(at + 1, needle));
-    *line = 1;
-    *col = 1;
-    for (p = text; p < at; p++) {
-        if (*p == '\n') {
-            (*line)++;
-            *col = 1;
-        } else {
-            (*col)++;
-        }
-    }
+    tp_text_locate(text, needle, line, col);
 }
 
 /* The first line of `text` (into out). */

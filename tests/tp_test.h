@@ -289,6 +289,26 @@ static inline int tp_run_status(const tp_scratch *s, const char *const *args)
     return r.status;
 }
 
+/* 1-based line and column (bytes) of the first occurrence of `needle` in `text`, found by
+ * searching the text: an expected position independent of the parser's. Fails when absent. */
+static inline void tp_text_locate(const char *text, const char *needle, int *line, int *col)
+{
+    const char *at = strstr(text, needle), *p;
+    if (!at)
+        print_error("'%s' does not occur in\n%s", needle, text);
+    assert_non_null(at);
+    *line = 1;
+    *col = 1;
+    for (p = text; p < at; p++) {
+        if (*p == '\n') {
+            (*line)++;
+            *col = 1;
+        } else {
+            (*col)++;
+        }
+    }
+}
+
 /* ---- a network from a YAML string ----------------------------------------------------------- */
 
 typedef struct tp_yaml_net {
