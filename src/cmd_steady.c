@@ -275,8 +275,7 @@ static tp_status write_json(const char *path, const tp_network *net, const answe
 /* Where the setpoint is written, for a warning about it. */
 static tp_loc setpoint_at(const tp_session *s)
 {
-    tp_doc_node *n = tp_doc_find(s->doc, "control.setpoint");
-    return n ? tp_doc_loc(n) : tp_loc_none();
+    return tp_doc_nearest(s->doc, "control.setpoint");
 }
 
 static tp_status run_steady(const tp_cli *cli, tp_diag *d)

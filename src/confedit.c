@@ -9,6 +9,8 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "array.h"
+
 #define SEGS_MAX 12 /* path segments */
 #define SEG_MAX 64  /* bytes per segment incl. NUL */
 
@@ -36,18 +38,9 @@ static void put(buf *b, const char *text, size_t n)
 {
     if (b->failed)
         return;
-    if (b->len + n + 1 > b->cap) {
-        size_t cap = b->cap ? b->cap : 256;
-        char *s;
-        while (b->len + n + 1 > cap)
-            cap *= 2;
-        s = realloc(b->s, cap);
-        if (!s) {
-            b->failed = 1;
-            return;
-        }
-        b->s = s;
-        b->cap = cap;
+    if (tp_array_reserve(&b->s, &b->cap, b->len + n + 1, 1, 256) != 0) {
+        b->failed = 1;
+        return;
     }
     memcpy(b->s + b->len, text, n);
     b->len += n;
@@ -85,10 +78,10 @@ static int split_path(const char *path, char seg[SEGS_MAX][SEG_MAX])
 
 static int add_edit(edit **ed, int *n, size_t at, size_t del, const char *text)
 {
-    edit *e = realloc(*ed, (size_t)(*n + 1) * sizeof **ed);
-    if (!e)
+    edit *e;
+    if (tp_array_resize(ed, (size_t)*n + 1, sizeof **ed) != 0)
         return -1;
-    *ed = e;
+    e = *ed;
     e[*n].at = at;
     e[*n].del = del;
     e[*n].order = *n;

@@ -8,6 +8,7 @@
 
 #include <yaml.h>
 
+#include "array.h"
 #include "infile.h"
 
 #define ANCHORS_MAX 1024 /* anchors remembered per document */
@@ -119,20 +120,13 @@ static tp_doc_node *node_new(builder *b, tp_doc_kind kind, const yaml_mark_t *st
 
 static int node_push_child(tp_doc_node *parent, tp_doc_node *key, tp_doc_node *value)
 {
-    if (parent->n == parent->cap) {
-        size_t cap = parent->cap ? parent->cap * 2 : 8;
-        tp_doc_node **items = realloc(parent->items, cap * sizeof *items);
-        if (!items)
-            return -1;
-        parent->items = items;
-        if (parent->kind == TP_DOC_MAP) {
-            tp_doc_node **keys = realloc(parent->keys, cap * sizeof *keys);
-            if (!keys)
-                return -1;
-            parent->keys = keys;
-        }
-        parent->cap = cap;
-    }
+    /* keys (maps only) and items grow together: both hold parent->cap entries */
+    size_t cap = parent->cap, key_cap = parent->cap;
+    if (tp_array_reserve(&parent->items, &cap, parent->n + 1, sizeof *parent->items, 8) != 0 ||
+        (parent->kind == TP_DOC_MAP &&
+         tp_array_reserve(&parent->keys, &key_cap, parent->n + 1, sizeof *parent->keys, 8) != 0))
+        return -1;
+    parent->cap = cap;
     if (parent->kind == TP_DOC_MAP)
         parent->keys[parent->n] = key;
     parent->items[parent->n] = value;

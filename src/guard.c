@@ -15,6 +15,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "array.h"
 #include "assemble.h"
 #include "config.h"
 #include "integrate.h"
@@ -309,15 +310,6 @@ static void trace_clear(tp_guard_trace *tr)
     memset(tr, 0, sizeof *tr);
 }
 
-static int grow(double **p, long cap, long width)
-{
-    double *q = realloc(*p, (size_t)(cap * (width > 0 ? width : 1)) * sizeof *q);
-    if (!q)
-        return -1;
-    *p = q;
-    return 0;
-}
-
 static int trace_push(tp_guard_trace *tr, double t, double reading, double surface,
                       double heater, double duty, const double *layers)
 {
@@ -325,9 +317,12 @@ static int trace_push(tp_guard_trace *tr, double t, double reading, double surfa
     int k;
     if (i == tr->cap) {
         long cap = tr->cap ? 2 * tr->cap : 2048;
-        if (grow(&tr->t, cap, 1) || grow(&tr->reading, cap, 1) || grow(&tr->surface, cap, 1) ||
-            grow(&tr->heater, cap, 1) || grow(&tr->duty, cap, 1) ||
-            grow(&tr->layers, cap, tr->n_layers))
+        size_t rows = (size_t)cap, d = sizeof(double);
+        size_t layers_width = (size_t)(tr->n_layers > 0 ? tr->n_layers : 1);
+        if (tp_array_resize(&tr->t, rows, d) || tp_array_resize(&tr->reading, rows, d) ||
+            tp_array_resize(&tr->surface, rows, d) || tp_array_resize(&tr->heater, rows, d) ||
+            tp_array_resize(&tr->duty, rows, d) ||
+            tp_array_resize(&tr->layers, rows * layers_width, d))
             return -1;
         tr->cap = cap;
     }

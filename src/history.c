@@ -6,6 +6,8 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "array.h"
+
 /* Columns of a gridded network: mean, min and max of each layer, then the other nodes with
  * capacity (sensor, enclosure air and walls) in declaration order. */
 static tp_status grid_columns(tp_history *h, const tp_network *net)
@@ -99,27 +101,23 @@ void tp_history_clear(tp_history *h)
     memset(h, 0, sizeof *h);
 }
 
-static int grow_array(double **p, long cap, long width)
-{
-    double *q = realloc(*p, (size_t)(cap * width) * sizeof *q);
-    if (!q)
-        return -1;
-    *p = q;
-    return 0;
-}
-
+/* Every column to `cap` rows (doubling from 1024): rows of one value, of the outputs, of the
+ * sources and of the energy totals. */
 static int grow(tp_history *h)
 {
     long cap = h->cap ? h->cap * 2 : 1024;
-    int ns = h->net->n_sources > 0 ? h->net->n_sources : 1;
-    if (grow_array(&h->t, cap, 1) || grow_array(&h->temps, cap, h->n_out > 0 ? h->n_out : 1) ||
-        grow_array(&h->power, cap, ns) || grow_array(&h->wire, cap, 1) || grow_array(&h->current, cap, 1) ||
-        grow_array(&h->duty, cap, 1) || grow_array(&h->reading, cap, 1) ||
-        grow_array(&h->surface, cap, 1) || grow_array(&h->energy, cap, TP_N_QUAD))
+    size_t rows = (size_t)cap, d = sizeof(double);
+    size_t outs = (size_t)(h->n_out > 0 ? h->n_out : 1);
+    size_t ns = (size_t)(h->net->n_sources > 0 ? h->net->n_sources : 1);
+    if (tp_array_resize(&h->t, rows, d) || tp_array_resize(&h->temps, rows * outs, d) ||
+        tp_array_resize(&h->power, rows * ns, d) || tp_array_resize(&h->wire, rows, d) ||
+        tp_array_resize(&h->current, rows, d) || tp_array_resize(&h->duty, rows, d) ||
+        tp_array_resize(&h->reading, rows, d) || tp_array_resize(&h->surface, rows, d) ||
+        tp_array_resize(&h->energy, rows * TP_N_QUAD, d))
         return -1;
-    if (h->net->grid && (grow_array(&h->surface_min, cap, 1) ||
-                         grow_array(&h->surface_max, cap, 1) ||
-                         grow_array(&h->surface_dev, cap, 1)))
+    if (h->net->grid && (tp_array_resize(&h->surface_min, rows, d) ||
+                         tp_array_resize(&h->surface_max, rows, d) ||
+                         tp_array_resize(&h->surface_dev, rows, d)))
         return -1;
     h->cap = cap;
     return 0;

@@ -21,10 +21,12 @@
  * (TP_DH_STEP), which keeps it consistent with the right-hand side. */
 #include "network.h"
 
+#include <limits.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
 
+#include "array.h"
 #include "radiation.h"
 
 #define TP_DH_STEP 1.0e-3   /* K, central-difference step for d(h A dT)/dT of correlations */
@@ -334,20 +336,15 @@ static int index_node(tp_network *net, int node)
     return 0;
 }
 
-/* Make room for one more element in an array of `*cap` entries holding `n`; capacities grow
- * geometrically (from `first`) so that large gridded networks are built in linear time. */
-static int reserve(void **p, int n, int *cap, int first, size_t size)
+/* Make room for one more element in an array of `*cap` entries holding `n` (tp_array_reserve,
+ * for the network's int counts); capacities grow geometrically (from `first`) so that large
+ * gridded networks are built in linear time. */
+static int reserve(void *p, int n, int *cap, int first, size_t size)
 {
-    int c;
-    void *q;
-    if (n < *cap)
-        return 0;
-    c = *cap > 0 ? 2 * *cap : first;
-    q = realloc(*p, (size_t)c * size);
-    if (!q)
+    size_t c = (size_t)*cap;
+    if (tp_array_reserve(p, &c, (size_t)n + 1, size, (size_t)first) != 0 || c > INT_MAX)
         return -1;
-    *p = q;
-    *cap = c;
+    *cap = (int)c;
     return 0;
 }
 
@@ -355,7 +352,7 @@ int tp_network_add_node(tp_network *net, const char *id, double capacity, double
 {
     int n = net->n_nodes;
     tp_net_node *node;
-    if (reserve((void **)&net->nodes, n, &net->cap_nodes, 64, sizeof *net->nodes) != 0)
+    if (reserve(&net->nodes, n, &net->cap_nodes, 64, sizeof *net->nodes) != 0)
         return -1;
     node = &net->nodes[n];
     memset(node, 0, sizeof *node);
@@ -373,7 +370,7 @@ int tp_network_add_node(tp_network *net, const char *id, double capacity, double
 tp_net_link *tp_network_add_link(tp_network *net, int a, int b, tp_law law)
 {
     tp_net_link *l;
-    if (reserve((void **)&net->links, net->n_links, &net->cap_links, 256, sizeof *net->links) != 0)
+    if (reserve(&net->links, net->n_links, &net->cap_links, 256, sizeof *net->links) != 0)
         return NULL;
     l = &net->links[net->n_links++];
     memset(l, 0, sizeof *l);
@@ -389,7 +386,7 @@ tp_net_link *tp_network_add_link(tp_network *net, int a, int b, tp_law law)
 tp_net_source *tp_network_add_source(tp_network *net, const char *id, int node)
 {
     tp_net_source *s;
-    if (reserve((void **)&net->sources, net->n_sources, &net->cap_sources, 16,
+    if (reserve(&net->sources, net->n_sources, &net->cap_sources, 16,
                 sizeof *net->sources) != 0)
         return NULL;
     s = &net->sources[net->n_sources];
@@ -444,7 +441,7 @@ tp_status tp_network_spread_source(tp_network *net, tp_net_source *src, const in
 int tp_network_add_group(tp_network *net, const tp_conv_case *conv, int sink)
 {
     tp_net_group *g;
-    if (reserve((void **)&net->groups, net->n_groups, &net->cap_groups, 16,
+    if (reserve(&net->groups, net->n_groups, &net->cap_groups, 16,
                 sizeof *net->groups) != 0)
         return -1;
     g = &net->groups[net->n_groups];
