@@ -340,7 +340,7 @@ static tp_status write_plot(const char *path, const fit_run *f, tp_diag *d)
     panels[0] = (tp_plot_panel){"reading (degC)", NULL, top, 3, NULL, 0, 2.5};
     panels[1] = (tp_plot_panel){"residual (K)", NULL, bottom, 1, &zero, 1, 1.0};
     snprintf(title, sizeof title, "%s: fit to %s",
-             f->s.desc.title[0] ? f->s.desc.title : f->s.cli->file, f->log.name);
+             tp_session_title(&f->s), f->log.name);
     chart = (tp_plot_chart){title, "time (min)", panels, 2, 0, 0};
     st = tp_plot_chart_write(path, &chart, d);
     free(b);

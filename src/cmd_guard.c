@@ -638,7 +638,7 @@ static tp_status write_plot(const char *path, const tp_session *s, const tp_guar
                                 (size_t)nl, 1.0};
     panels[2] = (tp_plot_panel){"faults from hold (degC)", NULL, faults[1], nf[1], lines,
                                 (size_t)nl, 1.0};
-    snprintf(title, sizeof title, "guard: %s", s->desc.title[0] ? s->desc.title : s->cli->file);
+    snprintf(title, sizeof title, "guard: %s", tp_session_title(s));
     chart = (tp_plot_chart){title, "time (min)", panels, 3, 0, 1000};
     rs = tp_plot_chart_write(path, &chart, d);
     free(buf);

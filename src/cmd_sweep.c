@@ -637,7 +637,7 @@ static double metric_plot(int m, double si)
 
 static const char *chart_title(const tp_session *s)
 {
-    return s->desc.title[0] ? s->desc.title : s->cli->file;
+    return tp_session_title(s);
 }
 
 /* The curves of the one-parameter chart: panel, metric, legend, dash, right axis. */

@@ -6,6 +6,7 @@
 
 #include "commands.h"
 #include "csv.h"
+#include "figure.h"
 #include "json.h"
 #include "report.h"
 #include "session.h"
@@ -141,7 +142,7 @@ static tp_status run_tune(const tp_cli *cli, tp_diag *d)
     if (rc == TP_OK && tp_cli_get(cli, "json"))
         rc = write_json(tp_cli_get(cli, "json"), &m, &g, rule, &w.metrics, d);
     if (rc == TP_OK && tp_cli_get(cli, "plot"))
-        rc = tp_warmup_plot(tp_cli_get(cli, "plot"), &s, &w, d);
+        rc = tp_figure_warmup(tp_cli_get(cli, "plot"), tp_session_title(&s), s.net, &w, d);
     if (rc == TP_OK && s.text) {
         tp_exposure ex = {w.metrics.surface_max, w.metrics.node_max, w.metrics.current_peak,
                           w.peak, w.layer_peak};

@@ -7,6 +7,7 @@
 
 #include "commands.h"
 #include "csv.h"
+#include "figure.h"
 #include "history.h"
 #include "integrate.h"
 #include "json.h"
@@ -412,7 +413,7 @@ static tp_status write_maps(const tp_cli *cli, const tp_session *s, const tp_war
     if (tp_cli_get(cli, "map")) {
         snprintf(head, sizeof head, "Working surface %s (%d x %d cells)",
                  w->map_hold ? "at steady holding" : "at the end of the run", g->nx, g->ny);
-        rc = tp_map_plot(tp_cli_get(cli, "map"), g, w->map_hold ? w->map_hold : w->map_final,
+        rc = tp_figure_surface(tp_cli_get(cli, "map"), g, w->map_hold ? w->map_hold : w->map_final,
                          head, d);
     }
     if (rc == TP_OK && tp_cli_get(cli, "map-setpoint")) {
@@ -421,7 +422,7 @@ static tp_status write_maps(const tp_cli *cli, const tp_session *s, const tp_war
             tp_fmt_duration(w->history.cross_time, t, sizeof t);
             snprintf(head, sizeof head, "Working surface when the reading reaches the "
                                         "setpoint (%s)", t);
-            rc = tp_map_plot(tp_cli_get(cli, "map-setpoint"), g, w->map_setpoint, head, d);
+            rc = tp_figure_surface(tp_cli_get(cli, "map-setpoint"), g, w->map_setpoint, head, d);
         } else {
             tp_diag_warn(d, tp_loc_none(), "--map-setpoint",
                          "give a setpoint the plate reaches within run.duration",
@@ -432,7 +433,7 @@ static tp_status write_maps(const tp_cli *cli, const tp_session *s, const tp_war
     if (rc == TP_OK && tp_cli_get(cli, "map-csv")) {
         const double *maps[3] = {w->map_setpoint, w->map_hold, w->map_final};
         const char *const names[3] = {"at_setpoint", "holding", "final"};
-        rc = tp_map_csv(tp_cli_get(cli, "map-csv"), g, maps, names, 3, d);
+        rc = tp_csv_write_maps(tp_cli_get(cli, "map-csv"), g, maps, names, 3, d);
     }
     return rc;
 }
@@ -473,7 +474,7 @@ static tp_status run_warmup(const tp_cli *cli, tp_diag *d)
     if (rc == TP_OK && tp_cli_get(cli, "json"))
         rc = write_json(tp_cli_get(cli, "json"), &s, &w, w.peak, d);
     if (rc == TP_OK && tp_cli_get(cli, "plot"))
-        rc = tp_warmup_plot(tp_cli_get(cli, "plot"), &s, &w, d);
+        rc = tp_figure_warmup(tp_cli_get(cli, "plot"), tp_session_title(&s), s.net, &w, d);
     if (rc == TP_OK && s.text)
         summary(s.text, &s, &w, w.peak);
     if (rc == TP_OK && tp_cli_flag(cli, "strict") && !isfinite(w.metrics.t_setpoint)) {

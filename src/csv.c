@@ -5,6 +5,7 @@
 
 #include <math.h>
 
+#include "grid.h"
 #include "outfile.h"
 #include "units.h"
 
@@ -61,6 +62,37 @@ tp_status tp_csv_write_history(const char *path, const tp_history *h, tp_diag *d
             tp_csv_real(o.fp, h->reading[i] - TP_KELVIN_0C);
         }
         fputc('\n', o.fp);
+    }
+    return tp_outfile_commit(&o, d);
+}
+
+tp_status tp_csv_write_maps(const char *path, const tp_net_grid *g, const double *const *maps,
+                           const char *const *names, int n_maps, tp_diag *d)
+{
+    tp_outfile o;
+    int i, j, k;
+    tp_status st = tp_outfile_open(&o, path, d);
+    if (st != TP_OK)
+        return st;
+    fputs("i,j,x_mm,y_mm", o.fp);
+    for (k = 0; k < n_maps; k++)
+        fprintf(o.fp, ",%s_C", names[k]);
+    fputc('\n', o.fp);
+    for (j = 0; j < g->ny; j++) {
+        for (i = 0; i < g->nx; i++) {
+            double x, y;
+            tp_grid_cell_centre(g, i, j, &x, &y);
+            fprintf(o.fp, "%d,%d,", i, j);
+            tp_csv_real(o.fp, x * 1e3);
+            fputc(',', o.fp);
+            tp_csv_real(o.fp, y * 1e3);
+            for (k = 0; k < n_maps; k++) {
+                fputc(',', o.fp);
+                if (maps[k])
+                    tp_csv_real(o.fp, maps[k][j * g->nx + i] - TP_KELVIN_0C);
+            }
+            fputc('\n', o.fp);
+        }
     }
     return tp_outfile_commit(&o, d);
 }

@@ -73,3 +73,8 @@ void tp_session_close(tp_session *s)
     tp_desc_clear(&s->desc);
     tp_doc_destroy(&s->doc);
 }
+
+const char *tp_session_title(const tp_session *s)
+{
+    return s->desc.title[0] ? s->desc.title : s->cli->file;
+}

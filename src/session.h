@@ -32,6 +32,9 @@ tp_status tp_session_open_plant(tp_session *s, const tp_cli *cli, tp_diag *d);
  * the physical form, the fixed temperature of the node `room` in the raw form. */
 tp_status tp_session_open_room(tp_session *s, const tp_cli *cli, const char *room, tp_diag *d);
 
+/* The title of the session's figures: the config's title, else the file's name. */
+const char *tp_session_title(const tp_session *s);
+
 /* Release the session. */
 void tp_session_close(tp_session *s);
 

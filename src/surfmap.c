@@ -1,15 +1,11 @@
-/* The working-surface map: statistics, figure and CSV. */
+/* The working-surface map: statistics. */
 #include "surfmap.h"
 
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 
-#include "csv.h"
 #include "grid.h"
-#include "outfile.h"
-#include "plot.h"
-#include "report.h"
 
 /* The value at (x, y) interpolated bilinearly between the four nearest cell centres; the
  * nearest cell's value when one of them has none. */
@@ -99,71 +95,4 @@ void tp_map_stats_compute(const tp_net_grid *g, const double *map, tp_map_stats 
         s->corner = corner / nc;
         s->centre_corner = s->centre - s->corner;
     }
-}
-
-tp_status tp_map_plot(const char *path, const tp_net_grid *g, const double *map,
-                      const char *title, tp_diag *d)
-{
-    size_t n = (size_t)g->nx * (size_t)g->ny, k;
-    double *z = malloc(n * sizeof *z), mx[3], my[3];
-    const char *labels[3];
-    size_t nm = 0;
-    tp_map_stats st;
-    tp_plot_map pm;
-    tp_status rc;
-    if (!z)
-        return TP_ERR_NOMEM;
-    for (k = 0; k < n; k++)
-        z[k] = map[k] - TP_KELVIN_0C;
-    tp_map_stats_compute(g, map, &st);
-    if (isfinite(g->sensor_x)) {
-        mx[nm] = g->sensor_x * 1e3;
-        my[nm] = g->sensor_y * 1e3;
-        labels[nm++] = "sensor";
-    }
-    if (st.cells > 0) {
-        mx[nm] = st.max_x * 1e3;
-        my[nm] = st.max_y * 1e3;
-        labels[nm++] = "hottest";
-        mx[nm] = st.min_x * 1e3;
-        my[nm] = st.min_y * 1e3;
-        labels[nm++] = "coldest";
-    }
-    pm = (tp_plot_map){title, "x (mm)", "y (mm)", "working surface (degC)", z, (size_t)g->nx,
-                       (size_t)g->ny, 0.0, g->width * 1e3, 0.0, g->depth * 1e3, 1, mx, my,
-                       labels, nm, 0, 0, 0};
-    rc = tp_plot_map_write(path, &pm, d);
-    free(z);
-    return rc;
-}
-
-tp_status tp_map_csv(const char *path, const tp_net_grid *g, const double *const *maps,
-                     const char *const *names, int n_maps, tp_diag *d)
-{
-    tp_outfile o;
-    int i, j, k;
-    tp_status st = tp_outfile_open(&o, path, d);
-    if (st != TP_OK)
-        return st;
-    fputs("i,j,x_mm,y_mm", o.fp);
-    for (k = 0; k < n_maps; k++)
-        fprintf(o.fp, ",%s_C", names[k]);
-    fputc('\n', o.fp);
-    for (j = 0; j < g->ny; j++) {
-        for (i = 0; i < g->nx; i++) {
-            double x, y;
-            tp_grid_cell_centre(g, i, j, &x, &y);
-            fprintf(o.fp, "%d,%d,", i, j);
-            tp_csv_real(o.fp, x * 1e3);
-            fputc(',', o.fp);
-            tp_csv_real(o.fp, y * 1e3);
-            for (k = 0; k < n_maps; k++) {
-                fputc(',', o.fp);
-                if (maps[k])
-                    tp_csv_real(o.fp, maps[k][j * g->nx + i] - TP_KELVIN_0C);
-            }
-            fputc('\n', o.fp);
-        }
-    }
-    return tp_outfile_commit(&o, d);
 }

@@ -1,6 +1,6 @@
 /* The working-surface map of a gridded plate: its statistics (mean, spread, extremes and where
- * they are, centre against corners), and the heat-map figure and CSV of one or two maps.
- * Definitions in docs/grid.md. */
+ * they are, centre against corners). Definitions in docs/grid.md; the figure is figure.h's, the
+ * CSV csv.h's. */
 #ifndef TP_SURFMAP_H
 #define TP_SURFMAP_H
 
@@ -28,15 +28,5 @@ void tp_map_stats_compute(const tp_net_grid *g, const double *map, tp_map_stats 
 
 /* Set every statistic to "unknown" (NaN, cells 0). */
 void tp_map_stats_compute_empty(tp_map_stats *s);
-
-/* Draw `map` (K) as a heat map in degC with the plate outline, the sensor and the hottest and
- * coldest cells marked; the format follows the extension (tp_plot_map_write). */
-tp_status tp_map_plot(const char *path, const tp_net_grid *g, const double *map,
-                      const char *title, tp_diag *d);
-
-/* Write the cells as CSV: i, j, x_mm, y_mm (cell centres) and one column per map in degC
- * (names[k] then "_C"; an empty cell where a map has no value or is NULL). Atomic. */
-tp_status tp_map_csv(const char *path, const tp_net_grid *g, const double *const *maps,
-                     const char *const *names, int n_maps, tp_diag *d);
 
 #endif

@@ -1,5 +1,5 @@
 /* A warm-up run packaged for reuse: the steady states around it, the integration with its
- * history, the metrics, per-node peaks, and the figure. */
+ * history, the metrics and per-node peaks. */
 #include "warmup.h"
 
 #include <math.h>
@@ -7,8 +7,6 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "plot.h"
-#include "report.h"
 
 /* Per-node peak temperatures from the history (NaN for nodes not recorded). */
 static double *node_peaks(const tp_history *h, const tp_network *net)
@@ -127,113 +125,9 @@ void tp_warmup_clear(tp_warmup *w)
     w->peak = w->layer_peak = w->map_hold = w->map_setpoint = w->map_final = NULL;
 }
 
-tp_status tp_warmup_plot(const char *path, const tp_session *s, const tp_warmup *w, tp_diag *d)
-{
-    const tp_history *h = &w->history;
-    const tp_network *net = s->net;
-    long n = h->n, i;
-    int k, ns = 0, np = 0;
-    size_t cells = (size_t)n * ((size_t)h->n_out + 8);
-    double *buf = malloc(cells * sizeof *buf), *minutes, *power, *reading, *surface;
-    tp_plot_series *temp_series = calloc((size_t)h->n_out + 4, sizeof *temp_series);
-    char(*labels)[TP_ID_MAX + 16] = calloc((size_t)h->n_out + 1, sizeof *labels);
-    tp_plot_series power_series[2];
-    tp_plot_hline setpoint = {"setpoint", w->metrics.setpoint - TP_KELVIN_0C};
-    tp_plot_panel panels[2];
-    tp_plot_chart chart;
-    tp_plot_vline marks[TP_WARMUP_MARKS];
-    char title[256], mark_text[TP_WARMUP_MARKS][TP_WARMUP_MARK_TEXT];
-    int reading_col = tp_warmup_reading_column(net, h);
-    tp_status st;
-    if (!buf || !temp_series || !labels) {
-        free(buf);
-        free(temp_series);
-        free(labels);
-        return TP_ERR_NOMEM;
-    }
-    minutes = buf;
-    power = buf + n;
-    reading = buf + 2 * n;
-    surface = buf + 3 * n;
-    for (i = 0; i < n; i++) {
-        minutes[i] = h->t[i] / 60.0;
-        power[i] = 0.0;
-        for (k = 0; k < net->n_sources; k++)
-            power[i] += h->power[i * net->n_sources + k];
-        reading[i] = h->reading[i] - TP_KELVIN_0C;
-        surface[i] = h->surface[i] - TP_KELVIN_0C;
-    }
-    for (k = 0; k < h->n_out; k++) {
-        double *col = buf + (size_t)(4 + k) * (size_t)n;
-        /* A gridded plate draws each layer's mean and the other nodes. */
-        if (h->out_kind[k] == TP_COL_MIN || h->out_kind[k] == TP_COL_MAX)
-            continue;
-        for (i = 0; i < n; i++)
-            col[i] = tp_history_temp(h, i, k) - TP_KELVIN_0C;
-        tp_history_label(h, k, labels[k], sizeof labels[k]);
-        if (k == reading_col)
-            strncat(labels[k], " = reading", sizeof labels[k] - strlen(labels[k]) - 1);
-        temp_series[ns++] = (tp_plot_series){labels[k], minutes, col, (size_t)n, 0, 0, 0};
-    }
-    if (isfinite(w->metrics.surface_max))
-        temp_series[ns++] = (tp_plot_series){h->surface_min ? "surface mean" : "surface (estimate)",
-                                             minutes, surface, (size_t)n, 1, 0, 0};
-    if (h->surface_min) {
-        double *lo = buf + (size_t)(4 + h->n_out) * (size_t)n, *hi = lo + n;
-        for (i = 0; i < n; i++) {
-            lo[i] = h->surface_min[i] - TP_KELVIN_0C;
-            hi[i] = h->surface_max[i] - TP_KELVIN_0C;
-        }
-        temp_series[ns++] = (tp_plot_series){"surface coldest cell", minutes, lo, (size_t)n, 2, 0,
-                                             0};
-        temp_series[ns++] = (tp_plot_series){"surface hottest cell", minutes, hi, (size_t)n, 2, 0,
-                                             0};
-    }
-    if (net->has_control && reading_col < 0)
-        temp_series[ns++] = (tp_plot_series){"reading", minutes, reading, (size_t)n, 2, 0, 0};
-    power_series[np++] = (tp_plot_series){"heater power", minutes, power, (size_t)n, 0, 0, 0};
-    if (net->has_control)
-        power_series[np++] = (tp_plot_series){"duty", minutes, h->duty, (size_t)n, 1, 0, 1};
-    panels[0] = (tp_plot_panel){"temperature (degC)", NULL, temp_series, (size_t)ns,
-                                &setpoint, isfinite(setpoint.y) ? 1u : 0u, 2.0};
-    panels[1] = (tp_plot_panel){"power (W)", net->has_control ? "duty" : NULL, power_series,
-                                (size_t)np, NULL, 0, 1.0};
-    snprintf(title, sizeof title, "%s", s->desc.title[0] ? s->desc.title : s->cli->file);
-    chart = (tp_plot_chart){title, "time (min)", panels, 2, 0, 0};
-    st = tp_plot_chart_write_marked(path, &chart, marks,
-                                    tp_warmup_marks(&w->metrics, marks, mark_text), d);
-    free(buf);
-    free(temp_series);
-    free(labels);
-    return st;
-}
-
 int tp_warmup_reading_column(const tp_network *net, const tp_history *h)
 {
     if (!net->has_control || net->control.reading.thermistor || net->control.reading.offset != 0.0)
         return -1;
     return tp_history_column(h, net->control.sensor);
-}
-
-size_t tp_warmup_marks(const tp_metrics *m, tp_plot_vline marks[TP_WARMUP_MARKS],
-                       char text[TP_WARMUP_MARKS][TP_WARMUP_MARK_TEXT])
-{
-    /* The times the metrics report (docs/metrics.md), by their fields: a change of their
-     * definitions moves the marks with them. */
-    const struct {
-        double t;
-        const char *what;
-    } times[TP_WARMUP_MARKS] = {{m->t_setpoint, "reading at setpoint"},
-                                {m->t_surface_ready, "surface ready"}};
-    char when[32];
-    size_t k, n = 0;
-    for (k = 0; k < TP_WARMUP_MARKS; k++) {
-        if (!isfinite(times[k].t))
-            continue;
-        tp_fmt_duration(times[k].t, when, sizeof when);
-        snprintf(text[n], TP_WARMUP_MARK_TEXT, "%s %s", times[k].what, when);
-        marks[n] = (tp_plot_vline){text[n], times[k].t / 60.0};
-        n++;
-    }
-    return n;
 }

@@ -7,9 +7,7 @@
 #include "history.h"
 #include "integrate.h"
 #include "network.h"
-#include "plot.h"
 #include "results.h"
-#include "session.h"
 #include "status.h"
 #include "steady.h"
 #include "surfmap.h"
@@ -40,22 +38,9 @@ tp_status tp_warmup_run(tp_network *net, tp_warmup *w, tp_diag *d);
 /* Free what a run holds. */
 void tp_warmup_clear(tp_warmup *w);
 
-/* Draw the run: temperatures, surface estimate, reading and setpoint over power and duty, with
- * the times of tp_warmup_marks marked. */
-tp_status tp_warmup_plot(const char *path, const tp_session *s, const tp_warmup *w, tp_diag *d);
-
 /* The recorded column whose curve is also the controller's reading (the sensor node's, when no
  * thermistor, ADC or offset stands between them: one curve serves for both), or -1 when the
  * reading differs from every column or there is no controller. */
 int tp_warmup_reading_column(const tp_network *net, const tp_history *h);
-
-#define TP_WARMUP_MARKS 2         /* times marked on the warm-up chart */
-#define TP_WARMUP_MARK_TEXT 64    /* bytes of a mark's label */
-
-/* The times worth marking on the chart, as the metrics report them (m->t_setpoint,
- * m->t_surface_ready; those that exist), in minutes, labelled with the time into text[k]:
- * fills marks[0..) and returns the count. */
-size_t tp_warmup_marks(const tp_metrics *m, tp_plot_vline marks[TP_WARMUP_MARKS],
-                       char text[TP_WARMUP_MARKS][TP_WARMUP_MARK_TEXT]);
 
 #endif

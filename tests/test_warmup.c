@@ -16,6 +16,7 @@
 #include "assemble.h"
 #include "config.h"
 #include "doc.h"
+#include "figure.h"
 #include "history.h"
 #include "integrate.h"
 #include "network.h"
@@ -693,22 +694,22 @@ static void test_reading_shares_the_sensor_curve_only_when_equal(void **state)
 static void test_marks_follow_the_metrics(void **state)
 {
     tp_metrics m;
-    tp_plot_vline marks[TP_WARMUP_MARKS];
-    char text[TP_WARMUP_MARKS][TP_WARMUP_MARK_TEXT];
+    tp_plot_vline marks[TP_FIGURE_MARKS];
+    char text[TP_FIGURE_MARKS][TP_FIGURE_MARK_TEXT];
     (void)state;
     memset(&m, 0, sizeof m);
     m.t_setpoint = 440.0;
     m.t_surface_ready = 671.0;
-    assert_int_equal(tp_warmup_marks(&m, marks, text), 2);
+    assert_int_equal(tp_figure_warmup_marks(&m, marks, text), 2);
     tp_check_abs("setpoint mark", marks[0].x, 440.0 / 60.0, 1e-12);
     tp_check_abs("ready mark", marks[1].x, 671.0 / 60.0, 1e-12);
     assert_string_equal(marks[0].label, "reading at setpoint 7 min 20 s");
     assert_string_equal(marks[1].label, "surface ready 11 min 11 s");
     m.t_setpoint = (double)NAN;
-    assert_int_equal(tp_warmup_marks(&m, marks, text), 1);
+    assert_int_equal(tp_figure_warmup_marks(&m, marks, text), 1);
     assert_string_equal(marks[0].label, "surface ready 11 min 11 s");
     m.t_surface_ready = (double)NAN;
-    assert_int_equal(tp_warmup_marks(&m, marks, text), 0);
+    assert_int_equal(tp_figure_warmup_marks(&m, marks, text), 0);
 }
 
 int main(void)
