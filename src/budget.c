@@ -190,3 +190,10 @@ tp_status tp_budget_compute(const tp_desc *desc, tp_network *net, tp_budget *b, 
     }
     return TP_OK;
 }
+
+int tp_budget_cautions(const tp_desc *desc, const tp_network *net, const tp_budget *b,
+                       tp_caution out[TP_CAUTIONS_MAX])
+{
+    tp_caution_exposure ex = {b->hot_hold, b->node_hold, b->i_cold, NULL, NULL};
+    return tp_caution_list(desc, net, &ex, out);
+}

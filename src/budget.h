@@ -4,6 +4,7 @@
 #ifndef TP_BUDGET_H
 #define TP_BUDGET_H
 
+#include "caution.h"
 #include "circuit.h"
 #include "desc.h"
 #include "diag.h"
@@ -59,5 +60,10 @@ typedef struct tp_budget {
 /* Work out the budget for a physical description and its network. TP_ERR_CONFIG when the file
  * has no heater to budget; steady-state failures are reported and returned. */
 tp_status tp_budget_compute(const tp_desc *desc, tp_network *net, tp_budget *b, tp_diag *d);
+
+/* The safety cautions of a budget (caution.h): what the plate reaches at its holding point and
+ * the cold-start current; returns how many were written to out. */
+int tp_budget_cautions(const tp_desc *desc, const tp_network *net, const tp_budget *b,
+                       tp_caution out[TP_CAUTIONS_MAX]);
 
 #endif

@@ -61,7 +61,7 @@ static void summary(FILE *fp, const tp_session *s, const tp_budget *b)
     const tp_desc *desc = &s->desc;
     double v = b->v;
     size_t i;
-    tp_exposure ex = {b->hot_hold, b->node_hold, b->i_cold, NULL, NULL};
+    tp_caution cautions[TP_CAUTIONS_MAX];
     fprintf(fp, "tepid budget %s%s%s\n  ", s->cli->file, desc->title[0] ? ": " : "", desc->title);
     tp_report_network(fp, s->net);
     if (desc->supply.present) {
@@ -127,7 +127,7 @@ static void summary(FILE *fp, const tp_session *s, const tp_budget *b)
         fputs("  ! mains heater: tepid refuses nothing, but fit a non-self-resetting thermal "
               "cut-out in series with the heater, independent of the controller, and have the "
               "installation checked by a qualified person.\n", fp);
-    tp_report_cautions(fp, desc, s->net, &ex);
+    tp_report_cautions(fp, "cautions", cautions, tp_budget_cautions(desc, s->net, b, cautions));
 }
 
 static tp_status write_json(const char *path, const tp_network *net, const tp_budget *b,

@@ -271,7 +271,8 @@ static tp_status run_explain(const tp_cli *cli, tp_diag *d)
     if (rc == TP_OK && tp_cli_get(cli, "json"))
         rc = write_json(tp_cli_get(cli, "json"), s.net, &sta, d);
     if (rc == TP_OK && s.text) {
-        tp_exposure ex = {TP_UNSET, TP_UNSET, TP_UNSET, NULL, NULL};
+        tp_caution_exposure ex = TP_CAUTION_UNSEEN;
+        tp_caution cautions[TP_CAUTIONS_MAX];
         fprintf(s.text, "tepid explain %s\n  ", cli->file);
         tp_report_network(s.text, s.net);
         print_state(s.text, s.net, &sta);
@@ -283,7 +284,8 @@ static tp_status run_explain(const tp_cli *cli, tp_diag *d)
                     ex.node_max = sta.t[i];
             ex.surface_max = tp_network_surface(s.net, sta.t);
         }
-        tp_report_cautions(s.text, &s.desc, s.net, &ex);
+        tp_report_cautions(s.text, "cautions", cautions,
+                           tp_caution_list(&s.desc, s.net, &ex, cautions));
     }
     free(sta.t);
     tp_session_close(&s);

@@ -208,22 +208,14 @@ static tp_status write_csv(const char *path, const fit_run *f, tp_diag *d)
     return tp_outfile_commit(&o, d);
 }
 
-static void exposure(const fit_run *f, tp_exposure *ex)
-{
-    ex->surface_max = f->res.surface_max;
-    ex->node_max = f->res.node_max;
-    ex->current_max = f->res.current_max;
-    ex->node_peak = f->res.node_peak;
-}
-
 static tp_status write_json(const char *path, const fit_run *f, tp_diag *d)
 {
     const tp_fit_result *r = &f->res;
     cJSON *root = cJSON_CreateObject(), *lg, *params, *corr, *resid, *solver, *warn, *caut;
-    char lines[TP_CAUTIONS_MAX][TP_CAUTION_MAX], buf[96];
-    tp_exposure ex = {TP_UNSET, TP_UNSET, TP_UNSET, NULL, NULL};
+    tp_caution cautions[TP_CAUTIONS_MAX];
+    char buf[96];
     tp_status st;
-    int i, j, nc;
+    int i, j;
     if (!root)
         return TP_ERR_NOMEM;
     lg = cJSON_AddObjectToObject(root, "log");
@@ -300,10 +292,7 @@ static tp_status write_json(const char *path, const fit_run *f, tp_diag *d)
     tp_json_number(solver, "seconds", r->seconds);
     for (i = 0; i < f->n_warn; i++)
         cJSON_AddItemToArray(warn, cJSON_CreateString(f->warn[i]));
-    exposure(f, &ex);
-    nc = tp_report_caution_lines(&f->fitted, f->net, &ex, lines);
-    for (i = 0; i < nc; i++)
-        cJSON_AddItemToArray(caut, cJSON_CreateString(lines[i]));
+    tp_json_add_cautions(caut, cautions, tp_fit_cautions(&f->fitted, f->net, r, cautions));
     st = tp_json_write(path, root, d);
     cJSON_Delete(root);
     return st;
@@ -515,7 +504,7 @@ static void summary(FILE *fp, const fit_run *f)
     const tp_fit_result *r = &f->res;
     const tp_log *lg = &f->log;
     char buf[64], v[96], s0[96], se[96], lo[96], hi[96];
-    tp_exposure ex = {TP_UNSET, TP_UNSET, TP_UNSET, NULL, NULL};
+    tp_caution cautions[TP_CAUTIONS_MAX];
     int i, j, p = f->n_params;
     fprintf(fp, "tepid fit %s%s%s\n", f->s.cli->file, f->s.desc.title[0] ? ": " : "",
             f->s.desc.title);
@@ -576,8 +565,8 @@ static void summary(FILE *fp, const fit_run *f)
             r->sigma, r->dof);
     for (i = 0; i < f->n_warn; i++)
         fprintf(fp, "  ! %s\n", f->warn[i]);
-    exposure(f, &ex);
-    tp_report_cautions(fp, &f->fitted, f->net, &ex);
+    tp_report_cautions(fp, "cautions", cautions,
+                       tp_fit_cautions(&f->fitted, f->net, r, cautions));
 }
 
 /* The description with the fitted values, assembled, for the cautions. */

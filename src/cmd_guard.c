@@ -288,47 +288,10 @@ static void print_stuck(FILE *fp, const tp_guard_study *st)
                     "against your materials; fit an independent cut-out.\n");
 }
 
-#define TP_GUARD_CAUTION "These thresholds supplement and never replace an independent " \
-                         "hardware cut-out: a stuck switch or a firmware fault defeats every " \
-                         "check the controller runs."
-
-static int cautions(const tp_session *s, const tp_guard_study *st, char lines[][TP_CAUTION_MAX])
-{
-    double surface = -HUGE_VAL, node = -HUGE_VAL, *peak;
-    tp_exposure ex = {TP_UNSET, TP_UNSET, TP_UNSET, NULL, NULL};
-    int c, k, n;
-    long i;
-    peak = malloc((size_t)s->net->n_nodes * sizeof *peak);
-    for (k = 0; peak && k < s->net->n_nodes; k++)
-        peak[k] = TP_UNSET;
-    for (c = 0; c < st->n_corners; c++) {
-        const tp_guard_trace *tr = &st->corners[c].trace;
-        for (i = 0; i < tr->n; i++) {
-            if (tr->surface[i] > surface)
-                surface = tr->surface[i];
-            if (tr->heater[i] > node)
-                node = tr->heater[i];
-        }
-    }
-    for (k = 0; peak && k < st->n_layers; k++) {
-        int nd = tp_network_find_node(s->net, st->layer_id[k]);
-        if (nd >= 0)
-            peak[nd] = st->layer_healthy[k];
-    }
-    ex.surface_max = isfinite(surface) ? surface : TP_UNSET;
-    ex.node_max = isfinite(node) ? node : TP_UNSET;
-    ex.current_max = TP_UNSET;
-    ex.node_peak = peak;
-    n = tp_report_caution_lines(&s->desc, s->net, &ex, lines);
-    snprintf(lines[n++], TP_CAUTION_MAX, "%s", TP_GUARD_CAUTION);
-    free(peak);
-    return n;
-}
-
 static void summary(FILE *fp, const tp_session *s, const tp_guard_study *st, int evaluating)
 {
-    char lines[TP_CAUTIONS_MAX + 1][TP_CAUTION_MAX];
-    int k, n;
+    tp_caution cautions[TP_CAUTIONS_MAX];
+    int k;
     fprintf(fp, "tepid guard %s%s%s\n  ", s->cli->file, s->desc.title[0] ? ": " : "",
             s->desc.title);
     tp_report_network(fp, s->net);
@@ -353,10 +316,7 @@ static void summary(FILE *fp, const tp_session *s, const tp_guard_study *st, int
             fprintf(fp, "  ! layer '%s' already passes its %.0f degC limit in healthy operation "
                         "(%.1f degC): no check protects it\n", st->layer_id[k],
                     st->layer_limit[k] - TP_KELVIN_0C, st->layer_healthy[k] - TP_KELVIN_0C);
-    n = cautions(s, st, lines);
-    fputs("\ncautions:\n", fp);
-    for (k = 0; k < n; k++)
-        fprintf(fp, "  ! %s\n", lines[k]);
+    tp_report_cautions(fp, "cautions", cautions, tp_guard_cautions(&s->desc, s->net, st, cautions));
 }
 
 /* ---- JSON --------------------------------------------------------------------------------- */
@@ -387,7 +347,7 @@ static tp_status write_json(const char *path, const tp_session *s, const tp_guar
                             int evaluating, int strict_failed, tp_diag *d)
 {
     cJSON *root = cJSON_CreateObject(), *o, *arr, *item;
-    char lines[TP_CAUTIONS_MAX + 1][TP_CAUTION_MAX];
+    tp_caution cautions[TP_CAUTIONS_MAX];
     const tp_guard_spec *g = &s->desc.guard;
     tp_status rs;
     int k, c, f, from, n;
@@ -522,10 +482,8 @@ static tp_status write_json(const char *path, const tp_session *s, const tp_guar
         tp_json_number(o, "undetected", st->undetected);
         cJSON_AddBoolToObject(o, "strict_failed", strict_failed);
     }
-    n = cautions(s, st, lines);
-    arr = cJSON_AddArrayToObject(root, "cautions");
-    for (k = 0; arr && k < n; k++)
-        cJSON_AddItemToArray(arr, cJSON_CreateString(lines[k]));
+    n = tp_guard_cautions(&s->desc, s->net, st, cautions);
+    tp_json_add_cautions(cJSON_AddArrayToObject(root, "cautions"), cautions, n);
     rs = tp_json_write(path, root, d);
     cJSON_Delete(root);
     return rs;

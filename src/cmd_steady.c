@@ -134,7 +134,8 @@ static void summary(FILE *fp, const tp_session *s, const answer *a)
     const tp_network *net = s->net;
     const tp_steady *shown = a->holding ? &a->hold : &a->limit;
     double total = plate_loss_total(&a->flows), surf = surface_or_nan(net, shown->temps);
-    tp_exposure ex = {TP_UNSET, TP_UNSET, TP_UNSET, NULL, NULL};
+    tp_caution_exposure ex = TP_CAUTION_UNSEEN;
+    tp_caution cautions[TP_CAUTIONS_MAX];
     double *layer_peak = NULL;
     int p, i;
     fprintf(fp, "tepid steady %s%s%s\n  ", s->cli->file, s->desc.title[0] ? ": " : "",
@@ -195,7 +196,7 @@ static void summary(FILE *fp, const tp_session *s, const answer *a)
         free(map);
     }
     ex.current_max = tp_network_current(net, shown->temps);
-    tp_report_cautions(fp, &s->desc, net, &ex);
+    tp_report_cautions(fp, "cautions", cautions, tp_caution_list(&s->desc, net, &ex, cautions));
     free(layer_peak);
 }
 

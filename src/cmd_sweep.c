@@ -590,8 +590,7 @@ static tp_status write_json(const char *path, const tp_session *s, const tp_swee
         }
     }
     cautions = cJSON_AddArrayToObject(root, "cautions");
-    for (k = 0; cautions && k < tot->n_cautions; k++)
-        cJSON_AddItemToArray(cautions, cJSON_CreateString(tot->cautions[k]));
+    tp_json_add_cautions(cautions, tot->cautions, tot->n_cautions);
     st = tp_json_write(path, root, d);
     cJSON_Delete(root);
     return st;
@@ -912,15 +911,15 @@ static void summary_head(FILE *fp, const tp_session *s, const tp_sweep_plan *pla
 /* The cautions of the run; when no point succeeded, those of the config itself. */
 static void summary_cautions(FILE *fp, const tp_session *s, const tp_sweep_totals *tot)
 {
-    int k;
     if (tot->n_cautions == 0) {
-        tp_exposure ex = {TP_UNSET, TP_UNSET, TP_UNSET, NULL, NULL};
-        tp_report_cautions(fp, &s->desc, s->net, &ex);
+        tp_caution_exposure ex = TP_CAUTION_UNSEEN;
+        tp_caution cautions[TP_CAUTIONS_MAX];
+        tp_report_cautions(fp, "cautions", cautions,
+                           tp_caution_list(&s->desc, s->net, &ex, cautions));
         return;
     }
-    fputs("\ncautions (the worst case over all points):\n", fp);
-    for (k = 0; k < tot->n_cautions; k++)
-        fprintf(fp, "  ! %s\n", tot->cautions[k]);
+    tp_report_cautions(fp, "cautions (the worst case over all points)", tot->cautions,
+                       tot->n_cautions);
 }
 
 static tp_status run_sweep(const tp_cli *cli, tp_diag *d)

@@ -144,8 +144,7 @@ static tp_status run_tune(const tp_cli *cli, tp_diag *d)
     if (rc == TP_OK && tp_cli_get(cli, "plot"))
         rc = tp_figure_warmup(tp_cli_get(cli, "plot"), tp_session_title(&s), s.net, &w, d);
     if (rc == TP_OK && s.text) {
-        tp_exposure ex = {w.metrics.surface_max, w.metrics.node_max, w.metrics.current_peak,
-                          w.peak, w.layer_peak};
+        tp_caution cautions[TP_CAUTIONS_MAX];
         fprintf(s.text, "tepid tune %s\n  ", cli->file);
         tp_report_network(s.text, s.net);
         fprintf(s.text, "  model of the reading at the holding point (duty %.3f -> %.3f):\n"
@@ -167,7 +166,8 @@ static tp_status run_tune(const tp_cli *cli, tp_diag *d)
                         "overshoot %.2f K, surface ready after %s\n",
                 isfinite(w.metrics.t_setpoint) ? buf : "(not reached)",
                 w.metrics.overshoot_reading, isfinite(w.metrics.t_surface_ready) ? buf2 : "-");
-        tp_report_cautions(s.text, &s.desc, s.net, &ex);
+        tp_report_cautions(s.text, "cautions", cautions,
+                           tp_warmup_cautions(&s.desc, s.net, &w, cautions));
     }
 done:
     tp_warmup_clear(&w);

@@ -34,18 +34,6 @@ static const tp_opt warmup_opts[] = {
     TP_OPT_END,
 };
 
-static void exposure(const tp_warmup *w, const double *peak, tp_exposure *ex)
-{
-    ex->surface_max = w->metrics.surface_max;
-    /* A gridded plate: the hottest cell of the surface, not its mean. */
-    if (w->history.surface_max)
-        ex->surface_max = tp_series_max(w->history.surface_max, w->history.n, 1);
-    ex->node_max = w->metrics.node_max;
-    ex->current_max = w->metrics.current_peak;
-    ex->node_peak = peak;
-    ex->layer_peak = w->layer_peak;
-}
-
 static void print_time(FILE *fp, const char *what, double t)
 {
     char buf[64];
@@ -160,14 +148,14 @@ static void print_ready(FILE *fp, const tp_metrics *m)
     }
 }
 
-static void summary(FILE *fp, const tp_session *s, const tp_warmup *w, const double *peak)
+static void summary(FILE *fp, const tp_session *s, const tp_warmup *w)
 {
     const tp_network *net = s->net;
     const tp_history *h = &w->history;
     const tp_metrics *m = &w->metrics;
     char buf[64];
     int k;
-    tp_exposure ex = {TP_UNSET, TP_UNSET, TP_UNSET, NULL, NULL};
+    tp_caution cautions[TP_CAUTIONS_MAX];
     fprintf(fp, "tepid warmup %s%s%s\n  ", s->cli->file, s->desc.title[0] ? ": " : "",
             s->desc.title);
     tp_report_network(fp, net);
@@ -235,8 +223,7 @@ static void summary(FILE *fp, const tp_session *s, const tp_warmup *w, const dou
                 net->grid ? "mean" : "estimate");
     if (net->grid)
         map_summary(fp, net, w);
-    exposure(w, peak, &ex);
-    tp_report_cautions(fp, &s->desc, net, &ex);
+    tp_report_cautions(fp, "cautions", cautions, tp_warmup_cautions(&s->desc, net, w, cautions));
 }
 
 static void put_node_map(cJSON *obj, const char *name, const tp_history *h,
@@ -327,17 +314,15 @@ static void put_ready(cJSON *root, const tp_metrics *m)
     tp_json_number(c, "surface_mean_C", m->cycle_mean - TP_KELVIN_0C);
 }
 
-static tp_status write_json(const char *path, const tp_session *s, const tp_warmup *w,
-                            const double *peak, tp_diag *d)
+static tp_status write_json(const char *path, const tp_session *s, const tp_warmup *w, tp_diag *d)
 {
     const tp_metrics *m = &w->metrics;
     const tp_history *h = &w->history;
     cJSON *root = cJSON_CreateObject(), *stats, *cautions;
     double *col = malloc(((size_t)h->n_out + 1) * sizeof *col);
-    char lines[TP_CAUTIONS_MAX][TP_CAUTION_MAX];
-    tp_exposure ex = {TP_UNSET, TP_UNSET, TP_UNSET, NULL, NULL};
+    tp_caution list[TP_CAUTIONS_MAX];
     tp_status st;
-    int k, nc;
+    int k;
     if (!root || !col) {
         cJSON_Delete(root);
         free(col);
@@ -391,11 +376,8 @@ static tp_status write_json(const char *path, const tp_session *s, const tp_warm
                                 w->stats.iterative ? "multigrid" : w->stats.sparse ? "klu"
                                                                                    : "dense");
     }
-    exposure(w, peak, &ex);
-    nc = tp_report_caution_lines(&s->desc, s->net, &ex, lines);
     cautions = cJSON_AddArrayToObject(root, "cautions");
-    for (k = 0; cautions && k < nc; k++)
-        cJSON_AddItemToArray(cautions, cJSON_CreateString(lines[k]));
+    tp_json_add_cautions(cautions, list, tp_warmup_cautions(&s->desc, s->net, w, list));
     st = tp_json_write(path, root, d);
     cJSON_Delete(root);
     free(col);
@@ -472,11 +454,11 @@ static tp_status run_warmup(const tp_cli *cli, tp_diag *d)
     if (rc == TP_OK && s.net->grid)
         rc = write_maps(cli, &s, &w, d);
     if (rc == TP_OK && tp_cli_get(cli, "json"))
-        rc = write_json(tp_cli_get(cli, "json"), &s, &w, w.peak, d);
+        rc = write_json(tp_cli_get(cli, "json"), &s, &w, d);
     if (rc == TP_OK && tp_cli_get(cli, "plot"))
         rc = tp_figure_warmup(tp_cli_get(cli, "plot"), tp_session_title(&s), s.net, &w, d);
     if (rc == TP_OK && s.text)
-        summary(s.text, &s, &w, w.peak);
+        summary(s.text, &s, &w);
     if (rc == TP_OK && tp_cli_flag(cli, "strict") && !isfinite(w.metrics.t_setpoint)) {
         char buf[64];
         tp_fmt_duration(w.metrics.duration, buf, sizeof buf);

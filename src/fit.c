@@ -1079,3 +1079,11 @@ done:
         tp_fit_result_clear(res);
     return st;
 }
+
+int tp_fit_cautions(const tp_desc *fitted, const tp_network *net, const tp_fit_result *res,
+                    tp_caution out[TP_CAUTIONS_MAX])
+{
+    tp_caution_exposure ex = {res->surface_max, res->node_max, res->current_max, res->node_peak,
+                              NULL};
+    return tp_caution_list(fitted, net, &ex, out);
+}

@@ -4,6 +4,7 @@
 #ifndef TP_FIT_H
 #define TP_FIT_H
 
+#include "caution.h"
 #include "desc.h"
 #include "diag.h"
 #include "doc.h"
@@ -115,5 +116,10 @@ void tp_fit_result_clear(tp_fit_result *res);
 
 /* A short name of a drive for reports ("logged duty", ...). */
 const char *tp_fit_drive_name(tp_fit_drive drive);
+
+/* The safety cautions of the calibrated plate (caution.h), from what its model saw over the
+ * log (res's peaks and current); returns how many were written to out. */
+int tp_fit_cautions(const tp_desc *fitted, const tp_network *net, const tp_fit_result *res,
+                    tp_caution out[TP_CAUTIONS_MAX]);
 
 #endif

@@ -20,7 +20,6 @@
 #include "config.h"
 #include "integrate.h"
 #include "materials.h"
-#include "report.h"
 
 #define TP_GUARD_TIME_EPS 1.0e-6 /* s: sample times closer than this are the same time */
 
@@ -1554,4 +1553,39 @@ void tp_guard_study_clear(tp_guard_study *st)
     }
     tp_steady_clear(&st->stuck);
     st->n_corners = 0;
+}
+
+int tp_guard_cautions(const tp_desc *desc, const tp_network *net, const tp_guard_study *st,
+                      tp_caution out[TP_CAUTIONS_MAX])
+{
+    double surface = -HUGE_VAL, node = -HUGE_VAL;
+    double *peak = malloc((size_t)net->n_nodes * sizeof *peak); /* NULL: peaks unknown */
+    tp_caution_exposure ex = TP_CAUTION_UNSEEN;
+    int c, k, n;
+    long i;
+    for (k = 0; peak && k < net->n_nodes; k++)
+        peak[k] = TP_UNSET;
+    for (c = 0; c < st->n_corners; c++) {
+        const tp_guard_trace *tr = &st->corners[c].trace;
+        for (i = 0; i < tr->n; i++) {
+            if (tr->surface[i] > surface)
+                surface = tr->surface[i];
+            if (tr->heater[i] > node)
+                node = tr->heater[i];
+        }
+    }
+    for (k = 0; peak && k < st->n_layers; k++) {
+        int nd = tp_network_find_node(net, st->layer_id[k]);
+        if (nd >= 0)
+            peak[nd] = st->layer_healthy[k];
+    }
+    ex.surface_max = isfinite(surface) ? surface : TP_UNSET;
+    ex.node_max = isfinite(node) ? node : TP_UNSET;
+    ex.node_peak = peak;
+    n = tp_caution_list(desc, net, &ex, out);
+    memset(&out[n], 0, sizeof out[n]);
+    out[n].kind = TP_CAUTION_GUARD_CUTOUT;
+    out[n++].layer = -1;
+    free(peak);
+    return n;
 }

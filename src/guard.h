@@ -4,6 +4,7 @@
 #ifndef TP_GUARD_H
 #define TP_GUARD_H
 
+#include "caution.h"
 #include "desc.h"
 #include "diag.h"
 #include "doc.h"
@@ -221,5 +222,11 @@ void tp_guard_evaluate(tp_guard_study *st, const tp_guard_settings *s);
 
 /* Name of a threshold as in configs ("rise_window"). */
 const char *tp_guard_setting_name(int which);
+
+/* The safety cautions of a study (caution.h), from the healthy corners' hottest surface and
+ * heater and each layer's healthy peak, with guard's own last: its thresholds supplement a
+ * hardware cut-out and never replace it. Returns how many were written to out. */
+int tp_guard_cautions(const tp_desc *desc, const tp_network *net, const tp_guard_study *st,
+                      tp_caution out[TP_CAUTIONS_MAX]);
 
 #endif

@@ -5,6 +5,7 @@
 #include <stdlib.h>
 
 #include "outfile.h"
+#include "report.h"
 #include "units.h"
 
 
@@ -42,4 +43,14 @@ tp_status tp_json_write(const char *path, const cJSON *root, tp_diag *d)
     }
     free(text);
     return st;
+}
+
+void tp_json_add_cautions(cJSON *array, const tp_caution *list, int n)
+{
+    char line[TP_CAUTION_MAX];
+    int i;
+    for (i = 0; array && i < n; i++) {
+        tp_report_caution_text(&list[i], line, sizeof line);
+        cJSON_AddItemToArray(array, cJSON_CreateString(line));
+    }
 }

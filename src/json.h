@@ -4,6 +4,7 @@
 
 #include <cjson/cJSON.h>
 
+#include "caution.h"
 #include "diag.h"
 #include "network.h"
 #include "status.h"
@@ -18,5 +19,9 @@ cJSON *tp_json_number(cJSON *obj, const char *name, double v);
  * (null without a room node), `heater_current_A` and `heater_power_W` (full on at the initial
  * state; the current null for a constant-power heater), `heater_max_duty`. */
 void tp_json_conditions(cJSON *root, const tp_network *net);
+
+/* Fill `array` with the words of each caution (tp_report_caution_text), in list order: the
+ * "cautions" array every verb's JSON carries. */
+void tp_json_add_cautions(cJSON *array, const tp_caution *list, int n);
 
 #endif

@@ -1,24 +1,9 @@
-/* Text summaries and safety cautions. The cautions name their basis: EN ISO 13732-1 for
- * contact burns, the extra-low-voltage limit for mains, each material's service limit. */
+/* Text summaries, and the words of the safety cautions: each names its basis (EN ISO 13732-1
+ * for contact burns, the extra-low-voltage limit for mains, each material's service limit). */
 #include "report.h"
 
 #include <math.h>
 #include <string.h>
-
-#include "materials.h"
-
-#define TP_BURN_LONG (TP_KELVIN_0C + 43.0) /* K, 43 degC: burn threshold for contact of 8 h and longer
-                                    (EN ISO 13732-1 Table 1, from memory) */
-#define TP_BURN_SHORT (TP_KELVIN_0C + 65.0) /* K, 65 degC: about 1 s contact with bare metal burns
-                                    (EN ISO 13732-1 Fig. 1, from memory) */
-#define TP_ELV_LIMIT 50.0        /* V: above this the supply is treated as hazardous (extra-low
-                                    voltage ends at 50 V AC, IEC 61140; from memory) */
-#define TP_HIGH_CURRENT 10.0     /* A: connectors and wiring deserve a check above this
-                                    (common practice, no source) */
-#define TP_LIMIT_MARGIN 10.0     /* K: "near" a service limit */
-#define TP_DENSITY_FLEX 1.0e4    /* W/m2 (1 W/cm2): flexible silicone/polyimide heaters above
-                                    this need good bonding to a metal plate (common practice,
-                                    no source) */
 
 void tp_fmt_duration(double s, char *buf, size_t size)
 {
@@ -94,93 +79,65 @@ void tp_report_network(FILE *fp, const tp_network *net)
     tp_report_conditions(fp, net);
 }
 
-static double supply_voltage(const tp_network *net)
+void tp_report_caution_text(const tp_caution *c, char *buf, size_t size)
 {
-    int i;
-    double v = 0.0;
-    for (i = 0; i < net->n_sources; i++)
-        if (net->sources[i].kind == TP_SRC_ELECTRIC && net->sources[i].supply > v)
-            v = net->sources[i].supply;
-    return v;
-}
-
-int tp_report_caution_lines(const tp_desc *desc, const tp_network *net, const tp_exposure *ex,
-                            char lines[][TP_CAUTION_MAX])
-{
-    int n = 0;
-    double v = supply_voltage(net);
-    double hot = isfinite(ex->surface_max) ? ex->surface_max : ex->node_max;
-    if (isfinite(hot) && hot > TP_BURN_LONG) {
-        snprintf(lines[n++], TP_CAUTION_MAX,
+    switch (c->kind) {
+    case TP_CAUTION_HOT_SURFACE:
+        snprintf(buf, size,
                  "Hot surface: the plate reaches %.0f degC. Skin contact with bare metal above "
                  "about %.0f degC burns within a second, and above %.0f degC with long contact "
                  "(EN ISO 13732-1 contact-burn thresholds). Guard or mark the plate, and let it "
-                 "cool before handling.", hot - TP_KELVIN_0C, TP_BURN_SHORT - TP_KELVIN_0C,
-                 TP_BURN_LONG - TP_KELVIN_0C);
-    }
-    if (v > TP_ELV_LIMIT) {
-        snprintf(lines[n++], TP_CAUTION_MAX,
+                 "cool before handling.", c->value[0] - TP_KELVIN_0C,
+                 TP_CAUTION_BURN_SHORT - TP_KELVIN_0C, TP_CAUTION_BURN_LONG - TP_KELVIN_0C);
+        return;
+    case TP_CAUTION_MAINS:
+        snprintf(buf, size,
                  "Mains voltage (%.0f V): installation by a qualified person; protective earth "
                  "on every accessible metal part, a fuse and a residual-current device, and a "
                  "non-self-resetting thermal cut-out in series with the heater, independent of "
-                 "the controller. Follow your local electrical codes.", v);
-    } else if (isfinite(ex->current_max) && ex->current_max > TP_HIGH_CURRENT) {
-        snprintf(lines[n++], TP_CAUTION_MAX,
+                 "the controller. Follow your local electrical codes.", c->value[0]);
+        return;
+    case TP_CAUTION_HIGH_CURRENT:
+        snprintf(buf, size,
                  "High current (%.1f A at %.0f V): rate connectors, wiring and the switch for "
                  "it with margin; a loose crimp at this current is a fire risk.",
-                 ex->current_max, v);
+                 c->value[0], c->value[1]);
+        return;
+    case TP_CAUTION_SERVICE_LIMIT:
+        snprintf(buf, size,
+                 "Service limit: layer '%s' (%s) is rated to about %.0f degC and reaches %.0f "
+                 "degC here.", c->layer_id, c->material, c->value[0] - TP_KELVIN_0C,
+                 c->value[1] - TP_KELVIN_0C);
+        return;
+    case TP_CAUTION_POWER_DENSITY:
+        snprintf(buf, size,
+                 "Heater power density %.2f W/cm2 in a %s layer: above about 1 W/cm2 a flexible "
+                 "heater must be fully bonded to the plate, or it overheats and delaminates.",
+                 c->value[0] * 1e-4, c->material);
+        return;
+    case TP_CAUTION_CUTOUT:
+        snprintf(buf, size,
+                 "tepid models no independent over-temperature cut-out. Controller and firmware "
+                 "checks do not replace one: fit a thermal fuse or one-shot thermostat on the "
+                 "heated part, and never leave a heating plate unattended.");
+        return;
+    case TP_CAUTION_GUARD_CUTOUT:
+        snprintf(buf, size,
+                 "These thresholds supplement and never replace an independent hardware "
+                 "cut-out: a stuck switch or a firmware fault defeats every check the "
+                 "controller runs.");
+        return;
     }
-    if (desc && desc->form == TP_FORM_PHYSICAL) {
-        size_t i;
-        double hottest = isfinite(ex->node_max) ? ex->node_max : hot;
-        for (i = 0; i < desc->bed.n_layers && n < TP_CAUTIONS_MAX - 2; i++) {
-            const tp_material_spec *m = tp_materials_find(desc, desc->bed.layers[i].material);
-            int node = tp_network_find_node(net, desc->bed.layers[i].id);
-            double peak = ex->layer_peak   ? ex->layer_peak[i]
-                          : ex->node_peak && node >= 0 ? ex->node_peak[node]
-                                                       : hottest;
-            if (m && isfinite(peak) && peak > m->max_temperature - TP_LIMIT_MARGIN) {
-                snprintf(lines[n++], TP_CAUTION_MAX,
-                         "Service limit: layer '%s' (%s) is rated to about %.0f degC and "
-                         "reaches %.0f degC here.", desc->bed.layers[i].id, m->id,
-                         m->max_temperature - TP_KELVIN_0C, peak - TP_KELVIN_0C);
-            }
-        }
-        if (desc->heater.present && n < TP_CAUTIONS_MAX - 1) {
-            size_t k;
-            for (k = 0; k < desc->bed.n_layers; k++) {
-                const tp_layer *ly = &desc->bed.layers[k];
-                const tp_material_spec *m = tp_materials_find(desc, ly->material);
-                double a, p = desc->heater.power;
-                if (strcmp(ly->id, desc->heater.layer) != 0 || !m)
-                    continue;
-                a = (isfinite(ly->size[0]) ? ly->size[0] : desc->bed.size[0]) *
-                    (isfinite(ly->size[1]) ? ly->size[1] : desc->bed.size[1]);
-                if (!isfinite(p) && isfinite(desc->heater.supply))
-                    p = desc->heater.supply * desc->heater.supply / desc->heater.resistance;
-                /* Flexible heaters: silicone-rubber pads and polyimide film. */
-                if (isfinite(p) && (strstr(m->id, "silicone") || strstr(m->id, "polyimide")) &&
-                    p / a > TP_DENSITY_FLEX)
-                    snprintf(lines[n++], TP_CAUTION_MAX,
-                             "Heater power density %.2f W/cm2 in a %s layer: above about 1 W/cm2 "
-                             "a flexible heater must be fully bonded to the plate, or it "
-                             "overheats and delaminates.", p / a * 1e-4, m->id);
-            }
-        }
-    }
-    snprintf(lines[n++], TP_CAUTION_MAX,
-             "tepid models no independent over-temperature cut-out. Controller and firmware "
-             "checks do not replace one: fit a thermal fuse or one-shot thermostat on the heated "
-             "part, and never leave a heating plate unattended.");
-    return n;
+    snprintf(buf, size, "?");
 }
 
-void tp_report_cautions(FILE *fp, const tp_desc *desc, const tp_network *net,
-                        const tp_exposure *ex)
+void tp_report_cautions(FILE *fp, const char *heading, const tp_caution *list, int n)
 {
-    char lines[TP_CAUTIONS_MAX][TP_CAUTION_MAX];
-    int i, n = tp_report_caution_lines(desc, net, ex, lines);
-    fputs("\ncautions:\n", fp);
-    for (i = 0; i < n; i++)
-        fprintf(fp, "  ! %s\n", lines[i]);
+    char line[TP_CAUTION_MAX];
+    int i;
+    fprintf(fp, "\n%s:\n", heading);
+    for (i = 0; i < n; i++) {
+        tp_report_caution_text(&list[i], line, sizeof line);
+        fprintf(fp, "  ! %s\n", line);
+    }
 }

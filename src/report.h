@@ -1,11 +1,12 @@
-/* Text summaries: formatting of durations and temperatures, the network line, and the safety
- * cautions that close every run. */
+/* Text summaries: formatting of durations and temperatures, the network line, and the words of
+ * the safety cautions (caution.h decides which apply) that close every run. */
 #ifndef TP_REPORT_H
 #define TP_REPORT_H
 
 #include <stddef.h>
 #include <stdio.h>
 
+#include "caution.h"
 #include "desc.h"
 #include "network.h"
 #include "units.h"
@@ -27,24 +28,12 @@ void tp_report_conditions(FILE *fp, const tp_network *net);
  * tp_report_conditions. */
 void tp_report_network(FILE *fp, const tp_network *net);
 
-/* What a run saw, for the cautions. Unknown values are NaN. */
-typedef struct tp_exposure {
-    double surface_max;   /* K, hottest working surface */
-    double node_max;      /* K, hottest node of the plate (the heater layer, usually) */
-    double current_max;   /* A drawn by the heater */
-    const double *node_peak; /* per node index, K: the hottest each node got (NULL: unknown) */
-    const double *layer_peak; /* per bed layer, K (gridded plates; NULL: from node_peak) */
-} tp_exposure;
+#define TP_CAUTION_MAX 400 /* bytes of one caution's text */
 
-/* The safety cautions that apply to this case (always at least the cut-out line). */
-void tp_report_cautions(FILE *fp, const tp_desc *desc, const tp_network *net,
-                        const tp_exposure *ex);
+/* The words of one caution (caution.h) into buf: its kind's sentence with its figures. */
+void tp_report_caution_text(const tp_caution *c, char *buf, size_t size);
 
-/* The cautions as separate lines into lines[] (static strings or buf-backed), for JSON;
- * returns how many. Each line fits in TP_CAUTION_MAX bytes. */
-#define TP_CAUTION_MAX 400
-#define TP_CAUTIONS_MAX 8
-int tp_report_caution_lines(const tp_desc *desc, const tp_network *net, const tp_exposure *ex,
-                            char lines[][TP_CAUTION_MAX]);
+/* The cautions under "\n<heading>:", one "  ! " line each. */
+void tp_report_cautions(FILE *fp, const char *heading, const tp_caution *list, int n);
 
 #endif

@@ -22,7 +22,6 @@
 #include "assemble.h"
 #include "config.h"
 #include "network.h"
-#include "report.h"
 #include "warmup.h"
 
 #define GOLDEN_GAMMA 0x9e3779b97f4a7c15ULL /* SplitMix64 increment, 2^64 / golden ratio */
@@ -596,17 +595,10 @@ typedef struct pool {
     atomic_long done; /* points finished */
 } pool;
 
-#define KIND_MAX TP_CAUTION_MAX /* bytes of a caution's kind */
-#define NUMS_MAX 8              /* numbers compared per caution line */
-
-/* The worst line seen of one kind of caution. */
+/* The worst record seen of one caution, and the point it came from. */
 typedef struct caution_slot {
-    char kind[KIND_MAX];
-    char line[TP_CAUTION_MAX];
-    double nums[NUMS_MAX];
-    int n_nums;
-    long index;   /* the point it came from */
-    int from_end; /* the largest distance from the end of its point's caution list */
+    tp_caution c;
+    long index;
 } caution_slot;
 
 typedef struct worker {
@@ -619,52 +611,16 @@ typedef struct worker {
     tp_diag diag; /* messages of the current point, never printed */
 } worker;
 
-/* Split a caution line into its kind (the line with each number of the prose replaced by '#')
- * and those numbers. A number of the prose starts after a blank or '(' at the start of the
- * line; digits inside names ("aluminium-6061", "layer2") stay part of the kind. */
-static void caution_parse(const char *line, caution_slot *c)
-{
-    const char *p = line;
-    size_t k = 0;
-    c->n_nums = 0;
-    while (*p && k < KIND_MAX - 1) {
-        int starts = *p >= '0' && *p <= '9' && (p == line || p[-1] == ' ' || p[-1] == '(');
-        if (starts) {
-            char *end;
-            double v = strtod(p, &end);
-            if (c->n_nums < NUMS_MAX)
-                c->nums[c->n_nums++] = v;
-            c->kind[k++] = '#';
-            p = end;
-        } else {
-            c->kind[k++] = *p++;
-        }
-    }
-    c->kind[k] = '\0';
-}
-
-/* Whether caution a should replace b of the same kind: larger numbers, then lower index. */
-static int caution_worse(const caution_slot *a, const caution_slot *b)
-{
-    int i;
-    for (i = 0; i < a->n_nums && i < b->n_nums; i++)
-        if (a->nums[i] != b->nums[i])
-            return a->nums[i] > b->nums[i];
-    if (a->n_nums != b->n_nums)
-        return a->n_nums > b->n_nums;
-    return a->index < b->index;
-}
-
-/* Merge one caution into a table of slots. */
+/* Merge one caution into a table of slots: a new caution takes a slot, a known one keeps the
+ * worse figures (tp_caution_worse), the lower point index on ties. */
 static void caution_merge(caution_slot *table, int *n, const caution_slot *c)
 {
     int i;
     for (i = 0; i < *n; i++)
-        if (strcmp(table[i].kind, c->kind) == 0) {
-            int from_end = table[i].from_end > c->from_end ? table[i].from_end : c->from_end;
-            if (caution_worse(c, &table[i]))
+        if (tp_caution_same(&table[i].c, &c->c)) {
+            if (tp_caution_worse(&c->c, &table[i].c) ||
+                (!tp_caution_worse(&table[i].c, &c->c) && c->index < table[i].index))
                 table[i] = *c;
-            table[i].from_end = from_end;
             return;
         }
     if (*n < TP_SWEEP_CAUTIONS_MAX)
@@ -674,25 +630,19 @@ static void caution_merge(caution_slot *table, int *n, const caution_slot *c)
 static int cmp_caution(const void *a, const void *b)
 {
     const caution_slot *x = a, *y = b;
-    if (x->from_end != y->from_end)
-        return x->from_end > y->from_end ? -1 : 1;
-    return strcmp(x->kind, y->kind);
+    return tp_caution_compare(&x->c, &y->c);
 }
 
 static void point_cautions(worker *wk, const tp_desc *desc, const tp_network *net,
                            const tp_warmup *w, long index)
 {
-    char lines[TP_CAUTIONS_MAX][TP_CAUTION_MAX];
-    tp_exposure ex = {w->metrics.surface_max, w->metrics.node_max, w->metrics.current_peak,
-                      w->peak, w->layer_peak};
-    int n = tp_report_caution_lines(desc, net, &ex, lines), i;
+    tp_caution list[TP_CAUTIONS_MAX];
+    int n = tp_warmup_cautions(desc, net, w, list), i;
     for (i = 0; i < n; i++) {
         caution_slot c;
-        memset(&c, 0, sizeof c); /* whole buffers defined: results compare bytewise */
-        caution_parse(lines[i], &c);
-        snprintf(c.line, sizeof c.line, "%.*s", (int)sizeof c.line - 1, lines[i]);
+        memset(&c, 0, sizeof c); /* whole records defined: results compare bytewise */
+        c.c = list[i];
         c.index = index;
-        c.from_end = n - 1 - i;
         caution_merge(wk->cautions, &wk->n_cautions, &c);
     }
 }
@@ -900,7 +850,7 @@ tp_status tp_sweep_run(const tp_sweep_plan *plan, const tp_desc *base, int jobs,
         }
         qsort(all, (size_t)n, sizeof *all, cmp_caution);
         for (k = 0; k < n; k++)
-            snprintf(totals->cautions[k], TP_CAUTION_MAX, "%s", all[k].line);
+            totals->cautions[k] = all[k].c;
         totals->n_cautions = n;
     }
     free(wk);

@@ -11,7 +11,7 @@
 #include "diag.h"
 #include "metricdef.h"
 #include "network.h"
-#include "report.h"
+#include "caution.h"
 #include "status.h"
 #include "units.h"
 
@@ -144,11 +144,11 @@ typedef struct tp_sweep_totals {
     int jobs;    /* worker threads actually started (0: ran in the calling thread) */
     double wall; /* s of wall clock */
     double cpu;  /* s of CPU summed over the workers */
-    /* The safety cautions over all successful points: of each kind of caution (its text with
-     * the numbers left out) the line with the largest numbers (the hottest, the highest voltage
-     * ...), the lowest point index on ties; ordered as tp_report_caution_lines orders them, the
-     * closing cut-out line last. Independent of the number of jobs. */
-    char cautions[TP_SWEEP_CAUTIONS_MAX][TP_CAUTION_MAX];
+    /* The safety cautions over all successful points: of each caution (tp_caution_same: its
+     * kind, layer and material) the record with the worst figures (tp_caution_worse: the
+     * hottest, the highest voltage ...), the lowest point index on ties; in list order
+     * (tp_caution_compare), the closing cut-out last. Independent of the number of jobs. */
+    tp_caution cautions[TP_SWEEP_CAUTIONS_MAX];
     int n_cautions;
 } tp_sweep_totals;
 

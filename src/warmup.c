@@ -131,3 +131,13 @@ int tp_warmup_reading_column(const tp_network *net, const tp_history *h)
         return -1;
     return tp_history_column(h, net->control.sensor);
 }
+
+int tp_warmup_cautions(const tp_desc *desc, const tp_network *net, const tp_warmup *w,
+                       tp_caution out[TP_CAUTIONS_MAX])
+{
+    tp_caution_exposure ex = {w->metrics.surface_max, w->metrics.node_max,
+                              w->metrics.current_peak, w->peak, w->layer_peak};
+    if (w->history.surface_max)
+        ex.surface_max = tp_series_max(w->history.surface_max, w->history.n, 1);
+    return tp_caution_list(desc, net, &ex, out);
+}

@@ -3,6 +3,7 @@
 #ifndef TP_WARMUP_H
 #define TP_WARMUP_H
 
+#include "caution.h"
 #include "diag.h"
 #include "history.h"
 #include "integrate.h"
@@ -42,5 +43,11 @@ void tp_warmup_clear(tp_warmup *w);
  * thermistor, ADC or offset stands between them: one curve serves for both), or -1 when the
  * reading differs from every column or there is no controller. */
 int tp_warmup_reading_column(const tp_network *net, const tp_history *h);
+
+/* The safety cautions of a run (caution.h), from what it reached: the hottest working surface
+ * (on a gridded plate its hottest cell, not the mean), the hottest node, the peak current and
+ * each node's and layer's peak. Returns how many were written to out. */
+int tp_warmup_cautions(const tp_desc *desc, const tp_network *net, const tp_warmup *w,
+                       tp_caution out[TP_CAUTIONS_MAX]);
 
 #endif

@@ -3,26 +3,11 @@
  * from it (one answer for both). */
 #include "tp_test.h"
 
-/* A raw plate with a controller in the mode and setpoint given (an invented case). */
+/* A raw plate with the controller `control` (a control section, or ""): both answers. */
 static void holds_case(const char *control, int expected)
 {
-    char text[1024];
     tp_yaml_net y;
-    snprintf(text, sizeof text,
-             "network:\n"
-             "  nodes:\n"
-             "    - {id: plate, capacity: 640 J/K, initial: 21 degC}\n"
-             "    - {id: room, fixed: 21 degC}\n"
-             "  links:\n"
-             "    - {between: [plate, room], conductance: 1.6 W/K}\n"
-             "  sources:\n"
-             "    - {id: pad, node: plate, power: 120 W}\n"
-             "%s"
-             "run: {duration: 10 s, step: 1 s}\n",
-             control);
-    if (tp_yaml_net_open(&y, text) != TP_OK)
-        print_error("%s", y.diag.log);
-    assert_non_null(y.net);
+    tp_yaml_net_plate(&y, "power: 120 W", control);
     if (tp_desc_holds(&y.desc) != expected || tp_network_holds(y.net) != expected)
         print_error("control '%s': expected holds = %d\n", control, expected);
     assert_int_equal(tp_desc_holds(&y.desc), expected);

@@ -844,6 +844,41 @@ static void test_cli_files_identical_for_1_and_2_jobs(void **state)
     assert_true(same_bytes(j1, j2));
 }
 
+/* A sweep point and the warm-up of the same case report the same cautions: on a gridded plate
+ * both quote the hottest cell of the working surface (the sweep once quoted the hottest mean,
+ * 66 degC against warmup's 73 degC on this demo; rule: two verbs that report the same figure
+ * agree). Coarse cells and a short run keep it quick. */
+static void test_cli_cautions_agree_with_warmup_on_a_grid(void **state)
+{
+    char args[2048], w[512], s[512];
+    const char *fast = "--set bed.grid=[12,12] --set run.duration=20min";
+    cJSON *jw, *js, *cw, *cs;
+    (void)state;
+    snprintf(w, sizeof w, "%s/grid-warmup.json", scratch_dir());
+    snprintf(s, sizeof s, "%s/grid-sweep.json", scratch_dir());
+    snprintf(args, sizeof args, "warmup %s/configs/small-pad-grid.yaml -q %s --json %s",
+             TP_SOURCE_DIR, fast, w);
+    assert_int_equal(run_tepid(args), 0);
+    snprintf(args, sizeof args,
+             "sweep %s/configs/small-pad-grid.yaml -q %s --vary room.temperature=20degC "
+             "--json %s",
+             TP_SOURCE_DIR, fast, s);
+    assert_int_equal(run_tepid(args), 0);
+    jw = tp_read_json(w);
+    js = tp_read_json(s);
+    cw = cJSON_GetObjectItemCaseSensitive(jw, "cautions");
+    cs = cJSON_GetObjectItemCaseSensitive(js, "cautions");
+    assert_true(cJSON_IsArray(cw) && cJSON_GetArraySize(cw) >= 2);
+    tp_check_contains("warmup's first caution", cJSON_GetArrayItem(cw, 0)->valuestring,
+                      "Hot surface");
+    if (!cJSON_Compare(cw, cs, 1))
+        print_error("warmup: %s\nsweep:  %s\n", cJSON_GetArrayItem(cw, 0)->valuestring,
+                    cJSON_GetArrayItem(cs, 0)->valuestring);
+    assert_true(cJSON_Compare(cw, cs, 1));
+    cJSON_Delete(jw);
+    cJSON_Delete(js);
+}
+
 static void test_cli_usage_errors(void **state)
 {
     char args[1024];
@@ -1031,6 +1066,7 @@ int main(void)
         cmocka_unit_test(test_failed_samples_are_reported),
         cmocka_unit_test(test_progress_ends_complete),
         cmocka_unit_test(test_cli_files_identical_for_1_and_2_jobs),
+        cmocka_unit_test(test_cli_cautions_agree_with_warmup_on_a_grid),
         cmocka_unit_test(test_cli_usage_errors),
         cmocka_unit_test(test_cli_figures),
         cmocka_unit_test(test_cli_text_in_user_units),

@@ -332,6 +332,30 @@ static inline tp_status tp_yaml_net_open(tp_yaml_net *y, const char *text)
     return st;
 }
 
+/* An invented one-node raw plate (640 J/K, 1.6 W/K to a room at 21 degC) whose source "pad"
+ * on the plate is `source` (e.g. "power: 120 W"), with `tail` (top-level lines such as a
+ * control section) and a 10 s run; fails the test unless it assembles. */
+static inline void tp_yaml_net_plate(tp_yaml_net *y, const char *source, const char *tail)
+{
+    char text[1024];
+    int n = snprintf(text, sizeof text,
+                     "network:\n"
+                     "  nodes:\n"
+                     "    - {id: plate, capacity: 640 J/K, initial: 21 degC}\n"
+                     "    - {id: room, fixed: 21 degC}\n"
+                     "  links:\n"
+                     "    - {between: [plate, room], conductance: 1.6 W/K}\n"
+                     "  sources:\n"
+                     "    - {id: pad, node: plate, %s}\n"
+                     "%s"
+                     "run: {duration: 10 s, step: 1 s}\n",
+                     source, tail);
+    assert_true(n > 0 && (size_t)n < sizeof text);
+    if (tp_yaml_net_open(y, text) != TP_OK)
+        print_error("%s", y->diag.log);
+    assert_non_null(y->net);
+}
+
 static inline void tp_yaml_net_close(tp_yaml_net *y)
 {
     tp_network_destroy(&y->net);
