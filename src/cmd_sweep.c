@@ -223,7 +223,7 @@ static double metric_out(int m, double si)
 
 static void metric_text(int m, double si, char *buf, size_t size)
 {
-    tp_metricdef_format(tp_metricdef_get(m), si, buf, size);
+    tp_report_metric(tp_metricdef_get(m), si, buf, size);
 }
 
 static const char *spread_kind_name(tp_spread_kind k)
@@ -410,13 +410,13 @@ static void spread_table(FILE *fp, const tp_sweep_plan *plan, const tp_sweep_sum
     fprintf(fp, "\n  %-18s %5s %*s %*s %*s %*s %*s %*s %-8s %-16s %s\n", "metric", "unit",
             SPREAD_COL, "mean", SPREAD_COL, "sd", SPREAD_COL, "p5", SPREAD_COL, "p50", SPREAD_COL,
             "p95", SPREAD_COL, "worst", "sample", "worst is", "driven most by (Spearman rho)");
-    for (m = 0; m < TP_MET_COUNT; m++) {
+    for (m = 0; m < TP_MET_SWEPT; m++) {
         const tp_metricdef *mi = tp_metricdef_get(m);
         const tp_sweep_summary *s = &sum[m];
         if (s->n == 0)
             continue; /* listed below as not defined */
         metric_text(m, s->mean, v[0], sizeof v[0]);
-        tp_metricdef_format_spread(mi, s->sd, v[1], sizeof v[1]);
+        tp_report_metric_spread(mi, s->sd, v[1], sizeof v[1]);
         metric_text(m, s->p5, v[2], sizeof v[2]);
         metric_text(m, s->p50, v[3], sizeof v[3]);
         metric_text(m, s->p95, v[4], sizeof v[4]);
@@ -435,14 +435,14 @@ static void spread_table(FILE *fp, const tp_sweep_plan *plan, const tp_sweep_sum
             fputs(" -", fp);
         fputc('\n', fp);
     }
-    for (m = 0; m < TP_MET_COUNT; m++)
+    for (m = 0; m < TP_MET_SWEPT; m++)
         if (sum[m].absent > 0 && sum[m].n > 0)
             fprintf(fp,
                     "  %s: absent in %ld sample%s (not reached in the simulated time); "
                     "statistics over the other %ld\n",
                     tp_metricdef_get(m)->label, sum[m].absent, sum[m].absent == 1 ? "" : "s",
                     sum[m].n);
-    for (m = 0, none = 0; m < TP_MET_COUNT; m++)
+    for (m = 0, none = 0; m < TP_MET_SWEPT; m++)
         if (sum[m].n == 0) {
             fprintf(fp, "%s%s",
                     none ? ", " : "  not defined for any sample: ", tp_metricdef_get(m)->key);
@@ -471,7 +471,7 @@ static tp_status write_csv(const char *path, const tp_sweep_plan *plan, const tp
         fprintf(o.fp, ",%s%s%s", plan->params[k].path, tok[0] ? "_" : "", tok);
     }
     fputs(",ok", o.fp);
-    for (k = 0; k < TP_MET_COUNT; k++)
+    for (k = 0; k < TP_MET_SWEPT; k++)
         fprintf(o.fp, ",%s", tp_metricdef_get(k)->key);
     fputc('\n', o.fp);
     for (i = 0; i < total; i++) {
@@ -481,7 +481,7 @@ static tp_status write_csv(const char *path, const tp_sweep_plan *plan, const tp
             tp_csv_real(o.fp, param_out(&plan->params[k], tp_sweep_value(plan, i, k)));
         }
         fprintf(o.fp, ",%d", res[i].ok);
-        for (k = 0; k < TP_MET_COUNT; k++) {
+        for (k = 0; k < TP_MET_SWEPT; k++) {
             fputc(',', o.fp);
             tp_csv_real(o.fp, metric_out(k, res[i].metric[k]));
         }
@@ -559,13 +559,13 @@ static tp_status write_json(const char *path, const tp_session *s, const tp_swee
             continue;
         }
         mv = cJSON_AddObjectToObject(pt, "metrics");
-        for (k = 0; mv && k < TP_MET_COUNT; k++)
+        for (k = 0; mv && k < TP_MET_SWEPT; k++)
             tp_json_number(mv, tp_metricdef_get(k)->key, metric_out(k, res[i].metric[k]));
     }
     if (sum) {
         cJSON *stats = cJSON_AddObjectToObject(root, "statistics");
         int m;
-        for (m = 0; stats && m < TP_MET_COUNT; m++) {
+        for (m = 0; stats && m < TP_MET_SWEPT; m++) {
             const tp_sweep_summary *sm = &sum[m];
             cJSON *o = cJSON_AddObjectToObject(stats, tp_metricdef_get(m)->key), *rho;
             if (!o)
@@ -958,8 +958,8 @@ static tp_status run_sweep(const tp_cli *cli, tp_diag *d)
     if (rc != TP_OK)
         goto done;
     if (plan.mode == TP_SWEEP_SPREAD) {
-        sum = calloc(TP_MET_COUNT, sizeof *sum);
-        for (m = 0; sum && rc == TP_OK && m < TP_MET_COUNT; m++)
+        sum = calloc(TP_MET_SWEPT, sizeof *sum);
+        for (m = 0; sum && rc == TP_OK && m < TP_MET_SWEPT; m++)
             rc = tp_sweep_summarise(&plan, res, m, &sum[m]);
         if (!sum || rc != TP_OK) {
             rc = TP_ERR_NOMEM;

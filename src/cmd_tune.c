@@ -88,9 +88,9 @@ static tp_status write_json(const char *path, const tp_fopdt *m, const tp_gains 
     tp_json_number(gains, "kp_per_K", g->kp);
     tp_json_number(gains, "ki_per_K_s", g->ki);
     tp_json_number(gains, "kd_s_per_K", g->kd);
-    tp_json_number(result, "time_to_setpoint_s", mt->t_setpoint);
-    tp_json_number(result, "overshoot_reading_K", mt->overshoot_reading);
-    tp_json_number(result, "time_surface_ready_s", mt->t_surface_ready);
+    tp_json_metric(result, mt, TP_MET_TIME_SETPOINT);
+    tp_json_metric(result, mt, TP_MET_OVERSHOOT_READING);
+    tp_json_metric(result, mt, TP_MET_TIME_READY);
     st = tp_json_write(path, root, d);
     cJSON_Delete(root);
     return st;

@@ -314,6 +314,15 @@ static void put_ready(cJSON *root, const tp_metrics *m)
     tp_json_number(c, "surface_mean_C", m->cycle_mean - TP_KELVIN_0C);
 }
 
+/* The metrics of the JSON after the readiness block, in their order there (metricdef.h names
+ * and scales them). */
+static const int json_metrics[] = {
+    TP_MET_OVERSHOOT_READING, TP_MET_OVERSHOOT_SURFACE, TP_MET_STEADY_OFFSET, TP_MET_LAG_K,
+    TP_MET_LAG,               TP_MET_ENERGY_READY,      TP_MET_POWER_MEAN,    TP_MET_POWER_PEAK,
+    TP_MET_DUTY_MEAN,         TP_MET_DUTY_PEAK,         TP_MET_WIRE_MEAN,     TP_MET_CURRENT_PEAK,
+    TP_MET_HOLD_POWER,        TP_MET_HOLD_DUTY,         TP_MET_HIGHEST,       TP_MET_AIR_FINAL,
+    TP_MET_SURFACE_MAX};
+
 static tp_status write_json(const char *path, const tp_session *s, const tp_warmup *w, tp_diag *d)
 {
     const tp_metrics *m = &w->metrics;
@@ -329,30 +338,15 @@ static tp_status write_json(const char *path, const tp_session *s, const tp_warm
         return TP_ERR_NOMEM;
     }
     tp_json_conditions(root, s->net);
-    tp_json_number(root, "setpoint_C", m->setpoint - TP_KELVIN_0C);
+    tp_json_metric(root, m, TP_MET_SETPOINT);
     cJSON_AddBoolToObject(root, "reached", isfinite(m->t_setpoint));
-    tp_json_number(root, "time_to_setpoint_s", m->t_setpoint);
-    tp_json_number(root, "surface_hold_C", m->surface_hold - TP_KELVIN_0C);
-    tp_json_number(root, "time_surface_ready_s", m->t_surface_ready);
+    tp_json_metric(root, m, TP_MET_TIME_SETPOINT);
+    tp_json_metric(root, m, TP_MET_SURFACE_HOLD);
+    tp_json_metric(root, m, TP_MET_TIME_READY);
     tp_json_number(root, "ready_band_K", TP_READY_BAND);
     put_ready(root, m);
-    tp_json_number(root, "overshoot_reading_K", m->overshoot_reading);
-    tp_json_number(root, "overshoot_surface_K", m->overshoot_surface);
-    tp_json_number(root, "steady_offset_K", m->steady_offset);
-    tp_json_number(root, "lag_K", m->lag_k);
-    tp_json_number(root, "lag_s", m->lag);
-    tp_json_number(root, "energy_to_ready_J", m->energy_to_ready);
-    tp_json_number(root, "power_mean_W", m->power_mean);
-    tp_json_number(root, "power_peak_W", m->power_peak);
-    tp_json_number(root, "duty_mean", m->duty_mean);
-    tp_json_number(root, "duty_peak", m->duty_peak);
-    tp_json_number(root, "wiring_loss_mean_W", m->wire_mean);
-    tp_json_number(root, "current_peak_A", m->current_peak);
-    tp_json_number(root, "holding_power_W", m->hold_power);
-    tp_json_number(root, "holding_duty", m->hold_duty);
-    tp_json_number(root, "highest_reachable_C", m->highest_reachable - TP_KELVIN_0C);
-    tp_json_number(root, "air_final_C", m->air_final - TP_KELVIN_0C);
-    tp_json_number(root, "surface_max_C", m->surface_max - TP_KELVIN_0C);
+    for (k = 0; k < (int)(sizeof json_metrics / sizeof json_metrics[0]); k++)
+        tp_json_metric(root, m, json_metrics[k]);
     if (m->not_reached)
         cJSON_AddStringToObject(root, "not_reached", m->not_reached);
     else
@@ -365,7 +359,7 @@ static tp_status write_json(const char *path, const tp_session *s, const tp_warm
     put_node_map(root, "max_C", h, col);
     if (s->net->grid)
         put_surface_map(root, s->net, w);
-    tp_json_number(root, "duration_s", m->duration);
+    tp_json_metric(root, m, TP_MET_DURATION);
     stats = cJSON_AddObjectToObject(root, "solver");
     if (stats) {
         tp_json_number(stats, "steps", (double)w->stats.steps);

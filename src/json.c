@@ -54,3 +54,9 @@ void tp_json_add_cautions(cJSON *array, const tp_caution *list, int n)
         cJSON_AddItemToArray(array, cJSON_CreateString(line));
     }
 }
+
+void tp_json_metric(cJSON *obj, const tp_metrics *m, int metric)
+{
+    const tp_metricdef *md = tp_metricdef_get(metric);
+    tp_json_number(obj, md->key, tp_metricdef_file_value(md, tp_metricdef_value(md, m)));
+}

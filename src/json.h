@@ -6,6 +6,7 @@
 
 #include "caution.h"
 #include "diag.h"
+#include "metricdef.h"
 #include "network.h"
 #include "status.h"
 
@@ -23,5 +24,9 @@ void tp_json_conditions(cJSON *root, const tp_network *net);
 /* Fill `array` with the words of each caution (tp_report_caution_text), in list order: the
  * "cautions" array every verb's JSON carries. */
 void tp_json_add_cautions(cJSON *array, const tp_caution *list, int n);
+
+/* Add a run's metric under its key with its value in files (metricdef.h: SI, degC for
+ * absolute temperatures; null when not finite). */
+void tp_json_metric(cJSON *obj, const tp_metrics *m, int metric);
 
 #endif

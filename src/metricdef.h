@@ -1,13 +1,17 @@
 /* The table of warm-up metrics: for each one its key in files, its label and unit in text, how an
- * SI value is scaled for people, and which direction is the worse one. One table, so that every
- * output that reports a metric (the sweep's columns and statistics today) names and judges it
- * the same way. Definitions of the metrics themselves: docs/metrics.md. */
+ * SI value is scaled for people, which direction is the worse one, and where it is in a run's
+ * tp_metrics. One table, so that every output that reports a metric (the warm-up and tune JSON,
+ * the sweep's columns and statistics) names and judges it the same way. Definitions of the
+ * metrics themselves: docs/metrics.md. */
 #ifndef TP_METRICDEF_H
 #define TP_METRICDEF_H
 
 #include <stddef.h>
 
-/* The metrics, in output order. */
+#include "results.h"
+
+/* The metrics: first those a sweep studies, in the order of its columns (TP_MET_SWEPT of
+ * them), then those only the warm-up reports. */
 typedef enum tp_metric_id {
     TP_MET_TIME_SETPOINT,     /* s, the reading first reaches the setpoint */
     TP_MET_TIME_READY,        /* s, the working surface is ready (docs/metrics.md) */
@@ -24,6 +28,15 @@ typedef enum tp_metric_id {
     TP_MET_HOLD_DUTY,         /* -, duty at the holding point */
     TP_MET_MARGIN,            /* -, available / holding power at the holding point */
     TP_MET_HIGHEST,           /* K, the reading at the full-power equilibrium */
+    TP_MET_SWEPT,             /* the metrics a sweep studies are those before this */
+    TP_MET_SETPOINT = TP_MET_SWEPT, /* K, the setpoint held (NaN: none) */
+    TP_MET_SURFACE_HOLD,      /* K, the working surface at the holding point */
+    TP_MET_LAG_K,             /* K, the surface short of its holding value at the setpoint */
+    TP_MET_DUTY_MEAN,         /* -, over the run */
+    TP_MET_DUTY_PEAK,         /* - */
+    TP_MET_WIRE_MEAN,         /* W lost in the wiring over the run */
+    TP_MET_AIR_FINAL,         /* K, the enclosure air at the end */
+    TP_MET_DURATION,          /* s simulated */
     TP_MET_COUNT
 } tp_metric_id;
 
@@ -38,7 +51,7 @@ typedef enum tp_worse {
 /* How a value is written in text. */
 typedef enum tp_metric_form {
     TP_FORM_NUMBER,  /* (SI - offset) * scale with `decimals`, in text_unit */
-    TP_FORM_DURATION /* seconds as "7 min 20 s" (tp_fmt_duration), as warmup writes times */
+    TP_FORM_DURATION /* seconds as "7 min 20 s" (report.h), as warmup writes times */
 } tp_metric_form;
 
 /* One row of the table. */
@@ -54,15 +67,16 @@ typedef struct tp_metricdef {
     int decimals;          /* digits after the point in text tables */
     tp_worse worse;        /* which way is worse */
     const char *why;       /* why that way is the worse one, for the documentation */
+    size_t field;          /* offset of its value (SI, double) in tp_metrics */
 } tp_metricdef;
 
 /* The row of `metric`; NULL when out of range. */
 const tp_metricdef *tp_metricdef_get(int metric);
 
-/* A metric by its key ("time_surface_ready_s"), or -1. */
+/* A metric a sweep studies by its key ("time_surface_ready_s"), or -1. */
 int tp_metricdef_find(const char *key);
 
-/* The keys of every metric, ", "-separated, into buf (for messages). */
+/* The keys of every metric a sweep studies, ", "-separated, into buf (for messages). */
 void tp_metricdef_keys(char *buf, size_t size);
 
 /* A word for a direction: "highest", "lowest" or "farthest from 0". */
@@ -71,18 +85,13 @@ const char *tp_worse_name(tp_worse worse);
 /* Nonzero when value a is worse than value b under `worse` (ties are not worse). */
 int tp_worse_than(double a, double b, tp_worse worse);
 
+/* The metric's value (SI) in a run's metrics. */
+double tp_metricdef_value(const tp_metricdef *md, const tp_metrics *m);
+
 /* The value in files (JSON, CSV): SI, absolute temperatures in degC; NaN stays NaN. */
 double tp_metricdef_file_value(const tp_metricdef *m, double si);
 
 /* The value as text and figures show it ((SI - offset) * scale); NaN stays NaN. */
 double tp_metricdef_text_value(const tp_metricdef *m, double si);
-
-/* The value as text into buf: a duration as "7 min 20 s", a number with the row's decimals
- * (without its unit); "-" when not finite. */
-void tp_metricdef_format(const tp_metricdef *m, double si, char *buf, size_t size);
-
-/* A spread (a standard deviation) as text: like tp_metricdef_format but without the offset, so
- * a temperature spread is an interval. */
-void tp_metricdef_format_spread(const tp_metricdef *m, double si, char *buf, size_t size);
 
 #endif

@@ -141,3 +141,24 @@ void tp_report_cautions(FILE *fp, const char *heading, const tp_caution *list, i
         fprintf(fp, "  ! %s\n", line);
     }
 }
+
+/* The value less `offset`, scaled, as text (durations in their own units). */
+static void metric_less(const tp_metricdef *m, double si, double offset, char *buf, size_t size)
+{
+    if (!isfinite(si))
+        snprintf(buf, size, "-");
+    else if (m->form == TP_FORM_DURATION)
+        tp_fmt_duration(si, buf, size);
+    else
+        snprintf(buf, size, "%.*f", m->decimals, (si - offset) * m->scale);
+}
+
+void tp_report_metric(const tp_metricdef *m, double si, char *buf, size_t size)
+{
+    metric_less(m, si, m->offset, buf, size);
+}
+
+void tp_report_metric_spread(const tp_metricdef *m, double si, char *buf, size_t size)
+{
+    metric_less(m, si, 0.0, buf, size); /* a spread is an interval: no offset */
+}

@@ -8,6 +8,7 @@
 
 #include "caution.h"
 #include "desc.h"
+#include "metricdef.h"
 #include "network.h"
 #include "units.h"
 
@@ -35,5 +36,13 @@ void tp_report_caution_text(const tp_caution *c, char *buf, size_t size);
 
 /* The cautions under "\n<heading>:", one "  ! " line each. */
 void tp_report_cautions(FILE *fp, const char *heading, const tp_caution *list, int n);
+
+/* A metric's value as text into buf (metricdef.h): a duration as "7 min 20 s", a number with
+ * the row's decimals in its text unit (without the unit); "-" when not finite. */
+void tp_report_metric(const tp_metricdef *m, double si, char *buf, size_t size);
+
+/* A spread (a standard deviation) as text: like tp_report_metric but without the offset, so a
+ * temperature spread is an interval. */
+void tp_report_metric_spread(const tp_metricdef *m, double si, char *buf, size_t size);
 
 #endif

@@ -132,28 +132,12 @@ static int limit_cycle(const tp_history *h, tp_metrics *m)
     return 1;
 }
 
-void tp_metrics_compute(const tp_history *h, const tp_network *net, const tp_steady *hold,
-                        const tp_steady *full, tp_metrics *m)
+/* Power, duty, wiring loss and current over the run. */
+static void power_figures(const tp_history *h, const tp_network *net, tp_metrics *m)
 {
     long n = h->n, i;
-    int k, ns = net->n_sources, has_sp;
+    int k, ns = net->n_sources;
     double sum = 0.0;
-    const double u = TP_UNSET;
-    *m = (tp_metrics){.setpoint = u, .t_setpoint = u, .surface_hold = u, .t_surface_ready = u,
-                      .overshoot_reading = u, .overshoot_surface = u, .steady_offset = u,
-                      .lag = u, .lag_k = u, .ready_low = u, .ready_high = u,
-                      .cycle_period = u, .cycle_min = u, .cycle_max = u, .cycle_mean = u,
-                      .ready_basis = TP_READY_NONE, .energy_to_ready = u, .power_mean = u, .power_peak = u,
-                      .duty_mean = u, .duty_peak = u, .wire_mean = u, .current_peak = u,
-                      .hold_power = u, .hold_duty = u, .air_final = u, .highest_reachable = u,
-                      .not_reached = NULL, .surface_max = u, .node_max = u, .duration = u};
-    if (n == 0)
-        return;
-    m->duration = h->t[n - 1];
-    has_sp = tp_network_holds(net);
-    m->setpoint = has_sp ? net->control.setpoint : TP_UNSET;
-
-    /* Power, duty, wiring and current over the run. */
     m->power_mean = (h->energy[(n - 1) * TP_N_QUAD + TP_Q_SOURCE]) / fmax(m->duration, 1e-300);
     m->wire_mean = (h->energy[(n - 1) * TP_N_QUAD + TP_Q_WIRE]) / fmax(m->duration, 1e-300);
     m->power_peak = 0.0;
@@ -175,6 +159,16 @@ void tp_metrics_compute(const tp_history *h, const tp_network *net, const tp_ste
             m->current_peak = h->current[i];
     if (m->duty_peak <= 0.0 && h->energy[(n - 1) * TP_N_QUAD + TP_Q_SOURCE] > 0.0)
         m->current_peak = tp_series_max(h->current, n, 1);
+}
+
+/* The hottest surface and node, the enclosure air at the end, and the figures of the steady
+ * states: the highest reachable reading, the holding power and duty, the surface at holding,
+ * the margin. */
+static void peak_and_steady_figures(const tp_history *h, const tp_network *net,
+                                    const tp_steady *hold, const tp_steady *full, tp_metrics *m)
+{
+    long n = h->n;
+    int k;
     m->surface_max = tp_series_max(h->surface, n, 1);
     for (k = 0; k < h->n_out; k++) {
         double v = tp_series_max(h->temps + k, n, h->n_out);
@@ -193,10 +187,17 @@ void tp_metrics_compute(const tp_history *h, const tp_network *net, const tp_ste
         if (isfinite(m->surface_hold))
             m->steady_offset = hold->reading - m->surface_hold;
     }
-    if (!has_sp)
-        return;
+    /* What the heater could deliver at the holding temperatures (its power at max_duty there)
+     * over what holding takes: the power at duty u is u times the on-power at those
+     * temperatures, so the ratio is max_duty / holding duty. */
+    if (net->has_control && isfinite(m->hold_duty) && m->hold_duty > 0)
+        m->margin = net->sources[net->control.source].max_duty / m->hold_duty;
+}
 
-    /* The reading against the setpoint. */
+/* The reading against the setpoint, and the working surface against its holding value. */
+static void setpoint_figures(const tp_history *h, const tp_network *net, tp_metrics *m)
+{
+    long n = h->n;
     m->t_setpoint = tp_first_rise(h->t, h->reading, n, 1, m->setpoint);
     m->overshoot_reading = fmax(0.0, tp_series_max(h->reading, n, 1) - m->setpoint);
     if (!isfinite(m->t_setpoint)) {
@@ -207,31 +208,54 @@ void tp_metrics_compute(const tp_history *h, const tp_network *net, const tp_ste
             m->not_reached = "the simulated time is too short for this plate (increase "
                              "run.duration)";
     }
-    /* The working surface against its holding value. Under on-off control the surface never
-     * settles on a value: it rides the limit cycle, whose mean need not be the holding
-     * point's; it is ready once it stays within the cycle's range widened by the band. */
-    if (isfinite(m->surface_hold)) {
-        if (net->control.mode != TP_MODE_ONOFF) {
-            m->ready_basis = TP_READY_HOLD;
-            m->ready_low = m->surface_hold - TP_READY_BAND;
-            m->ready_high = m->surface_hold + TP_READY_BAND;
-        } else if (limit_cycle(h, m)) {
-            m->ready_basis = TP_READY_CYCLE;
-            m->ready_low = m->cycle_min - TP_READY_BAND;
-            m->ready_high = m->cycle_max + TP_READY_BAND;
-        } else {
-            m->ready_basis = TP_READY_NO_CYCLE;
-        }
-        if (isfinite(m->ready_low))
-            m->t_surface_ready = tp_settle_range(h->t, h->surface, n, 1, m->ready_low,
-                                                 m->ready_high);
-        m->overshoot_surface = fmax(0.0, m->surface_max - m->surface_hold);
-        m->energy_to_ready = energy_at(h, m->t_surface_ready);
-        /* The lag as a maker sees it: how far the surface is short of its holding value when
-         * the reading first reaches the setpoint, and how long after that it comes within the
-         * band of it. */
-        m->lag_k = m->surface_hold - tp_series_at(h->t, h->surface, n, 1, m->t_setpoint);
-        m->lag = tp_first_rise(h->t, h->surface, n, 1, m->surface_hold - TP_READY_BAND) -
-                 m->t_setpoint;
+    if (!isfinite(m->surface_hold))
+        return;
+    /* Under on-off control the surface never settles on a value: it rides the limit cycle,
+     * whose mean need not be the holding point's; it is ready once it stays within the cycle's
+     * range widened by the band. */
+    if (net->control.mode != TP_MODE_ONOFF) {
+        m->ready_basis = TP_READY_HOLD;
+        m->ready_low = m->surface_hold - TP_READY_BAND;
+        m->ready_high = m->surface_hold + TP_READY_BAND;
+    } else if (limit_cycle(h, m)) {
+        m->ready_basis = TP_READY_CYCLE;
+        m->ready_low = m->cycle_min - TP_READY_BAND;
+        m->ready_high = m->cycle_max + TP_READY_BAND;
+    } else {
+        m->ready_basis = TP_READY_NO_CYCLE;
     }
+    if (isfinite(m->ready_low))
+        m->t_surface_ready = tp_settle_range(h->t, h->surface, n, 1, m->ready_low,
+                                             m->ready_high);
+    m->overshoot_surface = fmax(0.0, m->surface_max - m->surface_hold);
+    m->energy_to_ready = energy_at(h, m->t_surface_ready);
+    /* The lag as a maker sees it: how far the surface is short of its holding value when the
+     * reading first reaches the setpoint, and how long after that it comes within the band of
+     * it. */
+    m->lag_k = m->surface_hold - tp_series_at(h->t, h->surface, n, 1, m->t_setpoint);
+    m->lag = tp_first_rise(h->t, h->surface, n, 1, m->surface_hold - TP_READY_BAND) -
+             m->t_setpoint;
+}
+
+void tp_metrics_compute(const tp_history *h, const tp_network *net, const tp_steady *hold,
+                        const tp_steady *full, tp_metrics *m)
+{
+    const double u = TP_UNSET;
+    *m = (tp_metrics){.setpoint = u, .t_setpoint = u, .surface_hold = u, .t_surface_ready = u,
+                      .overshoot_reading = u, .overshoot_surface = u, .steady_offset = u,
+                      .lag = u, .lag_k = u, .ready_low = u, .ready_high = u,
+                      .cycle_period = u, .cycle_min = u, .cycle_max = u, .cycle_mean = u,
+                      .ready_basis = TP_READY_NONE, .energy_to_ready = u, .power_mean = u,
+                      .power_peak = u, .duty_mean = u, .duty_peak = u, .wire_mean = u,
+                      .current_peak = u, .hold_power = u, .hold_duty = u, .margin = u,
+                      .air_final = u, .highest_reachable = u, .not_reached = NULL,
+                      .surface_max = u, .node_max = u, .duration = u};
+    if (h->n == 0)
+        return;
+    m->duration = h->t[h->n - 1];
+    m->setpoint = tp_network_holds(net) ? net->control.setpoint : TP_UNSET;
+    power_figures(h, net, m);
+    peak_and_steady_figures(h, net, hold, full, m);
+    if (tp_network_holds(net))
+        setpoint_figures(h, net, m);
 }

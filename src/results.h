@@ -49,6 +49,8 @@ typedef struct tp_metrics {
                                  source is electrical */
     double hold_power;        /* W at the holding point */
     double hold_duty;
+    double margin;            /* -, what the heater could deliver at the holding point over what
+                                 holding takes: max_duty / hold_duty (NaN without one) */
     double air_final;         /* K, enclosure air at the end (NaN without an enclosure) */
     double highest_reachable; /* K, the reading at full power in steady state */
     const char *not_reached;  /* why the setpoint was not reached, or NULL */

@@ -680,32 +680,17 @@ static void first_error(const tp_diag *d, char *buf, size_t size)
     snprintf(buf, size, "failed without a message");
 }
 
-static void take_metrics(const tp_network *net, const tp_warmup *w, tp_sweep_result *res)
+static void take_metrics(const tp_warmup *w, tp_sweep_result *res)
 {
     const tp_metrics *m = &w->metrics;
     double *v = res->metric;
-    v[TP_MET_TIME_SETPOINT] = m->t_setpoint;
-    v[TP_MET_TIME_READY] = m->t_surface_ready;
+    int k;
+    for (k = 0; k < TP_MET_SWEPT; k++)
+        v[k] = tp_metricdef_value(tp_metricdef_get(k), m);
     /* An overshoot exists only once the setpoint was reached: a point that never got there
      * has none (shown "-"), not an overshoot of 0. */
-    v[TP_MET_OVERSHOOT_READING] = isfinite(m->t_setpoint) ? m->overshoot_reading : TP_UNSET;
-    v[TP_MET_OVERSHOOT_SURFACE] = isfinite(m->t_setpoint) ? m->overshoot_surface : TP_UNSET;
-    v[TP_MET_STEADY_OFFSET] = m->steady_offset;
-    v[TP_MET_LAG] = m->lag;
-    v[TP_MET_ENERGY_READY] = m->energy_to_ready;
-    v[TP_MET_POWER_MEAN] = m->power_mean;
-    v[TP_MET_POWER_PEAK] = m->power_peak;
-    v[TP_MET_CURRENT_PEAK] = m->current_peak;
-    v[TP_MET_SURFACE_MAX] = m->surface_max;
-    v[TP_MET_HOLD_POWER] = m->hold_power;
-    v[TP_MET_HOLD_DUTY] = m->hold_duty;
-    v[TP_MET_HIGHEST] = m->highest_reachable;
-    /* Margin: what the heater could deliver at the holding temperatures (its power at
-     * max_duty there) over what holding takes. The power at duty u is u times the on-power
-     * at those temperatures, so the ratio is max_duty / holding duty. */
-    v[TP_MET_MARGIN] = TP_UNSET;
-    if (net->has_control && isfinite(m->hold_duty) && m->hold_duty > 0)
-        v[TP_MET_MARGIN] = net->sources[net->control.source].max_duty / m->hold_duty;
+    if (!isfinite(m->t_setpoint))
+        v[TP_MET_OVERSHOOT_READING] = v[TP_MET_OVERSHOOT_SURFACE] = TP_UNSET;
 }
 
 static void run_point(worker *wk, tp_desc *desc, long i)
@@ -718,7 +703,7 @@ static void run_point(worker *wk, tp_desc *desc, long i)
     int k;
     memset(res, 0, sizeof *res);
     memset(&w, 0, sizeof w);
-    for (k = 0; k < TP_MET_COUNT; k++)
+    for (k = 0; k < TP_MET_SWEPT; k++)
         res->metric[k] = TP_UNSET;
     for (k = 0; k < plan->n_params; k++) {
         double v = tp_sweep_value(plan, i, k);
@@ -739,7 +724,7 @@ static void run_point(worker *wk, tp_desc *desc, long i)
         first_error(&wk->diag, msg, sizeof msg);
         snprintf(res->reason, sizeof res->reason, "%s", msg);
     } else {
-        take_metrics(net, &w, res);
+        take_metrics(&w, res);
         res->ok = 1;
         point_cautions(wk, desc, net, &w, i);
     }
@@ -763,7 +748,7 @@ static void *work(void *arg)
         } else {
             int k;
             memset(&p->results[i], 0, sizeof p->results[i]);
-            for (k = 0; k < TP_MET_COUNT; k++)
+            for (k = 0; k < TP_MET_SWEPT; k++)
                 p->results[i].metric[k] = TP_UNSET;
             snprintf(p->results[i].reason, sizeof p->results[i].reason, "out of memory");
         }

@@ -126,7 +126,7 @@ double tp_sweep_spearman(const double *x, const double *y, size_t n);
 /* What one point gave. */
 typedef struct tp_sweep_result {
     int ok;                     /* 1: the metrics hold; 0: failed (reason says why) */
-    double metric[TP_MET_COUNT]; /* SI; NaN where a metric does not exist for this point */
+    double metric[TP_MET_SWEPT]; /* SI; NaN where a metric does not exist for this point */
     char reason[TP_SWEEP_REASON_MAX];
 } tp_sweep_result;
 

@@ -604,7 +604,7 @@ static void test_worst_follows_each_metric_direction(void **state)
     memset(res, 0, sizeof res);
     for (i = 0; i < 4; i++) {
         res[i].ok = 1;
-        for (m = 0; m < TP_MET_COUNT; m++)
+        for (m = 0; m < TP_MET_SWEPT; m++)
             res[i].metric[m] = (double)NAN;
         for (c = 0; c < sizeof cols / sizeof cols[0]; c++)
             res[i].metric[cols[c].metric] = cols[c].v[i];
@@ -633,7 +633,7 @@ static void test_metric_directions_documented(void **state)
     snprintf(path, sizeof path, "%s/docs/sweep.md", TP_SOURCE_DIR);
     doc = tp_read_file(path);
     assert_non_null(doc);
-    for (m = 0; m < TP_MET_COUNT; m++) {
+    for (m = 0; m < TP_MET_SWEPT; m++) {
         const tp_metricdef *md = tp_metricdef_get(m);
         const char *at, *end;
         assert_non_null(md->why);
