@@ -11,8 +11,7 @@
 #include "json.h"
 #include "report.h"
 #include "session.h"
-#include "steady.h"
-#include "surfmap.h"
+#include "steadyreport.h"
 
 static const tp_opt steady_opts[] = {
     {"json", 0, 1, 0, TP_OUT_FILE, "FILE", "write the results as JSON (- for standard output)"},
@@ -22,57 +21,9 @@ static const tp_opt steady_opts[] = {
     TP_OPT_END,
 };
 
-typedef struct answer {
-    int holding;          /* a controller with a setpoint */
-    tp_steady full;       /* duty 1: the hardware's full power */
-    tp_steady limit;      /* duty max_duty: the firmware's limit (same as full when 1) */
-    tp_steady hold;       /* the holding point (holding only) */
-    tp_flows flows;       /* at the holding point, or at full power without a controller */
-    double max_duty;
-} answer;
-
 static double surface_or_nan(const tp_network *net, const double *t)
 {
     return tp_network_surface(net, t);
-}
-
-static tp_status solve(tp_network *net, answer *a, tp_diag *d)
-{
-    tp_status st;
-    const tp_steady *shown;
-    int src = net->has_control ? net->control.source : -1;
-    a->max_duty = src >= 0 ? net->sources[src].max_duty : 1.0;
-    a->holding = tp_network_holds(net);
-    st = tp_steady_full(net, 1.0 / a->max_duty, &a->full, d);
-    if (st == TP_OK)
-        st = tp_steady_full(net, 1.0, &a->limit, d);
-    if (st == TP_OK && a->holding)
-        st = tp_steady_hold(net, &a->hold, d);
-    if (st != TP_OK)
-        return st;
-    shown = a->holding ? &a->hold : &a->limit;
-    st = tp_flows_init(&a->flows, net);
-    if (st != TP_OK)
-        return st;
-    if (src >= 0) {
-        double saved = net->duty[src];
-        net->duty[src] = shown->duty;
-        tp_network_flows(net, shown->temps, &a->flows);
-        net->duty[src] = saved;
-    } else {
-        tp_network_flows(net, shown->temps, &a->flows);
-    }
-    return TP_OK;
-}
-
-static double plate_loss_total(const tp_flows *f)
-{
-    int p;
-    double sum = 0.0;
-    for (p = TP_PATH_INTERNAL + 1; p < TP_PATH_COUNT; p++)
-        if (p != TP_PATH_WALLS)
-            sum += f->path[p];
-    return sum;
 }
 
 static void print_nodes(FILE *fp, const tp_network *net, const double *t)
@@ -97,25 +48,18 @@ static void print_nodes(FILE *fp, const tp_network *net, const double *t)
             fprintf(fp, "    %-16s %8.2f degC\n", net->nodes[i].id, t[i] - TP_KELVIN_0C);
 }
 
-/* The working-surface map of a gridded plate at a steady state. */
-static void print_map(FILE *fp, const tp_network *net, const double *t)
+/* The working-surface map of a gridded plate at the state shown. */
+static void print_map(FILE *fp, const tp_network *net, const tp_map_stats *st)
 {
     const tp_net_grid *g = net->grid;
-    double *map = malloc((size_t)g->nx * (size_t)g->ny * sizeof *map);
-    tp_map_stats st;
-    if (!map)
+    if (st->cells == 0)
         return;
-    tp_network_surface_map(net, t, map);
-    tp_map_stats_compute(g, map, &st);
-    if (st.cells > 0) {
-        fprintf(fp, "  working surface (%d x %d cells): mean %.2f, coldest %.2f at %.1f, %.1f mm, "
-                    "hottest %.2f at %.1f, %.1f mm degC\n", g->nx, g->ny,
-                st.mean - TP_KELVIN_0C, st.min - TP_KELVIN_0C, st.min_x * 1e3, st.min_y * 1e3,
-                st.max - TP_KELVIN_0C, st.max_x * 1e3, st.max_y * 1e3);
-        fprintf(fp, "    spread %.2f K, standard deviation %.2f K, centre - corners %+.2f K\n",
-                st.spread, st.std, st.centre_corner);
-    }
-    free(map);
+    fprintf(fp, "  working surface (%d x %d cells): mean %.2f, coldest %.2f at %.1f, %.1f mm, "
+                "hottest %.2f at %.1f, %.1f mm degC\n", g->nx, g->ny,
+            st->mean - TP_KELVIN_0C, st->min - TP_KELVIN_0C, st->min_x * 1e3, st->min_y * 1e3,
+            st->max - TP_KELVIN_0C, st->max_x * 1e3, st->max_y * 1e3);
+    fprintf(fp, "    spread %.2f K, standard deviation %.2f K, centre - corners %+.2f K\n",
+            st->spread, st->std, st->centre_corner);
 }
 
 static void print_reach(FILE *fp, const tp_network *net, const char *what, const tp_steady *s)
@@ -129,24 +73,21 @@ static void print_reach(FILE *fp, const tp_network *net, const char *what, const
     fputc('\n', fp);
 }
 
-static void summary(FILE *fp, const tp_session *s, const answer *a)
+static void summary(FILE *fp, const tp_session *s, const tp_steadyreport *a)
 {
     const tp_network *net = s->net;
-    const tp_steady *shown = a->holding ? &a->hold : &a->limit;
-    double total = plate_loss_total(&a->flows), surf = surface_or_nan(net, shown->temps);
-    tp_caution_exposure ex = TP_CAUTION_UNSEEN;
+    const tp_steady *shown = a->shown;
+    double total = a->plate_loss, surf = surface_or_nan(net, shown->temps);
     tp_caution cautions[TP_CAUTIONS_MAX];
-    double *layer_peak = NULL;
-    int p, i;
+    int p;
     fprintf(fp, "tepid steady %s%s%s\n  ", s->cli->file, s->desc.title[0] ? ": " : "",
             s->desc.title);
     tp_report_network(fp, net);
     if (a->holding) {
         fprintf(fp, "\n  holding %.1f degC (reading): %.2f W at duty %.3f\n",
                 net->control.setpoint - TP_KELVIN_0C, a->hold.power, a->hold.duty);
-        fprintf(fp, "  power margin (available at max duty / holding): %.2f%s\n",
-                a->max_duty / a->hold.duty,
-                a->max_duty / a->hold.duty < TP_MARGIN_LOW ? " (low: see the warning)" : "");
+        fprintf(fp, "  power margin (available at max duty / holding): %.2f%s\n", a->margin,
+                a->margin < TP_MARGIN_LOW ? " (low: see the warning)" : "");
         if (isfinite(surf))
             fprintf(fp, "  working surface %.2f degC: the reading is %+.2f K from the surface\n",
                     surf - TP_KELVIN_0C, a->hold.reading - surf);
@@ -167,37 +108,13 @@ static void summary(FILE *fp, const tp_session *s, const answer *a)
     fputs("\n  steady temperatures:\n", fp);
     print_nodes(fp, net, shown->temps);
     if (net->grid)
-        print_map(fp, net, shown->temps);
+        print_map(fp, net, &a->map);
     fputs("\n  highest reachable:\n", fp);
     if (a->max_duty < 1.0)
         print_reach(fp, net, "at the duty limit", &a->limit);
     print_reach(fp, net, "at full power", &a->full);
-    for (i = 0; i < net->n_nodes; i++)
-        if (net->nodes[i].capacity > 0 && (!isfinite(ex.node_max) || shown->temps[i] > ex.node_max))
-            ex.node_max = shown->temps[i];
-    ex.surface_max = surf;
-    ex.node_peak = shown->temps;
-    if (net->grid) {
-        /* The hottest cell of the surface and of each layer. */
-        const tp_net_grid *g = net->grid;
-        double *map = malloc((size_t)g->nx * (size_t)g->ny * sizeof *map);
-        tp_map_stats st;
-        layer_peak = malloc((size_t)g->n_layers * sizeof *layer_peak);
-        if (map) {
-            tp_network_surface_map(net, shown->temps, map);
-            tp_map_stats_compute(g, map, &st);
-            ex.surface_max = st.max;
-        }
-        for (i = 0; layer_peak && i < g->n_layers; i++) {
-            double mean, lo;
-            tp_grid_layer_stats(net, i, shown->temps, &mean, &lo, &layer_peak[i]);
-        }
-        ex.layer_peak = layer_peak;
-        free(map);
-    }
-    ex.current_max = tp_network_current(net, shown->temps);
-    tp_report_cautions(fp, "cautions", cautions, tp_caution_list(&s->desc, net, &ex, cautions));
-    free(layer_peak);
+    tp_report_cautions(fp, "cautions", cautions,
+                       tp_steadyreport_cautions(&s->desc, net, a, cautions));
 }
 
 /* The highest reachable temperatures at one duty: {reading, surface, nodes{}} in degC; the
@@ -225,9 +142,10 @@ static void put_reach(cJSON *root, const char *name, const tp_network *net, cons
             tp_json_number(nodes, net->nodes[i].id, s->temps[i] - TP_KELVIN_0C);
 }
 
-static tp_status write_json(const char *path, const tp_network *net, const answer *a, tp_diag *d)
+static tp_status write_json(const char *path, const tp_network *net, const tp_steadyreport *a,
+                            tp_diag *d)
 {
-    const tp_steady *shown = a->holding ? &a->hold : &a->limit;
+    const tp_steady *shown = a->shown;
     cJSON *root = cJSON_CreateObject(), *nodes, *losses, *walls = NULL;
     tp_status st;
     int i, p;
@@ -257,8 +175,8 @@ static tp_status write_json(const char *path, const tp_network *net, const answe
         put_reach(root, "max_full_duty_C", net, &a->full);
     if (a->holding) {
         double surf = surface_or_nan(net, a->hold.temps);
-        tp_json_number(root, "margin", a->max_duty / a->hold.duty);
-        cJSON_AddBoolToObject(root, "margin_low", a->max_duty / a->hold.duty < TP_MARGIN_LOW);
+        tp_json_number(root, "margin", a->margin);
+        cJSON_AddBoolToObject(root, "margin_low", a->margin < TP_MARGIN_LOW);
         tp_json_number(root, "margin_advised", TP_MARGIN_LOW);
         if (isfinite(surf)) {
             tp_json_number(root, "surface_C", surf - TP_KELVIN_0C);
@@ -282,30 +200,25 @@ static tp_loc setpoint_at(const tp_session *s)
 static tp_status run_steady(const tp_cli *cli, tp_diag *d)
 {
     tp_session s;
-    answer a;
+    tp_steadyreport a;
     tp_status rc;
-    memset(&a, 0, sizeof a);
     rc = tp_session_open_room(&s, cli, tp_cli_get(cli, "room"), d);
     if (rc != TP_OK)
         return rc;
-    rc = solve(s.net, &a, d);
-    if (rc == TP_OK && a.holding && a.max_duty / a.hold.duty < TP_MARGIN_LOW)
+    rc = tp_steadyreport_run(s.net, &a, d);
+    if (rc == TP_OK && a.holding && a.margin < TP_MARGIN_LOW)
         tp_diag_warn(d, setpoint_at(&s), "control.setpoint",
                      "a stronger heater, better insulation, or a lower setpoint",
                      "the power margin is %.2f (%.1f W to hold %.1f degC, %.1f W available at "
                      "the duty limit), below %.1f: little in reserve to recover from a "
                      "disturbance, and a slow warm-up (docs/sizing.md)",
-                     a.max_duty / a.hold.duty, a.hold.power,
-                     s.net->control.setpoint - TP_KELVIN_0C,
-                     a.hold.power * a.max_duty / a.hold.duty, TP_MARGIN_LOW);
+                     a.margin, a.hold.power, s.net->control.setpoint - TP_KELVIN_0C,
+                     a.hold.power * a.margin, TP_MARGIN_LOW);
     if (rc == TP_OK && tp_cli_get(cli, "json"))
         rc = write_json(tp_cli_get(cli, "json"), s.net, &a, d);
     if (rc == TP_OK && s.text)
         summary(s.text, &s, &a);
-    tp_flows_clear(&a.flows);
-    tp_steady_clear(&a.full);
-    tp_steady_clear(&a.limit);
-    tp_steady_clear(&a.hold);
+    tp_steadyreport_clear(&a);
     tp_session_close(&s);
     return rc;
 }
