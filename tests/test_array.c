@@ -1,4 +1,4 @@
-/* Tests of the growable array (src/array.h): contents kept across resizes, geometric growth
+/* Tests of the growable array (src/base/array.h): contents kept across resizes, geometric growth
  * from the first capacity, and failures that leave the array as it was. */
 #include "tp_test.h"
 

@@ -1,4 +1,4 @@
-/* Tests of the caution records (src/caution.h) and their words (src/report.h): which cautions a
+/* Tests of the caution records (src/study/caution.h) and their words (src/output/report.h): which cautions a
  * case gets from its supply and what a run saw, the order of a list, the aggregation rules a
  * sweep uses, and the sentences that quote the figures. */
 #include "tp_test.h"

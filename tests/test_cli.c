@@ -1,4 +1,4 @@
-/* Tests of the command line (src/cli.c, src/main.c, src/commands.c) through the binary: every
+/* Tests of the command line (src/cli/cli.c, src/cli/main.c, src/cli/commands.c) through the binary: every
  * output option of every verb is checked before anything is computed, two outputs never share
  * standard output, a verb refuses options it does not use, --set ignores blanks around its key
  * and value, 'tepid help VERB' is the verb's help, unknown verbs and options get a

@@ -1,4 +1,4 @@
-/* Tests of the description's own questions (src/desc.h): the names of control modes and
+/* Tests of the description's own questions (src/input/desc.h): the names of control modes and
  * whether a controller holds a setpoint, asked of the description and of the network built
  * from it (one answer for both). */
 #include "tp_test.h"

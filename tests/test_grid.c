@@ -1,4 +1,4 @@
-/* Tests of gridded plates (bed.grid, src/grid.c, src/surfmap.c, src/multigrid.c): conduction in
+/* Tests of gridded plates (bed.grid, src/model/grid.c, src/study/surfmap.c, src/solve/multigrid.c): conduction in
  * a strip and a rectangle against their series solutions, the geometry of the cells by hand,
  * the lumped limit (a 1 x 1 grid), grid convergence and energy balance on the demo, the map
  * statistics, and the command line (maps, CSV, messages). */

@@ -1,4 +1,4 @@
-/* Tests of the metric table (src/metricdef.h): each row reads the field of a run's metrics it
+/* Tests of the metric table (src/study/metricdef.h): each row reads the field of a run's metrics it
  * names, its key carries its file unit, and the warm-up and tune JSON write every row they
  * report under the table's key and in the table's file unit. */
 #include "tp_test.h"

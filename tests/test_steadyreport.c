@@ -1,4 +1,4 @@
-/* Tests of the steady report (src/steadyreport.h) on a one-node plate whose answers have a
+/* Tests of the steady report (src/study/steadyreport.h) on a one-node plate whose answers have a
  * closed form: T = T_room + P / G at full power, the holding duty G (T_set - T_room) / P, the
  * margin its reciprocal, and every watt leaving the plate by some path. */
 #include "tp_test.h"

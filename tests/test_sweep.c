@@ -407,7 +407,7 @@ static void test_config_check_uses_schema_bounds(void **state)
     char msg[256];
     (void)state;
     load(single_node, &desc);
-    /* The schema's bounds (src/config.c): emissivity in (0, 1], power >= 0, capacity > 0. */
+    /* The schema's bounds (src/input/config.c): emissivity in (0, 1], power >= 0, capacity > 0. */
     assert_int_equal(
         tp_config_check(&desc, "network.links.1.radiation.emissivity", 1.0, msg, sizeof msg),
         TP_OK);
@@ -569,7 +569,7 @@ static void test_driver_and_constant_metrics(void **state)
     tp_desc_clear(&desc);
 }
 
-/* Each metric's worst value follows its stated direction (src/metricdef.h): the highest
+/* Each metric's worst value follows its stated direction (src/study/metricdef.h): the highest
  * reachable temperature is worst when hottest (a heater stuck on), the margin when smallest,
  * the steady offset when farthest from zero either way, a time when longest. Values chosen by
  * hand; the expected worst of each column by inspection. A sample without the metric (NaN) is

@@ -1,4 +1,4 @@
-/* Tests of the YAML tree's positions (src/doc.h): where a message about a key points when the
+/* Tests of the YAML tree's positions (src/input/doc.h): where a message about a key points when the
  * file gives the key, only an enclosing section, or nothing of it. Expected positions are found
  * by searching the text here, independently of the parser. */
 #include "tp_test.h"

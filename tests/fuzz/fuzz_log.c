@@ -1,8 +1,8 @@
-/* libFuzzer target: the measured-log reader of `tepid fit` (src/logfile.c). The input is a
+/* libFuzzer target: the measured-log reader of `tepid fit` (src/input/logfile.c). The input is a
  * whole CSV log; it is parsed with the automatic column choice and with every column named
  * explicitly. Any crash or sanitizer report is a finding; so is a log accepted with rows whose
  * times do not strictly increase or whose readings are not finite. No check values: the
- * properties are the contracts stated in src/logfile.h (their source). */
+ * properties are the contracts stated in src/input/logfile.h (their source). */
 #include <math.h>
 #include <stddef.h>
 #include <stdint.h>

@@ -2,7 +2,7 @@
  * it is parsed as every dimension with tp_units_parse, as a bare number with tp_parse_double,
  * and its unit part is fed back through tp_units_from_si. Any crash, sanitizer report, a
  * non-finite result reported as success, or a temperature at or below 0 K is a finding. No check
- * values: the properties are the contracts stated in src/units.h (their source). */
+ * values: the properties are the contracts stated in src/base/units.h (their source). */
 #include <math.h>
 #include <stddef.h>
 #include <stdint.h>

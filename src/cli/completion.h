@@ -10,7 +10,7 @@
 #include "diag.h"
 #include "status.h"
 
-/* Write the completion script: `tmpl` (src/completion.bash.in) with the line
+/* Write the completion script: `tmpl` (src/cli/completion.bash.in) with the line
  * "@TEPID_VERB_TABLE@" replaced by one case branch per verb (its options, which take a value,
  * a file or a key path, which repeat) and every "@TEPID_VERBS@" by the verb names. */
 void tp_completion_script(const char *tmpl, const tp_verb *const *verbs, size_t n_verbs, FILE *fp);

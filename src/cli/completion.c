@@ -7,7 +7,7 @@
 #include "config.h"
 #include "doc.h"
 
-/* The completion class of an option (src/completion.bash.in, _tepid_spec): a flag, a
+/* The completion class of an option (src/cli/completion.bash.in, _tepid_spec): a flag, a
  * file, a key path (any key with "KEY=VALUE", else a numeric one, followed by '=' when the
  * metavar has it right after KEY), or some other value. */
 static char opt_class(const tp_opt *o)

@@ -23,7 +23,7 @@
 #define TP_SWEEP_REASON_MAX 240    /* longest failure reason kept per point, bytes incl. NUL */
 #define TP_SWEEP_UNIT_MAX 32       /* longest unit text kept per parameter, bytes incl. NUL */
 
-/* The metrics kept per point: the table of src/metricdef.h (TP_MET_*), in its order. */
+/* The metrics kept per point: the table of src/study/metricdef.h (TP_MET_*), in its order. */
 
 typedef enum tp_sweep_mode { TP_SWEEP_GRID, TP_SWEEP_SPREAD } tp_sweep_mode;
 
