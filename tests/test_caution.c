@@ -1,10 +1,10 @@
-/* Tests of the caution records (src/study/caution.h) and their words (src/output/report.h): which cautions a
- * case gets from its supply and what a run saw, the order of a list, the aggregation rules a
- * sweep uses, and the sentences that quote the figures. */
+/* Tests of the caution records (src/study/caution.h) and their words (src/output/summary.h): which
+ * cautions a case gets from its supply and what a run saw, the order of a list, the aggregation
+ * rules a sweep uses, and the sentences that quote the figures. */
 #include "tp_test.h"
 
 #include "caution.h"
-#include "report.h"
+#include "summary.h"
 
 /* A raw plate with one electric heater of 100 ohm on `supply`. */
 static void open_plate(tp_yaml_net *y, const char *supply)
@@ -60,13 +60,13 @@ static void test_caution_mains_supply(void **state)
     tp_yaml_net y;
     tp_caution_exposure ex = TP_CAUTION_UNSEEN;
     tp_caution list[TP_CAUTIONS_MAX];
-    char text[TP_CAUTION_MAX];
+    char text[TP_SUMMARY_CAUTION_MAX];
     (void)state;
     open_plate(&y, "230 V");
     ex.current_max = 12.5;
     assert_int_equal(tp_caution_list(&y.desc, y.net, &ex, list), 2);
     assert_int_equal(list[0].kind, TP_CAUTION_MAINS);
-    tp_report_caution_text(&list[0], text, sizeof text);
+    tp_summary_caution_text(&list[0], text, sizeof text);
     tp_check_contains("mains caution", text, "Mains voltage (230 V)");
     tp_check_contains("mains caution", text, "local electrical codes");
     tp_yaml_net_close(&y);
@@ -77,12 +77,12 @@ static void test_caution_mains_supply(void **state)
 static void test_caution_words(void **state)
 {
     tp_caution c;
-    char text[TP_CAUTION_MAX];
+    char text[TP_SUMMARY_CAUTION_MAX];
     (void)state;
     memset(&c, 0, sizeof c);
     c.kind = TP_CAUTION_HOT_SURFACE;
     c.value[0] = TP_KELVIN_0C + 92.4;
-    tp_report_caution_text(&c, text, sizeof text);
+    tp_summary_caution_text(&c, text, sizeof text);
     tp_check_contains("hot surface", text, "the plate reaches 92 degC");
     tp_check_contains("hot surface", text, "above about 65 degC burns within a second");
     tp_check_contains("hot surface", text, "above 43 degC with long contact");
@@ -91,13 +91,13 @@ static void test_caution_words(void **state)
     c.value[1] = TP_KELVIN_0C + 94.2;
     snprintf(c.layer_id, sizeof c.layer_id, "magnet");
     snprintf(c.material, sizeof c.material, "magnet-sheet");
-    tp_report_caution_text(&c, text, sizeof text);
+    tp_summary_caution_text(&c, text, sizeof text);
     assert_string_equal(text, "Service limit: layer 'magnet' (magnet-sheet) is rated to about "
                               "80 degC and reaches 94 degC here.");
     c.kind = TP_CAUTION_POWER_DENSITY;
     c.value[0] = 1.5e4; /* W/m2 = 1.50 W/cm2 */
     snprintf(c.material, sizeof c.material, "silicone-rubber");
-    tp_report_caution_text(&c, text, sizeof text);
+    tp_summary_caution_text(&c, text, sizeof text);
     tp_check_contains("density", text, "Heater power density 1.50 W/cm2 in a silicone-rubber");
 }
 

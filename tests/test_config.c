@@ -1,4 +1,4 @@
-/* Tests for config.c, doc.c and the raw-network checks of assemble.c, through the binary:
+/* Tests for config.c, yamltree.c and the raw-network checks of assemble.c, through the binary:
  * every input error of issue 2 (items 2 and 3) by its FILE:LINE:COL: key.path: message line,
  * exit status 2 and the absence of any output file; the two warnings; --set overrides; and
  * the command-line conventions of --help, VERB --help, --version and usage errors. */

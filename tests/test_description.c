@@ -1,6 +1,6 @@
-/* Tests of the description's own questions (src/input/desc.h): the names of control modes and
- * whether a controller holds a setpoint, asked of the description and of the network built
- * from it (one answer for both). */
+/* Tests of the description's own questions (src/input/description.h): the names of control modes
+ * and whether a controller holds a setpoint, asked of the description and of the network built from
+ * it (one answer for both). */
 #include "tp_test.h"
 
 /* A raw plate with the controller `control` (a control section, or ""): both answers. */
@@ -8,9 +8,9 @@ static void holds_case(const char *control, int expected)
 {
     tp_yaml_net y;
     tp_yaml_net_plate(&y, "power: 120 W", control);
-    if (tp_desc_holds(&y.desc) != expected || tp_network_holds(y.net) != expected)
+    if (tp_description_holds(&y.desc) != expected || tp_network_holds(y.net) != expected)
         print_error("control '%s': expected holds = %d\n", control, expected);
-    assert_int_equal(tp_desc_holds(&y.desc), expected);
+    assert_int_equal(tp_description_holds(&y.desc), expected);
     assert_int_equal(tp_network_holds(y.net), expected);
     tp_yaml_net_close(&y);
 }
@@ -20,12 +20,12 @@ static void holds_case(const char *control, int expected)
 static void test_description_modes_that_hold_a_setpoint(void **state)
 {
     (void)state;
-    assert_false(tp_mode_holds(TP_MODE_OFF));
-    assert_false(tp_mode_holds(TP_MODE_FULL));
-    assert_true(tp_mode_holds(TP_MODE_ONOFF));
-    assert_true(tp_mode_holds(TP_MODE_PID));
-    assert_string_equal(tp_mode_name(TP_MODE_ONOFF), "on-off");
-    assert_string_equal(tp_mode_name((tp_mode)7), "?");
+    assert_false(tp_description_mode_holds(TP_MODE_OFF));
+    assert_false(tp_description_mode_holds(TP_MODE_FULL));
+    assert_true(tp_description_mode_holds(TP_MODE_ONOFF));
+    assert_true(tp_description_mode_holds(TP_MODE_PID));
+    assert_string_equal(tp_description_mode_name(TP_MODE_ONOFF), "on-off");
+    assert_string_equal(tp_description_mode_name((tp_mode)7), "?");
 }
 
 /* The same answer from the description and from its network, for every mode, with and

@@ -15,16 +15,17 @@
 
 #include "assemble.h"
 #include "config.h"
-#include "doc.h"
 #include "figure.h"
 #include "history.h"
 #include "integrate.h"
+#include "metrics.h"
 #include "network.h"
-#include "results.h"
+#include "series.h"
 #include "steady.h"
 #include "tp_test.h"
 #include "tune.h"
 #include "warmup.h"
+#include "yamltree.h"
 
 #define KELVIN 273.15
 
@@ -32,15 +33,15 @@
 static tp_network *build(const char *yaml)
 {
     tp_diag d;
-    tp_doc *doc = NULL;
-    tp_desc desc;
+    tp_yamltree *doc = NULL;
+    tp_description desc;
     tp_network *net = NULL;
     tp_diag_init(&d, stderr);
-    assert_int_equal(tp_doc_load_text("test.yaml", yaml, strlen(yaml), &doc, &d), TP_OK);
+    assert_int_equal(tp_yamltree_load_text("test.yaml", yaml, strlen(yaml), &doc, &d), TP_OK);
     assert_int_equal(tp_config_read(doc, &desc, &d), TP_OK);
     assert_int_equal(tp_assemble(&desc, doc, &d, &net), TP_OK);
-    tp_desc_clear(&desc);
-    tp_doc_destroy(&doc);
+    tp_config_clear(&desc);
+    tp_yamltree_destroy(&doc);
     return net;
 }
 
@@ -339,8 +340,8 @@ static void test_sensor_lag_behind_ramp_is_time_constant(void **state)
     run_history(net, &h);
     cp = tp_history_column(&h, tp_network_find_node(net, "plate"));
     cs = tp_history_column(&h, tp_network_find_node(net, "sensor"));
-    tp_ = tp_first_rise(h.t, h.temps + cp, h.n, h.n_out, level);
-    ts = tp_first_rise(h.t, h.temps + cs, h.n, h.n_out, level);
+    tp_ = tp_series_first_rise(h.t, h.temps + cp, h.n, h.n_out, level);
+    ts = tp_series_first_rise(h.t, h.temps + cs, h.n, h.n_out, level);
     /* The start-up transient decays as exp(-t/20 s): negligible at the 400 s crossing. */
     assert_true(fabs((ts - tp_) - 20.0) < 0.01);
     tp_history_clear(&h);
@@ -540,12 +541,12 @@ static void test_settle_time_definition(void **state)
     (void)state;
     /* Last exit from the band: between t = 3 (12) and t = 4 (11): enters at 11 when v = 11,
      * i.e. exactly t = 4 (hand calculation with linear interpolation). */
-    assert_true(fabs(tp_settle_time(t, v, 7, 1, 10.0, 1.0) - 4.0) < 1e-12);
+    assert_true(fabs(tp_series_settle_time(t, v, 7, 1, 10.0, 1.0) - 4.0) < 1e-12);
     v[4] = 10.5;
     /* Now between 12 at t = 3 and 10.5 at t = 4: v = 11 at t = 3 + 1/1.5 = 3.6667. */
-    assert_true(fabs(tp_settle_time(t, v, 7, 1, 10.0, 1.0) - (3.0 + 1.0 / 1.5)) < 1e-12);
+    assert_true(fabs(tp_series_settle_time(t, v, 7, 1, 10.0, 1.0) - (3.0 + 1.0 / 1.5)) < 1e-12);
     v[6] = 12;
-    assert_true(isnan(tp_settle_time(t, v, 7, 1, 10.0, 1.0)));
+    assert_true(isnan(tp_series_settle_time(t, v, 7, 1, 10.0, 1.0)));
 }
 
 /* ---- tuning rules ---------------------------------------------------------------------------- */

@@ -27,8 +27,8 @@
 #include "assemble.h"
 #include "config.h"
 #include "diag.h"
-#include "doc.h"
 #include "network.h"
+#include "yamltree.h"
 
 #define TP_TEST_KELVIN 273.15 /* K at 0 degC (BIPM SI Brochure, 9th ed., 2.3.1) */
 #define TP_TEST_PATH 1024     /* bytes of a scratch path */
@@ -312,8 +312,8 @@ static inline void tp_text_locate(const char *text, const char *needle, int *lin
 /* ---- a network from a YAML string ----------------------------------------------------------- */
 
 typedef struct tp_yaml_net {
-    tp_doc *doc;
-    tp_desc desc;
+    tp_yamltree *doc;
+    tp_description desc;
     tp_network *net; /* NULL when the text did not assemble */
     tp_diag diag;    /* messages kept in diag.log, not printed */
 } tp_yaml_net;
@@ -324,7 +324,7 @@ static inline tp_status tp_yaml_net_open(tp_yaml_net *y, const char *text)
     tp_status st;
     memset(y, 0, sizeof *y);
     tp_diag_init(&y->diag, NULL);
-    st = tp_doc_load_text("test.yaml", text, strlen(text), &y->doc, &y->diag);
+    st = tp_yamltree_load_text("test.yaml", text, strlen(text), &y->doc, &y->diag);
     if (st == TP_OK)
         st = tp_config_read(y->doc, &y->desc, &y->diag);
     if (st == TP_OK)
@@ -359,8 +359,8 @@ static inline void tp_yaml_net_plate(tp_yaml_net *y, const char *source, const c
 static inline void tp_yaml_net_close(tp_yaml_net *y)
 {
     tp_network_destroy(&y->net);
-    tp_desc_clear(&y->desc);
-    tp_doc_destroy(&y->doc);
+    tp_config_clear(&y->desc);
+    tp_yamltree_destroy(&y->doc);
 }
 
 #endif

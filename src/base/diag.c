@@ -11,7 +11,7 @@ void tp_diag_init(tp_diag *d, FILE *stream)
     d->stream = stream;
 }
 
-tp_loc tp_loc_none(void)
+tp_loc tp_diag_loc_none(void)
 {
     tp_loc loc = {NULL, 0, 0};
     return loc;

@@ -43,7 +43,7 @@ void tp_diag_warn(tp_diag *d, tp_loc loc, const char *path, const char *hint, co
 void tp_diag_note(tp_diag *d, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
 
 /* A location with no file position. */
-tp_loc tp_loc_none(void);
+tp_loc tp_diag_loc_none(void);
 
 /* The index of the name in `names` closest to `word` (edit distance, case-insensitive, a
  * swapped pair counting 1), or -1 when none is within 1 edit (words of up to 4 characters) or

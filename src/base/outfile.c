@@ -117,11 +117,11 @@ tp_status tp_outfile_reserve(const char *path, char *tmp, size_t tmp_size, tp_di
     int special;
     int e = make_tmp(path, tmp, tmp_size, &special, &shown, target);
     if (e == ENAMETOOLONG) {
-        tp_diag_error(d, tp_loc_none(), NULL, NULL, "output path too long: %s", path);
+        tp_diag_error(d, tp_diag_loc_none(), NULL, NULL, "output path too long: %s", path);
         return TP_ERR_IO;
     }
     if (e) {
-        tp_diag_error(d, tp_loc_none(), NULL,
+        tp_diag_error(d, tp_diag_loc_none(), NULL,
                       special ? "run tepid in a writable directory"
                               : "check that the directory exists and is writable",
                       "cannot create an output file beside %s: %s", shown, strerror(e));
@@ -180,7 +180,8 @@ static tp_status copy_into(const char *tmp, const char *path, tp_diag *d)
         bad |= fclose(out) != 0;
     unlink(tmp);
     if (bad) {
-        tp_diag_error(d, tp_loc_none(), NULL, NULL, "cannot write %s: %s", path, strerror(errno));
+        tp_diag_error(d, tp_diag_loc_none(), NULL, NULL, "cannot write %s: %s", path,
+                      strerror(errno));
         return TP_ERR_IO;
     }
     return TP_OK;
@@ -196,7 +197,7 @@ tp_status tp_outfile_place(const char *tmp, const char *path, tp_diag *d)
     if (rename(tmp, path) != 0) {
         int e = errno;
         unlink(tmp);
-        tp_diag_error(d, tp_loc_none(), NULL, NULL, "cannot write %s: %s", path, strerror(e));
+        tp_diag_error(d, tp_diag_loc_none(), NULL, NULL, "cannot write %s: %s", path, strerror(e));
         return TP_ERR_IO;
     }
     return TP_OK;
@@ -206,7 +207,7 @@ tp_status tp_outfile_open(tp_outfile *o, const char *path, tp_diag *d)
 {
     memset(o, 0, sizeof *o);
     if (strlen(path) >= sizeof o->path) {
-        tp_diag_error(d, tp_loc_none(), NULL, NULL, "output path too long: %s", path);
+        tp_diag_error(d, tp_diag_loc_none(), NULL, NULL, "output path too long: %s", path);
         return TP_ERR_IO;
     }
     strcpy(o->path, path);
@@ -218,14 +219,14 @@ tp_status tp_outfile_open(tp_outfile *o, const char *path, tp_diag *d)
         /* Written in place, like standard output (o->tmp stays empty). */
         o->fp = fopen(path, "w");
         if (!o->fp) {
-            tp_diag_error(d, tp_loc_none(), NULL, NULL, "cannot write %s: %s", path,
+            tp_diag_error(d, tp_diag_loc_none(), NULL, NULL, "cannot write %s: %s", path,
                           strerror(errno));
             return TP_ERR_IO;
         }
         return TP_OK;
     }
     if (resolve_target(path, o->path, sizeof o->path) != 0) {
-        tp_diag_error(d, tp_loc_none(), NULL, NULL, "output path too long: %s", path);
+        tp_diag_error(d, tp_diag_loc_none(), NULL, NULL, "output path too long: %s", path);
         return TP_ERR_IO;
     }
     path = o->path;
@@ -233,7 +234,8 @@ tp_status tp_outfile_open(tp_outfile *o, const char *path, tp_diag *d)
         return TP_ERR_IO;
     o->fp = fopen(o->tmp, "w");
     if (!o->fp) {
-        tp_diag_error(d, tp_loc_none(), NULL, NULL, "cannot write %s: %s", path, strerror(errno));
+        tp_diag_error(d, tp_diag_loc_none(), NULL, NULL, "cannot write %s: %s", path,
+                      strerror(errno));
         unlink(o->tmp);
         o->tmp[0] = '\0';
         return TP_ERR_IO;
@@ -250,7 +252,7 @@ tp_status tp_outfile_commit(tp_outfile *o, tp_diag *d)
         bad = fflush(stdout) != 0 || ferror(stdout);
         o->fp = NULL;
         if (bad) {
-            tp_diag_error(d, tp_loc_none(), NULL, NULL, "cannot write to standard output");
+            tp_diag_error(d, tp_diag_loc_none(), NULL, NULL, "cannot write to standard output");
             return TP_ERR_IO;
         }
         return TP_OK;
@@ -263,7 +265,7 @@ tp_status tp_outfile_commit(tp_outfile *o, tp_diag *d)
         /* errno is that of the failed flush or close when they failed (an earlier failed
          * write alone leaves it 0 here). */
         int e = errno;
-        tp_diag_error(d, tp_loc_none(), NULL, "check free disk space", "cannot write %s%s%s",
+        tp_diag_error(d, tp_diag_loc_none(), NULL, "check free disk space", "cannot write %s%s%s",
                       o->path, e ? ": " : "", e ? strerror(e) : "");
         if (o->tmp[0])
             unlink(o->tmp);
@@ -290,7 +292,7 @@ void tp_outfile_abort(tp_outfile *o)
     o->tmp[0] = '\0';
 }
 
-int tp_path_same_file(const char *a, const char *b)
+int tp_outfile_same_file(const char *a, const char *b)
 {
     struct stat sa, sb;
     if (!a || !b || strcmp(a, "-") == 0 || strcmp(b, "-") == 0)

@@ -46,6 +46,6 @@ int tp_outfile_check(const char *path, int by_name, char *why, size_t size);
 tp_status tp_outfile_place(const char *tmp, const char *path, tp_diag *d);
 
 /* Nonzero when `a` and `b` name the same existing file (same device and inode). */
-int tp_path_same_file(const char *a, const char *b);
+int tp_outfile_same_file(const char *a, const char *b);
 
 #endif

@@ -1,7 +1,7 @@
 /* Status codes: messages and the mapping to process exit codes. */
 #include "status.h"
 
-const char *tp_strerror(tp_status status)
+const char *tp_status_message(tp_status status)
 {
     switch (status) {
     case TP_OK: return "success";

@@ -22,7 +22,7 @@ enum {
 };
 
 /* A short English description of a status; never NULL. */
-const char *tp_strerror(tp_status status);
+const char *tp_status_message(tp_status status);
 
 /* The process exit code for a status. */
 int tp_status_exit_code(tp_status status);

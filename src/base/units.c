@@ -68,7 +68,7 @@ const char *tp_units_example(tp_dim dim)
     return dim < TP_DIM_COUNT ? dims[dim].example : "?";
 }
 
-int tp_parse_double(const char *text, double *out)
+int tp_units_parse_double(const char *text, double *out)
 {
     char *end;
     double v;

@@ -60,7 +60,7 @@ const char *tp_units_example(tp_dim dim);
 
 /* Strict number parsing: the whole of `text` must be one finite decimal number (no hex,
  * no NaN/inf, no trailing characters). Returns 0 on success. */
-int tp_parse_double(const char *text, double *out);
+int tp_units_parse_double(const char *text, double *out);
 
 /* Release the unit database (call once at exit; later calls to the parser reload it). */
 void tp_units_shutdown(void);

@@ -7,7 +7,7 @@
 #include "outfile.h"
 #include "plot.h"
 
-const tp_opt tp_opt_help = {"help", 'h', 0, 0, 0, NULL, "show this help"};
+const tp_opt tp_cli_help_option = {"help", 'h', 0, 0, 0, NULL, "show this help"};
 
 #define TP_CLI_MAX_OPTS 64 /* entries of one verb's option table (for the did-you-mean) */
 
@@ -20,8 +20,9 @@ static const tp_opt *find_opt(const tp_verb *verb, const char *name, char short_
         if (!name && short_name && o->short_name == short_name)
             return o;
     }
-    if (name ? strcmp(name, tp_opt_help.name) == 0 : short_name == tp_opt_help.short_name)
-        return &tp_opt_help;
+    if (name ? strcmp(name, tp_cli_help_option.name) == 0
+             : short_name == tp_cli_help_option.short_name)
+        return &tp_cli_help_option;
     return NULL;
 }
 
@@ -35,14 +36,15 @@ static void unknown_option(const tp_verb *verb, const char *shown, const char *n
     int best;
     for (o = verb->opts; o && o->name && n < TP_CLI_MAX_OPTS; o++)
         names[n++] = o->name;
-    names[n++] = tp_opt_help.name;
+    names[n++] = tp_cli_help_option.name;
     best = name ? tp_diag_closest(name, names, n) : -1;
     if (best >= 0)
         snprintf(hint, sizeof hint, "did you mean --%s? ('tepid help %s' lists its options)",
                  names[best], verb->name);
     else
         snprintf(hint, sizeof hint, "'tepid help %s' lists its options", verb->name);
-    tp_diag_error(d, tp_loc_none(), NULL, hint, "unknown option %s for '%s'", shown, verb->name);
+    tp_diag_error(d, tp_diag_loc_none(), NULL, hint, "unknown option %s for '%s'", shown,
+                  verb->name);
 }
 
 /* Every output must be creatable before the verb computes anything (issue 15 item 6). */
@@ -57,8 +59,8 @@ static tp_status check_outputs(const tp_cli *cli, tp_diag *d)
             continue;
         if (o->is_output == TP_OUT_FIGURE && tp_plot_check_path(path, d) != TP_OK)
             return TP_ERR_USAGE;
-        if (cli->file && (tp_path_same_file(path, cli->file) || strcmp(path, cli->file) == 0)) {
-            tp_diag_error(d, tp_loc_none(), NULL, "choose another output name",
+        if (cli->file && (tp_outfile_same_file(path, cli->file) || strcmp(path, cli->file) == 0)) {
+            tp_diag_error(d, tp_diag_loc_none(), NULL, "choose another output name",
                           "--%s would overwrite the input file %s", o->name, cli->file);
             return TP_ERR_USAGE;
         }
@@ -67,17 +69,15 @@ static tp_status check_outputs(const tp_cli *cli, tp_diag *d)
             if (!p->is_output || strcmp(cli->args[j].value, path) != 0)
                 continue;
             if (strcmp(path, "-") == 0)
-                tp_diag_error(d, tp_loc_none(), NULL,
-                              "send all but one of them to a file",
-                              "--%s and --%s both write to standard output (-)", p->name,
-                              o->name);
+                tp_diag_error(d, tp_diag_loc_none(), NULL, "send all but one of them to a file",
+                              "--%s and --%s both write to standard output (-)", p->name, o->name);
             else
-                tp_diag_error(d, tp_loc_none(), NULL, "give each output its own name",
+                tp_diag_error(d, tp_diag_loc_none(), NULL, "give each output its own name",
                               "--%s and --%s name the same file", p->name, o->name);
             return TP_ERR_USAGE;
         }
         if (tp_outfile_check(path, o->is_output == TP_OUT_FIGURE, why, sizeof why) != 0) {
-            tp_diag_error(d, tp_loc_none(), NULL,
+            tp_diag_error(d, tp_diag_loc_none(), NULL,
                           "check that the directory exists and is writable; nothing was "
                           "computed",
                           "--%s: cannot create %s: %s", o->name, path, why);
@@ -93,12 +93,12 @@ static tp_status add(tp_cli *cli, const tp_opt *o, const char *value, tp_diag *d
     if (!o->repeatable)
         for (i = 0; i < cli->n_args; i++)
             if (cli->args[i].opt == o) {
-                tp_diag_error(d, tp_loc_none(), NULL, "give it once", "--%s given twice",
+                tp_diag_error(d, tp_diag_loc_none(), NULL, "give it once", "--%s given twice",
                               o->name);
                 return TP_ERR_USAGE;
             }
     if (cli->n_args == TP_CLI_MAX_ARGS) {
-        tp_diag_error(d, tp_loc_none(), NULL, NULL, "too many options");
+        tp_diag_error(d, tp_diag_loc_none(), NULL, NULL, "too many options");
         return TP_ERR_USAGE;
     }
     cli->args[cli->n_args].opt = o;
@@ -143,12 +143,12 @@ tp_status tp_cli_parse(const tp_verb *verb, int argc, char **argv, tp_cli *cli, 
                 else if (i + 1 < argc)
                     value = argv[++i];
                 else {
-                    tp_diag_error(d, tp_loc_none(), NULL, NULL, "--%s needs a value (%s)",
+                    tp_diag_error(d, tp_diag_loc_none(), NULL, NULL, "--%s needs a value (%s)",
                                   o->name, o->metavar ? o->metavar : "VALUE");
                     return TP_ERR_USAGE;
                 }
             } else if (eq) {
-                tp_diag_error(d, tp_loc_none(), NULL, NULL, "--%s takes no value", o->name);
+                tp_diag_error(d, tp_diag_loc_none(), NULL, NULL, "--%s takes no value", o->name);
                 return TP_ERR_USAGE;
             }
         } else if (a[0] == '-' && a[1] != '\0') {
@@ -158,14 +158,14 @@ tp_status tp_cli_parse(const tp_verb *verb, int argc, char **argv, tp_cli *cli, 
             }
             if (o->takes_value) {
                 if (i + 1 >= argc) {
-                    tp_diag_error(d, tp_loc_none(), NULL, NULL, "%s needs a value", a);
+                    tp_diag_error(d, tp_diag_loc_none(), NULL, NULL, "%s needs a value", a);
                     return TP_ERR_USAGE;
                 }
                 value = argv[++i];
             }
         } else {
             if (cli->file || !verb->needs_file) {
-                tp_diag_error(d, tp_loc_none(), NULL, "options start with --",
+                tp_diag_error(d, tp_diag_loc_none(), NULL, "options start with --",
                               "unexpected argument '%s'", a);
                 return TP_ERR_USAGE;
             }
@@ -177,14 +177,15 @@ tp_status tp_cli_parse(const tp_verb *verb, int argc, char **argv, tp_cli *cli, 
             return TP_OK;
         }
         if (o->takes_value && value[0] == '\0') {
-            tp_diag_error(d, tp_loc_none(), NULL, NULL, "--%s needs a non-empty value", o->name);
+            tp_diag_error(d, tp_diag_loc_none(), NULL, NULL, "--%s needs a non-empty value",
+                          o->name);
             return TP_ERR_USAGE;
         }
         if (add(cli, o, value, d) != TP_OK)
             return TP_ERR_USAGE;
     }
     if (verb->needs_file && !cli->file) {
-        tp_diag_error(d, tp_loc_none(), NULL, NULL, "usage: tepid %s FILE [options]",
+        tp_diag_error(d, tp_diag_loc_none(), NULL, NULL, "usage: tepid %s FILE [options]",
                       verb->name);
         return TP_ERR_USAGE;
     }
@@ -213,7 +214,7 @@ void tp_cli_help(const tp_verb *verb, FILE *fp)
     fputs("\noptions:\n", fp);
     for (o = verb->opts; o && o->name; o++)
         print_opt(o, fp);
-    print_opt(&tp_opt_help, fp);
+    print_opt(&tp_cli_help_option, fp);
     if (verb->examples) {
         const char *line = verb->examples;
         fprintf(fp, "\nexamples (%s):\n", TP_CLI_EXAMPLES_NOTE);

@@ -16,8 +16,8 @@
 /* One option of a verb. Each verb lists every option it accepts in one table (tp_verb.opts),
  * in the order its help and manual page show them, ended by TP_OPT_END. The options several
  * verbs share are the entries TP_OPT_SET and TP_OPT_QUIET, listed by the verbs that use them;
- * --help (tp_opt_help) is accepted by every verb and not listed. An option a verb's table does
- * not hold is refused, with a did-you-mean. */
+ * --help (tp_cli_help_option) is accepted by every verb and not listed. An option a verb's table
+ * does not hold is refused, with a did-you-mean. */
 typedef struct tp_opt {
     const char *name;    /* long name without dashes, e.g. "csv" */
     char short_name;     /* e.g. 'q', or 0 */
@@ -40,7 +40,7 @@ typedef struct tp_opt {
 #define TP_OPT_END {NULL, 0, 0, 0, 0, NULL, NULL}
 
 /* --help, accepted by every verb. */
-extern const tp_opt tp_opt_help;
+extern const tp_opt tp_cli_help_option;
 
 typedef struct tp_cli {
     const char *verb;

@@ -5,12 +5,12 @@
 #include <string.h>
 
 #include "budget.h"
-#include "commands.h"
 #include "json.h"
-#include "report.h"
 #include "session.h"
+#include "summary.h"
+#include "verbs.h"
 
-#define TP_MAINS 50.0 /* V: above this the supply is treated as mains (see report.c) */
+#define TP_MAINS 50.0 /* V: above this the supply is treated as mains (see summary.c) */
 
 static const tp_opt budget_opts[] = {
     {"json", 0, 1, 0, TP_OUT_FILE, "FILE", "write every figure and verdict as JSON"},
@@ -58,12 +58,12 @@ static void series_path(FILE *fp, const tp_circuit *c)
 
 static void summary(FILE *fp, const tp_session *s, const tp_budget *b)
 {
-    const tp_desc *desc = &s->desc;
+    const tp_description *desc = &s->desc;
     double v = b->v;
     size_t i;
     tp_caution cautions[TP_CAUTIONS_MAX];
     fprintf(fp, "tepid budget %s%s%s\n  ", s->cli->file, desc->title[0] ? ": " : "", desc->title);
-    tp_report_network(fp, s->net);
+    tp_summary_network(fp, s->net);
     if (desc->supply.present) {
         fprintf(fp, "  supply %.1f V", desc->supply.voltage);
         if (isfinite(b->i_rating))
@@ -127,7 +127,7 @@ static void summary(FILE *fp, const tp_session *s, const tp_budget *b)
         fputs("  ! mains heater: tepid refuses nothing, but fit a non-self-resetting thermal "
               "cut-out in series with the heater, independent of the controller, and have the "
               "installation checked by a qualified person.\n", fp);
-    tp_report_cautions(fp, "cautions", cautions, tp_budget_cautions(desc, s->net, b, cautions));
+    tp_summary_cautions(fp, "cautions", cautions, tp_budget_cautions(desc, s->net, b, cautions));
 }
 
 static tp_status write_json(const char *path, const tp_network *net, const tp_budget *b,
@@ -201,8 +201,11 @@ static tp_status run_budget(const tp_cli *cli, tp_diag *d)
     return rc;
 }
 
-const tp_verb tp_verb_budget = {
-    "budget", run_budget, "Currents, supply headroom, wiring and switch losses, fuse size.", 1,
+const tp_verb tp_cmd_budget = {
+    "budget",
+    run_budget,
+    "Currents, supply headroom, wiring and switch losses, fuse size.",
+    1,
     budget_opts,
     "Uses the config's supply: (voltage, power or current rating, efficiency,\n"
     "output_resistance), loads: (id with power or current) and wiring: (cross_section or awg,\n"

@@ -6,12 +6,12 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "commands.h"
 #include "json.h"
-#include "report.h"
 #include "session.h"
 #include "steady.h"
+#include "summary.h"
 #include "units.h"
+#include "verbs.h"
 
 static const tp_opt explain_opts[] = {
     {"at", 0, 1, 0, 0, "TEMP", "evaluate temperature-dependent links with every free node at TEMP "
@@ -183,7 +183,7 @@ static tp_status write_json(const char *path, const tp_network *net, const state
             cJSON_AddItemToArray(between, cJSON_CreateString(net->nodes[l->a].id));
             cJSON_AddItemToArray(between, cJSON_CreateString(net->nodes[l->b].id));
         }
-        cJSON_AddStringToObject(o, "law", tp_law_name(l->law));
+        cJSON_AddStringToObject(o, "law", tp_network_law_name(l->law));
         tp_json_number(o, "conductance_W_per_K", g);
         if (l->law == TP_LAW_CONVECTION) {
             tp_json_number(o, "h_W_per_m2K", h);
@@ -223,11 +223,11 @@ static void print_table(FILE *fp, const tp_network *net, const double *t)
         snprintf(between, sizeof between, "%s-%s", net->nodes[l->a].id, net->nodes[l->b].id);
         if (l->law == TP_LAW_CONDUCTION)
             fprintf(fp, "    %-28.28s %-12s %-24.24s %11.4g %11s %9s\n", l->label,
-                    tp_law_name(l->law), between, g, "", "");
+                    tp_network_law_name(l->law), between, g, "", "");
         else
             fprintf(fp, "    %-28.28s %-12s %-24.24s %11.4g %11.4g %9.4g%s\n", l->label,
                     l->law == TP_LAW_CONVECTION && l->correlated ? "convection*"
-                                                                  : tp_law_name(l->law),
+                                                                 : tp_network_law_name(l->law),
                     between, g, h, l->area, "");
     }
     fputs("  (* coefficient from a published correlation, evaluated at these temperatures; "
@@ -274,7 +274,7 @@ static tp_status run_explain(const tp_cli *cli, tp_diag *d)
         tp_caution_exposure ex = TP_CAUTION_UNSEEN;
         tp_caution cautions[TP_CAUTIONS_MAX];
         fprintf(s.text, "tepid explain %s\n  ", cli->file);
-        tp_report_network(s.text, s.net);
+        tp_summary_network(s.text, s.net);
         print_state(s.text, s.net, &sta);
         print_table(s.text, s.net, sta.t);
         /* The cautions of the state shown (none for the initial temperatures). */
@@ -284,17 +284,20 @@ static tp_status run_explain(const tp_cli *cli, tp_diag *d)
                     ex.node_max = sta.t[i];
             ex.surface_max = tp_network_surface(s.net, sta.t);
         }
-        tp_report_cautions(s.text, "cautions", cautions,
-                           tp_caution_list(&s.desc, s.net, &ex, cautions));
+        tp_summary_cautions(s.text, "cautions", cautions,
+                            tp_caution_list(&s.desc, s.net, &ex, cautions));
     }
     free(sta.t);
     tp_session_close(&s);
     return rc;
 }
 
-const tp_verb tp_verb_explain = {
-    "explain", run_explain, "Show the assembled network: nodes, links, laws and coefficients.",
-    1, explain_opts,
+const tp_verb tp_cmd_explain = {
+    "explain",
+    run_explain,
+    "Show the assembled network: nodes, links, laws and coefficients.",
+    1,
+    explain_opts,
     "Every node's capacity and every link's law and conductance, as tepid assembled them from\n"
     "the file. Convection coefficients from correlations and radiation (linearised, eps sigma\n"
     "(T^2 + Ts^2)(T + Ts)) depend on temperature. They are shown at the steady holding state\n"

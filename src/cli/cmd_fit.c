@@ -6,18 +6,18 @@
 #include <string.h>
 
 #include "assemble.h"
-#include "commands.h"
-#include "confedit.h"
 #include "config.h"
+#include "configedit.h"
 #include "csv.h"
 #include "fit.h"
 #include "json.h"
-#include "logfile.h"
 #include "outfile.h"
 #include "plot.h"
-#include "report.h"
 #include "session.h"
+#include "summary.h"
+#include "templog.h"
 #include "units.h"
+#include "verbs.h"
 
 #define TP_FIT_FREE_MAX 32 /* --free options on one command line */
 #define TP_MAX_SETS 128    /* --set options on one command line */
@@ -44,12 +44,12 @@ static const tp_opt fit_opts[] = {
 
 typedef struct fit_run {
     tp_session s;
-    tp_log log;
+    tp_templog log;
     tp_fit_param params[TP_FIT_MAX_PARAMS];
     int n_params;
     tp_fit_problem pb;
     tp_fit_result res;
-    tp_desc fitted;  /* the description with the fitted values */
+    tp_description fitted; /* the description with the fitted values */
     tp_network *net; /* ... assembled, for the cautions */
     char warn[TP_FIT_MAX_PARAMS + 4][512];
     int n_warn;
@@ -58,9 +58,9 @@ typedef struct fit_run {
 /* ---- units and numbers -------------------------------------------------------------------- */
 
 /* The unit to show a key in: as written in the config, else a sensible one for its kind. */
-static void key_unit(const tp_doc *doc, const tp_fit_param *q, char *unit, size_t size)
+static void key_unit(const tp_yamltree *doc, const tp_fit_param *q, char *unit, size_t size)
 {
-    tp_confedit_unit(doc, q->path, unit, size);
+    tp_configedit_unit(doc, q->path, unit, size);
     if (unit[0] || q->dim == TP_DIM_NONE)
         return;
     snprintf(unit, size, "%s", q->dim == TP_DIM_TEMPERATURE ? "degC" : tp_units_si_name(q->dim));
@@ -101,8 +101,8 @@ static void fmt_number(double v, int digits, char *buf, size_t size)
 }
 
 /* "2.553 ohm" for an SI value of key q. */
-static void fmt_value(const tp_doc *doc, const tp_fit_param *q, double si, int digits, char *buf,
-                      size_t size)
+static void fmt_value(const tp_yamltree *doc, const tp_fit_param *q, double si, int digits,
+                      char *buf, size_t size)
 {
     char unit[32], num[48];
     double v;
@@ -117,7 +117,7 @@ static void fmt_value(const tp_doc *doc, const tp_fit_param *q, double si, int d
 }
 
 /* A standard error in the key's unit (temperatures as differences). */
-static void fmt_se(const tp_doc *doc, const tp_fit_param *q, double se, char *buf, size_t size)
+static void fmt_se(const tp_yamltree *doc, const tp_fit_param *q, double se, char *buf, size_t size)
 {
     char unit[32], num[48];
     double v;
@@ -148,28 +148,29 @@ static tp_status parse_options(const tp_cli *cli, fit_run *f, tp_diag *d)
     static const char *const outs[] = {"write-config", "csv", "json", "plot"};
     double v;
     if (!log) {
-        tp_diag_error(d, tp_loc_none(), NULL,
+        tp_diag_error(d, tp_diag_loc_none(), NULL,
                       "give the measured log, e.g. --log warmup.csv (see docs/fit.md)",
                       "tepid fit needs --log FILE");
         return TP_ERR_USAGE;
     }
     if (n == 0) {
-        tp_diag_error(d, tp_loc_none(), NULL,
+        tp_diag_error(d, tp_diag_loc_none(), NULL,
                       "e.g. --free heater.power --free losses.convection_scale",
                       "tepid fit needs at least one --free KEY");
         return TP_ERR_USAGE;
     }
     for (i = 0; i < 4; i++) {
         const char *o = tp_cli_get(cli, outs[i]);
-        if (o && strcmp(o, "-") != 0 && (strcmp(o, log) == 0 || tp_path_same_file(o, log))) {
-            tp_diag_error(d, tp_loc_none(), NULL, "choose another output name",
+        if (o && strcmp(o, "-") != 0 && (strcmp(o, log) == 0 || tp_outfile_same_file(o, log))) {
+            tp_diag_error(d, tp_diag_loc_none(), NULL, "choose another output name",
                           "--%s would overwrite the log %s", outs[i], log);
             return TP_ERR_USAGE;
         }
     }
     f->pb.starts = TP_FIT_STARTS;
     if (starts) {
-        if (tp_parse_double(starts, &v) != 0 || v != floor(v) || v < 1 || v > TP_FIT_STARTS_MAX) {
+        if (tp_units_parse_double(starts, &v) != 0 || v != floor(v) || v < 1 ||
+            v > TP_FIT_STARTS_MAX) {
             tp_diag_error(d, (tp_loc){"--starts", 1, 1}, NULL, "a whole number from 1 to 20",
                           "bad number of starting points '%s'", starts);
             return TP_ERR_USAGE;
@@ -234,7 +235,7 @@ static tp_status write_json(const char *path, const fit_run *f, tp_diag *d)
     tp_json_number(lg, "duration_s", f->log.t[f->log.n - 1]);
     cJSON_AddStringToObject(lg, "time_column", f->log.time_col);
     cJSON_AddStringToObject(lg, "reading_column", f->log.temp_col);
-    if (f->log.drive_kind != TP_LOG_DRIVE_NONE)
+    if (f->log.drive_kind != TP_TEMPLOG_DRIVE_NONE)
         cJSON_AddStringToObject(lg, "drive_column", f->log.drive_col);
     else
         cJSON_AddNullToObject(lg, "drive_column");
@@ -353,11 +354,11 @@ static tp_status write_config(const char *path, const fit_run *f, tp_diag *d)
     const tp_cli *cli = f->s.cli;
     const char *sets[TP_MAX_SETS];
     int n_sets = tp_cli_all(cli, "set", sets, TP_MAX_SETS), n = 0, i, j;
-    tp_confedit_item *items = calloc((size_t)(n_sets + f->n_params + 1), sizeof *items);
+    tp_configedit_item *items = calloc((size_t)(n_sets + f->n_params + 1), sizeof *items);
     char *comment = NULL, *text = NULL, v[96], s0[96], se[96];
     size_t clen = 0, ccap = 4096;
-    tp_doc *orig = NULL, *back = NULL;
-    tp_desc check;
+    tp_yamltree *orig = NULL, *back = NULL;
+    tp_description check;
     tp_outfile o;
     tp_status st;
 
@@ -373,7 +374,7 @@ static tp_status write_config(const char *path, const fit_run *f, tp_diag *d)
         const char *eq = strchr(sets[i], '=');
         size_t plen = eq ? (size_t)(eq - sets[i]) : 0;
         int fitted = 0;
-        if (!eq || plen >= TP_CONFEDIT_PATH_MAX || strlen(eq + 1) >= TP_CONFEDIT_VALUE_MAX)
+        if (!eq || plen >= TP_CONFIGEDIT_PATH_MAX || strlen(eq + 1) >= TP_CONFIGEDIT_VALUE_MAX)
             continue;
         for (j = 0; j < f->n_params; j++)
             fitted |=
@@ -413,14 +414,14 @@ static tp_status write_config(const char *path, const fit_run *f, tp_diag *d)
     if (n > f->n_params && clen + 200 < ccap)
         clen += (size_t)snprintf(comment + clen, ccap - clen,
                                  "# The --set values of that run are written in as well.\n");
-    st = tp_doc_load_file(cli->file, &orig, d);
+    st = tp_yamltree_load_file(cli->file, &orig, d);
     if (st == TP_OK)
-        st = tp_confedit_apply(orig, items, n, comment, &text, d);
+        st = tp_configedit_apply(orig, items, n, comment, &text, d);
     /* Read the result back: it must be a valid config holding the fitted values. */
     if (st == TP_OK) {
         tp_diag quiet;
         tp_diag_init(&quiet, NULL);
-        st = tp_doc_load_text(path, text, strlen(text), &back, &quiet);
+        st = tp_yamltree_load_text(path, text, strlen(text), &back, &quiet);
         if (st == TP_OK)
             st = tp_config_read(back, &check, &quiet);
         for (i = 0; st == TP_OK && i < f->n_params; i++) {
@@ -430,9 +431,9 @@ static tp_status write_config(const char *path, const fit_run *f, tp_diag *d)
                 st = TP_ERR_CONFIG;
         }
         if (st != TP_OK) {
-            tp_diag_error(d, tp_loc_none(), NULL, "please report this; edit the config by hand",
-                          "the rewritten config does not read back with the fitted values: %s",
-                          quiet.log);
+            tp_diag_error(
+                d, tp_diag_loc_none(), NULL, "please report this; edit the config by hand",
+                "the rewritten config does not read back with the fitted values: %s", quiet.log);
             st = TP_ERR_CONFIG;
         }
     }
@@ -442,9 +443,9 @@ static tp_status write_config(const char *path, const fit_run *f, tp_diag *d)
         fputs(text, o.fp);
         st = tp_outfile_commit(&o, d);
     }
-    tp_desc_clear(&check);
-    tp_doc_destroy(&back);
-    tp_doc_destroy(&orig);
+    tp_config_clear(&check);
+    tp_yamltree_destroy(&back);
+    tp_yamltree_destroy(&orig);
     free(text);
     free(comment);
     free(items);
@@ -502,24 +503,24 @@ static void collect_warnings(fit_run *f)
 static void summary(FILE *fp, const fit_run *f)
 {
     const tp_fit_result *r = &f->res;
-    const tp_log *lg = &f->log;
+    const tp_templog *lg = &f->log;
     char buf[64], v[96], s0[96], se[96], lo[96], hi[96];
     tp_caution cautions[TP_CAUTIONS_MAX];
     int i, j, p = f->n_params;
     fprintf(fp, "tepid fit %s%s%s\n", f->s.cli->file, f->s.desc.title[0] ? ": " : "",
             f->s.desc.title);
     if (f->net)
-        tp_report_conditions(fp, f->net); /* the calibrated plate's */
-    tp_fmt_duration(lg->t[lg->n - 1], buf, sizeof buf);
+        tp_summary_conditions(fp, f->net); /* the calibrated plate's */
+    tp_summary_duration(lg->t[lg->n - 1], buf, sizeof buf);
     fprintf(fp, "  log %s: %ld rows over %s; reading '%s' (%s)", lg->name, lg->n, buf, lg->temp_col,
             lg->temp_unit);
-    if (lg->drive_kind == TP_LOG_DRIVE_POWER)
+    if (lg->drive_kind == TP_TEMPLOG_DRIVE_POWER)
         fprintf(fp, ", power '%s'", lg->drive_col);
-    else if (lg->drive_kind == TP_LOG_DRIVE_DUTY && lg->duty_percent)
+    else if (lg->drive_kind == TP_TEMPLOG_DRIVE_DUTY && lg->duty_percent)
         fprintf(fp, ", duty '%s' (percent)", lg->drive_col);
-    else if (lg->drive_kind == TP_LOG_DRIVE_DUTY && lg->duty_full_scale > 1.0)
+    else if (lg->drive_kind == TP_TEMPLOG_DRIVE_DUTY && lg->duty_full_scale > 1.0)
         fprintf(fp, ", duty '%s' (counts of %.0f)", lg->drive_col, lg->duty_full_scale);
-    else if (lg->drive_kind == TP_LOG_DRIVE_DUTY)
+    else if (lg->drive_kind == TP_TEMPLOG_DRIVE_DUTY)
         fprintf(fp, ", duty '%s'", lg->drive_col);
     fprintf(fp, "\n  the model's heater follows %s; the model reading is node '%s'\n",
             tp_fit_drive_name(r->drive), f->net ? f->net->nodes[r->sensor].id : "?");
@@ -556,7 +557,7 @@ static void summary(FILE *fp, const fit_run *f)
             fputc('\n', fp);
         }
     }
-    tp_fmt_duration(lg->t[r->max_row], buf, sizeof buf);
+    tp_summary_duration(lg->t[r->max_row], buf, sizeof buf);
     fprintf(fp, "\n  residuals (model - log): RMS %.3f K, largest %.3f K at %s (line %d)\n", r->rms,
             r->max_abs, buf, lg->line[r->max_row]);
     fprintf(fp,
@@ -565,8 +566,7 @@ static void summary(FILE *fp, const fit_run *f)
             r->sigma, r->dof);
     for (i = 0; i < f->n_warn; i++)
         fprintf(fp, "  ! %s\n", f->warn[i]);
-    tp_report_cautions(fp, "cautions", cautions,
-                       tp_fit_cautions(&f->fitted, f->net, r, cautions));
+    tp_summary_cautions(fp, "cautions", cautions, tp_fit_cautions(&f->fitted, f->net, r, cautions));
 }
 
 /* The description with the fitted values, assembled, for the cautions. */
@@ -574,7 +574,7 @@ static tp_status build_fitted(fit_run *f, tp_diag *d)
 {
     tp_diag quiet;
     int i;
-    tp_status st = tp_desc_copy(&f->fitted, &f->s.desc);
+    tp_status st = tp_config_copy(&f->fitted, &f->s.desc);
     if (st != TP_OK)
         return st;
     for (i = 0; i < f->n_params; i++)
@@ -582,7 +582,7 @@ static tp_status build_fitted(fit_run *f, tp_diag *d)
     tp_diag_init(&quiet, NULL);
     st = tp_assemble(&f->fitted, f->s.doc, &quiet, &f->net);
     if (st != TP_OK)
-        tp_diag_error(d, tp_loc_none(), NULL, NULL,
+        tp_diag_error(d, tp_diag_loc_none(), NULL, NULL,
                       "the config with the fitted values does not assemble");
     return st;
 }
@@ -590,7 +590,7 @@ static tp_status build_fitted(fit_run *f, tp_diag *d)
 static tp_status run_fit(const tp_cli *cli, tp_diag *d)
 {
     fit_run *f = calloc(1, sizeof *f);
-    tp_log_opts lo;
+    tp_templog_opts lo;
     const char *out;
     tp_status rc;
     if (!f)
@@ -605,7 +605,7 @@ static tp_status run_fit(const tp_cli *cli, tp_diag *d)
         lo.time_col = tp_cli_get(cli, "time-col");
         lo.temp_col = tp_cli_get(cli, "temp-col");
         lo.duty_col = tp_cli_get(cli, "duty-col");
-        rc = tp_log_load(tp_cli_get(cli, "log"), &lo, &f->log, d);
+        rc = tp_templog_load(tp_cli_get(cli, "log"), &lo, &f->log, d);
     }
     if (rc == TP_OK) {
         f->pb.desc = &f->s.desc;
@@ -630,15 +630,15 @@ static tp_status run_fit(const tp_cli *cli, tp_diag *d)
     if (rc == TP_OK && f->s.text)
         summary(f->s.text, f);
     tp_network_destroy(&f->net);
-    tp_desc_clear(&f->fitted);
+    tp_config_clear(&f->fitted);
     tp_fit_result_clear(&f->res);
-    tp_log_clear(&f->log);
+    tp_templog_clear(&f->log);
     tp_session_close(&f->s);
     free(f);
     return rc;
 }
 
-const tp_verb tp_verb_fit = {
+const tp_verb tp_cmd_fit = {
     "fit",
     run_fit,
     "Calibrate config keys against a measured warm-up log.",

@@ -5,13 +5,13 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "commands.h"
 #include "guard.h"
 #include "json.h"
 #include "plot.h"
-#include "report.h"
 #include "session.h"
+#include "summary.h"
 #include "units.h"
+#include "verbs.h"
 
 #define TP_GUARD_PLOT_HEALTHY 3 /* healthy readings drawn: nominal, slowest, deepest dip */
 
@@ -56,7 +56,7 @@ static double value(const tp_guard_settings *s, int k)
 }
 
 /* The settings to evaluate: guard.settings from the file, each overridden by its option. */
-static tp_status given_settings(const tp_cli *cli, const tp_desc *desc, tp_guard_settings *g,
+static tp_status given_settings(const tp_cli *cli, const tp_description *desc, tp_guard_settings *g,
                                 tp_diag *d)
 {
     int k;
@@ -96,7 +96,7 @@ static tp_status given_settings(const tp_cli *cli, const tp_desc *desc, tp_guard
 static void fmt_time(double t, char *buf, size_t size)
 {
     if (isfinite(t))
-        tp_fmt_duration(t, buf, size);
+        tp_summary_duration(t, buf, size);
     else
         snprintf(buf, size, "-");
 }
@@ -294,7 +294,7 @@ static void summary(FILE *fp, const tp_session *s, const tp_guard_study *st, int
     int k;
     fprintf(fp, "tepid guard %s%s%s\n  ", s->cli->file, s->desc.title[0] ? ": " : "",
             s->desc.title);
-    tp_report_network(fp, s->net);
+    tp_summary_network(fp, s->net);
     fprintf(fp, "  %d healthy run%s (nominal%s), %d faults from the cold start and from hold, "
                 "followed %.0f min; reading step near the setpoint %.3f K\n",
             st->n_corners, st->n_corners == 1 ? "" : "s",
@@ -316,7 +316,8 @@ static void summary(FILE *fp, const tp_session *s, const tp_guard_study *st, int
             fprintf(fp, "  ! layer '%s' already passes its %.0f degC limit in healthy operation "
                         "(%.1f degC): no check protects it\n", st->layer_id[k],
                     st->layer_limit[k] - TP_KELVIN_0C, st->layer_healthy[k] - TP_KELVIN_0C);
-    tp_report_cautions(fp, "cautions", cautions, tp_guard_cautions(&s->desc, s->net, st, cautions));
+    tp_summary_cautions(fp, "cautions", cautions,
+                        tp_guard_cautions(&s->desc, s->net, st, cautions));
 }
 
 /* ---- JSON --------------------------------------------------------------------------------- */
@@ -634,11 +635,11 @@ static tp_status run_guard(const tp_cli *cli, tp_diag *d)
     if (rc == TP_OK && s.text)
         summary(s.text, &s, st, evaluating);
     if (rc == TP_OK && tp_cli_flag(cli, "strict") && strict_failed) {
-        tp_diag_error(d, tp_loc_none(), "guard",
+        tp_diag_error(d, tp_diag_loc_none(), "guard",
                       "tighten the thresholds (run without settings for a recommendation)",
                       "--strict: %d healthy corner%s tripped, %d fault run%s crossed a service "
-                      "limit before detection", st->healthy_trips,
-                      st->healthy_trips == 1 ? "" : "s", st->unsafe_faults,
+                      "limit before detection",
+                      st->healthy_trips, st->healthy_trips == 1 ? "" : "s", st->unsafe_faults,
                       st->unsafe_faults == 1 ? "" : "s");
         rc = TP_ERR_STRICT;
     }
@@ -650,14 +651,17 @@ done:
     return rc;
 }
 
-const tp_verb tp_verb_guard = {
-    "guard", run_guard,
-    "Protection thresholds from worst-case healthy runs, tested against injected faults.", 1,
+const tp_verb tp_cmd_guard = {
+    "guard",
+    run_guard,
+    "Protection thresholds from worst-case healthy runs, tested against injected faults.",
+    1,
     guard_opts,
     "Runs every corner of the healthy ranges (guard: supply, resistance tolerance, room,\n"
     "airflow; a range not declared takes its default, supply and resistance +-5 %, room 15 to\n"
     "30 degC, and the summary says so) through the warm-up and a hold with the disturbances\n"
-    "given, then injects six faults from the cold start and from the holding state. Recommends the\n"
+    "given, then injects six faults from the cold start and from the holding state. Recommends "
+    "the\n"
     "rise check (rise_window, rise_min, approach), the hold check (hold_band, hold_grace) and\n"
     "the ceiling, each explained; with --rise-window ... or guard.settings: it evaluates the\n"
     "given values instead. Definitions in docs/guard.md. The checks supplement and never\n"

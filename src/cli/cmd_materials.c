@@ -1,10 +1,10 @@
 /* tepid materials: the built-in material table with its sources. */
 #include <stdio.h>
 
-#include "commands.h"
 #include "config.h"
 #include "materials.h"
-#include "report.h"
+#include "summary.h"
+#include "verbs.h"
 
 static const tp_opt materials_opts[] = {
     {"sources", 0, 0, 0, 0, NULL, "print each entry's full source and note"},
@@ -45,8 +45,11 @@ static tp_status run_materials(const tp_cli *cli, tp_diag *d)
     return TP_OK;
 }
 
-const tp_verb tp_verb_materials = {
-    "materials", run_materials, "List the built-in material table with its sources.", 0,
+const tp_verb tp_cmd_materials = {
+    "materials",
+    run_materials,
+    "List the built-in material table with its sources.",
+    0,
     materials_opts,
     "Each entry gives density, specific heat, conductivity (in-plane and through-thickness\n"
     "where they differ), total hemispherical emissivity for the finish named, and a service\n"

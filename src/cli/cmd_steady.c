@@ -6,12 +6,12 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "commands.h"
 #include "grid.h"
 #include "json.h"
-#include "report.h"
 #include "session.h"
 #include "steadyreport.h"
+#include "summary.h"
+#include "verbs.h"
 
 static const tp_opt steady_opts[] = {
     {"json", 0, 1, 0, TP_OUT_FILE, "FILE", "write the results as JSON (- for standard output)"},
@@ -49,7 +49,7 @@ static void print_nodes(FILE *fp, const tp_network *net, const double *t)
 }
 
 /* The working-surface map of a gridded plate at the state shown. */
-static void print_map(FILE *fp, const tp_network *net, const tp_map_stats *st)
+static void print_map(FILE *fp, const tp_network *net, const tp_surfacemap_stats *st)
 {
     const tp_net_grid *g = net->grid;
     if (st->cells == 0)
@@ -82,7 +82,7 @@ static void summary(FILE *fp, const tp_session *s, const tp_steadyreport *a)
     int p;
     fprintf(fp, "tepid steady %s%s%s\n  ", s->cli->file, s->desc.title[0] ? ": " : "",
             s->desc.title);
-    tp_report_network(fp, net);
+    tp_summary_network(fp, net);
     if (a->holding) {
         fprintf(fp, "\n  holding %.1f degC (reading): %.2f W at duty %.3f\n",
                 net->control.setpoint - TP_KELVIN_0C, a->hold.power, a->hold.duty);
@@ -98,7 +98,7 @@ static void summary(FILE *fp, const tp_session *s, const tp_steadyreport *a)
     for (p = TP_PATH_INTERNAL + 1; p < TP_PATH_COUNT; p++) {
         if (p == TP_PATH_WALLS || fabs(a->flows.path[p]) < 1e-12)
             continue;
-        fprintf(fp, "    %-18s %8.2f W %6.1f %%\n", tp_loss_path_name((tp_loss_path)p),
+        fprintf(fp, "    %-18s %8.2f W %6.1f %%\n", tp_network_loss_path_name((tp_loss_path)p),
                 a->flows.path[p], total != 0 ? 100.0 * a->flows.path[p] / total : 0.0);
     }
     fprintf(fp, "    %-18s %8.2f W\n", "total", total);
@@ -113,8 +113,8 @@ static void summary(FILE *fp, const tp_session *s, const tp_steadyreport *a)
     if (a->max_duty < 1.0)
         print_reach(fp, net, "at the duty limit", &a->limit);
     print_reach(fp, net, "at full power", &a->full);
-    tp_report_cautions(fp, "cautions", cautions,
-                       tp_steadyreport_cautions(&s->desc, net, a, cautions));
+    tp_summary_cautions(fp, "cautions", cautions,
+                        tp_steadyreport_cautions(&s->desc, net, a, cautions));
 }
 
 /* The highest reachable temperatures at one duty: {reading, surface, nodes{}} in degC; the
@@ -164,11 +164,12 @@ static tp_status write_json(const char *path, const tp_network *net, const tp_st
     losses = cJSON_AddObjectToObject(root, "losses_W");
     for (p = TP_PATH_INTERNAL + 1; losses && p < TP_PATH_COUNT; p++)
         if (p != TP_PATH_WALLS && fabs(a->flows.path[p]) > 0)
-            tp_json_number(losses, tp_loss_path_name((tp_loss_path)p), a->flows.path[p]);
+            tp_json_number(losses, tp_network_loss_path_name((tp_loss_path)p), a->flows.path[p]);
     if (fabs(a->flows.path[TP_PATH_WALLS]) > 0) {
         walls = cJSON_AddObjectToObject(root, "enclosure_losses_W");
         if (walls)
-            tp_json_number(walls, tp_loss_path_name(TP_PATH_WALLS), a->flows.path[TP_PATH_WALLS]);
+            tp_json_number(walls, tp_network_loss_path_name(TP_PATH_WALLS),
+                           a->flows.path[TP_PATH_WALLS]);
     }
     put_reach(root, "max_C", net, &a->limit);
     if (a->max_duty < 1.0)
@@ -194,7 +195,7 @@ static tp_status write_json(const char *path, const tp_network *net, const tp_st
 /* Where the setpoint is written, for a warning about it. */
 static tp_loc setpoint_at(const tp_session *s)
 {
-    return tp_doc_nearest(s->doc, "control.setpoint");
+    return tp_yamltree_nearest(s->doc, "control.setpoint");
 }
 
 static tp_status run_steady(const tp_cli *cli, tp_diag *d)
@@ -223,9 +224,13 @@ static tp_status run_steady(const tp_cli *cli, tp_diag *d)
     return rc;
 }
 
-const tp_verb tp_verb_steady = {
-    "steady", run_steady, "Holding power, where the watts go, and the highest reachable "
-                          "temperatures.", 1, steady_opts,
+const tp_verb tp_cmd_steady = {
+    "steady",
+    run_steady,
+    "Holding power, where the watts go, and the highest reachable "
+    "temperatures.",
+    1,
+    steady_opts,
     "Solves the steady states with KINSOL: the holding point (the duty that keeps the reading\n"
     "at the setpoint) with its loss split by path, and the equilibria at full power and at\n"
     "heater.max_duty. Without a controller, the full-power state. --room solves for another\n"

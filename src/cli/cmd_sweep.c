@@ -8,15 +8,15 @@
 #include <string.h>
 #include <unistd.h>
 
-#include "commands.h"
-#include "confedit.h"
+#include "configedit.h"
 #include "csv.h"
 #include "json.h"
 #include "outfile.h"
 #include "plot.h"
-#include "report.h"
 #include "session.h"
+#include "summary.h"
 #include "sweep.h"
+#include "verbs.h"
 
 #define TP_SWEEP_SAMPLES 500        /* default --samples */
 #define TP_SWEEP_PROGRESS_AFTER 1.0 /* s: the progress bar appears after this long */
@@ -67,7 +67,7 @@ typedef struct options {
 static tp_status whole_number(const char *text, const char *opt, double lo, double hi, double *out,
                               tp_diag *d)
 {
-    if (tp_parse_double(text, out) != 0 || *out != floor(*out) || *out < lo || *out > hi) {
+    if (tp_units_parse_double(text, out) != 0 || *out != floor(*out) || *out < lo || *out > hi) {
         tp_diag_error(d, (tp_loc){opt, 1, 1}, NULL, NULL,
                       "'%s' is not a whole number from %.0f to %.0f", text, lo, hi);
         return TP_ERR_USAGE;
@@ -87,29 +87,30 @@ static tp_status parse_options(const tp_cli *cli, options *o, tp_diag *d)
     o->jobs = tp_sweep_default_jobs();
     o->metric = -1; /* chosen after the run (default_metric) */
     if (o->n_vary == 0 && o->n_spread == 0) {
-        tp_diag_error(d, tp_loc_none(), NULL,
+        tp_diag_error(d, tp_diag_loc_none(), NULL,
                       "e.g. --vary heater.power=150W:400W:25W or --spread heater.resistance="
                       "normal:5%",
                       "give --vary (a grid) or --spread (a tolerance study)");
         return TP_ERR_USAGE;
     }
     if (o->n_vary > 0 && o->n_spread > 0) {
-        tp_diag_error(d, tp_loc_none(), NULL, "run the grid and the tolerance study separately",
+        tp_diag_error(d, tp_diag_loc_none(), NULL,
+                      "run the grid and the tolerance study separately",
                       "--vary and --spread cannot be combined");
         return TP_ERR_USAGE;
     }
     if (o->n_vary > TP_SWEEP_MAX_AXES) {
-        tp_diag_error(d, tp_loc_none(), NULL, "a grid has one or two axes", "%d --vary options",
-                      o->n_vary);
+        tp_diag_error(d, tp_diag_loc_none(), NULL, "a grid has one or two axes",
+                      "%d --vary options", o->n_vary);
         return TP_ERR_USAGE;
     }
     if (o->n_spread > TP_SWEEP_MAX_PARAMS) {
-        tp_diag_error(d, tp_loc_none(), NULL, NULL, "more than %d --spread options",
+        tp_diag_error(d, tp_diag_loc_none(), NULL, NULL, "more than %d --spread options",
                       TP_SWEEP_MAX_PARAMS);
         return TP_ERR_USAGE;
     }
     if (o->n_vary > 0 && (tp_cli_get(cli, "samples") || tp_cli_get(cli, "seed"))) {
-        tp_diag_error(d, tp_loc_none(), NULL, "they apply to --spread",
+        tp_diag_error(d, tp_diag_loc_none(), NULL, "they apply to --spread",
                       "--samples and --seed have no meaning for a grid");
         return TP_ERR_USAGE;
     }
@@ -223,7 +224,7 @@ static double metric_out(int m, double si)
 
 static void metric_text(int m, double si, char *buf, size_t size)
 {
-    tp_report_metric(tp_metricdef_get(m), si, buf, size);
+    tp_summary_metric(tp_metricdef_get(m), si, buf, size);
 }
 
 static const char *spread_kind_name(tp_spread_kind k)
@@ -302,7 +303,7 @@ static void show_progress(void *user, long done, long total, double elapsed)
     bar[TP_SWEEP_BAR] = '\0';
     rate = (double)done / elapsed;
     if (done > 0)
-        tp_fmt_duration((double)(total - done) / rate, left, sizeof left);
+        tp_summary_duration((double)(total - done) / rate, left, sizeof left);
     else
         snprintf(left, sizeof left, "?");
     fprintf(pr->fp, "\r  [%s] %ld/%ld %s, %.1f/s, %s left   ", bar, done, total, pr->what, rate,
@@ -416,7 +417,7 @@ static void spread_table(FILE *fp, const tp_sweep_plan *plan, const tp_sweep_sum
         if (s->n == 0)
             continue; /* listed below as not defined */
         metric_text(m, s->mean, v[0], sizeof v[0]);
-        tp_report_metric_spread(mi, s->sd, v[1], sizeof v[1]);
+        tp_summary_metric_spread(mi, s->sd, v[1], sizeof v[1]);
         metric_text(m, s->p5, v[2], sizeof v[2]);
         metric_text(m, s->p50, v[3], sizeof v[3]);
         metric_text(m, s->p95, v[4], sizeof v[4]);
@@ -428,7 +429,7 @@ static void spread_table(FILE *fp, const tp_sweep_plan *plan, const tp_sweep_sum
         fprintf(fp, "  %-18s %5s %*s %*s %*s %*s %*s %*s %-8s %-16s", mi->label,
                 mi->form == TP_FORM_DURATION ? "" : mi->text_unit, SPREAD_COL, v[0], SPREAD_COL,
                 v[1], SPREAD_COL, v[2], SPREAD_COL, v[3], SPREAD_COL, v[4], SPREAD_COL, v[5], worst,
-                tp_worse_name(mi->worse));
+                tp_metricdef_worse_name(mi->worse));
         if (s->driver >= 0)
             fprintf(fp, " %s (%+.2f)", plan->params[s->driver].path, s->rho[s->driver]);
         else
@@ -723,7 +724,7 @@ static tp_status plot_line(const char *path, const tp_session *s, const tp_sweep
     chart = (tp_plot_chart){title, xl, panels, (size_t)np, 0, 0};
     st = np > 0 ? tp_plot_chart_write(path, &chart, d) : TP_ERR_SOLVER;
     if (np == 0)
-        tp_diag_error(d, tp_loc_none(), path, NULL, "no metric to draw");
+        tp_diag_error(d, tp_diag_loc_none(), path, NULL, "no metric to draw");
     free(buf);
     return st;
 }
@@ -814,7 +815,7 @@ static tp_status plot_distribution(const char *path, const tp_session *s,
             x[n++] = metric_plot(metric, res[i].metric[metric]);
     if (n == 0) {
         free(x);
-        tp_diag_error(d, tp_loc_none(), path, "choose another --metric",
+        tp_diag_error(d, tp_diag_loc_none(), path, "choose another --metric",
                       "no sample has a value of %s to draw", tp_metricdef_get(metric)->key);
         return TP_ERR_SOLVER;
     }
@@ -863,8 +864,8 @@ static tp_status build_plan(const options *o, const tp_session *s, tp_sweep_plan
     /* A parameter whose option gave no unit (a percentage) is shown in the config's unit. */
     for (k = 0; st == TP_OK && k < plan->n_params; k++)
         if (!plan->params[k].unit[0])
-            tp_confedit_unit(s->doc, plan->params[k].path, plan->params[k].unit,
-                             sizeof plan->params[k].unit);
+            tp_configedit_unit(s->doc, plan->params[k].path, plan->params[k].unit,
+                               sizeof plan->params[k].unit);
     if (st == TP_OK && plan->mode == TP_SWEEP_GRID && plan->n_params == 2 &&
         tp_cli_get(s->cli, "plot"))
         for (k = 0; k < 2; k++)
@@ -886,7 +887,7 @@ static void summary_head(FILE *fp, const tp_session *s, const tp_sweep_plan *pla
     const char *what = plan->mode == TP_SWEEP_GRID ? "point" : "sample";
     fprintf(fp, "tepid sweep %s%s%s\n  ", s->cli->file, s->desc.title[0] ? ": " : "",
             s->desc.title);
-    tp_report_network(fp, s->net);
+    tp_summary_network(fp, s->net);
     if (plan->mode == TP_SWEEP_GRID)
         fprintf(fp, "  grid of %ld point%s over:\n", total, total == 1 ? "" : "s");
     else
@@ -914,12 +915,12 @@ static void summary_cautions(FILE *fp, const tp_session *s, const tp_sweep_total
     if (tot->n_cautions == 0) {
         tp_caution_exposure ex = TP_CAUTION_UNSEEN;
         tp_caution cautions[TP_CAUTIONS_MAX];
-        tp_report_cautions(fp, "cautions", cautions,
-                           tp_caution_list(&s->desc, s->net, &ex, cautions));
+        tp_summary_cautions(fp, "cautions", cautions,
+                            tp_caution_list(&s->desc, s->net, &ex, cautions));
         return;
     }
-    tp_report_cautions(fp, "cautions (the worst case over all points)", tot->cautions,
-                       tot->n_cautions);
+    tp_summary_cautions(fp, "cautions (the worst case over all points)", tot->cautions,
+                        tot->n_cautions);
 }
 
 static tp_status run_sweep(const tp_cli *cli, tp_diag *d)
@@ -991,7 +992,7 @@ static tp_status run_sweep(const tp_cli *cli, tp_diag *d)
         summary_cautions(s.text, &s, &tot);
     }
     if (rc == TP_OK && total > 0 && tot.failed == total) {
-        tp_diag_error(d, tp_loc_none(), NULL, "see the reasons above or in --json",
+        tp_diag_error(d, tp_diag_loc_none(), NULL, "see the reasons above or in --json",
                       "every point failed; the first: %s", res[0].reason);
         rc = TP_ERR_SOLVER;
     }
@@ -1003,7 +1004,7 @@ done:
     return rc;
 }
 
-const tp_verb tp_verb_sweep = {
+const tp_verb tp_cmd_sweep = {
     "sweep",
     run_sweep,
     "Warm-up metrics over parameter grids and tolerance spreads.",

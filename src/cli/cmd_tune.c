@@ -4,14 +4,14 @@
 #include <stdio.h>
 #include <string.h>
 
-#include "commands.h"
 #include "csv.h"
 #include "figure.h"
 #include "json.h"
-#include "report.h"
 #include "session.h"
+#include "summary.h"
 #include "tune.h"
 #include "units.h"
+#include "verbs.h"
 #include "warmup.h"
 
 #define TP_TUNE_STEP 0.1 /* -, default duty step of the identification, a fraction of max_duty */
@@ -56,7 +56,7 @@ static tp_status parse_options(const tp_cli *cli, tp_tune_rule *rule, double *ta
         tp_diag_error(d, (tp_loc){"--tau-c", 1, 1}, NULL, hint, "%s", msg);
         return TP_ERR_USAGE;
     }
-    if (s && (tp_parse_double(s, step) != 0 || !(*step > 0 && *step <= 0.5))) {
+    if (s && (tp_units_parse_double(s, step) != 0 || !(*step > 0 && *step <= 0.5))) {
         tp_diag_error(d, (tp_loc){"--step", 1, 1}, NULL, "a fraction of max_duty in (0, 0.5]",
                       "bad step '%s'", s);
         return TP_ERR_USAGE;
@@ -146,7 +146,7 @@ static tp_status run_tune(const tp_cli *cli, tp_diag *d)
     if (rc == TP_OK && s.text) {
         tp_caution cautions[TP_CAUTIONS_MAX];
         fprintf(s.text, "tepid tune %s\n  ", cli->file);
-        tp_report_network(s.text, s.net);
+        tp_summary_network(s.text, s.net);
         fprintf(s.text, "  model of the reading at the holding point (duty %.3f -> %.3f):\n"
                         "    gain %.4g K per unit duty, time constant %.1f s, dead time %.1f s "
                         "(+%.2f s for sampling)\n",
@@ -160,14 +160,14 @@ static tp_status run_tune(const tp_cli *cli, tp_diag *d)
                         "    mode: pid\n    kp: %.4g 1/K\n    ki: %.4g 1/(K.s)\n"
                         "    kd: %.4g s/K\n",
                 s.desc.control.mode == TP_MODE_ONOFF ? ", band" : "", g.kp, g.ki, g.kd);
-        tp_fmt_duration(w.metrics.t_setpoint, buf, sizeof buf);
-        tp_fmt_duration(w.metrics.t_surface_ready, buf2, sizeof buf2);
+        tp_summary_duration(w.metrics.t_setpoint, buf, sizeof buf);
+        tp_summary_duration(w.metrics.t_surface_ready, buf2, sizeof buf2);
         fprintf(s.text, "  warm-up with these gains: reading at the setpoint after %s, "
                         "overshoot %.2f K, surface ready after %s\n",
                 isfinite(w.metrics.t_setpoint) ? buf : "(not reached)",
                 w.metrics.overshoot_reading, isfinite(w.metrics.t_surface_ready) ? buf2 : "-");
-        tp_report_cautions(s.text, "cautions", cautions,
-                           tp_warmup_cautions(&s.desc, s.net, &w, cautions));
+        tp_summary_cautions(s.text, "cautions", cautions,
+                            tp_warmup_cautions(&s.desc, s.net, &w, cautions));
     }
 done:
     tp_warmup_clear(&w);
@@ -175,8 +175,11 @@ done:
     return rc;
 }
 
-const tp_verb tp_verb_tune = {
-    "tune", run_tune, "Suggest PID gains from the model and show the warm-up they give.", 1,
+const tp_verb tp_cmd_tune = {
+    "tune",
+    run_tune,
+    "Suggest PID gains from the model and show the warm-up they give.",
+    1,
     tune_opts,
     "Identifies a first-order-plus-dead-time model of the reading's response to a duty step\n"
     "at the holding point (two-point method), applies SIMC (PI) or IMC (PID), prints the gains\n"

@@ -5,17 +5,18 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "commands.h"
 #include "csv.h"
 #include "figure.h"
 #include "history.h"
 #include "integrate.h"
 #include "json.h"
-#include "report.h"
-#include "results.h"
+#include "metrics.h"
+#include "series.h"
 #include "session.h"
 #include "steady.h"
-#include "surfmap.h"
+#include "summary.h"
+#include "surfacemap.h"
+#include "verbs.h"
 #include "warmup.h"
 
 static const tp_opt warmup_opts[] = {
@@ -37,7 +38,7 @@ static const tp_opt warmup_opts[] = {
 static void print_time(FILE *fp, const char *what, double t)
 {
     char buf[64];
-    tp_fmt_duration(t, buf, sizeof buf);
+    tp_summary_duration(t, buf, sizeof buf);
     fprintf(fp, "  %-34s %s\n", what, isfinite(t) ? buf : "not in the simulated time");
 }
 
@@ -75,9 +76,9 @@ static void map_cell_row(FILE *fp, const char *what, double va, int ia, int ja, 
 static void map_summary(FILE *fp, const tp_network *net, const tp_warmup *w)
 {
     const tp_net_grid *g = net->grid;
-    const tp_map_stats *a = &w->stats_setpoint, *b = &w->stats_hold;
+    const tp_surfacemap_stats *a = &w->stats_setpoint, *b = &w->stats_hold;
     char when[64], buf[32];
-    tp_fmt_duration(w->history.cross_time, buf, sizeof buf);
+    tp_summary_duration(w->history.cross_time, buf, sizeof buf);
     snprintf(when, sizeof when, "at setpoint (%s)", isfinite(w->history.cross_time) ? buf : "-");
     fprintf(fp, "\n  working surface, %d x %d cells of %.2f x %.2f mm:\n", g->nx, g->ny,
             g->width / g->nx * 1e3, g->depth / g->ny * 1e3);
@@ -93,7 +94,7 @@ static void map_summary(FILE *fp, const tp_network *net, const tp_warmup *w)
     if (w->map_hold) {
         char what[80];
         snprintf(what, sizeof what, "all of it ready (every cell within %.0f K)",
-                 TP_MAP_READY_BAND);
+                 TP_SURFACEMAP_READY_BAND);
         print_time(fp, what, w->t_all_ready);
     }
 }
@@ -113,7 +114,7 @@ static void print_lag(FILE *fp, const tp_metrics *m)
     snprintf(buf, sizeof buf, "lag: surface within %.0f K", TP_READY_BAND);
     if (isfinite(m->lag)) {
         char t[32];
-        tp_fmt_duration(fabs(m->lag), t, sizeof t);
+        tp_summary_duration(fabs(m->lag), t, sizeof t);
         fprintf(fp, "  %-34s %s %s the reading (%s)\n", buf, t, m->lag >= 0 ? "after" : "before",
                 m->lag >= 0 ? "behind" : "ahead");
     } else {
@@ -125,7 +126,7 @@ static void print_lag(FILE *fp, const tp_metrics *m)
 static void print_ready(FILE *fp, const tp_metrics *m)
 {
     char t[32], p[32];
-    tp_fmt_duration(m->t_surface_ready, t, sizeof t);
+    tp_summary_duration(m->t_surface_ready, t, sizeof t);
     fprintf(fp, "  %-34s %s", "surface ready",
             isfinite(m->t_surface_ready) ? t : "not in the simulated time");
     switch (m->ready_basis) {
@@ -134,7 +135,7 @@ static void print_ready(FILE *fp, const tp_metrics *m)
                 m->surface_hold - TP_KELVIN_0C);
         break;
     case TP_READY_CYCLE:
-        tp_fmt_duration(m->cycle_period, p, sizeof p);
+        tp_summary_duration(m->cycle_period, p, sizeof p);
         fprintf(fp, " (on-off: within %.0f K of its limit cycle, %.1f to %.1f degC, mean %.1f, "
                     "period %s)\n", TP_READY_BAND, m->cycle_min - TP_KELVIN_0C,
                 m->cycle_max - TP_KELVIN_0C, m->cycle_mean - TP_KELVIN_0C, p);
@@ -158,8 +159,8 @@ static void summary(FILE *fp, const tp_session *s, const tp_warmup *w)
     tp_caution cautions[TP_CAUTIONS_MAX];
     fprintf(fp, "tepid warmup %s%s%s\n  ", s->cli->file, s->desc.title[0] ? ": " : "",
             s->desc.title);
-    tp_report_network(fp, net);
-    tp_fmt_duration(m->duration, buf, sizeof buf);
+    tp_summary_network(fp, net);
+    tp_summary_duration(m->duration, buf, sizeof buf);
     fprintf(fp, "  simulated %s: %ld steps, %ld right-hand sides, %ld Jacobians, %ld restarts "
                 "(%s", buf, w->stats.steps, w->stats.rhs_evals, w->stats.jac_evals,
             w->stats.restarts,
@@ -198,7 +199,8 @@ static void summary(FILE *fp, const tp_session *s, const tp_warmup *w)
     } else if (net->has_control && net->control.mode == TP_MODE_OFF) {
         fputs("  the controller holds the heater off (mode off): no setpoint to reach\n", fp);
     } else if (net->has_control) {
-        fprintf(fp, "  controller mode %s (no setpoint)\n", tp_mode_name(net->control.mode));
+        fprintf(fp, "  controller mode %s (no setpoint)\n",
+                tp_description_mode_name(net->control.mode));
     }
     fprintf(fp, "  %-34s mean %.1f W, peak %.1f W; duty mean %.3f, peak %.3f\n", "power",
             m->power_mean, m->power_peak, m->duty_mean, m->duty_peak);
@@ -223,7 +225,7 @@ static void summary(FILE *fp, const tp_session *s, const tp_warmup *w)
                 net->grid ? "mean" : "estimate");
     if (net->grid)
         map_summary(fp, net, w);
-    tp_report_cautions(fp, "cautions", cautions, tp_warmup_cautions(&s->desc, net, w, cautions));
+    tp_summary_cautions(fp, "cautions", cautions, tp_warmup_cautions(&s->desc, net, w, cautions));
 }
 
 static void put_node_map(cJSON *obj, const char *name, const tp_history *h,
@@ -249,7 +251,7 @@ static cJSON *json_pair(double a, double b)
 }
 
 /* Statistics of one map, or null when the map does not exist. */
-static void put_map_stats(cJSON *obj, const char *name, const tp_map_stats *st, double time)
+static void put_map_stats(cJSON *obj, const char *name, const tp_surfacemap_stats *st, double time)
 {
     cJSON *o;
     if (st->cells == 0) {
@@ -286,7 +288,7 @@ static void put_surface_map(cJSON *root, const tp_network *net, const tp_warmup 
     put_map_stats(o, "at_setpoint", &w->stats_setpoint, w->history.cross_time);
     put_map_stats(o, "holding", &w->stats_hold, TP_UNSET);
     put_map_stats(o, "final", &w->stats_final, w->metrics.duration);
-    tp_json_number(o, "ready_band_K", TP_MAP_READY_BAND);
+    tp_json_number(o, "ready_band_K", TP_SURFACEMAP_READY_BAND);
     tp_json_number(o, "time_all_ready_s", w->t_all_ready);
 }
 
@@ -395,12 +397,12 @@ static tp_status write_maps(const tp_cli *cli, const tp_session *s, const tp_war
     if (rc == TP_OK && tp_cli_get(cli, "map-setpoint")) {
         if (w->map_setpoint) {
             char t[32];
-            tp_fmt_duration(w->history.cross_time, t, sizeof t);
+            tp_summary_duration(w->history.cross_time, t, sizeof t);
             snprintf(head, sizeof head, "Working surface when the reading reaches the "
                                         "setpoint (%s)", t);
             rc = tp_figure_surface(tp_cli_get(cli, "map-setpoint"), g, w->map_setpoint, head, d);
         } else {
-            tp_diag_warn(d, tp_loc_none(), "--map-setpoint",
+            tp_diag_warn(d, tp_diag_loc_none(), "--map-setpoint",
                          "give a setpoint the plate reaches within run.duration",
                          "the reading never reached the setpoint: %s is not written",
                          tp_cli_get(cli, "map-setpoint"));
@@ -425,17 +427,18 @@ static tp_status run_warmup(const tp_cli *cli, tp_diag *d)
         return rc;
     for (i = 0; i < sizeof map_opts / sizeof map_opts[0]; i++) {
         if (tp_cli_get(cli, map_opts[i]) && !s.net->grid) {
-            tp_diag_error(d, tp_loc_none(), NULL,
+            tp_diag_error(d, tp_diag_loc_none(), NULL,
                           "add bed.grid: [NX, NY] to the bed (docs/grid.md), or --set "
                           "'bed.grid=[40, 40]'",
                           "--%s draws the working surface of a gridded plate (bed.grid); "
-                          "this file has none", map_opts[i]);
+                          "this file has none",
+                          map_opts[i]);
             tp_session_close(&s);
             return TP_ERR_USAGE;
         }
     }
     if (tp_cli_flag(cli, "strict") && !tp_network_holds(s.net)) {
-        tp_diag_error(d, tp_loc_none(), NULL,
+        tp_diag_error(d, tp_diag_loc_none(), NULL,
                       "give control: a setpoint with mode on-off or pid, or leave out --strict",
                       "--strict checks that the reading reaches the setpoint; this file's "
                       "controller holds none");
@@ -455,7 +458,7 @@ static tp_status run_warmup(const tp_cli *cli, tp_diag *d)
         summary(s.text, &s, &w);
     if (rc == TP_OK && tp_cli_flag(cli, "strict") && !isfinite(w.metrics.t_setpoint)) {
         char buf[64];
-        tp_fmt_duration(w.metrics.duration, buf, sizeof buf);
+        tp_summary_duration(w.metrics.duration, buf, sizeof buf);
         tp_diag_note(d, "--strict: the reading did not reach the setpoint %.1f degC within the "
                         "%s run: %s", w.metrics.setpoint - TP_KELVIN_0C, buf,
                      w.metrics.not_reached ? w.metrics.not_reached : "not reached");
@@ -466,8 +469,11 @@ static tp_status run_warmup(const tp_cli *cli, tp_diag *d)
     return rc;
 }
 
-const tp_verb tp_verb_warmup = {
-    "warmup", run_warmup, "Simulate the warm-up: time to setpoint, surface readiness, power.", 1,
+const tp_verb tp_cmd_warmup = {
+    "warmup",
+    run_warmup,
+    "Simulate the warm-up: time to setpoint, surface readiness, power.",
+    1,
     warmup_opts,
     "Integrates the network with CVODE over run.duration. Reports when the reading reaches the\n"
     "setpoint, how far the working surface lags it, when the surface is ready (within 1 K of\n"

@@ -5,7 +5,7 @@
 #include <string.h>
 
 #include "config.h"
-#include "doc.h"
+#include "yamltree.h"
 
 /* The completion class of an option (src/cli/completion.bash.in, _tepid_spec): a flag, a
  * file, a key path (any key with "KEY=VALUE", else a numeric one, followed by '=' when the
@@ -26,7 +26,7 @@ static char opt_class(const tp_opt *o)
 
 static void verb_branch(const tp_verb *v, FILE *fp)
 {
-    const tp_opt help[] = {tp_opt_help, TP_OPT_END};
+    const tp_opt help[] = {tp_cli_help_option, TP_OPT_END};
     const tp_opt *sets[2] = {v->opts, help};
     int s;
     fprintf(fp, "    %s)\n        _tepid_needs_file=%d\n        _tepid_opts=(", v->name,
@@ -97,8 +97,8 @@ static void print_key(const tp_config_key_info *k, void *ctx)
 void tp_completion_keys(const char *file, int numeric, FILE *fp)
 {
     key_sink ks;
-    tp_doc *doc = NULL;
-    tp_desc desc;
+    tp_yamltree *doc = NULL;
+    tp_description desc;
     tp_diag d;
     int loaded;
     ks.fp = fp;
@@ -107,7 +107,7 @@ void tp_completion_keys(const char *file, int numeric, FILE *fp)
     loaded = file && tp_config_load(file, NULL, 0, &doc, &desc, &d) == TP_OK;
     tp_config_each_key(loaded ? &desc : NULL, 0, print_key, &ks);
     if (loaded) {
-        tp_desc_clear(&desc);
-        tp_doc_destroy(&doc);
+        tp_config_clear(&desc);
+        tp_yamltree_destroy(&doc);
     }
 }

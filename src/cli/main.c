@@ -5,11 +5,11 @@
 #include <string.h>
 
 #include "cli.h"
-#include "commands.h"
 #include "diag.h"
 #include "materials.h"
 #include "selfdoc.h"
 #include "units.h"
+#include "verbs.h"
 #include "version.h"
 
 static void usage(FILE *fp)
@@ -19,7 +19,7 @@ static void usage(FILE *fp)
           "tepid predicts how an electrically heated plate warms up, what power it needs, and\n"
           "how its protection must react, from a YAML description of the plate.\n\nverbs:\n",
           fp);
-    for (i = 0; i < tp_n_verbs; i++)
+    for (i = 0; i < tp_verbs_count; i++)
         fprintf(fp, "  %-10s %s\n", tp_verbs[i]->name, tp_verbs[i]->summary);
     fputs("\nEach verb has its own options; 'tepid help VERB' (or 'tepid VERB --help') lists\n"
           "them. Exit status: 0 success, 1 the computation failed, 2 usage or input error,\n"
@@ -59,12 +59,12 @@ static int run(int argc, char **argv)
             return TP_EXIT_OK;
         }
         if (argc > 3) {
-            tp_diag_error(&d, tp_loc_none(), NULL, NULL, "usage: tepid help [VERB]");
+            tp_diag_error(&d, tp_diag_loc_none(), NULL, NULL, "usage: tepid help [VERB]");
             return TP_EXIT_INPUT;
         }
-        verb = tp_verb_find(argv[2]);
+        verb = tp_verbs_find(argv[2]);
         if (!verb) {
-            tp_verb_unknown(argv[2], &d);
+            tp_verbs_unknown(argv[2], &d);
             return TP_EXIT_INPUT;
         }
         tp_cli_help(verb, stdout);
@@ -75,10 +75,10 @@ static int run(int argc, char **argv)
         return TP_EXIT_OK;
     }
     if (tp_selfdoc_is_hidden(argv[1])) /* the build's and the completion's helpers */
-        return tp_selfdoc_run(tp_verbs, tp_n_verbs, argc - 1, argv + 1);
-    verb = tp_verb_find(argv[1]);
+        return tp_selfdoc_run(tp_verbs, tp_verbs_count, argc - 1, argv + 1);
+    verb = tp_verbs_find(argv[1]);
     if (!verb) {
-        tp_verb_unknown(argv[1], &d);
+        tp_verbs_unknown(argv[1], &d);
         return TP_EXIT_INPUT;
     }
     st = tp_cli_parse(verb, argc - 2, argv + 2, &cli, &help, &d);

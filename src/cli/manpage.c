@@ -158,7 +158,7 @@ void tp_manpage_verb(const tp_verb *verb, FILE *fp)
     fputs(".SH OPTIONS\n", fp);
     options(fp, verb->opts);
     {
-        const tp_opt help_only[] = {tp_opt_help, TP_OPT_END}; /* accepted, never listed */
+        const tp_opt help_only[] = {tp_cli_help_option, TP_OPT_END}; /* accepted, never listed */
         options(fp, help_only);
     }
     if (verb->examples)
@@ -242,7 +242,7 @@ void tp_manpage_main(const char *tmpl, const tp_verb *const *verbs, size_t n_ver
         case 1:
             {
                 /* the options most verbs share, and --help which every verb accepts */
-                const tp_opt shared[] = {TP_OPT_SET, TP_OPT_QUIET, tp_opt_help, TP_OPT_END};
+                const tp_opt shared[] = {TP_OPT_SET, TP_OPT_QUIET, tp_cli_help_option, TP_OPT_END};
                 options(fp, shared);
             }
             break;

@@ -31,7 +31,8 @@ static char *read_template(const char *path, tp_diag *d)
     size_t len = 0;
     tp_status st = tp_infile_read(path, TEMPLATE_MAX, &text, &len, d);
     if (st == TP_ERR_LIMIT)
-        tp_diag_error(d, tp_loc_none(), NULL, NULL, "%s: larger than %u bytes", path, TEMPLATE_MAX);
+        tp_diag_error(d, tp_diag_loc_none(), NULL, NULL, "%s: larger than %u bytes", path,
+                      TEMPLATE_MAX);
     return st == TP_OK ? text : NULL;
 }
 
@@ -80,7 +81,7 @@ static tp_status man(job *j, const char *dir, tp_diag *d)
         n = i == 0 ? snprintf(path, sizeof path, "%s/tepid.1", dir)
                    : snprintf(path, sizeof path, "%s/tepid-%s.1", dir, j->verb->name);
         if (n < 0 || (size_t)n >= sizeof path) {
-            tp_diag_error(d, tp_loc_none(), NULL, NULL, "%s: directory name too long", dir);
+            tp_diag_error(d, tp_diag_loc_none(), NULL, NULL, "%s: directory name too long", dir);
             return TP_ERR_USAGE;
         }
         st = write_job(path, j, d);

@@ -19,29 +19,29 @@ static tp_status open_with(tp_session *s, const tp_cli *cli, const char *room, i
     s->cli = cli;
     /* More overrides than the table holds were once dropped without a word. */
     if (n_sets > TP_MAX_SETS) {
-        tp_diag_error(d, tp_loc_none(), NULL, "put the values in the file instead",
+        tp_diag_error(d, tp_diag_loc_none(), NULL, "put the values in the file instead",
                       "more than %d --set options", TP_MAX_SETS);
         return TP_ERR_USAGE;
     }
     s->text = tp_cli_text_stream(cli);
-    st = tp_doc_load_file(cli->file, &s->doc, d);
+    st = tp_yamltree_load_file(cli->file, &s->doc, d);
     if (st != TP_OK)
         return st;
     if (room) {
-        int raw = s->doc->root && tp_doc_get(s->doc->root, "network") != NULL;
+        int raw = s->doc->root && tp_yamltree_get(s->doc->root, "network") != NULL;
         snprintf(room_set, sizeof room_set, "%s=%s",
                  raw ? "network.nodes.room.fixed" : "room.temperature", room);
         sets[n_sets++] = room_set;
     }
     for (i = 0; i < n_sets && st == TP_OK; i++)
-        st = tp_doc_set(s->doc, sets[i], d);
+        st = tp_yamltree_set(s->doc, sets[i], d);
     if (st == TP_OK)
         st = tp_config_read(s->doc, &s->desc, d);
     if (st == TP_OK && !open_loop)
         st = tp_config_check_gains(s->doc, &s->desc, d);
     if (st != TP_OK) {
-        tp_desc_clear(&s->desc);
-        tp_doc_destroy(&s->doc);
+        tp_config_clear(&s->desc);
+        tp_yamltree_destroy(&s->doc);
         return st == TP_ERR_USAGE ? TP_ERR_CONFIG : st;
     }
     st = tp_assemble(&s->desc, s->doc, d, &s->net);
@@ -70,8 +70,8 @@ tp_status tp_session_open_room(tp_session *s, const tp_cli *cli, const char *roo
 void tp_session_close(tp_session *s)
 {
     tp_network_destroy(&s->net);
-    tp_desc_clear(&s->desc);
-    tp_doc_destroy(&s->doc);
+    tp_config_clear(&s->desc);
+    tp_yamltree_destroy(&s->doc);
 }
 
 const char *tp_session_title(const tp_session *s)

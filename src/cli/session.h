@@ -6,16 +6,16 @@
 #include <stdio.h>
 
 #include "cli.h"
-#include "desc.h"
+#include "description.h"
 #include "diag.h"
-#include "doc.h"
 #include "network.h"
 #include "status.h"
+#include "yamltree.h"
 
 typedef struct tp_session {
     const tp_cli *cli;
-    tp_doc *doc;
-    tp_desc desc;
+    tp_yamltree *doc;
+    tp_description desc;
     tp_network *net;
     FILE *text; /* the summary stream, NULL with -q */
 } tp_session;

@@ -1,5 +1,5 @@
 /* The config reader: schema tables describe every key (kind, unit dimension, bounds, where it
- * lands in tp_desc); one walker reads, validates, copies and sets values by dotted path. */
+ * lands in tp_description); one walker reads, validates, copies and sets values by dotted path. */
 #include "config.h"
 
 #include <ctype.h>
@@ -337,22 +337,23 @@ static const key guard_keys[] = {
 static const section guard_sec = {guard_keys, N(guard_keys)};
 
 static const key top_keys[] = {
-    TEXT(tp_desc, title, "title"),
-    MAP(tp_desc, network, "network", network_sec, F_PRESENT),
-    {"materials", K_IDMAP, TP_DIM_NONE, offsetof(tp_desc, materials), sizeof(tp_material_spec),
-     offsetof(tp_desc, n_materials), &material_sec, 0, TP_MAX_MATERIALS, NULL},
-    MAP(tp_desc, room, "room", room_sec, 0),
-    MAP(tp_desc, bed, "bed", bed_sec, F_PRESENT),
-    MAP(tp_desc, heater, "heater", heater_sec, F_PRESENT),
-    MAP(tp_desc, sensor, "sensor", sensor_sec, F_PRESENT),
-    MAP(tp_desc, enclosure, "enclosure", enclosure_sec, F_PRESENT),
-    MAP(tp_desc, control, "control", control_sec, F_PRESENT),
-    MAP(tp_desc, run, "run", run_sec, 0),
-    MAP(tp_desc, losses, "losses", losses_sec, 0),
-    MAP(tp_desc, supply, "supply", supply_sec, F_PRESENT),
-    LIST(tp_desc, loads, n_loads, tp_load, "loads", load_sec, 0, 64),
-    MAP(tp_desc, wiring, "wiring", wiring_sec, F_PRESENT),
-    MAP(tp_desc, guard, "guard", guard_sec, F_PRESENT),
+    TEXT(tp_description, title, "title"),
+    MAP(tp_description, network, "network", network_sec, F_PRESENT),
+    {"materials", K_IDMAP, TP_DIM_NONE, offsetof(tp_description, materials),
+     sizeof(tp_material_spec), offsetof(tp_description, n_materials), &material_sec, 0,
+     TP_MAX_MATERIALS, NULL},
+    MAP(tp_description, room, "room", room_sec, 0),
+    MAP(tp_description, bed, "bed", bed_sec, F_PRESENT),
+    MAP(tp_description, heater, "heater", heater_sec, F_PRESENT),
+    MAP(tp_description, sensor, "sensor", sensor_sec, F_PRESENT),
+    MAP(tp_description, enclosure, "enclosure", enclosure_sec, F_PRESENT),
+    MAP(tp_description, control, "control", control_sec, F_PRESENT),
+    MAP(tp_description, run, "run", run_sec, 0),
+    MAP(tp_description, losses, "losses", losses_sec, 0),
+    MAP(tp_description, supply, "supply", supply_sec, F_PRESENT),
+    LIST(tp_description, loads, n_loads, tp_load, "loads", load_sec, 0, 64),
+    MAP(tp_description, wiring, "wiring", wiring_sec, F_PRESENT),
+    MAP(tp_description, guard, "guard", guard_sec, F_PRESENT),
 };
 static const section top_sec = {top_keys, N(top_keys)};
 
@@ -418,15 +419,15 @@ static int valid_id(const char *s)
     return 1;
 }
 
-static int expect_kind(reader *r, const tp_doc_node *n, tp_doc_kind want, const char *path,
-                       const char *example)
+static int expect_kind(reader *r, const tp_yamltree_node *n, tp_yamltree_kind want,
+                       const char *path, const char *example)
 {
     char hint[160];
     if (n->kind == want)
         return 1;
     snprintf(hint, sizeof hint, "write it as %s", example);
-    tp_diag_error(r->d, tp_doc_loc(n), path, hint, "expected %s, found %s",
-                  tp_doc_kind_name(want), tp_doc_kind_name(n->kind));
+    tp_diag_error(r->d, tp_yamltree_loc(n), path, hint, "expected %s, found %s",
+                  tp_yamltree_kind_name(want), tp_yamltree_kind_name(n->kind));
     return 0;
 }
 
@@ -449,45 +450,45 @@ static unsigned bounds_broken(const key *k, double v)
 }
 
 /* Parse one scalar quantity and check flags and bounds. Returns 0 on success. */
-static int read_number(reader *r, const key *k, const tp_doc_node *n, const char *path,
+static int read_number(reader *r, const key *k, const tp_yamltree_node *n, const char *path,
                        double *out)
 {
     char msg[256];
     const char *hint;
     double v;
-    if (!expect_kind(r, n, TP_DOC_SCALAR, path, tp_units_example(k->dim)))
+    if (!expect_kind(r, n, TP_YAMLTREE_SCALAR, path, tp_units_example(k->dim)))
         return -1;
     if (n->text[0] == '\0') {
-        tp_diag_error(r->d, tp_doc_loc(n), path, "give a value or remove the key",
+        tp_diag_error(r->d, tp_yamltree_loc(n), path, "give a value or remove the key",
                       "missing value");
         return -1;
     }
     if (tp_units_parse(n->text, k->dim, &v, msg, sizeof msg, &hint) != TP_OK) {
-        tp_diag_error(r->d, tp_doc_loc(n), path, hint, "%s", msg);
+        tp_diag_error(r->d, tp_yamltree_loc(n), path, hint, "%s", msg);
         return -1;
     }
     switch (bounds_broken(k, v)) {
     case F_POS:
-        tp_diag_error(r->d, tp_doc_loc(n), path, "use a value above zero",
+        tp_diag_error(r->d, tp_yamltree_loc(n), path, "use a value above zero",
                       "must be positive, got '%s'", n->text);
         return -1;
     case F_NONNEG:
-        tp_diag_error(r->d, tp_doc_loc(n), path, "use zero or more", "must not be negative");
+        tp_diag_error(r->d, tp_yamltree_loc(n), path, "use zero or more", "must not be negative");
         return -1;
     case F_FRAC:
-        tp_diag_error(r->d, tp_doc_loc(n), path,
-                      "a fraction lies in (0, 1], e.g. 0.9 (or 90 %)",
-                      "'%s' is outside (0, 1]", n->text);
+        tp_diag_error(r->d, tp_yamltree_loc(n), path,
+                      "a fraction lies in (0, 1], e.g. 0.9 (or 90 %)", "'%s' is outside (0, 1]",
+                      n->text);
         return -1;
     case F_INT:
-        tp_diag_error(r->d, tp_doc_loc(n), path, "use a whole number", "'%s' is not whole",
+        tp_diag_error(r->d, tp_yamltree_loc(n), path, "use a whole number", "'%s' is not whole",
                       n->text);
         return -1;
     case BOUND_HI:
-        tp_diag_error(r->d, tp_doc_loc(n), path, k->why ? k->why : too_big,
+        tp_diag_error(r->d, tp_yamltree_loc(n), path, k->why ? k->why : too_big,
                       "'%s' is implausibly large (limit %g%s%s)", n->text, k->hi,
-                      k->dim == TP_DIM_NONE ? "" : " ", k->dim == TP_DIM_NONE ? ""
-                                                            : tp_units_si_name(k->dim));
+                      k->dim == TP_DIM_NONE ? "" : " ",
+                      k->dim == TP_DIM_NONE ? "" : tp_units_si_name(k->dim));
         return -1;
     default:
         break;
@@ -496,12 +497,12 @@ static int read_number(reader *r, const key *k, const tp_doc_node *n, const char
     return 0;
 }
 
-static int read_id(reader *r, const tp_doc_node *n, const char *path, char *out)
+static int read_id(reader *r, const tp_yamltree_node *n, const char *path, char *out)
 {
-    if (!expect_kind(r, n, TP_DOC_SCALAR, path, "a name such as plate"))
+    if (!expect_kind(r, n, TP_YAMLTREE_SCALAR, path, "a name such as plate"))
         return -1;
     if (strlen(n->text) >= TP_ID_MAX || !valid_id(n->text)) {
-        tp_diag_error(r->d, tp_doc_loc(n), path,
+        tp_diag_error(r->d, tp_yamltree_loc(n), path,
                       "ids use letters, digits, '-' and '_' (at most 47 characters)",
                       "'%s' is not a valid id", n->text);
         return -1;
@@ -510,33 +511,33 @@ static int read_id(reader *r, const tp_doc_node *n, const char *path, char *out)
     return 0;
 }
 
-static void read_section(reader *r, const section *sec, const tp_doc_node *map, void *base,
+static void read_section(reader *r, const section *sec, const tp_yamltree_node *map, void *base,
                          const char *path);
 
 /* The label of list item i in paths: its id when it has one, else its index. */
-static void item_path(const tp_doc_node *item, size_t i, const char *path, char *out,
+static void item_path(const tp_yamltree_node *item, size_t i, const char *path, char *out,
                       size_t size)
 {
-    const tp_doc_node *id = item->kind == TP_DOC_MAP ? tp_doc_get(item, "id") : NULL;
+    const tp_yamltree_node *id = item->kind == TP_YAMLTREE_MAP ? tp_yamltree_get(item, "id") : NULL;
     char label[TP_ID_MAX + 8];
-    if (id && id->kind == TP_DOC_SCALAR && valid_id(id->text) && strlen(id->text) < TP_ID_MAX)
+    if (id && id->kind == TP_YAMLTREE_SCALAR && valid_id(id->text) && strlen(id->text) < TP_ID_MAX)
         snprintf(label, sizeof label, "%s", id->text);
     else
         snprintf(label, sizeof label, "%zu", i);
     join(out, size, path, label);
 }
 
-static void read_list(reader *r, const key *k, const tp_doc_node *n, void *base,
+static void read_list(reader *r, const key *k, const tp_yamltree_node *n, void *base,
                       const char *path)
 {
     size_t i, count = n->n;
     char *items;
-    if (k->kind == K_LIST && !expect_kind(r, n, TP_DOC_SEQ, path, "a list of '- {...}' items"))
+    if (k->kind == K_LIST && !expect_kind(r, n, TP_YAMLTREE_SEQ, path, "a list of '- {...}' items"))
         return;
-    if (k->kind == K_IDMAP && !expect_kind(r, n, TP_DOC_MAP, path, "a map of id: {...}"))
+    if (k->kind == K_IDMAP && !expect_kind(r, n, TP_YAMLTREE_MAP, path, "a map of id: {...}"))
         return;
     if (k->hi > 0 && (double)count > k->hi) {
-        tp_diag_error(r->d, tp_doc_loc(n), path, "see the documented limits in docs/",
+        tp_diag_error(r->d, tp_yamltree_loc(n), path, "see the documented limits in docs/",
                       "%zu items exceed the limit of %.0f", count, k->hi);
         return;
     }
@@ -544,14 +545,14 @@ static void read_list(reader *r, const key *k, const tp_doc_node *n, void *base,
         return;
     items = calloc(count, k->size);
     if (!items) {
-        tp_diag_error(r->d, tp_doc_loc(n), path, NULL, "out of memory");
+        tp_diag_error(r->d, tp_yamltree_loc(n), path, NULL, "out of memory");
         return;
     }
     *(void **)field(base, k->offset) = items;
     *count_at(base, k->count_offset) = count;
     for (i = 0; i < count; i++) {
         void *elem = items + i * k->size;
-        const tp_doc_node *item = n->items[i];
+        const tp_yamltree_node *item = n->items[i];
         char ipath[256];
         init_section(k->sub, elem);
         if (k->kind == K_IDMAP) {
@@ -561,13 +562,13 @@ static void read_list(reader *r, const key *k, const tp_doc_node *n, void *base,
         } else {
             item_path(item, i, path, ipath, sizeof ipath);
         }
-        if (!expect_kind(r, item, TP_DOC_MAP, ipath, "a section {key: value, ...}"))
+        if (!expect_kind(r, item, TP_YAMLTREE_MAP, ipath, "a section {key: value, ...}"))
             continue;
         read_section(r, k->sub, item, elem, ipath);
     }
 }
 
-static void read_value(reader *r, const key *k, const tp_doc_node *n, void *base,
+static void read_value(reader *r, const key *k, const tp_yamltree_node *n, void *base,
                        const char *path)
 {
     size_t i;
@@ -576,10 +577,10 @@ static void read_value(reader *r, const key *k, const tp_doc_node *n, void *base
         read_number(r, k, n, path, dbl(base, k->offset));
         return;
     case K_QPAIR:
-        if (!expect_kind(r, n, TP_DOC_SEQ, path, "[a, b] with units, e.g. [250 mm, 210 mm]"))
+        if (!expect_kind(r, n, TP_YAMLTREE_SEQ, path, "[a, b] with units, e.g. [250 mm, 210 mm]"))
             return;
         if (n->n != 2) {
-            tp_diag_error(r->d, tp_doc_loc(n), path, "write [a, b], e.g. [250 mm, 210 mm]",
+            tp_diag_error(r->d, tp_yamltree_loc(n), path, "write [a, b], e.g. [250 mm, 210 mm]",
                           "expected two values, found %zu", n->n);
             return;
         }
@@ -590,10 +591,10 @@ static void read_value(reader *r, const key *k, const tp_doc_node *n, void *base
         read_id(r, n, path, (char *)field(base, k->offset));
         return;
     case K_TEXT:
-        if (!expect_kind(r, n, TP_DOC_SCALAR, path, "text in quotes"))
+        if (!expect_kind(r, n, TP_YAMLTREE_SCALAR, path, "text in quotes"))
             return;
         if (strlen(n->text) >= k->size) {
-            tp_diag_error(r->d, tp_doc_loc(n), path, "shorten the text",
+            tp_diag_error(r->d, tp_yamltree_loc(n), path, "shorten the text",
                           "longer than %zu characters", k->size - 1);
             return;
         }
@@ -601,10 +602,10 @@ static void read_value(reader *r, const key *k, const tp_doc_node *n, void *base
         return;
     case K_IDPAIR: {
         char(*pair)[TP_ID_MAX] = (char(*)[TP_ID_MAX])field(base, k->offset);
-        if (!expect_kind(r, n, TP_DOC_SEQ, path, "[node-a, node-b]"))
+        if (!expect_kind(r, n, TP_YAMLTREE_SEQ, path, "[node-a, node-b]"))
             return;
         if (n->n != 2) {
-            tp_diag_error(r->d, tp_doc_loc(n), path, "write [node-a, node-b]",
+            tp_diag_error(r->d, tp_yamltree_loc(n), path, "write [node-a, node-b]",
                           "expected two node ids, found %zu", n->n);
             return;
         }
@@ -614,22 +615,23 @@ static void read_value(reader *r, const key *k, const tp_doc_node *n, void *base
     }
     case K_MODE: {
         char hint[160];
-        if (!expect_kind(r, n, TP_DOC_SCALAR, path, "one of off, full, on-off, pid"))
+        if (!expect_kind(r, n, TP_YAMLTREE_SCALAR, path, "one of off, full, on-off, pid"))
             return;
-        for (i = 0; i < N(tp_mode_names); i++) {
-            if (strcmp(n->text, tp_mode_names[i]) == 0) {
+        for (i = 0; i < N(tp_description_mode_names); i++) {
+            if (strcmp(n->text, tp_description_mode_names[i]) == 0) {
                 *(tp_mode *)field(base, k->offset) = (tp_mode)i;
                 return;
             }
         }
-        tp_diag_suggest(n->text, tp_mode_names, N(tp_mode_names), hint, sizeof hint);
-        tp_diag_error(r->d, tp_doc_loc(n), path,
-                      hint[0] ? hint : "modes are off, full, on-off and pid",
-                      "unknown mode '%s'", n->text);
+        tp_diag_suggest(n->text, tp_description_mode_names, N(tp_description_mode_names), hint,
+                        sizeof hint);
+        tp_diag_error(r->d, tp_yamltree_loc(n), path,
+                      hint[0] ? hint : "modes are off, full, on-off and pid", "unknown mode '%s'",
+                      n->text);
         return;
     }
     case K_MAP:
-        if (!expect_kind(r, n, TP_DOC_MAP, path, "a section {key: value, ...}"))
+        if (!expect_kind(r, n, TP_YAMLTREE_MAP, path, "a section {key: value, ...}"))
             return;
         if (k->flags & F_PRESENT)
             *(int *)field(base, k->offset) = 1;
@@ -642,12 +644,12 @@ static void read_value(reader *r, const key *k, const tp_doc_node *n, void *base
     }
 }
 
-static void read_section(reader *r, const section *sec, const tp_doc_node *map, void *base,
+static void read_section(reader *r, const section *sec, const tp_yamltree_node *map, void *base,
                          const char *path)
 {
     size_t i, j;
     for (i = 0; i < map->n; i++) {
-        const tp_doc_node *kn = map->keys[i];
+        const tp_yamltree_node *kn = map->keys[i];
         const key *k = NULL;
         char kpath[256];
         join(kpath, sizeof kpath, path, kn->text);
@@ -669,24 +671,24 @@ static void read_section(reader *r, const section *sec, const tp_doc_node *map, 
                 key_list(sec, list, sizeof list);
                 snprintf(hint, sizeof hint, "keys here: %s", list);
             }
-            tp_diag_error(r->d, tp_doc_loc(kn), kpath, hint, "unknown key");
+            tp_diag_error(r->d, tp_yamltree_loc(kn), kpath, hint, "unknown key");
             continue;
         }
         if (!map->items[i]) {
-            tp_diag_error(r->d, tp_doc_loc(kn), kpath, NULL, "missing value");
+            tp_diag_error(r->d, tp_yamltree_loc(kn), kpath, NULL, "missing value");
             continue;
         }
         read_value(r, k, map->items[i], base, kpath);
     }
     for (j = 0; j < sec->n; j++) {
         const key *k = &sec->keys[j];
-        if ((k->flags & F_REQ) && !tp_doc_get(map, k->name)) {
+        if ((k->flags & F_REQ) && !tp_yamltree_get(map, k->name)) {
             char kpath[256], hint[128];
             join(kpath, sizeof kpath, path, k->name);
             snprintf(hint, sizeof hint, "add '%s:'%s%s", k->name,
                      k->kind == K_QTY ? ", e.g. " : "",
                      k->kind == K_QTY ? tp_units_example(k->dim) : "");
-            tp_diag_error(r->d, tp_doc_loc(map), kpath, hint, "missing required key");
+            tp_diag_error(r->d, tp_yamltree_loc(map), kpath, hint, "missing required key");
         }
     }
 }
@@ -713,7 +715,7 @@ static void set_default(double *x, double v)
 #define TP_GUARD_TIME_FACTOR 1.5    /* -, safety factor on healthy durations (docs/guard.md) */
 #define TP_GUARD_RISE_FACTOR 0.67   /* -, safety factor on healthy rises (docs/guard.md) */
 
-static void apply_defaults(tp_desc *c)
+static void apply_defaults(tp_description *c)
 {
     size_t i;
     set_default(&c->run.duration, TP_DEFAULT_DURATION);
@@ -762,36 +764,36 @@ static void apply_defaults(tp_desc *c)
     }
 }
 
-static void check_form(reader *r, const tp_doc *doc, tp_desc *c)
+static void check_form(reader *r, const tp_yamltree *doc, tp_description *c)
 {
     static const char *const physical[] = {"room", "bed", "heater", "sensor", "enclosure",
                                            "materials"};
-    const tp_doc_node *root = doc->root;
+    const tp_yamltree_node *root = doc->root;
     size_t i;
     if (c->network.present) {
         c->form = TP_FORM_RAW;
         for (i = 0; i < N(physical); i++) {
-            const tp_doc_node *n = tp_doc_get(root, physical[i]);
+            const tp_yamltree_node *n = tp_yamltree_get(root, physical[i]);
             if (n)
-                tp_diag_error(r->d, tp_doc_loc(n), physical[i],
+                tp_diag_error(r->d, tp_yamltree_loc(n), physical[i],
                               "a file uses either the raw network: form or the physical form",
                               "not allowed together with network:");
         }
         return;
     }
     if (!c->bed.present) {
-        tp_diag_error(r->d, tp_doc_loc(root), NULL,
+        tp_diag_error(r->d, tp_yamltree_loc(root), NULL,
                       "describe the plate with bed:, heater:, room: (see docs/user-guide.md) "
                       "or a network: of nodes and links",
                       "the file describes neither a bed nor a network");
         return;
     }
     c->form = TP_FORM_PHYSICAL;
-    if (!tp_doc_get(root, "room"))
-        tp_diag_error(r->d, tp_doc_loc(root), "room", "add room: {temperature: 20 degC}",
+    if (!tp_yamltree_get(root, "room"))
+        tp_diag_error(r->d, tp_yamltree_loc(root), "room", "add room: {temperature: 20 degC}",
                       "missing required key");
     if (!c->heater.present)
-        tp_diag_error(r->d, tp_doc_loc(root), "heater",
+        tp_diag_error(r->d, tp_yamltree_loc(root), "heater",
                       "add heater: {layer: ..., power: 200 W}", "missing required key");
 }
 
@@ -801,15 +803,15 @@ static void check_form(reader *r, const tp_doc *doc, tp_desc *c)
 /* A setpoint below TP_SETPOINT_MIN, refused before anything is assembled (the convection
  * correlations would otherwise be evaluated at it and warn first, issue 15 item 11). When the
  * value was written in kelvin, the hint offers the same number in degC. */
-static void check_setpoint(reader *r, const tp_doc *doc, const tp_desc *c)
+static void check_setpoint(reader *r, const tp_yamltree *doc, const tp_description *c)
 {
-    const tp_doc_node *n;
+    const tp_yamltree_node *n;
     char hint[160];
     const char *unit = NULL;
     if (!c->control.present || !tp_isset(c->control.setpoint) ||
         c->control.setpoint >= TP_SETPOINT_MIN)
         return;
-    n = tp_doc_find(doc, "control.setpoint");
+    n = tp_yamltree_find(doc, "control.setpoint");
     if (n && n->text) {
         char *end;
         (void)strtod(n->text, &end);
@@ -823,41 +825,43 @@ static void check_setpoint(reader *r, const tp_doc *doc, const tp_desc *c)
     else
         snprintf(hint, sizeof hint, "tepid models heating: a setpoint is above the room, "
                  "e.g. 60 degC");
-    tp_diag_error(r->d, tp_doc_nearest(doc, "control.setpoint"), "control.setpoint", hint,
+    tp_diag_error(r->d, tp_yamltree_nearest(doc, "control.setpoint"), "control.setpoint", hint,
                   "%.6g K (%.2f degC) is implausibly low for a setpoint (limit %.0f K, %.2f "
-                  "degC)", c->control.setpoint, c->control.setpoint - TP_KELVIN_0C,
-                  TP_SETPOINT_MIN, TP_SETPOINT_MIN - TP_KELVIN_0C);
+                  "degC)",
+                  c->control.setpoint, c->control.setpoint - TP_KELVIN_0C, TP_SETPOINT_MIN,
+                  TP_SETPOINT_MIN - TP_KELVIN_0C);
 }
 
 /* Limits that involve two keys, checked with the defaults in place and before anything is
  * allocated for the run (docs/limits.md); and the lower plausibility bound of the room. */
-static void check_run_size(reader *r, const tp_doc *doc, const tp_desc *c)
+static void check_run_size(reader *r, const tp_yamltree *doc, const tp_description *c)
 {
     check_setpoint(r, doc, c);
     if (c->form == TP_FORM_PHYSICAL && c->room.temperature < TP_ROOM_MIN)
-        tp_diag_error(r->d, tp_doc_nearest(doc, "room.temperature"), "room.temperature",
+        tp_diag_error(r->d, tp_yamltree_nearest(doc, "room.temperature"), "room.temperature",
                       "a room is between about -40 and 120 degC",
                       "%.2f degC is implausibly low (limit -50 degC)",
                       c->room.temperature - TP_KELVIN_0C);
     double rows = c->run.duration / c->run.step + 1.0;
     if (!(rows <= TP_MAX_OUTPUT_ROWS))
-        tp_diag_error(r->d, tp_doc_nearest(doc, "run.step"), "run.step",
+        tp_diag_error(r->d, tp_yamltree_nearest(doc, "run.step"), "run.step",
                       "raise run.step (the output interval) or shorten run.duration",
-                      "%.3g output rows (run.duration / run.step) exceed the limit of %.0f",
-                      rows, TP_MAX_OUTPUT_ROWS);
+                      "%.3g output rows (run.duration / run.step) exceed the limit of %.0f", rows,
+                      TP_MAX_OUTPUT_ROWS);
     if (c->control.present && c->control.mode != TP_MODE_OFF &&
         !(c->run.duration / c->control.period <= TP_MAX_TICKS))
-        tp_diag_error(r->d, tp_doc_nearest(doc, "control.period"), "control.period",
+        tp_diag_error(r->d, tp_yamltree_nearest(doc, "control.period"), "control.period",
                       "raise control.period (real controllers sample every 0.1 s to a few "
                       "seconds) or shorten run.duration",
                       "%.3g controller samples (run.duration / control.period) exceed the "
-                      "limit of %.0f", c->run.duration / c->control.period, TP_MAX_TICKS);
+                      "limit of %.0f",
+                      c->run.duration / c->control.period, TP_MAX_TICKS);
 }
 
 /* Keys the chosen mode does not use: the PID keys outside pid, band outside on-off. They are
  * read and kept (a file switched between modes keeps its values) but do nothing, so say so
  * (issue 15 item 12). */
-static void check_mode_keys(reader *r, const tp_doc *doc, const tp_desc *c)
+static void check_mode_keys(reader *r, const tp_yamltree *doc, const tp_description *c)
 {
     static const char *const pid_keys[] = {"kp", "ki", "kd", "derivative_filter",
                                            "duty_levels"};
@@ -868,29 +872,30 @@ static void check_mode_keys(reader *r, const tp_doc *doc, const tp_desc *c)
     if (c->control.mode != TP_MODE_PID)
         for (i = 0; i < N(pid_keys); i++) {
             snprintf(path, sizeof path, "control.%s", pid_keys[i]);
-            if (tp_doc_find(doc, path))
-                tp_diag_warn(r->d, tp_doc_nearest(doc, path), path,
+            if (tp_yamltree_find(doc, path))
+                tp_diag_warn(r->d, tp_yamltree_nearest(doc, path), path,
                              "it applies to mode pid only; remove it or set mode: pid",
-                             "has no effect in mode %s", tp_mode_name(c->control.mode));
+                             "has no effect in mode %s", tp_description_mode_name(c->control.mode));
         }
-    if (c->control.mode != TP_MODE_ONOFF && tp_doc_find(doc, "control.band"))
-        tp_diag_warn(r->d, tp_doc_nearest(doc, "control.band"), "control.band",
+    if (c->control.mode != TP_MODE_ONOFF && tp_yamltree_find(doc, "control.band"))
+        tp_diag_warn(r->d, tp_yamltree_nearest(doc, "control.band"), "control.band",
                      "it applies to mode on-off only; remove it or set mode: on-off",
-                     "has no effect in mode %s", tp_mode_name(c->control.mode));
+                     "has no effect in mode %s", tp_description_mode_name(c->control.mode));
 }
 
-tp_status tp_config_check_gains(const tp_doc *doc, const tp_desc *desc, tp_diag *d)
+tp_status tp_config_check_gains(const tp_yamltree *doc, const tp_description *desc, tp_diag *d)
 {
     const tp_control_spec *c = &desc->control;
     if (!c->present || c->mode != TP_MODE_PID || c->kp > 0 || c->ki > 0)
         return TP_OK;
-    tp_diag_error(d, tp_doc_nearest(doc, "control"), "control.kp",
+    tp_diag_error(d, tp_yamltree_nearest(doc, "control"), "control.kp",
                   "give kp (and usually ki), e.g. kp: 0.05 1/K, ki: 0.001 1/(K.s); "
-                  "'tepid tune' suggests gains", "mode pid needs gains");
+                  "'tepid tune' suggests gains",
+                  "mode pid needs gains");
     return TP_ERR_CONFIG;
 }
 
-tp_status tp_config_read(const tp_doc *doc, tp_desc *desc, tp_diag *d)
+tp_status tp_config_read(const tp_yamltree *doc, tp_description *desc, tp_diag *d)
 {
     reader r = {d};
     int errors0 = d->errors;
@@ -901,30 +906,30 @@ tp_status tp_config_read(const tp_doc *doc, tp_desc *desc, tp_diag *d)
                       "start from one of the files in configs/", "the file is empty");
         return TP_ERR_CONFIG;
     }
-    if (doc->root->kind != TP_DOC_MAP) {
-        tp_diag_error(d, tp_doc_loc(doc->root), NULL, "the top level is a set of keys: values",
+    if (doc->root->kind != TP_YAMLTREE_MAP) {
+        tp_diag_error(d, tp_yamltree_loc(doc->root), NULL, "the top level is a set of keys: values",
                       "expected a section at the top level, found %s",
-                      tp_doc_kind_name(doc->root->kind));
+                      tp_yamltree_kind_name(doc->root->kind));
         return TP_ERR_CONFIG;
     }
     read_section(&r, &top_sec, doc->root, desc, "");
     if (d->errors == errors0)
         check_form(&r, doc, desc);
     if (d->errors != errors0) {
-        tp_desc_clear(desc);
+        tp_config_clear(desc);
         return TP_ERR_CONFIG;
     }
     apply_defaults(desc);
     check_run_size(&r, doc, desc);
     check_mode_keys(&r, doc, desc);
     if (d->errors != errors0) {
-        tp_desc_clear(desc);
+        tp_config_clear(desc);
         return TP_ERR_CONFIG;
     }
     return TP_OK;
 }
 
-tp_status tp_config_read_materials(const tp_doc_node *map, const char *path,
+tp_status tp_config_read_materials(const tp_yamltree_node *map, const char *path,
                                    tp_material_spec **out, size_t *n, tp_diag *d)
 {
     reader r = {d};
@@ -947,25 +952,25 @@ tp_status tp_config_read_materials(const tp_doc_node *map, const char *path,
     return TP_OK;
 }
 
-tp_status tp_config_load(const char *path, const char *const *sets, int n_sets, tp_doc **doc,
-                         tp_desc *desc, tp_diag *d)
+tp_status tp_config_load(const char *path, const char *const *sets, int n_sets, tp_yamltree **doc,
+                         tp_description *desc, tp_diag *d)
 {
     tp_status st;
     int i;
     memset(desc, 0, sizeof *desc);
-    st = tp_doc_load_file(path, doc, d);
+    st = tp_yamltree_load_file(path, doc, d);
     if (st != TP_OK)
         return st;
     for (i = 0; i < n_sets; i++) {
-        st = tp_doc_set(*doc, sets[i], d);
+        st = tp_yamltree_set(*doc, sets[i], d);
         if (st != TP_OK) {
-            tp_doc_destroy(doc);
+            tp_yamltree_destroy(doc);
             return st == TP_ERR_USAGE ? TP_ERR_CONFIG : st;
         }
     }
     st = tp_config_read(*doc, desc, d);
     if (st != TP_OK)
-        tp_doc_destroy(doc);
+        tp_yamltree_destroy(doc);
     return st;
 }
 
@@ -990,7 +995,7 @@ static void clear_section(const section *sec, void *base)
     }
 }
 
-void tp_desc_clear(tp_desc *desc)
+void tp_config_clear(tp_description *desc)
 {
     if (!desc)
         return;
@@ -1028,11 +1033,11 @@ static int copy_section(const section *sec, void *dst, const void *src)
     return rc;
 }
 
-tp_status tp_desc_copy(tp_desc *dst, const tp_desc *src)
+tp_status tp_config_copy(tp_description *dst, const tp_description *src)
 {
     *dst = *src;
     if (copy_section(&top_sec, dst, src) != 0) {
-        tp_desc_clear(dst);
+        tp_config_clear(dst);
         return TP_ERR_NOMEM;
     }
     return TP_OK;
@@ -1114,7 +1119,7 @@ static int resolve_path(const section *sec, void *base, const char *path, double
 
 /* The hint for a path that names no number: a built-in material's property cannot be varied
  * in place (the table is shared and read-only), so say how to make it the config's own. */
-static void key_hint(const tp_desc *desc, const char *path, char *hint, size_t size)
+static void key_hint(const tp_description *desc, const char *path, char *hint, size_t size)
 {
     char id[TP_ID_MAX];
     const char *dot;
@@ -1143,15 +1148,15 @@ static void key_hint(const tp_desc *desc, const char *path, char *hint, size_t s
              "and --free accept its %s", m->id, dot + 1);
 }
 
-tp_status tp_config_key_dim(const tp_desc *desc, const char *path, const char *opt, tp_dim *dim,
-                            tp_diag *d)
+tp_status tp_config_key_dim(const tp_description *desc, const char *path, const char *opt,
+                            tp_dim *dim, tp_diag *d)
 {
     double *where;
     const key *k;
     if (resolve_path(&top_sec, (void *)(uintptr_t)desc, path, &where, &k) != 0) {
         char hint[512];
         key_hint(desc, path, hint, sizeof hint);
-        tp_diag_error(d, opt ? (tp_loc){opt, 1, 1} : tp_loc_none(), path, hint,
+        tp_diag_error(d, opt ? (tp_loc){opt, 1, 1} : tp_diag_loc_none(), path, hint,
                       "not a numeric key of this config");
         return TP_ERR_CONFIG;
     }
@@ -1159,7 +1164,7 @@ tp_status tp_config_key_dim(const tp_desc *desc, const char *path, const char *o
     return TP_OK;
 }
 
-tp_status tp_config_get(const tp_desc *desc, const char *path, double *si)
+tp_status tp_config_get(const tp_description *desc, const char *path, double *si)
 {
     double *where;
     const key *k;
@@ -1169,7 +1174,7 @@ tp_status tp_config_get(const tp_desc *desc, const char *path, double *si)
     return TP_OK;
 }
 
-tp_status tp_config_set(tp_desc *desc, const char *path, double si)
+tp_status tp_config_set(tp_description *desc, const char *path, double si)
 {
     double *where;
     const key *k;
@@ -1179,7 +1184,7 @@ tp_status tp_config_set(tp_desc *desc, const char *path, double si)
     return TP_OK;
 }
 
-tp_status tp_config_check(const tp_desc *desc, const char *path, double si, char *msg,
+tp_status tp_config_check(const tp_description *desc, const char *path, double si, char *msg,
                           size_t msg_size)
 {
     double *where;
@@ -1289,7 +1294,8 @@ static void each_key(const section *sec, size_t first, void *base, const char *p
     }
 }
 
-void tp_config_each_key(const tp_desc *desc, int placeholders, tp_config_key_fn fn, void *ctx)
+void tp_config_each_key(const tp_description *desc, int placeholders, tp_config_key_fn fn,
+                        void *ctx)
 {
     each_key(&top_sec, 0, (void *)(uintptr_t)desc, "", placeholders, fn, ctx);
 }

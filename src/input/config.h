@@ -1,14 +1,14 @@
 /* The config reader: a schema of keys (tables, not strcmp chains) that turns the YAML tree into
- * a tp_desc in SI units, with FILE:LINE:COL errors, did-you-mean hints and defaults; and
+ * a tp_description in SI units, with FILE:LINE:COL errors, did-you-mean hints and defaults; and
  * setting any numeric key by its dotted path (for sweeps and fits). */
 #ifndef TP_CONFIG_H
 #define TP_CONFIG_H
 
-#include "desc.h"
+#include "description.h"
 #include "diag.h"
-#include "doc.h"
 #include "status.h"
 #include "units.h"
+#include "yamltree.h"
 
 #define TP_MAX_LAYERS 16        /* layers in a bed */
 #define TP_MAX_RAW_NODES 100000 /* nodes in a raw network */
@@ -24,43 +24,45 @@
 
 /* Read the description from a parsed document. Every problem is reported to `d`; on error
  * returns TP_ERR_CONFIG and *desc is cleared (nothing to free). Defaults are applied. */
-tp_status tp_config_read(const tp_doc *doc, tp_desc *desc, tp_diag *d);
+tp_status tp_config_read(const tp_yamltree *doc, tp_description *desc, tp_diag *d);
 
 /* A pid controller without gains (kp and ki both 0) is an error for every verb that runs the
  * closed loop; tune, which identifies the plant in open loop, does not ask (tp_session_open_plant).
  * TP_OK or TP_ERR_CONFIG with a message naming control.kp. */
-tp_status tp_config_check_gains(const tp_doc *doc, const tp_desc *desc, tp_diag *d);
+tp_status tp_config_check_gains(const tp_yamltree *doc, const tp_description *desc, tp_diag *d);
 
 /* Load a file, apply the overrides ("key.path=value", n_sets of them) and read it. On success
- * the caller owns *doc and *desc (tp_doc_destroy, tp_desc_clear). */
-tp_status tp_config_load(const char *path, const char *const *sets, int n_sets, tp_doc **doc,
-                         tp_desc *desc, tp_diag *d);
+ * the caller owns *doc and *desc (tp_yamltree_destroy, tp_config_clear). */
+tp_status tp_config_load(const char *path, const char *const *sets, int n_sets, tp_yamltree **doc,
+                         tp_description *desc, tp_diag *d);
 
 /* Read a `materials:` map (used for models/materials.yaml and inline materials). */
-tp_status tp_config_read_materials(const tp_doc_node *map, const char *path,
+tp_status tp_config_read_materials(const tp_yamltree_node *map, const char *path,
                                    tp_material_spec **out, size_t *n, tp_diag *d);
 
-/* Release what a description owns; leaves it cleared. */
-void tp_desc_clear(tp_desc *desc);
+/* Release what a description owns (the lists tp_config_read allocated, as the schema says);
+ * leaves it cleared. Accepts a cleared description. */
+void tp_config_clear(tp_description *desc);
 
-/* Deep copy. Returns TP_ERR_NOMEM on failure (dst then cleared). */
-tp_status tp_desc_copy(tp_desc *dst, const tp_desc *src);
+/* Deep copy, list by list as the schema says. Returns TP_ERR_NOMEM on failure (dst then
+ * cleared). */
+tp_status tp_config_copy(tp_description *dst, const tp_description *src);
 
 /* The dimension of the numeric key at `path` (e.g. "heater.power", "bed.layers.plate.contact",
  * "bed.size.0"). Returns TP_ERR_CONFIG with a message in `d` when the path names no number, at
  * the option `opt` that gave the path (e.g. "--vary"; NULL: no position), with a hint (for a
  * built-in material's property: copy the material into materials: first). */
-tp_status tp_config_key_dim(const tp_desc *desc, const char *path, const char *opt, tp_dim *dim,
-                            tp_diag *d);
+tp_status tp_config_key_dim(const tp_description *desc, const char *path, const char *opt,
+                            tp_dim *dim, tp_diag *d);
 
 /* Read or set the numeric key at `path` in SI units (same paths as tp_config_key_dim). */
-tp_status tp_config_get(const tp_desc *desc, const char *path, double *si);
-tp_status tp_config_set(tp_desc *desc, const char *path, double si);
+tp_status tp_config_get(const tp_description *desc, const char *path, double *si);
+tp_status tp_config_set(tp_description *desc, const char *path, double si);
 
 /* Check an SI value against the bounds the schema gives the key at `path` (positive,
  * non-negative, a fraction, whole, the plausibility limit), as the reader checks a file's
  * values. TP_OK, or TP_ERR_CONFIG with a one-line reason in msg. Thread-safe (reads only). */
-tp_status tp_config_check(const tp_desc *desc, const char *path, double si, char *msg,
+tp_status tp_config_check(const tp_description *desc, const char *path, double si, char *msg,
                           size_t msg_size);
 
 /* The keys of the schema, for completion and the manual pages. */
@@ -84,6 +86,7 @@ typedef void (*tp_config_key_fn)(const tp_config_key_info *key, void *ctx);
  * have one and by 0-based index otherwise. With desc NULL and `placeholders` set, an item is
  * named "ID" (or "N" where items have no id, as network.links); with desc NULL and no
  * placeholders, list items are left out. Reads only. */
-void tp_config_each_key(const tp_desc *desc, int placeholders, tp_config_key_fn fn, void *ctx);
+void tp_config_each_key(const tp_description *desc, int placeholders, tp_config_key_fn fn,
+                        void *ctx);
 
 #endif

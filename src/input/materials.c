@@ -8,10 +8,10 @@
 #include <string.h>
 
 #include "config.h"
-#include "doc.h"
+#include "yamltree.h"
 
-extern const unsigned char tp_materials_yaml[];
-extern const size_t tp_materials_yaml_len;
+extern const unsigned char tp_materials_data[];
+extern const size_t tp_materials_data_len;
 
 static pthread_mutex_t lock = PTHREAD_MUTEX_INITIALIZER;
 static tp_material_spec *table;
@@ -23,11 +23,11 @@ tp_status tp_materials_builtin(const tp_material_spec **items, size_t *n, tp_dia
     tp_status st = TP_OK;
     pthread_mutex_lock(&lock);
     if (!loaded) {
-        tp_doc *doc = NULL;
-        st = tp_doc_load_text("models/materials.yaml", (const char *)tp_materials_yaml,
-                              tp_materials_yaml_len, &doc, d);
+        tp_yamltree *doc = NULL;
+        st = tp_yamltree_load_text("models/materials.yaml", (const char *)tp_materials_data,
+                                   tp_materials_data_len, &doc, d);
         if (st == TP_OK) {
-            const tp_doc_node *m = tp_doc_get(doc->root, "materials");
+            const tp_yamltree_node *m = tp_yamltree_get(doc->root, "materials");
             if (!m) {
                 tp_diag_error(d, (tp_loc){"models/materials.yaml", 1, 1}, "materials", NULL,
                               "the material table has no materials: section");
@@ -36,7 +36,7 @@ tp_status tp_materials_builtin(const tp_material_spec **items, size_t *n, tp_dia
                 st = tp_config_read_materials(m, "materials", &table, &table_n, d);
             }
         }
-        tp_doc_destroy(&doc);
+        tp_yamltree_destroy(&doc);
         loaded = st == TP_OK;
     }
     pthread_mutex_unlock(&lock);
@@ -47,7 +47,7 @@ tp_status tp_materials_builtin(const tp_material_spec **items, size_t *n, tp_dia
     return st;
 }
 
-const tp_material_spec *tp_materials_find(const tp_desc *desc, const char *id)
+const tp_material_spec *tp_materials_find(const tp_description *desc, const char *id)
 {
     size_t i;
     for (i = 0; desc && i < desc->n_materials; i++)
@@ -82,7 +82,7 @@ static const struct {
     {"pei-sheet", "polyetherimide-sheet"},
 };
 
-void tp_materials_hint(const tp_desc *desc, const char *id, char *hint, size_t size)
+void tp_materials_hint(const tp_description *desc, const char *id, char *hint, size_t size)
 {
     size_t i;
     const char *best = NULL;
@@ -114,7 +114,7 @@ void tp_materials_hint(const tp_desc *desc, const char *id, char *hint, size_t s
                              "materials: in this file");
 }
 
-double tp_material_k_through(const tp_material_spec *m)
+double tp_materials_k_through(const tp_material_spec *m)
 {
     return tp_isset(m->conductivity_through) ? m->conductivity_through : m->conductivity;
 }

@@ -5,7 +5,7 @@
 
 #include <stddef.h>
 
-#include "desc.h"
+#include "description.h"
 #include "diag.h"
 #include "status.h"
 
@@ -15,13 +15,13 @@ tp_status tp_materials_builtin(const tp_material_spec **items, size_t *n, tp_dia
 
 /* Look up a material: the config's own entries first, then the built-in table. NULL when
  * neither has it (call tp_materials_builtin first to load the table). */
-const tp_material_spec *tp_materials_find(const tp_desc *desc, const char *id);
+const tp_material_spec *tp_materials_find(const tp_description *desc, const char *id);
 
 /* A "did you mean" hint for an unknown material id into `hint`. */
-void tp_materials_hint(const tp_desc *desc, const char *id, char *hint, size_t size);
+void tp_materials_hint(const tp_description *desc, const char *id, char *hint, size_t size);
 
 /* Through-thickness conductivity (the in-plane value when the material is isotropic). */
-double tp_material_k_through(const tp_material_spec *m);
+double tp_materials_k_through(const tp_material_spec *m);
 
 /* Free the parsed built-in table (at exit). */
 void tp_materials_shutdown(void);

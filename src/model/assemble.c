@@ -11,16 +11,17 @@
 #include "config.h"
 #include "plate.h"
 
-/* tp_doc_nearest for a printf-formatted path. */
-static tp_loc where(const tp_doc *doc, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
-static tp_loc where(const tp_doc *doc, const char *fmt, ...)
+/* tp_yamltree_nearest for a printf-formatted path. */
+static tp_loc where(const tp_yamltree *doc, const char *fmt, ...)
+    __attribute__((format(printf, 2, 3)));
+static tp_loc where(const tp_yamltree *doc, const char *fmt, ...)
 {
     char path[256];
     va_list ap;
     va_start(ap, fmt);
     vsnprintf(path, sizeof path, fmt, ap);
     va_end(ap);
-    return tp_doc_nearest(doc, path);
+    return tp_yamltree_nearest(doc, path);
 }
 
 /* A did-you-mean hint among the network's node ids. */
@@ -49,7 +50,7 @@ static void node_hint(const tp_network *net, const char *id, char *hint, size_t 
     }
 }
 
-static int lookup_node(const tp_network *net, const tp_doc *doc, tp_diag *d, const char *id,
+static int lookup_node(const tp_network *net, const tp_yamltree *doc, tp_diag *d, const char *id,
                        const char *path)
 {
     char hint[256];
@@ -61,7 +62,7 @@ static int lookup_node(const tp_network *net, const tp_doc *doc, tp_diag *d, con
     return -1;
 }
 
-static tp_status raw_nodes(const tp_raw *raw, const tp_doc *doc, tp_network *net, tp_diag *d)
+static tp_status raw_nodes(const tp_raw *raw, const tp_yamltree *doc, tp_network *net, tp_diag *d)
 {
     size_t i;
     int errors0 = d->errors;
@@ -104,7 +105,7 @@ static tp_status raw_nodes(const tp_raw *raw, const tp_doc *doc, tp_network *net
     return d->errors == errors0 ? TP_OK : TP_ERR_CONFIG;
 }
 
-static tp_status raw_links(const tp_raw *raw, const tp_doc *doc, tp_network *net, tp_diag *d)
+static tp_status raw_links(const tp_raw *raw, const tp_yamltree *doc, tp_network *net, tp_diag *d)
 {
     size_t i;
     int errors0 = d->errors;
@@ -157,7 +158,7 @@ static tp_status raw_links(const tp_raw *raw, const tp_doc *doc, tp_network *net
     return d->errors == errors0 ? TP_OK : TP_ERR_CONFIG;
 }
 
-static tp_status raw_sources(const tp_raw *raw, const tp_doc *doc, tp_network *net, tp_diag *d)
+static tp_status raw_sources(const tp_raw *raw, const tp_yamltree *doc, tp_network *net, tp_diag *d)
 {
     size_t i;
     int errors0 = d->errors;
@@ -212,7 +213,7 @@ static tp_status raw_sources(const tp_raw *raw, const tp_doc *doc, tp_network *n
 }
 
 /* Controller wiring shared by both forms. */
-static tp_status attach_control(const tp_desc *desc, const tp_doc *doc, tp_network *net,
+static tp_status attach_control(const tp_description *desc, const tp_yamltree *doc, tp_network *net,
                                 tp_diag *d)
 {
     const tp_control_spec *c = &desc->control;
@@ -249,15 +250,15 @@ static tp_status attach_control(const tp_desc *desc, const tp_doc *doc, tp_netwo
                       "the controller reads the fixed node '%s', which never changes", c->sensor);
         return TP_ERR_CONFIG;
     }
-    if (tp_mode_holds(c->mode) && !tp_isset(c->setpoint)) {
+    if (tp_description_mode_holds(c->mode) && !tp_isset(c->setpoint)) {
         tp_diag_error(d, where(doc, "control"), "control.setpoint", "add setpoint: 100 degC",
-                      "mode %s needs a setpoint", tp_mode_name(c->mode));
+                      "mode %s needs a setpoint", tp_description_mode_name(c->mode));
         return TP_ERR_CONFIG;
     }
     for (i = 0; i < net->n_nodes; i++)
         if (net->nodes[i].capacity <= 0 && net->nodes[i].t0 < coldest)
             coldest = net->nodes[i].t0;
-    if (tp_isset(c->setpoint) && tp_mode_holds(c->mode) && c->setpoint < coldest) {
+    if (tp_isset(c->setpoint) && tp_description_mode_holds(c->mode) && c->setpoint < coldest) {
         tp_diag_error(d, where(doc, "control.setpoint"), "control.setpoint",
                       "tepid models heating: the setpoint must be above the room",
                       "the setpoint %.2f degC is below the room temperature %.2f degC",
@@ -281,7 +282,7 @@ static tp_status attach_control(const tp_desc *desc, const tp_doc *doc, tp_netwo
 }
 
 /* Warnings: isolated nodes, and powered nodes with no path to a fixed node. */
-static void check_graph(const tp_network *net, tp_diag *d, const tp_doc *doc)
+static void check_graph(const tp_network *net, tp_diag *d, const tp_yamltree *doc)
 {
     int n = net->n_nodes, i;
     int *degree = calloc((size_t)n + 1, sizeof *degree);
@@ -316,7 +317,7 @@ static void check_graph(const tp_network *net, tp_diag *d, const tp_doc *doc)
 
 /* The heater's series path (circuit.h) into its source; a gridded plate's lumped network too,
  * whose steady states start the grid's. */
-static tp_status attach_circuit(const tp_desc *desc, const tp_doc *doc, tp_network *net,
+static tp_status attach_circuit(const tp_description *desc, const tp_yamltree *doc, tp_network *net,
                                 tp_diag *d)
 {
     int src = tp_network_heater(net);
@@ -338,7 +339,8 @@ static tp_status attach_circuit(const tp_desc *desc, const tp_doc *doc, tp_netwo
     return TP_OK;
 }
 
-tp_status tp_assemble(const tp_desc *desc, const tp_doc *doc, tp_diag *d, tp_network **out)
+tp_status tp_assemble(const tp_description *desc, const tp_yamltree *doc, tp_diag *d,
+                      tp_network **out)
 {
     tp_network *net;
     tp_status st;

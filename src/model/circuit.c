@@ -10,18 +10,18 @@
 #define TP_KELVIN_20C (TP_KELVIN_0C + 20.0) /* K, the reference of the copper data */
 #define TP_PI 3.14159265358979323846
 
-double tp_awg_area(double n)
+double tp_circuit_awg_area(double n)
 {
     double d = 0.127e-3 * pow(92.0, (36.0 - n) / 39.0);
     return TP_PI * d * d / 4.0;
 }
 
-double tp_copper_resistance(double area, double length, double t)
+double tp_circuit_copper_resistance(double area, double length, double t)
 {
     return TP_COPPER_RHO20 * (1.0 + TP_COPPER_ALPHA20 * (t - TP_KELVIN_20C)) * length / area;
 }
 
-tp_status tp_circuit_series(const tp_desc *desc, double heater_v, tp_loc wiring_at,
+tp_status tp_circuit_series(const tp_description *desc, double heater_v, tp_loc wiring_at,
                             tp_circuit *c, tp_diag *d)
 {
     memset(c, 0, sizeof *c);
@@ -35,7 +35,7 @@ tp_status tp_circuit_series(const tp_desc *desc, double heater_v, tp_loc wiring_
         c->r_output = desc->supply.output_resistance;
     if (desc->wiring.present) {
         double area = tp_isset(desc->wiring.cross_section) ? desc->wiring.cross_section
-                      : tp_isset(desc->wiring.awg)         ? tp_awg_area(desc->wiring.awg)
+                      : tp_isset(desc->wiring.awg)         ? tp_circuit_awg_area(desc->wiring.awg)
                                                            : TP_UNSET;
         if (!isfinite(area)) {
             tp_diag_error(d, wiring_at, "wiring", "give cross_section: 1.5 mm2 or awg: 16",
@@ -43,7 +43,7 @@ tp_status tp_circuit_series(const tp_desc *desc, double heater_v, tp_loc wiring_
             memset(c, 0, sizeof *c);
             return TP_ERR_CONFIG;
         }
-        c->r_wire = tp_copper_resistance(area, 2.0 * desc->wiring.length, TP_KELVIN_20C);
+        c->r_wire = tp_circuit_copper_resistance(area, 2.0 * desc->wiring.length, TP_KELVIN_20C);
         if (tp_isset(desc->wiring.switch_resistance))
             c->r_switch = desc->wiring.switch_resistance;
     }

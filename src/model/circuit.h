@@ -5,7 +5,7 @@
 #ifndef TP_CIRCUIT_H
 #define TP_CIRCUIT_H
 
-#include "desc.h"
+#include "description.h"
 #include "diag.h"
 #include "status.h"
 
@@ -17,10 +17,10 @@
 
 /* Cross-section of a solid conductor of American Wire Gauge `n` (ASTM B258: d = 0.127 mm x
  * 92^((36 - n)/39)), m2. */
-double tp_awg_area(double n);
+double tp_circuit_awg_area(double n);
 
 /* Resistance of `length` m of copper of cross-section `area` m2 at `t` kelvin, ohm. */
-double tp_copper_resistance(double area, double length, double t);
+double tp_circuit_copper_resistance(double area, double length, double t);
 
 /* The series path of the heater, ohm. */
 typedef struct tp_circuit {
@@ -35,7 +35,7 @@ typedef struct tp_circuit {
 /* The series path of a heater fed at `heater_v` volts (NaN: a constant-power heater, which has
  * no circuit) from the description's heater:, supply: and wiring: sections. TP_ERR_CONFIG, with
  * the message at `wiring_at`, when the wiring has no cross-section; *c is then zero. */
-tp_status tp_circuit_series(const tp_desc *desc, double heater_v, tp_loc wiring_at,
+tp_status tp_circuit_series(const tp_description *desc, double heater_v, tp_loc wiring_at,
                             tp_circuit *c, tp_diag *d);
 
 #endif

@@ -9,7 +9,7 @@ static double clamp(double x, double lo, double hi)
     return x < lo ? lo : x > hi ? hi : x;
 }
 
-void tp_control_start(const tp_control *c, tp_ctrl_state *s)
+void tp_control_start(const tp_control *c, tp_control_state *s)
 {
     (void)c;
     s->ticks = 0;
@@ -20,7 +20,7 @@ void tp_control_start(const tp_control *c, tp_ctrl_state *s)
     s->duty = 0.0;
 }
 
-double tp_control_tick(const tp_control *c, tp_ctrl_state *s, double reading)
+double tp_control_tick(const tp_control *c, tp_control_state *s, double reading)
 {
     double e, d_term, u;
     switch (c->mode) {
@@ -72,20 +72,20 @@ double tp_control_tick(const tp_control *c, tp_ctrl_state *s, double reading)
     return s->duty;
 }
 
-double tp_thermistor_resistance(const tp_reading_model *m, double t)
+double tp_control_thermistor_resistance(const tp_control_reading_model *m, double t)
 {
     return m->r25 * exp(m->beta * (1.0 / t - 1.0 / TP_KELVIN_25C));
 }
 
-double tp_thermistor_temperature(const tp_reading_model *m, double r)
+double tp_control_thermistor_temperature(const tp_control_reading_model *m, double r)
 {
     return 1.0 / (1.0 / TP_KELVIN_25C + log(r / m->r25) / m->beta);
 }
 
-long tp_adc_code(const tp_reading_model *m, double t)
+long tp_control_adc_code(const tp_control_reading_model *m, double t)
 {
     /* Divider: `series` from the supply to the ADC input, the thermistor from there to ground. */
-    double rt = tp_thermistor_resistance(m, t);
+    double rt = tp_control_thermistor_resistance(m, t);
     /* supply rt / (rt + series), written so that rt = inf (a sensor below about 25 K with a
      * large beta: exp overflows) gives the supply rather than inf/inf = NaN, whose conversion
      * to long below would be undefined. */
@@ -95,14 +95,14 @@ long tp_adc_code(const tp_reading_model *m, double t)
     return (long)clamp(code, 0.0, full - 1.0);
 }
 
-double tp_reading(const tp_reading_model *m, double t)
+double tp_control_reading(const tp_control_reading_model *m, double t)
 {
     double r, v, full;
     long code;
     if (!m->thermistor)
         return t + m->offset;
     full = ldexp(1.0, m->adc_bits);
-    code = tp_adc_code(m, t);
+    code = tp_control_adc_code(m, t);
     /* The firmware's view: the code's lower edge as a voltage, back through the divider and
      * the Beta equation. Codes at the ends saturate (open or shorted sensor). */
     if (code < 1)
@@ -111,5 +111,5 @@ double tp_reading(const tp_reading_model *m, double t)
     if (v >= m->supply)
         v = m->supply * (1.0 - 1.0 / full);
     r = m->series * v / (m->supply - v);
-    return tp_thermistor_temperature(m, r) + m->offset;
+    return tp_control_thermistor_temperature(m, r) + m->offset;
 }

@@ -33,7 +33,8 @@
 enum natural_branch { NAT_UP_LAMINAR, NAT_UP_TURBULENT, NAT_DOWN, NAT_VERTICAL, NAT_COUNT };
 enum forced_branch { FORCED_NONE, FORCED_LAMINAR, FORCED_MIXED, FORCED_COUNT };
 
-/* Method names reported in tp_conv_info: natural branch, then forced branch and combination. */
+/* Method names reported in tp_convection_info: natural branch, then forced branch and combination.
+ */
 #define S_UP_LAM                                                                                   \
     "upper face of hot (lower of cold) plate, Nu = 0.54 Ra^1/4 (Incropera 7th ed. Eq. 9.30)"
 #define S_UP_TURB                                                                                  \
@@ -67,7 +68,7 @@ static void set_flag(int *out_of_range, int value)
         *out_of_range = value;
 }
 
-double tp_nu_horizontal_up(double ra, int *out_of_range)
+double tp_convection_nu_horizontal_up(double ra, int *out_of_range)
 {
     if (!(ra > 0.0))
         ra = 0.0;
@@ -77,7 +78,7 @@ double tp_nu_horizontal_up(double ra, int *out_of_range)
     return C_UP_TURBULENT * cbrt(ra);
 }
 
-double tp_nu_horizontal_down(double ra, int *out_of_range)
+double tp_convection_nu_horizontal_down(double ra, int *out_of_range)
 {
     if (!(ra > 0.0))
         ra = 0.0;
@@ -85,7 +86,7 @@ double tp_nu_horizontal_down(double ra, int *out_of_range)
     return C_DOWN * power(ra, 0.2);
 }
 
-double tp_nu_vertical_churchill_chu(double ra, double pr, int *out_of_range)
+double tp_convection_nu_vertical_churchill_chu(double ra, double pr, int *out_of_range)
 {
     double root;
     if (!(ra > 0.0))
@@ -101,7 +102,7 @@ double tp_nu_vertical_churchill_chu(double ra, double pr, int *out_of_range)
     return root * root;
 }
 
-double tp_nu_flat_plate_forced(double re, double pr, int *out_of_range)
+double tp_convection_nu_flat_plate_forced(double re, double pr, int *out_of_range)
 {
     if (!(re > 0.0))
         re = 0.0;
@@ -117,7 +118,7 @@ double tp_nu_flat_plate_forced(double re, double pr, int *out_of_range)
     return (C_TURBULENT * power(re, 0.8) - A_MIXED) * cbrt(pr);
 }
 
-double tp_conv_mixed(double h_forced, double h_natural)
+double tp_convection_mixed(double h_forced, double h_natural)
 {
     double big, ratio;
     h_forced = fmax(h_forced, 0.0); /* fmax(NaN, 0) is 0 */
@@ -132,7 +133,7 @@ double tp_conv_mixed(double h_forced, double h_natural)
     return big * cbrt(1.0 + ratio * ratio * ratio);
 }
 
-double tp_length_horizontal(double width, double depth)
+double tp_convection_length_horizontal(double width, double depth)
 {
     if (!(width > 0.0) || !(depth > 0.0))
         return 0.0;
@@ -142,13 +143,13 @@ double tp_length_horizontal(double width, double depth)
 
 static double clamp_length(double length, int *out_of_range)
 {
-    if (!(length >= TP_CONV_LENGTH_MIN)) {
+    if (!(length >= TP_CONVECTION_LENGTH_MIN)) {
         *out_of_range = 1;
-        return TP_CONV_LENGTH_MIN;
+        return TP_CONVECTION_LENGTH_MIN;
     }
-    if (length > TP_CONV_LENGTH_MAX) {
+    if (length > TP_CONVECTION_LENGTH_MAX) {
         *out_of_range = 1;
-        return TP_CONV_LENGTH_MAX;
+        return TP_CONVECTION_LENGTH_MAX;
     }
     return length;
 }
@@ -175,7 +176,8 @@ static enum natural_branch natural_branch(tp_face face, int hotter, double ra)
     return ra < TP_RA_UP_SWITCH ? NAT_UP_LAMINAR : NAT_UP_TURBULENT;
 }
 
-double tp_conv_h(const tp_conv_case *c, double t_s, double t_inf, tp_conv_info *info)
+double tp_convection_h(const tp_convection_case *c, double t_s, double t_inf,
+                       tp_convection_info *info)
 {
     tp_air air;
     int oor = 0, flag = 0;
@@ -196,13 +198,13 @@ double tp_conv_h(const tp_conv_case *c, double t_s, double t_inf, tp_conv_info *
     switch (nb) {
     case NAT_UP_LAMINAR:
     case NAT_UP_TURBULENT:
-        nu_n = tp_nu_horizontal_up(ra, &flag);
+        nu_n = tp_convection_nu_horizontal_up(ra, &flag);
         break;
     case NAT_DOWN:
-        nu_n = tp_nu_horizontal_down(ra, &flag);
+        nu_n = tp_convection_nu_horizontal_down(ra, &flag);
         break;
     default:
-        nu_n = tp_nu_vertical_churchill_chu(ra, air.pr, &flag);
+        nu_n = tp_convection_nu_vertical_churchill_chu(ra, air.pr, &flag);
         break;
     }
     oor |= flag;
@@ -211,12 +213,12 @@ double tp_conv_h(const tp_conv_case *c, double t_s, double t_inf, tp_conv_info *
     if (c->airflow != 0.0) {
         double flow_length = clamp_length(c->flow_length, &oor);
         re = cap(fabs(c->airflow) * flow_length / air.nu);
-        nu_f = tp_nu_flat_plate_forced(re, air.pr, &flag);
+        nu_f = tp_convection_nu_flat_plate_forced(re, air.pr, &flag);
         oor |= flag;
         h_f = nu_f * air.k / flow_length;
         fb = re < TP_RE_CRITICAL ? FORCED_LAMINAR : FORCED_MIXED;
     }
-    h = fb == FORCED_NONE ? h_n : tp_conv_mixed(h_f, h_n);
+    h = fb == FORCED_NONE ? h_n : tp_convection_mixed(h_f, h_n);
 
     if (info) {
         info->ra = ra;

@@ -53,8 +53,8 @@ typedef struct layer_geo {
 } layer_geo;
 
 typedef struct refine {
-    const tp_desc *desc;
-    const tp_doc *doc;
+    const tp_description *desc;
+    const tp_yamltree *doc;
     const tp_network *lumped;
     tp_network *net;
     tp_diag *d;
@@ -67,7 +67,7 @@ typedef struct refine {
     tp_net_grid *grid;
 } refine;
 
-int tp_grid_wanted(const tp_desc *desc)
+int tp_grid_wanted(const tp_description *desc)
 {
     return desc->form == TP_FORM_PHYSICAL && tp_isset(desc->bed.grid[0]) &&
            tp_isset(desc->bed.grid[1]);
@@ -153,7 +153,7 @@ static double gap_area(const refine *r, int k, int i, int j)
 
 static tp_status geometry(refine *r)
 {
-    const tp_desc *desc = r->desc;
+    const tp_description *desc = r->desc;
     const tp_bed *bed = &desc->bed;
     double W = bed->size[0], D = bed->size[1];
     int k, i, j;
@@ -167,7 +167,7 @@ static tp_status geometry(refine *r)
         g->t = ly->thickness;
         if (g->w > W * (1.0 + 1e-12) || g->d > D * (1.0 + 1e-12)) {
             snprintf(path, sizeof path, "bed.layers.%s.size", ly->id);
-            tp_diag_error(r->d, tp_doc_nearest(r->doc, path), path,
+            tp_diag_error(r->d, tp_yamltree_nearest(r->doc, path), path,
                           "with bed.grid the cells span bed.size: make bed.size the largest "
                           "layer's plan",
                           "layer '%s' (%g x %g mm) is larger than the bed (%g x %g mm)", ly->id,
@@ -176,7 +176,7 @@ static tp_status geometry(refine *r)
         }
         if (strlen(ly->id) + 10 >= TP_ID_MAX) {
             snprintf(path, sizeof path, "bed.layers.%d.id", k);
-            tp_diag_error(r->d, tp_doc_nearest(r->doc, path), path,
+            tp_diag_error(r->d, tp_yamltree_nearest(r->doc, path), path,
                           "cells are named <layer>:<column>:<row>; use a shorter layer id",
                           "with bed.grid a layer id has at most %d characters", TP_ID_MAX - 11);
             continue;
@@ -403,11 +403,11 @@ static tp_status sensor_link(refine *r, const tp_net_link *l, int host)
     char suffix[32];
     if (x < g->x.lo - TP_ON_EDGE * r->dx || x > g->x.hi + TP_ON_EDGE * r->dx ||
         y < g->y.lo - TP_ON_EDGE * r->dy || y > g->y.hi + TP_ON_EDGE * r->dy) {
-        tp_diag_error(r->d, tp_doc_nearest(r->doc, "sensor.position"), "sensor.position",
+        tp_diag_error(r->d, tp_yamltree_nearest(r->doc, "sensor.position"), "sensor.position",
                       "the position is measured from the bed's lower-left corner",
                       "the sensor at [%g mm, %g mm] lies outside its host layer '%s' "
-                      "([%g, %g] x [%g, %g] mm)", x * 1e3, y * 1e3,
-                      r->desc->bed.layers[host].id, g->x.lo * 1e3, g->x.hi * 1e3,
+                      "([%g, %g] x [%g, %g] mm)",
+                      x * 1e3, y * 1e3, r->desc->bed.layers[host].id, g->x.lo * 1e3, g->x.hi * 1e3,
                       g->y.lo * 1e3, g->y.hi * 1e3);
         return TP_ERR_CONFIG;
     }
@@ -507,7 +507,7 @@ static int heater_map(refine *r, int k, int *nodes, double *w)
     if (pat->present) {
         b = pat->border;
         if (2.0 * b >= fmin(g->w, g->d)) {
-            tp_diag_error(r->d, tp_doc_nearest(r->doc, "heater.pattern.border"),
+            tp_diag_error(r->d, tp_yamltree_nearest(r->doc, "heater.pattern.border"),
                           "heater.pattern.border",
                           "the band runs inside the heater layer's outline",
                           "a border of %g mm leaves nothing inside the %g x %g mm heater layer",
@@ -607,7 +607,7 @@ static tp_status make_grid(refine *r)
     return TP_OK;
 }
 
-tp_status tp_grid_refine(const tp_desc *desc, const tp_doc *doc, tp_network **owned,
+tp_status tp_grid_refine(const tp_description *desc, const tp_yamltree *doc, tp_network **owned,
                          tp_network *net, tp_diag *d)
 {
     const tp_network *lumped = *owned;

@@ -4,14 +4,14 @@
 #ifndef TP_GRID_H
 #define TP_GRID_H
 
-#include "desc.h"
+#include "description.h"
 #include "diag.h"
-#include "doc.h"
 #include "network.h"
 #include "status.h"
+#include "yamltree.h"
 
 /* Nonzero when the description asks for a gridded plate (physical form with bed.grid). */
-int tp_grid_wanted(const tp_desc *desc);
+int tp_grid_wanted(const tp_description *desc);
 
 /* Build the gridded network of `desc` into the empty network `net` from `lumped`, the lumped
  * lowering of the same description (tp_plate_lower without a grid: one node per layer first,
@@ -24,7 +24,7 @@ int tp_grid_wanted(const tp_desc *desc);
  * NULL) as the starting point of steady states. Input errors (a layer beyond the bed, a sensor
  * outside its layer, a pattern border too wide, layer ids too long for cell ids) go to `d` and
  * return TP_ERR_CONFIG; `net` is then incomplete (destroy it). */
-tp_status tp_grid_refine(const tp_desc *desc, const tp_doc *doc, tp_network **lumped,
+tp_status tp_grid_refine(const tp_description *desc, const tp_yamltree *doc, tp_network **lumped,
                          tp_network *net, tp_diag *d);
 
 /* Column and row of the cell at (x, y) m from the bed's lower-left corner, clamped to the grid. */

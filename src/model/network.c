@@ -37,12 +37,12 @@ static const char *const path_names[TP_PATH_COUNT] = {
     "internal", "top_convection", "top_radiation", "bottom_convection", "bottom_radiation",
     "edges", "mounts", "walls", "other"};
 
-const char *tp_law_name(tp_law law)
+const char *tp_network_law_name(tp_law law)
 {
     return (unsigned)law < 3 ? law_names[law] : "?";
 }
 
-const char *tp_loss_path_name(tp_loss_path p)
+const char *tp_network_loss_path_name(tp_loss_path p)
 {
     return (unsigned)p < TP_PATH_COUNT ? path_names[p] : "?";
 }
@@ -438,7 +438,7 @@ tp_status tp_network_spread_source(tp_network *net, tp_net_source *src, const in
     return TP_OK;
 }
 
-int tp_network_add_group(tp_network *net, const tp_conv_case *conv, int sink)
+int tp_network_add_group(tp_network *net, const tp_convection_case *conv, int sink)
 {
     tp_net_group *g;
     if (reserve(&net->groups, net->n_groups, &net->cap_groups, 16,
@@ -519,7 +519,7 @@ double tp_network_room(const tp_network *net)
 int tp_network_holds(const tp_network *net)
 {
     return net->has_control && isfinite(net->control.setpoint) &&
-           tp_mode_holds(net->control.mode);
+           tp_description_mode_holds(net->control.mode);
 }
 
 int *tp_network_grounded(const tp_network *net)
@@ -817,18 +817,21 @@ void tp_network_temperatures(const tp_network *net, const double *y, double *t)
 #define TP_SECANT_MIN 1.0 /* K */
 static void group_coefficients(tp_net_group *gr, double tm, double tb, int derivs)
 {
-    gr->h = tp_conv_h(&gr->conv, tm, tb, NULL);
+    gr->h = tp_convection_h(&gr->conv, tm, tb, NULL);
     if (derivs == 1) {
-        gr->dh_ds = (tp_conv_h(&gr->conv, tm + TP_DH_STEP, tb, NULL) -
-                     tp_conv_h(&gr->conv, tm - TP_DH_STEP, tb, NULL)) / (2.0 * TP_DH_STEP);
-        gr->dh_db = (tp_conv_h(&gr->conv, tm, tb + TP_DH_STEP, NULL) -
-                     tp_conv_h(&gr->conv, tm, tb - TP_DH_STEP, NULL)) / (2.0 * TP_DH_STEP);
+        gr->dh_ds = (tp_convection_h(&gr->conv, tm + TP_DH_STEP, tb, NULL) -
+                     tp_convection_h(&gr->conv, tm - TP_DH_STEP, tb, NULL)) /
+                    (2.0 * TP_DH_STEP);
+        gr->dh_db = (tp_convection_h(&gr->conv, tm, tb + TP_DH_STEP, NULL) -
+                     tp_convection_h(&gr->conv, tm, tb - TP_DH_STEP, NULL)) /
+                    (2.0 * TP_DH_STEP);
     } else if (derivs == 2) {
         double dt = tm - tb;
-        gr->h_secant = fabs(dt) < TP_SECANT_MIN
-                           ? tp_conv_h(&gr->conv, tb + (dt < 0 ? -TP_SECANT_MIN : TP_SECANT_MIN),
-                                       tb, NULL)
-                           : gr->h;
+        gr->h_secant =
+            fabs(dt) < TP_SECANT_MIN
+                ? tp_convection_h(&gr->conv, tb + (dt < 0 ? -TP_SECANT_MIN : TP_SECANT_MIN), tb,
+                                  NULL)
+                : gr->h;
     }
 }
 
@@ -859,7 +862,7 @@ static double link_q(const tp_network *net, int i, const double *t)
 
 static double convective_flow(const tp_net_link *l, double ta, double tb)
 {
-    double h = l->correlated ? tp_conv_h(&l->conv, ta, tb, NULL) : l->h;
+    double h = l->correlated ? tp_convection_h(&l->conv, ta, tb, NULL) : l->h;
     return h * l->area * l->scale * (ta - tb);
 }
 
@@ -886,7 +889,7 @@ double tp_network_link_flow(const tp_net_link *l, double ta, double tb, double *
         break;
     case TP_LAW_RADIATION:
         k = l->area * l->scale;
-        q = tp_rad_flux(l->eps, ta, tb) * k;
+        q = tp_radiation_flux(l->eps, ta, tb) * k;
         da = 4.0 * l->eps * TP_STEFAN_BOLTZMANN * k * ta * ta * ta;
         db = -4.0 * l->eps * TP_STEFAN_BOLTZMANN * k * tb * tb * tb;
         break;
@@ -906,11 +909,11 @@ double tp_network_link_conductance(const tp_net_link *l, double ta, double tb, d
         g = l->g;
         break;
     case TP_LAW_CONVECTION:
-        hh = (l->correlated ? tp_conv_h(&l->conv, ta, tb, NULL) : l->h) * l->scale;
+        hh = (l->correlated ? tp_convection_h(&l->conv, ta, tb, NULL) : l->h) * l->scale;
         g = hh * l->area;
         break;
     case TP_LAW_RADIATION:
-        hh = tp_rad_h(l->eps, ta, tb) * l->scale;
+        hh = tp_radiation_h(l->eps, ta, tb) * l->scale;
         g = hh * l->area;
         break;
     }
@@ -1126,20 +1129,20 @@ int tp_network_jacobian_mode(const tp_network *net, const double *y, double *val
     return 0;
 }
 
-tp_status tp_flows_init(tp_flows *f, const tp_network *net)
+tp_status tp_network_flows_init(tp_flows *f, const tp_network *net)
 {
     memset(f, 0, sizeof *f);
     f->q = calloc((size_t)net->n_nodes + 1, sizeof *f->q);
     f->src_power = calloc((size_t)net->n_sources + 1, sizeof *f->src_power);
     f->src_wire = calloc((size_t)net->n_sources + 1, sizeof *f->src_wire);
     if (!f->q || !f->src_power || !f->src_wire) {
-        tp_flows_clear(f);
+        tp_network_flows_clear(f);
         return TP_ERR_NOMEM;
     }
     return TP_OK;
 }
 
-void tp_flows_clear(tp_flows *f)
+void tp_network_flows_clear(tp_flows *f)
 {
     free(f->q);
     free(f->src_power);

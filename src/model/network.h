@@ -9,7 +9,7 @@
 
 #include "control.h"
 #include "convection.h"
-#include "desc.h"
+#include "description.h"
 #include "diag.h"
 #include "status.h"
 
@@ -51,8 +51,8 @@ typedef struct tp_net_link {
     double g;            /* conduction conductance, W/K */
     double area;         /* convection and radiation area, m2 */
     double h;            /* fixed convection coefficient, W/(m2.K) (when !correlated) */
-    int correlated;      /* convection: h = tp_conv_h(&conv, T_a, T_b) */
-    tp_conv_case conv;
+    int correlated;      /* convection: h = tp_convection_h(&conv, T_a, T_b) */
+    tp_convection_case conv;
     double eps;          /* radiation: effective emissivity */
     double scale;        /* multiplier from losses.*_scale */
     tp_loss_path path;
@@ -65,7 +65,7 @@ typedef struct tp_net_link {
  * coefficient is the correlation's h at the area-weighted mean temperature of the members'
  * surface nodes against their common sink; each member carries h A s (T_a - T_b). */
 typedef struct tp_net_group {
-    tp_conv_case conv;
+    tp_convection_case conv;
     int sink;          /* the node every member convects to */
     double area;       /* m2, the members' total area (set by tp_network_finish) */
     int first, count;  /* members: group_links[first .. first + count - 1] */
@@ -222,7 +222,7 @@ tp_status tp_network_spread_source(tp_network *net, tp_net_source *src, const in
 /* Add a coefficient group for convection links (copied case; sink: the node all its links
  * convect to). Returns its index, or -1 when out of memory. Links join it by setting their
  * `group` (law convection, `correlated` 1 with the same case, b == sink). */
-int tp_network_add_group(tp_network *net, const tp_conv_case *conv, int sink);
+int tp_network_add_group(tp_network *net, const tp_convection_case *conv, int sink);
 
 /* Index of a node by id, or -1. */
 int tp_network_find_node(const tp_network *net, const char *id);
@@ -303,8 +303,8 @@ double tp_network_source_split(const tp_net_source *s, const double *t, double d
 void tp_network_flows(const tp_network *net, const double *t, tp_flows *f);
 
 /* Allocate / free the arrays of a tp_flows for this network. */
-tp_status tp_flows_init(tp_flows *f, const tp_network *net);
-void tp_flows_clear(tp_flows *f);
+tp_status tp_network_flows_init(tp_flows *f, const tp_network *net);
+void tp_network_flows_clear(tp_flows *f);
 
 /* The linearised conductance of a link at temperatures ta, tb (W/K): conduction g, convection
  * h A, radiation eps sigma A (ta^2 + tb^2)(ta + tb); and the coefficient h used (W/(m2.K)). */
@@ -336,9 +336,9 @@ double tp_network_surface(const tp_network *net, const double *t);
 double tp_network_surface_map(const tp_network *net, const double *t, double *map);
 
 /* Name of a law as in explain output: "conduction", "convection", "radiation". */
-const char *tp_law_name(tp_law law);
+const char *tp_network_law_name(tp_law law);
 
 /* Name of a loss path as in steady output ("top_convection", ...). */
-const char *tp_loss_path_name(tp_loss_path p);
+const char *tp_network_loss_path_name(tp_loss_path p);
 
 #endif

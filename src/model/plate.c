@@ -44,7 +44,8 @@ typedef struct geom {
 
 /* The config path of layer i, "bed.layers.<id>" (or its index when an earlier layer has the
  * same id), with ".key" appended when `key` is not NULL: the form config.c uses in messages. */
-static void layer_path(const tp_desc *desc, size_t i, const char *key, char *out, size_t size)
+static void layer_path(const tp_description *desc, size_t i, const char *key, char *out,
+                       size_t size)
 {
     const tp_layer *ly = desc->bed.layers;
     size_t j;
@@ -57,9 +58,9 @@ static void layer_path(const tp_desc *desc, size_t i, const char *key, char *out
         snprintf(out, size, "bed.layers.%zu%s%s", i, key ? "." : "", key ? key : "");
 }
 
-double tp_plate_design_temperature(const tp_desc *desc)
+double tp_plate_design_temperature(const tp_description *desc)
 {
-    if (tp_desc_holds(desc))
+    if (tp_description_holds(desc))
         return desc->control.setpoint;
     return desc->room.temperature + TP_DESIGN_RISE;
 }
@@ -71,7 +72,7 @@ static double overlap(const geom *a, const geom *b)
 
 static tp_net_link *add_conv(tp_network *net, int surface, int sink, double area, tp_face face,
                              double length, double airflow, double flow_length,
-                             const tp_desc *desc, tp_loss_path path, const char *label)
+                             const tp_description *desc, tp_loss_path path, const char *label)
 {
     tp_net_link *l = tp_network_add_link(net, surface, sink, TP_LAW_CONVECTION);
     if (!l)
@@ -90,7 +91,7 @@ static tp_net_link *add_conv(tp_network *net, int surface, int sink, double area
 }
 
 static tp_net_link *add_rad(tp_network *net, int surface, int sink, double area, double eps,
-                            const tp_desc *desc, tp_loss_path path, const char *label)
+                            const tp_description *desc, tp_loss_path path, const char *label)
 {
     tp_net_link *l = tp_network_add_link(net, surface, sink, TP_LAW_RADIATION);
     if (!l)
@@ -100,7 +101,7 @@ static tp_net_link *add_rad(tp_network *net, int surface, int sink, double area,
     if (desc->enclosure.present) {
         double ew = tp_isset(desc->enclosure.walls.emissivity) ? desc->enclosure.walls.emissivity
                                                                : TP_WALL_EMISSIVITY;
-        l->eps = tp_rad_eps_enclosed(eps, area, ew, desc->enclosure.walls.area);
+        l->eps = tp_radiation_eps_enclosed(eps, area, ew, desc->enclosure.walls.area);
     }
     l->scale = desc->losses.radiation_scale;
     l->path = path;
@@ -110,23 +111,23 @@ static tp_net_link *add_rad(tp_network *net, int surface, int sink, double area,
 
 /* Convection plus radiation from one face; returns 0 or -1 (out of memory). */
 static int add_face(tp_network *net, const geom *g, int conv_sink, int rad_sink, double area,
-                    tp_face face, double airflow, double eps, const tp_desc *desc,
+                    tp_face face, double airflow, double eps, const tp_description *desc,
                     tp_loss_path pconv, tp_loss_path prad, const char *name)
 {
     char label[128];
     if (area <= 0)
         return 0;
     snprintf(label, sizeof label, "%s %s", name, face == TP_FACE_UP ? "top" : "bottom");
-    if (!add_conv(net, g->node, conv_sink, area, face, tp_length_horizontal(g->w, g->d), airflow,
-                  g->w, desc, pconv, label))
+    if (!add_conv(net, g->node, conv_sink, area, face, tp_convection_length_horizontal(g->w, g->d),
+                  airflow, g->w, desc, pconv, label))
         return -1;
     snprintf(label, sizeof label, "%s %s radiation", name, face == TP_FACE_UP ? "top" : "bottom");
     return add_rad(net, g->node, rad_sink, area, eps, desc, prad, label) ? 0 : -1;
 }
 
 /* Layers: materials, geometry, nodes. Returns the number of errors added. */
-static int lower_layers(const tp_desc *desc, const tp_doc *doc, tp_network *net, tp_diag *d,
-                        geom *g)
+static int lower_layers(const tp_description *desc, const tp_yamltree *doc, tp_network *net,
+                        tp_diag *d, geom *g)
 {
     const tp_bed *bed = &desc->bed;
     size_t i, j;
@@ -138,18 +139,19 @@ static int lower_layers(const tp_desc *desc, const tp_doc *doc, tp_network *net,
         snprintf(path, sizeof path, "bed.layers.%zu", i);
         for (j = 0; j < i; j++)
             if (strcmp(bed->layers[j].id, ly->id) == 0)
-                tp_diag_error(d, tp_doc_nearest(doc, path), "bed.layers", "give every layer its own id",
-                              "duplicate layer id '%s'", ly->id);
+                tp_diag_error(d, tp_yamltree_nearest(doc, path), "bed.layers",
+                              "give every layer its own id", "duplicate layer id '%s'", ly->id);
         for (j = 0; j < sizeof reserved / sizeof reserved[0]; j++)
             if (strcmp(reserved[j], ly->id) == 0)
-                tp_diag_error(d, tp_doc_nearest(doc, path), "bed.layers",
+                tp_diag_error(d, tp_yamltree_nearest(doc, path), "bed.layers",
                               "sensor, room, air and walls name nodes tepid creates itself",
                               "the layer id '%s' is reserved", ly->id);
         g[i].m = tp_materials_find(desc, ly->material);
         if (!g[i].m) {
             layer_path(desc, i, "material", path, sizeof path);
             tp_materials_hint(desc, ly->material, hint, sizeof hint);
-            tp_diag_error(d, tp_doc_nearest(doc, path), path, hint, "unknown material '%s'", ly->material);
+            tp_diag_error(d, tp_yamltree_nearest(doc, path), path, hint, "unknown material '%s'",
+                          ly->material);
             continue;
         }
         g[i].w = tp_isset(ly->size[0]) ? ly->size[0] : bed->size[0];
@@ -158,7 +160,7 @@ static int lower_layers(const tp_desc *desc, const tp_doc *doc, tp_network *net,
         g[i].area = g[i].w * g[i].d;
         if (g[i].t >= fmin(g[i].w, g[i].d)) {
             layer_path(desc, i, "thickness", path, sizeof path);
-            tp_diag_error(d, tp_doc_nearest(doc, path), path,
+            tp_diag_error(d, tp_yamltree_nearest(doc, path), path,
                           "a layer of a plate is thinner than it is wide; check the units",
                           "layer '%s' is thicker (%g mm) than its plan size (%g x %g mm)", ly->id,
                           g[i].t * 1e3, g[i].w * 1e3, g[i].d * 1e3);
@@ -169,7 +171,7 @@ static int lower_layers(const tp_desc *desc, const tp_doc *doc, tp_network *net,
     if (tp_isset(bed->layers[0].contact)) {
         char path[128];
         layer_path(desc, 0, "contact", path, sizeof path);
-        tp_diag_warn(d, tp_doc_nearest(doc, path), path,
+        tp_diag_warn(d, tp_yamltree_nearest(doc, path), path,
                      "contact belongs to the upper layer of an interface; mounts: {conductance} "
                      "couples the bottom layer to the frame",
                      "the bottom layer '%s' has no layer below; its contact is ignored",
@@ -200,7 +202,7 @@ static void layer_hint(const tp_bed *bed, char *hint, size_t size)
         len += (size_t)snprintf(hint + len, size - len, " %s", bed->layers[i].id);
 }
 
-static tp_status lower_heater(const tp_desc *desc, const tp_doc *doc, tp_network *net,
+static tp_status lower_heater(const tp_description *desc, const tp_yamltree *doc, tp_network *net,
                               tp_diag *d, const geom *g)
 {
     const tp_heater *h = &desc->heater;
@@ -209,21 +211,21 @@ static tp_status lower_heater(const tp_desc *desc, const tp_doc *doc, tp_network
     char hint[256];
     if (li < 0) {
         layer_hint(&desc->bed, hint, sizeof hint);
-        tp_diag_error(d, tp_doc_nearest(doc, "heater.layer"), "heater.layer", hint,
+        tp_diag_error(d, tp_yamltree_nearest(doc, "heater.layer"), "heater.layer", hint,
                       "the heater layer '%s' does not exist", h->layer);
         return TP_ERR_CONFIG;
     }
     electric = tp_isset(h->supply) || tp_isset(h->resistance);
     if (tp_isset(h->power) == electric) {
-        tp_diag_error(d, tp_doc_nearest(doc, "heater"), "heater",
+        tp_diag_error(d, tp_yamltree_nearest(doc, "heater"), "heater",
                       "give either power: 220 W, or supply: 24 V with resistance: 2.6 ohm",
                       tp_isset(h->power) ? "power and supply/resistance are both given"
                                          : "the heater needs power, or supply and resistance");
         return TP_ERR_CONFIG;
     }
     if (electric && !(tp_isset(h->supply) && tp_isset(h->resistance))) {
-        tp_diag_error(d, tp_doc_nearest(doc, "heater"), tp_isset(h->supply) ? "heater.resistance"
-                                                                : "heater.supply",
+        tp_diag_error(d, tp_yamltree_nearest(doc, "heater"),
+                      tp_isset(h->supply) ? "heater.resistance" : "heater.supply",
                       "an electrical heater needs both supply and resistance",
                       "missing required key");
         return TP_ERR_CONFIG;
@@ -245,7 +247,7 @@ static tp_status lower_heater(const tp_desc *desc, const tp_doc *doc, tp_network
     return TP_OK;
 }
 
-static tp_status lower_sensor(const tp_desc *desc, const tp_doc *doc, tp_network *net,
+static tp_status lower_sensor(const tp_description *desc, const tp_yamltree *doc, tp_network *net,
                               tp_diag *d, const geom *g)
 {
     const tp_sensor_spec *s = &desc->sensor;
@@ -258,12 +260,12 @@ static tp_status lower_sensor(const tp_desc *desc, const tp_doc *doc, tp_network
     li = find_layer(&desc->bed, s->layer);
     if (li < 0) {
         layer_hint(&desc->bed, hint, sizeof hint);
-        tp_diag_error(d, tp_doc_nearest(doc, "sensor.layer"), "sensor.layer", hint,
+        tp_diag_error(d, tp_yamltree_nearest(doc, "sensor.layer"), "sensor.layer", hint,
                       "the sensor's host layer '%s' does not exist", s->layer);
         return TP_ERR_CONFIG;
     }
     if (tp_isset(s->capacity) == tp_isset(s->time_constant)) {
-        tp_diag_error(d, tp_doc_nearest(doc, "sensor"), "sensor",
+        tp_diag_error(d, tp_yamltree_nearest(doc, "sensor"), "sensor",
                       "give capacity: 0.3 J/K or time_constant: 4 s (not both)",
                       "the sensor needs exactly one of capacity or time_constant");
         return TP_ERR_CONFIG;
@@ -279,8 +281,8 @@ static tp_status lower_sensor(const tp_desc *desc, const tp_doc *doc, tp_network
 }
 
 /* Warnings judged at the design temperature. */
-static void physical_warnings(const tp_desc *desc, const tp_doc *doc, const tp_network *net,
-                              tp_diag *d, const geom *g)
+static void physical_warnings(const tp_description *desc, const tp_yamltree *doc,
+                              const tp_network *net, tp_diag *d, const geom *g)
 {
     double td = tp_plate_design_temperature(desc), tr = desc->room.temperature;
     size_t i;
@@ -291,11 +293,12 @@ static void physical_warnings(const tp_desc *desc, const tp_doc *doc, const tp_n
         char path[128], hint[200];
         if (desc->control.present && tp_isset(desc->control.setpoint) &&
             desc->control.mode != TP_MODE_OFF && desc->control.setpoint > m->max_temperature) {
-            tp_diag_warn(d, tp_doc_nearest(doc, "control.setpoint"), "control.setpoint",
+            tp_diag_warn(d, tp_yamltree_nearest(doc, "control.setpoint"), "control.setpoint",
                          "lower the setpoint or choose a material rated for it",
                          "the setpoint %.0f degC is above the service limit of %s in layer "
-                         "'%s' (%.0f degC)", desc->control.setpoint - TP_KELVIN_0C, m->id,
-                         desc->bed.layers[i].id, m->max_temperature - TP_KELVIN_0C);
+                         "'%s' (%.0f degC)",
+                         desc->control.setpoint - TP_KELVIN_0C, m->id, desc->bed.layers[i].id,
+                         m->max_temperature - TP_KELVIN_0C);
         }
         /* Lumped-capacitance check on the exterior surfaces: Bi = h L_c / k with
          * L_c = V / A_s (Incropera 7th ed. Eq. 5.10), h = convection + radiation averaged over
@@ -322,33 +325,33 @@ static void physical_warnings(const tp_desc *desc, const tp_doc *doc, const tp_n
                 continue;
             h = ha / af;
         }
-        bi = h * (g[i].area * g[i].t / as) / tp_material_k_through(m);
+        bi = h * (g[i].area * g[i].t / as) / tp_materials_k_through(m);
         if (bi > TP_BIOT_LIMIT) {
             layer_path(desc, i, NULL, path, sizeof path);
             snprintf(hint, sizeof hint,
                      "its node is the average over its thickness; to resolve the gradient, "
                      "split it into thinner layers of the same material");
-            tp_diag_warn(d, tp_doc_nearest(doc, path), path, hint,
+            tp_diag_warn(d, tp_yamltree_nearest(doc, path), path, hint,
                          "layer '%s' (%s) has a Biot number of %.2g > %.1f: it is not isothermal",
                          desc->bed.layers[i].id, m->id, bi, TP_BIOT_LIMIT);
         }
     }
     for (k = 0; k < net->n_links; k++) {
         const tp_net_link *l = &net->links[k];
-        tp_conv_info info;
-        tp_loc loc = tp_doc_nearest(doc, "enclosure.walls");
+        tp_convection_info info;
+        tp_loc loc = tp_yamltree_nearest(doc, "enclosure.walls");
         char path[128];
         double tsink = net->nodes[l->b].capacity > 0 ? tr : net->nodes[l->b].t0;
         if (l->law != TP_LAW_CONVECTION || !l->correlated)
             continue;
-        tp_conv_h(&l->conv, td, tsink, &info);
+        tp_convection_h(&l->conv, td, tsink, &info);
         if (!info.out_of_range)
             continue;
         /* Point at the layer whose face it is (the walls otherwise). */
         for (i = 0; i < desc->bed.n_layers; i++) {
             if (g[i].node == l->a) {
                 layer_path(desc, i, NULL, path, sizeof path);
-                loc = tp_doc_nearest(doc, path);
+                loc = tp_yamltree_nearest(doc, path);
             }
         }
         tp_diag_warn(d, loc, l->label,
@@ -360,7 +363,7 @@ static void physical_warnings(const tp_desc *desc, const tp_doc *doc, const tp_n
 }
 
 /* The lumped lowering: one node per layer. */
-static tp_status lower_lumped(const tp_desc *desc, const tp_doc *doc, tp_network *net,
+static tp_status lower_lumped(const tp_description *desc, const tp_yamltree *doc, tp_network *net,
                               tp_diag *d)
 {
     const tp_bed *bed = &desc->bed;
@@ -376,8 +379,8 @@ static tp_status lower_lumped(const tp_desc *desc, const tp_doc *doc, tp_network
     if (tp_materials_builtin(NULL, NULL, d) != TP_OK)
         return TP_ERR_CONFIG;
     if (n == 0 || n > TP_MAX_LAYERS) {
-        tp_diag_error(d, tp_doc_nearest(doc, "bed.layers"), "bed.layers", "list the layers bottom to top",
-                      "a bed needs 1 to %d layers", TP_MAX_LAYERS);
+        tp_diag_error(d, tp_yamltree_nearest(doc, "bed.layers"), "bed.layers",
+                      "list the layers bottom to top", "a bed needs 1 to %d layers", TP_MAX_LAYERS);
         return TP_ERR_CONFIG;
     }
     memset(g, 0, sizeof g);
@@ -428,7 +431,7 @@ static tp_status lower_lumped(const tp_desc *desc, const tp_doc *doc, tp_network
         if (!l)
             return TP_ERR_NOMEM;
         l->area = a;
-        l->eps = tp_rad_eps_parallel(g[i - 1].m->emissivity, g[i + 1].m->emissivity);
+        l->eps = tp_radiation_eps_parallel(g[i - 1].m->emissivity, g[i + 1].m->emissivity);
         l->scale = desc->losses.radiation_scale;
         snprintf(l->label, sizeof l->label, "%s-%s gap radiation", bed->layers[i - 1].id,
                  bed->layers[i + 1].id);
@@ -462,8 +465,8 @@ static tp_status lower_lumped(const tp_desc *desc, const tp_doc *doc, tp_network
             return TP_ERR_NOMEM;
         if (i + 1 < n) {
             double a = overlap(&g[i], &g[i + 1]);
-            double r = g[i].t / (2.0 * tp_material_k_through(g[i].m) * a) +
-                       g[i + 1].t / (2.0 * tp_material_k_through(g[i + 1].m) * a);
+            double r = g[i].t / (2.0 * tp_materials_k_through(g[i].m) * a) +
+                       g[i + 1].t / (2.0 * tp_materials_k_through(g[i + 1].m) * a);
             tp_net_link *l;
             if (tp_isset(bed->layers[i + 1].contact))
                 r += 1.0 / (bed->layers[i + 1].contact * a);
@@ -498,7 +501,7 @@ static tp_status lower_lumped(const tp_desc *desc, const tp_doc *doc, tp_network
     }
     net->top_node = g[n - 1].node;
     net->top_area = g[n - 1].area;
-    net->top_half_r = g[n - 1].t / (2.0 * tp_material_k_through(g[n - 1].m));
+    net->top_half_r = g[n - 1].t / (2.0 * tp_materials_k_through(g[n - 1].m));
     st = lower_heater(desc, doc, net, d, g);
     if (st != TP_OK)
         return st;
@@ -506,14 +509,15 @@ static tp_status lower_lumped(const tp_desc *desc, const tp_doc *doc, tp_network
     return TP_OK;
 }
 
-tp_status tp_plate_lower(const tp_desc *desc, const tp_doc *doc, tp_network *net, tp_diag *d)
+tp_status tp_plate_lower(const tp_description *desc, const tp_yamltree *doc, tp_network *net,
+                         tp_diag *d)
 {
     tp_network *lumped;
     tp_status st;
     if (!tp_grid_wanted(desc)) {
         st = lower_lumped(desc, doc, net, d);
         if (st == TP_OK && desc->heater.pattern.present)
-            tp_diag_warn(d, tp_doc_nearest(doc, "heater.pattern"), "heater.pattern",
+            tp_diag_warn(d, tp_yamltree_nearest(doc, "heater.pattern"), "heater.pattern",
                          "set bed.grid: [NX, NY] to resolve the plate into cells",
                          "the heater pattern only shapes the power over the cells of a "
                          "gridded plate; the lumped plate ignores it");
@@ -531,10 +535,10 @@ tp_status tp_plate_lower(const tp_desc *desc, const tp_doc *doc, tp_network *net
     return st;
 }
 
-tp_status tp_plate_attach_sensor(const tp_desc *desc, tp_network *net)
+tp_status tp_plate_attach_sensor(const tp_description *desc, tp_network *net)
 {
     const tp_sensor_spec *s = &desc->sensor;
-    tp_reading_model *m = &net->control.reading;
+    tp_control_reading_model *m = &net->control.reading;
     if (!net->has_control)
         return TP_OK;
     memset(m, 0, sizeof *m);

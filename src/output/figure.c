@@ -6,8 +6,8 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "report.h"
-#include "surfmap.h"
+#include "summary.h"
+#include "surfacemap.h"
 #include "units.h"
 
 tp_status tp_figure_warmup(const char *path, const char *title, const tp_network *net,
@@ -105,7 +105,7 @@ size_t tp_figure_warmup_marks(const tp_metrics *m, tp_plot_vline marks[TP_FIGURE
     for (k = 0; k < TP_FIGURE_MARKS; k++) {
         if (!isfinite(times[k].t))
             continue;
-        tp_fmt_duration(times[k].t, when, sizeof when);
+        tp_summary_duration(times[k].t, when, sizeof when);
         snprintf(text[n], TP_FIGURE_MARK_TEXT, "%s %s", times[k].what, when);
         marks[n] = (tp_plot_vline){text[n], times[k].t / 60.0};
         n++;
@@ -120,14 +120,14 @@ tp_status tp_figure_surface(const char *path, const tp_net_grid *g, const double
     double *z = malloc(n * sizeof *z), mx[3], my[3];
     const char *labels[3];
     size_t nm = 0;
-    tp_map_stats st;
+    tp_surfacemap_stats st;
     tp_plot_map pm;
     tp_status rc;
     if (!z)
         return TP_ERR_NOMEM;
     for (k = 0; k < n; k++)
         z[k] = map[k] - TP_KELVIN_0C;
-    tp_map_stats_compute(g, map, &st);
+    tp_surfacemap_compute(g, map, &st);
     if (isfinite(g->sensor_x)) {
         mx[nm] = g->sensor_x * 1e3;
         my[nm] = g->sensor_y * 1e3;

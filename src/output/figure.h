@@ -6,9 +6,9 @@
 #include <stddef.h>
 
 #include "diag.h"
+#include "metrics.h"
 #include "network.h"
 #include "plot.h"
-#include "results.h"
 #include "status.h"
 #include "warmup.h"
 

@@ -5,7 +5,7 @@
 #include <stdlib.h>
 
 #include "outfile.h"
-#include "report.h"
+#include "summary.h"
 #include "units.h"
 
 
@@ -32,7 +32,7 @@ tp_status tp_json_write(const char *path, const cJSON *root, tp_diag *d)
     tp_status st;
     char *text = cJSON_Print(root);
     if (!text) {
-        tp_diag_error(d, tp_loc_none(), NULL, NULL, "out of memory while writing %s", path);
+        tp_diag_error(d, tp_diag_loc_none(), NULL, NULL, "out of memory while writing %s", path);
         return TP_ERR_NOMEM;
     }
     st = tp_outfile_open(&o, path, d);
@@ -47,10 +47,10 @@ tp_status tp_json_write(const char *path, const cJSON *root, tp_diag *d)
 
 void tp_json_add_cautions(cJSON *array, const tp_caution *list, int n)
 {
-    char line[TP_CAUTION_MAX];
+    char line[TP_SUMMARY_CAUTION_MAX];
     int i;
     for (i = 0; array && i < n; i++) {
-        tp_report_caution_text(&list[i], line, sizeof line);
+        tp_summary_caution_text(&list[i], line, sizeof line);
         cJSON_AddItemToArray(array, cJSON_CreateString(line));
     }
 }

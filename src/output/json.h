@@ -16,12 +16,12 @@ tp_status tp_json_write(const char *path, const cJSON *root, tp_diag *d);
 /* Add a number, or null when it is not finite (JSON has no NaN). Returns the item or NULL. */
 cJSON *tp_json_number(cJSON *obj, const char *name, double v);
 
-/* The conditions every summary's header states (report.h, tp_report_conditions): `room_C`
+/* The conditions every summary's header states (summary.h, tp_summary_conditions): `room_C`
  * (null without a room node), `heater_current_A` and `heater_power_W` (full on at the initial
  * state; the current null for a constant-power heater), `heater_max_duty`. */
 void tp_json_conditions(cJSON *root, const tp_network *net);
 
-/* Fill `array` with the words of each caution (tp_report_caution_text), in list order: the
+/* Fill `array` with the words of each caution (tp_summary_caution_text), in list order: the
  * "cautions" array every verb's JSON carries. */
 void tp_json_add_cautions(cJSON *array, const tp_caution *list, int n);
 

@@ -120,10 +120,10 @@ static const plot_format *format_for(const char *path, tp_diag *d)
                 return &plot_formats[i];
     }
     if (dot && (!slash || dot > slash))
-        tp_diag_error(d, tp_loc_none(), path, "name the figure file .png, .svg or .pdf",
+        tp_diag_error(d, tp_diag_loc_none(), path, "name the figure file .png, .svg or .pdf",
                       "unknown figure format \"%s\"; allowed: .png .svg .pdf", dot);
     else
-        tp_diag_error(d, tp_loc_none(), path, "name the figure file .png, .svg or .pdf",
+        tp_diag_error(d, tp_diag_loc_none(), path, "name the figure file .png, .svg or .pdf",
                       "no figure format in the file name; allowed: .png .svg .pdf");
     return NULL;
 }
@@ -139,7 +139,7 @@ static const plot_format *figure_target(const char *path, const void *figure, co
                                         tp_diag *d)
 {
     if (!path || !figure) {
-        tp_diag_error(d, tp_loc_none(), NULL, NULL, "no %s given for the %s",
+        tp_diag_error(d, tp_diag_loc_none(), NULL, NULL, "no %s given for the %s",
                       path ? what : "file name", what);
         return NULL;
     }
@@ -409,8 +409,9 @@ static tp_status figure_size(int *w, int *h, int w0, int h0, const char *path, t
         *h = h0;
     if (*w < TP_PLOT_SIZE_MIN || *w > TP_PLOT_SIZE_MAX || *h < TP_PLOT_SIZE_MIN ||
         *h > TP_PLOT_SIZE_MAX) {
-        tp_diag_error(d, tp_loc_none(), path, NULL, "figure size %d x %d is outside %d..%d pixels",
-                      *w, *h, TP_PLOT_SIZE_MIN, TP_PLOT_SIZE_MAX);
+        tp_diag_error(d, tp_diag_loc_none(), path, NULL,
+                      "figure size %d x %d is outside %d..%d pixels", *w, *h, TP_PLOT_SIZE_MIN,
+                      TP_PLOT_SIZE_MAX);
         return TP_ERR_USAGE;
     }
     return TP_OK;
@@ -663,13 +664,13 @@ static tp_status plot_write(const char *path, const plot_format *fmt, int w, int
     stdio_restore(&io);
     if (failed) {
         unlink(tmp);
-        tp_diag_error(d, tp_loc_none(), path, NULL, "cannot draw the figure: PLplot: %s",
+        tp_diag_error(d, tp_diag_loc_none(), path, NULL, "cannot draw the figure: PLplot: %s",
                       plot_error[0] ? plot_error : "unknown error");
         return TP_ERR_IO;
     }
     if (!file_complete(tmp, fmt)) {
         unlink(tmp);
-        tp_diag_error(d, tp_loc_none(), path, "check free disk space",
+        tp_diag_error(d, tp_diag_loc_none(), path, "check free disk space",
                       "cannot write the figure: the %s file came out incomplete", fmt->ext);
         return TP_ERR_IO;
     }
@@ -1447,11 +1448,11 @@ static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c,
     memset(cp, 0, sizeof *cp);
     cp->c = c;
     if (n_vlines > 0 && !vlines) {
-        tp_diag_error(d, tp_loc_none(), path, NULL, "marked times without an array");
+        tp_diag_error(d, tp_diag_loc_none(), path, NULL, "marked times without an array");
         return TP_ERR_USAGE;
     }
     if (!c->panels || c->n_panels == 0 || c->n_panels > TP_PLOT_PANELS_MAX) {
-        tp_diag_error(d, tp_loc_none(), path, NULL, "a chart needs 1 to %d panels (got %zu)",
+        tp_diag_error(d, tp_diag_loc_none(), path, NULL, "a chart needs 1 to %d panels (got %zu)",
                       TP_PLOT_PANELS_MAX, c->panels ? c->n_panels : 0);
         return TP_ERR_USAGE;
     }
@@ -1462,7 +1463,7 @@ static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c,
         return st;
     cp->panels = calloc(c->n_panels, sizeof *cp->panels);
     if (!cp->panels) {
-        tp_diag_error(d, tp_loc_none(), path, NULL, "out of memory");
+        tp_diag_error(d, tp_diag_loc_none(), path, NULL, "out of memory");
         return TP_ERR_NOMEM;
     }
 
@@ -1477,7 +1478,7 @@ static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c,
         pp->label_box = calloc(p->n_hlines + 1, sizeof *pp->label_box);
         pp->label_on = calloc(p->n_hlines + 1, sizeof *pp->label_on);
         if (!pp->label_box || !pp->label_on) {
-            tp_diag_error(d, tp_loc_none(), path, NULL, "out of memory");
+            tp_diag_error(d, tp_diag_loc_none(), path, NULL, "out of memory");
             chart_plan_free(cp);
             return TP_ERR_NOMEM;
         }
@@ -1485,12 +1486,12 @@ static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c,
         any_right |= pp->right;
         first += p->n_series;
         if ((p->n_series > 0 && !p->series) || (p->n_hlines > 0 && !p->hlines)) {
-            tp_diag_error(d, tp_loc_none(), path, NULL, "panel %zu: missing %s array", i + 1,
+            tp_diag_error(d, tp_diag_loc_none(), path, NULL, "panel %zu: missing %s array", i + 1,
                           p->n_series > 0 && !p->series ? "series" : "reference-line");
             goto usage;
         }
         if (!isfinite(p->height_share) || p->height_share < 0.0) {
-            tp_diag_error(d, tp_loc_none(), path, NULL,
+            tp_diag_error(d, tp_diag_loc_none(), path, NULL,
                           "panel %zu: height share must be a finite number >= 0", i + 1);
             goto usage;
         }
@@ -1498,19 +1499,19 @@ static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c,
         for (j = 0; j < p->n_series; j++) {
             const tp_plot_series *s = &p->series[j];
             if (s->n == 0 || !s->x || !s->y) {
-                tp_diag_error(d, tp_loc_none(), path, NULL, "panel %zu, series %zu (%s): %s", i + 1,
-                              j + 1, s->label ? s->label : "unlabelled",
+                tp_diag_error(d, tp_diag_loc_none(), path, NULL, "panel %zu, series %zu (%s): %s",
+                              i + 1, j + 1, s->label ? s->label : "unlabelled",
                               s->n == 0 ? "no points" : "missing x or y array");
                 goto usage;
             }
             if (s->n > INT_MAX) {
-                tp_diag_error(d, tp_loc_none(), path, NULL,
+                tp_diag_error(d, tp_diag_loc_none(), path, NULL,
                               "panel %zu, series %zu: more than %d points", i + 1, j + 1, INT_MAX);
                 chart_plan_free(cp);
                 return TP_ERR_LIMIT;
             }
             if (s->right_axis && !pp->right) {
-                tp_diag_error(d, tp_loc_none(), path, "give the panel a y2label",
+                tp_diag_error(d, tp_diag_loc_none(), path, "give the panel a y2label",
                               "panel %zu, series %zu (%s): on the right axis, but the panel "
                               "has none",
                               i + 1, j + 1, s->label ? s->label : "unlabelled");
@@ -1531,12 +1532,13 @@ static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c,
             finite++;
         }
         if (finite == 0) {
-            tp_diag_error(d, tp_loc_none(), path, NULL, "panel %zu (%s): nothing finite to draw",
-                          i + 1, p->ylabel ? p->ylabel : "unlabelled");
+            tp_diag_error(d, tp_diag_loc_none(), path, NULL,
+                          "panel %zu (%s): nothing finite to draw", i + 1,
+                          p->ylabel ? p->ylabel : "unlabelled");
             goto usage;
         }
         if (skipped > 0)
-            tp_diag_warn(d, tp_loc_none(), path, NULL,
+            tp_diag_warn(d, tp_diag_loc_none(), path, NULL,
                          "panel %zu: %zu non-finite point%s left out of the figure", i + 1, skipped,
                          skipped == 1 ? "" : "s");
         if (!(ylo <= yhi))
@@ -1551,7 +1553,7 @@ static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c,
     /* colour keys: a series takes the colour of the first series with its label */
     cp->key = malloc((first > 0 ? first : 1) * sizeof *cp->key);
     if (!cp->key) {
-        tp_diag_error(d, tp_loc_none(), path, NULL, "out of memory");
+        tp_diag_error(d, tp_diag_loc_none(), path, NULL, "out of memory");
         chart_plan_free(cp);
         return TP_ERR_NOMEM;
     }
@@ -1574,7 +1576,7 @@ static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c,
     if (!(xlo <= xhi))
         xlo = xhi = 0.0; /* reference lines only */
     if (!isfinite(xhi - xlo)) {
-        tp_diag_error(d, tp_loc_none(), path, NULL, "x values too large to plot");
+        tp_diag_error(d, tp_diag_loc_none(), path, NULL, "x values too large to plot");
         goto usage;
     }
 
@@ -1593,7 +1595,7 @@ static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c,
         double h = pp->p->height_share > 0.0 ? pp->p->height_share : 1.0;
         h *= avail / share;
         if (h < 4.0 * cp->ht) {
-            tp_diag_error(d, tp_loc_none(), path, "make the figure taller or the panels fewer",
+            tp_diag_error(d, tp_diag_loc_none(), path, "make the figure taller or the panels fewer",
                           "panel %zu would be too short to read", i + 1);
             goto usage;
         }
@@ -1601,7 +1603,7 @@ static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c,
         pp->vy0 = ytop - h;
         ytop = pp->vy0 - gap;
         if (!isfinite(pp->y.hi - pp->y.lo) || !isfinite(pp->y2.hi - pp->y2.lo)) {
-            tp_diag_error(d, tp_loc_none(), path, NULL, "panel %zu: values too large to plot",
+            tp_diag_error(d, tp_diag_loc_none(), path, NULL, "panel %zu: values too large to plot",
                           i + 1);
             goto usage;
         }
@@ -1632,7 +1634,7 @@ static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c,
         left = (cp->ylabel_disp + 1.2) * cp->ht;
         right = any_right ? (cp->y2label_disp + 1.2) * cp->ht : 2.5 * cp->ht;
         if (page_w - left - right < 10.0 * cp->ht) {
-            tp_diag_error(d, tp_loc_none(), path, "make the figure wider",
+            tp_diag_error(d, tp_diag_loc_none(), path, "make the figure wider",
                           "the figure is too narrow for its axis labels");
             goto usage;
         }
@@ -1668,7 +1670,7 @@ static chart_plan *chart_plan_new(const tp_plot_chart *chart, const tp_plot_vlin
 {
     chart_plan *cp = malloc(sizeof *cp);
     if (!cp) {
-        tp_diag_error(d, tp_loc_none(), path, NULL, "out of memory");
+        tp_diag_error(d, tp_diag_loc_none(), path, NULL, "out of memory");
         *st = TP_ERR_NOMEM;
         return NULL;
     }
@@ -1762,7 +1764,7 @@ tp_status tp_plot_chart_layout_marked(const char *path, const tp_plot_chart *cha
     if (!cp)
         return st;
     if (layout_copy(cp, out) != TP_OK) {
-        tp_diag_error(d, tp_loc_none(), path, NULL, "out of memory");
+        tp_diag_error(d, tp_diag_loc_none(), path, NULL, "out of memory");
         tp_plot_layout_clear(out);
         st = TP_ERR_NOMEM;
     }
@@ -1969,23 +1971,23 @@ static tp_status map_plan_build(map_plan *mp, const tp_plot_map *m, const char *
     memset(mp, 0, sizeof *mp);
     mp->m = m;
     if (!m->z || m->nx == 0 || m->ny == 0) {
-        tp_diag_error(d, tp_loc_none(), path, NULL, "heat map without cells");
+        tp_diag_error(d, tp_diag_loc_none(), path, NULL, "heat map without cells");
         return TP_ERR_USAGE;
     }
     if (m->nx > TP_PLOT_CELLS_MAX || m->ny > TP_PLOT_CELLS_MAX / m->nx) {
-        tp_diag_error(d, tp_loc_none(), path, NULL, "heat map of %zu x %zu cells: at most %d",
+        tp_diag_error(d, tp_diag_loc_none(), path, NULL, "heat map of %zu x %zu cells: at most %d",
                       m->nx, m->ny, TP_PLOT_CELLS_MAX);
         return TP_ERR_LIMIT;
     }
     if (!isfinite(m->x0) || !isfinite(m->x1) || !isfinite(m->y0) || !isfinite(m->y1) ||
         m->x1 < m->x0 || m->y1 < m->y0) {
-        tp_diag_error(d, tp_loc_none(), path, NULL,
+        tp_diag_error(d, tp_diag_loc_none(), path, NULL,
                       "heat map extent [%g, %g] x [%g, %g] is not a rectangle", m->x0, m->x1, m->y0,
                       m->y1);
         return TP_ERR_USAGE;
     }
     if (m->n_marks > 0 && (!m->mark_x || !m->mark_y)) {
-        tp_diag_error(d, tp_loc_none(), path, NULL, "heat map markers without coordinates");
+        tp_diag_error(d, tp_diag_loc_none(), path, NULL, "heat map markers without coordinates");
         return TP_ERR_USAGE;
     }
     mp->width = m->width;
@@ -2005,13 +2007,14 @@ static tp_status map_plan_build(map_plan *mp, const tp_plot_map *m, const char *
         }
     }
     if (nonfinite == m->nx * m->ny || !isfinite(mp->zhi - mp->zlo)) {
-        tp_diag_error(d, tp_loc_none(), path, NULL, "heat map without finite values to show");
+        tp_diag_error(d, tp_diag_loc_none(), path, NULL, "heat map without finite values to show");
         return TP_ERR_USAGE;
     }
     range_widen(&mp->zlo, &mp->zhi);
     if (nonfinite > 0)
-        tp_diag_warn(d, tp_loc_none(), path, NULL, "%zu non-finite cell%s left blank%s", nonfinite,
-                     nonfinite == 1 ? "" : "s", m->contours ? ", contours left out" : "");
+        tp_diag_warn(d, tp_diag_loc_none(), path, NULL, "%zu non-finite cell%s left blank%s",
+                     nonfinite, nonfinite == 1 ? "" : "s",
+                     m->contours ? ", contours left out" : "");
 
     mp->grid = malloc(m->nx * sizeof *mp->grid);
     mp->cells = malloc(m->nx * m->ny * sizeof *mp->cells);
@@ -2019,7 +2022,7 @@ static tp_status map_plan_build(map_plan *mp, const tp_plot_map *m, const char *
     mp->yc = malloc(m->ny * sizeof *mp->yc);
     if (!mp->grid || !mp->cells || !mp->xc || !mp->yc) {
         map_plan_free(mp);
-        tp_diag_error(d, tp_loc_none(), path, NULL, "out of memory");
+        tp_diag_error(d, tp_diag_loc_none(), path, NULL, "out of memory");
         return TP_ERR_NOMEM;
     }
     mp->x0 = m->x0;
@@ -2072,7 +2075,7 @@ static tp_status map_plan_build(map_plan *mp, const tp_plot_map *m, const char *
     bh = page_h - top - bottom;
     if (bw < 10.0 * mp->ht || bh < 8.0 * mp->ht) {
         map_plan_free(mp);
-        tp_diag_error(d, tp_loc_none(), path, "make the figure larger",
+        tp_diag_error(d, tp_diag_loc_none(), path, "make the figure larger",
                       "the figure is too small for a heat map");
         return TP_ERR_USAGE;
     }
@@ -2094,12 +2097,12 @@ static tp_status map_plan_build(map_plan *mp, const tp_plot_map *m, const char *
     axis_fit(&mp->y, mp->y0 - pad_y, mp->y1 + pad_y, 0.0, vh / (4.0 * mp->ht));
     for (i = 0; i < m->n_marks; i++)
         if (!mark_inside(mp, i))
-            tp_diag_warn(d, tp_loc_none(), path, NULL,
+            tp_diag_warn(d, tp_diag_loc_none(), path, NULL,
                          "marker %zu (%s) is not on the map; left out", i + 1,
                          m->mark_label && m->mark_label[i] ? m->mark_label[i] : "unlabelled");
     if (marks_place(mp) != TP_OK) {
         map_plan_free(mp);
-        tp_diag_error(d, tp_loc_none(), path, NULL, "out of memory");
+        tp_diag_error(d, tp_diag_loc_none(), path, NULL, "out of memory");
         return TP_ERR_NOMEM;
     }
     return TP_OK;

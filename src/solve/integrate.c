@@ -619,12 +619,12 @@ static SUNLinearSolver kluwrap_create(SUNContext ctx)
 
 /* The multigrid preconditioner of the iterative path (large gridded networks): M = I - gamma J
  * is solved by GMRES (SPGMR) with products by the cached Jacobian, preconditioned by one V-cycle
- * of tp_mg on C M (capacities times M: the network's own symmetric form) for the temperatures,
- * then exactly for the energy totals (their rows only read temperatures). */
-#define TP_MG_CYCLES 1 /* V-cycles per preconditioner solve (docs/grid.md, "Solver") */
+ * of tp_multigrid on C M (capacities times M: the network's own symmetric form) for the
+ * temperatures, then exactly for the energy totals (their rows only read temperatures). */
+#define TP_MULTIGRID_CYCLES 1 /* V-cycles per preconditioner solve (docs/grid.md, "Solver") */
 
 typedef struct precond {
-    tp_mg *mg;
+    tp_multigrid *mg;
     int *map;       /* network pattern slot -> slot of the hierarchy's fine matrix, -1 */
     double *a;      /* fine values C (I - gamma J) */
     double *b;      /* n_free work */
@@ -720,7 +720,7 @@ static int psetup_cb(realtype t, N_Vector y, N_Vector fy, booleantype jok, boole
                                     ((r == c ? 1.0 : 0.0) - gamma * dr->jvals[k]);
         }
     pc->valid = 0;
-    if (tp_mg_setup(pc->mg, pc->a) != TP_OK)
+    if (tp_multigrid_setup(pc->mg, pc->a) != TP_OK)
         return 1; /* recoverable: CVODE retries with a smaller step */
     pc->gamma = gamma;
     pc->jversion = dr->jversion;
@@ -745,7 +745,7 @@ static int psolve_cb(realtype t, N_Vector y, N_Vector fy, N_Vector r, N_Vector z
     (void)lr;
     for (c = 0; c < nf; c++)
         pc->b[c] = pc->cap[c] * rr[c];
-    tp_mg_solve(pc->mg, pc->b, zz, TP_MG_CYCLES);
+    tp_multigrid_solve(pc->mg, pc->b, zz, TP_MULTIGRID_CYCLES);
     for (c = nf; c < n; c++)
         zz[c] = rr[c];
     for (k = 0; k < pc->n_quad; k++) {
@@ -777,13 +777,13 @@ static int precond_init(precond *pc, const tp_network *net)
             }
     }
     pc->n_quad = m;
-    pc->mg = tp_mg_for_network(net, pc->map);
+    pc->mg = tp_multigrid_for_network(net, pc->map);
     return pc->mg ? 0 : -1;
 }
 
 static void precond_clear(precond *pc)
 {
-    tp_mg_destroy(&pc->mg);
+    tp_multigrid_destroy(&pc->mg);
     free(pc->map);
     free(pc->a);
     free(pc->b);
@@ -1047,7 +1047,7 @@ typedef struct run {
     tp_network *net;
     const tp_integrate_opts *o;
     const tp_hooks *hooks;
-    tp_ctrl_state ctrl;
+    tp_control_state ctrl;
     double *temps;
     long next_out; /* index of the next output time */
     long n_out;    /* output times 0..n_out-1 at k * step (the last one is t_end) */
@@ -1070,8 +1070,8 @@ static double reading_of(run *r, double t, const double *y)
         return TP_UNSET;
     /* Only the sensor's temperature: a large network is not copied at every tick. */
     sensor = &r->net->nodes[r->net->control.sensor];
-    reading = tp_reading(&r->net->control.reading, sensor->state >= 0 ? y[sensor->state]
-                                                                       : sensor->t0);
+    reading = tp_control_reading(&r->net->control.reading,
+                                 sensor->state >= 0 ? y[sensor->state] : sensor->t0);
     if (r->hooks && r->hooks->reading)
         reading = r->hooks->reading(r->hooks->user, t, reading);
     return reading;
@@ -1135,8 +1135,8 @@ static tp_status fail(tp_diag *d, const char *what, double t, const char *node, 
              rtol < TP_RTOL_TIGHT ? "run.tolerance is very tight: try 1e-6"
                                   : "tighten run.tolerance (e.g. 1e-8)",
              node ? "node '" : "the nodes", node ? node : "", node ? "'" : "");
-    tp_diag_error(d, tp_loc_none(), NULL, hint, "integration failed at t = %.6g s%s: %s%s%s", t,
-                  where, what, msg && *msg ? " - " : "", msg ? msg : "");
+    tp_diag_error(d, tp_diag_loc_none(), NULL, hint, "integration failed at t = %.6g s%s: %s%s%s",
+                  t, where, what, msg && *msg ? " - " : "", msg ? msg : "");
     return TP_ERR_SOLVER;
 }
 
@@ -1163,7 +1163,7 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
     r.hooks = o->hooks;
     r.bad_node = -1;
     if (!(o->t_end > 0) || !(o->step > 0)) {
-        tp_diag_error(d, tp_loc_none(), "run", "set run.duration and run.step above zero",
+        tp_diag_error(d, tp_diag_loc_none(), "run", "set run.duration and run.step above zero",
                       "nothing to integrate");
         return TP_ERR_CONFIG;
     }
@@ -1175,16 +1175,16 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
                       : (double)(net->n_nodes + net->n_sources);
     if (!(o->t_end / o->step + 1.0 <= TP_MAX_OUTPUT_ROWS) ||
         !((o->t_end / o->step + 1.0) * width <= TP_MAX_OUTPUT_VALUES)) {
-        tp_diag_error(d, tp_loc_none(), "run.step",
+        tp_diag_error(d, tp_diag_loc_none(), "run.step",
                       "raise run.step (the output interval) or shorten run.duration",
                       "%.3g output rows of %.0f values exceed the limits of %.0f rows and %.0f "
-                      "values", o->t_end / o->step + 1.0, width, TP_MAX_OUTPUT_ROWS,
-                      TP_MAX_OUTPUT_VALUES);
+                      "values",
+                      o->t_end / o->step + 1.0, width, TP_MAX_OUTPUT_ROWS, TP_MAX_OUTPUT_VALUES);
         return TP_ERR_LIMIT;
     }
     period = net->has_control ? net->control.period : HUGE_VAL;
     if (net->has_control && !(o->t_end / period <= TP_MAX_TICKS)) {
-        tp_diag_error(d, tp_loc_none(), "control.period", "raise control.period",
+        tp_diag_error(d, tp_diag_loc_none(), "control.period", "raise control.period",
                       "%.3g controller samples exceed the limit of %.0f", o->t_end / period,
                       TP_MAX_TICKS);
         return TP_ERR_LIMIT;
@@ -1242,8 +1242,8 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
     }
     dr.sparse = o->linear_solver == TP_LS_SPARSE ||
                 (o->linear_solver == TP_LS_AUTO && net->n_free > TP_DENSE_MAX);
-    dr.iterative = o->linear_solver == TP_LS_AUTO && net->grid &&
-                   net->n_free >= TP_MG_MIN_UNKNOWNS;
+    dr.iterative =
+        o->linear_solver == TP_LS_AUTO && net->grid && net->n_free >= TP_MULTIGRID_MIN_UNKNOWNS;
     stats->sparse = dr.sparse;
     stats->iterative = dr.iterative;
     dr.jvals = malloc((size_t)(net->nnz > 0 ? net->nnz : 1) * sizeof *dr.jvals);
@@ -1328,10 +1328,10 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
             /* One long step may hold many ticks that change nothing; the wall clock is
              * watched here too, or a tiny period would run on far past the limit. */
             if (stats->ticks % TP_WALL_CHECK_TICKS == 0 && now_seconds() - wall0 > o->wall_time) {
-                tp_diag_error(d, tp_loc_none(), "run.wall_time",
+                tp_diag_error(d, tp_diag_loc_none(), "run.wall_time",
                               "raise run.wall_time, or control.period",
-                              "stopped at t = %.6g s: the wall-clock limit of %g s was reached",
-                              tk, o->wall_time);
+                              "stopped at t = %.6g s: the wall-clock limit of %g s was reached", tk,
+                              o->wall_time);
                 add_stats(mem, stats);
                 st = TP_ERR_LIMIT;
                 goto done;
@@ -1405,7 +1405,7 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
             long nst = 0;
             CVodeGetNumSteps(mem, &nst);
             if (stats->steps + nst > o->max_steps) {
-                tp_diag_error(d, tp_loc_none(), "run.max_steps",
+                tp_diag_error(d, tp_diag_loc_none(), "run.max_steps",
                               "raise run.max_steps, shorten run.duration, or loosen "
                               "run.tolerance",
                               "stopped at t = %.6g s after %ld integration steps", t,
@@ -1416,7 +1416,7 @@ tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate
             }
         }
         if (now_seconds() - wall0 > o->wall_time) {
-            tp_diag_error(d, tp_loc_none(), "run.wall_time",
+            tp_diag_error(d, tp_diag_loc_none(), "run.wall_time",
                           "raise run.wall_time or simplify the model (fewer grid cells)",
                           "stopped at t = %.6g s: the wall-clock limit of %g s was reached", t,
                           o->wall_time);

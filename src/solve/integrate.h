@@ -47,7 +47,7 @@ typedef struct tp_integrate_opts {
     long max_steps;        /* internal steps allowed in the whole run */
     double wall_time;      /* s of wall clock allowed */
     const double *y0;      /* initial state (NULL: the network's initial state) */
-    const tp_ctrl_state *ctrl0; /* controller memory at t = 0 (NULL: reset) */
+    const tp_control_state *ctrl0; /* controller memory at t = 0 (NULL: reset) */
     tp_output_fn out;
     void *user;
     const tp_hooks *hooks;

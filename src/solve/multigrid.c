@@ -7,10 +7,10 @@
  * aggregate I), the coarse matrix is the Galerkin product A_c = P^T A P: for a thermal network
  * (C + gamma K, or the conductance matrix K of a steady state) it is the network of the
  * aggregates, with their capacities and the conductances between them summed (in-plane ones
- * then halved, see tp_mg_setup). A V-cycle smooths with TP_MG_SWEEPS red-black Gauss-Seidel
- * sweeps, restricts the residual by summing it over each aggregate, corrects from the next
- * level, prolongs by injection and smooths with as many backward sweeps. The coarsest level
- * (at most TP_MG_COARSE_MAX unknowns) is solved by dense LU with partial pivoting. */
+ * then halved, see tp_multigrid_setup). A V-cycle smooths with TP_MULTIGRID_SWEEPS red-black
+ * Gauss-Seidel sweeps, restricts the residual by summing it over each aggregate, corrects from the
+ * next level, prolongs by injection and smooths with as many backward sweeps. The coarsest level
+ * (at most TP_MULTIGRID_COARSE_MAX unknowns) is solved by dense LU with partial pivoting. */
 #include "multigrid.h"
 
 #include <math.h>
@@ -30,7 +30,7 @@ typedef struct level {
     int *agg;      /* n: the aggregate (unknown of the next level) of each unknown */
     int *cslot;    /* nnz: the next level's slot each entry adds to */
     char *inplane; /* nnz: the entry couples two different aggregates of one layer (coarse
-                      levels; their Galerkin value is halved, see tp_mg_setup) */
+                      levels; their Galerkin value is halved, see tp_multigrid_setup) */
     int *layer, *ci, *cj;
     double aspect; /* width / depth of this level's cells */
     int n0;        /* unknowns of the first colour (they come first) */
@@ -38,9 +38,9 @@ typedef struct level {
     double *x, *b, *r; /* work vectors */
 } level;
 
-struct tp_mg {
+struct tp_multigrid {
     int n_levels;
-    level lv[TP_MG_LEVELS_MAX];
+    level lv[TP_MULTIGRID_LEVELS_MAX];
     double *lu;    /* coarsest level, dense LU (row major) */
     int *piv;
     int *perm;     /* fine level: the caller's unknown of each internal one (colour order) */
@@ -70,7 +70,7 @@ static void level_free(level *l)
     free(l->r);
 }
 
-void tp_mg_destroy(tp_mg **mg)
+void tp_multigrid_destroy(tp_multigrid **mg)
 {
     int k;
     if (!mg || !*mg)
@@ -87,12 +87,12 @@ void tp_mg_destroy(tp_mg **mg)
     *mg = NULL;
 }
 
-int tp_mg_levels(const tp_mg *mg)
+int tp_multigrid_levels(const tp_multigrid *mg)
 {
     return mg->n_levels;
 }
 
-int tp_mg_size(const tp_mg *mg, int k)
+int tp_multigrid_size(const tp_multigrid *mg, int k)
 {
     return k >= 0 && k < mg->n_levels ? mg->lv[k].n : 0;
 }
@@ -347,13 +347,14 @@ done:
     return rc;
 }
 
-#define TP_MG_SLENDER 0.5 /* -, cells narrower than this (width / depth, or its inverse) are
-                             joined across their short side only */
+#define TP_MULTIGRID_SLENDER                                                                       \
+    0.5 /* -, cells narrower than this (width / depth, or its inverse) are                         \
+    joined across their short side only */
 
-tp_mg *tp_mg_create(int n, const int *rowptr, const int *colind, const int *layer,
-                    const int *ci, const int *cj, double aspect)
+tp_multigrid *tp_multigrid_create(int n, const int *rowptr, const int *colind, const int *layer,
+                                  const int *ci, const int *cj, double aspect)
 {
-    tp_mg *mg = calloc(1, sizeof *mg);
+    tp_multigrid *mg = calloc(1, sizeof *mg);
     level *l;
     int nnz = rowptr[n];
     if (!mg)
@@ -399,12 +400,17 @@ tp_mg *tp_mg_create(int n, const int *rowptr, const int *colind, const int *laye
     if (find_diag(l) != 0)
         goto fail;
     l->aspect = aspect > 0 && isfinite(aspect) ? aspect : 1.0;
-    while (mg->n_levels < TP_MG_LEVELS_MAX && mg->lv[mg->n_levels - 1].n > TP_MG_COARSE_MAX) {
+    while (mg->n_levels < TP_MULTIGRID_LEVELS_MAX &&
+           mg->lv[mg->n_levels - 1].n > TP_MULTIGRID_COARSE_MAX) {
         level *f = &mg->lv[mg->n_levels - 1], *c = &mg->lv[mg->n_levels];
         /* Join cells across their short side only while they are slender (semi-coarsening:
          * conduction is strong across the short side), both ways once they are about square. */
-        f->fx = f->aspect < TP_MG_SLENDER ? 2 : f->aspect > 1.0 / TP_MG_SLENDER ? 1 : 2;
-        f->fy = f->aspect > 1.0 / TP_MG_SLENDER ? 2 : f->aspect < TP_MG_SLENDER ? 1 : 2;
+        f->fx = f->aspect < TP_MULTIGRID_SLENDER         ? 2
+                : f->aspect > 1.0 / TP_MULTIGRID_SLENDER ? 1
+                                                         : 2;
+        f->fy = f->aspect > 1.0 / TP_MULTIGRID_SLENDER ? 2
+                : f->aspect < TP_MULTIGRID_SLENDER     ? 1
+                                                       : 2;
         if (coarsen(f, c) != 0) {
             mg->n_levels++;
             goto fail;
@@ -420,12 +426,12 @@ tp_mg *tp_mg_create(int n, const int *rowptr, const int *colind, const int *laye
         goto fail;
     return mg;
 fail:
-    tp_mg_destroy(&mg);
+    tp_multigrid_destroy(&mg);
     return NULL;
 }
 
 /* Dense LU with partial pivoting of the coarsest level. */
-static int factor_coarsest(tp_mg *mg)
+static int factor_coarsest(tp_multigrid *mg)
 {
     level *l = &mg->lv[mg->n_levels - 1];
     int n = l->n, i, j, k;
@@ -462,7 +468,7 @@ static int factor_coarsest(tp_mg *mg)
     return 0;
 }
 
-static void solve_coarsest(const tp_mg *mg, const double *b, double *x)
+static void solve_coarsest(const tp_multigrid *mg, const double *b, double *x)
 {
     const level *l = &mg->lv[mg->n_levels - 1];
     int n = l->n, i, j;
@@ -486,7 +492,7 @@ static void solve_coarsest(const tp_mg *mg, const double *b, double *x)
     }
 }
 
-tp_status tp_mg_setup(tp_mg *mg, const double *values)
+tp_status tp_multigrid_setup(tp_multigrid *mg, const double *values)
 {
     int k, i, k2;
     level *f = &mg->lv[0];
@@ -589,7 +595,7 @@ static void residual(const level *l, const double *b, const double *x, double *r
         r[i] = row_residual(l, b, x, i);
 }
 
-void tp_mg_residual(const tp_mg *mg, const double *b, const double *x, double *r)
+void tp_multigrid_residual(const tp_multigrid *mg, const double *b, const double *x, double *r)
 {
     const level *l = &mg->lv[0];
     int i;
@@ -602,7 +608,7 @@ void tp_mg_residual(const tp_mg *mg, const double *b, const double *x, double *r
         r[mg->perm[i]] = l->r[i];
 }
 
-static void cycle(tp_mg *mg, int k, const double *b, double *x)
+static void cycle(tp_multigrid *mg, int k, const double *b, double *x)
 {
     level *l = &mg->lv[k], *c;
     int i;
@@ -618,7 +624,7 @@ static void cycle(tp_mg *mg, int k, const double *b, double *x)
         x[i] = 0.0;
     for (i = l->n0; i < l->n; i++)
         gs_row(l, b, x, i);
-    for (i = 1; i < TP_MG_SWEEPS; i++)
+    for (i = 1; i < TP_MULTIGRID_SWEEPS; i++)
         gs_forward(l, b, x);
     memset(c->b, 0, (size_t)c->n * sizeof *c->b);
     for (i = 0; i < l->n; i++)
@@ -626,16 +632,16 @@ static void cycle(tp_mg *mg, int k, const double *b, double *x)
     cycle(mg, k + 1, c->b, c->x);
     for (i = 0; i < l->n; i++)
         x[i] += c->x[l->agg[i]];
-    for (i = 0; i < TP_MG_SWEEPS; i++)
+    for (i = 0; i < TP_MULTIGRID_SWEEPS; i++)
         gs_backward(l, b, x);
 }
 
-void tp_mg_vcycle(tp_mg *mg, const double *b, double *x)
+void tp_multigrid_vcycle(tp_multigrid *mg, const double *b, double *x)
 {
-    tp_mg_solve(mg, b, x, 1);
+    tp_multigrid_solve(mg, b, x, 1);
 }
 
-void tp_mg_solve(tp_mg *mg, const double *b, double *x, int cycles)
+void tp_multigrid_solve(tp_multigrid *mg, const double *b, double *x, int cycles)
 {
     level *l = &mg->lv[0];
     int i, k, n = l->n;
@@ -653,7 +659,7 @@ void tp_mg_solve(tp_mg *mg, const double *b, double *x, int cycles)
         x[mg->perm[i]] = mg->x0[i];
 }
 
-tp_mg *tp_mg_for_network(const tp_network *net, int *map)
+tp_multigrid *tp_multigrid_for_network(const tp_network *net, int *map)
 {
     int nf = net->n_free, c, k, i, j, l;
     int *rowptr = calloc((size_t)nf + 1, sizeof *rowptr), *fill = calloc((size_t)nf + 1, sizeof *fill);
@@ -661,7 +667,7 @@ tp_mg *tp_mg_for_network(const tp_network *net, int *map)
     int *layer = malloc((size_t)(nf > 0 ? nf : 1) * sizeof *layer);
     int *ci = calloc((size_t)(nf > 0 ? nf : 1), sizeof *ci);
     int *cj = calloc((size_t)(nf > 0 ? nf : 1), sizeof *cj);
-    tp_mg *mg = NULL;
+    tp_multigrid *mg = NULL;
     if (!rowptr || !fill || !colind || !layer || !ci || !cj)
         goto done;
     /* CSC columns in increasing order give each CSR row its columns sorted. */
@@ -696,10 +702,9 @@ tp_mg *tp_mg_for_network(const tp_network *net, int *map)
                     cj[s] = j;
                 }
     }
-    mg = tp_mg_create(nf, rowptr, colind, layer, ci, cj,
-                      net->grid ? (net->grid->width / net->grid->nx) /
-                                      (net->grid->depth / net->grid->ny)
-                                : 1.0);
+    mg = tp_multigrid_create(
+        nf, rowptr, colind, layer, ci, cj,
+        net->grid ? (net->grid->width / net->grid->nx) / (net->grid->depth / net->grid->ny) : 1.0);
 done:
     free(rowptr);
     free(fill);

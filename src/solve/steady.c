@@ -10,7 +10,7 @@
  * KLU sparse direct, on the network's sparsity pattern restricted to the temperatures. */
 #include "steady.h"
 
-#include "desc.h"
+#include "description.h"
 #include "integrate.h"
 #include "multigrid.h"
 #include "units.h"
@@ -55,7 +55,7 @@ typedef struct sys {
     int urow;        /* hold: slot of (n-1, sensor) */
     /* Gridded networks: Newton-Krylov with the multigrid preconditioner (docs/grid.md). */
     int iterative;
-    tp_mg *mg;
+    tp_multigrid *mg;
     int *mgslot;     /* system slot -> slot of the hierarchy's fine matrix, -1 */
     double *mgval;   /* the temperature block of the system Jacobian */
     double *jsys;    /* the system Jacobian (pattern order) at the last setup */
@@ -75,7 +75,7 @@ static void sys_clear(sys *s)
     free(s->rowind);
     free(s->map);
     free(s->ucol);
-    tp_mg_destroy(&s->mg);
+    tp_multigrid_destroy(&s->mg);
     free(s->mgslot);
     free(s->mgval);
     free(s->jsys);
@@ -96,7 +96,7 @@ static tp_status sys_init_iterative(sys *s)
     s->w = calloc((size_t)s->nf + 1, sizeof *s->w);
     s->ju = calloc((size_t)s->n + 1, sizeof *s->ju);
     s->ytmp = calloc((size_t)s->nf + 1, sizeof *s->ytmp);
-    s->mg = netmap ? tp_mg_for_network(net, netmap) : NULL;
+    s->mg = netmap ? tp_multigrid_for_network(net, netmap) : NULL;
     if (!netmap || !s->mgslot || !s->mgval || !s->jsys || !s->w || !s->ju || !s->ytmp || !s->mg) {
         free(netmap);
         return TP_ERR_NOMEM;
@@ -190,7 +190,7 @@ static tp_status sys_init(sys *s, tp_network *net, int hold)
     }
     s->colptr[s->n] = m;
     s->nnz = m;
-    if (net->grid && net->n_free >= TP_MG_MIN_UNKNOWNS && sys_init_iterative(s) != TP_OK) {
+    if (net->grid && net->n_free >= TP_MULTIGRID_MIN_UNKNOWNS && sys_init_iterative(s) != TP_OK) {
         sys_clear(s);
         return TP_ERR_NOMEM;
     }
@@ -304,14 +304,14 @@ static int kin_psetup(N_Vector uu, N_Vector us, N_Vector fval, N_Vector fs, void
     for (k = 0; k < s->nnz; k++)
         if (s->mgslot[k] >= 0)
             s->mgval[s->mgslot[k]] = s->jsys[k];
-    if (tp_mg_setup(s->mg, s->mgval) != TP_OK)
+    if (tp_multigrid_setup(s->mg, s->mgval) != TP_OK)
         return 1;
     if (s->hold) {
         for (k = 0; k < s->nf; k++)
             s->ytmp[k] = 0.0;
         for (k = s->colptr[s->nf]; k < s->colptr[s->nf + 1]; k++)
             s->ytmp[s->rowind[k]] = s->jsys[k];
-        tp_mg_vcycle(s->mg, s->ytmp, s->w);
+        tp_multigrid_vcycle(s->mg, s->ytmp, s->w);
         if (!(s->w[s->sensor] != 0.0))
             return 1;
     }
@@ -328,7 +328,7 @@ static int kin_psolve(N_Vector uu, N_Vector us, N_Vector fval, N_Vector fs, N_Ve
     (void)us;
     (void)fval;
     (void)fs;
-    tp_mg_vcycle(s->mg, v, s->ytmp);
+    tp_multigrid_vcycle(s->mg, v, s->ytmp);
     if (s->hold) {
         double u = (s->ytmp[s->sensor] - v[s->nf]) / s->w[s->sensor];
         for (k = 0; k < s->nf; k++)
@@ -469,7 +469,7 @@ static tp_status solve(sys *s, double *x, long *iters, tp_diag *d)
     KINGetNumNonlinSolvIters(kin, iters);
     if (flag < 0) {
         char *name = KINGetReturnFlagName(flag); /* allocated by SUNDIALS: ours to free */
-        tp_diag_error(d, tp_loc_none(), NULL,
+        tp_diag_error(d, tp_diag_loc_none(), NULL,
                       "check for nodes coupled only by very weak or very strong links",
                       "the steady-state solver failed (%s)%s%s", name ? name : "?",
                       s->msg[0] ? ": " : "", s->msg);
@@ -514,10 +514,11 @@ static tp_status finish(tp_network *net, sys *s, const double *x, tp_steady *out
     tp_network_temperatures(net, s->y, out->temps);
     for (i = 0; i < net->n_nodes; i++)
         if (!isfinite(out->temps[i]) || !(out->temps[i] > 0.0)) {
-            tp_diag_error(d, tp_loc_none(), NULL,
+            tp_diag_error(d, tp_diag_loc_none(), NULL,
                           "check for nodes coupled only by very weak or very strong links",
                           "the steady-state solver returned an impossible temperature for "
-                          "node '%s'", net->nodes[i].id);
+                          "node '%s'",
+                          net->nodes[i].id);
             return TP_ERR_SOLVER;
         }
     out->power = 0.0;
@@ -541,7 +542,7 @@ static tp_status check_grounded(const tp_network *net, tp_diag *d)
 {
     const char *bad = isolated_node(net);
     if (bad) {
-        tp_diag_error(d, tp_loc_none(), NULL,
+        tp_diag_error(d, tp_diag_loc_none(), NULL,
                       "link every node, directly or through others, to a fixed node (the room)",
                       "no steady state exists: node '%s' has no path to a fixed node", bad);
         return TP_ERR_SOLVER;
@@ -622,7 +623,7 @@ static tp_status need_control(const tp_network *net, tp_diag *d)
 {
     if (net->has_control)
         return TP_OK;
-    tp_diag_error(d, tp_loc_none(), "control", "add a control: section with a setpoint",
+    tp_diag_error(d, tp_diag_loc_none(), "control", "add a control: section with a setpoint",
                   "a holding point needs a controller");
     return TP_ERR_CONFIG;
 }
@@ -656,11 +657,11 @@ tp_status tp_steady_hold_given(tp_network *net, double target, const tp_steady *
         return TP_ERR_CONFIG;
     umax = net->sources[net->control.source].max_duty;
     if (full->reading < target) {
-        tp_diag_error(d, tp_loc_none(), "control.setpoint",
+        tp_diag_error(d, tp_diag_loc_none(), "control.setpoint",
                       "more heater power, better insulation, or a lower setpoint",
                       "the setpoint %.2f degC is out of reach: at full power (duty %.2f) the "
-                      "reading levels off at %.2f degC", target - TP_KELVIN_0C, umax,
-                      full->reading - TP_KELVIN_0C);
+                      "reading levels off at %.2f degC",
+                      target - TP_KELVIN_0C, umax, full->reading - TP_KELVIN_0C);
         return TP_ERR_SOLVER;
     }
     saved_sp = net->control.setpoint;

@@ -22,7 +22,7 @@ static const double fuse_sizes[] = {0.5,  1.0,  1.6, 2.0,  2.5,  3.15, 4.0,  5.0
                                     7.5,  8.0,  10,  12.5, 15,   16,   20,   25,   30,
                                     32,   35,   40,  50,   63,   80,   100,  125};
 
-double tp_fuse_suggest(double amps)
+double tp_budget_fuse_suggest(double amps)
 {
     size_t i;
     for (i = 0; i < sizeof fuse_sizes / sizeof fuse_sizes[0]; i++)
@@ -58,7 +58,7 @@ static double element_t(const tp_net_source *s, const double *t)
     return sum;
 }
 
-tp_status tp_budget_compute(const tp_desc *desc, tp_network *net, tp_budget *b, tp_diag *d)
+tp_status tp_budget_compute(const tp_description *desc, tp_network *net, tp_budget *b, tp_diag *d)
 {
     int src = tp_network_heater(net);
     const tp_net_source *s;
@@ -71,7 +71,7 @@ tp_status tp_budget_compute(const tp_desc *desc, tp_network *net, tp_budget *b, 
     b->node_hold = TP_UNSET;
     b->r_cold = TP_UNSET;
     if (src < 0) {
-        tp_diag_error(d, tp_loc_none(), "heater", "add heater: (or a network source)",
+        tp_diag_error(d, tp_diag_loc_none(), "heater", "add heater: (or a network source)",
                       "there is no heater to budget");
         return TP_ERR_CONFIG;
     }
@@ -79,14 +79,15 @@ tp_status tp_budget_compute(const tp_desc *desc, tp_network *net, tp_budget *b, 
     b->v = desc->supply.present ? desc->supply.voltage
                                 : (s->kind == TP_SRC_ELECTRIC ? s->supply : TP_UNSET);
     if (!isfinite(b->v)) {
-        tp_diag_error(d, tp_loc_none(), "supply.voltage",
+        tp_diag_error(d, tp_diag_loc_none(), "supply.voltage",
                       "add supply: {voltage: 24 V, power: 360 W} or give the heater supply and "
-                      "resistance", "the budget needs a supply voltage");
+                      "resistance",
+                      "the budget needs a supply voltage");
         return TP_ERR_CONFIG;
     }
     /* The parts of the series path, for the report; assembly put their sum into the source. */
     st = tp_circuit_series(desc, s->kind == TP_SRC_ELECTRIC ? s->supply : TP_UNSET,
-                           tp_loc_none(), &b->circuit, d);
+                           tp_diag_loc_none(), &b->circuit, d);
     if (st != TP_OK)
         return st;
     b->heater_on_supply = b->circuit.on_supply;
@@ -161,7 +162,7 @@ tp_status tp_budget_compute(const tp_desc *desc, tp_network *net, tp_budget *b, 
     b->switch_loss_cold = b->i_cold * b->i_cold * b->circuit.r_switch;
     b->switch_loss_hold = b->duty_hold * b->i_hold_on * b->i_hold_on * b->circuit.r_switch;
     /* A heater may run full on for a long time: its cold current is the continuous load. */
-    b->fuse = tp_fuse_suggest(b->i_cold);
+    b->fuse = tp_budget_fuse_suggest(b->i_cold);
 
     if (b->holding)
         check(b, "holding within the duty limit", b->duty_hold <= s->max_duty, b->duty_hold,
@@ -191,7 +192,7 @@ tp_status tp_budget_compute(const tp_desc *desc, tp_network *net, tp_budget *b, 
     return TP_OK;
 }
 
-int tp_budget_cautions(const tp_desc *desc, const tp_network *net, const tp_budget *b,
+int tp_budget_cautions(const tp_description *desc, const tp_network *net, const tp_budget *b,
                        tp_caution out[TP_CAUTIONS_MAX])
 {
     tp_caution_exposure ex = {b->hot_hold, b->node_hold, b->i_cold, NULL, NULL};

@@ -6,7 +6,7 @@
 
 #include "caution.h"
 #include "circuit.h"
-#include "desc.h"
+#include "description.h"
 #include "diag.h"
 #include "network.h"
 #include "status.h"
@@ -15,7 +15,7 @@
 
 /* The smallest standard fuse rating at or above 1.25 times `amps` (common practice: a fuse
  * carries its continuous load at no more than 80 % of its rating), A; 0 above the table. */
-double tp_fuse_suggest(double amps);
+double tp_budget_fuse_suggest(double amps);
 
 typedef enum tp_verdict { TP_PASS, TP_WARN } tp_verdict;
 
@@ -59,11 +59,11 @@ typedef struct tp_budget {
 
 /* Work out the budget for a physical description and its network. TP_ERR_CONFIG when the file
  * has no heater to budget; steady-state failures are reported and returned. */
-tp_status tp_budget_compute(const tp_desc *desc, tp_network *net, tp_budget *b, tp_diag *d);
+tp_status tp_budget_compute(const tp_description *desc, tp_network *net, tp_budget *b, tp_diag *d);
 
 /* The safety cautions of a budget (caution.h): what the plate reaches at its holding point and
  * the cold-start current; returns how many were written to out. */
-int tp_budget_cautions(const tp_desc *desc, const tp_network *net, const tp_budget *b,
+int tp_budget_cautions(const tp_description *desc, const tp_network *net, const tp_budget *b,
                        tp_caution out[TP_CAUTIONS_MAX]);
 
 #endif

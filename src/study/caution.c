@@ -38,7 +38,7 @@ static tp_caution *add(tp_caution *out, int *n, tp_caution_kind kind)
 }
 
 /* Layers near or past their material's service limit. */
-static void service_limits(const tp_desc *desc, const tp_network *net,
+static void service_limits(const tp_description *desc, const tp_network *net,
                            const tp_caution_exposure *ex, double hottest, tp_caution *out, int *n)
 {
     size_t i;
@@ -61,7 +61,7 @@ static void service_limits(const tp_desc *desc, const tp_network *net,
 
 /* A flexible heater layer (silicone-rubber pads, polyimide film) loaded past its bonding
  * limit. */
-static void power_density(const tp_desc *desc, tp_caution *out, int *n)
+static void power_density(const tp_description *desc, tp_caution *out, int *n)
 {
     size_t k;
     for (k = 0; k < desc->bed.n_layers && *n < TP_CAUTIONS_MAX - 2; k++) {
@@ -83,8 +83,8 @@ static void power_density(const tp_desc *desc, tp_caution *out, int *n)
     }
 }
 
-int tp_caution_list(const tp_desc *desc, const tp_network *net, const tp_caution_exposure *ex,
-                    tp_caution out[TP_CAUTIONS_MAX])
+int tp_caution_list(const tp_description *desc, const tp_network *net,
+                    const tp_caution_exposure *ex, tp_caution out[TP_CAUTIONS_MAX])
 {
     int n = 0;
     double v = supply_voltage(net);

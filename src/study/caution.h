@@ -1,11 +1,11 @@
 /* Safety cautions as records: which caution applies and the figures it quotes, decided from the
  * description, the network and what a run saw (its exposure). Studies compute them; the output
- * layer alone words them (report.h, tp_report_caution_text), for text and JSON alike. The
+ * layer alone words them (summary.h, tp_summary_caution_text), for text and JSON alike. The
  * thresholds and their bases (EN ISO 13732-1, IEC 61140, common practice) are in caution.c. */
 #ifndef TP_CAUTION_H
 #define TP_CAUTION_H
 
-#include "desc.h"
+#include "description.h"
 #include "network.h"
 #include "units.h"
 
@@ -54,8 +54,8 @@ typedef struct tp_caution {
 /* The cautions that apply to this case, in kind order (always ending with the cut-out) into
  * out[]; returns how many. Records are zeroed before they are filled, so two lists compare
  * bytewise. */
-int tp_caution_list(const tp_desc *desc, const tp_network *net, const tp_caution_exposure *ex,
-                    tp_caution out[TP_CAUTIONS_MAX]);
+int tp_caution_list(const tp_description *desc, const tp_network *net,
+                    const tp_caution_exposure *ex, tp_caution out[TP_CAUTIONS_MAX]);
 
 /* Nonzero when a and b are the same caution (kind, layer and material), whatever their
  * figures: the unit of aggregation over many runs. */

@@ -153,7 +153,7 @@ static tp_status parse_bound(const char *text, const tp_fit_param *q, double *v,
     return TP_OK;
 }
 
-static tp_status parse_one(char *item, const tp_desc *desc, tp_fit_param *q, tp_diag *d)
+static tp_status parse_one(char *item, const tp_description *desc, tp_fit_param *q, tp_diag *d)
 {
     char *eq = strchr(item, '='), *path = item;
     double start;
@@ -224,8 +224,8 @@ static tp_status parse_one(char *item, const tp_desc *desc, tp_fit_param *q, tp_
     return TP_OK;
 }
 
-tp_status tp_fit_parse_free(const char *text, const tp_desc *desc, tp_fit_param *params, int *n,
-                            int max, tp_diag *d)
+tp_status tp_fit_parse_free(const char *text, const tp_description *desc, tp_fit_param *params,
+                            int *n, int max, tp_diag *d)
 {
     char buf[1024], *item, *save = NULL;
     int k = *n, j;
@@ -265,7 +265,7 @@ tp_status tp_fit_parse_free(const char *text, const tp_desc *desc, tp_fit_param 
 
 typedef struct evaluator {
     const tp_fit_problem *pb;
-    tp_desc work; /* the description with the trial values */
+    tp_description work; /* the description with the trial values */
     tp_fit_drive drive;
     double period;    /* s, controller period in open-loop runs */
     double step;      /* s, output interval */
@@ -322,14 +322,14 @@ static int record(void *user, const tp_sample *s)
 static double drive_hook(void *user, double t, double duty)
 {
     const evaluator *ev = user;
-    double v = tp_log_drive_at(ev->pb->log, t);
+    double v = tp_templog_drive_at(ev->pb->log, t);
     (void)duty;
     if (ev->drive == TP_FIT_BY_POWER)
         v = ev->power_ref > 0 ? v / ev->power_ref : 0.0;
     return v < 0.0 ? 0.0 : v > 1.0 ? 1.0 : v;
 }
 
-static int model_sensor(const tp_network *net, const tp_desc *desc, double *offset)
+static int model_sensor(const tp_network *net, const tp_description *desc, double *offset)
 {
     int i;
     if (net->has_control) {
@@ -399,7 +399,7 @@ static void set_values(evaluator *ev, const double *x)
  * failure ev->why says why. `d` receives assembly messages (NULL: the silent sink). */
 static int evaluate(evaluator *ev, const double *x, double *model, tp_diag *d)
 {
-    const tp_log *log = ev->pb->log;
+    const tp_templog *log = ev->pb->log;
     tp_network *net = NULL;
     tp_integrate_opts o;
     tp_integrate_stats stats;
@@ -470,7 +470,7 @@ done:
 
 static void evaluator_clear(evaluator *ev)
 {
-    tp_desc_clear(&ev->work);
+    tp_config_clear(&ev->work);
     free(ev->rec_t);
     free(ev->rec_v);
     free(ev->peak);
@@ -482,7 +482,7 @@ static void evaluator_clear(evaluator *ev)
  * limits of a run (docs/limits.md) are checked against it here, before anything is allocated,
  * and reported at the log's last row rather than at run.step or control.period, which fit does
  * not use (issue 15 item 25). `period` is HUGE_VAL when no controller samples. */
-static tp_status check_log_span(const tp_log *log, double step, double period, tp_diag *d)
+static tp_status check_log_span(const tp_templog *log, double step, double period, tp_diag *d)
 {
     double span = log->t[log->n - 1];
     tp_loc at = {log->name, log->line[log->n - 1], 1};
@@ -512,7 +512,7 @@ static tp_status check_log_span(const tp_log *log, double step, double period, t
  * The first assembly (at the starting values) reports its errors to `d`. */
 static tp_status evaluator_init(evaluator *ev, const tp_fit_problem *pb, tp_diag *d)
 {
-    const tp_log *log = pb->log;
+    const tp_templog *log = pb->log;
     tp_network *net = NULL;
     double *dt = NULL, x0[TP_FIT_MAX_PARAMS];
     int k, quiet = d->quiet;
@@ -528,7 +528,7 @@ static tp_status evaluator_init(evaluator *ev, const tp_fit_problem *pb, tp_diag
     }
     ev->q = malloc(sizeof *ev->q);
     dt = malloc((size_t)(log->n - 1) * sizeof *dt);
-    if (!ev->q || !dt || tp_desc_copy(&ev->work, pb->desc) != TP_OK) {
+    if (!ev->q || !dt || tp_config_copy(&ev->work, pb->desc) != TP_OK) {
         free(dt);
         evaluator_clear(ev);
         return TP_ERR_NOMEM;
@@ -566,20 +566,21 @@ static tp_status evaluator_init(evaluator *ev, const tp_fit_problem *pb, tp_diag
     ev->sensor = model_sensor(net, &ev->work, &ev->offset);
     ev->n_nodes = net->n_nodes;
     if (ev->sensor < 0) {
-        tp_diag_error(d, tp_loc_none(), "control.sensor",
+        tp_diag_error(d, tp_diag_loc_none(), "control.sensor",
                       "add a control: section naming the node the log measured",
                       "which node did the log measure? The network has no controller, no "
                       "'sensor' node and more than one node with capacity");
         st = TP_ERR_CONFIG;
-    } else if (log->drive_kind == TP_LOG_DRIVE_DUTY || log->drive_kind == TP_LOG_DRIVE_POWER) {
-        ev->drive = log->drive_kind == TP_LOG_DRIVE_DUTY ? TP_FIT_BY_DUTY : TP_FIT_BY_POWER;
+    } else if (log->drive_kind == TP_TEMPLOG_DRIVE_DUTY ||
+               log->drive_kind == TP_TEMPLOG_DRIVE_POWER) {
+        ev->drive = log->drive_kind == TP_TEMPLOG_DRIVE_DUTY ? TP_FIT_BY_DUTY : TP_FIT_BY_POWER;
         if (net->has_control && net->control.period < ev->period)
             ev->period = net->control.period;
         if (drive_source(net) < 0) {
-            tp_diag_error(d, tp_loc_none(), "control.source",
+            tp_diag_error(d, tp_diag_loc_none(), "control.source",
                           "add a control: section naming the heater source",
                           "which source did the logged %s drive? The network has several",
-                          log->drive_kind == TP_LOG_DRIVE_DUTY ? "duty" : "power");
+                          log->drive_kind == TP_TEMPLOG_DRIVE_DUTY ? "duty" : "power");
             st = TP_ERR_CONFIG;
         }
         if (ev->drive == TP_FIT_BY_POWER) {
@@ -652,7 +653,7 @@ static void z_to_x(const tp_fit_problem *pb, const double *z, double *x)
 /* Residuals model - log at z; a failed run gives TP_FIT_PENALTY everywhere. */
 static int residuals(lmctx *c, const double *z, double *f)
 {
-    const tp_log *log = c->pb->log;
+    const tp_templog *log = c->pb->log;
     double x[TP_FIT_MAX_PARAMS];
     long i;
     z_to_x(c->pb, z, x);
@@ -907,7 +908,7 @@ void tp_fit_result_clear(tp_fit_result *res)
 
 tp_status tp_fit_run(const tp_fit_problem *pb, tp_fit_result *res, tp_diag *d)
 {
-    const tp_log *log = pb->log;
+    const tp_templog *log = pb->log;
     int p = pb->n_params, m, s, k, starts, info = 0, best_info = 0;
     double t0 = now_seconds(), best = HUGE_VAL, zbest[TP_FIT_MAX_PARAMS], ubest[TP_FIT_MAX_PARAMS];
     double z[TP_FIT_MAX_PARAMS], x[TP_FIT_MAX_PARAMS], diag[TP_FIT_MAX_PARAMS];
@@ -923,7 +924,7 @@ tp_status tp_fit_run(const tp_fit_problem *pb, tp_fit_result *res, tp_diag *d)
     memset(res, 0, sizeof *res);
     memset(&c, 0, sizeof c);
     if (p < 1 || p > TP_FIT_MAX_PARAMS) {
-        tp_diag_error(d, tp_loc_none(), NULL, "free one to eight keys with --free",
+        tp_diag_error(d, tp_diag_loc_none(), NULL, "free one to eight keys with --free",
                       "%d free parameters", p);
         return TP_ERR_USAGE;
     }
@@ -965,7 +966,7 @@ tp_status tp_fit_run(const tp_fit_problem *pb, tp_fit_result *res, tp_diag *d)
     for (k = 0; k < p; k++)
         x[k] = pb->params[k].start;
     if (evaluate(&ev, x, res->model_start, NULL) != 0) {
-        tp_diag_error(d, tp_loc_none(), NULL,
+        tp_diag_error(d, tp_diag_loc_none(), NULL,
                       "check the config with 'tepid warmup' and the bounds of --free",
                       "the model run with the starting values failed: %s", ev.why);
         st = TP_ERR_SOLVER;
@@ -1016,7 +1017,7 @@ tp_status tp_fit_run(const tp_fit_problem *pb, tp_fit_result *res, tp_diag *d)
             c.best_u[k] = z_to_u(zbest[k]);
     }
     if (!(best < TP_FIT_PENALTY * TP_FIT_PENALTY * 0.5 * m)) {
-        tp_diag_error(d, tp_loc_none(), NULL, "check the config and the bounds of --free",
+        tp_diag_error(d, tp_diag_loc_none(), NULL, "check the config and the bounds of --free",
                       "no model run succeeded during the fit: %s", ev.why);
         st = TP_ERR_SOLVER;
         goto done;
@@ -1036,7 +1037,7 @@ tp_status tp_fit_run(const tp_fit_problem *pb, tp_fit_result *res, tp_diag *d)
     for (i = 0; i < ev.n_nodes; i++)
         ev.peak[i] = -HUGE_VAL;
     if (evaluate(&ev, x, res->model, NULL) != 0) {
-        tp_diag_error(d, tp_loc_none(), NULL, NULL,
+        tp_diag_error(d, tp_diag_loc_none(), NULL, NULL,
                       "the model run with the fitted values failed: %s", ev.why);
         st = TP_ERR_SOLVER;
         goto done;
@@ -1080,7 +1081,7 @@ done:
     return st;
 }
 
-int tp_fit_cautions(const tp_desc *fitted, const tp_network *net, const tp_fit_result *res,
+int tp_fit_cautions(const tp_description *fitted, const tp_network *net, const tp_fit_result *res,
                     tp_caution out[TP_CAUTIONS_MAX])
 {
     tp_caution_exposure ex = {res->surface_max, res->node_max, res->current_max, res->node_peak,

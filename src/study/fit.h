@@ -5,12 +5,12 @@
 #define TP_FIT_H
 
 #include "caution.h"
-#include "desc.h"
+#include "description.h"
 #include "diag.h"
-#include "doc.h"
-#include "logfile.h"
 #include "status.h"
+#include "templog.h"
 #include "units.h"
+#include "yamltree.h"
 
 #define TP_FIT_MAX_PARAMS 8     /* free parameters in one fit */
 #define TP_FIT_PATH_MAX 128     /* longest key path, bytes incl. NUL */
@@ -59,9 +59,9 @@ typedef struct tp_fit_param {
 } tp_fit_param;
 
 typedef struct tp_fit_problem {
-    const tp_desc *desc; /* the description to calibrate (not modified) */
-    const tp_doc *doc;   /* its document, for messages (may be NULL) */
-    const tp_log *log;   /* the measured log */
+    const tp_description *desc; /* the description to calibrate (not modified) */
+    const tp_yamltree *doc;     /* its document, for messages (may be NULL) */
+    const tp_templog *log;      /* the measured log */
     tp_fit_param *params;
     int n_params;
     int starts; /* starting points (1 .. TP_FIT_STARTS_MAX) */
@@ -98,8 +98,8 @@ typedef struct tp_fit_result {
  * e.g. heater.power=100W:400W). Appends to params[*n] (at most `max`), resolving dimensions,
  * starting values and default bounds against `desc`. Errors (unknown key, duplicate, bad
  * bounds, an unset key without bounds) go to `d` as TP_ERR_USAGE; *n is then unchanged. */
-tp_status tp_fit_parse_free(const char *text, const tp_desc *desc, tp_fit_param *params, int *n,
-                            int max, tp_diag *d);
+tp_status tp_fit_parse_free(const char *text, const tp_description *desc, tp_fit_param *params,
+                            int *n, int max, tp_diag *d);
 
 /* Fit. On success fills each param's results and *res (free with tp_fit_result_clear). Fails
  * with TP_ERR_CONFIG when the model cannot be built with the starting values, TP_ERR_SOLVER
@@ -119,7 +119,7 @@ const char *tp_fit_drive_name(tp_fit_drive drive);
 
 /* The safety cautions of the calibrated plate (caution.h), from what its model saw over the
  * log (res's peaks and current); returns how many were written to out. */
-int tp_fit_cautions(const tp_desc *fitted, const tp_network *net, const tp_fit_result *res,
+int tp_fit_cautions(const tp_description *fitted, const tp_network *net, const tp_fit_result *res,
                     tp_caution out[TP_CAUTIONS_MAX]);
 
 #endif

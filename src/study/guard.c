@@ -436,14 +436,14 @@ static double hook_duty(void *user, double t, double duty)
 
 typedef struct ctx {
     tp_guard_study *st;
-    const tp_doc *doc;
+    const tp_yamltree *doc;
     tp_diag *d;
     layer_ref layers[TP_GUARD_LAYERS_MAX];
 } ctx;
 
 /* The controller memory after ticking on readings r[0..n-1], and the gap below the setpoint at
  * which it first left full power (NaN: it never did below the setpoint). */
-static void replay(const tp_control *c, const double *r, long n, tp_ctrl_state *s, double *gap)
+static void replay(const tp_control *c, const double *r, long n, tp_control_state *s, double *gap)
 {
     long i;
     tp_control_start(c, s);
@@ -491,22 +491,24 @@ static int recorder_init(recorder *rc, ctx *cx, const tp_network *net, tp_guard_
 }
 
 /* Assemble quietly (corners repeat the nominal case's warnings); errors are passed on. */
-static tp_status build(ctx *cx, const tp_desc *desc, const char *what, tp_network **net)
+static tp_status build(ctx *cx, const tp_description *desc, const char *what, tp_network **net)
 {
     tp_diag quiet;
     tp_status rc;
     tp_diag_init(&quiet, NULL);
     rc = tp_assemble(desc, cx->doc, &quiet, net);
     if (rc != TP_OK)
-        tp_diag_error(cx->d, tp_loc_none(), "guard", "narrow the ranges in guard:",
-                      "the %s cannot be assembled: %s", what, quiet.log);
+        tp_diag_error(cx->d, tp_diag_loc_none(), "guard",
+                      "narrow the ranges in guard:", "the %s cannot be assembled: %s", what,
+                      quiet.log);
     return rc;
 }
 
 static void solver_error(ctx *cx, const char *what, const tp_diag *quiet)
 {
-    tp_diag_error(cx->d, tp_loc_none(), "guard", "narrow the ranges in guard:, or check run:",
-                  "the %s failed: %s", what, quiet->log);
+    tp_diag_error(cx->d, tp_diag_loc_none(), "guard",
+                  "narrow the ranges in guard:, or check run:", "the %s failed: %s", what,
+                  quiet->log);
 }
 
 /* The first controller tick at or after `t` (s): disturbances keep the tick grid. */
@@ -535,7 +537,7 @@ static void add_cold_mass(const tp_network *from, const tp_network *to, double t
  * controller tick at or after its `after` time. The trace's last sample before a stage is
  * taken again by the stage's first tick, which reads the plate as changed (the sample before
  * the change is dropped); the controller's memory is replayed over every reading before it. */
-static tp_status run_hold(ctx *cx, const tp_desc *cd, tp_network *net, tp_guard_corner *c,
+static tp_status run_hold(ctx *cx, const tp_description *cd, tp_network *net, tp_guard_corner *c,
                           double *y, recorder *rc)
 {
     const tp_guard_study *st = cx->st;
@@ -564,7 +566,7 @@ static tp_status run_hold(ctx *cx, const tp_desc *cd, tp_network *net, tp_guard_
     for (;;) {
         tp_integrate_opts o;
         tp_integrate_stats stats;
-        tp_ctrl_state ctrl;
+        tp_control_state ctrl;
         tp_diag quiet;
         double t_next;
         int due = applied;
@@ -576,7 +578,7 @@ static tp_status run_hold(ctx *cx, const tp_desc *cd, tp_network *net, tp_guard_
             if (rs != TP_OK) {
                 const char *key = chg[due - 1].kind == TP_CHANGE_TOP_AIRFLOW ? "guard.gust"
                                                                                : "guard.sheet";
-                tp_diag_error(cx->d, tp_doc_nearest(cx->doc, key), key,
+                tp_diag_error(cx->d, tp_yamltree_nearest(cx->doc, key), key,
                               "drop it, or use the physical form with a top layer",
                               "the disturbance cannot be applied to this plate");
                 break;
@@ -620,13 +622,13 @@ static tp_status run_hold(ctx *cx, const tp_desc *cd, tp_network *net, tp_guard_
 
 /* The healthy run of one corner: from the cold start until the reading first reaches the
  * setpoint (or run.duration), then `guard.hold` more with the disturbances. */
-static tp_status run_corner(ctx *cx, const tp_desc *cd, tp_guard_corner *c)
+static tp_status run_corner(ctx *cx, const tp_description *cd, tp_guard_corner *c)
 {
     tp_guard_study *st = cx->st;
     tp_network *net = NULL;
     tp_integrate_opts o;
     tp_integrate_stats stats;
-    tp_ctrl_state ctrl;
+    tp_control_state ctrl;
     recorder rc;
     tp_diag quiet;
     tp_steady full;
@@ -700,7 +702,7 @@ static tp_status run_fault(ctx *cx, const tp_network *nominal, tp_guard_fault_ru
     tp_network *net = NULL;
     tp_integrate_opts o;
     tp_integrate_stats stats;
-    tp_ctrl_state ctrl;
+    tp_control_state ctrl;
     tp_hooks hooks;
     hook_ctx h;
     recorder rc;
@@ -770,10 +772,10 @@ typedef struct factor {
 } factor;
 
 /* Apply one corner's values to a copy of the description. */
-static tp_status apply_corner(const tp_desc *base, const tp_network *net, tp_desc *cd,
+static tp_status apply_corner(const tp_description *base, const tp_network *net, tp_description *cd,
                               const tp_guard_corner *c)
 {
-    tp_status rs = tp_desc_copy(cd, base);
+    tp_status rs = tp_config_copy(cd, base);
     size_t i;
     if (rs != TP_OK)
         return rs;
@@ -851,8 +853,8 @@ static const double *declared_pair(const tp_guard_spec *g, int which)
     return p && tp_isset(p[0]) && tp_isset(p[1]) ? p : NULL;
 }
 
-tp_status tp_guard_ranges_resolve(const tp_desc *desc, const tp_doc *doc, const tp_network *net,
-                                  tp_guard_ranges *rr, tp_diag *d)
+tp_status tp_guard_ranges_resolve(const tp_description *desc, const tp_yamltree *doc,
+                                  const tp_network *net, tp_guard_ranges *rr, tp_diag *d)
 {
     const tp_guard_spec *g = &desc->guard;
     const tp_net_source *src = net->has_control ? &net->sources[net->control.source] : NULL;
@@ -880,7 +882,7 @@ tp_status tp_guard_ranges_resolve(const tp_desc *desc, const tp_doc *doc, const 
             r->lo = pair[0];
             r->hi = pair[1];
             if (pair[1] < pair[0]) {
-                tp_diag_error(d, tp_doc_nearest(doc, key), key, "write [low, high]",
+                tp_diag_error(d, tp_yamltree_nearest(doc, key), key, "write [low, high]",
                               "the range is reversed");
                 bad = 1;
             }
@@ -910,7 +912,7 @@ tp_status tp_guard_ranges_resolve(const tp_desc *desc, const tp_doc *doc, const 
         if (!electric && rr->r[k].origin == TP_RANGE_DECLARED &&
             (k == TP_RANGE_SUPPLY || rr->r[k].tolerance > 0)) {
             const char *key = k == TP_RANGE_SUPPLY ? "guard.supply" : "guard.resistance";
-            tp_diag_error(d, tp_doc_nearest(doc, key), key,
+            tp_diag_error(d, tp_yamltree_nearest(doc, key), key,
                           "give the heater a supply and a resistance, or drop the range",
                           "the controlled heater has a fixed power: no supply or resistance to "
                           "vary");
@@ -918,14 +920,14 @@ tp_status tp_guard_ranges_resolve(const tp_desc *desc, const tp_doc *doc, const 
             break;
         }
     if (!physical && rr->r[TP_RANGE_AIRFLOW].origin == TP_RANGE_DECLARED) {
-        tp_diag_error(d, tp_doc_nearest(doc, "guard.airflow"), "guard.airflow",
+        tp_diag_error(d, tp_yamltree_nearest(doc, "guard.airflow"), "guard.airflow",
                       "airflow, gusts and sheets need the physical form (bed:, room:)",
                       "not available in the raw network form");
         bad = 1;
     }
     if (rr->r[TP_RANGE_ROOM].origin == TP_RANGE_DECLARED && !tp_isset(room0)) {
-        tp_diag_error(d, tp_doc_nearest(doc, "guard.room"), "guard.room", "add a fixed node (the room)",
-                      "the network has no room temperature to vary");
+        tp_diag_error(d, tp_yamltree_nearest(doc, "guard.room"), "guard.room",
+                      "add a fixed node (the room)", "the network has no room temperature to vary");
         bad = 1;
     }
     return bad ? TP_ERR_CONFIG : TP_OK;
@@ -935,7 +937,7 @@ tp_status tp_guard_ranges_resolve(const tp_desc *desc, const tp_doc *doc, const 
  * disturbances the form cannot apply. */
 static tp_status factors(ctx *cx, factor *f, tp_guard_corner *nominal)
 {
-    const tp_desc *desc = cx->st->desc;
+    const tp_description *desc = cx->st->desc;
     const tp_guard_spec *g = &desc->guard;
     const tp_guard_ranges *rr = &cx->st->ranges;
     int k;
@@ -953,7 +955,7 @@ static tp_status factors(ctx *cx, factor *f, tp_guard_corner *nominal)
     }
     if (desc->form != TP_FORM_PHYSICAL && (g->gust.present || g->sheet.present)) {
         const char *key = g->gust.present ? "guard.gust" : "guard.sheet";
-        tp_diag_error(cx->d, tp_doc_nearest(cx->doc, key), key,
+        tp_diag_error(cx->d, tp_yamltree_nearest(cx->doc, key), key,
                       "airflow, gusts and sheets need the physical form (bed:, room:)",
                       "not available in the raw network form");
         return TP_ERR_CONFIG;
@@ -1301,7 +1303,7 @@ void tp_guard_evaluate(tp_guard_study *st, const tp_guard_settings *s)
 
 static void setup_layers(tp_guard_study *st)
 {
-    const tp_desc *desc = st->desc;
+    const tp_description *desc = st->desc;
     size_t i;
     st->n_layers = 0;
     if (desc->form != TP_FORM_PHYSICAL)
@@ -1315,33 +1317,33 @@ static void setup_layers(tp_guard_study *st)
 }
 
 /* The reading's step near the setpoint: one ADC code's worth of temperature. */
-static double resolution(const tp_reading_model *m, double setpoint)
+static double resolution(const tp_control_reading_model *m, double setpoint)
 {
     long c0, c1;
     if (!m->thermistor)
         return 0.0;
-    c0 = tp_adc_code(m, setpoint - 1.0);
-    c1 = tp_adc_code(m, setpoint + 1.0);
+    c0 = tp_control_adc_code(m, setpoint - 1.0);
+    c1 = tp_control_adc_code(m, setpoint + 1.0);
     return c0 != c1 ? 2.0 / fabs((double)(c0 - c1)) : 2.0;
 }
 
-static tp_status check_control(const tp_desc *desc, const tp_doc *doc, const tp_network *net,
-                                tp_diag *d)
+static tp_status check_control(const tp_description *desc, const tp_yamltree *doc,
+                               const tp_network *net, tp_diag *d)
 {
     if (!tp_network_holds(net)) {
         if (net->has_control)
-            tp_diag_error(d, tp_doc_nearest(doc, "control.mode"), "control.mode",
+            tp_diag_error(d, tp_yamltree_nearest(doc, "control.mode"), "control.mode",
                           "use mode pid or on-off with a setpoint",
                           "guard judges a controller holding a setpoint; mode '%s' holds none",
-                          tp_mode_name(net->control.mode));
+                          tp_description_mode_name(net->control.mode));
         else
-            tp_diag_error(d, tp_doc_nearest(doc, "control"), "control",
+            tp_diag_error(d, tp_yamltree_nearest(doc, "control"), "control",
                           "add control: {mode: pid, setpoint: ...} or mode on-off",
                           "guard judges a controller holding a setpoint; the file has none");
         return TP_ERR_CONFIG;
     }
     if (desc->guard.time_factor < 1.0) {
-        tp_diag_error(d, tp_doc_nearest(doc, "guard.time_factor"), "guard.time_factor",
+        tp_diag_error(d, tp_yamltree_nearest(doc, "guard.time_factor"), "guard.time_factor",
                       "use 1 or more, e.g. 1.5",
                       "a safety factor on healthy durations below 1 gives no margin");
         return TP_ERR_CONFIG;
@@ -1349,13 +1351,13 @@ static tp_status check_control(const tp_desc *desc, const tp_doc *doc, const tp_
     return TP_OK;
 }
 
-tp_status tp_guard_study_run(const tp_desc *desc, const tp_doc *doc,
+tp_status tp_guard_study_run(const tp_description *desc, const tp_yamltree *doc,
                              const tp_guard_settings *given, tp_guard_study *st, tp_diag *d)
 {
     tp_network *net = NULL;
     tp_steady hold;
     tp_diag quiet;
-    tp_desc cd;
+    tp_description cd;
     factor f[4];
     tp_guard_corner nominal;
     tp_guard_settings none = {0, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET};
@@ -1398,8 +1400,8 @@ tp_status tp_guard_study_run(const tp_desc *desc, const tp_doc *doc,
     if (net->control.reading.thermistor) {
         /* The ADC's ends: a shorted NTC pulls the input to ground (the highest reading), an
          * open one leaves it at the divider's supply (the lowest). */
-        st->pin_high = tp_reading(&net->control.reading, 1.0e4);
-        st->pin_low = tp_reading(&net->control.reading, 100.0);
+        st->pin_high = tp_control_reading(&net->control.reading, 1.0e4);
+        st->pin_low = tp_control_reading(&net->control.reading, 100.0);
     } else {
         st->pin_high = TP_GUARD_PIN_HIGH;
         st->pin_low = TP_GUARD_PIN_LOW;
@@ -1433,7 +1435,7 @@ tp_status tp_guard_study_run(const tp_desc *desc, const tp_doc *doc,
         rs = apply_corner(desc, net, &cd, &st->corners[c]);
         if (rs == TP_OK)
             rs = run_corner(&cx, &cd, &st->corners[c]);
-        tp_desc_clear(&cd);
+        tp_config_clear(&cd);
         if (rs != TP_OK)
             goto done;
     }
@@ -1453,7 +1455,7 @@ tp_status tp_guard_study_run(const tp_desc *desc, const tp_doc *doc,
     /* The holding state and the full-power equilibrium of the nominal case. */
     tp_diag_init(&quiet, NULL);
     if (tp_steady_hold(net, &hold, &quiet) != TP_OK) {
-        tp_diag_error(d, tp_loc_none(), "control.setpoint",
+        tp_diag_error(d, tp_diag_loc_none(), "control.setpoint",
                       "lower the setpoint or raise the heater's power",
                       "no holding state at the nominal corner: %s", quiet.log);
         rs = TP_ERR_SOLVER;
@@ -1494,7 +1496,7 @@ tp_status tp_guard_study_run(const tp_desc *desc, const tp_doc *doc,
         }
         tp_steady_clear(&ws);
         tp_network_destroy(&wn);
-        tp_desc_clear(&cd);
+        tp_config_clear(&cd);
     }
     for (fi = 0; fi < TP_FAULT_COUNT; fi++) {
         for (k = 0; k < 2; k++) {
@@ -1555,7 +1557,7 @@ void tp_guard_study_clear(tp_guard_study *st)
     st->n_corners = 0;
 }
 
-int tp_guard_cautions(const tp_desc *desc, const tp_network *net, const tp_guard_study *st,
+int tp_guard_cautions(const tp_description *desc, const tp_network *net, const tp_guard_study *st,
                       tp_caution out[TP_CAUTIONS_MAX])
 {
     double surface = -HUGE_VAL, node = -HUGE_VAL;

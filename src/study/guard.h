@@ -5,12 +5,12 @@
 #define TP_GUARD_H
 
 #include "caution.h"
-#include "desc.h"
+#include "description.h"
 #include "diag.h"
-#include "doc.h"
 #include "network.h"
 #include "status.h"
 #include "steady.h"
+#include "yamltree.h"
 
 #define TP_GUARD_RISE_FLOOR 1.0    /* K: smallest rise_min recommended (common practice, no
                                       source: a rise well clear of reading noise) */
@@ -68,8 +68,8 @@ typedef struct tp_guard_ranges {
  * that decides guard's ranges and their defaults. A declared range that cannot apply (reversed,
  * a supply for a fixed-power heater, airflow in the raw form, a room without a fixed node) is
  * an error reported to `d` (TP_ERR_CONFIG), at its position in `doc` (may be NULL). */
-tp_status tp_guard_ranges_resolve(const tp_desc *desc, const tp_doc *doc, const tp_network *net,
-                                  tp_guard_ranges *r, tp_diag *d);
+tp_status tp_guard_ranges_resolve(const tp_description *desc, const tp_yamltree *doc,
+                                  const tp_network *net, tp_guard_ranges *r, tp_diag *d);
 
 /* The range's name as in `guard:` ("supply", "resistance", "room", "airflow"). */
 const char *tp_guard_range_name(int which);
@@ -172,7 +172,7 @@ enum { TP_G_RISE_WINDOW, TP_G_RISE_MIN, TP_G_APPROACH, TP_G_HOLD_BAND, TP_G_HOLD
        TP_G_CEILING, TP_G_COUNT };
 
 typedef struct tp_guard_study {
-    const tp_desc *desc;    /* borrowed */
+    const tp_description *desc; /* borrowed */
     double setpoint;        /* K */
     double period;          /* s, controller period */
     double max_duty;
@@ -210,7 +210,7 @@ typedef struct tp_guard_study {
  * `given` (members set override the recommendation; NULL or none set: recommend only).
  * `doc` (may be NULL) gives positions for messages. On failure the diagnostics say why;
  * call tp_guard_study_clear in every case. */
-tp_status tp_guard_study_run(const tp_desc *desc, const tp_doc *doc,
+tp_status tp_guard_study_run(const tp_description *desc, const tp_yamltree *doc,
                              const tp_guard_settings *given, tp_guard_study *st, tp_diag *d);
 
 /* Free what a study holds. */
@@ -226,7 +226,7 @@ const char *tp_guard_setting_name(int which);
 /* The safety cautions of a study (caution.h), from the healthy corners' hottest surface and
  * heater and each layer's healthy peak, with guard's own last: its thresholds supplement a
  * hardware cut-out and never replace it. Returns how many were written to out. */
-int tp_guard_cautions(const tp_desc *desc, const tp_network *net, const tp_guard_study *st,
+int tp_guard_cautions(const tp_description *desc, const tp_network *net, const tp_guard_study *st,
                       tp_caution out[TP_CAUTIONS_MAX]);
 
 #endif

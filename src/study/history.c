@@ -176,7 +176,7 @@ static void surface_row(tp_history *h, long i, const double *temps)
     h->surface_max[i] = hi;
     h->surface_dev[i] = dev;
     if (isfinite(h->cross_level) && !isfinite(h->cross_time) && h->reading[i] >= h->cross_level) {
-        /* The same interpolation as tp_first_rise, so the map matches the reported time. */
+        /* The same interpolation as tp_series_first_rise, so the map matches the reported time. */
         double f = 0.0;
         if (i > 0) {
             double a = h->reading[i - 1], b = h->reading[i];

@@ -51,8 +51,8 @@ static const tp_metricdef table[TP_MET_COUNT] = {
                              0.0, 2, TP_WORSE_HIGHER,
                              "more current through the wiring, connectors and switch",
                              AT(current_peak)},
-    [TP_MET_SURFACE_MAX] = {"surface_max_C", "hottest surface", "degC", TP_KELVIN_0C, TP_FORM_NUMBER,
-                            "degC", 1.0, TP_KELVIN_0C, 1, TP_WORSE_HIGHER,
+    [TP_MET_SURFACE_MAX] = {"surface_max_C", "hottest surface", "degC", TP_KELVIN_0C,
+                            TP_FORM_NUMBER, "degC", 1.0, TP_KELVIN_0C, 1, TP_WORSE_HIGHER,
                             "a hotter surface: burns and material limits", AT(surface_max)},
     [TP_MET_HOLD_POWER] = {"holding_power_W", "holding power", "W", 0.0, TP_FORM_NUMBER, "W", 1.0,
                            0.0, 1, TP_WORSE_HIGHER, "more power needed to hold the setpoint",
@@ -61,32 +61,27 @@ static const tp_metricdef table[TP_MET_COUNT] = {
                           3, TP_WORSE_HIGHER, "less duty left to recover from a disturbance",
                           AT(hold_duty)},
     [TP_MET_MARGIN] = {"margin", "margin", "1", 0.0, TP_FORM_NUMBER, "x", 1.0, 0.0, 2,
-                       TP_WORSE_LOWER, "less power in reserve over what holding needs",
-                       AT(margin)},
+                       TP_WORSE_LOWER, "less power in reserve over what holding needs", AT(margin)},
     [TP_MET_HIGHEST] = {"highest_reachable_C", "highest reachable", "degC", TP_KELVIN_0C,
                         TP_FORM_NUMBER, "degC", 1.0, TP_KELVIN_0C, 1, TP_WORSE_HIGHER,
                         "hotter if the heater sticks on: the hazard a cut-out must stop",
                         AT(highest_reachable)},
     /* Reported by the warm-up only. */
     [TP_MET_SETPOINT] = {"setpoint_C", "setpoint", "degC", TP_KELVIN_0C, TP_FORM_NUMBER, "degC",
-                         1.0, TP_KELVIN_0C, 1, TP_WORSE_HIGHER, NOT_JUDGED,
-                         AT(setpoint)},
+                         1.0, TP_KELVIN_0C, 1, TP_WORSE_HIGHER, NOT_JUDGED, AT(setpoint)},
     [TP_MET_SURFACE_HOLD] = {"surface_hold_C", "surface at holding", "degC", TP_KELVIN_0C,
                              TP_FORM_NUMBER, "degC", 1.0, TP_KELVIN_0C, 1, TP_WORSE_HIGHER,
                              NOT_JUDGED, AT(surface_hold)},
-    [TP_MET_LAG_K] = {"lag_K", "lag", "K", 0.0, TP_FORM_NUMBER, "K", 1.0, 0.0, 2,
-                      TP_WORSE_FARTHER, NOT_JUDGED,
-                      AT(lag_k)},
+    [TP_MET_LAG_K] = {"lag_K", "lag", "K", 0.0, TP_FORM_NUMBER, "K", 1.0, 0.0, 2, TP_WORSE_FARTHER,
+                      NOT_JUDGED, AT(lag_k)},
     [TP_MET_DUTY_MEAN] = {"duty_mean", "mean duty", "1", 0.0, TP_FORM_NUMBER, "-", 1.0, 0.0, 3,
                           TP_WORSE_HIGHER, NOT_JUDGED, AT(duty_mean)},
     [TP_MET_DUTY_PEAK] = {"duty_peak", "peak duty", "1", 0.0, TP_FORM_NUMBER, "-", 1.0, 0.0, 3,
                           TP_WORSE_HIGHER, NOT_JUDGED, AT(duty_peak)},
     [TP_MET_WIRE_MEAN] = {"wiring_loss_mean_W", "wiring loss", "W", 0.0, TP_FORM_NUMBER, "W", 1.0,
-                          0.0, 2, TP_WORSE_HIGHER, NOT_JUDGED,
-                          AT(wire_mean)},
+                          0.0, 2, TP_WORSE_HIGHER, NOT_JUDGED, AT(wire_mean)},
     [TP_MET_AIR_FINAL] = {"air_final_C", "enclosure air", "degC", TP_KELVIN_0C, TP_FORM_NUMBER,
-                          "degC", 1.0, TP_KELVIN_0C, 1, TP_WORSE_HIGHER,
-                          NOT_JUDGED, AT(air_final)},
+                          "degC", 1.0, TP_KELVIN_0C, 1, TP_WORSE_HIGHER, NOT_JUDGED, AT(air_final)},
     [TP_MET_DURATION] = {"duration_s", "simulated", "s", 0.0, TP_FORM_DURATION, "min", 1.0 / 60.0,
                          0.0, 0, TP_WORSE_HIGHER, NOT_JUDGED, AT(duration)},
 };
@@ -120,14 +115,14 @@ void tp_metricdef_keys(char *buf, size_t size)
     }
 }
 
-const char *tp_worse_name(tp_worse worse)
+const char *tp_metricdef_worse_name(tp_metricdef_worse worse)
 {
     return worse == TP_WORSE_HIGHER  ? "highest"
            : worse == TP_WORSE_LOWER ? "lowest"
                                      : "farthest from 0";
 }
 
-int tp_worse_than(double a, double b, tp_worse worse)
+int tp_metricdef_worse_than(double a, double b, tp_metricdef_worse worse)
 {
     if (worse == TP_WORSE_HIGHER)
         return a > b;

@@ -8,51 +8,51 @@
 
 #include <stddef.h>
 
-#include "results.h"
+#include "metrics.h"
 
 /* The metrics: first those a sweep studies, in the order of its columns (TP_MET_SWEPT of
  * them), then those only the warm-up reports. */
-typedef enum tp_metric_id {
-    TP_MET_TIME_SETPOINT,     /* s, the reading first reaches the setpoint */
-    TP_MET_TIME_READY,        /* s, the working surface is ready (docs/metrics.md) */
-    TP_MET_OVERSHOOT_READING, /* K above the setpoint */
-    TP_MET_OVERSHOOT_SURFACE, /* K above the holding surface temperature */
-    TP_MET_STEADY_OFFSET,     /* K, reading minus surface at the holding point */
-    TP_MET_LAG,               /* s */
-    TP_MET_ENERGY_READY,      /* J drawn until the surface is ready */
-    TP_MET_POWER_MEAN,        /* W over the run */
-    TP_MET_POWER_PEAK,        /* W */
-    TP_MET_CURRENT_PEAK,      /* A */
-    TP_MET_SURFACE_MAX,       /* K, hottest working surface */
-    TP_MET_HOLD_POWER,        /* W at the holding point */
-    TP_MET_HOLD_DUTY,         /* -, duty at the holding point */
-    TP_MET_MARGIN,            /* -, available / holding power at the holding point */
-    TP_MET_HIGHEST,           /* K, the reading at the full-power equilibrium */
-    TP_MET_SWEPT,             /* the metrics a sweep studies are those before this */
+typedef enum tp_metricdef_id {
+    TP_MET_TIME_SETPOINT,           /* s, the reading first reaches the setpoint */
+    TP_MET_TIME_READY,              /* s, the working surface is ready (docs/metrics.md) */
+    TP_MET_OVERSHOOT_READING,       /* K above the setpoint */
+    TP_MET_OVERSHOOT_SURFACE,       /* K above the holding surface temperature */
+    TP_MET_STEADY_OFFSET,           /* K, reading minus surface at the holding point */
+    TP_MET_LAG,                     /* s */
+    TP_MET_ENERGY_READY,            /* J drawn until the surface is ready */
+    TP_MET_POWER_MEAN,              /* W over the run */
+    TP_MET_POWER_PEAK,              /* W */
+    TP_MET_CURRENT_PEAK,            /* A */
+    TP_MET_SURFACE_MAX,             /* K, hottest working surface */
+    TP_MET_HOLD_POWER,              /* W at the holding point */
+    TP_MET_HOLD_DUTY,               /* -, duty at the holding point */
+    TP_MET_MARGIN,                  /* -, available / holding power at the holding point */
+    TP_MET_HIGHEST,                 /* K, the reading at the full-power equilibrium */
+    TP_MET_SWEPT,                   /* the metrics a sweep studies are those before this */
     TP_MET_SETPOINT = TP_MET_SWEPT, /* K, the setpoint held (NaN: none) */
-    TP_MET_SURFACE_HOLD,      /* K, the working surface at the holding point */
-    TP_MET_LAG_K,             /* K, the surface short of its holding value at the setpoint */
-    TP_MET_DUTY_MEAN,         /* -, over the run */
-    TP_MET_DUTY_PEAK,         /* - */
-    TP_MET_WIRE_MEAN,         /* W lost in the wiring over the run */
-    TP_MET_AIR_FINAL,         /* K, the enclosure air at the end */
-    TP_MET_DURATION,          /* s simulated */
+    TP_MET_SURFACE_HOLD,            /* K, the working surface at the holding point */
+    TP_MET_LAG_K,                   /* K, the surface short of its holding value at the setpoint */
+    TP_MET_DUTY_MEAN,               /* -, over the run */
+    TP_MET_DUTY_PEAK,               /* - */
+    TP_MET_WIRE_MEAN,               /* W lost in the wiring over the run */
+    TP_MET_AIR_FINAL,               /* K, the enclosure air at the end */
+    TP_MET_DURATION,                /* s simulated */
     TP_MET_COUNT
-} tp_metric_id;
+} tp_metricdef_id;
 
 /* Which way a metric gets worse: the "worst" of a set of values is its largest, its smallest,
  * or the one farthest from zero. */
-typedef enum tp_worse {
+typedef enum tp_metricdef_worse {
     TP_WORSE_LOWER = -1,  /* less is worse (a smaller margin) */
     TP_WORSE_FARTHER = 0, /* farther from zero is worse, either sign (an offset) */
     TP_WORSE_HIGHER = 1   /* more is worse (a longer time, a hotter surface) */
-} tp_worse;
+} tp_metricdef_worse;
 
 /* How a value is written in text. */
-typedef enum tp_metric_form {
+typedef enum tp_metricdef_form {
     TP_FORM_NUMBER,  /* (SI - offset) * scale with `decimals`, in text_unit */
-    TP_FORM_DURATION /* seconds as "7 min 20 s" (report.h), as warmup writes times */
-} tp_metric_form;
+    TP_FORM_DURATION /* seconds as "7 min 20 s" (summary.h), as warmup writes times */
+} tp_metricdef_form;
 
 /* One row of the table. */
 typedef struct tp_metricdef {
@@ -60,12 +60,12 @@ typedef struct tp_metricdef {
     const char *label;     /* short text label: "to setpoint" */
     const char *file_unit; /* unit of the value in files: "s", "K", "J", "W", "A", "degC", "1" */
     double file_offset;    /* file value = SI - file_offset (273.15 for temperatures in degC) */
-    tp_metric_form form;
+    tp_metricdef_form form;
     const char *text_unit; /* unit of the text value: tables of numbers and figure axes ("min"
                               for a duration, which tables write as "7 min 20 s" instead) */
     double scale, offset;  /* text value = (SI - offset) * scale */
     int decimals;          /* digits after the point in text tables */
-    tp_worse worse;        /* which way is worse */
+    tp_metricdef_worse worse; /* which way is worse */
     const char *why;       /* why that way is the worse one, for the documentation */
     size_t field;          /* offset of its value (SI, double) in tp_metrics */
 } tp_metricdef;
@@ -80,10 +80,10 @@ int tp_metricdef_find(const char *key);
 void tp_metricdef_keys(char *buf, size_t size);
 
 /* A word for a direction: "highest", "lowest" or "farthest from 0". */
-const char *tp_worse_name(tp_worse worse);
+const char *tp_metricdef_worse_name(tp_metricdef_worse worse);
 
 /* Nonzero when value a is worse than value b under `worse` (ties are not worse). */
-int tp_worse_than(double a, double b, tp_worse worse);
+int tp_metricdef_worse_than(double a, double b, tp_metricdef_worse worse);
 
 /* The metric's value (SI) in a run's metrics. */
 double tp_metricdef_value(const tp_metricdef *md, const tp_metrics *m);

@@ -11,7 +11,7 @@
 static tp_status split_losses(tp_network *net, tp_steadyreport *r)
 {
     int src = net->has_control ? net->control.source : -1;
-    tp_status st = tp_flows_init(&r->flows, net);
+    tp_status st = tp_network_flows_init(&r->flows, net);
     if (st != TP_OK)
         return st;
     if (src >= 0) {
@@ -41,7 +41,7 @@ tp_status tp_steadyreport_run(tp_network *net, tp_steadyreport *r, tp_diag *d)
     int src = net->has_control ? net->control.source : -1;
     memset(r, 0, sizeof *r);
     r->margin = TP_UNSET;
-    tp_map_stats_compute_empty(&r->map);
+    tp_surfacemap_empty(&r->map);
     r->max_duty = src >= 0 ? net->sources[src].max_duty : 1.0;
     r->holding = tp_network_holds(net);
     st = tp_steady_full(net, 1.0 / r->max_duty, &r->full, d);
@@ -63,7 +63,7 @@ tp_status tp_steadyreport_run(tp_network *net, tp_steadyreport *r, tp_diag *d)
         if (!map)
             return TP_ERR_NOMEM;
         tp_network_surface_map(net, r->shown->temps, map);
-        tp_map_stats_compute(g, map, &r->map);
+        tp_surfacemap_compute(g, map, &r->map);
         free(map);
     }
     return TP_OK;
@@ -71,14 +71,14 @@ tp_status tp_steadyreport_run(tp_network *net, tp_steadyreport *r, tp_diag *d)
 
 void tp_steadyreport_clear(tp_steadyreport *r)
 {
-    tp_flows_clear(&r->flows);
+    tp_network_flows_clear(&r->flows);
     tp_steady_clear(&r->full);
     tp_steady_clear(&r->limit);
     tp_steady_clear(&r->hold);
     r->shown = NULL;
 }
 
-int tp_steadyreport_cautions(const tp_desc *desc, const tp_network *net,
+int tp_steadyreport_cautions(const tp_description *desc, const tp_network *net,
                              const tp_steadyreport *r, tp_caution out[TP_CAUTIONS_MAX])
 {
     const double *t = r->shown->temps;

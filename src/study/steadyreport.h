@@ -9,7 +9,7 @@
 #include "network.h"
 #include "status.h"
 #include "steady.h"
-#include "surfmap.h"
+#include "surfacemap.h"
 
 typedef struct tp_steadyreport {
     int holding;         /* a controller holding a setpoint (tp_network_holds) */
@@ -22,7 +22,7 @@ typedef struct tp_steadyreport {
     double plate_loss;   /* W leaving the plate by every path (the walls' share excluded: it
                             is the same watts again, leaving the enclosure) */
     double margin;       /* max_duty / the holding duty (NaN without a holding point) */
-    tp_map_stats map;    /* the working surface of the state shown (cells 0 without a grid) */
+    tp_surfacemap_stats map; /* the working surface of the state shown (cells 0 without a grid) */
 } tp_steadyreport;
 
 /* Solve the steady states of `net` and what follows from them. On failure the diagnostics say
@@ -35,7 +35,7 @@ void tp_steadyreport_clear(tp_steadyreport *r);
 /* The safety cautions of the state shown (caution.h): its hottest node and surface (on a
  * gridded plate the hottest cell and each layer's hottest cell), the current there. Returns how
  * many were written to out. */
-int tp_steadyreport_cautions(const tp_desc *desc, const tp_network *net,
+int tp_steadyreport_cautions(const tp_description *desc, const tp_network *net,
                              const tp_steadyreport *r, tp_caution out[TP_CAUTIONS_MAX]);
 
 #endif

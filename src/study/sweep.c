@@ -66,7 +66,7 @@ static int trimmed(const char *text, size_t len, char *buf, size_t size)
 
 /* Split "key=spec"; check the key names a number that is set in desc and is not yet in the
  * plan. `opt` names the option for messages. */
-static tp_status parse_key(const tp_sweep_plan *plan, const tp_desc *desc, const char *text,
+static tp_status parse_key(const tp_sweep_plan *plan, const tp_description *desc, const char *text,
                            const char *opt, tp_sweep_param *p, const char **spec, tp_diag *d)
 {
     const char *eq = strchr(text, '=');
@@ -117,7 +117,7 @@ static tp_status parse_qty(const char *text, size_t len, tp_dim dim, double *out
     return TP_OK;
 }
 
-static tp_status check_value(const tp_desc *desc, const tp_sweep_param *p, double v,
+static tp_status check_value(const tp_description *desc, const tp_sweep_param *p, double v,
                              const char *opt, tp_diag *d)
 {
     char msg[256];
@@ -149,7 +149,8 @@ static int split(const char *spec, char sep, const char **start, size_t *len, in
 
 #define LIST_MAX 4096 /* values in one A,B,C list */
 
-tp_status tp_sweep_add_vary(tp_sweep_plan *plan, const tp_desc *desc, const char *text, tp_diag *d)
+tp_status tp_sweep_add_vary(tp_sweep_plan *plan, const tp_description *desc, const char *text,
+                            tp_diag *d)
 {
     tp_sweep_param p;
     const char *spec, *start[LIST_MAX + 1];
@@ -243,7 +244,7 @@ static tp_status spread_number(const char *text, size_t len, tp_dim dim, double 
     char buf[128];
     if (trimmed(text, len, buf, sizeof buf) == 0 && buf[0] && buf[strlen(buf) - 1] == '%') {
         buf[strlen(buf) - 1] = '\0';
-        if (tp_parse_double(buf, v) != 0) {
+        if (tp_units_parse_double(buf, v) != 0) {
             tp_diag_error(d, (tp_loc){"--spread", 1, 1}, path, "e.g. 10%", "bad percentage '%s%%'",
                           buf);
             return TP_ERR_USAGE;
@@ -256,7 +257,7 @@ static tp_status spread_number(const char *text, size_t len, tp_dim dim, double 
     return parse_qty(text, len, dim, v, "--spread", path, unit, d);
 }
 
-tp_status tp_sweep_add_spread(tp_sweep_plan *plan, const tp_desc *desc, const char *text,
+tp_status tp_sweep_add_spread(tp_sweep_plan *plan, const tp_description *desc, const char *text,
                               tp_diag *d)
 {
     tp_sweep_param p;
@@ -526,7 +527,7 @@ tp_status tp_sweep_summarise(const tp_sweep_plan *plan, const tp_sweep_result *r
 {
     long total = tp_sweep_count(plan), i, n = 0;
     int k;
-    tp_worse worse = tp_metricdef_get(metric)->worse;
+    tp_metricdef_worse worse = tp_metricdef_get(metric)->worse;
     double *x = malloc(((size_t)total + 1) * 3 * sizeof *x), *sorted, *pv;
     double best_abs = -1.0;
     memset(out, 0, sizeof *out);
@@ -548,7 +549,7 @@ tp_status tp_sweep_summarise(const tp_sweep_plan *plan, const tp_sweep_result *r
             out->absent++;
             continue;
         }
-        if (out->worst_index < 0 || tp_worse_than(v, out->worst, worse)) {
+        if (out->worst_index < 0 || tp_metricdef_worse_than(v, out->worst, worse)) {
             out->worst = v;
             out->worst_index = i;
         }
@@ -588,7 +589,7 @@ tp_status tp_sweep_summarise(const tp_sweep_plan *plan, const tp_sweep_result *r
 
 typedef struct pool {
     const tp_sweep_plan *plan;
-    const tp_desc *base;
+    const tp_description *base;
     tp_sweep_result *results;
     long total;
     atomic_long next; /* the next point to take */
@@ -633,7 +634,7 @@ static int cmp_caution(const void *a, const void *b)
     return tp_caution_compare(&x->c, &y->c);
 }
 
-static void point_cautions(worker *wk, const tp_desc *desc, const tp_network *net,
+static void point_cautions(worker *wk, const tp_description *desc, const tp_network *net,
                            const tp_warmup *w, long index)
 {
     tp_caution list[TP_CAUTIONS_MAX];
@@ -693,7 +694,7 @@ static void take_metrics(const tp_warmup *w, tp_sweep_result *res)
         v[TP_MET_OVERSHOOT_READING] = v[TP_MET_OVERSHOOT_SURFACE] = TP_UNSET;
 }
 
-static void run_point(worker *wk, tp_desc *desc, long i)
+static void run_point(worker *wk, tp_description *desc, long i)
 {
     const tp_sweep_plan *plan = wk->p->plan;
     tp_sweep_result *res = &wk->p->results[i];
@@ -736,9 +737,9 @@ static void *work(void *arg)
 {
     worker *wk = arg;
     pool *p = wk->p;
-    tp_desc desc;
+    tp_description desc;
     double cpu0 = now_seconds(CLOCK_THREAD_CPUTIME_ID);
-    int have_desc = tp_desc_copy(&desc, p->base) == TP_OK;
+    int have_desc = tp_config_copy(&desc, p->base) == TP_OK;
     for (;;) {
         long i = atomic_fetch_add(&p->next, 1);
         if (i >= p->total)
@@ -755,7 +756,7 @@ static void *work(void *arg)
         atomic_fetch_add(&p->done, 1);
     }
     if (have_desc)
-        tp_desc_clear(&desc);
+        tp_config_clear(&desc);
     wk->cpu = now_seconds(CLOCK_THREAD_CPUTIME_ID) - cpu0;
     return NULL;
 }
@@ -768,7 +769,7 @@ int tp_sweep_default_jobs(void)
     return n > TP_SWEEP_MAX_JOBS ? TP_SWEEP_MAX_JOBS : (int)n;
 }
 
-tp_status tp_sweep_run(const tp_sweep_plan *plan, const tp_desc *base, int jobs,
+tp_status tp_sweep_run(const tp_sweep_plan *plan, const tp_description *base, int jobs,
                        tp_sweep_result *results, tp_sweep_progress_fn progress, void *user,
                        tp_sweep_totals *totals)
 {

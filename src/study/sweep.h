@@ -7,11 +7,11 @@
 #include <stddef.h>
 #include <stdint.h>
 
-#include "desc.h"
+#include "caution.h"
+#include "description.h"
 #include "diag.h"
 #include "metricdef.h"
 #include "network.h"
-#include "caution.h"
 #include "status.h"
 #include "units.h"
 
@@ -36,7 +36,7 @@ typedef struct tp_sweep_param {
     double nominal; /* SI, the config's value */
     /* The unit values are shown in to people: as written in the option ("mm" of
      * "3mm:5mm:1mm"; for a spread, of its absolute numbers); "" when the option gave none
-     * (percentages), for the caller to fill (the config's unit, tp_confedit_unit). */
+     * (percentages), for the caller to fill (the config's unit, tp_configedit_unit). */
     char unit[TP_SWEEP_UNIT_MAX];
     /* grid */
     double *values; /* SI, owned */
@@ -67,13 +67,14 @@ void tp_sweep_plan_clear(tp_sweep_plan *plan);
  * The unit of FROM (or of A) becomes the parameter's unit.
  * The key must hold a value in `desc`. Errors (unknown key, bad unit, empty or too large range,
  * a value the schema refuses) go to `d` as usage errors; the plan is unchanged on failure. */
-tp_status tp_sweep_add_vary(tp_sweep_plan *plan, const tp_desc *desc, const char *text, tp_diag *d);
+tp_status tp_sweep_add_vary(tp_sweep_plan *plan, const tp_description *desc, const char *text,
+                            tp_diag *d);
 
 /* Add a spread from "key.path=normal:SIGMA" or "key.path=uniform:LOW:HIGH", each number either
  * relative ("10%", of the nominal value; uniform bounds as deviations, "-10%:10%") or absolute
  * with the key's unit (normal: a standard deviation; uniform: the bounds themselves; for an
  * absolute temperature SIGMA is an interval). Errors as for tp_sweep_add_vary. */
-tp_status tp_sweep_add_spread(tp_sweep_plan *plan, const tp_desc *desc, const char *text,
+tp_status tp_sweep_add_spread(tp_sweep_plan *plan, const tp_description *desc, const char *text,
                               tp_diag *d);
 
 /* Points of the plan: the product of the axis sizes (grid) or n_samples (spread). */
@@ -158,7 +159,7 @@ typedef struct tp_sweep_totals {
  * fails (a value the schema refuses, assembly, steady state or integration) is marked with its
  * reason and the run goes on. Returns TP_ERR_NOMEM when nothing could be started; per-point
  * failures do not fail the run. */
-tp_status tp_sweep_run(const tp_sweep_plan *plan, const tp_desc *base, int jobs,
+tp_status tp_sweep_run(const tp_sweep_plan *plan, const tp_description *base, int jobs,
                        tp_sweep_result *results, tp_sweep_progress_fn progress, void *user,
                        tp_sweep_totals *totals);
 

@@ -17,7 +17,8 @@
 
 #include "history.h"
 #include "integrate.h"
-#include "results.h"
+#include "metrics.h"
+#include "series.h"
 #include "steady.h"
 
 #define TP_TWO_POINT_LOW 0.283 /* -, first fraction of the two-point method */
@@ -62,7 +63,7 @@ tp_status tp_tune_identify(tp_network *net, double step, tp_fopdt *m, tp_diag *d
     memset(&hold, 0, sizeof hold);
     memset(&after, 0, sizeof after);
     if (!net->has_control || !isfinite(net->control.setpoint)) {
-        tp_diag_error(d, tp_loc_none(), "control.setpoint",
+        tp_diag_error(d, tp_diag_loc_none(), "control.setpoint",
                       "add control: {mode: pid, setpoint: ...}", "tuning needs a setpoint");
         return TP_ERR_CONFIG;
     }
@@ -106,11 +107,11 @@ tp_status tp_tune_identify(tp_network *net, double step, tp_fopdt *m, tp_diag *d
             double lo = m->y0 - net->control.reading.offset + TP_TWO_POINT_LOW * dy;
             double hi = m->y0 - net->control.reading.offset + TP_TWO_POINT_HIGH * dy;
             if (dy > 0) {
-                t28 = tp_first_rise(h.t, h.temps + col, h.n, h.n_out, lo);
-                t63 = tp_first_rise(h.t, h.temps + col, h.n, h.n_out, hi);
+                t28 = tp_series_first_rise(h.t, h.temps + col, h.n, h.n_out, lo);
+                t63 = tp_series_first_rise(h.t, h.temps + col, h.n, h.n_out, hi);
             } else {
-                t28 = tp_first_fall(h.t, h.temps + col, h.n, h.n_out, lo);
-                t63 = tp_first_fall(h.t, h.temps + col, h.n, h.n_out, hi);
+                t28 = tp_series_first_fall(h.t, h.temps + col, h.n, h.n_out, lo);
+                t63 = tp_series_first_fall(h.t, h.temps + col, h.n, h.n_out, hi);
             }
         }
         tp_history_clear(&h);
@@ -119,7 +120,7 @@ tp_status tp_tune_identify(tp_network *net, double step, tp_fopdt *m, tp_diag *d
         duration *= 2.0;
     }
     if (rc == TP_OK && !(isfinite(t28) && isfinite(t63))) {
-        tp_diag_error(d, tp_loc_none(), NULL, "lengthen run.duration",
+        tp_diag_error(d, tp_diag_loc_none(), NULL, "lengthen run.duration",
                       "the step response did not reach 63 %% of its change in %.0f s", duration);
         rc = TP_ERR_SOLVER;
     }

@@ -1,6 +1,7 @@
 /* A warm-up run packaged for reuse: the steady states around it, the integration with its
  * history, the metrics and per-node peaks. */
 #include "warmup.h"
+#include "series.h"
 
 #include <math.h>
 #include <stdio.h>
@@ -56,17 +57,18 @@ static tp_status grid_after(tp_network *net, tp_warmup *w)
         if (h->out_kind[k] == TP_COL_MAX)
             w->layer_peak[h->out_layer[k]] = tp_series_max(h->temps + k, h->n, h->n_out);
     memcpy(w->map_final, h->map, n * sizeof *w->map_final);
-    tp_map_stats_compute(g, w->map_final, &w->stats_final);
+    tp_surfacemap_compute(g, w->map_final, &w->stats_final);
     if (isfinite(h->cross_time)) {
         w->map_setpoint = malloc(n * sizeof *w->map_setpoint);
         if (!w->map_setpoint)
             return TP_ERR_NOMEM;
         memcpy(w->map_setpoint, h->map_cross, n * sizeof *w->map_setpoint);
-        tp_map_stats_compute(g, w->map_setpoint, &w->stats_setpoint);
+        tp_surfacemap_compute(g, w->map_setpoint, &w->stats_setpoint);
     }
     if (w->map_hold) {
-        tp_map_stats_compute(g, w->map_hold, &w->stats_hold);
-        w->t_all_ready = tp_settle_time(h->t, h->surface_dev, h->n, 1, 0.0, TP_MAP_READY_BAND);
+        tp_surfacemap_compute(g, w->map_hold, &w->stats_hold);
+        w->t_all_ready =
+            tp_series_settle_time(h->t, h->surface_dev, h->n, 1, 0.0, TP_SURFACEMAP_READY_BAND);
     }
     return TP_OK;
 }
@@ -78,9 +80,9 @@ tp_status tp_warmup_run(tp_network *net, tp_warmup *w, tp_diag *d)
     tp_diag quiet;
     memset(w, 0, sizeof *w);
     w->t_all_ready = TP_UNSET;
-    tp_map_stats_compute_empty(&w->stats_hold);
-    tp_map_stats_compute_empty(&w->stats_setpoint);
-    tp_map_stats_compute_empty(&w->stats_final);
+    tp_surfacemap_empty(&w->stats_hold);
+    tp_surfacemap_empty(&w->stats_setpoint);
+    tp_surfacemap_empty(&w->stats_final);
     st = tp_history_init(&w->history, net);
     if (st != TP_OK)
         return st;
@@ -132,7 +134,7 @@ int tp_warmup_reading_column(const tp_network *net, const tp_history *h)
     return tp_history_column(h, net->control.sensor);
 }
 
-int tp_warmup_cautions(const tp_desc *desc, const tp_network *net, const tp_warmup *w,
+int tp_warmup_cautions(const tp_description *desc, const tp_network *net, const tp_warmup *w,
                        tp_caution out[TP_CAUTIONS_MAX])
 {
     tp_caution_exposure ex = {w->metrics.surface_max, w->metrics.node_max,

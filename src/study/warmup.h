@@ -7,11 +7,11 @@
 #include "diag.h"
 #include "history.h"
 #include "integrate.h"
+#include "metrics.h"
 #include "network.h"
-#include "results.h"
 #include "status.h"
 #include "steady.h"
-#include "surfmap.h"
+#include "surfacemap.h"
 
 typedef struct tp_warmup {
     tp_history history;
@@ -27,9 +27,9 @@ typedef struct tp_warmup {
     double *map_hold;     /* the working-surface map at the holding point, K */
     double *map_setpoint; /* the map when the reading reached the setpoint (history) */
     double *map_final;    /* the map at the end of the run (history) */
-    tp_map_stats stats_hold, stats_setpoint, stats_final;
-    double t_all_ready;   /* s: from here on every cell is within TP_MAP_READY_BAND of its
-                             holding value; NaN: not in the simulated time */
+    tp_surfacemap_stats stats_hold, stats_setpoint, stats_final;
+    double t_all_ready; /* s: from here on every cell is within TP_SURFACEMAP_READY_BAND of its
+                           holding value; NaN: not in the simulated time */
 } tp_warmup;
 
 /* Run the warm-up of `net` from its initial state over run.duration and compute the metrics.
@@ -47,7 +47,7 @@ int tp_warmup_reading_column(const tp_network *net, const tp_history *h);
 /* The safety cautions of a run (caution.h), from what it reached: the hottest working surface
  * (on a gridded plate its hottest cell, not the mean), the hottest node, the peak current and
  * each node's and layer's peak. Returns how many were written to out. */
-int tp_warmup_cautions(const tp_desc *desc, const tp_network *net, const tp_warmup *w,
+int tp_warmup_cautions(const tp_description *desc, const tp_network *net, const tp_warmup *w,
                        tp_caution out[TP_CAUTIONS_MAX]);
 
 #endif

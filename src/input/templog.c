@@ -1,7 +1,7 @@
 /* Measured logs: a line scanner over a memory buffer, header analysis (column roles and units),
  * cell parsers for numbers, clock times and ISO timestamps, and the plausibility checks. Every
  * read is bounded by the buffer length; nothing assumes NUL termination of the input. */
-#include "logfile.h"
+#include "templog.h"
 
 #include <ctype.h>
 #include <math.h>
@@ -118,7 +118,7 @@ static const unit_word *find_unit(const char *word, role r)
 static void split_name(const char *name, role r, char *base, size_t bsize, char *unit, size_t usize,
                        int *bracketed)
 {
-    char tmp[TP_LOG_NAME_MAX];
+    char tmp[TP_TEMPLOG_NAME_MAX];
     const char *open;
     *bracketed = 0;
     unit[0] = '\0';
@@ -196,9 +196,9 @@ static int skippable(const char *p, size_t n)
 }
 
 typedef struct row {
-    char buf[TP_LOG_LINE_MAX + 1];
-    char *cell[TP_LOG_MAX_COLS];
-    int col[TP_LOG_MAX_COLS]; /* 1-based byte column where each cell starts */
+    char buf[TP_TEMPLOG_LINE_MAX + 1];
+    char *cell[TP_TEMPLOG_MAX_COLS];
+    int col[TP_TEMPLOG_MAX_COLS]; /* 1-based byte column where each cell starts */
     int n;
     int too_many;
 } row;
@@ -216,7 +216,7 @@ static void split_row(row *r, const char *p, size_t n, char sep)
         char *e = strchr(s, sep);
         if (e)
             *e = '\0';
-        if (r->n == TP_LOG_MAX_COLS) {
+        if (r->n == TP_TEMPLOG_MAX_COLS) {
             r->too_many = 1;
             return;
         }
@@ -265,14 +265,14 @@ static int parse_clock(const char *s, double *out, int *hours_field)
         b = digits(c1 + 1, (size_t)(c2 - c1 - 1), 2);
         if (b < 0 || b > 59 || c2 - c1 - 1 != 2)
             return -1;
-        if (!isdigit((unsigned char)c2[1]) || tp_parse_double(c2 + 1, &sec) != 0 || sec < 0 ||
+        if (!isdigit((unsigned char)c2[1]) || tp_units_parse_double(c2 + 1, &sec) != 0 || sec < 0 ||
             sec >= 60.0)
             return -1;
         *out = (double)a * 3600.0 + (double)b * 60.0 + sec;
         *hours_field = 1;
         return 0;
     }
-    if (!isdigit((unsigned char)c1[1]) || tp_parse_double(c1 + 1, &sec) != 0 || sec < 0 ||
+    if (!isdigit((unsigned char)c1[1]) || tp_units_parse_double(c1 + 1, &sec) != 0 || sec < 0 ||
         sec >= 60.0)
         return -1;
     *out = (double)a * 60.0 + sec;
@@ -325,7 +325,7 @@ static int parse_iso(const char *s, double *out)
             frac[k++] = s[j++];
         frac[k] = '\0';
         if (k < 2 || !isdigit((unsigned char)frac[0]) || !isdigit((unsigned char)frac[1]) ||
-            (k > 2 && frac[2] != '.') || tp_parse_double(frac, &sec) != 0 || sec >= 61.0)
+            (k > 2 && frac[2] != '.') || tp_units_parse_double(frac, &sec) != 0 || sec >= 61.0)
             return -1;
         i = j;
     }
@@ -357,24 +357,24 @@ static int parse_iso(const char *s, double *out)
     return 0;
 }
 
-static tp_log_time_format sniff_time(const char *s)
+static tp_templog_time_format sniff_time(const char *s)
 {
     size_t n = strlen(s);
     if (n >= 10 && isdigit((unsigned char)s[0]) && s[4] == '-' && s[7] == '-')
-        return TP_LOG_TIME_ISO;
+        return TP_TEMPLOG_TIME_ISO;
     if (strchr(s, ':'))
-        return TP_LOG_TIME_CLOCK;
-    return TP_LOG_TIME_NUMBER;
+        return TP_TEMPLOG_TIME_CLOCK;
+    return TP_TEMPLOG_TIME_NUMBER;
 }
 
-static const char *time_format_name(tp_log_time_format f)
+static const char *time_format_name(tp_templog_time_format f)
 {
     switch (f) {
-    case TP_LOG_TIME_NUMBER:
+    case TP_TEMPLOG_TIME_NUMBER:
         return "a number of seconds";
-    case TP_LOG_TIME_CLOCK:
+    case TP_TEMPLOG_TIME_CLOCK:
         return "a clock time H:MM:SS";
-    case TP_LOG_TIME_ISO:
+    case TP_TEMPLOG_TIME_ISO:
         return "an ISO timestamp YYYY-MM-DDTHH:MM:SS";
     }
     return "?";
@@ -389,14 +389,14 @@ typedef struct parser {
     row r;
     int icol[3]; /* column index per role; -1: none */
     double time_scale;
-    int temp_kind; /* 0 C, 1 F, 2 K */
-    int duty_unit; /* 1 percent, -1 fraction, 2 counts of full_scale, 0 not declared */
+    int temp_kind;     /* 0 C, 1 F, 2 K */
+    int duty_unit;     /* 1 percent, -1 fraction, 2 counts of full_scale, 0 not declared */
     double full_scale; /* duty_unit 2: the count that means full duty (e.g. 255) */
     int drive_line, drive_colno; /* where the drive column is named, for messages */
     double power_scale;
 } parser;
 
-/* Report a problem at line:col; after TP_LOG_ERRORS_MAX of them only count. */
+/* Report a problem at line:col; after TP_TEMPLOG_ERRORS_MAX of them only count. */
 static void row_error(parser *p, int line, int col, const char *hint, const char *fmt, ...)
     __attribute__((format(printf, 5, 6)));
 
@@ -405,12 +405,12 @@ static void row_error(parser *p, int line, int col, const char *hint, const char
     char msg[512];
     va_list ap;
     p->errors++;
-    if (p->errors > TP_LOG_ERRORS_MAX)
+    if (p->errors > TP_TEMPLOG_ERRORS_MAX)
         return;
     va_start(ap, fmt);
     vsnprintf(msg, sizeof msg, fmt, ap);
     va_end(ap);
-    if (p->errors == TP_LOG_ERRORS_MAX)
+    if (p->errors == TP_TEMPLOG_ERRORS_MAX)
         tp_diag_error(p->d, (tp_loc){p->name, line, col}, NULL,
                       "fix these first; further errors are not shown", "%s", msg);
     else
@@ -425,7 +425,7 @@ static int find_column(const row *h, const char *want)
         if (strcmp(h->cell[i], want) == 0)
             return i;
     for (i = 0; i < h->n; i++) {
-        char a[TP_LOG_NAME_MAX], b[TP_LOG_NAME_MAX];
+        char a[TP_TEMPLOG_NAME_MAX], b[TP_TEMPLOG_NAME_MAX];
         lower_copy(a, sizeof a, h->cell[i]);
         lower_copy(b, sizeof b, want);
         if (strcmp(a, b) == 0)
@@ -448,7 +448,7 @@ static int auto_column(const row *h, role r, const int *taken)
 {
     int i;
     for (i = 0; i < h->n; i++) {
-        char base[TP_LOG_NAME_MAX], unit[32];
+        char base[TP_TEMPLOG_NAME_MAX], unit[32];
         int br;
         if (taken[0] == i || taken[1] == i)
             continue;
@@ -469,12 +469,12 @@ static int auto_column(const row *h, role r, const int *taken)
 }
 
 /* Choose the columns and read their units from the header. */
-static tp_status analyse_header(parser *p, const tp_log_opts *o, int line, tp_log *log)
+static tp_status analyse_header(parser *p, const tp_templog_opts *o, int line, tp_templog *log)
 {
     const row *h = &p->r;
     const char *want[3] = {o ? o->time_col : NULL, o ? o->temp_col : NULL, o ? o->duty_col : NULL};
     static const char *const opt_name[3] = {"--time-col", "--temp-col", "--duty-col"};
-    char list[512], base[TP_LOG_NAME_MAX], unit[32];
+    char list[512], base[TP_TEMPLOG_NAME_MAX], unit[32];
     int k, br, taken[2] = {-1, -1};
     const unit_word *u;
 
@@ -551,7 +551,7 @@ static tp_status analyse_header(parser *p, const tp_log_opts *o, int line, tp_lo
              p->temp_kind == 0   ? "degC"
              : p->temp_kind == 1 ? "degF"
                                  : "K");
-    log->drive_kind = TP_LOG_DRIVE_NONE;
+    log->drive_kind = TP_TEMPLOG_DRIVE_NONE;
     k = p->icol[ROLE_DRIVE];
     if (k >= 0) {
         split_name(h->cell[k], ROLE_DRIVE, base, sizeof base, unit, sizeof unit, &br);
@@ -561,14 +561,15 @@ static tp_status analyse_header(parser *p, const tp_log_opts *o, int line, tp_lo
             (unit[2] == ' ' || unit[2] == '\t')) {
             /* "pwm (of 255)": counts, with the count that means full duty. */
             double fs;
-            if (tp_parse_double(unit + 3, &fs) != 0 || !(fs >= 1.0 && fs <= 1e9) ||
+            if (tp_units_parse_double(unit + 3, &fs) != 0 || !(fs >= 1.0 && fs <= 1e9) ||
                 fs != floor(fs)) {
-                row_error(p, line, h->col[k], "write the count that means full duty, e.g. "
+                row_error(p, line, h->col[k],
+                          "write the count that means full duty, e.g. "
                           "pwm (of 255) for an 8-bit PWM register",
                           "'%s' in column '%s' is not a full scale of counts", unit, h->cell[k]);
                 return TP_ERR_CONFIG;
             }
-            log->drive_kind = TP_LOG_DRIVE_DUTY;
+            log->drive_kind = TP_TEMPLOG_DRIVE_DUTY;
             p->duty_unit = 2;
             p->full_scale = fs;
             snprintf(log->drive_col, sizeof log->drive_col, "%s", h->cell[k]);
@@ -582,10 +583,10 @@ static tp_status analyse_header(parser *p, const tp_log_opts *o, int line, tp_lo
             return TP_ERR_CONFIG;
         }
         if ((u && u->percent == 0) || (!u && starts_with(base, "power"))) {
-            log->drive_kind = TP_LOG_DRIVE_POWER;
+            log->drive_kind = TP_TEMPLOG_DRIVE_POWER;
             p->power_scale = u ? u->scale : 1.0;
         } else {
-            log->drive_kind = TP_LOG_DRIVE_DUTY;
+            log->drive_kind = TP_TEMPLOG_DRIVE_DUTY;
             p->duty_unit = u ? u->percent : 0;
         }
         snprintf(log->drive_col, sizeof log->drive_col, "%s", h->cell[k]);
@@ -609,7 +610,7 @@ static void fmt_seconds(double s, char *buf, size_t size)
         snprintf(buf, size, "%.0f s (%.1f min)", s, s / 60.0);
 }
 
-void tp_log_clear(tp_log *log)
+void tp_templog_clear(tp_templog *log)
 {
     if (!log)
         return;
@@ -622,18 +623,18 @@ void tp_log_clear(tp_log *log)
 }
 
 /* Range checks that need every row: duty unit, gaps, the row count. */
-static void check_rows(parser *p, tp_log *log, int last_line)
+static void check_rows(parser *p, tp_templog *log, int last_line)
 {
     long i;
     double span, vmax = 0.0;
     char a[64];
-    if (log->n < TP_LOG_MIN_ROWS) {
+    if (log->n < TP_TEMPLOG_MIN_ROWS) {
         row_error(p, last_line, 1, "log at least until the plate has settled (see docs/fit.md)",
                   "only %ld data row%s; a fit needs at least %d", log->n, log->n == 1 ? "" : "s",
-                  TP_LOG_MIN_ROWS);
+                  TP_TEMPLOG_MIN_ROWS);
         return;
     }
-    if (log->drive_kind == TP_LOG_DRIVE_DUTY) {
+    if (log->drive_kind == TP_TEMPLOG_DRIVE_DUTY) {
         double top;
         for (i = 0; i < log->n; i++)
             vmax = fmax(vmax, log->drive[i]);
@@ -643,12 +644,14 @@ static void check_rows(parser *p, tp_log *log, int last_line)
         if (p->duty_unit == 0 && vmax > 1.0) {
             char hint[320];
             const char *c = log->drive_col;
-            snprintf(hint, sizeof hint, "declare the scale in the header: %s (%%) for percent, "
+            snprintf(hint, sizeof hint,
+                     "declare the scale in the header: %s (%%) for percent, "
                      "%s (of 255) for PWM counts of 255, %s (1) for a fraction (docs/fit.md)",
                      c, c, c);
             row_error(p, p->drive_line, p->drive_colno, hint,
                       "the duty column '%s' has values up to %g and no declared scale: "
-                      "percent, or PWM counts?", c, vmax);
+                      "percent, or PWM counts?",
+                      c, vmax);
             return;
         }
         log->duty_percent = p->duty_unit == 1;
@@ -670,18 +673,18 @@ static void check_rows(parser *p, tp_log *log, int last_line)
     span = log->t[log->n - 1] - log->t[0];
     for (i = 1; i < log->n; i++) {
         double gap = log->t[i] - log->t[i - 1];
-        if (gap > TP_LOG_GAP_FRACTION * span) {
+        if (gap > TP_TEMPLOG_GAP_FRACTION * span) {
             fmt_seconds(gap, a, sizeof a);
             tp_diag_warn(p->d, (tp_loc){p->name, log->line[i], 1}, NULL,
                          "the model runs through the gap, but nothing checks it there",
                          "a gap of %s before this row, more than %.0f %% of the log", a,
-                         100.0 * TP_LOG_GAP_FRACTION);
+                         100.0 * TP_TEMPLOG_GAP_FRACTION);
         }
     }
 }
 
-static tp_status parse_cells(parser *p, tp_log *log, long i, int line, tp_log_time_format *fmt,
-                             double *day_offset, int *have_first)
+static tp_status parse_cells(parser *p, tp_templog *log, long i, int line,
+                             tp_templog_time_format *fmt, double *day_offset, int *have_first)
 {
     row *r = &p->r;
     const char *c;
@@ -705,8 +708,8 @@ static tp_status parse_cells(parser *p, tp_log *log, long i, int line, tp_log_ti
     if (!*have_first)
         *fmt = sniff_time(c);
     switch (*fmt) {
-    case TP_LOG_TIME_NUMBER:
-        if (tp_parse_double(c, &v) != 0) {
+    case TP_TEMPLOG_TIME_NUMBER:
+        if (tp_units_parse_double(c, &v) != 0) {
             row_error(p, line, r->col[p->icol[ROLE_TIME]],
                       "times are seconds, H:MM:SS or ISO timestamps, the same in every row",
                       "'%s' in column '%s' is not %s", c, log->time_col, time_format_name(*fmt));
@@ -714,7 +717,7 @@ static tp_status parse_cells(parser *p, tp_log *log, long i, int line, tp_log_ti
         }
         t = v * p->time_scale;
         break;
-    case TP_LOG_TIME_CLOCK:
+    case TP_TEMPLOG_TIME_CLOCK:
         if (parse_clock(c, &t, &hours_field) != 0) {
             row_error(p, line, r->col[p->icol[ROLE_TIME]],
                       "times are seconds, H:MM:SS or ISO timestamps, the same in every row",
@@ -726,7 +729,7 @@ static tp_status parse_cells(parser *p, tp_log *log, long i, int line, tp_log_ti
             *day_offset += DAY;
         t += *day_offset;
         break;
-    case TP_LOG_TIME_ISO:
+    case TP_TEMPLOG_TIME_ISO:
     default:
         if (parse_iso(c, &t) != 0) {
             row_error(p, line, r->col[p->icol[ROLE_TIME]],
@@ -753,14 +756,14 @@ static tp_status parse_cells(parser *p, tp_log *log, long i, int line, tp_log_ti
     *have_first = 1;
     /* Reading. */
     c = r->cell[p->icol[ROLE_TEMP]];
-    if (tp_parse_double(c, &v) != 0) {
+    if (tp_units_parse_double(c, &v) != 0) {
         row_error(p, line, r->col[p->icol[ROLE_TEMP]],
                   "readings are plain decimal numbers with a point",
                   "'%s' in column '%s' is not a number", c, log->temp_col);
         return TP_ERR_CONFIG;
     }
     v = to_kelvin(p->temp_kind, v);
-    if (!(v >= TP_LOG_READING_MIN && v <= TP_LOG_READING_MAX))
+    if (!(v >= TP_TEMPLOG_READING_MIN && v <= TP_TEMPLOG_READING_MAX))
         return row_error(p, line, r->col[p->icol[ROLE_TEMP]],
                          "check the column and its unit (temp_F for Fahrenheit, temp_K for "
                          "kelvin); a disconnected sensor logs nonsense",
@@ -771,13 +774,13 @@ static tp_status parse_cells(parser *p, tp_log *log, long i, int line, tp_log_ti
     /* Drive. */
     if (log->drive) {
         c = r->cell[p->icol[ROLE_DRIVE]];
-        if (tp_parse_double(c, &v) != 0) {
+        if (tp_units_parse_double(c, &v) != 0) {
             row_error(p, line, r->col[p->icol[ROLE_DRIVE]],
                       "duty and power are plain decimal numbers with a point",
                       "'%s' in column '%s' is not a number", c, log->drive_col);
             return TP_ERR_CONFIG;
         }
-        if (log->drive_kind == TP_LOG_DRIVE_POWER) {
+        if (log->drive_kind == TP_TEMPLOG_DRIVE_POWER) {
             v *= p->power_scale;
             if (v < 0.0) {
                 row_error(p, line, r->col[p->icol[ROLE_DRIVE]], NULL,
@@ -790,8 +793,8 @@ static tp_status parse_cells(parser *p, tp_log *log, long i, int line, tp_log_ti
     return TP_OK;
 }
 
-tp_status tp_log_parse(const char *name, const char *text, size_t len, const tp_log_opts *opts,
-                       tp_log *log, tp_diag *d)
+tp_status tp_templog_parse(const char *name, const char *text, size_t len,
+                           const tp_templog_opts *opts, tp_templog *log, tp_diag *d)
 {
     parser *p = NULL;
     scanner sc = {text, len, 0, 0};
@@ -800,7 +803,7 @@ tp_status tp_log_parse(const char *name, const char *text, size_t len, const tp_
     long rows = 0, i = 0;
     int header_line = 0, last_line = 0, have_first = 0;
     char sep = ',';
-    tp_log_time_format fmt = TP_LOG_TIME_NUMBER;
+    tp_templog_time_format fmt = TP_TEMPLOG_TIME_NUMBER;
     double day_offset = 0.0;
     tp_status st = TP_OK;
 
@@ -821,10 +824,10 @@ tp_status tp_log_parse(const char *name, const char *text, size_t len, const tp_
     /* First pass: the header, the number of data rows (limited before anything is allocated)
      * and the longest line. */
     while (next_line(&sc, &ln, &n)) {
-        if (n > TP_LOG_LINE_MAX) {
-            tp_diag_error(d, (tp_loc){name, sc.line, TP_LOG_LINE_MAX + 1}, NULL,
+        if (n > TP_TEMPLOG_LINE_MAX) {
+            tp_diag_error(d, (tp_loc){name, sc.line, TP_TEMPLOG_LINE_MAX + 1}, NULL,
                           "a log row has a few columns; is this the right file?",
-                          "line longer than %d bytes", TP_LOG_LINE_MAX);
+                          "line longer than %d bytes", TP_TEMPLOG_LINE_MAX);
             return TP_ERR_LIMIT;
         }
         if (skippable(ln, n))
@@ -833,10 +836,10 @@ tp_status tp_log_parse(const char *name, const char *text, size_t len, const tp_
             header_line = sc.line;
             continue;
         }
-        if (++rows > TP_LOG_MAX_ROWS) {
+        if (++rows > TP_TEMPLOG_MAX_ROWS) {
             tp_diag_error(d, (tp_loc){name, sc.line, 1}, NULL,
                           "thin the log (one row per second is plenty) or cut it to the warm-up",
-                          "more than %d data rows", TP_LOG_MAX_ROWS);
+                          "more than %d data rows", TP_TEMPLOG_MAX_ROWS);
             return TP_ERR_LIMIT;
         }
         last_line = sc.line;
@@ -851,7 +854,7 @@ tp_status tp_log_parse(const char *name, const char *text, size_t len, const tp_
     log->name = malloc(strlen(name) + 1);
     if (!p || !log->name) {
         free(p);
-        tp_log_clear(log);
+        tp_templog_clear(log);
         return TP_ERR_NOMEM;
     }
     strcpy(log->name, name);
@@ -874,7 +877,7 @@ tp_status tp_log_parse(const char *name, const char *text, size_t len, const tp_
         sep = '\t';
     split_row(&p->r, ln, n, sep);
     if (p->r.too_many) {
-        row_error(p, header_line, 1, NULL, "more than %d columns", TP_LOG_MAX_COLS);
+        row_error(p, header_line, 1, NULL, "more than %d columns", TP_TEMPLOG_MAX_COLS);
         st = TP_ERR_CONFIG;
         goto done;
     }
@@ -899,10 +902,10 @@ tp_status tp_log_parse(const char *name, const char *text, size_t len, const tp_
     log->t = malloc((size_t)(rows > 0 ? rows : 1) * sizeof *log->t);
     log->reading = malloc((size_t)(rows > 0 ? rows : 1) * sizeof *log->reading);
     log->line = malloc((size_t)(rows > 0 ? rows : 1) * sizeof *log->line);
-    if (log->drive_kind != TP_LOG_DRIVE_NONE)
+    if (log->drive_kind != TP_TEMPLOG_DRIVE_NONE)
         log->drive = malloc((size_t)(rows > 0 ? rows : 1) * sizeof *log->drive);
     if (!log->t || !log->reading || !log->line ||
-        (log->drive_kind != TP_LOG_DRIVE_NONE && !log->drive)) {
+        (log->drive_kind != TP_TEMPLOG_DRIVE_NONE && !log->drive)) {
         st = TP_ERR_NOMEM;
         goto done;
     }
@@ -913,12 +916,12 @@ tp_status tp_log_parse(const char *name, const char *text, size_t len, const tp_
             continue;
         split_row(&p->r, ln, n, sep);
         if (p->r.too_many) {
-            row_error(p, sc.line, 1, NULL, "more than %d columns", TP_LOG_MAX_COLS);
+            row_error(p, sc.line, 1, NULL, "more than %d columns", TP_TEMPLOG_MAX_COLS);
             continue;
         }
         if (parse_cells(p, log, i, sc.line, &fmt, &day_offset, &have_first) != TP_OK ||
             p->errors != bad_before) {
-            if (p->errors > TP_LOG_ERRORS_MAX)
+            if (p->errors > TP_TEMPLOG_ERRORS_MAX)
                 break;
             continue;
         }
@@ -938,30 +941,31 @@ tp_status tp_log_parse(const char *name, const char *text, size_t len, const tp_
 done:
     free(p);
     if (st != TP_OK)
-        tp_log_clear(log);
+        tp_templog_clear(log);
     return st;
 }
 
-tp_status tp_log_load(const char *path, const tp_log_opts *opts, tp_log *log, tp_diag *d)
+tp_status tp_templog_load(const char *path, const tp_templog_opts *opts, tp_templog *log,
+                          tp_diag *d)
 {
     char *buf;
     size_t len;
     tp_status st;
     memset(log, 0, sizeof *log);
-    st = tp_infile_read(path, (size_t)TP_LOG_MAX_BYTES, &buf, &len, d);
+    st = tp_infile_read(path, (size_t)TP_TEMPLOG_MAX_BYTES, &buf, &len, d);
     if (st == TP_ERR_LIMIT)
         tp_diag_error(d, (tp_loc){path, 0, 0}, NULL, "thin the log or cut it to the warm-up",
-                      "the log is larger than %ld bytes", TP_LOG_MAX_BYTES);
+                      "the log is larger than %ld bytes", TP_TEMPLOG_MAX_BYTES);
     if (st == TP_ERR_IO)
         return TP_ERR_CONFIG; /* an unreadable log is an input error (exit 2), as a config is */
     if (st != TP_OK)
         return st;
-    st = tp_log_parse(path, buf, len, opts, log, d);
+    st = tp_templog_parse(path, buf, len, opts, log, d);
     free(buf);
     return st;
 }
 
-double tp_log_drive_at(const tp_log *log, double t)
+double tp_templog_drive_at(const tp_templog *log, double t)
 {
     long lo = 0, hi;
     if (!log->drive || log->n == 0)

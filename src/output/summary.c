@@ -1,11 +1,11 @@
 /* Text summaries, and the words of the safety cautions: each names its basis (EN ISO 13732-1
  * for contact burns, the extra-low-voltage limit for mains, each material's service limit). */
-#include "report.h"
+#include "summary.h"
 
 #include <math.h>
 #include <string.h>
 
-void tp_fmt_duration(double s, char *buf, size_t size)
+void tp_summary_duration(double s, char *buf, size_t size)
 {
     if (!isfinite(s))
         snprintf(buf, size, "-");
@@ -17,7 +17,7 @@ void tp_fmt_duration(double s, char *buf, size_t size)
         snprintf(buf, size, "%d h %02d min", (int)(s / 3600.0), (int)fmod(s / 60.0, 60.0));
 }
 
-void tp_report_network_line(FILE *fp, const tp_network *net)
+void tp_summary_network_line(FILE *fp, const tp_network *net)
 {
     fprintf(fp, "network: %d nodes (%d with capacity), %d links, %d source%s", net->n_nodes,
             net->n_free, net->n_links, net->n_sources, net->n_sources == 1 ? "" : "s");
@@ -29,14 +29,14 @@ void tp_report_network_line(FILE *fp, const tp_network *net)
             fprintf(fp, "; the controller keeps '%s' full on (mode full)",
                     net->sources[c->source].id);
         else
-            fprintf(fp, "; %s control of '%s' reading '%s' at %.1f degC", tp_mode_name(c->mode),
-                    net->sources[c->source].id, net->nodes[c->sensor].id,
-                    c->setpoint - TP_KELVIN_0C);
+            fprintf(fp, "; %s control of '%s' reading '%s' at %.1f degC",
+                    tp_description_mode_name(c->mode), net->sources[c->source].id,
+                    net->nodes[c->sensor].id, c->setpoint - TP_KELVIN_0C);
     }
     fputc('\n', fp);
 }
 
-void tp_report_conditions(FILE *fp, const tp_network *net)
+void tp_summary_conditions(FILE *fp, const tp_network *net)
 {
     double room = tp_network_room(net), amps, watts;
     int src = tp_network_cold_start(net, &amps, &watts, NULL), i, shown = 0;
@@ -73,13 +73,13 @@ void tp_report_conditions(FILE *fp, const tp_network *net)
     fputc('\n', fp);
 }
 
-void tp_report_network(FILE *fp, const tp_network *net)
+void tp_summary_network(FILE *fp, const tp_network *net)
 {
-    tp_report_network_line(fp, net);
-    tp_report_conditions(fp, net);
+    tp_summary_network_line(fp, net);
+    tp_summary_conditions(fp, net);
 }
 
-void tp_report_caution_text(const tp_caution *c, char *buf, size_t size)
+void tp_summary_caution_text(const tp_caution *c, char *buf, size_t size)
 {
     switch (c->kind) {
     case TP_CAUTION_HOT_SURFACE:
@@ -87,15 +87,17 @@ void tp_report_caution_text(const tp_caution *c, char *buf, size_t size)
                  "Hot surface: the plate reaches %.0f degC. Skin contact with bare metal above "
                  "about %.0f degC burns within a second, and above %.0f degC with long contact "
                  "(EN ISO 13732-1 contact-burn thresholds). Guard or mark the plate, and let it "
-                 "cool before handling.", c->value[0] - TP_KELVIN_0C,
-                 TP_CAUTION_BURN_SHORT - TP_KELVIN_0C, TP_CAUTION_BURN_LONG - TP_KELVIN_0C);
+                 "cool before handling.",
+                 c->value[0] - TP_KELVIN_0C, TP_CAUTION_BURN_SHORT - TP_KELVIN_0C,
+                 TP_CAUTION_BURN_LONG - TP_KELVIN_0C);
         return;
     case TP_CAUTION_MAINS:
         snprintf(buf, size,
                  "Mains voltage (%.0f V): installation by a qualified person; protective earth "
                  "on every accessible metal part, a fuse and a residual-current device, and a "
                  "non-self-resetting thermal cut-out in series with the heater, independent of "
-                 "the controller. Follow your local electrical codes.", c->value[0]);
+                 "the controller. Follow your local electrical codes.",
+                 c->value[0]);
         return;
     case TP_CAUTION_HIGH_CURRENT:
         snprintf(buf, size,
@@ -106,8 +108,8 @@ void tp_report_caution_text(const tp_caution *c, char *buf, size_t size)
     case TP_CAUTION_SERVICE_LIMIT:
         snprintf(buf, size,
                  "Service limit: layer '%s' (%s) is rated to about %.0f degC and reaches %.0f "
-                 "degC here.", c->layer_id, c->material, c->value[0] - TP_KELVIN_0C,
-                 c->value[1] - TP_KELVIN_0C);
+                 "degC here.",
+                 c->layer_id, c->material, c->value[0] - TP_KELVIN_0C, c->value[1] - TP_KELVIN_0C);
         return;
     case TP_CAUTION_POWER_DENSITY:
         snprintf(buf, size,
@@ -131,13 +133,13 @@ void tp_report_caution_text(const tp_caution *c, char *buf, size_t size)
     snprintf(buf, size, "?");
 }
 
-void tp_report_cautions(FILE *fp, const char *heading, const tp_caution *list, int n)
+void tp_summary_cautions(FILE *fp, const char *heading, const tp_caution *list, int n)
 {
-    char line[TP_CAUTION_MAX];
+    char line[TP_SUMMARY_CAUTION_MAX];
     int i;
     fprintf(fp, "\n%s:\n", heading);
     for (i = 0; i < n; i++) {
-        tp_report_caution_text(&list[i], line, sizeof line);
+        tp_summary_caution_text(&list[i], line, sizeof line);
         fprintf(fp, "  ! %s\n", line);
     }
 }
@@ -148,17 +150,17 @@ static void metric_less(const tp_metricdef *m, double si, double offset, char *b
     if (!isfinite(si))
         snprintf(buf, size, "-");
     else if (m->form == TP_FORM_DURATION)
-        tp_fmt_duration(si, buf, size);
+        tp_summary_duration(si, buf, size);
     else
         snprintf(buf, size, "%.*f", m->decimals, (si - offset) * m->scale);
 }
 
-void tp_report_metric(const tp_metricdef *m, double si, char *buf, size_t size)
+void tp_summary_metric(const tp_metricdef *m, double si, char *buf, size_t size)
 {
     metric_less(m, si, m->offset, buf, size);
 }
 
-void tp_report_metric_spread(const tp_metricdef *m, double si, char *buf, size_t size)
+void tp_summary_metric_spread(const tp_metricdef *m, double si, char *buf, size_t size)
 {
     metric_less(m, si, 0.0, buf, size); /* a spread is an interval: no offset */
 }

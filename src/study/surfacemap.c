@@ -1,5 +1,5 @@
 /* The working-surface map: statistics. */
-#include "surfmap.h"
+#include "surfacemap.h"
 
 #include <math.h>
 #include <stdio.h>
@@ -32,7 +32,7 @@ static double bilinear(const tp_net_grid *g, const double *map, double x, double
     return map[nj * g->nx + ni];
 }
 
-void tp_map_stats_compute_empty(tp_map_stats *s)
+void tp_surfacemap_empty(tp_surfacemap_stats *s)
 {
     s->cells = 0;
     s->mean = s->std = s->min = s->max = s->spread = TP_UNSET;
@@ -41,11 +41,11 @@ void tp_map_stats_compute_empty(tp_map_stats *s)
     s->min_i = s->min_j = s->max_i = s->max_j = -1;
 }
 
-void tp_map_stats_compute(const tp_net_grid *g, const double *map, tp_map_stats *s)
+void tp_surfacemap_compute(const tp_net_grid *g, const double *map, tp_surfacemap_stats *s)
 {
     int i, j, i_lo = g->nx, i_hi = -1, j_lo = g->ny, j_hi = -1, k, nc = 0;
     double area = 0.0, sum = 0.0, sq = 0.0, corner = 0.0;
-    tp_map_stats_compute_empty(s);
+    tp_surfacemap_empty(s);
     for (j = 0; j < g->ny; j++) {
         for (i = 0; i < g->nx; i++) {
             double v = map[j * g->nx + i], a = g->top_area[j * g->nx + i];

@@ -11,34 +11,34 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "confedit.h"
 #include "config.h"
-#include "doc.h"
+#include "configedit.h"
+#include "yamltree.h"
 
-static tp_doc *doc_of(const char *text)
+static tp_yamltree *doc_of(const char *text)
 {
-    tp_doc *doc = NULL;
+    tp_yamltree *doc = NULL;
     tp_diag d;
     tp_diag_init(&d, stderr);
-    assert_int_equal(tp_doc_load_text("in.yaml", text, strlen(text), &doc, &d), TP_OK);
+    assert_int_equal(tp_yamltree_load_text("in.yaml", text, strlen(text), &doc, &d), TP_OK);
     return doc;
 }
 
 /* Apply items and compare the result with `want` exactly. */
-static void check(const char *in, const tp_confedit_item *items, int n, const char *comment,
+static void check(const char *in, const tp_configedit_item *items, int n, const char *comment,
                   const char *want)
 {
-    tp_doc *doc = doc_of(in);
+    tp_yamltree *doc = doc_of(in);
     tp_diag d;
     char *out = NULL;
     tp_diag_init(&d, stderr);
-    assert_int_equal(tp_confedit_apply(doc, items, n, comment, &out, &d), TP_OK);
+    assert_int_equal(tp_configedit_apply(doc, items, n, comment, &out, &d), TP_OK);
     if (strcmp(out, want) != 0) {
         fprintf(stderr, "got:\n%s\nwanted:\n%s\n", out, want);
         fail();
     }
     free(out);
-    tp_doc_destroy(&doc);
+    tp_yamltree_destroy(&doc);
 }
 
 static const char *flow_in = "# a plate\n"
@@ -49,8 +49,8 @@ static const char *flow_in = "# a plate\n"
 
 static void test_confedit_replaces_flow_and_block_values(void **state)
 {
-    static const tp_confedit_item items[] = {{"heater.power", "123.4 W"},
-                                             {"sensor.coupling", "0.031 W/K"}};
+    static const tp_configedit_item items[] = {{"heater.power", "123.4 W"},
+                                               {"sensor.coupling", "0.031 W/K"}};
     (void)state;
     check(flow_in, items, 2, NULL,
           "# a plate\n"
@@ -65,10 +65,10 @@ static void test_confedit_adds_keys_where_they_belong(void **state)
     /* A key missing from a flow section goes before its brace; one missing from a block
      * section on a new line at the keys' indentation; a missing top-level section at the end,
      * with its keys gathered into one flow map. */
-    static const tp_confedit_item items[] = {{"heater.max_duty", "0.9"},
-                                             {"sensor.offset", "1.5 K"},
-                                             {"losses.convection_scale", "1.2"},
-                                             {"losses.radiation_scale", "0.8"}};
+    static const tp_configedit_item items[] = {{"heater.max_duty", "0.9"},
+                                               {"sensor.offset", "1.5 K"},
+                                               {"losses.convection_scale", "1.2"},
+                                               {"losses.radiation_scale", "0.8"}};
     (void)state;
     check(flow_in, items, 4, "# fitted\n",
           "# fitted\n"
@@ -88,10 +88,10 @@ static void test_confedit_list_items_by_id(void **state)
                             "    - id: pad\n"
                             "      thickness: 1.5 mm\n"
                             "    - {id: plate, thickness: 4 mm}\n";
-    static const tp_confedit_item items[] = {{"bed.layers.pad.contact", "900 W/(m2.K)"},
-                                             {"bed.layers.plate.contact", "2500 W/(m2.K)"},
-                                             {"bed.layers.1.thickness", "5 mm"},
-                                             {"bed.top.emissivity", "0.85"}};
+    static const tp_configedit_item items[] = {{"bed.layers.pad.contact", "900 W/(m2.K)"},
+                                               {"bed.layers.plate.contact", "2500 W/(m2.K)"},
+                                               {"bed.layers.1.thickness", "5 mm"},
+                                               {"bed.top.emissivity", "0.85"}};
     (void)state;
     check(in, items, 4, NULL,
           "bed:\n"
@@ -112,24 +112,24 @@ static void test_confedit_result_reads_back(void **state)
                             "  layers:\n"
                             "    - {id: plate, material: aluminium-6061, thickness: 3 mm}\n"
                             "heater: {layer: plate, power: 150 W}\n";
-    static const tp_confedit_item items[] = {{"heater.power", "0.2 kW"},
-                                             {"losses.convection_scale", "1.25"}};
-    tp_doc *doc = doc_of(in), *back = NULL;
-    tp_desc desc;
+    static const tp_configedit_item items[] = {{"heater.power", "0.2 kW"},
+                                               {"losses.convection_scale", "1.25"}};
+    tp_yamltree *doc = doc_of(in), *back = NULL;
+    tp_description desc;
     tp_diag d;
     char *out = NULL;
     (void)state;
     tp_diag_init(&d, stderr);
-    assert_int_equal(tp_confedit_apply(doc, items, 2, NULL, &out, &d), TP_OK);
-    assert_int_equal(tp_doc_load_text("out.yaml", out, strlen(out), &back, &d), TP_OK);
+    assert_int_equal(tp_configedit_apply(doc, items, 2, NULL, &out, &d), TP_OK);
+    assert_int_equal(tp_yamltree_load_text("out.yaml", out, strlen(out), &back, &d), TP_OK);
     assert_int_equal(tp_config_read(back, &desc, &d), TP_OK);
     /* 0.2 kW = 200 W. */
     assert_true(desc.heater.power > 199.999999 && desc.heater.power < 200.000001);
     assert_true(desc.losses.convection_scale > 1.2499999 &&
                 desc.losses.convection_scale < 1.2500001);
-    tp_desc_clear(&desc);
-    tp_doc_destroy(&back);
-    tp_doc_destroy(&doc);
+    tp_config_clear(&desc);
+    tp_yamltree_destroy(&back);
+    tp_yamltree_destroy(&doc);
     free(out);
 }
 
@@ -141,25 +141,25 @@ static void test_confedit_refusals(void **state)
                             "    - {id: pad, thickness: 1 mm}\n"
                             "sensor:\n"
                             "  layer: plate\n";
-    static const tp_confedit_item through[] = {{"heater.power.x", "1"}};
-    static const tp_confedit_item noitem[] = {{"bed.layers.plate.contact", "1 W/(m2.K)"}};
-    static const tp_confedit_item block[] = {{"sensor", "{layer: pad}"}};
-    static const tp_confedit_item both[] = {{"losses.a", "1"}, {"losses.a.b", "2"}};
-    tp_doc *doc = doc_of(in);
+    static const tp_configedit_item through[] = {{"heater.power.x", "1"}};
+    static const tp_configedit_item noitem[] = {{"bed.layers.plate.contact", "1 W/(m2.K)"}};
+    static const tp_configedit_item block[] = {{"sensor", "{layer: pad}"}};
+    static const tp_configedit_item both[] = {{"losses.a", "1"}, {"losses.a.b", "2"}};
+    tp_yamltree *doc = doc_of(in);
     tp_diag d;
     char *out = NULL;
     (void)state;
     tp_diag_init(&d, NULL);
-    assert_int_equal(tp_confedit_apply(doc, through, 1, NULL, &out, &d), TP_ERR_CONFIG);
+    assert_int_equal(tp_configedit_apply(doc, through, 1, NULL, &out, &d), TP_ERR_CONFIG);
     assert_non_null(strstr(d.log, "the path goes through a value"));
-    assert_int_equal(tp_confedit_apply(doc, noitem, 1, NULL, &out, &d), TP_ERR_CONFIG);
+    assert_int_equal(tp_configedit_apply(doc, noitem, 1, NULL, &out, &d), TP_ERR_CONFIG);
     assert_non_null(strstr(d.log, "no list item 'plate' to write into"));
-    assert_int_equal(tp_confedit_apply(doc, block, 1, NULL, &out, &d), TP_ERR_CONFIG);
+    assert_int_equal(tp_configedit_apply(doc, block, 1, NULL, &out, &d), TP_ERR_CONFIG);
     assert_non_null(strstr(d.log, "cannot replace a block section"));
-    assert_int_equal(tp_confedit_apply(doc, both, 2, NULL, &out, &d), TP_ERR_CONFIG);
+    assert_int_equal(tp_configedit_apply(doc, both, 2, NULL, &out, &d), TP_ERR_CONFIG);
     assert_non_null(strstr(d.log, "both as a value and as a section"));
     assert_null(out);
-    tp_doc_destroy(&doc);
+    tp_yamltree_destroy(&doc);
 }
 
 static void test_confedit_unit_as_written(void **state)
@@ -167,20 +167,20 @@ static void test_confedit_unit_as_written(void **state)
     static const char *in = "heater: {power: 0.15 kW, max_duty: 90 %}\n"
                             "bed: {top: {emissivity: 0.9}}\n"
                             "room: {temperature: 68 degF}\n";
-    tp_doc *doc = doc_of(in);
+    tp_yamltree *doc = doc_of(in);
     char unit[32];
     (void)state;
-    tp_confedit_unit(doc, "heater.power", unit, sizeof unit);
+    tp_configedit_unit(doc, "heater.power", unit, sizeof unit);
     assert_string_equal(unit, "kW");
-    tp_confedit_unit(doc, "heater.max_duty", unit, sizeof unit);
+    tp_configedit_unit(doc, "heater.max_duty", unit, sizeof unit);
     assert_string_equal(unit, "%");
-    tp_confedit_unit(doc, "bed.top.emissivity", unit, sizeof unit);
+    tp_configedit_unit(doc, "bed.top.emissivity", unit, sizeof unit);
     assert_string_equal(unit, "");
-    tp_confedit_unit(doc, "room.temperature", unit, sizeof unit);
+    tp_configedit_unit(doc, "room.temperature", unit, sizeof unit);
     assert_string_equal(unit, "degF");
-    tp_confedit_unit(doc, "heater.supply", unit, sizeof unit);
+    tp_configedit_unit(doc, "heater.supply", unit, sizeof unit);
     assert_string_equal(unit, "");
-    tp_doc_destroy(&doc);
+    tp_yamltree_destroy(&doc);
 }
 
 int main(void)

@@ -2,7 +2,7 @@
  * collection) the YAML tree recorded; keys missing from the file go into the deepest section
  * that exists: before the closing brace of a flow section, on a new line at the indentation of
  * a block section's keys, or at the end of the file for top-level sections. */
-#include "confedit.h"
+#include "configedit.h"
 
 #include <ctype.h>
 #include <stdio.h>
@@ -21,7 +21,7 @@ typedef struct edit {
 } edit;
 
 typedef struct pending {
-    const tp_doc_node *map; /* the deepest existing section */
+    const tp_yamltree_node *map; /* the deepest existing section */
     char seg[SEGS_MAX][SEG_MAX];
     int nseg; /* segments still missing below `map` */
     const char *value;
@@ -139,10 +139,10 @@ static int render(const pending *pd, const int *idx, int n, int depth, buf *b)
 }
 
 /* The edits that add the pending keys idx[0..n) to their (common) section. */
-static int insert_keys(const tp_doc *doc, const pending *pd, const int *idx, int n, edit **ed,
+static int insert_keys(const tp_yamltree *doc, const pending *pd, const int *idx, int n, edit **ed,
                        int *ned, tp_diag *d)
 {
-    const tp_doc_node *map = pd[idx[0]].map;
+    const tp_yamltree_node *map = pd[idx[0]].map;
     const char *text = doc->text;
     buf b = {NULL, 0, 0, 0};
     int i, j, rc = 0;
@@ -151,7 +151,7 @@ static int insert_keys(const tp_doc *doc, const pending *pd, const int *idx, int
         while (p > map->start && isspace((unsigned char)text[p - 1]))
             p--;
         if (p == map->start || text[p - 1] != '}') {
-            tp_diag_error(d, tp_doc_loc(map), pd[idx[0]].path, "add the key by hand",
+            tp_diag_error(d, tp_yamltree_loc(map), pd[idx[0]].path, "add the key by hand",
                           "cannot find the end of this section");
             return -1;
         }
@@ -191,7 +191,7 @@ static int insert_keys(const tp_doc *doc, const pending *pd, const int *idx, int
             if (!b.failed)
                 rc = add_edit(ed, ned, doc->len, 0, b.s);
         } else {
-            const tp_doc_node *k0 = map->keys[0];
+            const tp_yamltree_node *k0 = map->keys[0];
             size_t ls = k0->start, indent;
             int bare;
             while (ls > 0 && text[ls - 1] != '\n')
@@ -207,7 +207,7 @@ static int insert_keys(const tp_doc *doc, const pending *pd, const int *idx, int
                 puts_buf(&b, "\n");
                 if (!b.failed)
                     rc = add_edit(ed, ned, ls, 0, b.s);
-            } else if (map->items[0] && map->items[0]->kind == TP_DOC_SCALAR) {
+            } else if (map->items[0] && map->items[0]->kind == TP_YAMLTREE_SCALAR) {
                 /* "- id: plate": after the first value, on its own line. */
                 puts_buf(&b, "\n");
                 spaces(&b, indent);
@@ -218,7 +218,7 @@ static int insert_keys(const tp_doc *doc, const pending *pd, const int *idx, int
                 if (!b.failed)
                     rc = add_edit(ed, ned, map->items[0]->end, 0, b.s);
             } else {
-                tp_diag_error(d, tp_doc_loc(map), pd[group[0]].path, "add the key by hand",
+                tp_diag_error(d, tp_yamltree_loc(map), pd[group[0]].path, "add the key by hand",
                               "cannot find where to add the key in this section");
                 rc = -1;
                 break;
@@ -230,15 +230,15 @@ static int insert_keys(const tp_doc *doc, const pending *pd, const int *idx, int
     free(b.s);
 out:
     if (rc == -2) {
-        tp_diag_error(d, tp_doc_loc(map), pd[idx[0]].path, NULL,
+        tp_diag_error(d, tp_yamltree_loc(map), pd[idx[0]].path, NULL,
                       "a key is given both as a value and as a section");
         return -1;
     }
     return rc;
 }
 
-tp_status tp_confedit_apply(const tp_doc *doc, const tp_confedit_item *items, int n,
-                            const char *comment, char **out, tp_diag *d)
+tp_status tp_configedit_apply(const tp_yamltree *doc, const tp_configedit_item *items, int n,
+                              const char *comment, char **out, tp_diag *d)
 {
     edit *ed = NULL;
     pending *pd = NULL;
@@ -249,7 +249,7 @@ tp_status tp_confedit_apply(const tp_doc *doc, const tp_confedit_item *items, in
     size_t pos;
 
     *out = NULL;
-    if (!doc->root || doc->root->kind != TP_DOC_MAP) {
+    if (!doc->root || doc->root->kind != TP_YAMLTREE_MAP) {
         tp_diag_error(d, (tp_loc){doc->file, 0, 0}, NULL, NULL, "the config has no sections");
         return TP_ERR_CONFIG;
     }
@@ -263,38 +263,38 @@ tp_status tp_confedit_apply(const tp_doc *doc, const tp_confedit_item *items, in
     for (i = 0; i < n; i++) {
         char seg[SEGS_MAX][SEG_MAX];
         int ns = split_path(items[i].path, seg), k;
-        const tp_doc_node *node = doc->root;
-        char prefix[TP_CONFEDIT_PATH_MAX] = "";
+        const tp_yamltree_node *node = doc->root;
+        char prefix[TP_CONFIGEDIT_PATH_MAX] = "";
         if (ns <= 0) {
-            tp_diag_error(d, tp_loc_none(), items[i].path, NULL, "not a key path");
+            tp_diag_error(d, tp_diag_loc_none(), items[i].path, NULL, "not a key path");
             goto fail;
         }
         /* The longest prefix of the path that exists in the document. */
         for (k = 0; k < ns; k++) {
-            const tp_doc_node *next;
+            const tp_yamltree_node *next;
             if (k > 0)
                 strcat(prefix, ".");
             strcat(prefix, seg[k]);
-            next = tp_doc_find(doc, prefix);
+            next = tp_yamltree_find(doc, prefix);
             if (next) {
                 node = next;
                 continue;
             }
-            if (node->kind == TP_DOC_SEQ) {
-                tp_diag_error(d, tp_doc_loc(node), items[i].path, NULL,
+            if (node->kind == TP_YAMLTREE_SEQ) {
+                tp_diag_error(d, tp_yamltree_loc(node), items[i].path, NULL,
                               "no list item '%s' to write into", seg[k]);
                 goto fail;
             }
-            if (node->kind == TP_DOC_SCALAR) {
-                tp_diag_error(d, tp_doc_loc(node), items[i].path, NULL,
+            if (node->kind == TP_YAMLTREE_SCALAR) {
+                tp_diag_error(d, tp_yamltree_loc(node), items[i].path, NULL,
                               "the path goes through a value");
                 goto fail;
             }
             break;
         }
         if (k == ns) {
-            if (node->kind != TP_DOC_SCALAR && !node->flow) {
-                tp_diag_error(d, tp_doc_loc(node), items[i].path, "edit this section by hand",
+            if (node->kind != TP_YAMLTREE_SCALAR && !node->flow) {
+                tp_diag_error(d, tp_yamltree_loc(node), items[i].path, "edit this section by hand",
                               "cannot replace a block section");
                 goto fail;
             }
@@ -359,13 +359,13 @@ fail:
     return st;
 }
 
-void tp_confedit_unit(const tp_doc *doc, const char *path, char *unit, size_t size)
+void tp_configedit_unit(const tp_yamltree *doc, const char *path, char *unit, size_t size)
 {
-    const tp_doc_node *n = tp_doc_find(doc, path);
+    const tp_yamltree_node *n = tp_yamltree_find(doc, path);
     const char *p;
     size_t len;
     unit[0] = '\0';
-    if (!n || n->kind != TP_DOC_SCALAR || !n->text)
+    if (!n || n->kind != TP_YAMLTREE_SCALAR || !n->text)
         return;
     p = n->text;
     while (isspace((unsigned char)*p))

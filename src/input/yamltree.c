@@ -1,6 +1,6 @@
 /* The YAML document tree: built from libyaml parser events, with positions, limits and
  * alias expansion by copy (bounded), plus dotted-path lookup and --set overrides. */
-#include "doc.h"
+#include "yamltree.h"
 
 #include <stdio.h>
 #include <stdlib.h>
@@ -15,37 +15,41 @@
 
 typedef struct anchor {
     char *name;
-    tp_doc_node *node;
+    tp_yamltree_node *node;
     int open; /* still being built: an alias to it would be circular */
 } anchor;
 
 typedef struct builder {
-    tp_doc *doc;
+    tp_yamltree *doc;
     const char *file;
     tp_diag *d;
     int line_base; /* --set values: the ordinal of the --set (its "line") minus 1 */
     int col_base;  /* --set values: the column where the value starts, minus 1 */
     int one_line;  /* a --set value: every position is on line line_base + 1 */
-    tp_doc_node *stack[TP_DOC_MAX_DEPTH + 1];
-    int expect_value[TP_DOC_MAX_DEPTH + 1]; /* map on the stack awaits a value for its last key */
+    tp_yamltree_node *stack[TP_YAMLTREE_MAX_DEPTH + 1];
+    int expect_value[TP_YAMLTREE_MAX_DEPTH +
+                     1]; /* map on the stack awaits a value for its last key */
     int depth;
     anchor anchors[ANCHORS_MAX];
     int n_anchors;
-    tp_doc_node *root;
+    tp_yamltree_node *root;
     int failed;
 } builder;
 
-const char *tp_doc_kind_name(tp_doc_kind kind)
+const char *tp_yamltree_kind_name(tp_yamltree_kind kind)
 {
     switch (kind) {
-    case TP_DOC_SCALAR: return "a value";
-    case TP_DOC_MAP: return "a section (key: value pairs)";
-    case TP_DOC_SEQ: return "a list";
+    case TP_YAMLTREE_SCALAR:
+        return "a value";
+    case TP_YAMLTREE_MAP:
+        return "a section (key: value pairs)";
+    case TP_YAMLTREE_SEQ:
+        return "a list";
     }
     return "?";
 }
 
-tp_loc tp_doc_loc(const tp_doc_node *node)
+tp_loc tp_yamltree_loc(const tp_yamltree_node *node)
 {
     tp_loc loc = {NULL, 0, 0};
     if (node) {
@@ -56,7 +60,7 @@ tp_loc tp_doc_loc(const tp_doc_node *node)
     return loc;
 }
 
-static void node_free(tp_doc_node *n)
+static void node_free(tp_yamltree_node *n)
 {
     size_t i;
     if (!n)
@@ -72,7 +76,7 @@ static void node_free(tp_doc_node *n)
     free(n);
 }
 
-void tp_doc_destroy(tp_doc **doc)
+void tp_yamltree_destroy(tp_yamltree **doc)
 {
     if (!doc || !*doc)
         return;
@@ -96,13 +100,13 @@ static tp_loc mark_loc(const builder *b, const yaml_mark_t *m)
     return loc;
 }
 
-static tp_doc_node *node_new(builder *b, tp_doc_kind kind, const yaml_mark_t *start,
-                             const yaml_mark_t *end)
+static tp_yamltree_node *node_new(builder *b, tp_yamltree_kind kind, const yaml_mark_t *start,
+                                  const yaml_mark_t *end)
 {
-    tp_doc_node *n;
-    if (b->doc->n_nodes >= TP_DOC_MAX_NODES) {
+    tp_yamltree_node *n;
+    if (b->doc->n_nodes >= TP_YAMLTREE_MAX_NODES) {
         tp_diag_error(b->d, mark_loc(b, start), NULL, "split the file or remove repeated anchors",
-                      "the document has more than %d nodes", TP_DOC_MAX_NODES);
+                      "the document has more than %d nodes", TP_YAMLTREE_MAX_NODES);
         return NULL;
     }
     n = calloc(1, sizeof *n);
@@ -118,16 +122,16 @@ static tp_doc_node *node_new(builder *b, tp_doc_kind kind, const yaml_mark_t *st
     return n;
 }
 
-static int node_push_child(tp_doc_node *parent, tp_doc_node *key, tp_doc_node *value)
+static int node_push_child(tp_yamltree_node *parent, tp_yamltree_node *key, tp_yamltree_node *value)
 {
     /* keys (maps only) and items grow together: both hold parent->cap entries */
     size_t cap = parent->cap, key_cap = parent->cap;
     if (tp_array_reserve(&parent->items, &cap, parent->n + 1, sizeof *parent->items, 8) != 0 ||
-        (parent->kind == TP_DOC_MAP &&
+        (parent->kind == TP_YAMLTREE_MAP &&
          tp_array_reserve(&parent->keys, &key_cap, parent->n + 1, sizeof *parent->keys, 8) != 0))
         return -1;
     parent->cap = cap;
-    if (parent->kind == TP_DOC_MAP)
+    if (parent->kind == TP_YAMLTREE_MAP)
         parent->keys[parent->n] = key;
     parent->items[parent->n] = value;
     parent->n++;
@@ -135,14 +139,14 @@ static int node_push_child(tp_doc_node *parent, tp_doc_node *key, tp_doc_node *v
 }
 
 /* Deep copy for alias expansion, counting nodes against the document limit. */
-static tp_doc_node *node_copy(builder *b, const tp_doc_node *src, int line, int col)
+static tp_yamltree_node *node_copy(builder *b, const tp_yamltree_node *src, int line, int col)
 {
-    tp_doc_node *n;
+    tp_yamltree_node *n;
     size_t i;
-    if (b->doc->n_nodes >= TP_DOC_MAX_NODES) {
+    if (b->doc->n_nodes >= TP_YAMLTREE_MAX_NODES) {
         tp_diag_error(b->d, (tp_loc){b->file, line, col}, NULL,
                       "anchors and aliases may not expand a document beyond the node limit",
-                      "alias expansion exceeds %d nodes", TP_DOC_MAX_NODES);
+                      "alias expansion exceeds %d nodes", TP_YAMLTREE_MAX_NODES);
         return NULL;
     }
     n = calloc(1, sizeof *n);
@@ -156,8 +160,8 @@ static tp_doc_node *node_copy(builder *b, const tp_doc_node *src, int line, int 
     if (src->text && !(n->text = strdup(src->text)))
         goto fail;
     for (i = 0; i < src->n; i++) {
-        tp_doc_node *k = NULL, *v;
-        if (src->kind == TP_DOC_MAP && !(k = node_copy(b, src->keys[i], line, col)))
+        tp_yamltree_node *k = NULL, *v;
+        if (src->kind == TP_YAMLTREE_MAP && !(k = node_copy(b, src->keys[i], line, col)))
             goto fail;
         v = node_copy(b, src->items[i], line, col);
         if (!v || node_push_child(n, k, v) != 0) {
@@ -180,13 +184,13 @@ static void key_path(const builder *b, const char *key, char *out, size_t size)
     int i;
     out[0] = '\0';
     for (i = 1; i < b->depth && len < size; i++) {
-        const tp_doc_node *up = b->stack[i - 1];
-        const tp_doc_node *id = tp_doc_get(b->stack[i], "id");
+        const tp_yamltree_node *up = b->stack[i - 1];
+        const tp_yamltree_node *id = tp_yamltree_get(b->stack[i], "id");
         char label[32];
         const char *name = label;
-        if (up->kind == TP_DOC_MAP)
+        if (up->kind == TP_YAMLTREE_MAP)
             name = up->keys[up->n - 1]->text;
-        else if (id && id->kind == TP_DOC_SCALAR)
+        else if (id && id->kind == TP_YAMLTREE_SCALAR)
             name = id->text;
         else
             snprintf(label, sizeof label, "%zu", up->n - 1);
@@ -197,20 +201,21 @@ static void key_path(const builder *b, const char *key, char *out, size_t size)
 }
 
 /* Attach a finished node to the open parent (or make it the root). */
-static int attach(builder *b, tp_doc_node *n)
+static int attach(builder *b, tp_yamltree_node *n)
 {
-    tp_doc_node *parent;
+    tp_yamltree_node *parent;
     if (b->depth == 0) {
         b->root = n;
         return 0;
     }
     parent = b->stack[b->depth - 1];
-    if (parent->kind == TP_DOC_SEQ)
+    if (parent->kind == TP_YAMLTREE_SEQ)
         return node_push_child(parent, NULL, n);
     if (!b->expect_value[b->depth - 1]) {
-        if (n->kind != TP_DOC_SCALAR) {
-            tp_diag_error(b->d, tp_doc_loc(n), NULL, "write keys as plain words followed by ':'",
-                          "a key must be a plain word, not %s", tp_doc_kind_name(n->kind));
+        if (n->kind != TP_YAMLTREE_SCALAR) {
+            tp_diag_error(b->d, tp_yamltree_loc(n), NULL,
+                          "write keys as plain words followed by ':'",
+                          "a key must be a plain word, not %s", tp_yamltree_kind_name(n->kind));
             node_free(n);
             return -1;
         }
@@ -230,7 +235,7 @@ static int attach(builder *b, tp_doc_node *n)
 /* Order of map keys for duplicate detection: by text, then by position in the map. */
 static int key_order(const void *pa, const void *pb)
 {
-    const tp_doc_node *const *a = pa, *const *b = pb;
+    const tp_yamltree_node *const *a = pa, *const *b = pb;
     int c = strcmp((*a)->text, (*b)->text);
     if (c)
         return c;
@@ -240,10 +245,10 @@ static int key_order(const void *pa, const void *pb)
 /* Report the earliest repeated key of a finished map. A per-key linear scan made a map of
  * n keys cost O(n^2) string comparisons (about 20 s for the 130,000 keys that fit in the
  * size limit); sorting a copy of the key pointers is O(n log n). Returns 0 or -1. */
-static int check_duplicates(builder *b, const tp_doc_node *map)
+static int check_duplicates(builder *b, const tp_yamltree_node *map)
 {
-    tp_doc_node **sorted;
-    const tp_doc_node *first = NULL, *dup = NULL;
+    tp_yamltree_node **sorted;
+    const tp_yamltree_node *first = NULL, *dup = NULL;
     size_t i, j;
     char hint[96], path[256];
     if (map->n < 2)
@@ -272,11 +277,11 @@ static int check_duplicates(builder *b, const tp_doc_node *map)
     b->depth++;
     key_path(b, dup->text, path, sizeof path);
     b->depth--;
-    tp_diag_error(b->d, tp_doc_loc(dup), path, hint, "duplicate key");
+    tp_diag_error(b->d, tp_yamltree_loc(dup), path, hint, "duplicate key");
     return -1;
 }
 
-static int add_anchor(builder *b, const char *name, tp_doc_node *n, const yaml_mark_t *m)
+static int add_anchor(builder *b, const char *name, tp_yamltree_node *n, const yaml_mark_t *m)
 {
     if (b->n_anchors == ANCHORS_MAX) {
         tp_diag_error(b->d, mark_loc(b, m), NULL, NULL, "more than %d anchors", ANCHORS_MAX);
@@ -286,12 +291,12 @@ static int add_anchor(builder *b, const char *name, tp_doc_node *n, const yaml_m
     if (!b->anchors[b->n_anchors].name)
         return -1;
     b->anchors[b->n_anchors].node = n;
-    b->anchors[b->n_anchors].open = n->kind != TP_DOC_SCALAR;
+    b->anchors[b->n_anchors].open = n->kind != TP_YAMLTREE_SCALAR;
     b->n_anchors++;
     return 0;
 }
 
-static void close_anchor(builder *b, const tp_doc_node *n)
+static void close_anchor(builder *b, const tp_yamltree_node *n)
 {
     int i;
     for (i = 0; i < b->n_anchors; i++)
@@ -306,7 +311,7 @@ static int on_alias(builder *b, const yaml_event_t *ev)
     tp_loc loc = mark_loc(b, &ev->start_mark);
     for (i = b->n_anchors - 1; i >= 0; i--) {
         if (strcmp(b->anchors[i].name, name) == 0) {
-            tp_doc_node *copy;
+            tp_yamltree_node *copy;
             if (b->anchors[i].open) {
                 tp_diag_error(b->d, loc, NULL, "an alias may not refer to a node that contains it",
                               "circular alias *%s", name);
@@ -345,7 +350,7 @@ static int has_nul(builder *b, const yaml_event_t *ev)
 
 static int on_event(builder *b, const yaml_event_t *ev)
 {
-    tp_doc_node *n;
+    tp_yamltree_node *n;
     const char *anchor_name = NULL;
     switch (ev->type) {
     case YAML_STREAM_START_EVENT:
@@ -366,7 +371,7 @@ static int on_event(builder *b, const yaml_event_t *ev)
     case YAML_SCALAR_EVENT:
         if (has_nul(b, ev))
             return -1;
-        n = node_new(b, TP_DOC_SCALAR, &ev->start_mark, &ev->end_mark);
+        n = node_new(b, TP_YAMLTREE_SCALAR, &ev->start_mark, &ev->end_mark);
         if (!n)
             return -1;
         n->text = strdup((const char *)ev->data.scalar.value);
@@ -384,13 +389,13 @@ static int on_event(builder *b, const yaml_event_t *ev)
         return attach(b, n);
     case YAML_MAPPING_START_EVENT:
     case YAML_SEQUENCE_START_EVENT:
-        if (b->depth >= TP_DOC_MAX_DEPTH) {
+        if (b->depth >= TP_YAMLTREE_MAX_DEPTH) {
             tp_diag_error(b->d, mark_loc(b, &ev->start_mark), NULL,
                           "a plate description needs only a few levels",
-                          "nesting deeper than %d levels", TP_DOC_MAX_DEPTH);
+                          "nesting deeper than %d levels", TP_YAMLTREE_MAX_DEPTH);
             return -1;
         }
-        n = node_new(b, ev->type == YAML_MAPPING_START_EVENT ? TP_DOC_MAP : TP_DOC_SEQ,
+        n = node_new(b, ev->type == YAML_MAPPING_START_EVENT ? TP_YAMLTREE_MAP : TP_YAMLTREE_SEQ,
                      &ev->start_mark, &ev->end_mark);
         if (!n)
             return -1;
@@ -417,11 +422,11 @@ static int on_event(builder *b, const yaml_event_t *ev)
             return -1;
         n = b->stack[--b->depth];
         n->end = ev->end_mark.index;
-        if (n->kind == TP_DOC_MAP && b->expect_value[b->depth]) {
-            tp_diag_error(b->d, tp_doc_loc(n), NULL, NULL, "a key has no value");
+        if (n->kind == TP_YAMLTREE_MAP && b->expect_value[b->depth]) {
+            tp_diag_error(b->d, tp_yamltree_loc(n), NULL, NULL, "a key has no value");
             return -1;
         }
-        if (n->kind == TP_DOC_MAP && check_duplicates(b, n) != 0)
+        if (n->kind == TP_YAMLTREE_MAP && check_duplicates(b, n) != 0)
             return -1;
         close_anchor(b, n);
         return 0;
@@ -470,8 +475,8 @@ static void report_parser_error(builder *b, const yaml_parser_t *p, const char *
 
 /* Parse `text` into a tree; shared by files and --set values. Returns the root (may be NULL for
  * an empty document) through *root; nonzero on error. */
-static int build(tp_doc *doc, const char *file, const char *text, size_t len, int line_base,
-                 int col_base, tp_doc_node **root, tp_diag *d)
+static int build(tp_yamltree *doc, const char *file, const char *text, size_t len, int line_base,
+                 int col_base, tp_yamltree_node **root, tp_diag *d)
 {
     yaml_parser_t parser;
     yaml_event_t ev;
@@ -524,21 +529,21 @@ static int build(tp_doc *doc, const char *file, const char *text, size_t len, in
     return rc;
 }
 
-/* The error for a text over TP_DOC_MAX_BYTES, whether read from a file or given. */
+/* The error for a text over TP_YAMLTREE_MAX_BYTES, whether read from a file or given. */
 static tp_status too_large(const char *name, tp_diag *d)
 {
     tp_diag_error(d, (tp_loc){name, 0, 0}, NULL,
                   "a plate description is a few kilobytes; is this the right file?",
-                  "the file is larger than %d bytes", TP_DOC_MAX_BYTES);
+                  "the file is larger than %d bytes", TP_YAMLTREE_MAX_BYTES);
     return TP_ERR_LIMIT;
 }
 
-tp_status tp_doc_load_text(const char *name, const char *text, size_t len, tp_doc **out,
-                           tp_diag *d)
+tp_status tp_yamltree_load_text(const char *name, const char *text, size_t len, tp_yamltree **out,
+                                tp_diag *d)
 {
-    tp_doc *doc;
+    tp_yamltree *doc;
     *out = NULL;
-    if (len > TP_DOC_MAX_BYTES)
+    if (len > TP_YAMLTREE_MAX_BYTES)
         return too_large(name, d);
     if (len >= 2 && (((unsigned char)text[0] == 0xff && (unsigned char)text[1] == 0xfe) ||
                      ((unsigned char)text[0] == 0xfe && (unsigned char)text[1] == 0xff))) {
@@ -558,44 +563,44 @@ tp_status tp_doc_load_text(const char *name, const char *text, size_t len, tp_do
     doc->file = strdup(name);
     doc->text = malloc(len + 1);
     if (!doc->file || !doc->text) {
-        tp_doc_destroy(&doc);
+        tp_yamltree_destroy(&doc);
         return TP_ERR_NOMEM;
     }
     memcpy(doc->text, text, len);
     doc->text[len] = '\0';
     doc->len = len;
     if (build(doc, doc->file, doc->text, len, 0, 0, &doc->root, d) != 0) {
-        tp_status st = doc->n_nodes >= TP_DOC_MAX_NODES ? TP_ERR_LIMIT : TP_ERR_CONFIG;
-        tp_doc_destroy(&doc);
+        tp_status st = doc->n_nodes >= TP_YAMLTREE_MAX_NODES ? TP_ERR_LIMIT : TP_ERR_CONFIG;
+        tp_yamltree_destroy(&doc);
         return st;
     }
     *out = doc;
     return TP_OK;
 }
 
-tp_status tp_doc_load_file(const char *path, tp_doc **out, tp_diag *d)
+tp_status tp_yamltree_load_file(const char *path, tp_yamltree **out, tp_diag *d)
 {
     char *buf;
     size_t len;
     tp_status st;
 
     *out = NULL;
-    st = tp_infile_read(path, TP_DOC_MAX_BYTES, &buf, &len, d);
+    st = tp_infile_read(path, TP_YAMLTREE_MAX_BYTES, &buf, &len, d);
     if (st == TP_ERR_LIMIT)
         return too_large(path, d);
     if (st == TP_ERR_IO)
         return TP_ERR_CONFIG; /* an unreadable config is an input error (exit 2) */
     if (st != TP_OK)
         return st;
-    st = tp_doc_load_text(path, buf, len, out, d);
+    st = tp_yamltree_load_text(path, buf, len, out, d);
     free(buf);
     return st;
 }
 
-tp_doc_node *tp_doc_get(const tp_doc_node *map, const char *key)
+tp_yamltree_node *tp_yamltree_get(const tp_yamltree_node *map, const char *key)
 {
     size_t i;
-    if (!map || map->kind != TP_DOC_MAP)
+    if (!map || map->kind != TP_YAMLTREE_MAP)
         return NULL;
     for (i = 0; i < map->n; i++)
         if (strcmp(map->keys[i]->text, key) == 0)
@@ -604,7 +609,7 @@ tp_doc_node *tp_doc_get(const tp_doc_node *map, const char *key)
 }
 
 /* Index of the sequence item named by `seg`: a decimal index or the item's `id`. -1: none. */
-static long seq_index(const tp_doc_node *seq, const char *seg)
+static long seq_index(const tp_yamltree_node *seq, const char *seg)
 {
     size_t i;
     char *end;
@@ -612,25 +617,25 @@ static long seq_index(const tp_doc_node *seq, const char *seg)
     if (*seg && *end == '\0' && idx >= 0 && (size_t)idx < seq->n)
         return idx;
     for (i = 0; i < seq->n; i++) {
-        const tp_doc_node *id = tp_doc_get(seq->items[i], "id");
-        if (id && id->kind == TP_DOC_SCALAR && strcmp(id->text, seg) == 0)
+        const tp_yamltree_node *id = tp_yamltree_get(seq->items[i], "id");
+        if (id && id->kind == TP_YAMLTREE_SCALAR && strcmp(id->text, seg) == 0)
             return (long)i;
     }
     return -1;
 }
 
-tp_doc_node *tp_doc_find(const tp_doc *doc, const char *path)
+tp_yamltree_node *tp_yamltree_find(const tp_yamltree *doc, const char *path)
 {
     char buf[512];
     char *seg, *save = NULL;
-    tp_doc_node *n = doc ? doc->root : NULL;
+    tp_yamltree_node *n = doc ? doc->root : NULL;
     if (!n || strlen(path) >= sizeof buf)
         return NULL;
     strcpy(buf, path);
     for (seg = strtok_r(buf, ".", &save); seg && n; seg = strtok_r(NULL, ".", &save)) {
-        if (n->kind == TP_DOC_MAP) {
-            n = tp_doc_get(n, seg);
-        } else if (n->kind == TP_DOC_SEQ) {
+        if (n->kind == TP_YAMLTREE_MAP) {
+            n = tp_yamltree_get(n, seg);
+        } else if (n->kind == TP_YAMLTREE_SEQ) {
             long i = seq_index(n, seg);
             n = i >= 0 ? n->items[i] : NULL;
         } else {
@@ -640,14 +645,14 @@ tp_doc_node *tp_doc_find(const tp_doc *doc, const char *path)
     return n;
 }
 
-tp_loc tp_doc_nearest(const tp_doc *doc, const char *path)
+tp_loc tp_yamltree_nearest(const tp_yamltree *doc, const char *path)
 {
     char buf[512];
-    const tp_doc_node *n = NULL;
+    const tp_yamltree_node *n = NULL;
     if (!doc)
-        return tp_loc_none();
+        return tp_diag_loc_none();
     snprintf(buf, sizeof buf, "%s", path);
-    while (!(n = tp_doc_find(doc, buf))) {
+    while (!(n = tp_yamltree_find(doc, buf))) {
         char *dot = strrchr(buf, '.');
         if (!dot)
             break;
@@ -655,11 +660,11 @@ tp_loc tp_doc_nearest(const tp_doc *doc, const char *path)
     }
     if (!n)
         n = doc->root;
-    return n ? tp_doc_loc(n) : (tp_loc){doc->file, 0, 0};
+    return n ? tp_yamltree_loc(n) : (tp_loc){doc->file, 0, 0};
 }
 
 /* Shift every node of a --set value to the command-line position. */
-static void mark_override(tp_doc_node *n, int line)
+static void mark_override(tp_yamltree_node *n, int line)
 {
     size_t i;
     n->overridden = 1;
@@ -671,12 +676,12 @@ static void mark_override(tp_doc_node *n, int line)
     }
 }
 
-tp_status tp_doc_set(tp_doc *doc, const char *assignment, tp_diag *d)
+tp_status tp_yamltree_set(tp_yamltree *doc, const char *assignment, tp_diag *d)
 {
     const char *eq = strchr(assignment, '=');
     char path[512], walked[512] = "";
     char *seg, *next, *save = NULL;
-    tp_doc_node *value = NULL, *n;
+    tp_yamltree_node *value = NULL, *n;
     int line = ++doc->n_sets;
     tp_loc loc = {"--set", line, 1};
     const char *name, *text;
@@ -735,7 +740,7 @@ tp_status tp_doc_set(tp_doc *doc, const char *assignment, tp_diag *d)
     if (!doc->root) {
         yaml_mark_t m = {0, 0, 0};
         builder b = {.doc = doc, .file = "--set"};
-        doc->root = node_new(&b, TP_DOC_MAP, &m, &m);
+        doc->root = node_new(&b, TP_YAMLTREE_MAP, &m, &m);
         if (!doc->root) {
             node_free(value);
             return TP_ERR_NOMEM;
@@ -748,13 +753,13 @@ tp_status tp_doc_set(tp_doc *doc, const char *assignment, tp_diag *d)
         if (walked[0])
             strcat(walked, ".");
         strcat(walked, seg);
-        if (n->kind == TP_DOC_SCALAR) {
+        if (n->kind == TP_YAMLTREE_SCALAR) {
             tp_diag_error(d, loc, walked, "a value cannot hold keys; check the path",
                           "the path goes through a value, not a section");
             node_free(value);
             return TP_ERR_USAGE;
         }
-        if (n->kind == TP_DOC_SEQ) {
+        if (n->kind == TP_YAMLTREE_SEQ) {
             long i = seq_index(n, seg);
             if (i < 0) {
                 tp_diag_error(d, loc, walked, "select list items by their id or a 0-based index",
@@ -772,7 +777,7 @@ tp_status tp_doc_set(tp_doc *doc, const char *assignment, tp_diag *d)
             continue;
         }
         {
-            tp_doc_node *child = tp_doc_get(n, seg);
+            tp_yamltree_node *child = tp_yamltree_get(n, seg);
             if (!next) {
                 size_t i;
                 for (i = 0; i < n->n; i++) {
@@ -785,7 +790,7 @@ tp_status tp_doc_set(tp_doc *doc, const char *assignment, tp_diag *d)
                 {
                     yaml_mark_t m = {0, 0, 0};
                     builder b = {.doc = doc, .file = "--set"};
-                    tp_doc_node *key = node_new(&b, TP_DOC_SCALAR, &m, &m);
+                    tp_yamltree_node *key = node_new(&b, TP_YAMLTREE_SCALAR, &m, &m);
                     if (!key || !(key->text = strdup(seg)) || node_push_child(n, key, value)) {
                         node_free(key);
                         node_free(value);
@@ -798,8 +803,8 @@ tp_status tp_doc_set(tp_doc *doc, const char *assignment, tp_diag *d)
             if (!child) {
                 yaml_mark_t m = {0, 0, 0};
                 builder b = {.doc = doc, .file = "--set"};
-                tp_doc_node *key = node_new(&b, TP_DOC_SCALAR, &m, &m);
-                child = node_new(&b, TP_DOC_MAP, &m, &m);
+                tp_yamltree_node *key = node_new(&b, TP_YAMLTREE_SCALAR, &m, &m);
+                child = node_new(&b, TP_YAMLTREE_MAP, &m, &m);
                 if (!key || !child || !(key->text = strdup(seg)) ||
                     node_push_child(n, key, child)) {
                     node_free(key);

@@ -1,8 +1,8 @@
 /* The description: what a config file says, in SI units, before it becomes a network.
  * Two forms share it: the raw `network:` form and the physical plate form (docs/user-guide.md).
  * Unset numbers hold TP_UNSET (NaN; input NaN is rejected, so the sentinel is unambiguous). */
-#ifndef TP_DESC_H
-#define TP_DESC_H
+#ifndef TP_DESCRIPTION_H
+#define TP_DESCRIPTION_H
 
 #include <math.h>
 #include <stddef.h>
@@ -257,7 +257,7 @@ typedef struct tp_guard_spec {
     tp_guard_settings settings;
 } tp_guard_spec;
 
-typedef struct tp_desc {
+typedef struct tp_description {
     tp_form form;
     char title[TP_TEXT_MAX];
     tp_raw network;
@@ -276,20 +276,20 @@ typedef struct tp_desc {
     size_t n_loads;
     tp_wiring wiring;
     tp_guard_spec guard;
-} tp_desc;
+} tp_description;
 
 /* The modes as written in configs, by tp_mode value ("off", "full", "on-off", "pid"). */
-extern const char *const tp_mode_names[TP_MODE_PID + 1];
+extern const char *const tp_description_mode_names[TP_MODE_PID + 1];
 
 /* Name of a control mode as written in configs ("on-off"); "?" when out of range. */
-const char *tp_mode_name(tp_mode mode);
+const char *tp_description_mode_name(tp_mode mode);
 
 /* Nonzero for the modes that hold a setpoint (on-off and pid); off and full hold none. The one
- * place that says so: tp_desc_holds and tp_network_holds ask it. */
-int tp_mode_holds(tp_mode mode);
+ * place that says so: tp_description_holds and tp_network_holds ask it. */
+int tp_description_mode_holds(tp_mode mode);
 
 /* Nonzero when the description's controller holds a setpoint: present, a mode that holds one
- * (tp_mode_holds) and a setpoint given. */
-int tp_desc_holds(const tp_desc *desc);
+ * (tp_description_mode_holds) and a setpoint given. */
+int tp_description_holds(const tp_description *desc);
 
 #endif

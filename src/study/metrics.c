@@ -1,85 +1,11 @@
 /* Metrics from a run's history (definitions in docs/metrics.md). */
-#include "results.h"
+#include "metrics.h"
 
 #include <math.h>
 #include <string.h>
 
-#include "desc.h"
-
-double tp_first_rise(const double *t, const double *v, long n, long stride, double level)
-{
-    long i;
-    if (n <= 0)
-        return TP_UNSET;
-    if (v[0] >= level)
-        return t[0];
-    for (i = 1; i < n; i++) {
-        double a = v[(i - 1) * stride], b = v[i * stride];
-        if (b >= level && a < level)
-            return t[i - 1] + (t[i] - t[i - 1]) * (level - a) / (b - a);
-    }
-    return TP_UNSET;
-}
-
-double tp_first_fall(const double *t, const double *v, long n, long stride, double level)
-{
-    long i;
-    if (n <= 0)
-        return TP_UNSET;
-    if (v[0] <= level)
-        return t[0];
-    for (i = 1; i < n; i++) {
-        double a = v[(i - 1) * stride], b = v[i * stride];
-        if (b <= level && a > level)
-            return t[i - 1] + (t[i] - t[i - 1]) * (a - level) / (a - b);
-    }
-    return TP_UNSET;
-}
-
-double tp_settle_time(const double *t, const double *v, long n, long stride, double target,
-                      double band)
-{
-    return tp_settle_range(t, v, n, stride, target - band, target + band);
-}
-
-double tp_settle_range(const double *t, const double *v, long n, long stride, double lo,
-                       double hi)
-{
-    long i;
-    if (n <= 0 || !(v[(n - 1) * stride] >= lo && v[(n - 1) * stride] <= hi))
-        return TP_UNSET;
-    for (i = n - 1; i > 0; i--) {
-        double a = v[(i - 1) * stride], b = v[i * stride];
-        if (!(a >= lo && a <= hi)) {
-            /* Interpolate where the series enters the band between samples i-1 and i. */
-            double edge = a > hi ? hi : lo;
-            return t[i - 1] + (t[i] - t[i - 1]) * (a - edge) / (a - b);
-        }
-    }
-    return t[0];
-}
-
-double tp_series_at(const double *t, const double *v, long n, long stride, double at)
-{
-    long i;
-    if (n <= 0 || !(at >= t[0] && at <= t[n - 1]))
-        return TP_UNSET;
-    for (i = 1; i < n; i++)
-        if (t[i] >= at)
-            return v[(i - 1) * stride] + (v[i * stride] - v[(i - 1) * stride]) *
-                                             (at - t[i - 1]) / (t[i] - t[i - 1]);
-    return v[(n - 1) * stride];
-}
-
-double tp_series_max(const double *v, long n, long stride)
-{
-    long i;
-    double m = -HUGE_VAL;
-    for (i = 0; i < n; i++)
-        if (v[i * stride] > m)
-            m = v[i * stride];
-    return n > 0 ? m : TP_UNSET;
-}
+#include "description.h"
+#include "series.h"
 
 /* Energy drawn from the supply (delivered plus wiring) at time t, interpolated. */
 static double energy_at(const tp_history *h, double t)
@@ -198,7 +124,7 @@ static void peak_and_steady_figures(const tp_history *h, const tp_network *net,
 static void setpoint_figures(const tp_history *h, const tp_network *net, tp_metrics *m)
 {
     long n = h->n;
-    m->t_setpoint = tp_first_rise(h->t, h->reading, n, 1, m->setpoint);
+    m->t_setpoint = tp_series_first_rise(h->t, h->reading, n, 1, m->setpoint);
     m->overshoot_reading = fmax(0.0, tp_series_max(h->reading, n, 1) - m->setpoint);
     if (!isfinite(m->t_setpoint)) {
         if (isfinite(m->highest_reachable) && m->highest_reachable < m->setpoint)
@@ -225,15 +151,15 @@ static void setpoint_figures(const tp_history *h, const tp_network *net, tp_metr
         m->ready_basis = TP_READY_NO_CYCLE;
     }
     if (isfinite(m->ready_low))
-        m->t_surface_ready = tp_settle_range(h->t, h->surface, n, 1, m->ready_low,
-                                             m->ready_high);
+        m->t_surface_ready =
+            tp_series_settle_range(h->t, h->surface, n, 1, m->ready_low, m->ready_high);
     m->overshoot_surface = fmax(0.0, m->surface_max - m->surface_hold);
     m->energy_to_ready = energy_at(h, m->t_surface_ready);
     /* The lag as a maker sees it: how far the surface is short of its holding value when the
      * reading first reaches the setpoint, and how long after that it comes within the band of
      * it. */
     m->lag_k = m->surface_hold - tp_series_at(h->t, h->surface, n, 1, m->t_setpoint);
-    m->lag = tp_first_rise(h->t, h->surface, n, 1, m->surface_hold - TP_READY_BAND) -
+    m->lag = tp_series_first_rise(h->t, h->surface, n, 1, m->surface_hold - TP_READY_BAND) -
              m->t_setpoint;
 }
 
@@ -241,15 +167,38 @@ void tp_metrics_compute(const tp_history *h, const tp_network *net, const tp_ste
                         const tp_steady *full, tp_metrics *m)
 {
     const double u = TP_UNSET;
-    *m = (tp_metrics){.setpoint = u, .t_setpoint = u, .surface_hold = u, .t_surface_ready = u,
-                      .overshoot_reading = u, .overshoot_surface = u, .steady_offset = u,
-                      .lag = u, .lag_k = u, .ready_low = u, .ready_high = u,
-                      .cycle_period = u, .cycle_min = u, .cycle_max = u, .cycle_mean = u,
-                      .ready_basis = TP_READY_NONE, .energy_to_ready = u, .power_mean = u,
-                      .power_peak = u, .duty_mean = u, .duty_peak = u, .wire_mean = u,
-                      .current_peak = u, .hold_power = u, .hold_duty = u, .margin = u,
-                      .air_final = u, .highest_reachable = u, .not_reached = NULL,
-                      .surface_max = u, .node_max = u, .duration = u};
+    *m = (tp_metrics){.setpoint = u,
+                      .t_setpoint = u,
+                      .surface_hold = u,
+                      .t_surface_ready = u,
+                      .overshoot_reading = u,
+                      .overshoot_surface = u,
+                      .steady_offset = u,
+                      .lag = u,
+                      .lag_k = u,
+                      .ready_low = u,
+                      .ready_high = u,
+                      .cycle_period = u,
+                      .cycle_min = u,
+                      .cycle_max = u,
+                      .cycle_mean = u,
+                      .ready_basis = TP_READY_NONE,
+                      .energy_to_ready = u,
+                      .power_mean = u,
+                      .power_peak = u,
+                      .duty_mean = u,
+                      .duty_peak = u,
+                      .wire_mean = u,
+                      .current_peak = u,
+                      .hold_power = u,
+                      .hold_duty = u,
+                      .margin = u,
+                      .air_final = u,
+                      .highest_reachable = u,
+                      .not_reached = NULL,
+                      .surface_max = u,
+                      .node_max = u,
+                      .duration = u};
     if (h->n == 0)
         return;
     m->duration = h->t[h->n - 1];
