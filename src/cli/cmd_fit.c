@@ -348,28 +348,12 @@ static const char *weak_reason(const fit_run *f, int i)
     return "not identifiable from this log";
 }
 
-/* The config with the fitted values (and the --set overrides) written into its text. */
-static tp_status write_config(const char *path, const fit_run *f, tp_diag *d)
+/* The --set overrides as edits (the last of a key wins, as when reading; a fitted key's
+ * override is left out: the fitted value replaces it); returns how many. */
+static int override_items(const fit_run *f, const char *const *sets, int n_sets,
+                          tp_configedit_item *items)
 {
-    const tp_cli *cli = f->s.cli;
-    const char *sets[TP_MAX_SETS];
-    int n_sets = tp_cli_all(cli, "set", sets, TP_MAX_SETS), n = 0, i, j;
-    tp_configedit_item *items = calloc((size_t)(n_sets + f->n_params + 1), sizeof *items);
-    char *comment = NULL, *text = NULL, v[96], s0[96], se[96];
-    size_t clen = 0, ccap = 4096;
-    tp_yamltree *orig = NULL, *back = NULL;
-    tp_description check;
-    tp_outfile o;
-    tp_status st;
-
-    memset(&check, 0, sizeof check);
-    comment = malloc(ccap);
-    if (!items || !comment) {
-        free(items);
-        free(comment);
-        return TP_ERR_NOMEM;
-    }
-    /* --set overrides first; a fitted key replaces its override. */
+    int n = 0, i, j;
     for (i = 0; i < n_sets; i++) {
         const char *eq = strchr(sets[i], '=');
         size_t plen = eq ? (size_t)(eq - sets[i]) : 0;
@@ -388,10 +372,21 @@ static tp_status write_config(const char *path, const fit_run *f, tp_diag *d)
             if (strcmp(items[j].path, items[n].path) == 0)
                 break;
         if (j < n)
-            items[j] = items[n]; /* the last --set of a key wins, as when reading */
+            items[j] = items[n];
         else
             n++;
     }
+    return n;
+}
+
+/* The fitted values as edits after items[0..n), and the comment block that heads the written
+ * config (into comment, ccap bytes); returns the new count of items. */
+static int fitted_items(const fit_run *f, tp_configedit_item *items, int n, char *comment,
+                        size_t ccap)
+{
+    char v[96], s0[96], se[96];
+    size_t clen = 0;
+    int i, n_overrides = n;
     clen += (size_t)snprintf(comment + clen, ccap - clen,
                              "# Calibrated with 'tepid fit' against %s (%ld rows; the heater\n"
                              "# followed %s; RMS residual %.3g K).\n"
@@ -411,40 +406,72 @@ static tp_status write_config(const char *path, const fit_run *f, tp_diag *d)
                                      q->start_unset ? "unset, started at " : "", s0, v, se,
                                      q->weak ? " - " : "", q->weak ? weak_reason(f, i) : "");
     }
-    if (n > f->n_params && clen + 200 < ccap)
-        clen += (size_t)snprintf(comment + clen, ccap - clen,
-                                 "# The --set values of that run are written in as well.\n");
+    if (n_overrides > 0 && clen + 200 < ccap)
+        snprintf(comment + clen, ccap - clen,
+                 "# The --set values of that run are written in as well.\n");
+    return n;
+}
+
+/* Read the rewritten config back: it must be a valid config holding the fitted values. */
+static tp_status read_back(const char *path, const char *text, const fit_run *f, tp_diag *d)
+{
+    tp_yamltree *back = NULL;
+    tp_description check;
+    tp_diag quiet;
+    tp_status st;
+    int i;
+    memset(&check, 0, sizeof check);
+    tp_diag_init(&quiet, NULL);
+    st = tp_yamltree_load_text(path, text, strlen(text), &back, &quiet);
+    if (st == TP_OK)
+        st = tp_config_read(back, &check, &quiet);
+    for (i = 0; st == TP_OK && i < f->n_params; i++) {
+        double got;
+        if (tp_config_get(&check, f->params[i].path, &got) != TP_OK ||
+            !(fabs(got - f->params[i].value) <= 1e-3 * fabs(f->params[i].value) + 1e-9))
+            st = TP_ERR_CONFIG;
+    }
+    if (st != TP_OK) {
+        tp_diag_error(d, tp_diag_loc_none(), NULL, "please report this; edit the config by hand",
+                      "the rewritten config does not read back with the fitted values: %s",
+                      quiet.log);
+        st = TP_ERR_CONFIG;
+    }
+    tp_config_clear(&check);
+    tp_yamltree_destroy(&back);
+    return st;
+}
+
+/* The config with the fitted values (and the --set overrides) written into its text. */
+static tp_status write_config(const char *path, const fit_run *f, tp_diag *d)
+{
+    const tp_cli *cli = f->s.cli;
+    const char *sets[TP_MAX_SETS];
+    int n_sets = tp_cli_all(cli, "set", sets, TP_MAX_SETS), n;
+    tp_configedit_item *items = calloc((size_t)(n_sets + f->n_params + 1), sizeof *items);
+    size_t ccap = 4096;
+    char *comment = malloc(ccap), *text = NULL;
+    tp_yamltree *orig = NULL;
+    tp_outfile o;
+    tp_status st;
+    if (!items || !comment) {
+        free(items);
+        free(comment);
+        return TP_ERR_NOMEM;
+    }
+    n = override_items(f, sets, n_sets, items);
+    n = fitted_items(f, items, n, comment, ccap);
     st = tp_yamltree_load_file(cli->file, &orig, d);
     if (st == TP_OK)
         st = tp_configedit_apply(orig, items, n, comment, &text, d);
-    /* Read the result back: it must be a valid config holding the fitted values. */
-    if (st == TP_OK) {
-        tp_diag quiet;
-        tp_diag_init(&quiet, NULL);
-        st = tp_yamltree_load_text(path, text, strlen(text), &back, &quiet);
-        if (st == TP_OK)
-            st = tp_config_read(back, &check, &quiet);
-        for (i = 0; st == TP_OK && i < f->n_params; i++) {
-            double got;
-            if (tp_config_get(&check, f->params[i].path, &got) != TP_OK ||
-                !(fabs(got - f->params[i].value) <= 1e-3 * fabs(f->params[i].value) + 1e-9))
-                st = TP_ERR_CONFIG;
-        }
-        if (st != TP_OK) {
-            tp_diag_error(
-                d, tp_diag_loc_none(), NULL, "please report this; edit the config by hand",
-                "the rewritten config does not read back with the fitted values: %s", quiet.log);
-            st = TP_ERR_CONFIG;
-        }
-    }
+    if (st == TP_OK)
+        st = read_back(path, text, f, d);
     if (st == TP_OK)
         st = tp_outfile_open(&o, path, d);
     if (st == TP_OK) {
         fputs(text, o.fp);
         st = tp_outfile_commit(&o, d);
     }
-    tp_config_clear(&check);
-    tp_yamltree_destroy(&back);
     tp_yamltree_destroy(&orig);
     free(text);
     free(comment);

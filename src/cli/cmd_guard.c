@@ -344,31 +344,14 @@ static void put_detect(cJSON *obj, const tp_guard_detect *det)
     tp_json_number(o, "ceiling", det->ceiling);
 }
 
-static tp_status write_json(const char *path, const tp_session *s, const tp_guard_study *st,
-                            int evaluating, int strict_failed, tp_diag *d)
+/* The healthy ranges (in the user's units: degC for the room) and which came from defaults. */
+static void put_ranges(cJSON *root, const tp_guard_study *st)
 {
-    cJSON *root = cJSON_CreateObject(), *o, *arr, *item;
-    tp_caution cautions[TP_CAUTIONS_MAX];
-    const tp_guard_spec *g = &s->desc.guard;
-    tp_status rs;
-    int k, c, f, from, n;
-    if (!root)
-        return TP_ERR_NOMEM;
-    cJSON_AddStringToObject(root, "mode", evaluating ? "evaluate" : "recommend");
-    tp_json_number(root, "setpoint_C", st->setpoint - TP_KELVIN_0C);
-    tp_json_number(root, "control_period_s", st->period);
-    tp_json_number(root, "reading_step_K", st->resolution);
-    tp_json_number(root, "time_factor", g->time_factor);
-    tp_json_number(root, "rise_factor", g->rise_factor);
-    tp_json_number(root, "horizon_s", st->horizon);
-    tp_json_number(root, "hold_followed_s", g->hold);
-    tp_json_number(root, "detached_loss_W_per_K", st->detached_loss);
-    tp_json_number(root, "pinned_high_C", st->pin_high - TP_KELVIN_0C);
-    tp_json_number(root, "pinned_low_C", st->pin_low - TP_KELVIN_0C);
-    o = cJSON_AddObjectToObject(root, "ranges");
+    static const char *const keys[TP_RANGE_COUNT] = {"supply_V", "resistance_ohm", "room_C",
+                                                     "airflow_m_per_s"};
+    cJSON *o = cJSON_AddObjectToObject(root, "ranges"), *arr;
+    int k;
     for (k = 0; o && k < TP_RANGE_COUNT; k++) {
-        static const char *const keys[TP_RANGE_COUNT] = {"supply_V", "resistance_ohm", "room_C",
-                                                         "airflow_m_per_s"};
         const tp_guard_range *r = &st->ranges.r[k];
         double off = k == TP_RANGE_ROOM ? TP_KELVIN_0C : 0.0;
         cJSON *ro = cJSON_AddObjectToObject(o, keys[k]);
@@ -385,6 +368,13 @@ static tp_status write_json(const char *path, const tp_session *s, const tp_guar
     for (k = 0; arr && k < TP_RANGE_COUNT; k++)
         if (st->ranges.r[k].origin == TP_RANGE_DEFAULT)
             cJSON_AddItemToArray(arr, cJSON_CreateString(tp_guard_range_name(k)));
+}
+
+/* The recommended settings with their explanations, the evaluated ones and which were given. */
+static void put_all_settings(cJSON *root, const tp_guard_study *st)
+{
+    cJSON *o, *arr;
+    int k;
     put_settings(root, "recommended", &st->rec);
     tp_json_number(root, "rise_min_unrounded_K", st->rise_min_raw);
     o = cJSON_AddObjectToObject(root, "explanations");
@@ -396,7 +386,12 @@ static tp_status write_json(const char *path, const tp_session *s, const tp_guar
     for (k = 0; arr && k < TP_G_COUNT; k++)
         if (st->given[k])
             cJSON_AddItemToArray(arr, cJSON_CreateString(tp_guard_setting_name(k)));
-    arr = cJSON_AddArrayToObject(root, "corners");
+}
+
+static void put_corners(cJSON *root, const tp_guard_study *st)
+{
+    cJSON *arr = cJSON_AddArrayToObject(root, "corners"), *item;
+    int c;
     for (c = 0; arr && c < st->n_corners; c++) {
         const tp_guard_corner *co = &st->corners[c];
         item = cJSON_CreateObject();
@@ -421,7 +416,12 @@ static tp_status write_json(const char *path, const tp_session *s, const tp_guar
         tp_json_number(item, "full_power_reading_C", co->stuck_reading - TP_KELVIN_0C);
         tp_json_number(item, "full_power_heater_C", co->stuck_heater - TP_KELVIN_0C);
     }
-    arr = cJSON_AddArrayToObject(root, "faults");
+}
+
+static void put_faults(cJSON *root, const tp_guard_study *st)
+{
+    cJSON *arr = cJSON_AddArrayToObject(root, "faults"), *item;
+    int f, from;
     for (f = 0; arr && f < TP_FAULT_COUNT; f++) {
         for (from = 0; from < 2; from++) {
             const tp_guard_fault_run *fr = &st->faults[f][from];
@@ -444,14 +444,20 @@ static tp_status write_json(const char *path, const tp_session *s, const tp_guar
             cJSON_AddBoolToObject(item, "limit_before_detection", fr->limit_before);
         }
     }
-    o = cJSON_AddObjectToObject(root, "stuck_on");
+}
+
+/* The stuck-on equilibrium and each layer's service limit against its healthy peak. */
+static void put_stuck_and_layers(cJSON *root, const tp_network *net, const tp_guard_study *st)
+{
+    cJSON *o = cJSON_AddObjectToObject(root, "stuck_on"), *arr, *item;
+    int k;
     if (o) {
         tp_json_number(o, "reading_C", st->has_stuck ? st->stuck.reading - TP_KELVIN_0C
                                                      : TP_UNSET);
         if (st->has_stuck) {
             cJSON *nodes = cJSON_AddObjectToObject(o, "nodes_C");
-            for (k = 0; nodes && k < s->net->n_nodes; k++)
-                tp_json_number(nodes, s->net->nodes[k].id, st->stuck.temps[k] - TP_KELVIN_0C);
+            for (k = 0; nodes && k < net->n_nodes; k++)
+                tp_json_number(nodes, net->nodes[k].id, st->stuck.temps[k] - TP_KELVIN_0C);
             tp_json_number(o, "power_W", st->stuck.power);
         }
         if (st->stuck_over_layer >= 0)
@@ -476,6 +482,34 @@ static tp_status write_json(const char *path, const tp_session *s, const tp_guar
         tp_json_number(item, "healthy_peak_C", st->layer_healthy[k] - TP_KELVIN_0C);
         cJSON_AddBoolToObject(item, "protected", st->layer_protected[k]);
     }
+}
+
+static tp_status write_json(const char *path, const tp_session *s, const tp_guard_study *st,
+                            int evaluating, int strict_failed, tp_diag *d)
+{
+    cJSON *root = cJSON_CreateObject(), *o;
+    tp_caution cautions[TP_CAUTIONS_MAX];
+    const tp_guard_spec *g = &s->desc.guard;
+    tp_status rs;
+    int n;
+    if (!root)
+        return TP_ERR_NOMEM;
+    cJSON_AddStringToObject(root, "mode", evaluating ? "evaluate" : "recommend");
+    tp_json_number(root, "setpoint_C", st->setpoint - TP_KELVIN_0C);
+    tp_json_number(root, "control_period_s", st->period);
+    tp_json_number(root, "reading_step_K", st->resolution);
+    tp_json_number(root, "time_factor", g->time_factor);
+    tp_json_number(root, "rise_factor", g->rise_factor);
+    tp_json_number(root, "horizon_s", st->horizon);
+    tp_json_number(root, "hold_followed_s", g->hold);
+    tp_json_number(root, "detached_loss_W_per_K", st->detached_loss);
+    tp_json_number(root, "pinned_high_C", st->pin_high - TP_KELVIN_0C);
+    tp_json_number(root, "pinned_low_C", st->pin_low - TP_KELVIN_0C);
+    put_ranges(root, st);
+    put_all_settings(root, st);
+    put_corners(root, st);
+    put_faults(root, st);
+    put_stuck_and_layers(root, s->net, st);
     o = cJSON_AddObjectToObject(root, "verdict");
     if (o) {
         tp_json_number(o, "healthy_trips", st->healthy_trips);

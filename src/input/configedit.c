@@ -237,6 +237,87 @@ out:
     return rc;
 }
 
+/* One change: an edit replacing the value the document gives at its path, or (the path's
+ * longest existing prefix a section) a pending key added to pd[*npd]. TP_ERR_CONFIG with a
+ * message when the path goes through a value or a missing list item or names a block section;
+ * TP_ERR_NOMEM. */
+static tp_status place_item(const tp_yamltree *doc, const tp_configedit_item *item, edit **ed,
+                            int *ned, pending *pd, int *npd, tp_diag *d)
+{
+    char seg[SEGS_MAX][SEG_MAX];
+    int ns = split_path(item->path, seg), k, j;
+    const tp_yamltree_node *node = doc->root;
+    char prefix[TP_CONFIGEDIT_PATH_MAX] = "";
+    if (ns <= 0) {
+        tp_diag_error(d, tp_diag_loc_none(), item->path, NULL, "not a key path");
+        return TP_ERR_CONFIG;
+    }
+    /* The longest prefix of the path that exists in the document. */
+    for (k = 0; k < ns; k++) {
+        const tp_yamltree_node *next;
+        if (k > 0)
+            strcat(prefix, ".");
+        strcat(prefix, seg[k]);
+        next = tp_yamltree_find(doc, prefix);
+        if (next) {
+            node = next;
+            continue;
+        }
+        if (node->kind == TP_YAMLTREE_SEQ) {
+            tp_diag_error(d, tp_yamltree_loc(node), item->path, NULL,
+                          "no list item '%s' to write into", seg[k]);
+            return TP_ERR_CONFIG;
+        }
+        if (node->kind == TP_YAMLTREE_SCALAR) {
+            tp_diag_error(d, tp_yamltree_loc(node), item->path, NULL,
+                          "the path goes through a value");
+            return TP_ERR_CONFIG;
+        }
+        break;
+    }
+    if (k == ns) {
+        if (node->kind != TP_YAMLTREE_SCALAR && !node->flow) {
+            tp_diag_error(d, tp_yamltree_loc(node), item->path, "edit this section by hand",
+                          "cannot replace a block section");
+            return TP_ERR_CONFIG;
+        }
+        return add_edit(ed, ned, node->start, node->end - node->start, item->value) != 0
+                   ? TP_ERR_NOMEM
+                   : TP_OK;
+    }
+    pd[*npd].map = node;
+    pd[*npd].nseg = ns - k;
+    for (j = 0; j < ns - k; j++)
+        strcpy(pd[*npd].seg[j], seg[k + j]);
+    pd[*npd].value = item->value;
+    pd[*npd].path = item->path;
+    (*npd)++;
+    return TP_OK;
+}
+
+/* The text with the edits (sorted, not overlapping) applied, after `comment`, into *out. */
+static tp_status splice(const tp_yamltree *doc, const char *comment, const edit *ed, int ned,
+                        char **out)
+{
+    buf b = {NULL, 0, 0, 0};
+    size_t pos = 0;
+    int i;
+    if (comment)
+        puts_buf(&b, comment);
+    for (i = 0; i < ned; i++) {
+        put(&b, doc->text + pos, ed[i].at - pos);
+        puts_buf(&b, ed[i].ins);
+        pos = ed[i].at + ed[i].del;
+    }
+    put(&b, doc->text + pos, doc->len - pos);
+    if (b.failed || !b.s) {
+        free(b.s);
+        return TP_ERR_NOMEM;
+    }
+    *out = b.s;
+    return TP_OK;
+}
+
 tp_status tp_configedit_apply(const tp_yamltree *doc, const tp_configedit_item *items, int n,
                               const char *comment, char **out, tp_diag *d)
 {
@@ -245,8 +326,6 @@ tp_status tp_configedit_apply(const tp_yamltree *doc, const tp_configedit_item *
     int *idx = NULL, *done = NULL;
     int ned = 0, npd = 0, i, j;
     tp_status st = TP_ERR_CONFIG;
-    buf b = {NULL, 0, 0, 0};
-    size_t pos;
 
     *out = NULL;
     if (!doc->root || doc->root->kind != TP_YAMLTREE_MAP) {
@@ -260,58 +339,10 @@ tp_status tp_configedit_apply(const tp_yamltree *doc, const tp_configedit_item *
         st = TP_ERR_NOMEM;
         goto fail;
     }
-    for (i = 0; i < n; i++) {
-        char seg[SEGS_MAX][SEG_MAX];
-        int ns = split_path(items[i].path, seg), k;
-        const tp_yamltree_node *node = doc->root;
-        char prefix[TP_CONFIGEDIT_PATH_MAX] = "";
-        if (ns <= 0) {
-            tp_diag_error(d, tp_diag_loc_none(), items[i].path, NULL, "not a key path");
+    for (i = 0; i < n; i++)
+        if ((st = place_item(doc, &items[i], &ed, &ned, pd, &npd, d)) != TP_OK)
             goto fail;
-        }
-        /* The longest prefix of the path that exists in the document. */
-        for (k = 0; k < ns; k++) {
-            const tp_yamltree_node *next;
-            if (k > 0)
-                strcat(prefix, ".");
-            strcat(prefix, seg[k]);
-            next = tp_yamltree_find(doc, prefix);
-            if (next) {
-                node = next;
-                continue;
-            }
-            if (node->kind == TP_YAMLTREE_SEQ) {
-                tp_diag_error(d, tp_yamltree_loc(node), items[i].path, NULL,
-                              "no list item '%s' to write into", seg[k]);
-                goto fail;
-            }
-            if (node->kind == TP_YAMLTREE_SCALAR) {
-                tp_diag_error(d, tp_yamltree_loc(node), items[i].path, NULL,
-                              "the path goes through a value");
-                goto fail;
-            }
-            break;
-        }
-        if (k == ns) {
-            if (node->kind != TP_YAMLTREE_SCALAR && !node->flow) {
-                tp_diag_error(d, tp_yamltree_loc(node), items[i].path, "edit this section by hand",
-                              "cannot replace a block section");
-                goto fail;
-            }
-            if (add_edit(&ed, &ned, node->start, node->end - node->start, items[i].value) != 0) {
-                st = TP_ERR_NOMEM;
-                goto fail;
-            }
-            continue;
-        }
-        pd[npd].map = node;
-        pd[npd].nseg = ns - k;
-        for (j = 0; j < ns - k; j++)
-            strcpy(pd[npd].seg[j], seg[k + j]);
-        pd[npd].value = items[i].value;
-        pd[npd].path = items[i].path;
-        npd++;
-    }
+    st = TP_ERR_CONFIG;
     /* Missing keys, grouped by the section they go into. */
     for (i = 0; i < npd; i++) {
         int m = 0;
@@ -332,22 +363,7 @@ tp_status tp_configedit_apply(const tp_yamltree *doc, const tp_configedit_item *
                           "two changes overlap in the text");
             goto fail;
         }
-    if (comment)
-        puts_buf(&b, comment);
-    pos = 0;
-    for (i = 0; i < ned; i++) {
-        put(&b, doc->text + pos, ed[i].at - pos);
-        puts_buf(&b, ed[i].ins);
-        pos = ed[i].at + ed[i].del;
-    }
-    put(&b, doc->text + pos, doc->len - pos);
-    if (b.failed || !b.s) {
-        st = TP_ERR_NOMEM;
-        goto fail;
-    }
-    *out = b.s;
-    b.s = NULL;
-    st = TP_OK;
+    st = splice(doc, comment, ed, ned, out);
 fail:
     for (i = 0; i < ned; i++)
         free(ed[i].ins);
@@ -355,7 +371,6 @@ fail:
     free(pd);
     free(idx);
     free(done);
-    free(b.s);
     return st;
 }
 

@@ -782,24 +782,14 @@ static void jacobi_eigen(double *a, int p, double *w, double *v)
         w[i] = a[i * p + i];
 }
 
-/* Jacobian in v (ln x or x) by central differences at u*, then the covariance, standard errors,
- * correlations and flags. `f0` holds the residuals at the optimum. */
-static tp_status statistics(lmctx *c, const double *ubest, const double *f0, tp_fit_result *res)
+/* The Jacobian in v (ln x or x) by central differences at u* into jac (m x p, column-major);
+ * `f0` holds the residuals at the optimum, fa is m of scratch. */
+static void jacobian_fd(lmctx *c, const double *ubest, const double *f0, double *jac, double *fa)
 {
     const tp_fit_problem *pb = c->pb;
-    int p = pb->n_params, i, j, k;
+    int p = pb->n_params, j, k;
     long m = pb->log->n, r;
-    double *jac = malloc((size_t)m * (size_t)p * sizeof *jac), *fa = malloc((size_t)m * sizeof *fa);
-    double a[TP_FIT_MAX_PARAMS * TP_FIT_MAX_PARAMS], v[TP_FIT_MAX_PARAMS * TP_FIT_MAX_PARAMS];
-    double w[TP_FIT_MAX_PARAMS], scale[TP_FIT_MAX_PARAMS],
-        cov[TP_FIT_MAX_PARAMS * TP_FIT_MAX_PARAMS];
-    double x[TP_FIT_MAX_PARAMS], wmax = 0.0, s2;
-    int lost[TP_FIT_MAX_PARAMS];
-    if (!jac || !fa) {
-        free(jac);
-        free(fa);
-        return TP_ERR_NOMEM;
-    }
+    double x[TP_FIT_MAX_PARAMS];
     for (j = 0; j < p; j++) {
         double ua = ubest[j] + TP_FIT_COV_STEP, ub = ubest[j] - TP_FIT_COV_STEP, du;
         int ok;
@@ -822,13 +812,25 @@ static tp_status statistics(lmctx *c, const double *ubest, const double *f0, tp_
         for (r = 0; r < m; r++)
             jac[r + (long)j * m] = ok ? (fa[r] - c->fh[r]) / du : 0.0;
     }
+}
+
+/* From the Jacobian (m x p): the covariance of v (s^2 (J^T J)^-1 over the directions the log
+ * sees, the eigen-decomposition of J^T J scaled to unit diagonal), the rank, and which
+ * parameters the log does not determine (lost[i]). */
+static void covariance(const double *jac, long m, int p, double s2, double *cov, int *lost,
+                       int *rank)
+{
+    double a[TP_FIT_MAX_PARAMS * TP_FIT_MAX_PARAMS], v[TP_FIT_MAX_PARAMS * TP_FIT_MAX_PARAMS];
+    double w[TP_FIT_MAX_PARAMS], scale[TP_FIT_MAX_PARAMS], wmax = 0.0;
+    int i, j, k;
+    long r;
     /* A = J^T J, normalised to unit diagonal for the eigen-decomposition. */
     for (i = 0; i < p; i++)
         for (j = 0; j < p; j++) {
-            double s = 0.0;
+            double sum = 0.0;
             for (r = 0; r < m; r++)
-                s += jac[r + (long)i * m] * jac[r + (long)j * m];
-            a[i * p + j] = s;
+                sum += jac[r + (long)i * m] * jac[r + (long)j * m];
+            a[i * p + j] = sum;
         }
     for (i = 0; i < p; i++)
         scale[i] = a[i * p + i] > 0 ? sqrt(a[i * p + i]) : 0.0;
@@ -839,12 +841,12 @@ static tp_status statistics(lmctx *c, const double *ubest, const double *f0, tp_
     jacobi_eigen(a, p, w, v);
     for (k = 0; k < p; k++)
         wmax = fmax(wmax, w[k]);
-    res->rank = 0;
+    *rank = 0;
     for (i = 0; i < p; i++)
         lost[i] = scale[i] <= 0;
     for (k = 0; k < p; k++) {
         if (w[k] > TP_FIT_RANK_TOL * wmax && wmax > 0) {
-            res->rank++;
+            (*rank)++;
             continue;
         }
         /* A direction the log does not see: every parameter with weight in it is lost. */
@@ -852,16 +854,34 @@ static tp_status statistics(lmctx *c, const double *ubest, const double *f0, tp_
             if (v[i * p + k] * v[i * p + k] > 0.01)
                 lost[i] = 1;
     }
-    s2 = res->rss / (double)res->dof;
     for (i = 0; i < p; i++)
         for (j = 0; j < p; j++) {
-            double s = 0.0;
+            double sum = 0.0;
             for (k = 0; k < p; k++)
                 if (w[k] > TP_FIT_RANK_TOL * wmax && wmax > 0)
-                    s += v[i * p + k] * v[j * p + k] / w[k];
+                    sum += v[i * p + k] * v[j * p + k] / w[k];
             cov[i * p + j] =
-                scale[i] > 0 && scale[j] > 0 ? s2 * s / (scale[i] * scale[j]) : (double)NAN;
+                scale[i] > 0 && scale[j] > 0 ? s2 * sum / (scale[i] * scale[j]) : (double)NAN;
         }
+}
+
+/* Jacobian in v (ln x or x) by central differences at u*, then the covariance, standard errors,
+ * correlations and flags. `f0` holds the residuals at the optimum. */
+static tp_status statistics(lmctx *c, const double *ubest, const double *f0, tp_fit_result *res)
+{
+    const tp_fit_problem *pb = c->pb;
+    int p = pb->n_params, i, j;
+    long m = pb->log->n;
+    double *jac = malloc((size_t)m * (size_t)p * sizeof *jac), *fa = malloc((size_t)m * sizeof *fa);
+    double cov[TP_FIT_MAX_PARAMS * TP_FIT_MAX_PARAMS];
+    int lost[TP_FIT_MAX_PARAMS];
+    if (!jac || !fa) {
+        free(jac);
+        free(fa);
+        return TP_ERR_NOMEM;
+    }
+    jacobian_fd(c, ubest, f0, jac, fa);
+    covariance(jac, m, p, res->rss / (double)res->dof, cov, lost, &res->rank);
     for (i = 0; i < p; i++) {
         tp_fit_param *q = &pb->params[i];
         double se = lost[i] ? (double)INFINITY : sqrt(cov[i * p + i]);
@@ -906,71 +926,32 @@ void tp_fit_result_clear(tp_fit_result *res)
     memset(res, 0, sizeof *res);
 }
 
-tp_status tp_fit_run(const tp_fit_problem *pb, tp_fit_result *res, tp_diag *d)
+/* The work space of the Levenberg-Marquardt starts, and the best of them so far. */
+typedef struct lmwork {
+    int m, p, starts;
+    double *fvec, *fjac, *wa4, *fbest, *rss_of; /* m, m x p, m, m, starts */
+    double diag[TP_FIT_MAX_PARAMS], qtf[TP_FIT_MAX_PARAMS], wa1[TP_FIT_MAX_PARAMS];
+    double wa2[TP_FIT_MAX_PARAMS], wa3[TP_FIT_MAX_PARAMS], z[TP_FIT_MAX_PARAMS];
+    int ipvt[TP_FIT_MAX_PARAMS];
+    double best, zbest[TP_FIT_MAX_PARAMS]; /* the smallest sum of squares, and where */
+    int best_info;
+} lmwork;
+
+/* The starting values must give a model run: report why not, and warn when the model does not
+ * start where the log does. */
+static tp_status check_start(evaluator *ev, const tp_fit_problem *pb, tp_fit_result *res,
+                             tp_diag *d)
 {
     const tp_templog *log = pb->log;
-    int p = pb->n_params, m, s, k, starts, info = 0, best_info = 0;
-    double t0 = now_seconds(), best = HUGE_VAL, zbest[TP_FIT_MAX_PARAMS], ubest[TP_FIT_MAX_PARAMS];
-    double z[TP_FIT_MAX_PARAMS], x[TP_FIT_MAX_PARAMS], diag[TP_FIT_MAX_PARAMS];
-    double qtf[TP_FIT_MAX_PARAMS], wa1[TP_FIT_MAX_PARAMS], wa2[TP_FIT_MAX_PARAMS];
-    double wa3[TP_FIT_MAX_PARAMS], *rss_of = NULL;
-    int ipvt[TP_FIT_MAX_PARAMS];
-    double *fvec = NULL, *fjac = NULL, *wa4 = NULL, *fbest = NULL;
-    evaluator ev;
-    lmctx c;
-    tp_status st;
-    long i;
-
-    memset(res, 0, sizeof *res);
-    memset(&c, 0, sizeof c);
-    if (p < 1 || p > TP_FIT_MAX_PARAMS) {
-        tp_diag_error(d, tp_diag_loc_none(), NULL, "free one to eight keys with --free",
-                      "%d free parameters", p);
-        return TP_ERR_USAGE;
-    }
-    if (log->n <= p || log->n > 0x7fffffffL / TP_FIT_MAX_PARAMS) {
-        tp_diag_error(d, (tp_loc){log->name, 0, 0}, NULL, NULL,
-                      "%ld rows cannot determine %d parameters", log->n, p);
-        return TP_ERR_CONFIG;
-    }
-    m = (int)log->n;
-    st = evaluator_init(&ev, pb, d);
-    if (st != TP_OK)
-        return st;
-    starts = pb->starts < 1 ? 1 : pb->starts > TP_FIT_STARTS_MAX ? TP_FIT_STARTS_MAX : pb->starts;
-    res->m = m;
-    res->p = p;
-    res->drive = ev.drive;
-    res->sensor = ev.sensor;
-    res->dof = m - p;
-    res->model = malloc((size_t)m * sizeof *res->model);
-    res->model_start = malloc((size_t)m * sizeof *res->model_start);
-    res->corr = malloc((size_t)p * (size_t)p * sizeof *res->corr);
-    res->node_peak = malloc((size_t)(ev.n_nodes > 0 ? ev.n_nodes : 1) * sizeof *res->node_peak);
-    fvec = malloc((size_t)m * sizeof *fvec);
-    fbest = malloc((size_t)m * sizeof *fbest);
-    fjac = malloc((size_t)m * (size_t)p * sizeof *fjac);
-    wa4 = malloc((size_t)m * sizeof *wa4);
-    c.model = malloc((size_t)m * sizeof *c.model);
-    c.fh = malloc((size_t)m * sizeof *c.fh);
-    rss_of = malloc((size_t)starts * sizeof *rss_of);
-    if (!res->model || !res->model_start || !res->corr || !res->node_peak || !fvec || !fbest ||
-        !fjac || !wa4 || !c.model || !c.fh || !rss_of) {
-        st = TP_ERR_NOMEM;
-        goto done;
-    }
-    c.ev = &ev;
-    c.pb = pb;
-
-    /* The starting values must give a model run: report why not. */
-    for (k = 0; k < p; k++)
+    double x[TP_FIT_MAX_PARAMS];
+    int k;
+    for (k = 0; k < pb->n_params; k++)
         x[k] = pb->params[k].start;
-    if (evaluate(&ev, x, res->model_start, NULL) != 0) {
+    if (evaluate(ev, x, res->model_start, NULL) != 0) {
         tp_diag_error(d, tp_diag_loc_none(), NULL,
                       "check the config with 'tepid warmup' and the bounds of --free",
-                      "the model run with the starting values failed: %s", ev.why);
-        st = TP_ERR_SOLVER;
-        goto done;
+                      "the model run with the starting values failed: %s", ev->why);
+        return TP_ERR_SOLVER;
     }
     if (fabs(res->model_start[0] - log->reading[0]) > TP_FIT_START_MISMATCH) {
         char hint[256];
@@ -982,8 +963,16 @@ tp_status tp_fit_run(const tp_fit_problem *pb, tp_fit_result *res, tp_diag *d)
                      "the log starts at %.1f degC but the model starts at %.1f degC",
                      log->reading[0] - TP_KELVIN_0C, res->model_start[0] - TP_KELVIN_0C);
     }
+    return TP_OK;
+}
 
-    for (s = 0; s < starts; s++) {
+/* Levenberg-Marquardt from w->starts points: the configured start, then a Halton sequence over
+ * the bounds; a start that enters the best minimum's basin stops there (lm_fcn). */
+static void multistart(lmctx *c, lmwork *w, tp_fit_result *res)
+{
+    const tp_fit_problem *pb = c->pb;
+    int p = w->p, m = w->m, s, k, info;
+    for (s = 0; s < w->starts; s++) {
         int nfev = 0, njev = 0;
         for (k = 0; k < p; k++) {
             double u =
@@ -992,67 +981,57 @@ tp_status tp_fit_run(const tp_fit_problem *pb, tp_fit_result *res, tp_diag *d)
                 u = TP_FIT_U_START_MIN;
             if (u > 1.0 - TP_FIT_U_START_MIN)
                 u = 1.0 - TP_FIT_U_START_MIN;
-            z[k] = u_to_z(u);
+            w->z[k] = u_to_z(u);
         }
-        info =
-            lmder(lm_fcn, &c, m, p, z, fvec, fjac, m, TP_FIT_FTOL, TP_FIT_XTOL, 0.0, TP_FIT_MAXFEV,
-                  diag, 1, TP_FIT_FACTOR, 0, &nfev, &njev, ipvt, qtf, wa1, wa2, wa3, wa4);
-        rss_of[s] = sum_sq(fvec, m);
-        if (c.merged) {
-            rss_of[s] = best; /* it was on its way to the best minimum */
-            c.merged = 0;
+        info = lmder(lm_fcn, c, m, p, w->z, w->fvec, w->fjac, m, TP_FIT_FTOL, TP_FIT_XTOL, 0.0,
+                     TP_FIT_MAXFEV, w->diag, 1, TP_FIT_FACTOR, 0, &nfev, &njev, w->ipvt, w->qtf,
+                     w->wa1, w->wa2, w->wa3, w->wa4);
+        w->rss_of[s] = sum_sq(w->fvec, m);
+        if (c->merged) {
+            w->rss_of[s] = w->best; /* it was on its way to the best minimum */
+            c->merged = 0;
             res->starts_run++;
             continue;
         }
         res->starts_run++;
-        if (rss_of[s] < best) {
-            best = rss_of[s];
-            best_info = info;
-            memcpy(zbest, z, (size_t)p * sizeof *z);
-            memcpy(fbest, fvec, (size_t)m * sizeof *fvec);
+        if (w->rss_of[s] < w->best) {
+            w->best = w->rss_of[s];
+            w->best_info = info;
+            memcpy(w->zbest, w->z, (size_t)p * sizeof *w->z);
+            memcpy(w->fbest, w->fvec, (size_t)m * sizeof *w->fvec);
         }
-        c.have_best = 1;
-        c.best_rss = best;
+        c->have_best = 1;
+        c->best_rss = w->best;
         for (k = 0; k < p; k++)
-            c.best_u[k] = z_to_u(zbest[k]);
+            c->best_u[k] = z_to_u(w->zbest[k]);
     }
-    if (!(best < TP_FIT_PENALTY * TP_FIT_PENALTY * 0.5 * m)) {
-        tp_diag_error(d, tp_diag_loc_none(), NULL, "check the config and the bounds of --free",
-                      "no model run succeeded during the fit: %s", ev.why);
-        st = TP_ERR_SOLVER;
-        goto done;
-    }
-    for (s = 0; s < res->starts_run; s++)
-        if (rss_of[s] <= best * (1.0 + TP_FIT_SAME) + 1e-300)
-            res->starts_at_best++;
-    res->lm_info = best_info;
-    for (k = 0; k < p; k++) {
-        ubest[k] = z_to_u(zbest[k]);
-        pb->params[k].value = u_to_x(&pb->params[k], ubest[k]);
-        x[k] = pb->params[k].value;
-    }
+}
 
-    /* The fitted model once more, watching the peaks for the cautions. */
-    ev.track = 1;
-    for (i = 0; i < ev.n_nodes; i++)
-        ev.peak[i] = -HUGE_VAL;
-    if (evaluate(&ev, x, res->model, NULL) != 0) {
+/* The fitted model once more at x, watching the peaks for the cautions; then the residuals
+ * (into fbest) and their statistics. */
+static tp_status fitted_run(evaluator *ev, const tp_templog *log, const double *x, double *fbest,
+                            tp_fit_result *res, tp_diag *d)
+{
+    long i;
+    ev->track = 1;
+    for (i = 0; i < ev->n_nodes; i++)
+        ev->peak[i] = -HUGE_VAL;
+    if (evaluate(ev, x, res->model, NULL) != 0) {
         tp_diag_error(d, tp_diag_loc_none(), NULL, NULL,
-                      "the model run with the fitted values failed: %s", ev.why);
-        st = TP_ERR_SOLVER;
-        goto done;
+                      "the model run with the fitted values failed: %s", ev->why);
+        return TP_ERR_SOLVER;
     }
-    ev.track = 0;
-    res->n_nodes = ev.n_nodes;
-    memcpy(res->node_peak, ev.peak, (size_t)ev.n_nodes * sizeof *ev.peak);
-    res->surface_max = ev.surface_max;
-    res->current_max = ev.current_max;
+    ev->track = 0;
+    res->n_nodes = ev->n_nodes;
+    memcpy(res->node_peak, ev->peak, (size_t)ev->n_nodes * sizeof *ev->peak);
+    res->surface_max = ev->surface_max;
+    res->current_max = ev->current_max;
     res->node_max = -HUGE_VAL;
-    for (i = 0; i < ev.n_nodes; i++)
-        res->node_max = fmax(res->node_max, ev.peak[i]);
+    for (i = 0; i < ev->n_nodes; i++)
+        res->node_max = fmax(res->node_max, ev->peak[i]);
     res->rss = 0.0;
     res->max_abs = -1.0;
-    for (i = 0; i < m; i++) {
+    for (i = 0; i < res->m; i++) {
         double r = res->model[i] - log->reading[i];
         fbest[i] = r;
         res->rss += r * r;
@@ -1061,21 +1040,105 @@ tp_status tp_fit_run(const tp_fit_problem *pb, tp_fit_result *res, tp_diag *d)
             res->max_row = i;
         }
     }
-    res->rms = sqrt(res->rss / m);
+    res->rms = sqrt(res->rss / res->m);
     res->sigma = sqrt(res->rss / (double)res->dof);
-    st = statistics(&c, ubest, fbest, res);
+    return TP_OK;
+}
+
+/* The result's arrays and the work space; 0, or -1 when out of memory (free with the rest). */
+static int allocate(int m, int p, int n_nodes, tp_fit_result *res, lmctx *c, lmwork *w)
+{
+    res->model = malloc((size_t)m * sizeof *res->model);
+    res->model_start = malloc((size_t)m * sizeof *res->model_start);
+    res->corr = malloc((size_t)p * (size_t)p * sizeof *res->corr);
+    res->node_peak = malloc((size_t)(n_nodes > 0 ? n_nodes : 1) * sizeof *res->node_peak);
+    w->fvec = malloc((size_t)m * sizeof *w->fvec);
+    w->fbest = malloc((size_t)m * sizeof *w->fbest);
+    w->fjac = malloc((size_t)m * (size_t)p * sizeof *w->fjac);
+    w->wa4 = malloc((size_t)m * sizeof *w->wa4);
+    c->model = malloc((size_t)m * sizeof *c->model);
+    c->fh = malloc((size_t)m * sizeof *c->fh);
+    w->rss_of = malloc((size_t)w->starts * sizeof *w->rss_of);
+    return res->model && res->model_start && res->corr && res->node_peak && w->fvec && w->fbest &&
+                   w->fjac && w->wa4 && c->model && c->fh && w->rss_of
+               ? 0
+               : -1;
+}
+
+tp_status tp_fit_run(const tp_fit_problem *pb, tp_fit_result *res, tp_diag *d)
+{
+    const tp_templog *log = pb->log;
+    int p = pb->n_params, s, k;
+    double t0 = now_seconds(), ubest[TP_FIT_MAX_PARAMS], x[TP_FIT_MAX_PARAMS];
+    evaluator ev;
+    lmctx c;
+    lmwork w;
+    tp_status st;
+
+    memset(res, 0, sizeof *res);
+    memset(&c, 0, sizeof c);
+    memset(&w, 0, sizeof w);
+    if (p < 1 || p > TP_FIT_MAX_PARAMS) {
+        tp_diag_error(d, tp_diag_loc_none(), NULL, "free one to eight keys with --free",
+                      "%d free parameters", p);
+        return TP_ERR_USAGE;
+    }
+    if (log->n <= p || log->n > 0x7fffffffL / TP_FIT_MAX_PARAMS) {
+        tp_diag_error(d, (tp_loc){log->name, 0, 0}, NULL, NULL,
+                      "%ld rows cannot determine %d parameters", log->n, p);
+        return TP_ERR_CONFIG;
+    }
+    w.m = (int)log->n;
+    w.p = p;
+    w.best = HUGE_VAL;
+    st = evaluator_init(&ev, pb, d);
+    if (st != TP_OK)
+        return st;
+    w.starts = pb->starts < 1 ? 1 : pb->starts > TP_FIT_STARTS_MAX ? TP_FIT_STARTS_MAX : pb->starts;
+    res->m = w.m;
+    res->p = p;
+    res->drive = ev.drive;
+    res->sensor = ev.sensor;
+    res->dof = w.m - p;
+    if (allocate(w.m, p, ev.n_nodes, res, &c, &w) != 0) {
+        st = TP_ERR_NOMEM;
+        goto done;
+    }
+    c.ev = &ev;
+    c.pb = pb;
+    if ((st = check_start(&ev, pb, res, d)) != TP_OK)
+        goto done;
+    multistart(&c, &w, res);
+    if (!(w.best < TP_FIT_PENALTY * TP_FIT_PENALTY * 0.5 * w.m)) {
+        tp_diag_error(d, tp_diag_loc_none(), NULL, "check the config and the bounds of --free",
+                      "no model run succeeded during the fit: %s", ev.why);
+        st = TP_ERR_SOLVER;
+        goto done;
+    }
+    for (s = 0; s < res->starts_run; s++)
+        if (w.rss_of[s] <= w.best * (1.0 + TP_FIT_SAME) + 1e-300)
+            res->starts_at_best++;
+    res->lm_info = w.best_info;
+    for (k = 0; k < p; k++) {
+        ubest[k] = z_to_u(w.zbest[k]);
+        pb->params[k].value = u_to_x(&pb->params[k], ubest[k]);
+        x[k] = pb->params[k].value;
+    }
+    st = fitted_run(&ev, log, x, w.fbest, res, d);
+    if (st == TP_OK)
+        st = statistics(&c, ubest, w.fbest, res);
 done:
     res->evals = ev.evals;
     res->failed_runs = c.fails;
     res->seconds = now_seconds() - t0;
     evaluator_clear(&ev);
-    free(fvec);
-    free(fbest);
-    free(fjac);
-    free(wa4);
+    free(w.fvec);
+    free(w.fbest);
+    free(w.fjac);
+    free(w.wa4);
     free(c.model);
     free(c.fh);
-    free(rss_of);
+    free(w.rss_of);
     if (st != TP_OK)
         tp_fit_result_clear(res);
     return st;

@@ -1351,36 +1351,11 @@ static tp_status check_control(const tp_description *desc, const tp_yamltree *do
     return TP_OK;
 }
 
-tp_status tp_guard_study_run(const tp_description *desc, const tp_yamltree *doc,
-                             const tp_guard_settings *given, tp_guard_study *st, tp_diag *d)
+/* What the study takes from the nominal network: the controller's setpoint, period, duty
+ * limit and reading step, the horizon, the detached sensor's loss, the readings of a shorted
+ * and an open sensor, and the layers with their limits. */
+static void nominal_setup(tp_guard_study *st, const tp_description *desc, const tp_network *net)
 {
-    tp_network *net = NULL;
-    tp_steady hold;
-    tp_diag quiet;
-    tp_description cd;
-    factor f[4];
-    tp_guard_corner nominal;
-    tp_guard_settings none = {0, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET};
-    ctx cx;
-    tp_status rs;
-    int c, k, fi, n2 = 0, mask;
-    memset(st, 0, sizeof *st);
-    memset(&hold, 0, sizeof hold);
-    memset(&cd, 0, sizeof cd);
-    memset(&nominal, 0, sizeof nominal);
-    st->desc = desc;
-    st->stuck_worst = st->stuck_over_layer = -1;
-    if (!given)
-        given = &none;
-    cx.st = st;
-    cx.doc = doc;
-    cx.d = d;
-    rs = build(&cx, desc, "nominal case", &net);
-    if (rs != TP_OK)
-        return rs;
-    rs = check_control(desc, doc, net, d);
-    if (rs != TP_OK)
-        goto done;
     st->setpoint = net->control.setpoint;
     st->period = net->control.period;
     st->max_duty = net->control.max_duty;
@@ -1407,15 +1382,16 @@ tp_status tp_guard_study_run(const tp_description *desc, const tp_yamltree *doc,
         st->pin_low = TP_GUARD_PIN_LOW;
     }
     setup_layers(st);
-    rs = tp_guard_ranges_resolve(desc, doc, net, &st->ranges, d);
-    if (rs == TP_OK)
-        rs = factors(&cx, f, &nominal);
-    if (rs != TP_OK)
-        goto done;
-    /* Nominal first, then every combination of the ends (factors with one level fixed). */
+}
+
+/* The corners: nominal first, then every combination of the ends (factors with one level
+ * fixed). */
+static void plan_corners(tp_guard_study *st, const factor f[4], const tp_guard_corner *nominal)
+{
+    int k, n2 = 0, mask;
     for (k = 0; k < 4; k++)
         n2 += f[k].n == 2;
-    st->corners[0] = nominal;
+    st->corners[0] = *nominal;
     snprintf(st->corners[0].name, sizeof st->corners[0].name, "nominal");
     st->n_corners = 1;
     for (mask = 0; n2 > 0 && mask < (1 << n2); mask++) {
@@ -1431,15 +1407,12 @@ tp_status tp_guard_study_run(const tp_description *desc, const tp_yamltree *doc,
         co->airflow = v[3];
         corner_name(co, f);
     }
-    for (c = 0; c < st->n_corners; c++) {
-        rs = apply_corner(desc, net, &cd, &st->corners[c]);
-        if (rs == TP_OK)
-            rs = run_corner(&cx, &cd, &st->corners[c]);
-        tp_config_clear(&cd);
-        if (rs != TP_OK)
-            goto done;
-    }
-    /* Healthy peaks of each layer, and which layers the checks can protect. */
+}
+
+/* Healthy peaks of each layer, and which layers the checks can protect. */
+static void healthy_layer_peaks(tp_guard_study *st)
+{
+    int k, c;
     for (k = 0; k < st->n_layers; k++) {
         st->layer_healthy[k] = -HUGE_VAL;
         for (c = 0; c < st->n_corners; c++) {
@@ -1452,22 +1425,24 @@ tp_status tp_guard_study_run(const tp_description *desc, const tp_yamltree *doc,
         st->layer_protected[k] = isfinite(st->layer_limit[k]) &&
                                  st->layer_healthy[k] <= st->layer_limit[k];
     }
-    /* The holding state and the full-power equilibrium of the nominal case. */
-    tp_diag_init(&quiet, NULL);
-    if (tp_steady_hold(net, &hold, &quiet) != TP_OK) {
-        tp_diag_error(d, tp_diag_loc_none(), "control.setpoint",
-                      "lower the setpoint or raise the heater's power",
-                      "no holding state at the nominal corner: %s", quiet.log);
-        rs = TP_ERR_SOLVER;
-        goto done;
-    }
-    st->has_stuck = tp_steady_full(net, 1.0, &st->stuck, &quiet) == TP_OK;
+}
+
+/* A switch stuck on: the full-power equilibrium of the nominal case and the layer furthest past
+ * its limit there, the corner with the hottest full-power heater, and whether an independent
+ * cut-out is required (some layer past its limit at nominal or at that corner). */
+static void stuck_on(ctx *cx, const tp_description *desc, tp_network *net, tp_guard_study *st,
+                     tp_diag *quiet)
+{
+    tp_description cd;
+    int c, k;
+    memset(&cd, 0, sizeof cd);
+    st->has_stuck = tp_steady_full(net, 1.0, &st->stuck, quiet) == TP_OK;
     if (st->has_stuck) {
         double over = -HUGE_VAL;
         st->stuck.reading = st->stuck.temps[net->control.sensor] + net->control.reading.offset;
-        layer_refs(st, net, cx.layers);
+        layer_refs(st, net, cx->layers);
         for (k = 0; k < st->n_layers; k++) {
-            double t = layer_temp(net, cx.layers[k], st->stuck.temps) - st->layer_limit[k];
+            double t = layer_temp(net, cx->layers[k], st->stuck.temps) - st->layer_limit[k];
             if (t > 0 && t > over) {
                 over = t;
                 st->stuck_over_layer = k;
@@ -1487,40 +1462,34 @@ tp_status tp_guard_study_run(const tp_description *desc, const tp_yamltree *doc,
         tp_network *wn = NULL;
         tp_steady ws;
         memset(&ws, 0, sizeof ws);
-        if (apply_corner(desc, net, &cd, w) == TP_OK && build(&cx, &cd, "corner", &wn) == TP_OK &&
-            tp_steady_full(wn, 1.0, &ws, &quiet) == TP_OK) {
-            layer_refs(st, wn, cx.layers);
+        if (apply_corner(desc, net, &cd, w) == TP_OK && build(cx, &cd, "corner", &wn) == TP_OK &&
+            tp_steady_full(wn, 1.0, &ws, quiet) == TP_OK) {
+            layer_refs(st, wn, cx->layers);
             for (k = 0; k < st->n_layers; k++)
-                if (layer_temp(wn, cx.layers[k], ws.temps) > st->layer_limit[k])
+                if (layer_temp(wn, cx->layers[k], ws.temps) > st->layer_limit[k])
                     st->cutout_required = 1;
         }
         tp_steady_clear(&ws);
         tp_network_destroy(&wn);
         tp_config_clear(&cd);
     }
-    for (fi = 0; fi < TP_FAULT_COUNT; fi++) {
-        for (k = 0; k < 2; k++) {
-            tp_guard_fault_run *fr = &st->faults[fi][k];
-            fr->fault = (tp_guard_fault)fi;
-            fr->from_hold = k;
-            if (fi == TP_FAULT_DETACHED && !detachable(net))
-                continue;
-            rs = run_fault(&cx, net, fr, &hold);
-            if (rs != TP_OK)
-                goto done;
-        }
-    }
-    /* Recommend from scratch; then, when settings are given, complete them: each missing
-     * member is recommended consistently with the given ones. */
-    st->rec = none;
+}
+
+/* Recommend from scratch; then, when settings are given, complete them: each missing member is
+ * recommended consistently with the given ones. The settings used are evaluated. */
+static void settle_settings(tp_guard_study *st, const tp_guard_settings *given,
+                            const tp_guard_settings *none)
+{
+    int k;
+    st->rec = *none;
     recommend_approach(st, &st->rec);
-    recommend_rise(st, &none, &st->rec);
-    recommend_hold(st, &none, &st->rec);
+    recommend_rise(st, none, &st->rec);
+    recommend_hold(st, none, &st->rec);
     recommend_ceiling(st, &st->rec);
     st->used = st->rec;
     if (given->present) {
         double raw = st->rise_min_raw;
-        st->used = none;
+        st->used = *none;
         st->used.approach = given->approach;
         if (!isfinite(given->approach))
             recommend_approach(st, &st->used);
@@ -1536,6 +1505,77 @@ tp_status tp_guard_study_run(const tp_description *desc, const tp_yamltree *doc,
             *setting_ptr(&st->used, k) = *setting_ptr(&gv, k);
     }
     tp_guard_evaluate(st, &st->used);
+}
+
+tp_status tp_guard_study_run(const tp_description *desc, const tp_yamltree *doc,
+                             const tp_guard_settings *given, tp_guard_study *st, tp_diag *d)
+{
+    tp_network *net = NULL;
+    tp_steady hold;
+    tp_diag quiet;
+    tp_description cd;
+    factor f[4];
+    tp_guard_corner nominal;
+    tp_guard_settings none = {0, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET};
+    ctx cx;
+    tp_status rs;
+    int c, k, fi;
+    memset(st, 0, sizeof *st);
+    memset(&hold, 0, sizeof hold);
+    memset(&cd, 0, sizeof cd);
+    memset(&nominal, 0, sizeof nominal);
+    st->desc = desc;
+    st->stuck_worst = st->stuck_over_layer = -1;
+    if (!given)
+        given = &none;
+    cx.st = st;
+    cx.doc = doc;
+    cx.d = d;
+    rs = build(&cx, desc, "nominal case", &net);
+    if (rs != TP_OK)
+        return rs;
+    rs = check_control(desc, doc, net, d);
+    if (rs != TP_OK)
+        goto done;
+    nominal_setup(st, desc, net);
+    rs = tp_guard_ranges_resolve(desc, doc, net, &st->ranges, d);
+    if (rs == TP_OK)
+        rs = factors(&cx, f, &nominal);
+    if (rs != TP_OK)
+        goto done;
+    plan_corners(st, f, &nominal);
+    for (c = 0; c < st->n_corners; c++) {
+        rs = apply_corner(desc, net, &cd, &st->corners[c]);
+        if (rs == TP_OK)
+            rs = run_corner(&cx, &cd, &st->corners[c]);
+        tp_config_clear(&cd);
+        if (rs != TP_OK)
+            goto done;
+    }
+    healthy_layer_peaks(st);
+    /* The holding state and the full-power equilibrium of the nominal case. */
+    tp_diag_init(&quiet, NULL);
+    if (tp_steady_hold(net, &hold, &quiet) != TP_OK) {
+        tp_diag_error(d, tp_diag_loc_none(), "control.setpoint",
+                      "lower the setpoint or raise the heater's power",
+                      "no holding state at the nominal corner: %s", quiet.log);
+        rs = TP_ERR_SOLVER;
+        goto done;
+    }
+    stuck_on(&cx, desc, net, st, &quiet);
+    for (fi = 0; fi < TP_FAULT_COUNT; fi++) {
+        for (k = 0; k < 2; k++) {
+            tp_guard_fault_run *fr = &st->faults[fi][k];
+            fr->fault = (tp_guard_fault)fi;
+            fr->from_hold = k;
+            if (fi == TP_FAULT_DETACHED && !detachable(net))
+                continue;
+            rs = run_fault(&cx, net, fr, &hold);
+            if (rs != TP_OK)
+                goto done;
+        }
+    }
+    settle_settings(st, given, &none);
 done:
     tp_steady_clear(&hold);
     tp_network_destroy(&net);
