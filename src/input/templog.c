@@ -468,17 +468,14 @@ static int auto_column(const row *h, role r, const int *taken)
     return -1;
 }
 
-/* Choose the columns and read their units from the header. */
-static tp_status analyse_header(parser *p, const tp_templog_opts *o, int line, tp_templog *log)
+/* Choose the columns: those the options name, else by their names (time, then the drive, then
+ * the reading among the rest). `list` names the header's columns for messages. */
+static tp_status choose_columns(parser *p, const tp_templog_opts *o, int line, const char *list)
 {
     const row *h = &p->r;
     const char *want[3] = {o ? o->time_col : NULL, o ? o->temp_col : NULL, o ? o->duty_col : NULL};
     static const char *const opt_name[3] = {"--time-col", "--temp-col", "--duty-col"};
-    char list[512], base[TP_TEMPLOG_NAME_MAX], unit[32];
-    int k, br, taken[2] = {-1, -1};
-    const unit_word *u;
-
-    column_list(h, list, sizeof list);
+    int k, taken[2] = {-1, -1};
     for (k = 0; k < 3; k++) {
         p->icol[k] = -1;
         if (want[k]) {
@@ -490,7 +487,6 @@ static tp_status analyse_header(parser *p, const tp_templog_opts *o, int line, t
             }
         }
     }
-    /* Automatic choices: time, then the drive, then the reading among the rest. */
     if (p->icol[ROLE_TIME] < 0) {
         int none[2] = {p->icol[ROLE_TEMP], p->icol[ROLE_DRIVE]};
         p->icol[ROLE_TIME] = auto_column(h, ROLE_TIME, none);
@@ -521,79 +517,112 @@ static tp_status analyse_header(parser *p, const tp_templog_opts *o, int line, t
                   "one column is chosen for two roles");
         return TP_ERR_CONFIG;
     }
+    return TP_OK;
+}
 
-    /* Units. */
-    k = p->icol[ROLE_TIME];
-    split_name(h->cell[k], ROLE_TIME, base, sizeof base, unit, sizeof unit, &br);
-    p->time_scale = 1.0;
-    if (unit[0]) {
-        u = find_unit(unit, ROLE_TIME);
-        if (!u) {
-            row_error(p, line, h->col[k], "time units: s, ms, min, h",
-                      "unknown time unit '%s' in column '%s'", unit, h->cell[k]);
-            return TP_ERR_CONFIG;
-        }
-        p->time_scale = u->scale;
+/* The scale of the unit in the name of the column of role `which` (`none` without a unit);
+ * TP_ERR_CONFIG naming an unknown `what` unit ("time", "temperature") and the column, with
+ * `hint`. */
+static tp_status column_unit(parser *p, int line, int which, double none, const char *what,
+                             const char *hint, double *scale)
+{
+    const row *h = &p->r;
+    char base[TP_TEMPLOG_NAME_MAX], unit[32];
+    int k = p->icol[which], br;
+    const unit_word *u;
+    split_name(h->cell[k], which, base, sizeof base, unit, sizeof unit, &br);
+    *scale = none;
+    if (!unit[0])
+        return TP_OK;
+    u = find_unit(unit, which);
+    if (!u) {
+        row_error(p, line, h->col[k], hint, "unknown %s unit '%s' in column '%s'", what, unit,
+                  h->cell[k]);
+        return TP_ERR_CONFIG;
     }
-    k = p->icol[ROLE_TEMP];
-    split_name(h->cell[k], ROLE_TEMP, base, sizeof base, unit, sizeof unit, &br);
-    p->temp_kind = 0;
-    if (unit[0]) {
-        u = find_unit(unit, ROLE_TEMP);
-        if (!u) {
-            row_error(p, line, h->col[k], "reading units: degC (C), degF (F), K",
-                      "unknown temperature unit '%s' in column '%s'", unit, h->cell[k]);
-            return TP_ERR_CONFIG;
-        }
-        p->temp_kind = (int)u->scale;
-    }
+    *scale = u->scale;
+    return TP_OK;
+}
+
+/* The units of the time and reading columns. */
+static tp_status time_and_reading_units(parser *p, int line, tp_templog *log)
+{
+    double kind;
+    if (column_unit(p, line, ROLE_TIME, 1.0, "time", "time units: s, ms, min, h", &p->time_scale) !=
+            TP_OK ||
+        column_unit(p, line, ROLE_TEMP, 0.0, "temperature", "reading units: degC (C), degF (F), K",
+                    &kind) != TP_OK)
+        return TP_ERR_CONFIG;
+    p->temp_kind = (int)kind;
     snprintf(log->temp_unit, sizeof log->temp_unit, "%s",
              p->temp_kind == 0   ? "degC"
              : p->temp_kind == 1 ? "degF"
                                  : "K");
+    return TP_OK;
+}
+
+/* What the drive column holds, from its name and unit: a duty (a fraction, percent, or counts
+ * of a full scale) or a power. */
+static tp_status drive_unit(parser *p, int line, tp_templog *log)
+{
+    const row *h = &p->r;
+    char base[TP_TEMPLOG_NAME_MAX], unit[32];
+    int k = p->icol[ROLE_DRIVE], br;
+    const unit_word *u;
     log->drive_kind = TP_TEMPLOG_DRIVE_NONE;
-    k = p->icol[ROLE_DRIVE];
-    if (k >= 0) {
-        split_name(h->cell[k], ROLE_DRIVE, base, sizeof base, unit, sizeof unit, &br);
-        p->drive_line = line;
-        p->drive_colno = h->col[k];
-        if (br && (unit[0] == 'o' || unit[0] == 'O') && (unit[1] == 'f' || unit[1] == 'F') &&
-            (unit[2] == ' ' || unit[2] == '\t')) {
-            /* "pwm (of 255)": counts, with the count that means full duty. */
-            double fs;
-            if (tp_units_parse_double(unit + 3, &fs) != 0 || !(fs >= 1.0 && fs <= 1e9) ||
-                fs != floor(fs)) {
-                row_error(p, line, h->col[k],
-                          "write the count that means full duty, e.g. "
-                          "pwm (of 255) for an 8-bit PWM register",
-                          "'%s' in column '%s' is not a full scale of counts", unit, h->cell[k]);
-                return TP_ERR_CONFIG;
-            }
-            log->drive_kind = TP_TEMPLOG_DRIVE_DUTY;
-            p->duty_unit = 2;
-            p->full_scale = fs;
-            snprintf(log->drive_col, sizeof log->drive_col, "%s", h->cell[k]);
-            goto columns;
-        }
-        u = unit[0] ? find_unit(unit, ROLE_DRIVE) : NULL;
-        if (unit[0] && !u) {
+    if (k < 0)
+        return TP_OK;
+    split_name(h->cell[k], ROLE_DRIVE, base, sizeof base, unit, sizeof unit, &br);
+    p->drive_line = line;
+    p->drive_colno = h->col[k];
+    if (br && (unit[0] == 'o' || unit[0] == 'O') && (unit[1] == 'f' || unit[1] == 'F') &&
+        (unit[2] == ' ' || unit[2] == '\t')) {
+        /* "pwm (of 255)": counts, with the count that means full duty. */
+        double fs;
+        if (tp_units_parse_double(unit + 3, &fs) != 0 || !(fs >= 1.0 && fs <= 1e9) ||
+            fs != floor(fs)) {
             row_error(p, line, h->col[k],
-                      "duty: (%), (1) for a fraction, (of 255) for counts of 255; power: W or kW",
-                      "unknown unit '%s' in column '%s'", unit, h->cell[k]);
+                      "write the count that means full duty, e.g. "
+                      "pwm (of 255) for an 8-bit PWM register",
+                      "'%s' in column '%s' is not a full scale of counts", unit, h->cell[k]);
             return TP_ERR_CONFIG;
         }
-        if ((u && u->percent == 0) || (!u && starts_with(base, "power"))) {
-            log->drive_kind = TP_TEMPLOG_DRIVE_POWER;
-            p->power_scale = u ? u->scale : 1.0;
-        } else {
-            log->drive_kind = TP_TEMPLOG_DRIVE_DUTY;
-            p->duty_unit = u ? u->percent : 0;
-        }
+        log->drive_kind = TP_TEMPLOG_DRIVE_DUTY;
+        p->duty_unit = 2;
+        p->full_scale = fs;
         snprintf(log->drive_col, sizeof log->drive_col, "%s", h->cell[k]);
+        return TP_OK;
     }
-columns:
-    snprintf(log->time_col, sizeof log->time_col, "%s", h->cell[p->icol[ROLE_TIME]]);
-    snprintf(log->temp_col, sizeof log->temp_col, "%s", h->cell[p->icol[ROLE_TEMP]]);
+    u = unit[0] ? find_unit(unit, ROLE_DRIVE) : NULL;
+    if (unit[0] && !u) {
+        row_error(p, line, h->col[k],
+                  "duty: (%), (1) for a fraction, (of 255) for counts of 255; power: W or kW",
+                  "unknown unit '%s' in column '%s'", unit, h->cell[k]);
+        return TP_ERR_CONFIG;
+    }
+    if ((u && u->percent == 0) || (!u && starts_with(base, "power"))) {
+        log->drive_kind = TP_TEMPLOG_DRIVE_POWER;
+        p->power_scale = u ? u->scale : 1.0;
+    } else {
+        log->drive_kind = TP_TEMPLOG_DRIVE_DUTY;
+        p->duty_unit = u ? u->percent : 0;
+    }
+    snprintf(log->drive_col, sizeof log->drive_col, "%s", h->cell[k]);
+    return TP_OK;
+}
+
+/* Choose the columns and read their units from the header. */
+static tp_status analyse_header(parser *p, const tp_templog_opts *o, int line, tp_templog *log)
+{
+    char list[512];
+    tp_status st;
+    column_list(&p->r, list, sizeof list);
+    if ((st = choose_columns(p, o, line, list)) != TP_OK ||
+        (st = time_and_reading_units(p, line, log)) != TP_OK ||
+        (st = drive_unit(p, line, log)) != TP_OK)
+        return st;
+    snprintf(log->time_col, sizeof log->time_col, "%s", p->r.cell[p->icol[ROLE_TIME]]);
+    snprintf(log->temp_col, sizeof log->temp_col, "%s", p->r.cell[p->icol[ROLE_TEMP]]);
     return TP_OK;
 }
 
@@ -683,47 +712,28 @@ static void check_rows(parser *p, tp_templog *log, int last_line)
     }
 }
 
-static tp_status parse_cells(parser *p, tp_templog *log, long i, int line,
-                             tp_templog_time_format *fmt, double *day_offset, int *have_first)
+/* The time of row i from its cell, in the log's one format (taken from the first row): the
+ * seconds since the log's clock's zero, midnight crossings of a time of day counted; it must
+ * increase. */
+static tp_status parse_time(parser *p, tp_templog *log, long i, int line,
+                            tp_templog_time_format *fmt, double *day_offset, int *have_first)
 {
     row *r = &p->r;
-    const char *c;
-    double v, t;
-    int hours_field = 0, k;
-    for (k = 0; k < 3; k++) {
-        int j = p->icol[k];
-        if (j >= 0 && j >= r->n) {
-            row_error(p, line, 1, "every row has as many cells as the header",
-                      "the row has %d cell%s but the %s column is number %d", r->n,
-                      r->n == 1 ? "" : "s",
-                      k == ROLE_TIME   ? "time"
-                      : k == ROLE_TEMP ? "reading"
-                                       : "drive",
-                      j + 1);
-            return TP_ERR_CONFIG;
-        }
-    }
-    /* Time. */
-    c = r->cell[p->icol[ROLE_TIME]];
+    const char *c = r->cell[p->icol[ROLE_TIME]];
+    double v, t = 0.0;
+    int hours_field = 0, bad;
     if (!*have_first)
         *fmt = sniff_time(c);
     switch (*fmt) {
     case TP_TEMPLOG_TIME_NUMBER:
-        if (tp_units_parse_double(c, &v) != 0) {
-            row_error(p, line, r->col[p->icol[ROLE_TIME]],
-                      "times are seconds, H:MM:SS or ISO timestamps, the same in every row",
-                      "'%s' in column '%s' is not %s", c, log->time_col, time_format_name(*fmt));
-            return TP_ERR_CONFIG;
-        }
-        t = v * p->time_scale;
+        bad = tp_units_parse_double(c, &v) != 0;
+        if (!bad)
+            t = v * p->time_scale;
         break;
     case TP_TEMPLOG_TIME_CLOCK:
-        if (parse_clock(c, &t, &hours_field) != 0) {
-            row_error(p, line, r->col[p->icol[ROLE_TIME]],
-                      "times are seconds, H:MM:SS or ISO timestamps, the same in every row",
-                      "'%s' in column '%s' is not %s", c, log->time_col, time_format_name(*fmt));
-            return TP_ERR_CONFIG;
-        }
+        bad = parse_clock(c, &t, &hours_field) != 0;
+        if (bad)
+            break;
         /* A clock time of day that jumps back by more than half a day has passed midnight. */
         if (*have_first && hours_field && i > 0 && t + *day_offset < log->t[i - 1] - HALF_DAY)
             *day_offset += DAY;
@@ -731,13 +741,14 @@ static tp_status parse_cells(parser *p, tp_templog *log, long i, int line,
         break;
     case TP_TEMPLOG_TIME_ISO:
     default:
-        if (parse_iso(c, &t) != 0) {
-            row_error(p, line, r->col[p->icol[ROLE_TIME]],
-                      "times are seconds, H:MM:SS or ISO timestamps, the same in every row",
-                      "'%s' in column '%s' is not %s", c, log->time_col, time_format_name(*fmt));
-            return TP_ERR_CONFIG;
-        }
+        bad = parse_iso(c, &t) != 0;
         break;
+    }
+    if (bad) {
+        row_error(p, line, r->col[p->icol[ROLE_TIME]],
+                  "times are seconds, H:MM:SS or ISO timestamps, the same in every row",
+                  "'%s' in column '%s' is not %s", c, log->time_col, time_format_name(*fmt));
+        return TP_ERR_CONFIG;
     }
     if (!isfinite(t)) {
         row_error(p, line, r->col[p->icol[ROLE_TIME]], NULL, "time '%s' is out of range", c);
@@ -754,8 +765,15 @@ static tp_status parse_cells(parser *p, tp_templog *log, long i, int line,
     }
     log->t[i] = t;
     *have_first = 1;
-    /* Reading. */
-    c = r->cell[p->icol[ROLE_TEMP]];
+    return TP_OK;
+}
+
+/* The reading (in kelvin, within the plausible range) and the drive of row i. */
+static tp_status parse_reading_and_drive(parser *p, tp_templog *log, long i, int line)
+{
+    row *r = &p->r;
+    const char *c = r->cell[p->icol[ROLE_TEMP]];
+    double v;
     if (tp_units_parse_double(c, &v) != 0) {
         row_error(p, line, r->col[p->icol[ROLE_TEMP]],
                   "readings are plain decimal numbers with a point",
@@ -771,58 +789,68 @@ static tp_status parse_cells(parser *p, tp_templog *log, long i, int line,
                          v - TP_KELVIN_0C),
                TP_ERR_CONFIG;
     log->reading[i] = v;
-    /* Drive. */
-    if (log->drive) {
-        c = r->cell[p->icol[ROLE_DRIVE]];
-        if (tp_units_parse_double(c, &v) != 0) {
-            row_error(p, line, r->col[p->icol[ROLE_DRIVE]],
-                      "duty and power are plain decimal numbers with a point",
-                      "'%s' in column '%s' is not a number", c, log->drive_col);
+    if (!log->drive)
+        return TP_OK;
+    c = r->cell[p->icol[ROLE_DRIVE]];
+    if (tp_units_parse_double(c, &v) != 0) {
+        row_error(p, line, r->col[p->icol[ROLE_DRIVE]],
+                  "duty and power are plain decimal numbers with a point",
+                  "'%s' in column '%s' is not a number", c, log->drive_col);
+        return TP_ERR_CONFIG;
+    }
+    if (log->drive_kind == TP_TEMPLOG_DRIVE_POWER) {
+        v *= p->power_scale;
+        if (v < 0.0) {
+            row_error(p, line, r->col[p->icol[ROLE_DRIVE]], NULL,
+                      "negative power %s in column '%s'", c, log->drive_col);
             return TP_ERR_CONFIG;
         }
-        if (log->drive_kind == TP_TEMPLOG_DRIVE_POWER) {
-            v *= p->power_scale;
-            if (v < 0.0) {
-                row_error(p, line, r->col[p->icol[ROLE_DRIVE]], NULL,
-                          "negative power %s in column '%s'", c, log->drive_col);
-                return TP_ERR_CONFIG;
-            }
-        }
-        log->drive[i] = v;
     }
+    log->drive[i] = v;
     return TP_OK;
 }
 
-tp_status tp_templog_parse(const char *name, const char *text, size_t len,
-                           const tp_templog_opts *opts, tp_templog *log, tp_diag *d)
+static tp_status parse_cells(parser *p, tp_templog *log, long i, int line,
+                             tp_templog_time_format *fmt, double *day_offset, int *have_first)
 {
-    parser *p = NULL;
+    row *r = &p->r;
+    tp_status st;
+    int k;
+    for (k = 0; k < 3; k++) {
+        int j = p->icol[k];
+        if (j >= 0 && j >= r->n) {
+            row_error(p, line, 1, "every row has as many cells as the header",
+                      "the row has %d cell%s but the %s column is number %d", r->n,
+                      r->n == 1 ? "" : "s",
+                      k == ROLE_TIME   ? "time"
+                      : k == ROLE_TEMP ? "reading"
+                                       : "drive",
+                      j + 1);
+            return TP_ERR_CONFIG;
+        }
+    }
+    st = parse_time(p, log, i, line, fmt, day_offset, have_first);
+    return st == TP_OK ? parse_reading_and_drive(p, log, i, line) : st;
+}
+
+/* Bytes of a UTF-8 byte-order mark at the start of the text (not part of the first name). */
+static size_t bom_length(const char *text, size_t len)
+{
+    return len >= 3 && (unsigned char)text[0] == 0xEF && (unsigned char)text[1] == 0xBB &&
+                   (unsigned char)text[2] == 0xBF
+               ? 3
+               : 0;
+}
+
+/* First pass: the header's line, the number of data rows (limited before anything is
+ * allocated), the last data row's line, and no line over the length limit. */
+static tp_status first_pass(const char *name, const char *text, size_t len, int *header_line,
+                            long *rows, int *last_line, tp_diag *d)
+{
     scanner sc = {text, len, 0, 0};
     const char *ln;
     size_t n;
-    long rows = 0, i = 0;
-    int header_line = 0, last_line = 0, have_first = 0;
-    char sep = ',';
-    tp_templog_time_format fmt = TP_TEMPLOG_TIME_NUMBER;
-    double day_offset = 0.0;
-    tp_status st = TP_OK;
-
-    memset(log, 0, sizeof *log);
-    if (!name)
-        name = "log";
-    if (!text)
-        len = 0;
-    /* A UTF-8 byte-order mark is not part of the first name. */
-    if (len >= 3 && (unsigned char)text[0] == 0xEF && (unsigned char)text[1] == 0xBB &&
-        (unsigned char)text[2] == 0xBF)
-        sc.pos = 3;
-    if (len > 0 && memchr(text, '\0', len)) {
-        tp_diag_error(d, (tp_loc){name, 0, 0}, NULL, "give a CSV text file",
-                      "the log contains binary data (NUL bytes)");
-        return TP_ERR_CONFIG;
-    }
-    /* First pass: the header, the number of data rows (limited before anything is allocated)
-     * and the longest line. */
+    sc.pos = bom_length(text, len);
     while (next_line(&sc, &ln, &n)) {
         if (n > TP_TEMPLOG_LINE_MAX) {
             tp_diag_error(d, (tp_loc){name, sc.line, TP_TEMPLOG_LINE_MAX + 1}, NULL,
@@ -832,24 +860,121 @@ tp_status tp_templog_parse(const char *name, const char *text, size_t len,
         }
         if (skippable(ln, n))
             continue;
-        if (!header_line) {
-            header_line = sc.line;
+        if (!*header_line) {
+            *header_line = sc.line;
             continue;
         }
-        if (++rows > TP_TEMPLOG_MAX_ROWS) {
+        if (++*rows > TP_TEMPLOG_MAX_ROWS) {
             tp_diag_error(d, (tp_loc){name, sc.line, 1}, NULL,
                           "thin the log (one row per second is plenty) or cut it to the warm-up",
                           "more than %d data rows", TP_TEMPLOG_MAX_ROWS);
             return TP_ERR_LIMIT;
         }
-        last_line = sc.line;
+        *last_line = sc.line;
     }
-    if (!header_line) {
+    if (!*header_line) {
         tp_diag_error(d, (tp_loc){name, sc.line > 0 ? sc.line : 0, 0}, NULL,
                       "a log starts with a header row such as time_s,temp_C,duty",
                       "the log is empty");
         return TP_ERR_CONFIG;
     }
+    return TP_OK;
+}
+
+/* The header row at `header_line` (sc moved past it): its separator (a comma, else a
+ * semicolon, else a tab), at least two named columns, and their roles and units. */
+static tp_status read_header(parser *p, scanner *sc, int header_line, char *sep,
+                             const tp_templog_opts *opts, tp_templog *log)
+{
+    const char *ln = NULL;
+    size_t n = 0;
+    int i;
+    sc->pos = bom_length(sc->text, sc->len);
+    sc->line = 0;
+    while (next_line(sc, &ln, &n) && sc->line < header_line)
+        ;
+    if (memchr(ln, ',', n))
+        *sep = ',';
+    else if (memchr(ln, ';', n))
+        *sep = ';';
+    else if (memchr(ln, '\t', n))
+        *sep = '\t';
+    split_row(&p->r, ln, n, *sep);
+    if (p->r.too_many) {
+        row_error(p, header_line, 1, NULL, "more than %d columns", TP_TEMPLOG_MAX_COLS);
+        return TP_ERR_CONFIG;
+    }
+    if (p->r.n < 2) {
+        row_error(p, header_line, 1,
+                  "separate the columns with commas (or semicolons or tabs), e.g. "
+                  "time_s,temp_C,duty",
+                  "the header has only one column");
+        return TP_ERR_CONFIG;
+    }
+    for (i = 0; i < p->r.n; i++)
+        if (p->r.cell[i][0] == '\0') {
+            row_error(p, header_line, p->r.col[i], "give every column a name",
+                      "column %d has no name", i + 1);
+            return TP_ERR_CONFIG;
+        }
+    return analyse_header(p, opts, header_line, log);
+}
+
+/* The data rows after the header into the log's arrays (room for `rows`); rows in error are
+ * counted in p->errors, the reading stops after TP_TEMPLOG_ERRORS_MAX of them. */
+static void read_rows(parser *p, scanner *sc, char sep, tp_templog *log)
+{
+    const char *ln;
+    size_t n;
+    long i = 0;
+    int have_first = 0;
+    tp_templog_time_format fmt = TP_TEMPLOG_TIME_NUMBER;
+    double day_offset = 0.0;
+    while (next_line(sc, &ln, &n)) {
+        int bad_before = p->errors;
+        if (skippable(ln, n))
+            continue;
+        split_row(&p->r, ln, n, sep);
+        if (p->r.too_many) {
+            row_error(p, sc->line, 1, NULL, "more than %d columns", TP_TEMPLOG_MAX_COLS);
+            continue;
+        }
+        if (parse_cells(p, log, i, sc->line, &fmt, &day_offset, &have_first) != TP_OK ||
+            p->errors != bad_before) {
+            if (p->errors > TP_TEMPLOG_ERRORS_MAX)
+                break;
+            continue;
+        }
+        log->line[i] = sc->line;
+        i++;
+    }
+    log->n = i;
+    log->time_format = fmt;
+}
+
+tp_status tp_templog_parse(const char *name, const char *text, size_t len,
+                           const tp_templog_opts *opts, tp_templog *log, tp_diag *d)
+{
+    parser *p = NULL;
+    scanner sc = {text, len, 0, 0};
+    long rows = 0, i, room;
+    int header_line = 0, last_line = 0;
+    char sep = ',';
+    tp_status st;
+
+    memset(log, 0, sizeof *log);
+    if (!name)
+        name = "log";
+    if (!text)
+        len = sc.len = 0;
+    if (len > 0 && memchr(text, '\0', len)) {
+        tp_diag_error(d, (tp_loc){name, 0, 0}, NULL, "give a CSV text file",
+                      "the log contains binary data (NUL bytes)");
+        return TP_ERR_CONFIG;
+    }
+    st = first_pass(name, text, len, &header_line, &rows, &last_line, d);
+    if (st != TP_OK)
+        return st;
     p = calloc(1, sizeof *p);
     log->name = malloc(strlen(name) + 1);
     if (!p || !log->name) {
@@ -860,76 +985,21 @@ tp_status tp_templog_parse(const char *name, const char *text, size_t len,
     strcpy(log->name, name);
     p->name = log->name;
     p->d = d;
-
-    /* Second pass: the header, then the rows. */
-    sc.pos = len >= 3 && (unsigned char)text[0] == 0xEF && (unsigned char)text[1] == 0xBB &&
-                     (unsigned char)text[2] == 0xBF
-                 ? 3
-                 : 0;
-    sc.line = 0;
-    while (next_line(&sc, &ln, &n) && sc.line < header_line)
-        ;
-    if (memchr(ln, ',', n))
-        sep = ',';
-    else if (memchr(ln, ';', n))
-        sep = ';';
-    else if (memchr(ln, '\t', n))
-        sep = '\t';
-    split_row(&p->r, ln, n, sep);
-    if (p->r.too_many) {
-        row_error(p, header_line, 1, NULL, "more than %d columns", TP_TEMPLOG_MAX_COLS);
-        st = TP_ERR_CONFIG;
-        goto done;
-    }
-    if (p->r.n < 2) {
-        row_error(p, header_line, 1,
-                  "separate the columns with commas (or semicolons or tabs), e.g. "
-                  "time_s,temp_C,duty",
-                  "the header has only one column");
-        st = TP_ERR_CONFIG;
-        goto done;
-    }
-    for (i = 0; i < p->r.n; i++)
-        if (p->r.cell[i][0] == '\0') {
-            row_error(p, header_line, p->r.col[i], "give every column a name",
-                      "column %ld has no name", i + 1);
-            st = TP_ERR_CONFIG;
-            goto done;
-        }
-    st = analyse_header(p, opts, header_line, log);
+    st = read_header(p, &sc, header_line, &sep, opts, log);
     if (st != TP_OK)
         goto done;
-    log->t = malloc((size_t)(rows > 0 ? rows : 1) * sizeof *log->t);
-    log->reading = malloc((size_t)(rows > 0 ? rows : 1) * sizeof *log->reading);
-    log->line = malloc((size_t)(rows > 0 ? rows : 1) * sizeof *log->line);
+    room = rows > 0 ? rows : 1;
+    log->t = malloc((size_t)room * sizeof *log->t);
+    log->reading = malloc((size_t)room * sizeof *log->reading);
+    log->line = malloc((size_t)room * sizeof *log->line);
     if (log->drive_kind != TP_TEMPLOG_DRIVE_NONE)
-        log->drive = malloc((size_t)(rows > 0 ? rows : 1) * sizeof *log->drive);
+        log->drive = malloc((size_t)room * sizeof *log->drive);
     if (!log->t || !log->reading || !log->line ||
         (log->drive_kind != TP_TEMPLOG_DRIVE_NONE && !log->drive)) {
         st = TP_ERR_NOMEM;
         goto done;
     }
-    i = 0;
-    while (next_line(&sc, &ln, &n)) {
-        int bad_before = p->errors;
-        if (skippable(ln, n))
-            continue;
-        split_row(&p->r, ln, n, sep);
-        if (p->r.too_many) {
-            row_error(p, sc.line, 1, NULL, "more than %d columns", TP_TEMPLOG_MAX_COLS);
-            continue;
-        }
-        if (parse_cells(p, log, i, sc.line, &fmt, &day_offset, &have_first) != TP_OK ||
-            p->errors != bad_before) {
-            if (p->errors > TP_TEMPLOG_ERRORS_MAX)
-                break;
-            continue;
-        }
-        log->line[i] = sc.line;
-        i++;
-    }
-    log->n = i;
-    log->time_format = fmt;
+    read_rows(p, &sc, sep, log);
     if (p->errors == 0)
         check_rows(p, log, last_line ? last_line : header_line);
     if (p->errors == 0) {

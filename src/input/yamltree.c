@@ -676,24 +676,21 @@ static void mark_override(tp_yamltree_node *n, int line)
     }
 }
 
-tp_status tp_yamltree_set(tp_yamltree *doc, const char *assignment, tp_diag *d)
+/* The key path and the value text of an assignment "key.path=value", blanks around either
+ * left out (--set 'key = 70 degC' is --set key=70degC, issue 15 item 9): the path into `path`
+ * (size bytes), the value at *text (*tlen bytes). TP_ERR_USAGE with a message naming --set and
+ * the column. */
+static tp_status split_assignment(const char *assignment, int line, char *path, size_t size,
+                                  const char **text, size_t *tlen, tp_diag *d)
 {
-    const char *eq = strchr(assignment, '=');
-    char path[512], walked[512] = "";
-    char *seg, *next, *save = NULL;
-    tp_yamltree_node *value = NULL, *n;
-    int line = ++doc->n_sets;
+    const char *eq = strchr(assignment, '='), *name;
     tp_loc loc = {"--set", line, 1};
-    const char *name, *text;
-    size_t plen, tlen;
-
+    size_t plen;
     if (!eq || eq == assignment) {
         tp_diag_error(d, loc, NULL, "write --set key.path=value, e.g. --set heater.power=200W",
                       "'%s' is not an assignment", assignment);
         return TP_ERR_USAGE;
     }
-    /* Blanks around the key and the value are not part of them: --set 'key = 70 degC' is
-     * --set key=70degC (issue 15 item 9). */
     name = assignment;
     while (*name == ' ' || *name == '\t')
         name++;
@@ -705,7 +702,7 @@ tp_status tp_yamltree_set(tp_yamltree *doc, const char *assignment, tp_diag *d)
                       "'%s' is not an assignment", assignment);
         return TP_ERR_USAGE;
     }
-    if (plen >= sizeof path) {
+    if (plen >= size) {
         tp_diag_error(d, loc, NULL, NULL, "key path too long");
         return TP_ERR_USAGE;
     }
@@ -717,38 +714,52 @@ tp_status tp_yamltree_set(tp_yamltree *doc, const char *assignment, tp_diag *d)
                       "empty key in the path");
         return TP_ERR_USAGE;
     }
-    text = eq + 1;
-    while (*text == ' ' || *text == '\t')
-        text++;
-    tlen = strlen(text);
-    while (tlen > 0 && (text[tlen - 1] == ' ' || text[tlen - 1] == '\t'))
-        tlen--;
-    if (tlen == 0) {
+    *text = eq + 1;
+    while (**text == ' ' || **text == '\t')
+        (*text)++;
+    *tlen = strlen(*text);
+    while (*tlen > 0 && ((*text)[*tlen - 1] == ' ' || (*text)[*tlen - 1] == '\t'))
+        (*tlen)--;
+    if (*tlen == 0) {
         tp_diag_error(d, (tp_loc){"--set", line, (int)(eq - assignment) + 2}, path,
                       "give a value after '=', e.g. --set heater.power=200W", "missing value");
         return TP_ERR_USAGE;
     }
-    if (build(doc, "--set", text, tlen, line - 1, (int)(text - assignment), &value, d) != 0)
-        return TP_ERR_USAGE;
-    if (!value) {
-        tp_diag_error(d, (tp_loc){"--set", line, (int)(text - assignment) + 1}, path, NULL,
-                      "missing value");
-        return TP_ERR_USAGE;
-    }
-    mark_override(value, line);
+    return TP_OK;
+}
 
-    if (!doc->root) {
-        yaml_mark_t m = {0, 0, 0};
-        builder b = {.doc = doc, .file = "--set"};
-        doc->root = node_new(&b, TP_YAMLTREE_MAP, &m, &m);
-        if (!doc->root) {
-            node_free(value);
-            return TP_ERR_NOMEM;
-        }
+/* A new key `name` created by --set on `line` in map n, with `value` (a new section when NULL:
+ * *made gets it). Returns 0, or -1 when out of memory (nothing added, value freed). */
+static int add_key(tp_yamltree *doc, tp_yamltree_node *n, const char *name, tp_yamltree_node *value,
+                   int line, tp_yamltree_node **made)
+{
+    yaml_mark_t m = {0, 0, 0};
+    builder b = {.doc = doc, .file = "--set"};
+    tp_yamltree_node *key = node_new(&b, TP_YAMLTREE_SCALAR, &m, &m);
+    tp_yamltree_node *child = value ? value : node_new(&b, TP_YAMLTREE_MAP, &m, &m);
+    if (!key || !child || !(key->text = strdup(name)) || node_push_child(n, key, child)) {
+        node_free(key);
+        node_free(child);
+        return -1;
     }
-    n = doc->root;
-    seg = strtok_r(path, ".", &save);
-    while (seg) {
+    mark_override(key, line);
+    if (!value)
+        mark_override(child, line);
+    if (made)
+        *made = child;
+    return 0;
+}
+
+/* Put `value` at `path` (split on dots; list items by id or index, missing map keys created),
+ * replacing what is there. Takes `value` in every case. */
+static tp_status place_value(tp_yamltree *doc, char *path, tp_yamltree_node *value, int line,
+                             tp_diag *d)
+{
+    char walked[512] = "";
+    char *seg, *next, *save = NULL;
+    tp_loc loc = {"--set", line, 1};
+    tp_yamltree_node *n = doc->root;
+    for (seg = strtok_r(path, ".", &save); seg; seg = next) {
         next = strtok_r(NULL, ".", &save);
         if (walked[0])
             strcat(walked, ".");
@@ -773,52 +784,57 @@ tp_status tp_yamltree_set(tp_yamltree *doc, const char *assignment, tp_diag *d)
                 return TP_OK;
             }
             n = n->items[i];
-            seg = next;
             continue;
+        }
+        if (!next) {
+            size_t i;
+            for (i = 0; i < n->n; i++)
+                if (strcmp(n->keys[i]->text, seg) == 0) {
+                    node_free(n->items[i]);
+                    n->items[i] = value;
+                    return TP_OK;
+                }
+            return add_key(doc, n, seg, value, line, NULL) == 0 ? TP_OK : TP_ERR_NOMEM;
         }
         {
             tp_yamltree_node *child = tp_yamltree_get(n, seg);
-            if (!next) {
-                size_t i;
-                for (i = 0; i < n->n; i++) {
-                    if (strcmp(n->keys[i]->text, seg) == 0) {
-                        node_free(n->items[i]);
-                        n->items[i] = value;
-                        return TP_OK;
-                    }
-                }
-                {
-                    yaml_mark_t m = {0, 0, 0};
-                    builder b = {.doc = doc, .file = "--set"};
-                    tp_yamltree_node *key = node_new(&b, TP_YAMLTREE_SCALAR, &m, &m);
-                    if (!key || !(key->text = strdup(seg)) || node_push_child(n, key, value)) {
-                        node_free(key);
-                        node_free(value);
-                        return TP_ERR_NOMEM;
-                    }
-                    mark_override(key, line);
-                }
-                return TP_OK;
-            }
-            if (!child) {
-                yaml_mark_t m = {0, 0, 0};
-                builder b = {.doc = doc, .file = "--set"};
-                tp_yamltree_node *key = node_new(&b, TP_YAMLTREE_SCALAR, &m, &m);
-                child = node_new(&b, TP_YAMLTREE_MAP, &m, &m);
-                if (!key || !child || !(key->text = strdup(seg)) ||
-                    node_push_child(n, key, child)) {
-                    node_free(key);
-                    node_free(child);
-                    node_free(value);
-                    return TP_ERR_NOMEM;
-                }
-                mark_override(key, line);
-                mark_override(child, line);
+            if (!child && add_key(doc, n, seg, NULL, line, &child) != 0) {
+                node_free(value);
+                return TP_ERR_NOMEM;
             }
             n = child;
         }
-        seg = next;
     }
     node_free(value);
     return TP_OK;
+}
+
+tp_status tp_yamltree_set(tp_yamltree *doc, const char *assignment, tp_diag *d)
+{
+    char path[512];
+    tp_yamltree_node *value = NULL;
+    int line = ++doc->n_sets;
+    const char *text;
+    size_t tlen;
+    tp_status st = split_assignment(assignment, line, path, sizeof path, &text, &tlen, d);
+    if (st != TP_OK)
+        return st;
+    if (build(doc, "--set", text, tlen, line - 1, (int)(text - assignment), &value, d) != 0)
+        return TP_ERR_USAGE;
+    if (!value) {
+        tp_diag_error(d, (tp_loc){"--set", line, (int)(text - assignment) + 1}, path, NULL,
+                      "missing value");
+        return TP_ERR_USAGE;
+    }
+    mark_override(value, line);
+    if (!doc->root) {
+        yaml_mark_t m = {0, 0, 0};
+        builder b = {.doc = doc, .file = "--set"};
+        doc->root = node_new(&b, TP_YAMLTREE_MAP, &m, &m);
+        if (!doc->root) {
+            node_free(value);
+            return TP_ERR_NOMEM;
+        }
+    }
+    return place_value(doc, path, value, line, d);
 }

@@ -362,51 +362,16 @@ static void physical_warnings(const tp_description *desc, const tp_yamltree *doc
     }
 }
 
-/* The lumped lowering: one node per layer. */
-static tp_status lower_lumped(const tp_description *desc, const tp_yamltree *doc, tp_network *net,
-                              tp_diag *d)
+/* A layer smaller than both neighbours leaves a closed gap of its own thickness between them:
+ * still air conducts across it and the two faces exchange radiation. Fills gap[][] (the closed
+ * area below [0] and above [1] each layer, m2) and inside[] (the layer lies within the gap,
+ * its edges unexposed). */
+static tp_status closed_gaps(const tp_description *desc, tp_network *net, const geom *g, size_t n,
+                             double gap[][2], int *inside)
 {
     const tp_bed *bed = &desc->bed;
-    geom g[TP_MAX_LAYERS];
-    double gap[TP_MAX_LAYERS][2]; /* closed-gap area below [0] and above [1] each layer, m2 */
-    int inside[TP_MAX_LAYERS];    /* 1: the layer lies within a closed gap, edges unexposed */
-    size_t i, n = bed->n_layers;
-    int room, air = -1, walls = -1, conv_sink, rad_sink;
-    double stack = 0.0, tr = desc->room.temperature;
-    tp_status st;
-    char label[128];
-
-    if (tp_materials_builtin(NULL, NULL, d) != TP_OK)
-        return TP_ERR_CONFIG;
-    if (n == 0 || n > TP_MAX_LAYERS) {
-        tp_diag_error(d, tp_yamltree_nearest(doc, "bed.layers"), "bed.layers",
-                      "list the layers bottom to top", "a bed needs 1 to %d layers", TP_MAX_LAYERS);
-        return TP_ERR_CONFIG;
-    }
-    memset(g, 0, sizeof g);
-    memset(gap, 0, sizeof gap);
-    memset(inside, 0, sizeof inside);
-    if (lower_layers(desc, doc, net, d, g) != 0)
-        return TP_ERR_CONFIG;
-    st = lower_sensor(desc, doc, net, d, g);
-    if (st != TP_OK)
-        return st;
-    if (desc->enclosure.present) {
-        tp_air a;
-        tp_air_props(tr, desc->room.pressure, &a);
-        air = tp_network_add_node(net, "air", a.rho * a.cp * desc->enclosure.volume, tr);
-        walls = tp_network_add_node(net, "walls", desc->enclosure.walls.capacity, tr);
-    }
-    room = tp_network_add_node(net, "room", 0.0, tr);
-    if (room < 0)
-        return TP_ERR_NOMEM;
-    conv_sink = air >= 0 ? air : room;
-    rad_sink = walls >= 0 ? walls : room;
-
-    for (i = 0; i < n; i++)
-        stack += g[i].t;
-    /* A layer smaller than both neighbours leaves a closed gap of its own thickness between
-     * them: still air conducts across it and the two faces exchange radiation. */
+    double tr = desc->room.temperature;
+    size_t i;
     for (i = 1; i + 1 < n; i++) {
         double w = fmin(fmin(g[i - 1].w, g[i + 1].w), g[i].w);
         double dd = fmin(fmin(g[i - 1].d, g[i + 1].d), g[i].d);
@@ -436,52 +401,68 @@ static tp_status lower_lumped(const tp_description *desc, const tp_yamltree *doc
         snprintf(l->label, sizeof l->label, "%s-%s gap radiation", bed->layers[i - 1].id,
                  bed->layers[i + 1].id);
     }
-    for (i = 0; i < n; i++) {
-        const char *id = bed->layers[i].id;
-        double up = (i + 1 == n ? g[i].area : g[i].area - overlap(&g[i], &g[i + 1])) - gap[i][1];
-        double down = (i == 0 ? g[i].area : g[i].area - overlap(&g[i - 1], &g[i])) - gap[i][0];
-        double eps_up = g[i].m->emissivity, eps_down = g[i].m->emissivity;
-        int is_top = i + 1 == n, is_bottom = i == 0;
-        if (is_top && tp_isset(bed->top.emissivity))
-            eps_up = bed->top.emissivity;
-        if (is_bottom && tp_isset(bed->bottom.emissivity))
-            eps_down = bed->bottom.emissivity;
-        /* Forced air flows across the working surface only (along the bed's first side). */
-        if (add_face(net, &g[i], conv_sink, rad_sink, up > 1e-12 ? up : 0.0, TP_FACE_UP,
-                     is_top ? desc->room.airflow : 0.0, eps_up, desc, TP_PATH_TOP_CONV,
-                     TP_PATH_TOP_RAD, id) != 0 ||
-            add_face(net, &g[i], conv_sink, rad_sink, down > 1e-12 ? down : 0.0, TP_FACE_DOWN,
-                     0.0, eps_down, desc, TP_PATH_BOTTOM_CONV, TP_PATH_BOTTOM_RAD, id) != 0)
-            return TP_ERR_NOMEM;
-        snprintf(label, sizeof label, "%s edges", id);
-        if (!inside[i] &&
-            !add_conv(net, g[i].node, conv_sink, 2.0 * (g[i].w + g[i].d) * g[i].t,
-                      TP_FACE_VERTICAL, stack, 0.0, 0.0, desc, TP_PATH_EDGE, label))
-            return TP_ERR_NOMEM;
-        snprintf(label, sizeof label, "%s edges radiation", id);
-        if (!inside[i] &&
-            !add_rad(net, g[i].node, rad_sink, 2.0 * (g[i].w + g[i].d) * g[i].t,
-                     g[i].m->emissivity, desc, TP_PATH_EDGE, label))
-            return TP_ERR_NOMEM;
-        if (i + 1 < n) {
-            double a = overlap(&g[i], &g[i + 1]);
-            double r = g[i].t / (2.0 * tp_materials_k_through(g[i].m) * a) +
-                       g[i + 1].t / (2.0 * tp_materials_k_through(g[i + 1].m) * a);
-            tp_net_link *l;
-            if (tp_isset(bed->layers[i + 1].contact))
-                r += 1.0 / (bed->layers[i + 1].contact * a);
-            l = tp_network_add_link(net, g[i].node, g[i + 1].node, TP_LAW_CONDUCTION);
-            if (!l)
-                return TP_ERR_NOMEM;
-            l->g = 1.0 / r;
-            snprintf(l->label, sizeof l->label, "%s-%s", id, bed->layers[i + 1].id);
-        }
-    }
-    if (bed->mounts.conductance > 0) {
-        tp_net_link *l = tp_network_add_link(net, g[0].node, rad_sink, TP_LAW_CONDUCTION);
+    return TP_OK;
+}
+
+/* Layer i's exposed faces (up and down, less the closed gaps' areas gap_down and gap_up, and
+ * its edges unless they are inside a gap) to the sinks, and its conduction to the layer above
+ * through both half-thicknesses and the contact. `stack` is the bed's height. */
+static tp_status layer_links(const tp_description *desc, tp_network *net, const geom *g, size_t n,
+                             size_t i, double gap_down, double gap_up, int inside, double stack,
+                             int conv_sink, int rad_sink)
+{
+    const tp_bed *bed = &desc->bed;
+    const char *id = bed->layers[i].id;
+    double up = (i + 1 == n ? g[i].area : g[i].area - overlap(&g[i], &g[i + 1])) - gap_up;
+    double down = (i == 0 ? g[i].area : g[i].area - overlap(&g[i - 1], &g[i])) - gap_down;
+    double eps_up = g[i].m->emissivity, eps_down = g[i].m->emissivity;
+    int is_top = i + 1 == n, is_bottom = i == 0;
+    char label[128];
+    if (is_top && tp_isset(bed->top.emissivity))
+        eps_up = bed->top.emissivity;
+    if (is_bottom && tp_isset(bed->bottom.emissivity))
+        eps_down = bed->bottom.emissivity;
+    /* Forced air flows across the working surface only (along the bed's first side). */
+    if (add_face(net, &g[i], conv_sink, rad_sink, up > 1e-12 ? up : 0.0, TP_FACE_UP,
+                 is_top ? desc->room.airflow : 0.0, eps_up, desc, TP_PATH_TOP_CONV, TP_PATH_TOP_RAD,
+                 id) != 0 ||
+        add_face(net, &g[i], conv_sink, rad_sink, down > 1e-12 ? down : 0.0, TP_FACE_DOWN, 0.0,
+                 eps_down, desc, TP_PATH_BOTTOM_CONV, TP_PATH_BOTTOM_RAD, id) != 0)
+        return TP_ERR_NOMEM;
+    snprintf(label, sizeof label, "%s edges", id);
+    if (!inside && !add_conv(net, g[i].node, conv_sink, 2.0 * (g[i].w + g[i].d) * g[i].t,
+                             TP_FACE_VERTICAL, stack, 0.0, 0.0, desc, TP_PATH_EDGE, label))
+        return TP_ERR_NOMEM;
+    snprintf(label, sizeof label, "%s edges radiation", id);
+    if (!inside && !add_rad(net, g[i].node, rad_sink, 2.0 * (g[i].w + g[i].d) * g[i].t,
+                            g[i].m->emissivity, desc, TP_PATH_EDGE, label))
+        return TP_ERR_NOMEM;
+    if (i + 1 < n) {
+        double a = overlap(&g[i], &g[i + 1]);
+        double r = g[i].t / (2.0 * tp_materials_k_through(g[i].m) * a) +
+                   g[i + 1].t / (2.0 * tp_materials_k_through(g[i + 1].m) * a);
+        tp_net_link *l;
+        if (tp_isset(bed->layers[i + 1].contact))
+            r += 1.0 / (bed->layers[i + 1].contact * a);
+        l = tp_network_add_link(net, g[i].node, g[i + 1].node, TP_LAW_CONDUCTION);
         if (!l)
             return TP_ERR_NOMEM;
-        l->g = bed->mounts.conductance;
+        l->g = 1.0 / r;
+        snprintf(l->label, sizeof l->label, "%s-%s", id, bed->layers[i + 1].id);
+    }
+    return TP_OK;
+}
+
+/* The mounts into the frame, and an enclosure's walls (inside to its air, through to the
+ * room). */
+static tp_status mounts_and_walls(const tp_description *desc, tp_network *net, int bottom, int air,
+                                  int walls, int room, int rad_sink)
+{
+    if (desc->bed.mounts.conductance > 0) {
+        tp_net_link *l = tp_network_add_link(net, bottom, rad_sink, TP_LAW_CONDUCTION);
+        if (!l)
+            return TP_ERR_NOMEM;
+        l->g = desc->bed.mounts.conductance;
         l->path = TP_PATH_MOUNTS;
         snprintf(l->label, sizeof l->label, "mounts");
     }
@@ -499,6 +480,58 @@ static tp_status lower_lumped(const tp_description *desc, const tp_yamltree *doc
         l->path = TP_PATH_WALLS;
         snprintf(l->label, sizeof l->label, "walls-room");
     }
+    return TP_OK;
+}
+
+/* The lumped lowering: one node per layer. */
+static tp_status lower_lumped(const tp_description *desc, const tp_yamltree *doc, tp_network *net,
+                              tp_diag *d)
+{
+    const tp_bed *bed = &desc->bed;
+    geom g[TP_MAX_LAYERS];
+    double gap[TP_MAX_LAYERS][2]; /* closed-gap area below [0] and above [1] each layer, m2 */
+    int inside[TP_MAX_LAYERS];    /* 1: the layer lies within a closed gap, edges unexposed */
+    size_t i, n = bed->n_layers;
+    int room, air = -1, walls = -1, conv_sink, rad_sink;
+    double stack = 0.0, tr = desc->room.temperature;
+    tp_status st;
+
+    if (tp_materials_builtin(NULL, NULL, d) != TP_OK)
+        return TP_ERR_CONFIG;
+    if (n == 0 || n > TP_MAX_LAYERS) {
+        tp_diag_error(d, tp_yamltree_nearest(doc, "bed.layers"), "bed.layers",
+                      "list the layers bottom to top", "a bed needs 1 to %d layers", TP_MAX_LAYERS);
+        return TP_ERR_CONFIG;
+    }
+    memset(g, 0, sizeof g);
+    memset(gap, 0, sizeof gap);
+    memset(inside, 0, sizeof inside);
+    if (lower_layers(desc, doc, net, d, g) != 0)
+        return TP_ERR_CONFIG;
+    st = lower_sensor(desc, doc, net, d, g);
+    if (st != TP_OK)
+        return st;
+    if (desc->enclosure.present) {
+        tp_air a;
+        tp_air_props(tr, desc->room.pressure, &a);
+        air = tp_network_add_node(net, "air", a.rho * a.cp * desc->enclosure.volume, tr);
+        walls = tp_network_add_node(net, "walls", desc->enclosure.walls.capacity, tr);
+    }
+    room = tp_network_add_node(net, "room", 0.0, tr);
+    if (room < 0)
+        return TP_ERR_NOMEM;
+    conv_sink = air >= 0 ? air : room;
+    rad_sink = walls >= 0 ? walls : room;
+    for (i = 0; i < n; i++)
+        stack += g[i].t;
+    if ((st = closed_gaps(desc, net, g, n, gap, inside)) != TP_OK)
+        return st;
+    for (i = 0; i < n; i++)
+        if ((st = layer_links(desc, net, g, n, i, gap[i][0], gap[i][1], inside[i], stack, conv_sink,
+                              rad_sink)) != TP_OK)
+            return st;
+    if ((st = mounts_and_walls(desc, net, g[0].node, air, walls, room, rad_sink)) != TP_OK)
+        return st;
     net->top_node = g[n - 1].node;
     net->top_area = g[n - 1].area;
     net->top_half_r = g[n - 1].t / (2.0 * tp_materials_k_through(g[n - 1].m));

@@ -1434,15 +1434,222 @@ static void vlines_place(chart_plan *cp, const tp_plot_vline *vlines, size_t n)
     tp_plot_place_labels(cp->vlabel, cp->n_vlines, gap, top->vx0, top->vy0, top->vx1, top->vy1);
 }
 
+/* What the panels' checks gather for the layout: the x range of all data, the sum of the
+ * height shares, the series count so far, and whether any panel has a right axis. */
+typedef struct chart_ranges {
+    double xlo, xhi, share;
+    size_t first;
+    int any_right;
+} chart_ranges;
+
+/* Check panel i and its series and reference lines (a usage error names the panel), and take
+ * its data ranges: y on both axes into the panel's plan, x into r. */
+static tp_status panel_check(chart_plan *cp, size_t i, chart_ranges *r, const char *path,
+                             tp_diag *d)
+{
+    const tp_plot_panel *p = &cp->c->panels[i];
+    panel_plan *pp = &cp->panels[i];
+    double ylo = HUGE_VAL, yhi = -HUGE_VAL, rlo = HUGE_VAL, rhi = -HUGE_VAL;
+    size_t finite = 0, skipped = 0, j;
+    pp->p = p;
+    pp->first = r->first;
+    pp->label_box = calloc(p->n_hlines + 1, sizeof *pp->label_box);
+    pp->label_on = calloc(p->n_hlines + 1, sizeof *pp->label_on);
+    if (!pp->label_box || !pp->label_on) {
+        tp_diag_error(d, tp_diag_loc_none(), path, NULL, "out of memory");
+        return TP_ERR_NOMEM;
+    }
+    pp->right = p->y2label != NULL;
+    r->any_right |= pp->right;
+    r->first += p->n_series;
+    if ((p->n_series > 0 && !p->series) || (p->n_hlines > 0 && !p->hlines)) {
+        tp_diag_error(d, tp_diag_loc_none(), path, NULL, "panel %zu: missing %s array", i + 1,
+                      p->n_series > 0 && !p->series ? "series" : "reference-line");
+        return TP_ERR_USAGE;
+    }
+    if (!isfinite(p->height_share) || p->height_share < 0.0) {
+        tp_diag_error(d, tp_diag_loc_none(), path, NULL,
+                      "panel %zu: height share must be a finite number >= 0", i + 1);
+        return TP_ERR_USAGE;
+    }
+    r->share += p->height_share > 0.0 ? p->height_share : 1.0;
+    for (j = 0; j < p->n_series; j++) {
+        const tp_plot_series *s = &p->series[j];
+        if (s->n == 0 || !s->x || !s->y) {
+            tp_diag_error(d, tp_diag_loc_none(), path, NULL, "panel %zu, series %zu (%s): %s",
+                          i + 1, j + 1, s->label ? s->label : "unlabelled",
+                          s->n == 0 ? "no points" : "missing x or y array");
+            return TP_ERR_USAGE;
+        }
+        if (s->n > INT_MAX) {
+            tp_diag_error(d, tp_diag_loc_none(), path, NULL,
+                          "panel %zu, series %zu: more than %d points", i + 1, j + 1, INT_MAX);
+            return TP_ERR_LIMIT;
+        }
+        if (s->right_axis && !pp->right) {
+            tp_diag_error(d, tp_diag_loc_none(), path, "give the panel a y2label",
+                          "panel %zu, series %zu (%s): on the right axis, but the panel "
+                          "has none",
+                          i + 1, j + 1, s->label ? s->label : "unlabelled");
+            return TP_ERR_USAGE;
+        }
+        if (s->right_axis)
+            finite += series_range(s, &r->xlo, &r->xhi, &rlo, &rhi, &skipped);
+        else
+            finite += series_range(s, &r->xlo, &r->xhi, &ylo, &yhi, &skipped);
+    }
+    for (j = 0; j < p->n_hlines; j++) {
+        if (!isfinite(p->hlines[j].y)) {
+            skipped++;
+            continue;
+        }
+        ylo = fmin(ylo, p->hlines[j].y);
+        yhi = fmax(yhi, p->hlines[j].y);
+        finite++;
+    }
+    if (finite == 0) {
+        tp_diag_error(d, tp_diag_loc_none(), path, NULL, "panel %zu (%s): nothing finite to draw",
+                      i + 1, p->ylabel ? p->ylabel : "unlabelled");
+        return TP_ERR_USAGE;
+    }
+    if (skipped > 0)
+        tp_diag_warn(d, tp_diag_loc_none(), path, NULL,
+                     "panel %zu: %zu non-finite point%s left out of the figure", i + 1, skipped,
+                     skipped == 1 ? "" : "s");
+    if (!(ylo <= yhi))
+        ylo = yhi = 0.0; /* only right-axis data: an empty left axis */
+    if (!(rlo <= rhi))
+        rlo = rhi = 0.0;
+    pp->y.lo = ylo; /* data ranges for now; fitted by the layout */
+    pp->y.hi = yhi;
+    pp->y2.lo = rlo;
+    pp->y2.hi = rhi;
+    return TP_OK;
+}
+
+/* Colour keys: a series takes the colour of the first series with its label. */
+static tp_status colour_keys(chart_plan *cp, size_t n_series, const char *path, tp_diag *d)
+{
+    const tp_plot_chart *c = cp->c;
+    size_t i, j, first;
+    cp->key = malloc((n_series > 0 ? n_series : 1) * sizeof *cp->key);
+    if (!cp->key) {
+        tp_diag_error(d, tp_diag_loc_none(), path, NULL, "out of memory");
+        return TP_ERR_NOMEM;
+    }
+    for (i = 0, first = 0; i < c->n_panels; i++) {
+        for (j = 0; j < c->panels[i].n_series; j++, first++) {
+            const char *label = c->panels[i].series[j].label;
+            size_t a, b, k = first;
+            cp->key[first] = first;
+            for (a = 0; label && *label && a <= i && k == first; a++)
+                for (b = 0; b < c->panels[a].n_series && (a < i || b < j); b++) {
+                    const char *other = c->panels[a].series[b].label;
+                    if (other && strcmp(other, label) == 0) {
+                        k = cp->panels[a].first + b;
+                        break;
+                    }
+                }
+            cp->key[first] = cp->key[k];
+        }
+    }
+    return TP_OK;
+}
+
+/* Vertical layout, mm from the bottom of the page: the title, the panels by their height
+ * shares (`share` their sum) with gaps, the x-axis title; each panel's y axes fitted. */
+static tp_status vertical_layout(chart_plan *cp, double share, const char *path, tp_diag *d)
+{
+    const tp_plot_chart *c = cp->c;
+    double page_w = cp->width * PLOT_MM_PER_PX, page_h = cp->height * PLOT_MM_PER_PX;
+    double top, bottom, gap, avail, ytop;
+    size_t i;
+    top = title_fit(&cp->title, c->title, page_w, cp->ht);
+    bottom = (c->xlabel && *c->xlabel ? 4.8 : 2.8) * cp->ht;
+    gap = 1.2 * cp->ht;
+    avail = page_h - top - bottom - gap * (double)(c->n_panels - 1);
+    ytop = page_h - top;
+    for (i = 0; i < c->n_panels; i++) {
+        panel_plan *pp = &cp->panels[i];
+        double h = pp->p->height_share > 0.0 ? pp->p->height_share : 1.0;
+        h *= avail / share;
+        if (h < 4.0 * cp->ht) {
+            tp_diag_error(d, tp_diag_loc_none(), path, "make the figure taller or the panels fewer",
+                          "panel %zu would be too short to read", i + 1);
+            return TP_ERR_USAGE;
+        }
+        pp->vy1 = ytop;
+        pp->vy0 = ytop - h;
+        ytop = pp->vy0 - gap;
+        if (!isfinite(pp->y.hi - pp->y.lo) || !isfinite(pp->y2.hi - pp->y2.lo)) {
+            tp_diag_error(d, tp_diag_loc_none(), path, NULL, "panel %zu: values too large to plot",
+                          i + 1);
+            return TP_ERR_USAGE;
+        }
+        pp->ticks = h / (3.5 * cp->ht);
+        axis_fit(&pp->y, pp->y.lo, pp->y.hi, PLOT_PAD, pp->ticks);
+        if (pp->right)
+            axis_fit(&pp->y2, pp->y2.lo, pp->y2.hi, PLOT_PAD, pp->ticks);
+        pp->y_fit = pp->y;
+        pp->y2_fit = pp->y2;
+    }
+    return TP_OK;
+}
+
+/* Horizontal layout: room for the widest tick labels and the axis titles; again when a legend
+ * made room for itself and lengthened a panel's tick labels (98 -> 100). The marked times'
+ * labels go first: legends and reference-line labels keep clear of them. */
+static tp_status horizontal_layout(chart_plan *cp, const chart_ranges *r,
+                                   const tp_plot_vline *vlines, size_t n_vlines, const char *path,
+                                   tp_diag *d)
+{
+    const tp_plot_chart *c = cp->c;
+    double page_w = cp->width * PLOT_MM_PER_PX, left, right;
+    int lchars = 1, rchars = 1, pass;
+    size_t i;
+    for (pass = 0; pass < 2; pass++) {
+        int wider = 0;
+        for (i = 0; i < c->n_panels; i++) {
+            wider |= cp->panels[i].y.label_len > lchars ||
+                     (cp->panels[i].right && cp->panels[i].y2.label_len > rchars);
+            lchars = cp->panels[i].y.label_len > lchars ? cp->panels[i].y.label_len : lchars;
+            if (cp->panels[i].right && cp->panels[i].y2.label_len > rchars)
+                rchars = cp->panels[i].y2.label_len;
+        }
+        if (pass > 0 && !wider)
+            break;
+        cp->ylabel_disp = 0.8 + lchars * PLOT_DIGIT_W + 1.2;
+        cp->y2label_disp = 0.8 + rchars * PLOT_DIGIT_W + 1.2;
+        left = (cp->ylabel_disp + 1.2) * cp->ht;
+        right = r->any_right ? (cp->y2label_disp + 1.2) * cp->ht : 2.5 * cp->ht;
+        if (page_w - left - right < 10.0 * cp->ht) {
+            tp_diag_error(d, tp_diag_loc_none(), path, "make the figure wider",
+                          "the figure is too narrow for its axis labels");
+            return TP_ERR_USAGE;
+        }
+        axis_fit(&cp->x, r->xlo, r->xhi, 0.0, (page_w - left - right) / (9.0 * cp->ht));
+        for (i = 0; i < c->n_panels; i++) {
+            cp->panels[i].vx0 = left;
+            cp->panels[i].vx1 = page_w - right;
+        }
+        vlines_place(cp, vlines, n_vlines);
+        for (i = 0; i < c->n_panels; i++) {
+            cp->panels[i].y = cp->panels[i].y_fit; /* a legend grows the plain fit, once */
+            cp->panels[i].y2 = cp->panels[i].y2_fit;
+            legend_plan_fill(cp, &cp->panels[i]);
+            labels_plan(cp, &cp->panels[i]);
+        }
+    }
+    return TP_OK;
+}
+
 /* Check a chart and lay it out; on failure report and return non-OK (nothing allocated). */
 static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c,
                                   const tp_plot_vline *vlines, size_t n_vlines, const char *path,
                                   tp_diag *d)
 {
-    double xlo = HUGE_VAL, xhi = -HUGE_VAL, page_w, page_h, top, bottom, gap, avail, share = 0.0;
-    double left, right, ytop;
-    size_t i, j, first = 0;
-    int lchars = 1, rchars = 1, any_right = 0, pass;
+    chart_ranges r = {HUGE_VAL, -HUGE_VAL, 0.0, 0, 0};
+    size_t i;
     tp_status st;
 
     memset(cp, 0, sizeof *cp);
@@ -1466,196 +1673,28 @@ static tp_status chart_plan_build(chart_plan *cp, const tp_plot_chart *c,
         tp_diag_error(d, tp_diag_loc_none(), path, NULL, "out of memory");
         return TP_ERR_NOMEM;
     }
-
-    /* check every panel and series; data ranges */
-    for (i = 0; i < c->n_panels; i++) {
-        const tp_plot_panel *p = &c->panels[i];
-        panel_plan *pp = &cp->panels[i];
-        double ylo = HUGE_VAL, yhi = -HUGE_VAL, rlo = HUGE_VAL, rhi = -HUGE_VAL;
-        size_t finite = 0, skipped = 0;
-        pp->p = p;
-        pp->first = first;
-        pp->label_box = calloc(p->n_hlines + 1, sizeof *pp->label_box);
-        pp->label_on = calloc(p->n_hlines + 1, sizeof *pp->label_on);
-        if (!pp->label_box || !pp->label_on) {
-            tp_diag_error(d, tp_diag_loc_none(), path, NULL, "out of memory");
-            chart_plan_free(cp);
-            return TP_ERR_NOMEM;
+    for (i = 0; st == TP_OK && i < c->n_panels; i++)
+        st = panel_check(cp, i, &r, path, d);
+    if (st == TP_OK)
+        st = colour_keys(cp, r.first, path, d);
+    if (st == TP_OK) {
+        if (!(r.xlo <= r.xhi))
+            r.xlo = r.xhi = 0.0; /* reference lines only */
+        if (!isfinite(r.xhi - r.xlo)) {
+            tp_diag_error(d, tp_diag_loc_none(), path, NULL, "x values too large to plot");
+            st = TP_ERR_USAGE;
         }
-        pp->right = p->y2label != NULL;
-        any_right |= pp->right;
-        first += p->n_series;
-        if ((p->n_series > 0 && !p->series) || (p->n_hlines > 0 && !p->hlines)) {
-            tp_diag_error(d, tp_diag_loc_none(), path, NULL, "panel %zu: missing %s array", i + 1,
-                          p->n_series > 0 && !p->series ? "series" : "reference-line");
-            goto usage;
-        }
-        if (!isfinite(p->height_share) || p->height_share < 0.0) {
-            tp_diag_error(d, tp_diag_loc_none(), path, NULL,
-                          "panel %zu: height share must be a finite number >= 0", i + 1);
-            goto usage;
-        }
-        share += p->height_share > 0.0 ? p->height_share : 1.0;
-        for (j = 0; j < p->n_series; j++) {
-            const tp_plot_series *s = &p->series[j];
-            if (s->n == 0 || !s->x || !s->y) {
-                tp_diag_error(d, tp_diag_loc_none(), path, NULL, "panel %zu, series %zu (%s): %s",
-                              i + 1, j + 1, s->label ? s->label : "unlabelled",
-                              s->n == 0 ? "no points" : "missing x or y array");
-                goto usage;
-            }
-            if (s->n > INT_MAX) {
-                tp_diag_error(d, tp_diag_loc_none(), path, NULL,
-                              "panel %zu, series %zu: more than %d points", i + 1, j + 1, INT_MAX);
-                chart_plan_free(cp);
-                return TP_ERR_LIMIT;
-            }
-            if (s->right_axis && !pp->right) {
-                tp_diag_error(d, tp_diag_loc_none(), path, "give the panel a y2label",
-                              "panel %zu, series %zu (%s): on the right axis, but the panel "
-                              "has none",
-                              i + 1, j + 1, s->label ? s->label : "unlabelled");
-                goto usage;
-            }
-            if (s->right_axis)
-                finite += series_range(s, &xlo, &xhi, &rlo, &rhi, &skipped);
-            else
-                finite += series_range(s, &xlo, &xhi, &ylo, &yhi, &skipped);
-        }
-        for (j = 0; j < p->n_hlines; j++) {
-            if (!isfinite(p->hlines[j].y)) {
-                skipped++;
-                continue;
-            }
-            ylo = fmin(ylo, p->hlines[j].y);
-            yhi = fmax(yhi, p->hlines[j].y);
-            finite++;
-        }
-        if (finite == 0) {
-            tp_diag_error(d, tp_diag_loc_none(), path, NULL,
-                          "panel %zu (%s): nothing finite to draw", i + 1,
-                          p->ylabel ? p->ylabel : "unlabelled");
-            goto usage;
-        }
-        if (skipped > 0)
-            tp_diag_warn(d, tp_diag_loc_none(), path, NULL,
-                         "panel %zu: %zu non-finite point%s left out of the figure", i + 1, skipped,
-                         skipped == 1 ? "" : "s");
-        if (!(ylo <= yhi))
-            ylo = yhi = 0.0; /* only right-axis data: an empty left axis */
-        if (!(rlo <= rhi))
-            rlo = rhi = 0.0;
-        pp->y.lo = ylo; /* data ranges for now; fitted below */
-        pp->y.hi = yhi;
-        pp->y2.lo = rlo;
-        pp->y2.hi = rhi;
     }
-    /* colour keys: a series takes the colour of the first series with its label */
-    cp->key = malloc((first > 0 ? first : 1) * sizeof *cp->key);
-    if (!cp->key) {
-        tp_diag_error(d, tp_diag_loc_none(), path, NULL, "out of memory");
+    if (st == TP_OK) {
+        cp->scale = figure_scale(cp->width, cp->height, TP_PLOT_CHART_WIDTH, TP_PLOT_CHART_HEIGHT);
+        cp->ht = PLOT_CHAR_MM * cp->scale;
+        st = vertical_layout(cp, r.share, path, d);
+    }
+    if (st == TP_OK)
+        st = horizontal_layout(cp, &r, vlines, n_vlines, path, d);
+    if (st != TP_OK)
         chart_plan_free(cp);
-        return TP_ERR_NOMEM;
-    }
-    for (i = 0, first = 0; i < c->n_panels; i++) {
-        for (j = 0; j < c->panels[i].n_series; j++, first++) {
-            const char *label = c->panels[i].series[j].label;
-            size_t a, b, k = first;
-            cp->key[first] = first;
-            for (a = 0; label && *label && a <= i && k == first; a++)
-                for (b = 0; b < c->panels[a].n_series && (a < i || b < j); b++) {
-                    const char *other = c->panels[a].series[b].label;
-                    if (other && strcmp(other, label) == 0) {
-                        k = cp->panels[a].first + b;
-                        break;
-                    }
-                }
-            cp->key[first] = cp->key[k];
-        }
-    }
-    if (!(xlo <= xhi))
-        xlo = xhi = 0.0; /* reference lines only */
-    if (!isfinite(xhi - xlo)) {
-        tp_diag_error(d, tp_diag_loc_none(), path, NULL, "x values too large to plot");
-        goto usage;
-    }
-
-    /* vertical layout, mm from the bottom of the page */
-    cp->scale = figure_scale(cp->width, cp->height, TP_PLOT_CHART_WIDTH, TP_PLOT_CHART_HEIGHT);
-    cp->ht = PLOT_CHAR_MM * cp->scale;
-    page_w = cp->width * PLOT_MM_PER_PX;
-    page_h = cp->height * PLOT_MM_PER_PX;
-    top = title_fit(&cp->title, c->title, page_w, cp->ht);
-    bottom = (c->xlabel && *c->xlabel ? 4.8 : 2.8) * cp->ht;
-    gap = 1.2 * cp->ht;
-    avail = page_h - top - bottom - gap * (double)(c->n_panels - 1);
-    ytop = page_h - top;
-    for (i = 0; i < c->n_panels; i++) {
-        panel_plan *pp = &cp->panels[i];
-        double h = pp->p->height_share > 0.0 ? pp->p->height_share : 1.0;
-        h *= avail / share;
-        if (h < 4.0 * cp->ht) {
-            tp_diag_error(d, tp_diag_loc_none(), path, "make the figure taller or the panels fewer",
-                          "panel %zu would be too short to read", i + 1);
-            goto usage;
-        }
-        pp->vy1 = ytop;
-        pp->vy0 = ytop - h;
-        ytop = pp->vy0 - gap;
-        if (!isfinite(pp->y.hi - pp->y.lo) || !isfinite(pp->y2.hi - pp->y2.lo)) {
-            tp_diag_error(d, tp_diag_loc_none(), path, NULL, "panel %zu: values too large to plot",
-                          i + 1);
-            goto usage;
-        }
-        pp->ticks = h / (3.5 * cp->ht);
-        axis_fit(&pp->y, pp->y.lo, pp->y.hi, PLOT_PAD, pp->ticks);
-        if (pp->right)
-            axis_fit(&pp->y2, pp->y2.lo, pp->y2.hi, PLOT_PAD, pp->ticks);
-        pp->y_fit = pp->y;
-        pp->y2_fit = pp->y2;
-    }
-
-    /* horizontal layout: room for the widest tick labels and the axis titles; again when a
-     * legend made room for itself and lengthened a panel's tick labels (98 -> 100). The marked
-     * times' labels go first: legends and reference-line labels keep clear of them. */
-    for (pass = 0; pass < 2; pass++) {
-        int wider = 0;
-        for (i = 0; i < c->n_panels; i++) {
-            wider |= cp->panels[i].y.label_len > lchars ||
-                     (cp->panels[i].right && cp->panels[i].y2.label_len > rchars);
-            lchars = cp->panels[i].y.label_len > lchars ? cp->panels[i].y.label_len : lchars;
-            if (cp->panels[i].right && cp->panels[i].y2.label_len > rchars)
-                rchars = cp->panels[i].y2.label_len;
-        }
-        if (pass > 0 && !wider)
-            break;
-        cp->ylabel_disp = 0.8 + lchars * PLOT_DIGIT_W + 1.2;
-        cp->y2label_disp = 0.8 + rchars * PLOT_DIGIT_W + 1.2;
-        left = (cp->ylabel_disp + 1.2) * cp->ht;
-        right = any_right ? (cp->y2label_disp + 1.2) * cp->ht : 2.5 * cp->ht;
-        if (page_w - left - right < 10.0 * cp->ht) {
-            tp_diag_error(d, tp_diag_loc_none(), path, "make the figure wider",
-                          "the figure is too narrow for its axis labels");
-            goto usage;
-        }
-        axis_fit(&cp->x, xlo, xhi, 0.0, (page_w - left - right) / (9.0 * cp->ht));
-        for (i = 0; i < c->n_panels; i++) {
-            cp->panels[i].vx0 = left;
-            cp->panels[i].vx1 = page_w - right;
-        }
-        vlines_place(cp, vlines, n_vlines);
-        for (i = 0; i < c->n_panels; i++) {
-            cp->panels[i].y = cp->panels[i].y_fit; /* a legend grows the plain fit, once */
-            cp->panels[i].y2 = cp->panels[i].y2_fit;
-            legend_plan_fill(cp, &cp->panels[i]);
-            labels_plan(cp, &cp->panels[i]);
-        }
-    }
-    return TP_OK;
-
-usage:
-    chart_plan_free(cp);
-    return TP_ERR_USAGE;
+    return st;
 }
 
 tp_status tp_plot_chart_write(const char *path, const tp_plot_chart *chart, tp_diag *d)
@@ -1960,16 +1999,9 @@ static tp_status marks_place(map_plan *mp)
     return TP_OK;
 }
 
-/* Check a map and lay it out; on failure report and return non-OK (nothing allocated). */
-static tp_status map_plan_build(map_plan *mp, const tp_plot_map *m, const char *path, tp_diag *d)
+/* Check a map's cells, extent and markers; the figure's size. */
+static tp_status map_check(map_plan *mp, const tp_plot_map *m, const char *path, tp_diag *d)
 {
-    double page_w, page_h, top, bottom, left, right, bw, bh, vw, vh, span, aspect, step;
-    double pad_x, pad_y;
-    size_t i, j, nonfinite = 0;
-    tp_status st;
-
-    memset(mp, 0, sizeof *mp);
-    mp->m = m;
     if (!m->z || m->nx == 0 || m->ny == 0) {
         tp_diag_error(d, tp_diag_loc_none(), path, NULL, "heat map without cells");
         return TP_ERR_USAGE;
@@ -1992,10 +2024,14 @@ static tp_status map_plan_build(map_plan *mp, const tp_plot_map *m, const char *
     }
     mp->width = m->width;
     mp->height = m->height;
-    st = figure_size(&mp->width, &mp->height, TP_PLOT_MAP_WIDTH, TP_PLOT_MAP_HEIGHT, path, d);
-    if (st != TP_OK)
-        return st;
+    return figure_size(&mp->width, &mp->height, TP_PLOT_MAP_WIDTH, TP_PLOT_MAP_HEIGHT, path, d);
+}
 
+/* The colour range of the finite cells, the cells in PLplot's layout with their centres, and
+ * nice contour levels strictly inside the range (when asked and every cell is finite). */
+static tp_status map_cells(map_plan *mp, const tp_plot_map *m, const char *path, tp_diag *d)
+{
+    size_t i, j, nonfinite = 0;
     mp->zlo = HUGE_VAL;
     mp->zhi = -HUGE_VAL;
     for (i = 0; i < m->nx * m->ny; i++) {
@@ -2015,13 +2051,11 @@ static tp_status map_plan_build(map_plan *mp, const tp_plot_map *m, const char *
         tp_diag_warn(d, tp_diag_loc_none(), path, NULL, "%zu non-finite cell%s left blank%s",
                      nonfinite, nonfinite == 1 ? "" : "s",
                      m->contours ? ", contours left out" : "");
-
     mp->grid = malloc(m->nx * sizeof *mp->grid);
     mp->cells = malloc(m->nx * m->ny * sizeof *mp->cells);
     mp->xc = malloc(m->nx * sizeof *mp->xc);
     mp->yc = malloc(m->ny * sizeof *mp->yc);
     if (!mp->grid || !mp->cells || !mp->xc || !mp->yc) {
-        map_plan_free(mp);
         tp_diag_error(d, tp_diag_loc_none(), path, NULL, "out of memory");
         return TP_ERR_NOMEM;
     }
@@ -2039,11 +2073,8 @@ static tp_status map_plan_build(map_plan *mp, const tp_plot_map *m, const char *
     }
     for (j = 0; j < m->ny; j++)
         mp->yc[j] = mp->y0 + (mp->y1 - mp->y0) * ((double)j + 0.5) / (double)m->ny;
-
-    /* contour levels: nice values strictly inside the colour range */
     if (m->contours && nonfinite == 0 && m->nx >= 2 && m->ny >= 2) {
-        double k;
-        step = nice_step(mp->zhi - mp->zlo, 8.0);
+        double k, step = nice_step(mp->zhi - mp->zlo, 8.0);
         for (k = ceil(mp->zlo / step); k * step < mp->zhi && mp->nlevels < PLOT_LEVELS_MAX;
              k += 1.0)
             if (k * step > mp->zlo)
@@ -2053,8 +2084,14 @@ static tp_status map_plan_build(map_plan *mp, const tp_plot_map *m, const char *
             (PLINT)(floor(log10(fmax(fabs(mp->zlo), fabs(mp->zhi)))) + 1.0) + step_decimals(step);
         mp->sigdig = mp->sigdig < 1 ? 1 : mp->sigdig > 8 ? 8 : mp->sigdig;
     }
+    return TP_OK;
+}
 
-    /* layout: the plate to scale, centred in the room left by labels and the colour bar */
+/* Layout: the plate to scale, centred in the room left by labels and the colour bar. */
+static tp_status map_layout(map_plan *mp, const tp_plot_map *m, const char *path, tp_diag *d)
+{
+    double page_w, page_h, top, bottom, left, right, bw, bh, vw, vh, span, aspect;
+    double pad_x, pad_y;
     mp->scale = figure_scale(mp->width, mp->height, TP_PLOT_MAP_WIDTH, TP_PLOT_MAP_HEIGHT);
     mp->ht = PLOT_CHAR_MM * mp->scale;
     page_w = mp->width * PLOT_MM_PER_PX;
@@ -2074,7 +2111,6 @@ static tp_status map_plan_build(map_plan *mp, const tp_plot_map *m, const char *
     bw = page_w - left - right;
     bh = page_h - top - bottom;
     if (bw < 10.0 * mp->ht || bh < 8.0 * mp->ht) {
-        map_plan_free(mp);
         tp_diag_error(d, tp_diag_loc_none(), path, "make the figure larger",
                       "the figure is too small for a heat map");
         return TP_ERR_USAGE;
@@ -2092,20 +2128,38 @@ static tp_status map_plan_build(map_plan *mp, const tp_plot_map *m, const char *
     mp->vx1 = mp->vx0 + vw;
     mp->vy0 = bottom + 0.5 * (bh - vh);
     mp->vy1 = mp->vy0 + vh;
-    axis_fit(&mp->x, mp->x0 - pad_x, mp->x1 + pad_x, 0.0,
-             vw / (9.0 * mp->ht));
+    axis_fit(&mp->x, mp->x0 - pad_x, mp->x1 + pad_x, 0.0, vw / (9.0 * mp->ht));
     axis_fit(&mp->y, mp->y0 - pad_y, mp->y1 + pad_y, 0.0, vh / (4.0 * mp->ht));
-    for (i = 0; i < m->n_marks; i++)
-        if (!mark_inside(mp, i))
-            tp_diag_warn(d, tp_diag_loc_none(), path, NULL,
-                         "marker %zu (%s) is not on the map; left out", i + 1,
-                         m->mark_label && m->mark_label[i] ? m->mark_label[i] : "unlabelled");
-    if (marks_place(mp) != TP_OK) {
-        map_plan_free(mp);
-        tp_diag_error(d, tp_diag_loc_none(), path, NULL, "out of memory");
-        return TP_ERR_NOMEM;
-    }
     return TP_OK;
+}
+
+/* Check a map and lay it out; on failure report and return non-OK (nothing allocated). */
+static tp_status map_plan_build(map_plan *mp, const tp_plot_map *m, const char *path, tp_diag *d)
+{
+    tp_status st;
+    size_t i;
+    memset(mp, 0, sizeof *mp);
+    mp->m = m;
+    st = map_check(mp, m, path, d);
+    if (st != TP_OK)
+        return st;
+    st = map_cells(mp, m, path, d);
+    if (st == TP_OK)
+        st = map_layout(mp, m, path, d);
+    if (st == TP_OK) {
+        for (i = 0; i < m->n_marks; i++)
+            if (!mark_inside(mp, i))
+                tp_diag_warn(d, tp_diag_loc_none(), path, NULL,
+                             "marker %zu (%s) is not on the map; left out", i + 1,
+                             m->mark_label && m->mark_label[i] ? m->mark_label[i] : "unlabelled");
+        if (marks_place(mp) != TP_OK) {
+            tp_diag_error(d, tp_diag_loc_none(), path, NULL, "out of memory");
+            st = TP_ERR_NOMEM;
+        }
+    }
+    if (st != TP_OK)
+        map_plan_free(mp);
+    return st;
 }
 
 tp_status tp_plot_map_write(const char *path, const tp_plot_map *map, tp_diag *d)
