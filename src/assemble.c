@@ -352,7 +352,21 @@ static tp_status attach_circuit(const tp_desc *desc, const tp_doc *doc, tp_netwo
     return TP_OK;
 }
 
-tp_status tp_assemble(const tp_desc *desc, const tp_doc *doc, tp_diag *d, tp_network **out)
+/* A gridded plate's lumped twin gets the grid's controller, reading the node the grid's sensor
+ * was refined from (the twin's sources are the grid's, in order): its steady states start the
+ * grid's, at the same duties and targets. */
+static void mirror_control(tp_network *net)
+{
+    tp_network *lp = net->grid ? net->grid->lumped : NULL;
+    if (!lp || !net->has_control || !net->grid->from)
+        return;
+    lp->has_control = 1;
+    lp->control = net->control;
+    lp->control.sensor = net->grid->from[net->control.sensor];
+}
+
+tp_status tp_assemble(const tp_desc *desc, const tp_doc *doc, tp_diag *d,
+                      const tp_network **out)
 {
     tp_network *net;
     tp_status st;
@@ -384,7 +398,7 @@ tp_status tp_assemble(const tp_desc *desc, const tp_doc *doc, tp_diag *d, tp_net
         tp_network_destroy(&net);
         return st;
     }
-    net->run = desc->run;
+    mirror_control(net);
     check_graph(net, d, doc);
     *out = net;
     return TP_OK;

@@ -10,6 +10,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "eval.h"
 #include "steady.h"
 
 #define TP_DERATE 0.9        /* -, continuous load as a share of the supply rating */
@@ -58,7 +59,7 @@ static double element_t(const tp_net_source *s, const double *t)
     return sum;
 }
 
-tp_status tp_budget_compute(const tp_desc *desc, tp_network *net, tp_budget *b, tp_diag *d)
+tp_status tp_budget_compute(const tp_desc *desc, const tp_network *net, tp_budget *b, tp_diag *d)
 {
     int src = tp_network_heater(net);
     const tp_net_source *s;
@@ -118,7 +119,7 @@ tp_status tp_budget_compute(const tp_desc *desc, tp_network *net, tp_budget *b, 
         b->holding = 0;
     }
     b->t_hold = element_t(s, run.temps);
-    b->hot_hold = tp_network_surface(net, run.temps);
+    b->hot_hold = tp_eval_surface_at(net, run.temps, NULL);
     for (i = 0; i < (size_t)net->n_nodes; i++)
         if (net->nodes[i].capacity > 0 && !(run.temps[i] <= b->node_hold))
             b->node_hold = run.temps[i];

@@ -58,6 +58,6 @@ typedef struct tp_budget {
 
 /* Work out the budget for a physical description and its network. TP_ERR_CONFIG when the file
  * has no heater to budget; steady-state failures are reported and returned. */
-tp_status tp_budget_compute(const tp_desc *desc, tp_network *net, tp_budget *b, tp_diag *d);
+tp_status tp_budget_compute(const tp_desc *desc, const tp_network *net, tp_budget *b, tp_diag *d);
 
 #endif

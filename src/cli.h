@@ -7,8 +7,7 @@
 
 #include "diag.h"
 #include "status.h"
-
-#define TP_CLI_MAX_ARGS 256 /* option occurrences on one command line */
+#include "tplimits.h"
 
 #define TP_OUT_FILE 1   /* tp_opt.is_output: a data file */
 #define TP_OUT_FIGURE 2 /* tp_opt.is_output: a figure (.png .svg .pdf) */

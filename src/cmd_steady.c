@@ -7,6 +7,7 @@
 #include <string.h>
 
 #include "commands.h"
+#include "eval.h"
 #include "grid.h"
 #include "json.h"
 #include "report.h"
@@ -33,13 +34,14 @@ typedef struct answer {
 
 static double surface_or_nan(const tp_network *net, const double *t)
 {
-    return tp_network_surface(net, t);
+    return tp_eval_surface_at(net, t, NULL);
 }
 
-static tp_status solve(tp_network *net, answer *a, tp_diag *d)
+static tp_status solve(const tp_network *net, answer *a, tp_diag *d)
 {
     tp_status st;
     const tp_steady *shown;
+    tp_eval *ev = NULL;
     int src = net->has_control ? net->control.source : -1;
     a->max_duty = src >= 0 ? net->sources[src].max_duty : 1.0;
     a->holding = tp_network_holds(net);
@@ -52,16 +54,15 @@ static tp_status solve(tp_network *net, answer *a, tp_diag *d)
         return st;
     shown = a->holding ? &a->hold : &a->limit;
     st = tp_flows_init(&a->flows, net);
+    if (st == TP_OK)
+        st = tp_eval_create(net, &ev);
     if (st != TP_OK)
         return st;
-    if (src >= 0) {
-        double saved = net->duty[src];
-        net->duty[src] = shown->duty;
-        tp_network_flows(net, shown->temps, &a->flows);
-        net->duty[src] = saved;
-    } else {
-        tp_network_flows(net, shown->temps, &a->flows);
-    }
+    /* The flows at the state shown, with the controlled source at its duty there. */
+    if (src >= 0)
+        tp_eval_set_duty(ev, src, shown->duty);
+    tp_eval_flows(ev, shown->temps, &a->flows);
+    tp_eval_destroy(&ev);
     return TP_OK;
 }
 
@@ -105,7 +106,7 @@ static void print_map(FILE *fp, const tp_network *net, const double *t)
     tp_map_stats st;
     if (!map)
         return;
-    tp_network_surface_map(net, t, map);
+    tp_eval_surface_at(net, t, map);
     tp_map_stats_compute(g, map, &st);
     if (st.cells > 0) {
         fprintf(fp, "  working surface (%d x %d cells): mean %.2f, coldest %.2f at %.1f, %.1f mm, "
@@ -183,7 +184,7 @@ static void summary(FILE *fp, const tp_session *s, const answer *a)
         tp_map_stats st;
         layer_peak = malloc((size_t)g->n_layers * sizeof *layer_peak);
         if (map) {
-            tp_network_surface_map(net, shown->temps, map);
+            tp_eval_surface_at(net, shown->temps, map);
             tp_map_stats_compute(g, map, &st);
             ex.surface_max = st.max;
         }

@@ -7,10 +7,7 @@
 
 #include "diag.h"
 #include "status.h"
-
-#define TP_DOC_MAX_BYTES (1024 * 1024) /* largest config file read, bytes */
-#define TP_DOC_MAX_NODES 200000        /* nodes after alias expansion */
-#define TP_DOC_MAX_DEPTH 64            /* nesting of maps and sequences */
+#include "tplimits.h"
 
 typedef enum tp_doc_kind { TP_DOC_SCALAR, TP_DOC_MAP, TP_DOC_SEQ } tp_doc_kind;
 

@@ -259,15 +259,15 @@ static int detachable(const tp_network *net)
 
 /* The network of a detached sensor: a copy of `net` in which the sensor has lost every link to
  * the plate and keeps `loss` (W/K) to the air. */
-static tp_status detached_network(const tp_network *net, double loss, tp_network **out)
+static tp_status detached_network(const tp_network *net, double loss, const tp_network **out)
 {
     int sensor = net->control.sensor, air = air_node(net);
     char label[128];
     tp_net_change ch[2];
     snprintf(label, sizeof label, "%s detached to %s", net->nodes[sensor].id,
              net->nodes[air].id);
-    ch[0] = (tp_net_change){TP_CHANGE_ISOLATE, sensor, -1, 0.0, NULL};
-    ch[1] = (tp_net_change){TP_CHANGE_ADD_CONDUCTION, sensor, air, loss, label};
+    ch[0] = (tp_net_change){TP_CHANGE_ISOLATE, sensor, -1, 0.0, NULL, NULL};
+    ch[1] = (tp_net_change){TP_CHANGE_ADD_CONDUCTION, sensor, air, loss, label, NULL};
     return tp_network_copy(net, ch, 2, out);
 }
 
@@ -369,15 +369,15 @@ static double heater_temp(const tp_network *net, const double *temps)
 }
 
 /* The working surface: the estimate of the lumped plate, or the hottest cell of a gridded one
- * (`map`: its nx * ny scratch). */
-static double surface_temp(const tp_network *net, const double *temps, double *map)
+ * (`map`: its nx * ny scratch), through the run's evaluator. */
+static double surface_temp(tp_eval *ev, const double *temps, double *map)
 {
-    const tp_net_grid *g = net->grid;
+    const tp_net_grid *g = tp_eval_network(ev)->grid;
     double hot = -HUGE_VAL;
     int c;
     if (!g || !map)
-        return tp_network_surface(net, temps);
-    tp_network_surface_map(net, temps, map);
+        return tp_eval_surface(ev, temps);
+    tp_eval_surface_map(ev, temps, map);
     for (c = 0; c < g->nx * g->ny; c++)
         if (isfinite(map[c]) && map[c] > hot)
             hot = map[c];
@@ -391,7 +391,7 @@ static int record(void *user, const tp_sample *s)
     int k;
     for (k = 0; k < rc->tr->n_layers; k++)
         layers[k] = layer_temp(rc->net, rc->layers[k], s->temps);
-    if (trace_push(rc->tr, rc->t0 + s->t, s->reading, surface_temp(rc->net, s->temps, rc->map),
+    if (trace_push(rc->tr, rc->t0 + s->t, s->reading, surface_temp(s->eval, s->temps, rc->map),
                    heater_temp(rc->net, s->temps), s->duty, layers) != 0) {
         rc->failed = 1;
         return 1;
@@ -498,7 +498,7 @@ static int recorder_init(recorder *rc, ctx *cx, const tp_network *net, tp_guard_
 }
 
 /* Assemble quietly (corners repeat the nominal case's warnings); errors are passed on. */
-static tp_status build(ctx *cx, const tp_desc *desc, const char *what, tp_network **net)
+static tp_status build(ctx *cx, const tp_desc *desc, const char *what, const tp_network **net)
 {
     tp_diag quiet;
     tp_status rc;
@@ -542,23 +542,25 @@ static void add_cold_mass(const tp_network *from, const tp_network *to, double t
  * controller tick at or after its `after` time. The trace's last sample before a stage is
  * taken again by the stage's first tick, which reads the plate as changed (the sample before
  * the change is dropped); the controller's memory is replayed over every reading before it. */
-static tp_status run_hold(ctx *cx, const tp_desc *cd, tp_network *net, tp_guard_corner *c,
+static tp_status run_hold(ctx *cx, const tp_desc *cd, const tp_network *net, tp_guard_corner *c,
                           double *y, recorder *rc)
 {
     const tp_guard_study *st = cx->st;
     const tp_guard_spec *g = &st->desc->guard;
-    tp_network *cur = net, *varied = NULL;
+    const tp_network *cur = net;
+    const tp_network *varied = NULL;
     tp_net_change chg[2];
     double when[2], t_at = 0.0, gap;
     int ne = 0, applied = 0;
     tp_status rs = TP_OK;
     if (g->gust.present) {
         when[ne] = on_tick(g->gust.after, st->period);
-        chg[ne++] = (tp_net_change){TP_CHANGE_TOP_AIRFLOW, -1, -1, g->gust.airflow, NULL};
+        chg[ne++] = (tp_net_change){TP_CHANGE_TOP_AIRFLOW, -1, -1, g->gust.airflow, NULL, NULL};
     }
     if (g->sheet.present) {
         when[ne] = on_tick(g->sheet.after, st->period);
-        chg[ne++] = (tp_net_change){TP_CHANGE_TOP_CAPACITY, -1, -1, g->sheet.capacity, NULL};
+        chg[ne++] =
+            (tp_net_change){TP_CHANGE_TOP_CAPACITY, -1, -1, g->sheet.capacity, NULL, NULL};
     }
     if (ne == 2 && when[1] < when[0]) {
         double tw = when[0];
@@ -578,7 +580,7 @@ static tp_status run_hold(ctx *cx, const tp_desc *cd, tp_network *net, tp_guard_
         while (due < ne && when[due] <= t_at + TP_GUARD_TIME_EPS)
             due++;
         if (due > applied) {
-            tp_network *next = NULL;
+            const tp_network *next = NULL;
             rs = tp_network_copy(net, chg, due, &next);
             if (rs != TP_OK) {
                 const char *key = chg[due - 1].kind == TP_CHANGE_TOP_AIRFLOW ? "guard.gust"
@@ -589,7 +591,7 @@ static tp_status run_hold(ctx *cx, const tp_desc *cd, tp_network *net, tp_guard_
                 break;
             }
             add_cold_mass(cur, next, cd->room.temperature, y);
-            tp_network_destroy(&varied);
+            tp_network_release(&varied);
             varied = next;
             cur = varied;
             applied = due;
@@ -598,7 +600,7 @@ static tp_status run_hold(ctx *cx, const tp_desc *cd, tp_network *net, tp_guard_
         c->trace.n--; /* taken again by this stage's first tick */
         replay(&cur->control, c->trace.reading, c->trace.n, &ctrl, &gap);
         tp_diag_init(&quiet, NULL);
-        tp_integrate_defaults(cur, &o);
+        tp_integrate_defaults(&cd->run, &o);
         o.step = st->period;
         o.t_end = t_next - t_at;
         o.y0 = y;
@@ -621,7 +623,7 @@ static tp_status run_hold(ctx *cx, const tp_desc *cd, tp_network *net, tp_guard_
         t_at = t_next;
     }
     rc->net = net;
-    tp_network_destroy(&varied);
+    tp_network_release(&varied);
     return rs;
 }
 
@@ -630,7 +632,7 @@ static tp_status run_hold(ctx *cx, const tp_desc *cd, tp_network *net, tp_guard_
 static tp_status run_corner(ctx *cx, const tp_desc *cd, tp_guard_corner *c)
 {
     tp_guard_study *st = cx->st;
-    tp_network *net = NULL;
+    const tp_network *net = NULL;
     tp_integrate_opts o;
     tp_integrate_stats stats;
     tp_ctrl_state ctrl;
@@ -655,7 +657,7 @@ static tp_status run_corner(ctx *cx, const tp_desc *cd, tp_guard_corner *c)
         c->stuck_heater = heater_temp(net, full.temps);
     }
     rc.stop_level = st->setpoint;
-    tp_integrate_defaults(net, &o);
+    tp_integrate_defaults(&cd->run, &o);
     o.step = st->period;
     o.out = record;
     o.user = &rc;
@@ -694,17 +696,19 @@ done:
     tp_steady_clear(&full);
     free(rc.map);
     free(y);
-    tp_network_destroy(&net);
+    tp_network_release(&net);
     return rs;
 }
 
 /* One fault from the cold start or from the holding state of the nominal network, followed for
- * the horizon, on a copy of it (with the sensor detached for that fault). */
+ * the horizon: on the nominal network itself (the faults of the switch and the sensor's
+ * reading are hooks of the run), or on a copy with the sensor detached. */
 static tp_status run_fault(ctx *cx, const tp_network *nominal, tp_guard_fault_run *fr,
                            const tp_steady *hold)
 {
     tp_guard_study *st = cx->st;
-    tp_network *net = NULL;
+    const tp_network *detached = NULL;
+    const tp_network *net = nominal;
     tp_integrate_opts o;
     tp_integrate_stats stats;
     tp_ctrl_state ctrl;
@@ -715,11 +719,13 @@ static tp_status run_fault(ctx *cx, const tp_network *nominal, tp_guard_fault_ru
     double *y = NULL;
     char what[96];
     tp_status rs = fr->fault == TP_FAULT_DETACHED
-                       ? detached_network(nominal, st->detached_loss, &net)
-                       : tp_network_copy(nominal, NULL, 0, &net);
+                       ? detached_network(nominal, st->detached_loss, &detached)
+                       : TP_OK;
     memset(&rc, 0, sizeof rc);
     if (rs != TP_OK)
         return rs;
+    if (detached)
+        net = detached;
     tp_diag_init(&quiet, NULL);
     y = malloc((size_t)tp_network_state_size(net) * sizeof *y);
     if (!y || recorder_init(&rc, cx, net, &fr->trace, y) != 0) {
@@ -734,7 +740,7 @@ static tp_status run_fault(ctx *cx, const tp_network *nominal, tp_guard_fault_ru
     hooks.user = &h;
     hooks.reading = hook_reading;
     hooks.duty = hook_duty;
-    tp_integrate_defaults(net, &o);
+    tp_integrate_defaults(&st->desc->run, &o);
     o.step = st->period;
     o.t_end = st->horizon;
     o.out = record;
@@ -764,7 +770,7 @@ static tp_status run_fault(ctx *cx, const tp_network *nominal, tp_guard_fault_ru
 done:
     free(rc.map);
     free(y);
-    tp_network_destroy(&net);
+    tp_network_release(&detached);
     return rs;
 }
 
@@ -1360,7 +1366,7 @@ static tp_status check_control(const tp_desc *desc, const tp_doc *doc, const tp_
 tp_status tp_guard_study_run(const tp_desc *desc, const tp_doc *doc,
                              const tp_guard_settings *given, tp_guard_study *st, tp_diag *d)
 {
-    tp_network *net = NULL;
+    const tp_network *net = NULL;
     tp_steady hold;
     tp_diag quiet;
     tp_desc cd;
@@ -1490,7 +1496,7 @@ tp_status tp_guard_study_run(const tp_desc *desc, const tp_doc *doc,
         /* The corner with the hottest full-power heater layer, every layer against its
          * limit. */
         tp_guard_corner *w = &st->corners[st->stuck_worst];
-        tp_network *wn = NULL;
+        const tp_network *wn = NULL;
         tp_steady ws;
         memset(&ws, 0, sizeof ws);
         if (apply_corner(desc, net, &cd, w) == TP_OK && build(&cx, &cd, "corner", &wn) == TP_OK &&
@@ -1501,7 +1507,7 @@ tp_status tp_guard_study_run(const tp_desc *desc, const tp_doc *doc,
                     st->cutout_required = 1;
         }
         tp_steady_clear(&ws);
-        tp_network_destroy(&wn);
+        tp_network_release(&wn);
         tp_desc_clear(&cd);
     }
     for (fi = 0; fi < TP_FAULT_COUNT; fi++) {
@@ -1544,7 +1550,7 @@ tp_status tp_guard_study_run(const tp_desc *desc, const tp_doc *doc,
     tp_guard_evaluate(st, &st->used);
 done:
     tp_steady_clear(&hold);
-    tp_network_destroy(&net);
+    tp_network_release(&net);
     return rs;
 }
 

@@ -6,8 +6,7 @@
 
 #include "diag.h"
 #include "status.h"
-
-#define TP_PATH_MAX 4096 /* longest output path accepted, bytes */
+#include "tplimits.h"
 
 /* An output in progress. "-" means standard output, written directly. */
 typedef struct tp_outfile {

@@ -5,6 +5,7 @@
 #include <string.h>
 
 #include "desc.h"
+#include "eval.h"
 
 double tp_first_rise(const double *t, const double *v, long n, long stride, double level)
 {
@@ -189,7 +190,7 @@ void tp_metrics_compute(const tp_history *h, const tp_network *net, const tp_ste
     if (hold && hold->temps) {
         m->hold_power = hold->power;
         m->hold_duty = hold->duty;
-        m->surface_hold = tp_network_surface(net, hold->temps);
+        m->surface_hold = tp_eval_surface_at(net, hold->temps, NULL);
         if (isfinite(m->surface_hold))
             m->steady_offset = hold->reading - m->surface_hold;
     }

@@ -294,7 +294,7 @@ static inline int tp_run_status(const tp_scratch *s, const char *const *args)
 typedef struct tp_yaml_net {
     tp_doc *doc;
     tp_desc desc;
-    tp_network *net; /* NULL when the text did not assemble */
+    const tp_network *net; /* NULL when the text did not assemble */
     tp_diag diag;    /* messages kept in diag.log, not printed */
 } tp_yaml_net;
 
@@ -314,7 +314,7 @@ static inline tp_status tp_yaml_net_open(tp_yaml_net *y, const char *text)
 
 static inline void tp_yaml_net_close(tp_yaml_net *y)
 {
-    tp_network_destroy(&y->net);
+    tp_network_release(&y->net);
     tp_desc_clear(&y->desc);
     tp_doc_destroy(&y->doc);
 }
