@@ -391,6 +391,74 @@ static void test_copy_refuses_changes_that_cannot_apply(void **state)
     tp_yaml_net_close(&y);
 }
 
+/* A copy with another controller (tune's suggested gains): the copy runs it, the original
+ * keeps its own, and the copy's lumped twin gets it reading the node the grid's sensor was
+ * refined from, as assembly gives the twin the grid's own controller. */
+static void test_copy_with_another_controller(void **state)
+{
+    tp_yaml_net y;
+    const tp_network *copy = NULL;
+    tp_control c;
+    tp_net_change ch;
+    int from_sensor;
+    (void)state;
+    assert_int_equal(tp_yaml_net_open(&y, gridded), TP_OK);
+    assert_true(y.net->has_control);
+    from_sensor = y.net->grid->from[y.net->control.sensor];
+    /* Assembly: the twin's controller is the grid's, on the twin's sensor. */
+    assert_true(y.net->grid->lumped->has_control);
+    assert_int_equal(y.net->grid->lumped->control.sensor, from_sensor);
+    assert_true(y.net->grid->lumped->control.kp == y.net->control.kp);
+    c = y.net->control;
+    c.kp = 0.2;
+    c.setpoint = TP_TEST_KELVIN + 65.0;
+    ch = (tp_net_change){TP_CHANGE_CONTROL, -1, -1, 0.0, NULL, &c};
+    assert_int_equal(tp_network_copy(y.net, &ch, 1, &copy), TP_OK);
+    assert_true(copy->control.kp == 0.2 && copy->control.setpoint == c.setpoint);
+    assert_true(y.net->control.kp == 0.05); /* the config's */
+    assert_true(copy->grid->lumped->control.kp == 0.2);
+    assert_int_equal(copy->grid->lumped->control.sensor, from_sensor);
+    tp_network_release(&copy);
+    /* A controller reading a node that does not exist is refused. */
+    c.sensor = y.net->n_nodes;
+    assert_int_equal(tp_network_copy(y.net, &ch, 1, &copy), TP_ERR_CONFIG);
+    assert_null(copy);
+    tp_yaml_net_close(&y);
+}
+
+/* A copy whose heater a logged power drives (fit): a constant-power source of P at duty 1,
+ * with no series path. Closed form: it delivers P into its nodes whatever their temperature,
+ * and nothing is lost in wiring; the original's resistive heater is untouched. */
+static void test_copy_drives_a_source_by_power(void **state)
+{
+    tp_yaml_net y;
+    const tp_network *copy = NULL;
+    tp_net_change ch;
+    tp_flows fl;
+    double *yv, *t;
+    (void)state;
+    assert_int_equal(tp_yaml_net_open(&y, gridded), TP_OK);
+    ch = (tp_net_change){TP_CHANGE_SOURCE_POWER, 0, -1, 80.0, NULL, NULL};
+    assert_int_equal(tp_network_copy(y.net, &ch, 1, &copy), TP_OK);
+    assert_int_equal(copy->sources[0].kind, TP_SRC_POWER);
+    assert_int_equal(y.net->sources[0].kind, TP_SRC_ELECTRIC);
+    assert_true(copy->control.max_duty == 1.0);
+    yv = warm_state(copy);
+    t = calloc((size_t)copy->n_nodes, sizeof *t);
+    assert_non_null(t);
+    tp_network_temperatures(copy, yv, t);
+    flows_of(copy, t, &fl);
+    tp_check_rel("driven power", fl.src_power[0], 80.0, 1e-12);
+    assert_true(fl.src_wire[0] == 0.0);
+    tp_flows_clear(&fl);
+    free(yv);
+    free(t);
+    tp_network_release(&copy);
+    ch.a = y.net->n_sources; /* no such source */
+    assert_int_equal(tp_network_copy(y.net, &ch, 1, &copy), TP_ERR_CONFIG);
+    tp_yaml_net_close(&y);
+}
+
 /* ---- the oracle ------------------------------------------------------------------------------
  * The right-hand side evaluated link by link from the network alone, as docs/model.md writes
  * it, without the evaluator's compact arrays, matrix form or factored laws: this was the
@@ -1057,6 +1125,8 @@ int main(void)
         cmocka_unit_test(test_copy_sets_the_top_airflow),
         cmocka_unit_test(test_copy_of_a_lumped_plate_adds_capacity_to_its_top_node),
         cmocka_unit_test(test_copy_refuses_changes_that_cannot_apply),
+        cmocka_unit_test(test_copy_with_another_controller),
+        cmocka_unit_test(test_copy_drives_a_source_by_power),
         cmocka_unit_test(test_eval_rhs_matches_the_oracle),
         cmocka_unit_test(test_oracle_tells_a_different_network),
         cmocka_unit_test(test_two_evaluators_hold_their_own_duties),
