@@ -59,14 +59,56 @@ static double element_t(const tp_net_source *s, const double *t)
     return sum;
 }
 
+/* The running point: the holding point, or full power without a setpoint or when the
+ * setpoint is out of reach (a WARN of the budget); the same steady states as `steady` and
+ * `warmup`. Fills the heater's figures there into b. */
+static tp_status running_point(const tp_network *net, const tp_net_source *s, tp_budget *b,
+                               tp_diag *d)
+{
+    tp_steady run, full;
+    tp_status st;
+    size_t i;
+    double wire;
+    b->holding = tp_network_holds(net);
+    st = tp_steady_full(net, 1.0, &full, d);
+    if (st != TP_OK)
+        return st;
+    if (b->holding && full.reading >= net->control.setpoint) {
+        st = tp_steady_hold_given(net, net->control.setpoint, &full, &run, d);
+        tp_steady_clear(&full);
+        if (st != TP_OK)
+            return st;
+    } else {
+        run = full;
+        b->out_of_reach = b->holding;
+        b->holding = 0;
+    }
+    b->t_hold = element_t(s, run.temps);
+    b->hot_hold = tp_eval_surface_at(net, run.temps, NULL);
+    for (i = 0; i < (size_t)net->n_nodes; i++)
+        if (net->nodes[i].capacity > 0 && !(run.temps[i] <= b->node_hold))
+            b->node_hold = run.temps[i];
+    b->duty_hold = run.duty;
+    b->reading_full = run.reading;
+    if (s->kind == TP_SRC_ELECTRIC) {
+        b->i_hold_on = tp_network_source_current(s, run.temps);
+        b->p_hold = tp_network_source_power(s, run.temps, run.duty, &wire);
+    } else {
+        b->i_hold_on = s->power / b->v;
+        b->p_hold = run.duty * s->power;
+    }
+    b->i_hold_avg = b->duty_hold * b->i_hold_on;
+    tp_steady_clear(&run);
+    return TP_OK;
+}
+
 tp_status tp_budget_compute(const tp_desc *desc, const tp_network *net, tp_budget *b, tp_diag *d)
 {
     int src = tp_network_heater(net);
     const tp_net_source *s;
-    tp_steady run, full;
     tp_status st;
     size_t i;
-    double p_loads_v, wire;
+    double p_loads_v;
     memset(b, 0, sizeof *b);
     b->i_rating = TP_UNSET;
     b->node_hold = TP_UNSET;
@@ -101,39 +143,9 @@ tp_status tp_budget_compute(const tp_desc *desc, const tp_network *net, tp_budge
         b->i_cold = s->power / b->v;
         b->wire_cold = 0.0;
     }
-    /* The running point: the holding point, or full power without a setpoint or when the
-     * setpoint is out of reach (a WARN below); the same steady states as `steady` and
-     * `warmup`. */
-    b->holding = tp_network_holds(net);
-    st = tp_steady_full(net, 1.0, &full, d);
+    st = running_point(net, s, b, d);
     if (st != TP_OK)
         return st;
-    if (b->holding && full.reading >= net->control.setpoint) {
-        st = tp_steady_hold_given(net, net->control.setpoint, &full, &run, d);
-        tp_steady_clear(&full);
-        if (st != TP_OK)
-            return st;
-    } else {
-        run = full;
-        b->out_of_reach = b->holding;
-        b->holding = 0;
-    }
-    b->t_hold = element_t(s, run.temps);
-    b->hot_hold = tp_eval_surface_at(net, run.temps, NULL);
-    for (i = 0; i < (size_t)net->n_nodes; i++)
-        if (net->nodes[i].capacity > 0 && !(run.temps[i] <= b->node_hold))
-            b->node_hold = run.temps[i];
-    b->duty_hold = run.duty;
-    b->reading_full = run.reading;
-    if (s->kind == TP_SRC_ELECTRIC) {
-        b->i_hold_on = tp_network_source_current(s, run.temps);
-        b->p_hold = tp_network_source_power(s, run.temps, run.duty, &wire);
-    } else {
-        b->i_hold_on = s->power / b->v;
-        b->p_hold = run.duty * s->power;
-    }
-    b->i_hold_avg = b->duty_hold * b->i_hold_on;
-    tp_steady_clear(&run);
 
     /* Other loads on the supply. */
     for (i = 0; i < desc->n_loads; i++) {

@@ -356,28 +356,13 @@ static const char *weak_reason(const fit_run *f, int i)
     return "not identifiable from this log";
 }
 
-/* The config with the fitted values (and the --set overrides) written into its text. */
-static tp_status write_config(const char *path, const fit_run *f, tp_diag *d)
+/* The --set overrides of the run as edits (items, room for n_sets), but the keys that were
+ * fitted (the fitted value replaces its override); the last --set of a key wins, as when
+ * reading. Returns the count. */
+static int set_items(const fit_run *f, const char *const *sets, int n_sets,
+                     tp_confedit_item *items)
 {
-    const tp_cli *cli = f->s.cli;
-    const char *sets[TP_MAX_SETS];
-    int n_sets = tp_cli_all(cli, "set", sets, TP_MAX_SETS), n = 0, i, j;
-    tp_confedit_item *items = calloc((size_t)(n_sets + f->n_params + 1), sizeof *items);
-    char *comment = NULL, *text = NULL, v[96], s0[96], se[96];
-    size_t clen = 0, ccap = 4096;
-    tp_doc *orig = NULL, *back = NULL;
-    tp_desc check;
-    tp_outfile o;
-    tp_status st;
-
-    memset(&check, 0, sizeof check);
-    comment = malloc(ccap);
-    if (!items || !comment) {
-        free(items);
-        free(comment);
-        return TP_ERR_NOMEM;
-    }
-    /* --set overrides first; a fitted key replaces its override. */
+    int n = 0, i, j;
     for (i = 0; i < n_sets; i++) {
         const char *eq = strchr(sets[i], '=');
         size_t plen = eq ? (size_t)(eq - sets[i]) : 0;
@@ -396,10 +381,35 @@ static tp_status write_config(const char *path, const fit_run *f, tp_diag *d)
             if (strcmp(items[j].path, items[n].path) == 0)
                 break;
         if (j < n)
-            items[j] = items[n]; /* the last --set of a key wins, as when reading */
+            items[j] = items[n];
         else
             n++;
     }
+    return n;
+}
+
+/* The config with the fitted values (and the --set overrides) written into its text. */
+static tp_status write_config(const char *path, const fit_run *f, tp_diag *d)
+{
+    const tp_cli *cli = f->s.cli;
+    const char *sets[TP_MAX_SETS];
+    int n_sets = tp_cli_all(cli, "set", sets, TP_MAX_SETS), n, i;
+    tp_confedit_item *items = calloc((size_t)(n_sets + f->n_params + 1), sizeof *items);
+    char *comment = NULL, *text = NULL, v[96], s0[96], se[96];
+    size_t clen = 0, ccap = 4096;
+    tp_doc *orig = NULL, *back = NULL;
+    tp_desc check;
+    tp_outfile o;
+    tp_status st;
+
+    memset(&check, 0, sizeof check);
+    comment = malloc(ccap);
+    if (!items || !comment) {
+        free(items);
+        free(comment);
+        return TP_ERR_NOMEM;
+    }
+    n = set_items(f, sets, n_sets, items);
     clen += (size_t)snprintf(comment + clen, ccap - clen,
                              "# Calibrated with 'tepid fit' against %s (%ld rows; the heater\n"
                              "# followed %s; RMS residual %.3g K).\n"

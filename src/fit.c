@@ -799,24 +799,16 @@ static void jacobi_eigen(double *a, int p, double *w, double *v)
         w[i] = a[i * p + i];
 }
 
-/* Jacobian in v (ln x or x) by central differences at u*, then the covariance, standard errors,
- * correlations and flags. `f0` holds the residuals at the optimum. */
-static tp_status statistics(lmctx *c, const double *ubest, const double *f0, tp_fit_result *res)
+/* The model's Jacobian in v (ln x or x) by central differences at u* (one-sided at a bound)
+ * into jac (m x p, column major; a column whose runs fail is zero). `f0` holds the residuals
+ * at the optimum, `fa` is m entries of work. */
+static void model_jacobian(lmctx *c, const double *ubest, const double *f0, double *fa,
+                           double *jac)
 {
     const tp_fit_problem *pb = c->pb;
-    int p = pb->n_params, i, j, k;
+    int p = pb->n_params, j, k;
     long m = pb->log->n, r;
-    double *jac = malloc((size_t)m * (size_t)p * sizeof *jac), *fa = malloc((size_t)m * sizeof *fa);
-    double a[TP_FIT_MAX_PARAMS * TP_FIT_MAX_PARAMS], v[TP_FIT_MAX_PARAMS * TP_FIT_MAX_PARAMS];
-    double w[TP_FIT_MAX_PARAMS], scale[TP_FIT_MAX_PARAMS],
-        cov[TP_FIT_MAX_PARAMS * TP_FIT_MAX_PARAMS];
-    double x[TP_FIT_MAX_PARAMS], wmax = 0.0, s2;
-    int lost[TP_FIT_MAX_PARAMS];
-    if (!jac || !fa) {
-        free(jac);
-        free(fa);
-        return TP_ERR_NOMEM;
-    }
+    double x[TP_FIT_MAX_PARAMS];
     for (j = 0; j < p; j++) {
         double ua = ubest[j] + TP_FIT_COV_STEP, ub = ubest[j] - TP_FIT_COV_STEP, du;
         int ok;
@@ -839,6 +831,27 @@ static tp_status statistics(lmctx *c, const double *ubest, const double *f0, tp_
         for (r = 0; r < m; r++)
             jac[r + (long)j * m] = ok ? (fa[r] - c->fh[r]) / du : 0.0;
     }
+}
+
+/* Jacobian in v (ln x or x) by central differences at u*, then the covariance, standard errors,
+ * correlations and flags. `f0` holds the residuals at the optimum. */
+static tp_status statistics(lmctx *c, const double *ubest, const double *f0, tp_fit_result *res)
+{
+    const tp_fit_problem *pb = c->pb;
+    int p = pb->n_params, i, j, k;
+    long m = pb->log->n, r;
+    double *jac = malloc((size_t)m * (size_t)p * sizeof *jac), *fa = malloc((size_t)m * sizeof *fa);
+    double a[TP_FIT_MAX_PARAMS * TP_FIT_MAX_PARAMS], v[TP_FIT_MAX_PARAMS * TP_FIT_MAX_PARAMS];
+    double w[TP_FIT_MAX_PARAMS], scale[TP_FIT_MAX_PARAMS],
+        cov[TP_FIT_MAX_PARAMS * TP_FIT_MAX_PARAMS];
+    double wmax = 0.0, s2;
+    int lost[TP_FIT_MAX_PARAMS];
+    if (!jac || !fa) {
+        free(jac);
+        free(fa);
+        return TP_ERR_NOMEM;
+    }
+    model_jacobian(c, ubest, f0, fa, jac);
     /* A = J^T J, normalised to unit diagonal for the eigen-decomposition. */
     for (i = 0; i < p; i++)
         for (j = 0; j < p; j++) {
@@ -923,20 +936,144 @@ void tp_fit_result_clear(tp_fit_result *res)
     memset(res, 0, sizeof *res);
 }
 
+/* Levenberg-Marquardt (MINPACK's lmder) from `starts` starting points: the starting values,
+ * then a Halton sequence over the bounds. Each start's residual sum into rss_of; the best
+ * one's point (in z) into zbest, its residuals into fbest, its sum into *best and lmder's
+ * return into *best_info. A start that merges into the best minimum counts as reaching it.
+ * TP_OK, or TP_ERR_NOMEM. */
+static tp_status run_starts(lmctx *c, int starts, double *rss_of, double *zbest, double *fbest,
+                            double *best, int *best_info, tp_fit_result *res)
+{
+    const tp_fit_problem *pb = c->pb;
+    int p = pb->n_params, m = (int)pb->log->n, s, k, info;
+    double z[TP_FIT_MAX_PARAMS], diag[TP_FIT_MAX_PARAMS], qtf[TP_FIT_MAX_PARAMS];
+    double wa1[TP_FIT_MAX_PARAMS], wa2[TP_FIT_MAX_PARAMS], wa3[TP_FIT_MAX_PARAMS];
+    int ipvt[TP_FIT_MAX_PARAMS];
+    double *fvec = malloc((size_t)m * sizeof *fvec);
+    double *fjac = malloc((size_t)m * (size_t)p * sizeof *fjac);
+    double *wa4 = malloc((size_t)m * sizeof *wa4);
+    if (!fvec || !fjac || !wa4) {
+        free(fvec);
+        free(fjac);
+        free(wa4);
+        return TP_ERR_NOMEM;
+    }
+    for (s = 0; s < starts; s++) {
+        int nfev = 0, njev = 0;
+        for (k = 0; k < p; k++) {
+            double u =
+                s == 0 ? x_to_u(&pb->params[k], pb->params[k].start) : halton(s, halton_base[k]);
+            if (u < TP_FIT_U_START_MIN)
+                u = TP_FIT_U_START_MIN;
+            if (u > 1.0 - TP_FIT_U_START_MIN)
+                u = 1.0 - TP_FIT_U_START_MIN;
+            z[k] = u_to_z(u);
+        }
+        info =
+            lmder(lm_fcn, c, m, p, z, fvec, fjac, m, TP_FIT_FTOL, TP_FIT_XTOL, 0.0, TP_FIT_MAXFEV,
+                  diag, 1, TP_FIT_FACTOR, 0, &nfev, &njev, ipvt, qtf, wa1, wa2, wa3, wa4);
+        rss_of[s] = sum_sq(fvec, m);
+        if (c->merged) {
+            rss_of[s] = *best; /* it was on its way to the best minimum */
+            c->merged = 0;
+            res->starts_run++;
+            continue;
+        }
+        res->starts_run++;
+        if (rss_of[s] < *best) {
+            *best = rss_of[s];
+            *best_info = info;
+            memcpy(zbest, z, (size_t)p * sizeof *z);
+            memcpy(fbest, fvec, (size_t)m * sizeof *fvec);
+        }
+        c->have_best = 1;
+        c->best_rss = *best;
+        for (k = 0; k < p; k++)
+            c->best_u[k] = z_to_u(zbest[k]);
+    }
+    free(fvec);
+    free(fjac);
+    free(wa4);
+    return TP_OK;
+}
+
+/* The fitted model (at x) once more, watching the peaks for the cautions: its reading into
+ * res->model, its residuals into f, their statistics and the exposure into res. */
+static tp_status fitted_run(evaluator *ev, const double *x, double *f, tp_fit_result *res,
+                            tp_diag *d)
+{
+    const tp_log *log = ev->pb->log;
+    long i;
+    ev->track = 1;
+    for (i = 0; i < ev->n_nodes; i++)
+        ev->peak[i] = -HUGE_VAL;
+    if (evaluate(ev, x, res->model, NULL) != 0) {
+        tp_diag_error(d, tp_loc_none(), NULL, NULL,
+                      "the model run with the fitted values failed: %s", ev->why);
+        return TP_ERR_SOLVER;
+    }
+    ev->track = 0;
+    res->n_nodes = ev->n_nodes;
+    memcpy(res->node_peak, ev->peak, (size_t)ev->n_nodes * sizeof *ev->peak);
+    res->surface_max = ev->surface_max;
+    res->current_max = ev->current_max;
+    res->node_max = -HUGE_VAL;
+    for (i = 0; i < ev->n_nodes; i++)
+        res->node_max = fmax(res->node_max, ev->peak[i]);
+    res->rss = 0.0;
+    res->max_abs = -1.0;
+    for (i = 0; i < log->n; i++) {
+        double r = res->model[i] - log->reading[i];
+        f[i] = r;
+        res->rss += r * r;
+        if (fabs(r) > res->max_abs) {
+            res->max_abs = fabs(r);
+            res->max_row = i;
+        }
+    }
+    res->rms = sqrt(res->rss / (double)log->n);
+    res->sigma = sqrt(res->rss / (double)res->dof);
+    return TP_OK;
+}
+
+/* The starting values must give a model run (into res->model_start): report why not, and warn
+ * when the model does not start where the log does. */
+static tp_status start_run(evaluator *ev, tp_fit_result *res, tp_diag *d)
+{
+    const tp_fit_problem *pb = ev->pb;
+    const tp_log *log = pb->log;
+    double x[TP_FIT_MAX_PARAMS];
+    int k;
+    for (k = 0; k < pb->n_params; k++)
+        x[k] = pb->params[k].start;
+    if (evaluate(ev, x, res->model_start, NULL) != 0) {
+        tp_diag_error(d, tp_loc_none(), NULL,
+                      "check the config with 'tepid warmup' and the bounds of --free",
+                      "the model run with the starting values failed: %s", ev->why);
+        return TP_ERR_SOLVER;
+    }
+    if (fabs(res->model_start[0] - log->reading[0]) > TP_FIT_START_MISMATCH) {
+        char hint[256];
+        snprintf(hint, sizeof hint,
+                 "start the log with the plate cold, or set room.temperature to the log's "
+                 "start (--set room.temperature=%.1fdegC)",
+                 log->reading[0] - 273.15);
+        tp_diag_warn(d, (tp_loc){log->name, log->line[0], 1}, NULL, hint,
+                     "the log starts at %.1f degC but the model starts at %.1f degC",
+                     log->reading[0] - 273.15, res->model_start[0] - 273.15);
+    }
+    return TP_OK;
+}
+
 tp_status tp_fit_run(const tp_fit_problem *pb, tp_fit_result *res, tp_diag *d)
 {
     const tp_log *log = pb->log;
-    int p = pb->n_params, m, s, k, starts, info = 0, best_info = 0;
+    int p = pb->n_params, m, s, k, starts, best_info = 0;
     double t0 = now_seconds(), best = HUGE_VAL, zbest[TP_FIT_MAX_PARAMS], ubest[TP_FIT_MAX_PARAMS];
-    double z[TP_FIT_MAX_PARAMS], x[TP_FIT_MAX_PARAMS], diag[TP_FIT_MAX_PARAMS];
-    double qtf[TP_FIT_MAX_PARAMS], wa1[TP_FIT_MAX_PARAMS], wa2[TP_FIT_MAX_PARAMS];
-    double wa3[TP_FIT_MAX_PARAMS], *rss_of = NULL;
-    int ipvt[TP_FIT_MAX_PARAMS];
-    double *fvec = NULL, *fjac = NULL, *wa4 = NULL, *fbest = NULL;
+    double x[TP_FIT_MAX_PARAMS], *rss_of = NULL, *fbest = NULL;
     evaluator ev;
     lmctx c;
     tp_status st;
-    long i;
 
     memset(res, 0, sizeof *res);
     memset(&c, 0, sizeof c);
@@ -964,75 +1101,25 @@ tp_status tp_fit_run(const tp_fit_problem *pb, tp_fit_result *res, tp_diag *d)
     res->model_start = malloc((size_t)m * sizeof *res->model_start);
     res->corr = malloc((size_t)p * (size_t)p * sizeof *res->corr);
     res->node_peak = malloc((size_t)(ev.n_nodes > 0 ? ev.n_nodes : 1) * sizeof *res->node_peak);
-    fvec = malloc((size_t)m * sizeof *fvec);
     fbest = malloc((size_t)m * sizeof *fbest);
-    fjac = malloc((size_t)m * (size_t)p * sizeof *fjac);
-    wa4 = malloc((size_t)m * sizeof *wa4);
     c.model = malloc((size_t)m * sizeof *c.model);
     c.fh = malloc((size_t)m * sizeof *c.fh);
     rss_of = malloc((size_t)starts * sizeof *rss_of);
-    if (!res->model || !res->model_start || !res->corr || !res->node_peak || !fvec || !fbest ||
-        !fjac || !wa4 || !c.model || !c.fh || !rss_of) {
+    if (!res->model || !res->model_start || !res->corr || !res->node_peak || !fbest || !c.model ||
+        !c.fh || !rss_of) {
         st = TP_ERR_NOMEM;
         goto done;
     }
     c.ev = &ev;
     c.pb = pb;
 
-    /* The starting values must give a model run: report why not. */
-    for (k = 0; k < p; k++)
-        x[k] = pb->params[k].start;
-    if (evaluate(&ev, x, res->model_start, NULL) != 0) {
-        tp_diag_error(d, tp_loc_none(), NULL,
-                      "check the config with 'tepid warmup' and the bounds of --free",
-                      "the model run with the starting values failed: %s", ev.why);
-        st = TP_ERR_SOLVER;
+    st = start_run(&ev, res, d);
+    if (st != TP_OK)
         goto done;
-    }
-    if (fabs(res->model_start[0] - log->reading[0]) > TP_FIT_START_MISMATCH) {
-        char hint[256];
-        snprintf(hint, sizeof hint,
-                 "start the log with the plate cold, or set room.temperature to the log's "
-                 "start (--set room.temperature=%.1fdegC)",
-                 log->reading[0] - 273.15);
-        tp_diag_warn(d, (tp_loc){log->name, log->line[0], 1}, NULL, hint,
-                     "the log starts at %.1f degC but the model starts at %.1f degC",
-                     log->reading[0] - 273.15, res->model_start[0] - 273.15);
-    }
 
-    for (s = 0; s < starts; s++) {
-        int nfev = 0, njev = 0;
-        for (k = 0; k < p; k++) {
-            double u =
-                s == 0 ? x_to_u(&pb->params[k], pb->params[k].start) : halton(s, halton_base[k]);
-            if (u < TP_FIT_U_START_MIN)
-                u = TP_FIT_U_START_MIN;
-            if (u > 1.0 - TP_FIT_U_START_MIN)
-                u = 1.0 - TP_FIT_U_START_MIN;
-            z[k] = u_to_z(u);
-        }
-        info =
-            lmder(lm_fcn, &c, m, p, z, fvec, fjac, m, TP_FIT_FTOL, TP_FIT_XTOL, 0.0, TP_FIT_MAXFEV,
-                  diag, 1, TP_FIT_FACTOR, 0, &nfev, &njev, ipvt, qtf, wa1, wa2, wa3, wa4);
-        rss_of[s] = sum_sq(fvec, m);
-        if (c.merged) {
-            rss_of[s] = best; /* it was on its way to the best minimum */
-            c.merged = 0;
-            res->starts_run++;
-            continue;
-        }
-        res->starts_run++;
-        if (rss_of[s] < best) {
-            best = rss_of[s];
-            best_info = info;
-            memcpy(zbest, z, (size_t)p * sizeof *z);
-            memcpy(fbest, fvec, (size_t)m * sizeof *fvec);
-        }
-        c.have_best = 1;
-        c.best_rss = best;
-        for (k = 0; k < p; k++)
-            c.best_u[k] = z_to_u(zbest[k]);
-    }
+    st = run_starts(&c, starts, rss_of, zbest, fbest, &best, &best_info, res);
+    if (st != TP_OK)
+        goto done;
     if (!(best < TP_FIT_PENALTY * TP_FIT_PENALTY * 0.5 * m)) {
         tp_diag_error(d, tp_loc_none(), NULL, "check the config and the bounds of --free",
                       "no model run succeeded during the fit: %s", ev.why);
@@ -1049,47 +1136,15 @@ tp_status tp_fit_run(const tp_fit_problem *pb, tp_fit_result *res, tp_diag *d)
         x[k] = pb->params[k].value;
     }
 
-    /* The fitted model once more, watching the peaks for the cautions. */
-    ev.track = 1;
-    for (i = 0; i < ev.n_nodes; i++)
-        ev.peak[i] = -HUGE_VAL;
-    if (evaluate(&ev, x, res->model, NULL) != 0) {
-        tp_diag_error(d, tp_loc_none(), NULL, NULL,
-                      "the model run with the fitted values failed: %s", ev.why);
-        st = TP_ERR_SOLVER;
-        goto done;
-    }
-    ev.track = 0;
-    res->n_nodes = ev.n_nodes;
-    memcpy(res->node_peak, ev.peak, (size_t)ev.n_nodes * sizeof *ev.peak);
-    res->surface_max = ev.surface_max;
-    res->current_max = ev.current_max;
-    res->node_max = -HUGE_VAL;
-    for (i = 0; i < ev.n_nodes; i++)
-        res->node_max = fmax(res->node_max, ev.peak[i]);
-    res->rss = 0.0;
-    res->max_abs = -1.0;
-    for (i = 0; i < m; i++) {
-        double r = res->model[i] - log->reading[i];
-        fbest[i] = r;
-        res->rss += r * r;
-        if (fabs(r) > res->max_abs) {
-            res->max_abs = fabs(r);
-            res->max_row = i;
-        }
-    }
-    res->rms = sqrt(res->rss / m);
-    res->sigma = sqrt(res->rss / (double)res->dof);
-    st = statistics(&c, ubest, fbest, res);
+    st = fitted_run(&ev, x, fbest, res, d);
+    if (st == TP_OK)
+        st = statistics(&c, ubest, fbest, res);
 done:
     res->evals = ev.evals;
     res->failed_runs = c.fails;
     res->seconds = now_seconds() - t0;
     evaluator_clear(&ev);
-    free(fvec);
     free(fbest);
-    free(fjac);
-    free(wa4);
     free(c.model);
     free(c.fh);
     free(rss_of);

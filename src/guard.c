@@ -1363,36 +1363,36 @@ static tp_status check_control(const tp_desc *desc, const tp_doc *doc, const tp_
     return TP_OK;
 }
 
-tp_status tp_guard_study_run(const tp_desc *desc, const tp_doc *doc,
-                             const tp_guard_settings *given, tp_guard_study *st, tp_diag *d)
+/* The study's corners: nominal first, then every combination of the ends of the factors
+ * (factors with one level stay fixed). */
+static void make_corners(tp_guard_study *st, const factor f[4], const tp_guard_corner *nominal)
 {
-    const tp_network *net = NULL;
-    tp_steady hold;
-    tp_diag quiet;
-    tp_desc cd;
-    factor f[4];
-    tp_guard_corner nominal;
-    tp_guard_settings none = {0, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET};
-    ctx cx;
-    tp_status rs;
-    int c, k, fi, n2 = 0, mask;
-    memset(st, 0, sizeof *st);
-    memset(&hold, 0, sizeof hold);
-    memset(&cd, 0, sizeof cd);
-    memset(&nominal, 0, sizeof nominal);
-    st->desc = desc;
-    st->stuck_worst = st->stuck_over_layer = -1;
-    if (!given)
-        given = &none;
-    cx.st = st;
-    cx.doc = doc;
-    cx.d = d;
-    rs = build(&cx, desc, "nominal case", &net);
-    if (rs != TP_OK)
-        return rs;
-    rs = check_control(desc, doc, net, d);
-    if (rs != TP_OK)
-        goto done;
+    int k, mask, n2 = 0;
+    for (k = 0; k < 4; k++)
+        n2 += f[k].n == 2;
+    st->corners[0] = *nominal;
+    snprintf(st->corners[0].name, sizeof st->corners[0].name, "nominal");
+    st->n_corners = 1;
+    for (mask = 0; n2 > 0 && mask < (1 << n2); mask++) {
+        tp_guard_corner *co = &st->corners[st->n_corners++];
+        double v[4];
+        int bit = 0;
+        for (k = 0; k < 4; k++)
+            v[k] = f[k].n == 2 ? f[k].level[(mask >> bit++) & 1] : f[k].level[0];
+        memset(co, 0, sizeof *co);
+        co->supply = v[0];
+        co->resistance = v[1];
+        co->room = v[2];
+        co->airflow = v[3];
+        corner_name(co, f);
+    }
+}
+
+/* The nominal network's figures the study works with: setpoint, period, duty limit, reading
+ * resolution, the faults' horizon, a detached sensor's loss and the pinned readings of a
+ * shorted or open sensor. */
+static void study_settings(tp_guard_study *st, const tp_desc *desc, const tp_network *net)
+{
     st->setpoint = net->control.setpoint;
     st->period = net->control.period;
     st->max_duty = net->control.max_duty;
@@ -1418,31 +1418,130 @@ tp_status tp_guard_study_run(const tp_desc *desc, const tp_doc *doc,
         st->pin_high = TP_GUARD_PIN_HIGH;
         st->pin_low = TP_GUARD_PIN_LOW;
     }
+}
+
+/* The stuck-on heater: the full-power equilibrium of the nominal case and which study layer it
+ * takes furthest past its limit, the corner whose heater runs hottest at full power, and
+ * whether a thermal cutout is required (some layer past its limit at full power in the
+ * nominal case, or in that corner). */
+static void stuck_on(ctx *cx, const tp_desc *desc, const tp_network *net)
+{
+    tp_guard_study *st = cx->st;
+    tp_diag quiet;
+    tp_desc cd;
+    int c, k;
+    memset(&cd, 0, sizeof cd);
+    tp_diag_init(&quiet, NULL);
+    st->has_stuck = tp_steady_full(net, 1.0, &st->stuck, &quiet) == TP_OK;
+    if (st->has_stuck) {
+        double over = -HUGE_VAL;
+        st->stuck.reading = st->stuck.temps[net->control.sensor] + net->control.reading.offset;
+        layer_refs(st, net, cx->layers);
+        for (k = 0; k < st->n_layers; k++) {
+            double t = layer_temp(net, cx->layers[k], st->stuck.temps) - st->layer_limit[k];
+            if (t > 0 && t > over) {
+                over = t;
+                st->stuck_over_layer = k;
+            }
+        }
+    }
+    for (c = 0; c < st->n_corners; c++)
+        if (isfinite(st->corners[c].stuck_heater) &&
+            (st->stuck_worst < 0 ||
+             st->corners[c].stuck_heater > st->corners[st->stuck_worst].stuck_heater))
+            st->stuck_worst = c;
+    st->cutout_required = st->stuck_over_layer >= 0;
+    if (st->stuck_worst >= 0 && !st->cutout_required) {
+        /* The corner with the hottest full-power heater layer, every layer against its
+         * limit. */
+        tp_guard_corner *w = &st->corners[st->stuck_worst];
+        const tp_network *wn = NULL;
+        tp_steady ws;
+        memset(&ws, 0, sizeof ws);
+        if (apply_corner(desc, net, &cd, w) == TP_OK && build(cx, &cd, "corner", &wn) == TP_OK &&
+            tp_steady_full(wn, 1.0, &ws, &quiet) == TP_OK) {
+            layer_refs(st, wn, cx->layers);
+            for (k = 0; k < st->n_layers; k++)
+                if (layer_temp(wn, cx->layers[k], ws.temps) > st->layer_limit[k])
+                    st->cutout_required = 1;
+        }
+        tp_steady_clear(&ws);
+        tp_network_release(&wn);
+        tp_desc_clear(&cd);
+    }
+}
+
+/* The settings recommended from scratch (st->rec); then, when settings are given, those used
+ * (st->used): the given ones, each missing member recommended consistently with them. */
+static void recommend_all(tp_guard_study *st, const tp_guard_settings *given)
+{
+    tp_guard_settings none = {0, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET};
+    int k;
+    /* Recommend from scratch; then, when settings are given, complete them: each missing
+     * member is recommended consistently with the given ones. */
+    st->rec = none;
+    recommend_approach(st, &st->rec);
+    recommend_rise(st, &none, &st->rec);
+    recommend_hold(st, &none, &st->rec);
+    recommend_ceiling(st, &st->rec);
+    st->used = st->rec;
+    if (given->present) {
+        double raw = st->rise_min_raw;
+        st->used = none;
+        st->used.approach = given->approach;
+        if (!isfinite(given->approach))
+            recommend_approach(st, &st->used);
+        recommend_rise(st, given, &st->used);
+        recommend_hold(st, given, &st->used);
+        recommend_ceiling(st, &st->used);
+        st->rise_min_raw = raw;
+    }
+    for (k = 0; k < TP_G_COUNT; k++) {
+        tp_guard_settings gv = *given;
+        st->given[k] = isfinite(*setting_ptr(&gv, k));
+        if (st->given[k])
+            *setting_ptr(&st->used, k) = *setting_ptr(&gv, k);
+    }
+}
+
+tp_status tp_guard_study_run(const tp_desc *desc, const tp_doc *doc,
+                             const tp_guard_settings *given, tp_guard_study *st, tp_diag *d)
+{
+    const tp_network *net = NULL;
+    tp_steady hold;
+    tp_diag quiet;
+    tp_desc cd;
+    factor f[4];
+    tp_guard_corner nominal;
+    tp_guard_settings none = {0, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET};
+    ctx cx;
+    tp_status rs;
+    int c, k, fi;
+    memset(st, 0, sizeof *st);
+    memset(&hold, 0, sizeof hold);
+    memset(&cd, 0, sizeof cd);
+    memset(&nominal, 0, sizeof nominal);
+    st->desc = desc;
+    st->stuck_worst = st->stuck_over_layer = -1;
+    if (!given)
+        given = &none;
+    cx.st = st;
+    cx.doc = doc;
+    cx.d = d;
+    rs = build(&cx, desc, "nominal case", &net);
+    if (rs != TP_OK)
+        return rs;
+    rs = check_control(desc, doc, net, d);
+    if (rs != TP_OK)
+        goto done;
+    study_settings(st, desc, net);
     setup_layers(st);
     rs = tp_guard_ranges_resolve(desc, doc, net, &st->ranges, d);
     if (rs == TP_OK)
         rs = factors(&cx, f, &nominal);
     if (rs != TP_OK)
         goto done;
-    /* Nominal first, then every combination of the ends (factors with one level fixed). */
-    for (k = 0; k < 4; k++)
-        n2 += f[k].n == 2;
-    st->corners[0] = nominal;
-    snprintf(st->corners[0].name, sizeof st->corners[0].name, "nominal");
-    st->n_corners = 1;
-    for (mask = 0; n2 > 0 && mask < (1 << n2); mask++) {
-        tp_guard_corner *co = &st->corners[st->n_corners++];
-        double v[4];
-        int bit = 0;
-        for (k = 0; k < 4; k++)
-            v[k] = f[k].n == 2 ? f[k].level[(mask >> bit++) & 1] : f[k].level[0];
-        memset(co, 0, sizeof *co);
-        co->supply = v[0];
-        co->resistance = v[1];
-        co->room = v[2];
-        co->airflow = v[3];
-        corner_name(co, f);
-    }
+    make_corners(st, f, &nominal);
     for (c = 0; c < st->n_corners; c++) {
         rs = apply_corner(desc, net, &cd, &st->corners[c]);
         if (rs == TP_OK)
@@ -1473,43 +1572,7 @@ tp_status tp_guard_study_run(const tp_desc *desc, const tp_doc *doc,
         rs = TP_ERR_SOLVER;
         goto done;
     }
-    st->has_stuck = tp_steady_full(net, 1.0, &st->stuck, &quiet) == TP_OK;
-    if (st->has_stuck) {
-        double over = -HUGE_VAL;
-        st->stuck.reading = st->stuck.temps[net->control.sensor] + net->control.reading.offset;
-        layer_refs(st, net, cx.layers);
-        for (k = 0; k < st->n_layers; k++) {
-            double t = layer_temp(net, cx.layers[k], st->stuck.temps) - st->layer_limit[k];
-            if (t > 0 && t > over) {
-                over = t;
-                st->stuck_over_layer = k;
-            }
-        }
-    }
-    for (c = 0; c < st->n_corners; c++)
-        if (isfinite(st->corners[c].stuck_heater) &&
-            (st->stuck_worst < 0 ||
-             st->corners[c].stuck_heater > st->corners[st->stuck_worst].stuck_heater))
-            st->stuck_worst = c;
-    st->cutout_required = st->stuck_over_layer >= 0;
-    if (st->stuck_worst >= 0 && !st->cutout_required) {
-        /* The corner with the hottest full-power heater layer, every layer against its
-         * limit. */
-        tp_guard_corner *w = &st->corners[st->stuck_worst];
-        const tp_network *wn = NULL;
-        tp_steady ws;
-        memset(&ws, 0, sizeof ws);
-        if (apply_corner(desc, net, &cd, w) == TP_OK && build(&cx, &cd, "corner", &wn) == TP_OK &&
-            tp_steady_full(wn, 1.0, &ws, &quiet) == TP_OK) {
-            layer_refs(st, wn, cx.layers);
-            for (k = 0; k < st->n_layers; k++)
-                if (layer_temp(wn, cx.layers[k], ws.temps) > st->layer_limit[k])
-                    st->cutout_required = 1;
-        }
-        tp_steady_clear(&ws);
-        tp_network_release(&wn);
-        tp_desc_clear(&cd);
-    }
+    stuck_on(&cx, desc, net);
     for (fi = 0; fi < TP_FAULT_COUNT; fi++) {
         for (k = 0; k < 2; k++) {
             tp_guard_fault_run *fr = &st->faults[fi][k];
@@ -1522,31 +1585,7 @@ tp_status tp_guard_study_run(const tp_desc *desc, const tp_doc *doc,
                 goto done;
         }
     }
-    /* Recommend from scratch; then, when settings are given, complete them: each missing
-     * member is recommended consistently with the given ones. */
-    st->rec = none;
-    recommend_approach(st, &st->rec);
-    recommend_rise(st, &none, &st->rec);
-    recommend_hold(st, &none, &st->rec);
-    recommend_ceiling(st, &st->rec);
-    st->used = st->rec;
-    if (given->present) {
-        double raw = st->rise_min_raw;
-        st->used = none;
-        st->used.approach = given->approach;
-        if (!isfinite(given->approach))
-            recommend_approach(st, &st->used);
-        recommend_rise(st, given, &st->used);
-        recommend_hold(st, given, &st->used);
-        recommend_ceiling(st, &st->used);
-        st->rise_min_raw = raw;
-    }
-    for (k = 0; k < TP_G_COUNT; k++) {
-        tp_guard_settings gv = *given;
-        st->given[k] = isfinite(*setting_ptr(&gv, k));
-        if (st->given[k])
-            *setting_ptr(&st->used, k) = *setting_ptr(&gv, k);
-    }
+    recommend_all(st, given);
     tp_guard_evaluate(st, &st->used);
 done:
     tp_steady_clear(&hold);

@@ -133,28 +133,12 @@ static int limit_cycle(const tp_history *h, tp_metrics *m)
     return 1;
 }
 
-void tp_metrics_compute(const tp_history *h, const tp_network *net, const tp_steady *hold,
-                        const tp_steady *full, tp_metrics *m)
+/* Power, duty, wiring and current over the run (h->n > 0 rows, ns sources). */
+static void power_figures(const tp_history *h, int ns, tp_metrics *m)
 {
     long n = h->n, i;
-    int k, ns = net->n_sources, has_sp;
+    int k;
     double sum = 0.0;
-    const double u = TP_UNSET;
-    *m = (tp_metrics){.setpoint = u, .t_setpoint = u, .surface_hold = u, .t_surface_ready = u,
-                      .overshoot_reading = u, .overshoot_surface = u, .steady_offset = u,
-                      .lag = u, .lag_k = u, .ready_low = u, .ready_high = u,
-                      .cycle_period = u, .cycle_min = u, .cycle_max = u, .cycle_mean = u,
-                      .ready_basis = TP_READY_NONE, .energy_to_ready = u, .power_mean = u, .power_peak = u,
-                      .duty_mean = u, .duty_peak = u, .wire_mean = u, .current_peak = u,
-                      .hold_power = u, .hold_duty = u, .air_final = u, .highest_reachable = u,
-                      .not_reached = NULL, .surface_max = u, .node_max = u, .duration = u};
-    if (n == 0)
-        return;
-    m->duration = h->t[n - 1];
-    has_sp = tp_network_holds(net);
-    m->setpoint = has_sp ? net->control.setpoint : TP_UNSET;
-
-    /* Power, duty, wiring and current over the run. */
     m->power_mean = (h->energy[(n - 1) * TP_N_QUAD + TP_Q_SOURCE]) / fmax(m->duration, 1e-300);
     m->wire_mean = (h->energy[(n - 1) * TP_N_QUAD + TP_Q_WIRE]) / fmax(m->duration, 1e-300);
     m->power_peak = 0.0;
@@ -176,6 +160,29 @@ void tp_metrics_compute(const tp_history *h, const tp_network *net, const tp_ste
             m->current_peak = h->current[i];
     if (m->duty_peak <= 0.0 && h->energy[(n - 1) * TP_N_QUAD + TP_Q_SOURCE] > 0.0)
         m->current_peak = tp_series_max(h->current, n, 1);
+}
+
+void tp_metrics_compute(const tp_history *h, const tp_network *net, const tp_steady *hold,
+                        const tp_steady *full, tp_metrics *m)
+{
+    long n = h->n;
+    int k, has_sp;
+    const double u = TP_UNSET;
+    *m = (tp_metrics){.setpoint = u, .t_setpoint = u, .surface_hold = u, .t_surface_ready = u,
+                      .overshoot_reading = u, .overshoot_surface = u, .steady_offset = u,
+                      .lag = u, .lag_k = u, .ready_low = u, .ready_high = u,
+                      .cycle_period = u, .cycle_min = u, .cycle_max = u, .cycle_mean = u,
+                      .ready_basis = TP_READY_NONE, .energy_to_ready = u, .power_mean = u, .power_peak = u,
+                      .duty_mean = u, .duty_peak = u, .wire_mean = u, .current_peak = u,
+                      .hold_power = u, .hold_duty = u, .air_final = u, .highest_reachable = u,
+                      .not_reached = NULL, .surface_max = u, .node_max = u, .duration = u};
+    if (n == 0)
+        return;
+    m->duration = h->t[n - 1];
+    has_sp = tp_network_holds(net);
+    m->setpoint = has_sp ? net->control.setpoint : TP_UNSET;
+
+    power_figures(h, net->n_sources, m);
     m->surface_max = tp_series_max(h->surface, n, 1);
     for (k = 0; k < h->n_out; k++) {
         double v = tp_series_max(h->temps + k, n, h->n_out);

@@ -387,47 +387,21 @@ static const char *isolated_node(const tp_network *net)
     return bad;
 }
 
-/* Solve the system from the initial guess in x (n entries). */
-static tp_status solve(sys *s, double *x, long *iters, tp_diag *d)
+/* The secant phase: solve J_sec dx = -F by KLU, damped to TP_MAX_MOVE per step, from x (n
+ * entries) in place, until no temperature moves more than TP_SECANT_TOL or TP_SECANT_ITERS
+ * steps; a step that cannot be taken ends it early (Newton takes over). `b` and `xx` are work
+ * vectors of n entries. TP_OK, or TP_ERR_NOMEM. */
+static tp_status secant_phase(sys *s, double *x, N_Vector b, N_Vector xx, SUNContext ctx)
 {
-    SUNContext ctx = NULL;
-    N_Vector u = NULL, us = NULL, fs = NULL;
-    SUNMatrix J = NULL, Js = NULL;
-    SUNLinearSolver ls = NULL, lss = NULL;
-    void *kin = NULL;
-    tp_status st = TP_OK;
-    double *f = NULL, *dx = NULL;
-    int it, i, flag;
-
-    f = malloc((size_t)s->n * sizeof *f);
-    dx = malloc((size_t)s->n * sizeof *dx);
-    if (!f || !dx || SUNContext_Create(NULL, &ctx) != 0) {
-        st = TP_ERR_NOMEM;
-        goto done;
-    }
-    u = N_VNew_Serial(s->n, ctx);
-    if (u && s->iterative)
-        tp_vecops_install(u); /* KINSOL's vectors are clones of u */
-    us = u ? N_VClone(u) : NULL;
-    fs = u ? N_VClone(u) : NULL;
-    J = SUNSparseMatrix(s->n, s->n, s->nnz > 0 ? s->nnz : 1, CSC_MAT, ctx);
-    Js = SUNSparseMatrix(s->n, s->n, s->nnz > 0 ? s->nnz : 1, CSC_MAT, ctx);
-    if (!u || !us || !fs || !J || !Js) {
-        st = TP_ERR_NOMEM;
-        goto done;
-    }
-    /* Secant phase: solve J_sec dx = -F by KLU, damped to TP_MAX_MOVE per step. A gridded
-     * network starts from its lumped network's steady state instead, close enough for Newton. */
-    lss = s->iterative ? NULL : SUNLinSol_KLU(u, Js, ctx);
-    if (!lss && !s->iterative) {
-        st = TP_ERR_NOMEM;
-        goto done;
-    }
-    if (!s->iterative)
+    SUNMatrix Js = SUNSparseMatrix(s->n, s->n, s->nnz > 0 ? s->nnz : 1, CSC_MAT, ctx);
+    SUNLinearSolver lss = Js ? SUNLinSol_KLU(xx, Js, ctx) : NULL;
+    double *f = malloc((size_t)s->n * sizeof *f);
+    int it, i;
+    tp_status st = Js && lss && f ? TP_OK : TP_ERR_NOMEM;
+    if (st == TP_OK)
         copy_pattern(s, Js);
-    for (it = 0; it < TP_SECANT_ITERS && !s->iterative; it++) {
+    for (it = 0; st == TP_OK && it < TP_SECANT_ITERS; it++) {
         double move = 0.0, scale = 1.0;
-        N_Vector b = fs, xx = us;
         if (residual(s, x, f) != 0 || jacobian(s, x, SUNSparseMatrix_Data(Js), 1) != 0)
             break;
         for (i = 0; i < s->n; i++)
@@ -446,59 +420,98 @@ static tp_status solve(sys *s, double *x, long *iters, tp_diag *d)
         if (move * scale < TP_SECANT_TOL)
             break;
     }
-    /* Newton phase. */
-    for (i = 0; i < s->n; i++) {
-        N_VGetArrayPointer(u)[i] = x[i];
-        N_VGetArrayPointer(us)[i] = i < s->nf ? 1.0 / 300.0 : 1.0;
-        N_VGetArrayPointer(fs)[i] = 1.0;
-    }
-    kin = KINCreate(ctx);
-    ls = s->iterative ? SUNLinSol_SPGMR(u, SUN_PREC_RIGHT, TP_STEADY_KRYLOV, ctx)
-                      : SUNLinSol_KLU(u, J, ctx);
-    if (!kin || !ls || KINInit(kin, kin_f, u) != KIN_SUCCESS ||
-        KINSetUserData(kin, s) != KIN_SUCCESS ||
+    if (lss)
+        SUNLinSolFree(lss);
+    if (Js)
+        SUNMatDestroy(Js);
+    free(f);
+    return st;
+}
+
+/* KINSOL set up for the system: Newton with the analytic Jacobian and KLU, or for a gridded
+ * network Newton-Krylov (GMRES) with the multigrid preconditioner. 0, or -1 when a call
+ * fails. */
+static int kinsol_setup(sys *s, void *kin, N_Vector u, SUNLinearSolver ls, SUNMatrix J)
+{
+    if (KINInit(kin, kin_f, u) != KIN_SUCCESS || KINSetUserData(kin, s) != KIN_SUCCESS ||
         KINSetErrHandlerFn(kin, kin_err, s) != KIN_SUCCESS ||
         KINSetInfoHandlerFn(kin, kin_info, s) != KIN_SUCCESS ||
         KINSetFuncNormTol(kin, TP_FNORM_TOL) != KIN_SUCCESS ||
         KINSetScaledStepTol(kin, 1e-13) != KIN_SUCCESS ||
         KINSetNumMaxIters(kin, TP_KIN_ITERS) != KIN_SUCCESS ||
-        KINSetMaxSetupCalls(kin, 1) != KIN_SUCCESS) {
+        KINSetMaxSetupCalls(kin, 1) != KIN_SUCCESS)
+        return -1;
+    if (s->iterative)
+        return SUNLinSol_SPGMRSetMaxRestarts(ls, TP_STEADY_RESTARTS) != SUNLS_SUCCESS ||
+                       KINSetLinearSolver(kin, ls, NULL) != KIN_SUCCESS ||
+                       KINSetPreconditioner(kin, kin_psetup, kin_psolve) != KIN_SUCCESS ||
+                       KINSetJacTimesVecFn(kin, kin_jtimes) != KIN_SUCCESS
+                   ? -1
+                   : 0;
+    return KINSetLinearSolver(kin, ls, J) != KIN_SUCCESS ||
+                   KINSetJacFn(kin, kin_jac) != KIN_SUCCESS
+               ? -1
+               : 0;
+}
+
+/* Solve the system from the initial guess in x (n entries): the secant phase (not for a
+ * gridded network, which starts from its lumped network's steady state instead, close enough
+ * for Newton), then KINSOL's Newton method with a line search to full accuracy. */
+static tp_status solve(sys *s, double *x, long *iters, tp_diag *d)
+{
+    SUNContext ctx = NULL;
+    N_Vector u = NULL, us = NULL, fs = NULL;
+    SUNMatrix J = NULL;
+    SUNLinearSolver ls = NULL;
+    void *kin = NULL;
+    tp_status st = TP_OK;
+    int i, flag;
+
+    if (SUNContext_Create(NULL, &ctx) != 0)
+        return TP_ERR_NOMEM;
+    u = N_VNew_Serial(s->n, ctx);
+    if (u && s->iterative)
+        tp_vecops_install(u); /* KINSOL's vectors are clones of u */
+    us = u ? N_VClone(u) : NULL;
+    fs = u ? N_VClone(u) : NULL;
+    J = SUNSparseMatrix(s->n, s->n, s->nnz > 0 ? s->nnz : 1, CSC_MAT, ctx);
+    if (!u || !us || !fs || !J)
         st = TP_ERR_NOMEM;
-        goto done;
+    if (st == TP_OK && !s->iterative)
+        st = secant_phase(s, x, fs, us, ctx);
+    if (st == TP_OK) {
+        for (i = 0; i < s->n; i++) {
+            N_VGetArrayPointer(u)[i] = x[i];
+            N_VGetArrayPointer(us)[i] = i < s->nf ? 1.0 / 300.0 : 1.0;
+            N_VGetArrayPointer(fs)[i] = 1.0;
+        }
+        kin = KINCreate(ctx);
+        ls = s->iterative ? SUNLinSol_SPGMR(u, SUN_PREC_RIGHT, TP_STEADY_KRYLOV, ctx)
+                          : SUNLinSol_KLU(u, J, ctx);
+        if (!kin || !ls || kinsol_setup(s, kin, u, ls, J) != 0)
+            st = TP_ERR_NOMEM;
     }
-    if (s->iterative ? (SUNLinSol_SPGMRSetMaxRestarts(ls, TP_STEADY_RESTARTS) != SUNLS_SUCCESS ||
-                        KINSetLinearSolver(kin, ls, NULL) != KIN_SUCCESS ||
-                        KINSetPreconditioner(kin, kin_psetup, kin_psolve) != KIN_SUCCESS ||
-                        KINSetJacTimesVecFn(kin, kin_jtimes) != KIN_SUCCESS)
-                     : (KINSetLinearSolver(kin, ls, J) != KIN_SUCCESS ||
-                        KINSetJacFn(kin, kin_jac) != KIN_SUCCESS)) {
-        st = TP_ERR_NOMEM;
-        goto done;
+    if (st == TP_OK) {
+        flag = KINSol(kin, u, KIN_LINESEARCH, us, fs);
+        KINGetNumNonlinSolvIters(kin, iters);
+        if (flag < 0) {
+            char *name = KINGetReturnFlagName(flag); /* allocated by SUNDIALS: ours to free */
+            tp_diag_error(d, tp_loc_none(), NULL,
+                          "check for nodes coupled only by very weak or very strong links",
+                          "the steady-state solver failed (%s)%s%s", name ? name : "?",
+                          s->msg[0] ? ": " : "", s->msg);
+            free(name);
+            st = TP_ERR_SOLVER;
+        } else {
+            memcpy(x, N_VGetArrayPointer(u), (size_t)s->n * sizeof *x);
+        }
     }
-    flag = KINSol(kin, u, KIN_LINESEARCH, us, fs);
-    KINGetNumNonlinSolvIters(kin, iters);
-    if (flag < 0) {
-        char *name = KINGetReturnFlagName(flag); /* allocated by SUNDIALS: ours to free */
-        tp_diag_error(d, tp_loc_none(), NULL,
-                      "check for nodes coupled only by very weak or very strong links",
-                      "the steady-state solver failed (%s)%s%s", name ? name : "?",
-                      s->msg[0] ? ": " : "", s->msg);
-        free(name);
-        st = TP_ERR_SOLVER;
-        goto done;
-    }
-    memcpy(x, N_VGetArrayPointer(u), (size_t)s->n * sizeof *x);
-done:
     if (kin)
         KINFree(&kin);
     if (ls)
         SUNLinSolFree(ls);
-    if (lss)
-        SUNLinSolFree(lss);
     if (J)
         SUNMatDestroy(J);
-    if (Js)
-        SUNMatDestroy(Js);
     if (u)
         N_VDestroy(u);
     if (us)
@@ -507,8 +520,6 @@ done:
         N_VDestroy(fs);
     if (ctx)
         SUNContext_Free(&ctx);
-    free(f);
-    free(dx);
     return st;
 }
 
