@@ -344,10 +344,10 @@ static tp_status attach_circuit(const tp_desc *desc, const tp_doc *doc, tp_netwo
                            where(doc, "wiring"), &c, d);
     if (st != TP_OK)
         return st;
-    for (; net; net = net->grid ? net->grid->lumped : NULL) {
+    for (; net; net = tp_network_twin_mut(net)) {
         src = tp_network_heater(net);
         if (src >= 0 && net->sources[src].kind == TP_SRC_ELECTRIC)
-            net->sources[src].r_series = c.total;
+            tp_network_source_mut(net, src)->r_series = c.total;
     }
     return TP_OK;
 }
@@ -357,7 +357,7 @@ static tp_status attach_circuit(const tp_desc *desc, const tp_doc *doc, tp_netwo
  * grid's, at the same duties and targets. */
 static void mirror_control(tp_network *net)
 {
-    tp_network *lp = net->grid ? net->grid->lumped : NULL;
+    tp_network *lp = tp_network_twin_mut(net);
     if (!lp || !net->has_control || !net->grid->from)
         return;
     lp->has_control = 1;

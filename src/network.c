@@ -45,6 +45,34 @@ const char *tp_loss_path_name(tp_loss_path p)
     return (unsigned)p < TP_PATH_COUNT ? path_names[p] : "?";
 }
 
+/* The module's own view of what it builds, copies and frees: the arrays of a network are const
+ * to every other module (network.h); here they are this module's to write. The one cast away
+ * of const. */
+static void *own(const void *p)
+{
+    return (void *)p;
+}
+
+tp_net_node *tp_network_node_mut(tp_network *net, int i)
+{
+    return own(&net->nodes[i]);
+}
+
+tp_net_link *tp_network_link_mut(tp_network *net, int i)
+{
+    return own(&net->links[i]);
+}
+
+tp_net_source *tp_network_source_mut(tp_network *net, int i)
+{
+    return own(&net->sources[i]);
+}
+
+tp_network *tp_network_twin_mut(tp_network *net)
+{
+    return net->grid ? own(net->grid->lumped) : NULL;
+}
+
 tp_network *tp_network_create(void)
 {
     tp_network *net = calloc(1, sizeof(tp_network));
@@ -61,30 +89,30 @@ void tp_network_destroy(tp_network **net)
         return;
     n = *net;
     for (i = 0; i < n->n_sources; i++) {
-        free(n->sources[i].nodes);
-        free(n->sources[i].weights);
+        free(own(n->sources[i].nodes));
+        free(own(n->sources[i].weights));
     }
-    free(n->nodes);
-    free(n->id_index);
-    free(n->links);
-    free(n->sources);
-    free(n->free_nodes);
-    free(n->colptr);
-    free(n->rowind);
-    free(n->link_slot);
-    free(n->src_slot);
-    free(n->src_first);
-    free(n->groups);
-    free(n->group_links);
+    free(own(n->nodes));
+    free(own(n->id_index));
+    free(own(n->links));
+    free(own(n->sources));
+    free(own(n->free_nodes));
+    free(own(n->colptr));
+    free(own(n->rowind));
+    free(own(n->link_slot));
+    free(own(n->src_slot));
+    free(own(n->src_first));
+    free(own(n->groups));
+    free(own(n->group_links));
     if (n->grid) {
-        free(n->grid->layer_id);
-        free(n->grid->cell);
-        free(n->grid->layer_capacity);
-        free(n->grid->top_area);
-        free(n->grid->top_link);
-        free(n->grid->from);
-        tp_network_destroy(&n->grid->lumped);
-        free(n->grid);
+        free(own(n->grid->layer_id));
+        free(own(n->grid->cell));
+        free(own(n->grid->layer_capacity));
+        free(own(n->grid->top_area));
+        free(own(n->grid->top_link));
+        free(own(n->grid->from));
+        tp_network_release(&((tp_net_grid *)own(n->grid))->lumped);
+        free(own(n->grid));
     }
     free(n);
     *net = NULL;
@@ -168,7 +196,11 @@ static tp_status copy_grid(const tp_network *src, tp_network *dst, const tp_net_
         }
         mapped[m++] = ch;
     }
-    st = copy_network(g->lumped, mapped, m, &c->lumped);
+    {
+        tp_network *twin = NULL;
+        st = copy_network(g->lumped, mapped, m, &twin);
+        c->lumped = twin;
+    }
     free(mapped);
     free(ctl);
     return st;
@@ -201,7 +233,7 @@ static tp_status apply_change(tp_network *net, const tp_net_change *ch)
         if (ch->a < 0 || ch->a >= net->n_nodes)
             return TP_ERR_CONFIG;
         for (i = 0; i < net->n_links; i++) {
-            tp_net_link *l = &net->links[i];
+            tp_net_link *l = tp_network_link_mut(net, i);
             int other = l->a == ch->a ? l->b : l->b == ch->a ? l->a : -1;
             if (other >= 0 && net->nodes[other].capacity > 0) {
                 l->g = l->h = l->eps = l->scale = 0.0;
@@ -212,17 +244,17 @@ static tp_status apply_change(tp_network *net, const tp_net_change *ch)
         if (net->top_node < 0 && !net->grid)
             return TP_ERR_CONFIG;
         for (i = 0; i < net->n_links; i++) {
-            tp_net_link *l = &net->links[i];
+            tp_net_link *l = tp_network_link_mut(net, i);
             if (l->path != TP_PATH_TOP_CONV || !l->correlated)
                 continue;
             l->conv.airflow = ch->value;
             if (l->group >= 0 && l->group < net->n_groups)
-                net->groups[l->group].conv.airflow = ch->value;
+                ((tp_net_group *)own(&net->groups[l->group]))->conv.airflow = ch->value;
         }
         return TP_OK;
     case TP_CHANGE_TOP_CAPACITY:
         if (net->grid) {
-            tp_net_grid *g = net->grid;
+            const tp_net_grid *g = net->grid;
             int c, n = g->nx * g->ny, top = (g->n_layers - 1) * n;
             double area = 0.0;
             for (c = 0; c < n; c++)
@@ -232,16 +264,16 @@ static tp_status apply_change(tp_network *net, const tp_net_change *ch)
                 int node = g->cell[top + c];
                 if (node < 0 || !(g->top_area[c] > 0))
                     continue;
-                net->nodes[node].capacity += ch->value * g->top_area[c] / area;
+                tp_network_node_mut(net, node)->capacity += ch->value * g->top_area[c] / area;
                 ok = 1;
             }
             if (ok)
-                g->layer_capacity[g->n_layers - 1] += ch->value;
+                ((double *)own(g->layer_capacity))[g->n_layers - 1] += ch->value;
             return ok ? TP_OK : TP_ERR_CONFIG;
         }
         if (net->top_node < 0 || net->nodes[net->top_node].capacity <= 0)
             return TP_ERR_CONFIG;
-        net->nodes[net->top_node].capacity += ch->value;
+        tp_network_node_mut(net, net->top_node)->capacity += ch->value;
         return TP_OK;
     case TP_CHANGE_CONTROL: {
         const tp_control *c = ch->control;
@@ -256,7 +288,7 @@ static tp_status apply_change(tp_network *net, const tp_net_change *ch)
         tp_net_source *s;
         if (ch->a < 0 || ch->a >= net->n_sources)
             return TP_ERR_CONFIG;
-        s = &net->sources[ch->a];
+        s = tp_network_source_mut(net, ch->a);
         s->kind = TP_SRC_POWER;
         s->power = ch->value;
         s->max_duty = 1.0;
@@ -312,7 +344,7 @@ static tp_status copy_network(const tp_network *src, const tp_net_change *change
         fail = 1;
     for (i = 0; !fail && i < src->n_sources; i++) {
         const tp_net_source *o = &src->sources[i];
-        tp_net_source *s = &net->sources[i];
+        tp_net_source *s = tp_network_source_mut(net, i);
         *s = *o;
         s->nodes = dup_array(o->nodes, (size_t)o->n_nodes, sizeof *o->nodes, &fail);
         s->weights = dup_array(o->weights, (size_t)o->n_nodes, sizeof *o->weights, &fail);
@@ -367,11 +399,11 @@ static int index_node(tp_network *net, int node)
             return -1;
         for (i = 0; i < node; i++)
             index_put(slots, n_slots, net->nodes[i].id, i);
-        free(net->id_index);
+        free(own(net->id_index));
         net->id_index = slots;
         net->id_slots = n_slots;
     }
-    index_put(net->id_index, net->id_slots, net->nodes[node].id, node);
+    index_put(own(net->id_index), net->id_slots, net->nodes[node].id, node);
     return 0;
 }
 
@@ -398,7 +430,7 @@ int tp_network_add_node(tp_network *net, const char *id, double capacity, double
     tp_net_node *node;
     if (reserve((void **)&net->nodes, n, &net->cap_nodes, 64, sizeof *net->nodes) != 0)
         return -1;
-    node = &net->nodes[n];
+    node = tp_network_node_mut(net, n);
     memset(node, 0, sizeof *node);
     snprintf(node->id, sizeof node->id, "%s", id);
     node->capacity = capacity;
@@ -416,7 +448,7 @@ tp_net_link *tp_network_add_link(tp_network *net, int a, int b, tp_law law)
     tp_net_link *l;
     if (reserve((void **)&net->links, net->n_links, &net->cap_links, 256, sizeof *net->links) != 0)
         return NULL;
-    l = &net->links[net->n_links++];
+    l = tp_network_link_mut(net, net->n_links++);
     memset(l, 0, sizeof *l);
     l->a = a;
     l->b = b;
@@ -430,21 +462,25 @@ tp_net_link *tp_network_add_link(tp_network *net, int a, int b, tp_law law)
 tp_net_source *tp_network_add_source(tp_network *net, const char *id, int node)
 {
     tp_net_source *s;
+    int *nodes;
+    double *weights;
     if (reserve((void **)&net->sources, net->n_sources, &net->cap_sources, 16,
                 sizeof *net->sources) != 0)
         return NULL;
-    s = &net->sources[net->n_sources];
+    s = tp_network_source_mut(net, net->n_sources);
     memset(s, 0, sizeof *s);
     snprintf(s->id, sizeof s->id, "%s", id);
-    s->nodes = malloc(sizeof *s->nodes);
-    s->weights = malloc(sizeof *s->weights);
-    if (!s->nodes || !s->weights) {
-        free(s->nodes);
-        free(s->weights);
+    nodes = malloc(sizeof *nodes);
+    weights = malloc(sizeof *weights);
+    if (!nodes || !weights) {
+        free(nodes);
+        free(weights);
         return NULL;
     }
-    s->nodes[0] = node;
-    s->weights[0] = 1.0;
+    nodes[0] = node;
+    weights[0] = 1.0;
+    s->nodes = nodes;
+    s->weights = weights;
     s->n_nodes = 1;
     s->max_duty = 1.0;
     net->n_sources++;
@@ -474,8 +510,8 @@ tp_status tp_network_spread_source(tp_network *net, tp_net_source *src, const in
         nn[i] = nodes[i];
         ww[i] = weights[i] / sum;
     }
-    free(src->nodes);
-    free(src->weights);
+    free(own(src->nodes));
+    free(own(src->weights));
     src->nodes = nn;
     src->weights = ww;
     src->n_nodes = n;
@@ -488,7 +524,7 @@ int tp_network_add_group(tp_network *net, const tp_conv_case *conv, int sink)
     if (reserve((void **)&net->groups, net->n_groups, &net->cap_groups, 16,
                 sizeof *net->groups) != 0)
         return -1;
-    g = &net->groups[net->n_groups];
+    g = own(&net->groups[net->n_groups]);
     memset(g, 0, sizeof *g);
     g->conv = *conv;
     g->sink = sink;
@@ -645,6 +681,7 @@ static tp_status build_pattern(tp_network *net)
     int n_state = tp_network_state_size(net), q_src = net->n_free + TP_Q_SOURCE;
     int q_lost = net->n_free + TP_Q_LOST, q_wire = net->n_free + TP_Q_WIRE;
     int i, k, n = 0, cap, total_src_nodes = 0, u;
+    int *colptr, *rowind, (*link_slot)[6], *src_first, *src_slot;
     entry *e;
 
     for (i = 0; i < net->n_sources; i++)
@@ -680,27 +717,27 @@ static tp_status build_pattern(tp_network *net)
         if (u == 0 || e[i].col != e[u - 1].col || e[i].row != e[u - 1].row)
             e[u++] = e[i];
     net->nnz = u;
-    net->colptr = calloc((size_t)n_state + 1, sizeof *net->colptr);
-    net->rowind = malloc((size_t)(u > 0 ? u : 1) * sizeof *net->rowind);
-    net->link_slot = malloc((size_t)(net->n_links > 0 ? net->n_links : 1) *
-                            sizeof *net->link_slot);
-    net->src_first = malloc((size_t)(net->n_sources + 1) * sizeof *net->src_first);
-    net->src_slot = malloc((size_t)(3 * total_src_nodes + 1) * sizeof *net->src_slot);
-    if (!net->colptr || !net->rowind || !net->link_slot || !net->src_first || !net->src_slot) {
+    net->colptr = colptr = calloc((size_t)n_state + 1, sizeof *colptr);
+    net->rowind = rowind = malloc((size_t)(u > 0 ? u : 1) * sizeof *rowind);
+    link_slot = malloc((size_t)(net->n_links > 0 ? net->n_links : 1) * sizeof *link_slot);
+    net->link_slot = (const int(*)[6])link_slot;
+    net->src_first = src_first = malloc((size_t)(net->n_sources + 1) * sizeof *src_first);
+    net->src_slot = src_slot = malloc((size_t)(3 * total_src_nodes + 1) * sizeof *src_slot);
+    if (!colptr || !rowind || !link_slot || !src_first || !src_slot) {
         free(e);
         return TP_ERR_NOMEM;
     }
     for (i = 0; i < u; i++) {
-        net->colptr[e[i].col + 1]++;
-        net->rowind[i] = e[i].row;
+        colptr[e[i].col + 1]++;
+        rowind[i] = e[i].row;
     }
     for (i = 0; i < n_state; i++)
-        net->colptr[i + 1] += net->colptr[i];
+        colptr[i + 1] += colptr[i];
     free(e);
 
     for (i = 0; i < net->n_links; i++) {
         int sa = state_of(net, net->links[i].a), sb = state_of(net, net->links[i].b);
-        int *sl = net->link_slot[i];
+        int *sl = link_slot[i];
         sl[0] = slot_of(net, sa, sa);
         sl[1] = sb >= 0 ? slot_of(net, sa, sb) : -1;
         sl[2] = sa >= 0 ? slot_of(net, sb, sa) : -1;
@@ -709,50 +746,51 @@ static tp_status build_pattern(tp_network *net)
         sl[5] = (sb >= 0 && sa < 0) ? slot_of(net, q_lost, sb) : -1;
     }
     for (i = 0, n = 0; i < net->n_sources; i++) {
-        net->src_first[i] = n;
+        src_first[i] = n;
         for (k = 0; k < net->sources[i].n_nodes; k++) {
             int s = state_of(net, net->sources[i].nodes[k]);
-            net->src_slot[n++] = slot_of(net, s, s);
-            net->src_slot[n++] = slot_of(net, q_src, s);
-            net->src_slot[n++] = slot_of(net, q_wire, s);
+            src_slot[n++] = slot_of(net, s, s);
+            src_slot[n++] = slot_of(net, q_src, s);
+            src_slot[n++] = slot_of(net, q_wire, s);
         }
     }
-    net->src_first[net->n_sources] = n;
+    src_first[net->n_sources] = n;
     return TP_OK;
 }
 
 /* Members of every coefficient group, and each group's total area. */
 static tp_status build_groups(tp_network *net)
 {
-    int i, g, *fill;
+    tp_net_group *groups = own(net->groups);
+    int i, g, *fill, *members;
     if (net->n_groups == 0)
         return TP_OK;
-    net->group_links = malloc((size_t)(net->n_links > 0 ? net->n_links : 1) *
-                              sizeof *net->group_links);
+    net->group_links = members =
+        malloc((size_t)(net->n_links > 0 ? net->n_links : 1) * sizeof *members);
     fill = calloc((size_t)net->n_groups, sizeof *fill);
-    if (!net->group_links || !fill) {
+    if (!members || !fill) {
         free(fill);
         return TP_ERR_NOMEM;
     }
     for (g = 0; g < net->n_groups; g++) {
-        net->groups[g].count = 0;
-        net->groups[g].area = 0.0;
+        groups[g].count = 0;
+        groups[g].area = 0.0;
     }
     for (i = 0; i < net->n_links; i++) {
         const tp_net_link *l = &net->links[i];
         if (l->group < 0)
             continue;
-        net->groups[l->group].count++;
-        net->groups[l->group].area += l->area;
+        groups[l->group].count++;
+        groups[l->group].area += l->area;
     }
     for (g = 0, i = 0; g < net->n_groups; g++) {
-        net->groups[g].first = i;
-        i += net->groups[g].count;
+        groups[g].first = i;
+        i += groups[g].count;
     }
     for (i = 0; i < net->n_links; i++) {
         int gi = net->links[i].group;
         if (gi >= 0)
-            net->group_links[net->groups[gi].first + fill[gi]++] = i;
+            members[groups[gi].first + fill[gi]++] = i;
     }
     free(fill);
     return TP_OK;
@@ -760,20 +798,20 @@ static tp_status build_groups(tp_network *net)
 
 tp_status tp_network_finish(tp_network *net)
 {
-    int i, n = 0;
+    int i, n = 0, *free_nodes;
     for (i = 0; i < net->n_nodes; i++)
         if (net->nodes[i].capacity > 0)
             n++;
     net->n_free = n;
-    net->free_nodes = malloc((size_t)(n > 0 ? n : 1) * sizeof *net->free_nodes);
-    if (!net->free_nodes)
+    net->free_nodes = free_nodes = malloc((size_t)(n > 0 ? n : 1) * sizeof *free_nodes);
+    if (!free_nodes)
         return TP_ERR_NOMEM;
     for (i = 0, n = 0; i < net->n_nodes; i++) {
         if (net->nodes[i].capacity > 0) {
-            net->nodes[i].state = n;
-            net->free_nodes[n++] = i;
+            tp_network_node_mut(net, i)->state = n;
+            free_nodes[n++] = i;
         } else {
-            net->nodes[i].state = -1;
+            tp_network_node_mut(net, i)->state = -1;
         }
     }
     if (build_groups(net) != TP_OK)

@@ -84,17 +84,17 @@ typedef struct tp_net_grid {
     int nx, ny;                 /* cells along the bed's first (x) and second (y) side */
     int n_layers;
     double width, depth;        /* m */
-    char (*layer_id)[TP_ID_MAX];
-    int *cell;                  /* n_layers * nx * ny: node of (layer l, i, j) at
+    const char (*layer_id)[TP_ID_MAX];
+    const int *cell;            /* n_layers * nx * ny: node of (layer l, i, j) at
                                    (l * ny + j) * nx + i; -1 where the layer has no cell */
-    double *layer_capacity;     /* n_layers: J/K, the layer's cells together */
-    double *top_area;           /* nx * ny: exposed top area of the top layer's cell, m2 */
-    int *top_link;              /* 2 * nx * ny: that face's convection and radiation link of
+    const double *layer_capacity; /* n_layers: J/K, the layer's cells together */
+    const double *top_area;     /* nx * ny: exposed top area of the top layer's cell, m2 */
+    const int *top_link;        /* 2 * nx * ny: that face's convection and radiation link of
                                    each cell (-1 when none) */
     double sensor_x, sensor_y;  /* m: where the sensor sits (NaN without a sensor) */
-    struct tp_network *lumped;  /* the lumped network it was refined from (owned, finished):
-                                   its steady states start the grid's */
-    int *from;                  /* per node: the node of `lumped` it was refined from */
+    const struct tp_network *lumped; /* the lumped network it was refined from (owned,
+                                   finished): its steady states start the grid's */
+    const int *from;            /* per node: the node of `lumped` it was refined from */
 } tp_net_grid;
 
 typedef enum tp_source_kind { TP_SRC_POWER, TP_SRC_ELECTRIC } tp_source_kind;
@@ -111,21 +111,25 @@ typedef struct tp_net_source {
                         supply output, wiring loop, switch) */
     double max_duty; /* fully on means this duty */
     int n_nodes;     /* nodes the power lands in: 1 when lumped */
-    int *nodes;      /* node indices */
-    double *weights; /* share of the element in each node; sums to 1 */
+    const int *nodes;      /* node indices */
+    const double *weights; /* share of the element in each node; sums to 1 */
 } tp_net_source;
 
+/* The arrays a network points to are const, as the network itself is to every study: even
+ * through a pointer member nothing outside network.c writes to a network. Assembly, which
+ * holds a network under construction (tp_network *), writes through the builders below and
+ * the mutable accessors (tp_network_node_mut ...). */
 typedef struct tp_network {
-    tp_net_node *nodes;
+    const tp_net_node *nodes;
     int n_nodes;
-    int *id_index;      /* open-addressing hash of node ids: node index + 1, 0 empty */
+    const int *id_index; /* open-addressing hash of node ids: node index + 1, 0 empty */
     int id_slots;       /* its size, a power of two kept above twice n_nodes */
-    tp_net_link *links;
+    const tp_net_link *links;
     int n_links;
-    tp_net_source *sources;
+    const tp_net_source *sources;
     int n_sources;
     int n_free;         /* free temperatures; the state has n_free + TP_N_QUAD entries */
-    int *free_nodes;    /* state index -> node index */
+    const int *free_nodes; /* state index -> node index */
     int has_control;
     tp_control control;
     /* The working surface (physical form): the top face of the top layer, estimated from the
@@ -133,18 +137,18 @@ typedef struct tp_network {
     int top_node;       /* node index, -1 when unknown (raw form) or gridded */
     double top_area;    /* m2 */
     double top_half_r;  /* t / (2 k) of the top layer, K.m2/W (gridded plates too) */
-    tp_net_grid *grid;  /* gridded plate (owned), NULL when lumped */
-    tp_net_group *groups; /* convection coefficient groups */
+    const tp_net_grid *grid; /* gridded plate (owned), NULL when lumped */
+    const tp_net_group *groups; /* convection coefficient groups */
     int n_groups, cap_groups;
-    int *group_links;   /* members of every group, by group (built by tp_network_finish) */
+    const int *group_links; /* members of every group, by group (built by tp_network_finish) */
     int cap_nodes, cap_links, cap_sources; /* allocated entries */
     /* Jacobian sparsity (compressed sparse columns over the whole state), built once. */
     int nnz;
-    int *colptr;        /* n_state + 1 */
-    int *rowind;        /* nnz */
-    int (*link_slot)[6]; /* per link: aa, ab, ba, bb, lost-a, lost-b (-1 when absent) */
-    int *src_slot;      /* per source node entry: the diagonal, then the quadrature rows */
-    int *src_first;     /* per source: first index into src_slot (3 entries per node) */
+    const int *colptr;  /* n_state + 1 */
+    const int *rowind;  /* nnz */
+    const int (*link_slot)[6]; /* per link: aa, ab, ba, bb, lost-a, lost-b (-1 when absent) */
+    const int *src_slot; /* per source node entry: the diagonal, then the quadrature rows */
+    const int *src_first; /* per source: first index into src_slot (3 entries per node) */
 } tp_network;
 
 /* Snapshot of the heat flows at one state. */
@@ -231,6 +235,13 @@ tp_status tp_network_spread_source(tp_network *net, tp_net_source *src, const in
  * convect to). Returns its index, or -1 when out of memory. Links join it by setting their
  * `group` (law convection, `correlated` 1 with the same case, b == sink). */
 int tp_network_add_group(tp_network *net, const tp_conv_case *conv, int sink);
+
+/* Assembly's access to a network under construction: node, link or source i to write. */
+tp_net_node *tp_network_node_mut(tp_network *net, int i);
+tp_net_link *tp_network_link_mut(tp_network *net, int i);
+tp_net_source *tp_network_source_mut(tp_network *net, int i);
+/* The lumped twin of a gridded network under construction, to write (NULL when not gridded). */
+tp_network *tp_network_twin_mut(tp_network *net);
 
 /* Index of a node by id, or -1. */
 int tp_network_find_node(const tp_network *net, const char *id);

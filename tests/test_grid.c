@@ -207,7 +207,7 @@ static void slab_strip(int n, int m, double rtol, double tol)
              "losses: {convection_scale: 0, radiation_scale: 0}\n",
              n, m);
     lower_open(text, &b);
-    b.build->sources[0].power = 0.0;
+    tp_network_source_mut(b.build, 0)->power = 0.0;
     face = fixed_node(b.build, "face", 120.0 + T0C);
     for (j = 0; j < m; j++)
         conduction(b.build, face, cell(b.net, 0, 0, j), 2.0 * 10.0 * 0.005 * 0.01 / m / dx);
@@ -290,7 +290,7 @@ static void rectangle(int nx, int ny, double tol)
              "losses: {convection_scale: 0, radiation_scale: 0}\n",
              nx, ny);
     lower_open(text, &b);
-    b.build->sources[0].power = 0.0;
+    tp_network_source_mut(b.build, 0)->power = 0.0;
     hot = fixed_node(b.build, "hot", 120.0 + T0C);
     cold = fixed_node(b.build, "cold", 20.0 + T0C);
     /* Each boundary cell meets its edge through half a cell: 2 k t (face length) / (width). */

@@ -836,7 +836,7 @@ static tp_network *every_law(void)
     link_of(net, sheet, room, TP_LAW_RADIATION, 0.9, 0.04, 1.1);
     link_of(net, plate, walls, TP_LAW_RADIATION, 0.2, 0.04, 1.0);
     for (int i = 3; i <= 6; i++)
-        net->links[i].correlated = 1;
+        tp_network_link_mut(net, i)->correlated = 1;
     s = tp_network_add_source(net, "heater", plate);
     s->kind = TP_SRC_ELECTRIC;
     s->supply = 24.0;
@@ -1043,7 +1043,7 @@ static void secant_case(double ta)
     link_of(net, a, b, TP_LAW_CONVECTION, 8.0, 0.02, 1.2);
     link_of(net, a, b, TP_LAW_CONVECTION, 0.0, 0.04, 1.0)->conv = up;
     link_of(net, a, b, TP_LAW_RADIATION, 0.9, 0.04, 0.8);
-    net->links[2].correlated = 1;
+    tp_network_link_mut(net, 2)->correlated = 1;
     assert_int_equal(tp_network_finish(net), TP_OK);
     assert_int_equal(tp_eval_create(net, &ev), TP_OK);
     jac = dense_jacobian(ev, y, 1);

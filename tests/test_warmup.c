@@ -86,11 +86,12 @@ static void test_supply_resistance_divides_voltage(void **state)
 {
     const tp_network *net = build(copper_heater);
     double t[2] = {20 + KELVIN, 20 + KELVIN}, wire, p;
+    tp_net_source heater = net->sources[0]; /* the network's, with a series path */
     (void)state;
-    net->sources[0].r_series = 0.1;
+    heater.r_series = 0.1;
     /* Hand calculation: I = 24 / (2.4 + 0.1) = 9.6 A; heater 9.6^2 * 2.4 = 221.184 W; wiring
      * 9.6^2 * 0.1 = 9.216 W; together V I = 230.4 W. */
-    p = tp_network_source_power(&net->sources[0], t, 1.0, &wire);
+    p = tp_network_source_power(&heater, t, 1.0, &wire);
     assert_true(fabs(p - 221.184) < 1e-9);
     assert_true(fabs(wire - 9.216) < 1e-9);
     assert_true(fabs(p + wire - 24.0 * 9.6) < 1e-9);
