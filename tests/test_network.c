@@ -502,7 +502,7 @@ static double oracle_q(const tp_network *net, int i, const double *t, const doub
     case TP_LAW_RADIATION:
         return l->scale * l->eps * TP_STEFAN_BOLTZMANN * l->area * (pow(ta, 4) - pow(tb, 4));
     }
-    return NAN;
+    return (double)NAN;
 }
 
 /* The resistance of node k of an electrical source at node temperatures t, ohm. */
