@@ -33,9 +33,9 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "config.h"
 #include "materials.h"
 #include "plate.h"
+#include "tplimits.h"
 
 #define TP_COVER_MIN 1.0e-9 /* -, a smaller covered fraction of a cell counts as none */
 #define TP_SHARE_MIN 1.0e-12 /* -, a smaller share of a lumped link gets no cell link */
