@@ -24,7 +24,8 @@ typedef struct tp_sample {
     double duty;          /* the controlled source's held duty (1 without a controller) */
     double reading;       /* the controller's reading at t, K (NaN without a controller) */
     tp_eval *eval;        /* the run's evaluator at the duties held at t: source powers, flows
-                             and the working surface of this sample (only during the call) */
+                             and the working surface of this sample, only during the call; its
+                             duties are the run's, never to be set by the callback */
 } tp_sample;
 
 /* Called at each output time; return nonzero to stop the run early (not an error). */
