@@ -15,8 +15,8 @@
  * so their part is one matrix-vector product. Radiation, coefficient-group and other links
  * (correlated convection of their own) keep short records. A coefficient group's h is the
  * correlation at the area-weighted mean temperature of its members' surfaces against their
- * sink, evaluated once per call for all members. tests/oracle_network.c evaluates the same
- * equations link by link from the network alone; tests/test_network.c holds the two together. */
+ * sink, evaluated once per call for all members. tests/test_network.c evaluates the same
+ * equations link by link from the network alone (its oracle) and holds the two together. */
 #include "eval.h"
 
 #include <math.h>

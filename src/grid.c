@@ -19,7 +19,7 @@
  *                                        the point lies on a cell boundary
  * (conductances G and radiating or convecting areas A scale with that share). Convection keeps
  * the lumped link's correlation case for every cell of a face, as one coefficient group: h is
- * the correlation at the face's area-weighted mean temperature (network.c), applied to each
+ * the correlation at the face's area-weighted mean temperature (eval.c), applied to each
  * cell's own temperature difference.
  * In-plane conduction joins neighbouring cells of a layer (finite volumes, in-plane k):
  *   G_x = k t fy_j dy / ((fx_i + fx_i+1) dx / 2),  G_y = k t fx_i dx / ((fy_j + fy_j+1) dy / 2).

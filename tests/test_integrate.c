@@ -1,4 +1,4 @@
-/* Tests for integrate.c (with network.c and history.c): CVODE runs against closed-form
+/* Tests for integrate.c (with eval.c and history.c): CVODE runs against closed-form
  * lumped-capacitance solutions, the energy totals against the stored energy, and the CSV
  * written by `tepid warmup` against the contract of docs/user-guide.md. */
 #include "tp_test.h"
