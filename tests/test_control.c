@@ -105,7 +105,7 @@ static void test_onoff_settled_band_and_mean_power(void **state)
     tp_check_abs("holding power", hold.power, 75.0, 1.0e-6);
 
     assert_int_equal(tp_history_init(&h, y.net), TP_OK);
-    tp_integrate_defaults(y.net, &o);
+    tp_integrate_defaults(&y.desc.run, &o);
     o.out = tp_history_record;
     o.user = &h;
     assert_int_equal(tp_integrate(y.net, &o, &st, &y.diag), TP_OK);

@@ -18,6 +18,7 @@
 
 #include "assemble.h"
 #include "config.h"
+#include "eval.h"
 #include "fit.h"
 #include "integrate.h"
 #include "network.h"
@@ -67,7 +68,7 @@ static int record_truth(void *user, const tp_sample *s)
         tr->y[tr->n] = s->temps[tr->sensor] + tr->offset;
         tr->duty[tr->n] = s->duty;
         tr->power[tr->n] = tp_network_source_power(&tr->net->sources[tr->source], s->temps,
-                                                   tr->net->duty[tr->source], NULL);
+                                                   tp_eval_duty(s->eval, tr->source), NULL);
         tr->n++;
     }
     return 0;
@@ -96,7 +97,7 @@ static char *synth_text(const char *yaml, const char *const *sets, int n_sets, d
 {
     tp_yamltree *doc = NULL;
     tp_description desc;
-    tp_network *net = NULL;
+    const tp_network *net = NULL;
     tp_integrate_opts o;
     tp_integrate_stats st;
     tp_diag d;
@@ -109,7 +110,7 @@ static char *synth_text(const char *yaml, const char *const *sets, int n_sets, d
     d.quiet = 1;
     assert_int_equal(tp_assemble(&desc, doc, &d, &net), TP_OK);
     memset(&tr, 0, sizeof tr);
-    tr.cap = (long)ceil(net->run.duration / net->run.step) + 2;
+    tr.cap = (long)ceil(desc.run.duration / desc.run.step) + 2;
     tr.t = calloc((size_t)tr.cap, sizeof *tr.t);
     tr.y = calloc((size_t)tr.cap, sizeof *tr.y);
     tr.duty = calloc((size_t)tr.cap, sizeof *tr.duty);
@@ -126,7 +127,7 @@ static char *synth_text(const char *yaml, const char *const *sets, int n_sets, d
             tr.sensor = net->free_nodes[0];
         tr.source = 0;
     }
-    tp_integrate_defaults(net, &o);
+    tp_integrate_defaults(&desc.run, &o);
     o.out = record_truth;
     o.user = &tr;
     assert_int_equal(tp_integrate(net, &o, &st, &d), TP_OK);
@@ -150,7 +151,7 @@ static char *synth_text(const char *yaml, const char *const *sets, int n_sets, d
     free(tr.y);
     free(tr.duty);
     free(tr.power);
-    tp_network_destroy(&net);
+    tp_network_release(&net);
     tp_config_clear(&desc);
     tp_yamltree_destroy(&doc);
     return text;

@@ -502,7 +502,7 @@ static void test_healthy_corners_never_trip_recommended_settings(void **state)
     for (c = 0; c < st->n_corners; c++) {
         const tp_guard_corner *co = &st->corners[c];
         tp_description cd;
-        tp_network *net = NULL;
+        const tp_network *net = NULL;
         tp_integrate_opts o;
         tp_integrate_stats stats;
         tp_guard_detect det;
@@ -516,7 +516,7 @@ static void test_healthy_corners_never_trip_recommended_settings(void **state)
         assert_int_equal(tp_config_set(&cd, "room.airflow", co->airflow), TP_OK);
         tp_diag_init(&quiet, NULL);
         assert_int_equal(tp_assemble(&cd, doc, &quiet, &net), TP_OK);
-        tp_integrate_defaults(net, &o);
+        tp_integrate_defaults(&cd.run, &o);
         o.step = net->control.period;
         o.out = keep;
         o.user = se;
@@ -527,7 +527,7 @@ static void test_healthy_corners_never_trip_recommended_settings(void **state)
         if (isfinite(tp_guard_first(&det)))
             fail_msg("corner '%s' trips: rise %g hold %g ceiling %g", co->name, det.rise,
                      det.hold, det.ceiling);
-        tp_network_destroy(&net);
+        tp_network_release(&net);
         tp_config_clear(&cd);
     }
     assert_int_equal(st->healthy_trips, 0);

@@ -1,4 +1,4 @@
-/* Tests for integrate.c (with network.c and history.c): CVODE runs against closed-form
+/* Tests for integrate.c (with eval.c and history.c): CVODE runs against closed-form
  * lumped-capacitance solutions, the energy totals against the stored energy, and the CSV
  * written by `tepid warmup` against the contract of docs/user-guide.md. */
 #include "tp_test.h"
@@ -20,18 +20,14 @@ static double error_bound(double rtol, double t_max)
 }
 
 /* Integrate `net` from its initial state into `h`. */
-static void run_net(tp_network *net, double t_end, double step, double rtol, tp_history *h,
-                    tp_integrate_stats *st)
+static void run_net(const tp_network *net, double t_end, double step, double rtol,
+                    tp_history *h, tp_integrate_stats *st)
 {
+    const tp_run run = {t_end, step, rtol, 1000000.0, 120.0};
     tp_integrate_opts o;
     tp_diag d;
     tp_diag_init(&d, stderr);
-    tp_integrate_defaults(net, &o);
-    o.t_end = t_end;
-    o.step = step;
-    o.rtol = rtol;
-    o.max_steps = 1000000;
-    o.wall_time = 120.0;
+    tp_integrate_defaults(&run, &o);
     assert_int_equal(tp_history_init(h, net), TP_OK);
     o.out = tp_history_record;
     o.user = h;
@@ -218,7 +214,7 @@ static void test_integrate_two_node_eigen(void **state)
         double bound = error_bound(rtol, 296.0 + TP_TEST_KELVIN);
         snprintf(yaml, sizeof yaml, TWO_NODE_YAML, rtols[k]);
         assert_int_equal(tp_yaml_net_open(&y, yaml), TP_OK);
-        run_net(y.net, y.net->run.duration, y.net->run.step, y.net->run.tolerance, &h, &st);
+        run_net(y.net, y.desc.run.duration, y.desc.run.step, y.desc.run.tolerance, &h, &st);
         assert_int_equal(h.n, 361);
         for (long i = 0; i < h.n; i++) {
             double t1 = tp_history_temp(&h, i, 0) - TP_TEST_KELVIN;
@@ -341,7 +337,7 @@ static void test_integrate_energy_balance_onoff_radiation(void **state)
     (void)state;
     assert_int_equal(tp_yaml_net_open(&y, balance_yaml), TP_OK);
     net = y.net;
-    run_net(y.net, net->run.duration, net->run.step, net->run.tolerance, &h, &st);
+    run_net(y.net, y.desc.run.duration, y.desc.run.step, y.desc.run.tolerance, &h, &st);
     last = h.n - 1;
     assert_true(h.t[last] == 3600.0);
     assert_true(st.restarts > 10); /* the controller did switch: the case tests what it says */

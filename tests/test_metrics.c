@@ -96,7 +96,7 @@ static void test_metrics_warmup_json_keys_from_the_table(void **state)
     root = tp_read_json(json);
     assert_non_null(text);
     assert_int_equal(tp_yaml_net_open(&y, text), TP_OK);
-    assert_int_equal(tp_warmup_run(y.net, &w, &y.diag), TP_OK);
+    assert_int_equal(tp_warmup_run(y.net, &y.desc.run, &w, &y.diag), TP_OK);
     for (k = 0; k < TP_MET_COUNT; k++) {
         const tp_metricdef *md = tp_metricdef_get(k);
         const cJSON *item = cJSON_GetObjectItemCaseSensitive(root, md->key);

@@ -171,7 +171,7 @@ static void simulate(tp_yaml_net *lw, tp_history *h)
     tp_integrate_opts o;
     tp_integrate_stats stats;
     assert_int_equal(tp_history_init(h, lw->net), TP_OK);
-    tp_integrate_defaults(lw->net, &o);
+    tp_integrate_defaults(&lw->desc.run, &o);
     o.out = tp_history_record;
     o.user = h;
     if (tp_integrate(lw->net, &o, &stats, &lw->diag) != TP_OK) {

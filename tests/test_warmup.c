@@ -29,17 +29,22 @@
 
 #define KELVIN 273.15
 
-/* Assemble a network from YAML text; fails the test on any error. */
-static tp_network *build(const char *yaml)
+/* The run settings of the last network built. */
+static tp_run built_run;
+
+/* Assemble a network from YAML text, its run settings into built_run; fails the test on any
+ * error. */
+static const tp_network *build(const char *yaml)
 {
     tp_diag d;
     tp_yamltree *doc = NULL;
     tp_description desc;
-    tp_network *net = NULL;
+    const tp_network *net = NULL;
     tp_diag_init(&d, stderr);
     assert_int_equal(tp_yamltree_load_text("test.yaml", yaml, strlen(yaml), &doc, &d), TP_OK);
     assert_int_equal(tp_config_read(doc, &desc, &d), TP_OK);
     assert_int_equal(tp_assemble(&desc, doc, &d, &net), TP_OK);
+    built_run = desc.run;
     tp_config_clear(&desc);
     tp_yamltree_destroy(&doc);
     return net;
@@ -60,7 +65,7 @@ static const char *copper_heater =
 
 static void test_tempco_cold_start_and_hot_fraction(void **state)
 {
-    tp_network *net = build(copper_heater);
+    const tp_network *net = build(copper_heater);
     double t[2], p_cold, p_hot;
     (void)state;
     /* Hand calculation: cold (20 degC) R = 2.4 ohm, I = 24/2.4 = 10 A, P = 24^2/2.4 = 240 W. */
@@ -76,22 +81,23 @@ static void test_tempco_cold_start_and_hot_fraction(void **state)
     p_hot = tp_network_source_power(&net->sources[0], t, 1.0, NULL);
     assert_true(fabs(p_hot - 576.0 / 3.15456) < 1e-9);
     assert_true(fabs((1.0 - p_hot / p_cold) - (1.0 - 1.0 / 1.3144)) < 1e-12);
-    tp_network_destroy(&net);
+    tp_network_release(&net);
 }
 
 static void test_supply_resistance_divides_voltage(void **state)
 {
-    tp_network *net = build(copper_heater);
+    const tp_network *net = build(copper_heater);
     double t[2] = {20 + KELVIN, 20 + KELVIN}, wire, p;
+    tp_net_source heater = net->sources[0]; /* the network's, with a series path */
     (void)state;
-    net->sources[0].r_series = 0.1;
+    heater.r_series = 0.1;
     /* Hand calculation: I = 24 / (2.4 + 0.1) = 9.6 A; heater 9.6^2 * 2.4 = 221.184 W; wiring
      * 9.6^2 * 0.1 = 9.216 W; together V I = 230.4 W. */
-    p = tp_network_source_power(&net->sources[0], t, 1.0, &wire);
+    p = tp_network_source_power(&heater, t, 1.0, &wire);
     assert_true(fabs(p - 221.184) < 1e-9);
     assert_true(fabs(wire - 9.216) < 1e-9);
     assert_true(fabs(p + wire - 24.0 * 9.6) < 1e-9);
-    tp_network_destroy(&net);
+    tp_network_release(&net);
 }
 
 /* ---- PID ------------------------------------------------------------------------------------ */
@@ -110,22 +116,30 @@ static const char *pid_plant =
     " kp: 0.05 1/K, ki: 0.0005 1/(K.s), kd: 0 s/K}\n"
     "run: {duration: 4 h, step: 10 s}\n";
 
-static void run_history(tp_network *net, tp_history *h)
+/* Integrate `net` with the run settings it was built with and the controller `ctl` (NULL: the
+ * network's) into `h`. */
+static void run_history_with(const tp_network *net, const tp_control *ctl, tp_history *h)
 {
     tp_integrate_opts o;
     tp_integrate_stats st;
     tp_diag d;
     tp_diag_init(&d, stderr);
     assert_int_equal(tp_history_init(h, net), TP_OK);
-    tp_integrate_defaults(net, &o);
+    tp_integrate_defaults(&built_run, &o);
+    o.control = ctl;
     o.out = tp_history_record;
     o.user = h;
     assert_int_equal(tp_integrate(net, &o, &st, &d), TP_OK);
 }
 
+static void run_history(const tp_network *net, tp_history *h)
+{
+    run_history_with(net, NULL, h);
+}
+
 static void test_pid_no_steady_state_error(void **state)
 {
-    tp_network *net = build(pid_plant);
+    const tp_network *net = build(pid_plant);
     tp_history h;
     (void)state;
     run_history(net, &h);
@@ -135,12 +149,13 @@ static void test_pid_no_steady_state_error(void **state)
     assert_true(fabs(h.reading[h.n - 1] - (60 + KELVIN)) < 1e-3);
     assert_true(fabs(h.duty[h.n - 1] - 0.4) < 1e-4);
     tp_history_clear(&h);
-    tp_network_destroy(&net);
+    tp_network_release(&net);
 }
 
 static void test_pid_antiwindup_bounds_overshoot(void **state)
 {
-    tp_network *clamped = build(pid_plant), *wound = build(pid_plant);
+    const tp_network *net = build(pid_plant);
+    tp_control clamped = net->control, wound = net->control;
     tp_history a, b;
     double over_a, over_b;
     (void)state;
@@ -148,18 +163,17 @@ static void test_pid_antiwindup_bounds_overshoot(void **state)
      * with an aggressive integral gain: without clamping, the integral grows while the output
      * is saturated and must be unwound by overshooting (classic integrator windup; Astrom &
      * Hagglund, PID Controllers, 2nd ed., Sec. 3.5; from memory). */
-    clamped->control.ki = wound->control.ki = 0.005;
-    wound->control.unclamped = 1;
-    run_history(clamped, &a);
-    run_history(wound, &b);
+    clamped.ki = wound.ki = 0.005;
+    wound.unclamped = 1;
+    run_history_with(net, &clamped, &a);
+    run_history_with(net, &wound, &b);
     over_a = tp_series_max(a.reading, a.n, 1) - (60 + KELVIN);
     over_b = tp_series_max(b.reading, b.n, 1) - (60 + KELVIN);
     assert_true(over_a < 0.5 * over_b); /* clamping at least halves the overshoot */
     assert_true(over_a < 5.0);          /* and keeps it to a few kelvin */
     tp_history_clear(&a);
     tp_history_clear(&b);
-    tp_network_destroy(&clamped);
-    tp_network_destroy(&wound);
+    tp_network_release(&net);
 }
 
 /* control.derivative_filter reaches the controller in seconds: 0.1 min is 6 s (the recurrence
@@ -169,7 +183,7 @@ static void test_derivative_filter_from_config(void **state)
     static const char kd0[] = "kd: 0 s/K}";
     char yaml[2048];
     const char *cut = strstr(pid_plant, kd0);
-    tp_network *net, *plain = build(pid_plant);
+    const tp_network *net, *plain = build(pid_plant);
     (void)state;
     assert_non_null(cut);
     snprintf(yaml, sizeof yaml, "%.*skd: 0.2 s/K, derivative_filter: 0.1 min}%s",
@@ -178,8 +192,8 @@ static void test_derivative_filter_from_config(void **state)
     tp_check_abs("Tf", net->control.d_filter, 6.0, 1e-12);
     tp_check_abs("kd", net->control.kd, 0.2, 1e-12);
     assert_true(plain->control.d_filter == 0.0); /* the default: no filter */
-    tp_network_destroy(&net);
-    tp_network_destroy(&plain);
+    tp_network_release(&net);
+    tp_network_release(&plain);
 }
 
 /* ---- metrics against closed forms ------------------------------------------------------------ */
@@ -202,18 +216,18 @@ static void test_time_to_level_first_order(void **state)
         "control: {source: pad, sensor: plate, mode: on-off, setpoint: 60 degC, band: 2 K,"
         " period: 0.01 s}\n"
         "run: {duration: 10 min, step: 1 s, tolerance: 1e-9}\n";
-    tp_network *net = build(yaml);
+    const tp_network *net = build(yaml);
     tp_warmup w;
     tp_diag d;
     (void)state;
     tp_diag_init(&d, stderr);
-    assert_int_equal(tp_warmup_run(net, &w, &d), TP_OK);
+    assert_int_equal(tp_warmup_run(net, &built_run, &w, &d), TP_OK);
     /* Linear interpolation over 1 s of a curve with T'' ~ 1e-4 K/s^2 errs by < 1e-4 s. */
     assert_true(fabs(w.metrics.t_setpoint - (-500.0 * log(0.6))) < 1e-3);
     /* The holding power of a single node is G (T - Ta) = 40 W (hand calculation). */
     assert_true(fabs(w.metrics.hold_power - 40.0) < 1e-6);
     tp_warmup_clear(&w);
-    tp_network_destroy(&net);
+    tp_network_release(&net);
 }
 
 /* `warmup --strict` exits 3 when the reading does not reach the setpoint within the run, and
@@ -331,7 +345,7 @@ static void test_sensor_lag_behind_ramp_is_time_constant(void **state)
         "  sources:\n"
         "    - {id: pad, node: plate, power: 100 W}\n"
         "run: {duration: 10 min, step: 1 s, tolerance: 1e-9}\n";
-    tp_network *net;
+    const tp_network *net;
     tp_history h;
     double level = 60 + KELVIN, tp_, ts;
     int cp, cs;
@@ -345,7 +359,7 @@ static void test_sensor_lag_behind_ramp_is_time_constant(void **state)
     /* The start-up transient decays as exp(-t/20 s): negligible at the 400 s crossing. */
     assert_true(fabs((ts - tp_) - 20.0) < 0.01);
     tp_history_clear(&h);
-    tp_network_destroy(&net);
+    tp_network_release(&net);
 }
 
 /* Plates whose only loss is the mounts' conductance (every convection and radiation scaled to
@@ -454,7 +468,7 @@ static void test_lag_two_first_order_lags(void **state)
         "    - {id: sheet, material: top-sheet, thickness: 1 mm, contact: 100 W/(m2.K)}\n",
         "{mode: on-off, setpoint: 80 degC, band: 10 K, period: 0.05 s}\n"
         "run: {duration: 15 min, step: 0.5 s, tolerance: 1e-9}");
-    tp_network *net = build(yaml);
+    const tp_network *net = build(yaml);
     cJSON *root;
     two_lags s;
     tp_warmup w;
@@ -466,7 +480,7 @@ static void test_lag_two_first_order_lags(void **state)
     t_catch = two_lags_cross(&s, 1, 59.0);
     assert_true(two_lags_x(&s, 0, t_catch) < 65.0); /* still full on: below 80 + 10/2 degC */
     tp_diag_init(&d, stderr);
-    assert_int_equal(tp_warmup_run(net, &w, &d), TP_OK);
+    assert_int_equal(tp_warmup_run(net, &built_run, &w, &d), TP_OK);
     tp_check_abs("surface at hold", w.metrics.surface_hold - KELVIN, 80.0, 1e-6);
     /* The 0.01 s sensor delays the reading by about 0.01 s (a few mK at 0.2 K/s); linear
      * interpolation over 0.5 s steps errs by far less. */
@@ -476,7 +490,7 @@ static void test_lag_two_first_order_lags(void **state)
     tp_check_abs("lag, s until within 1 K", w.metrics.lag, t_catch - t_sp, 0.05);
     assert_true(w.metrics.lag > 0.0);
     tp_warmup_clear(&w);
-    tp_network_destroy(&net);
+    tp_network_release(&net);
     /* The command line reports the same, under lag_K and lag_s. */
     root = warmup_json(yaml);
     tp_check_abs("lag_K", json_num(root, "lag_K"), 60.0 - two_lags_x(&s, 1, t_sp), 0.01);
@@ -500,7 +514,7 @@ static void test_ready_on_off_limit_cycle(void **state)
         "    - {id: plate, material: base-metal, thickness: 5 mm}\n",
         "{mode: on-off, setpoint: 60 degC, band: 3 K, period: 0.05 s}\n"
         "run: {duration: 30 min, step: 0.1 s, tolerance: 1e-9}");
-    tp_network *net = build(yaml);
+    const tp_network *net = build(yaml);
     const double tau = 486.0;
     cJSON *root;
     const cJSON *def;
@@ -508,7 +522,7 @@ static void test_ready_on_off_limit_cycle(void **state)
     tp_diag d;
     (void)state;
     tp_diag_init(&d, stderr);
-    assert_int_equal(tp_warmup_run(net, &w, &d), TP_OK);
+    assert_int_equal(tp_warmup_run(net, &built_run, &w, &d), TP_OK);
     assert_int_equal(w.metrics.ready_basis, TP_READY_CYCLE);
     tp_check_abs("cycle low", w.metrics.cycle_min - KELVIN, 58.5, 0.05);
     tp_check_abs("cycle high", w.metrics.cycle_max - KELVIN, 61.5, 0.05);
@@ -518,7 +532,7 @@ static void test_ready_on_off_limit_cycle(void **state)
     tp_check_abs("ready band high", w.metrics.ready_high - KELVIN, 62.5, 0.05);
     tp_check_abs("surface ready", w.metrics.t_surface_ready, tau * log(100.0 / 62.5), 0.5);
     tp_warmup_clear(&w);
-    tp_network_destroy(&net);
+    tp_network_release(&net);
     /* The command line says which definition it used. */
     root = warmup_json(yaml);
     tp_check_abs("time_surface_ready_s", json_num(root, "time_surface_ready_s"),
@@ -597,16 +611,16 @@ static void test_identify_first_order_plant(void **state)
 {
     /* The reading is the node itself: a pure first-order plant, tau = C/G = 500 s, no dead
      * time, gain = P/G = 100 K per unit duty (closed form). */
-    tp_network *net = build(pid_plant);
+    const tp_network *net = build(pid_plant);
     tp_fopdt m;
     tp_diag d;
     (void)state;
     tp_diag_init(&d, stderr);
-    assert_int_equal(tp_tune_identify(net, 0.1, &m, &d), TP_OK);
+    assert_int_equal(tp_tune_identify(net, &built_run, 0.1, &m, &d), TP_OK);
     assert_true(fabs(m.gain - 100.0) < 1e-6);
     assert_true(fabs(m.tau - 500.0) / 500.0 < 5e-3);
     assert_true(m.dead < 2.0);
-    tp_network_destroy(&net);
+    tp_network_release(&net);
 }
 
 /* ---- the figure through the command line ---------------------------------------------------- */
@@ -669,19 +683,29 @@ static void test_reading_shares_the_sensor_curve_only_when_equal(void **state)
 {
     tp_yaml_net y;
     tp_history h;
+    tp_control offset;
+    tp_net_change change;
+    const tp_network *copy = NULL, *bare = build(copper_heater);
     (void)state;
     open_demo("lab-hotplate-230v.yaml", &y);
     assert_int_equal(tp_history_init(&h, y.net), TP_OK);
     assert_true(tp_warmup_reading_column(y.net, &h) >= 0);
     assert_int_equal(tp_warmup_reading_column(y.net, &h),
                      tp_history_column(&h, y.net->control.sensor));
-    y.net->control.reading.offset = 1.0; /* K */
-    assert_int_equal(tp_warmup_reading_column(y.net, &h), -1);
-    y.net->control.reading.offset = 0.0;
-    y.net->has_control = 0;
-    assert_int_equal(tp_warmup_reading_column(y.net, &h), -1);
+    /* The same plate read with an offset (a copy with that controller). */
+    offset = y.net->control;
+    offset.reading.offset = 1.0; /* K */
+    change = (tp_net_change){TP_CHANGE_CONTROL, -1, -1, 0.0, NULL, &offset};
+    assert_int_equal(tp_network_copy(y.net, &change, 1, &copy), TP_OK);
+    assert_int_equal(tp_warmup_reading_column(copy, &h), -1);
+    tp_network_release(&copy);
     tp_history_clear(&h);
     tp_yaml_net_close(&y);
+    /* No controller. */
+    assert_int_equal(tp_history_init(&h, bare), TP_OK);
+    assert_int_equal(tp_warmup_reading_column(bare, &h), -1);
+    tp_history_clear(&h);
+    tp_network_release(&bare);
     open_demo("workshop-bed-24v.yaml", &y);
     assert_int_equal(tp_history_init(&h, y.net), TP_OK);
     assert_int_equal(tp_warmup_reading_column(y.net, &h), -1);

@@ -314,7 +314,7 @@ static inline void tp_text_locate(const char *text, const char *needle, int *lin
 typedef struct tp_yaml_net {
     tp_yamltree *doc;
     tp_description desc;
-    tp_network *net; /* NULL when the text did not assemble */
+    const tp_network *net; /* NULL when the text did not assemble */
     tp_diag diag;    /* messages kept in diag.log, not printed */
 } tp_yaml_net;
 
@@ -358,7 +358,7 @@ static inline void tp_yaml_net_plate(tp_yaml_net *y, const char *source, const c
 
 static inline void tp_yaml_net_close(tp_yaml_net *y)
 {
-    tp_network_destroy(&y->net);
+    tp_network_release(&y->net);
     tp_config_clear(&y->desc);
     tp_yamltree_destroy(&y->doc);
 }

@@ -5,9 +5,8 @@
 #include <stdio.h>
 
 #include "diag.h"
+#include "hardlimits.h"
 #include "status.h"
-
-#define TP_PATH_MAX 4096 /* longest output path accepted, bytes */
 
 /* An output in progress. "-" means standard output, written directly. */
 typedef struct tp_outfile {

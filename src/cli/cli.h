@@ -6,9 +6,8 @@
 #include <stdio.h>
 
 #include "diag.h"
+#include "hardlimits.h"
 #include "status.h"
-
-#define TP_CLI_MAX_ARGS 256 /* option occurrences on one command line */
 
 #define TP_OUT_FILE 1   /* tp_opt.is_output: a data file */
 #define TP_OUT_FIGURE 2 /* tp_opt.is_output: a figure (.png .svg .pdf) */

@@ -6,6 +6,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "eval.h"
 #include "json.h"
 #include "session.h"
 #include "steady.h"
@@ -61,7 +62,7 @@ static const char *last_message(const char *log)
 
 /* The state to show: --at, else the holding point, else the full-power steady state, else
  * (no steady state exists) the initial temperatures, with the reason in st->note. */
-static tp_status find_state(tp_network *net, double t_at, state *st)
+static tp_status find_state(const tp_network *net, double t_at, state *st)
 {
     tp_steady ss;
     tp_diag quiet;
@@ -282,7 +283,7 @@ static tp_status run_explain(const tp_cli *cli, tp_diag *d)
             for (i = 0; i < s.net->n_nodes; i++)
                 if (s.net->nodes[i].capacity > 0 && !(sta.t[i] <= ex.node_max))
                     ex.node_max = sta.t[i];
-            ex.surface_max = tp_network_surface(s.net, sta.t);
+            ex.surface_max = tp_eval_surface_at(s.net, sta.t, NULL);
         }
         tp_summary_cautions(s.text, "cautions", cautions,
                             tp_caution_list(&s.desc, s.net, &ex, cautions));

@@ -10,6 +10,7 @@
 #include "configedit.h"
 #include "csv.h"
 #include "fit.h"
+#include "hardlimits.h"
 #include "json.h"
 #include "outfile.h"
 #include "plot.h"
@@ -18,9 +19,6 @@
 #include "templog.h"
 #include "units.h"
 #include "verbs.h"
-
-#define TP_FIT_FREE_MAX 32 /* --free options on one command line */
-#define TP_MAX_SETS 128    /* --set options on one command line */
 
 static const tp_opt fit_opts[] = {
     {"log", 0, 1, 0, 0, "FILE", "the measured log (CSV with a header; required)"},
@@ -50,7 +48,7 @@ typedef struct fit_run {
     tp_fit_problem pb;
     tp_fit_result res;
     tp_description fitted; /* the description with the fitted values */
-    tp_network *net; /* ... assembled, for the cautions */
+    const tp_network *net; /* ... assembled, for the cautions */
     char warn[TP_FIT_MAX_PARAMS + 4][512];
     int n_warn;
 } fit_run;
@@ -656,7 +654,7 @@ static tp_status run_fit(const tp_cli *cli, tp_diag *d)
         rc = write_config(out, f, d);
     if (rc == TP_OK && f->s.text)
         summary(f->s.text, f);
-    tp_network_destroy(&f->net);
+    tp_network_release(&f->net);
     tp_config_clear(&f->fitted);
     tp_fit_result_clear(&f->res);
     tp_templog_clear(&f->log);

@@ -23,7 +23,7 @@ static const tp_opt steady_opts[] = {
 
 static double surface_or_nan(const tp_network *net, const double *t)
 {
-    return tp_network_surface(net, t);
+    return tp_eval_surface_at(net, t, NULL);
 }
 
 static void print_nodes(FILE *fp, const tp_network *net, const double *t)

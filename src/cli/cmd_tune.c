@@ -102,6 +102,9 @@ static tp_status run_tune(const tp_cli *cli, tp_diag *d)
     tp_fopdt m;
     tp_gains g;
     tp_warmup w;
+    tp_control tuned_ctl;
+    tp_net_change change;
+    const tp_network *tuned = NULL;
     tp_tune_rule rule;
     double tau_c, step, dead_eff;
     char buf[64], buf2[64];
@@ -114,7 +117,7 @@ static tp_status run_tune(const tp_cli *cli, tp_diag *d)
     if (rc != TP_OK)
         return rc;
     memset(&w, 0, sizeof w);
-    rc = tp_tune_identify(s.net, step, &m, d);
+    rc = tp_tune_identify(s.net, &s.desc.run, step, &m, d);
     if (rc != TP_OK)
         goto done;
     /* A sampled controller adds about half its period of effective delay (Skogestad 2003,
@@ -132,21 +135,26 @@ static tp_status run_tune(const tp_cli *cli, tp_diag *d)
         me.dead = dead_eff;
         tp_tune_imc(&me, tau_c, &g);
     }
-    s.net->control.mode = TP_MODE_PID;
-    s.net->control.kp = g.kp;
-    s.net->control.ki = g.ki;
-    s.net->control.kd = g.kd;
-    rc = tp_warmup_run(s.net, &w, d);
+    /* The warm-up with the suggested gains runs on a copy of the plate with that controller. */
+    tuned_ctl = s.net->control;
+    tuned_ctl.mode = TP_MODE_PID;
+    tuned_ctl.kp = g.kp;
+    tuned_ctl.ki = g.ki;
+    tuned_ctl.kd = g.kd;
+    change = (tp_net_change){TP_CHANGE_CONTROL, -1, -1, 0.0, NULL, &tuned_ctl};
+    rc = tp_network_copy(s.net, &change, 1, &tuned);
+    if (rc == TP_OK)
+        rc = tp_warmup_run(tuned, &s.desc.run, &w, d);
     if (rc == TP_OK && tp_cli_get(cli, "csv"))
         rc = tp_csv_write_history(tp_cli_get(cli, "csv"), &w.history, d);
     if (rc == TP_OK && tp_cli_get(cli, "json"))
         rc = write_json(tp_cli_get(cli, "json"), &m, &g, rule, &w.metrics, d);
     if (rc == TP_OK && tp_cli_get(cli, "plot"))
-        rc = tp_figure_warmup(tp_cli_get(cli, "plot"), tp_session_title(&s), s.net, &w, d);
+        rc = tp_figure_warmup(tp_cli_get(cli, "plot"), tp_session_title(&s), tuned, &w, d);
     if (rc == TP_OK && s.text) {
         tp_caution cautions[TP_CAUTIONS_MAX];
         fprintf(s.text, "tepid tune %s\n  ", cli->file);
-        tp_summary_network(s.text, s.net);
+        tp_summary_network(s.text, tuned);
         fprintf(s.text, "  model of the reading at the holding point (duty %.3f -> %.3f):\n"
                         "    gain %.4g K per unit duty, time constant %.1f s, dead time %.1f s "
                         "(+%.2f s for sampling)\n",
@@ -167,10 +175,11 @@ static tp_status run_tune(const tp_cli *cli, tp_diag *d)
                 isfinite(w.metrics.t_setpoint) ? buf : "(not reached)",
                 w.metrics.overshoot_reading, isfinite(w.metrics.t_surface_ready) ? buf2 : "-");
         tp_summary_cautions(s.text, "cautions", cautions,
-                            tp_warmup_cautions(&s.desc, s.net, &w, cautions));
+                            tp_warmup_cautions(&s.desc, tuned, &w, cautions));
     }
 done:
     tp_warmup_clear(&w);
+    tp_network_release(&tuned);
     tp_session_close(&s);
     return rc;
 }

@@ -445,7 +445,7 @@ static tp_status run_warmup(const tp_cli *cli, tp_diag *d)
         tp_session_close(&s);
         return TP_ERR_USAGE;
     }
-    rc = tp_warmup_run(s.net, &w, d);
+    rc = tp_warmup_run(s.net, &s.desc.run, &w, d);
     if (rc == TP_OK && tp_cli_get(cli, "csv"))
         rc = tp_csv_write_history(tp_cli_get(cli, "csv"), &w.history, d);
     if (rc == TP_OK && s.net->grid)

@@ -8,6 +8,7 @@
 #include "diag.h"
 #include "materials.h"
 #include "selfdoc.h"
+#include "status.h"
 #include "units.h"
 #include "verbs.h"
 #include "version.h"
@@ -89,6 +90,12 @@ static int run(int argc, char **argv)
         return TP_EXIT_OK;
     }
     st = verb->run(&cli, &d);
+    /* Memory that runs out deep in a computation (an evaluator, a solver's arrays) is a failed
+     * computation like any other: exit 1 with a message, even where no caller said more. */
+    if (st == TP_ERR_NOMEM && d.errors == 0)
+        tp_diag_error(&d, tp_diag_loc_none(), NULL,
+                      "free memory, or shrink the model (fewer grid cells)", "%s: %s", verb->name,
+                      tp_status_message(st));
     return tp_status_exit_code(st);
 }
 

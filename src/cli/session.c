@@ -5,8 +5,7 @@
 
 #include "assemble.h"
 #include "config.h"
-
-#define TP_MAX_SETS 128 /* --set options on one command line */
+#include "hardlimits.h"
 
 static tp_status open_with(tp_session *s, const tp_cli *cli, const char *room, int open_loop,
                            tp_diag *d)
@@ -69,7 +68,7 @@ tp_status tp_session_open_room(tp_session *s, const tp_cli *cli, const char *roo
 
 void tp_session_close(tp_session *s)
 {
-    tp_network_destroy(&s->net);
+    tp_network_release(&s->net);
     tp_config_clear(&s->desc);
     tp_yamltree_destroy(&s->doc);
 }

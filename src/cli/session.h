@@ -16,7 +16,7 @@ typedef struct tp_session {
     const tp_cli *cli;
     tp_yamltree *doc;
     tp_description desc;
-    tp_network *net;
+    const tp_network *net; /* frozen: every verb only reads it */
     FILE *text; /* the summary stream, NULL with -q */
 } tp_session;
 

@@ -6,21 +6,10 @@
 
 #include "description.h"
 #include "diag.h"
+#include "hardlimits.h"
 #include "status.h"
 #include "units.h"
 #include "yamltree.h"
-
-#define TP_MAX_LAYERS 16        /* layers in a bed */
-#define TP_MAX_RAW_NODES 100000 /* nodes in a raw network */
-#define TP_MAX_RAW_LINKS 400000 /* links in a raw network */
-#define TP_MAX_MATERIALS 256    /* materials defined in one file */
-#define TP_MAX_OUTPUT_ROWS 5000000.0 /* output times in one run, run.duration / run.step + 1
-                                        (30 days at 1 s fits) */
-#define TP_MAX_TICKS 10000000.0      /* controller samples in one run, run.duration /
-                                        control.period */
-#define TP_MAX_DURATION (30 * 86400.0) /* s, longest model run: run.duration, or the span of a
-                                          measured log that fit reproduces */
-#define TP_GRID_SIDE_MAX 500    /* cells along one side of bed.grid */
 
 /* Read the description from a parsed document. Every problem is reported to `d`; on error
  * returns TP_ERR_CONFIG and *desc is cleared (nothing to free). Defaults are applied. */

@@ -7,12 +7,9 @@
 #include <stddef.h>
 
 #include "diag.h"
+#include "hardlimits.h"
 #include "status.h"
 
-#define TP_TEMPLOG_MAX_ROWS 1000000              /* data rows accepted in one log (checked first) */
-#define TP_TEMPLOG_MAX_BYTES (64L * 1024 * 1024) /* largest log file read, bytes */
-#define TP_TEMPLOG_MAX_COLS 64                   /* columns in one log */
-#define TP_TEMPLOG_LINE_MAX 4096                 /* longest line, bytes */
 #define TP_TEMPLOG_MIN_ROWS 10                   /* data rows a fit needs at least */
 #define TP_TEMPLOG_GAP_FRACTION 0.1   /* -, a gap longer than this share of the log warns */
 #define TP_TEMPLOG_READING_MIN 223.15 /* K, -50 degC: lowest plausible reading */

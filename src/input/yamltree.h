@@ -6,11 +6,8 @@
 #include <stddef.h>
 
 #include "diag.h"
+#include "hardlimits.h"
 #include "status.h"
-
-#define TP_YAMLTREE_MAX_BYTES (1024 * 1024) /* largest config file read, bytes */
-#define TP_YAMLTREE_MAX_NODES 200000        /* nodes after alias expansion */
-#define TP_YAMLTREE_MAX_DEPTH 64            /* nesting of maps and sequences */
 
 typedef enum tp_yamltree_kind {
     TP_YAMLTREE_SCALAR,

@@ -331,16 +331,29 @@ static tp_status attach_circuit(const tp_description *desc, const tp_yamltree *d
                            where(doc, "wiring"), &c, d);
     if (st != TP_OK)
         return st;
-    for (; net; net = net->grid ? net->grid->lumped : NULL) {
+    for (; net; net = tp_network_twin_mut(net)) {
         src = tp_network_heater(net);
         if (src >= 0 && net->sources[src].kind == TP_SRC_ELECTRIC)
-            net->sources[src].r_series = c.total;
+            tp_network_source_mut(net, src)->r_series = c.total;
     }
     return TP_OK;
 }
 
+/* A gridded plate's lumped twin gets the grid's controller, reading the node the grid's sensor
+ * was refined from (the twin's sources are the grid's, in order): its steady states start the
+ * grid's, at the same duties and targets. */
+static void mirror_control(tp_network *net)
+{
+    tp_network *lp = tp_network_twin_mut(net);
+    if (!lp || !net->has_control || !net->grid->from)
+        return;
+    lp->has_control = 1;
+    lp->control = net->control;
+    lp->control.sensor = net->grid->from[net->control.sensor];
+}
+
 tp_status tp_assemble(const tp_description *desc, const tp_yamltree *doc, tp_diag *d,
-                      tp_network **out)
+                      const tp_network **out)
 {
     tp_network *net;
     tp_status st;
@@ -372,7 +385,7 @@ tp_status tp_assemble(const tp_description *desc, const tp_yamltree *doc, tp_dia
         tp_network_destroy(&net);
         return st;
     }
-    net->run = desc->run;
+    mirror_control(net);
     check_graph(net, d, doc);
     *out = net;
     return TP_OK;

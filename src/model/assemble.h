@@ -9,10 +9,11 @@
 #include "status.h"
 #include "yamltree.h"
 
-/* Build the network of `desc`. `doc` (may be NULL) gives file positions for messages.
+/* Build the network of `desc`, finished and frozen: the caller only reads it and frees it with
+ * tp_network_release. `doc` (may be NULL) gives file positions for messages.
  * Errors (unknown ids, impossible geometry ...) go to `d` and return TP_ERR_CONFIG with
  * *out NULL; warnings (an isolated node, no path to a fixed node ...) do not fail. */
 tp_status tp_assemble(const tp_description *desc, const tp_yamltree *doc, tp_diag *d,
-                      tp_network **out);
+                      const tp_network **out);
 
 #endif

@@ -19,7 +19,7 @@
  *                                        the point lies on a cell boundary
  * (conductances G and radiating or convecting areas A scale with that share). Convection keeps
  * the lumped link's correlation case for every cell of a face, as one coefficient group: h is
- * the correlation at the face's area-weighted mean temperature (network.c), applied to each
+ * the correlation at the face's area-weighted mean temperature (eval.c), applied to each
  * cell's own temperature difference.
  * In-plane conduction joins neighbouring cells of a layer (finite volumes, in-plane k):
  *   G_x = k t fy_j dy / ((fx_i + fx_i+1) dx / 2),  G_y = k t fx_i dx / ((fy_j + fy_j+1) dy / 2).
@@ -33,7 +33,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "config.h"
+#include "hardlimits.h"
 #include "materials.h"
 
 #define TP_COVER_MIN 1.0e-9 /* -, a smaller covered fraction of a cell counts as none */
@@ -65,6 +65,9 @@ typedef struct refine {
     int *node_map;          /* lumped node -> node of the grid (non-layer nodes) */
     double *share;          /* nx * ny scratch: a link's weight per cell */
     tp_net_grid *grid;
+    /* The grid's arrays while they are filled (const in the finished network). */
+    int *cell, *top_link;
+    double *layer_capacity, *top_area;
 } refine;
 
 int tp_grid_wanted(const tp_description *desc)
@@ -122,7 +125,7 @@ static span meet(span a, span b)
 
 static int cell_node(const refine *r, int layer, int i, int j)
 {
-    return r->grid->cell[(layer * r->ny + j) * r->nx + i];
+    return r->cell[(layer * r->ny + j) * r->nx + i];
 }
 
 /* Area of the intersection of layers a, b (and c when c >= 0) in cell (i, j), m2. */
@@ -229,8 +232,8 @@ static tp_status add_cells(refine *r)
                 node = tp_network_add_node(r->net, id, ln->capacity * share, ln->t0);
                 if (node < 0)
                     return TP_ERR_NOMEM;
-                r->grid->cell[(k * r->ny + j) * r->nx + i] = node;
-                r->grid->layer_capacity[k] += ln->capacity * share;
+                r->cell[(k * r->ny + j) * r->nx + i] = node;
+                r->layer_capacity[k] += ln->capacity * share;
             }
         }
     }
@@ -344,9 +347,9 @@ static tp_status split_over_cells(refine *r, const tp_net_link *l, int k, int ot
                 return TP_ERR_NOMEM;
             if (top) {
                 int c = j * r->nx + i, slot = l->law == TP_LAW_CONVECTION ? 0 : 1;
-                r->grid->top_link[2 * c + slot] = li;
+                r->top_link[2 * c + slot] = li;
                 if (slot == 0)
-                    r->grid->top_area[c] = r->net->links[li].area;
+                    r->top_area[c] = r->net->links[li].area;
             }
         }
     }
@@ -487,8 +490,9 @@ static tp_status links(refine *r)
 /* Copy a lumped source's parameters into a new one, keeping the new one's node list. */
 static void copy_source(tp_net_source *ns, const tp_net_source *ls)
 {
-    int *nodes = ns->nodes, n = ns->n_nodes;
-    double *weights = ns->weights;
+    const int *nodes = ns->nodes;
+    const double *weights = ns->weights;
+    int n = ns->n_nodes;
     *ns = *ls;
     ns->nodes = nodes;
     ns->weights = weights;
@@ -580,6 +584,7 @@ static tp_status sources(refine *r)
 static tp_status make_grid(refine *r)
 {
     tp_net_grid *g = calloc(1, sizeof *g);
+    char(*layer_id)[TP_ID_MAX];
     int n = r->nx * r->ny, k;
     if (!g)
         return TP_ERR_NOMEM;
@@ -591,19 +596,20 @@ static tp_status make_grid(refine *r)
     g->width = r->desc->bed.size[0];
     g->depth = r->desc->bed.size[1];
     g->sensor_x = g->sensor_y = TP_UNSET;
-    g->layer_id = calloc((size_t)r->nl, sizeof *g->layer_id);
-    g->cell = malloc((size_t)(n * r->nl) * sizeof *g->cell);
-    g->layer_capacity = calloc((size_t)r->nl, sizeof *g->layer_capacity);
-    g->top_area = calloc((size_t)n, sizeof *g->top_area);
-    g->top_link = malloc((size_t)(2 * n) * sizeof *g->top_link);
-    if (!g->layer_id || !g->cell || !g->layer_capacity || !g->top_area || !g->top_link)
+    layer_id = calloc((size_t)r->nl, sizeof *layer_id);
+    g->layer_id = (const char(*)[TP_ID_MAX])layer_id;
+    g->cell = r->cell = malloc((size_t)(n * r->nl) * sizeof *r->cell);
+    g->layer_capacity = r->layer_capacity = calloc((size_t)r->nl, sizeof *r->layer_capacity);
+    g->top_area = r->top_area = calloc((size_t)n, sizeof *r->top_area);
+    g->top_link = r->top_link = malloc((size_t)(2 * n) * sizeof *r->top_link);
+    if (!layer_id || !r->cell || !r->layer_capacity || !r->top_area || !r->top_link)
         return TP_ERR_NOMEM;
     for (k = 0; k < n * r->nl; k++)
-        g->cell[k] = -1;
+        r->cell[k] = -1;
     for (k = 0; k < 2 * n; k++)
-        g->top_link[k] = -1;
+        r->top_link[k] = -1;
     for (k = 0; k < r->nl; k++)
-        snprintf(g->layer_id[k], TP_ID_MAX, "%s", r->desc->bed.layers[k].id);
+        snprintf(layer_id[k], TP_ID_MAX, "%s", r->desc->bed.layers[k].id);
     return TP_OK;
 }
 
@@ -637,20 +643,20 @@ tp_status tp_grid_refine(const tp_description *desc, const tp_yamltree *doc, tp_
     if (st == TP_OK)
         st = sources(&r);
     if (st == TP_OK) {
-        int i;
-        net->grid->from = malloc((size_t)net->n_nodes * sizeof *net->grid->from);
-        if (!net->grid->from)
+        int i, *from = malloc((size_t)net->n_nodes * sizeof *from);
+        r.grid->from = from;
+        if (!from)
             st = TP_ERR_NOMEM;
         for (k = 0; st == TP_OK && k < r.nl; k++)
             for (i = 0; i < r.nx * r.ny; i++)
-                if (net->grid->cell[k * r.nx * r.ny + i] >= 0)
-                    net->grid->from[net->grid->cell[k * r.nx * r.ny + i]] = k;
+                if (r.cell[k * r.nx * r.ny + i] >= 0)
+                    from[r.cell[k * r.nx * r.ny + i]] = k;
         for (k = r.nl; st == TP_OK && k < lumped->n_nodes; k++)
-            net->grid->from[r.node_map[k]] = k;
+            from[r.node_map[k]] = k;
         if (st == TP_OK)
             st = tp_network_finish(*owned);
         if (st == TP_OK) {
-            net->grid->lumped = *owned;
+            r.grid->lumped = *owned;
             *owned = NULL;
         }
     }

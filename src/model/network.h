@@ -1,7 +1,10 @@
 /* The thermal network: nodes with heat capacity or fixed temperature, links with one law each
  * (conduction, convection, radiation), heat sources, and the controller that switches one of
- * them. It evaluates the right-hand side C_i dT_i/dt = sum_j Q_ji + P_i and its Jacobian.
- * Everything tepid computes lowers to this structure. */
+ * them, with the pattern of the Jacobian of C_i dT_i/dt = sum_j Q_ji + P_i. Everything tepid
+ * computes lowers to this structure. Once tp_network_finish has run, a network is frozen: its
+ * topology and parameters are only read (every study takes a const pointer), and what changes
+ * during a run (duties, the compact evaluation arrays, scratch) lives in an evaluator (eval.h).
+ * A varied network is a copy (tp_network_copy). */
 #ifndef TP_NETWORK_H
 #define TP_NETWORK_H
 
@@ -12,6 +15,9 @@
 #include "description.h"
 #include "diag.h"
 #include "status.h"
+
+#define TP_NET_DH_STEP 1.0e-3 /* K, central-difference step for d(h A dT)/dT of correlations */
+#define TP_NET_R_FLOOR 1.0e-2 /* -, lowest R(T)/R0 accepted (a very negative tempco) */
 
 /* Extra states appended after the free temperatures: running energy totals, J. */
 enum {
@@ -69,10 +75,6 @@ typedef struct tp_net_group {
     int sink;          /* the node every member convects to */
     double area;       /* m2, the members' total area (set by tp_network_finish) */
     int first, count;  /* members: group_links[first .. first + count - 1] */
-    double h;          /* W/(m2.K) at the last evaluation (scratch) */
-    double dh_ds;      /* dh/dT of the mean surface temperature, W/(m2.K2) (scratch) */
-    double dh_db;      /* dh/dT of the sink, W/(m2.K2) (scratch) */
-    double h_secant;   /* h for the secant Jacobian, W/(m2.K) (scratch) */
 } tp_net_group;
 
 /* The cells of a gridded plate (bed.grid): which node sits at each cell of each layer, and the
@@ -82,21 +84,18 @@ typedef struct tp_net_grid {
     int nx, ny;                 /* cells along the bed's first (x) and second (y) side */
     int n_layers;
     double width, depth;        /* m */
-    char (*layer_id)[TP_ID_MAX];
-    int *cell;                  /* n_layers * nx * ny: node of (layer l, i, j) at
+    const char (*layer_id)[TP_ID_MAX];
+    const int *cell;            /* n_layers * nx * ny: node of (layer l, i, j) at
                                    (l * ny + j) * nx + i; -1 where the layer has no cell */
-    double *layer_capacity;     /* n_layers: J/K, the layer's cells together */
-    double *top_area;           /* nx * ny: exposed top area of the top layer's cell, m2 */
-    int *top_link;              /* 2 * nx * ny: that face's convection and radiation link of
+    const double *layer_capacity; /* n_layers: J/K, the layer's cells together */
+    const double *top_area;     /* nx * ny: exposed top area of the top layer's cell, m2 */
+    const int *top_link;        /* 2 * nx * ny: that face's convection and radiation link of
                                    each cell (-1 when none) */
     double sensor_x, sensor_y;  /* m: where the sensor sits (NaN without a sensor) */
-    struct tp_network *lumped;  /* the lumped network it was refined from (owned, finished):
-                                   its steady states start the grid's */
-    int *from;                  /* per node: the node of `lumped` it was refined from */
+    const struct tp_network *lumped; /* the lumped network it was refined from (owned,
+                                   finished): its steady states start the grid's */
+    const int *from;            /* per node: the node of `lumped` it was refined from */
 } tp_net_grid;
-
-/* Compact arrays for evaluating a network fast; private to network.c. */
-typedef struct tp_net_fast tp_net_fast;
 
 typedef enum tp_source_kind { TP_SRC_POWER, TP_SRC_ELECTRIC } tp_source_kind;
 
@@ -112,22 +111,25 @@ typedef struct tp_net_source {
                         supply output, wiring loop, switch) */
     double max_duty; /* fully on means this duty */
     int n_nodes;     /* nodes the power lands in: 1 when lumped */
-    int *nodes;      /* node indices */
-    double *weights; /* share of the element in each node; sums to 1 */
+    const int *nodes;      /* node indices */
+    const double *weights; /* share of the element in each node; sums to 1 */
 } tp_net_source;
 
+/* The arrays a network points to are const, as the network itself is to every study: even
+ * through a pointer member nothing outside network.c writes to a network. Assembly, which
+ * holds a network under construction (tp_network *), writes through the builders below and
+ * the mutable accessors (tp_network_node_mut ...). */
 typedef struct tp_network {
-    tp_net_node *nodes;
+    const tp_net_node *nodes;
     int n_nodes;
-    int *id_index;      /* open-addressing hash of node ids: node index + 1, 0 empty */
+    const int *id_index; /* open-addressing hash of node ids: node index + 1, 0 empty */
     int id_slots;       /* its size, a power of two kept above twice n_nodes */
-    tp_net_link *links;
+    const tp_net_link *links;
     int n_links;
-    tp_net_source *sources;
+    const tp_net_source *sources;
     int n_sources;
     int n_free;         /* free temperatures; the state has n_free + TP_N_QUAD entries */
-    int *free_nodes;    /* state index -> node index */
-    double *duty;       /* per source, 0..1: the held controller output (set by the integrator) */
+    const int *free_nodes; /* state index -> node index */
     int has_control;
     tp_control control;
     /* The working surface (physical form): the top face of the top layer, estimated from the
@@ -135,22 +137,18 @@ typedef struct tp_network {
     int top_node;       /* node index, -1 when unknown (raw form) or gridded */
     double top_area;    /* m2 */
     double top_half_r;  /* t / (2 k) of the top layer, K.m2/W (gridded plates too) */
-    tp_net_grid *grid;  /* gridded plate (owned), NULL when lumped */
-    tp_net_group *groups; /* convection coefficient groups */
+    const tp_net_grid *grid; /* gridded plate (owned), NULL when lumped */
+    const tp_net_group *groups; /* convection coefficient groups */
     int n_groups, cap_groups;
-    int *group_links;   /* members of every group, by group (built by tp_network_finish) */
+    const int *group_links; /* members of every group, by group (built by tp_network_finish) */
     int cap_nodes, cap_links, cap_sources; /* allocated entries */
-    tp_net_fast *fast;  /* compact arrays (owned); NULL only when they could not be built */
-    tp_run run;
     /* Jacobian sparsity (compressed sparse columns over the whole state), built once. */
     int nnz;
-    int *colptr;        /* n_state + 1 */
-    int *rowind;        /* nnz */
-    int (*link_slot)[6]; /* per link: aa, ab, ba, bb, lost-a, lost-b (-1 when absent) */
-    int *src_slot;      /* per source node entry: the diagonal, then the quadrature rows */
-    int *src_first;     /* per source: first index into src_slot (3 entries per node) */
-    double *work;       /* n_nodes temperatures, scratch for evaluations */
-    double *src_work;   /* 3 x the largest source's node count, scratch */
+    const int *colptr;  /* n_state + 1 */
+    const int *rowind;  /* nnz */
+    const int (*link_slot)[6]; /* per link: aa, ab, ba, bb, lost-a, lost-b (-1 when absent) */
+    const int *src_slot; /* per source node entry: the diagonal, then the quadrature rows */
+    const int *src_first; /* per source: first index into src_slot (3 entries per node) */
 } tp_network;
 
 /* Snapshot of the heat flows at one state. */
@@ -167,7 +165,8 @@ typedef struct tp_flows {
 /* An empty network; add nodes, links, sources, then tp_network_finish. */
 tp_network *tp_network_create(void);
 
-/* Free a network and NULL the handle; accepts NULL. */
+/* Free a network under construction (assembly) and NULL the handle; accepts NULL. A finished
+ * network is freed by tp_network_release. */
 void tp_network_destroy(tp_network **net);
 
 /* One change a copy makes to the network it copies (tp_network_copy): the only way to get a
@@ -181,28 +180,41 @@ typedef enum tp_net_change_kind {
                                  nodes stay */
     TP_CHANGE_TOP_AIRFLOW,    /* the working surface's correlated convection (its links and
                                  coefficient groups) at airflow `value` (m/s) */
-    TP_CHANGE_TOP_CAPACITY    /* `value` (J/K) more heat capacity on the top layer: its node, or
+    TP_CHANGE_TOP_CAPACITY,   /* `value` (J/K) more heat capacity on the top layer: its node, or
                                  its cells in proportion to their top area */
+    TP_CHANGE_CONTROL,        /* the controller `control` (copied) in place of the network's:
+                                 other gains, mode or setpoint; its source and sensor are node
+                                 and source indices of the source network */
+    TP_CHANGE_SOURCE_POWER    /* source a becomes a constant-power source of `value` W, fully
+                                 on at duty 1, with no series resistance (a logged power drives
+                                 it); the controller switching it, if any, at max_duty 1 */
 } tp_net_change_kind;
 
 typedef struct tp_net_change {
     tp_net_change_kind kind;
-    int a, b;          /* node indices of the source network (ADD_CONDUCTION: both, ISOLATE: a) */
-    double value;      /* W/K, m/s or J/K as the kind says */
+    int a, b;          /* node indices of the source network (ADD_CONDUCTION: both, ISOLATE: a);
+                          SOURCE_POWER: a is a source index */
+    double value;      /* W/K, m/s, J/K or W as the kind says */
     const char *label; /* ADD_CONDUCTION: the new link's label, copied; NULL: "a - b" */
+    const tp_control *control; /* CONTROL: the controller */
 } tp_net_change;
 
 /* A deep copy of the finished network `src` (nodes, links, sources with their node lists,
- * coefficient groups, controller, run, working surface, and the grid with its lumped twin),
- * with `changes[0 .. n_changes - 1]` applied in order, then finished: its compact arrays and
- * Jacobian pattern are its own and its duties are reset to each source's max_duty. `src` is
- * only read. Node and state numbering are those of `src` (an added link changes neither), so a
- * state vector of `src` is one of the copy. A gridded copy's twin gets the same changes where
- * they name no cell (nodes mapped through grid->from). Returns TP_OK with *out set, or
- * TP_ERR_CONFIG for a change that cannot apply (a node index out of range, a top-layer change
- * on a network without a physical top layer) and TP_ERR_NOMEM; *out is NULL on failure. */
+ * coefficient groups, controller, working surface, and the grid with its lumped twin), with
+ * `changes[0 .. n_changes - 1]` applied in order, then finished: its Jacobian pattern is its
+ * own. The only way to vary a network. `src` is only read. Node and state numbering are those
+ * of `src` (an added link changes neither), so a state vector of `src` is one of the copy. A
+ * gridded copy's twin gets the same changes where they name no cell (nodes mapped through
+ * grid->from). Returns TP_OK with *out set, or TP_ERR_CONFIG for a change that cannot apply (a
+ * node or source index out of range, a top-layer change on a network without a physical top
+ * layer, a controller for a network without a source) and TP_ERR_NOMEM; *out is NULL on
+ * failure. */
 tp_status tp_network_copy(const tp_network *src, const tp_net_change *changes, int n_changes,
-                          tp_network **out);
+                          const tp_network **out);
+
+/* Free a finished network (from tp_assemble or tp_network_copy) and NULL the handle; accepts
+ * NULL. */
+void tp_network_release(const tp_network **net);
 
 /* Append a node (capacity > 0 with its initial temperature, or capacity 0 and fixed t0).
  * Returns its index, or -1 when out of memory. */
@@ -223,6 +235,13 @@ tp_status tp_network_spread_source(tp_network *net, tp_net_source *src, const in
  * convect to). Returns its index, or -1 when out of memory. Links join it by setting their
  * `group` (law convection, `correlated` 1 with the same case, b == sink). */
 int tp_network_add_group(tp_network *net, const tp_convection_case *conv, int sink);
+
+/* Assembly's access to a network under construction: node, link or source i to write. */
+tp_net_node *tp_network_node_mut(tp_network *net, int i);
+tp_net_link *tp_network_link_mut(tp_network *net, int i);
+tp_net_source *tp_network_source_mut(tp_network *net, int i);
+/* The lumped twin of a gridded network under construction, to write (NULL when not gridded). */
+tp_network *tp_network_twin_mut(tp_network *net);
 
 /* Index of a node by id, or -1. */
 int tp_network_find_node(const tp_network *net, const char *id);
@@ -253,13 +272,10 @@ int tp_network_holds(const tp_network *net);
  * NULL when memory runs out. */
 int *tp_network_grounded(const tp_network *net);
 
-/* Number the free nodes, build the Jacobian pattern, set every duty to the source's max_duty.
- * Call once after the last node, link and source. */
+/* Number the free nodes, gather the coefficient groups and build the Jacobian pattern. Call
+ * once after the last node, link, group and source; the network is frozen from then on (only
+ * assembly sets its controller, sensor model and series resistances before handing it out). */
 tp_status tp_network_finish(tp_network *net);
-
-/* Copy edited link and node parameters into the compact evaluation arrays (after a break hook
- * changed them). */
-void tp_network_refresh(tp_network *net);
 
 /* Size of the state vector: free temperatures then TP_N_QUAD energy totals. */
 int tp_network_state_size(const tp_network *net);
@@ -267,7 +283,8 @@ int tp_network_state_size(const tp_network *net);
 /* The initial state vector (n_state entries). */
 void tp_network_initial_state(const tp_network *net, double *y);
 
-/* All node temperatures from a state vector, into `t` (n_nodes). */
+/* All node temperatures from a state vector, into `t` (n_nodes). An evaluator does the same
+ * faster for large networks (tp_eval_temperatures). */
 void tp_network_temperatures(const tp_network *net, const double *y, double *t);
 
 /* The heat flow through a link from a to b, W, at node temperatures ta, tb (kelvin), and its
@@ -281,28 +298,19 @@ double tp_network_link_flow(const tp_net_link *l, double ta, double tb, double *
 double tp_network_source_power(const tp_net_source *s, const double *t, double duty,
                                double *wire);
 
-/* The right-hand side dy/dt at state y (CVODE contract: 0 ok, 1 when a value is not finite).
- * Uses the network's scratch arrays: one network per thread. */
-int tp_network_rhs(const tp_network *net, const double *y, double *ydot);
-
-/* The Jacobian d(dy/dt)/dy at y, written into `values` in the order of the pattern
- * (colptr/rowind). Returns 0, or 1 when a value is not finite. */
-int tp_network_jacobian(const tp_network *net, const double *y, double *values);
-
-/* The same with `use_secant` nonzero: each link's derivative replaced by its secant
- * conductance Q / dT (robust first iterations of the steady-state solver). */
-int tp_network_jacobian_mode(const tp_network *net, const double *y, double *values,
-                             int use_secant);
+/* A source's power at duty `duty` node by node with its derivatives: `pk` (n_nodes of the
+ * source) receives the power landing in each node, `dpk` d(pk)/dT_k, `dtot` d(total)/dT_k,
+ * `dwire` d(wire)/dT_k (any array may be NULL). Returns the total, W; *wire (may be NULL) the
+ * wiring loss. The derivatives of a source over several nodes keep the diagonal terms only
+ * (d pk / dT_k, not d pk / dT_m for m != k). */
+double tp_network_source_eval(const tp_net_source *s, const double *t, double duty, double *pk,
+                              double *dpk, double *dtot, double *dwire, double *wire);
 
 /* A source's power split over its nodes at duty `duty` into `pk` (n_nodes of the source);
  * returns the total, W. */
 double tp_network_source_split(const tp_net_source *s, const double *t, double duty, double *pk);
 
-/* Heat flows at all-node temperatures `t` with the current duties. `f` arrays must be sized
- * (q: n_nodes, src_power and src_wire: n_sources). */
-void tp_network_flows(const tp_network *net, const double *t, tp_flows *f);
-
-/* Allocate / free the arrays of a tp_flows for this network. */
+/* Allocate / free the arrays of a tp_flows for this network (tp_eval_flows fills them). */
 tp_status tp_network_flows_init(tp_flows *f, const tp_network *net);
 void tp_network_flows_clear(tp_flows *f);
 
@@ -317,23 +325,6 @@ double tp_network_source_current(const tp_net_source *s, const double *t);
 /* The current through the controlled source (or the first electrical one) while it is on, at
  * node temperatures `t`: V / (R(T) + R_series), A. NaN when no source is electrical. */
 double tp_network_current(const tp_network *net, const double *t);
-
-/* For a recorded sample: every source's power at its held duty into power[] (W), their wiring
- * loss into *wire and tp_network_current's value into *current, in one pass over each source's
- * nodes (the same values as tp_network_source_power and tp_network_current, summed in another
- * order for gridded networks). */
-void tp_network_sample_sources(const tp_network *net, const double *t, double *power,
-                               double *wire, double *current);
-
-/* The working-surface temperature at node temperatures `t` (K); NaN when the network has no
- * physical top layer. A gridded plate gives the area-weighted mean of its map. */
-double tp_network_surface(const tp_network *net, const double *t);
-
-/* The working-surface map of a gridded plate at node temperatures `t`: map[j * nx + i] is the
- * top face of the top layer's cell (i, j), K, estimated as for the lumped surface from that
- * cell's node and the flux leaving its top face; NaN where the top layer has no cell. Returns
- * the area-weighted mean, or NaN (map untouched) when the network is not gridded. */
-double tp_network_surface_map(const tp_network *net, const double *t, double *map);
 
 /* Name of a law as in explain output: "conduction", "convection", "radiation". */
 const char *tp_network_law_name(tp_law law);

@@ -1,17 +1,20 @@
-/* The CVODE driver: integrates a network from t = 0 with the controller sampled at its ticks,
- * reporting the state on the output grid, with restarts only where a source output changes. */
+/* The CVODE driver: integrates a frozen network from t = 0 with the controller sampled at its
+ * ticks, reporting the state on the output grid, with restarts only where a source output
+ * changes. The run's state (duties, controller memory, solver memory) is its own: the network is
+ * only read, so any number of runs may share one network. */
 #ifndef TP_INTEGRATE_H
 #define TP_INTEGRATE_H
 
 #include "control.h"
+#include "description.h"
 #include "diag.h"
+#include "eval.h"
+#include "hardlimits.h"
 #include "network.h"
 #include "status.h"
 
 #define TP_DENSE_MAX 12 /* free nodes up to which the dense LU is used; KLU above
                            (measured: docs/performance.md) */
-#define TP_MAX_OUTPUT_VALUES 5.0e7 /* output rows times (nodes + sources): bounds the history a
-                                      caller keeps (about 8 bytes each), values */
 
 /* What the driver reports at each output time. */
 typedef struct tp_sample {
@@ -20,20 +23,18 @@ typedef struct tp_sample {
     const double *temps;  /* every node's temperature, K (n_nodes) */
     double duty;          /* the controlled source's held duty (1 without a controller) */
     double reading;       /* the controller's reading at t, K (NaN without a controller) */
+    tp_eval *eval;        /* the run's evaluator at the duties held at t: source powers, flows
+                             and the working surface of this sample, only during the call; its
+                             duties are the run's, never to be set by the callback */
 } tp_sample;
 
 /* Called at each output time; return nonzero to stop the run early (not an error). */
 typedef int (*tp_output_fn)(void *user, const tp_sample *s);
 
-/* Optional hooks (fault injection and what-ifs); any may be NULL. */
+/* Optional hooks (fault injection); any may be NULL. A varied network (a disturbance, a
+ * detached part) is a copy (tp_network_copy), run from the state where the change happens. */
 typedef struct tp_hooks {
     void *user;
-    /* Times at which the network may change (sorted, ascending); at each the driver calls
-     * `at_break`, which may edit link, node and source parameters and the state vector `y`
-     * (free temperatures then energy totals), then restarts the integrator from `y`. */
-    const double *breaks;
-    int n_breaks;
-    void (*at_break)(void *user, double t, tp_network *net, double *y);
     /* Replace the reading the controller sees (a shorted or open sensor). */
     double (*reading)(void *user, double t, double reading);
     /* Replace the duty applied to the controlled source (a stuck switch, an open heater). */
@@ -47,6 +48,12 @@ typedef struct tp_integrate_opts {
     long max_steps;        /* internal steps allowed in the whole run */
     double wall_time;      /* s of wall clock allowed */
     const double *y0;      /* initial state (NULL: the network's initial state) */
+    const tp_control *control; /* the controller to run instead of the network's (other gains, a
+                              reading model, or one for a network without): its source and sensor
+                              index the network. NULL: the network's controller, if any */
+    const double *duty;    /* open loop: every source held at duty[i] (n_sources entries) with no
+                              controller at all. NULL: each source at its max_duty, the
+                              controlled one switched by the controller */
     const tp_control_state *ctrl0; /* controller memory at t = 0 (NULL: reset) */
     tp_output_fn out;
     void *user;
@@ -73,19 +80,15 @@ typedef struct tp_integrate_stats {
     int stopped;           /* the output callback stopped the run */
 } tp_integrate_stats;
 
-/* Give a SUNDIALS serial vector (an N_Vector, passed untyped so that SUNDIALS types stay in the
- * solver modules) compiled vector operations with the same definitions as the library's, for
- * large networks (the library may be built without optimisation). Clones share them. */
-void tp_integrate_vector_ops(void *vector);
+/* Options from the description's run settings (duration, step, tolerance, limits); everything
+ * else zero or NULL (the network's controller, its initial state). */
+void tp_integrate_defaults(const tp_run *run, tp_integrate_opts *o);
 
-/* Options from the network's run settings (duration, step, tolerance, limits). */
-void tp_integrate_defaults(const tp_network *net, tp_integrate_opts *o);
-
-/* Integrate. On failure reports the time, the node with the largest error estimate and a hint
- * to `d`, and returns TP_ERR_SOLVER (TP_ERR_LIMIT for a step or wall-clock limit, or for more
- * output rows or values than TP_MAX_OUTPUT_ROWS and TP_MAX_OUTPUT_VALUES, refused before
- * anything is allocated). The network's duties are left as at the end of the run. */
-tp_status tp_integrate(tp_network *net, const tp_integrate_opts *o, tp_integrate_stats *stats,
-                       tp_diag *d);
+/* Integrate `net` (only read). On failure reports the time, the node with the largest error
+ * estimate and a hint to `d`, and returns TP_ERR_SOLVER (TP_ERR_LIMIT for a step or wall-clock
+ * limit, or for more output values than TP_MAX_OUTPUT_VALUES, refused before anything is
+ * allocated; TP_ERR_NOMEM when memory runs out). */
+tp_status tp_integrate(const tp_network *net, const tp_integrate_opts *o,
+                       tp_integrate_stats *stats, tp_diag *d);
 
 #endif

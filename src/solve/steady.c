@@ -7,13 +7,17 @@
  * Solution: secant iterations (each link replaced by its secant conductance Q/dT, which
  * converge from a cold start where the natural-convection derivative vanishes), then KINSOL's
  * Newton method with a line search and the analytic Jacobian to full accuracy. Linear algebra:
- * KLU sparse direct, on the network's sparsity pattern restricted to the temperatures. */
+ * KLU sparse direct, on the network's sparsity pattern restricted to the temperatures; for large
+ * gridded networks Newton-Krylov (GMRES) with the multigrid preconditioner and the compiled
+ * vector operations (solver support). The network is only read: the duties and the target are
+ * the solve's own (an evaluator of its own, and arguments). */
 #include "steady.h"
 
 #include "description.h"
-#include "integrate.h"
+#include "eval.h"
 #include "multigrid.h"
 #include "units.h"
+#include "vecops.h"
 
 #include <math.h>
 #include <stdio.h>
@@ -36,7 +40,8 @@
 #define TP_STEADY_RESTARTS 20    /* GMRES restarts at most (gridded networks) */
 
 typedef struct sys {
-    tp_network *net;
+    const tp_network *net;
+    tp_eval *ev;     /* the duties and scratch of this solve */
     int n;           /* unknowns */
     int nf;          /* free temperatures */
     int hold;        /* nonzero: unknown u appended */
@@ -47,6 +52,7 @@ typedef struct sys {
     double *ydot;
     double *jnet;    /* network Jacobian values (pattern order) */
     double *pk;      /* per-node power of the controlled source */
+    double *temps;   /* n_nodes work */
     /* CSC pattern of the system */
     int nnz;
     int *colptr, *rowind;
@@ -67,6 +73,8 @@ typedef struct sys {
 
 static void sys_clear(sys *s)
 {
+    tp_eval_destroy(&s->ev);
+    free(s->temps);
     free(s->y);
     free(s->ydot);
     free(s->jnet);
@@ -119,12 +127,15 @@ static int pair_cmp(const void *pa, const void *pb)
     return a[1] < b[1] ? -1 : a[1] > b[1];
 }
 
-static tp_status sys_init(sys *s, tp_network *net, int hold)
+static tp_status sys_init(sys *s, const tp_network *net, int hold, double target)
 {
     int nf = net->n_free, c, k, m = 0;
     const tp_net_source *src = hold ? &net->sources[net->control.source] : NULL;
     memset(s, 0, sizeof *s);
     s->net = net;
+    if (tp_eval_create(net, &s->ev) != TP_OK)
+        return TP_ERR_NOMEM;
+    s->temps = malloc((size_t)(net->n_nodes > 0 ? net->n_nodes : 1) * sizeof *s->temps);
     s->nf = nf;
     s->hold = hold;
     s->n = nf + (hold ? 1 : 0);
@@ -137,15 +148,15 @@ static tp_status sys_init(sys *s, tp_network *net, int hold)
     s->map = malloc(((size_t)net->nnz + 1) * sizeof *s->map);
     s->pk = calloc(src ? (size_t)src->n_nodes : 1, sizeof *s->pk);
     s->ucol = malloc((src ? (size_t)src->n_nodes : 1) * sizeof *s->ucol);
-    if (!s->y || !s->ydot || !s->jnet || !s->colptr || !s->rowind || !s->map || !s->pk ||
-        !s->ucol) {
+    if (!s->temps || !s->y || !s->ydot || !s->jnet || !s->colptr || !s->rowind || !s->map ||
+        !s->pk || !s->ucol) {
         sys_clear(s);
         return TP_ERR_NOMEM;
     }
     if (hold) {
         s->src = net->control.source;
         s->sensor = net->nodes[net->control.sensor].state;
-        s->target = net->control.setpoint - net->control.reading.offset;
+        s->target = target - net->control.reading.offset;
     }
     /* Columns of the temperatures: the network's rows < nf, then the hold row last. */
     for (c = 0; c < nf; c++) {
@@ -197,19 +208,19 @@ static tp_status sys_init(sys *s, tp_network *net, int hold)
     return TP_OK;
 }
 
-/* Load x into the network (temperatures; duty for hold). */
+/* Load x into the state vector (temperatures) and the evaluator (the duty, for hold). */
 static void load(sys *s, const double *x)
 {
     memcpy(s->y, x, (size_t)s->nf * sizeof *x);
     if (s->hold)
-        s->net->duty[s->src] = x[s->nf];
+        tp_eval_set_duty(s->ev, s->src, x[s->nf]);
 }
 
 static int residual(sys *s, const double *x, double *f)
 {
     int i, rc;
     load(s, x);
-    rc = tp_network_rhs(s->net, s->y, s->ydot);
+    rc = tp_eval_rhs(s->ev, s->y, s->ydot);
     for (i = 0; i < s->nf; i++)
         f[i] = s->ydot[i] * s->net->nodes[s->net->free_nodes[i]].capacity;
     if (s->hold)
@@ -226,7 +237,7 @@ static int jacobian(sys *s, const double *x, double *vals, int use_secant)
     const tp_network *net = s->net;
     int c, k, rc;
     load(s, x);
-    rc = tp_network_jacobian_mode(net, s->y, s->jnet, use_secant);
+    rc = tp_eval_jacobian(s->ev, s->y, s->jnet, use_secant);
     memset(vals, 0, (size_t)s->nnz * sizeof *vals);
     for (c = 0; c < s->nf; c++)
         for (k = net->colptr[c]; k < net->colptr[c + 1]; k++)
@@ -234,8 +245,8 @@ static int jacobian(sys *s, const double *x, double *vals, int use_secant)
                 vals[s->map[k]] = s->jnet[k] * net->nodes[net->free_nodes[net->rowind[k]]].capacity;
     if (s->hold) {
         const tp_net_source *src = &net->sources[s->src];
-        tp_network_temperatures(net, s->y, net->work);
-        tp_network_source_split(src, net->work, 1.0, s->pk);
+        tp_eval_temperatures(s->ev, s->y, s->temps);
+        tp_network_source_split(src, s->temps, 1.0, s->pk);
         for (k = 0; k < src->n_nodes; k++)
             if (s->ucol[k] >= 0)
                 vals[s->ucol[k]] = s->pk[k];
@@ -377,47 +388,21 @@ static const char *isolated_node(const tp_network *net)
     return bad;
 }
 
-/* Solve the system from the initial guess in x (n entries). */
-static tp_status solve(sys *s, double *x, long *iters, tp_diag *d)
+/* The secant phase: solve J_sec dx = -F by KLU, damped to TP_MAX_MOVE per step, from x (n
+ * entries) in place, until no temperature moves more than TP_SECANT_TOL or TP_SECANT_ITERS
+ * steps; a step that cannot be taken ends it early (Newton takes over). `b` and `xx` are work
+ * vectors of n entries. TP_OK, or TP_ERR_NOMEM. */
+static tp_status secant_phase(sys *s, double *x, N_Vector b, N_Vector xx, SUNContext ctx)
 {
-    SUNContext ctx = NULL;
-    N_Vector u = NULL, us = NULL, fs = NULL;
-    SUNMatrix J = NULL, Js = NULL;
-    SUNLinearSolver ls = NULL, lss = NULL;
-    void *kin = NULL;
-    tp_status st = TP_OK;
-    double *f = NULL, *dx = NULL;
-    int it, i, flag;
-
-    f = malloc((size_t)s->n * sizeof *f);
-    dx = malloc((size_t)s->n * sizeof *dx);
-    if (!f || !dx || SUNContext_Create(NULL, &ctx) != 0) {
-        st = TP_ERR_NOMEM;
-        goto done;
-    }
-    u = N_VNew_Serial(s->n, ctx);
-    if (u && s->iterative)
-        tp_integrate_vector_ops(u); /* KINSOL's vectors are clones of u */
-    us = u ? N_VClone(u) : NULL;
-    fs = u ? N_VClone(u) : NULL;
-    J = SUNSparseMatrix(s->n, s->n, s->nnz > 0 ? s->nnz : 1, CSC_MAT, ctx);
-    Js = SUNSparseMatrix(s->n, s->n, s->nnz > 0 ? s->nnz : 1, CSC_MAT, ctx);
-    if (!u || !us || !fs || !J || !Js) {
-        st = TP_ERR_NOMEM;
-        goto done;
-    }
-    /* Secant phase: solve J_sec dx = -F by KLU, damped to TP_MAX_MOVE per step. A gridded
-     * network starts from its lumped network's steady state instead, close enough for Newton. */
-    lss = s->iterative ? NULL : SUNLinSol_KLU(u, Js, ctx);
-    if (!lss && !s->iterative) {
-        st = TP_ERR_NOMEM;
-        goto done;
-    }
-    if (!s->iterative)
+    SUNMatrix Js = SUNSparseMatrix(s->n, s->n, s->nnz > 0 ? s->nnz : 1, CSC_MAT, ctx);
+    SUNLinearSolver lss = Js ? SUNLinSol_KLU(xx, Js, ctx) : NULL;
+    double *f = malloc((size_t)s->n * sizeof *f);
+    int it, i;
+    tp_status st = Js && lss && f ? TP_OK : TP_ERR_NOMEM;
+    if (st == TP_OK)
         copy_pattern(s, Js);
-    for (it = 0; it < TP_SECANT_ITERS && !s->iterative; it++) {
+    for (it = 0; st == TP_OK && it < TP_SECANT_ITERS; it++) {
         double move = 0.0, scale = 1.0;
-        N_Vector b = fs, xx = us;
         if (residual(s, x, f) != 0 || jacobian(s, x, SUNSparseMatrix_Data(Js), 1) != 0)
             break;
         for (i = 0; i < s->n; i++)
@@ -436,59 +421,98 @@ static tp_status solve(sys *s, double *x, long *iters, tp_diag *d)
         if (move * scale < TP_SECANT_TOL)
             break;
     }
-    /* Newton phase. */
-    for (i = 0; i < s->n; i++) {
-        N_VGetArrayPointer(u)[i] = x[i];
-        N_VGetArrayPointer(us)[i] = i < s->nf ? 1.0 / 300.0 : 1.0;
-        N_VGetArrayPointer(fs)[i] = 1.0;
-    }
-    kin = KINCreate(ctx);
-    ls = s->iterative ? SUNLinSol_SPGMR(u, SUN_PREC_RIGHT, TP_STEADY_KRYLOV, ctx)
-                      : SUNLinSol_KLU(u, J, ctx);
-    if (!kin || !ls || KINInit(kin, kin_f, u) != KIN_SUCCESS ||
-        KINSetUserData(kin, s) != KIN_SUCCESS ||
+    if (lss)
+        SUNLinSolFree(lss);
+    if (Js)
+        SUNMatDestroy(Js);
+    free(f);
+    return st;
+}
+
+/* KINSOL set up for the system: Newton with the analytic Jacobian and KLU, or for a gridded
+ * network Newton-Krylov (GMRES) with the multigrid preconditioner. 0, or -1 when a call
+ * fails. */
+static int kinsol_setup(sys *s, void *kin, N_Vector u, SUNLinearSolver ls, SUNMatrix J)
+{
+    if (KINInit(kin, kin_f, u) != KIN_SUCCESS || KINSetUserData(kin, s) != KIN_SUCCESS ||
         KINSetErrHandlerFn(kin, kin_err, s) != KIN_SUCCESS ||
         KINSetInfoHandlerFn(kin, kin_info, s) != KIN_SUCCESS ||
         KINSetFuncNormTol(kin, TP_FNORM_TOL) != KIN_SUCCESS ||
         KINSetScaledStepTol(kin, 1e-13) != KIN_SUCCESS ||
         KINSetNumMaxIters(kin, TP_KIN_ITERS) != KIN_SUCCESS ||
-        KINSetMaxSetupCalls(kin, 1) != KIN_SUCCESS) {
+        KINSetMaxSetupCalls(kin, 1) != KIN_SUCCESS)
+        return -1;
+    if (s->iterative)
+        return SUNLinSol_SPGMRSetMaxRestarts(ls, TP_STEADY_RESTARTS) != SUNLS_SUCCESS ||
+                       KINSetLinearSolver(kin, ls, NULL) != KIN_SUCCESS ||
+                       KINSetPreconditioner(kin, kin_psetup, kin_psolve) != KIN_SUCCESS ||
+                       KINSetJacTimesVecFn(kin, kin_jtimes) != KIN_SUCCESS
+                   ? -1
+                   : 0;
+    return KINSetLinearSolver(kin, ls, J) != KIN_SUCCESS ||
+                   KINSetJacFn(kin, kin_jac) != KIN_SUCCESS
+               ? -1
+               : 0;
+}
+
+/* Solve the system from the initial guess in x (n entries): the secant phase (not for a
+ * gridded network, which starts from its lumped network's steady state instead, close enough
+ * for Newton), then KINSOL's Newton method with a line search to full accuracy. */
+static tp_status solve(sys *s, double *x, long *iters, tp_diag *d)
+{
+    SUNContext ctx = NULL;
+    N_Vector u = NULL, us = NULL, fs = NULL;
+    SUNMatrix J = NULL;
+    SUNLinearSolver ls = NULL;
+    void *kin = NULL;
+    tp_status st = TP_OK;
+    int i, flag;
+
+    if (SUNContext_Create(NULL, &ctx) != 0)
+        return TP_ERR_NOMEM;
+    u = N_VNew_Serial(s->n, ctx);
+    if (u && s->iterative)
+        tp_vecops_install(u); /* KINSOL's vectors are clones of u */
+    us = u ? N_VClone(u) : NULL;
+    fs = u ? N_VClone(u) : NULL;
+    J = SUNSparseMatrix(s->n, s->n, s->nnz > 0 ? s->nnz : 1, CSC_MAT, ctx);
+    if (!u || !us || !fs || !J)
         st = TP_ERR_NOMEM;
-        goto done;
+    if (st == TP_OK && !s->iterative)
+        st = secant_phase(s, x, fs, us, ctx);
+    if (st == TP_OK) {
+        for (i = 0; i < s->n; i++) {
+            N_VGetArrayPointer(u)[i] = x[i];
+            N_VGetArrayPointer(us)[i] = i < s->nf ? 1.0 / 300.0 : 1.0;
+            N_VGetArrayPointer(fs)[i] = 1.0;
+        }
+        kin = KINCreate(ctx);
+        ls = s->iterative ? SUNLinSol_SPGMR(u, SUN_PREC_RIGHT, TP_STEADY_KRYLOV, ctx)
+                          : SUNLinSol_KLU(u, J, ctx);
+        if (!kin || !ls || kinsol_setup(s, kin, u, ls, J) != 0)
+            st = TP_ERR_NOMEM;
     }
-    if (s->iterative ? (SUNLinSol_SPGMRSetMaxRestarts(ls, TP_STEADY_RESTARTS) != SUNLS_SUCCESS ||
-                        KINSetLinearSolver(kin, ls, NULL) != KIN_SUCCESS ||
-                        KINSetPreconditioner(kin, kin_psetup, kin_psolve) != KIN_SUCCESS ||
-                        KINSetJacTimesVecFn(kin, kin_jtimes) != KIN_SUCCESS)
-                     : (KINSetLinearSolver(kin, ls, J) != KIN_SUCCESS ||
-                        KINSetJacFn(kin, kin_jac) != KIN_SUCCESS)) {
-        st = TP_ERR_NOMEM;
-        goto done;
+    if (st == TP_OK) {
+        flag = KINSol(kin, u, KIN_LINESEARCH, us, fs);
+        KINGetNumNonlinSolvIters(kin, iters);
+        if (flag < 0) {
+            char *name = KINGetReturnFlagName(flag); /* allocated by SUNDIALS: ours to free */
+            tp_diag_error(d, tp_diag_loc_none(), NULL,
+                          "check for nodes coupled only by very weak or very strong links",
+                          "the steady-state solver failed (%s)%s%s", name ? name : "?",
+                          s->msg[0] ? ": " : "", s->msg);
+            free(name);
+            st = TP_ERR_SOLVER;
+        } else {
+            memcpy(x, N_VGetArrayPointer(u), (size_t)s->n * sizeof *x);
+        }
     }
-    flag = KINSol(kin, u, KIN_LINESEARCH, us, fs);
-    KINGetNumNonlinSolvIters(kin, iters);
-    if (flag < 0) {
-        char *name = KINGetReturnFlagName(flag); /* allocated by SUNDIALS: ours to free */
-        tp_diag_error(d, tp_diag_loc_none(), NULL,
-                      "check for nodes coupled only by very weak or very strong links",
-                      "the steady-state solver failed (%s)%s%s", name ? name : "?",
-                      s->msg[0] ? ": " : "", s->msg);
-        free(name);
-        st = TP_ERR_SOLVER;
-        goto done;
-    }
-    memcpy(x, N_VGetArrayPointer(u), (size_t)s->n * sizeof *x);
-done:
     if (kin)
         KINFree(&kin);
     if (ls)
         SUNLinSolFree(ls);
-    if (lss)
-        SUNLinSolFree(lss);
     if (J)
         SUNMatDestroy(J);
-    if (Js)
-        SUNMatDestroy(Js);
     if (u)
         N_VDestroy(u);
     if (us)
@@ -497,21 +521,20 @@ done:
         N_VDestroy(fs);
     if (ctx)
         SUNContext_Free(&ctx);
-    free(f);
-    free(dx);
     return st;
 }
 
 /* Fill `out` from the solution x. A solution with a temperature that is not finite (or not
  * above absolute zero) is refused, so no NaN reaches a report or an output file. */
-static tp_status finish(tp_network *net, sys *s, const double *x, tp_steady *out, tp_diag *d)
+static tp_status finish(const tp_network *net, sys *s, const double *x, tp_steady *out,
+                        tp_diag *d)
 {
     int i;
     out->temps = malloc((size_t)net->n_nodes * sizeof *out->temps);
     if (!out->temps)
         return TP_ERR_NOMEM;
     load(s, x);
-    tp_network_temperatures(net, s->y, out->temps);
+    tp_eval_temperatures(s->ev, s->y, out->temps);
     for (i = 0; i < net->n_nodes; i++)
         if (!isfinite(out->temps[i]) || !(out->temps[i] > 0.0)) {
             tp_diag_error(d, tp_diag_loc_none(), NULL,
@@ -525,13 +548,14 @@ static tp_status finish(tp_network *net, sys *s, const double *x, tp_steady *out
     out->wire = 0.0;
     for (i = 0; i < net->n_sources; i++) {
         double w;
-        double p = tp_network_source_power(&net->sources[i], out->temps, net->duty[i], &w);
+        double p = tp_network_source_power(&net->sources[i], out->temps,
+                                           tp_eval_duty(s->ev, i), &w);
         if (!net->has_control || i == net->control.source) {
             out->power += p;
             out->wire += w;
         }
     }
-    out->duty = net->has_control ? net->duty[net->control.source] : 1.0;
+    out->duty = net->has_control ? tp_eval_duty(s->ev, net->control.source) : 1.0;
     out->reading = net->has_control
                        ? out->temps[net->control.sensor] + net->control.reading.offset
                        : TP_UNSET;
@@ -551,22 +575,18 @@ static tp_status check_grounded(const tp_network *net, tp_diag *d)
 }
 
 /* A gridded network's starting point: the steady state of the lumped network it was refined
- * from, each cell at its layer's temperature (and, for the holding point, the lumped duty).
- * Returns 0, or -1 when the lumped network has no such state. */
-static int lumped_guess(tp_network *net, int hold, double target, double duty_scale, double *x)
+ * from (which has the grid's controller, reading the node the grid's sensor was refined from),
+ * each cell at its layer's temperature (and, for the holding point, the lumped duty). Returns
+ * 0, or -1 when the lumped network has no such state. */
+static int lumped_guess(const tp_network *net, int hold, double target, double duty_scale,
+                        double *x)
 {
-    tp_network *lp = net->grid->lumped;
+    const tp_network *lp = net->grid->lumped;
     const int *from = net->grid->from;
     tp_steady st;
     tp_diag quiet;
     int i, rc;
     tp_diag_init(&quiet, NULL);
-    lp->has_control = net->has_control;
-    lp->control = net->control;
-    if (net->has_control)
-        lp->control.sensor = from[net->control.sensor];
-    for (i = 0; i < net->n_sources && i < lp->n_sources; i++)
-        lp->duty[i] = net->duty[i];
     rc = hold ? tp_steady_hold_at(lp, target, &st, &quiet)
               : tp_steady_full(lp, duty_scale, &st, &quiet);
     if (rc != TP_OK)
@@ -579,30 +599,26 @@ static int lumped_guess(tp_network *net, int hold, double target, double duty_sc
     return 0;
 }
 
-tp_status tp_steady_full(tp_network *net, double duty_scale, tp_steady *out, tp_diag *d)
+tp_status tp_steady_full(const tp_network *net, double duty_scale, tp_steady *out, tp_diag *d)
 {
     sys s;
-    double *x, *saved;
+    double *x;
     tp_status st;
     int i;
     memset(out, 0, sizeof *out);
     st = check_grounded(net, d);
     if (st != TP_OK)
         return st;
-    if (sys_init(&s, net, 0) != TP_OK)
+    if (sys_init(&s, net, 0, TP_UNSET) != TP_OK)
         return TP_ERR_NOMEM;
     x = malloc(((size_t)s.n + 1) * sizeof *x);
-    saved = malloc(((size_t)net->n_sources + 1) * sizeof *saved);
-    if (!x || !saved) {
-        free(x);
-        free(saved);
+    if (!x) {
         sys_clear(&s);
         return TP_ERR_NOMEM;
     }
     for (i = 0; i < net->n_sources; i++) {
         int controlled = !net->has_control || i == net->control.source;
-        saved[i] = net->duty[i];
-        net->duty[i] = (controlled ? duty_scale : 1.0) * net->sources[i].max_duty;
+        tp_eval_set_duty(s.ev, i, (controlled ? duty_scale : 1.0) * net->sources[i].max_duty);
     }
     for (i = 0; i < s.nf; i++)
         x[i] = net->nodes[net->free_nodes[i]].t0;
@@ -611,10 +627,7 @@ tp_status tp_steady_full(tp_network *net, double duty_scale, tp_steady *out, tp_
     st = solve(&s, x, &out->iterations, d);
     if (st == TP_OK)
         st = finish(net, &s, x, out, d);
-    for (i = 0; i < net->n_sources; i++)
-        net->duty[i] = saved[i];
     free(x);
-    free(saved);
     sys_clear(&s);
     return st;
 }
@@ -628,7 +641,7 @@ static tp_status need_control(const tp_network *net, tp_diag *d)
     return TP_ERR_CONFIG;
 }
 
-tp_status tp_steady_hold_at(tp_network *net, double target, tp_steady *out, tp_diag *d)
+tp_status tp_steady_hold_at(const tp_network *net, double target, tp_steady *out, tp_diag *d)
 {
     tp_steady full;
     tp_status st;
@@ -645,11 +658,11 @@ tp_status tp_steady_hold_at(tp_network *net, double target, tp_steady *out, tp_d
     return st;
 }
 
-tp_status tp_steady_hold_given(tp_network *net, double target, const tp_steady *full,
+tp_status tp_steady_hold_given(const tp_network *net, double target, const tp_steady *full,
                                tp_steady *out, tp_diag *d)
 {
     sys s;
-    double *x, umax, saved_sp;
+    double *x, umax;
     tp_status st;
     int i;
     memset(out, 0, sizeof *out);
@@ -664,15 +677,10 @@ tp_status tp_steady_hold_given(tp_network *net, double target, const tp_steady *
                       target - TP_KELVIN_0C, umax, full->reading - TP_KELVIN_0C);
         return TP_ERR_SOLVER;
     }
-    saved_sp = net->control.setpoint;
-    net->control.setpoint = target;
-    if (sys_init(&s, net, 1) != TP_OK) {
-        net->control.setpoint = saved_sp;
+    if (sys_init(&s, net, 1, target) != TP_OK)
         return TP_ERR_NOMEM;
-    }
     x = malloc((size_t)s.n * sizeof *x);
     if (!x) {
-        net->control.setpoint = saved_sp;
         sys_clear(&s);
         return TP_ERR_NOMEM;
     }
@@ -688,20 +696,15 @@ tp_status tp_steady_hold_given(tp_network *net, double target, const tp_steady *
     }
     if (s.iterative)
         lumped_guess(net, 1, target, 1.0, x);
-    {
-        double saved = net->duty[s.src];
-        st = solve(&s, x, &out->iterations, d);
-        if (st == TP_OK)
-            st = finish(net, &s, x, out, d);
-        net->duty[s.src] = saved;
-    }
-    net->control.setpoint = saved_sp;
+    st = solve(&s, x, &out->iterations, d);
+    if (st == TP_OK)
+        st = finish(net, &s, x, out, d);
     free(x);
     sys_clear(&s);
     return st;
 }
 
-tp_status tp_steady_hold(tp_network *net, tp_steady *out, tp_diag *d)
+tp_status tp_steady_hold(const tp_network *net, tp_steady *out, tp_diag *d)
 {
     return tp_steady_hold_at(net, net->control.setpoint, out, d);
 }

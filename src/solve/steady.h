@@ -23,20 +23,21 @@ typedef struct tp_steady {
 /* Equilibrium with the controlled source at `duty_scale` times its max_duty (1: full power)
  * and every other source fully on (without a controller, every source at duty_scale).
  * TP_ERR_SOLVER when no steady state exists (heated nodes with no path to a fixed node) or the
- * solver fails; the message says which. The network's duties are restored. */
-tp_status tp_steady_full(tp_network *net, double duty_scale, tp_steady *out, tp_diag *d);
+ * solver fails; the message says which. The network is only read. */
+tp_status tp_steady_full(const tp_network *net, double duty_scale, tp_steady *out, tp_diag *d);
 
 /* The holding point: the controlled source's duty that puts the reading (sensor node plus
  * reading offset, without ADC quantisation) at the setpoint. TP_ERR_SOLVER, with the highest
  * reachable reading in the message, when the setpoint is out of reach at max_duty. */
-tp_status tp_steady_hold(tp_network *net, tp_steady *out, tp_diag *d);
+tp_status tp_steady_hold(const tp_network *net, tp_steady *out, tp_diag *d);
 
-/* The same at an arbitrary target reading (K); used by sweeps and tuning. */
-tp_status tp_steady_hold_at(tp_network *net, double target, tp_steady *out, tp_diag *d);
+/* The same at an arbitrary target reading `target` (K) in place of the setpoint: the target is
+ * an argument, never written into the network. */
+tp_status tp_steady_hold_at(const tp_network *net, double target, tp_steady *out, tp_diag *d);
 
 /* The same with the full-power equilibrium already known (`full`, from tp_steady_full at
  * duty scale 1, its reading set), which saves solving it again. */
-tp_status tp_steady_hold_given(tp_network *net, double target, const tp_steady *full,
+tp_status tp_steady_hold_given(const tp_network *net, double target, const tp_steady *full,
                                tp_steady *out, tp_diag *d);
 
 /* Free what a result owns. */

@@ -10,6 +10,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "eval.h"
 #include "steady.h"
 #include "units.h"
 
@@ -60,7 +61,8 @@ static double element_t(const tp_net_source *s, const double *t)
 
 /* The running point: the holding point, or full power without a setpoint or when the
  * setpoint is out of reach (a WARN); the same steady states as `steady` and `warmup`. */
-static tp_status running_point(tp_network *net, const tp_net_source *s, tp_budget *b, tp_diag *d)
+static tp_status running_point(const tp_network *net, const tp_net_source *s, tp_budget *b,
+                               tp_diag *d)
 {
     tp_steady run, full;
     tp_status st;
@@ -81,7 +83,7 @@ static tp_status running_point(tp_network *net, const tp_net_source *s, tp_budge
         b->holding = 0;
     }
     b->t_hold = element_t(s, run.temps);
-    b->hot_hold = tp_network_surface(net, run.temps);
+    b->hot_hold = tp_eval_surface_at(net, run.temps, NULL);
     for (i = 0; i < (size_t)net->n_nodes; i++)
         if (net->nodes[i].capacity > 0 && !(run.temps[i] <= b->node_hold))
             b->node_hold = run.temps[i];
@@ -155,7 +157,8 @@ static void verdicts(const tp_description *desc, const tp_network *net, const tp
     }
 }
 
-tp_status tp_budget_compute(const tp_description *desc, tp_network *net, tp_budget *b, tp_diag *d)
+tp_status tp_budget_compute(const tp_description *desc, const tp_network *net, tp_budget *b,
+                            tp_diag *d)
 {
     int src = tp_network_heater(net);
     const tp_net_source *s;

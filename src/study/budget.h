@@ -59,7 +59,8 @@ typedef struct tp_budget {
 
 /* Work out the budget for a physical description and its network. TP_ERR_CONFIG when the file
  * has no heater to budget; steady-state failures are reported and returned. */
-tp_status tp_budget_compute(const tp_description *desc, tp_network *net, tp_budget *b, tp_diag *d);
+tp_status tp_budget_compute(const tp_description *desc, const tp_network *net, tp_budget *b,
+                            tp_diag *d);
 
 /* The safety cautions of a budget (caution.h): what the plate reaches at its holding point and
  * the cold-start current; returns how many were written to out. */

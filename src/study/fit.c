@@ -26,6 +26,7 @@
 
 #include "assemble.h"
 #include "config.h"
+#include "eval.h"
 #include "integrate.h"
 #include "network.h"
 
@@ -275,7 +276,8 @@ typedef struct evaluator {
     int sensor;
     double offset; /* K, added to the sensor node's temperature */
     long evals;
-    tp_network *net; /* during a run */
+    const tp_network *net; /* during a run */
+    int drive_src;   /* during a run: the source the log drives (open loop), -1 */
     /* exposure tracking (the final run) */
     int track, n_nodes;
     double *peak, surface_max, current_max;
@@ -308,11 +310,14 @@ static int record(void *user, const tp_sample *s)
             if (s->temps[i] > ev->peak[i])
                 ev->peak[i] = s->temps[i];
         if (ev->work.form == TP_FORM_PHYSICAL) {
-            double ts = tp_network_surface(ev->net, s->temps);
+            double ts = tp_eval_surface(s->eval, s->temps);
             if (!(ts <= ev->surface_max))
                 ev->surface_max = ts;
         }
-        c = tp_network_current(ev->net, s->temps);
+        /* The driven source's on-current (the controlled one's, else the first electrical). */
+        c = ev->drive_src >= 0 && ev->net->sources[ev->drive_src].kind == TP_SRC_ELECTRIC
+                ? tp_network_source_current(&ev->net->sources[ev->drive_src], s->temps)
+                : tp_network_current(ev->net, s->temps);
         if (isfinite(c) && !(c <= ev->current_max))
             ev->current_max = c;
     }
@@ -361,31 +366,34 @@ static int cmp_double(const void *a, const void *b)
     return x < y ? -1 : x > y;
 }
 
-/* Make the network follow the log's drive: a controller (added when the config has none)
- * whose output the duty hook replaces by the logged value. */
-static int open_loop(evaluator *ev, tp_network *net)
+/* The controller of a run that follows the log's drive into *ctl: the network's, or one added
+ * when the config has none, sampled at the log's period; the duty hook replaces its output by
+ * the logged value. A logged power drives a copy of the network whose heater is a
+ * constant-power source of the largest logged power (*driven, owned by the caller). Returns the
+ * driven source, or -1 when there is none or memory runs out. */
+static int open_loop(evaluator *ev, const tp_network *net, tp_control *ctl,
+                     const tp_network **driven)
 {
     int src = drive_source(net);
     if (src < 0)
         return -1;
-    if (!net->has_control) {
-        memset(&net->control, 0, sizeof net->control);
-        net->control.mode = TP_MODE_FULL;
-        net->control.source = src;
-        net->control.sensor = ev->sensor;
-        net->control.max_duty = net->sources[src].max_duty;
-        net->has_control = 1;
+    if (net->has_control) {
+        *ctl = net->control;
+    } else {
+        memset(ctl, 0, sizeof *ctl);
+        ctl->mode = TP_MODE_FULL;
+        ctl->source = src;
+        ctl->sensor = ev->sensor;
+        ctl->max_duty = net->sources[src].max_duty;
     }
-    net->control.period = ev->period;
+    ctl->period = ev->period;
     if (ev->drive == TP_FIT_BY_POWER) {
-        tp_net_source *s = &net->sources[src];
-        s->kind = TP_SRC_POWER;
-        s->power = ev->power_ref;
-        s->max_duty = 1.0;
-        s->r_series = 0.0;
-        net->control.max_duty = 1.0;
+        tp_net_change ch = {TP_CHANGE_SOURCE_POWER, src, -1, ev->power_ref, NULL, NULL};
+        if (tp_network_copy(net, &ch, 1, driven) != TP_OK)
+            return -1;
+        ctl->max_duty = 1.0;
     }
-    return 0;
+    return src;
 }
 
 static void set_values(evaluator *ev, const double *x)
@@ -400,13 +408,15 @@ static void set_values(evaluator *ev, const double *x)
 static int evaluate(evaluator *ev, const double *x, double *model, tp_diag *d)
 {
     const tp_templog *log = ev->pb->log;
-    tp_network *net = NULL;
+    const tp_network *net = NULL, *driven = NULL;
+    const tp_network *run_net;
+    tp_control ctl;
     tp_integrate_opts o;
     tp_integrate_stats stats;
     tp_hooks hooks;
     tp_diag *sink = d ? d : ev->q;
     long i, j;
-    int rc = -1;
+    int rc = -1, open = ev->drive == TP_FIT_BY_DUTY || ev->drive == TP_FIT_BY_POWER;
 
     ev->evals++;
     ev->why[0] = '\0';
@@ -417,29 +427,36 @@ static int evaluate(evaluator *ev, const double *x, double *model, tp_diag *d)
         first_line(ev->why, sizeof ev->why, sink->log);
         return -1;
     }
-    /* The controller reads the sensor without ADC quantisation: the steps would make the sum
-     * of squares jump with the parameters (a finite-difference Jacobian cannot work on that),
-     * while they move the controlled trajectory by far less than a log's noise. */
-    net->control.reading.thermistor = 0;
-    if (ev->drive == TP_FIT_BY_DUTY || ev->drive == TP_FIT_BY_POWER) {
-        if (open_loop(ev, net) != 0) {
+    ev->drive_src = -1;
+    memset(&ctl, 0, sizeof ctl);
+    if (open) {
+        ev->drive_src = open_loop(ev, net, &ctl, &driven);
+        if (ev->drive_src < 0) {
             snprintf(ev->why, sizeof ev->why, "no heater source to drive");
             goto done;
         }
+    } else if (net->has_control) {
+        ctl = net->control;
     }
+    /* The controller reads the sensor without ADC quantisation: the steps would make the sum
+     * of squares jump with the parameters (a finite-difference Jacobian cannot work on that),
+     * while they move the controlled trajectory by far less than a log's noise. */
+    ctl.reading.thermistor = 0;
+    run_net = driven ? driven : net;
     memset(&hooks, 0, sizeof hooks);
     hooks.user = ev;
     hooks.duty = drive_hook;
-    tp_integrate_defaults(net, &o);
+    tp_integrate_defaults(&ev->work.run, &o);
     o.t_end = log->t[log->n - 1];
     o.step = ev->step;
     o.rtol = fmin(o.rtol, TP_FIT_RTOL);
     o.out = record;
     o.user = ev;
-    o.hooks = ev->drive == TP_FIT_BY_DUTY || ev->drive == TP_FIT_BY_POWER ? &hooks : NULL;
+    o.hooks = open ? &hooks : NULL;
+    o.control = open || net->has_control ? &ctl : NULL;
     ev->n_rec = 0;
-    ev->net = net;
-    if (tp_integrate(net, &o, &stats, sink) != TP_OK) {
+    ev->net = run_net;
+    if (tp_integrate(run_net, &o, &stats, sink) != TP_OK) {
         first_line(ev->why, sizeof ev->why, sink->log);
         goto done;
     }
@@ -464,7 +481,8 @@ static int evaluate(evaluator *ev, const double *x, double *model, tp_diag *d)
     rc = 0;
 done:
     ev->net = NULL;
-    tp_network_destroy(&net);
+    tp_network_release(&driven);
+    tp_network_release(&net);
     return rc;
 }
 
@@ -513,7 +531,7 @@ static tp_status check_log_span(const tp_templog *log, double step, double perio
 static tp_status evaluator_init(evaluator *ev, const tp_fit_problem *pb, tp_diag *d)
 {
     const tp_templog *log = pb->log;
-    tp_network *net = NULL;
+    const tp_network *net = NULL;
     double *dt = NULL, x0[TP_FIT_MAX_PARAMS];
     int k, quiet = d->quiet;
     long i;
@@ -602,7 +620,7 @@ static tp_status evaluator_init(evaluator *ev, const tp_fit_problem *pb, tp_diag
                             : net->has_control ? net->control.period
                                                : HUGE_VAL,
                             d);
-    tp_network_destroy(&net);
+    tp_network_release(&net);
     if (st == TP_OK &&
         !(ev->peak = malloc((size_t)(ev->n_nodes > 0 ? ev->n_nodes : 1) * sizeof *ev->peak)))
         st = TP_ERR_NOMEM;

@@ -7,15 +7,14 @@
 #include "caution.h"
 #include "description.h"
 #include "diag.h"
+#include "hardlimits.h"
 #include "status.h"
 #include "templog.h"
 #include "units.h"
 #include "yamltree.h"
 
-#define TP_FIT_MAX_PARAMS 8     /* free parameters in one fit */
 #define TP_FIT_PATH_MAX 128     /* longest key path, bytes incl. NUL */
 #define TP_FIT_STARTS 3         /* default number of starting points */
-#define TP_FIT_STARTS_MAX 20    /* most starting points accepted */
 #define TP_FIT_RANGE_FACTOR 5.0 /* -, default bounds of a positive key: start / 5 .. start x 5 */
 #define TP_FIT_TEMP_RANGE 20.0  /* K, default bounds of an absolute temperature: start +- 20 K */
 #define TP_FIT_DIFF_RANGE 10.0  /* K, default bounds of a temperature difference: start +- 10 K */

@@ -258,15 +258,15 @@ static int detachable(const tp_network *net)
 
 /* The network of a detached sensor: a copy of `net` in which the sensor has lost every link to
  * the plate and keeps `loss` (W/K) to the air. */
-static tp_status detached_network(const tp_network *net, double loss, tp_network **out)
+static tp_status detached_network(const tp_network *net, double loss, const tp_network **out)
 {
     int sensor = net->control.sensor, air = air_node(net);
     char label[128];
     tp_net_change ch[2];
     snprintf(label, sizeof label, "%s detached to %s", net->nodes[sensor].id,
              net->nodes[air].id);
-    ch[0] = (tp_net_change){TP_CHANGE_ISOLATE, sensor, -1, 0.0, NULL};
-    ch[1] = (tp_net_change){TP_CHANGE_ADD_CONDUCTION, sensor, air, loss, label};
+    ch[0] = (tp_net_change){TP_CHANGE_ISOLATE, sensor, -1, 0.0, NULL, NULL};
+    ch[1] = (tp_net_change){TP_CHANGE_ADD_CONDUCTION, sensor, air, loss, label, NULL};
     return tp_network_copy(net, ch, 2, out);
 }
 
@@ -362,15 +362,15 @@ static double heater_temp(const tp_network *net, const double *temps)
 }
 
 /* The working surface: the estimate of the lumped plate, or the hottest cell of a gridded one
- * (`map`: its nx * ny scratch). */
-static double surface_temp(const tp_network *net, const double *temps, double *map)
+ * (`map`: its nx * ny scratch), through the run's evaluator. */
+static double surface_temp(tp_eval *ev, const double *temps, double *map)
 {
-    const tp_net_grid *g = net->grid;
+    const tp_net_grid *g = tp_eval_network(ev)->grid;
     double hot = -HUGE_VAL;
     int c;
     if (!g || !map)
-        return tp_network_surface(net, temps);
-    tp_network_surface_map(net, temps, map);
+        return tp_eval_surface(ev, temps);
+    tp_eval_surface_map(ev, temps, map);
     for (c = 0; c < g->nx * g->ny; c++)
         if (isfinite(map[c]) && map[c] > hot)
             hot = map[c];
@@ -384,7 +384,7 @@ static int record(void *user, const tp_sample *s)
     int k;
     for (k = 0; k < rc->tr->n_layers; k++)
         layers[k] = layer_temp(rc->net, rc->layers[k], s->temps);
-    if (trace_push(rc->tr, rc->t0 + s->t, s->reading, surface_temp(rc->net, s->temps, rc->map),
+    if (trace_push(rc->tr, rc->t0 + s->t, s->reading, surface_temp(s->eval, s->temps, rc->map),
                    heater_temp(rc->net, s->temps), s->duty, layers) != 0) {
         rc->failed = 1;
         return 1;
@@ -491,7 +491,8 @@ static int recorder_init(recorder *rc, ctx *cx, const tp_network *net, tp_guard_
 }
 
 /* Assemble quietly (corners repeat the nominal case's warnings); errors are passed on. */
-static tp_status build(ctx *cx, const tp_description *desc, const char *what, tp_network **net)
+static tp_status build(ctx *cx, const tp_description *desc, const char *what,
+                       const tp_network **net)
 {
     tp_diag quiet;
     tp_status rc;
@@ -537,23 +538,25 @@ static void add_cold_mass(const tp_network *from, const tp_network *to, double t
  * controller tick at or after its `after` time. The trace's last sample before a stage is
  * taken again by the stage's first tick, which reads the plate as changed (the sample before
  * the change is dropped); the controller's memory is replayed over every reading before it. */
-static tp_status run_hold(ctx *cx, const tp_description *cd, tp_network *net, tp_guard_corner *c,
-                          double *y, recorder *rc)
+static tp_status run_hold(ctx *cx, const tp_description *cd, const tp_network *net,
+                          tp_guard_corner *c, double *y, recorder *rc)
 {
     const tp_guard_study *st = cx->st;
     const tp_guard_spec *g = &st->desc->guard;
-    tp_network *cur = net, *varied = NULL;
+    const tp_network *cur = net;
+    const tp_network *varied = NULL;
     tp_net_change chg[2];
     double when[2], t_at = 0.0, gap;
     int ne = 0, applied = 0;
     tp_status rs = TP_OK;
     if (g->gust.present) {
         when[ne] = on_tick(g->gust.after, st->period);
-        chg[ne++] = (tp_net_change){TP_CHANGE_TOP_AIRFLOW, -1, -1, g->gust.airflow, NULL};
+        chg[ne++] = (tp_net_change){TP_CHANGE_TOP_AIRFLOW, -1, -1, g->gust.airflow, NULL, NULL};
     }
     if (g->sheet.present) {
         when[ne] = on_tick(g->sheet.after, st->period);
-        chg[ne++] = (tp_net_change){TP_CHANGE_TOP_CAPACITY, -1, -1, g->sheet.capacity, NULL};
+        chg[ne++] =
+            (tp_net_change){TP_CHANGE_TOP_CAPACITY, -1, -1, g->sheet.capacity, NULL, NULL};
     }
     if (ne == 2 && when[1] < when[0]) {
         double tw = when[0];
@@ -573,7 +576,7 @@ static tp_status run_hold(ctx *cx, const tp_description *cd, tp_network *net, tp
         while (due < ne && when[due] <= t_at + TP_GUARD_TIME_EPS)
             due++;
         if (due > applied) {
-            tp_network *next = NULL;
+            const tp_network *next = NULL;
             rs = tp_network_copy(net, chg, due, &next);
             if (rs != TP_OK) {
                 const char *key = chg[due - 1].kind == TP_CHANGE_TOP_AIRFLOW ? "guard.gust"
@@ -584,7 +587,7 @@ static tp_status run_hold(ctx *cx, const tp_description *cd, tp_network *net, tp
                 break;
             }
             add_cold_mass(cur, next, cd->room.temperature, y);
-            tp_network_destroy(&varied);
+            tp_network_release(&varied);
             varied = next;
             cur = varied;
             applied = due;
@@ -593,7 +596,7 @@ static tp_status run_hold(ctx *cx, const tp_description *cd, tp_network *net, tp
         c->trace.n--; /* taken again by this stage's first tick */
         replay(&cur->control, c->trace.reading, c->trace.n, &ctrl, &gap);
         tp_diag_init(&quiet, NULL);
-        tp_integrate_defaults(cur, &o);
+        tp_integrate_defaults(&cd->run, &o);
         o.step = st->period;
         o.t_end = t_next - t_at;
         o.y0 = y;
@@ -616,7 +619,7 @@ static tp_status run_hold(ctx *cx, const tp_description *cd, tp_network *net, tp
         t_at = t_next;
     }
     rc->net = net;
-    tp_network_destroy(&varied);
+    tp_network_release(&varied);
     return rs;
 }
 
@@ -625,7 +628,7 @@ static tp_status run_hold(ctx *cx, const tp_description *cd, tp_network *net, tp
 static tp_status run_corner(ctx *cx, const tp_description *cd, tp_guard_corner *c)
 {
     tp_guard_study *st = cx->st;
-    tp_network *net = NULL;
+    const tp_network *net = NULL;
     tp_integrate_opts o;
     tp_integrate_stats stats;
     tp_control_state ctrl;
@@ -650,7 +653,7 @@ static tp_status run_corner(ctx *cx, const tp_description *cd, tp_guard_corner *
         c->stuck_heater = heater_temp(net, full.temps);
     }
     rc.stop_level = st->setpoint;
-    tp_integrate_defaults(net, &o);
+    tp_integrate_defaults(&cd->run, &o);
     o.step = st->period;
     o.out = record;
     o.user = &rc;
@@ -689,17 +692,19 @@ done:
     tp_steady_clear(&full);
     free(rc.map);
     free(y);
-    tp_network_destroy(&net);
+    tp_network_release(&net);
     return rs;
 }
 
 /* One fault from the cold start or from the holding state of the nominal network, followed for
- * the horizon, on a copy of it (with the sensor detached for that fault). */
+ * the horizon: on the nominal network itself (the faults of the switch and the sensor's
+ * reading are hooks of the run), or on a copy with the sensor detached. */
 static tp_status run_fault(ctx *cx, const tp_network *nominal, tp_guard_fault_run *fr,
                            const tp_steady *hold)
 {
     tp_guard_study *st = cx->st;
-    tp_network *net = NULL;
+    const tp_network *detached = NULL;
+    const tp_network *net = nominal;
     tp_integrate_opts o;
     tp_integrate_stats stats;
     tp_control_state ctrl;
@@ -710,11 +715,13 @@ static tp_status run_fault(ctx *cx, const tp_network *nominal, tp_guard_fault_ru
     double *y = NULL;
     char what[96];
     tp_status rs = fr->fault == TP_FAULT_DETACHED
-                       ? detached_network(nominal, st->detached_loss, &net)
-                       : tp_network_copy(nominal, NULL, 0, &net);
+                       ? detached_network(nominal, st->detached_loss, &detached)
+                       : TP_OK;
     memset(&rc, 0, sizeof rc);
     if (rs != TP_OK)
         return rs;
+    if (detached)
+        net = detached;
     tp_diag_init(&quiet, NULL);
     y = malloc((size_t)tp_network_state_size(net) * sizeof *y);
     if (!y || recorder_init(&rc, cx, net, &fr->trace, y) != 0) {
@@ -729,7 +736,7 @@ static tp_status run_fault(ctx *cx, const tp_network *nominal, tp_guard_fault_ru
     hooks.user = &h;
     hooks.reading = hook_reading;
     hooks.duty = hook_duty;
-    tp_integrate_defaults(net, &o);
+    tp_integrate_defaults(&st->desc->run, &o);
     o.step = st->period;
     o.t_end = st->horizon;
     o.out = record;
@@ -759,7 +766,7 @@ static tp_status run_fault(ctx *cx, const tp_network *nominal, tp_guard_fault_ru
 done:
     free(rc.map);
     free(y);
-    tp_network_destroy(&net);
+    tp_network_release(&detached);
     return rs;
 }
 
@@ -1430,7 +1437,7 @@ static void healthy_layer_peaks(tp_guard_study *st)
 /* A switch stuck on: the full-power equilibrium of the nominal case and the layer furthest past
  * its limit there, the corner with the hottest full-power heater, and whether an independent
  * cut-out is required (some layer past its limit at nominal or at that corner). */
-static void stuck_on(ctx *cx, const tp_description *desc, tp_network *net, tp_guard_study *st,
+static void stuck_on(ctx *cx, const tp_description *desc, const tp_network *net, tp_guard_study *st,
                      tp_diag *quiet)
 {
     tp_description cd;
@@ -1459,7 +1466,7 @@ static void stuck_on(ctx *cx, const tp_description *desc, tp_network *net, tp_gu
         /* The corner with the hottest full-power heater layer, every layer against its
          * limit. */
         tp_guard_corner *w = &st->corners[st->stuck_worst];
-        tp_network *wn = NULL;
+        const tp_network *wn = NULL;
         tp_steady ws;
         memset(&ws, 0, sizeof ws);
         if (apply_corner(desc, net, &cd, w) == TP_OK && build(cx, &cd, "corner", &wn) == TP_OK &&
@@ -1470,7 +1477,7 @@ static void stuck_on(ctx *cx, const tp_description *desc, tp_network *net, tp_gu
                     st->cutout_required = 1;
         }
         tp_steady_clear(&ws);
-        tp_network_destroy(&wn);
+        tp_network_release(&wn);
         tp_config_clear(&cd);
     }
 }
@@ -1510,7 +1517,7 @@ static void settle_settings(tp_guard_study *st, const tp_guard_settings *given,
 tp_status tp_guard_study_run(const tp_description *desc, const tp_yamltree *doc,
                              const tp_guard_settings *given, tp_guard_study *st, tp_diag *d)
 {
-    tp_network *net = NULL;
+    const tp_network *net = NULL;
     tp_steady hold;
     tp_diag quiet;
     tp_description cd;
@@ -1578,7 +1585,7 @@ tp_status tp_guard_study_run(const tp_description *desc, const tp_yamltree *doc,
     settle_settings(st, given, &none);
 done:
     tp_steady_clear(&hold);
-    tp_network_destroy(&net);
+    tp_network_release(&net);
     return rs;
 }
 

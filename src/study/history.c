@@ -154,7 +154,7 @@ static void layer_stats(tp_history *h, long i, const double *temps)
 
 /* The surface map of the row: statistics, deviation from the reference, and the snapshot when
  * the reading first reaches cross_level. */
-static void surface_row(tp_history *h, long i, const double *temps)
+static void surface_row(tp_history *h, long i, tp_eval *ev, const double *temps)
 {
     const tp_net_grid *g = h->net->grid;
     int c, n = g->nx * g->ny;
@@ -162,7 +162,7 @@ static void surface_row(tp_history *h, long i, const double *temps)
     swap = h->map_prev;
     h->map_prev = h->map;
     h->map = swap;
-    h->surface[i] = tp_network_surface_map(h->net, temps, h->map);
+    h->surface[i] = tp_eval_surface_map(ev, temps, h->map);
     for (c = 0; c < n; c++) {
         double v = h->map[c];
         if (!isfinite(v))
@@ -207,14 +207,14 @@ int tp_history_record(void *user, const tp_sample *s)
             h->temps[i * h->n_out + k] = s->temps[h->out_nodes[k]];
     if (net->grid)
         layer_stats(h, i, s->temps);
-    tp_network_sample_sources(net, s->temps, h->power + i * net->n_sources, &h->wire[i],
-                              &h->current[i]);
+    tp_eval_sample_sources(s->eval, s->temps, h->power + i * net->n_sources, &h->wire[i],
+                           &h->current[i]);
     h->duty[i] = s->duty;
     h->reading[i] = s->reading;
     if (net->grid)
-        surface_row(h, i, s->temps);
+        surface_row(h, i, s->eval, s->temps);
     else
-        h->surface[i] = tp_network_surface(net, s->temps);
+        h->surface[i] = tp_eval_surface(s->eval, s->temps);
     for (k = 0; k < TP_N_QUAD; k++)
         h->energy[i * TP_N_QUAD + k] = s->y[net->n_free + k];
     h->n++;

@@ -5,6 +5,7 @@
 #include <string.h>
 
 #include "description.h"
+#include "eval.h"
 #include "series.h"
 
 /* Energy drawn from the supply (delivered plus wiring) at time t, interpolated. */
@@ -109,7 +110,7 @@ static void peak_and_steady_figures(const tp_history *h, const tp_network *net,
     if (hold && hold->temps) {
         m->hold_power = hold->power;
         m->hold_duty = hold->duty;
-        m->surface_hold = tp_network_surface(net, hold->temps);
+        m->surface_hold = tp_eval_surface_at(net, hold->temps, NULL);
         if (isfinite(m->surface_hold))
             m->steady_offset = hold->reading - m->surface_hold;
     }

@@ -5,23 +5,23 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "eval.h"
 #include "grid.h"
 
-/* The loss split of the state shown, at the duty it holds. */
-static tp_status split_losses(tp_network *net, tp_steadyreport *r)
+/* The loss split of the state shown, with the controlled source at the duty it holds there. */
+static tp_status split_losses(const tp_network *net, tp_steadyreport *r)
 {
     int src = net->has_control ? net->control.source : -1;
+    tp_eval *ev = NULL;
     tp_status st = tp_network_flows_init(&r->flows, net);
+    if (st == TP_OK)
+        st = tp_eval_create(net, &ev);
     if (st != TP_OK)
         return st;
-    if (src >= 0) {
-        double saved = net->duty[src];
-        net->duty[src] = r->shown->duty;
-        tp_network_flows(net, r->shown->temps, &r->flows);
-        net->duty[src] = saved;
-    } else {
-        tp_network_flows(net, r->shown->temps, &r->flows);
-    }
+    if (src >= 0)
+        tp_eval_set_duty(ev, src, r->shown->duty);
+    tp_eval_flows(ev, r->shown->temps, &r->flows);
+    tp_eval_destroy(&ev);
     return TP_OK;
 }
 
@@ -35,7 +35,7 @@ static double plate_loss_total(const tp_flows *f)
     return sum;
 }
 
-tp_status tp_steadyreport_run(tp_network *net, tp_steadyreport *r, tp_diag *d)
+tp_status tp_steadyreport_run(const tp_network *net, tp_steadyreport *r, tp_diag *d)
 {
     tp_status st;
     int src = net->has_control ? net->control.source : -1;
@@ -62,7 +62,7 @@ tp_status tp_steadyreport_run(tp_network *net, tp_steadyreport *r, tp_diag *d)
         double *map = malloc((size_t)g->nx * (size_t)g->ny * sizeof *map);
         if (!map)
             return TP_ERR_NOMEM;
-        tp_network_surface_map(net, r->shown->temps, map);
+        tp_eval_surface_at(net, r->shown->temps, map);
         tp_surfacemap_compute(g, map, &r->map);
         free(map);
     }
@@ -88,7 +88,7 @@ int tp_steadyreport_cautions(const tp_description *desc, const tp_network *net,
     for (i = 0; i < net->n_nodes; i++)
         if (net->nodes[i].capacity > 0 && (!isfinite(ex.node_max) || t[i] > ex.node_max))
             ex.node_max = t[i];
-    ex.surface_max = tp_network_surface(net, t);
+    ex.surface_max = tp_eval_surface_at(net, t, NULL);
     ex.node_peak = t;
     if (net->grid) {
         /* The hottest cell of the surface and of each layer. */

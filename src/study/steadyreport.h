@@ -25,9 +25,9 @@ typedef struct tp_steadyreport {
     tp_surfacemap_stats map; /* the working surface of the state shown (cells 0 without a grid) */
 } tp_steadyreport;
 
-/* Solve the steady states of `net` and what follows from them. On failure the diagnostics say
- * why; call tp_steadyreport_clear in every case. */
-tp_status tp_steadyreport_run(tp_network *net, tp_steadyreport *r, tp_diag *d);
+/* Solve the steady states of `net` (only read) and what follows from them. On failure the
+ * diagnostics say why; call tp_steadyreport_clear in every case. */
+tp_status tp_steadyreport_run(const tp_network *net, tp_steadyreport *r, tp_diag *d);
 
 /* Free what a report holds. */
 void tp_steadyreport_clear(tp_steadyreport *r);

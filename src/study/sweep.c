@@ -698,7 +698,7 @@ static void run_point(worker *wk, tp_description *desc, long i)
 {
     const tp_sweep_plan *plan = wk->p->plan;
     tp_sweep_result *res = &wk->p->results[i];
-    tp_network *net = NULL;
+    const tp_network *net = NULL;
     tp_warmup w;
     char msg[TP_SWEEP_REASON_MAX - 32]; /* room for the prefix */
     int k;
@@ -721,7 +721,7 @@ static void run_point(worker *wk, tp_description *desc, long i)
         snprintf(res->reason, sizeof res->reason, "assembly: %s", msg);
         return;
     }
-    if (tp_warmup_run(net, &w, &wk->diag) != TP_OK) {
+    if (tp_warmup_run(net, &desc->run, &w, &wk->diag) != TP_OK) {
         first_error(&wk->diag, msg, sizeof msg);
         snprintf(res->reason, sizeof res->reason, "%s", msg);
     } else {
@@ -730,7 +730,7 @@ static void run_point(worker *wk, tp_description *desc, long i)
         point_cautions(wk, desc, net, &w, i);
     }
     tp_warmup_clear(&w);
-    tp_network_destroy(&net);
+    tp_network_release(&net);
 }
 
 static void *work(void *arg)

@@ -10,15 +10,12 @@
 #include "caution.h"
 #include "description.h"
 #include "diag.h"
+#include "hardlimits.h"
 #include "metricdef.h"
 #include "network.h"
 #include "status.h"
 #include "units.h"
 
-#define TP_SWEEP_MAX_AXES 2        /* --vary parameters in one grid */
-#define TP_SWEEP_MAX_PARAMS 16     /* --spread parameters in one study */
-#define TP_SWEEP_MAX_POINTS 200000 /* grid points or samples in one run (~370 B each) */
-#define TP_SWEEP_MAX_JOBS 256      /* worker threads */
 #define TP_SWEEP_PATH_MAX 128      /* longest key path, bytes incl. NUL */
 #define TP_SWEEP_REASON_MAX 240    /* longest failure reason kept per point, bytes incl. NUL */
 #define TP_SWEEP_UNIT_MAX 32       /* longest unit text kept per parameter, bytes incl. NUL */

@@ -50,15 +50,16 @@ void tp_tune_imc(const tp_fopdt *m, double lambda, tp_gains *g)
     g->tau_c = lambda;
 }
 
-tp_status tp_tune_identify(tp_network *net, double step, tp_fopdt *m, tp_diag *d)
+tp_status tp_tune_identify(const tp_network *net, const tp_run *run, double step, tp_fopdt *m,
+                           tp_diag *d)
 {
     tp_steady hold, after;
     tp_history h;
     tp_integrate_opts o;
     tp_integrate_stats st;
     tp_status rc;
-    double *y0 = NULL, umax, dy, t28 = TP_UNSET, t63 = TP_UNSET, duration;
-    int col, saved_control = net->has_control, src, tries;
+    double *y0 = NULL, *duty = NULL, umax, dy, t28 = TP_UNSET, t63 = TP_UNSET, duration;
+    int col, src, tries, i;
     memset(m, 0, sizeof *m);
     memset(&hold, 0, sizeof hold);
     memset(&after, 0, sizeof after);
@@ -81,26 +82,27 @@ tp_status tp_tune_identify(tp_network *net, double step, tp_fopdt *m, tp_diag *d
     dy = after.reading - m->y0;
     m->gain = dy / (m->u1 - m->u0);
     y0 = malloc((size_t)tp_network_state_size(net) * sizeof *y0);
-    if (!y0) {
+    duty = malloc((size_t)net->n_sources * sizeof *duty);
+    if (!y0 || !duty) {
         rc = TP_ERR_NOMEM;
         goto done;
     }
     tp_steady_state_vector(net, &hold, y0);
-    duration = net->run.duration;
+    /* The open loop: no controller, the controlled source held at u1, the others fully on. */
+    for (i = 0; i < net->n_sources; i++)
+        duty[i] = i == src ? m->u1 : net->sources[i].max_duty;
+    duration = run->duration;
     for (tries = 0; tries < TP_STEP_EXTEND; tries++) {
         rc = tp_history_init(&h, net);
         if (rc != TP_OK)
             goto done;
-        net->has_control = 0;
-        net->duty[src] = m->u1;
-        tp_integrate_defaults(net, &o);
+        tp_integrate_defaults(run, &o);
         o.t_end = duration;
         o.y0 = y0;
+        o.duty = duty;
         o.out = tp_history_record;
         o.user = &h;
         rc = tp_integrate(net, &o, &st, d);
-        net->has_control = saved_control;
-        net->duty[src] = net->sources[src].max_duty;
         col = tp_history_column(&h, net->control.sensor);
         if (rc == TP_OK && col >= 0) {
             /* The sensor node plus the offset: the reading without ADC quantisation. */
@@ -128,6 +130,7 @@ tp_status tp_tune_identify(tp_network *net, double step, tp_fopdt *m, tp_diag *d
         tp_tune_two_point(t28, t63, &m->tau, &m->dead);
 done:
     free(y0);
+    free(duty);
     tp_steady_clear(&hold);
     tp_steady_clear(&after);
     return rc;

@@ -28,8 +28,11 @@ typedef enum tp_tune_rule { TP_RULE_SIMC, TP_RULE_IMC } tp_tune_rule;
 
 /* Identify the FOPDT model: from the holding point, step the controlled source's duty by
  * `step` (a fraction of max_duty; the sign is chosen to stay in range), simulate the open loop
- * and fit by the two-point method (28.3 % and 63.2 % of the response). */
-tp_status tp_tune_identify(tp_network *net, double step, tp_fopdt *m, tp_diag *d);
+ * (the duties are arguments of the run; `net` is only read) for run->duration, lengthened up
+ * to TP_STEP_EXTEND times until the response is seen, and fit by the two-point method (28.3 %
+ * and 63.2 % of the response). */
+tp_status tp_tune_identify(const tp_network *net, const tp_run *run, double step, tp_fopdt *m,
+                           tp_diag *d);
 
 /* The two-point fit from response times: t28 and t63 (s after the step) give
  * tau = 1.5 (t63 - t28), dead = max(0, t63 - tau). */

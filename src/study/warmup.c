@@ -1,13 +1,14 @@
 /* A warm-up run packaged for reuse: the steady states around it, the integration with its
  * history, the metrics and per-node peaks. */
 #include "warmup.h"
-#include "series.h"
 
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
+#include "eval.h"
+#include "series.h"
 
 /* Per-node peak temperatures from the history (NaN for nodes not recorded). */
 static double *node_peaks(const tp_history *h, const tp_network *net)
@@ -28,14 +29,14 @@ static double *node_peaks(const tp_history *h, const tp_network *net)
  * (prepared before the run, as the history's reference), and after it the maps when the
  * reading reached the setpoint and at the end, their statistics, the time the whole surface is
  * ready, and each layer's peak. */
-static tp_status grid_before(tp_network *net, tp_warmup *w)
+static tp_status grid_before(const tp_network *net, tp_warmup *w)
 {
     size_t n = (size_t)net->grid->nx * (size_t)net->grid->ny;
     w->map_hold = w->has_hold ? malloc(n * sizeof *w->map_hold) : NULL;
     if (w->has_hold && !w->map_hold)
         return TP_ERR_NOMEM;
     if (w->map_hold) {
-        tp_network_surface_map(net, w->hold.temps, w->map_hold);
+        tp_eval_surface_at(net, w->hold.temps, w->map_hold);
         w->history.map_ref = w->map_hold;
     }
     if (tp_network_holds(net))
@@ -43,7 +44,7 @@ static tp_status grid_before(tp_network *net, tp_warmup *w)
     return TP_OK;
 }
 
-static tp_status grid_after(tp_network *net, tp_warmup *w)
+static tp_status grid_after(const tp_network *net, tp_warmup *w)
 {
     const tp_net_grid *g = net->grid;
     const tp_history *h = &w->history;
@@ -73,7 +74,7 @@ static tp_status grid_after(tp_network *net, tp_warmup *w)
     return TP_OK;
 }
 
-tp_status tp_warmup_run(tp_network *net, tp_warmup *w, tp_diag *d)
+tp_status tp_warmup_run(const tp_network *net, const tp_run *run, tp_warmup *w, tp_diag *d)
 {
     tp_integrate_opts o;
     tp_status st;
@@ -98,7 +99,7 @@ tp_status tp_warmup_run(tp_network *net, tp_warmup *w, tp_diag *d)
                                            &quiet) == TP_OK;
     if (net->grid && (st = grid_before(net, w)) != TP_OK)
         return st;
-    tp_integrate_defaults(net, &o);
+    tp_integrate_defaults(run, &o);
     o.out = tp_history_record;
     o.user = &w->history;
     st = tp_integrate(net, &o, &w->stats, d);

@@ -32,9 +32,10 @@ typedef struct tp_warmup {
                            holding value; NaN: not in the simulated time */
 } tp_warmup;
 
-/* Run the warm-up of `net` from its initial state over run.duration and compute the metrics.
- * On failure the diagnostics say why; call tp_warmup_clear in every case. */
-tp_status tp_warmup_run(tp_network *net, tp_warmup *w, tp_diag *d);
+/* Run the warm-up of `net` (only read) from its initial state with the description's run
+ * settings `run` and compute the metrics. On failure the diagnostics say why; call
+ * tp_warmup_clear in every case. */
+tp_status tp_warmup_run(const tp_network *net, const tp_run *run, tp_warmup *w, tp_diag *d);
 
 /* Free what a run holds. */
 void tp_warmup_clear(tp_warmup *w);

@@ -51,16 +51,12 @@ static tp_network *grid(int k)
     s->kind = TP_SRC_POWER;
     s->power = 5.0 * k * k;
     tp_network_finish(net);
-    net->run.duration = 1800;
-    net->run.step = 10;
-    net->run.tolerance = 1e-6;
-    net->run.max_steps = 1e7;
-    net->run.wall_time = 600;
     return net;
 }
 
-static double time_run(tp_network *net, int solver, long *steps)
+static double time_run(const tp_network *net, int solver, long *steps)
 {
+    const tp_run run = {1800.0, 10.0, 1e-6, 1e7, 600.0}; /* duration, step, tolerance, limits */
     tp_integrate_opts o;
     tp_integrate_stats st;
     tp_diag d;
@@ -68,7 +64,7 @@ static double time_run(tp_network *net, int solver, long *steps)
     int rep;
     tp_diag_init(&d, stderr);
     for (rep = 0; rep < 3; rep++) {
-        tp_integrate_defaults(net, &o);
+        tp_integrate_defaults(&run, &o);
         o.linear_solver = solver;
         t0 = now();
         if (tp_integrate(net, &o, &st, &d) != TP_OK)

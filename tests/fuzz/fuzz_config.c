@@ -1,6 +1,7 @@
 /* libFuzzer target: the config loader. The input is a YAML text, optionally followed by a NUL
  * byte and NUL-separated --set assignments; it goes through tp_yamltree_load_text, tp_yamltree_set,
- * tp_config_read and tp_assemble, and one right-hand side and Jacobian of the network. Any crash,
+ * tp_config_read and tp_assemble, and one right-hand side and Jacobian of the network (through an
+ * evaluator), and its secant Jacobian. Any crash,
  * sanitizer report, leak or hang is a finding (tests/fuzz/README.md). */
 #include <stddef.h>
 #include <stdint.h>
@@ -10,6 +11,7 @@
 #include "assemble.h"
 #include "config.h"
 #include "diag.h"
+#include "eval.h"
 #include "network.h"
 #include "yamltree.h"
 
@@ -22,7 +24,8 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
     static tp_diag d; /* static: the log buffer is 16 kB */
     tp_yamltree *doc = NULL;
     tp_description desc;
-    tp_network *net = NULL;
+    const tp_network *net = NULL;
+    tp_eval *ev = NULL;
     const char *text = (const char *)data;
     const uint8_t *nul = memchr(data, 0, size);
     size_t yaml_len = nul ? (size_t)(nul - data) : size;
@@ -57,15 +60,17 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
             double *y = malloc((size_t)(n > 0 ? n : 1) * sizeof *y);
             double *ydot = malloc((size_t)(n > 0 ? n : 1) * sizeof *ydot);
             double *jac = malloc((size_t)(net->nnz > 0 ? net->nnz : 1) * sizeof *jac);
-            if (y && ydot && jac) {
+            if (y && ydot && jac && tp_eval_create(net, &ev) == TP_OK) {
                 tp_network_initial_state(net, y);
-                (void)tp_network_rhs(net, y, ydot);
-                (void)tp_network_jacobian(net, y, jac);
+                (void)tp_eval_rhs(ev, y, ydot);
+                (void)tp_eval_jacobian(ev, y, jac, 0);
+                (void)tp_eval_jacobian(ev, y, jac, 1);
             }
+            tp_eval_destroy(&ev);
             free(y);
             free(ydot);
             free(jac);
-            tp_network_destroy(&net);
+            tp_network_release(&net);
         }
         tp_config_clear(&desc);
     }
