@@ -212,56 +212,51 @@ static int cmp_int(const void *a, const void *b)
     return x < y ? -1 : x > y;
 }
 
-/* The next level's pattern (and f's cslot map) from f's aggregates. */
-static int coarsen(level *f, level *c)
+/* Renumber the m aggregates of f by colour (their representative's position, halved): f->agg
+ * and first (each aggregate's first member) in the new order. 0, or -1 when memory runs out. */
+static int renumber_by_colour(level *f, int *first, int m)
 {
-    int *first = malloc((size_t)f->n * sizeof *first), m, i, k, nnz = 0;
-    int *cnt = NULL, *fill = NULL, *rows = NULL, *start = NULL;
-    int rc = -1;
-    f->agg = malloc((size_t)f->n * sizeof *f->agg);
-    f->cslot = malloc((size_t)(f->nnz > 0 ? f->nnz : 1) * sizeof *f->cslot);
-    if (!first || !f->agg || !f->cslot)
-        goto done;
-    m = aggregate(f, first);
-    if (m < 0)
-        goto done;
-    /* Renumber the aggregates by colour (their representative's position, halved). */
-    {
-        int *lay = malloc((size_t)m * sizeof *lay), *ai = malloc((size_t)m * sizeof *ai);
-        int *aj = malloc((size_t)m * sizeof *aj), *perm = malloc((size_t)m * sizeof *perm);
-        int *inv = malloc((size_t)m * sizeof *inv), *first2 = malloc((size_t)m * sizeof *first2);
-        int ok = lay && ai && aj && perm && inv && first2;
-        for (i = 0; ok && i < m; i++) {
-            int p = first[i];
-            lay[i] = f->layer[p];
-            ai[i] = f->layer[p] >= 0 ? f->ci[p] / f->fx : 0;
-            aj[i] = f->layer[p] >= 0 ? f->cj[p] / f->fy : 0;
-        }
-        if (ok) {
-            colour_order(m, lay, ai, aj, perm);
-            for (i = 0; i < m; i++) {
-                inv[perm[i]] = i;
-                first2[i] = first[perm[i]];
-            }
-            for (i = 0; i < f->n; i++)
-                f->agg[i] = inv[f->agg[i]];
-            memcpy(first, first2, (size_t)m * sizeof *first);
-        }
-        free(lay);
-        free(ai);
-        free(aj);
-        free(perm);
-        free(inv);
-        free(first2);
-        if (!ok)
-            goto done;
+    int i;
+    int *lay = malloc((size_t)m * sizeof *lay), *ai = malloc((size_t)m * sizeof *ai);
+    int *aj = malloc((size_t)m * sizeof *aj), *perm = malloc((size_t)m * sizeof *perm);
+    int *inv = malloc((size_t)m * sizeof *inv), *first2 = malloc((size_t)m * sizeof *first2);
+    int ok = lay && ai && aj && perm && inv && first2;
+    for (i = 0; ok && i < m; i++) {
+        int p = first[i];
+        lay[i] = f->layer[p];
+        ai[i] = f->layer[p] >= 0 ? f->ci[p] / f->fx : 0;
+        aj[i] = f->layer[p] >= 0 ? f->cj[p] / f->fy : 0;
     }
-    /* Members of each aggregate, then each coarse row's columns (sorted, unique). */
-    cnt = calloc((size_t)m + 1, sizeof *cnt);
-    fill = calloc((size_t)m + 1, sizeof *fill);
-    rows = malloc((size_t)f->n * sizeof *rows);
-    start = malloc(((size_t)m + 1) * sizeof *start);
-    if (!cnt || !fill || !rows || !start)
+    if (ok) {
+        colour_order(m, lay, ai, aj, perm);
+        for (i = 0; i < m; i++) {
+            inv[perm[i]] = i;
+            first2[i] = first[perm[i]];
+        }
+        for (i = 0; i < f->n; i++)
+            f->agg[i] = inv[f->agg[i]];
+        memcpy(first, first2, (size_t)m * sizeof *first);
+    }
+    free(lay);
+    free(ai);
+    free(aj);
+    free(perm);
+    free(inv);
+    free(first2);
+    return ok ? 0 : -1;
+}
+
+/* The coarse level's pattern (c allocated with m unknowns): the members of each aggregate of
+ * f, then each coarse row's columns (sorted, unique). 0, or -1 when memory runs out. */
+static int coarse_pattern(const level *f, level *c, int m)
+{
+    int *cnt = calloc((size_t)m + 1, sizeof *cnt), *fill = calloc((size_t)m + 1, sizeof *fill);
+    int *rows = malloc((size_t)f->n * sizeof *rows);
+    /* Upper bound of the coarse nonzeros: the fine ones. */
+    int *cols = malloc((size_t)(f->nnz > 0 ? f->nnz : 1) * sizeof *cols);
+    int *crow = malloc((size_t)(m + 1) * sizeof *crow);
+    int i, k, I, nnz = 0, rc = -1;
+    if (!cnt || !fill || !rows || !cols || !crow)
         goto done;
     for (i = 0; i < f->n; i++)
         cnt[f->agg[i] + 1]++;
@@ -269,42 +264,39 @@ static int coarsen(level *f, level *c)
         cnt[i + 1] += cnt[i];
     for (i = 0; i < f->n; i++)
         rows[cnt[f->agg[i]] + fill[f->agg[i]]++] = i;
-    /* Upper bound of the coarse nonzeros: the fine ones. */
-    {
-        int *cols = malloc((size_t)(f->nnz > 0 ? f->nnz : 1) * sizeof *cols);
-        int *crow = malloc((size_t)(m + 1) * sizeof *crow);
-        int I;
-        if (!cols || !crow) {
-            free(cols);
-            free(crow);
-            goto done;
+    crow[0] = 0;
+    for (I = 0; I < m; I++) {
+        int a = nnz, u;
+        for (k = cnt[I]; k < cnt[I + 1]; k++) {
+            int r = rows[k], s;
+            for (s = f->rowptr[r]; s < f->rowptr[r + 1]; s++)
+                cols[nnz++] = f->agg[f->colind[s]];
         }
-        crow[0] = 0;
-        for (I = 0; I < m; I++) {
-            int a = nnz, u;
-            for (k = cnt[I]; k < cnt[I + 1]; k++) {
-                int r = rows[k], s;
-                for (s = f->rowptr[r]; s < f->rowptr[r + 1]; s++)
-                    cols[nnz++] = f->agg[f->colind[s]];
-            }
-            qsort(cols + a, (size_t)(nnz - a), sizeof *cols, cmp_int);
-            for (k = a, u = a; k < nnz; k++)
-                if (u == a || cols[k] != cols[u - 1])
-                    cols[u++] = cols[k];
-            nnz = u;
-            crow[I + 1] = nnz;
-        }
-        if (level_alloc(c, m, nnz) != 0) {
-            free(cols);
-            free(crow);
-            goto done;
-        }
-        memcpy(c->rowptr, crow, (size_t)(m + 1) * sizeof *crow);
-        memcpy(c->colind, cols, (size_t)(nnz > 0 ? nnz : 1) * sizeof *cols);
-        free(cols);
-        free(crow);
+        qsort(cols + a, (size_t)(nnz - a), sizeof *cols, cmp_int);
+        for (k = a, u = a; k < nnz; k++)
+            if (u == a || cols[k] != cols[u - 1])
+                cols[u++] = cols[k];
+        nnz = u;
+        crow[I + 1] = nnz;
     }
-    /* Where each fine entry lands. */
+    if (level_alloc(c, m, nnz) != 0)
+        goto done;
+    memcpy(c->rowptr, crow, (size_t)(m + 1) * sizeof *crow);
+    memcpy(c->colind, cols, (size_t)(nnz > 0 ? nnz : 1) * sizeof *cols);
+    rc = 0;
+done:
+    free(cnt);
+    free(fill);
+    free(rows);
+    free(cols);
+    free(crow);
+    return rc;
+}
+
+/* Where each fine entry lands: f->cslot, the slot of c's pattern it is summed into. */
+static void fine_slots(level *f, const level *c)
+{
+    int i;
     for (i = 0; i < f->n; i++) {
         int I = f->agg[i], s;
         for (s = f->rowptr[i]; s < f->rowptr[i + 1]; s++) {
@@ -319,6 +311,14 @@ static int coarsen(level *f, level *c)
             f->cslot[s] = lo;
         }
     }
+}
+
+/* The coarse unknowns' layer and cell (from each aggregate's first member), the coarse aspect
+ * ratio, and which coarse links join aggregates along a direction in which cells were joined.
+ * 0, or -1 when memory runs out. */
+static int coarse_cells(const level *f, level *c, const int *first, int m)
+{
+    int i, k;
     for (i = 0; i < m; i++) {
         int p = first[i];
         c->layer[i] = f->layer[p];
@@ -328,8 +328,7 @@ static int coarsen(level *f, level *c)
     c->aspect = f->aspect * f->fx / f->fy;
     c->inplane = malloc((size_t)(c->nnz > 0 ? c->nnz : 1));
     if (!c->inplane)
-        goto done;
-    /* Which coarse links join aggregates along a direction in which cells were joined. */
+        return -1;
     for (i = 0; i < m; i++)
         for (k = c->rowptr[i]; k < c->rowptr[i + 1]; k++) {
             int J = c->colind[k], same = J != i && c->layer[i] >= 0 && c->layer[i] == c->layer[J];
@@ -337,13 +336,27 @@ static int coarsen(level *f, level *c)
             int along_y = same && c->cj[i] != c->cj[J] && c->ci[i] == c->ci[J];
             c->inplane[k] = (along_x && f->fx == 2) || (along_y && f->fy == 2);
         }
+    return 0;
+}
+
+/* The next level's pattern (and f's cslot map) from f's aggregates. */
+static int coarsen(level *f, level *c)
+{
+    int *first = malloc((size_t)f->n * sizeof *first), m;
+    int rc = -1;
+    f->agg = malloc((size_t)f->n * sizeof *f->agg);
+    f->cslot = malloc((size_t)(f->nnz > 0 ? f->nnz : 1) * sizeof *f->cslot);
+    if (!first || !f->agg || !f->cslot)
+        goto done;
+    m = aggregate(f, first);
+    if (m < 0 || renumber_by_colour(f, first, m) != 0 || coarse_pattern(f, c, m) != 0)
+        goto done;
+    fine_slots(f, c);
+    if (coarse_cells(f, c, first, m) != 0)
+        goto done;
     rc = find_diag(c);
 done:
     free(first);
-    free(cnt);
-    free(fill);
-    free(rows);
-    free(start);
     return rc;
 }
 
