@@ -150,20 +150,20 @@ static void test_copper_wire_resistance(void **state)
     /* 1.5 mm2 at 20 degC with rho20 = 1/58 ohm.mm2/m (IEC 60028): 11.494 mohm/m (hand
      * calculation). IEC 60228 Table 1 allows at most 12.1 ohm/km for a class 1 (solid) plain
      * copper 1.5 mm2 conductor (from memory): the nominal value must lie below it. */
-    r15 = tp_copper_resistance(1.5e-6, 1.0, 293.15);
+    r15 = tp_circuit_copper_resistance(1.5e-6, 1.0, 293.15);
     tp_check_rel("1.5 mm2", r15, 1.0 / 58.0 / 1.5, 1e-12);
     assert_true(r15 < 12.1e-3);
     /* AWG 16: d = 0.127 mm x 92^(20/39) = 1.2908 mm, area 1.3087 mm2 (ASTM B258 definition);
      * R = 13.17 mohm/m; published AWG tables list 13.2 ohm/km at 20 degC (from memory). */
-    assert_true(fabs(tp_awg_area(16) - 1.3087e-6) < 0.0005e-6);
-    r16 = tp_copper_resistance(tp_awg_area(16), 1.0, 293.15);
+    assert_true(fabs(tp_circuit_awg_area(16) - 1.3087e-6) < 0.0005e-6);
+    r16 = tp_circuit_copper_resistance(tp_circuit_awg_area(16), 1.0, 293.15);
     assert_true(fabs(r16 - 13.17e-3) < 0.01e-3);
     assert_true(fabs(r16 - 13.2e-3) / 13.2e-3 < 0.005);
     /* At 70 degC copper gains 0.00393 * 50 = 19.65 % (IEC 60028 temperature coefficient). */
-    tp_check_rel("1.5 mm2 at 70 degC", tp_copper_resistance(1.5e-6, 1.0, 343.15), r15 * 1.1965,
-                 1e-12);
+    tp_check_rel("1.5 mm2 at 70 degC", tp_circuit_copper_resistance(1.5e-6, 1.0, 343.15),
+                 r15 * 1.1965, 1e-12);
     /* Voltage drop for 10 A over a 2 x 1 m loop of 1.5 mm2: 10 * 2 * 11.494e-3 = 0.2299 V. */
-    tp_check_rel("drop", 10.0 * tp_copper_resistance(1.5e-6, 2.0, 293.15), 0.22989, 1e-4);
+    tp_check_rel("drop", 10.0 * tp_circuit_copper_resistance(1.5e-6, 2.0, 293.15), 0.22989, 1e-4);
 }
 
 static void test_fuse_rule(void **state)
@@ -171,9 +171,9 @@ static void test_fuse_rule(void **state)
     (void)state;
     /* 1.25 x 9.83 A = 12.29 A: the next standard size is 12.5 A; 1.25 x 8 A = 10 A exactly
      * (common practice, no source: the 125 % continuous-load rule). */
-    assert_true(tp_fuse_suggest(9.83) == 12.5);
-    assert_true(tp_fuse_suggest(8.0) == 10.0);
-    assert_true(tp_fuse_suggest(1000.0) == 0.0);
+    assert_true(tp_budget_fuse_suggest(9.83) == 12.5);
+    assert_true(tp_budget_fuse_suggest(8.0) == 10.0);
+    assert_true(tp_budget_fuse_suggest(1000.0) == 0.0);
 }
 
 /* ---- budget ------------------------------------------------------------------------------- */
