@@ -1,5 +1,7 @@
-/* Quantities with units: udunits2 parses unit strings; every accepted unit is reduced to an
- * affine map SI = offset + scale * x, cached, so repeated parses never touch udunits again. */
+/* Quantities with units: udunits2 parses unit strings against tepid's own unit database
+ * (models/units.txt, embedded at build time and built into a udunits2 unit system with
+ * udunits2's functions at the first unit); every accepted unit is reduced to an affine map
+ * SI = offset + scale * x, cached, so repeated parses never touch udunits again. */
 #include "units.h"
 
 #include <ctype.h>
@@ -14,6 +16,11 @@
 
 #define UNIT_TEXT_MAX 64   /* longest unit string accepted, bytes */
 #define CACHE_SIZE 256     /* distinct (unit, dimension) pairs remembered */
+#define DB_ID_MAX 128      /* longest name or symbol in the unit database, bytes (udunits2's) */
+
+/* models/units.txt, embedded by CMakeLists.txt (NUL-terminated). */
+extern const unsigned char tp_units_data[];
+extern const size_t tp_units_data_len;
 
 static const struct {
     const char *si;      /* the SI unit the value is converted to */
@@ -55,6 +62,9 @@ typedef struct cache_entry {
 
 static pthread_mutex_t lock = PTHREAD_MUTEX_INITIALIZER;
 static ut_system *sys;
+static ut_unit *si_units[TP_DIM_COUNT]; /* dims[].si parsed, each at its first use */
+static tp_units_db db_wanted = TP_UNITS_DB_BUILTIN;
+static int db_bad_line; /* the line of models/units.txt that did not load, 0 if none */
 static cache_entry cache[CACHE_SIZE];
 static int cache_used;
 
@@ -124,30 +134,154 @@ static int split_quantity(const char *text, double *number, const char **unit)
     return 0;
 }
 
+/* Map the identifier `id` to `unit`, as a name (case-insensitive) or a symbol. A name with '_'
+ * also gets the form with a no-break space (U+00A0) in its place, as udunits2's XML reader
+ * gives every name of its own database. Returns 0 or -1. */
+static int map_id(const char *id, int is_name, ut_unit *unit)
+{
+    char nbsp[DB_ID_MAX];
+    size_t n = 0;
+    const char *p;
+    if (strlen(id) >= DB_ID_MAX)
+        return -1;
+    if (!is_name)
+        return ut_map_symbol_to_unit(id, UT_UTF8, unit) == UT_SUCCESS ? 0 : -1;
+    if (ut_map_name_to_unit(id, UT_UTF8, unit) != UT_SUCCESS)
+        return -1;
+    if (!strchr(id, '_'))
+        return 0;
+    for (p = id; *p; p++) {
+        if (n + 3 > sizeof nbsp)
+            return -1;
+        if (*p == '_') {
+            nbsp[n++] = (char)0xC2;
+            nbsp[n++] = (char)0xA0;
+        } else {
+            nbsp[n++] = *p;
+        }
+    }
+    nbsp[n] = '\0';
+    return ut_map_name_to_unit(nbsp, UT_UTF8, unit) == UT_SUCCESS ? 0 : -1;
+}
+
+/* Map every blank-separated word of `words` (modified) to `unit`. Returns 0 or -1. */
+static int map_words(char *words, int is_name, ut_unit *unit)
+{
+    char *save = NULL;
+    char *w;
+    for (w = strtok_r(words, " \t", &save); w; w = strtok_r(NULL, " \t", &save))
+        if (map_id(w, is_name, unit) != 0)
+            return -1;
+    return 0;
+}
+
+/* One entry of models/units.txt (its format is described at the top of that file), comment
+ * already cut off, into `s`. Returns 0 or -1. */
+static int load_entry(ut_system *s, char *line)
+{
+    char *save = NULL;
+    char *kind = strtok_r(line, " \t", &save);
+    char *rest = strtok_r(NULL, "", &save);
+    char *bar, *names, *end;
+    ut_unit *unit = NULL;
+    int rc;
+    if (!kind)
+        return 0; /* a blank line */
+    if (!rest)
+        return -1;
+    if (strcmp(kind, "prefix") == 0) {
+        double value = strtod(rest, &end);
+        char *word = strtok_r(end, " \t", &save);
+        if (end == rest || !word || ut_add_name_prefix(s, word, value) != UT_SUCCESS)
+            return -1;
+        while ((word = strtok_r(NULL, " \t", &save)))
+            if (ut_add_symbol_prefix(s, word, value) != UT_SUCCESS)
+                return -1;
+        return 0;
+    }
+    bar = strchr(rest, '|');
+    if (!bar)
+        return -1;
+    *bar = '\0';
+    if (strcmp(kind, "base") == 0) {
+        unit = ut_new_base_unit(s);
+        names = rest;
+    } else if (strcmp(kind, "dimensionless") == 0) {
+        unit = ut_new_dimensionless_unit(s);
+        names = rest;
+    } else if (strcmp(kind, "unit") == 0 && (names = strchr(rest, '='))) {
+        *names++ = '\0';
+        unit = ut_parse(s, ut_trim(rest, UT_UTF8), UT_UTF8);
+    } else {
+        return -1;
+    }
+    rc = unit && map_words(names, 1, unit) == 0 && map_words(bar + 1, 0, unit) == 0 ? 0 : -1;
+    ut_free(unit);
+    return rc;
+}
+
+/* A udunits2 unit system from models/units.txt, or NULL (db_bad_line says where). */
+static ut_system *load_builtin(void)
+{
+    ut_system *s = ut_new_system();
+    char *text = malloc(tp_units_data_len + 1);
+    char *line, *next;
+    int number = 0;
+    if (!s || !text)
+        goto fail;
+    memcpy(text, tp_units_data, tp_units_data_len + 1);
+    for (line = text; line; line = next) {
+        next = strchr(line, '\n');
+        if (next)
+            *next++ = '\0';
+        number++;
+        line[strcspn(line, "#")] = '\0';
+        if (load_entry(s, line) != 0) {
+            db_bad_line = number;
+            goto fail;
+        }
+    }
+    free(text);
+    return s;
+fail:
+    free(text);
+    ut_free_system(s);
+    return NULL;
+}
+
 static int load_system(void)
 {
     if (sys)
         return 0;
     ut_set_error_message_handler(ut_ignore);
-    sys = ut_read_xml(NULL);
+    sys = db_wanted == TP_UNITS_DB_UDUNITS2 ? ut_read_xml(NULL) : load_builtin();
     return sys ? 0 : -1;
 }
 
+/* The SI unit of `dim` in the loaded system, parsed once. Call with the lock held. */
+static ut_unit *si_unit(tp_dim dim)
+{
+    if (!si_units[dim])
+        si_units[dim] = ut_parse(sys, dims[dim].si, UT_ASCII);
+    return si_units[dim];
+}
+
 /* Reduce `unit` of dimension `dim` to an affine map onto the SI unit. Call with the lock held.
- * Returns 0, or -1 (unknown unit) or -2 (wrong dimension). */
+ * Returns 0, or -1 (unknown unit), -2 (wrong dimension) or -3 (the unit database did not load). */
 static int resolve(const char *unit, tp_dim dim, double *offset, double *scale)
 {
-    ut_unit *from = NULL, *to = NULL;
+    ut_unit *from = NULL;
+    ut_unit *to;
     cv_converter *cv = NULL;
     double c0, c1, c2;
     int rc = 0;
 
     if (load_system() != 0)
-        return -1;
+        return -3;
     from = ut_parse(sys, unit, UT_UTF8);
     if (!from)
         return -1;
-    to = ut_parse(sys, dims[dim].si, UT_ASCII);
+    to = si_unit(dim);
     if (!to || !ut_are_convertible(from, to)) {
         rc = -2;
         goto done;
@@ -171,7 +305,6 @@ static int resolve(const char *unit, tp_dim dim, double *offset, double *scale)
     *scale = c1 - c0;
 done:
     cv_free(cv);
-    ut_free(to);
     ut_free(from);
     return rc;
 }
@@ -265,6 +398,13 @@ tp_status tp_units_parse(const char *text, tp_dim dim, double *si, char *msg, si
         return TP_ERR_CONFIG;
     }
     rc = plausible_unit(unit) ? lookup(unit, dim, &offset, &scale) : -1;
+    if (rc == -3) {
+        /* A broken models/units.txt is a build defect; test_units loads it on every build. */
+        snprintf(msg, msg_size, "internal: the built-in unit database did not load (line %d)",
+                 db_bad_line);
+        *hint = "rebuild tepid; models/units.txt must load (tests/test_units.c checks it)";
+        return TP_ERR_CONFIG;
+    }
     if (rc == -1) {
         snprintf(msg, msg_size, "unknown unit '%s' in '%s'", unit, text);
         *hint = "units follow udunits2 spelling: mm, in, W, kW, degC, degF, K, W/(m2.K), min, h";
@@ -331,12 +471,29 @@ tp_status tp_units_unit_text(const char *text, char *unit, size_t size)
     return TP_OK;
 }
 
+tp_status tp_units_select_db(tp_units_db db)
+{
+    if (db != TP_UNITS_DB_BUILTIN && db != TP_UNITS_DB_UDUNITS2)
+        return TP_ERR_CONFIG;
+    tp_units_shutdown();
+    pthread_mutex_lock(&lock);
+    db_wanted = db;
+    pthread_mutex_unlock(&lock);
+    return TP_OK;
+}
+
 void tp_units_shutdown(void)
 {
+    int i;
     pthread_mutex_lock(&lock);
+    for (i = 0; i < TP_DIM_COUNT; i++) {
+        ut_free(si_units[i]);
+        si_units[i] = NULL;
+    }
     if (sys)
         ut_free_system(sys);
     sys = NULL;
+    db_bad_line = 0;
     cache_used = 0;
     pthread_mutex_unlock(&lock);
 }

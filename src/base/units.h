@@ -1,5 +1,6 @@
 /* Quantities with units: parse "4 mm", "220 W", "18 degC" into SI with a dimension check
- * (udunits2), keeping absolute temperatures and temperature differences apart. */
+ * (udunits2, over tepid's unit database models/units.txt), keeping absolute temperatures and
+ * temperature differences apart. */
 #ifndef TP_UNITS_H
 #define TP_UNITS_H
 
@@ -61,6 +62,17 @@ const char *tp_units_example(tp_dim dim);
 /* Strict number parsing: the whole of `text` must be one finite decimal number (no hex,
  * no NaN/inf, no trailing characters). Returns 0 on success. */
 int tp_units_parse_double(const char *text, double *out);
+
+/* The unit database the parser reads: tepid's own (models/units.txt, built into the binary;
+ * the default), or udunits2's complete installed database, which the tests compare it with. */
+typedef enum tp_units_db {
+    TP_UNITS_DB_BUILTIN,
+    TP_UNITS_DB_UDUNITS2
+} tp_units_db;
+
+/* Switch the parser to `db` (loaded at the next parse); drops the loaded database and the
+ * cache. TP_ERR_CONFIG for an unknown value. */
+tp_status tp_units_select_db(tp_units_db db);
 
 /* Release the unit database (call once at exit; later calls to the parser reload it). */
 void tp_units_shutdown(void);

@@ -3,6 +3,7 @@
  * PLplot keeps its state in globals, and so does this file: one thread only. */
 #include "plot.h"
 
+#include <dlfcn.h>
 #include <fcntl.h>
 #include <limits.h>
 #include <math.h>
@@ -16,6 +17,95 @@
 #include <plplot.h>
 
 #include "outfile.h"
+
+/* ---- PLplot, opened at the first figure ---------------------------------------------------
+ * tepid does not link PLplot: a run that draws nothing would pay at every start-up for loading
+ * it and the dozen libraries it needs (a third of the 5-node demo's whole run before,
+ * docs/performance.md). plot_run opens it with dlopen under the name the build found
+ * (TP_PLPLOT_SONAME, e.g. libplplot.so.17, in the Debian package TP_PLPLOT_PACKAGE) and fills
+ * this table with dlsym; the names plplot.h
+ * gives PLplot's functions (plinit is c_plinit) then point into the table, so the drawing code
+ * below reads as plain PLplot calls, each checked against plplot.h's prototype. */
+#define PLOT_PLPLOT_API(X)                                                                         \
+    X(c_pl_setcontlabelformat) X(c_pl_setcontlabelparam) X(c_pladv) X(c_plbox) X(c_plcol0)        \
+    X(c_plcolorbar) X(c_plcont) X(c_plend) X(c_plfill) X(c_plimagefr) X(c_plinit) X(c_pllegend)    \
+    X(c_plline) X(c_pllsty) X(c_plmtex) X(c_plptex) X(c_plschr) X(c_plscmap0n) X(c_plscmap1l)      \
+    X(c_plscmap1n) X(c_plscol0) X(c_plsdev) X(c_plsfnam) X(c_plsfont) X(c_plslabelfunc)            \
+    X(c_plspage) X(c_plspause) X(c_plstring) X(c_plsvpa) X(c_plwidth) X(c_plwind) X(plgFileDevs)   \
+    X(plsabort) X(plsexit) X(pltr1)
+
+#define PLOT_API_MEMBER(f) __typeof__(f) *f;
+static struct plot_plplot {
+    PLOT_PLPLOT_API(PLOT_API_MEMBER)
+} plot_pl;
+static void *plot_pl_handle; /* dlopen handle, kept to the end of the process */
+
+/* Open PLplot and fill plot_pl, once. Returns 0, or -1 with the reason in why. */
+static int plot_load_plplot(char *why, size_t size)
+{
+    const char *missing = NULL;
+    void *handle, *sym;
+    if (plot_pl_handle)
+        return 0;
+    handle = dlopen(TP_PLPLOT_SONAME, RTLD_NOW | RTLD_LOCAL);
+    if (!handle) {
+        snprintf(why, size, "cannot load %s (Debian package %s): %.120s", TP_PLPLOT_SONAME,
+                 TP_PLPLOT_PACKAGE, dlerror());
+        return -1;
+    }
+#define PLOT_API_LOAD(f)                                                                           \
+    sym = missing ? NULL : dlsym(handle, #f);                                                      \
+    if (sym)                                                                                       \
+        memcpy(&plot_pl.f, &sym, sizeof sym);                                                      \
+    else if (!missing)                                                                             \
+        missing = #f;
+    PLOT_PLPLOT_API(PLOT_API_LOAD)
+#undef PLOT_API_LOAD
+    if (missing) {
+        snprintf(why, size, "%s has no function %s", TP_PLPLOT_SONAME, missing);
+        dlclose(handle);
+        return -1;
+    }
+    plot_pl_handle = handle;
+    return 0;
+}
+
+/* From here on PLplot's names call through the table. */
+#define c_pl_setcontlabelformat (*plot_pl.c_pl_setcontlabelformat)
+#define c_pl_setcontlabelparam (*plot_pl.c_pl_setcontlabelparam)
+#define c_pladv (*plot_pl.c_pladv)
+#define c_plbox (*plot_pl.c_plbox)
+#define c_plcol0 (*plot_pl.c_plcol0)
+#define c_plcolorbar (*plot_pl.c_plcolorbar)
+#define c_plcont (*plot_pl.c_plcont)
+#define c_plend (*plot_pl.c_plend)
+#define c_plfill (*plot_pl.c_plfill)
+#define c_plimagefr (*plot_pl.c_plimagefr)
+#define c_plinit (*plot_pl.c_plinit)
+#define c_pllegend (*plot_pl.c_pllegend)
+#define c_plline (*plot_pl.c_plline)
+#define c_pllsty (*plot_pl.c_pllsty)
+#define c_plmtex (*plot_pl.c_plmtex)
+#define c_plptex (*plot_pl.c_plptex)
+#define c_plschr (*plot_pl.c_plschr)
+#define c_plscmap0n (*plot_pl.c_plscmap0n)
+#define c_plscmap1l (*plot_pl.c_plscmap1l)
+#define c_plscmap1n (*plot_pl.c_plscmap1n)
+#define c_plscol0 (*plot_pl.c_plscol0)
+#define c_plsdev (*plot_pl.c_plsdev)
+#define c_plsfnam (*plot_pl.c_plsfnam)
+#define c_plsfont (*plot_pl.c_plsfont)
+#define c_plslabelfunc (*plot_pl.c_plslabelfunc)
+#define c_plspage (*plot_pl.c_plspage)
+#define c_plspause (*plot_pl.c_plspause)
+#define c_plstring (*plot_pl.c_plstring)
+#define c_plsvpa (*plot_pl.c_plsvpa)
+#define c_plwidth (*plot_pl.c_plwidth)
+#define c_plwind (*plot_pl.c_plwind)
+#define plgFileDevs (*plot_pl.plgFileDevs)
+#define plsabort (*plot_pl.plsabort)
+#define plsexit (*plot_pl.plsexit)
+#define pltr1 (*plot_pl.pltr1)
 
 /* ---- look -------------------------------------------------------------------------------- */
 
@@ -620,6 +710,8 @@ static int plot_run(const char *device, const char *file, int w, int h, plot_dra
     volatile int failed = 0;
     plot_error[0] = '\0';
     plot_aborts = 0;
+    if (plot_load_plplot(plot_error, sizeof plot_error) != 0)
+        return 1;
     plsexit(on_plexit);
     plsabort(on_plabort);
     if (setjmp(plot_jump) == 0) {

@@ -185,7 +185,7 @@ warmup_bench() { # NAME CONFIG [NOTE]
 
 # ---- 1. tepid's own benchmarks ---------------------------------------------------------------
 say "benchmarks (median of $RUNS, pinned to CPU 0)"
-warmup_bench five-node "$root/configs/raw-five-node.yaml" "on-off; issue 2 target < 20 ms" || true
+warmup_bench five-node "$root/configs/raw-five-node.yaml" "on-off; issue 16 target < 8 ms" || true
 warmup_bench demo-warmup "$root/configs/workshop-bed-24v.yaml" "PID; thermistor and ADC" || true
 
 demo=$root/configs/workshop-bed-24v.yaml
