@@ -5,6 +5,7 @@
 #include <math.h>
 #include <string.h>
 
+#include "heater.h"
 #include "materials.h"
 
 #define TP_BURN_LONG 316.15      /* K, 43 degC: burn threshold for contact of 8 h and longer
@@ -16,9 +17,6 @@
 #define TP_HIGH_CURRENT 10.0     /* A: connectors and wiring deserve a check above this
                                     (common practice, no source) */
 #define TP_LIMIT_MARGIN 10.0     /* K: "near" a service limit */
-#define TP_DENSITY_FLEX 1.0e4    /* W/m2 (1 W/cm2): flexible silicone/polyimide heaters above
-                                    this need good bonding to a metal plate (common practice,
-                                    no source) */
 
 void tp_fmt_duration(double s, char *buf, size_t size)
 {
@@ -73,6 +71,8 @@ void tp_report_conditions(FILE *fp, const tp_network *net)
         if (strcmp(s->id, "heater") != 0)
             fprintf(fp, " '%s'", s->id);
         if (s->kind == TP_SRC_ELECTRIC) {
+            if (s->rated_power > 0)
+                fprintf(fp, " %.1f W at %.1f V rated;", s->rated_power, s->rated_voltage);
             fprintf(fp, " %.1f V across %.3f ohm", s->supply, s->r0);
             if (s->r_series > 0)
                 fprintf(fp, " and a %.1f mohm series path", 1e3 * s->r_series);
@@ -147,25 +147,16 @@ int tp_report_caution_lines(const tp_desc *desc, const tp_network *net, const tp
             }
         }
         if (desc->heater.present && n < TP_CAUTIONS_MAX - 1) {
-            size_t k;
-            for (k = 0; k < desc->bed.n_layers; k++) {
-                const tp_layer *ly = &desc->bed.layers[k];
-                const tp_material_spec *m = tp_materials_find(desc, ly->material);
-                double a, p = desc->heater.power;
-                if (strcmp(ly->id, desc->heater.layer) != 0 || !m)
-                    continue;
-                a = (isfinite(ly->size[0]) ? ly->size[0] : desc->bed.size[0]) *
-                    (isfinite(ly->size[1]) ? ly->size[1] : desc->bed.size[1]);
-                if (!isfinite(p) && isfinite(desc->heater.supply))
-                    p = desc->heater.supply * desc->heater.supply / desc->heater.resistance;
-                /* Flexible heaters: silicone-rubber pads and polyimide film. */
-                if (isfinite(p) && (strstr(m->id, "silicone") || strstr(m->id, "polyimide")) &&
-                    p / a > TP_DENSITY_FLEX)
-                    snprintf(lines[n++], TP_CAUTION_MAX,
-                             "Heater power density %.2f W/cm2 in a %s layer: above about 1 W/cm2 "
-                             "a flexible heater must be fully bonded to the plate, or it "
-                             "overheats and delaminates.", p / a * 1e-4, m->id);
-            }
+            /* The power full on from cold, as every header states and `budget` checks. */
+            const char *type;
+            double watts, limit = tp_heater_density_limit(desc, &type);
+            double area = tp_heater_area(desc);
+            tp_network_cold_start(net, NULL, &watts, NULL);
+            if (type && isfinite(watts) && watts / area > limit)
+                snprintf(lines[n++], TP_CAUTION_MAX,
+                         "Heater power density %.2f W/cm2 in a %s layer: above about %.0f W/cm2 "
+                         "a flexible heater must be fully bonded to the plate, or it "
+                         "overheats and delaminates.", watts / area * 1e-4, type, limit * 1e-4);
         }
     }
     snprintf(lines[n++], TP_CAUTION_MAX,
