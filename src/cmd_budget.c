@@ -61,17 +61,20 @@ static void series_path(FILE *fp, const tp_circuit *c)
     fputc('\n', fp);
 }
 
-/* "18 AWG (ampacity)" or "none up to 4 AWG" for one series of a recommendation. */
+/* "18 AWG (15.1 A; ampacity decides)" or "none up to 4 AWG" for one series of a
+ * recommendation. */
 static void gauge(char *buf, size_t size, const tp_gauge_pick *p, int awg)
 {
+    const char *why = p->limited_by && strcmp(p->limited_by, "both") == 0
+                          ? "ampacity and drop decide"
+                      : p->limited_by && strcmp(p->limited_by, "drop") == 0 ? "drop decides"
+                                                                             : "ampacity decides";
     if (!isfinite(p->size))
         snprintf(buf, size, "none %s", awg ? "up to 4 AWG" : "up to 16 mm2");
     else if (awg)
-        snprintf(buf, size, "%.0f AWG (%.1f A; %s decides)", p->size, p->ampacity,
-                 p->limited_by);
+        snprintf(buf, size, "%.0f AWG (%.1f A; %s)", p->size, p->ampacity, why);
     else
-        snprintf(buf, size, "%.3g mm2 (%.1f A; %s decides)", p->size * 1e6, p->ampacity,
-                 p->limited_by);
+        snprintf(buf, size, "%.3g mm2 (%.1f A; %s)", p->size * 1e6, p->ampacity, why);
 }
 
 /* The wire's ampacity, the smallest wire and the fuse. */
