@@ -62,7 +62,7 @@ static double element_t(const tp_net_source *s, const double *t)
 
 /* The wiring figures that need the heater's cold current: the wire's ampacity, the smallest
  * wire, the fuse, and the heater's power density. */
-static void wiring_checks(const tp_desc *desc, const tp_network *net, const tp_net_source *s,
+static void wiring_figures(const tp_desc *desc, const tp_network *net, const tp_net_source *s,
                           tp_budget *b)
 {
     const tp_wiring *w = &desc->wiring;
@@ -193,7 +193,7 @@ tp_status tp_budget_compute(const tp_desc *desc, tp_network *net, tp_budget *b, 
     b->wire_loss_hold = b->duty_hold * b->i_hold_on * b->i_hold_on * b->circuit.r_wire;
     b->switch_loss_cold = b->i_cold * b->i_cold * b->circuit.r_switch;
     b->switch_loss_hold = b->duty_hold * b->i_hold_on * b->i_hold_on * b->circuit.r_switch;
-    wiring_checks(desc, net, s, b);
+    wiring_figures(desc, net, s, b);
 
     if (b->holding)
         check(b, "holding within the duty limit", b->duty_hold <= s->max_duty, b->duty_hold,
