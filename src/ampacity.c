@@ -39,13 +39,15 @@
 
 typedef struct nec_row {
     double awg;
-    double a[3]; /* A at 60, 75 and 90 degC; NaN: not rated */
+    double a[3]; /* A at 60, 75 and 90 degC; TP_UNSET: not rated */
 } nec_row;
 
 /* NEC (NFPA 70) 2020 Table 310.16, copper (see the file's head for what was confirmed). */
 static const nec_row nec_310_16[] = {
-    {18, {NAN, NAN, 14}}, {16, {NAN, NAN, 18}}, {14, {15, 20, 25}}, {12, {20, 25, 30}},
-    {10, {30, 35, 40}},   {8, {40, 50, 55}},    {6, {55, 65, 75}},  {4, {70, 85, 95}},
+    {18, {TP_UNSET, TP_UNSET, 14}}, {16, {TP_UNSET, TP_UNSET, 18}}, {14, {15, 20, 25}},
+    {12, {20, 25, 30}},
+    {10, {30, 35, 40}},             {8, {40, 50, 55}},              {6, {55, 65, 75}},
+    {4, {70, 85, 95}},
 };
 
 typedef struct chassis_row {

@@ -644,15 +644,15 @@ static void read_value(reader *r, const key *k, const tp_doc_node *n, void *base
         return;
     }
     case K_ENUM: {
-        char hint[160], list[120];
+        char hint[160], list[120], example[140];
         size_t n_names = 0, len = 0;
         while (k->names[n_names])
             n_names++;
         for (i = 0; i < n_names && len + 2 < sizeof list; i++)
             len += (size_t)snprintf(list + len, sizeof list - len, "%s%s",
                                     i == 0 ? "" : i + 1 == n_names ? " or " : ", ", k->names[i]);
-        snprintf(hint, sizeof hint, "one of %s", list);
-        if (!expect_kind(r, n, TP_DOC_SCALAR, path, hint))
+        snprintf(example, sizeof example, "one of %s", list);
+        if (!expect_kind(r, n, TP_DOC_SCALAR, path, example))
             return;
         for (i = 0; i < n_names; i++) {
             if (strcmp(n->text, k->names[i]) == 0) {

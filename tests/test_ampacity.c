@@ -16,6 +16,7 @@
 #include "tp_test.h"
 
 #define C(t) ((t) + TP_TEST_KELVIN) /* degC to K */
+#define NONE ((double)NAN)           /* not rated / not given */
 
 static double amps(double area, tp_installation inst, double insulation_c, double ambient_c)
 {
@@ -104,9 +105,9 @@ static void test_ampacity_correction_matches_table_310_15_B_1(void **state)
         {10, {1.29, 1.20, 1.15}}, {15, {1.22, 1.15, 1.12}}, {20, {1.15, 1.11, 1.08}},
         {25, {1.08, 1.05, 1.04}}, {30, {1.00, 1.00, 1.00}}, {35, {0.91, 0.94, 0.96}},
         {40, {0.82, 0.88, 0.91}}, {45, {0.71, 0.82, 0.87}}, {50, {0.58, 0.75, 0.82}},
-        {55, {0.41, 0.67, 0.76}}, {60, {NAN, 0.58, 0.71}},  {65, {NAN, 0.47, 0.65}},
-        {70, {NAN, 0.33, 0.58}},  {75, {NAN, NAN, 0.50}},   {80, {NAN, NAN, 0.41}},
-        {85, {NAN, NAN, 0.29}},
+        {55, {0.41, 0.67, 0.76}}, {60, {NONE, 0.58, 0.71}}, {65, {NONE, 0.47, 0.65}},
+        {70, {NONE, 0.33, 0.58}}, {75, {NONE, NONE, 0.50}}, {80, {NONE, NONE, 0.41}},
+        {85, {NONE, NONE, 0.29}},
     };
     static const double col[3] = {60, 75, 90};
     size_t i, k;
@@ -179,7 +180,7 @@ static void test_wire_recommend_drop_decides(void **state)
     assert_string_equal(w.metric.limited_by, "drop");
     /* Without a length the drop is not checked: ampacity alone picks 18 AWG and 1 mm2 (read at
      * 18 AWG, 14 A). */
-    tp_wire_recommend(5.0, NAN, 12.0, 0.03, &c, &w);
+    tp_wire_recommend(5.0, NONE, 12.0, 0.03, &c, &w);
     tp_check_rel("AWG without a length", w.awg.size, 18, 1e-12);
     tp_check_rel("mm2 without a length", w.metric.size, 1.0e-6, 1e-12);
     /* Nothing in the series carries 200 A: no answer. */
@@ -211,7 +212,7 @@ static void test_fuse_never_above_the_ampacity(void **state)
     /* Between 9.9 A and 9.95 A there is no standard size: none. */
     assert_true(tp_fuse_within(9.9, 9.95, &below) == 0.0);
     /* Unknown ampacity: the rule alone. */
-    assert_true(tp_fuse_within(9.83, NAN, &below) == 12.5 && !below);
+    assert_true(tp_fuse_within(9.83, NONE, &below) == 12.5 && !below);
     /* Over a grid of currents and ampacities, a fuse is never above the ampacity and always
      * above the running current. */
     for (i = 0.3; i < 90.0; i *= 1.13)
