@@ -32,28 +32,41 @@ static void test_ampacity_nec_310_16_at_30_degC(void **state)
     /* NEC (NFPA 70) 2020 Table 310.16, copper, 30 degC ambient (factor 1). The 75 degC column:
      * 14 AWG 20 A, 12 AWG 25 A, 10 AWG 35 A, 8 AWG 50 A, 6 AWG 65 A (confirmed against a
      * reproduction of the 2020 table). */
-    tp_check_rel("14 AWG, 75 degC", amps(tp_awg_area(14), TP_INSTALL_CABLE, 75, 30), 20, 1e-12);
-    tp_check_rel("12 AWG, 75 degC", amps(tp_awg_area(12), TP_INSTALL_CABLE, 75, 30), 25, 1e-12);
-    tp_check_rel("10 AWG, 75 degC", amps(tp_awg_area(10), TP_INSTALL_CABLE, 75, 30), 35, 1e-12);
-    tp_check_rel("8 AWG, 75 degC", amps(tp_awg_area(8), TP_INSTALL_CABLE, 75, 30), 50, 1e-12);
-    tp_check_rel("6 AWG, 75 degC", amps(tp_awg_area(6), TP_INSTALL_CABLE, 75, 30), 65, 1e-12);
+    tp_check_rel("14 AWG, 75 degC", amps(tp_circuit_awg_area(14), TP_INSTALL_CABLE, 75, 30), 20,
+                 1e-12);
+    tp_check_rel("12 AWG, 75 degC", amps(tp_circuit_awg_area(12), TP_INSTALL_CABLE, 75, 30), 25,
+                 1e-12);
+    tp_check_rel("10 AWG, 75 degC", amps(tp_circuit_awg_area(10), TP_INSTALL_CABLE, 75, 30), 35,
+                 1e-12);
+    tp_check_rel("8 AWG, 75 degC", amps(tp_circuit_awg_area(8), TP_INSTALL_CABLE, 75, 30), 50,
+                 1e-12);
+    tp_check_rel("6 AWG, 75 degC", amps(tp_circuit_awg_area(6), TP_INSTALL_CABLE, 75, 30), 65,
+                 1e-12);
     /* 10 AWG at 60 and 90 degC: 30 A and 40 A (confirmed against a reproduction of an earlier
      * edition of the same table). */
-    tp_check_rel("10 AWG, 60 degC", amps(tp_awg_area(10), TP_INSTALL_CABLE, 60, 30), 30, 1e-12);
-    tp_check_rel("10 AWG, 90 degC", amps(tp_awg_area(10), TP_INSTALL_CABLE, 90, 30), 40, 1e-12);
+    tp_check_rel("10 AWG, 60 degC", amps(tp_circuit_awg_area(10), TP_INSTALL_CABLE, 60, 30), 30,
+                 1e-12);
+    tp_check_rel("10 AWG, 90 degC", amps(tp_circuit_awg_area(10), TP_INSTALL_CABLE, 90, 30), 40,
+                 1e-12);
     /* 14 AWG at 60 and 90 degC: 15 A and 25 A; 18 and 16 AWG at 90 degC: 14 A and 18 A, and no
      * rating at 60 or 75 degC (2020 edition, from memory). */
-    tp_check_rel("14 AWG, 60 degC", amps(tp_awg_area(14), TP_INSTALL_CABLE, 60, 30), 15, 1e-12);
-    tp_check_rel("14 AWG, 90 degC", amps(tp_awg_area(14), TP_INSTALL_CABLE, 90, 30), 25, 1e-12);
-    tp_check_rel("18 AWG, 90 degC", amps(tp_awg_area(18), TP_INSTALL_CABLE, 90, 30), 14, 1e-12);
-    tp_check_rel("16 AWG, 90 degC", amps(tp_awg_area(16), TP_INSTALL_CABLE, 90, 30), 18, 1e-12);
-    assert_true(isnan(amps(tp_awg_area(16), TP_INSTALL_CABLE, 75, 30)));
-    assert_true(isnan(amps(tp_awg_area(18), TP_INSTALL_CABLE, 60, 30)));
+    tp_check_rel("14 AWG, 60 degC", amps(tp_circuit_awg_area(14), TP_INSTALL_CABLE, 60, 30), 15,
+                 1e-12);
+    tp_check_rel("14 AWG, 90 degC", amps(tp_circuit_awg_area(14), TP_INSTALL_CABLE, 90, 30), 25,
+                 1e-12);
+    tp_check_rel("18 AWG, 90 degC", amps(tp_circuit_awg_area(18), TP_INSTALL_CABLE, 90, 30), 14,
+                 1e-12);
+    tp_check_rel("16 AWG, 90 degC", amps(tp_circuit_awg_area(16), TP_INSTALL_CABLE, 90, 30), 18,
+                 1e-12);
+    assert_true(isnan(amps(tp_circuit_awg_area(16), TP_INSTALL_CABLE, 75, 30)));
+    assert_true(isnan(amps(tp_circuit_awg_area(18), TP_INSTALL_CABLE, 60, 30)));
     /* An insulation rating between columns reads the cooler one (105 degC PVC: the 90 degC
      * column; 80 degC: the 75 degC column); below 60 degC the table has no column. */
-    tp_check_rel("14 AWG, 105 degC", amps(tp_awg_area(14), TP_INSTALL_CABLE, 105, 30), 25, 1e-12);
-    tp_check_rel("14 AWG, 80 degC", amps(tp_awg_area(14), TP_INSTALL_CABLE, 80, 30), 20, 1e-12);
-    assert_true(isnan(amps(tp_awg_area(14), TP_INSTALL_CABLE, 55, 30)));
+    tp_check_rel("14 AWG, 105 degC", amps(tp_circuit_awg_area(14), TP_INSTALL_CABLE, 105, 30), 25,
+                 1e-12);
+    tp_check_rel("14 AWG, 80 degC", amps(tp_circuit_awg_area(14), TP_INSTALL_CABLE, 80, 30), 20,
+                 1e-12);
+    assert_true(isnan(amps(tp_circuit_awg_area(14), TP_INSTALL_CABLE, 55, 30)));
 }
 
 static void test_ampacity_metric_sizes_read_at_the_next_smaller_gauge(void **state)
@@ -81,10 +94,10 @@ static void test_ampacity_chassis_table(void **state)
     static const double a[] = {3.5, 7, 11, 16, 22, 32, 41, 55};
     size_t i;
     for (i = 0; i < sizeof awg / sizeof awg[0]; i++) {
-        tp_check_rel("chassis", amps(tp_awg_area(awg[i]), TP_INSTALL_CHASSIS, 60, 30), a[i],
+        tp_check_rel("chassis", amps(tp_circuit_awg_area(awg[i]), TP_INSTALL_CHASSIS, 60, 30), a[i],
                      1e-12);
-        tp_check_rel("chassis at 50 degC", amps(tp_awg_area(awg[i]), TP_INSTALL_CHASSIS, 60, 50),
-                     a[i], 1e-12);
+        tp_check_rel("chassis at 50 degC",
+                     amps(tp_circuit_awg_area(awg[i]), TP_INSTALL_CHASSIS, 60, 50), a[i], 1e-12);
     }
     /* Metric: 0.5 mm2 lies between 22 AWG (0.326 mm2) and 20 AWG (0.518 mm2): read at 22 AWG,
      * 7 A. 0.2 mm2 is under 24 AWG (0.205 mm2): read at 26 AWG, 2.2 A (from memory). */
@@ -134,14 +147,14 @@ static void test_ampacity_derating_by_hand(void **state)
      * 40 degC: 25 sqrt((75 - 40) / (75 - 30)) = 25 x 0.881917 = 22.048 A. 16 AWG at 90 degC
      * (18 A) in a 20 degC room: 18 sqrt(70 / 60) = 19.442 A. 18 AWG at 90 degC (14 A) at 80
      * degC: 14 sqrt(10 / 60) = 5.7155 A. */
-    tp_check_rel("12 AWG at 40 degC", amps(tp_awg_area(12), TP_INSTALL_CABLE, 75, 40),
+    tp_check_rel("12 AWG at 40 degC", amps(tp_circuit_awg_area(12), TP_INSTALL_CABLE, 75, 40),
                  25.0 * sqrt(35.0 / 45.0), 1e-12);
-    tp_check_abs("12 AWG at 40 degC, by hand", amps(tp_awg_area(12), TP_INSTALL_CABLE, 75, 40),
-                 22.048, 0.001);
+    tp_check_abs("12 AWG at 40 degC, by hand",
+                 amps(tp_circuit_awg_area(12), TP_INSTALL_CABLE, 75, 40), 22.048, 0.001);
     tp_check_abs("1.5 mm2 in a 20 degC room", amps(1.5e-6, TP_INSTALL_CABLE, 105, 20), 19.442,
                  0.001);
-    tp_check_abs("18 AWG at 80 degC", amps(tp_awg_area(18), TP_INSTALL_CABLE, 90, 80), 5.7155,
-                 0.0001);
+    tp_check_abs("18 AWG at 80 degC", amps(tp_circuit_awg_area(18), TP_INSTALL_CABLE, 90, 80),
+                 5.7155, 0.0001);
 }
 
 static void test_wire_recommend_ampacity_decides(void **state)
@@ -154,7 +167,7 @@ static void test_wire_recommend_ampacity_decides(void **state)
      * 9.83 x 0.4 / (58e6 x 2.081e-6) = 0.0326 V (IEC 60028 resistivity, hand calculation), far
      * under the limit. In mm2 the first size at or above 2.081 mm2 is 2.5 mm2 (read at 14 AWG,
      * 15 A). */
-    tp_wire_recommend(9.83, 0.2, 24.0, 0.03, &c, &w);
+    tp_ampacity_wire_recommend(9.83, 0.2, 24.0, 0.03, &c, &w);
     tp_check_rel("AWG", w.awg.size, 14, 1e-12);
     assert_string_equal(w.awg.limited_by, "ampacity");
     tp_check_rel("its ampacity", w.awg.ampacity, 15, 1e-12);
@@ -172,7 +185,7 @@ static void test_wire_recommend_drop_decides(void **state)
      * but drops 5 x 6 / (58e6 x 0.8231e-6) = 0.628 V; 16 AWG (1.3087 mm2) 0.395 V; 14 AWG
      * (2.0811 mm2) 0.2485 V, within the limit (hand calculation). In mm2 the drop needs
      * 5 x 6 / (58e6 x 0.36) = 1.437 mm2: 1.5 mm2, whose 18 A (read at 16 AWG) carries 5 A. */
-    tp_wire_recommend(5.0, 3.0, 12.0, 0.03, &c, &w);
+    tp_ampacity_wire_recommend(5.0, 3.0, 12.0, 0.03, &c, &w);
     tp_check_rel("AWG", w.awg.size, 14, 1e-12);
     assert_string_equal(w.awg.limited_by, "drop");
     tp_check_abs("its drop", w.awg.drop, 0.2485, 0.0005);
@@ -180,11 +193,11 @@ static void test_wire_recommend_drop_decides(void **state)
     assert_string_equal(w.metric.limited_by, "drop");
     /* Without a length the drop is not checked: ampacity alone picks 18 AWG and 1 mm2 (read at
      * 18 AWG, 14 A). */
-    tp_wire_recommend(5.0, NONE, 12.0, 0.03, &c, &w);
+    tp_ampacity_wire_recommend(5.0, NONE, 12.0, 0.03, &c, &w);
     tp_check_rel("AWG without a length", w.awg.size, 18, 1e-12);
     tp_check_rel("mm2 without a length", w.metric.size, 1.0e-6, 1e-12);
     /* Nothing in the series carries 200 A: no answer. */
-    tp_wire_recommend(200.0, 1.0, 24.0, 0.03, &c, &w);
+    tp_ampacity_wire_recommend(200.0, 1.0, 24.0, 0.03, &c, &w);
     assert_true(isnan(w.awg.size) && isnan(w.metric.size));
     assert_null(w.awg.limited_by);
 }
@@ -194,9 +207,9 @@ static void test_fuse_rule(void **state)
     (void)state;
     /* 1.25 x 9.83 A = 12.29 A: the next standard size is 12.5 A; 1.25 x 8 A = 10 A exactly
      * (common practice, no source: the 125 % continuous-load rule). */
-    assert_true(tp_fuse_suggest(9.83) == 12.5);
-    assert_true(tp_fuse_suggest(8.0) == 10.0);
-    assert_true(tp_fuse_suggest(1000.0) == 0.0);
+    assert_true(tp_ampacity_fuse_suggest(9.83) == 12.5);
+    assert_true(tp_ampacity_fuse_suggest(8.0) == 10.0);
+    assert_true(tp_ampacity_fuse_suggest(1000.0) == 0.0);
 }
 
 static void test_fuse_never_above_the_ampacity(void **state)
@@ -205,19 +218,19 @@ static void test_fuse_never_above_the_ampacity(void **state)
     double i, amp;
     (void)state;
     /* 9.83 A in a wire of 19.4 A: the 125 % rule's 12.5 A fits. */
-    assert_true(tp_fuse_within(9.83, 19.4, &below) == 12.5 && !below);
+    assert_true(tp_ampacity_fuse_within(9.83, 19.4, &below) == 12.5 && !below);
     /* In a wire of 11 A the rule's 12.5 A would not protect it: the largest standard size above
      * 9.83 A and within 11 A is 10 A, flagged as under the rule. */
-    assert_true(tp_fuse_within(9.83, 11.0, &below) == 10.0 && below);
+    assert_true(tp_ampacity_fuse_within(9.83, 11.0, &below) == 10.0 && below);
     /* Between 9.9 A and 9.95 A there is no standard size: none. */
-    assert_true(tp_fuse_within(9.9, 9.95, &below) == 0.0);
+    assert_true(tp_ampacity_fuse_within(9.9, 9.95, &below) == 0.0);
     /* Unknown ampacity: the rule alone. */
-    assert_true(tp_fuse_within(9.83, NONE, &below) == 12.5 && !below);
+    assert_true(tp_ampacity_fuse_within(9.83, NONE, &below) == 12.5 && !below);
     /* Over a grid of currents and ampacities, a fuse is never above the ampacity and always
      * above the running current. */
     for (i = 0.3; i < 90.0; i *= 1.13)
         for (amp = 0.5; amp < 120.0; amp *= 1.07) {
-            double f = tp_fuse_within(i, amp, &below);
+            double f = tp_ampacity_fuse_within(i, amp, &below);
             if (f > 0) {
                 assert_true(f <= amp);
                 assert_true(f > i);

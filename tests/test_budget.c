@@ -152,20 +152,20 @@ static void test_copper_wire_resistance(void **state)
     /* 1.5 mm2 at 20 degC with rho20 = 1/58 ohm.mm2/m (IEC 60028): 11.494 mohm/m (hand
      * calculation). IEC 60228 Table 1 allows at most 12.1 ohm/km for a class 1 (solid) plain
      * copper 1.5 mm2 conductor (from memory): the nominal value must lie below it. */
-    r15 = tp_copper_resistance(1.5e-6, 1.0, 293.15);
+    r15 = tp_circuit_copper_resistance(1.5e-6, 1.0, 293.15);
     tp_check_rel("1.5 mm2", r15, 1.0 / 58.0 / 1.5, 1e-12);
     assert_true(r15 < 12.1e-3);
     /* AWG 16: d = 0.127 mm x 92^(20/39) = 1.2908 mm, area 1.3087 mm2 (ASTM B258 definition);
      * R = 13.17 mohm/m; published AWG tables list 13.2 ohm/km at 20 degC (from memory). */
-    assert_true(fabs(tp_awg_area(16) - 1.3087e-6) < 0.0005e-6);
-    r16 = tp_copper_resistance(tp_awg_area(16), 1.0, 293.15);
+    assert_true(fabs(tp_circuit_awg_area(16) - 1.3087e-6) < 0.0005e-6);
+    r16 = tp_circuit_copper_resistance(tp_circuit_awg_area(16), 1.0, 293.15);
     assert_true(fabs(r16 - 13.17e-3) < 0.01e-3);
     assert_true(fabs(r16 - 13.2e-3) / 13.2e-3 < 0.005);
     /* At 70 degC copper gains 0.00393 * 50 = 19.65 % (IEC 60028 temperature coefficient). */
-    tp_check_rel("1.5 mm2 at 70 degC", tp_copper_resistance(1.5e-6, 1.0, 343.15), r15 * 1.1965,
-                 1e-12);
+    tp_check_rel("1.5 mm2 at 70 degC", tp_circuit_copper_resistance(1.5e-6, 1.0, 343.15),
+                 r15 * 1.1965, 1e-12);
     /* Voltage drop for 10 A over a 2 x 1 m loop of 1.5 mm2: 10 * 2 * 11.494e-3 = 0.2299 V. */
-    tp_check_rel("drop", 10.0 * tp_copper_resistance(1.5e-6, 2.0, 293.15), 0.22989, 1e-4);
+    tp_check_rel("drop", 10.0 * tp_circuit_copper_resistance(1.5e-6, 2.0, 293.15), 0.22989, 1e-4);
 }
 
 /* ---- budget ------------------------------------------------------------------------------- */
@@ -267,7 +267,7 @@ static void test_budget_wire_over_ampacity_fails(void **state)
                     WIRED_BED("{awg: 18, length: 1 m, insulation_rating: 90 degC, "
                               "ambient: 80 degC}"), NULL, 0);
     ampacity = 14.0 * sqrt(10.0 / 60.0);
-    r_wire = 2.0 / 58e6 / tp_awg_area(18);
+    r_wire = 2.0 / 58e6 / tp_circuit_awg_area(18);
     i_cold = 24.0 / (2.4 * (1.0 + 0.00393 * (15.0 - 20.0)) + 0.02 + r_wire);
     tp_check_rel("wire ampacity", num(root, "wire_ampacity_A"), ampacity, 1e-12);
     tp_check_rel("table value", num(root, "wire_table_A"), 14.0, 1e-12);
@@ -323,8 +323,10 @@ static void test_budget_fuse_suggestion_stays_within_ampacity(void **state)
      * between them, 10 A, flagged under the rule: WARN, not FAIL. */
     root = run_json("budget",
                     WIRED_BED("{awg: 18, length: 1 m, insulation_rating: 90 degC, "
-                              "ambient: 50 degC}"), NULL, 0);
-    i_cold = 24.0 / (2.4 * (1.0 + 0.00393 * (15.0 - 20.0)) + 0.02 + 2.0 / 58e6 / tp_awg_area(18));
+                              "ambient: 50 degC}"),
+                    NULL, 0);
+    i_cold = 24.0 /
+             (2.4 * (1.0 + 0.00393 * (15.0 - 20.0)) + 0.02 + 2.0 / 58e6 / tp_circuit_awg_area(18));
     tp_check_rel("cold current", num(root, "cold_current_A"), i_cold, 1e-12);
     tp_check_rel("wire ampacity", num(root, "wire_ampacity_A"), 14.0 * sqrt(40.0 / 60.0), 1e-12);
     tp_check_rel("fuse", num(root, "fuse_A"), 10.0, 1e-12);

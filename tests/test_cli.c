@@ -1,18 +1,18 @@
-/* Tests of the command line (src/cli.c, src/main.c, src/commands.c) through the binary: every
- * output option of every verb is checked before anything is computed, two outputs never share
+/* Tests of the command line (src/cli/cli.c, src/cli/main.c, src/cli/verbs.c) through the binary:
+ * every output option of every verb is checked before anything is computed, two outputs never share
  * standard output, a verb refuses options it does not use, --set ignores blanks around its key
  * and value, 'tepid help VERB' is the verb's help, unknown verbs and options get a
- * did-you-mean, and sweep's --jobs states its cap. The verb and option tables are read from the library, so a verb or output
- * option added later is covered without editing this file. */
+ * did-you-mean, and sweep's --jobs states its cap. The verb and option tables are read from the
+ * library, so a verb or output option added later is covered without editing this file. */
 #include <stdarg.h>
 #include <stddef.h>
 #include <stdint.h>
 #include <setjmp.h>
 #include <cmocka.h>
 
-#include "commands.h"
 #include "sweep.h"
 #include "tp_test.h"
+#include "verbs.h"
 
 #define DEMO TP_SOURCE_DIR "/configs/workshop-bed-24v.yaml"
 #define DEMO_LOG TP_SOURCE_DIR "/configs/workshop-bed-24v-log.csv"
@@ -57,7 +57,7 @@ static void test_cli_every_output_checked_before_computing(void **state)
     size_t i;
     int checked = 0;
     (void)state;
-    for (i = 0; i < tp_n_verbs; i++) {
+    for (i = 0; i < tp_verbs_count; i++) {
         const tp_verb *v = tp_verbs[i];
         const tp_opt *o;
         for (o = v->opts; o->name; o++) {
@@ -162,7 +162,7 @@ static void test_cli_options_are_per_verb(void **state)
     tp_scratch *s = tp_group_scratch();
     size_t i;
     (void)state;
-    for (i = 0; i < tp_n_verbs; i++) {
+    for (i = 0; i < tp_verbs_count; i++) {
         const tp_verb *v = tp_verbs[i];
         const char *argv[] = {"help", v->name, NULL};
         const tp_opt *o;
@@ -224,7 +224,7 @@ static void test_cli_help_verb(void **state)
     tp_scratch *s = tp_group_scratch();
     size_t i;
     (void)state;
-    for (i = 0; i < tp_n_verbs; i++) {
+    for (i = 0; i < tp_verbs_count; i++) {
         const char *a[] = {"help", tp_verbs[i]->name, NULL};
         const char *b[] = {tp_verbs[i]->name, "--help", NULL};
         char want[64];

@@ -1,4 +1,4 @@
-/* Tests for config.c, doc.c and the raw-network checks of assemble.c, through the binary:
+/* Tests for config.c, yamltree.c and the raw-network checks of assemble.c, through the binary:
  * every input error of issue 2 (items 2 and 3) by its FILE:LINE:COL: key.path: message line,
  * exit status 2 and the absence of any output file; the two warnings; --set overrides; and
  * the command-line conventions of --help, VERB --help, --version and usage errors. */
@@ -38,21 +38,12 @@ static void compose(const variant *v, char *out, size_t size)
  * searching the text, independently of the parser's positions. */
 static void locate(const char *text, const char *needle, int *line, int *col)
 {
-    const char *at = strstr(text, needle), *p;
+    const char *at = strstr(text, needle);
     if (!at || strstr(at + 1, needle))
         print_error("'%s' must occur exactly once in\n%s", needle, text);
     assert_non_null(at);
     assert_null(strstr(at + 1, needle));
-    *line = 1;
-    *col = 1;
-    for (p = text; p < at; p++) {
-        if (*p == '\n') {
-            (*line)++;
-            *col = 1;
-        } else {
-            (*col)++;
-        }
-    }
+    tp_text_locate(text, needle, line, col);
 }
 
 /* The first line of `text` (into out). */

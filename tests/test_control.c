@@ -41,7 +41,7 @@ static void test_onoff_switching_rules(void **state)
         {380.0, 0.0},  /* far above: off */
     };
     tp_control c = make_control(TP_MODE_ONOFF, 373.0, 2.0, 1.0);
-    tp_ctrl_state s;
+    tp_control_state s;
     (void)state;
     tp_control_start(&c, &s);
     for (size_t i = 0; i < sizeof seq / sizeof seq[0]; i++)
@@ -152,7 +152,7 @@ static void test_pid_three_ticks_by_hand(void **state)
     static const double duty[] = {0.510, 0.156, 0.049};
     static const double integral[] = {0.010, 0.016, 0.019};
     tp_control c = make_control(TP_MODE_PID, 100.0 + TP_TEST_KELVIN, 0.0, 0.5);
-    tp_ctrl_state s;
+    tp_control_state s;
     (void)state;
     c.kp = 0.05;
     c.ki = 0.002;
@@ -174,7 +174,7 @@ static void test_pid_three_ticks_by_hand(void **state)
 static void test_pid_duty_levels(void **state)
 {
     tp_control c = make_control(TP_MODE_PID, 90.0 + TP_TEST_KELVIN, 0.0, 1.0);
-    tp_ctrl_state s;
+    tp_control_state s;
     (void)state;
     c.kp = 0.1003;
     c.duty_levels = 255;
@@ -200,7 +200,7 @@ static void test_pid_duty_levels(void **state)
 static void test_pid_derivative_filter(void **state)
 {
     tp_control c = make_control(TP_MODE_PID, 100.0 + TP_TEST_KELVIN, 0.0, 1.0);
-    tp_ctrl_state s;
+    tp_control_state s;
     int k;
     (void)state;
     c.kp = 0.05;
@@ -236,7 +236,7 @@ static void test_pid_derivative_filter(void **state)
 static void test_pid_integrator_clamped(void **state)
 {
     tp_control c = make_control(TP_MODE_PID, 373.0, 0.0, 1.0);
-    tp_ctrl_state s;
+    tp_control_state s;
     int k;
     (void)state;
     c.kp = 0.02;
@@ -260,9 +260,9 @@ static void test_pid_integrator_clamped(void **state)
 /* A 100 kOhm (25 degC), B = 3950 K NTC (a common trade value, common practice, no source) at the
  * bottom of a divider: 4.7 kOhm from 3.3 V (common practice, no source), 12-bit ADC with a
  * 3.3 V reference. */
-static tp_reading_model ntc(void)
+static tp_control_reading_model ntc(void)
 {
-    tp_reading_model m;
+    tp_control_reading_model m;
     memset(&m, 0, sizeof m);
     m.thermistor = 1;
     m.r25 = 100000.0;
@@ -282,13 +282,13 @@ static tp_reading_model ntc(void)
 static void test_thermistor_beta_table(void **state)
 {
     static const double rows[][2] = {{60.0, 24861.6}, {100.0, 6975.2}, {200.0, 744.6}};
-    tp_reading_model m = ntc();
+    tp_control_reading_model m = ntc();
     (void)state;
     for (size_t i = 0; i < 3; i++) {
         double t = rows[i][0] + TP_TEST_KELVIN, r = rows[i][1];
         double drdt = m.beta * r / (t * t);
-        tp_check_abs("R(T)", tp_thermistor_resistance(&m, t), r, 0.05);
-        tp_check_abs("T(R)", tp_thermistor_temperature(&m, r), t, 0.05 / drdt);
+        tp_check_abs("R(T)", tp_control_thermistor_resistance(&m, t), r, 0.05);
+        tp_check_abs("T(R)", tp_control_thermistor_temperature(&m, r), t, 0.05 / drdt);
     }
 }
 
@@ -309,30 +309,30 @@ static void test_thermistor_beta_table(void **state)
 static void test_thermistor_adc_quantisation_12bit(void **state)
 {
     const double t100 = 100.0 + TP_TEST_KELVIN, step = 0.035784;
-    tp_reading_model m = ntc();
+    tp_control_reading_model m = ntc();
     double mid, above, below;
     (void)state;
-    assert_int_equal(tp_adc_code(&m, t100), 2447);
-    mid = tp_reading(&m, t100);
+    assert_int_equal(tp_control_adc_code(&m, t100), 2447);
+    mid = tp_control_reading(&m, t100);
     tp_check_abs("reading of code 2447", mid, 373.15368, 1.0e-5);
-    assert_int_equal(tp_adc_code(&m, t100 + step), 2446);
-    assert_int_equal(tp_adc_code(&m, t100 - step), 2448);
-    above = tp_reading(&m, t100 + step);
-    below = tp_reading(&m, t100 - step);
+    assert_int_equal(tp_control_adc_code(&m, t100 + step), 2446);
+    assert_int_equal(tp_control_adc_code(&m, t100 - step), 2448);
+    above = tp_control_reading(&m, t100 + step);
+    below = tp_control_reading(&m, t100 - step);
     tp_check_abs("step", 0.5 * (above - below), step, 1.0e-5);
     /* Between code edges the reading does not move: quantised, not interpolated. */
-    assert_true(tp_reading(&m, t100 + 0.001) == mid);
+    assert_true(tp_control_reading(&m, t100 + 0.001) == mid);
     /* Without a thermistor the reading is the node temperature plus the offset. */
     m.thermistor = 0;
     m.offset = -1.5;
-    assert_true(tp_reading(&m, t100) == t100 - 1.5);
+    assert_true(tp_control_reading(&m, t100) == t100 - 1.5);
 }
 
 /* ---- the ADC divider at the ends of its range ------------------------------------------------ */
 
 /* A 100 kohm (25 degC) NTC, beta 3950 K, below a 4.7 kohm resistor from 3.3 V, read by a 12-bit
  * ADC referenced to the same 3.3 V: an invented but ordinary divider. */
-static const tp_reading_model ntc_divider = {0.0, 1, 100e3, 3950.0, 4.7e3, 3.3, 3.3, 12};
+static const tp_control_reading_model ntc_divider = {0.0, 1, 100e3, 3950.0, 4.7e3, 3.3, 3.3, 12};
 
 /* At 5 K the Beta equation gives R = R25 exp(beta (1/T - 1/T25)) = exp(776) ohm, beyond double
  * range (inf). The divider then reads the full supply, and the code saturates at the top:
@@ -341,7 +341,7 @@ static const tp_reading_model ntc_divider = {0.0, 1, 100e3, 3950.0, 4.7e3, 3.3, 
 static void test_adc_code_open_thermistor_saturates_high(void **state)
 {
     (void)state;
-    assert_int_equal(tp_adc_code(&ntc_divider, 5.0), 4095);
+    assert_int_equal(tp_control_adc_code(&ntc_divider, 5.0), 4095);
 }
 
 /* At 25 degC R = R25: V = 3.3 * 100 / 104.7 = 3.1519 V, code floor(3.1519 / 3.3 * 4096) =
@@ -349,7 +349,7 @@ static void test_adc_code_open_thermistor_saturates_high(void **state)
 static void test_adc_code_at_25c(void **state)
 {
     (void)state;
-    assert_int_equal(tp_adc_code(&ntc_divider, 298.15), 3912);
+    assert_int_equal(tp_control_adc_code(&ntc_divider, 298.15), 3912);
 }
 
 int main(void)

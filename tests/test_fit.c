@@ -18,12 +18,12 @@
 
 #include "assemble.h"
 #include "config.h"
-#include "doc.h"
 #include "fit.h"
 #include "integrate.h"
-#include "logfile.h"
 #include "network.h"
+#include "templog.h"
 #include "tp_test.h"
+#include "yamltree.h"
 
 #define KELVIN 273.15 /* K at 0 degC */
 #define PI 3.14159265358979323846
@@ -74,15 +74,16 @@ static int record_truth(void *user, const tp_sample *s)
 }
 
 /* Load YAML text with overrides into a description (and its document). */
-static void load(const char *yaml, const char *const *sets, int n_sets, tp_doc **doc, tp_desc *desc)
+static void load(const char *yaml, const char *const *sets, int n_sets, tp_yamltree **doc,
+                 tp_description *desc)
 {
     tp_diag d;
     int i;
     tp_diag_init(&d, stderr);
     d.quiet = 1;
-    assert_int_equal(tp_doc_load_text("test.yaml", yaml, strlen(yaml), doc, &d), TP_OK);
+    assert_int_equal(tp_yamltree_load_text("test.yaml", yaml, strlen(yaml), doc, &d), TP_OK);
     for (i = 0; i < n_sets; i++)
-        assert_int_equal(tp_doc_set(*doc, sets[i], &d), TP_OK);
+        assert_int_equal(tp_yamltree_set(*doc, sets[i], &d), TP_OK);
     assert_int_equal(tp_config_read(*doc, desc, &d), TP_OK);
 }
 
@@ -93,8 +94,8 @@ static void load(const char *yaml, const char *const *sets, int n_sets, tp_doc *
 static char *synth_text(const char *yaml, const char *const *sets, int n_sets, double sigma,
                         uint64_t seed, int drive, int decimals, const char *preamble)
 {
-    tp_doc *doc = NULL;
-    tp_desc desc;
+    tp_yamltree *doc = NULL;
+    tp_description desc;
     tp_network *net = NULL;
     tp_integrate_opts o;
     tp_integrate_stats st;
@@ -150,32 +151,32 @@ static char *synth_text(const char *yaml, const char *const *sets, int n_sets, d
     free(tr.duty);
     free(tr.power);
     tp_network_destroy(&net);
-    tp_desc_clear(&desc);
-    tp_doc_destroy(&doc);
+    tp_config_clear(&desc);
+    tp_yamltree_destroy(&doc);
     return text;
 }
 
 static void synth(const char *yaml, const char *const *sets, int n_sets, double sigma,
-                  uint64_t seed, int drive, tp_log *log)
+                  uint64_t seed, int drive, tp_templog *log)
 {
     char *text = synth_text(yaml, sets, n_sets, sigma, seed, drive, 6, NULL);
     tp_diag d;
     tp_diag_init(&d, stderr);
-    assert_int_equal(tp_log_parse("synthetic.csv", text, strlen(text), NULL, log, &d), TP_OK);
+    assert_int_equal(tp_templog_parse("synthetic.csv", text, strlen(text), NULL, log, &d), TP_OK);
     free(text);
 }
 
 /* A fit of `yaml` (as configured) against `log` with the keys in `free_list`. */
 typedef struct fitting {
-    tp_doc *doc;
-    tp_desc desc;
+    tp_yamltree *doc;
+    tp_description desc;
     tp_fit_param params[TP_FIT_MAX_PARAMS];
     int n;
     tp_fit_problem pb;
     tp_fit_result res;
 } fitting;
 
-static tp_status fit(fitting *f, const char *yaml, const char *free_list, const tp_log *log,
+static tp_status fit(fitting *f, const char *yaml, const char *free_list, const tp_templog *log,
                      int starts)
 {
     tp_diag d;
@@ -197,8 +198,8 @@ static tp_status fit(fitting *f, const char *yaml, const char *free_list, const 
 static void fit_clear(fitting *f)
 {
     tp_fit_result_clear(&f->res);
-    tp_desc_clear(&f->desc);
-    tp_doc_destroy(&f->doc);
+    tp_config_clear(&f->desc);
+    tp_yamltree_destroy(&f->doc);
 }
 
 /* |estimate - truth| within k standard errors, on the scale the fit searched (ln x for log-scaled
@@ -238,7 +239,7 @@ static void test_fit_first_order_against_closed_form(void **state)
     size_t cap = (size_t)n * 40 + 64, len = 0;
     char *text = malloc(cap);
     uint64_t seed = 7;
-    tp_log lg;
+    tp_templog lg;
     tp_diag d;
     fitting f;
     long i;
@@ -255,7 +256,7 @@ static void test_fit_first_order_against_closed_form(void **state)
         len += (size_t)snprintf(text + len, cap - len, "%g,%.6f\n", t, y + sigma * gauss(&seed));
     }
     tp_diag_init(&d, stderr);
-    assert_int_equal(tp_log_parse("rc.csv", text, len, NULL, &lg, &d), TP_OK);
+    assert_int_equal(tp_templog_parse("rc.csv", text, len, NULL, &lg, &d), TP_OK);
     free(text);
     /* Covariance sigma^2 (J^T J)^-1 of (ln C, ln G) with the true sigma (Seber & Wild,
      * Nonlinear Regression, Wiley 1989, Sec. 2.1; from memory). */
@@ -293,7 +294,7 @@ static void test_fit_first_order_against_closed_form(void **state)
     /* All three starting points find the one minimum of this well-posed problem. */
     assert_int_equal(f.res.starts_at_best, 3);
     fit_clear(&f);
-    tp_log_clear(&lg);
+    tp_templog_clear(&lg);
 }
 
 /* ---- a physical plate: synthetic logs from tepid's own model -------------------------------- */
@@ -334,7 +335,7 @@ static const char *const truth3[] = {"heater.power=120 W", "losses.convection_sc
 
 static void test_fit_two_parameters_recovered(void **state)
 {
-    tp_log lg;
+    tp_templog lg;
     fitting f;
     (void)state;
     synth(plate_yaml, truth2, 2, 0.2, 11, 1, &lg);
@@ -344,7 +345,7 @@ static void test_fit_two_parameters_recovered(void **state)
     assert_within_se(&f.params[1], 1.4, 3.0);
     assert_int_equal(f.res.rank, 2);
     fit_clear(&f);
-    tp_log_clear(&lg);
+    tp_templog_clear(&lg);
 }
 
 /* The plate with its heater given as sold ("24 V, 150 W"): --free accepts heater.rated_power.
@@ -368,7 +369,7 @@ static const char *plate_rated_yaml =
 static void test_fit_rated_power_recovered(void **state)
 {
     static const char *const truth_rated[] = {"heater.rated_power=120 W"};
-    tp_log lg;
+    tp_templog lg;
     fitting f;
     (void)state;
     synth(plate_rated_yaml, truth_rated, 1, 0.2, 21, 1, &lg);
@@ -376,12 +377,12 @@ static void test_fit_rated_power_recovered(void **state)
     assert_within_se(&f.params[0], 120.0, 3.0);
     tp_check_rel("rated power", f.params[0].value, 120.0, 0.02);
     fit_clear(&f);
-    tp_log_clear(&lg);
+    tp_templog_clear(&lg);
 }
 
 static void test_fit_three_parameters_recovered(void **state)
 {
-    tp_log lg;
+    tp_templog lg;
     fitting f;
     (void)state;
     synth(plate_yaml, truth3, 3, 0.2, 12, 1, &lg);
@@ -393,7 +394,7 @@ static void test_fit_three_parameters_recovered(void **state)
     assert_within_se(&f.params[2], 10.0, 3.0);
     assert_int_equal(f.res.rank, 3);
     fit_clear(&f);
-    tp_log_clear(&lg);
+    tp_templog_clear(&lg);
 }
 
 static void test_fit_standard_errors_match_scatter(void **state)
@@ -409,7 +410,7 @@ static void test_fit_standard_errors_match_scatter(void **state)
     int s, k;
     (void)state;
     for (s = 0; s < SEEDS; s++) {
-        tp_log lg;
+        tp_templog lg;
         fitting f;
         synth(plate_yaml, truth3, 3, 0.2, 1000 + (uint64_t)s, 1, &lg);
         assert_int_equal(fit(&f, plate_yaml,
@@ -420,7 +421,7 @@ static void test_fit_standard_errors_match_scatter(void **state)
             se_sum[k] += f.params[k].se_scaled;
         }
         fit_clear(&f);
-        tp_log_clear(&lg);
+        tp_templog_clear(&lg);
     }
     for (k = 0; k < P; k++) {
         double ratio;
@@ -444,7 +445,7 @@ static void test_fit_standard_errors_match_scatter(void **state)
 
 static void test_fit_duty_log_drives_open_loop(void **state)
 {
-    tp_log lg;
+    tp_templog lg;
     fitting f;
     (void)state;
     /* The log comes from the PID plate; the config to calibrate has an on-off controller at
@@ -458,42 +459,42 @@ static void test_fit_duty_log_drives_open_loop(void **state)
     assert_within_se(&f.params[0], 120.0, 3.0);
     assert_within_se(&f.params[1], 1.4, 3.0);
     fit_clear(&f);
-    tp_log_clear(&lg);
+    tp_templog_clear(&lg);
 }
 
 static void test_fit_controller_log_runs_the_controller(void **state)
 {
-    tp_log lg;
+    tp_templog lg;
     fitting f;
     (void)state;
     /* No duty column: the configured PID runs in every model run, as it did in the log. */
     synth(plate_yaml, truth2, 2, 0.2, 31, 0, &lg);
-    assert_int_equal(lg.drive_kind, TP_LOG_DRIVE_NONE);
+    assert_int_equal(lg.drive_kind, TP_TEMPLOG_DRIVE_NONE);
     assert_int_equal(fit(&f, plate_yaml, "heater.power,losses.convection_scale", &lg, 3), TP_OK);
     assert_int_equal(f.res.drive, TP_FIT_BY_CONTROLLER);
     assert_within_se(&f.params[0], 120.0, 3.0);
     assert_within_se(&f.params[1], 1.4, 3.0);
     fit_clear(&f);
-    tp_log_clear(&lg);
+    tp_templog_clear(&lg);
     /* The same log with the on-off controller of the other config cannot be matched: the fit
      * ends with residuals far above the 0.2 K noise (the model holds 60 degC, the log 80). */
     synth(plate_yaml, truth2, 2, 0.2, 31, 0, &lg);
     assert_int_equal(fit(&f, plate_other_pid_yaml, "losses.convection_scale", &lg, 1), TP_OK);
     assert_true(f.res.rms > 2.0);
     fit_clear(&f);
-    tp_log_clear(&lg);
+    tp_templog_clear(&lg);
 }
 
 static void test_fit_power_log_and_unidentifiable_parameter(void **state)
 {
-    tp_log lg;
+    tp_templog lg;
     fitting f;
     (void)state;
     /* With the delivered power logged, the model's heater follows it: the losses are found,
      * and heater.power cannot change any model run, so its standard error is undetermined and
      * it is flagged (the log cannot depend on it). */
     synth(plate_yaml, truth2, 2, 0.2, 41, 2, &lg);
-    assert_int_equal(lg.drive_kind, TP_LOG_DRIVE_POWER);
+    assert_int_equal(lg.drive_kind, TP_TEMPLOG_DRIVE_POWER);
     /* The config's on-off controller (60 degC) would give another run: the log must drive. */
     assert_int_equal(fit(&f, plate_other_pid_yaml, "losses.convection_scale,heater.power", &lg, 1),
                      TP_OK);
@@ -504,12 +505,12 @@ static void test_fit_power_log_and_unidentifiable_parameter(void **state)
     assert_true(isinf(f.params[1].se));
     assert_int_equal(f.res.rank, 1);
     fit_clear(&f);
-    tp_log_clear(&lg);
+    tp_templog_clear(&lg);
 }
 
 static void test_fit_strongly_correlated_pair_flagged(void **state)
 {
-    tp_log lg;
+    tp_templog lg;
     fitting f;
     (void)state;
     /* Convection and radiation both scale a loss to the room that grows with the plate's
@@ -523,15 +524,15 @@ static void test_fit_strongly_correlated_pair_flagged(void **state)
     assert_true(f.params[0].weak);
     assert_true(f.params[1].weak);
     fit_clear(&f);
-    tp_log_clear(&lg);
+    tp_templog_clear(&lg);
 }
 
 /* ---- --free -------------------------------------------------------------------------------- */
 
 static void test_fit_parse_free_bounds_and_errors(void **state)
 {
-    tp_doc *doc = NULL;
-    tp_desc desc;
+    tp_yamltree *doc = NULL;
+    tp_description desc;
     tp_fit_param q[TP_FIT_MAX_PARAMS];
     tp_diag d;
     int n = 0;
@@ -580,14 +581,14 @@ static void test_fit_parse_free_bounds_and_errors(void **state)
     assert_int_equal(tp_fit_parse_free("heater.supply", &desc, q, &n, 8, &d), TP_ERR_USAGE);
     assert_non_null(strstr(d.log, "does not set this key"));
     assert_int_equal(n, 0);
-    tp_desc_clear(&desc);
-    tp_doc_destroy(&doc);
+    tp_config_clear(&desc);
+    tp_yamltree_destroy(&doc);
 }
 
 static void test_fit_warns_when_log_starts_warm(void **state)
 {
     static const char *const warm[] = {"room.temperature=35 degC"};
-    tp_log lg;
+    tp_templog lg;
     fitting f;
     tp_diag d;
     (void)state;
@@ -603,7 +604,7 @@ static void test_fit_warns_when_log_starts_warm(void **state)
     assert_non_null(strstr(d.log, "degC but the model starts at 20.0 degC"));
     assert_non_null(strstr(d.log, "warning: the log starts at 3"));
     fit_clear(&f);
-    tp_log_clear(&lg);
+    tp_templog_clear(&lg);
 }
 
 /* ---- the command line and the demo log ----------------------------------------------------- */
@@ -642,22 +643,23 @@ static void test_fit_demo_log_matches_its_generator(void **state)
         fputs(text, fp);
         assert_int_equal(fclose(fp), 0);
     } else {
-        tp_log shipped, now;
+        tp_templog shipped, now;
         tp_diag d;
         char *file = tp_read_file(DEMO_LOG);
         long i, differ = 0;
         assert_non_null(file);
         tp_diag_init(&d, stderr);
-        assert_int_equal(tp_log_parse("shipped", file, strlen(file), NULL, &shipped, &d), TP_OK);
-        assert_int_equal(tp_log_parse("now", text, strlen(text), NULL, &now, &d), TP_OK);
+        assert_int_equal(tp_templog_parse("shipped", file, strlen(file), NULL, &shipped, &d),
+                         TP_OK);
+        assert_int_equal(tp_templog_parse("now", text, strlen(text), NULL, &now, &d), TP_OK);
         assert_int_equal(shipped.n, now.n);
         for (i = 0; i < now.n; i++)
             differ += fabs(shipped.reading[i] - now.reading[i]) > 0.011 ||
                       fabs(shipped.drive[i] - now.drive[i]) > 0.0011;
         /* A reading may round the other way in a different build; a handful may differ. */
         assert_true(differ <= now.n / 100);
-        tp_log_clear(&shipped);
-        tp_log_clear(&now);
+        tp_templog_clear(&shipped);
+        tp_templog_clear(&now);
         free(file);
     }
     free(text);
@@ -669,8 +671,8 @@ static void test_fit_command_line_demo(void **state)
     char cfg[TP_TEST_PATH], json[TP_TEST_PATH], csv[TP_TEST_PATH];
     char *text;
     cJSON *root, *params, *p;
-    tp_doc *doc = NULL;
-    tp_desc desc;
+    tp_yamltree *doc = NULL;
+    tp_description desc;
     tp_diag d;
     static const double demo_values[3] = {2.6, 1.3, 11.0};
     int i;
@@ -712,8 +714,8 @@ static void test_fit_command_line_demo(void **state)
     assert_true(fabs(desc.heater.resistance - 2.6) < 0.01);
     assert_true(fabs(desc.losses.convection_scale - 1.3) < 0.01);
     assert_true(fabs(desc.sensor.time_constant - 11.0) < 0.3);
-    tp_desc_clear(&desc);
-    tp_doc_destroy(&doc);
+    tp_config_clear(&desc);
+    tp_yamltree_destroy(&doc);
     /* Refusals: an output onto the log or the config, a missing --log or --free. */
     {
         const char *args[] = {"fit",    DEMO_CONFIG,         "--log",          DEMO_LOG,

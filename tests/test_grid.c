@@ -1,7 +1,7 @@
-/* Tests of gridded plates (bed.grid, src/grid.c, src/surfmap.c, src/multigrid.c): conduction in
- * a strip and a rectangle against their series solutions, the geometry of the cells by hand,
- * the lumped limit (a 1 x 1 grid), grid convergence and energy balance on the demo, the map
- * statistics, and the command line (maps, CSV, messages). */
+/* Tests of gridded plates (bed.grid, src/model/grid.c, src/study/surfacemap.c,
+ * src/solve/multigrid.c): conduction in a strip and a rectangle against their series solutions, the
+ * geometry of the cells by hand, the lumped limit (a 1 x 1 grid), grid convergence and energy
+ * balance on the demo, the map statistics, and the command line (maps, CSV, messages). */
 #include <stdarg.h>
 #include <stddef.h>
 #include <stdint.h>
@@ -22,7 +22,7 @@
 #include "multigrid.h"
 #include "plate.h"
 #include "steady.h"
-#include "surfmap.h"
+#include "surfacemap.h"
 #include "tp_test.h"
 
 #define T0C 273.15 /* 0 degC in kelvin, K */
@@ -41,8 +41,8 @@
 /* A description lowered into a network that is not finished yet, so a test can add fixed
  * boundaries before tp_network_finish. */
 typedef struct built {
-    tp_doc *doc;
-    tp_desc desc;
+    tp_yamltree *doc;
+    tp_description desc;
     tp_network *net;
     tp_diag diag;
 } built;
@@ -51,7 +51,7 @@ static void lower_open(const char *text, built *b)
 {
     memset(b, 0, sizeof *b);
     tp_diag_init(&b->diag, NULL);
-    assert_int_equal(tp_doc_load_text("test.yaml", text, strlen(text), &b->doc, &b->diag),
+    assert_int_equal(tp_yamltree_load_text("test.yaml", text, strlen(text), &b->doc, &b->diag),
                      TP_OK);
     if (tp_config_read(b->doc, &b->desc, &b->diag) != TP_OK) {
         print_error("%s", b->diag.log);
@@ -76,7 +76,7 @@ static void assemble(const char *text, built *b)
 {
     memset(b, 0, sizeof *b);
     tp_diag_init(&b->diag, NULL);
-    assert_int_equal(tp_doc_load_text("test.yaml", text, strlen(text), &b->doc, &b->diag),
+    assert_int_equal(tp_yamltree_load_text("test.yaml", text, strlen(text), &b->doc, &b->diag),
                      TP_OK);
     if (tp_config_read(b->doc, &b->desc, &b->diag) != TP_OK ||
         tp_assemble(&b->desc, b->doc, &b->diag, &b->net) != TP_OK) {
@@ -88,8 +88,8 @@ static void assemble(const char *text, built *b)
 static void release(built *b)
 {
     tp_network_destroy(&b->net);
-    tp_desc_clear(&b->desc);
-    tp_doc_destroy(&b->doc);
+    tp_config_clear(&b->desc);
+    tp_yamltree_destroy(&b->doc);
 }
 
 static int cell(const tp_network *net, int layer, int i, int j)
@@ -237,7 +237,7 @@ static void test_grid_slab_transient_series(void **state)
     slab_strip(50, 1, 1e-8, 0.05);
 }
 
-/* 400 x 8 = 3200 cells take the multigrid path (TP_MG_MIN_UNKNOWNS), with cells five times
+/* 400 x 8 = 3200 cells take the multigrid path (TP_MULTIGRID_MIN_UNKNOWNS), with cells five times
  * longer than wide (joined along x first). With 400 columns the finite-volume error is below
  * 1e-3 K (it falls as the square of the cell width: 0.013 K at 50 columns). At rtol 1e-7 the
  * time integration adds about as much (at the grid default 1e-5 it reaches 0.05 K on this stiff
@@ -245,7 +245,7 @@ static void test_grid_slab_transient_series(void **state)
 static void test_grid_slab_transient_multigrid(void **state)
 {
     (void)state;
-    assert_true(400 * 8 >= TP_MG_MIN_UNKNOWNS);
+    assert_true(400 * 8 >= TP_MULTIGRID_MIN_UNKNOWNS);
     slab_strip(400, 8, 1e-7, 0.005);
 }
 
@@ -329,7 +329,7 @@ static void test_grid_rectangle_steady_series(void **state)
 static void test_grid_rectangle_steady_multigrid(void **state)
 {
     (void)state;
-    assert_true(80 * 40 >= TP_MG_MIN_UNKNOWNS);
+    assert_true(80 * 40 >= TP_MULTIGRID_MIN_UNKNOWNS);
     rectangle(80, 40, 0.15);
 }
 
@@ -579,14 +579,14 @@ static double demo_spread(int nx)
     char *text = demo_text(nx);
     built b;
     tp_steady hold;
-    tp_map_stats st;
+    tp_surfacemap_stats st;
     double *map;
     assemble(text, &b);
     assert_int_equal(tp_steady_hold(b.net, &hold, &b.diag), TP_OK);
     map = malloc((size_t)(nx * nx) * sizeof *map);
     assert_non_null(map);
     tp_network_surface_map(b.net, hold.temps, map);
-    tp_map_stats_compute(b.net->grid, map, &st);
+    tp_surfacemap_compute(b.net->grid, map, &st);
     free(map);
     tp_steady_clear(&hold);
     release(&b);
@@ -656,7 +656,7 @@ static void test_grid_map_stats_by_hand(void **state)
 {
     tp_net_grid g;
     double area[6], map[6] = {10, 20, 60, 30, 40, 50};
-    tp_map_stats st;
+    tp_surfacemap_stats st;
     int k;
     (void)state;
     memset(&g, 0, sizeof g);
@@ -669,7 +669,7 @@ static void test_grid_map_stats_by_hand(void **state)
         map[k] += T0C;
     }
     g.top_area = area;
-    tp_map_stats_compute(&g, map, &st);
+    tp_surfacemap_compute(&g, map, &st);
     assert_int_equal(st.cells, 6);
     tp_check_rel("mean", st.mean, 35.0 + T0C, 1e-14);
     tp_check_rel("std", st.std, sqrt(1750.0 / 6.0), 1e-12);
@@ -697,7 +697,7 @@ static void test_grid_multigrid_chain(void **state)
     enum { N = 2000 };
     static int rowptr[N + 1], colind[3 * N], layer[N], ci[N], cj[N];
     static double val[3 * N], b[N], x[N];
-    tp_mg *mg;
+    tp_multigrid *mg;
     int i, m = 0;
     double worst = 0.0;
     (void)state;
@@ -719,11 +719,11 @@ static void test_grid_multigrid_chain(void **state)
         b[i] = 1.0;
     }
     rowptr[N] = m;
-    mg = tp_mg_create(N, rowptr, colind, layer, ci, cj, 1.0);
+    mg = tp_multigrid_create(N, rowptr, colind, layer, ci, cj, 1.0);
     assert_non_null(mg);
-    assert_true(tp_mg_levels(mg) > 2);
-    assert_int_equal(tp_mg_setup(mg, val), TP_OK);
-    tp_mg_solve(mg, b, x, 60);
+    assert_true(tp_multigrid_levels(mg) > 2);
+    assert_int_equal(tp_multigrid_setup(mg, val), TP_OK);
+    tp_multigrid_solve(mg, b, x, 60);
     for (i = 0; i < N; i++) {
         double ax = 2.01 * x[i] - (i > 0 ? x[i - 1] : 0.0) - (i + 1 < N ? x[i + 1] : 0.0);
         worst = fmax(worst, fabs(1.0 - ax));
@@ -732,7 +732,7 @@ static void test_grid_multigrid_chain(void **state)
         print_error("largest residual %g\n", worst);
         fail();
     }
-    tp_mg_destroy(&mg);
+    tp_multigrid_destroy(&mg);
 }
 
 /* ---- the command line ----------------------------------------------------------------------- */

@@ -17,13 +17,13 @@
 
 #include "assemble.h"
 #include "config.h"
-#include "doc.h"
 #include "guard.h"
 #include "integrate.h"
 #include "materials.h"
 #include "network.h"
 #include "tp_test.h"
 #include "units.h"
+#include "yamltree.h"
 
 #define KELVIN 273.15
 #define HOT_PLATE TP_SOURCE_DIR "/tests/cases/guard-hot-plate.yaml"
@@ -134,18 +134,18 @@ static const char *first_order =
     " period: 1 s}\n"
     "run: {duration: 20 min, step: 1 s}\n";
 
-static void load(const char *yaml, tp_doc **doc, tp_desc *desc)
+static void load(const char *yaml, tp_yamltree **doc, tp_description *desc)
 {
     tp_diag d;
     tp_diag_init(&d, stderr);
-    assert_int_equal(tp_doc_load_text("test.yaml", yaml, strlen(yaml), doc, &d), TP_OK);
+    assert_int_equal(tp_yamltree_load_text("test.yaml", yaml, strlen(yaml), doc, &d), TP_OK);
     assert_int_equal(tp_config_read(*doc, desc, &d), TP_OK);
 }
 
 static void test_rise_recommendation_matches_first_order_closed_form(void **state)
 {
-    tp_doc *doc = NULL;
-    tp_desc desc;
+    tp_yamltree *doc = NULL;
+    tp_description desc;
     tp_guard_study *st = calloc(1, sizeof *st);
     tp_diag d;
     double tau = 500.0, tinf = 220.0 + KELVIN, tinf_cold = 215.0 + KELVIN, ta, w, m_cf, slope, tol;
@@ -190,8 +190,8 @@ static void test_rise_recommendation_matches_first_order_closed_form(void **stat
     assert_true(fabs(st->stuck.temps[0] - tinf) < 1e-6);
     tp_guard_study_clear(st);
     free(st);
-    tp_desc_clear(&desc);
-    tp_doc_destroy(&doc);
+    tp_config_clear(&desc);
+    tp_yamltree_destroy(&doc);
 }
 
 /* ---- through the command line --------------------------------------------------------------- */
@@ -524,8 +524,8 @@ static int keep(void *user, const tp_sample *s)
 
 static void test_healthy_corners_never_trip_recommended_settings(void **state)
 {
-    tp_doc *doc = NULL;
-    tp_desc desc;
+    tp_yamltree *doc = NULL;
+    tp_description desc;
     tp_diag d;
     tp_guard_study *st = calloc(1, sizeof *st);
     series *se = calloc(1, sizeof *se);
@@ -539,7 +539,7 @@ static void test_healthy_corners_never_trip_recommended_settings(void **state)
     assert_int_equal(st->n_corners, 17); /* 2^4 ends plus nominal */
     for (c = 0; c < st->n_corners; c++) {
         const tp_guard_corner *co = &st->corners[c];
-        tp_desc cd;
+        tp_description cd;
         tp_network *net = NULL;
         tp_integrate_opts o;
         tp_integrate_stats stats;
@@ -547,7 +547,7 @@ static void test_healthy_corners_never_trip_recommended_settings(void **state)
         tp_diag quiet;
         /* Set the corner by its config keys (independent of the study's own path) and run
          * one uninterrupted warm-up, sampled at every tick, for run.duration. */
-        assert_int_equal(tp_desc_copy(&cd, &desc), TP_OK);
+        assert_int_equal(tp_config_copy(&cd, &desc), TP_OK);
         assert_int_equal(tp_config_set(&cd, "heater.supply", co->supply), TP_OK);
         assert_int_equal(tp_config_set(&cd, "heater.resistance", co->resistance), TP_OK);
         assert_int_equal(tp_config_set(&cd, "room.temperature", co->room), TP_OK);
@@ -566,14 +566,14 @@ static void test_healthy_corners_never_trip_recommended_settings(void **state)
             fail_msg("corner '%s' trips: rise %g hold %g ceiling %g", co->name, det.rise,
                      det.hold, det.ceiling);
         tp_network_destroy(&net);
-        tp_desc_clear(&cd);
+        tp_config_clear(&cd);
     }
     assert_int_equal(st->healthy_trips, 0);
     tp_guard_study_clear(st);
     free(st);
     free(se);
-    tp_desc_clear(&desc);
-    tp_doc_destroy(&doc);
+    tp_config_clear(&desc);
+    tp_yamltree_destroy(&doc);
 }
 
 static int teardown(void **state)

@@ -291,7 +291,7 @@ static void test_copy_sets_the_top_airflow(void **state)
     tp_network *copy = NULL;
     tp_net_change ch;
     tp_flows fl;
-    tp_conv_case cc;
+    tp_convection_case cc;
     double *t, area = 0.0, scale = 0.0, h, expected;
     const double v = 2.0, ts = TP_TEST_KELVIN + 60.0, troom = TP_TEST_KELVIN + 20.0;
     int i, g0 = -1;
@@ -320,17 +320,17 @@ static void test_copy_sets_the_top_airflow(void **state)
     cc = y.net->groups[g0].conv;
     assert_true(cc.airflow == 0.0); /* the original's still room */
     cc.airflow = v;
-    h = tp_conv_h(&cc, ts, troom, NULL);
+    h = tp_convection_h(&cc, ts, troom, NULL);
     expected = h * area * scale * (ts - troom);
-    assert_int_equal(tp_flows_init(&fl, copy), TP_OK);
+    assert_int_equal(tp_network_flows_init(&fl, copy), TP_OK);
     tp_network_flows(copy, t, &fl);
     tp_check_rel("top convection at the new airflow", fl.path[TP_PATH_TOP_CONV], expected, 1e-9);
-    tp_flows_clear(&fl);
+    tp_network_flows_clear(&fl);
     /* The original keeps still air: less heat (the test can fail). */
-    assert_int_equal(tp_flows_init(&fl, y.net), TP_OK);
+    assert_int_equal(tp_network_flows_init(&fl, y.net), TP_OK);
     tp_network_flows(y.net, t, &fl);
     assert_true(fl.path[TP_PATH_TOP_CONV] < 0.9 * expected);
-    tp_flows_clear(&fl);
+    tp_network_flows_clear(&fl);
     free(t);
     tp_network_destroy(&copy);
     tp_yaml_net_close(&y);

@@ -1,4 +1,4 @@
-/* Tests of output files: the atomic writer (src/outfile.c) directly, and the tepid binary end
+/* Tests of output files: the atomic writer (src/base/outfile.c) directly, and the tepid binary end
  * to end: a failed run leaves an existing output byte for byte, a write that fails half way
  * (file-size limit) leaves no temporary file, an output is never written onto the input, --csv -
  * writes to standard output, an unwritable directory gives a clear message and exit 2 before

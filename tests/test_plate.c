@@ -258,23 +258,6 @@ static void test_plate_matches_raw_by_hand(void **state)
 
 /* ---- validation messages, through the binary -------------------------------------------- */
 
-/* 1-based line and column of the first occurrence of `needle` in `text`. */
-static void locate(const char *text, const char *needle, int *line, int *col)
-{
-    const char *p = strstr(text, needle), *q;
-    assert_non_null(p);
-    *line = 1;
-    *col = 1;
-    for (q = text; q < p; q++) {
-        if (*q == '\n') {
-            (*line)++;
-            *col = 1;
-        } else {
-            (*col)++;
-        }
-    }
-}
-
 typedef struct message_case {
     const char *name;     /* file name in the scratch directory */
     const char *yaml;     /* the config */
@@ -294,7 +277,7 @@ static void check_message(const message_case *mc)
     int line, col;
     tp_scratch_write(tp_group_scratch(), mc->name, mc->yaml, path);
     tp_run_tepid(tp_group_scratch(), args, &r);
-    locate(mc->yaml, mc->at, &line, &col);
+    tp_text_locate(mc->yaml, mc->at, &line, &col);
     snprintf(head, sizeof head, "%s:%d:%d: %s", path, line, col, mc->status ? "" : "warning: ");
     line_start = strstr(r.err, head);
     if (r.status != mc->status || !line_start ||

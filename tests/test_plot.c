@@ -139,7 +139,7 @@ static int file_exists(const char *path)
 }
 
 /* Temporary files of tp_outfile_reserve are named ".<basename>.XXXXXX<ext>" beside the target
- * (src/outfile.c): none may be left in the test directory after a write. */
+ * (src/base/outfile.c): none may be left in the test directory after a write. */
 static void assert_no_temp_files(const char *base)
 {
     char prefix[128];

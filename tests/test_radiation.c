@@ -47,7 +47,7 @@ static void test_rad_constant_codata_2018(void **state)
 static void test_rad_flux_black_400k(void **state)
 {
     (void)state;
-    check_rel("q", tp_rad_flux(1.0, 400.0, 0.0), 1451.615851, 5.0e-10);
+    check_rel("q", tp_radiation_flux(1.0, 400.0, 0.0), 1451.615851, 5.0e-10);
 }
 
 /* Incropera, DeWitt, Bergman & Lavine, Fundamentals of Heat and Mass Transfer, 7th ed.,
@@ -60,14 +60,14 @@ static void test_rad_flux_incropera_example_1_2(void **state)
     const double ts = 200.0 + T0C, tsur = 25.0 + T0C, d = 0.07;
     double q_rad;
     (void)state;
-    check_abs("E", tp_rad_flux(0.8, ts, 0.0), 2270.0, 5.0);
-    check_abs("G", tp_rad_flux(1.0, tsur, 0.0), 448.0, 0.5);
-    q_rad = tp_rad_flux(0.8, ts, tsur) * PI * d;
+    check_abs("E", tp_radiation_flux(0.8, ts, 0.0), 2270.0, 5.0);
+    check_abs("G", tp_radiation_flux(1.0, tsur, 0.0), 448.0, 0.5);
+    q_rad = tp_radiation_flux(0.8, ts, tsur) * PI * d;
     check_abs("q'_rad", q_rad, 421.0, 0.5);
     check_abs("q'", q_rad + 15.0 * PI * d * (ts - tsur), 998.0, 0.5);
     /* Equivalent h_r = q'_rad / (pi D (T_s - T_sur)) = 10.94 W/(m2.K) (hand
      * calculation); tolerance half a unit of the last digit. */
-    check_abs("h_r", tp_rad_h(0.8, ts, tsur), 10.94, 0.005);
+    check_abs("h_r", tp_radiation_h(0.8, ts, tsur), 10.94, 0.005);
 }
 
 /* Hand calculation: h_r = eps sigma (T_s + T_sur)(T_s^2 + T_sur^2) for
@@ -81,7 +81,7 @@ static void test_rad_h_reference_table(void **state)
     };
     (void)state;
     for (size_t i = 0; i < sizeof rows / sizeof rows[0]; i++)
-        check_abs("h_r", tp_rad_h(rows[i][1], rows[i][0] + T0C, 298.15), rows[i][2], 0.0005);
+        check_abs("h_r", tp_radiation_h(rows[i][1], rows[i][0] + T0C, 298.15), rows[i][2], 0.0005);
 }
 
 /* Linearisation identity (algebra): eps sigma (T^2 + Ts^2)(T + Ts)(T - Ts) equals
@@ -98,8 +98,8 @@ static void test_rad_linearisation_identity(void **state)
     for (size_t i = 0; i < sizeof pairs / sizeof pairs[0]; i++) {
         double eps = pairs[i][0], ta = pairs[i][1], tb = pairs[i][2];
         double direct = eps * TP_STEFAN_BOLTZMANN * (pow4(ta) - pow4(tb));
-        check_rel("h dT", tp_rad_h(eps, ta, tb) * (ta - tb), direct, 1.0e-12);
-        check_rel("flux", tp_rad_flux(eps, ta, tb), direct, 1.0e-12);
+        check_rel("h dT", tp_radiation_h(eps, ta, tb) * (ta - tb), direct, 1.0e-12);
+        check_rel("flux", tp_radiation_flux(eps, ta, tb), direct, 1.0e-12);
     }
 }
 
@@ -113,9 +113,9 @@ static void test_rad_flux_near_equilibrium(void **state)
         0.9 * TP_STEFAN_BOLTZMANN *
         (4.0 * b * b * b * d + 6.0 * b * b * d * d + 4.0 * b * d * d * d + d * d * d * d);
     (void)state;
-    check_rel("flux", tp_rad_flux(0.9, a, b), expected, 1.0e-13);
-    assert_true(tp_rad_flux(0.9, b, b) == 0.0);
-    assert_true(tp_rad_flux(0.9, b, a) == -tp_rad_flux(0.9, a, b));
+    check_rel("flux", tp_radiation_flux(0.9, a, b), expected, 1.0e-13);
+    assert_true(tp_radiation_flux(0.9, b, b) == 0.0);
+    assert_true(tp_radiation_flux(0.9, b, a) == -tp_radiation_flux(0.9, a, b));
 }
 
 /* Infinite parallel gray plates, 1/(1/e1 + 1/e2 - 1) (Incropera 7th ed. Table 13.3, from
@@ -124,14 +124,14 @@ static void test_rad_flux_near_equilibrium(void **state)
 static void test_rad_eps_parallel_closed_form(void **state)
 {
     (void)state;
-    check_rel("0.9/0.9", tp_rad_eps_parallel(0.9, 0.9), 9.0 / 11.0, 1.0e-14);
-    check_rel("0.05/0.9", tp_rad_eps_parallel(0.05, 0.9), 9.0 / 181.0, 1.0e-14);
-    check_rel("0.9/0.05", tp_rad_eps_parallel(0.9, 0.05), 9.0 / 181.0, 1.0e-14);
-    check_rel("1/1", tp_rad_eps_parallel(1.0, 1.0), 1.0, 1.0e-15);
+    check_rel("0.9/0.9", tp_radiation_eps_parallel(0.9, 0.9), 9.0 / 11.0, 1.0e-14);
+    check_rel("0.05/0.9", tp_radiation_eps_parallel(0.05, 0.9), 9.0 / 181.0, 1.0e-14);
+    check_rel("0.9/0.05", tp_radiation_eps_parallel(0.9, 0.05), 9.0 / 181.0, 1.0e-14);
+    check_rel("1/1", tp_radiation_eps_parallel(1.0, 1.0), 1.0, 1.0e-15);
     /* Clamps (contract): a non-emitting plate exchanges nothing; eps > 1 counts as 1. */
-    assert_true(tp_rad_eps_parallel(0.0, 0.9) == 0.0);
-    assert_true(tp_rad_eps_parallel((double)NAN, 0.9) == 0.0);
-    check_rel("1.2/0.5", tp_rad_eps_parallel(1.2, 0.5), 0.5, 1.0e-15);
+    assert_true(tp_radiation_eps_parallel(0.0, 0.9) == 0.0);
+    assert_true(tp_radiation_eps_parallel((double)NAN, 0.9) == 0.0);
+    check_rel("1.2/0.5", tp_radiation_eps_parallel(1.2, 0.5), 0.5, 1.0e-15);
 }
 
 /* Body 1 enclosed by surface 2, 1/(1/e1 + (A1/A2)(1/e2 - 1)) (Incropera 7th ed. Table 13.3,
@@ -142,16 +142,17 @@ static void test_rad_eps_parallel_closed_form(void **state)
 static void test_rad_eps_enclosed_closed_form(void **state)
 {
     (void)state;
-    check_rel("0.8 in 0.5", tp_rad_eps_enclosed(0.8, 1.0, 0.5, 4.0), 2.0 / 3.0, 1.0e-14);
-    check_rel("large room", tp_rad_eps_enclosed(0.8, 1.0, 0.5, (double)INFINITY), 0.8, 1.0e-15);
-    check_rel("A1 = A2", tp_rad_eps_enclosed(0.05, 2.0, 0.9, 2.0), 9.0 / 181.0, 1.0e-14);
+    check_rel("0.8 in 0.5", tp_radiation_eps_enclosed(0.8, 1.0, 0.5, 4.0), 2.0 / 3.0, 1.0e-14);
+    check_rel("large room", tp_radiation_eps_enclosed(0.8, 1.0, 0.5, (double)INFINITY), 0.8,
+              1.0e-15);
+    check_rel("A1 = A2", tp_radiation_eps_enclosed(0.05, 2.0, 0.9, 2.0), 9.0 / 181.0, 1.0e-14);
     /* A black enclosure absorbs everything: e1 whatever the areas. */
-    check_rel("black", tp_rad_eps_enclosed(0.3, 1.0, 1.0, 1.5), 0.3, 1.0e-15);
+    check_rel("black", tp_radiation_eps_enclosed(0.3, 1.0, 1.0, 1.5), 0.3, 1.0e-15);
     /* Clamps (contract): A1/A2 above 1 and nonsense areas count as 1. */
-    check_rel("ratio > 1", tp_rad_eps_enclosed(0.05, 5.0, 0.9, 2.0), 9.0 / 181.0, 1.0e-14);
-    check_rel("a2 = 0", tp_rad_eps_enclosed(0.05, 1.0, 0.9, 0.0), 9.0 / 181.0, 1.0e-14);
-    check_rel("a1 < 0", tp_rad_eps_enclosed(0.05, -1.0, 0.9, 2.0), 9.0 / 181.0, 1.0e-14);
-    assert_true(tp_rad_eps_enclosed(0.0, 1.0, 0.9, 2.0) == 0.0);
+    check_rel("ratio > 1", tp_radiation_eps_enclosed(0.05, 5.0, 0.9, 2.0), 9.0 / 181.0, 1.0e-14);
+    check_rel("a2 = 0", tp_radiation_eps_enclosed(0.05, 1.0, 0.9, 0.0), 9.0 / 181.0, 1.0e-14);
+    check_rel("a1 < 0", tp_radiation_eps_enclosed(0.05, -1.0, 0.9, 2.0), 9.0 / 181.0, 1.0e-14);
+    assert_true(tp_radiation_eps_enclosed(0.0, 1.0, 0.9, 2.0) == 0.0);
 }
 
 int main(void)

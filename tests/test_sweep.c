@@ -9,25 +9,25 @@
 #include <cmocka.h>
 
 #include "config.h"
-#include "doc.h"
 #include "sweep.h"
 #include "tp_test.h"
+#include "yamltree.h"
 
 #define KELVIN 273.15
 
 /* Read a description from YAML text; fails the test on any error. */
-static void load(const char *yaml, tp_desc *desc)
+static void load(const char *yaml, tp_description *desc)
 {
     tp_diag d;
-    tp_doc *doc = NULL;
+    tp_yamltree *doc = NULL;
     tp_diag_init(&d, stderr);
-    assert_int_equal(tp_doc_load_text("test.yaml", yaml, strlen(yaml), &doc, &d), TP_OK);
+    assert_int_equal(tp_yamltree_load_text("test.yaml", yaml, strlen(yaml), &doc, &d), TP_OK);
     assert_int_equal(tp_config_read(doc, desc, &d), TP_OK);
-    tp_doc_destroy(&doc);
+    tp_yamltree_destroy(&doc);
 }
 
 /* Run a plan on `jobs` threads into a fresh results array (caller frees). */
-static tp_sweep_result *run_plan(const tp_sweep_plan *plan, const tp_desc *desc, int jobs,
+static tp_sweep_result *run_plan(const tp_sweep_plan *plan, const tp_description *desc, int jobs,
                                  tp_sweep_totals *tot)
 {
     long n = tp_sweep_count(plan);
@@ -120,7 +120,7 @@ static void test_normal_draws_match_standard_normal(void **state)
 {
     /* Spread a key normal with sd 10 % and look at the drawn values themselves: their mean,
      * sd and the share within one sd must match N(mu, sigma) within sampling error. */
-    tp_desc desc;
+    tp_description desc;
     tp_sweep_plan plan;
     tp_diag d;
     const long n = 20000;
@@ -149,7 +149,7 @@ static void test_normal_draws_match_standard_normal(void **state)
                 4.0 * sqrt(0.682689 * 0.317311 / (double)n));
     free(v);
     tp_sweep_plan_clear(&plan);
-    tp_desc_clear(&desc);
+    tp_config_clear(&desc);
 }
 
 /* ---- statistics ---------------------------------------------------------------------------- */
@@ -228,7 +228,7 @@ static void test_spearman_hand_examples(void **state)
 
 static void test_vary_range_with_units(void **state)
 {
-    tp_desc desc;
+    tp_description desc;
     tp_sweep_plan plan;
     tp_diag d;
     int i;
@@ -271,7 +271,7 @@ static void test_vary_range_with_units(void **state)
     assert_int_equal(plan.params[0].n_values, 5);
     assert_true(plan.params[0].values[4] == 1.0);
     tp_sweep_plan_clear(&plan);
-    tp_desc_clear(&desc);
+    tp_config_clear(&desc);
 }
 
 static void test_vary_refuses_bad_input(void **state)
@@ -288,7 +288,7 @@ static void test_vary_refuses_bad_input(void **state)
         "network.sources.pad.power=-50W:50W:50W",           /* negative power */
         "network.sources.pad.power",                        /* no '=' */
     };
-    tp_desc desc;
+    tp_description desc;
     tp_sweep_plan plan;
     tp_diag d;
     size_t i;
@@ -315,12 +315,12 @@ static void test_vary_refuses_bad_input(void **state)
     assert_int_equal(tp_sweep_add_vary(&plan, &desc, "network.sources.pad.power=3W", &d),
                      TP_ERR_USAGE);
     tp_sweep_plan_clear(&plan);
-    tp_desc_clear(&desc);
+    tp_config_clear(&desc);
 }
 
 static void test_spread_forms(void **state)
 {
-    tp_desc desc;
+    tp_description desc;
     tp_sweep_plan plan;
     tp_diag d;
     static const char *bad[] = {
@@ -365,12 +365,12 @@ static void test_spread_forms(void **state)
         assert_int_equal(tp_sweep_add_spread(&plan, &desc, bad[i], &d), TP_ERR_USAGE);
         tp_sweep_plan_clear(&plan);
     }
-    tp_desc_clear(&desc);
+    tp_config_clear(&desc);
 }
 
 static void test_draws_do_not_depend_on_option_order(void **state)
 {
-    tp_desc desc;
+    tp_description desc;
     tp_sweep_plan a, b;
     tp_diag d;
     long i;
@@ -398,16 +398,16 @@ static void test_draws_do_not_depend_on_option_order(void **state)
     assert_true(tp_sweep_value(&a, 0, 0) != tp_sweep_value(&b, 0, 1));
     tp_sweep_plan_clear(&a);
     tp_sweep_plan_clear(&b);
-    tp_desc_clear(&desc);
+    tp_config_clear(&desc);
 }
 
 static void test_config_check_uses_schema_bounds(void **state)
 {
-    tp_desc desc;
+    tp_description desc;
     char msg[256];
     (void)state;
     load(single_node, &desc);
-    /* The schema's bounds (src/config.c): emissivity in (0, 1], power >= 0, capacity > 0. */
+    /* The schema's bounds (src/input/config.c): emissivity in (0, 1], power >= 0, capacity > 0. */
     assert_int_equal(
         tp_config_check(&desc, "network.links.1.radiation.emissivity", 1.0, msg, sizeof msg),
         TP_OK);
@@ -424,7 +424,7 @@ static void test_config_check_uses_schema_bounds(void **state)
         TP_ERR_CONFIG);
     assert_int_equal(tp_config_check(&desc, "network.nodes.nothing.capacity", 1.0, msg, sizeof msg),
                      TP_ERR_CONFIG);
-    tp_desc_clear(&desc);
+    tp_config_clear(&desc);
 }
 
 /* ---- runs ----------------------------------------------------------------------------------- */
@@ -436,7 +436,7 @@ static void test_first_order_time_at_every_power(void **state)
      * 50 K above the room is reached at t = -tau ln(1 - 50 G / P) (closed form of the lumped
      * first-order response, Incropera 7th ed. Sec. 5.2; from memory). The plant is linear
      * (no radiation link); C is raised to 1000 J/K for a 500 s time constant. */
-    tp_desc desc;
+    tp_description desc;
     tp_sweep_plan plan;
     tp_sweep_totals tot;
     tp_sweep_result *res;
@@ -468,7 +468,7 @@ static void test_first_order_time_at_every_power(void **state)
     }
     free(res);
     tp_sweep_plan_clear(&plan);
-    tp_desc_clear(&desc);
+    tp_config_clear(&desc);
 }
 
 /* Check the statistics of holding power G (Tset - Ta) = 50 G with G spread. The sample mean
@@ -479,7 +479,7 @@ static void test_first_order_time_at_every_power(void **state)
  * allow 4 standard errors; with the fixed seed they are deterministic. */
 static void check_holding_stats(const char *spread, double mu, double sigma, double kurtosis)
 {
-    tp_desc desc;
+    tp_description desc;
     tp_sweep_plan plan;
     tp_sweep_totals tot;
     tp_sweep_result *res;
@@ -507,7 +507,7 @@ static void check_holding_stats(const char *spread, double mu, double sigma, dou
     assert_true(sum.p5 < sum.p50 && sum.p50 < sum.p95 && sum.p95 <= sum.worst);
     free(res);
     tp_sweep_plan_clear(&plan);
-    tp_desc_clear(&desc);
+    tp_config_clear(&desc);
 }
 
 static void test_holding_power_statistics_normal(void **state)
@@ -532,7 +532,7 @@ static void test_driver_and_constant_metrics(void **state)
      * only (closed form of the steady state), so G drives it; the time to the setpoint
      * -C/G ln(1 - 50 G/P) rises with C. A spread of the capacity alone leaves the holding power
      * constant up to solver noise: no driver is named. */
-    tp_desc desc;
+    tp_description desc;
     tp_sweep_plan plan;
     tp_sweep_totals tot;
     tp_sweep_result *res;
@@ -566,10 +566,10 @@ static void test_driver_and_constant_metrics(void **state)
     assert_true(isnan(sum.rho[0]));
     free(res);
     tp_sweep_plan_clear(&plan);
-    tp_desc_clear(&desc);
+    tp_config_clear(&desc);
 }
 
-/* Each metric's worst value follows its stated direction (src/metricdef.h): the highest
+/* Each metric's worst value follows its stated direction (src/study/metricdef.h): the highest
  * reachable temperature is worst when hottest (a heater stuck on), the margin when smallest,
  * the steady offset when farthest from zero either way, a time when longest. Values chosen by
  * hand; the expected worst of each column by inspection. A sample without the metric (NaN) is
@@ -587,7 +587,7 @@ static void test_worst_follows_each_metric_direction(void **state)
         {TP_MET_STEADY_OFFSET, {1.0, 1.5, 0.0, -2.0}, -2.0, 3},
         {TP_MET_TIME_SETPOINT, {100.0, (double)NAN, 300.0, 200.0}, 300.0, 2},
     };
-    tp_desc desc;
+    tp_description desc;
     tp_sweep_plan plan;
     tp_sweep_result res[4];
     tp_sweep_summary sum;
@@ -604,7 +604,7 @@ static void test_worst_follows_each_metric_direction(void **state)
     memset(res, 0, sizeof res);
     for (i = 0; i < 4; i++) {
         res[i].ok = 1;
-        for (m = 0; m < TP_MET_COUNT; m++)
+        for (m = 0; m < TP_MET_SWEPT; m++)
             res[i].metric[m] = (double)NAN;
         for (c = 0; c < sizeof cols / sizeof cols[0]; c++)
             res[i].metric[cols[c].metric] = cols[c].v[i];
@@ -618,7 +618,7 @@ static void test_worst_follows_each_metric_direction(void **state)
     assert_int_equal(sum.absent, 1);
     assert_int_equal(sum.n, 3);
     tp_sweep_plan_clear(&plan);
-    tp_desc_clear(&desc);
+    tp_config_clear(&desc);
 }
 
 /* The metric table is the one place a metric's direction is stated, and docs/sweep.md says the
@@ -633,7 +633,7 @@ static void test_metric_directions_documented(void **state)
     snprintf(path, sizeof path, "%s/docs/sweep.md", TP_SOURCE_DIR);
     doc = tp_read_file(path);
     assert_non_null(doc);
-    for (m = 0; m < TP_MET_COUNT; m++) {
+    for (m = 0; m < TP_MET_SWEPT; m++) {
         const tp_metricdef *md = tp_metricdef_get(m);
         const char *at, *end;
         assert_non_null(md->why);
@@ -646,10 +646,10 @@ static void test_metric_directions_documented(void **state)
         assert_non_null(at);
         end = strchr(at + 1, '\n');
         assert_non_null(end);
-        snprintf(row, sizeof row, "| %s |", tp_worse_name(md->worse));
+        snprintf(row, sizeof row, "| %s |", tp_metricdef_worse_name(md->worse));
         if (!strstr(at, row) || strstr(at, row) > end)
             print_error("docs/sweep.md: the row of %s does not say \"%s\"\n", md->key,
-                        tp_worse_name(md->worse));
+                        tp_metricdef_worse_name(md->worse));
         assert_true(strstr(at, row) && strstr(at, row) < end);
     }
     free(doc);
@@ -657,7 +657,7 @@ static void test_metric_directions_documented(void **state)
 
 static void test_same_results_for_any_jobs(void **state)
 {
-    tp_desc desc;
+    tp_description desc;
     tp_sweep_plan plan;
     tp_sweep_totals t1, t2, t3;
     tp_sweep_result *r1, *r2, *r3;
@@ -691,14 +691,14 @@ static void test_same_results_for_any_jobs(void **state)
     free(r2);
     free(r3);
     tp_sweep_plan_clear(&plan);
-    tp_desc_clear(&desc);
+    tp_config_clear(&desc);
 }
 
 static void test_failed_samples_are_reported(void **state)
 {
     /* Emissivity 0.8 with sd 30 %: draws above 1 are refused by the schema. Each is marked
      * failed with a reason naming the value, counted, and left out of the statistics. */
-    tp_desc desc;
+    tp_description desc;
     tp_sweep_plan plan;
     tp_sweep_totals tot;
     tp_sweep_result *res;
@@ -742,7 +742,7 @@ static void test_failed_samples_are_reported(void **state)
     assert_int_equal(tot.failed, 1);
     free(res);
     tp_sweep_plan_clear(&plan);
-    tp_desc_clear(&desc);
+    tp_config_clear(&desc);
 }
 
 typedef struct seen {
@@ -762,7 +762,7 @@ static void count_progress(void *user, long done, long total, double elapsed)
 
 static void test_progress_ends_complete(void **state)
 {
-    tp_desc desc;
+    tp_description desc;
     tp_sweep_plan plan;
     tp_sweep_totals tot;
     tp_sweep_result res[3];
@@ -780,7 +780,7 @@ static void test_progress_ends_complete(void **state)
     assert_int_equal(s.total, 3);
     assert_int_equal(tot.jobs, 2);
     tp_sweep_plan_clear(&plan);
-    tp_desc_clear(&desc);
+    tp_config_clear(&desc);
 }
 
 /* ---- the command line ------------------------------------------------------------------------ */
@@ -842,6 +842,41 @@ static void test_cli_files_identical_for_1_and_2_jobs(void **state)
     assert_int_equal(run_tepid(args), 0);
     assert_true(same_bytes(c1, c2));
     assert_true(same_bytes(j1, j2));
+}
+
+/* A sweep point and the warm-up of the same case report the same cautions: on a gridded plate
+ * both quote the hottest cell of the working surface (the sweep once quoted the hottest mean,
+ * 66 degC against warmup's 73 degC on this demo; rule: two verbs that report the same figure
+ * agree). Coarse cells and a short run keep it quick. */
+static void test_cli_cautions_agree_with_warmup_on_a_grid(void **state)
+{
+    char args[2048], w[512], s[512];
+    const char *fast = "--set bed.grid=[12,12] --set run.duration=20min";
+    cJSON *jw, *js, *cw, *cs;
+    (void)state;
+    snprintf(w, sizeof w, "%s/grid-warmup.json", scratch_dir());
+    snprintf(s, sizeof s, "%s/grid-sweep.json", scratch_dir());
+    snprintf(args, sizeof args, "warmup %s/configs/small-pad-grid.yaml -q %s --json %s",
+             TP_SOURCE_DIR, fast, w);
+    assert_int_equal(run_tepid(args), 0);
+    snprintf(args, sizeof args,
+             "sweep %s/configs/small-pad-grid.yaml -q %s --vary room.temperature=20degC "
+             "--json %s",
+             TP_SOURCE_DIR, fast, s);
+    assert_int_equal(run_tepid(args), 0);
+    jw = tp_read_json(w);
+    js = tp_read_json(s);
+    cw = cJSON_GetObjectItemCaseSensitive(jw, "cautions");
+    cs = cJSON_GetObjectItemCaseSensitive(js, "cautions");
+    assert_true(cJSON_IsArray(cw) && cJSON_GetArraySize(cw) >= 2);
+    tp_check_contains("warmup's first caution", cJSON_GetArrayItem(cw, 0)->valuestring,
+                      "Hot surface");
+    if (!cJSON_Compare(cw, cs, 1))
+        print_error("warmup: %s\nsweep:  %s\n", cJSON_GetArrayItem(cw, 0)->valuestring,
+                    cJSON_GetArrayItem(cs, 0)->valuestring);
+    assert_true(cJSON_Compare(cw, cs, 1));
+    cJSON_Delete(jw);
+    cJSON_Delete(js);
 }
 
 static void test_cli_usage_errors(void **state)
@@ -1081,6 +1116,7 @@ int main(void)
         cmocka_unit_test(test_failed_samples_are_reported),
         cmocka_unit_test(test_progress_ends_complete),
         cmocka_unit_test(test_cli_files_identical_for_1_and_2_jobs),
+        cmocka_unit_test(test_cli_cautions_agree_with_warmup_on_a_grid),
         cmocka_unit_test(test_cli_usage_errors),
         cmocka_unit_test(test_cli_figures),
         cmocka_unit_test(test_cli_text_in_user_units),

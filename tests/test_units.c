@@ -220,14 +220,14 @@ static void test_units_parse_double_strict(void **state)
                                       "-Infinity", "1e999", "3 x",  "1,5",   "1e",  "--1"};
     double v;
     (void)state;
-    assert_int_equal(tp_parse_double(" 3.5 ", &v), 0);
+    assert_int_equal(tp_units_parse_double(" 3.5 ", &v), 0);
     assert_true(v == 3.5);
-    assert_int_equal(tp_parse_double("-2e-3", &v), 0);
+    assert_int_equal(tp_units_parse_double("-2e-3", &v), 0);
     assert_true(v == -2e-3);
     for (size_t i = 0; i < sizeof bad / sizeof bad[0]; i++) {
-        if (tp_parse_double(bad[i], &v) == 0)
+        if (tp_units_parse_double(bad[i], &v) == 0)
             print_error("'%s' accepted as %.17g\n", bad[i], v);
-        assert_int_not_equal(tp_parse_double(bad[i], &v), 0);
+        assert_int_not_equal(tp_units_parse_double(bad[i], &v), 0);
     }
 }
 

@@ -15,15 +15,17 @@
 
 #include "assemble.h"
 #include "config.h"
-#include "doc.h"
+#include "figure.h"
 #include "history.h"
 #include "integrate.h"
+#include "metrics.h"
 #include "network.h"
-#include "results.h"
+#include "series.h"
 #include "steady.h"
 #include "tp_test.h"
 #include "tune.h"
 #include "warmup.h"
+#include "yamltree.h"
 
 #define KELVIN 273.15
 
@@ -31,15 +33,15 @@
 static tp_network *build(const char *yaml)
 {
     tp_diag d;
-    tp_doc *doc = NULL;
-    tp_desc desc;
+    tp_yamltree *doc = NULL;
+    tp_description desc;
     tp_network *net = NULL;
     tp_diag_init(&d, stderr);
-    assert_int_equal(tp_doc_load_text("test.yaml", yaml, strlen(yaml), &doc, &d), TP_OK);
+    assert_int_equal(tp_yamltree_load_text("test.yaml", yaml, strlen(yaml), &doc, &d), TP_OK);
     assert_int_equal(tp_config_read(doc, &desc, &d), TP_OK);
     assert_int_equal(tp_assemble(&desc, doc, &d, &net), TP_OK);
-    tp_desc_clear(&desc);
-    tp_doc_destroy(&doc);
+    tp_config_clear(&desc);
+    tp_yamltree_destroy(&doc);
     return net;
 }
 
@@ -338,8 +340,8 @@ static void test_sensor_lag_behind_ramp_is_time_constant(void **state)
     run_history(net, &h);
     cp = tp_history_column(&h, tp_network_find_node(net, "plate"));
     cs = tp_history_column(&h, tp_network_find_node(net, "sensor"));
-    tp_ = tp_first_rise(h.t, h.temps + cp, h.n, h.n_out, level);
-    ts = tp_first_rise(h.t, h.temps + cs, h.n, h.n_out, level);
+    tp_ = tp_series_first_rise(h.t, h.temps + cp, h.n, h.n_out, level);
+    ts = tp_series_first_rise(h.t, h.temps + cs, h.n, h.n_out, level);
     /* The start-up transient decays as exp(-t/20 s): negligible at the 400 s crossing. */
     assert_true(fabs((ts - tp_) - 20.0) < 0.01);
     tp_history_clear(&h);
@@ -539,12 +541,12 @@ static void test_settle_time_definition(void **state)
     (void)state;
     /* Last exit from the band: between t = 3 (12) and t = 4 (11): enters at 11 when v = 11,
      * i.e. exactly t = 4 (hand calculation with linear interpolation). */
-    assert_true(fabs(tp_settle_time(t, v, 7, 1, 10.0, 1.0) - 4.0) < 1e-12);
+    assert_true(fabs(tp_series_settle_time(t, v, 7, 1, 10.0, 1.0) - 4.0) < 1e-12);
     v[4] = 10.5;
     /* Now between 12 at t = 3 and 10.5 at t = 4: v = 11 at t = 3 + 1/1.5 = 3.6667. */
-    assert_true(fabs(tp_settle_time(t, v, 7, 1, 10.0, 1.0) - (3.0 + 1.0 / 1.5)) < 1e-12);
+    assert_true(fabs(tp_series_settle_time(t, v, 7, 1, 10.0, 1.0) - (3.0 + 1.0 / 1.5)) < 1e-12);
     v[6] = 12;
-    assert_true(isnan(tp_settle_time(t, v, 7, 1, 10.0, 1.0)));
+    assert_true(isnan(tp_series_settle_time(t, v, 7, 1, 10.0, 1.0)));
 }
 
 /* ---- tuning rules ---------------------------------------------------------------------------- */
@@ -693,22 +695,22 @@ static void test_reading_shares_the_sensor_curve_only_when_equal(void **state)
 static void test_marks_follow_the_metrics(void **state)
 {
     tp_metrics m;
-    tp_plot_vline marks[TP_WARMUP_MARKS];
-    char text[TP_WARMUP_MARKS][TP_WARMUP_MARK_TEXT];
+    tp_plot_vline marks[TP_FIGURE_MARKS];
+    char text[TP_FIGURE_MARKS][TP_FIGURE_MARK_TEXT];
     (void)state;
     memset(&m, 0, sizeof m);
     m.t_setpoint = 440.0;
     m.t_surface_ready = 671.0;
-    assert_int_equal(tp_warmup_marks(&m, marks, text), 2);
+    assert_int_equal(tp_figure_warmup_marks(&m, marks, text), 2);
     tp_check_abs("setpoint mark", marks[0].x, 440.0 / 60.0, 1e-12);
     tp_check_abs("ready mark", marks[1].x, 671.0 / 60.0, 1e-12);
     assert_string_equal(marks[0].label, "reading at setpoint 7 min 20 s");
     assert_string_equal(marks[1].label, "surface ready 11 min 11 s");
     m.t_setpoint = (double)NAN;
-    assert_int_equal(tp_warmup_marks(&m, marks, text), 1);
+    assert_int_equal(tp_figure_warmup_marks(&m, marks, text), 1);
     assert_string_equal(marks[0].label, "surface ready 11 min 11 s");
     m.t_surface_ready = (double)NAN;
-    assert_int_equal(tp_warmup_marks(&m, marks, text), 0);
+    assert_int_equal(tp_figure_warmup_marks(&m, marks, text), 0);
 }
 
 int main(void)

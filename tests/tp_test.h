@@ -27,8 +27,8 @@
 #include "assemble.h"
 #include "config.h"
 #include "diag.h"
-#include "doc.h"
 #include "network.h"
+#include "yamltree.h"
 
 #define TP_TEST_KELVIN 273.15 /* K at 0 degC (BIPM SI Brochure, 9th ed., 2.3.1) */
 #define TP_TEST_PATH 1024     /* bytes of a scratch path */
@@ -289,11 +289,31 @@ static inline int tp_run_status(const tp_scratch *s, const char *const *args)
     return r.status;
 }
 
+/* 1-based line and column (bytes) of the first occurrence of `needle` in `text`, found by
+ * searching the text: an expected position independent of the parser's. Fails when absent. */
+static inline void tp_text_locate(const char *text, const char *needle, int *line, int *col)
+{
+    const char *at = strstr(text, needle), *p;
+    if (!at)
+        print_error("'%s' does not occur in\n%s", needle, text);
+    assert_non_null(at);
+    *line = 1;
+    *col = 1;
+    for (p = text; p < at; p++) {
+        if (*p == '\n') {
+            (*line)++;
+            *col = 1;
+        } else {
+            (*col)++;
+        }
+    }
+}
+
 /* ---- a network from a YAML string ----------------------------------------------------------- */
 
 typedef struct tp_yaml_net {
-    tp_doc *doc;
-    tp_desc desc;
+    tp_yamltree *doc;
+    tp_description desc;
     tp_network *net; /* NULL when the text did not assemble */
     tp_diag diag;    /* messages kept in diag.log, not printed */
 } tp_yaml_net;
@@ -304,7 +324,7 @@ static inline tp_status tp_yaml_net_open(tp_yaml_net *y, const char *text)
     tp_status st;
     memset(y, 0, sizeof *y);
     tp_diag_init(&y->diag, NULL);
-    st = tp_doc_load_text("test.yaml", text, strlen(text), &y->doc, &y->diag);
+    st = tp_yamltree_load_text("test.yaml", text, strlen(text), &y->doc, &y->diag);
     if (st == TP_OK)
         st = tp_config_read(y->doc, &y->desc, &y->diag);
     if (st == TP_OK)
@@ -312,11 +332,35 @@ static inline tp_status tp_yaml_net_open(tp_yaml_net *y, const char *text)
     return st;
 }
 
+/* An invented one-node raw plate (640 J/K, 1.6 W/K to a room at 21 degC) whose source "pad"
+ * on the plate is `source` (e.g. "power: 120 W"), with `tail` (top-level lines such as a
+ * control section) and a 10 s run; fails the test unless it assembles. */
+static inline void tp_yaml_net_plate(tp_yaml_net *y, const char *source, const char *tail)
+{
+    char text[1024];
+    int n = snprintf(text, sizeof text,
+                     "network:\n"
+                     "  nodes:\n"
+                     "    - {id: plate, capacity: 640 J/K, initial: 21 degC}\n"
+                     "    - {id: room, fixed: 21 degC}\n"
+                     "  links:\n"
+                     "    - {between: [plate, room], conductance: 1.6 W/K}\n"
+                     "  sources:\n"
+                     "    - {id: pad, node: plate, %s}\n"
+                     "%s"
+                     "run: {duration: 10 s, step: 1 s}\n",
+                     source, tail);
+    assert_true(n > 0 && (size_t)n < sizeof text);
+    if (tp_yaml_net_open(y, text) != TP_OK)
+        print_error("%s", y->diag.log);
+    assert_non_null(y->net);
+}
+
 static inline void tp_yaml_net_close(tp_yaml_net *y)
 {
     tp_network_destroy(&y->net);
-    tp_desc_clear(&y->desc);
-    tp_doc_destroy(&y->doc);
+    tp_config_clear(&y->desc);
+    tp_yamltree_destroy(&y->doc);
 }
 
 #endif

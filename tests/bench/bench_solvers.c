@@ -1,6 +1,6 @@
 /* Benchmark: dense LU against KLU for the CVODE Newton systems, on square grids of n = k x k
  * nodes (a plate of cells linked to neighbours, each losing to a fixed room, one heater), to
- * choose TP_DENSE_MAX in src/integrate.h. Prints n, the wall time of each solver and their
+ * choose TP_DENSE_MAX in src/solve/integrate.h. Prints n, the wall time of each solver and their
  * ratio. Built by CMake as bench_solvers (not a test). */
 #include <math.h>
 #include <stdio.h>

@@ -5,7 +5,7 @@ solve_ivp (BDF) at tepid's tolerances, and by a fixed-step explicit Euler scheme
 compared with tepid's own histories (CSV). Needs Debian's python3-numpy, python3-scipy and
 python3-yaml.
 
-The model is the one src/network.c evaluates, written again from docs/model.md:
+The model is the one src/model/network.c evaluates, written again from docs/model.md:
 
   state y = [T_1 .. T_n, E_src, E_lost, E_wire]  (free temperatures in declaration order, K;
             then the energy totals tepid also integrates, J, so both solvers control the error
@@ -19,12 +19,12 @@ The model is the one src/network.c evaluates, written again from docs/model.md:
   form)
 
 Tolerances: rtol = run.tolerance (default 1e-6) and atol = rtol * 10 K on temperatures,
-rtol * 1 J on the energy totals: src/integrate.c TP_ATOL_KELVIN and TP_ATOL_JOULE.
+rtol * 1 J on the energy totals: src/solve/integrate.c TP_ATOL_KELVIN and TP_ATOL_JOULE.
 
 Control (docs/control.md): the controller samples the sensor node at t = 0, period, 2 period, ...
 and holds its output (zero-order hold). on-off: off when the reading >= setpoint + band/2, on
 when <= setpoint - band/2, else unchanged; at t = 0 on when the reading is below the setpoint.
-pid: src/control.c's positional PID (integral clamped to [0, 1], derivative on the reading).
+pid: src/model/control.c's positional PID (integral clamped to [0, 1], derivative on the reading).
 Two ways to integrate across the ticks are timed:
   tick     solve_ivp from each tick to the next with the duty held: what a general-purpose
            user writes; every tick restarts BDF at order 1 with a new Jacobian
@@ -62,17 +62,17 @@ except ImportError as e:  # run.sh checks first; this is for direct use
                      "python3-yaml)\n" % e)
     sys.exit(2)
 
-SIGMA = 5.670374419e-8   # W/(m2.K4), Stefan-Boltzmann (CODATA 2018), as src/radiation.h
-ATOL_KELVIN = 10.0       # K, src/integrate.c TP_ATOL_KELVIN
-ATOL_JOULE = 1.0         # J, src/integrate.c TP_ATOL_JOULE
-DEFAULT_RTOL = 1.0e-6    # src/config.c TP_DEFAULT_RTOL
-DEFAULT_STEP = 1.0       # s, src/config.c TP_DEFAULT_STEP
-DEFAULT_DURATION = 1800.0  # s, src/config.c TP_DEFAULT_DURATION
+SIGMA = 5.670374419e-8   # W/(m2.K4), Stefan-Boltzmann (CODATA 2018), as src/model/radiation.h
+ATOL_KELVIN = 10.0       # K, src/solve/integrate.c TP_ATOL_KELVIN
+ATOL_JOULE = 1.0         # J, src/solve/integrate.c TP_ATOL_JOULE
+DEFAULT_RTOL = 1.0e-6    # src/input/config.c TP_DEFAULT_RTOL
+DEFAULT_STEP = 1.0       # s, src/input/config.c TP_DEFAULT_STEP
+DEFAULT_DURATION = 1800.0  # s, src/input/config.c TP_DEFAULT_DURATION
 DEFAULT_PERIOD = 1.0     # s
 DEFAULT_BAND = 2.0       # K
 DEFAULT_REFERENCE = 293.15  # K, 20 degC
-R_FLOOR = 1.0e-2         # -, src/network.c TP_R_FLOOR
-DENSE_MAX = 12           # free nodes up to which the Jacobian goes dense (src/integrate.h)
+R_FLOOR = 1.0e-2         # -, src/model/network.c TP_R_FLOOR
+DENSE_MAX = 12           # free nodes up to which the Jacobian goes dense (src/solve/integrate.h)
 KELVIN_0C = 273.15
 
 # unit -> (dimension, factor to SI); temperatures are handled apart (offset or interval).

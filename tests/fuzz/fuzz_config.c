@@ -1,5 +1,5 @@
 /* libFuzzer target: the config loader. The input is a YAML text, optionally followed by a NUL
- * byte and NUL-separated --set assignments; it goes through tp_doc_load_text, tp_doc_set,
+ * byte and NUL-separated --set assignments; it goes through tp_yamltree_load_text, tp_yamltree_set,
  * tp_config_read and tp_assemble, and one right-hand side and Jacobian of the network. Any crash,
  * sanitizer report, leak or hang is a finding (tests/fuzz/README.md). */
 #include <stddef.h>
@@ -10,8 +10,8 @@
 #include "assemble.h"
 #include "config.h"
 #include "diag.h"
-#include "doc.h"
 #include "network.h"
+#include "yamltree.h"
 
 #define FUZZ_MAX_SETS 8 /* --set assignments taken from one input */
 
@@ -20,8 +20,8 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size);
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
 {
     static tp_diag d; /* static: the log buffer is 16 kB */
-    tp_doc *doc = NULL;
-    tp_desc desc;
+    tp_yamltree *doc = NULL;
+    tp_description desc;
     tp_network *net = NULL;
     const char *text = (const char *)data;
     const uint8_t *nul = memchr(data, 0, size);
@@ -30,7 +30,7 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
     int ok = 1;
 
     tp_diag_init(&d, NULL);
-    if (tp_doc_load_text("fuzz.yaml", text, yaml_len, &doc, &d) != TP_OK)
+    if (tp_yamltree_load_text("fuzz.yaml", text, yaml_len, &doc, &d) != TP_OK)
         return 0;
     if (nul) {
         /* The tail as NUL-terminated assignments (copied so the last one is terminated). */
@@ -39,14 +39,14 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
         int n = 0;
         sets = malloc(tail + 1);
         if (!sets) {
-            tp_doc_destroy(&doc);
+            tp_yamltree_destroy(&doc);
             return 0;
         }
         memcpy(sets, nul + 1, tail);
         sets[tail] = '\0';
         while (ok && pos < tail && n++ < FUZZ_MAX_SETS) {
             const char *a = sets + pos;
-            ok = tp_doc_set(doc, a, &d) == TP_OK;
+            ok = tp_yamltree_set(doc, a, &d) == TP_OK;
             pos += strlen(a) + 1;
         }
         free(sets);
@@ -67,8 +67,8 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
             free(jac);
             tp_network_destroy(&net);
         }
-        tp_desc_clear(&desc);
+        tp_config_clear(&desc);
     }
-    tp_doc_destroy(&doc);
+    tp_yamltree_destroy(&doc);
     return 0;
 }

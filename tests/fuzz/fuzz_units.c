@@ -1,8 +1,8 @@
 /* libFuzzer target: the quantity parser. The input is one quantity text ("4 mm", "21 degC");
- * it is parsed as every dimension with tp_units_parse, as a bare number with tp_parse_double,
+ * it is parsed as every dimension with tp_units_parse, as a bare number with tp_units_parse_double,
  * and its unit part is fed back through tp_units_from_si. Any crash, sanitizer report, a
  * non-finite result reported as success, or a temperature at or below 0 K is a finding. No check
- * values: the properties are the contracts stated in src/units.h (their source). */
+ * values: the properties are the contracts stated in src/base/units.h (their source). */
 #include <math.h>
 #include <stddef.h>
 #include <stdint.h>
@@ -36,7 +36,7 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
             abort(); /* failures always come with a hint and a terminated message */
         }
     }
-    if (tp_parse_double(text, &v) == 0 && !isfinite(v))
+    if (tp_units_parse_double(text, &v) == 0 && !isfinite(v))
         abort();
     /* The text after the number, as a unit for writing values back. */
     unit = text + strspn(text, " +-0123456789.eE");

@@ -1,0 +1,1024 @@
+/* tepid sweep: warm-up metrics over parameter grids (--vary) and tolerance spreads (--spread),
+ * run on all cores; the table, CSV, JSON, and a chart or heat map. */
+#include <errno.h>
+#include <inttypes.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <unistd.h>
+
+#include "configedit.h"
+#include "csv.h"
+#include "json.h"
+#include "outfile.h"
+#include "plot.h"
+#include "session.h"
+#include "summary.h"
+#include "sweep.h"
+#include "verbs.h"
+
+#define TP_SWEEP_SAMPLES 500        /* default --samples */
+#define TP_SWEEP_PROGRESS_AFTER 1.0 /* s: the progress bar appears after this long */
+#define TP_SWEEP_BAR 28             /* characters of the progress bar */
+#define TP_SWEEP_LIST_FAILED 20     /* failed points listed in the text summary */
+#define TP_SWEEP_EVEN 1e-6          /* relative slack of "evenly spaced" axes (heat map) */
+
+static const tp_opt sweep_opts[] = {
+    {"vary", 0, 1, 1, 0, "KEY=RANGE",
+     "grid axis: FROM:TO:STEP or A,B,C with units, e.g. heater.power=150W:400W:25W (once or "
+     "twice)"},
+    {"spread", 0, 1, 1, 0, "KEY=DIST",
+     "tolerance: normal:SIGMA or uniform:LOW:HIGH, in % or with units (repeatable)"},
+    {"samples", 0, 1, 0, 0, "N", "samples of a tolerance study (default 500)"},
+    {"seed", 0, 1, 0, 0, "S", "seed of the sample streams (default 1)"},
+    {"jobs", 'j', 1, 0, 0, "N",
+     "worker threads, 1 to 256 (default: the number of processors, at most 256)"},
+    {"metric", 0, 1, 0, 0, "NAME",
+     "metric of the heat map or distribution plot (default time_surface_ready_s, or "
+     "time_to_setpoint_s without a working surface)"},
+    {"csv", 0, 1, 0, 1, "FILE", "one row per point or sample (- for standard output)"},
+    {"json", 0, 1, 0, 1, "FILE", "points, failures and statistics as JSON"},
+    {"plot", 0, 1, 0, TP_OUT_FIGURE, "FILE",
+     "line chart (one --vary), heat map (two), distribution (--spread)"},
+    TP_OPT_SET,
+    TP_OPT_QUIET,
+    TP_OPT_END,
+};
+
+/* The metrics of the text table of a grid, in order. */
+static const int grid_columns[] = {
+    TP_MET_TIME_SETPOINT, TP_MET_TIME_READY, TP_MET_OVERSHOOT_READING, TP_MET_HOLD_POWER,
+    TP_MET_HOLD_DUTY,     TP_MET_MARGIN,     TP_MET_ENERGY_READY};
+#define N_GRID_COLUMNS (sizeof grid_columns / sizeof grid_columns[0])
+
+typedef struct options {
+    const char *vary[TP_SWEEP_MAX_PARAMS + 1];
+    const char *spread[TP_SWEEP_MAX_PARAMS + 1];
+    int n_vary, n_spread;
+    long samples;
+    uint64_t seed;
+    int jobs;
+    int metric;
+} options;
+
+/* ---- options ------------------------------------------------------------------------------- */
+
+static tp_status whole_number(const char *text, const char *opt, double lo, double hi, double *out,
+                              tp_diag *d)
+{
+    if (tp_units_parse_double(text, out) != 0 || *out != floor(*out) || *out < lo || *out > hi) {
+        tp_diag_error(d, (tp_loc){opt, 1, 1}, NULL, NULL,
+                      "'%s' is not a whole number from %.0f to %.0f", text, lo, hi);
+        return TP_ERR_USAGE;
+    }
+    return TP_OK;
+}
+
+static tp_status parse_options(const tp_cli *cli, options *o, tp_diag *d)
+{
+    const char *s;
+    double v;
+    memset(o, 0, sizeof *o);
+    o->n_vary = tp_cli_all(cli, "vary", o->vary, TP_SWEEP_MAX_PARAMS + 1);
+    o->n_spread = tp_cli_all(cli, "spread", o->spread, TP_SWEEP_MAX_PARAMS + 1);
+    o->samples = TP_SWEEP_SAMPLES;
+    o->seed = 1;
+    o->jobs = tp_sweep_default_jobs();
+    o->metric = -1; /* chosen after the run (default_metric) */
+    if (o->n_vary == 0 && o->n_spread == 0) {
+        tp_diag_error(d, tp_diag_loc_none(), NULL,
+                      "e.g. --vary heater.power=150W:400W:25W or --spread heater.resistance="
+                      "normal:5%",
+                      "give --vary (a grid) or --spread (a tolerance study)");
+        return TP_ERR_USAGE;
+    }
+    if (o->n_vary > 0 && o->n_spread > 0) {
+        tp_diag_error(d, tp_diag_loc_none(), NULL,
+                      "run the grid and the tolerance study separately",
+                      "--vary and --spread cannot be combined");
+        return TP_ERR_USAGE;
+    }
+    if (o->n_vary > TP_SWEEP_MAX_AXES) {
+        tp_diag_error(d, tp_diag_loc_none(), NULL, "a grid has one or two axes",
+                      "%d --vary options", o->n_vary);
+        return TP_ERR_USAGE;
+    }
+    if (o->n_spread > TP_SWEEP_MAX_PARAMS) {
+        tp_diag_error(d, tp_diag_loc_none(), NULL, NULL, "more than %d --spread options",
+                      TP_SWEEP_MAX_PARAMS);
+        return TP_ERR_USAGE;
+    }
+    if (o->n_vary > 0 && (tp_cli_get(cli, "samples") || tp_cli_get(cli, "seed"))) {
+        tp_diag_error(d, tp_diag_loc_none(), NULL, "they apply to --spread",
+                      "--samples and --seed have no meaning for a grid");
+        return TP_ERR_USAGE;
+    }
+    if ((s = tp_cli_get(cli, "samples"))) {
+        if (whole_number(s, "--samples", 1, TP_SWEEP_MAX_POINTS, &v, d) != TP_OK)
+            return TP_ERR_USAGE;
+        o->samples = (long)v;
+    }
+    if ((s = tp_cli_get(cli, "seed"))) {
+        char *end = NULL;
+        unsigned long long u = 0;
+        errno = 0;
+        if (s[0] >= '0' && s[0] <= '9')
+            u = strtoull(s, &end, 10);
+        if (!end || *end != '\0' || errno == ERANGE) {
+            tp_diag_error(d, (tp_loc){"--seed", 1, 1}, NULL, NULL,
+                          "'%s' is not a whole number from 0 to 2^64 - 1", s);
+            return TP_ERR_USAGE;
+        }
+        o->seed = (uint64_t)u;
+    }
+    if ((s = tp_cli_get(cli, "jobs"))) {
+        if (whole_number(s, "--jobs", 1, TP_SWEEP_MAX_JOBS, &v, d) != TP_OK)
+            return TP_ERR_USAGE;
+        o->jobs = (int)v;
+    }
+    if ((s = tp_cli_get(cli, "metric"))) {
+        o->metric = tp_metricdef_find(s);
+        if (o->metric < 0) {
+            char names[1024];
+            tp_metricdef_keys(names, sizeof names);
+            tp_diag_error(d, (tp_loc){"--metric", 1, 1}, NULL, names, "unknown metric '%s'", s);
+            return TP_ERR_USAGE;
+        }
+    }
+    return TP_OK;
+}
+
+/* ---- units and values for output ------------------------------------------------------- */
+
+/* Files (CSV, JSON) carry absolute temperatures in degC, everything else in SI. */
+static double param_out(const tp_sweep_param *p, double si)
+{
+    return p->dim == TP_DIM_TEMPERATURE ? si - TP_KELVIN_0C : si;
+}
+
+/* The unit of a parameter in files; "" for a dimensionless key. */
+static const char *param_unit(const tp_sweep_param *p)
+{
+    if (p->dim == TP_DIM_NONE)
+        return "";
+    return p->dim == TP_DIM_TEMPERATURE ? "degC" : tp_units_si_name(p->dim);
+}
+
+/* Text and figures show a parameter in the unit the user wrote (the option's, else the
+ * config's: 3 mm, not 0.003), falling back to the file unit when it has none. */
+static const char *param_unit_shown(const tp_sweep_param *p)
+{
+    return p->unit[0] ? p->unit : param_unit(p);
+}
+
+static double param_shown(const tp_sweep_param *p, double si)
+{
+    double v;
+    if (p->unit[0] && tp_units_from_si(si, p->unit, p->dim, &v) == TP_OK)
+        return v;
+    return param_out(p, si);
+}
+
+/* A temperature difference or a standard deviation in the shown unit (never offset). */
+static double param_shown_interval(const tp_sweep_param *p, double si)
+{
+    double v;
+    tp_dim dim = p->dim == TP_DIM_TEMPERATURE ? TP_DIM_INTERVAL : p->dim;
+    if (p->unit[0] && tp_units_from_si(si, p->unit, dim, &v) == TP_OK)
+        return v;
+    return si;
+}
+
+/* " mm" or "" (dimensionless), to follow a shown number in text. */
+static const char *spaced_unit(const tp_sweep_param *p, char *buf, size_t size)
+{
+    const char *u = param_unit_shown(p);
+    snprintf(buf, size, "%s%s", u[0] ? " " : "", u);
+    return buf;
+}
+
+/* The unit as a column-name suffix: "W/(m2.K)" -> "W_per_m2K", degC -> "C", "1" -> none. */
+static void unit_token(const tp_sweep_param *p, char *buf, size_t size)
+{
+    const char *u = p->dim == TP_DIM_TEMPERATURE ? "C" : tp_units_si_name(p->dim);
+    size_t n = 0;
+    buf[0] = '\0';
+    if (strcmp(u, "1") == 0)
+        return;
+    for (; *u && n + 6 < size; u++) {
+        if (*u == '/') {
+            memcpy(buf + n, "_per_", 5);
+            n += 5;
+        } else if (*u != '(' && *u != ')' && *u != '.') {
+            buf[n++] = *u;
+        }
+    }
+    buf[n] = '\0';
+}
+
+static double metric_out(int m, double si)
+{
+    return tp_metricdef_file_value(tp_metricdef_get(m), si);
+}
+
+static void metric_text(int m, double si, char *buf, size_t size)
+{
+    tp_summary_metric(tp_metricdef_get(m), si, buf, size);
+}
+
+static const char *spread_kind_name(tp_spread_kind k)
+{
+    return k == TP_SPREAD_NORMAL ? "normal" : "uniform";
+}
+
+/* One line describing how a parameter is varied, in the shown unit. */
+static void describe_param(FILE *fp, const tp_sweep_plan *plan, int k)
+{
+    const tp_sweep_param *p = &plan->params[k];
+    char ub[TP_SWEEP_UNIT_MAX + 2];
+    const char *u = spaced_unit(p, ub, sizeof ub);
+    if (plan->mode == TP_SWEEP_GRID) {
+        fprintf(fp, "    %-28s %ld value%s, %.6g .. %.6g%s (config: %.6g%s)\n", p->path,
+                p->n_values, p->n_values == 1 ? "" : "s", param_shown(p, p->values[0]),
+                param_shown(p, p->values[p->n_values - 1]), u, param_shown(p, p->nominal), u);
+    } else if (p->kind == TP_SPREAD_NORMAL) {
+        if (p->relative)
+            fprintf(fp, "    %-28s normal, sd %.6g %% of %.6g%s\n", p->path, 100.0 * p->sigma,
+                    param_shown(p, p->nominal), u);
+        else
+            fprintf(fp, "    %-28s normal, sd %.6g%s about %.6g%s\n", p->path,
+                    param_shown_interval(p, p->sigma), u, param_shown(p, p->nominal), u);
+    } else if (p->relative) {
+        fprintf(fp, "    %-28s uniform, %+.6g %% .. %+.6g %% of %.6g%s\n", p->path, 100.0 * p->low,
+                100.0 * p->high, param_shown(p, p->nominal), u);
+    } else {
+        fprintf(fp, "    %-28s uniform, %.6g .. %.6g%s (config: %.6g%s)\n", p->path,
+                param_shown(p, p->low), param_shown(p, p->high), u, param_shown(p, p->nominal), u);
+    }
+}
+
+/* "heater.power = 150 W, room.temperature = 20 degC" for point i. */
+static void point_params(const tp_sweep_plan *plan, long i, char *buf, size_t size)
+{
+    size_t used = 0;
+    int k;
+    buf[0] = '\0';
+    for (k = 0; k < plan->n_params && used < size; k++) {
+        const tp_sweep_param *p = &plan->params[k];
+        char ub[TP_SWEEP_UNIT_MAX + 2];
+        int n = snprintf(buf + used, size - used, "%s%s = %.6g%s", k ? ", " : "", p->path,
+                         param_shown(p, tp_sweep_value(plan, i, k)), spaced_unit(p, ub, sizeof ub));
+        if (n < 0)
+            break;
+        used += (size_t)n;
+    }
+}
+
+/* ---- progress ---------------------------------------------------------------------------- */
+
+typedef struct progress {
+    FILE *fp;
+    int shown;
+    const char *what; /* "points" or "samples" */
+} progress;
+
+static void show_progress(void *user, long done, long total, double elapsed)
+{
+    progress *pr = user;
+    char bar[TP_SWEEP_BAR + 1], left[64];
+    int k, filled;
+    double rate;
+    if (done >= total) {
+        if (pr->shown)
+            fprintf(pr->fp, "\r%*s\r", 79, "");
+        fflush(pr->fp);
+        return;
+    }
+    if (elapsed < TP_SWEEP_PROGRESS_AFTER)
+        return;
+    filled = (int)((double)TP_SWEEP_BAR * (double)done / (double)total);
+    for (k = 0; k < TP_SWEEP_BAR; k++)
+        bar[k] = k < filled ? '#' : '.';
+    bar[TP_SWEEP_BAR] = '\0';
+    rate = (double)done / elapsed;
+    if (done > 0)
+        tp_summary_duration((double)(total - done) / rate, left, sizeof left);
+    else
+        snprintf(left, sizeof left, "?");
+    fprintf(pr->fp, "\r  [%s] %ld/%ld %s, %.1f/s, %s left   ", bar, done, total, pr->what, rate,
+            left);
+    fflush(pr->fp);
+    pr->shown = 1;
+}
+
+/* ---- text summaries ------------------------------------------------------------------------ */
+
+static void list_failed(FILE *fp, const tp_sweep_plan *plan, const tp_sweep_result *res, long total,
+                        const char *what)
+{
+    long i, listed = 0;
+    char params[512];
+    for (i = 0; i < total; i++) {
+        if (res[i].ok)
+            continue;
+        if (listed == TP_SWEEP_LIST_FAILED) {
+            fprintf(fp, "    ... (every failure is in --json and as ok = 0 in --csv)\n");
+            break;
+        }
+        point_params(plan, i, params, sizeof params);
+        fprintf(fp, "    %s %ld (%s): %s\n", what, i + 1, params, res[i].reason);
+        listed++;
+    }
+}
+
+/* The metric columns of a grid table: the usual ones that some point has; without any (no
+ * controller) the power, current and surface figures instead. Returns the count. */
+static int grid_columns_present(const tp_sweep_result *res, long total, int *cols)
+{
+    static const int fallback[] = {TP_MET_POWER_MEAN, TP_MET_POWER_PEAK, TP_MET_CURRENT_PEAK,
+                                   TP_MET_SURFACE_MAX};
+    const int *sets[2] = {grid_columns, fallback};
+    size_t sizes[2] = {N_GRID_COLUMNS, sizeof fallback / sizeof fallback[0]}, c;
+    int n = 0, set;
+    long i;
+    for (set = 0; set < 2 && n == 0; set++)
+        for (c = 0; c < sizes[set]; c++)
+            for (i = 0; i < total; i++)
+                if (res[i].ok && isfinite(res[i].metric[sets[set][c]])) {
+                    cols[n++] = sets[set][c];
+                    break;
+                }
+    return n;
+}
+
+static void grid_table(FILE *fp, const tp_sweep_plan *plan, const tp_sweep_result *res, long total)
+{
+    int cols[N_GRID_COLUMNS + 4], nc = grid_columns_present(res, total, cols), c, k;
+    int width[TP_SWEEP_MAX_AXES];
+    long i;
+    char buf[64];
+    for (k = 0; k < plan->n_params; k++) {
+        size_t len = strlen(plan->params[k].path);
+        width[k] = len > 14 ? (int)len : 14;
+    }
+    fputc('\n', fp);
+    for (k = 0; k < plan->n_params; k++)
+        fprintf(fp, "  %*s", width[k], plan->params[k].path);
+    for (c = 0; c < nc; c++)
+        fprintf(fp, " %14s", tp_metricdef_get(cols[c])->label);
+    fputc('\n', fp);
+    for (k = 0; k < plan->n_params; k++) {
+        const char *u = param_unit_shown(&plan->params[k]);
+        snprintf(buf, sizeof buf, "(%s)", u[0] ? u : "-");
+        fprintf(fp, "  %*s", width[k], buf);
+    }
+    for (c = 0; c < nc; c++) {
+        const tp_metricdef *md = tp_metricdef_get(cols[c]);
+        /* A duration carries its own units ("7 min 20 s"). */
+        if (md->form == TP_FORM_DURATION)
+            snprintf(buf, sizeof buf, " ");
+        else
+            snprintf(buf, sizeof buf, "(%s)", md->text_unit);
+        fprintf(fp, " %14s", buf);
+    }
+    fputc('\n', fp);
+    for (i = 0; i < total; i++) {
+        for (k = 0; k < plan->n_params; k++)
+            fprintf(fp, "  %*.6g", width[k],
+                    param_shown(&plan->params[k], tp_sweep_value(plan, i, k)));
+        if (!res[i].ok) {
+            fprintf(fp, "  failed: %s\n", res[i].reason);
+            continue;
+        }
+        for (c = 0; c < nc; c++) {
+            metric_text(cols[c], res[i].metric[cols[c]], buf, sizeof buf);
+            fprintf(fp, " %14s", buf);
+        }
+        fputc('\n', fp);
+    }
+    fputs("  (- : not reached in the simulated time, or not defined for this point; every metric "
+          "is in --csv and --json)\n",
+          fp);
+}
+
+#define SPREAD_COL 12 /* characters of a value column of the statistics table */
+
+static void spread_table(FILE *fp, const tp_sweep_plan *plan, const tp_sweep_summary *sum)
+{
+    int m, none;
+    char v[6][32], worst[48];
+    fprintf(fp, "\n  %-18s %5s %*s %*s %*s %*s %*s %*s %-8s %-16s %s\n", "metric", "unit",
+            SPREAD_COL, "mean", SPREAD_COL, "sd", SPREAD_COL, "p5", SPREAD_COL, "p50", SPREAD_COL,
+            "p95", SPREAD_COL, "worst", "sample", "worst is", "driven most by (Spearman rho)");
+    for (m = 0; m < TP_MET_SWEPT; m++) {
+        const tp_metricdef *mi = tp_metricdef_get(m);
+        const tp_sweep_summary *s = &sum[m];
+        if (s->n == 0)
+            continue; /* listed below as not defined */
+        metric_text(m, s->mean, v[0], sizeof v[0]);
+        tp_summary_metric_spread(mi, s->sd, v[1], sizeof v[1]);
+        metric_text(m, s->p5, v[2], sizeof v[2]);
+        metric_text(m, s->p50, v[3], sizeof v[3]);
+        metric_text(m, s->p95, v[4], sizeof v[4]);
+        metric_text(m, s->worst, v[5], sizeof v[5]);
+        if (s->worst_index >= 0)
+            snprintf(worst, sizeof worst, "#%ld", s->worst_index + 1);
+        else
+            snprintf(worst, sizeof worst, "-");
+        fprintf(fp, "  %-18s %5s %*s %*s %*s %*s %*s %*s %-8s %-16s", mi->label,
+                mi->form == TP_FORM_DURATION ? "" : mi->text_unit, SPREAD_COL, v[0], SPREAD_COL,
+                v[1], SPREAD_COL, v[2], SPREAD_COL, v[3], SPREAD_COL, v[4], SPREAD_COL, v[5], worst,
+                tp_metricdef_worse_name(mi->worse));
+        if (s->driver >= 0)
+            fprintf(fp, " %s (%+.2f)", plan->params[s->driver].path, s->rho[s->driver]);
+        else
+            fputs(" -", fp);
+        fputc('\n', fp);
+    }
+    for (m = 0; m < TP_MET_SWEPT; m++)
+        if (sum[m].absent > 0 && sum[m].n > 0)
+            fprintf(fp,
+                    "  %s: absent in %ld sample%s (not reached in the simulated time); "
+                    "statistics over the other %ld\n",
+                    tp_metricdef_get(m)->label, sum[m].absent, sum[m].absent == 1 ? "" : "s",
+                    sum[m].n);
+    for (m = 0, none = 0; m < TP_MET_SWEPT; m++)
+        if (sum[m].n == 0) {
+            fprintf(fp, "%s%s",
+                    none ? ", " : "  not defined for any sample: ", tp_metricdef_get(m)->key);
+            none = 1;
+        }
+    if (none)
+        fputc('\n', fp);
+}
+
+/* ---- files ------------------------------------------------------------------------------------
+ */
+
+static tp_status write_csv(const char *path, const tp_sweep_plan *plan, const tp_sweep_result *res,
+                           long total, tp_diag *d)
+{
+    tp_outfile o;
+    long i;
+    int k;
+    char tok[64];
+    tp_status st = tp_outfile_open(&o, path, d);
+    if (st != TP_OK)
+        return st;
+    fputs(plan->mode == TP_SWEEP_GRID ? "point" : "sample", o.fp);
+    for (k = 0; k < plan->n_params; k++) {
+        unit_token(&plan->params[k], tok, sizeof tok);
+        fprintf(o.fp, ",%s%s%s", plan->params[k].path, tok[0] ? "_" : "", tok);
+    }
+    fputs(",ok", o.fp);
+    for (k = 0; k < TP_MET_SWEPT; k++)
+        fprintf(o.fp, ",%s", tp_metricdef_get(k)->key);
+    fputc('\n', o.fp);
+    for (i = 0; i < total; i++) {
+        fprintf(o.fp, "%ld", i + 1);
+        for (k = 0; k < plan->n_params; k++) {
+            fputc(',', o.fp);
+            tp_csv_real(o.fp, param_out(&plan->params[k], tp_sweep_value(plan, i, k)));
+        }
+        fprintf(o.fp, ",%d", res[i].ok);
+        for (k = 0; k < TP_MET_SWEPT; k++) {
+            fputc(',', o.fp);
+            tp_csv_real(o.fp, metric_out(k, res[i].metric[k]));
+        }
+        fputc('\n', o.fp);
+    }
+    return tp_outfile_commit(&o, d);
+}
+
+static void json_param(cJSON *arr, const tp_sweep_plan *plan, int k)
+{
+    const tp_sweep_param *p = &plan->params[k];
+    cJSON *o = cJSON_CreateObject(), *vals;
+    long i;
+    if (!o || !cJSON_AddItemToArray(arr, o)) {
+        cJSON_Delete(o);
+        return;
+    }
+    cJSON_AddStringToObject(o, "key", p->path);
+    cJSON_AddStringToObject(o, "unit", param_unit(p));
+    tp_json_number(o, "nominal", param_out(p, p->nominal));
+    if (plan->mode == TP_SWEEP_GRID) {
+        vals = cJSON_AddArrayToObject(o, "values");
+        for (i = 0; vals && i < p->n_values; i++)
+            cJSON_AddItemToArray(vals, cJSON_CreateNumber(param_out(p, p->values[i])));
+        return;
+    }
+    cJSON_AddStringToObject(o, "distribution", spread_kind_name(p->kind));
+    cJSON_AddBoolToObject(o, "relative", p->relative);
+    if (p->kind == TP_SPREAD_NORMAL) {
+        tp_json_number(o, "sigma", p->sigma); /* a fraction, or SI (an interval in K) */
+    } else {
+        tp_json_number(o, "low", p->relative ? p->low : param_out(p, p->low));
+        tp_json_number(o, "high", p->relative ? p->high : param_out(p, p->high));
+    }
+}
+
+static tp_status write_json(const char *path, const tp_session *s, const tp_sweep_plan *plan,
+                            const tp_sweep_result *res, long total, const tp_sweep_summary *sum,
+                            const tp_sweep_totals *tot, tp_diag *d)
+{
+    cJSON *root = cJSON_CreateObject(), *params, *points, *cautions;
+    long i;
+    int k;
+    tp_status st;
+    if (!root)
+        return TP_ERR_NOMEM;
+    cJSON_AddStringToObject(root, "mode", plan->mode == TP_SWEEP_GRID ? "grid" : "spread");
+    tp_json_number(root, "tolerance", s->desc.run.tolerance);
+    if (plan->mode == TP_SWEEP_SPREAD) {
+        char seed[32];
+        /* As a string: a 64-bit seed does not fit a JSON number exactly. */
+        snprintf(seed, sizeof seed, "%" PRIu64, plan->seed);
+        cJSON_AddStringToObject(root, "seed", seed);
+        tp_json_number(root, "samples", (double)plan->n_samples);
+    }
+    params = cJSON_AddArrayToObject(root, "parameters");
+    for (k = 0; params && k < plan->n_params; k++)
+        json_param(params, plan, k);
+    tp_json_number(root, "failed", (double)tot->failed);
+    points = cJSON_AddArrayToObject(root, "points");
+    for (i = 0; points && i < total; i++) {
+        cJSON *pt = cJSON_CreateObject(), *pv, *mv;
+        if (!pt || !cJSON_AddItemToArray(points, pt)) {
+            cJSON_Delete(pt);
+            break;
+        }
+        tp_json_number(pt, "index", (double)(i + 1));
+        pv = cJSON_AddObjectToObject(pt, "parameters");
+        for (k = 0; pv && k < plan->n_params; k++)
+            tp_json_number(pv, plan->params[k].path,
+                           param_out(&plan->params[k], tp_sweep_value(plan, i, k)));
+        cJSON_AddBoolToObject(pt, "ok", res[i].ok);
+        if (!res[i].ok) {
+            cJSON_AddStringToObject(pt, "reason", res[i].reason);
+            continue;
+        }
+        mv = cJSON_AddObjectToObject(pt, "metrics");
+        for (k = 0; mv && k < TP_MET_SWEPT; k++)
+            tp_json_number(mv, tp_metricdef_get(k)->key, metric_out(k, res[i].metric[k]));
+    }
+    if (sum) {
+        cJSON *stats = cJSON_AddObjectToObject(root, "statistics");
+        int m;
+        for (m = 0; stats && m < TP_MET_SWEPT; m++) {
+            const tp_sweep_summary *sm = &sum[m];
+            cJSON *o = cJSON_AddObjectToObject(stats, tp_metricdef_get(m)->key), *rho;
+            if (!o)
+                break;
+            tp_json_number(o, "n", (double)sm->n);
+            tp_json_number(o, "absent", (double)sm->absent);
+            tp_json_number(o, "mean", metric_out(m, sm->mean));
+            tp_json_number(o, "sd", sm->sd); /* a spread: no offset, even for degC */
+            tp_json_number(o, "p5", metric_out(m, sm->p5));
+            tp_json_number(o, "p50", metric_out(m, sm->p50));
+            tp_json_number(o, "p95", metric_out(m, sm->p95));
+            tp_json_number(o, "worst", metric_out(m, sm->worst));
+            tp_json_number(o, "worst_index",
+                           sm->worst_index >= 0 ? (double)(sm->worst_index + 1) : TP_UNSET);
+            rho = cJSON_AddObjectToObject(o, "rank_correlation");
+            for (k = 0; rho && k < plan->n_params; k++)
+                tp_json_number(rho, plan->params[k].path, sm->rho[k]);
+            if (sm->driver >= 0)
+                cJSON_AddStringToObject(o, "driver", plan->params[sm->driver].path);
+            else
+                cJSON_AddNullToObject(o, "driver");
+        }
+    }
+    cautions = cJSON_AddArrayToObject(root, "cautions");
+    tp_json_add_cautions(cautions, tot->cautions, tot->n_cautions);
+    st = tp_json_write(path, root, d);
+    cJSON_Delete(root);
+    return st;
+}
+
+/* ---- figures --------------------------------------------------------------------------------- */
+
+/* Whether a grid axis is evenly spaced (needed to draw it as heat-map cells). */
+static int evenly_spaced(const tp_sweep_param *p)
+{
+    long i;
+    double step;
+    if (p->n_values < 3)
+        return 1;
+    step = p->values[1] - p->values[0];
+    if (step == 0.0)
+        return 0;
+    for (i = 2; i < p->n_values; i++)
+        if (fabs(p->values[i] - p->values[i - 1] - step) > TP_SWEEP_EVEN * fabs(step))
+            return 0;
+    return 1;
+}
+
+static void axis_label(const tp_sweep_param *p, char *buf, size_t size)
+{
+    const char *u = param_unit_shown(p);
+    if (u[0])
+        snprintf(buf, size, "%s (%s)", p->path, u);
+    else
+        snprintf(buf, size, "%s", p->path);
+}
+
+static void metric_label(int m, char *buf, size_t size)
+{
+    const tp_metricdef *mi = tp_metricdef_get(m);
+    snprintf(buf, size, "%s (%s)", mi->label, mi->text_unit);
+}
+
+static double metric_plot(int m, double si)
+{
+    return isfinite(si) ? tp_metricdef_text_value(tp_metricdef_get(m), si) : TP_UNSET;
+}
+
+static const char *chart_title(const tp_session *s)
+{
+    return tp_session_title(s);
+}
+
+/* The curves of the one-parameter chart: panel, metric, legend, dash, right axis. */
+static const struct line_curve {
+    int panel, metric;
+    const char *label;
+    int dash, right;
+} line_curves[] = {
+    {0, TP_MET_TIME_SETPOINT, "reading at the setpoint", 0, 0},
+    {0, TP_MET_TIME_READY, "surface ready", 1, 0},
+    {1, TP_MET_OVERSHOOT_READING, "reading", 0, 0},
+    {1, TP_MET_OVERSHOOT_SURFACE, "surface", 1, 0},
+    {2, TP_MET_HOLD_POWER, "holding power", 0, 0},
+    {2, TP_MET_MARGIN, "margin", 1, 1},
+    {3, TP_MET_POWER_MEAN, "mean power", 0, 0}, /* only when nothing above exists */
+    {3, TP_MET_POWER_PEAK, "peak power", 1, 0},
+};
+#define N_LINE_CURVES (sizeof line_curves / sizeof line_curves[0])
+
+static const struct line_panel {
+    const char *ylabel, *y2label;
+    double share;
+} line_panels[] = {
+    {"time (min)", NULL, 1.5},
+    {"overshoot (K)", NULL, 1.0},
+    {"holding power (W)", "margin (x)", 1.0},
+    {"power (W)", NULL, 1.0},
+};
+#define N_LINE_PANELS (sizeof line_panels / sizeof line_panels[0])
+
+/* One --vary: the times, the overshoot, and the holding power with the margin against the
+ * parameter. Curves of metrics no point has (the surface in the raw form) are left out, and so
+ * are empty panels; without a controller the mean and peak power are drawn instead. */
+static tp_status plot_line(const char *path, const tp_session *s, const tp_sweep_plan *plan,
+                           const tp_sweep_result *res, long total, tp_diag *d)
+{
+    double *buf = malloc((size_t)total * (N_LINE_CURVES + 1) * sizeof *buf), *x;
+    tp_plot_series ser[N_LINE_CURVES];
+    tp_plot_panel panels[N_LINE_PANELS];
+    tp_plot_chart chart;
+    char xl[TP_SWEEP_PATH_MAX + TP_SWEEP_UNIT_MAX + 4], title[TP_TEXT_MAX + 32];
+    int markers = total < 2, ns = 0, np = 0;
+    size_t c, p;
+    long i;
+    tp_status st;
+    if (!buf)
+        return TP_ERR_NOMEM;
+    x = buf;
+    for (i = 0; i < total; i++)
+        x[i] = param_shown(&plan->params[0], tp_sweep_value(plan, i, 0));
+    for (p = 0; p < N_LINE_PANELS; p++) {
+        int first = ns;
+        if (p == N_LINE_PANELS - 1 && np > 0)
+            break; /* the power panel stands in only for an otherwise empty chart */
+        for (c = 0; c < N_LINE_CURVES; c++) {
+            const struct line_curve *lc = &line_curves[c];
+            double *y = buf + (c + 1) * (size_t)total;
+            int finite = 0;
+            if (lc->panel != (int)p)
+                continue;
+            for (i = 0; i < total; i++) {
+                y[i] = res[i].ok ? metric_plot(lc->metric, res[i].metric[lc->metric]) : TP_UNSET;
+                finite += isfinite(y[i]) != 0;
+            }
+            if (finite > 0)
+                ser[ns++] =
+                    (tp_plot_series){lc->label, x, y, (size_t)total, lc->dash, markers, lc->right};
+        }
+        if (ns > first) {
+            int right = 0, k;
+            for (k = first; k < ns; k++)
+                right |= ser[k].right_axis;
+            panels[np++] = (tp_plot_panel){line_panels[p].ylabel,
+                                           right ? line_panels[p].y2label : NULL,
+                                           ser + first,
+                                           (size_t)(ns - first),
+                                           NULL,
+                                           0,
+                                           line_panels[p].share};
+        }
+    }
+    axis_label(&plan->params[0], xl, sizeof xl);
+    snprintf(title, sizeof title, "%s: sweep", chart_title(s));
+    chart = (tp_plot_chart){title, xl, panels, (size_t)np, 0, 0};
+    st = np > 0 ? tp_plot_chart_write(path, &chart, d) : TP_ERR_SOLVER;
+    if (np == 0)
+        tp_diag_error(d, tp_diag_loc_none(), path, NULL, "no metric to draw");
+    free(buf);
+    return st;
+}
+
+/* Two --vary: a heat map of one metric over the two parameters. */
+static tp_status plot_map(const char *path, const tp_session *s, const tp_sweep_plan *plan,
+                          const tp_sweep_result *res, int metric, tp_diag *d)
+{
+    const tp_sweep_param *px = &plan->params[0], *py = &plan->params[1];
+    size_t nx = (size_t)px->n_values, ny = (size_t)py->n_values;
+    double *z = malloc(nx * ny * sizeof *z), ext[4];
+    char xl[TP_SWEEP_PATH_MAX + TP_SWEEP_UNIT_MAX + 4],
+        yl[TP_SWEEP_PATH_MAX + TP_SWEEP_UNIT_MAX + 4];
+    char zl[64];
+    char title[TP_TEXT_MAX + 64];
+    const tp_sweep_param *ax[2] = {px, py};
+    long i;
+    int a;
+    tp_plot_map map;
+    tp_status st;
+    if (!z)
+        return TP_ERR_NOMEM;
+    for (a = 0; a < 2; a++) {
+        /* Cells centred on the values, which run up or down evenly. */
+        double v0 = param_shown(ax[a], ax[a]->values[0]);
+        double v1 = param_shown(ax[a], ax[a]->values[ax[a]->n_values - 1]);
+        double half =
+            ax[a]->n_values > 1 ? 0.5 * fabs(v1 - v0) / (double)(ax[a]->n_values - 1) : 0.0;
+        ext[2 * a] = fmin(v0, v1) - half;
+        ext[2 * a + 1] = fmax(v0, v1) + half;
+    }
+    for (i = 0; i < (long)(nx * ny); i++) {
+        size_t ix = (size_t)tp_sweep_axis_index(plan, i, 0);
+        size_t iy = (size_t)tp_sweep_axis_index(plan, i, 1);
+        if (px->n_values > 1 && px->values[px->n_values - 1] < px->values[0])
+            ix = nx - 1 - ix;
+        if (py->n_values > 1 && py->values[py->n_values - 1] < py->values[0])
+            iy = ny - 1 - iy;
+        z[iy * nx + ix] = res[i].ok ? metric_plot(metric, res[i].metric[metric]) : TP_UNSET;
+    }
+    axis_label(px, xl, sizeof xl);
+    axis_label(py, yl, sizeof yl);
+    metric_label(metric, zl, sizeof zl);
+    snprintf(title, sizeof title, "%s: %s", chart_title(s), tp_metricdef_get(metric)->label);
+    memset(&map, 0, sizeof map);
+    map.title = title;
+    map.xlabel = xl;
+    map.ylabel = yl;
+    map.zlabel = zl;
+    map.z = z;
+    map.nx = nx;
+    map.ny = ny;
+    map.x0 = ext[0];
+    map.x1 = ext[1];
+    map.y0 = ext[2];
+    map.y1 = ext[3];
+    map.contours = nx >= 2 && ny >= 2;
+    map.free_aspect = 1;
+    st = tp_plot_map_write(path, &map, d);
+    free(z);
+    return st;
+}
+
+static int cmp_double(const void *a, const void *b)
+{
+    double x = *(const double *)a, y = *(const double *)b;
+    return (x > y) - (x < y);
+}
+
+/* --spread: the empirical distribution (sorted values against the fraction of samples at or
+ * below) of one metric, with the 5 %, 50 % and 95 % levels marked. */
+static tp_status plot_distribution(const char *path, const tp_session *s,
+                                   const tp_sweep_result *res, long total, int metric, tp_diag *d)
+{
+    double *x = malloc(2 * ((size_t)total + 1) * sizeof *x), *y;
+    long i, n = 0;
+    tp_plot_series ser;
+    tp_plot_hline lines[3] = {{"5 %", 0.05}, {"median", 0.5}, {"95 %", 0.95}};
+    tp_plot_panel panel;
+    tp_plot_chart chart;
+    char xl[64], title[TP_TEXT_MAX + 64];
+    tp_status st;
+    if (!x)
+        return TP_ERR_NOMEM;
+    y = x + total + 1;
+    for (i = 0; i < total; i++)
+        if (res[i].ok && isfinite(res[i].metric[metric]))
+            x[n++] = metric_plot(metric, res[i].metric[metric]);
+    if (n == 0) {
+        free(x);
+        tp_diag_error(d, tp_diag_loc_none(), path, "choose another --metric",
+                      "no sample has a value of %s to draw", tp_metricdef_get(metric)->key);
+        return TP_ERR_SOLVER;
+    }
+    qsort(x, (size_t)n, sizeof *x, cmp_double);
+    for (i = 0; i < n; i++)
+        y[i] = (double)(i + 1) / (double)n;
+    ser = (tp_plot_series){tp_metricdef_get(metric)->label, x, y, (size_t)n, 0, n < 2, 0};
+    panel = (tp_plot_panel){"fraction of samples at or below", NULL, &ser, 1, lines, 3, 1.0};
+    metric_label(metric, xl, sizeof xl);
+    snprintf(title, sizeof title, "%s: %ld samples", chart_title(s), n);
+    chart = (tp_plot_chart){title, xl, &panel, 1, 0, 0};
+    st = tp_plot_chart_write(path, &chart, d);
+    free(x);
+    return st;
+}
+
+/* ---- the verb -------------------------------------------------------------------------------- */
+
+/* The metric drawn when --metric is not given: the surface's ready time, or where there is no
+ * working surface (the raw form) the time to the setpoint, or without a controller the mean
+ * power: the first of these that some successful point has. */
+static int default_metric(const tp_sweep_result *res, long total)
+{
+    static const int order[] = {TP_MET_TIME_READY, TP_MET_TIME_SETPOINT, TP_MET_HOLD_POWER,
+                                TP_MET_POWER_MEAN};
+    size_t k;
+    long i;
+    for (k = 0; k < sizeof order / sizeof order[0]; k++)
+        for (i = 0; i < total; i++)
+            if (res[i].ok && isfinite(res[i].metric[order[k]]))
+                return order[k];
+    return TP_MET_TIME_READY;
+}
+
+static tp_status build_plan(const options *o, const tp_session *s, tp_sweep_plan *plan, tp_diag *d)
+{
+    int k;
+    tp_status st = TP_OK;
+    tp_sweep_plan_init(plan, o->n_vary > 0 ? TP_SWEEP_GRID : TP_SWEEP_SPREAD);
+    plan->n_samples = o->samples;
+    plan->seed = o->seed;
+    for (k = 0; st == TP_OK && k < o->n_vary; k++)
+        st = tp_sweep_add_vary(plan, &s->desc, o->vary[k], d);
+    for (k = 0; st == TP_OK && k < o->n_spread; k++)
+        st = tp_sweep_add_spread(plan, &s->desc, o->spread[k], d);
+    /* A parameter whose option gave no unit (a percentage) is shown in the config's unit. */
+    for (k = 0; st == TP_OK && k < plan->n_params; k++)
+        if (!plan->params[k].unit[0])
+            tp_configedit_unit(s->doc, plan->params[k].path, plan->params[k].unit,
+                               sizeof plan->params[k].unit);
+    if (st == TP_OK && plan->mode == TP_SWEEP_GRID && plan->n_params == 2 &&
+        tp_cli_get(s->cli, "plot"))
+        for (k = 0; k < 2; k++)
+            if (!evenly_spaced(&plan->params[k])) {
+                tp_diag_error(d, (tp_loc){"--plot", 1, 1}, plan->params[k].path,
+                              "give the axis as FROM:TO:STEP",
+                              "a heat map needs evenly spaced values");
+                st = TP_ERR_USAGE;
+            }
+    if (st != TP_OK)
+        tp_sweep_plan_clear(plan);
+    return st;
+}
+
+static void summary_head(FILE *fp, const tp_session *s, const tp_sweep_plan *plan, long total,
+                         const tp_sweep_totals *tot)
+{
+    int k;
+    const char *what = plan->mode == TP_SWEEP_GRID ? "point" : "sample";
+    fprintf(fp, "tepid sweep %s%s%s\n  ", s->cli->file, s->desc.title[0] ? ": " : "",
+            s->desc.title);
+    tp_summary_network(fp, s->net);
+    if (plan->mode == TP_SWEEP_GRID)
+        fprintf(fp, "  grid of %ld point%s over:\n", total, total == 1 ? "" : "s");
+    else
+        fprintf(fp, "  tolerance study of %ld sample%s (seed %" PRIu64 ") over:\n", total,
+                total == 1 ? "" : "s", plan->seed);
+    for (k = 0; k < plan->n_params; k++)
+        describe_param(fp, plan, k);
+    fprintf(fp,
+            "  each point a full warm-up of %.0f s at integration tolerance %g "
+            "(run.tolerance)\n",
+            s->desc.run.duration, s->desc.run.tolerance);
+    fprintf(fp, "  %d job%s: %.2f s wall, %.2f s CPU, %.1f %ss per second\n", tot->jobs,
+            tot->jobs == 1 ? "" : "s", tot->wall, tot->cpu,
+            tot->wall > 0 ? (double)total / tot->wall : 0.0, what);
+    if (tot->failed > 0)
+        fprintf(fp, "  ! %ld of %ld %ss failed and are left out of %s:\n", tot->failed, total, what,
+                plan->mode == TP_SWEEP_GRID ? "the table's metrics" : "the statistics");
+    else
+        fprintf(fp, "  no %s failed\n", what);
+}
+
+/* The cautions of the run; when no point succeeded, those of the config itself. */
+static void summary_cautions(FILE *fp, const tp_session *s, const tp_sweep_totals *tot)
+{
+    if (tot->n_cautions == 0) {
+        tp_caution_exposure ex = TP_CAUTION_UNSEEN;
+        tp_caution cautions[TP_CAUTIONS_MAX];
+        tp_summary_cautions(fp, "cautions", cautions,
+                            tp_caution_list(&s->desc, s->net, &ex, cautions));
+        return;
+    }
+    tp_summary_cautions(fp, "cautions (the worst case over all points)", tot->cautions,
+                        tot->n_cautions);
+}
+
+static tp_status run_sweep(const tp_cli *cli, tp_diag *d)
+{
+    options o;
+    tp_session s;
+    tp_sweep_plan plan;
+    tp_sweep_result *res = NULL;
+    tp_sweep_summary *sum = NULL;
+    tp_sweep_totals tot;
+    progress pr = {stderr, 0, NULL};
+    long total;
+    int m;
+    const char *out;
+    tp_status rc = parse_options(cli, &o, d);
+    if (rc != TP_OK)
+        return rc;
+    rc = tp_session_open(&s, cli, d);
+    if (rc != TP_OK)
+        return rc;
+    rc = build_plan(&o, &s, &plan, d);
+    if (rc != TP_OK) {
+        tp_session_close(&s);
+        return rc;
+    }
+    memset(&tot, 0, sizeof tot);
+    total = tp_sweep_count(&plan);
+    res = calloc((size_t)total, sizeof *res);
+    if (!res) {
+        rc = TP_ERR_NOMEM;
+        goto done;
+    }
+    pr.what = plan.mode == TP_SWEEP_GRID ? "points" : "samples";
+    rc = tp_sweep_run(&plan, &s.desc, o.jobs, res,
+                      s.text && isatty(STDERR_FILENO) ? show_progress : NULL, &pr, &tot);
+    if (rc != TP_OK)
+        goto done;
+    if (plan.mode == TP_SWEEP_SPREAD) {
+        sum = calloc(TP_MET_SWEPT, sizeof *sum);
+        for (m = 0; sum && rc == TP_OK && m < TP_MET_SWEPT; m++)
+            rc = tp_sweep_summarise(&plan, res, m, &sum[m]);
+        if (!sum || rc != TP_OK) {
+            rc = TP_ERR_NOMEM;
+            goto done;
+        }
+    }
+    if ((out = tp_cli_get(cli, "csv")))
+        rc = write_csv(out, &plan, res, total, d);
+    if (rc == TP_OK && (out = tp_cli_get(cli, "json")))
+        rc = write_json(out, &s, &plan, res, total, sum, &tot, d);
+    if (o.metric < 0)
+        o.metric = default_metric(res, total);
+    if (rc == TP_OK && (out = tp_cli_get(cli, "plot")) && tot.failed < total) {
+        if (plan.mode == TP_SWEEP_SPREAD)
+            rc = plot_distribution(out, &s, res, total, o.metric, d);
+        else if (plan.n_params == 1)
+            rc = plot_line(out, &s, &plan, res, total, d);
+        else
+            rc = plot_map(out, &s, &plan, res, o.metric, d);
+    }
+    if (rc == TP_OK && s.text) {
+        summary_head(s.text, &s, &plan, total, &tot);
+        if (plan.mode == TP_SWEEP_GRID) {
+            grid_table(s.text, &plan, res, total); /* failed points show their reason there */
+        } else {
+            list_failed(s.text, &plan, res, total, "sample");
+            spread_table(s.text, &plan, sum);
+        }
+        summary_cautions(s.text, &s, &tot);
+    }
+    if (rc == TP_OK && total > 0 && tot.failed == total) {
+        tp_diag_error(d, tp_diag_loc_none(), NULL, "see the reasons above or in --json",
+                      "every point failed; the first: %s", res[0].reason);
+        rc = TP_ERR_SOLVER;
+    }
+done:
+    free(sum);
+    free(res);
+    tp_sweep_plan_clear(&plan);
+    tp_session_close(&s);
+    return rc;
+}
+
+const tp_verb tp_cmd_sweep = {
+    "sweep",
+    run_sweep,
+    "Warm-up metrics over parameter grids and tolerance spreads.",
+    1,
+    sweep_opts,
+    "--vary KEY=FROM:TO:STEP (or KEY=A,B,C), once or twice: a warm-up at every grid point.\n"
+    "--spread KEY=normal:SIGMA or KEY=uniform:LOW:HIGH (in % of the config's value or with\n"
+    "units), repeatable, with --samples N and --seed S: a tolerance study with mean, standard\n"
+    "deviation, 5/50/95th percentiles, the worst sample and the parameter that drives each\n"
+    "metric most (Spearman rank correlation). Points run on --jobs threads; the results do not\n"
+    "depend on the number of jobs. A failed point is listed with its parameters and reason\n"
+    "and left out of the statistics. Details: docs/sweep.md.",
+    "tepid sweep workshop-bed-24v.yaml --vary heater.supply=20V:28V:2V\n"
+    "tepid sweep workshop-bed-24v.yaml --vary heater.supply=20V:28V:4V "
+    "--vary room.temperature=15degC:25degC:5degC --plot map.png\n"
+    "tepid sweep workshop-bed-24v.yaml --spread heater.resistance=normal:5% --samples 200 "
+    "--csv samples.csv"};

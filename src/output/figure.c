@@ -1,0 +1,150 @@
+/* Figures of study records: the warm-up chart and the working-surface heat map. */
+#include "figure.h"
+
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "summary.h"
+#include "surfacemap.h"
+#include "units.h"
+
+tp_status tp_figure_warmup(const char *path, const char *title, const tp_network *net,
+                           const tp_warmup *w, tp_diag *d)
+{
+    const tp_history *h = &w->history;
+    long n = h->n, i;
+    int k, ns = 0, np = 0;
+    size_t cells = (size_t)n * ((size_t)h->n_out + 8);
+    double *buf = malloc(cells * sizeof *buf), *minutes, *power, *reading, *surface;
+    tp_plot_series *temp_series = calloc((size_t)h->n_out + 4, sizeof *temp_series);
+    char(*labels)[TP_ID_MAX + 16] = calloc((size_t)h->n_out + 1, sizeof *labels);
+    tp_plot_series power_series[2];
+    tp_plot_hline setpoint = {"setpoint", w->metrics.setpoint - TP_KELVIN_0C};
+    tp_plot_panel panels[2];
+    tp_plot_chart chart;
+    tp_plot_vline marks[TP_FIGURE_MARKS];
+    char mark_text[TP_FIGURE_MARKS][TP_FIGURE_MARK_TEXT];
+    int reading_col = tp_warmup_reading_column(net, h);
+    tp_status st;
+    if (!buf || !temp_series || !labels) {
+        free(buf);
+        free(temp_series);
+        free(labels);
+        return TP_ERR_NOMEM;
+    }
+    minutes = buf;
+    power = buf + n;
+    reading = buf + 2 * n;
+    surface = buf + 3 * n;
+    for (i = 0; i < n; i++) {
+        minutes[i] = h->t[i] / 60.0;
+        power[i] = 0.0;
+        for (k = 0; k < net->n_sources; k++)
+            power[i] += h->power[i * net->n_sources + k];
+        reading[i] = h->reading[i] - TP_KELVIN_0C;
+        surface[i] = h->surface[i] - TP_KELVIN_0C;
+    }
+    for (k = 0; k < h->n_out; k++) {
+        double *col = buf + (size_t)(4 + k) * (size_t)n;
+        /* A gridded plate draws each layer's mean and the other nodes. */
+        if (h->out_kind[k] == TP_COL_MIN || h->out_kind[k] == TP_COL_MAX)
+            continue;
+        for (i = 0; i < n; i++)
+            col[i] = tp_history_temp(h, i, k) - TP_KELVIN_0C;
+        tp_history_label(h, k, labels[k], sizeof labels[k]);
+        if (k == reading_col)
+            strncat(labels[k], " = reading", sizeof labels[k] - strlen(labels[k]) - 1);
+        temp_series[ns++] = (tp_plot_series){labels[k], minutes, col, (size_t)n, 0, 0, 0};
+    }
+    if (isfinite(w->metrics.surface_max))
+        temp_series[ns++] = (tp_plot_series){h->surface_min ? "surface mean" : "surface (estimate)",
+                                             minutes, surface, (size_t)n, 1, 0, 0};
+    if (h->surface_min) {
+        double *lo = buf + (size_t)(4 + h->n_out) * (size_t)n, *hi = lo + n;
+        for (i = 0; i < n; i++) {
+            lo[i] = h->surface_min[i] - TP_KELVIN_0C;
+            hi[i] = h->surface_max[i] - TP_KELVIN_0C;
+        }
+        temp_series[ns++] = (tp_plot_series){"surface coldest cell", minutes, lo, (size_t)n, 2, 0,
+                                             0};
+        temp_series[ns++] = (tp_plot_series){"surface hottest cell", minutes, hi, (size_t)n, 2, 0,
+                                             0};
+    }
+    if (net->has_control && reading_col < 0)
+        temp_series[ns++] = (tp_plot_series){"reading", minutes, reading, (size_t)n, 2, 0, 0};
+    power_series[np++] = (tp_plot_series){"heater power", minutes, power, (size_t)n, 0, 0, 0};
+    if (net->has_control)
+        power_series[np++] = (tp_plot_series){"duty", minutes, h->duty, (size_t)n, 1, 0, 1};
+    panels[0] = (tp_plot_panel){"temperature (degC)", NULL, temp_series, (size_t)ns,
+                                &setpoint, isfinite(setpoint.y) ? 1u : 0u, 2.0};
+    panels[1] = (tp_plot_panel){"power (W)", net->has_control ? "duty" : NULL, power_series,
+                                (size_t)np, NULL, 0, 1.0};
+    chart = (tp_plot_chart){title, "time (min)", panels, 2, 0, 0};
+    st = tp_plot_chart_write_marked(path, &chart, marks,
+                                    tp_figure_warmup_marks(&w->metrics, marks, mark_text), d);
+    free(buf);
+    free(temp_series);
+    free(labels);
+    return st;
+}
+
+size_t tp_figure_warmup_marks(const tp_metrics *m, tp_plot_vline marks[TP_FIGURE_MARKS],
+                              char text[TP_FIGURE_MARKS][TP_FIGURE_MARK_TEXT])
+{
+    /* The times the metrics report (docs/metrics.md), by their fields: a change of their
+     * definitions moves the marks with them. */
+    const struct {
+        double t;
+        const char *what;
+    } times[TP_FIGURE_MARKS] = {{m->t_setpoint, "reading at setpoint"},
+                                {m->t_surface_ready, "surface ready"}};
+    char when[32];
+    size_t k, n = 0;
+    for (k = 0; k < TP_FIGURE_MARKS; k++) {
+        if (!isfinite(times[k].t))
+            continue;
+        tp_summary_duration(times[k].t, when, sizeof when);
+        snprintf(text[n], TP_FIGURE_MARK_TEXT, "%s %s", times[k].what, when);
+        marks[n] = (tp_plot_vline){text[n], times[k].t / 60.0};
+        n++;
+    }
+    return n;
+}
+
+tp_status tp_figure_surface(const char *path, const tp_net_grid *g, const double *map,
+                            const char *title, tp_diag *d)
+{
+    size_t n = (size_t)g->nx * (size_t)g->ny, k;
+    double *z = malloc(n * sizeof *z), mx[3], my[3];
+    const char *labels[3];
+    size_t nm = 0;
+    tp_surfacemap_stats st;
+    tp_plot_map pm;
+    tp_status rc;
+    if (!z)
+        return TP_ERR_NOMEM;
+    for (k = 0; k < n; k++)
+        z[k] = map[k] - TP_KELVIN_0C;
+    tp_surfacemap_compute(g, map, &st);
+    if (isfinite(g->sensor_x)) {
+        mx[nm] = g->sensor_x * 1e3;
+        my[nm] = g->sensor_y * 1e3;
+        labels[nm++] = "sensor";
+    }
+    if (st.cells > 0) {
+        mx[nm] = st.max_x * 1e3;
+        my[nm] = st.max_y * 1e3;
+        labels[nm++] = "hottest";
+        mx[nm] = st.min_x * 1e3;
+        my[nm] = st.min_y * 1e3;
+        labels[nm++] = "coldest";
+    }
+    pm = (tp_plot_map){title, "x (mm)", "y (mm)", "working surface (degC)", z, (size_t)g->nx,
+                       (size_t)g->ny, 0.0, g->width * 1e3, 0.0, g->depth * 1e3, 1, mx, my,
+                       labels, nm, 0, 0, 0};
+    rc = tp_plot_map_write(path, &pm, d);
+    free(z);
+    return rc;
+}

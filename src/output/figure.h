@@ -1,0 +1,36 @@
+/* Figures of study records: the warm-up chart and the working-surface heat map, drawn with
+ * plot.h from what the studies computed (they never draw). */
+#ifndef TP_FIGURE_H
+#define TP_FIGURE_H
+
+#include <stddef.h>
+
+#include "diag.h"
+#include "metrics.h"
+#include "network.h"
+#include "plot.h"
+#include "status.h"
+#include "warmup.h"
+
+/* Draw a warm-up run under `title`: temperatures, surface estimate, reading and setpoint over
+ * power and duty, with the times of tp_figure_warmup_marks marked; the format follows the
+ * extension. Atomic (plot.h). */
+tp_status tp_figure_warmup(const char *path, const char *title, const tp_network *net,
+                           const tp_warmup *w, tp_diag *d);
+
+#define TP_FIGURE_MARKS 2         /* times marked on the warm-up chart */
+#define TP_FIGURE_MARK_TEXT 64    /* bytes of a mark's label */
+
+/* The times worth marking on the warm-up chart, as the metrics report them (m->t_setpoint,
+ * m->t_surface_ready; those that exist), in minutes, labelled with the time into text[k]:
+ * fills marks[0..) and returns the count. */
+size_t tp_figure_warmup_marks(const tp_metrics *m, tp_plot_vline marks[TP_FIGURE_MARKS],
+                              char text[TP_FIGURE_MARKS][TP_FIGURE_MARK_TEXT]);
+
+/* Draw a working-surface `map` (K, nx * ny cells of grid g) as a heat map in degC with the
+ * plate outline, the sensor and the hottest and coldest cells marked; the format follows the
+ * extension (tp_plot_map_write). */
+tp_status tp_figure_surface(const char *path, const tp_net_grid *g, const double *map,
+                            const char *title, tp_diag *d);
+
+#endif

@@ -1,0 +1,189 @@
+/* Sweeps and tolerance studies: parameter grids and random spreads over numeric config keys,
+ * a pool of worker threads running one warm-up per point, counter-based random streams, and
+ * the statistics of the results (moments, percentiles, rank correlation). */
+#ifndef TP_SWEEP_H
+#define TP_SWEEP_H
+
+#include <stddef.h>
+#include <stdint.h>
+
+#include "caution.h"
+#include "description.h"
+#include "diag.h"
+#include "metricdef.h"
+#include "network.h"
+#include "status.h"
+#include "units.h"
+
+#define TP_SWEEP_MAX_AXES 2        /* --vary parameters in one grid */
+#define TP_SWEEP_MAX_PARAMS 16     /* --spread parameters in one study */
+#define TP_SWEEP_MAX_POINTS 200000 /* grid points or samples in one run (~370 B each) */
+#define TP_SWEEP_MAX_JOBS 256      /* worker threads */
+#define TP_SWEEP_PATH_MAX 128      /* longest key path, bytes incl. NUL */
+#define TP_SWEEP_REASON_MAX 240    /* longest failure reason kept per point, bytes incl. NUL */
+#define TP_SWEEP_UNIT_MAX 32       /* longest unit text kept per parameter, bytes incl. NUL */
+
+/* The metrics kept per point: the table of src/study/metricdef.h (TP_MET_*), in its order. */
+
+typedef enum tp_sweep_mode { TP_SWEEP_GRID, TP_SWEEP_SPREAD } tp_sweep_mode;
+
+typedef enum tp_spread_kind { TP_SPREAD_NORMAL, TP_SPREAD_UNIFORM } tp_spread_kind;
+
+/* One varied key. */
+typedef struct tp_sweep_param {
+    char path[TP_SWEEP_PATH_MAX]; /* dotted key path, e.g. "heater.power" */
+    tp_dim dim;
+    double nominal; /* SI, the config's value */
+    /* The unit values are shown in to people: as written in the option ("mm" of
+     * "3mm:5mm:1mm"; for a spread, of its absolute numbers); "" when the option gave none
+     * (percentages), for the caller to fill (the config's unit, tp_configedit_unit). */
+    char unit[TP_SWEEP_UNIT_MAX];
+    /* grid */
+    double *values; /* SI, owned */
+    long n_values;
+    /* spread */
+    tp_spread_kind kind;
+    int relative;     /* the numbers below are fractions of the nominal value */
+    double sigma;     /* normal: standard deviation (SI, or a fraction) */
+    double low, high; /* uniform: bounds (SI); relative: deviations, e.g. -0.1, 0.1 */
+} tp_sweep_param;
+
+typedef struct tp_sweep_plan {
+    tp_sweep_mode mode;
+    tp_sweep_param params[TP_SWEEP_MAX_PARAMS];
+    int n_params;
+    long n_samples; /* spread: samples to draw */
+    uint64_t seed;  /* spread: the seed of every sample's stream */
+} tp_sweep_plan;
+
+/* Start an empty plan of `mode` (no parameters yet). */
+void tp_sweep_plan_init(tp_sweep_plan *plan, tp_sweep_mode mode);
+
+/* Free what a plan owns; leaves it empty. */
+void tp_sweep_plan_clear(tp_sweep_plan *plan);
+
+/* Add a grid axis from "key.path=FROM:TO:STEP" or "key.path=A,B,C" (values with the key's unit,
+ * e.g. "heater.power=150W:400W:25W"; for an absolute temperature STEP is an interval, "2 K").
+ * The unit of FROM (or of A) becomes the parameter's unit.
+ * The key must hold a value in `desc`. Errors (unknown key, bad unit, empty or too large range,
+ * a value the schema refuses) go to `d` as usage errors; the plan is unchanged on failure. */
+tp_status tp_sweep_add_vary(tp_sweep_plan *plan, const tp_description *desc, const char *text,
+                            tp_diag *d);
+
+/* Add a spread from "key.path=normal:SIGMA" or "key.path=uniform:LOW:HIGH", each number either
+ * relative ("10%", of the nominal value; uniform bounds as deviations, "-10%:10%") or absolute
+ * with the key's unit (normal: a standard deviation; uniform: the bounds themselves; for an
+ * absolute temperature SIGMA is an interval). Errors as for tp_sweep_add_vary. */
+tp_status tp_sweep_add_spread(tp_sweep_plan *plan, const tp_description *desc, const char *text,
+                              tp_diag *d);
+
+/* Points of the plan: the product of the axis sizes (grid) or n_samples (spread). */
+long tp_sweep_count(const tp_sweep_plan *plan);
+
+/* Index along axis `k` of grid point `point`: the first axis varies slowest. */
+long tp_sweep_axis_index(const tp_sweep_plan *plan, long point, int k);
+
+/* The SI value of parameter k at a point or sample. Pure: the same arguments always give the
+ * same value, whatever thread asks and in whatever order. */
+double tp_sweep_value(const tp_sweep_plan *plan, long point, int k);
+
+/* ---- random streams (counter-based: every draw is a pure function of its coordinates) ---- */
+
+/* The SplitMix64 generator (Steele, Lea & Flood, OOPSLA 2014): advance *state by the golden
+ * gamma 0x9e3779b97f4a7c15 and return the mixed value. */
+uint64_t tp_sweep_splitmix64(uint64_t *state);
+
+/* A 64-bit hash of (seed, sample, stream) built from the SplitMix64 mixer. */
+uint64_t tp_sweep_hash(uint64_t seed, uint64_t sample, uint64_t stream);
+
+/* The 52 high bits of a hash as a uniform number in (0, 1): (k + 1/2) / 2^52, k = bits >> 12,
+ * so between 2^-53 and 1 - 2^-53, never 0 or 1. */
+double tp_sweep_unit(uint64_t bits);
+
+/* Box-Muller transform (Box & Muller, Ann. Math. Statist. 29 (1958) 610): a standard normal
+ * number from two uniforms in (0, 1]: sqrt(-2 ln u1) cos(2 pi u2). */
+double tp_sweep_box_muller(double u1, double u2);
+
+/* ---- statistics ---------------------------------------------------------------------------- */
+
+/* Mean and sample standard deviation (n - 1 in the denominator; 0 for n = 1) of x[0..n-1],
+ * two-pass. NaN when n = 0. */
+void tp_sweep_mean_sd(const double *x, size_t n, double *mean, double *sd);
+
+/* The p-quantile (0 <= p <= 1) of sorted data, linear interpolation between order statistics
+ * (Hyndman & Fan, Am. Statistician 50 (1996) 361, definition 7): h = (n - 1) p,
+ * Q = x[floor h] + (h - floor h) (x[floor h + 1] - x[floor h]). NaN when n = 0. */
+double tp_sweep_quantile(const double *sorted, size_t n, double p);
+
+/* Ranks 1..n of x, ties given the mean of the ranks they span. TP_ERR_NOMEM on failure. */
+tp_status tp_sweep_ranks(const double *x, size_t n, double *rank);
+
+/* Spearman's rank correlation of x and y: Pearson's correlation of their tie-averaged ranks.
+ * NaN when n < 2 or either set has no spread (all ranks equal), or when memory runs out. */
+double tp_sweep_spearman(const double *x, const double *y, size_t n);
+
+/* ---- running ---------------------------------------------------------------------------- */
+
+/* What one point gave. */
+typedef struct tp_sweep_result {
+    int ok;                     /* 1: the metrics hold; 0: failed (reason says why) */
+    double metric[TP_MET_SWEPT]; /* SI; NaN where a metric does not exist for this point */
+    char reason[TP_SWEEP_REASON_MAX];
+} tp_sweep_result;
+
+/* Called by the waiting thread (never by a worker) about every TP_SWEEP_TICK_MS with the points
+ * finished so far and the seconds since the start; the last call has done == total. */
+typedef void (*tp_sweep_progress_fn)(void *user, long done, long total, double elapsed);
+
+#define TP_SWEEP_TICK_MS 100 /* ms between progress calls */
+
+#define TP_SWEEP_CAUTIONS_MAX 32 /* distinct caution lines kept over a run */
+
+/* Totals of a run, for reports. */
+typedef struct tp_sweep_totals {
+    long failed; /* points that failed */
+    int jobs;    /* worker threads actually started (0: ran in the calling thread) */
+    double wall; /* s of wall clock */
+    double cpu;  /* s of CPU summed over the workers */
+    /* The safety cautions over all successful points: of each caution (tp_caution_same: its
+     * kind, layer and material) the record with the worst figures (tp_caution_worse: the
+     * hottest, the highest voltage ...), the lowest point index on ties; in list order
+     * (tp_caution_compare), the closing cut-out last. Independent of the number of jobs. */
+    tp_caution cautions[TP_SWEEP_CAUTIONS_MAX];
+    int n_cautions;
+} tp_sweep_totals;
+
+/* Run every point of `plan` on `jobs` threads (at least 1). Each worker holds its own copy of
+ * `base` and builds its own network per point; the result of a point depends only on the point
+ * (never on `jobs` or on scheduling). results[] has tp_sweep_count(plan) entries. A point that
+ * fails (a value the schema refuses, assembly, steady state or integration) is marked with its
+ * reason and the run goes on. Returns TP_ERR_NOMEM when nothing could be started; per-point
+ * failures do not fail the run. */
+tp_status tp_sweep_run(const tp_sweep_plan *plan, const tp_description *base, int jobs,
+                       tp_sweep_result *results, tp_sweep_progress_fn progress, void *user,
+                       tp_sweep_totals *totals);
+
+/* The default number of workers: the online processor count (at least 1). */
+int tp_sweep_default_jobs(void);
+
+/* ---- summaries of a tolerance study ------------------------------------------------------ */
+
+typedef struct tp_sweep_summary {
+    long n;      /* successful samples with a finite value */
+    long absent; /* successful samples where the metric does not exist (e.g. not reached) */
+    double mean, sd, p5, p50, p95;
+    double worst;                    /* the worst finite value (tp_metricdef.worse) */
+    long worst_index;                /* its sample index, or -1 */
+    double rho[TP_SWEEP_MAX_PARAMS]; /* Spearman correlation with each parameter (NaN: none) */
+    int driver;                      /* the parameter with the largest |rho|, or -1 */
+} tp_sweep_summary;
+
+#define TP_SWEEP_NOISE                                                                             \
+    1e-7 /* -, a metric whose sd is below this share of its mean does not                          \
+            vary (solver noise): no rank correlation is given */
+
+/* Summarise metric `metric` over the successful samples. TP_ERR_NOMEM on failure. */
+tp_status tp_sweep_summarise(const tp_sweep_plan *plan, const tp_sweep_result *results, int metric,
+                             tp_sweep_summary *out);
+
+#endif
