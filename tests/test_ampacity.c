@@ -20,7 +20,7 @@
 
 static double amps(double area, tp_installation inst, double insulation_c, double ambient_c)
 {
-    tp_wire_conditions c = {inst, C(insulation_c), C(ambient_c)};
+    tp_ampacity_conditions c = {inst, C(insulation_c), C(ambient_c)};
     tp_ampacity a;
     tp_ampacity_lookup(area, &c, &a);
     return a.amps;
@@ -159,8 +159,8 @@ static void test_ampacity_derating_by_hand(void **state)
 
 static void test_wire_recommend_ampacity_decides(void **state)
 {
-    tp_wire_conditions c = {TP_INSTALL_CABLE, C(60), C(30)};
-    tp_wire_choice w;
+    tp_ampacity_conditions c = {TP_INSTALL_CABLE, C(60), C(30)};
+    tp_ampacity_choice w;
     (void)state;
     /* 9.83 A over 2 x 0.2 m at 24 V, 3 % (0.72 V): with 60 degC insulation the cable table
      * rates nothing under 14 AWG (15 A at 60 degC), so ampacity needs 14 AWG; its drop is
@@ -178,8 +178,8 @@ static void test_wire_recommend_ampacity_decides(void **state)
 
 static void test_wire_recommend_drop_decides(void **state)
 {
-    tp_wire_conditions c = {TP_INSTALL_CABLE, C(90), C(30)};
-    tp_wire_choice w;
+    tp_ampacity_conditions c = {TP_INSTALL_CABLE, C(90), C(30)};
+    tp_ampacity_choice w;
     (void)state;
     /* 5 A over 2 x 3 m at 12 V, 3 % (0.36 V), 90 degC insulation: 18 AWG (14 A) carries it,
      * but drops 5 x 6 / (58e6 x 0.8231e-6) = 0.628 V; 16 AWG (1.3087 mm2) 0.395 V; 14 AWG

@@ -63,7 +63,7 @@ static void series_path(FILE *fp, const tp_circuit *c)
 
 /* "18 AWG (15.1 A; ampacity decides)" or "none up to 4 AWG" for one series of a
  * recommendation. */
-static void gauge(char *buf, size_t size, const tp_gauge_pick *p, int awg)
+static void gauge(char *buf, size_t size, const tp_ampacity_pick *p, int awg)
 {
     const char *why = p->limited_by && strcmp(p->limited_by, "both") == 0
                           ? "ampacity and drop decide"
@@ -81,7 +81,7 @@ static void gauge(char *buf, size_t size, const tp_gauge_pick *p, int awg)
 static void wire_lines(FILE *fp, const tp_description *desc, const tp_budget *b)
 {
     const tp_ampacity *a = &b->ampacity;
-    const tp_wire_conditions *c = &b->wire_cond;
+    const tp_ampacity_conditions *c = &b->wire_cond;
     char awg[80], mm2[80];
     fprintf(fp, "  ampacity table: %s (%s)\n", tp_ampacity_table_name(c->installation),
             tp_ampacity_table_conditions(c->installation));
@@ -122,10 +122,12 @@ static void wire_lines(FILE *fp, const tp_description *desc, const tp_budget *b)
     else
         fprintf(fp, "  fuse for the heater circuit: none in the standard sizes for %.2f A\n",
                 b->i_cold);
-    if (isfinite(b->density))
-        fprintf(fp, "  heater power density: %.2f W/cm2 at cold start%s%s%s\n",
-                b->density * 1e-4, b->heater_type ? " (limit for a " : "",
-                b->heater_type ? b->heater_type : "", b->heater_type ? " heater: 1 W/cm2)" : "");
+    if (isfinite(b->density) && b->heater_type)
+        fprintf(fp, "  heater power density: %.2f W/cm2 at cold start (limit for a %s heater: "
+                    "%.3g W/cm2)\n",
+                b->density * 1e-4, b->heater_type, b->density_limit * 1e-4);
+    else if (isfinite(b->density))
+        fprintf(fp, "  heater power density: %.2f W/cm2 at cold start\n", b->density * 1e-4);
 }
 
 static void summary(FILE *fp, const tp_session *s, const tp_budget *b)

@@ -96,7 +96,7 @@ double tp_ampacity_correction(double column, double ambient)
     return sqrt((column - ambient) / (column - TP_AMPACITY_REF_AMBIENT));
 }
 
-void tp_ampacity_lookup(double area, const tp_wire_conditions *c, tp_ampacity *a)
+void tp_ampacity_lookup(double area, const tp_ampacity_conditions *c, tp_ampacity *a)
 {
     size_t i;
     double fit = area * (1.0 + 1e-9); /* a wire given as its own AWG reads its own row */
@@ -132,8 +132,8 @@ void tp_ampacity_lookup(double area, const tp_wire_conditions *c, tp_ampacity *a
 }
 
 /* Pick from one series (sizes as AWG numbers when `awg`, else areas in m2). */
-static void pick(const double *series, size_t n, int awg, const tp_wire_choice *w,
-                 const tp_wire_conditions *c, tp_gauge_pick *p)
+static void pick(const double *series, size_t n, int awg, const tp_ampacity_choice *w,
+                 const tp_ampacity_conditions *c, tp_ampacity_pick *p)
 {
     size_t i, by_amps = n, by_drop = n, k;
     p->size = p->area = p->ampacity = p->drop = TP_UNSET;
@@ -166,7 +166,7 @@ static void pick(const double *series, size_t n, int awg, const tp_wire_choice *
 }
 
 void tp_ampacity_wire_recommend(double amps, double length, double volts, double max_drop,
-                       const tp_wire_conditions *c, tp_wire_choice *w)
+                       const tp_ampacity_conditions *c, tp_ampacity_choice *w)
 {
     w->amps = amps;
     w->length = length;
@@ -180,7 +180,7 @@ double tp_ampacity_fuse_suggest(double amps)
 {
     size_t i;
     for (i = 0; i < N(fuse_sizes); i++)
-        if (fuse_sizes[i] >= TP_FUSE_FACTOR * amps - 1e-9)
+        if (fuse_sizes[i] >= TP_AMPACITY_FUSE_FACTOR * amps - 1e-9)
             return fuse_sizes[i];
     return 0.0;
 }

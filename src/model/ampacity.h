@@ -8,22 +8,21 @@
 #include "description.h"
 
 #define TP_AMPACITY_REF_AMBIENT 303.15 /* K, 30 degC: the ambient of NEC Table 310.16 */
-#define TP_AMPACITY_INSULATION_DEFAULT 333.15 /* K, 60 degC: NEC 110.14(C)(1)(a) sizes circuits
-                                                 of 100 A or less by the 60 degC column unless
-                                                 the equipment is marked for more (from
-                                                 memory) */
-#define TP_WIRE_DROP_DEFAULT 0.03 /* -, voltage drop in the wiring loop as a share of the supply
-                                     (common practice, no source) */
-#define TP_FUSE_FACTOR 1.25 /* -, fuse rating over the continuous current: a fuse carries its
-                               continuous load at no more than 80 % of its rating (common
-                               practice, no source) */
+/* K, 60 degC: NEC 110.14(C)(1)(a) sizes circuits of 100 A or less by the 60 degC column unless
+ * the equipment is marked for more (from memory). */
+#define TP_AMPACITY_INSULATION_DEFAULT 333.15
+/* -, voltage drop in the wiring loop as a share of the supply (common practice, no source). */
+#define TP_AMPACITY_DROP_DEFAULT 0.03
+/* -, fuse rating over the continuous current: a fuse carries its continuous load at no more
+ * than 80 % of its rating (common practice, no source). */
+#define TP_AMPACITY_FUSE_FACTOR 1.25
 
 /* Where the wires run and what they are rated for. */
-typedef struct tp_wire_conditions {
+typedef struct tp_ampacity_conditions {
     tp_installation installation; /* which table applies */
     double insulation;            /* K, the insulation's temperature rating */
     double ambient;               /* K, the air around the wires */
-} tp_wire_conditions;
+} tp_ampacity_conditions;
 
 /* One lookup. */
 typedef struct tp_ampacity {
@@ -47,33 +46,33 @@ const char *tp_ampacity_table_conditions(tp_installation installation);
 double tp_ampacity_correction(double column, double ambient);
 
 /* The ampacity of a copper conductor of cross-section `area` (m2) under `c`. */
-void tp_ampacity_lookup(double area, const tp_wire_conditions *c, tp_ampacity *a);
+void tp_ampacity_lookup(double area, const tp_ampacity_conditions *c, tp_ampacity *a);
 
 /* The smallest size of one series (AWG or metric) that meets both limits. */
-typedef struct tp_gauge_pick {
+typedef struct tp_ampacity_pick {
     double size;     /* AWG number, or the metric cross-section in m2; NaN: none in the series */
     double area;     /* m2 */
     double ampacity; /* A (tp_ampacity_lookup) */
     double drop;     /* V over the loop at the current (NaN without a length) */
     const char *limited_by; /* "ampacity", "drop" or "both": the limit that needs this size */
-} tp_gauge_pick;
+} tp_ampacity_pick;
 
-typedef struct tp_wire_choice {
+typedef struct tp_ampacity_choice {
     double amps;     /* A the wire carries continuously */
     double length;   /* m one way (the loop is twice this); NaN: the drop is not checked */
     double volts;    /* V of the supply the drop is a share of */
     double max_drop; /* -, share of `volts` */
-    tp_gauge_pick awg, metric;
-} tp_wire_choice;
+    tp_ampacity_pick awg, metric;
+} tp_ampacity_choice;
 
 /* The smallest AWG (24 to 4, even numbers) and the smallest metric size (0.25 to 16 mm2) whose
  * ampacity under `c` is at least `amps` and whose loop of 2 x `length` of copper at 20 degC
  * (IEC 60028) drops at most `max_drop` x `volts` at that current. The current is taken as
  * given: a thicker wire lowers the series resistance and raises it slightly. */
 void tp_ampacity_wire_recommend(double amps, double length, double volts, double max_drop,
-                       const tp_wire_conditions *c, tp_wire_choice *w);
+                       const tp_ampacity_conditions *c, tp_ampacity_choice *w);
 
-/* The smallest standard fuse rating at or above TP_FUSE_FACTOR x `amps`, A; 0 above the
+/* The smallest standard fuse rating at or above TP_AMPACITY_FUSE_FACTOR x `amps`, A; 0 above the
  * table. */
 double tp_ampacity_fuse_suggest(double amps);
 

@@ -55,5 +55,5 @@ double tp_heater_density_limit(const tp_description *desc, const char **type)
     if (!m || !(strstr(m->id, "silicone") || strstr(m->id, "polyimide")))
         return TP_UNSET;
     *type = m->id;
-    return TP_DENSITY_FLEX;
+    return TP_HEATER_DENSITY_FLEX;
 }

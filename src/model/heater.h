@@ -6,9 +6,9 @@
 
 #include "description.h"
 
-#define TP_DENSITY_FLEX 1.0e4 /* W/m2 (1 W/cm2): flexible silicone-rubber and polyimide heaters
-                                 above this must be fully bonded to a metal plate, or they
-                                 overheat and delaminate (common practice, no source) */
+/* W/m2 (1 W/cm2): flexible silicone-rubber and polyimide heaters above this must be fully
+ * bonded to a metal plate, or they overheat and delaminate (common practice, no source). */
+#define TP_HEATER_DENSITY_FLEX 1.0e4
 
 /* Whether the heater is given as sold: rated_power or rated_voltage is set. */
 int tp_heater_is_rated(const tp_heater *h);
@@ -28,7 +28,7 @@ double tp_heater_area(const tp_description *desc);
 
 /* The power-density limit of the heater's type, W/m2, and the type's name in *type (the
  * layer's material id): flexible heaters (silicone-rubber and polyimide layers) have
- * TP_DENSITY_FLEX; NaN (and *type NULL) when no limit is known for the type. */
+ * TP_HEATER_DENSITY_FLEX; NaN (and *type NULL) when no limit is known for the type. */
 double tp_heater_density_limit(const tp_description *desc, const char **type);
 
 #endif

@@ -73,8 +73,8 @@ static void limited_by(cJSON *obj, const char *name, const char *why)
         cJSON_AddNullToObject(obj, name);
 }
 
-void tp_json_wire(cJSON *root, const char *name, const tp_wire_choice *w,
-                  const tp_wire_conditions *c)
+void tp_json_wire(cJSON *root, const char *name, const tp_ampacity_choice *w,
+                  const tp_ampacity_conditions *c)
 {
     cJSON *o = cJSON_AddObjectToObject(root, name);
     if (!o)

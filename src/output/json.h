@@ -26,8 +26,8 @@ void tp_json_conditions(cJSON *root, const tp_network *net);
 /* A recommended wire (ampacity.h) as object `name`: `awg`, `awg_ampacity_A`,
  * `awg_limited_by`, `mm2`, `mm2_ampacity_A`, `mm2_limited_by` (null when no size in the series
  * meets both limits), `current_A`, `max_drop` (a share) and `table`. */
-void tp_json_wire(cJSON *root, const char *name, const tp_wire_choice *w,
-                  const tp_wire_conditions *c);
+void tp_json_wire(cJSON *root, const char *name, const tp_ampacity_choice *w,
+                  const tp_ampacity_conditions *c);
 
 /* Fill `array` with the words of each caution (tp_summary_caution_text), in list order: the
  * "cautions" array every verb's JSON carries. */

@@ -142,7 +142,7 @@ static void wiring_figures(const tp_description *desc, const tp_network *net,
     b->wire_cond.ambient = w->present && tp_isset(w->ambient) ? w->ambient
                            : isfinite(room)                    ? room
                                                                : TP_AMPACITY_REF_AMBIENT;
-    b->max_drop = w->present && tp_isset(w->max_drop) ? w->max_drop : TP_WIRE_DROP_DEFAULT;
+    b->max_drop = w->present && tp_isset(w->max_drop) ? w->max_drop : TP_AMPACITY_DROP_DEFAULT;
     b->ampacity.amps = b->ampacity.table_amps = TP_UNSET;
     if (w->present)
         tp_ampacity_lookup(tp_isset(w->cross_section) ? w->cross_section
@@ -194,8 +194,8 @@ static void wiring_verdicts(const tp_description *desc, const tp_net_source *s, 
         check_at(b, TP_FAIL, "fuse within the wire's ampacity",
                  !isfinite(a->amps) || b->fuse <= a->amps, b->fuse, a->amps, "A",
                  "wiring.fuse must protect the wire: no larger than its ampacity");
-        check(b, "fuse above the running current", b->fuse >= TP_FUSE_FACTOR * b->i_cold, b->fuse,
-              TP_FUSE_FACTOR * b->i_cold, "A",
+        check(b, "fuse above the running current", b->fuse >= TP_AMPACITY_FUSE_FACTOR * b->i_cold,
+              b->fuse, TP_AMPACITY_FUSE_FACTOR * b->i_cold, "A",
               "at least 1.25 x the cold-start current, or it may open on a long warm-up "
               "(common practice, no source)");
     } else if (isfinite(a->amps)) {

@@ -55,14 +55,14 @@ typedef struct tp_budget {
                             0: no standard fuse fits between the current and the ampacity) */
     int fuse_fitted;     /* the fuse is wiring.fuse, not a suggestion */
     int fuse_below_rule; /* the suggestion is under 1.25 x the current (tp_ampacity_fuse_within) */
-    tp_wire_conditions wire_cond; /* the ampacity table and its conditions */
-    tp_ampacity ampacity;         /* the configured wire's (NaN amps without wiring:) */
-    double max_drop;              /* -, the drop limit (wiring.max_drop or TP_WIRE_DROP_DEFAULT) */
-    tp_wire_choice wire;    /* the smallest wire for i_cold (the drop unchecked without wiring:) */
+    tp_ampacity_conditions wire_cond; /* the ampacity table and its conditions */
+    tp_ampacity ampacity;             /* the configured wire's (NaN amps without wiring:) */
+    double max_drop;         /* -, the drop limit (wiring.max_drop or TP_AMPACITY_DROP_DEFAULT) */
+    tp_ampacity_choice wire; /* the smallest wire for i_cold (the drop unchecked without wiring:) */
     double density, density_limit; /* W/m2: cold-start power over the heater's area, and its
                                       type's limit (NaN: unknown, raw form) */
-    const char *heater_type; /* the type the limit is for (NULL: no limit known) */
-    double input_power_hold; /* W drawn from the mains by the supply at the running point */
+    const char *heater_type;       /* the type the limit is for (NULL: no limit known) */
+    double input_power_hold;       /* W drawn from the mains by the supply at the running point */
     int holding;            /* the running point is a holding point (else full power) */
     int out_of_reach;       /* a setpoint the heater cannot hold: the running point is full
                                power, and a check says WARN */
