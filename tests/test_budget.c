@@ -10,6 +10,8 @@
 
 #include <cjson/cJSON.h>
 
+#include <math.h>
+
 #include "budget.h"
 #include "tp_test.h"
 
@@ -166,16 +168,6 @@ static void test_copper_wire_resistance(void **state)
     tp_check_rel("drop", 10.0 * tp_circuit_copper_resistance(1.5e-6, 2.0, 293.15), 0.22989, 1e-4);
 }
 
-static void test_fuse_rule(void **state)
-{
-    (void)state;
-    /* 1.25 x 9.83 A = 12.29 A: the next standard size is 12.5 A; 1.25 x 8 A = 10 A exactly
-     * (common practice, no source: the 125 % continuous-load rule). */
-    assert_true(tp_budget_fuse_suggest(9.83) == 12.5);
-    assert_true(tp_budget_fuse_suggest(8.0) == 10.0);
-    assert_true(tp_budget_fuse_suggest(1000.0) == 0.0);
-}
-
 /* ---- budget ------------------------------------------------------------------------------- */
 
 #define BUDGET_BED \
@@ -191,7 +183,8 @@ static void test_fuse_rule(void **state)
     "supply: {voltage: 24 V, current: %s, output_resistance: 0.02 ohm}\n" \
     "loads:\n" \
     "  - {id: motors, current: 2 A}\n" \
-    "wiring: {cross_section: 1.5 mm2, length: 1 m, switch_resistance: 0.01 ohm}\n"
+    "wiring: {cross_section: 1.5 mm2, length: 1 m, switch_resistance: 0.01 ohm," \
+    " insulation_rating: 90 degC}\n"
 
 static void test_cold_start_current_with_tempco(void **state)
 {
@@ -217,25 +210,153 @@ static void test_cold_start_current_with_tempco(void **state)
     cJSON_Delete(root);
 }
 
-static void test_budget_over_rating_warns_and_strict_exits_3(void **state)
+/* The verdict of the check named `name` in a budget JSON ("" when absent). */
+static const char *verdict_of(const cJSON *root, const char *name)
+{
+    const cJSON *c;
+    cJSON_ArrayForEach(c, cJSON_GetObjectItemCaseSensitive(root, "checks"))
+    {
+        if (strcmp(cJSON_GetObjectItemCaseSensitive(c, "check")->valuestring, name) == 0)
+            return cJSON_GetObjectItemCaseSensitive(c, "verdict")->valuestring;
+    }
+    return "";
+}
+
+static void test_budget_over_rating_fails_and_strict_exits_3(void **state)
 {
     char cfg[2048];
     cJSON *root;
-    const cJSON *c;
-    int warned = 0;
     (void)state;
-    /* 8 A of rating against about 12 A at cold start: the supply check must say WARN, and
-     * --strict turns that into exit status 3 (docs/user-guide.md, exit status). */
+    /* 8 A of rating against about 12 A at cold start: the supply is over its rating, FAIL
+     * (issue 17), and --strict turns that into exit status 3 (docs/user-guide.md, exit
+     * status). */
     snprintf(cfg, sizeof cfg, BUDGET_BED, "8 A");
     root = run_json("budget", cfg, NULL, 0);
-    cJSON_ArrayForEach(c, cJSON_GetObjectItemCaseSensitive(root, "checks"))
-    {
-        if (strcmp(cJSON_GetObjectItemCaseSensitive(c, "check")->valuestring,
-                   "supply at cold start") == 0)
-            warned = strcmp(cJSON_GetObjectItemCaseSensitive(c, "verdict")->valuestring,
-                            "WARN") == 0;
-    }
-    assert_true(warned);
+    assert_string_equal(verdict_of(root, "supply at cold start"), "FAIL");
+    assert_string_equal(verdict_of(root, "supply while holding (peak)"), "FAIL");
+    assert_true(num(root, "failures") >= 2.0);
+    cJSON_Delete(root);
+    root = run_json("budget", cfg, "--strict", 3);
+    cJSON_Delete(root);
+}
+
+/* BUDGET_BED's plate with a 20 A supply and the wiring line `wiring`. */
+#define WIRED_BED(wiring) \
+    "room: {temperature: 15 degC}\n" \
+    "bed:\n" \
+    "  size: [200 mm, 200 mm]\n" \
+    "  layers:\n" \
+    "    - {id: plate, material: aluminium-6061, thickness: 5 mm}\n" \
+    "heater: {layer: plate, supply: 24 V, resistance: 2.4 ohm, tempco: 0.00393 1/K," \
+    " reference: 20 degC}\n" \
+    "sensor: {layer: plate, coupling: 0.05 W/K, capacity: 0.2 J/K}\n" \
+    "control: {mode: on-off, setpoint: 70 degC, band: 2 K}\n" \
+    "supply: {voltage: 24 V, current: 20 A, output_resistance: 0.02 ohm}\n" \
+    "wiring: " wiring "\n"
+
+static void test_budget_wire_over_ampacity_fails(void **state)
+{
+    cJSON *root, *wire;
+    double r_wire, i_cold, ampacity;
+    (void)state;
+    /* 18 AWG with 90 degC insulation in 80 degC air (the wires run past the plate): NEC Table
+     * 310.16 gives 14 A (90 degC column), NEC 310.15(B) corrects it by sqrt((90 - 80) / (90 -
+     * 30)): 5.7155 A (hand calculation). The heater draws about 9.9 A: FAIL; no standard fuse
+     * fits between 9.9 A and 5.7 A: FAIL too, and no fuse is suggested. */
+    root = run_json("budget",
+                    WIRED_BED("{awg: 18, length: 1 m, insulation_rating: 90 degC, "
+                              "ambient: 80 degC}"), NULL, 0);
+    ampacity = 14.0 * sqrt(10.0 / 60.0);
+    r_wire = 2.0 / 58e6 / tp_circuit_awg_area(18);
+    i_cold = 24.0 / (2.4 * (1.0 + 0.00393 * (15.0 - 20.0)) + 0.02 + r_wire);
+    tp_check_rel("wire ampacity", num(root, "wire_ampacity_A"), ampacity, 1e-12);
+    tp_check_rel("table value", num(root, "wire_table_A"), 14.0, 1e-12);
+    tp_check_rel("cold current", num(root, "cold_current_A"), i_cold, 1e-12);
+    assert_string_equal(verdict_of(root, "wire within its ampacity"), "FAIL");
+    assert_string_equal(verdict_of(root, "fuse within the wire's ampacity"), "FAIL");
+    assert_true(cJSON_IsNull(cJSON_GetObjectItemCaseSensitive(root, "fuse_A")));
+    assert_true(num(root, "failures") == 2.0);
+    /* The smallest wire for 9.9 A at 80 degC: 14 AWG (25 x sqrt(1/6) = 10.2 A) carries it;
+     * 16 AWG (18 x sqrt(1/6) = 7.3 A) does not (hand calculation): ampacity decides. */
+    wire = cJSON_GetObjectItemCaseSensitive(root, "wire");
+    tp_check_rel("recommended AWG", num(wire, "awg"), 14.0, 1e-12);
+    assert_string_equal(cJSON_GetObjectItemCaseSensitive(wire, "awg_limited_by")->valuestring,
+                        "ampacity");
+    cJSON_Delete(root);
+    root = run_json("budget",
+                    WIRED_BED("{awg: 18, length: 1 m, insulation_rating: 90 degC, "
+                              "ambient: 80 degC}"), "--strict", 3);
+    cJSON_Delete(root);
+}
+
+static void test_budget_fitted_fuse_above_ampacity_fails(void **state)
+{
+    cJSON *root;
+    (void)state;
+    /* 1.5 mm2, read at 16 AWG: 18 A at 90 degC, x sqrt(75 / 60) in the 15 degC room = 20.125 A
+     * (NEC Table 310.16 and 310.15(B), hand calculation). A fitted 25 A fuse would let the wire
+     * overheat: FAIL. A fitted 10 A fuse is within it but under 1.25 x 9.98 A: WARN. */
+    root = run_json("budget",
+                    WIRED_BED("{cross_section: 1.5 mm2, length: 1 m, insulation_rating: 90 degC, "
+                              "fuse: 25 A}"), NULL, 0);
+    tp_check_rel("wire ampacity", num(root, "wire_ampacity_A"), 18.0 * sqrt(75.0 / 60.0), 1e-12);
+    assert_string_equal(verdict_of(root, "fuse within the wire's ampacity"), "FAIL");
+    assert_string_equal(verdict_of(root, "fuse above the running current"), "PASS");
+    cJSON_Delete(root);
+    root = run_json("budget",
+                    WIRED_BED("{cross_section: 1.5 mm2, length: 1 m, insulation_rating: 90 degC, "
+                              "fuse: 10 A}"), NULL, 0);
+    assert_string_equal(verdict_of(root, "fuse within the wire's ampacity"), "PASS");
+    assert_string_equal(verdict_of(root, "fuse above the running current"), "WARN");
+    assert_true(num(root, "failures") == 0.0);
+    cJSON_Delete(root);
+}
+
+static void test_budget_fuse_suggestion_stays_within_ampacity(void **state)
+{
+    cJSON *root;
+    double i_cold;
+    (void)state;
+    /* 18 AWG at 50 degC: 14 sqrt(40 / 60) = 11.43 A (NEC Table 310.16 and 310.15(B), hand
+     * calculation). The heater draws 24 / (2.35284 + 0.02 + 0.041894) = 9.898 A; the 125 % rule
+     * asks 12.5 A, above the wire's 11.43 A, so the suggestion is the largest standard size
+     * between them, 10 A, flagged under the rule: WARN, not FAIL. */
+    root = run_json("budget",
+                    WIRED_BED("{awg: 18, length: 1 m, insulation_rating: 90 degC, "
+                              "ambient: 50 degC}"),
+                    NULL, 0);
+    i_cold = 24.0 /
+             (2.4 * (1.0 + 0.00393 * (15.0 - 20.0)) + 0.02 + 2.0 / 58e6 / tp_circuit_awg_area(18));
+    tp_check_rel("cold current", num(root, "cold_current_A"), i_cold, 1e-12);
+    tp_check_rel("wire ampacity", num(root, "wire_ampacity_A"), 14.0 * sqrt(40.0 / 60.0), 1e-12);
+    tp_check_rel("fuse", num(root, "fuse_A"), 10.0, 1e-12);
+    assert_true(cJSON_IsTrue(cJSON_GetObjectItemCaseSensitive(root, "fuse_below_rule")));
+    assert_true(num(root, "fuse_A") <= num(root, "wire_ampacity_A"));
+    assert_string_equal(verdict_of(root, "wire within its ampacity"), "PASS");
+    assert_string_equal(verdict_of(root, "fuse within the wire's ampacity"), "WARN");
+    cJSON_Delete(root);
+}
+
+static void test_budget_power_density_over_limit_fails(void **state)
+{
+    static const char *cfg =
+        "room: {temperature: 20 degC}\n"
+        "bed:\n"
+        "  size: [100 mm, 100 mm]\n"
+        "  layers:\n"
+        "    - {id: pad, material: silicone-rubber, thickness: 1.5 mm}\n"
+        "    - {id: plate, material: aluminium-6061, thickness: 4 mm}\n"
+        "heater: {layer: pad, supply: 24 V, resistance: 2.4 ohm}\n"
+        "sensor: {layer: plate, coupling: 0.05 W/K, capacity: 0.2 J/K}\n"
+        "control: {mode: on-off, setpoint: 60 degC, band: 2 K}\n";
+    cJSON *root;
+    (void)state;
+    /* 24^2 / 2.4 = 240 W on a 10 x 10 cm silicone pad: 2.4 W/cm2 (hand calculation), above the
+     * 1 W/cm2 the cautions give flexible heaters (common practice, no source): FAIL. */
+    root = run_json("budget", cfg, NULL, 0);
+    tp_check_rel("power density", num(root, "power_density_W_per_cm2"), 2.4, 1e-12);
+    tp_check_rel("its limit", num(root, "power_density_limit_W_per_cm2"), 1.0, 1e-12);
+    assert_string_equal(verdict_of(root, "heater power density"), "FAIL");
     cJSON_Delete(root);
     root = run_json("budget", cfg, "--strict", 3);
     cJSON_Delete(root);
@@ -395,6 +516,23 @@ static void test_budget_agrees_with_warmup_and_steady(void **state)
                  1e-12);
     cJSON_Delete(b);
     check_budget_agrees(path, "24 V copper track with a series path");
+    /* The same heater bought as "24 V, 240 W" (24^2 / 240 = 2.4 ohm at its 25 degC reference),
+     * run on a sagging 23 V supply: warmup, steady and budget draw the same currents. */
+    tp_scratch_write(tp_group_scratch(), "agree-rated.yaml",
+                     AGREE_BED("{layer: plate, rated_power: 240 W, rated_voltage: 24 V, "
+                               "supply: 23 V, tempco: 0.00393 1/K, reference: 25 degC, "
+                               "supply_resistance: 0.05 ohm}",
+                               "wiring: {cross_section: 1.5 mm2, length: 1 m, "
+                               "switch_resistance: 0.01 ohm}\n"), path);
+    b = run_file_json("budget", path, NULL);
+    /* Hand calculation: R = 2.4 (1 + 0.00393 (20 - 25)) = 2.352840 ohm; series 0.05 +
+     * 0.0229885 + 0.01 = 0.0829885 ohm; I = 23 / 2.4358285 = 9.442369 A. */
+    r_series = 0.05 + 2.0 / 58.0 / 1.5 + 0.01;
+    i_cold = 23.0 / (r_cold + r_series);
+    tp_check_rel("rated heater cold current", num(b, "cold_current_A"), i_cold, 1e-12);
+    tp_check_rel("rated heater cold resistance", num(b, "heater_cold_ohm"), r_cold, 1e-12);
+    cJSON_Delete(b);
+    check_budget_agrees(path, "rated 240 W at 24 V on 23 V with a series path");
     for (i = 0; i < sizeof demos / sizeof demos[0]; i++) {
         snprintf(path, sizeof path, "%s/configs/%s", TP_SOURCE_DIR, demos[i]);
         check_budget_agrees(path, demos[i]);
@@ -461,6 +599,62 @@ static void test_summaries_state_room_and_heater(void **state)
         tp_run_clear(&res);
         cJSON_Delete(root);
     }
+}
+
+static void test_rated_heater_resistance_and_header(void **state)
+{
+    static const char *const verbs[] = {"steady", "warmup", "budget"};
+    char path[TP_TEST_PATH];
+    size_t i;
+    (void)state;
+    /* A heater sold as "24 V, 240 W" has R = V^2 / P = 576 / 240 = 2.4 ohm at its reference
+     * temperature (Ohm's law, hand calculation). Without a tempco, on a 23.4 V supply it draws
+     * 23.4 / 2.4 = 9.75 A and 23.4^2 / 2.4 = 228.15 W. Every summary states it as rated and as
+     * it runs (the line README.md quotes), and every JSON the rated figures. */
+    tp_scratch_write(tp_group_scratch(), "rated.yaml",
+                     AGREE_BED("{layer: plate, rated_power: 240 W, rated_voltage: 24 V, "
+                               "supply: 23.4 V}",
+                               "run: {duration: 1 min, step: 1 s}\n"), path);
+    for (i = 0; i < sizeof verbs / sizeof verbs[0]; i++) {
+        tp_run_result res;
+        cJSON *root = run_text_and_json(verbs[i], path, NULL, &res);
+        tp_check_contains(verbs[i], res.out, "room 20.0 degC; heater 240.0 W at 24.0 V rated; "
+                                             "23.4 V across 2.400 ohm: 9.75 A, 228.2 W full on "
+                                             "from cold");
+        tp_check_rel("heater_power_W", num(root, "heater_power_W"), 23.4 * 23.4 / 2.4, 1e-12);
+        tp_check_rel("heater_current_A", num(root, "heater_current_A"), 9.75, 1e-12);
+        tp_check_rel("heater_rated_power_W", num(root, "heater_rated_power_W"), 240.0, 1e-12);
+        tp_check_rel("heater_rated_voltage_V", num(root, "heater_rated_voltage_V"), 24.0, 1e-12);
+        if (strcmp(verbs[i], "budget") == 0)
+            tp_check_rel("resistance", num(root, "heater_cold_ohm"), 2.4, 1e-12);
+        tp_run_clear(&res);
+        cJSON_Delete(root);
+    }
+}
+
+static void test_rated_heater_with_tempco_and_set(void **state)
+{
+    char path[TP_TEST_PATH];
+    cJSON *b;
+    (void)state;
+    /* Rated 100 W at 12 V: R0 = 144 / 100 = 1.44 ohm at its 25 degC reference; cold in the 20
+     * degC room R = 1.44 (1 + 0.00393 (20 - 25)) = 1.4117040 ohm; without heater.supply it runs
+     * on its rated 12 V: I = 12 / 1.411704 = 8.500366 A (hand calculation). */
+    tp_scratch_write(tp_group_scratch(), "rated12.yaml",
+                     AGREE_BED("{layer: plate, rated_power: 100 W, rated_voltage: 12 V, "
+                               "tempco: 0.00393 1/K, reference: 25 degC}", ""), path);
+    b = run_file_json("budget", path, NULL);
+    tp_check_rel("cold resistance", num(b, "heater_cold_ohm"), 1.44 * (1 - 0.00393 * 5), 1e-12);
+    tp_check_rel("cold current", num(b, "cold_current_A"), 12.0 / (1.44 * (1 - 0.00393 * 5)),
+                 1e-12);
+    tp_check_rel("supply", num(b, "supply_V"), 12.0, 1e-12);
+    cJSON_Delete(b);
+    /* --set heater.rated_power=80W: R0 = 144 / 80 = 1.8 ohm. */
+    b = run_file_json("budget", path, "heater.rated_power=80W");
+    tp_check_rel("cold resistance after --set", num(b, "heater_cold_ohm"),
+                 1.8 * (1 - 0.00393 * 5), 1e-12);
+    tp_check_rel("rated power after --set", num(b, "heater_rated_power_W"), 80.0, 1e-12);
+    cJSON_Delete(b);
 }
 
 /* ---- consistency: steady against a long warm-up -------------------------------------------- */
@@ -548,13 +742,18 @@ int main(void)
         cmocka_unit_test(test_holding_power_by_hand),
         cmocka_unit_test(test_room_option_changes_the_room),
         cmocka_unit_test(test_copper_wire_resistance),
-        cmocka_unit_test(test_fuse_rule),
         cmocka_unit_test(test_cold_start_current_with_tempco),
-        cmocka_unit_test(test_budget_over_rating_warns_and_strict_exits_3),
+        cmocka_unit_test(test_budget_over_rating_fails_and_strict_exits_3),
+        cmocka_unit_test(test_budget_wire_over_ampacity_fails),
+        cmocka_unit_test(test_budget_fitted_fuse_above_ampacity_fails),
+        cmocka_unit_test(test_budget_fuse_suggestion_stays_within_ampacity),
+        cmocka_unit_test(test_budget_power_density_over_limit_fails),
         cmocka_unit_test(test_budget_setpoint_out_of_reach_warns),
         cmocka_unit_test(test_budget_uses_heater_supply_resistance),
         cmocka_unit_test(test_budget_agrees_with_warmup_and_steady),
         cmocka_unit_test(test_summaries_state_room_and_heater),
+        cmocka_unit_test(test_rated_heater_resistance_and_header),
+        cmocka_unit_test(test_rated_heater_with_tempco_and_set),
         cmocka_unit_test(test_holding_power_matches_long_onoff_warmup),
     };
     return cmocka_run_group_tests(tests, tp_scratch_group_setup, tp_scratch_group_teardown);

@@ -3,6 +3,7 @@
  * rules a sweep uses, and the sentences that quote the figures. */
 #include "tp_test.h"
 
+#include "budget.h"
 #include "caution.h"
 #include "summary.h"
 
@@ -96,9 +97,71 @@ static void test_caution_words(void **state)
                               "80 degC and reaches 94 degC here.");
     c.kind = TP_CAUTION_POWER_DENSITY;
     c.value[0] = 1.5e4; /* W/m2 = 1.50 W/cm2 */
+    c.value[1] = 1.0e4; /* W/m2: the record's limit, quoted */
     snprintf(c.material, sizeof c.material, "silicone-rubber");
     tp_summary_caution_text(&c, text, sizeof text);
     tp_check_contains("density", text, "Heater power density 1.50 W/cm2 in a silicone-rubber");
+    tp_check_contains("density", text, "above about 1 W/cm2 a flexible heater");
+}
+
+/* A 10 x 10 cm silicone-rubber pad heated by `heater` in a 15 degC room. */
+static void open_pad(tp_yaml_net *y, const char *heater)
+{
+    char text[1024];
+    int n = snprintf(text, sizeof text,
+                     "room: {temperature: 15 degC}\n"
+                     "bed:\n"
+                     "  size: [100 mm, 100 mm]\n"
+                     "  layers:\n"
+                     "    - {id: pad, material: silicone-rubber, thickness: 1.5 mm}\n"
+                     "    - {id: plate, material: aluminium-6061, thickness: 4 mm}\n"
+                     "heater: {layer: pad, %s}\n"
+                     "sensor: {layer: plate, coupling: 0.05 W/K, capacity: 0.2 J/K}\n"
+                     "control: {mode: on-off, setpoint: 60 degC, band: 2 K}\n",
+                     heater);
+    assert_true(n > 0 && (size_t)n < sizeof text);
+    if (tp_yaml_net_open(y, text) != TP_OK)
+        print_error("%s", y->diag.log);
+    assert_non_null(y->net);
+}
+
+/* The density caution quotes the heater's power full on from cold, the figure every header
+ * states and `budget` checks against the same limit, so the two agree. */
+static void test_caution_power_density_is_the_cold_start_power(void **state)
+{
+    static const char *heaters[] = {
+        /* 2.4 ohm x (1 + 0.0039 x (15 - 20)) = 2.3532 ohm cold, with 0.1 ohm in series:
+         * I = 24 / 2.4532 = 9.78314 A, P = I^2 x 2.3532 = 225.224 W over 0.01 m2 = 2.25224
+         * W/cm2 (hand calculation); supply^2 / resistance would say 2.40. */
+        "supply: 24 V, resistance: 2.4 ohm, tempco: 0.0039 1/K, reference: 20 degC, "
+        "supply_resistance: 0.1 ohm",
+        /* Sold as 240 W at 24 V, no tempco: 240 W over 0.01 m2 = 2.4 W/cm2 (closed form). */
+        "rated_power: 240 W, rated_voltage: 24 V",
+    };
+    static const double expected[] = {2.2522438572829e4, 2.4e4}; /* W/m2 */
+    size_t k;
+    (void)state;
+    for (k = 0; k < sizeof heaters / sizeof heaters[0]; k++) {
+        tp_yaml_net y;
+        tp_caution_exposure ex = TP_CAUTION_UNSEEN;
+        tp_caution list[TP_CAUTIONS_MAX];
+        tp_budget b;
+        int i, n, found = -1;
+        open_pad(&y, heaters[k]);
+        n = tp_caution_list(&y.desc, y.net, &ex, list);
+        for (i = 0; i < n; i++)
+            if (list[i].kind == TP_CAUTION_POWER_DENSITY)
+                found = i;
+        assert_true(found >= 0);
+        tp_check_rel("density", list[found].value[0], expected[k], 1e-9);
+        /* 1 W/cm2 for flexible heaters (common practice, no source; heater.h). */
+        tp_check_rel("limit", list[found].value[1], 1.0e4, 1e-12);
+        assert_string_equal(list[found].material, "silicone-rubber");
+        assert_int_equal(tp_budget_compute(&y.desc, y.net, &b, &y.diag), TP_OK);
+        tp_check_rel("budget's density", b.density, list[found].value[0], 1e-12);
+        tp_check_rel("budget's limit", b.density_limit, list[found].value[1], 1e-12);
+        tp_yaml_net_close(&y);
+    }
 }
 
 /* What a sweep aggregates by: the same caution is the same kind, layer and material whatever
@@ -140,6 +203,7 @@ int main(void)
         cmocka_unit_test(test_caution_thresholds_and_figures),
         cmocka_unit_test(test_caution_mains_supply),
         cmocka_unit_test(test_caution_words),
+        cmocka_unit_test(test_caution_power_density_is_the_cold_start_power),
         cmocka_unit_test(test_caution_same_worse_and_order),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);

@@ -74,10 +74,12 @@ check "tepid warmup F --csv=<TAB> lists files" "$(cd configs && printf 'configs/
     warmup "$demo" --csv=configs/
 
 # Key paths after --set: the heater keys of docs/user-guide.md's key table (layer, power,
-# supply, resistance, tempco, reference, max_duty, supply_resistance) and heater.pattern's
+# supply, resistance, tempco, reference, max_duty, supply_resistance, rated_power,
+# rated_voltage) and heater.pattern's
 # border and border_share (docs/grid.md), each followed by '=' for the value.
 heater="heater.layer= heater.max_duty= heater.pattern.border= heater.pattern.border_share="
-heater+=" heater.power= heater.reference= heater.resistance= heater.supply="
+heater+=" heater.power= heater.rated_power= heater.rated_voltage= heater.reference="
+heater+=" heater.resistance= heater.supply="
 heater+=" heater.supply_resistance= heater.tempco="
 check "tepid warmup F --set heater.<TAB>" "$heater" warmup "$demo" --set heater.
 check "tepid warmup --set heater.<TAB> without a file" "$heater" warmup --set heater.

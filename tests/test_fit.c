@@ -349,6 +349,38 @@ static void test_fit_two_parameters_recovered(void **state)
     tp_templog_clear(&lg);
 }
 
+/* The plate with its heater given as sold ("24 V, 150 W"): --free accepts heater.rated_power.
+ * On its rated 24 V without tempco or series path the element delivers exactly its rated power
+ * (R = V^2 / P, Ohm's law), so a log made with 120 W must give back 120 W. */
+static const char *plate_rated_yaml =
+    "title: test plate\n"
+    "room: {temperature: 20 degC}\n"
+    "bed:\n"
+    "  size: [200 mm, 200 mm]\n"
+    "  layers:\n"
+    "    - {id: pad, material: silicone-rubber, thickness: 1.5 mm}\n"
+    "    - {id: plate, material: aluminium-6061, thickness: 3 mm, contact: 3000 W/(m2.K)}\n"
+    "  top: {emissivity: 0.9}\n"
+    "heater: {layer: pad, rated_power: 150 W, rated_voltage: 24 V}\n"
+    "sensor: {layer: plate, coupling: 0.02 W/K, time_constant: 6 s}\n"
+    "control: {mode: pid, setpoint: 80 degC, period: 1 s, kp: 0.08 1/K, ki: 0.001 1/(K.s),"
+    " kd: 0.2 s/K}\n"
+    "run: {duration: 12 min, step: 2 s}\n";
+
+static void test_fit_rated_power_recovered(void **state)
+{
+    static const char *const truth_rated[] = {"heater.rated_power=120 W"};
+    tp_templog lg;
+    fitting f;
+    (void)state;
+    synth(plate_rated_yaml, truth_rated, 1, 0.2, 21, 1, &lg);
+    assert_int_equal(fit(&f, plate_rated_yaml, "heater.rated_power", &lg, 3), TP_OK);
+    assert_within_se(&f.params[0], 120.0, 3.0);
+    tp_check_rel("rated power", f.params[0].value, 120.0, 0.02);
+    fit_clear(&f);
+    tp_templog_clear(&lg);
+}
+
 static void test_fit_three_parameters_recovered(void **state)
 {
     tp_templog lg;
@@ -714,6 +746,7 @@ int main(void)
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_fit_first_order_against_closed_form),
         cmocka_unit_test(test_fit_two_parameters_recovered),
+        cmocka_unit_test(test_fit_rated_power_recovered),
         cmocka_unit_test(test_fit_three_parameters_recovered),
         cmocka_unit_test(test_fit_standard_errors_match_scatter),
         cmocka_unit_test(test_fit_duty_log_drives_open_loop),

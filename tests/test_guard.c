@@ -372,6 +372,44 @@ static void test_guard_without_ranges_uses_stated_defaults(void **state)
     tp_scratch_destroy(&sc);
 }
 
+/* A heater given as sold: the resistance corners replace its rating (a corner given both a
+ * resistance and a rating would be refused as an input error). The 230 V hotplate rated 600 W
+ * at 230 V has R0 = 230^2 / 600 = 88.1667 ohm; +-5 % gives 83.76 to 92.58 ohm (hand
+ * calculation). */
+static void test_guard_runs_on_a_rated_heater(void **state)
+{
+    tp_scratch sc;
+    tp_run_result r;
+    char path[TP_TEST_PATH], *text, *at;
+    (void)state;
+    tp_scratch_create(&sc);
+    text = tp_read_file(TP_SOURCE_DIR "/configs/lab-hotplate-230v.yaml");
+    assert_non_null(text);
+    at = strstr(text, "resistance: 88 ohm");
+    assert_non_null(at);
+    {
+        char *cfg = malloc(strlen(text) + 64);
+        assert_non_null(cfg);
+        memcpy(cfg, text, (size_t)(at - text));
+        strcpy(cfg + (at - text), "rated_power: 600 W, rated_voltage: 230 V");
+        strcat(cfg, at + strlen("resistance: 88 ohm"));
+        tp_scratch_write(&sc, "rated.yaml", cfg, path);
+        free(cfg);
+    }
+    free(text);
+    {
+        const char *args[] = {"guard", path, NULL};
+        tp_run_tepid(&sc, args, &r);
+    }
+    if (r.status != 0)
+        print_error("stderr: %s\n", r.err);
+    assert_int_equal(r.status, 0);
+    tp_check_contains("summary", r.out, "heater 600.0 W at 230.0 V rated;");
+    tp_check_contains("summary", r.out, "heater resistance 83.76 to 92.58 ohm (+-5 %, default)");
+    tp_run_clear(&r);
+    tp_scratch_destroy(&sc);
+}
+
 /* ---- gridded plates ------------------------------------------------------------------------- */
 
 static void test_guard_runs_on_a_gridded_plate(void **state)
@@ -558,6 +596,7 @@ int main(void)
         cmocka_unit_test(test_detached_sensor_caught_before_the_limit),
         cmocka_unit_test(test_healthy_corners_never_trip_recommended_settings),
         cmocka_unit_test(test_guard_without_ranges_uses_stated_defaults),
+        cmocka_unit_test(test_guard_runs_on_a_rated_heater),
         cmocka_unit_test(test_guard_runs_on_a_gridded_plate),
         cmocka_unit_test(test_a_cold_sheet_dips_a_gridded_plate),
     };

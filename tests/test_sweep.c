@@ -1023,6 +1023,56 @@ static void test_cli_unreached_point_shows_dash(void **state)
     tp_run_clear(&r);
 }
 
+/* A heater given as sold (heater.rated_power, rated_voltage): --vary and --spread accept its
+ * rated power. On 20 V a heater rated P at 24 V draws P (20 / 24)^2 and P 20 / 24^2 A (its
+ * resistance is 24^2 / P; Ohm's law, hand calculation): the peak power and current of every
+ * point follow its rated power. */
+static void test_cli_rated_power_varies_and_spreads(void **state)
+{
+    static const char *cfg =
+        "room: {temperature: 20 degC}\n"
+        "bed:\n"
+        "  size: [150 mm, 150 mm]\n"
+        "  layers:\n"
+        "    - {id: plate, material: aluminium-6061, thickness: 4 mm}\n"
+        "heater: {layer: plate, rated_power: 120 W, rated_voltage: 24 V, supply: 20 V}\n"
+        "sensor: {layer: plate, coupling: 0.05 W/K, capacity: 0.2 J/K}\n"
+        "control: {mode: on-off, setpoint: 60 degC, band: 2 K}\n"
+        "run: {duration: 10 min, step: 1 s}\n";
+    char path[TP_TEST_PATH], json[TP_TEST_PATH];
+    const char *grid[] = {"sweep", path, "-q", "--vary", "heater.rated_power=60W,150W",
+                          "--json", json, NULL};
+    const char *spread[] = {"sweep", path, "-q", "--spread", "heater.rated_power=normal:10%",
+                            "--samples", "6", "--json", json, NULL};
+    const char *const *runs[] = {grid, spread};
+    size_t k;
+    (void)state;
+    tp_scratch_write(tp_group_scratch(), "rated.yaml", cfg, path);
+    tp_scratch_path(tp_group_scratch(), "rated.json", json, sizeof json);
+    for (k = 0; k < 2; k++) {
+        cJSON *root, *pt;
+        int n = 0;
+        assert_int_equal(tp_run_status(tp_group_scratch(), runs[k]), 0);
+        root = tp_read_json(json);
+        cJSON_ArrayForEach(pt, cJSON_GetObjectItemCaseSensitive(root, "points"))
+        {
+            const cJSON *m = cJSON_GetObjectItemCaseSensitive(pt, "metrics");
+            double p = cJSON_GetObjectItemCaseSensitive(
+                           cJSON_GetObjectItemCaseSensitive(pt, "parameters"),
+                           "heater.rated_power")->valuedouble;
+            tp_check_rel("peak power",
+                         cJSON_GetObjectItemCaseSensitive(m, "power_peak_W")->valuedouble,
+                         p * (20.0 / 24.0) * (20.0 / 24.0), 1e-9);
+            tp_check_rel("peak current",
+                         cJSON_GetObjectItemCaseSensitive(m, "current_peak_A")->valuedouble,
+                         p * 20.0 / 576.0, 1e-9);
+            n++;
+        }
+        assert_int_equal(n, k == 0 ? 2 : 6);
+        cJSON_Delete(root);
+    }
+}
+
 static void test_cli_readme_commands(void **state)
 {
     /* The two sweep commands of README.md, on the 24 V demo, succeed. */
@@ -1071,6 +1121,7 @@ int main(void)
         cmocka_unit_test(test_cli_figures),
         cmocka_unit_test(test_cli_text_in_user_units),
         cmocka_unit_test(test_cli_unreached_point_shows_dash),
+        cmocka_unit_test(test_cli_rated_power_varies_and_spreads),
         cmocka_unit_test(test_cli_readme_commands),
     };
     return cmocka_run_group_tests(tests, tp_scratch_group_setup, tp_scratch_group_teardown);

@@ -1,5 +1,6 @@
-/* tepid budget: currents, supply headroom, wiring and switch losses, a fuse suggestion and
- * PASS/WARN verdicts; --strict exits 3 on any WARN. */
+/* tepid budget: currents, supply headroom, wiring and switch losses, the wire's ampacity, the
+ * smallest wire, a fuse within its ampacity and PASS/WARN/FAIL verdicts; --strict exits 3 on
+ * any WARN or FAIL. */
 #include <math.h>
 #include <stdio.h>
 #include <string.h>
@@ -14,7 +15,7 @@
 
 static const tp_opt budget_opts[] = {
     {"json", 0, 1, 0, TP_OUT_FILE, "FILE", "write every figure and verdict as JSON"},
-    {"strict", 0, 0, 0, 0, NULL, "exit 3 when any check gives WARN"},
+    {"strict", 0, 0, 0, 0, NULL, "exit 3 when any check gives WARN or FAIL"},
     TP_OPT_SET,
     TP_OPT_QUIET,
     TP_OPT_END,
@@ -26,9 +27,13 @@ static void print_checks(FILE *fp, const tp_budget *b)
     fputs("\n  checks:\n", fp);
     for (i = 0; i < b->n_checks; i++) {
         const tp_check *c = &b->checks[i];
-        fprintf(fp, "    %-4s %-30s %8.2f %-2s (limit %.2f %s)  %s\n",
-                c->verdict == TP_PASS ? "PASS" : "WARN", c->name, c->value, c->unit, c->limit,
-                c->unit, c->note);
+        if (isfinite(c->limit))
+            fprintf(fp, "    %-4s %-32s %8.2f %-2s (limit %.2f %s)  %s\n",
+                    tp_budget_verdict_name(c->verdict), c->name, c->value, c->unit, c->limit,
+                    c->unit, c->note);
+        else
+            fprintf(fp, "    %-4s %-32s %8.2f %-2s (no limit)  %s\n",
+                    tp_budget_verdict_name(c->verdict), c->name, c->value, c->unit, c->note);
     }
     if (b->n_checks == 0)
         fputs("    (add supply: and wiring: to check the supply and the wiring)\n", fp);
@@ -54,6 +59,75 @@ static void series_path(FILE *fp, const tp_circuit *c)
     if (c->r_switch > 0)
         fprintf(fp, "%s %.1f mohm switch", sep, 1e3 * c->r_switch);
     fputc('\n', fp);
+}
+
+/* "18 AWG (15.1 A; ampacity decides)" or "none up to 4 AWG" for one series of a
+ * recommendation. */
+static void gauge(char *buf, size_t size, const tp_ampacity_pick *p, int awg)
+{
+    const char *why = p->limited_by && strcmp(p->limited_by, "both") == 0
+                          ? "ampacity and drop decide"
+                      : p->limited_by && strcmp(p->limited_by, "drop") == 0 ? "drop decides"
+                                                                             : "ampacity decides";
+    if (!isfinite(p->size))
+        snprintf(buf, size, "none %s", awg ? "up to 4 AWG" : "up to 16 mm2");
+    else if (awg)
+        snprintf(buf, size, "%.0f AWG (%.1f A; %s)", p->size, p->ampacity, why);
+    else
+        snprintf(buf, size, "%.3g mm2 (%.1f A; %s)", p->size * 1e6, p->ampacity, why);
+}
+
+/* The wire's ampacity, the smallest wire and the fuse. */
+static void wire_lines(FILE *fp, const tp_description *desc, const tp_budget *b)
+{
+    const tp_ampacity *a = &b->ampacity;
+    const tp_ampacity_conditions *c = &b->wire_cond;
+    char awg[80], mm2[80];
+    fprintf(fp, "  ampacity table: %s (%s)\n", tp_ampacity_table_name(c->installation),
+            tp_ampacity_table_conditions(c->installation));
+    if (desc->wiring.present) {
+        if (isfinite(a->amps) && isfinite(a->column))
+            fprintf(fp, "  wire ampacity: read at %.0f AWG, %.0f degC column (insulation rated "
+                        "%.0f degC): %.1f A x %.3f for %.1f degC ambient = %.1f A\n",
+                    a->row_awg, a->column - TP_KELVIN_0C, c->insulation - TP_KELVIN_0C,
+                    a->table_amps, a->factor, c->ambient - TP_KELVIN_0C, a->amps);
+        else if (isfinite(a->amps))
+            fprintf(fp, "  wire ampacity: read at %.0f AWG: %.1f A\n", a->row_awg, a->amps);
+        else
+            fprintf(fp, "  wire ampacity: none: the table rates no wire this thin with %.0f degC "
+                        "insulation\n", c->insulation - TP_KELVIN_0C);
+    }
+    gauge(awg, sizeof awg, &b->wire.awg, 1);
+    gauge(mm2, sizeof mm2, &b->wire.metric, 0);
+    if (isfinite(b->wire.length))
+        fprintf(fp, "  smallest wire for %.2f A within %.1f %% drop over 2 x %.2f m: %s, or %s\n",
+                b->wire.amps, 100.0 * b->wire.max_drop, b->wire.length, awg, mm2);
+    else
+        fprintf(fp, "  smallest wire for %.2f A (add wiring: with its length to check the drop "
+                    "too): %s, or %s\n", b->wire.amps, awg, mm2);
+    if (b->fuse_fitted)
+        fprintf(fp, "  fuse for the heater circuit: %.3g A fitted (wiring.fuse)\n", b->fuse);
+    else if (b->fuse > 0 && !b->fuse_below_rule)
+        fprintf(fp, "  fuse for the heater circuit: %.3g A (the next standard size at or above "
+                    "1.25 x %.2f A; common practice, no source)%s\n", b->fuse, b->i_cold,
+                isfinite(a->amps) ? ", within the wire's ampacity" : "");
+    else if (b->fuse > 0)
+        fprintf(fp, "  fuse for the heater circuit: %.3g A, the largest standard size between "
+                    "the running %.2f A and the wire's %.1f A: under 1.25 x the current it may "
+                    "open on a long warm-up; a thicker wire lets the fuse follow the rule\n",
+                b->fuse, b->i_cold, a->amps);
+    else if (isfinite(a->amps))
+        fprintf(fp, "  fuse for the heater circuit: no standard size fits between the running "
+                    "%.2f A and the wire's %.1f A: use a thicker wire\n", b->i_cold, a->amps);
+    else
+        fprintf(fp, "  fuse for the heater circuit: none in the standard sizes for %.2f A\n",
+                b->i_cold);
+    if (isfinite(b->density) && b->heater_type)
+        fprintf(fp, "  heater power density: %.2f W/cm2 at cold start (limit for a %s heater: "
+                    "%.3g W/cm2)\n",
+                b->density * 1e-4, b->heater_type, b->density_limit * 1e-4);
+    else if (isfinite(b->density))
+        fprintf(fp, "  heater power density: %.2f W/cm2 at cold start\n", b->density * 1e-4);
 }
 
 static void summary(FILE *fp, const tp_session *s, const tp_budget *b)
@@ -117,12 +191,10 @@ static void summary(FILE *fp, const tp_session *s, const tp_budget *b)
                     1e3 * desc->wiring.switch_resistance, b->switch_loss_cold,
                     b->switch_loss_hold);
     }
-    if (b->fuse > 0)
-        fprintf(fp, "  fuse for the heater circuit: %.3g A (the next standard size at or above "
-                    "1.25 x %.2f A; common practice, no source) - and no larger than the wiring "
-                    "is rated for\n", b->fuse, b->i_cold);
+    wire_lines(fp, desc, b);
     print_checks(fp, b);
-    fprintf(fp, "\n  verdict: %d WARN%s\n", b->n_warn, b->n_warn == 1 ? "" : "s");
+    fprintf(fp, "\n  verdict: %d FAIL%s, %d WARN%s\n", b->n_fail, b->n_fail == 1 ? "" : "s",
+            b->n_warn, b->n_warn == 1 ? "" : "s");
     if (v > TP_MAINS || (s->net->n_sources && s->net->sources[0].supply > TP_MAINS))
         fputs("  ! mains heater: tepid refuses nothing, but fit a non-self-resetting thermal "
               "cut-out in series with the heater, independent of the controller, and have the "
@@ -162,15 +234,28 @@ static tp_status write_json(const char *path, const tp_network *net, const tp_bu
     tp_json_number(root, "wiring_loss_hold_W", b->wire_loss_hold);
     tp_json_number(root, "switch_loss_cold_W", b->switch_loss_cold);
     tp_json_number(root, "switch_loss_hold_W", b->switch_loss_hold);
-    tp_json_number(root, "fuse_A", b->fuse);
+    tp_json_number(root, "fuse_A", b->fuse > 0 ? b->fuse : TP_UNSET);
+    cJSON_AddBoolToObject(root, "fuse_fitted", b->fuse_fitted);
+    cJSON_AddBoolToObject(root, "fuse_below_rule", b->fuse_below_rule);
+    tp_json_number(root, "wire_ampacity_A", b->ampacity.amps);
+    tp_json_number(root, "wire_table_A", b->ampacity.table_amps);
+    tp_json_number(root, "wire_ambient_factor", b->ampacity.factor);
+    tp_json_number(root, "wire_row_awg", b->ampacity.row_awg);
+    tp_json_number(root, "wire_ambient_C", b->wire_cond.ambient - TP_KELVIN_0C);
+    tp_json_number(root, "wire_insulation_C", b->wire_cond.insulation - TP_KELVIN_0C);
+    tp_json_number(root, "max_drop", b->max_drop);
+    tp_json_wire(root, "wire", &b->wire, &b->wire_cond);
+    tp_json_number(root, "power_density_W_per_cm2", b->density * 1e-4);
+    tp_json_number(root, "power_density_limit_W_per_cm2", b->density_limit * 1e-4);
     tp_json_number(root, "warnings", b->n_warn);
+    tp_json_number(root, "failures", b->n_fail);
     checks = cJSON_AddArrayToObject(root, "checks");
     for (i = 0; checks && i < b->n_checks; i++) {
         cJSON *c = cJSON_CreateObject();
         if (!c)
             break;
         cJSON_AddStringToObject(c, "check", b->checks[i].name);
-        cJSON_AddStringToObject(c, "verdict", b->checks[i].verdict == TP_PASS ? "PASS" : "WARN");
+        cJSON_AddStringToObject(c, "verdict", tp_budget_verdict_name(b->checks[i].verdict));
         tp_json_number(c, "value", b->checks[i].value);
         tp_json_number(c, "limit", b->checks[i].limit);
         cJSON_AddStringToObject(c, "unit", b->checks[i].unit);
@@ -193,8 +278,9 @@ static tp_status run_budget(const tp_cli *cli, tp_diag *d)
         rc = write_json(tp_cli_get(cli, "json"), s.net, &b, d);
     if (rc == TP_OK && s.text)
         summary(s.text, &s, &b);
-    if (rc == TP_OK && tp_cli_flag(cli, "strict") && b.n_warn > 0) {
-        tp_diag_note(d, "--strict: %d check%s gave WARN", b.n_warn, b.n_warn == 1 ? "" : "s");
+    if (rc == TP_OK && tp_cli_flag(cli, "strict") && b.n_warn + b.n_fail > 0) {
+        tp_diag_note(d, "--strict: %d check%s gave FAIL, %d WARN", b.n_fail,
+                     b.n_fail == 1 ? "" : "s", b.n_warn);
         rc = TP_ERR_STRICT;
     }
     tp_session_close(&s);
@@ -209,7 +295,11 @@ const tp_verb tp_cmd_budget = {
     budget_opts,
     "Uses the config's supply: (voltage, power or current rating, efficiency,\n"
     "output_resistance), loads: (id with power or current) and wiring: (cross_section or awg,\n"
-    "one-way length, switch_resistance). The heater's cold resistance sets the cold-start\n"
-    "current; the holding point (KINSOL) sets the running current.",
+    "one-way length, switch_resistance, installation, insulation_rating, ambient, max_drop,\n"
+    "fuse). The heater's cold resistance sets the cold-start current; the holding point\n"
+    "(KINSOL) sets the running current. The wire is checked against a published ampacity\n"
+    "table (NEC Table 310.16, or a chassis-wiring table), the smallest wire meeting ampacity\n"
+    "and drop is suggested in AWG and mm2, and the fuse never exceeds the wire's ampacity.\n"
+    "FAIL: a rating exceeded; WARN: a margin missed.",
     "tepid budget workshop-bed-24v.yaml\n"
     "tepid budget workshop-bed-24v.yaml --set heater.supply=20V --json budget.json"};

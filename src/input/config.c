@@ -19,7 +19,7 @@ typedef enum kind {
     K_ID,     /* char[TP_ID_MAX]: letters, digits, '-' and '_' */
     K_TEXT,   /* char[size]: free text */
     K_IDPAIR, /* char[2][TP_ID_MAX] */
-    K_MODE,   /* tp_mode, from its name */
+    K_ENUM,   /* an enum (int), from its name in `names` (tp_mode, tp_installation) */
     K_MAP,    /* a nested section: struct at `offset`, keys in `sub` */
     K_LIST,   /* a list of sections: pointer at `offset`, size_t count at `count_offset` */
     K_IDMAP   /* a map of id -> section (materials): like K_LIST, the key becomes `id` */
@@ -41,12 +41,14 @@ typedef struct key {
     kind kind;
     tp_dim dim;
     size_t offset;       /* of the field within its section's struct */
-    size_t size;         /* K_TEXT: buffer size; K_LIST/K_IDMAP: element size */
+    size_t size;         /* K_TEXT: buffer size; K_LIST/K_IDMAP: element size; K_ENUM: the
+                            number of names */
     size_t count_offset; /* K_LIST/K_IDMAP: offset of the size_t count */
     const section *sub;  /* K_MAP/K_LIST/K_IDMAP */
     unsigned flags;
     double hi;           /* plausibility bound (SI, or element count for lists); 0: none */
     const char *why;     /* the hint given when a value exceeds `hi` */
+    const char *const *names; /* K_ENUM: the value names in enum order (description.h) */
 } key;
 
 struct section {
@@ -55,14 +57,21 @@ struct section {
 };
 
 #define N(a) (sizeof(a) / sizeof((a)[0]))
-#define QTY(T, f, nm, dim, fl, hi, why) {nm, K_QTY, dim, offsetof(T, f), 0, 0, NULL, fl, hi, why}
+#define QTY(T, f, nm, dim, fl, hi, why)                                                         \
+    {nm, K_QTY, dim, offsetof(T, f), 0, 0, NULL, fl, hi, why, NULL}
 #define QPAIR(T, f, nm, dim, fl, hi, why)                                                        \
-    {nm, K_QPAIR, dim, offsetof(T, f), 0, 0, NULL, fl, hi, why}
-#define ID(T, f, nm, fl) {nm, K_ID, TP_DIM_NONE, offsetof(T, f), TP_ID_MAX, 0, NULL, fl, 0, NULL}
-#define TEXT(T, f, nm) {nm, K_TEXT, TP_DIM_NONE, offsetof(T, f), sizeof(((T *)0)->f), 0, NULL, 0, 0, NULL}
-#define MAP(T, f, nm, sub, fl) {nm, K_MAP, TP_DIM_NONE, offsetof(T, f), 0, 0, &sub, fl, 0, NULL}
+    {nm, K_QPAIR, dim, offsetof(T, f), 0, 0, NULL, fl, hi, why, NULL}
+#define ID(T, f, nm, fl)                                                                         \
+    {nm, K_ID, TP_DIM_NONE, offsetof(T, f), TP_ID_MAX, 0, NULL, fl, 0, NULL, NULL}
+#define TEXT(T, f, nm)                                                                           \
+    {nm, K_TEXT, TP_DIM_NONE, offsetof(T, f), sizeof(((T *)0)->f), 0, NULL, 0, 0, NULL, NULL}
+#define MAP(T, f, nm, sub, fl)                                                                   \
+    {nm, K_MAP, TP_DIM_NONE, offsetof(T, f), 0, 0, &sub, fl, 0, NULL, NULL}
 #define LIST(T, f, cnt, E, nm, sub, fl, max)                                                     \
-    {nm, K_LIST, TP_DIM_NONE, offsetof(T, f), sizeof(E), offsetof(T, cnt), &sub, fl, max, NULL}
+    {nm, K_LIST, TP_DIM_NONE, offsetof(T, f), sizeof(E), offsetof(T, cnt), &sub, fl, max, NULL,    \
+     NULL}
+#define ENUM(T, f, nm, fl, names)                                                                \
+    {nm, K_ENUM, TP_DIM_NONE, offsetof(T, f), N(names), 0, NULL, fl, 0, NULL, names}
 
 static const char *const too_big = "tepid models benchtop plates and hotplates; check the value "
                                    "and its unit";
@@ -81,7 +90,7 @@ static const key material_keys[] = {
     QTY(tp_material_spec, max_temperature, "max_temperature", TP_DIM_TEMPERATURE, F_REQ, 3000,
         too_big),
     {"source", K_TEXT, TP_DIM_NONE, offsetof(tp_material_spec, source),
-     sizeof(((tp_material_spec *)0)->source), 0, NULL, F_REQ, 0, NULL},
+     sizeof(((tp_material_spec *)0)->source), 0, NULL, F_REQ, 0, NULL, NULL},
     TEXT(tp_material_spec, note, "note"),
 };
 static const section material_sec = {material_keys, N(material_keys)};
@@ -110,7 +119,7 @@ static const section raw_rad_sec = {raw_rad_keys, N(raw_rad_keys)};
 
 static const key raw_link_keys[] = {
     {"between", K_IDPAIR, TP_DIM_NONE, offsetof(tp_raw_link, between), TP_ID_MAX, 0, NULL, F_REQ,
-     0, NULL},
+     0, NULL, NULL},
     QTY(tp_raw_link, conductance, "conductance", TP_DIM_CONDUCTANCE, F_NONNEG, 1e6, too_big),
     MAP(tp_raw_link, convection, "convection", raw_conv_sec, F_PRESENT),
     MAP(tp_raw_link, radiation, "radiation", raw_rad_sec, F_PRESENT),
@@ -191,6 +200,8 @@ static const key heater_keys[] = {
     QTY(tp_heater, max_duty, "max_duty", TP_DIM_NONE, F_FRAC, 0, NULL),
     QTY(tp_heater, supply_resistance, "supply_resistance", TP_DIM_RESISTANCE, F_NONNEG, 1e6,
         too_big),
+    QTY(tp_heater, rated_power, "rated_power", TP_DIM_POWER, F_POS, 1e5, too_big),
+    QTY(tp_heater, rated_voltage, "rated_voltage", TP_DIM_VOLTAGE, F_POS, 1000, too_big),
     MAP(tp_heater, pattern, "pattern", pattern_sec, F_PRESENT),
 };
 static const section heater_sec = {heater_keys, N(heater_keys)};
@@ -235,7 +246,7 @@ static const section enclosure_sec = {enclosure_keys, N(enclosure_keys)};
 static const key control_keys[] = {
     ID(tp_control_spec, source, "source", 0),
     ID(tp_control_spec, sensor, "sensor", 0),
-    {"mode", K_MODE, TP_DIM_NONE, offsetof(tp_control_spec, mode), 0, 0, NULL, F_REQ, 0, NULL},
+    ENUM(tp_control_spec, mode, "mode", F_REQ, tp_description_mode_names),
     QTY(tp_control_spec, setpoint, "setpoint", TP_DIM_TEMPERATURE, 0, 1500, too_big),
     QTY(tp_control_spec, band, "band", TP_DIM_INTERVAL, F_POS, 100, too_big),
     QTY(tp_control_spec, period, "period", TP_DIM_TIME, F_POS, 3600, too_big),
@@ -291,6 +302,13 @@ static const key wiring_keys[] = {
     QTY(tp_wiring, length, "length", TP_DIM_LENGTH, F_REQ | F_POS, 100, too_big),
     QTY(tp_wiring, switch_resistance, "switch_resistance", TP_DIM_RESISTANCE, F_NONNEG, 100,
         too_big),
+    ENUM(tp_wiring, installation, "installation", 0, tp_description_installation_names),
+    QTY(tp_wiring, insulation_rating, "insulation_rating", TP_DIM_TEMPERATURE, F_POS, 700,
+        "insulation is rated between about 60 and 250 degC"),
+    QTY(tp_wiring, ambient, "ambient", TP_DIM_TEMPERATURE, F_POS, 400,
+        "the air around the wires is between about -40 and 120 degC"),
+    QTY(tp_wiring, max_drop, "max_drop", TP_DIM_NONE, F_FRAC, 0, NULL),
+    QTY(tp_wiring, fuse, "fuse", TP_DIM_CURRENT, F_POS, 1000, too_big),
 };
 static const section wiring_sec = {wiring_keys, N(wiring_keys)};
 /* Protection design (docs/guard.md). */
@@ -341,7 +359,7 @@ static const key top_keys[] = {
     MAP(tp_description, network, "network", network_sec, F_PRESENT),
     {"materials", K_IDMAP, TP_DIM_NONE, offsetof(tp_description, materials),
      sizeof(tp_material_spec), offsetof(tp_description, n_materials), &material_sec, 0,
-     TP_MAX_MATERIALS, NULL},
+     TP_MAX_MATERIALS, NULL, NULL},
     MAP(tp_description, room, "room", room_sec, 0),
     MAP(tp_description, bed, "bed", bed_sec, F_PRESENT),
     MAP(tp_description, heater, "heater", heater_sec, F_PRESENT),
@@ -613,21 +631,25 @@ static void read_value(reader *r, const key *k, const tp_yamltree_node *n, void 
             read_id(r, n->items[i], path, pair[i]);
         return;
     }
-    case K_MODE: {
-        char hint[160];
-        if (!expect_kind(r, n, TP_YAMLTREE_SCALAR, path, "one of off, full, on-off, pid"))
+    case K_ENUM: {
+        char hint[160], list[120], example[140];
+        size_t n_names = k->size, len = 0;
+        for (i = 0; i < n_names && len + 2 < sizeof list; i++)
+            len += (size_t)snprintf(list + len, sizeof list - len, "%s%s",
+                                    i == 0 ? "" : i + 1 == n_names ? " or " : ", ", k->names[i]);
+        snprintf(example, sizeof example, "one of %s", list);
+        if (!expect_kind(r, n, TP_YAMLTREE_SCALAR, path, example))
             return;
-        for (i = 0; i < N(tp_description_mode_names); i++) {
-            if (strcmp(n->text, tp_description_mode_names[i]) == 0) {
-                *(tp_mode *)field(base, k->offset) = (tp_mode)i;
+        for (i = 0; i < n_names; i++) {
+            if (strcmp(n->text, k->names[i]) == 0) {
+                *(int *)field(base, k->offset) = (int)i;
                 return;
             }
         }
-        tp_diag_suggest(n->text, tp_description_mode_names, N(tp_description_mode_names), hint,
-                        sizeof hint);
-        tp_diag_error(r->d, tp_yamltree_loc(n), path,
-                      hint[0] ? hint : "modes are off, full, on-off and pid", "unknown mode '%s'",
-                      n->text);
+        tp_diag_suggest(n->text, k->names, n_names, hint, sizeof hint);
+        if (!hint[0])
+            snprintf(hint, sizeof hint, "%s is one of %s", k->name, list);
+        tp_diag_error(r->d, tp_yamltree_loc(n), path, hint, "unknown %s '%s'", k->name, n->text);
         return;
     }
     case K_MAP:
@@ -939,7 +961,7 @@ tp_status tp_config_read_materials(const tp_yamltree_node *map, const char *path
         size_t n;
     } holder = {NULL, 0};
     static const key k = {"materials", K_IDMAP, TP_DIM_NONE, 0, sizeof(tp_material_spec),
-                          sizeof(void *), &material_sec, 0, TP_MAX_MATERIALS, NULL};
+                          sizeof(void *), &material_sec, 0, TP_MAX_MATERIALS, NULL, NULL};
     read_list(&r, &k, map, &holder, path);
     if (d->errors != errors0) {
         free(holder.m);
@@ -1257,7 +1279,7 @@ static void each_key(const section *sec, size_t first, void *base, const char *p
         case K_ID:
         case K_TEXT:
         case K_IDPAIR:
-        case K_MODE:
+        case K_ENUM:
             info.dim = TP_DIM_NONE;
             info.kind = TP_KEY_TEXT;
             fn(&info, ctx);

@@ -1,5 +1,5 @@
 /* Questions about a description that do not need the schema: the names of control modes and
- * whether a controller holds a setpoint. */
+ * wiring installations, and whether a controller holds a setpoint. */
 #include "description.h"
 
 const char *const tp_description_mode_names[TP_MODE_PID + 1] = {"off", "full", "on-off", "pid"};
@@ -10,6 +10,9 @@ const char *tp_description_mode_name(tp_mode mode)
                ? tp_description_mode_names[mode]
                : "?";
 }
+
+const char *const tp_description_installation_names[TP_INSTALL_CHASSIS + 1] = {"cable",
+                                                                               "chassis"};
 
 int tp_description_mode_holds(tp_mode mode)
 {

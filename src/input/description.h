@@ -127,6 +127,8 @@ typedef struct tp_heater {
     double reference;         /* K */
     double max_duty;          /* - */
     double supply_resistance; /* ohm, source and wiring in series */
+    double rated_power;       /* W as sold, at rated_voltage (with it, instead of resistance) */
+    double rated_voltage;     /* V as sold */
     tp_heater_pattern pattern;
 } tp_heater;
 
@@ -210,12 +212,23 @@ typedef struct tp_load {
     double current; /* A */
 } tp_load;
 
+/* Which ampacity table rates the heater's wires (ampacity.h). */
+typedef enum tp_installation {
+    TP_INSTALL_CABLE,  /* in a cable or raceway, at most three current-carrying conductors */
+    TP_INSTALL_CHASSIS /* chassis wiring: a single conductor in free air */
+} tp_installation;
+
 typedef struct tp_wiring {
     int present;
     double cross_section;     /* m2 of copper per conductor (or awg) */
     double awg;               /* American Wire Gauge number */
     double length;            /* m, one way from the supply to the heater */
     double switch_resistance; /* ohm, on-resistance of the switching element */
+    tp_installation installation; /* the ampacity table that applies */
+    double insulation_rating; /* K, the insulation's temperature rating */
+    double ambient;           /* K around the wires; unset: the room */
+    double max_drop;          /* -, voltage drop limit as a share of the heater's supply */
+    double fuse;              /* A, the fuse fitted in the heater circuit; unset: suggested */
 } tp_wiring;
 /* ---- protection design (`guard:`, docs/guard.md) ---- */
 typedef struct tp_guard_step {
@@ -291,5 +304,9 @@ int tp_description_mode_holds(tp_mode mode);
 /* Nonzero when the description's controller holds a setpoint: present, a mode that holds one
  * (tp_description_mode_holds) and a setpoint given. */
 int tp_description_holds(const tp_description *desc);
+
+/* The wiring installations as written in configs, by tp_installation value ("cable",
+ * "chassis"). */
+extern const char *const tp_description_installation_names[TP_INSTALL_CHASSIS + 1];
 
 #endif

@@ -110,6 +110,8 @@ typedef struct tp_net_source {
     double r_series; /* ohm in series with the element (circuit.h: heater.supply_resistance,
                         supply output, wiring loop, switch) */
     double max_duty; /* fully on means this duty */
+    double rated_power, rated_voltage; /* W, V of a heater given as sold (heater.rated_*; its
+                                          r0 is rated_voltage^2 / rated_power); 0: not rated */
     int n_nodes;     /* nodes the power lands in: 1 when lumped */
     const int *nodes;      /* node indices */
     const double *weights; /* share of the element in each node; sums to 1 */

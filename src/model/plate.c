@@ -28,6 +28,7 @@
 #include "config.h"
 #include "convection.h"
 #include "grid.h"
+#include "heater.h"
 #include "materials.h"
 #include "radiation.h"
 
@@ -215,7 +216,29 @@ static tp_status lower_heater(const tp_description *desc, const tp_yamltree *doc
                       "the heater layer '%s' does not exist", h->layer);
         return TP_ERR_CONFIG;
     }
-    electric = tp_isset(h->supply) || tp_isset(h->resistance);
+    if (tp_heater_is_rated(h)) {
+        /* A heater as sold: "24 V, 240 W" fixes its resistance, so neither resistance nor
+         * power may be given besides. */
+        const char *given = tp_isset(h->rated_power) ? "heater.rated_power"
+                                                     : "heater.rated_voltage";
+        if (tp_isset(h->resistance) || tp_isset(h->power)) {
+            tp_diag_error(d, tp_yamltree_nearest(doc, given), given,
+                          "a heater is given either as sold (rated_power and rated_voltage) or "
+                          "by its resistance or power: remove one",
+                          "not allowed together with heater.%s",
+                          tp_isset(h->resistance) ? "resistance" : "power");
+            return TP_ERR_CONFIG;
+        }
+        if (!tp_isset(h->rated_power) || !tp_isset(h->rated_voltage)) {
+            tp_diag_error(d, tp_yamltree_nearest(doc, given),
+                          tp_isset(h->rated_power) ? "heater.rated_voltage"
+                                                   : "heater.rated_power",
+                          "a heater as sold needs both, e.g. rated_power: 240 W with "
+                          "rated_voltage: 24 V", "missing required key");
+            return TP_ERR_CONFIG;
+        }
+    }
+    electric = tp_isset(h->supply) || tp_isset(h->resistance) || tp_heater_is_rated(h);
     if (tp_isset(h->power) == electric) {
         tp_diag_error(d, tp_yamltree_nearest(doc, "heater"), "heater",
                       "give either power: 220 W, or supply: 24 V with resistance: 2.6 ohm",
@@ -223,11 +246,11 @@ static tp_status lower_heater(const tp_description *desc, const tp_yamltree *doc
                                          : "the heater needs power, or supply and resistance");
         return TP_ERR_CONFIG;
     }
-    if (electric && !(tp_isset(h->supply) && tp_isset(h->resistance))) {
+    if (electric && !(tp_isset(tp_heater_volts(h)) && tp_isset(tp_heater_r0(h)))) {
         tp_diag_error(d, tp_yamltree_nearest(doc, "heater"),
                       tp_isset(h->supply) ? "heater.resistance" : "heater.supply",
-                      "an electrical heater needs both supply and resistance",
-                      "missing required key");
+                      "an electrical heater needs both supply and resistance (or rated_power "
+                      "and rated_voltage)", "missing required key");
         return TP_ERR_CONFIG;
     }
     s = tp_network_add_source(net, "heater", g[li].node);
@@ -235,8 +258,12 @@ static tp_status lower_heater(const tp_description *desc, const tp_yamltree *doc
         return TP_ERR_NOMEM;
     if (electric) {
         s->kind = TP_SRC_ELECTRIC;
-        s->supply = h->supply;
-        s->r0 = h->resistance;
+        s->supply = tp_heater_volts(h); /* a heater as sold runs on its rating by default */
+        s->r0 = tp_heater_r0(h);
+        if (tp_heater_is_rated(h)) {
+            s->rated_power = h->rated_power;
+            s->rated_voltage = h->rated_voltage;
+        }
         s->tempco = h->tempco;
         s->tref = h->reference; /* its series path: assemble.c, circuit.h */
     } else {

@@ -24,6 +24,10 @@ void tp_json_conditions(cJSON *root, const tp_network *net)
     tp_json_number(root, "heater_current_A", amps);
     tp_json_number(root, "heater_power_W", watts);
     tp_json_number(root, "heater_max_duty", src >= 0 ? net->sources[src].max_duty : TP_UNSET);
+    if (src >= 0 && net->sources[src].rated_power > 0) {
+        tp_json_number(root, "heater_rated_power_W", net->sources[src].rated_power);
+        tp_json_number(root, "heater_rated_voltage_V", net->sources[src].rated_voltage);
+    }
 }
 
 tp_status tp_json_write(const char *path, const cJSON *root, tp_diag *d)
@@ -59,4 +63,29 @@ void tp_json_metric(cJSON *obj, const tp_metrics *m, int metric)
 {
     const tp_metricdef *md = tp_metricdef_get(metric);
     tp_json_number(obj, md->key, tp_metricdef_file_value(md, tp_metricdef_value(md, m)));
+}
+
+static void limited_by(cJSON *obj, const char *name, const char *why)
+{
+    if (why)
+        cJSON_AddStringToObject(obj, name, why);
+    else
+        cJSON_AddNullToObject(obj, name);
+}
+
+void tp_json_wire(cJSON *root, const char *name, const tp_ampacity_choice *w,
+                  const tp_ampacity_conditions *c)
+{
+    cJSON *o = cJSON_AddObjectToObject(root, name);
+    if (!o)
+        return;
+    tp_json_number(o, "current_A", w->amps);
+    tp_json_number(o, "max_drop", w->max_drop);
+    cJSON_AddStringToObject(o, "table", tp_ampacity_table_name(c->installation));
+    tp_json_number(o, "awg", w->awg.size);
+    tp_json_number(o, "awg_ampacity_A", w->awg.ampacity);
+    limited_by(o, "awg_limited_by", w->awg.limited_by);
+    tp_json_number(o, "mm2", w->metric.size * 1e6);
+    tp_json_number(o, "mm2_ampacity_A", w->metric.ampacity);
+    limited_by(o, "mm2_limited_by", w->metric.limited_by);
 }

@@ -58,6 +58,8 @@ void tp_summary_conditions(FILE *fp, const tp_network *net)
         if (strcmp(s->id, "heater") != 0)
             fprintf(fp, " '%s'", s->id);
         if (s->kind == TP_SRC_ELECTRIC) {
+            if (s->rated_power > 0)
+                fprintf(fp, " %.1f W at %.1f V rated;", s->rated_power, s->rated_voltage);
             fprintf(fp, " %.1f V across %.3f ohm", s->supply, s->r0);
             if (s->r_series > 0)
                 fprintf(fp, " and a %.1f mohm series path", 1e3 * s->r_series);
@@ -113,9 +115,10 @@ void tp_summary_caution_text(const tp_caution *c, char *buf, size_t size)
         return;
     case TP_CAUTION_POWER_DENSITY:
         snprintf(buf, size,
-                 "Heater power density %.2f W/cm2 in a %s layer: above about 1 W/cm2 a flexible "
-                 "heater must be fully bonded to the plate, or it overheats and delaminates.",
-                 c->value[0] * 1e-4, c->material);
+                 "Heater power density %.2f W/cm2 in a %s layer: above about %.0f W/cm2 a "
+                 "flexible heater must be fully bonded to the plate, or it overheats and "
+                 "delaminates.",
+                 c->value[0] * 1e-4, c->material, c->value[1] * 1e-4);
         return;
     case TP_CAUTION_CUTOUT:
         snprintf(buf, size,

@@ -21,8 +21,8 @@ void tp_summary_network_line(FILE *fp, const tp_network *net);
 
 /* One line of the conditions a run assumes: the room temperature (tp_network_room; the raw
  * form's fixed nodes without one) and the heater full on at the initial state
- * (tp_network_cold_start): its supply, resistance and series path, current and power. Starts
- * with two blanks. */
+ * (tp_network_cold_start): as sold ("240.0 W at 24.0 V rated;") when it was given so, then its
+ * supply, resistance and series path, current and power. Starts with two blanks. */
 void tp_summary_conditions(FILE *fp, const tp_network *net);
 
 /* The head of every summary after its title line: tp_summary_network_line, then

@@ -6,6 +6,7 @@
 #include <stdio.h>
 #include <string.h>
 
+#include "heater.h"
 #include "materials.h"
 
 #define TP_ELV_LIMIT 50.0        /* V: above this the supply is treated as hazardous (extra-low
@@ -13,9 +14,6 @@
 #define TP_HIGH_CURRENT 10.0     /* A: connectors and wiring deserve a check above this
                                     (common practice, no source) */
 #define TP_LIMIT_MARGIN 10.0     /* K: "near" a service limit */
-#define TP_DENSITY_FLEX 1.0e4    /* W/m2 (1 W/cm2): flexible silicone/polyimide heaters above
-                                    this need good bonding to a metal plate (common practice,
-                                    no source) */
 
 static double supply_voltage(const tp_network *net)
 {
@@ -59,27 +57,23 @@ static void service_limits(const tp_description *desc, const tp_network *net,
     }
 }
 
-/* A flexible heater layer (silicone-rubber pads, polyimide film) loaded past its bonding
- * limit. */
-static void power_density(const tp_description *desc, tp_caution *out, int *n)
+/* A heater loaded past its type's power-density limit (heater.h: flexible silicone-rubber
+ * pads and polyimide film), at the power full on from cold that every header states and
+ * `budget` checks. */
+static void power_density(const tp_description *desc, const tp_network *net, tp_caution *out,
+                          int *n)
 {
-    size_t k;
-    for (k = 0; k < desc->bed.n_layers && *n < TP_CAUTIONS_MAX - 2; k++) {
-        const tp_layer *ly = &desc->bed.layers[k];
-        const tp_material_spec *m = tp_materials_find(desc, ly->material);
-        double a, p = desc->heater.power;
-        if (strcmp(ly->id, desc->heater.layer) != 0 || !m)
-            continue;
-        a = (isfinite(ly->size[0]) ? ly->size[0] : desc->bed.size[0]) *
-            (isfinite(ly->size[1]) ? ly->size[1] : desc->bed.size[1]);
-        if (!isfinite(p) && isfinite(desc->heater.supply))
-            p = desc->heater.supply * desc->heater.supply / desc->heater.resistance;
-        if (isfinite(p) && (strstr(m->id, "silicone") || strstr(m->id, "polyimide")) &&
-            p / a > TP_DENSITY_FLEX) {
-            tp_caution *c = add(out, n, TP_CAUTION_POWER_DENSITY);
-            c->value[0] = p / a;
-            snprintf(c->material, sizeof c->material, "%s", m->id);
-        }
+    const char *type;
+    double watts, limit = tp_heater_density_limit(desc, &type);
+    double area = tp_heater_area(desc);
+    if (!type || *n >= TP_CAUTIONS_MAX - 2)
+        return;
+    tp_network_cold_start(net, NULL, &watts, NULL);
+    if (isfinite(watts) && watts / area > limit) {
+        tp_caution *c = add(out, n, TP_CAUTION_POWER_DENSITY);
+        c->value[0] = watts / area;
+        c->value[1] = limit;
+        snprintf(c->material, sizeof c->material, "%s", type);
     }
 }
 
@@ -101,7 +95,7 @@ int tp_caution_list(const tp_description *desc, const tp_network *net,
     if (desc && desc->form == TP_FORM_PHYSICAL) {
         service_limits(desc, net, ex, isfinite(ex->node_max) ? ex->node_max : hot, out, &n);
         if (desc->heater.present)
-            power_density(desc, out, &n);
+            power_density(desc, net, out, &n);
     }
     add(out, &n, TP_CAUTION_CUTOUT);
     return n;

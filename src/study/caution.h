@@ -35,7 +35,9 @@ typedef enum tp_caution_kind {
     TP_CAUTION_HIGH_CURRENT,  /* value[0]: the current, A; value[1]: the supply, V */
     TP_CAUTION_SERVICE_LIMIT, /* value[0]: the material's rating, K; value[1]: the layer's
                                  peak, K; layer and material named */
-    TP_CAUTION_POWER_DENSITY, /* value[0]: the heater's power density, W/m2; material named */
+    TP_CAUTION_POWER_DENSITY, /* value[0]: the heater's power density full on from cold, W/m2;
+                                 value[1]: its type's limit, W/m2 (heater.h); the heater
+                                 layer's material named */
     TP_CAUTION_CUTOUT,        /* no independent cut-out is modelled (every list ends so) */
     TP_CAUTION_GUARD_CUTOUT   /* guard's thresholds supplement a hardware cut-out (guard) */
 } tp_caution_kind;

@@ -789,8 +789,11 @@ static tp_status apply_corner(const tp_description *base, const tp_network *net,
     if (base->form == TP_FORM_PHYSICAL) {
         if (isfinite(c->supply))
             cd->heater.supply = c->supply;
-        if (isfinite(c->resistance))
+        if (isfinite(c->resistance)) {
+            /* The corner's resistance replaces a rating as sold (heater.h). */
             cd->heater.resistance = c->resistance;
+            cd->heater.rated_power = cd->heater.rated_voltage = TP_UNSET;
+        }
         if (isfinite(c->airflow))
             cd->room.airflow = c->airflow;
         cd->room.temperature = c->room;
