@@ -220,31 +220,38 @@ static int load_entry(ut_system *s, char *line)
     return rc;
 }
 
-/* A udunits2 unit system from models/units.txt, or NULL (db_bad_line says where). */
+#define TP_UNITS_LINE_MAX 512 /* bytes of one line of models/units.txt (test_units checks) */
+
+/* A udunits2 unit system from models/units.txt, or NULL (db_bad_line says where). Each line is
+ * copied into a buffer on the stack: loading allocates nothing of tepid's own, so it cannot
+ * fail for want of memory but inside udunits2. */
 static ut_system *load_builtin(void)
 {
     ut_system *s = ut_new_system();
-    char *text = malloc(tp_units_data_len + 1);
-    char *line, *next;
+    const char *at = (const char *)tp_units_data, *end = at + tp_units_data_len;
+    char line[TP_UNITS_LINE_MAX];
     int number = 0;
-    if (!s || !text)
-        goto fail;
-    memcpy(text, tp_units_data, tp_units_data_len + 1);
-    for (line = text; line; line = next) {
-        next = strchr(line, '\n');
-        if (next)
-            *next++ = '\0';
+    if (!s)
+        return NULL;
+    while (at < end) {
+        const char *nl = memchr(at, '\n', (size_t)(end - at));
+        size_t len = (size_t)((nl ? nl : end) - at);
         number++;
+        if (len >= sizeof line) {
+            db_bad_line = number;
+            goto fail;
+        }
+        memcpy(line, at, len);
+        line[len] = '\0';
+        at += len + (nl ? 1 : 0);
         line[strcspn(line, "#")] = '\0';
         if (load_entry(s, line) != 0) {
             db_bad_line = number;
             goto fail;
         }
     }
-    free(text);
     return s;
 fail:
-    free(text);
     ut_free_system(s);
     return NULL;
 }

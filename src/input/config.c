@@ -410,6 +410,7 @@ static void join(char *out, size_t size, const char *path, const char *name)
 
 typedef struct reader {
     tp_diag *d;
+    int nomem; /* an allocation failed (reported): the status is TP_ERR_NOMEM, not an input error */
 } reader;
 
 /* Set every number of a section to TP_UNSET, recursively through maps. */
@@ -564,6 +565,7 @@ static void read_list(reader *r, const key *k, const tp_yamltree_node *n, void *
     items = calloc(count, k->size);
     if (!items) {
         tp_diag_error(r->d, tp_yamltree_loc(n), path, NULL, "out of memory");
+        r->nomem = 1;
         return;
     }
     *(void **)field(base, k->offset) = items;
@@ -919,7 +921,7 @@ tp_status tp_config_check_gains(const tp_yamltree *doc, const tp_description *de
 
 tp_status tp_config_read(const tp_yamltree *doc, tp_description *desc, tp_diag *d)
 {
-    reader r = {d};
+    reader r = {d, 0};
     int errors0 = d->errors;
     memset(desc, 0, sizeof *desc);
     init_section(&top_sec, desc);
@@ -939,7 +941,7 @@ tp_status tp_config_read(const tp_yamltree *doc, tp_description *desc, tp_diag *
         check_form(&r, doc, desc);
     if (d->errors != errors0) {
         tp_config_clear(desc);
-        return TP_ERR_CONFIG;
+        return r.nomem ? TP_ERR_NOMEM : TP_ERR_CONFIG;
     }
     apply_defaults(desc);
     check_run_size(&r, doc, desc);
@@ -954,7 +956,7 @@ tp_status tp_config_read(const tp_yamltree *doc, tp_description *desc, tp_diag *
 tp_status tp_config_read_materials(const tp_yamltree_node *map, const char *path,
                                    tp_material_spec **out, size_t *n, tp_diag *d)
 {
-    reader r = {d};
+    reader r = {d, 0};
     int errors0 = d->errors;
     struct {
         tp_material_spec *m;
@@ -967,7 +969,7 @@ tp_status tp_config_read_materials(const tp_yamltree_node *map, const char *path
         free(holder.m);
         *out = NULL;
         *n = 0;
-        return TP_ERR_CONFIG;
+        return r.nomem ? TP_ERR_NOMEM : TP_ERR_CONFIG;
     }
     *out = holder.m;
     *n = holder.n;
@@ -1043,8 +1045,11 @@ static int copy_section(const section *sec, void *dst, const void *src)
             if (!items || count == 0)
                 continue;
             copy = malloc(count * k->size);
-            if (!copy)
-                return -1;
+            if (!copy) {
+                /* Go on: every later list of dst still points into src until it is set. */
+                rc = -1;
+                continue;
+            }
             memcpy(copy, items, count * k->size);
             *(void **)field(dst, k->offset) = copy;
             *count_at(dst, k->count_offset) = count;

@@ -473,20 +473,28 @@ static void report_parser_error(builder *b, const yaml_parser_t *p, const char *
     }
 }
 
+/* "out of memory while reading" about `file`; TP_ERR_NOMEM. */
+static tp_status no_memory(const char *file, tp_diag *d)
+{
+    tp_diag_error(d, (tp_loc){file, 0, 0}, NULL, NULL, "out of memory while reading");
+    return TP_ERR_NOMEM;
+}
+
 /* Parse `text` into a tree; shared by files and --set values. Returns the root (may be NULL for
- * an empty document) through *root; nonzero on error. */
-static int build(tp_yamltree *doc, const char *file, const char *text, size_t len, int line_base,
-                 int col_base, tp_yamltree_node **root, tp_diag *d)
+ * an empty document) through *root. TP_OK; TP_ERR_CONFIG for an input error (reported); or
+ * TP_ERR_NOMEM when memory ran out (reported: an allocation failure is not an input error). */
+static tp_status build(tp_yamltree *doc, const char *file, const char *text, size_t len,
+                       int line_base, int col_base, tp_yamltree_node **root, tp_diag *d)
 {
     yaml_parser_t parser;
     yaml_event_t ev;
     builder *b;
-    int done = 0, rc = 0, i;
+    int done = 0, rc = 0, i, errors = d->errors;
 
     *root = NULL;
     b = calloc(1, sizeof *b);
     if (!b)
-        return -1;
+        return no_memory(file, d);
     b->doc = doc;
     b->file = file;
     b->d = d;
@@ -495,7 +503,7 @@ static int build(tp_yamltree *doc, const char *file, const char *text, size_t le
     b->one_line = strcmp(file, "--set") == 0;
     if (!yaml_parser_initialize(&parser)) {
         free(b);
-        return -1;
+        return no_memory(file, d);
     }
     yaml_parser_set_input_string(&parser, (const unsigned char *)text, len);
     while (!done) {
@@ -518,15 +526,16 @@ static int build(tp_yamltree *doc, const char *file, const char *text, size_t le
             node_free(b->stack[0]);
         else
             node_free(b->root);
-        if (d->errors == 0)
-            tp_diag_error(d, (tp_loc){file, 0, 0}, NULL, NULL, "out of memory while reading");
     } else {
         *root = b->root;
     }
     for (i = 0; i < b->n_anchors; i++)
         free(b->anchors[i].name);
     free(b);
-    return rc;
+    if (rc == 0)
+        return TP_OK;
+    /* A failure that reported nothing was an allocation. */
+    return d->errors == errors ? no_memory(file, d) : TP_ERR_CONFIG;
 }
 
 /* The error for a text over TP_YAMLTREE_MAX_BYTES, whether read from a file or given. */
@@ -542,6 +551,7 @@ tp_status tp_yamltree_load_text(const char *name, const char *text, size_t len, 
                                 tp_diag *d)
 {
     tp_yamltree *doc;
+    tp_status st;
     *out = NULL;
     if (len > TP_YAMLTREE_MAX_BYTES)
         return too_large(name, d);
@@ -559,18 +569,20 @@ tp_status tp_yamltree_load_text(const char *name, const char *text, size_t len, 
     }
     doc = calloc(1, sizeof *doc);
     if (!doc)
-        return TP_ERR_NOMEM;
+        return no_memory(name, d);
     doc->file = strdup(name);
     doc->text = malloc(len + 1);
     if (!doc->file || !doc->text) {
         tp_yamltree_destroy(&doc);
-        return TP_ERR_NOMEM;
+        return no_memory(name, d);
     }
     memcpy(doc->text, text, len);
     doc->text[len] = '\0';
     doc->len = len;
-    if (build(doc, doc->file, doc->text, len, 0, 0, &doc->root, d) != 0) {
-        tp_status st = doc->n_nodes >= TP_YAMLTREE_MAX_NODES ? TP_ERR_LIMIT : TP_ERR_CONFIG;
+    st = build(doc, doc->file, doc->text, len, 0, 0, &doc->root, d);
+    if (st != TP_OK) {
+        if (st == TP_ERR_CONFIG && doc->n_nodes >= TP_YAMLTREE_MAX_NODES)
+            st = TP_ERR_LIMIT;
         tp_yamltree_destroy(&doc);
         return st;
     }
@@ -819,8 +831,9 @@ tp_status tp_yamltree_set(tp_yamltree *doc, const char *assignment, tp_diag *d)
     tp_status st = split_assignment(assignment, line, path, sizeof path, &text, &tlen, d);
     if (st != TP_OK)
         return st;
-    if (build(doc, "--set", text, tlen, line - 1, (int)(text - assignment), &value, d) != 0)
-        return TP_ERR_USAGE;
+    st = build(doc, "--set", text, tlen, line - 1, (int)(text - assignment), &value, d);
+    if (st != TP_OK)
+        return st == TP_ERR_NOMEM ? st : TP_ERR_USAGE;
     if (!value) {
         tp_diag_error(d, (tp_loc){"--set", line, (int)(text - assignment) + 1}, path, NULL,
                       "missing value");

@@ -357,6 +357,7 @@ tp_status tp_assemble(const tp_description *desc, const tp_yamltree *doc, tp_dia
 {
     tp_network *net;
     tp_status st;
+    int errors0 = d->errors;
     *out = NULL;
     net = tp_network_create();
     if (!net)
@@ -381,6 +382,10 @@ tp_status tp_assemble(const tp_description *desc, const tp_yamltree *doc, tp_dia
         st = tp_plate_attach_sensor(desc, net);
     if (st == TP_OK)
         st = attach_circuit(desc, doc, net, d);
+    /* Every input error is reported; a builder that failed without a word ran out of memory
+     * (the builders count errors, and an allocation failure is none). */
+    if (st == TP_ERR_CONFIG && d->errors == errors0)
+        st = TP_ERR_NOMEM;
     if (st != TP_OK) {
         tp_network_destroy(&net);
         return st;

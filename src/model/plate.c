@@ -523,8 +523,9 @@ static tp_status lower_lumped(const tp_description *desc, const tp_yamltree *doc
     double stack = 0.0, tr = desc->room.temperature;
     tp_status st;
 
-    if (tp_materials_builtin(NULL, NULL, d) != TP_OK)
-        return TP_ERR_CONFIG;
+    st = tp_materials_builtin(NULL, NULL, d);
+    if (st != TP_OK)
+        return st == TP_ERR_NOMEM ? st : TP_ERR_CONFIG;
     if (n == 0 || n > TP_MAX_LAYERS) {
         tp_diag_error(d, tp_yamltree_nearest(doc, "bed.layers"), "bed.layers",
                       "list the layers bottom to top", "a bed needs 1 to %d layers", TP_MAX_LAYERS);

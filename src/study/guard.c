@@ -500,8 +500,9 @@ static tp_status build(ctx *cx, const tp_description *desc, const char *what,
     rc = tp_assemble(desc, cx->doc, &quiet, net);
     if (rc != TP_OK)
         tp_diag_error(cx->d, tp_diag_loc_none(), "guard",
-                      "narrow the ranges in guard:", "the %s cannot be assembled: %s", what,
-                      quiet.log);
+                      rc == TP_ERR_NOMEM ? NULL : "narrow the ranges in guard:",
+                      "the %s cannot be assembled: %s", what,
+                      rc == TP_ERR_NOMEM ? tp_status_message(rc) : quiet.log);
     return rc;
 }
 
