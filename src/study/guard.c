@@ -778,9 +778,8 @@ typedef struct factor {
     double level[2];
 } factor;
 
-/* Apply one corner's values to a copy of the description. */
-static tp_status apply_corner(const tp_description *base, const tp_network *net, tp_description *cd,
-                              const tp_guard_corner *c)
+tp_status tp_guard_corner_apply(const tp_description *base, const tp_network *net,
+                                tp_description *cd, const tp_guard_corner *c)
 {
     tp_status rs = tp_config_copy(cd, base);
     size_t i;
@@ -1472,7 +1471,7 @@ static void stuck_on(ctx *cx, const tp_description *desc, const tp_network *net,
         const tp_network *wn = NULL;
         tp_steady ws;
         memset(&ws, 0, sizeof ws);
-        if (apply_corner(desc, net, &cd, w) == TP_OK && build(cx, &cd, "corner", &wn) == TP_OK &&
+        if (tp_guard_corner_apply(desc, net, &cd, w) == TP_OK && build(cx, &cd, "corner", &wn) == TP_OK &&
             tp_steady_full(wn, 1.0, &ws, quiet) == TP_OK) {
             layer_refs(st, wn, cx->layers);
             for (k = 0; k < st->n_layers; k++)
@@ -1555,7 +1554,7 @@ tp_status tp_guard_study_run(const tp_description *desc, const tp_yamltree *doc,
         goto done;
     plan_corners(st, f, &nominal);
     for (c = 0; c < st->n_corners; c++) {
-        rs = apply_corner(desc, net, &cd, &st->corners[c]);
+        rs = tp_guard_corner_apply(desc, net, &cd, &st->corners[c]);
         if (rs == TP_OK)
             rs = run_corner(&cx, &cd, &st->corners[c]);
         tp_config_clear(&cd);

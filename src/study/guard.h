@@ -216,6 +216,14 @@ tp_status tp_guard_study_run(const tp_description *desc, const tp_yamltree *doc,
 /* Free what a study holds. */
 void tp_guard_study_clear(tp_guard_study *st);
 
+/* A copy of the description `base` (its network `net`, with a controller) into *cd, set to the
+ * corner `c`: its supply, resistance and airflow where finite (the resistance replaces a
+ * rating as sold) and its room; in the raw form the controlled source's supply and resistance,
+ * and every fixed node and initial temperature moved with the room. The caller clears *cd
+ * (tp_config_clear) in every case. Used by guard and size. */
+tp_status tp_guard_corner_apply(const tp_description *base, const tp_network *net,
+                                tp_description *cd, const tp_guard_corner *c);
+
 /* Evaluate settings `s` on the study's runs (fills det, margins, fault figures and counts).
  * Used by tp_guard_study_run; exposed for tests. */
 void tp_guard_evaluate(tp_guard_study *st, const tp_guard_settings *s);
