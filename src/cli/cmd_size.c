@@ -74,10 +74,11 @@ static tp_status parse_supplies(const tp_cli *cli, const char *text, size_args *
         }
         memcpy(item, p, len);
         item[len] = '\0';
+        v = TP_UNSET;
         if (tp_units_parse(item, TP_DIM_VOLTAGE, &v, msg, sizeof msg, &hint) != TP_OK ||
             !(v > 0)) {
             snprintf(full, sizeof full, "bad supply list '%s': item '%s': %s", text, item,
-                     v > 0 ? msg : "not a voltage above zero");
+                     isfinite(v) && !(v > 0) ? "not a voltage above zero" : msg);
             return option_error(cli, d, "--supply", "write voltages with units, separated by "
                                 "commas: 12V,24V,48V", full);
         }
@@ -240,10 +241,9 @@ static void add_answer(cJSON *arr, const size_args *a, const tp_size_result *r)
         return;
     cJSON_AddItemToArray(arr, o);
     tp_json_number(o, "supply_V", r->supply);
-    cJSON_AddBoolToObject(o, "feasible", r->feasible);
-    tp_json_number(o, "required_power_W", r->feasible ? r->power : TP_UNSET);
-    tp_json_number(o, "resistance_ohm", r->feasible ? r->resistance : TP_UNSET);
-    tp_json_number(o, "rated_power_W", r->feasible ? r->rated_power : TP_UNSET);
+    tp_json_number(o, "required_power_W", r->power);
+    tp_json_number(o, "resistance_ohm", r->resistance);
+    tp_json_number(o, "rated_power_W", r->rated_power);
     tp_json_number(o, "rated_step_W", TP_SIZE_RATED_STEP);
     tp_json_number(o, "max_power_W", r->p_max);
     cJSON_AddStringToObject(o, "limiting_corner", r->corners[r->limiting].name);
@@ -251,7 +251,6 @@ static void add_answer(cJSON *arr, const size_args *a, const tp_size_result *r)
     tp_json_number(o, "time_nominal_s", r->time_nominal);
     tp_json_number(o, "time_worst_s", r->time_worst);
     cJSON_AddStringToObject(o, "worst_corner", r->corners[r->worst].name);
-    tp_json_number(o, "best_time_s", r->feasible ? TP_UNSET : r->best_time);
     tp_json_number(o, "margin_nominal", r->corners[0].margin_at);
     tp_json_number(o, "margin_worst", r->margin_worst);
     tp_json_number(o, "cold_current_A", r->has_budget ? b->i_cold : TP_UNSET);
@@ -330,9 +329,11 @@ static tp_status run_size(const tp_cli *cli, tp_diag *d)
         rc = tp_size_run(&s.desc, s.doc, s.net, &rq, &res[i], d);
         infeasible += rc == TP_OK && !res[i].feasible;
     }
-    if (rc == TP_OK && tp_cli_get(cli, "json"))
+    /* No power meets the target: a failed computation writes no output (the summary says how
+     * close it came). */
+    if (rc == TP_OK && infeasible == 0 && tp_cli_get(cli, "json"))
         rc = write_json(tp_cli_get(cli, "json"), &a, res, n, d);
-    if (rc == TP_OK && tp_cli_get(cli, "plot")) {
+    if (rc == TP_OK && infeasible == 0 && tp_cli_get(cli, "plot")) {
         /* The plot draws the last supply's curves (the only one without --supply). */
         const tp_size_result *r = &res[n - 1];
         if (r->electric)

@@ -415,7 +415,7 @@ static tp_status check_request(const sz_ctx *cx, const tp_network *net)
             tp_diag_error(cx->d, tp_yamltree_nearest(cx->doc, "bed.layers"), "--reach",
                           "lower the target, or choose a material rated for it",
                           "the target %.0f degC is above the service limit of %s in layer '%s' "
-                          "(%.0f degC), where the %s is read",
+                          "(%.0f degC), where the %s is taken",
                           rq->target - TP_KELVIN_0C, m->id, layer->id,
                           m->max_temperature - TP_KELVIN_0C,
                           rq->surface ? "working surface" : "reading");
