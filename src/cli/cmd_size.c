@@ -167,9 +167,8 @@ static void print_answer(FILE *fp, const size_args *a, const tp_size_result *r)
         tp_summary_duration(r->best_time, t1, sizeof t1);
         fprintf(fp, "    NO POWER MEETS THE TARGET up to %.0f W, the largest considered (%s).\n",
                 r->p_max, r->p_max_why);
-        if (isfinite(lim->k_margin) || lim->k_time_exact)
-            fprintf(fp, "    At %.0f W the slowest corner ('%s') takes %s (allowed: ", r->p_max,
-                    r->corners[r->worst].name, isfinite(r->best_time) ? t1 : "longer than simulated");
+        fprintf(fp, "    At %.0f W the slowest corner ('%s') takes %s (allowed: ", r->p_max,
+                r->corners[r->worst].name, isfinite(r->best_time) ? t1 : "longer than simulated");
         tp_summary_duration(a->rq.within, t2, sizeof t2);
         fprintf(fp, "%s) and the smallest margin is %.2f (asked: %.2f).\n", t2, r->margin_worst,
                 a->rq.margin);
@@ -241,9 +240,11 @@ static void add_answer(cJSON *arr, const size_args *a, const tp_size_result *r)
         return;
     cJSON_AddItemToArray(arr, o);
     tp_json_number(o, "supply_V", r->supply);
-    tp_json_number(o, "required_power_W", r->power);
-    tp_json_number(o, "resistance_ohm", r->resistance);
-    tp_json_number(o, "rated_power_W", r->rated_power);
+    cJSON_AddBoolToObject(o, "feasible", r->feasible);
+    tp_json_number(o, "required_power_W", r->feasible ? r->power : TP_UNSET);
+    tp_json_number(o, "resistance_ohm", r->feasible ? r->resistance : TP_UNSET);
+    tp_json_number(o, "rated_power_W", r->feasible ? r->rated_power : TP_UNSET);
+    tp_json_number(o, "best_time_s", r->feasible ? TP_UNSET : r->best_time);
     tp_json_number(o, "rated_step_W", TP_SIZE_RATED_STEP);
     tp_json_number(o, "max_power_W", r->p_max);
     cJSON_AddStringToObject(o, "limiting_corner", r->corners[r->limiting].name);
@@ -329,13 +330,15 @@ static tp_status run_size(const tp_cli *cli, tp_diag *d)
         rc = tp_size_run(&s.desc, s.doc, s.net, &rq, &res[i], d);
         infeasible += rc == TP_OK && !res[i].feasible;
     }
-    /* No power meets the target: a failed computation writes no output (the summary says how
-     * close it came). */
-    if (rc == TP_OK && infeasible == 0 && tp_cli_get(cli, "json"))
+    /* No power meets the target on any supply: a failed computation writes no output (the
+     * summary says how close it came). With some supplies answered, the others say so. */
+    if (rc == TP_OK && infeasible < n && tp_cli_get(cli, "json"))
         rc = write_json(tp_cli_get(cli, "json"), &a, res, n, d);
-    if (rc == TP_OK && infeasible == 0 && tp_cli_get(cli, "plot")) {
-        /* The plot draws the last supply's curves (the only one without --supply). */
+    if (rc == TP_OK && infeasible < n && tp_cli_get(cli, "plot")) {
+        /* The plot draws the last answered supply's curves (the only one without --supply). */
         const tp_size_result *r = &res[n - 1];
+        for (i = n - 1; i > 0 && !res[i].feasible; i--)
+            r = &res[i - 1];
         if (r->electric)
             snprintf(title, sizeof title, "%s: time to %.0f degC (%s), full on, on %.0f V",
                      tp_session_title(&s), a.rq.target - TP_KELVIN_0C,
@@ -358,12 +361,18 @@ static tp_status run_size(const tp_cli *cli, tp_diag *d)
             print_answer(s.text, &a, &res[i]);
         tp_summary_cautions(s.text, "cautions", res[n - 1].cautions, res[n - 1].n_cautions);
     }
-    if (rc == TP_OK && infeasible > 0) {
+    if (rc == TP_OK && infeasible == n) {
         tp_diag_error(d, tp_diag_loc_none(), NULL,
                       "reduce the losses, allow more time, or lower --reach",
-                      "no heater power up to the limit meets the target on %d of %d supplies "
-                      "(see the summary)", infeasible, n);
+                      "no heater power up to the limit meets the target%s (see the summary)",
+                      n > 1 ? " on any supply" : "");
         rc = TP_ERR_SOLVER;
+    } else if (rc == TP_OK && infeasible > 0) {
+        for (i = 0; i < n; i++)
+            if (!res[i].feasible)
+                tp_diag_warn(d, tp_diag_loc_none(), "--supply", NULL,
+                             "no heater power up to %.0f W meets the target on %.1f V (see the "
+                             "summary)", res[i].p_max, res[i].supply);
     }
     for (i = 0; i < n; i++)
         tp_size_clear(&res[i]);

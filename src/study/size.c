@@ -689,8 +689,10 @@ tp_status tp_size_run(const tp_description *desc, const tp_yamltree *doc, const 
             tp_diag_error(d, tp_diag_loc_none(), "--supply", NULL,
                           "the plate on %.1f V cannot be assembled: %s", r->supply, quiet.log);
     }
+    /* The ranges of the configured plate: a declared supply range is taken relative to the
+     * configured supply and moved with it (plan). */
     if (rs == TP_OK)
-        rs = tp_guard_ranges_resolve(&base, doc, base_net, &r->ranges, d);
+        rs = tp_guard_ranges_resolve(desc, doc, net, &r->ranges, d);
     if (rs != TP_OK)
         goto done;
     scale_cap(&cx, base_net);
