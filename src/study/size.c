@@ -253,55 +253,23 @@ static tp_status test_margin(sz_ctx *cx, int c, double k, int *ok)
 /* ---- corners ------------------------------------------------------------------------------- */
 
 /* The corners of the ranges moved onto the requested supply and starting resistance: nominal
- * first, then every combination of the varied ranges' ends. */
+ * first, then every combination of the varied ranges' ends (tp_guard_corners_plan). */
 static void plan(tp_size_result *r, const tp_guard_ranges *rr)
 {
-    double lv[TP_RANGE_COUNT][2];
-    int varied[TP_RANGE_COUNT], k, n2 = 0, mask;
-    for (k = 0; k < TP_RANGE_COUNT; k++) {
-        const tp_guard_range *g = &rr->r[k];
-        double base = k == TP_RANGE_SUPPLY ? r->supply : k == TP_RANGE_RESISTANCE ? r->r_start : 1;
-        int rel = k == TP_RANGE_SUPPLY || k == TP_RANGE_RESISTANCE;
-        varied[k] = g->origin != TP_RANGE_NONE && g->hi > g->lo;
-        lv[k][0] = rel ? base * g->lo / g->nominal : g->lo;
-        lv[k][1] = rel ? base * g->hi / g->nominal : g->hi;
-        if (!varied[k])
-            lv[k][0] = lv[k][1] = rel ? base : g->nominal;
-        n2 += varied[k];
-    }
+    tp_guard_corner gc[TP_GUARD_CORNERS_MAX];
+    const tp_guard_range *v = &rr->r[TP_RANGE_SUPPLY], *res = &rr->r[TP_RANGE_RESISTANCE];
+    int c;
+    r->n_corners = tp_guard_corners_plan(rr, r->electric ? r->supply / v->nominal : 1.0,
+                                         r->electric ? r->r_start / res->nominal : 1.0, gc);
     memset(r->corners, 0, sizeof r->corners);
-    r->corners[0].nominal = 1;
-    snprintf(r->corners[0].name, sizeof r->corners[0].name, "nominal");
-    r->corners[0].supply = r->supply;
-    r->corners[0].resistance = r->r_start;
-    r->corners[0].room = rr->r[TP_RANGE_ROOM].nominal;
-    r->corners[0].airflow = rr->r[TP_RANGE_AIRFLOW].nominal;
-    r->n_corners = 1;
-    for (mask = 0; n2 > 0 && mask < (1 << n2); mask++) {
-        tp_size_corner *c = &r->corners[r->n_corners++];
-        double v[TP_RANGE_COUNT];
-        int bit = 0, hiend[TP_RANGE_COUNT];
-        size_t len = 0;
-        for (k = 0; k < TP_RANGE_COUNT; k++) {
-            hiend[k] = varied[k] ? (mask >> bit++) & 1 : 0;
-            v[k] = lv[k][hiend[k]];
-        }
-        c->supply = v[TP_RANGE_SUPPLY];
-        c->resistance = v[TP_RANGE_RESISTANCE];
-        c->room = v[TP_RANGE_ROOM];
-        c->airflow = v[TP_RANGE_AIRFLOW];
-        /* Named as guard names its corners. */
-        if (varied[TP_RANGE_SUPPLY])
-            len += (size_t)snprintf(c->name + len, sizeof c->name - len, "%.1f V", c->supply);
-        if (varied[TP_RANGE_RESISTANCE] && len < sizeof c->name)
-            len += (size_t)snprintf(c->name + len, sizeof c->name - len, "%sR %s",
-                                    len ? ", " : "", hiend[TP_RANGE_RESISTANCE] ? "high" : "low");
-        if (varied[TP_RANGE_ROOM] && len < sizeof c->name)
-            len += (size_t)snprintf(c->name + len, sizeof c->name - len, "%sroom %.0f degC",
-                                    len ? ", " : "", c->room - TP_KELVIN_0C);
-        if (varied[TP_RANGE_AIRFLOW] && len < sizeof c->name)
-            snprintf(c->name + len, sizeof c->name - len, "%sair %.1f m/s", len ? ", " : "",
-                     c->airflow);
+    for (c = 0; c < r->n_corners; c++) {
+        tp_size_corner *sc = &r->corners[c];
+        memcpy(sc->name, gc[c].name, sizeof sc->name); /* both char[160] */
+        sc->nominal = gc[c].nominal;
+        sc->supply = gc[c].supply;
+        sc->resistance = gc[c].resistance;
+        sc->room = gc[c].room;
+        sc->airflow = gc[c].airflow;
     }
 }
 
