@@ -294,6 +294,52 @@ static void test_size_one_answer_per_supply(void **state)
     cJSON_Delete(root);
 }
 
+/* A declared supply range moves with --supply, relative to the configured supply: 22.8 to
+ * 25.2 V around 24 V is 11.4 to 12.6 V around 12 V (before the fix the corners stayed at 22.8
+ * and 25.2 V, and 12 V was sized on a 24 V supply). */
+static void test_size_declared_supply_range_moves_with_supply(void **state)
+{
+    const char *extra[] = {"--reach", "60degC", "--within", "5min", "--supply", "12V", NULL};
+    const cJSON *a;
+    cJSON *root = run_size(
+        ONE_NODE("{id: pad, node: plate, supply: 24 V, resistance: 5.76 ohm, tempco: 0 1/K, "
+                 "reference: 20 degC}",
+                 "guard: {supply: [22.8 V, 25.2 V], resistance: 5 %, room: [15 degC, 30 degC]}\n"),
+        extra, &a);
+    (void)state;
+    assert_string_equal(str(a, "limiting_corner"), "11.4 V, R high, room 15 degC");
+    /* Hand calculation as in the default-range test: (0.95 V)^2 / (1.05 R0). */
+    tp_check_rel("required power", num(a, "required_power_W"),
+                 closed_form(45.0, 300.0) * 1.05 / (0.95 * 0.95), 2e-3);
+    cJSON_Delete(root);
+}
+
+/* On the 24 V demo 12 V has no answer below the pad's 400 W (its 40 mohm series path) while
+ * 24 V has one: a warning names 12 V, the JSON says so, and the exit is 0. */
+static void test_size_reports_the_supplies_that_have_an_answer(void **state)
+{
+    tp_scratch *s = tp_group_scratch();
+    char json[TP_TEST_PATH];
+    const char *args[] = {"size", TP_SOURCE_DIR "/configs/workshop-bed-24v.yaml", "-q",
+                          "--reach", "90degC", "--within", "6min", "--supply", "12V,24V",
+                          "--json", json, NULL};
+    tp_run_result r;
+    cJSON *root;
+    const cJSON *arr;
+    (void)state;
+    tp_scratch_path(s, "two.json", json, sizeof json);
+    tp_run_tepid(s, args, &r);
+    assert_int_equal(r.status, 0);
+    tp_check_contains("warning", r.err, "no heater power up to 400 W meets the target on 12.0 V");
+    tp_run_clear(&r);
+    root = tp_read_json(json);
+    arr = cJSON_GetObjectItem(root, "supplies");
+    assert_false(cJSON_IsTrue(cJSON_GetObjectItem(cJSON_GetArrayItem(arr, 0), "feasible")));
+    assert_true(cJSON_IsTrue(cJSON_GetObjectItem(cJSON_GetArrayItem(arr, 1), "feasible")));
+    assert_true(num(cJSON_GetArrayItem(arr, 0), "best_time_s") > 360.0);
+    cJSON_Delete(root);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -304,6 +350,8 @@ int main(void)
         cmocka_unit_test(test_size_agrees_with_steady_and_budget),
         cmocka_unit_test(test_size_refuses_when_no_power_meets),
         cmocka_unit_test(test_size_one_answer_per_supply),
+        cmocka_unit_test(test_size_declared_supply_range_moves_with_supply),
+        cmocka_unit_test(test_size_reports_the_supplies_that_have_an_answer),
     };
     return cmocka_run_group_tests(tests, tp_scratch_group_setup, tp_scratch_group_teardown);
 }
