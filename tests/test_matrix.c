@@ -1,4 +1,4 @@
-/* Every verb on every form: warmup, steady, budget, tune, guard, fit, sweep, explain and check on
+/* Every verb on every form: warmup, steady, budget, tune, guard, fit, sweep, explain, check and size on
  * a raw network (configs/raw-five-node.yaml), a lumped physical plate
  * (configs/workshop-bed-24v.yaml) and a gridded one (configs/small-pad-grid.yaml on a 4 x 4
  * grid). Each run must exit 0 with a summary (and JSON that parses, where the verb writes it),
@@ -52,12 +52,15 @@ static const row rows[] = {
     {"sweep", -1, {"--vary", ARG_VARY, NULL}, 1, 0, NULL},
     {"explain", -1, {NULL}, 1, 0, NULL},
     {"check", -1, {NULL}, 0, 0, NULL},
+    {"size", -1, {"--reach", "60degC", "--within", "15min", NULL}, 1, 0, NULL},
     /* the documented refusals */
     {"guard", -1, {"--set", "control.mode=off", NULL}, 0, 2,
      "control.mode: guard judges a controller holding a setpoint; mode 'off' holds none"},
     {"fit", -1, {"--free", ARG_FREE, NULL}, 0, 2, "tepid fit needs --log FILE"},
     {"guard", RAW, {"--set", "guard.gust={after: 1 min, airflow: 2 m/s}", NULL}, 0, 2,
      "guard.gust: not available in the raw network form"},
+    {"size", RAW, {"--reach", "60degC", "--within", "15min", "--surface", NULL}, 0, 2,
+     "--surface: the raw network form has no working surface"},
 };
 
 static char log_path[N_FORMS][2 * TP_TEST_PATH]; /* room for the directory and a name */

@@ -8,6 +8,8 @@
 #include <setjmp.h>
 #include <cmocka.h>
 
+#include <math.h>
+
 #include "tp_test.h"
 
 /* An invented first-order plant: C = 600 J/K, G = 1.5 W/K to a 20 degC room, a 100 W pad, the
@@ -103,11 +105,93 @@ static void test_tune_from_onoff(void **state)
     tp_run_clear(&r);
 }
 
+/* Run tune with `extra` on `cfg`, read the block it prints, run warmup with those gains and
+ * return warmup's reading overshoot (K). */
+static double overshoot_of_printed_gains(const char *cfg, const char *const *extra)
+{
+    tp_scratch *s = tp_group_scratch();
+    char json[TP_TEST_PATH], kp[64], ki[64], kd[64];
+    const char *tune[24] = {"tune", cfg};
+    const char *warm[] = {"warmup", cfg, "-q", "--json", json, "--set", "control.mode=pid",
+                          "--set", kp, "--set", ki, "--set", kd, NULL};
+    tp_run_result r;
+    const char *block;
+    double vkp, vki, vkd, over;
+    int n = 2;
+    cJSON *root;
+    while (*extra)
+        tune[n++] = *extra++;
+    tune[n] = NULL;
+    tp_run_tepid(s, tune, &r);
+    if (r.status != 0)
+        fail_msg("tune exited %d:\n%s", r.status, r.err);
+    block = strstr(r.out, "    mode: pid\n");
+    assert_non_null(block);
+    assert_int_equal(sscanf(block, "    mode: pid\n    kp: %lf 1/K\n    ki: %lf 1/(K.s)\n"
+                                   "    kd: %lf s/K\n", &vkp, &vki, &vkd), 3);
+    tp_check_contains("tune", r.out, "chosen by --overshoot");
+    tp_run_clear(&r);
+    snprintf(kp, sizeof kp, "control.kp=%.4g 1/K", vkp);
+    snprintf(ki, sizeof ki, "control.ki=%.4g 1/(K.s)", vki);
+    snprintf(kd, sizeof kd, "control.kd=%.4g s/K", vkd);
+    tp_scratch_path(s, "warm.json", json, sizeof json);
+    assert_int_equal(tp_run_status(s, warm), 0);
+    root = tp_read_json(json);
+    over = cJSON_GetObjectItem(root, "overshoot_reading_K")->valuedouble;
+    assert_true(isfinite(cJSON_GetObjectItem(root, "time_to_setpoint_s")->valuedouble));
+    cJSON_Delete(root);
+    return over;
+}
+
+/* Issue 17 section 4: the gains tune --overshoot 2K prints, pasted and run through warmup,
+ * overshoot at most 2 K (the limit itself is the reference: common practice, no source, that
+ * a print bed should overshoot by a few kelvin at most). The demo's own gains overshoot 5.3 K
+ * (docs/sizing.md), so the search has work to do. */
+static void test_tune_overshoot_gains_meet_the_limit_on_the_demo(void **state)
+{
+    const char *extra[] = {"--overshoot", "2K", NULL};
+    double over = overshoot_of_printed_gains(TP_SOURCE_DIR "/configs/workshop-bed-24v.yaml",
+                                             extra);
+    (void)state;
+    /* The printed gains are rounded to 4 digits: 0.05 K of slack. */
+    assert_true(over <= 2.0 + 0.05);
+    assert_true(over > 0.5); /* the fastest within the limit uses most of it */
+}
+
+static void test_tune_overshoot_gains_meet_the_limit_on_a_hotplate(void **state)
+{
+    const char *extra[] = {"--overshoot", "2K", "--rule", "imc", NULL};
+    double over = overshoot_of_printed_gains(TP_SOURCE_DIR "/configs/lab-hotplate-230v.yaml",
+                                             extra);
+    (void)state;
+    assert_true(over <= 2.0 + 0.05);
+}
+
+/* No parameter meets the limit when no run reaches the setpoint within run.duration: exit 1,
+ * the range searched and the reason named. */
+static void test_tune_overshoot_says_when_nothing_meets(void **state)
+{
+    tp_scratch *s = tp_group_scratch();
+    const char *args[] = {"tune", TP_SOURCE_DIR "/configs/workshop-bed-24v.yaml", "-q",
+                          "--overshoot", "2K", "--set", "run.duration=3 min", NULL};
+    tp_run_result r;
+    (void)state;
+    tp_run_tepid(s, args, &r);
+    assert_int_equal(r.status, 1);
+    tp_check_contains("tune", r.err, "--overshoot: no tau_c from");
+    tp_check_contains("tune", r.err, "keeps the overshoot within 2.00 K");
+    tp_check_contains("tune", r.err, "no run reached the setpoint");
+    tp_run_clear(&r);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_tune_runs_without_gains_and_block_pastes),
         cmocka_unit_test(test_tune_from_onoff),
+        cmocka_unit_test(test_tune_overshoot_gains_meet_the_limit_on_the_demo),
+        cmocka_unit_test(test_tune_overshoot_gains_meet_the_limit_on_a_hotplate),
+        cmocka_unit_test(test_tune_overshoot_says_when_nothing_meets),
     };
     return cmocka_run_group_tests(tests, tp_scratch_group_setup, tp_scratch_group_teardown);
 }

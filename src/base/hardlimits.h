@@ -47,5 +47,8 @@
 #define TP_FIT_MAX_PARAMS 8        /* free parameters in one fit */
 #define TP_FIT_FREE_MAX 32         /* --free options on one command line */
 #define TP_FIT_STARTS_MAX 20       /* most starting points of a fit */
+#define TP_SIZE_SUPPLIES_MAX 8     /* supply voltages in one size --supply list */
+#define TP_SIZE_SCALE_MAX 100.0    /* size: largest heater power considered, as a multiple of
+                                      the configured one (when no tighter limit applies) */
 
 #endif

@@ -61,22 +61,6 @@ static void series_path(FILE *fp, const tp_circuit *c)
     fputc('\n', fp);
 }
 
-/* "18 AWG (15.1 A; ampacity decides)" or "none up to 4 AWG" for one series of a
- * recommendation. */
-static void gauge(char *buf, size_t size, const tp_ampacity_pick *p, int awg)
-{
-    const char *why = p->limited_by && strcmp(p->limited_by, "both") == 0
-                          ? "ampacity and drop decide"
-                      : p->limited_by && strcmp(p->limited_by, "drop") == 0 ? "drop decides"
-                                                                             : "ampacity decides";
-    if (!isfinite(p->size))
-        snprintf(buf, size, "none %s", awg ? "up to 4 AWG" : "up to 16 mm2");
-    else if (awg)
-        snprintf(buf, size, "%.0f AWG (%.1f A; %s)", p->size, p->ampacity, why);
-    else
-        snprintf(buf, size, "%.3g mm2 (%.1f A; %s)", p->size * 1e6, p->ampacity, why);
-}
-
 /* The wire's ampacity, the smallest wire and the fuse. */
 static void wire_lines(FILE *fp, const tp_description *desc, const tp_budget *b)
 {
@@ -97,8 +81,8 @@ static void wire_lines(FILE *fp, const tp_description *desc, const tp_budget *b)
             fprintf(fp, "  wire ampacity: none: the table rates no wire this thin with %.0f degC "
                         "insulation\n", c->insulation - TP_KELVIN_0C);
     }
-    gauge(awg, sizeof awg, &b->wire.awg, 1);
-    gauge(mm2, sizeof mm2, &b->wire.metric, 0);
+    tp_summary_wire_pick(awg, sizeof awg, &b->wire.awg, 1);
+    tp_summary_wire_pick(mm2, sizeof mm2, &b->wire.metric, 0);
     if (isfinite(b->wire.length))
         fprintf(fp, "  smallest wire for %.2f A within %.1f %% drop over 2 x %.2f m: %s, or %s\n",
                 b->wire.amps, 100.0 * b->wire.max_drop, b->wire.length, awg, mm2);

@@ -25,6 +25,10 @@ static const tp_opt tune_opts[] = {
     {"tau-c", 0, 1, 0, 0, "TIME", "closed-loop time constant (SIMC) or lambda (IMC); default: "
                                   "the effective dead time (SIMC 'tight' choice)"},
     {"step", 0, 1, 0, 0, "FRACTION", "duty step of the identification (default 0.1)"},
+    {"overshoot", 0, 1, 0, 0, "LIMIT", "search the rule's parameter for the fastest warm-up whose "
+                                       "reading overshoots at most LIMIT, e.g. 2K"},
+    {"worst", 0, 0, 0, 0, NULL, "with --overshoot: keep the limit in every corner of guard's "
+                                "ranges too"},
     {"json", 0, 1, 0, TP_OUT_FILE, "FILE", "write the model, the gains and the resulting metrics as JSON"},
     {"csv", 0, 1, 0, TP_OUT_FILE, "FILE", "write the warm-up with the suggested gains as CSV"},
     {"plot", 0, 1, 0, TP_OUT_FIGURE, "FILE", "draw the warm-up with the suggested gains"},
@@ -34,8 +38,9 @@ static const tp_opt tune_opts[] = {
 };
 
 static tp_status parse_options(const tp_cli *cli, tp_tune_rule *rule, double *tau_c,
-                               double *step, tp_diag *d)
+                               double *step, double *limit, tp_diag *d)
 {
+    const char *o = tp_cli_get(cli, "overshoot");
     const char *r = tp_cli_get(cli, "rule"), *t = tp_cli_get(cli, "tau-c");
     const char *s = tp_cli_get(cli, "step");
     char msg[256];
@@ -61,11 +66,32 @@ static tp_status parse_options(const tp_cli *cli, tp_tune_rule *rule, double *ta
                       "bad step '%s'", s);
         return TP_ERR_USAGE;
     }
+    *limit = TP_UNSET;
+    if (o && (tp_units_parse(o, TP_DIM_INTERVAL, limit, msg, sizeof msg, &hint) != TP_OK ||
+              !(*limit > 0))) {
+        tp_diag_error(d, (tp_loc){cli->file, 0, 0}, "--overshoot",
+                      "a temperature difference above zero, e.g. 2K",
+                      "bad overshoot limit '%s'", o);
+        return TP_ERR_USAGE;
+    }
+    if (o && t) {
+        tp_diag_error(d, (tp_loc){cli->file, 0, 0}, "--overshoot",
+                      "drop --tau-c: --overshoot chooses it",
+                      "--overshoot searches the parameter --tau-c would fix");
+        return TP_ERR_USAGE;
+    }
+    if (!o && tp_cli_flag(cli, "worst")) {
+        tp_diag_error(d, (tp_loc){cli->file, 0, 0}, "--worst", "add --overshoot LIMIT, e.g. 2K",
+                      "--worst applies the overshoot limit in every corner: it needs "
+                      "--overshoot");
+        return TP_ERR_USAGE;
+    }
     return TP_OK;
 }
 
 static tp_status write_json(const char *path, const tp_fopdt *m, const tp_gains *g,
-                            tp_tune_rule rule, const tp_metrics *mt, tp_diag *d)
+                            tp_tune_rule rule, const tp_metrics *mt, const tp_tune_search *sr,
+                            const tp_metrics *cur, tp_diag *d)
 {
     cJSON *root = cJSON_CreateObject(), *model, *gains, *result;
     tp_status st;
@@ -91,24 +117,96 @@ static tp_status write_json(const char *path, const tp_fopdt *m, const tp_gains 
     tp_json_metric(result, mt, TP_MET_TIME_SETPOINT);
     tp_json_metric(result, mt, TP_MET_OVERSHOOT_READING);
     tp_json_metric(result, mt, TP_MET_TIME_READY);
+    if (sr) {
+        cJSON *search = cJSON_AddObjectToObject(root, "search");
+        if (search) {
+            tp_json_number(search, "overshoot_limit_K", sr->limit);
+            tp_json_number(search, "cases", sr->n_cases);
+            tp_json_number(search, "tried", sr->tried);
+            tp_json_number(search, "param_low_s", sr->param_lo);
+            tp_json_number(search, "param_high_s", sr->param_hi);
+            tp_json_number(search, "worst_overshoot_K", sr->overshoot);
+        }
+    }
+    if (cur) {
+        cJSON *current = cJSON_AddObjectToObject(root, "current");
+        if (current) {
+            tp_json_metric(current, cur, TP_MET_TIME_SETPOINT);
+            tp_json_metric(current, cur, TP_MET_OVERSHOOT_READING);
+            tp_json_metric(current, cur, TP_MET_TIME_READY);
+        }
+    }
     st = tp_json_write(path, root, d);
     cJSON_Delete(root);
     return st;
 }
 
+/* Whether the config's own controller can be run for comparison: on-off, or pid with gains. */
+static int has_current(const tp_session *s)
+{
+    const tp_control_spec *c = &s->desc.control;
+    return tp_network_holds(s->net) &&
+           (c->mode == TP_MODE_ONOFF || (c->mode == TP_MODE_PID && tp_isset(c->kp)));
+}
+
+/* The current controller's and the new gains' warm-ups side by side, and which is better: the
+ * one within the limit (when there is one), then the faster to the setpoint; without a limit,
+ * better only when faster and with no more overshoot. */
+static void compare(FILE *fp, const tp_session *s, const tp_metrics *cur, const tp_metrics *now,
+                    double limit)
+{
+    char a[32], b[32], c[32], e[32];
+    const tp_control_spec *cs = &s->desc.control;
+    int cur_ok = isfinite(cur->t_setpoint) && (!isfinite(limit) || cur->overshoot_reading <= limit);
+    int new_ok = isfinite(now->t_setpoint) && (!isfinite(limit) || now->overshoot_reading <= limit);
+    const char *verdict;
+    tp_summary_duration(cur->t_setpoint, a, sizeof a);
+    tp_summary_duration(now->t_setpoint, b, sizeof b);
+    tp_summary_duration(cur->t_surface_ready, c, sizeof c);
+    tp_summary_duration(now->t_surface_ready, e, sizeof e);
+    fprintf(fp, "  compared with the config's controller (%s):\n", cs->mode == TP_MODE_PID
+                                                                     ? "pid, its gains"
+                                                                     : "on-off");
+    fprintf(fp, "    %-28s %14s %14s\n", "", "current", "suggested");
+    fprintf(fp, "    %-28s %14s %14s\n", "reading at the setpoint", a, b);
+    fprintf(fp, "    %-28s %12.2f K %12.2f K\n", "overshoot (reading)", cur->overshoot_reading,
+            now->overshoot_reading);
+    fprintf(fp, "    %-28s %14s %14s\n", "surface ready", c, e);
+    if (cur_ok != new_ok)
+        verdict = new_ok ? "the suggested gains (only they meet the limit)"
+                         : "the current controller (only it meets the limit)";
+    else if (!new_ok)
+        verdict = isfinite(limit) ? "neither: both miss the limit" : "neither reaches the setpoint";
+    else if (isfinite(limit))
+        verdict = now->t_setpoint < cur->t_setpoint ? "the suggested gains (faster, within the limit)"
+                  : now->t_setpoint > cur->t_setpoint ? "the current controller (faster, within the limit)"
+                                                      : "neither: equal";
+    else if (now->t_setpoint <= cur->t_setpoint && now->overshoot_reading <= cur->overshoot_reading)
+        verdict = "the suggested gains (no slower, no more overshoot)";
+    else if (now->t_setpoint >= cur->t_setpoint && now->overshoot_reading >= cur->overshoot_reading)
+        verdict = "the current controller (no slower, no more overshoot)";
+    else
+        verdict = "a trade-off: one is faster, the other overshoots less (give --overshoot to "
+                  "decide)";
+    fprintf(fp, "    better: %s\n", verdict);
+}
+
 static tp_status run_tune(const tp_cli *cli, tp_diag *d)
 {
     tp_session s;
-    tp_fopdt m;
+    tp_fopdt m, me;
     tp_gains g;
-    tp_warmup w;
+    tp_warmup w, wc;
     tp_control tuned_ctl;
     tp_net_change change;
+    tp_tune_search sr;
     const tp_network *tuned = NULL;
     tp_tune_rule rule;
-    double tau_c, step, dead_eff;
-    char buf[64], buf2[64];
-    tp_status rc = parse_options(cli, &rule, &tau_c, &step, d);
+    double tau_c, step, dead_eff, limit;
+    int current = 0;
+    char buf[64], buf2[64], title[512];
+    const char *pname;
+    tp_status rc = parse_options(cli, &rule, &tau_c, &step, &limit, d);
     if (rc != TP_OK)
         return rc;
     /* The plant is identified in open loop: a pid controller needs no gains yet (issue 15
@@ -117,24 +215,42 @@ static tp_status run_tune(const tp_cli *cli, tp_diag *d)
     if (rc != TP_OK)
         return rc;
     memset(&w, 0, sizeof w);
+    memset(&wc, 0, sizeof wc);
+    memset(&sr, 0, sizeof sr);
+    pname = rule == TP_RULE_SIMC ? "tau_c" : "lambda";
     rc = tp_tune_identify(s.net, &s.desc.run, step, &m, d);
     if (rc != TP_OK)
         goto done;
     /* A sampled controller adds about half its period of effective delay (Skogestad 2003,
      * "half rule" for the zero-order hold). */
     dead_eff = m.dead + 0.5 * s.net->control.period;
+    me = m;
+    me.dead = dead_eff;
     if (!isfinite(tau_c))
         tau_c = rule == TP_RULE_SIMC ? fmax(dead_eff, TP_TAU_C_FLOOR * m.tau)
                                      : fmax(0.8 * dead_eff, 0.1 * m.tau);
-    if (rule == TP_RULE_SIMC) {
-        tp_fopdt me = m;
-        me.dead = dead_eff;
-        tp_tune_simc(&me, tau_c, &g);
-    } else {
-        tp_fopdt me = m;
-        me.dead = dead_eff;
-        tp_tune_imc(&me, tau_c, &g);
+    if (isfinite(limit)) {
+        rc = tp_tune_overshoot(&s.desc, s.doc, s.net, &me, rule, tau_c, limit,
+                               tp_cli_flag(cli, "worst"), &sr, d);
+        if (rc == TP_OK && !sr.found) {
+            char least[160] = "no run reached the setpoint";
+            if (isfinite(sr.least_param))
+                snprintf(least, sizeof least, "the least overshoot of a run reaching the setpoint "
+                         "was %.2f K at %s = %.3g s", sr.least_overshoot, pname, sr.least_param);
+            tp_diag_error(d, tp_diag_loc_none(), "--overshoot",
+                          "allow more overshoot, lengthen run.duration, try --rule imc, or tune "
+                          "by hand",
+                          "no %s from %.3g to %.3g s keeps the overshoot within %.2f K%s and "
+                          "reaches the setpoint within run.duration (%d tried); %s",
+                          pname, sr.param_lo, sr.param_hi, limit,
+                          sr.n_cases > 1 ? " in every corner" : "", sr.tried, least);
+            rc = TP_ERR_SOLVER;
+        }
+        if (rc != TP_OK)
+            goto done;
+        tau_c = sr.param;
     }
+    tp_tune_gains(&me, rule, tau_c, &g);
     /* The warm-up with the suggested gains runs on a copy of the plate with that controller. */
     tuned_ctl = s.net->control;
     tuned_ctl.mode = TP_MODE_PID;
@@ -145,12 +261,22 @@ static tp_status run_tune(const tp_cli *cli, tp_diag *d)
     rc = tp_network_copy(s.net, &change, 1, &tuned);
     if (rc == TP_OK)
         rc = tp_warmup_run(tuned, &s.desc.run, &w, d);
+    /* The config's own controller, for the comparison. */
+    if (rc == TP_OK && has_current(&s)) {
+        rc = tp_warmup_run(s.net, &s.desc.run, &wc, d);
+        current = rc == TP_OK;
+    }
     if (rc == TP_OK && tp_cli_get(cli, "csv"))
         rc = tp_csv_write_history(tp_cli_get(cli, "csv"), &w.history, d);
     if (rc == TP_OK && tp_cli_get(cli, "json"))
-        rc = write_json(tp_cli_get(cli, "json"), &m, &g, rule, &w.metrics, d);
-    if (rc == TP_OK && tp_cli_get(cli, "plot"))
-        rc = tp_figure_warmup(tp_cli_get(cli, "plot"), tp_session_title(&s), tuned, &w, d);
+        rc = write_json(tp_cli_get(cli, "json"), &m, &g, rule, &w.metrics,
+                        isfinite(limit) ? &sr : NULL, current ? &wc.metrics : NULL, d);
+    if (rc == TP_OK && tp_cli_get(cli, "plot")) {
+        snprintf(title, sizeof title, "%s: %s, %s = %.3g s; kp %.4g 1/K, ki %.4g 1/(K.s), kd %.4g s/K",
+                 tp_session_title(&s), rule == TP_RULE_SIMC ? "SIMC PI" : "IMC-PID", pname, tau_c,
+                 g.kp, g.ki, g.kd);
+        rc = tp_figure_warmup(tp_cli_get(cli, "plot"), title, tuned, &w, d);
+    }
     if (rc == TP_OK && s.text) {
         tp_caution cautions[TP_CAUTIONS_MAX];
         fprintf(s.text, "tepid tune %s\n  ", cli->file);
@@ -162,7 +288,13 @@ static tp_status run_tune(const tp_cli *cli, tp_diag *d)
         fprintf(s.text, "  rule: %s, %s = %.1f s\n",
                 rule == TP_RULE_SIMC ? "SIMC PI (Skogestad 2003)"
                                      : "IMC-PID (Rivera, Morari & Skogestad 1986)",
-                rule == TP_RULE_SIMC ? "tau_c" : "lambda", tau_c);
+                pname, tau_c);
+        if (isfinite(limit))
+            fprintf(s.text, "  chosen by --overshoot %.2f K: the fastest to the setpoint of %d "
+                            "values of %s from %.3g to %.3g s whose reading overshoots at most "
+                            "the limit%s (worst %.2f K)\n",
+                    limit, sr.tried, pname, sr.param_lo, sr.param_hi,
+                    sr.n_cases > 1 ? " in every corner of guard's ranges" : "", sr.overshoot);
         fprintf(s.text, "  suggested settings (paste into control:, in place of its mode%s and any "
                         "gains):\n"
                         "    mode: pid\n    kp: %.4g 1/K\n    ki: %.4g 1/(K.s)\n"
@@ -174,11 +306,14 @@ static tp_status run_tune(const tp_cli *cli, tp_diag *d)
                         "overshoot %.2f K, surface ready after %s\n",
                 isfinite(w.metrics.t_setpoint) ? buf : "(not reached)",
                 w.metrics.overshoot_reading, isfinite(w.metrics.t_surface_ready) ? buf2 : "-");
+        if (current)
+            compare(s.text, &s, &wc.metrics, &w.metrics, limit);
         tp_summary_cautions(s.text, "cautions", cautions,
                             tp_warmup_cautions(&s.desc, tuned, &w, cautions));
     }
 done:
     tp_warmup_clear(&w);
+    tp_warmup_clear(&wc);
     tp_network_release(&tuned);
     tp_session_close(&s);
     return rc;
@@ -192,6 +327,9 @@ const tp_verb tp_cmd_tune = {
     tune_opts,
     "Identifies a first-order-plus-dead-time model of the reading's response to a duty step\n"
     "at the holding point (two-point method), applies SIMC (PI) or IMC (PID), prints the gains\n"
-    "in the config's units and simulates the warm-up with them.",
+    "in the config's units and simulates the warm-up with them, beside the config's own\n"
+    "controller. --overshoot LIMIT searches the rule's parameter for the fastest warm-up whose\n"
+    "reading overshoots at most LIMIT (--worst: in every corner of guard's ranges too).",
     "tepid tune workshop-bed-24v.yaml\n"
-    "tepid tune workshop-bed-24v.yaml --rule imc --plot tuned.png"};
+    "tepid tune workshop-bed-24v.yaml --rule imc --plot tuned.png\n"
+    "tepid tune workshop-bed-24v.yaml --overshoot 2K"};

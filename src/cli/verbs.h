@@ -13,6 +13,7 @@ extern const tp_verb tp_cmd_explain;
 extern const tp_verb tp_cmd_check;
 extern const tp_verb tp_cmd_materials;
 extern const tp_verb tp_cmd_tune;
+extern const tp_verb tp_cmd_size;
 extern const tp_verb tp_cmd_budget;
 extern const tp_verb tp_cmd_guard;
 extern const tp_verb tp_cmd_fit;

@@ -299,6 +299,14 @@ static tp_status apply_change(tp_network *net, const tp_net_change *ch)
             net->control.max_duty = 1.0;
         return TP_OK;
     }
+    case TP_CHANGE_SOURCE_SCALE: {
+        tp_net_source *s;
+        if (ch->a < 0 || ch->a >= net->n_sources || !(ch->value > 0) || !isfinite(ch->value))
+            return TP_ERR_CONFIG;
+        s = tp_network_source_mut(net, ch->a);
+        tp_network_source_scaled(s, ch->value, s);
+        return TP_OK;
+    }
     }
     return TP_ERR_CONFIG;
 }
@@ -955,6 +963,18 @@ double tp_network_source_power(const tp_net_source *s, const double *t, double d
                                double *wire)
 {
     return tp_network_source_eval(s, t, duty, NULL, NULL, NULL, NULL, wire);
+}
+
+void tp_network_source_scaled(const tp_net_source *s, double k, tp_net_source *out)
+{
+    if (out != s)
+        *out = *s;
+    if (s->kind == TP_SRC_ELECTRIC)
+        out->r0 = s->r0 / k;
+    else
+        out->power = s->power * k;
+    /* A heater as sold keeps r0 = rated_voltage^2 / rated_power. */
+    out->rated_power = s->rated_power * k;
 }
 
 double tp_network_source_split(const tp_net_source *s, const double *t, double duty, double *pk)

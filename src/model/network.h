@@ -187,9 +187,12 @@ typedef enum tp_net_change_kind {
     TP_CHANGE_CONTROL,        /* the controller `control` (copied) in place of the network's:
                                  other gains, mode or setpoint; its source and sensor are node
                                  and source indices of the source network */
-    TP_CHANGE_SOURCE_POWER    /* source a becomes a constant-power source of `value` W, fully
+    TP_CHANGE_SOURCE_POWER,   /* source a becomes a constant-power source of `value` W, fully
                                  on at duty 1, with no series resistance (a logged power drives
                                  it); the controller switching it, if any, at max_duty 1 */
+    TP_CHANGE_SOURCE_SCALE    /* source a scaled to `value` times its power
+                                 (tp_network_source_scaled): a larger or smaller heater on the
+                                 same supply and series path (size) */
 } tp_net_change_kind;
 
 typedef struct tp_net_change {
@@ -299,6 +302,13 @@ double tp_network_link_flow(const tp_net_link *l, double ta, double tb, double *
  * *wire gets the wiring loss (may be NULL). */
 double tp_network_source_power(const tp_net_source *s, const double *t, double duty,
                                double *wire);
+
+/* Source `s` scaled by `k` > 0 into *out (a copy; its node lists are shared with `s`): a
+ * constant-power source's power times k, an electric element's r0 divided by k, so that its
+ * power at the reference temperature without the series path, supply^2 / r0, is k times as
+ * large (a rating as sold, rated_power, with it); the supply, tempco and series path are
+ * unchanged. */
+void tp_network_source_scaled(const tp_net_source *s, double k, tp_net_source *out);
 
 /* A source's power at duty `duty` node by node with its derivatives: `pk` (n_nodes of the
  * source) receives the power landing in each node, `dpk` d(pk)/dT_k, `dtot` d(total)/dT_k,

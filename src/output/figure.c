@@ -148,3 +148,46 @@ tp_status tp_figure_surface(const char *path, const tp_net_grid *g, const double
     free(z);
     return rc;
 }
+
+tp_status tp_figure_size(const char *path, const char *title, const tp_size_result *r,
+                         double within, tp_diag *d)
+{
+    size_t n = (size_t)r->n_curve, i;
+    double *buf = malloc(2 * n * sizeof *buf);
+    char worst[sizeof r->corners[0].name + 32], allowed[64], mark[64], within_text[32];
+    tp_plot_series series[2];
+    tp_plot_hline hline;
+    tp_plot_panel panel;
+    tp_plot_chart chart;
+    tp_plot_vline answer;
+    tp_status st;
+    if (!buf)
+        return TP_ERR_NOMEM;
+    for (i = 0; i < n; i++) {
+        buf[i] = r->curve_nominal[i] / 60.0;
+        buf[n + i] = r->curve_worst[i] / 60.0;
+    }
+    snprintf(worst, sizeof worst, "slowest corner: %s", r->corners[r->worst].name);
+    tp_summary_duration(within, within_text, sizeof within_text);
+    snprintf(allowed, sizeof allowed, "allowed: %s", within_text);
+    snprintf(mark, sizeof mark, "%s %.0f W", r->feasible ? "answer" : "largest considered",
+             r->power);
+    series[0] = (tp_plot_series){"nominal", r->curve_power, buf, n, 0, 0, 0};
+    series[1] = (tp_plot_series){worst, r->curve_power, buf + n, n, 1, 0, 0};
+    hline = (tp_plot_hline){allowed, within / 60.0};
+    answer = (tp_plot_vline){mark, r->power};
+    memset(&panel, 0, sizeof panel);
+    panel.ylabel = "time to the target (min)";
+    panel.series = series;
+    panel.n_series = r->corners[r->worst].nominal ? 1 : 2;
+    panel.hlines = &hline;
+    panel.n_hlines = 1;
+    memset(&chart, 0, sizeof chart);
+    chart.title = title;
+    chart.xlabel = "heater power at its reference temperature (W)";
+    chart.panels = &panel;
+    chart.n_panels = 1;
+    st = tp_plot_chart_write_marked(path, &chart, &answer, 1, d);
+    free(buf);
+    return st;
+}

@@ -9,6 +9,7 @@
 #include "metrics.h"
 #include "network.h"
 #include "plot.h"
+#include "size.h"
 #include "status.h"
 #include "warmup.h"
 
@@ -32,5 +33,11 @@ size_t tp_figure_warmup_marks(const tp_metrics *m, tp_plot_vline marks[TP_FIGURE
  * extension (tp_plot_map_write). */
 tp_status tp_figure_surface(const char *path, const tp_net_grid *g, const double *map,
                             const char *title, tp_diag *d);
+
+/* Draw a heater sizing `r` (size.h, with its curves) under `title`: the time to the target
+ * against the heater's power for the nominal corner and the slowest one, the time allowed as a
+ * reference line and the answer marked; the format follows the extension. Atomic (plot.h). */
+tp_status tp_figure_size(const char *path, const char *title, const tp_size_result *r,
+                         double within, tp_diag *d);
 
 #endif

@@ -167,3 +167,17 @@ void tp_summary_metric_spread(const tp_metricdef *m, double si, char *buf, size_
 {
     metric_less(m, si, 0.0, buf, size); /* a spread is an interval: no offset */
 }
+
+void tp_summary_wire_pick(char *buf, size_t size, const tp_ampacity_pick *p, int awg)
+{
+    const char *why = p->limited_by && strcmp(p->limited_by, "both") == 0
+                          ? "ampacity and drop decide"
+                      : p->limited_by && strcmp(p->limited_by, "drop") == 0 ? "drop decides"
+                                                                             : "ampacity decides";
+    if (!isfinite(p->size))
+        snprintf(buf, size, "none %s", awg ? "up to 4 AWG" : "up to 16 mm2");
+    else if (awg)
+        snprintf(buf, size, "%.0f AWG (%.1f A; %s)", p->size, p->ampacity, why);
+    else
+        snprintf(buf, size, "%.3g mm2 (%.1f A; %s)", p->size * 1e6, p->ampacity, why);
+}

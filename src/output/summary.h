@@ -6,6 +6,7 @@
 #include <stddef.h>
 #include <stdio.h>
 
+#include "ampacity.h"
 #include "caution.h"
 #include "description.h"
 #include "metricdef.h"
@@ -44,5 +45,10 @@ void tp_summary_metric(const tp_metricdef *m, double si, char *buf, size_t size)
 /* A spread (a standard deviation) as text: like tp_summary_metric but without the offset, so a
  * temperature spread is an interval. */
 void tp_summary_metric_spread(const tp_metricdef *m, double si, char *buf, size_t size);
+
+/* One series of a wire recommendation (ampacity.h) as text into buf: "18 AWG (15.1 A; ampacity
+ * decides)", "1.5 mm2 (...)", or "none up to 4 AWG" when no size of the series meets both
+ * limits. */
+void tp_summary_wire_pick(char *buf, size_t size, const tp_ampacity_pick *p, int awg);
 
 #endif

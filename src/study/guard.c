@@ -773,15 +773,8 @@ done:
 
 /* ---- corners ------------------------------------------------------------------------------ */
 
-typedef struct factor {
-    const char *name;
-    int n;           /* levels: 1 or 2 */
-    double level[2];
-} factor;
-
-/* Apply one corner's values to a copy of the description. */
-static tp_status apply_corner(const tp_description *base, const tp_network *net, tp_description *cd,
-                              const tp_guard_corner *c)
+tp_status tp_guard_corner_apply(const tp_description *base, const tp_network *net,
+                                tp_description *cd, const tp_guard_corner *c)
 {
     tp_status rs = tp_config_copy(cd, base);
     size_t i;
@@ -826,7 +819,7 @@ static tp_status apply_corner(const tp_description *base, const tp_network *net,
     return TP_OK;
 }
 
-static void corner_name(tp_guard_corner *c, const factor *f)
+static void corner_name(tp_guard_corner *c, const int *varied, double r_mid)
 {
     size_t len = 0;
     if (c->nominal) {
@@ -834,17 +827,54 @@ static void corner_name(tp_guard_corner *c, const factor *f)
         return;
     }
     c->name[0] = '\0';
-    if (f[0].n == 2)
+    if (varied[TP_RANGE_SUPPLY])
         len += (size_t)snprintf(c->name + len, sizeof c->name - len, "%.1f V", c->supply);
-    if (f[1].n == 2 && len < sizeof c->name)
+    if (varied[TP_RANGE_RESISTANCE] && len < sizeof c->name)
         len += (size_t)snprintf(c->name + len, sizeof c->name - len, "%sR %s", len ? ", " : "",
-                                c->resistance < f[1].level[1] ? "low" : "high");
-    if (f[2].n == 2 && len < sizeof c->name)
+                                c->resistance < r_mid ? "low" : "high");
+    if (varied[TP_RANGE_ROOM] && len < sizeof c->name)
         len += (size_t)snprintf(c->name + len, sizeof c->name - len, "%sroom %.0f degC",
                                 len ? ", " : "", c->room - TP_KELVIN_0C);
-    if (f[3].n == 2 && len < sizeof c->name)
+    if (varied[TP_RANGE_AIRFLOW] && len < sizeof c->name)
         snprintf(c->name + len, sizeof c->name - len, "%sair %.1f m/s", len ? ", " : "",
                  c->airflow);
+}
+
+int tp_guard_corners_plan(const tp_guard_ranges *rr, double supply_scale, double resistance_scale,
+                          tp_guard_corner *out)
+{
+    double lv[TP_RANGE_COUNT][2], scale[TP_RANGE_COUNT] = {1, 1, 1, 1};
+    int varied[TP_RANGE_COUNT], k, n2 = 0, mask, n = 1;
+    scale[TP_RANGE_SUPPLY] = supply_scale;
+    scale[TP_RANGE_RESISTANCE] = resistance_scale;
+    for (k = 0; k < TP_RANGE_COUNT; k++) {
+        const tp_guard_range *g = &rr->r[k];
+        varied[k] = g->origin != TP_RANGE_NONE && g->hi > g->lo;
+        lv[k][0] = g->lo * scale[k]; /* a range that does not vary has lo = hi */
+        lv[k][1] = g->hi * scale[k];
+        n2 += varied[k];
+    }
+    memset(&out[0], 0, sizeof out[0]);
+    out[0].nominal = 1;
+    out[0].supply = rr->r[TP_RANGE_SUPPLY].nominal * supply_scale;
+    out[0].resistance = rr->r[TP_RANGE_RESISTANCE].nominal * resistance_scale;
+    out[0].room = rr->r[TP_RANGE_ROOM].nominal;
+    out[0].airflow = rr->r[TP_RANGE_AIRFLOW].nominal;
+    corner_name(&out[0], varied, 0.0);
+    for (mask = 0; n2 > 0 && mask < (1 << n2); mask++) {
+        tp_guard_corner *co = &out[n++];
+        double v[TP_RANGE_COUNT];
+        int bit = 0;
+        for (k = 0; k < TP_RANGE_COUNT; k++)
+            v[k] = lv[k][varied[k] ? (mask >> bit++) & 1 : 0];
+        memset(co, 0, sizeof *co);
+        co->supply = v[TP_RANGE_SUPPLY];
+        co->resistance = v[TP_RANGE_RESISTANCE];
+        co->room = v[TP_RANGE_ROOM];
+        co->airflow = v[TP_RANGE_AIRFLOW];
+        corner_name(co, varied, 0.5 * (lv[TP_RANGE_RESISTANCE][0] + lv[TP_RANGE_RESISTANCE][1]));
+    }
+    return n;
 }
 
 static const char *const range_names[TP_RANGE_COUNT] = {"supply", "resistance", "room",
@@ -944,26 +974,11 @@ tp_status tp_guard_ranges_resolve(const tp_description *desc, const tp_yamltree 
     return bad ? TP_ERR_CONFIG : TP_OK;
 }
 
-/* The nominal corner and the factors (the ranges' ends) of the study's ranges; errors for
- * disturbances the form cannot apply. */
-static tp_status factors(ctx *cx, factor *f, tp_guard_corner *nominal)
+/* Errors for disturbances the form cannot apply. */
+static tp_status check_disturbances(ctx *cx)
 {
     const tp_description *desc = cx->st->desc;
     const tp_guard_spec *g = &desc->guard;
-    const tp_guard_ranges *rr = &cx->st->ranges;
-    int k;
-    nominal->nominal = 1;
-    nominal->supply = rr->r[TP_RANGE_SUPPLY].nominal;
-    nominal->resistance = rr->r[TP_RANGE_RESISTANCE].nominal;
-    nominal->room = rr->r[TP_RANGE_ROOM].nominal;
-    nominal->airflow = rr->r[TP_RANGE_AIRFLOW].nominal;
-    for (k = 0; k < TP_RANGE_COUNT; k++) {
-        const tp_guard_range *r = &rr->r[k];
-        f[k].name = range_names[k];
-        f[k].n = r->origin != TP_RANGE_NONE && r->hi > r->lo ? 2 : 1;
-        f[k].level[0] = r->lo;
-        f[k].level[1] = r->hi;
-    }
     if (desc->form != TP_FORM_PHYSICAL && (g->gust.present || g->sheet.present)) {
         const char *key = g->gust.present ? "guard.gust" : "guard.sheet";
         tp_diag_error(cx->d, tp_yamltree_nearest(cx->doc, key), key,
@@ -1395,31 +1410,6 @@ static void nominal_setup(tp_guard_study *st, const tp_description *desc, const 
     setup_layers(st);
 }
 
-/* The corners: nominal first, then every combination of the ends (factors with one level
- * fixed). */
-static void plan_corners(tp_guard_study *st, const factor f[4], const tp_guard_corner *nominal)
-{
-    int k, n2 = 0, mask;
-    for (k = 0; k < 4; k++)
-        n2 += f[k].n == 2;
-    st->corners[0] = *nominal;
-    snprintf(st->corners[0].name, sizeof st->corners[0].name, "nominal");
-    st->n_corners = 1;
-    for (mask = 0; n2 > 0 && mask < (1 << n2); mask++) {
-        tp_guard_corner *co = &st->corners[st->n_corners++];
-        double v[4];
-        int bit = 0;
-        for (k = 0; k < 4; k++)
-            v[k] = f[k].n == 2 ? f[k].level[(mask >> bit++) & 1] : f[k].level[0];
-        memset(co, 0, sizeof *co);
-        co->supply = v[0];
-        co->resistance = v[1];
-        co->room = v[2];
-        co->airflow = v[3];
-        corner_name(co, f);
-    }
-}
-
 /* Healthy peaks of each layer, and which layers the checks can protect. */
 static void healthy_layer_peaks(tp_guard_study *st)
 {
@@ -1473,7 +1463,7 @@ static void stuck_on(ctx *cx, const tp_description *desc, const tp_network *net,
         const tp_network *wn = NULL;
         tp_steady ws;
         memset(&ws, 0, sizeof ws);
-        if (apply_corner(desc, net, &cd, w) == TP_OK && build(cx, &cd, "corner", &wn) == TP_OK &&
+        if (tp_guard_corner_apply(desc, net, &cd, w) == TP_OK && build(cx, &cd, "corner", &wn) == TP_OK &&
             tp_steady_full(wn, 1.0, &ws, quiet) == TP_OK) {
             layer_refs(st, wn, cx->layers);
             for (k = 0; k < st->n_layers; k++)
@@ -1525,8 +1515,6 @@ tp_status tp_guard_study_run(const tp_description *desc, const tp_yamltree *doc,
     tp_steady hold;
     tp_diag quiet;
     tp_description cd;
-    factor f[4];
-    tp_guard_corner nominal;
     tp_guard_settings none = {0, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET};
     ctx cx;
     tp_status rs;
@@ -1534,7 +1522,6 @@ tp_status tp_guard_study_run(const tp_description *desc, const tp_yamltree *doc,
     memset(st, 0, sizeof *st);
     memset(&hold, 0, sizeof hold);
     memset(&cd, 0, sizeof cd);
-    memset(&nominal, 0, sizeof nominal);
     st->desc = desc;
     st->stuck_worst = st->stuck_over_layer = -1;
     if (!given)
@@ -1551,12 +1538,12 @@ tp_status tp_guard_study_run(const tp_description *desc, const tp_yamltree *doc,
     nominal_setup(st, desc, net);
     rs = tp_guard_ranges_resolve(desc, doc, net, &st->ranges, d);
     if (rs == TP_OK)
-        rs = factors(&cx, f, &nominal);
+        rs = check_disturbances(&cx);
     if (rs != TP_OK)
         goto done;
-    plan_corners(st, f, &nominal);
+    st->n_corners = tp_guard_corners_plan(&st->ranges, 1.0, 1.0, st->corners);
     for (c = 0; c < st->n_corners; c++) {
-        rs = apply_corner(desc, net, &cd, &st->corners[c]);
+        rs = tp_guard_corner_apply(desc, net, &cd, &st->corners[c]);
         if (rs == TP_OK)
             rs = run_corner(&cx, &cd, &st->corners[c]);
         tp_config_clear(&cd);

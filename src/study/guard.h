@@ -216,6 +216,23 @@ tp_status tp_guard_study_run(const tp_description *desc, const tp_yamltree *doc,
 /* Free what a study holds. */
 void tp_guard_study_clear(tp_guard_study *st);
 
+/* The corners of the ranges `rr` into out[0 ..): the nominal case first ("nominal"), then
+ * every combination of the ends of the ranges that vary (lo < hi), named as guard's tables
+ * name them ("22.8 V, R high, room 15 degC, air 1.0 m/s"). The supply and the resistance are
+ * multiplied by `supply_scale` and `resistance_scale` (1 for the ranges themselves; size moves
+ * them onto another supply and heater). Only the corners' values and names are set. Returns
+ * the count, at most TP_GUARD_CORNERS_MAX. */
+int tp_guard_corners_plan(const tp_guard_ranges *rr, double supply_scale, double resistance_scale,
+                          tp_guard_corner *out);
+
+/* A copy of the description `base` (its network `net`, with a controller) into *cd, set to the
+ * corner `c`: its supply, resistance and airflow where finite (the resistance replaces a
+ * rating as sold) and its room; in the raw form the controlled source's supply and resistance,
+ * and every fixed node and initial temperature moved with the room. The caller clears *cd
+ * (tp_config_clear) in every case. Used by guard and size. */
+tp_status tp_guard_corner_apply(const tp_description *base, const tp_network *net,
+                                tp_description *cd, const tp_guard_corner *c);
+
 /* Evaluate settings `s` on the study's runs (fills det, margins, fault figures and counts).
  * Used by tp_guard_study_run; exposed for tests. */
 void tp_guard_evaluate(tp_guard_study *st, const tp_guard_settings *s);

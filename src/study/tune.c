@@ -15,11 +15,15 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "assemble.h"
+#include "config.h"
+#include "guard.h"
 #include "history.h"
 #include "integrate.h"
 #include "metrics.h"
 #include "series.h"
 #include "steady.h"
+#include "warmup.h"
 
 #define TP_TWO_POINT_LOW 0.283 /* -, first fraction of the two-point method */
 #define TP_TWO_POINT_HIGH 0.632 /* -, second fraction (one time constant) */
@@ -134,4 +138,164 @@ done:
     tp_steady_clear(&hold);
     tp_steady_clear(&after);
     return rc;
+}
+
+void tp_tune_gains(const tp_fopdt *m, tp_tune_rule rule, double param, tp_gains *g)
+{
+    if (rule == TP_RULE_SIMC)
+        tp_tune_simc(m, param, g);
+    else
+        tp_tune_imc(m, param, g);
+}
+
+/* The cases of a search: the nominal network, and with `worst` each corner's, assembled. */
+static tp_status search_cases(const tp_description *desc, const tp_yamltree *doc,
+                              const tp_network *net, int worst, const tp_network **cases,
+                              int *n, tp_diag *d)
+{
+    tp_guard_ranges rr;
+    tp_guard_corner gc[TP_GUARD_CORNERS_MAX];
+    tp_status rs;
+    int c, nc;
+    cases[0] = NULL;
+    *n = 1;
+    if (!worst)
+        return TP_OK;
+    rs = tp_guard_ranges_resolve(desc, doc, net, &rr, d);
+    if (rs != TP_OK)
+        return rs;
+    nc = tp_guard_corners_plan(&rr, 1.0, 1.0, gc);
+    for (c = 1; c < nc; c++) {
+        tp_description cd;
+        tp_diag quiet;
+        memset(&cd, 0, sizeof cd);
+        rs = tp_guard_corner_apply(desc, net, &cd, &gc[c]);
+        tp_diag_init(&quiet, NULL);
+        if (rs == TP_OK)
+            rs = tp_assemble(&cd, doc, &quiet, &cases[*n]);
+        tp_config_clear(&cd);
+        if (rs != TP_OK) {
+            tp_diag_error(d, tp_diag_loc_none(), "guard", "narrow the ranges in guard:",
+                          "corner '%s' cannot be assembled: %s", gc[c].name, quiet.log);
+            return rs;
+        }
+        (*n)++;
+    }
+    return TP_OK;
+}
+
+/* The closed loop of every case with the gains of `param`: *t the nominal time to the setpoint,
+ * *over the largest overshoot, *ok when every case reaches the setpoint within the limit. */
+static tp_status search_try(const tp_network *net, const tp_network *const *cases, int n,
+                            const tp_run *run, const tp_fopdt *m, tp_tune_rule rule, double param,
+                            double limit, double *t, double *over, int *ok, tp_diag *d)
+{
+    tp_gains g;
+    int c;
+    tp_tune_gains(m, rule, param, &g);
+    *t = TP_UNSET;
+    *over = 0.0;
+    *ok = 1;
+    for (c = 0; c < n; c++) {
+        const tp_network *base = c == 0 ? net : cases[c];
+        const tp_network *tuned = NULL;
+        tp_control ctl = base->control;
+        tp_net_change ch;
+        tp_warmup w;
+        tp_status rs;
+        ctl.mode = TP_MODE_PID;
+        ctl.kp = g.kp;
+        ctl.ki = g.ki;
+        ctl.kd = g.kd;
+        ch = (tp_net_change){TP_CHANGE_CONTROL, -1, -1, 0.0, NULL, &ctl};
+        memset(&w, 0, sizeof w);
+        rs = tp_network_copy(base, &ch, 1, &tuned);
+        if (rs == TP_OK)
+            rs = tp_warmup_run(tuned, run, &w, d);
+        tp_network_release(&tuned);
+        if (rs == TP_OK) {
+            if (c == 0)
+                *t = w.metrics.t_setpoint;
+            if (!isfinite(w.metrics.t_setpoint))
+                *ok = 0;
+            *over = fmax(*over, w.metrics.overshoot_reading);
+        }
+        tp_warmup_clear(&w);
+        if (rs != TP_OK)
+            return rs;
+    }
+    if (!(*over <= limit))
+        *ok = 0;
+    return TP_OK;
+}
+
+tp_status tp_tune_overshoot(const tp_description *desc, const tp_yamltree *doc,
+                            const tp_network *net, const tp_fopdt *m, tp_tune_rule rule,
+                            double param0, double limit, int worst, tp_tune_search *s,
+                            tp_diag *d)
+{
+    const tp_network *cases[TP_TUNE_CASES_MAX] = {NULL};
+    double prev_p = TP_UNSET, best_t = HUGE_VAL;
+    int prev_ok = 1, j, k, n = 1;
+    tp_status rs;
+    memset(s, 0, sizeof *s);
+    s->limit = limit;
+    s->param = s->t_setpoint = s->overshoot = s->least_param = TP_UNSET;
+    s->least_overshoot = HUGE_VAL;
+    s->param_lo = param0 * pow(2.0, 0.5 * TP_TUNE_SCAN_LOW);
+    s->param_hi = param0 * pow(2.0, 0.5 * TP_TUNE_SCAN_HIGH);
+    rs = search_cases(desc, doc, net, worst, cases, &n, d);
+    s->n_cases = n;
+    for (j = TP_TUNE_SCAN_LOW; rs == TP_OK && j <= TP_TUNE_SCAN_HIGH; j++) {
+        double p = param0 * pow(2.0, 0.5 * j), t, over, lo, hi;
+        int ok;
+        rs = search_try(net, cases, n, &desc->run, m, rule, p, limit, &t, &over, &ok, d);
+        if (rs != TP_OK)
+            break;
+        s->tried++;
+        if (isfinite(t) && over < s->least_overshoot) {
+            s->least_overshoot = over;
+            s->least_param = p;
+        }
+        if (ok && t < best_t) {
+            best_t = t;
+            s->param = p;
+        }
+        /* The edge of the limit lies between a failing parameter and the next that meets it:
+         * the fastest loop within the limit is usually just above it. */
+        if (ok && !prev_ok && isfinite(prev_p)) {
+            lo = prev_p;
+            hi = p;
+            for (k = 0; k < TP_TUNE_REFINE; k++) {
+                double mid = sqrt(lo * hi), tm, om;
+                int okm;
+                rs = search_try(net, cases, n, &desc->run, m, rule, mid, limit, &tm, &om, &okm,
+                                d);
+                if (rs != TP_OK)
+                    break;
+                s->tried++;
+                if (okm) {
+                    hi = mid;
+                    if (tm < best_t) {
+                        best_t = tm;
+                        s->param = mid;
+                    }
+                } else {
+                    lo = mid;
+                }
+            }
+        }
+        prev_p = p;
+        prev_ok = ok;
+    }
+    if (rs == TP_OK && isfinite(s->param)) {
+        int ok;
+        s->found = 1;
+        tp_tune_gains(m, rule, s->param, &s->gains);
+        rs = search_try(net, cases, n, &desc->run, m, rule, s->param, limit, &s->t_setpoint,
+                        &s->overshoot, &ok, d);
+    }
+    for (k = 1; k < TP_TUNE_CASES_MAX; k++)
+        tp_network_release(&cases[k]);
+    return rs;
 }
