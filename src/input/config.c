@@ -923,14 +923,14 @@ static void check_schedule(reader *r, const tp_yamltree *doc, const tp_descripti
         int kinds = tp_isset(g->to) + tp_isset(g->hold) + tp_isset(g->off);
         tp_loc at = tp_yamltree_loc(n->items[i]);
         snprintf(path, sizeof path, "control.schedule.%zu", i);
-        if (kinds != 1)
+        if (tp_isset(g->ramp) && !tp_isset(g->to))
+            tp_diag_error(r->d, at, path, "write {to: TEMP, ramp: RATE}",
+                          "ramp needs the temperature it ramps to (to:)");
+        else if (kinds != 1)
             tp_diag_error(r->d, at, path,
                           "write one of {to: TEMP, ramp: RATE}, {to: TEMP}, {hold: TIME} or "
                           "{off: TIME} per item",
                           kinds ? "a segment is one of to, hold and off" : "the segment is empty");
-        else if (tp_isset(g->ramp) && !tp_isset(g->to))
-            tp_diag_error(r->d, at, path, "write {to: TEMP, ramp: RATE}",
-                          "ramp needs the temperature it ramps to (to:)");
         if (tp_isset(g->to)) {
             any_to = 1;
             if (g->to < TP_SETPOINT_MIN)
