@@ -5,8 +5,7 @@
 #define TP_SCHEDULE_H
 
 #include "description.h"
-
-#define TP_SCHEDULE_MAX 64 /* segments in one schedule (config.c checks it) */
+#include "hardlimits.h"
 
 typedef enum tp_schedule_kind {
     TP_SCHEDULE_RAMP, /* {to, ramp}: the setpoint moves linearly to `to` */

@@ -6,14 +6,13 @@
 
 #include "description.h"
 #include "diag.h"
+#include "hardlimits.h"
 #include "history.h"
 #include "integrate.h"
 #include "network.h"
 #include "status.h"
 
 #define TP_COOLDOWN_MAX_LEVELS 24  /* levels reported in one run */
-#define TP_COOLDOWN_MAX_TO 16      /* --to levels */
-#define TP_COOLDOWN_HORIZON 86400.0 /* s, the longest cool-down followed */
 #define TP_COOLDOWN_ROOM_MARGIN 5.0 /* K above the room: "back to room temperature" */
 
 /* The material classes of the burn thresholds. */

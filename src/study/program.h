@@ -5,11 +5,11 @@
 #define TP_PROGRAM_H
 
 #include "description.h"
+#include "hardlimits.h"
 #include "history.h"
 #include "network.h"
 #include "schedule.h"
 
-#define TP_PROGRAM_MAX_ABOVE 16   /* --above levels on one command line */
 #define TP_PROGRAM_LIMIT_SHARE 0.5 /* -, a segment spending at least this share of its time at the
                                      duty limit while the reading falls behind is limited */
 #define TP_PROGRAM_RATE_SHORT 0.9  /* -, a ramp whose reading achieves less than this share of
