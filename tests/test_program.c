@@ -232,6 +232,36 @@ static void test_program_pi_loop_ramp_error(void **state)
     }
 }
 
+/* ---- a one-step schedule is the fixed setpoint -------------------------------------------- */
+
+/* control.schedule: [{to: 80 degC}] and control.setpoint: 80 degC describe the same run
+ * (docs/control.md): the same controller decisions, so the same history to rounding. */
+static void test_program_step_is_fixed_setpoint(void **state)
+{
+    tp_yaml_net a, b;
+    tp_schedule plan;
+    tp_warmup wa, wb;
+    tp_diag d;
+    long i;
+    (void)state;
+    tp_diag_init(&d, stderr);
+    plate(&a, 600, 1.5, 200, "mode: pid, kp: 0.1 1/K, ki: 0.001 1/(K.s), setpoint: 80 degC");
+    plate(&b, 600, 1.5, 200, "mode: pid, kp: 0.1 1/K, ki: 0.001 1/(K.s), "
+                             "schedule: [{to: 80 degC}]");
+    a.desc.run.duration = b.desc.run.duration = 600.0;
+    assert_int_equal(tp_warmup_run(a.net, &a.desc.run, &wa, &d), TP_OK);
+    assert_int_equal(tp_program_plan(&b.desc, b.net, &plan), 0);
+    assert_int_equal(tp_warmup_run_schedule(b.net, &b.desc.run, &plan, &wb, &d), TP_OK);
+    assert_int_equal(wa.history.n, wb.history.n);
+    assert_int_equal(wa.stats.steps, wb.stats.steps);
+    for (i = 0; i < wa.history.n; i++)
+        tp_check_abs("reading", wb.history.reading[i], wa.history.reading[i], 1e-12);
+    tp_warmup_clear(&wa);
+    tp_warmup_clear(&wb);
+    tp_yaml_net_close(&a);
+    tp_yaml_net_close(&b);
+}
+
 /* ---- a log of a scheduled run is fitted ---------------------------------------------------- */
 
 /* A closed-loop fit (a log of the reading only, no duty column) runs the configured controller,
@@ -320,6 +350,7 @@ int main(void)
         cmocka_unit_test(test_program_pi_loop_ramp_error),
         cmocka_unit_test(test_program_time_above_by_hand),
         cmocka_unit_test(test_program_fit_scheduled_log),
+        cmocka_unit_test(test_program_step_is_fixed_setpoint),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
