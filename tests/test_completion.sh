@@ -57,6 +57,8 @@ demo=configs/workshop-bed-24v.yaml
 # Verbs: the usage table of README.md lists warmup as the only verb starting with "war".
 check "tepid war<TAB>" "warmup" war
 check "tepid help st<TAB>" "steady" help st
+check "tepid co<TAB>" "cool" co
+check "tepid cool F --f<TAB>" "--from" cool "$demo" --f
 
 # Options: README.md and docs/user-guide.md give warmup --plot F; no other warmup option or
 # common option (--set, -q/--quiet, --help) starts with --pl.

@@ -23,7 +23,7 @@ static double error_bound(double rtol, double t_max)
 static void run_net(const tp_network *net, double t_end, double step, double rtol,
                     tp_history *h, tp_integrate_stats *st)
 {
-    const tp_run run = {t_end, step, rtol, 1000000.0, 120.0};
+    const tp_run run = {t_end, step, rtol, 1000000.0, 120.0, TP_UNSET};
     tp_integrate_opts o;
     tp_diag d;
     tp_diag_init(&d, stderr);

@@ -1,5 +1,5 @@
-/* Every verb on every form: warmup, steady, budget, tune, guard, fit, sweep, explain, check and size on
- * a raw network (configs/raw-five-node.yaml), a lumped physical plate
+/* Every verb on every form: warmup, steady, budget, tune, guard, fit, sweep, explain, check, size
+ * and cool on a raw network (configs/raw-five-node.yaml), a lumped physical plate
  * (configs/workshop-bed-24v.yaml) and a gridded one (configs/small-pad-grid.yaml on a 4 x 4
  * grid). Each run must exit 0 with a summary (and JSON that parses, where the verb writes it),
  * or be one of the refusals documented in docs/user-guide.md ("Every verb on every form"): exit
@@ -53,10 +53,15 @@ static const row rows[] = {
     {"explain", -1, {NULL}, 1, 0, NULL},
     {"check", -1, {NULL}, 0, 0, NULL},
     {"size", -1, {"--reach", "60degC", "--within", "15min", NULL}, 1, 0, NULL},
+    {"cool", -1, {NULL}, 1, 0, NULL},
+    {"cool", -1, {"--from", "80degC", "--to", "40degC", NULL}, 1, 0, NULL},
     /* the documented refusals */
     {"guard", -1, {"--set", "control.mode=off", NULL}, 0, 2,
      "control.mode: guard judges a controller holding a setpoint; mode 'off' holds none"},
     {"fit", -1, {"--free", ARG_FREE, NULL}, 0, 2, "tepid fit needs --log FILE"},
+    {"cool", -1, {"--set", "control.mode=off", NULL}, 0, 2,
+     "the cool-down starts from the steady holding state, and this file's controller holds no "
+     "setpoint"},
     {"guard", RAW, {"--set", "guard.gust={after: 1 min, airflow: 2 m/s}", NULL}, 0, 2,
      "guard.gust: not available in the raw network form"},
     {"size", RAW, {"--reach", "60degC", "--within", "15min", "--surface", NULL}, 0, 2,

@@ -17,6 +17,7 @@
 #define TP_MAX_RAW_LINKS 400000 /* links in a raw network */
 #define TP_MAX_MATERIALS 256    /* materials defined in one file */
 #define TP_GRID_SIDE_MAX 500    /* cells along one side of bed.grid */
+#define TP_SCHEDULE_MAX 64      /* segments in control.schedule */
 
 /* ---- a run: checked on the description's run: section (config.c) and on a measured log's
  * span (fit.c) when they are read, and on the run itself (integrate.c) where only the network
@@ -27,6 +28,8 @@
                                           (30 days at 1 s fits) */
 #define TP_MAX_TICKS 10000000.0        /* controller samples in one run, run.duration /
                                           control.period */
+#define TP_COOLDOWN_HORIZON 86400.0   /* s, the longest cool-down tepid cool follows (the run
+                                          stops earlier once everything is below every level) */
 #define TP_MAX_OUTPUT_VALUES 5.0e7     /* output rows times (nodes + sources): bounds the history
                                           a caller keeps (about 8 bytes each), values */
 
@@ -50,5 +53,7 @@
 #define TP_SIZE_SUPPLIES_MAX 8     /* supply voltages in one size --supply list */
 #define TP_SIZE_SCALE_MAX 100.0    /* size: largest heater power considered, as a multiple of
                                       the configured one (when no tighter limit applies) */
+#define TP_PROGRAM_MAX_ABOVE 16    /* warmup --above levels on one command line */
+#define TP_COOLDOWN_MAX_TO 16      /* cool --to levels on one command line */
 
 #endif

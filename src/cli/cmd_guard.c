@@ -295,6 +295,10 @@ static void summary(FILE *fp, const tp_session *s, const tp_guard_study *st, int
     fprintf(fp, "tepid guard %s%s%s\n  ", s->cli->file, s->desc.title[0] ? ": " : "",
             s->desc.title);
     tp_summary_network(fp, s->net);
+    if (s->desc.control.n_schedule > 0)
+        fprintf(fp, "  ! control.schedule: guard studies a step to the schedule's highest "
+                    "setpoint (%.1f degC) and holding there, not the schedule's ramps and holds\n",
+                s->net->control.setpoint - TP_KELVIN_0C);
     fprintf(fp, "  %d healthy run%s (nominal%s), %d faults from the cold start and from hold, "
                 "followed %.0f min; reading step near the setpoint %.3f K\n",
             st->n_corners, st->n_corners == 1 ? "" : "s",

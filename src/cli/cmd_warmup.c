@@ -11,6 +11,8 @@
 #include "integrate.h"
 #include "json.h"
 #include "metrics.h"
+#include "program.h"
+#include "programme.h"
 #include "series.h"
 #include "session.h"
 #include "steady.h"
@@ -30,6 +32,8 @@ static const tp_opt warmup_opts[] = {
     {"map-csv", 0, 1, 0, 1, "FILE",
      "gridded plates: write the surface maps cell by cell as CSV (- for standard output)"},
     {"strict", 0, 0, 0, 0, NULL, "exit 3 when the reading does not reach the setpoint in the run"},
+    {"above", 0, 1, 1, 0, "TEMP",
+     "report the time the reading and the surface spend above TEMP, e.g. 217degC (repeatable)"},
     TP_OPT_SET,
     TP_OPT_QUIET,
     TP_OPT_END,
@@ -149,7 +153,7 @@ static void print_ready(FILE *fp, const tp_metrics *m)
     }
 }
 
-static void summary(FILE *fp, const tp_session *s, const tp_warmup *w)
+static void summary(FILE *fp, const tp_session *s, const tp_warmup *w, const tp_program *prog)
 {
     const tp_network *net = s->net;
     const tp_history *h = &w->history;
@@ -173,7 +177,8 @@ static void summary(FILE *fp, const tp_session *s, const tp_warmup *w)
                 w->stats.factorizations_skipped);
     fputs(")\n\n", fp);
     if (isfinite(m->setpoint)) {
-        fprintf(fp, "  setpoint %.1f degC\n", m->setpoint - TP_KELVIN_0C);
+        fprintf(fp, "  setpoint %.1f degC%s\n", m->setpoint - TP_KELVIN_0C,
+                prog && prog->n ? " (the schedule's highest)" : "");
         print_time(fp, "reading reaches the setpoint", m->t_setpoint);
         if (m->not_reached) {
             fprintf(fp, "  ! the setpoint is not reached: %s", m->not_reached);
@@ -225,6 +230,8 @@ static void summary(FILE *fp, const tp_session *s, const tp_warmup *w)
                 net->grid ? "mean" : "estimate");
     if (net->grid)
         map_summary(fp, net, w);
+    if (prog)
+        tp_programme_text(fp, prog);
     tp_summary_cautions(fp, "cautions", cautions, tp_warmup_cautions(&s->desc, net, w, cautions));
 }
 
@@ -325,7 +332,8 @@ static const int json_metrics[] = {
     TP_MET_HOLD_POWER,        TP_MET_HOLD_DUTY,         TP_MET_HIGHEST,       TP_MET_AIR_FINAL,
     TP_MET_SURFACE_MAX};
 
-static tp_status write_json(const char *path, const tp_session *s, const tp_warmup *w, tp_diag *d)
+static tp_status write_json(const char *path, const tp_session *s, const tp_warmup *w,
+                            const tp_program *prog, tp_diag *d)
 {
     const tp_metrics *m = &w->metrics;
     const tp_history *h = &w->history;
@@ -361,6 +369,8 @@ static tp_status write_json(const char *path, const tp_session *s, const tp_warm
     put_node_map(root, "max_C", h, col);
     if (s->net->grid)
         put_surface_map(root, s->net, w);
+    if (prog)
+        tp_programme_json(root, prog);
     tp_json_metric(root, m, TP_MET_DURATION);
     stats = cJSON_AddObjectToObject(root, "solver");
     if (stats) {
@@ -416,10 +426,37 @@ static tp_status write_maps(const tp_cli *cli, const tp_session *s, const tp_war
     return rc;
 }
 
+/* The --above levels (temperatures with units) into K; exit 2 on a bad one. */
+static tp_status read_levels(const char *const *text, int n, double *out, tp_diag *d)
+{
+    int i;
+    if (n > TP_PROGRAM_MAX_ABOVE) {
+        tp_diag_error(d, tp_diag_loc_none(), "--above", "give at most 16 levels",
+                      "too many --above levels");
+        return TP_ERR_USAGE;
+    }
+    for (i = 0; i < n; i++) {
+        char msg[256];
+        const char *hint;
+        if (tp_units_parse(text[i], TP_DIM_TEMPERATURE, &out[i], msg, sizeof msg, &hint) !=
+            TP_OK) {
+            tp_diag_error(d, (tp_loc){"--above", 1, 1}, "--above", hint, "%s", msg);
+            return TP_ERR_USAGE;
+        }
+    }
+    return TP_OK;
+}
+
 static tp_status run_warmup(const tp_cli *cli, tp_diag *d)
 {
     tp_session s;
     tp_warmup w;
+    tp_schedule plan;
+    tp_program program;
+    const tp_program *prog = NULL;
+    const char *above_text[TP_PROGRAM_MAX_ABOVE + 1];
+    double above[TP_PROGRAM_MAX_ABOVE];
+    int n_above, scheduled;
     tp_status rc = tp_session_open(&s, cli, d);
     static const char *const map_opts[] = {"map", "map-setpoint", "map-csv"};
     size_t i;
@@ -445,17 +482,29 @@ static tp_status run_warmup(const tp_cli *cli, tp_diag *d)
         tp_session_close(&s);
         return TP_ERR_USAGE;
     }
-    rc = tp_warmup_run(s.net, &s.desc.run, &w, d);
+    n_above = tp_cli_all(cli, "above", above_text, TP_PROGRAM_MAX_ABOVE + 1);
+    if ((rc = read_levels(above_text, n_above, above, d)) != TP_OK) {
+        tp_session_close(&s);
+        return rc;
+    }
+    scheduled = tp_program_plan(&s.desc, s.net, &plan) == 0;
+    rc = tp_warmup_run_schedule(s.net, &s.desc.run, scheduled ? &plan : NULL, &w, d);
+    if (rc == TP_OK && (scheduled || n_above > 0)) {
+        if (!scheduled)
+            memset(&plan, 0, sizeof plan);
+        tp_program_compute(&w.history, &plan, above, n_above, &program);
+        prog = &program;
+    }
     if (rc == TP_OK && tp_cli_get(cli, "csv"))
         rc = tp_csv_write_history(tp_cli_get(cli, "csv"), &w.history, d);
     if (rc == TP_OK && s.net->grid)
         rc = write_maps(cli, &s, &w, d);
     if (rc == TP_OK && tp_cli_get(cli, "json"))
-        rc = write_json(tp_cli_get(cli, "json"), &s, &w, d);
+        rc = write_json(tp_cli_get(cli, "json"), &s, &w, prog, d);
     if (rc == TP_OK && tp_cli_get(cli, "plot"))
         rc = tp_figure_warmup(tp_cli_get(cli, "plot"), tp_session_title(&s), s.net, &w, d);
     if (rc == TP_OK && s.text)
-        summary(s.text, &s, &w);
+        summary(s.text, &s, &w, prog);
     if (rc == TP_OK && tp_cli_flag(cli, "strict") && !isfinite(w.metrics.t_setpoint)) {
         char buf[64];
         tp_summary_duration(w.metrics.duration, buf, sizeof buf);
@@ -482,6 +531,10 @@ const tp_verb tp_cmd_warmup = {
     "(definitions in docs/metrics.md); --strict exits 3 when the reading does not reach the\n"
     "setpoint within run.duration. The CSV has time_s, <node>_C, <source>_W and, with a\n"
     "controller, duty and reading_C; --json has the metrics; --plot draws the run.\n"
+    "With control.schedule (a programme of ramps, steps, holds and heater-off spells) the\n"
+    "controller follows it and each segment is reported: achieved rates, tracking errors,\n"
+    "time at the duty limit, overshoot; --above TEMP adds the time spent above TEMP, and the\n"
+    "CSV gains setpoint_C (docs/control.md).\n"
     "With bed.grid it also answers for the working-surface map at the setpoint and at\n"
     "holding (mean, spread, extremes, centre against corners, when all of it is ready);\n"
     "--map, --map-setpoint and --map-csv write the maps (docs/grid.md).",

@@ -10,6 +10,7 @@
 #include <string.h>
 
 #include "materials.h"
+#include "schedule.h"
 
 /* ---- the schema --------------------------------------------------------------------------- */
 
@@ -243,6 +244,18 @@ static const key enclosure_keys[] = {
 };
 static const section enclosure_sec = {enclosure_keys, N(enclosure_keys)};
 
+/* Setpoint schedules (docs/control.md): one of to (with ramp or not), hold and off per item. */
+static const key schedule_keys[] = {
+    QTY(tp_schedule_seg, to, "to", TP_DIM_TEMPERATURE, 0, 1500, too_big),
+    QTY(tp_schedule_seg, ramp, "ramp", TP_DIM_RATE, F_POS, 100,
+        "a ramp rate of a few K/s or K/min; a step is {to: TEMP} without ramp"),
+    QTY(tp_schedule_seg, hold, "hold", TP_DIM_TIME, F_POS, TP_MAX_DURATION,
+        "simulate at most 30 days"),
+    QTY(tp_schedule_seg, off, "off", TP_DIM_TIME, F_POS, TP_MAX_DURATION,
+        "simulate at most 30 days"),
+};
+static const section schedule_sec = {schedule_keys, N(schedule_keys)};
+
 static const key control_keys[] = {
     ID(tp_control_spec, source, "source", 0),
     ID(tp_control_spec, sensor, "sensor", 0),
@@ -257,6 +270,8 @@ static const key control_keys[] = {
         too_big),
     QTY(tp_control_spec, duty_levels, "duty_levels", TP_DIM_NONE, F_POS | F_INT, 1e6,
         "PWM outputs have at most a few thousand levels (255 for 8 bits)"),
+    LIST(tp_control_spec, schedule, n_schedule, tp_schedule_seg, "schedule", schedule_sec, 0,
+         TP_SCHEDULE_MAX),
 };
 static const section control_sec = {control_keys, N(control_keys)};
 
@@ -268,6 +283,7 @@ static const key run_keys[] = {
         "a relative tolerance between 1e-10 and 1e-2"),
     QTY(tp_run, max_steps, "max_steps", TP_DIM_NONE, F_POS | F_INT, 1e9, too_big),
     QTY(tp_run, wall_time, "wall_time", TP_DIM_TIME, F_POS, 86400, too_big),
+    QTY(tp_run, initial, "initial", TP_DIM_TEMPERATURE, 0, 1500, too_big),
 };
 static const section run_sec = {run_keys, N(run_keys)};
 
@@ -739,9 +755,30 @@ static void set_default(double *x, double v)
 #define TP_GUARD_TIME_FACTOR 1.5    /* -, safety factor on healthy durations (docs/guard.md) */
 #define TP_GUARD_RISE_FACTOR 0.67   /* -, safety factor on healthy rises (docs/guard.md) */
 
+/* The reading at t = 0 as far as the description tells (the sensor's start plus its offset; a
+ * thermistor's quantisation is left out): where a schedule's first ramp starts when its length
+ * sets run.duration. The integrator lays the schedule out again from the exact reading. */
+static double start_reading(const tp_description *c)
+{
+    size_t i;
+    if (c->form == TP_FORM_PHYSICAL)
+        return (tp_isset(c->run.initial) ? c->run.initial : c->room.temperature) +
+               (tp_isset(c->sensor.offset) ? c->sensor.offset : 0.0);
+    for (i = 0; i < c->network.n_nodes; i++)
+        if (strcmp(c->network.nodes[i].id, c->control.sensor) == 0)
+            return tp_isset(c->network.nodes[i].initial) ? c->network.nodes[i].initial
+                                                         : c->network.nodes[i].fixed;
+    return TP_UNSET;
+}
+
 static void apply_defaults(tp_description *c)
 {
     size_t i;
+    tp_schedule plan;
+    /* Without run.duration a scheduled run lasts the schedule. */
+    if (!tp_isset(c->run.duration) && c->control.n_schedule > 0 &&
+        tp_schedule_plan(&c->control, start_reading(c), &plan) == 0 && plan.t_end > 0)
+        c->run.duration = plan.t_end;
     set_default(&c->run.duration, TP_DEFAULT_DURATION);
     set_default(&c->run.step, TP_DEFAULT_STEP);
     /* A gridded plate's spatial error (tenths of a kelvin) dwarfs the time integration's: a
@@ -856,6 +893,77 @@ static void check_setpoint(reader *r, const tp_yamltree *doc, const tp_descripti
                   TP_SETPOINT_MIN - TP_KELVIN_0C);
 }
 
+/* A schedule's segments: one of to, hold and off each, ramp only with to, setpoints that are
+ * plausible, and not together with control.setpoint (docs/control.md). */
+static void check_schedule(reader *r, const tp_yamltree *doc, const tp_description *c)
+{
+    const tp_yamltree_node *n = tp_yamltree_find(doc, "control.schedule");
+    const tp_control_spec *k = &c->control;
+    size_t i;
+    int any_to = 0, errors0 = r->d->errors;
+    char path[96];
+    if (!n)
+        return;
+    if (k->n_schedule == 0) {
+        tp_diag_error(r->d, tp_yamltree_loc(n), "control.schedule",
+                      "list segments such as - {to: 150 degC, ramp: 2 K/s} and - {hold: 10 min}",
+                      "the schedule is empty");
+        return;
+    }
+    if (tp_isset(k->setpoint))
+        tp_diag_error(r->d, tp_yamltree_loc(n), "control.schedule",
+                      "keep one: control.setpoint for a fixed setpoint, or control.schedule for a "
+                      "programme",
+                      "control.schedule and control.setpoint exclude each other");
+    if (!tp_description_mode_holds(k->mode))
+        tp_diag_error(r->d, tp_yamltree_loc(n), "control.schedule",
+                      "set control.mode to on-off or pid",
+                      "a schedule needs a controller that holds a setpoint; mode %s holds none",
+                      tp_description_mode_name(k->mode));
+    for (i = 0; i < k->n_schedule; i++) {
+        const tp_schedule_seg *g = &k->schedule[i];
+        int kinds = tp_isset(g->to) + tp_isset(g->hold) + tp_isset(g->off);
+        tp_loc at = tp_yamltree_loc(n->items[i]);
+        snprintf(path, sizeof path, "control.schedule.%zu", i);
+        if (tp_isset(g->ramp) && !tp_isset(g->to))
+            tp_diag_error(r->d, at, path, "write {to: TEMP, ramp: RATE}",
+                          "ramp needs the temperature it ramps to (to:)");
+        else if (kinds != 1)
+            tp_diag_error(r->d, at, path,
+                          "write one of {to: TEMP, ramp: RATE}, {to: TEMP}, {hold: TIME} or "
+                          "{off: TIME} per item",
+                          kinds ? "a segment is one of to, hold and off" : "the segment is empty");
+        if (tp_isset(g->to)) {
+            any_to = 1;
+            if (g->to < TP_SETPOINT_MIN)
+                tp_diag_error(r->d, at, path, "tepid models heating: e.g. to: 150 degC",
+                              "%.2f degC is implausibly low for a setpoint (limit %.2f degC)",
+                              g->to - TP_KELVIN_0C, TP_SETPOINT_MIN - TP_KELVIN_0C);
+        }
+    }
+    if (!any_to && r->d->errors == errors0)
+        tp_diag_error(r->d, tp_yamltree_loc(n), "control.schedule",
+                      "add a segment such as - {to: 150 degC, ramp: 2 K/s}",
+                      "the schedule never sets a temperature");
+}
+
+/* run.initial starts the plate and sensor nodes of the physical form; a raw network gives each
+ * node its own initial. */
+static void check_initial(reader *r, const tp_yamltree *doc, const tp_description *c)
+{
+    if (!tp_isset(c->run.initial))
+        return;
+    if (c->form == TP_FORM_RAW)
+        tp_diag_error(r->d, tp_yamltree_nearest(doc, "run.initial"), "run.initial",
+                      "give each node of the network its own initial: instead",
+                      "run.initial applies to the physical form only");
+    else if (c->run.initial < c->room.temperature)
+        tp_diag_error(r->d, tp_yamltree_nearest(doc, "run.initial"), "run.initial",
+                      "a warm start is at or above the room temperature",
+                      "%.2f degC is below the room temperature %.2f degC",
+                      c->run.initial - TP_KELVIN_0C, c->room.temperature - TP_KELVIN_0C);
+}
+
 /* Limits that involve two keys, checked with the defaults in place and before anything is
  * allocated for the run (docs/limits.md); and the lower plausibility bound of the room. */
 static void check_run_size(reader *r, const tp_yamltree *doc, const tp_description *c)
@@ -939,6 +1047,10 @@ tp_status tp_config_read(const tp_yamltree *doc, tp_description *desc, tp_diag *
     read_section(&r, &top_sec, doc->root, desc, "");
     if (d->errors == errors0)
         check_form(&r, doc, desc);
+    if (d->errors == errors0)
+        check_schedule(&r, doc, desc);
+    if (d->errors == errors0)
+        check_initial(&r, doc, desc);
     if (d->errors != errors0) {
         tp_config_clear(desc);
         return r.nomem ? TP_ERR_NOMEM : TP_ERR_CONFIG;

@@ -168,6 +168,15 @@ typedef struct tp_enclosure {
     tp_walls walls;
 } tp_enclosure;
 
+/* One segment of a setpoint schedule (control.schedule, docs/control.md): exactly one of `to`,
+ * `hold` and `off` is set; `ramp` only with `to` (unset: a step). */
+typedef struct tp_schedule_seg {
+    double to;   /* K, the setpoint the segment moves to */
+    double ramp; /* K/s, the rate it moves at (unset: a step) */
+    double hold; /* s the setpoint stays */
+    double off;  /* s the heater is off */
+} tp_schedule_seg;
+
 typedef struct tp_control_spec {
     int present;
     char source[TP_ID_MAX];
@@ -181,6 +190,8 @@ typedef struct tp_control_spec {
     double kd;                /* s/K */
     double derivative_filter; /* s, first-order filter on the PID derivative term (0: none) */
     double duty_levels;       /* -, PID output rounded to multiples of 1/duty_levels (0: exact) */
+    tp_schedule_seg *schedule; /* the setpoint schedule, in order (NULL: a fixed setpoint) */
+    size_t n_schedule;
 } tp_control_spec;
 
 typedef struct tp_run {
@@ -189,6 +200,8 @@ typedef struct tp_run {
     double tolerance; /* -, CVODE relative tolerance */
     double max_steps; /* -, integration step limit */
     double wall_time; /* s, wall-clock limit */
+    double initial;   /* K, physical form: every plate and sensor node starts here (unset: the
+                         room temperature) */
 } tp_run;
 
 typedef struct tp_losses {
@@ -302,8 +315,13 @@ const char *tp_description_mode_name(tp_mode mode);
 int tp_description_mode_holds(tp_mode mode);
 
 /* Nonzero when the description's controller holds a setpoint: present, a mode that holds one
- * (tp_description_mode_holds) and a setpoint given. */
+ * (tp_description_mode_holds) and a setpoint or a schedule given. */
 int tp_description_holds(const tp_description *desc);
+
+/* The controller's nominal setpoint, K: control.setpoint, or with a schedule the highest
+ * setpoint it moves to (what steady states, budgets and protection are judged at); NaN when
+ * neither is given. */
+double tp_description_setpoint(const tp_description *desc);
 
 /* The wiring installations as written in configs, by tp_installation value ("cable",
  * "chassis"). */

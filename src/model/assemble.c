@@ -250,7 +250,7 @@ static tp_status attach_control(const tp_description *desc, const tp_yamltree *d
                       "the controller reads the fixed node '%s', which never changes", c->sensor);
         return TP_ERR_CONFIG;
     }
-    if (tp_description_mode_holds(c->mode) && !tp_isset(c->setpoint)) {
+    if (tp_description_mode_holds(c->mode) && !tp_isset(tp_description_setpoint(desc))) {
         tp_diag_error(d, where(doc, "control"), "control.setpoint", "add setpoint: 100 degC",
                       "mode %s needs a setpoint", tp_description_mode_name(c->mode));
         return TP_ERR_CONFIG;
@@ -265,10 +265,22 @@ static tp_status attach_control(const tp_description *desc, const tp_yamltree *d
                       c->setpoint - TP_KELVIN_0C, coldest - TP_KELVIN_0C);
         return TP_ERR_CONFIG;
     }
+    for (i = 0; i < (int)c->n_schedule && tp_description_mode_holds(c->mode); i++) {
+        char at[64];
+        if (!(c->schedule[i].to < coldest))
+            continue;
+        snprintf(at, sizeof at, "control.schedule.%d.to", i);
+        tp_diag_error(d, where(doc, "control.schedule.%d.to", i), at,
+                      "tepid models heating: a segment's setpoint is above the room (let the "
+                      "plate cool with {off: TIME})",
+                      "the setpoint %.2f degC is below the room temperature %.2f degC",
+                      c->schedule[i].to - TP_KELVIN_0C, coldest - TP_KELVIN_0C);
+        return TP_ERR_CONFIG;
+    }
     k->mode = c->mode;
     k->source = src;
     k->sensor = sensor;
-    k->setpoint = c->setpoint;
+    k->setpoint = tp_description_setpoint(desc); /* a schedule's highest setpoint */
     k->band = c->band;
     k->period = c->period;
     k->kp = c->kp;

@@ -59,10 +59,16 @@ static void layer_path(const tp_description *desc, size_t i, const char *key, ch
         snprintf(out, size, "bed.layers.%zu%s%s", i, key ? "." : "", key ? key : "");
 }
 
+/* Where the plate and sensor nodes start: run.initial (a warm start), else the room. */
+static double plate_start(const tp_description *desc)
+{
+    return tp_isset(desc->run.initial) ? desc->run.initial : desc->room.temperature;
+}
+
 double tp_plate_design_temperature(const tp_description *desc)
 {
     if (tp_description_holds(desc))
-        return desc->control.setpoint;
+        return tp_description_setpoint(desc);
     return desc->room.temperature + TP_DESIGN_RISE;
 }
 
@@ -180,7 +186,7 @@ static int lower_layers(const tp_description *desc, const tp_yamltree *doc, tp_n
     }
     for (i = 0; i < bed->n_layers; i++) {
         double c = g[i].m->density * g[i].m->specific_heat * g[i].area * g[i].t;
-        g[i].node = tp_network_add_node(net, bed->layers[i].id, c, desc->room.temperature);
+        g[i].node = tp_network_add_node(net, bed->layers[i].id, c, plate_start(desc));
         if (g[i].node < 0)
             return 1;
     }
@@ -298,7 +304,7 @@ static tp_status lower_sensor(const tp_description *desc, const tp_yamltree *doc
         return TP_ERR_CONFIG;
     }
     c = tp_isset(s->capacity) ? s->capacity : s->coupling * s->time_constant;
-    node = tp_network_add_node(net, "sensor", c, desc->room.temperature);
+    node = tp_network_add_node(net, "sensor", c, plate_start(desc));
     l = node >= 0 ? tp_network_add_link(net, node, g[li].node, TP_LAW_CONDUCTION) : NULL;
     if (!l)
         return TP_ERR_NOMEM;
@@ -325,6 +331,19 @@ static void physical_warnings(const tp_description *desc, const tp_yamltree *doc
                          "the setpoint %.0f degC is above the service limit of %s in layer "
                          "'%s' (%.0f degC)",
                          desc->control.setpoint - TP_KELVIN_0C, m->id, desc->bed.layers[i].id,
+                         m->max_temperature - TP_KELVIN_0C);
+        }
+        for (k = 0; desc->control.present && k < (int)desc->control.n_schedule; k++) {
+            double to = desc->control.schedule[k].to;
+            char at[64];
+            if (!(to > m->max_temperature))
+                continue;
+            snprintf(at, sizeof at, "control.schedule.%d.to", k);
+            tp_diag_warn(d, tp_yamltree_nearest(doc, at), at,
+                         "lower the segment's setpoint or choose a material rated for it",
+                         "the schedule's setpoint %.0f degC is above the service limit of %s in "
+                         "layer '%s' (%.0f degC)",
+                         to - TP_KELVIN_0C, m->id, desc->bed.layers[i].id,
                          m->max_temperature - TP_KELVIN_0C);
         }
         /* Lumped-capacitance check on the exterior surfaces: Bi = h L_c / k with

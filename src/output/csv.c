@@ -36,6 +36,8 @@ tp_status tp_csv_write_history(const char *path, const tp_history *h, tp_diag *d
         fprintf(o.fp, ",%s_W", net->sources[k].id);
     if (net->has_control)
         fputs(",duty,reading_C", o.fp);
+    if (net->has_control && h->schedule)
+        fputs(",setpoint_C", o.fp);
     fputc('\n', o.fp);
     for (i = 0; i < h->n; i++) {
         tp_csv_real(o.fp, h->t[i]);
@@ -60,6 +62,10 @@ tp_status tp_csv_write_history(const char *path, const tp_history *h, tp_diag *d
             tp_csv_real(o.fp, h->duty[i]);
             fputc(',', o.fp);
             tp_csv_real(o.fp, h->reading[i] - TP_KELVIN_0C);
+        }
+        if (net->has_control && h->schedule) {
+            fputc(',', o.fp);
+            tp_csv_real(o.fp, h->setpoint[i] - TP_KELVIN_0C);
         }
         fputc('\n', o.fp);
     }

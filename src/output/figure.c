@@ -16,9 +16,9 @@ tp_status tp_figure_warmup(const char *path, const char *title, const tp_network
     const tp_history *h = &w->history;
     long n = h->n, i;
     int k, ns = 0, np = 0;
-    size_t cells = (size_t)n * ((size_t)h->n_out + 8);
+    size_t cells = (size_t)n * ((size_t)h->n_out + 9);
     double *buf = malloc(cells * sizeof *buf), *minutes, *power, *reading, *surface;
-    tp_plot_series *temp_series = calloc((size_t)h->n_out + 4, sizeof *temp_series);
+    tp_plot_series *temp_series = calloc((size_t)h->n_out + 5, sizeof *temp_series);
     char(*labels)[TP_ID_MAX + 16] = calloc((size_t)h->n_out + 1, sizeof *labels);
     tp_plot_series power_series[2];
     tp_plot_hline setpoint = {"setpoint", w->metrics.setpoint - TP_KELVIN_0C};
@@ -74,6 +74,16 @@ tp_status tp_figure_warmup(const char *path, const char *title, const tp_network
     }
     if (net->has_control && reading_col < 0)
         temp_series[ns++] = (tp_plot_series){"reading", minutes, reading, (size_t)n, 2, 0, 0};
+    if (h->schedule) {
+        /* A scheduled run draws its setpoint as it moved (gaps where the heater was off)
+         * instead of one line at the highest. */
+        double *sp = buf + (size_t)(6 + h->n_out) * (size_t)n;
+        for (i = 0; i < n; i++)
+            sp[i] = h->setpoint[i] - TP_KELVIN_0C;
+        temp_series[ns++] = (tp_plot_series){"setpoint (schedule)", minutes, sp, (size_t)n,
+                                             1 | TP_PLOT_GAPS, 0, 0};
+        setpoint.y = TP_UNSET;
+    }
     power_series[np++] = (tp_plot_series){"heater power", minutes, power, (size_t)n, 0, 0, 0};
     if (net->has_control)
         power_series[np++] = (tp_plot_series){"duty", minutes, h->duty, (size_t)n, 1, 0, 1};

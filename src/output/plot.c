@@ -887,7 +887,8 @@ static const char *series_glyph(size_t k)
 
 static PLINT series_style(const tp_plot_series *s)
 {
-    return plot_dash_style[s->dash >= 0 && s->dash <= 2 ? s->dash : 0];
+    int dash = s->dash & ~TP_PLOT_GAPS;
+    return plot_dash_style[dash >= 0 && dash <= 2 ? dash : 0];
 }
 
 /* Draw a series in the current window: polylines between non-finite points, or markers. */
@@ -1477,7 +1478,7 @@ static size_t series_range(const tp_plot_series *s, double *xlo, double *xhi, do
     size_t i, n = 0;
     for (i = 0; i < s->n; i++) {
         if (!isfinite(s->x[i]) || !isfinite(s->y[i])) {
-            (*skipped)++;
+            *skipped += !(s->dash & TP_PLOT_GAPS);
             continue;
         }
         *xlo = fmin(*xlo, s->x[i]);

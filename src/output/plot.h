@@ -24,11 +24,14 @@
 #define TP_PLOT_VLINES_MAX 8     /* marked times (vertical lines) in one chart */
 
 /* One curve. Points with a non-finite x or y are skipped (a line breaks there). */
+#define TP_PLOT_GAPS 8 /* tp_plot_series.dash flag: intended gaps */
+
 typedef struct tp_plot_series {
     const char *label;   /* legend text; NULL: no legend entry */
     const double *x, *y; /* n points; x in the chart's x unit */
     size_t n;
-    int dash;       /* 0 solid, 1 dashed, 2 dotted */
+    int dash;       /* 0 solid, 1 dashed, 2 dotted; with TP_PLOT_GAPS or'ed in, its non-finite
+                       points are gaps meant as such (a heater switched off), not warned about */
     int markers;    /* nonzero: markers instead of a line (measured data) */
     int right_axis; /* nonzero: plotted against the panel's right axis (y2label) */
 } tp_plot_series;

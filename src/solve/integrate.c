@@ -299,6 +299,9 @@ typedef struct run {
     tp_control_state ctrl; /* its memory */
     double period;         /* s between its ticks (HUGE_VAL without one) */
     long k_tick;           /* the next tick is at k_tick * period */
+    double next_off;       /* s, where the schedule next switches the heater off (HUGE_VAL:
+                              never) */
+    int was_off;           /* the last tick found the schedule off */
     double *temps;
     long next_out;         /* index of the next output time */
     long n_out;            /* output times 0..n_out-1 at k * step (the last one is t_end) */
@@ -355,6 +358,9 @@ static int emit(run *r, double t, const double *y)
         }
     s.temps = r->temps;
     s.duty = r->ctl ? tp_eval_duty(r->dr.ev, r->ctl->source) : 1.0;
+    s.setpoint = r->o->schedule && r->ctl ? tp_schedule_at(r->o->schedule, t, NULL)
+                 : r->ctl && tp_description_mode_holds(r->ctl->mode) ? r->ctl->setpoint
+                                                                     : TP_UNSET;
     s.eval = r->dr.ev;
     if (r->o->out && r->o->out(r->o->user, &s) != 0)
         r->stop = 1;
@@ -370,7 +376,23 @@ static int tick(run *r, double t, const double *y)
         return 0;
     src = r->ctl->source;
     reading = reading_of(r, t, y);
-    duty = tp_control_tick(r->ctl, &r->ctrl, reading);
+    if (r->o->schedule) {
+        /* The controller follows the schedule's setpoint at its ticks; off parts hold the
+         * heater off, and after one the controller starts afresh. */
+        tp_control c = *r->ctl;
+        c.setpoint = tp_schedule_at(r->o->schedule, t, NULL);
+        if (!isfinite(c.setpoint)) {
+            r->was_off = 1;
+            duty = 0.0;
+        } else {
+            if (r->was_off)
+                tp_control_start(r->ctl, &r->ctrl);
+            r->was_off = 0;
+            duty = tp_control_tick(&c, &r->ctrl, reading);
+        }
+    } else {
+        duty = tp_control_tick(r->ctl, &r->ctrl, reading);
+    }
     if (r->hooks && r->hooks->duty)
         duty = r->hooks->duty(r->hooks->user, t, duty);
     if (duty != tp_eval_duty(r->dr.ev, src)) {
@@ -417,6 +439,7 @@ static tp_status setup_state(run *r)
     r->ctl = o->duty ? NULL : o->control ? o->control : net->has_control ? &net->control : NULL;
     r->period = r->ctl ? r->ctl->period : HUGE_VAL;
     r->k_tick = 1;
+    r->next_off = o->schedule && r->ctl ? tp_schedule_next_off(o->schedule, 0.0) : HUGE_VAL;
     r->n_out = (long)ceil(o->t_end / o->step - 1e-9) + 1;
     r->temps = malloc((size_t)(net->n_nodes > 0 ? net->n_nodes : 1) * sizeof *r->temps);
     if (!r->temps || tp_eval_create(net, &r->dr.ev) != TP_OK)
@@ -533,8 +556,11 @@ static tp_status ticks_in_step(run *r, double *t_restart)
 {
     tp_status st;
     *t_restart = HUGE_VAL;
-    while ((double)r->k_tick * r->period <= r->t) {
+    while ((double)r->k_tick * r->period <= r->t || r->next_off <= r->t) {
         double tk = (double)r->k_tick * r->period;
+        int is_tick = tk <= r->next_off;
+        if (!is_tick)
+            tk = r->next_off; /* the schedule switches the heater off here */
         /* A large network ending its step on the tick takes the step's state (the same
          * numbers) and saves the interpolation. */
         if (r->net->grid && tk == r->t)
@@ -548,6 +574,20 @@ static tp_status ticks_in_step(run *r, double *t_restart)
             if (emit(r, out_time(r, r->next_out++), N_VGetArrayPointer(r->tmp)))
                 return TP_OK;
         }
+        if (!is_tick) {
+            r->next_off = tp_schedule_next_off(r->o->schedule, tk);
+            r->was_off = 1;
+            double off = r->hooks && r->hooks->duty ? r->hooks->duty(r->hooks->user, tk, 0.0)
+                                                    : 0.0;
+            if (r->ctl && tp_eval_duty(r->dr.ev, r->ctl->source) != off) {
+                tp_eval_set_duty(r->dr.ev, r->ctl->source, off);
+                *t_restart = tk;
+                return TP_OK;
+            }
+            continue;
+        }
+        if (tk == r->next_off)
+            r->next_off = tp_schedule_next_off(r->o->schedule, tk);
         r->k_tick++;
         r->stats->ticks++;
         if (tick(r, tk, N_VGetArrayPointer(r->yi))) {

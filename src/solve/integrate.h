@@ -11,6 +11,7 @@
 #include "eval.h"
 #include "hardlimits.h"
 #include "network.h"
+#include "schedule.h"
 #include "status.h"
 
 #define TP_DENSE_MAX 12 /* free nodes up to which the dense LU is used; KLU above
@@ -23,6 +24,8 @@ typedef struct tp_sample {
     const double *temps;  /* every node's temperature, K (n_nodes) */
     double duty;          /* the controlled source's held duty (1 without a controller) */
     double reading;       /* the controller's reading at t, K (NaN without a controller) */
+    double setpoint;      /* the setpoint at t, K: the schedule's (NaN while it has the heater
+                             off), else the controller's (NaN without one that holds one) */
     tp_eval *eval;        /* the run's evaluator at the duties held at t: source powers, flows
                              and the working surface of this sample, only during the call; its
                              duties are the run's, never to be set by the callback */
@@ -55,6 +58,10 @@ typedef struct tp_integrate_opts {
                               controller at all. NULL: each source at its max_duty, the
                               controlled one switched by the controller */
     const tp_control_state *ctrl0; /* controller memory at t = 0 (NULL: reset) */
+    const tp_schedule *schedule; /* the setpoint schedule the controller follows, sampled at its
+                              ticks; an off part switches the heater off where it begins, and
+                              the controller starts afresh at its first tick after one. NULL:
+                              the controller's fixed setpoint */
     tp_output_fn out;
     void *user;
     const tp_hooks *hooks;

@@ -16,6 +16,8 @@
  * parameter's standard error in SI follows from the delta method, se(x) = x se(ln x). */
 #include "fit.h"
 
+#include "program.h"
+
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -414,6 +416,7 @@ static int evaluate(evaluator *ev, const double *x, double *model, tp_diag *d)
     tp_integrate_opts o;
     tp_integrate_stats stats;
     tp_hooks hooks;
+    tp_schedule plan;
     tp_diag *sink = d ? d : ev->q;
     long i, j;
     int rc = -1, open = ev->drive == TP_FIT_BY_DUTY || ev->drive == TP_FIT_BY_POWER;
@@ -454,6 +457,9 @@ static int evaluate(evaluator *ev, const double *x, double *model, tp_diag *d)
     o.user = ev;
     o.hooks = open ? &hooks : NULL;
     o.control = open || net->has_control ? &ctl : NULL;
+    /* A closed-loop run follows the config's schedule, laid out from this model's start. */
+    if (!open && tp_program_plan(&ev->work, net, &plan) == 0)
+        o.schedule = &plan;
     ev->n_rec = 0;
     ev->net = run_net;
     if (tp_integrate(run_net, &o, &stats, sink) != TP_OK) {

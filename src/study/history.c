@@ -89,6 +89,7 @@ void tp_history_clear(tp_history *h)
     free(h->current);
     free(h->duty);
     free(h->reading);
+    free(h->setpoint);
     free(h->surface);
     free(h->energy);
     free(h->surface_min);
@@ -113,6 +114,7 @@ static int grow(tp_history *h)
         tp_array_resize(&h->power, rows * ns, d) || tp_array_resize(&h->wire, rows, d) ||
         tp_array_resize(&h->current, rows, d) || tp_array_resize(&h->duty, rows, d) ||
         tp_array_resize(&h->reading, rows, d) || tp_array_resize(&h->surface, rows, d) ||
+        tp_array_resize(&h->setpoint, rows, d) ||
         tp_array_resize(&h->energy, rows * TP_N_QUAD, d))
         return -1;
     if (h->net->grid && (tp_array_resize(&h->surface_min, rows, d) ||
@@ -211,6 +213,7 @@ int tp_history_record(void *user, const tp_sample *s)
                            &h->current[i]);
     h->duty[i] = s->duty;
     h->reading[i] = s->reading;
+    h->setpoint[i] = s->setpoint;
     if (net->grid)
         surface_row(h, i, s->eval, s->temps);
     else

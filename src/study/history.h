@@ -32,6 +32,10 @@ typedef struct tp_history {
     double *current;   /* n: A through the controlled (or first electrical) source when on */
     double *duty;      /* n: the controlled source's duty */
     double *reading;   /* n: K (NaN without a controller) */
+    double *setpoint;  /* n: K, the setpoint at each row (NaN without one, or while a schedule
+                          has the heater off) */
+    const tp_schedule *schedule; /* the schedule the run followed (borrowed), NULL: none; the
+                          CSV then has a setpoint_C column */
     double *surface;   /* n: working-surface estimate, K (NaN for the raw form); gridded: the
                           map's area-weighted mean */
     double *energy;    /* n x TP_N_QUAD, J */

@@ -9,6 +9,8 @@
  * scratch buffers and are not shared), and write only their points' result slots. */
 #include "sweep.h"
 
+#include "program.h"
+
 #include <float.h>
 #include <math.h>
 #include <pthread.h>
@@ -700,6 +702,7 @@ static void run_point(worker *wk, tp_description *desc, long i)
     tp_sweep_result *res = &wk->p->results[i];
     const tp_network *net = NULL;
     tp_warmup w;
+    tp_schedule sched;
     char msg[TP_SWEEP_REASON_MAX - 32]; /* room for the prefix */
     int k;
     memset(res, 0, sizeof *res);
@@ -721,7 +724,10 @@ static void run_point(worker *wk, tp_description *desc, long i)
         snprintf(res->reason, sizeof res->reason, "assembly: %s", msg);
         return;
     }
-    if (tp_warmup_run(net, &desc->run, &w, &wk->diag) != TP_OK) {
+    /* A scheduled point follows its own schedule (a swept segment's values included). */
+    if (tp_warmup_run_schedule(net, &desc->run,
+                               tp_program_plan(desc, net, &sched) == 0 ? &sched : NULL, &w,
+                               &wk->diag) != TP_OK) {
         first_error(&wk->diag, msg, sizeof msg);
         snprintf(res->reason, sizeof res->reason, "%s", msg);
     } else {

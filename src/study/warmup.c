@@ -76,6 +76,12 @@ static tp_status grid_after(const tp_network *net, tp_warmup *w)
 
 tp_status tp_warmup_run(const tp_network *net, const tp_run *run, tp_warmup *w, tp_diag *d)
 {
+    return tp_warmup_run_schedule(net, run, NULL, w, d);
+}
+
+tp_status tp_warmup_run_schedule(const tp_network *net, const tp_run *run,
+                                 const tp_schedule *schedule, tp_warmup *w, tp_diag *d)
+{
     tp_integrate_opts o;
     tp_status st;
     tp_diag quiet;
@@ -100,6 +106,8 @@ tp_status tp_warmup_run(const tp_network *net, const tp_run *run, tp_warmup *w, 
     if (net->grid && (st = grid_before(net, w)) != TP_OK)
         return st;
     tp_integrate_defaults(run, &o);
+    o.schedule = schedule;
+    w->history.schedule = schedule;
     o.out = tp_history_record;
     o.user = &w->history;
     st = tp_integrate(net, &o, &w->stats, d);

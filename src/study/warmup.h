@@ -37,6 +37,11 @@ typedef struct tp_warmup {
  * tp_warmup_clear in every case. */
 tp_status tp_warmup_run(const tp_network *net, const tp_run *run, tp_warmup *w, tp_diag *d);
 
+/* The same following a setpoint schedule (NULL: the controller's fixed setpoint); `schedule`
+ * is borrowed by the history and must outlive it. */
+tp_status tp_warmup_run_schedule(const tp_network *net, const tp_run *run,
+                                 const tp_schedule *schedule, tp_warmup *w, tp_diag *d);
+
 /* Free what a run holds. */
 void tp_warmup_clear(tp_warmup *w);
 

@@ -56,7 +56,8 @@ static tp_network *grid(int k)
 
 static double time_run(const tp_network *net, int solver, long *steps)
 {
-    const tp_run run = {1800.0, 10.0, 1e-6, 1e7, 600.0}; /* duration, step, tolerance, limits */
+    const tp_run run = {1800.0, 10.0, 1e-6, 1e7, 600.0, TP_UNSET}; /* duration, step, tolerance,
+                                                                 limits, initial */
     tp_integrate_opts o;
     tp_integrate_stats st;
     tp_diag d;
