@@ -1685,14 +1685,16 @@ static void until_text(FILE *fp, const options *o, long run, long rep_size, int 
     }
 }
 
-/* Summaries of every metric over the first n points; NULL when memory runs out. */
+/* Summaries of every metric over the first n points (only those of `want`, without rank
+ * correlations, when want is not NULL); NULL when memory runs out. */
 static tp_sweep_summary *summarise_all(const tp_sweep_plan *plan, const tp_sweep_result *res,
-                                       long n)
+                                       long n, const int *want)
 {
     tp_sweep_summary *sum = calloc(TP_MET_SWEPT, sizeof *sum);
     int m;
     for (m = 0; sum && m < TP_MET_SWEPT; m++)
-        if (tp_sweep_summarise_first(plan, res, n, m, &sum[m]) != TP_OK) {
+        if ((!want || want[m]) &&
+            tp_sweep_summarise_first(plan, res, n, m, want == NULL, &sum[m]) != TP_OK) {
             free(sum);
             return NULL;
         }
@@ -1719,6 +1721,9 @@ static tp_status run_until(options *o, const tp_sweep_plan *plan, const tp_descr
                            tp_sweep_result *res, tp_sweep_totals *tot, long *run, int *met)
 {
     long total = tp_sweep_count(plan), done = 0;
+    int want[TP_MET_SWEPT] = {0}, k;
+    for (k = 0; k < o->n_until; k++)
+        want[o->until[k].metric] = 1;
     *met = 0;
     memset(tot, 0, sizeof *tot);
     while (done < total && !*met) {
@@ -1730,7 +1735,7 @@ static tp_status run_until(options *o, const tp_sweep_plan *plan, const tp_descr
             return st;
         tp_sweep_totals_merge(tot, &batch);
         done += plan->rep_size;
-        sum = summarise_all(plan, res, done);
+        sum = summarise_all(plan, res, done, want);
         if (!sum)
             return TP_ERR_NOMEM;
         *met = targets_met(o, plan, sum);
@@ -1777,7 +1782,7 @@ static tp_status finish(const tp_cli *cli, options *o, const study_info *info,
     const char *out;
     tp_status rc = TP_OK;
     if (plan->mode == TP_SWEEP_SPREAD) {
-        sum = summarise_all(plan, res, run);
+        sum = summarise_all(plan, res, run, NULL);
         if (!sum)
             return TP_ERR_NOMEM;
     }

@@ -902,11 +902,11 @@ static void intervals(const tp_sweep_plan *plan, const tp_sweep_result *results,
 tp_status tp_sweep_summarise(const tp_sweep_plan *plan, const tp_sweep_result *results, int metric,
                              tp_sweep_summary *out)
 {
-    return tp_sweep_summarise_first(plan, results, tp_sweep_count(plan), metric, out);
+    return tp_sweep_summarise_first(plan, results, tp_sweep_count(plan), metric, 1, out);
 }
 
 tp_status tp_sweep_summarise_first(const tp_sweep_plan *plan, const tp_sweep_result *results,
-                                   long total, int metric, tp_sweep_summary *out)
+                                   long total, int metric, int with_rho, tp_sweep_summary *out)
 {
     long i, n = 0;
     int k;
@@ -953,7 +953,7 @@ tp_status tp_sweep_summarise_first(const tp_sweep_plan *plan, const tp_sweep_res
     }
     /* A metric that does not vary beyond solver noise (a holding power that no spread
      * parameter affects) has no driver: ranks of rounding errors mean nothing. */
-    if (!(n > 1 && out->sd > TP_SWEEP_NOISE * fmax(fabs(out->mean), DBL_MIN))) {
+    if (!with_rho || !(n > 1 && out->sd > TP_SWEEP_NOISE * fmax(fabs(out->mean), DBL_MIN))) {
         free(x);
         return TP_OK;
     }

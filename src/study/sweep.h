@@ -288,8 +288,9 @@ double tp_sweep_needed(const tp_sweep_plan *plan, const tp_sweep_summary *s, int
 tp_status tp_sweep_summarise(const tp_sweep_plan *plan, const tp_sweep_result *results, int metric,
                              tp_sweep_summary *out);
 
-/* The same over the first n samples only (a study stopped early by --until). */
+/* The same over the first n samples only (a study stopped early by --until); without the rank
+ * correlations (rho NaN, driver -1) unless with_rho, for the checks between batches. */
 tp_status tp_sweep_summarise_first(const tp_sweep_plan *plan, const tp_sweep_result *results,
-                                   long n, int metric, tp_sweep_summary *out);
+                                   long n, int metric, int with_rho, tp_sweep_summary *out);
 
 #endif
