@@ -1177,6 +1177,32 @@ static void design_plan(tp_sweep_plan *plan, const tp_description *desc, const c
     assert_int_equal(tp_sweep_design_build(plan, (tp_sweep_design)design, reps, &d), TP_OK);
 }
 
+static void test_samples_needed_for_a_halfwidth(void **state)
+{
+    /* sd 10 over 100 random samples, half-width 1 wanted: the normal approximation asks
+     * (1.96 * 10 / 1)^2 = 384.1 samples; with Student's t at about 386 degrees of freedom
+     * (t(0.975, 386) = 1.966, t table, from memory) (1.966 * 10)^2 = 386.5, so 387 (hand
+     * calculation). A 95th percentile never needs fewer than the 72 its interval needs. */
+    tp_sweep_plan plan;
+    tp_sweep_summary sum;
+    double n;
+    (void)state;
+    tp_sweep_plan_init(&plan, TP_SWEEP_SPREAD);
+    memset(&sum, 0, sizeof sum);
+    sum.n = 100;
+    sum.mean = 50.0;
+    sum.sd = 10.0;
+    n = tp_sweep_needed(&plan, &sum, TP_STAT_MEAN, 1.0);
+    assert_true(n >= 386.0 && n <= 388.0);
+    sum.lo[TP_STAT_P95] = 60.0;
+    sum.hi[TP_STAT_P95] = 61.0; /* half-width 0.5: 100 (0.5 / 5)^2 = 1 sample by scaling */
+    n = tp_sweep_needed(&plan, &sum, TP_STAT_P95, 5.0);
+    tp_check_abs("p95 needs its 72", n, 72.0, 0.0);
+    sum.hi[TP_STAT_P95] = 64.0; /* half-width 2: 100 (2 / 1)^2 = 400 */
+    tp_check_abs("p95 by scaling", tp_sweep_needed(&plan, &sum, TP_STAT_P95, 1.0), 400.0, 0.0);
+    tp_sweep_plan_clear(&plan);
+}
+
 static void test_ci_coverage_on_a_linear_metric(void **state)
 {
     /* G ~ N(2, 0.2) W/K, f = 50 G ~ N(100, 10) W (closed form): the true mean is 100 W, the
@@ -1555,6 +1581,7 @@ int main(void)
         cmocka_unit_test(test_cli_readme_commands),
         cmocka_unit_test(test_ci_mean_and_sd_table_values),
         cmocka_unit_test(test_ci_ranks_binomial_hand_values),
+        cmocka_unit_test(test_samples_needed_for_a_halfwidth),
         cmocka_unit_test(test_ci_coverage_on_a_linear_metric),
         cmocka_unit_test(test_lhs_one_sample_per_stratum),
         cmocka_unit_test(test_designs_reduce_variance_without_bias),

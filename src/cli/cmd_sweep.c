@@ -1659,6 +1659,15 @@ static void summary_cautions(FILE *fp, const study_info *info, const tp_sweep_to
                         tot->n_cautions);
 }
 
+/* A half-width in the text unit with three significant digits (a duration as "1.2 s"). */
+static void half_text(const tp_metricdef *md, double si, char *buf, size_t size)
+{
+    if (md->form == TP_FORM_DURATION)
+        snprintf(buf, size, "%.3g s", si);
+    else
+        snprintf(buf, size, "%.3g", si * md->scale);
+}
+
 /* The --until lines of the text summary. */
 static void until_text(FILE *fp, const options *o, long run, long rep_size, int met)
 {
@@ -1673,8 +1682,8 @@ static void until_text(FILE *fp, const options *o, long run, long rep_size, int 
         const target *t = &o->until[k];
         const tp_metricdef *md = tp_metricdef_get(t->metric);
         const char *u = md->form == TP_FORM_DURATION ? "" : md->text_unit;
-        tp_summary_metric_spread(md, t->reached, now, sizeof now);
-        tp_summary_metric_spread(md, t->halfwidth, want, sizeof want);
+        half_text(md, t->reached, now, sizeof now);
+        half_text(md, t->halfwidth, want, sizeof want);
         fprintf(fp, "    %s.%s: half-width %s%s%s for +-%s%s%s, %s; ", md->key,
                 tp_sweep_stat_name(t->stat), isfinite(t->reached) ? now : "-", u[0] ? " " : "",
                 u, want, u[0] ? " " : "", u, t->reached <= t->halfwidth ? "met" : "not met");
@@ -1912,11 +1921,16 @@ const tp_verb tp_cmd_sweep = {
     "--spread KEY=normal:SIGMA or KEY=uniform:LOW:HIGH (in % of the config's value or with\n"
     "units), repeatable, with --samples N and --seed S: a tolerance study with mean, standard\n"
     "deviation, 5/50/95th percentiles, the worst sample and the parameter that drives each\n"
-    "metric most (Spearman rank correlation). Points run on --jobs threads; the results do not\n"
-    "depend on the number of jobs. A failed point is listed with its parameters and reason\n"
-    "and left out of the statistics. Details: docs/sweep.md.",
+    "metric most (Spearman rank correlation), each statistic with its 95 % confidence interval\n"
+    "(Student's t, chi-square, order statistics). --design lhs or sobol places the samples by\n"
+    "Latin hypercube or scrambled Sobol points in --replicates independent replicates;\n"
+    "--until METRIC.STAT=+-H runs batches until the interval is that narrow. --shard K/N runs\n"
+    "one part for a batch system and --merge FILES... joins the parts into the output of one\n"
+    "run. Points run on --jobs threads; the results do not depend on the number of jobs. A\n"
+    "failed point is listed with its parameters and reason and left out of the statistics.\n"
+    "Details: docs/sweep.md.",
     "tepid sweep workshop-bed-24v.yaml --vary heater.supply=20V:28V:2V\n"
     "tepid sweep workshop-bed-24v.yaml --vary heater.supply=20V:28V:4V "
     "--vary room.temperature=15degC:25degC:5degC --plot map.png\n"
     "tepid sweep workshop-bed-24v.yaml --spread heater.resistance=normal:5% --samples 200 "
-    "--csv samples.csv"};
+    "--design lhs --csv samples.csv"};

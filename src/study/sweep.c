@@ -796,7 +796,7 @@ double tp_sweep_needed(const tp_sweep_plan *plan, const tp_sweep_summary *s, int
                        double halfwidth)
 {
     double sd, per, units, hw;
-    long a, b;
+    long a, b, rank_lo, rank_hi;
     int it;
     if (!(halfwidth > 0) || s->n < 2)
         return TP_UNSET;
@@ -837,9 +837,12 @@ double tp_sweep_needed(const tp_sweep_plan *plan, const tp_sweep_summary *s, int
     hw = 0.5 * (s->hi[stat] - s->lo[stat]);
     if (!isfinite(hw))
         return TP_UNSET;
+    /* Never fewer than the interval itself needs (72 for p5 and p95, 6 for the median). */
+    for (a = 1; tp_sweep_ci_ranks(a, stat_p[stat], &rank_lo, &rank_hi) != 0; a++)
+        ;
     if (hw == 0.0)
-        return (double)s->n;
-    return ceil((double)s->n * pow(hw / halfwidth, 2));
+        return fmax((double)a, (double)s->n);
+    return fmax((double)a, ceil((double)s->n * pow(hw / halfwidth, 2)));
 }
 
 /* The mean's interval from the replicates' means (lhs, sobol): each replicate is an
