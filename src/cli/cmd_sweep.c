@@ -723,15 +723,25 @@ static tp_status write_csv(const char *path, const tp_sweep_plan *plan, const tp
     return tp_outfile_commit(&o, d);
 }
 
+/* A new item appended to a JSON array (an object, or an array when `array`); NULL when memory
+ * runs out (nothing is appended then). */
+static cJSON *append_item(cJSON *arr, int array)
+{
+    cJSON *o = array ? cJSON_CreateArray() : cJSON_CreateObject();
+    if (!o || !cJSON_AddItemToArray(arr, o)) {
+        cJSON_Delete(o);
+        return NULL;
+    }
+    return o;
+}
+
 static void json_param(cJSON *arr, const tp_sweep_plan *plan, int k)
 {
     const tp_sweep_param *p = &plan->params[k];
-    cJSON *o = cJSON_CreateObject(), *vals;
+    cJSON *o = append_item(arr, 0), *vals;
     long i;
-    if (!o || !cJSON_AddItemToArray(arr, o)) {
-        cJSON_Delete(o);
+    if (!o)
         return;
-    }
     cJSON_AddStringToObject(o, "key", p->path);
     cJSON_AddStringToObject(o, "unit", param_unit(p));
     tp_json_number(o, "nominal", param_out(p, p->nominal));
@@ -762,11 +772,9 @@ static void json_until(cJSON *root, const options *o, int met)
     arr = cJSON_AddArrayToObject(u, "targets");
     for (k = 0; arr && k < o->n_until; k++) {
         const target *t = &o->until[k];
-        cJSON *e = cJSON_CreateObject();
-        if (!e || !cJSON_AddItemToArray(arr, e)) {
-            cJSON_Delete(e);
+        cJSON *e = append_item(arr, 0);
+        if (!e)
             return;
-        }
         cJSON_AddStringToObject(e, "metric", tp_metricdef_get(t->metric)->key);
         cJSON_AddStringToObject(e, "statistic", tp_sweep_stat_name(t->stat));
         tp_json_number(e, "halfwidth", t->halfwidth);
@@ -823,11 +831,9 @@ static tp_status write_json(const char *path, const study_info *info, const tp_s
     tp_json_number(root, "failed", (double)tot->failed);
     points = cJSON_AddArrayToObject(root, "points");
     for (i = 0; points && i < total; i++) {
-        cJSON *pt = cJSON_CreateObject(), *pv, *mv;
-        if (!pt || !cJSON_AddItemToArray(points, pt)) {
-            cJSON_Delete(pt);
+        cJSON *pt = append_item(points, 0), *pv, *mv;
+        if (!pt)
             break;
-        }
         tp_json_number(pt, "index", (double)(i + 1));
         pv = cJSON_AddObjectToObject(pt, "parameters");
         for (k = 0; pv && k < plan->n_params; k++)
@@ -1272,11 +1278,9 @@ static cJSON *study_json(const tp_cli *cli, const study_info *info, const tp_swe
     params = cJSON_AddArrayToObject(st, "parameters");
     for (k = 0; params && k < plan->n_params; k++) {
         const tp_sweep_param *p = &plan->params[k];
-        cJSON *o = cJSON_CreateObject();
-        if (!o || !cJSON_AddItemToArray(params, o)) {
-            cJSON_Delete(o);
+        cJSON *o = append_item(params, 0);
+        if (!o)
             break;
-        }
         cJSON_AddStringToObject(o, "key", p->path);
         cJSON_AddNumberToObject(o, "dim", (double)p->dim);
         cJSON_AddStringToObject(o, "unit", p->unit);
@@ -1316,11 +1320,9 @@ static tp_status write_shard(const char *path, const options *o, const study_inf
     }
     points = cJSON_AddArrayToObject(root, "points");
     for (i = first; points && i < end; i++) {
-        cJSON *pt = cJSON_CreateArray();
-        if (!pt || !cJSON_AddItemToArray(points, pt)) {
-            cJSON_Delete(pt);
+        cJSON *pt = append_item(points, 1);
+        if (!pt)
             break;
-        }
         if (!res[i].ok) {
             cJSON_AddItemToArray(pt, cJSON_CreateString(res[i].reason));
             continue;
@@ -1331,11 +1333,9 @@ static tp_status write_shard(const char *path, const options *o, const study_inf
     cautions = cJSON_AddArrayToObject(root, "cautions");
     for (k = 0; cautions && k < tot->n_cautions; k++) {
         const tp_caution *c = &tot->cautions[k];
-        cJSON *e = cJSON_CreateObject(), *v;
-        if (!e || !cJSON_AddItemToArray(cautions, e)) {
-            cJSON_Delete(e);
+        cJSON *e = append_item(cautions, 0), *v;
+        if (!e)
             break;
-        }
         cJSON_AddNumberToObject(e, "point", (double)tot->caution_point[k]);
         cJSON_AddNumberToObject(e, "kind", (double)c->kind);
         v = cJSON_AddArrayToObject(e, "values");
