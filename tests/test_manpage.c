@@ -12,6 +12,7 @@
 
 #include <ctype.h>
 
+#include <gsl/gsl_version.h>
 #include <plplot/plConfig.h>
 #include <sundials/sundials_config.h>
 #include <yaml.h>
@@ -355,6 +356,8 @@ static void test_version_names_the_libraries(void **state)
     assert_string_equal(v, cjson);
     version_of(out, "libyaml", v, sizeof v);
     assert_string_equal(v, yaml_get_version_string());
+    version_of(out, "GSL", v, sizeof v); /* gsl_version.h */
+    assert_string_equal(v, GSL_VERSION);
     /* udunits2 and cminpack have no version in their headers: a dotted number */
     version_of(out, "udunits2", v, sizeof v);
     assert_true(isdigit((unsigned char)v[0]) && strchr(v, '.'));

@@ -1089,6 +1089,462 @@ static void test_cli_readme_commands(void **state)
     assert_int_equal(run_tepid(args), 0);
 }
 
+/* ---- confidence intervals, designs, --until, shards (issue 21) ---------------------------- */
+
+static void test_ci_mean_and_sd_table_values(void **state)
+{
+    double lo, hi;
+    (void)state;
+    /* n = 10, mean 10, sd 2. t(0.975, 9) = 2.262157 (Student's t table, e.g. Hahn & Meeker,
+     * "Statistical Intervals", Wiley 1991, Table A.12, from memory; also in any t table):
+     * half-width 2.262157 * 2 / sqrt(10) = 1.430714 (hand calculation). */
+    tp_sweep_ci_mean(10.0, 2.0, 10, &lo, &hi);
+    tp_check_abs("mean lo", lo, 10.0 - 1.430714, 2e-6);
+    tp_check_abs("mean hi", hi, 10.0 + 1.430714, 2e-6);
+    /* chi2(0.025, 9) = 2.700389, chi2(0.975, 9) = 19.022768 (chi-square table, e.g. Hahn &
+     * Meeker Table A.11, from memory): sd bounds 2 sqrt(9 / 19.022768) = 1.375671 and
+     * 2 sqrt(9 / 2.700389) = 3.651220 (hand calculation). */
+    tp_sweep_ci_sd(2.0, 10, &lo, &hi);
+    tp_check_abs("sd lo", lo, 1.375671, 2e-6);
+    tp_check_abs("sd hi", hi, 3.651220, 2e-6);
+    /* One value: no interval. */
+    tp_sweep_ci_mean(10.0, 0.0, 1, &lo, &hi);
+    assert_true(isnan(lo) && isnan(hi));
+}
+
+static void test_ci_ranks_binomial_hand_values(void **state)
+{
+    long l = 0, u = 0;
+    (void)state;
+    /* Median of 100 values: ranks 40 and 61, the interval tabulated for n = 100 (Conover,
+     * "Practical Nonparametric Statistics", 3rd ed., Wiley 1999, Sec. 3.2 and Table A3; from
+     * memory), by hand: P(Bin(100, 1/2) <= 39) = 0.0176 <= 0.025 < P(<= 40) = 0.0284;
+     * P(<= 59) = 0.9716 < 0.975 <= P(<= 60) = 0.9824. */
+    assert_int_equal(tp_sweep_ci_ranks(100, 0.5, &l, &u), 0);
+    assert_int_equal(l, 40);
+    assert_int_equal(u, 61);
+    /* The 95th percentile of 110 values: ranks 100 and 109 (binomial sums by hand, coverage
+     * P(100 <= Bin(110, 0.95) <= 108) = 0.9539). */
+    assert_int_equal(tp_sweep_ci_ranks(110, 0.95, &l, &u), 0);
+    assert_int_equal(l, 100);
+    assert_int_equal(u, 109);
+    /* The 5th percentile needs 0.95^n <= 0.025: n >= 72 (0.95^72 = 0.0249, 0.95^71 = 0.0262,
+     * hand calculation); then X(1) .. X(9), as P(Bin(72, 0.05) <= 7) = 0.9728 < 0.975 <=
+     * P(<= 8) = 0.9904 (binomial sums by hand). The median needs 0.5^n <= 0.025: n >= 6. */
+    assert_int_equal(tp_sweep_ci_ranks(71, 0.05, &l, &u), -1);
+    assert_int_equal(tp_sweep_ci_ranks(72, 0.05, &l, &u), 0);
+    assert_int_equal(l, 1);
+    assert_int_equal(u, 9);
+    assert_int_equal(tp_sweep_ci_ranks(5, 0.5, &l, &u), -1);
+    assert_int_equal(tp_sweep_ci_ranks(6, 0.5, &l, &u), 0);
+    assert_int_equal(l, 1);
+    assert_int_equal(u, 6);
+}
+
+/* Results of a linear metric, holding power = 50 W/K times the drawn conductance (no warm-up
+ * is run: the statistics see exactly a linear map of the plan's draws). */
+static tp_sweep_result *linear_results(const tp_sweep_plan *plan)
+{
+    long n = tp_sweep_count(plan), i;
+    int k;
+    tp_sweep_result *res = calloc((size_t)n, sizeof *res);
+    assert_non_null(res);
+    for (i = 0; i < n; i++) {
+        double f = 0.0;
+        for (k = 0; k < TP_MET_SWEPT; k++)
+            res[i].metric[k] = NAN;
+        for (k = 0; k < plan->n_params; k++)
+            f += k == 0 ? 50.0 * tp_sweep_value(plan, i, 0)
+                        : 3.0 * (tp_sweep_value(plan, i, k) - KELVIN);
+        res[i].ok = 1;
+        res[i].metric[TP_MET_HOLD_POWER] = f;
+    }
+    return res;
+}
+
+/* A plan over the linear node's conductance (and optionally the room) with a design. */
+static void design_plan(tp_sweep_plan *plan, const tp_description *desc, const char *spread,
+                        const char *spread2, long n, long reps, uint64_t seed, int design)
+{
+    tp_diag d;
+    tp_diag_init(&d, stderr);
+    tp_sweep_plan_init(plan, TP_SWEEP_SPREAD);
+    plan->n_samples = n;
+    plan->seed = seed;
+    assert_int_equal(tp_sweep_add_spread(plan, desc, spread, &d), TP_OK);
+    if (spread2)
+        assert_int_equal(tp_sweep_add_spread(plan, desc, spread2, &d), TP_OK);
+    assert_int_equal(tp_sweep_design_build(plan, (tp_sweep_design)design, reps, &d), TP_OK);
+}
+
+static void test_samples_needed_for_a_halfwidth(void **state)
+{
+    /* sd 10 over 100 random samples, half-width 1 wanted: the normal approximation asks
+     * (1.96 * 10 / 1)^2 = 384.1 samples; with Student's t at about 386 degrees of freedom
+     * (t(0.975, 386) = 1.966, t table, from memory) (1.966 * 10)^2 = 386.5, so 387 (hand
+     * calculation). A 95th percentile never needs fewer than the 72 its interval needs. */
+    tp_sweep_plan plan;
+    tp_sweep_summary sum;
+    double n;
+    (void)state;
+    tp_sweep_plan_init(&plan, TP_SWEEP_SPREAD);
+    memset(&sum, 0, sizeof sum);
+    sum.n = 100;
+    sum.mean = 50.0;
+    sum.sd = 10.0;
+    n = tp_sweep_needed(&plan, &sum, TP_STAT_MEAN, 1.0);
+    assert_true(n >= 386.0 && n <= 388.0);
+    sum.lo[TP_STAT_P95] = 60.0;
+    sum.hi[TP_STAT_P95] = 61.0; /* half-width 0.5: 100 (0.5 / 5)^2 = 1 sample by scaling */
+    n = tp_sweep_needed(&plan, &sum, TP_STAT_P95, 5.0);
+    tp_check_abs("p95 needs its 72", n, 72.0, 0.0);
+    sum.hi[TP_STAT_P95] = 64.0; /* half-width 2: 100 (2 / 1)^2 = 400 */
+    tp_check_abs("p95 by scaling", tp_sweep_needed(&plan, &sum, TP_STAT_P95, 1.0), 400.0, 0.0);
+    tp_sweep_plan_clear(&plan);
+}
+
+static void test_ci_coverage_on_a_linear_metric(void **state)
+{
+    /* G ~ N(2, 0.2) W/K, f = 50 G ~ N(100, 10) W (closed form): the true mean is 100 W, the
+     * true sd 10 W, the true 95th percentile 100 + 10 z(0.95) = 116.448536 W (z(0.95) =
+     * 1.6448536, standard normal table). Over 1000 seeds of 110 samples each, the t interval
+     * must cover the mean in 95 % +- 3 standard errors (sqrt(0.95 0.05 / 1000) = 0.0069) of
+     * the studies; the order-statistic interval of the 95th percentile has the exact coverage
+     * 0.9539 at n = 110 (test_ci_ranks_binomial_hand_values) and must fall in both bands. */
+    const int seeds = 1000;
+    const double se = sqrt(0.95 * 0.05 / seeds);
+    tp_description desc;
+    int s, cover_mean = 0, cover_p95 = 0, cover_sd = 0;
+    double rate;
+    (void)state;
+    load(linear_node, &desc);
+    for (s = 0; s < seeds; s++) {
+        tp_sweep_plan plan;
+        tp_sweep_summary sum;
+        tp_sweep_result *res;
+        design_plan(&plan, &desc, "network.links.0.conductance=normal:10%", NULL, 110, 1,
+                    (uint64_t)s + 1, TP_DESIGN_RANDOM);
+        res = linear_results(&plan);
+        assert_int_equal(tp_sweep_summarise(&plan, res, TP_MET_HOLD_POWER, &sum), TP_OK);
+        cover_mean += sum.lo[TP_STAT_MEAN] <= 100.0 && 100.0 <= sum.hi[TP_STAT_MEAN];
+        cover_sd += sum.lo[TP_STAT_SD] <= 10.0 && 10.0 <= sum.hi[TP_STAT_SD];
+        cover_p95 += sum.lo[TP_STAT_P95] <= 116.448536 && 116.448536 <= sum.hi[TP_STAT_P95];
+        free(res);
+        tp_sweep_plan_clear(&plan);
+    }
+    rate = (double)cover_mean / seeds;
+    assert_true(fabs(rate - 0.95) <= 3.0 * se);
+    rate = (double)cover_sd / seeds;
+    assert_true(fabs(rate - 0.95) <= 3.0 * se);
+    rate = (double)cover_p95 / seeds;
+    assert_true(fabs(rate - 0.95) <= 3.0 * se);
+    assert_true(fabs(rate - 0.9539) <= 3.0 * sqrt(0.9539 * 0.0461 / seeds));
+    tp_config_clear(&desc);
+}
+
+/* The standard normal distribution function. */
+static double phi(double z)
+{
+    return 0.5 * erfc(-z / sqrt(2.0));
+}
+
+static void test_lhs_one_sample_per_stratum(void **state)
+{
+    /* Latin hypercube (McKay, Beckman & Conover, Technometrics 21 (1979) 239): in each
+     * replicate of m samples, each parameter's distribution is cut into m strata of equal
+     * probability and every stratum holds exactly one sample. */
+    const long m = 25, reps = 3;
+    tp_description desc;
+    tp_sweep_plan plan;
+    long r, i;
+    int k;
+    (void)state;
+    load(linear_node, &desc);
+    design_plan(&plan, &desc, "network.links.0.conductance=normal:10%",
+                "network.nodes.room.fixed=uniform:15degC:25degC", m * reps, reps, 7,
+                TP_DESIGN_LHS);
+    for (r = 0; r < reps; r++)
+        for (k = 0; k < 2; k++) {
+            int hits[25] = {0};
+            for (i = r * m; i < (r + 1) * m; i++) {
+                double v = tp_sweep_value(&plan, i, k), u;
+                long stratum;
+                /* The probability below the value: Phi(z) of the normal, the fraction of the
+                 * uniform's range. */
+                u = k == 0 ? phi((v - 2.0) / 0.2) : (v - (KELVIN + 15.0)) / 10.0;
+                stratum = (long)floor(u * (double)m);
+                assert_true(stratum >= 0 && stratum < m);
+                hits[stratum]++;
+            }
+            for (i = 0; i < m; i++)
+                assert_int_equal(hits[i], 1);
+        }
+    tp_sweep_plan_clear(&plan);
+    tp_config_clear(&desc);
+}
+
+/* The variance over seeds of the mean of the linear metric of 100 samples by a design. */
+static double mean_variance(const tp_description *desc, int design, int seeds, double *grand)
+{
+    double sum = 0.0, ss = 0.0, *means = calloc((size_t)seeds, sizeof *means);
+    int s;
+    assert_non_null(means);
+    for (s = 0; s < seeds; s++) {
+        tp_sweep_plan plan;
+        tp_sweep_summary sum_;
+        tp_sweep_result *res;
+        design_plan(&plan, desc, "network.links.0.conductance=normal:10%",
+                    "network.nodes.room.fixed=uniform:15degC:25degC", 100, 1, (uint64_t)s + 100,
+                    design);
+        res = linear_results(&plan);
+        assert_int_equal(tp_sweep_summarise(&plan, res, TP_MET_HOLD_POWER, &sum_), TP_OK);
+        means[s] = sum_.mean;
+        sum += sum_.mean;
+        free(res);
+        tp_sweep_plan_clear(&plan);
+    }
+    *grand = sum / seeds;
+    for (s = 0; s < seeds; s++)
+        ss += (means[s] - *grand) * (means[s] - *grand);
+    free(means);
+    return ss / (seeds - 1);
+}
+
+static void test_designs_reduce_variance_without_bias(void **state)
+{
+    /* f = 50 G + 3 (T - 0 degC), G ~ N(2, 0.2) W/K, T ~ U(15, 25) degC: mean 100 + 60 =
+     * 160 W, variance 10^2 + 3^2 100/12 = 175 W^2 (closed form). Random sampling's mean of 100
+     * has variance 1.75 W^2; an additive function's LHS mean loses the main effects'
+     * variance (McKay, Beckman & Conover 1979; Stein, Technometrics 29 (1987) 143): at least
+     * 5 times less is asked by issue 21. Scrambled Sobol points are unbiased (Owen 1995):
+     * the mean over 200 seeds within 3 standard errors of 160 W. */
+    const int seeds = 200;
+    tp_description desc;
+    double v_random, v_lhs, v_sobol, g;
+    (void)state;
+    load(linear_node, &desc);
+    v_random = mean_variance(&desc, TP_DESIGN_RANDOM, seeds, &g);
+    assert_true(fabs(g - 160.0) <= 3.0 * sqrt(v_random / seeds));
+    tp_check_rel("random variance of the mean", v_random, 1.75, 0.3); /* chi2(199) spread */
+    v_lhs = mean_variance(&desc, TP_DESIGN_LHS, seeds, &g);
+    assert_true(fabs(g - 160.0) <= 3.0 * sqrt(v_lhs / seeds));
+    v_sobol = mean_variance(&desc, TP_DESIGN_SOBOL, seeds, &g);
+    assert_true(fabs(g - 160.0) <= 3.0 * sqrt(v_sobol / seeds));
+    assert_true(v_sobol > 0.0); /* scrambling varies the estimate: not a fixed point set */
+    print_message("variance of the mean of 100: random %.3g, lhs %.3g, sobol %.3g W^2\n",
+                  v_random, v_lhs, v_sobol);
+    assert_true(v_lhs * 5.0 <= v_random);
+    assert_true(v_sobol * 5.0 <= v_random);
+    tp_config_clear(&desc);
+}
+
+static void test_sobol_points_match_published_direction_numbers(void **state)
+{
+    /* The first 64 points of the Sobol sequence in 5 dimensions, in Gray-code order (Antonov &
+     * Saleev 1979), built here from the primitive polynomials and initial direction numbers
+     * of Bratley & Fox, ACM TOMS 14 (1988) 88 (Algorithm 659, after Sobol & Levitan 1976),
+     * which GSL's gsl_qrng_sobol uses: dimension 1 van der Corput's; x + 1 with m = 1;
+     * x^2 + x + 1 with m = 1, 1; x^3 + x + 1 with m = 1, 3, 7; x^3 + x^2 + 1 with m = 1, 1, 5
+     * (the table's first columns, as reprinted in many Sobol programs). Dimensions 1 and 2
+     * are also those of Joe & Kuo's new-joe-kuo-6.21201 (S. Joe and F. Y. Kuo, SIAM J. Sci.
+     * Comput. 30 (2008) 2635: d = 2, s = 1, a = 0, m = 1); from the third on GSL's initial
+     * numbers differ from Joe & Kuo's (their d = 3 has m = 1, 3 where Bratley & Fox have 1,
+     * 1). Closed-form check of the first points in dimensions 1 and 2: (0, 0), (1/2, 1/2),
+     * (3/4, 1/4), (1/4, 3/4), (3/8, 3/8), (7/8, 7/8). */
+    static const int deg[5] = {0, 1, 2, 3, 3};       /* primitive polynomial degrees */
+    static const unsigned poly_a[5] = {0, 0, 1, 1, 2}; /* interior coefficients a1 .. a(s-1) */
+    static const unsigned m_init[5][3] = {{1, 0, 0}, {1, 0, 0}, {1, 1, 0}, {1, 3, 7}, {1, 1, 5}};
+    static const double first[6][2] = {{0, 0}, {0.5, 0.5}, {0.75, 0.25},
+                                       {0.25, 0.75}, {0.375, 0.375}, {0.875, 0.875}};
+    uint32_t got[64 * 5], v[5][31];
+    int k, j, i;
+    (void)state;
+    for (k = 0; k < 5; k++) {
+        unsigned m[31];
+        for (j = 1; j <= 30; j++) {
+            if (deg[k] == 0) {
+                m[j] = 1;
+            } else if (j <= deg[k]) {
+                m[j] = m_init[k][j - 1];
+            } else {
+                /* m_j = 2 a1 m_{j-1} ^ 4 a2 m_{j-2} ^ ... ^ 2^s m_{j-s} ^ m_{j-s} */
+                int s = deg[k], q;
+                m[j] = m[j - s] ^ (m[j - s] << s);
+                for (q = 1; q < s; q++)
+                    if ((poly_a[k] >> (s - 1 - q)) & 1u)
+                        m[j] ^= m[j - q] << q;
+            }
+            v[k][j] = m[j] << (30 - j);
+        }
+    }
+    assert_int_equal(tp_sweep_sobol_points(64, 5, got), TP_OK);
+    for (i = 0; i < 64; i++) {
+        unsigned gray = (unsigned)i ^ ((unsigned)i >> 1);
+        for (k = 0; k < 5; k++) {
+            uint32_t x = 0;
+            for (j = 1; j <= 6; j++)
+                if ((gray >> (j - 1)) & 1u)
+                    x ^= v[k][j];
+            assert_int_equal(got[i * 5 + k], x);
+        }
+    }
+    for (i = 0; i < 6; i++)
+        for (k = 0; k < 2; k++)
+            tp_check_abs("first points", ldexp((double)got[i * 5 + k], -30), first[i][k], 0.0);
+}
+
+static void test_owen_scrambling_keeps_the_net(void **state)
+{
+    /* Nested scrambling permutes the digits of points that share their leading digits alike
+     * (Owen, "Randomly permuted (t,m,s)-nets", 1995): it is a bijection, and the first 2^5
+     * Sobol points, one in each interval [j/32, (j+1)/32) of each coordinate, stay so. */
+    uint32_t pts[32 * 3];
+    uint64_t key;
+    int k, i;
+    (void)state;
+    assert_int_equal(tp_sweep_sobol_points(32, 3, pts), TP_OK);
+    for (key = 1; key < 200; key += 37)
+        for (k = 0; k < 3; k++) {
+            int hits[32] = {0}, moved = 0;
+            for (i = 0; i < 32; i++) {
+                uint32_t y = tp_sweep_owen(pts[i * 3 + k], key);
+                hits[y >> 25]++;
+                moved += y != pts[i * 3 + k];
+            }
+            for (i = 0; i < 32; i++)
+                assert_int_equal(hits[i], 1);
+            assert_true(moved > 0);
+        }
+    /* A bijection of 2^30: distinct inputs give distinct outputs (checked on 4096 of them). */
+    {
+        uint32_t *out = calloc(4096, sizeof *out);
+        int a, b;
+        assert_non_null(out);
+        for (a = 0; a < 4096; a++)
+            out[a] = tp_sweep_owen((uint32_t)a * 262139u & 0x3fffffffu, 99);
+        for (a = 0; a < 4096; a++)
+            for (b = 0; b < a; b++)
+                assert_true(out[a] != out[b]);
+        free(out);
+    }
+}
+
+/* Write the linear node into the group scratch under `name`; its path into path. */
+static void scratch_linear(const char *name, char *path)
+{
+    tp_scratch_write(tp_group_scratch(), name, linear_node, path);
+}
+
+static void test_cli_shards_merge_byte_identical(void **state)
+{
+    /* For every design: one run (2 jobs) and three shards (1 job each) merged give the same
+     * CSV, JSON and statistics, byte for byte; the same with 3 jobs. A missing, duplicated or
+     * foreign shard is refused (exit 2). */
+    static const char *const designs[] = {"random", "lhs", "sobol"};
+    char cfg[TP_TEST_PATH], args[4096], f[8][512];
+    const char *dir = scratch_dir();
+    const char *study = "--spread network.links.0.conductance=normal:10% "
+                        "--spread network.nodes.room.fixed=uniform:15degC:25degC "
+                        "--samples 24 --replicates 4 --seed 5";
+    size_t dsg;
+    int k;
+    (void)state;
+    scratch_linear("shard-linear.yaml", cfg);
+    for (dsg = 0; dsg < 3; dsg++) {
+        const char *dn = designs[dsg];
+        snprintf(f[0], sizeof f[0], "%s/one.csv", dir);
+        snprintf(f[1], sizeof f[1], "%s/one.json", dir);
+        snprintf(f[2], sizeof f[2], "%s/one-stats.csv", dir);
+        snprintf(f[3], sizeof f[3], "%s/m.csv", dir);
+        snprintf(f[4], sizeof f[4], "%s/m.json", dir);
+        snprintf(f[5], sizeof f[5], "%s/m-stats.csv", dir);
+        snprintf(args, sizeof args, "sweep %s -q %s --design %s --jobs 2 --csv %s --json %s "
+                 "--stats %s", cfg, study, dn, f[0], f[1], f[2]);
+        assert_int_equal(run_tepid(args), 0);
+        for (k = 1; k <= 3; k++) {
+            snprintf(args, sizeof args, "sweep %s -q %s --design %s --jobs 1 --shard %d/3 "
+                     "--json %s/s%d.json", cfg, study, dn, k, dir, k);
+            assert_int_equal(run_tepid(args), 0);
+        }
+        snprintf(args, sizeof args, "sweep -q --merge %s/s3.json %s/s1.json %s/s2.json --csv %s "
+                 "--json %s --stats %s", dir, dir, dir, f[3], f[4], f[5]);
+        assert_int_equal(run_tepid(args), 0);
+        for (k = 0; k < 3; k++)
+            assert_true(same_bytes(f[k], f[k + 3]));
+        /* --jobs 3: the same files again. */
+        snprintf(args, sizeof args, "sweep %s -q %s --design %s --jobs 3 --csv %s --json %s "
+                 "--stats %s", cfg, study, dn, f[3], f[4], f[5]);
+        assert_int_equal(run_tepid(args), 0);
+        for (k = 0; k < 3; k++)
+            assert_true(same_bytes(f[k], f[k + 3]));
+    }
+    /* Refusals: a missing shard, a shard given twice, a shard of another study (seed 6). */
+    snprintf(args, sizeof args, "sweep -q --merge %s/s1.json %s/s3.json --json %s/x.json", dir,
+             dir, dir);
+    assert_int_equal(run_tepid(args), 2);
+    snprintf(args, sizeof args, "sweep -q --merge %s/s1.json %s/s1.json %s/s3.json --json %s/x.json",
+             dir, dir, dir, dir);
+    assert_int_equal(run_tepid(args), 2);
+    snprintf(args, sizeof args, "sweep %s -q --spread network.links.0.conductance=normal:10%% "
+             "--spread network.nodes.room.fixed=uniform:15degC:25degC --samples 24 "
+             "--replicates 4 --seed 6 --design sobol --shard 2/3 --json %s/o2.json", cfg, dir);
+    assert_int_equal(run_tepid(args), 0);
+    snprintf(args, sizeof args, "sweep -q --merge %s/s1.json %s/o2.json %s/s3.json --json %s/x.json",
+             dir, dir, dir, dir);
+    assert_int_equal(run_tepid(args), 2);
+    snprintf(args, sizeof args, "%s/x.json", dir);
+    assert_false(tp_file_exists(args));
+}
+
+static void test_cli_until_stops_within_one_batch(void **state)
+{
+    /* f = holding power = 50 G, G ~ N(2, 0.2) W/K: sd 10 W (closed form). For a 95 % half-
+     * width of 1 W the mean needs about (1.96 * 10 / 1)^2 = 384 samples (closed form, normal
+     * approximation). In batches of 50 the study must stop at the first batch whose t interval
+     * (tp_sweep_ci_mean, checked against the t table above) is narrow enough: the one before
+     * was not, and the count is within a batch of what the samples' own sd asks. */
+    char cfg[TP_TEST_PATH], args[2048], json[512];
+    double *x;
+    cJSON *root, *pts, *pt;
+    long n_stop, i = 0;
+    double mean, sd, lo, hi, hw_stop, hw_before, needed;
+    (void)state;
+    scratch_linear("until-linear.yaml", cfg);
+    snprintf(json, sizeof json, "%s/until.json", scratch_dir());
+    snprintf(args, sizeof args,
+             "sweep %s -q --spread network.links.0.conductance=normal:10%% --samples 2000 "
+             "--replicates 40 --seed 3 --until holding_power_W.mean=+-1W --json %s",
+             cfg, json);
+    assert_int_equal(run_tepid(args), 0);
+    root = tp_read_json(json);
+    n_stop = (long)cJSON_GetObjectItem(root, "samples")->valuedouble;
+    assert_string_equal(
+        cJSON_GetObjectItem(cJSON_GetObjectItem(root, "until"), "stopped")->valuestring,
+        "targets met");
+    assert_int_equal(n_stop % 50, 0);
+    pts = cJSON_GetObjectItem(root, "points");
+    assert_int_equal(cJSON_GetArraySize(pts), n_stop);
+    x = calloc((size_t)n_stop, sizeof *x);
+    assert_non_null(x);
+    cJSON_ArrayForEach(pt, pts) x[i++] =
+        cJSON_GetObjectItem(cJSON_GetObjectItem(pt, "metrics"), "holding_power_W")->valuedouble;
+    tp_sweep_mean_sd(x, (size_t)n_stop, &mean, &sd);
+    tp_sweep_ci_mean(mean, sd, n_stop, &lo, &hi);
+    hw_stop = 0.5 * (hi - lo);
+    needed = pow(1.96 * sd / 1.0, 2);
+    tp_sweep_mean_sd(x, (size_t)(n_stop - 50), &mean, &sd);
+    tp_sweep_ci_mean(mean, sd, n_stop - 50, &lo, &hi);
+    hw_before = 0.5 * (hi - lo);
+    print_message("--until stopped at %ld samples (needed by its sd: %.0f; closed form 384)\n",
+                  n_stop, needed);
+    assert_true(hw_stop <= 1.0);
+    assert_true(hw_before > 1.0);
+    assert_true((double)n_stop - 50.0 < needed * 1.01 && needed <= (double)n_stop * 1.01);
+    assert_true(fabs((double)n_stop - 384.0) <= 50.0 + 0.15 * 384.0);
+    free(x);
+    cJSON_Delete(root);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -1123,6 +1579,16 @@ int main(void)
         cmocka_unit_test(test_cli_unreached_point_shows_dash),
         cmocka_unit_test(test_cli_rated_power_varies_and_spreads),
         cmocka_unit_test(test_cli_readme_commands),
+        cmocka_unit_test(test_ci_mean_and_sd_table_values),
+        cmocka_unit_test(test_ci_ranks_binomial_hand_values),
+        cmocka_unit_test(test_samples_needed_for_a_halfwidth),
+        cmocka_unit_test(test_ci_coverage_on_a_linear_metric),
+        cmocka_unit_test(test_lhs_one_sample_per_stratum),
+        cmocka_unit_test(test_designs_reduce_variance_without_bias),
+        cmocka_unit_test(test_sobol_points_match_published_direction_numbers),
+        cmocka_unit_test(test_owen_scrambling_keeps_the_net),
+        cmocka_unit_test(test_cli_shards_merge_byte_identical),
+        cmocka_unit_test(test_cli_until_stops_within_one_batch),
     };
     return cmocka_run_group_tests(tests, tp_scratch_group_setup, tp_scratch_group_teardown);
 }

@@ -47,6 +47,7 @@
 #define TP_PATH_MAX 4096           /* longest output path accepted, bytes */
 #define TP_SWEEP_MAX_AXES 2        /* --vary parameters in one sweep grid */
 #define TP_SWEEP_MAX_PARAMS 16     /* --spread parameters in one sweep */
+#define TP_SWEEP_SHARD_MAX_BYTES (512L * 1024 * 1024) /* largest shard file --merge reads */
 #define TP_FIT_MAX_PARAMS 8        /* free parameters in one fit */
 #define TP_FIT_FREE_MAX 32         /* --free options on one command line */
 #define TP_FIT_STARTS_MAX 20       /* most starting points of a fit */

@@ -64,6 +64,15 @@ static tp_status check_outputs(const tp_cli *cli, tp_diag *d)
                           "--%s would overwrite the input file %s", o->name, cli->file);
             return TP_ERR_USAGE;
         }
+        for (j = 0; j < cli->n_args; j++) {
+            const char *in = cli->args[j].value;
+            if (cli->args[j].opt->takes_value != TP_OPT_VALUES || strcmp(in, "-") == 0 ||
+                !(tp_outfile_same_file(path, in) || strcmp(path, in) == 0))
+                continue;
+            tp_diag_error(d, tp_diag_loc_none(), NULL, "choose another output name",
+                          "--%s would overwrite the input file %s", o->name, in);
+            return TP_ERR_USAGE;
+        }
         for (j = 0; j < i; j++) {
             const tp_opt *p = cli->args[j].opt;
             if (!p->is_output || strcmp(cli->args[j].value, path) != 0)
@@ -110,7 +119,7 @@ static tp_status add(tp_cli *cli, const tp_opt *o, const char *value, tp_diag *d
 tp_status tp_cli_parse(const tp_verb *verb, int argc, char **argv, tp_cli *cli, int *help,
                        tp_diag *d)
 {
-    int i;
+    int i, values_given = 0;
     memset(cli, 0, sizeof *cli);
     cli->verb = verb->name;
     *help = 0;
@@ -183,8 +192,15 @@ tp_status tp_cli_parse(const tp_verb *verb, int argc, char **argv, tp_cli *cli, 
         }
         if (add(cli, o, value, d) != TP_OK)
             return TP_ERR_USAGE;
+        if (o->takes_value == TP_OPT_VALUES) {
+            /* The arguments up to the next option are more values of this one. */
+            while (i + 1 < argc && !(argv[i + 1][0] == '-' && argv[i + 1][1] != '\0'))
+                if (add(cli, o, argv[++i], d) != TP_OK)
+                    return TP_ERR_USAGE;
+            values_given = 1;
+        }
     }
-    if (verb->needs_file && !cli->file) {
+    if (verb->needs_file && !cli->file && !values_given) {
         tp_diag_error(d, tp_diag_loc_none(), NULL, NULL, "usage: tepid %s FILE [options]",
                       verb->name);
         return TP_ERR_USAGE;

@@ -11,6 +11,7 @@
 
 #define TP_OUT_FILE 1   /* tp_opt.is_output: a data file */
 #define TP_OUT_FIGURE 2 /* tp_opt.is_output: a figure (.png .svg .pdf) */
+#define TP_OPT_VALUES 2 /* tp_opt.takes_value: the option takes the arguments after it */
 
 /* One option of a verb. Each verb lists every option it accepts in one table (tp_verb.opts),
  * in the order its help and manual page show them, ended by TP_OPT_END. The options several
@@ -20,7 +21,9 @@
 typedef struct tp_opt {
     const char *name;    /* long name without dashes, e.g. "csv" */
     char short_name;     /* e.g. 'q', or 0 */
-    int takes_value;     /* 1: --name VALUE (or --name=VALUE) */
+    int takes_value;     /* 1: --name VALUE (or --name=VALUE); TP_OPT_VALUES: --name V1 V2 ...
+                            (every following argument up to the next option, each one an
+                            occurrence; repeatable). Given, it stands in for the verb's FILE */
     int repeatable;
     int is_output;       /* 0, or the value is an output path: TP_OUT_FILE a data file,
                             TP_OUT_FIGURE a figure (its format checked too). The parser refuses

@@ -14,7 +14,8 @@ static char opt_class(const tp_opt *o)
 {
     if (!o->takes_value)
         return '-';
-    if (o->is_output || (o->metavar && strcmp(o->metavar, "FILE") == 0))
+    if (o->is_output ||
+        (o->metavar && (strcmp(o->metavar, "FILE") == 0 || strcmp(o->metavar, "FILE...") == 0)))
         return 'f';
     if (o->metavar && strncmp(o->metavar, "KEY", 3) == 0) {
         if (strcmp(o->metavar, "KEY=VALUE") == 0)

@@ -12,6 +12,7 @@ void tp_version_print(FILE *fp)
         {"SUNDIALS", TP_WITH_SUNDIALS}, {"udunits2", TP_WITH_UDUNITS},
         {"PLplot", TP_WITH_PLPLOT},     {"libyaml", TP_WITH_YAML},
         {"cJSON", TP_WITH_CJSON},       {"cminpack", TP_WITH_CMINPACK},
+        {"GSL", TP_WITH_GSL},
     };
     size_t i;
     fprintf(fp, "tepid %s\nbuilt with:\n", TP_VERSION);

@@ -21,6 +21,10 @@
 #include <time.h>
 #include <unistd.h>
 
+#include <gsl/gsl_cdf.h>
+#include <gsl/gsl_errno.h>
+#include <gsl/gsl_qrng.h>
+
 #include "assemble.h"
 #include "config.h"
 #include "network.h"
@@ -32,6 +36,10 @@
 #define GRID_EPS 1e-9               /* relative slack when a range's last step lands on TO, - */
 #define TWO_PI 6.283185307179586477 /* 2 pi, - */
 #define POLL_NS 10000000L           /* ns between checks of the waiting thread */
+#define SOBOL_BITS 30                /* bits of GSL's Sobol integers (SOBOL_BIT_COUNT in GSL) */
+#define LHS_SALT 0x4c48532d7065726dULL   /* separates the LHS permutations' streams, any constant */
+#define OWEN_SALT 0x4f77656e2d736372ULL  /* separates the scrambles' streams, any constant */
+#define JITTER_SALT 0x6a69747465722d31ULL /* separates the in-cell uniforms, any constant */
 
 /* ---- plans -------------------------------------------------------------------------------- */
 
@@ -40,6 +48,10 @@ void tp_sweep_plan_init(tp_sweep_plan *plan, tp_sweep_mode mode)
     memset(plan, 0, sizeof *plan);
     plan->mode = mode;
     plan->seed = 1;
+    plan->design = TP_DESIGN_RANDOM;
+    plan->replicates = 1;
+    /* GSL's default error handler aborts; every call here checks its arguments and results. */
+    gsl_set_error_handler_off();
 }
 
 void tp_sweep_plan_clear(tp_sweep_plan *plan)
@@ -47,6 +59,7 @@ void tp_sweep_plan_clear(tp_sweep_plan *plan)
     int k;
     for (k = 0; k < plan->n_params; k++)
         free(plan->params[k].values);
+    free(plan->table);
     tp_sweep_plan_init(plan, plan->mode);
 }
 
@@ -403,6 +416,27 @@ static uint64_t path_stream(const char *path)
     return h & ~1ULL; /* even: draw 0 and draw 1 of the Box-Muller pair */
 }
 
+/* The uniform number in (0, 1) that places sample `point` of parameter k: a hash for random
+ * draws; for LHS the sample's stratum plus a uniform position inside it; for Sobol the
+ * replicate's scrambled point plus a uniform position inside its 2^-30 cell. */
+static double design_unit(const tp_sweep_plan *plan, long point, int k, uint64_t stream)
+{
+    uint64_t i = (uint64_t)point;
+    double v;
+    if (plan->design == TP_DESIGN_RANDOM || !plan->table)
+        return tp_sweep_unit(tp_sweep_hash(plan->seed, i, stream));
+    v = tp_sweep_unit(tp_sweep_hash(plan->seed ^ JITTER_SALT, i, stream));
+    if (plan->design == TP_DESIGN_LHS)
+        return ((double)plan->table[(size_t)point * (size_t)plan->n_params + (size_t)k] + v) /
+               (double)plan->rep_size;
+    {
+        long r = point / plan->rep_size, j = point % plan->rep_size;
+        uint32_t x = plan->table[(size_t)j * (size_t)plan->n_params + (size_t)k];
+        uint64_t key = tp_sweep_hash(plan->seed ^ OWEN_SALT, (uint64_t)r, stream);
+        return ((double)tp_sweep_owen(x, key) + v) * 0x1.0p-30;
+    }
+}
+
 double tp_sweep_value(const tp_sweep_plan *plan, long point, int k)
 {
     const tp_sweep_param *p = &plan->params[k];
@@ -410,17 +444,137 @@ double tp_sweep_value(const tp_sweep_plan *plan, long point, int k)
         return p->values[tp_sweep_axis_index(plan, point, k)];
     {
         uint64_t s = path_stream(p->path);
-        double u1 = tp_sweep_unit(tp_sweep_hash(plan->seed, (uint64_t)point, s));
+        double u1 = design_unit(plan, point, k, s);
         double scale = p->relative ? fabs(p->nominal) : 1.0;
         if (p->kind == TP_SPREAD_NORMAL) {
-            double u2 = tp_sweep_unit(tp_sweep_hash(plan->seed, (uint64_t)point, s + 1));
-            return p->nominal + p->sigma * scale * tp_sweep_box_muller(u1, u2);
+            double z;
+            if (plan->design == TP_DESIGN_RANDOM) {
+                double u2 = tp_sweep_unit(tp_sweep_hash(plan->seed, (uint64_t)point, s + 1));
+                z = tp_sweep_box_muller(u1, u2);
+            } else {
+                /* One uniform per parameter keeps the stratum or the point's place: the
+                 * inverse of the normal distribution function (GSL). */
+                z = gsl_cdf_ugaussian_Pinv(u1);
+            }
+            return p->nominal + p->sigma * scale * z;
         } else {
             double lo = p->relative ? p->nominal + p->low * scale : p->low;
             double hi = p->relative ? p->nominal + p->high * scale : p->high;
             return lo + (hi - lo) * u1;
         }
     }
+}
+
+/* ---- designs ------------------------------------------------------------------------------ */
+
+static const char *const design_names[] = {"random", "lhs", "sobol"};
+
+int tp_sweep_design_find(const char *name)
+{
+    int k;
+    for (k = 0; k < (int)(sizeof design_names / sizeof design_names[0]); k++)
+        if (strcmp(name, design_names[k]) == 0)
+            return k;
+    return -1;
+}
+
+const char *tp_sweep_design_name(tp_sweep_design design)
+{
+    return design_names[design];
+}
+
+uint32_t tp_sweep_owen(uint32_t x, uint64_t key)
+{
+    uint32_t y = 0;
+    int b;
+    for (b = 0; b < SOBOL_BITS; b++) {
+        /* The node of the scrambling tree: depth b and the b leading bits of x. */
+        uint64_t node = ((uint64_t)1 << b) | (uint64_t)(x >> (SOBOL_BITS - b));
+        uint32_t flip = (uint32_t)(mix64(key ^ mix64(node * GOLDEN_GAMMA)) >> 63);
+        uint32_t bit = (x >> (SOBOL_BITS - 1 - b)) & 1u;
+        y |= (bit ^ flip) << (SOBOL_BITS - 1 - b);
+    }
+    return y;
+}
+
+tp_status tp_sweep_sobol_points(long n, int dim, uint32_t *out)
+{
+    gsl_qrng *q;
+    double v[TP_SWEEP_MAX_PARAMS];
+    long j;
+    int k;
+    if (dim < 1 || dim > TP_SWEEP_MAX_PARAMS)
+        return TP_ERR_USAGE;
+    q = gsl_qrng_alloc(gsl_qrng_sobol, (unsigned)dim);
+    if (!q)
+        return TP_ERR_NOMEM;
+    for (k = 0; k < dim && n > 0; k++)
+        out[k] = 0; /* GSL starts after the origin; with it the first 2^m points form a net */
+    for (j = 1; j < n; j++) {
+        gsl_qrng_get(q, v);
+        for (k = 0; k < dim; k++)
+            out[(size_t)j * (size_t)dim + (size_t)k] = (uint32_t)ldexp(v[k], SOBOL_BITS);
+    }
+    gsl_qrng_free(q);
+    return TP_OK;
+}
+
+/* The LHS table: for each replicate and parameter an independent random permutation of the
+ * strata 0..m-1 (Fisher-Yates over a SplitMix64 stream of the seed, replicate and key path). */
+static void lhs_table(tp_sweep_plan *plan)
+{
+    long m = plan->rep_size, r, j;
+    int k, np = plan->n_params;
+    for (r = 0; r < plan->replicates; r++)
+        for (k = 0; k < np; k++) {
+            uint64_t state = tp_sweep_hash(plan->seed ^ LHS_SALT, (uint64_t)r,
+                                           path_stream(plan->params[k].path));
+            uint32_t *col = plan->table + (size_t)(r * m) * (size_t)np + (size_t)k;
+            for (j = 0; j < m; j++)
+                col[(size_t)j * (size_t)np] = (uint32_t)j;
+            for (j = m - 1; j > 0; j--) {
+                /* Modulo bias below m / 2^64 < 1e-13: immaterial. */
+                long t = (long)(tp_sweep_splitmix64(&state) % (uint64_t)(j + 1));
+                uint32_t tmp = col[(size_t)j * (size_t)np];
+                col[(size_t)j * (size_t)np] = col[(size_t)t * (size_t)np];
+                col[(size_t)t * (size_t)np] = tmp;
+            }
+        }
+}
+
+tp_status tp_sweep_design_build(tp_sweep_plan *plan, tp_sweep_design design, long replicates,
+                                tp_diag *d)
+{
+    size_t cells;
+    free(plan->table);
+    plan->table = NULL;
+    plan->design = design;
+    if (replicates < 1 || replicates > plan->n_samples || plan->n_samples % replicates != 0) {
+        tp_diag_error(d, (tp_loc){"--replicates", 1, 1}, NULL,
+                      "give --samples as a multiple of --replicates, e.g. --samples 1000 "
+                      "--replicates 10",
+                      "%ld replicates do not divide %ld samples", replicates, plan->n_samples);
+        return TP_ERR_USAGE;
+    }
+    plan->replicates = replicates;
+    plan->rep_size = plan->n_samples / replicates;
+    if (design == TP_DESIGN_RANDOM || plan->n_params == 0)
+        return TP_OK;
+    cells = (size_t)(design == TP_DESIGN_LHS ? plan->n_samples : plan->rep_size) *
+            (size_t)plan->n_params;
+    plan->table = malloc(cells * sizeof *plan->table);
+    if (!plan->table)
+        return TP_ERR_NOMEM;
+    if (design == TP_DESIGN_LHS) {
+        lhs_table(plan);
+        return TP_OK;
+    }
+    if (tp_sweep_sobol_points(plan->rep_size, plan->n_params, plan->table) != TP_OK) {
+        free(plan->table);
+        plan->table = NULL;
+        return TP_ERR_NOMEM;
+    }
+    return TP_OK;
 }
 
 /* ---- statistics ---------------------------------------------------------------------------- */
@@ -524,10 +678,242 @@ double tp_sweep_spearman(const double *x, const double *y, size_t n)
     return rho;
 }
 
+/* ---- confidence intervals ------------------------------------------------------------------ */
+
+#define TAIL (0.5 * (1.0 - TP_SWEEP_LEVEL)) /* -, probability in each tail: 0.025 */
+
+static const char *const stat_names[TP_STAT_COUNT] = {"mean", "sd", "p5", "p50", "p95"};
+static const double stat_p[TP_STAT_COUNT] = {0, 0, 0.05, 0.50, 0.95};
+
+int tp_sweep_stat_find(const char *name)
+{
+    int k;
+    for (k = 0; k < TP_STAT_COUNT; k++)
+        if (strcmp(name, stat_names[k]) == 0)
+            return k;
+    return -1;
+}
+
+const char *tp_sweep_stat_name(int stat)
+{
+    return stat_names[stat];
+}
+
+/* The upper TAIL point of Student's t with dof degrees of freedom (GSL). */
+static double t_quantile(double dof)
+{
+    return gsl_cdf_tdist_Qinv(TAIL, dof);
+}
+
+void tp_sweep_ci_mean(double m, double s, long n, double *lo, double *hi)
+{
+    double h;
+    *lo = *hi = TP_UNSET;
+    if (n < 2 || !isfinite(m) || !isfinite(s))
+        return;
+    h = t_quantile((double)(n - 1)) * s / sqrt((double)n);
+    *lo = m - h;
+    *hi = m + h;
+}
+
+void tp_sweep_ci_sd(double s, long n, double *lo, double *hi)
+{
+    double dof = (double)(n - 1);
+    *lo = *hi = TP_UNSET;
+    if (n < 2 || !isfinite(s))
+        return;
+    *lo = s * sqrt(dof / gsl_cdf_chisq_Qinv(TAIL, dof));
+    *hi = s * sqrt(dof / gsl_cdf_chisq_Pinv(TAIL, dof));
+}
+
+/* P(Bin(n, p) <= k), 0 for k < 0. */
+static double binom_cdf(long k, double p, long n)
+{
+    if (k < 0)
+        return 0.0;
+    if (k >= n)
+        return 1.0;
+    return gsl_cdf_binomial_P((unsigned)k, p, (unsigned)n);
+}
+
+int tp_sweep_ci_ranks(long n, double p, long *l, long *u)
+{
+    long a, b;
+    /* X(l) <= Q_p exactly when at least l of the n values are <= Q_p, which has probability
+     * P(Bin(n, p) >= l); so P(X(l) <= Q_p <= X(u)) >= F(u - 1) - F(l - 1), F the binomial
+     * distribution function, and each tail gets at most TAIL. F rises with its argument:
+     * bisection. */
+    if (n < 1 || binom_cdf(0, p, n) > TAIL || binom_cdf(n - 1, p, n) < 1.0 - TAIL)
+        return -1;
+    a = 1; /* F(a - 1) <= TAIL holds; find the largest such a */
+    b = n + 1;
+    while (b - a > 1) {
+        long c = a + (b - a) / 2;
+        if (binom_cdf(c - 1, p, n) <= TAIL)
+            a = c;
+        else
+            b = c;
+    }
+    *l = a;
+    a = 0; /* F(b - 1) >= 1 - TAIL holds at b = n; find the smallest such b */
+    b = n;
+    while (b - a > 1) {
+        long c = a + (b - a) / 2;
+        if (binom_cdf(c - 1, p, n) >= 1.0 - TAIL)
+            b = c;
+        else
+            a = c;
+    }
+    *u = b;
+    return 0;
+}
+
+double tp_sweep_summary_value(const tp_sweep_summary *s, int stat)
+{
+    switch (stat) {
+    case TP_STAT_MEAN:
+        return s->mean;
+    case TP_STAT_SD:
+        return s->sd;
+    case TP_STAT_P5:
+        return s->p5;
+    case TP_STAT_P50:
+        return s->p50;
+    default:
+        return s->p95;
+    }
+}
+
+/* The chi-square interval's half-width for n samples of sd s. */
+static double sd_halfwidth(double s, long n)
+{
+    double lo, hi;
+    tp_sweep_ci_sd(s, n, &lo, &hi);
+    return 0.5 * (hi - lo);
+}
+
+#define NEEDED_MAX 1e9 /* samples: beyond this the estimate is given as is */
+
+double tp_sweep_needed(const tp_sweep_plan *plan, const tp_sweep_summary *s, int stat,
+                       double halfwidth)
+{
+    double sd, per, units, hw;
+    long a, b, rank_lo, rank_hi;
+    int it;
+    if (!(halfwidth > 0) || s->n < 2)
+        return TP_UNSET;
+    if (stat == TP_STAT_MEAN) {
+        /* Units of the interval: samples (random), or replicates of rep_size (lhs, sobol).
+         * Smallest count k with t(k - 1) sd / sqrt(k) <= halfwidth, by fixed point from the
+         * normal approximation (t falls as k grows, so a few rounds settle it). */
+        int reps = s->reps >= 2;
+        sd = reps ? s->rep_sd : s->sd;
+        per = reps ? (double)plan->rep_size : 1.0;
+        if (!isfinite(sd))
+            return TP_UNSET;
+        units = fmax(2.0, ceil(pow(1.96 * sd / halfwidth, 2)));
+        for (it = 0; it < 8 && units < NEEDED_MAX; it++)
+            units = fmax(2.0, ceil(pow(t_quantile(units - 1.0) * sd / halfwidth, 2)));
+        return units * per;
+    }
+    if (stat == TP_STAT_SD) {
+        if (!(s->sd > 0))
+            return 2.0;
+        a = 1;
+        b = 2;
+        while (sd_halfwidth(s->sd, b) > halfwidth && (double)b < NEEDED_MAX) {
+            a = b;
+            b *= 2;
+        }
+        while (b - a > 1) {
+            long c = a + (b - a) / 2;
+            if (sd_halfwidth(s->sd, c) > halfwidth)
+                a = c;
+            else
+                b = c;
+        }
+        return (double)b;
+    }
+    /* A percentile: the interval's width shrinks as 1 / sqrt(n) (asymptotically normal order
+     * statistics), so scale the half-width measured now. */
+    hw = 0.5 * (s->hi[stat] - s->lo[stat]);
+    if (!isfinite(hw))
+        return TP_UNSET;
+    /* Never fewer than the interval itself needs (72 for p5 and p95, 6 for the median). */
+    for (a = 1; tp_sweep_ci_ranks(a, stat_p[stat], &rank_lo, &rank_hi) != 0; a++)
+        ;
+    if (hw == 0.0)
+        return fmax((double)a, (double)s->n);
+    return fmax((double)a, ceil((double)s->n * pow(hw / halfwidth, 2)));
+}
+
+/* The mean's interval from the replicates' means (lhs, sobol): each replicate is an
+ * independent randomisation of the design, so their means are independent and identically
+ * distributed, and Student's t over them holds whatever the design's correlations inside a
+ * replicate. Replicates without a value are left out. */
+static void replicate_interval(const tp_sweep_plan *plan, const tp_sweep_result *results, long n,
+                               int metric, tp_sweep_summary *out)
+{
+    long r, reps = 0, m = plan->rep_size;
+    double sum = 0.0, ss = 0.0, mean, *means = malloc((size_t)plan->replicates * sizeof *means);
+    if (!means)
+        return;
+    for (r = 0; r * m < n && r < plan->replicates; r++) {
+        long i, c = 0;
+        double acc = 0.0;
+        for (i = r * m; i < (r + 1) * m && i < n; i++)
+            if (results[i].ok && isfinite(results[i].metric[metric])) {
+                acc += results[i].metric[metric];
+                c++;
+            }
+        if (c > 0)
+            means[reps++] = acc / (double)c;
+    }
+    out->reps = reps;
+    if (reps >= 2) {
+        for (r = 0; r < reps; r++)
+            sum += means[r];
+        mean = sum / (double)reps;
+        for (r = 0; r < reps; r++)
+            ss += (means[r] - mean) * (means[r] - mean);
+        out->rep_sd = sqrt(ss / (double)(reps - 1));
+        tp_sweep_ci_mean(out->mean, out->rep_sd, reps, &out->lo[TP_STAT_MEAN],
+                         &out->hi[TP_STAT_MEAN]);
+    } else {
+        out->lo[TP_STAT_MEAN] = out->hi[TP_STAT_MEAN] = TP_UNSET;
+    }
+    free(means);
+}
+
+static void intervals(const tp_sweep_plan *plan, const tp_sweep_result *results, long total,
+                      const double *sorted, tp_sweep_summary *out, int metric)
+{
+    int k;
+    long n = out->n, l, u;
+    for (k = 0; k < TP_STAT_COUNT; k++)
+        out->lo[k] = out->hi[k] = TP_UNSET;
+    out->rep_sd = TP_UNSET;
+    tp_sweep_ci_mean(out->mean, out->sd, n, &out->lo[TP_STAT_MEAN], &out->hi[TP_STAT_MEAN]);
+    if (plan->mode == TP_SWEEP_SPREAD && plan->design != TP_DESIGN_RANDOM && plan->rep_size > 0)
+        replicate_interval(plan, results, total, metric, out);
+    tp_sweep_ci_sd(out->sd, n, &out->lo[TP_STAT_SD], &out->hi[TP_STAT_SD]);
+    for (k = TP_STAT_P5; k < TP_STAT_COUNT; k++)
+        if (tp_sweep_ci_ranks(n, stat_p[k], &l, &u) == 0) {
+            out->lo[k] = sorted[l - 1];
+            out->hi[k] = sorted[u - 1];
+        }
+}
+
 tp_status tp_sweep_summarise(const tp_sweep_plan *plan, const tp_sweep_result *results, int metric,
                              tp_sweep_summary *out)
 {
-    long total = tp_sweep_count(plan), i, n = 0;
+    return tp_sweep_summarise_first(plan, results, tp_sweep_count(plan), metric, 1, out);
+}
+
+tp_status tp_sweep_summarise_first(const tp_sweep_plan *plan, const tp_sweep_result *results,
+                                   long total, int metric, int with_rho, tp_sweep_summary *out)
+{
+    long i, n = 0;
     int k;
     tp_metricdef_worse worse = tp_metricdef_get(metric)->worse;
     double *x = malloc(((size_t)total + 1) * 3 * sizeof *x), *sorted, *pv;
@@ -539,6 +925,9 @@ tp_status tp_sweep_summarise(const tp_sweep_plan *plan, const tp_sweep_result *r
     out->mean = out->sd = out->p5 = out->p50 = out->p95 = TP_UNSET;
     for (k = 0; k < TP_SWEEP_MAX_PARAMS; k++)
         out->rho[k] = TP_UNSET;
+    for (k = 0; k < TP_STAT_COUNT; k++)
+        out->lo[k] = out->hi[k] = TP_UNSET;
+    out->rep_sd = TP_UNSET;
     if (!x)
         return TP_ERR_NOMEM;
     sorted = x + total + 1;
@@ -565,10 +954,11 @@ tp_status tp_sweep_summarise(const tp_sweep_plan *plan, const tp_sweep_result *r
         out->p5 = tp_sweep_quantile(sorted, (size_t)n, 0.05);
         out->p50 = tp_sweep_quantile(sorted, (size_t)n, 0.50);
         out->p95 = tp_sweep_quantile(sorted, (size_t)n, 0.95);
+        intervals(plan, results, total, sorted, out, metric);
     }
     /* A metric that does not vary beyond solver noise (a holding power that no spread
      * parameter affects) has no driver: ranks of rounding errors mean nothing. */
-    if (!(n > 1 && out->sd > TP_SWEEP_NOISE * fmax(fabs(out->mean), DBL_MIN))) {
+    if (!with_rho || !(n > 1 && out->sd > TP_SWEEP_NOISE * fmax(fabs(out->mean), DBL_MIN))) {
         free(x);
         return TP_OK;
     }
@@ -779,24 +1169,68 @@ tp_status tp_sweep_run(const tp_sweep_plan *plan, const tp_description *base, in
                        tp_sweep_result *results, tp_sweep_progress_fn progress, void *user,
                        tp_sweep_totals *totals)
 {
+    return tp_sweep_run_range(plan, base, jobs, 0, tp_sweep_count(plan), results, progress, user,
+                              totals);
+}
+
+void tp_sweep_totals_merge(tp_sweep_totals *into, const tp_sweep_totals *from)
+{
+    caution_slot all[TP_SWEEP_CAUTIONS_MAX];
+    int n = 0, k;
+    for (k = 0; k < into->n_cautions; k++) {
+        memset(&all[n], 0, sizeof all[n]);
+        all[n].c = into->cautions[k];
+        all[n++].index = into->caution_point[k];
+    }
+    for (k = 0; k < from->n_cautions; k++) {
+        caution_slot c;
+        memset(&c, 0, sizeof c);
+        c.c = from->cautions[k];
+        c.index = from->caution_point[k];
+        caution_merge(all, &n, &c);
+    }
+    qsort(all, (size_t)n, sizeof *all, cmp_caution);
+    for (k = 0; k < n; k++) {
+        into->cautions[k] = all[k].c;
+        into->caution_point[k] = all[k].index;
+    }
+    into->n_cautions = n;
+    into->failed += from->failed;
+    into->wall += from->wall;
+    into->cpu += from->cpu;
+    if (from->jobs > into->jobs)
+        into->jobs = from->jobs;
+}
+
+tp_status tp_sweep_run_range(const tp_sweep_plan *plan, const tp_description *base, int jobs,
+                             long first, long end, tp_sweep_result *results,
+                             tp_sweep_progress_fn progress, void *user, tp_sweep_totals *totals)
+{
     pool p;
     worker *wk;
     int j, started = 0;
-    long i;
+    long i, count;
     double t0 = now_seconds(CLOCK_MONOTONIC), last = t0;
     memset(totals, 0, sizeof *totals);
+    if (first < 0)
+        first = 0;
+    if (end > tp_sweep_count(plan))
+        end = tp_sweep_count(plan);
+    if (end < first)
+        end = first;
+    count = end - first;
     p.plan = plan;
     p.base = base;
     p.results = results;
-    p.total = tp_sweep_count(plan);
-    atomic_init(&p.next, 0);
+    p.total = end;
+    atomic_init(&p.next, first);
     atomic_init(&p.done, 0);
     if (jobs < 1)
         jobs = 1;
     if (jobs > TP_SWEEP_MAX_JOBS)
         jobs = TP_SWEEP_MAX_JOBS;
-    if ((long)jobs > p.total)
-        jobs = p.total > 0 ? (int)p.total : 1;
+    if ((long)jobs > count)
+        jobs = count > 0 ? (int)count : 1;
     wk = calloc((size_t)jobs, sizeof *wk);
     if (!wk)
         return TP_ERR_NOMEM;
@@ -811,12 +1245,12 @@ tp_status tp_sweep_run(const tp_sweep_plan *plan, const tp_description *base, in
         work(&wk[0]);
     } else {
         struct timespec nap = {0, POLL_NS};
-        while (atomic_load(&p.done) < p.total) {
+        while (atomic_load(&p.done) < count) {
             double now;
             nanosleep(&nap, NULL);
             now = now_seconds(CLOCK_MONOTONIC);
             if (progress && now - last >= 1e-3 * TP_SWEEP_TICK_MS) {
-                progress(user, atomic_load(&p.done), p.total, now - t0);
+                progress(user, atomic_load(&p.done), count, now - t0);
                 last = now;
             }
         }
@@ -825,10 +1259,10 @@ tp_status tp_sweep_run(const tp_sweep_plan *plan, const tp_description *base, in
                 pthread_join(wk[j].thread, NULL);
     }
     if (progress)
-        progress(user, p.total, p.total, now_seconds(CLOCK_MONOTONIC) - t0);
+        progress(user, count, count, now_seconds(CLOCK_MONOTONIC) - t0);
     totals->jobs = started;
     totals->wall = now_seconds(CLOCK_MONOTONIC) - t0;
-    for (i = 0; i < p.total; i++)
+    for (i = first; i < end; i++)
         totals->failed += !results[i].ok;
     {
         /* Merged in worker order; the merge keeps the worst line of each kind with ties
@@ -841,8 +1275,10 @@ tp_status tp_sweep_run(const tp_sweep_plan *plan, const tp_description *base, in
                 caution_merge(all, &n, &wk[j].cautions[k]);
         }
         qsort(all, (size_t)n, sizeof *all, cmp_caution);
-        for (k = 0; k < n; k++)
+        for (k = 0; k < n; k++) {
             totals->cautions[k] = all[k].c;
+            totals->caution_point[k] = all[k].index;
+        }
         totals->n_cautions = n;
     }
     free(wk);

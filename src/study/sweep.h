@@ -1,6 +1,7 @@
-/* Sweeps and tolerance studies: parameter grids and random spreads over numeric config keys,
- * a pool of worker threads running one warm-up per point, counter-based random streams, and
- * the statistics of the results (moments, percentiles, rank correlation). */
+/* Sweeps and tolerance studies: parameter grids and spreads over numeric config keys sampled by
+ * a design (independent random draws, Latin hypercube, scrambled Sobol points), a pool of
+ * worker threads running one warm-up per point, counter-based random streams, and the
+ * statistics of the results (moments, percentiles, rank correlation, confidence intervals). */
 #ifndef TP_SWEEP_H
 #define TP_SWEEP_H
 
@@ -25,6 +26,15 @@
 typedef enum tp_sweep_mode { TP_SWEEP_GRID, TP_SWEEP_SPREAD } tp_sweep_mode;
 
 typedef enum tp_spread_kind { TP_SPREAD_NORMAL, TP_SPREAD_UNIFORM } tp_spread_kind;
+
+/* How the samples of a spread are placed (docs/sweep.md). */
+typedef enum tp_sweep_design {
+    TP_DESIGN_RANDOM, /* independent draws (the default) */
+    TP_DESIGN_LHS,    /* Latin hypercube per replicate (McKay, Beckman & Conover 1979) */
+    TP_DESIGN_SOBOL   /* GSL's Sobol points, nested-scrambled per replicate (Owen 1995) */
+} tp_sweep_design;
+
+#define TP_SWEEP_REPLICATES 10 /* default replicates (batches) of a spread */
 
 /* One varied key. */
 typedef struct tp_sweep_param {
@@ -51,6 +61,13 @@ typedef struct tp_sweep_plan {
     int n_params;
     long n_samples; /* spread: samples to draw */
     uint64_t seed;  /* spread: the seed of every sample's stream */
+    tp_sweep_design design;
+    long replicates; /* spread: replicates of rep_size samples each (n_samples = product) */
+    long rep_size;
+    /* Design tables (tp_sweep_design_build), owned: LHS strata [sample][param] (the stratum
+     * 0..rep_size-1 of each sample within its replicate); Sobol 30-bit integer points
+     * [point within a replicate][param], the first point the origin. NULL for random. */
+    uint32_t *table;
 } tp_sweep_plan;
 
 /* Start an empty plan of `mode` (no parameters yet). */
@@ -73,6 +90,31 @@ tp_status tp_sweep_add_vary(tp_sweep_plan *plan, const tp_description *desc, con
  * absolute temperature SIGMA is an interval). Errors as for tp_sweep_add_vary. */
 tp_status tp_sweep_add_spread(tp_sweep_plan *plan, const tp_description *desc, const char *text,
                               tp_diag *d);
+
+/* Parse a design name ("random", "lhs", "sobol"); -1 when unknown. */
+int tp_sweep_design_find(const char *name);
+
+/* The name of a design. */
+const char *tp_sweep_design_name(tp_sweep_design design);
+
+/* Fix a spread's design once its parameters, n_samples, replicates and seed are set: checks that
+ * replicates divides n_samples (a usage error naming `--replicates` otherwise) and builds the
+ * design's table. TP_ERR_NOMEM when the table cannot be allocated. Deterministic: the same plan
+ * always gets the same table. */
+tp_status tp_sweep_design_build(tp_sweep_plan *plan, tp_sweep_design design, long replicates,
+                                tp_diag *d);
+
+/* The first n points of GSL's Sobol sequence in `dim` dimensions (at most TP_SWEEP_MAX_PARAMS)
+ * as 30-bit integers (point j, dimension k at out[j * dim + k]; value = integer / 2^30),
+ * preceded by the origin (out[0..dim-1] = 0): gsl_qrng_sobol, whose direction numbers are
+ * those of Bratley & Fox, ACM TOMS 14 (1988) 88. TP_ERR_NOMEM on failure. */
+tp_status tp_sweep_sobol_points(long n, int dim, uint32_t *out);
+
+/* Owen's nested uniform scrambling (Owen 1995) of a 30-bit point coordinate, base 2: bit b
+ * (from the top) is flipped by a pseudo-random bit drawn from `key` and the bits above b of
+ * x, so points that share their leading digits share their flips. A bijection of the 2^30
+ * integers for each key. */
+uint32_t tp_sweep_owen(uint32_t x, uint64_t key);
 
 /* Points of the plan: the product of the axis sizes (grid) or n_samples (spread). */
 long tp_sweep_count(const tp_sweep_plan *plan);
@@ -121,6 +163,41 @@ double tp_sweep_spearman(const double *x, const double *y, size_t n);
 
 /* ---- running ---------------------------------------------------------------------------- */
 
+/* ---- confidence intervals (95 %; docs/sweep.md names the methods and sources) -------------- */
+
+#define TP_SWEEP_LEVEL 0.95 /* -, confidence level of every interval */
+
+/* The statistics of a tolerance study, in the order of tables and files. */
+typedef enum tp_sweep_stat {
+    TP_STAT_MEAN,
+    TP_STAT_SD,
+    TP_STAT_P5,
+    TP_STAT_P50,
+    TP_STAT_P95,
+    TP_STAT_COUNT
+} tp_sweep_stat;
+
+/* A statistic by name ("mean", "sd", "p5", "p50", "p95"); -1 when unknown. */
+int tp_sweep_stat_find(const char *name);
+
+/* The name of a statistic. */
+const char *tp_sweep_stat_name(int stat);
+
+/* Student's t interval of the mean of n values with mean m and sample sd s: m -+ t s / sqrt(n),
+ * t the 97.5 % point of t with n - 1 degrees of freedom. NaN bounds when n < 2. */
+void tp_sweep_ci_mean(double m, double s, long n, double *lo, double *hi);
+
+/* The chi-square interval of a normal population's standard deviation from the sample sd s of
+ * n values: s sqrt((n - 1) / chi2(0.975)), s sqrt((n - 1) / chi2(0.025)). NaN when n < 2. */
+void tp_sweep_ci_sd(double s, long n, double *lo, double *hi);
+
+/* The distribution-free interval of the p-quantile from the order statistics: 1-based ranks
+ * l <= u with P(Bin(n, p) <= l - 1) <= 2.5 % and P(Bin(n, p) <= u - 1) >= 97.5 %, l the largest
+ * and u the smallest such. Returns 0 and sets *l, *u, or -1 when n is too small for either. */
+int tp_sweep_ci_ranks(long n, double p, long *l, long *u);
+
+/* ---- what one point gave ------------------------------------------------------------------ */
+
 /* What one point gave. */
 typedef struct tp_sweep_result {
     int ok;                     /* 1: the metrics hold; 0: failed (reason says why) */
@@ -147,8 +224,14 @@ typedef struct tp_sweep_totals {
      * hottest, the highest voltage ...), the lowest point index on ties; in list order
      * (tp_caution_compare), the closing cut-out last. Independent of the number of jobs. */
     tp_caution cautions[TP_SWEEP_CAUTIONS_MAX];
+    long caution_point[TP_SWEEP_CAUTIONS_MAX]; /* the point each came from */
     int n_cautions;
 } tp_sweep_totals;
+
+/* Add the totals of another run over other points (a batch, a shard) to `into`: failures, CPU
+ * and wall time add up, cautions merge as within a run (worst figures, lowest point on ties),
+ * so the result does not depend on how the points were split. */
+void tp_sweep_totals_merge(tp_sweep_totals *into, const tp_sweep_totals *from);
 
 /* Run every point of `plan` on `jobs` threads (at least 1). Each worker holds its own copy of
  * `base` and builds its own network per point; the result of a point depends only on the point
@@ -159,6 +242,12 @@ typedef struct tp_sweep_totals {
 tp_status tp_sweep_run(const tp_sweep_plan *plan, const tp_description *base, int jobs,
                        tp_sweep_result *results, tp_sweep_progress_fn progress, void *user,
                        tp_sweep_totals *totals);
+
+/* The same for points first..end-1 only (a batch of --until, a shard): results[] is indexed by
+ * point over the whole plan and only those slots are written; totals are of those points. */
+tp_status tp_sweep_run_range(const tp_sweep_plan *plan, const tp_description *base, int jobs,
+                             long first, long end, tp_sweep_result *results,
+                             tp_sweep_progress_fn progress, void *user, tp_sweep_totals *totals);
 
 /* The default number of workers: the online processor count (at least 1). */
 int tp_sweep_default_jobs(void);
@@ -173,7 +262,23 @@ typedef struct tp_sweep_summary {
     long worst_index;                /* its sample index, or -1 */
     double rho[TP_SWEEP_MAX_PARAMS]; /* Spearman correlation with each parameter (NaN: none) */
     int driver;                      /* the parameter with the largest |rho|, or -1 */
+    /* 95 % confidence intervals of mean, sd, p5, p50, p95 (tp_sweep_stat order); NaN where the
+     * samples are too few. The mean's comes from the replicates' means for lhs and sobol. */
+    double lo[TP_STAT_COUNT], hi[TP_STAT_COUNT];
+    long reps; /* replicates behind the mean's interval (0: the samples themselves) */
+    double rep_sd; /* sd of the replicate means (reps >= 2), else NaN */
 } tp_sweep_summary;
+
+/* The value of statistic `stat` in a summary. */
+double tp_sweep_summary_value(const tp_sweep_summary *s, int stat);
+
+/* The samples a study of this plan would need for the interval of `stat` to have a half-width
+ * of at most `halfwidth` (> 0), estimated from a summary of n samples: for the mean Student's
+ * t (over replicates of rep_size samples for lhs and sobol), for the sd the chi-square
+ * interval, for the percentiles the current half-width scaled by sqrt(n / N). NaN when the
+ * summary cannot tell (too few samples). */
+double tp_sweep_needed(const tp_sweep_plan *plan, const tp_sweep_summary *s, int stat,
+                       double halfwidth);
 
 #define TP_SWEEP_NOISE                                                                             \
     1e-7 /* -, a metric whose sd is below this share of its mean does not                          \
@@ -182,5 +287,10 @@ typedef struct tp_sweep_summary {
 /* Summarise metric `metric` over the successful samples. TP_ERR_NOMEM on failure. */
 tp_status tp_sweep_summarise(const tp_sweep_plan *plan, const tp_sweep_result *results, int metric,
                              tp_sweep_summary *out);
+
+/* The same over the first n samples only (a study stopped early by --until); without the rank
+ * correlations (rho NaN, driver -1) unless with_rho, for the checks between batches. */
+tp_status tp_sweep_summarise_first(const tp_sweep_plan *plan, const tp_sweep_result *results,
+                                   long n, int metric, int with_rho, tp_sweep_summary *out);
 
 #endif
