@@ -6,10 +6,12 @@
 #include <stddef.h>
 
 #include "diag.h"
+#include "guard.h"
 #include "metrics.h"
 #include "network.h"
 #include "plot.h"
 #include "status.h"
+#include "steadyreport.h"
 #include "warmup.h"
 
 /* Draw a warm-up run under `title`: temperatures, surface estimate, reading and setpoint over
@@ -32,5 +34,18 @@ size_t tp_figure_warmup_marks(const tp_metrics *m, tp_plot_vline marks[TP_FIGURE
  * extension (tp_plot_map_write). */
 tp_status tp_figure_surface(const char *path, const tp_net_grid *g, const double *map,
                             const char *title, tp_diag *d);
+
+/* Draw guard's study under the title "guard: <title_of_case>": the nominal, slowest and
+ * deepest-dipping healthy readings, and every fault's reading from cold and from hold, with the
+ * setpoint, ceiling, end of the rise check and hold band (as `tepid guard --plot` draws it).
+ * Atomic (plot.h). */
+tp_status tp_figure_guard(const char *path, const char *title_of_case, const tp_guard_study *st,
+                          tp_diag *d);
+
+/* Draw where the watts of a steady state go (r->flows by loss path, as `tepid steady` lists
+ * them: the paths that carry any, the enclosure's walls left out) as horizontal bars labelled
+ * "12.34 W (56.7 %)" under `title`. Atomic (plot.h). */
+tp_status tp_figure_losses(const char *path, const char *title, const tp_steadyreport *r,
+                           tp_diag *d);
 
 #endif
