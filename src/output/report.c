@@ -4,6 +4,7 @@
 #define _GNU_SOURCE /* renameat2 (exchange the figure folders), nftw */
 #include "report.h"
 
+#include <ctype.h>
 #include <errno.h>
 #include <fcntl.h>
 #include <ftw.h>
@@ -365,6 +366,21 @@ static size_t table_rows(const tp_report_table *t)
     return (t->n + (size_t)t->cols - 1) / (size_t)t->cols;
 }
 
+/* Every cell of column k a number or "-" (and at least one a number). */
+static int numeric_column(const tp_report_table *t, int k)
+{
+    size_t row, rows = table_rows(t);
+    int any = 0;
+    for (row = 0; row < rows; row++) {
+        const char *c = table_cell(t, row, k);
+        if (numeric(c))
+            any = 1;
+        else if (strcmp(c, "-") != 0)
+            return 0;
+    }
+    return any;
+}
+
 /* ---- HTML --------------------------------------------------------------------------------- */
 
 static void html_text(FILE *fp, const char *s)
@@ -480,6 +496,24 @@ static void html_svg(FILE *fp, const char *svg, const char *prefix)
     fputc('\n', fp);
 }
 
+/* Prose: text with `code` spans set as code. */
+static void html_prose(FILE *fp, const char *s)
+{
+    int code = 0;
+    char piece[2] = {0, 0};
+    for (; s && *s; s++) {
+        if (*s == '`' && (code || strchr(s + 1, '`'))) {
+            fputs(code ? "</code>" : "<code>", fp);
+            code = !code;
+            continue;
+        }
+        piece[0] = *s;
+        html_text(fp, piece);
+    }
+    if (code)
+        fputs("</code>", fp);
+}
+
 static void html_table(FILE *fp, const tp_report_table *t)
 {
     size_t row, rows = table_rows(t);
@@ -508,7 +542,7 @@ static void html_table(FILE *fp, const tp_report_table *t)
                 html_text(fp, c + 4);
                 fputs("</td>", fp);
             } else {
-                fputs(numeric(c) ? "<td class=\"num\">" : "<td>", fp);
+                fputs(numeric_column(t, k) ? "<td class=\"num\">" : "<td>", fp);
                 html_text(fp, c);
                 fputs("</td>", fp);
             }
@@ -536,7 +570,7 @@ static void html_section(FILE *fp, const tp_report_section *s, size_t index)
         switch (b->kind) {
         case B_PARA:
             fputs("<p>", fp);
-            html_text(fp, b->text);
+            html_prose(fp, b->text);
             fputs("</p>\n", fp);
             break;
         case B_ITEM:
@@ -544,7 +578,7 @@ static void html_section(FILE *fp, const tp_report_section *s, size_t index)
                 fputs("<ul>\n", fp);
             in_list = 1;
             fputs("<li>", fp);
-            html_text(fp, b->text);
+            html_prose(fp, b->text);
             fputs("</li>\n", fp);
             break;
         case B_SUBHEAD:
@@ -610,11 +644,15 @@ tp_status tp_report_write_html(const tp_report *r, const char *path, tp_diag *d)
 
 /* ---- Markdown ----------------------------------------------------------------------------- */
 
-/* Text in a paragraph or list item: the characters Markdown would read as markup escaped. */
+/* Text in a paragraph, list item or table cell: the characters Markdown would read as markup
+ * escaped, but for `code` spans (kept) and an underscore within a word (no emphasis there). */
 static void md_text(FILE *fp, const char *s, int in_table)
 {
+    const char *start = s;
     for (; s && *s; s++) {
-        if (strchr("\\`*_[]<>#|", *s) && (*s != '#' || !in_table))
+        int inword = *s == '_' && s > start && isalnum((unsigned char)s[-1]) &&
+                     isalnum((unsigned char)s[1]);
+        if (strchr("\\*_[]<>#|", *s) && (*s != '#' || !in_table) && !inword)
             fputc('\\', fp);
         if (*s == '\n')
             fputs(in_table ? "<br>" : "  \n", fp);
@@ -640,8 +678,8 @@ static void md_table(FILE *fp, const tp_report_table *t)
     }
     fputs("\n|", fp);
     for (k = 0; k < t->cols; k++) {
-        /* a column of numbers (its first row) is right-aligned */
-        fputs(rows > 0 && numeric(table_cell(t, 0, k)) ? " ---: |" : " --- |", fp);
+        /* a column of numbers is right-aligned */
+        fputs(numeric_column(t, k) ? " ---: |" : " --- |", fp);
     }
     fputc('\n', fp);
     for (row = 0; row < rows; row++) {
