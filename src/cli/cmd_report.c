@@ -330,4 +330,4 @@ const tp_verb tp_cmd_report = {
     "A study that does not apply (guard without a setpoint) or fails leaves its section\n"
     "saying why.",
     "tepid report workshop-bed-24v.yaml -o review.html\n"
-    "tepid report small-pad-grid.yaml -o review.md"};
+    "tepid report raw-five-node.yaml -o review.md"};
