@@ -10,6 +10,9 @@
 #include "surfacemap.h"
 #include "units.h"
 
+#define TP_FIGURE_WARMUP_LEGEND 6 /* temperature curves a warm-up chart of the default size
+                                     legends without growing its axis far */
+#define TP_FIGURE_WARMUP_TALL 1000 /* height of a warm-up chart with more, px or pt */
 #define TP_FIGURE_GUARD_HEALTHY 3 /* healthy readings drawn: nominal, slowest, deepest dip */
 
 tp_status tp_figure_warmup(const char *path, const char *title, const tp_network *net,
@@ -83,13 +86,21 @@ tp_status tp_figure_warmup(const char *path, const char *title, const tp_network
                                 &setpoint, isfinite(setpoint.y) ? 1u : 0u, 2.0};
     panels[1] = (tp_plot_panel){"power (W)", net->has_control ? "duty" : NULL, power_series,
                                 (size_t)np, NULL, 0, 1.0};
-    chart = (tp_plot_chart){title, "time (min)", panels, 2, 0, 0};
+    /* Many temperatures make a tall legend: a taller figure gives it room beside the curves
+     * instead of an axis grown far past the data to clear it. */
+    chart = (tp_plot_chart){title, "time (min)", panels, 2, 0,
+                            tp_figure_warmup_height((size_t)ns)};
     st = tp_plot_chart_write_marked(path, &chart, marks,
                                     tp_figure_warmup_marks(&w->metrics, marks, mark_text), d);
     free(buf);
     free(temp_series);
     free(labels);
     return st;
+}
+
+int tp_figure_warmup_height(size_t curves)
+{
+    return curves > TP_FIGURE_WARMUP_LEGEND ? TP_FIGURE_WARMUP_TALL : 0;
 }
 
 size_t tp_figure_warmup_marks(const tp_metrics *m, tp_plot_vline marks[TP_FIGURE_MARKS],

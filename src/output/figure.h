@@ -20,6 +20,11 @@
 tp_status tp_figure_warmup(const char *path, const char *title, const tp_network *net,
                            const tp_warmup *w, tp_diag *d);
 
+/* The height of a warm-up chart whose temperature panel has `curves` curves: 0 (the default)
+ * for a few; taller for many, so that their legend finds room beside the curves without the
+ * temperature axis growing far past the data. */
+int tp_figure_warmup_height(size_t curves);
+
 #define TP_FIGURE_MARKS 2         /* times marked on the warm-up chart */
 #define TP_FIGURE_MARK_TEXT 64    /* bytes of a mark's label */
 

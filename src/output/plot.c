@@ -120,7 +120,7 @@ static int plot_load_plplot(char *why, size_t size)
 #define PLOT_OUTLINE_W 2.5      /* plate outline width at the default size */
 #define PLOT_MARK_SCALE 0.7     /* marker glyph size, character heights */
 #define PLOT_LEGEND_SCALE 0.9   /* legend text size, character heights */
-#define PLOT_LEGEND_SPACING 2.2 /* legend line pitch, legend character heights */
+#define PLOT_LEGEND_SPACING 1.9 /* legend line pitch, legend character heights */
 #define PLOT_TITLE_SCALE 1.2    /* title size, character heights */
 #define PLOT_TITLE_W 0.8        /* width of a title character, title character heights: the sans
                                    font measured 0.64 (prose) to 0.72 (a file path) on lines of
