@@ -449,7 +449,7 @@ static const char html_css[] =
     "table{width:100%;font-size:8.5pt}\n"
     "thead{display:table-header-group}\n"
     "tr,figure{break-inside:avoid}\n"
-    "figure svg{max-height:170mm;width:auto;max-width:100%}\n"
+    "figure svg{max-height:125mm;width:auto;max-width:100%}\n"
     "section.summary,section.cautions{break-inside:avoid}\n"
     "}\n";
 
