@@ -817,14 +817,20 @@ static tp_status md_figures(const tp_report *r, const char *dir, tp_diag *d)
         } else {
             /* No exchange on this file system: move the old one aside, then the new one in. */
             char old[TP_PATH_MAX];
-            if ((size_t)snprintf(old, sizeof old, "%s.oldXXXXXX", dir) < sizeof old &&
-                mkdtemp(old) && rename(dir, old) == 0 && rename(tmp, dir) == 0) {
+            int made = (size_t)snprintf(old, sizeof old, "%s.oldXXXXXX", dir) < sizeof old &&
+                       mkdtemp(old) != NULL;
+            int moved = made && rename(dir, old) == 0, err;
+            if (moved && rename(tmp, dir) == 0) {
                 remove_tree(old);
                 return TP_OK;
             }
-            rmdir(old);
+            err = errno;
+            if (moved)
+                rename(old, dir); /* the old folder back in its place */
+            else if (made)
+                rmdir(old);
             tp_diag_error(d, tp_diag_loc_none(), dir, NULL, "cannot replace the figure folder: %s",
-                          strerror(errno));
+                          strerror(err));
             st = TP_ERR_IO;
         }
     } else if (st == TP_OK && rename(tmp, dir) != 0) {
