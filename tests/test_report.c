@@ -611,6 +611,20 @@ static void test_report_markdown_replaces_its_folder_whole(void **state)
     tp_check_contains("markdown", md, "](raw-files/guard.svg)");
     snprintf(fig, sizeof fig, "%s/warmup.svg", dir);
     assert_true(tp_file_exists(fig));
+    /* the input's SHA-256 as coreutils' sha256sum computes it (an independent implementation
+     * of FIPS 180-4) */
+    {
+        char prog[TP_TEST_PATH], want[80];
+        const char *sargs[] = {DEMO("raw-five-node"), NULL};
+        tp_run_result r;
+        if (tp_find_program("sha256sum", prog) == 0) {
+            tp_run_program(s, prog, sargs, &r);
+            assert_int_equal(r.status, 0);
+            snprintf(want, sizeof want, "| SHA-256 of the input file | %.64s |", r.out);
+            tp_check_contains("provenance", md, want);
+            tp_run_clear(&r);
+        }
+    }
     free(md);
 }
 
