@@ -614,7 +614,7 @@ static void test_report_markdown_replaces_its_folder_whole(void **state)
     /* the input's SHA-256 as coreutils' sha256sum computes it (an independent implementation
      * of FIPS 180-4) */
     {
-        char prog[TP_TEST_PATH], want[80];
+        char prog[TP_TEST_PATH], want[128];
         const char *sargs[] = {DEMO("raw-five-node"), NULL};
         tp_run_result r;
         if (tp_find_program("sha256sum", prog) == 0) {
