@@ -72,6 +72,9 @@ static char *dup_text(tp_report *r, const char *s)
 }
 
 static char *vformat(tp_report *r, const char *fmt, va_list ap)
+    __attribute__((format(printf, 2, 0)));
+
+static char *vformat(tp_report *r, const char *fmt, va_list ap)
 {
     va_list aq;
     int n;
@@ -193,6 +196,9 @@ static block *block_add(tp_report_section *s, block_kind kind)
     b->kind = kind;
     return b;
 }
+
+static void text_block(tp_report_section *s, block_kind kind, const char *fmt, va_list ap)
+    __attribute__((format(printf, 3, 0)));
 
 static void text_block(tp_report_section *s, block_kind kind, const char *fmt, va_list ap)
 {
