@@ -444,6 +444,9 @@ static void test_report_html_is_self_contained(void **state)
         figures++;
     }
     assert_int_equal(figures, 3);
+    /* the summary's verdicts are words in a marked box: the 24 V demo's budget has one WARN
+     * (its switch's conduction loss above 1 W, budget --json) */
+    tp_check_contains("summary", html, "<span class=\"verdict v-warn\">WARN</span>: 0 FAILs");
     free(html);
 }
 
@@ -547,7 +550,8 @@ static void test_report_renders_in_chromium(void **state)
     struct stat sb;
     FILE *fp;
     (void)state;
-    if (tp_find_program("chromium", chromium) != 0 || tp_find_program("pdftotext", pdftotext) != 0) {
+    if (tp_find_program("chromium", chromium) != 0 ||
+        tp_find_program("pdftotext", pdftotext) != 0) {
         print_message("skipped: rendering the report needs chromium and pdftotext (Debian "
                       "packages chromium and poppler-utils)\n");
         skip();

@@ -341,13 +341,15 @@ size_t tp_report_figures(const tp_report *r)
 
 /* ---- shared by the writers ---------------------------------------------------------------- */
 
-/* PASS, WARN or FAIL at the start of a cell (alone or followed by a blank), else NULL. */
+/* PASS, WARN or FAIL at the start of a cell (alone, or followed by a blank or a colon), else
+ * NULL. */
 static const char *verdict_of(const char *cell)
 {
     static const char *const words[] = {"PASS", "WARN", "FAIL"};
     size_t k;
     for (k = 0; k < 3; k++)
-        if (strncmp(cell, words[k], 4) == 0 && (cell[4] == '\0' || cell[4] == ' '))
+        if (strncmp(cell, words[k], 4) == 0 &&
+            (cell[4] == '\0' || cell[4] == ' ' || cell[4] == ':'))
             return words[k];
     return NULL;
 }
@@ -417,7 +419,8 @@ static const char html_css[] =
     "body{font-family:\"DejaVu Sans\",\"Liberation Sans\",Arial,sans-serif;color:#1a1a1a;"
     "line-height:1.45;max-width:62rem;margin:1.5rem auto;padding:0 1rem}\n"
     "h1{font-size:1.6rem;margin:0 0 .3rem}\n"
-    "h2{font-size:1.3rem;border-bottom:2px solid #333;padding-bottom:.15rem;margin:2.2rem 0 .6rem}\n"
+    "h2{font-size:1.3rem;border-bottom:2px solid #333;padding-bottom:.15rem;"
+    "margin:2.2rem 0 .6rem}\n"
     "h3{font-size:1.05rem;margin:1.3rem 0 .4rem}\n"
     "p.meta{color:#444;margin:.2rem 0 1rem}\n"
     "table{border-collapse:collapse;margin:.5rem 0 1.1rem;font-size:.88rem}\n"

@@ -58,8 +58,8 @@ tp_report_table *tp_report_table_add(tp_report_section *s, const char *caption, 
                                      const char *const *head);
 
 /* The next cell of the table, printf-style; a row ends after `cols` cells. A cell that is
- * PASS, WARN or FAIL (or starts with one of them and a blank) is set as a verdict: the word
- * itself, marked, never colour alone. */
+ * PASS, WARN or FAIL (or starts with one of them and a blank or colon) is set as a verdict:
+ * the word itself, marked, never colour alone. */
 void tp_report_cell(tp_report_table *t, const char *fmt, ...)
     __attribute__((format(printf, 2, 3)));
 

@@ -420,7 +420,8 @@ tp_status tp_reportsections_steady(tp_report *r, tp_report_section *s, const tp_
         }
     }
     for (i = 0; i < net->n_nodes; i++) {
-        if (!(net->nodes[i].capacity > 0) || (net->grid && net->grid->from[i] < net->grid->n_layers))
+        if (!(net->nodes[i].capacity > 0) ||
+            (net->grid && net->grid->from[i] < net->grid->n_layers))
             continue;
         tp_report_cell(t, "%s", net->nodes[i].id);
         tp_report_cell(t, "%.2f", a->shown->temps[i] - TP_KELVIN_0C);
