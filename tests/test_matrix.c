@@ -1,5 +1,5 @@
-/* Every verb on every form: warmup, steady, budget, tune, guard, fit, sweep, explain, check, size
- * and cool on a raw network (configs/raw-five-node.yaml), a lumped physical plate
+/* Every verb on every form: warmup, steady, budget, tune, guard, fit, sweep, explain, check, size,
+ * cool and report on a raw network (configs/raw-five-node.yaml), a lumped physical plate
  * (configs/workshop-bed-24v.yaml) and a gridded one (configs/small-pad-grid.yaml on a 4 x 4
  * grid). Each run must exit 0 with a summary (and JSON that parses, where the verb writes it),
  * or be one of the refusals documented in docs/user-guide.md ("Every verb on every form"): exit
@@ -25,6 +25,7 @@ static const char *const form_vary[N_FORMS] = {"network.sources.heater.resistanc
 #define ARG_LOG "{log}"   /* the form's synthetic log */
 #define ARG_FREE "{free}" /* the form's resistance key */
 #define ARG_VARY "{vary}" /* the form's sweep */
+#define ARG_OUT "{out}"   /* a report in the group's scratch directory */
 
 typedef struct row {
     const char *verb;
@@ -55,6 +56,7 @@ static const row rows[] = {
     {"size", -1, {"--reach", "60degC", "--within", "15min", NULL}, 1, 0, NULL},
     {"cool", -1, {NULL}, 1, 0, NULL},
     {"cool", -1, {"--from", "80degC", "--to", "40degC", NULL}, 1, 0, NULL},
+    {"report", -1, {"-o", ARG_OUT, NULL}, 0, 0, NULL},
     /* the documented refusals */
     {"guard", -1, {"--set", "control.mode=off", NULL}, 0, 2,
      "control.mode: guard judges a controller holding a setpoint; mode 'off' holds none"},
@@ -66,9 +68,11 @@ static const row rows[] = {
      "guard.gust: not available in the raw network form"},
     {"size", RAW, {"--reach", "60degC", "--within", "15min", "--surface", NULL}, 0, 2,
      "--surface: the raw network form has no working surface"},
+    {"report", -1, {"-o", "review.txt", NULL}, 0, 2, "a report is written as .html or .md"},
 };
 
 static char log_path[N_FORMS][2 * TP_TEST_PATH]; /* room for the directory and a name */
+static char out_path[N_FORMS][2 * TP_TEST_PATH];
 
 /* The form's base arguments after the verb: the file, and the grid for the gridded form. */
 static int base_args(int form, const char **argv)
@@ -97,6 +101,8 @@ static int tp_matrix_setup(void **state)
         n += base_args(f, argv + n);
         snprintf(log_path[f], sizeof log_path[f], "%s/log-%s.csv", tp_group_scratch()->dir,
                  form_names[f]);
+        snprintf(out_path[f], sizeof out_path[f], "%s/report-%s.html", tp_group_scratch()->dir,
+                 form_names[f]);
         argv[n++] = "--set";
         argv[n++] = "run.duration=10 min";
         argv[n++] = "--csv";
@@ -119,6 +125,8 @@ static const char *fill(const char *arg, int form)
         return form_key[form];
     if (strcmp(arg, ARG_VARY) == 0)
         return form_vary[form];
+    if (strcmp(arg, ARG_OUT) == 0)
+        return out_path[form];
     return arg;
 }
 

@@ -5,6 +5,7 @@
  * and ceiling; six fault readings pinned at both edges). */
 #include "tp_test.h"
 
+#include "figure.h"
 #include "plot.h"
 
 #define N 181 /* points per series: 0 to 30 min every 10 s */
@@ -236,6 +237,52 @@ static void test_marked_times_stay_clear_of_legend_and_labels(void **state)
     tp_plot_layout_clear(&l);
 }
 
+/* The warm-up chart of a plate in a box (configs/enclosed-printer.yaml): nine temperatures
+ * from 20 degC rising to 30 to 110 degC over an hour, two marked times near the middle. Its
+ * legend once grew the temperature axis down to -33 degC, a third of the chart below the
+ * data; at the height tp_figure_warmup_height gives nine curves the blank band below the
+ * coldest curve stays under a third of the data's range (hand calculation: the data span
+ * 20 to 110 degC, so the axis may start no lower than 20 - 30 = -10 degC). */
+static void test_warmup_legend_of_many_curves_keeps_the_axis_near_the_data(void **state)
+{
+    static const double plateau[9] = {70.0, 108.0, 102.0, 97.0, 102.0, 40.0, 30.0, 95.0, 102.0};
+    static const double tau[9] = {500.0, 400.0, 450.0, 480.0, 460.0, 900.0, 1500.0, 480.0, 470.0};
+    static const char *const names[9] = {"wool", "pad", "plate", "glass", "sensor", "air",
+                                         "walls", "surface (estimate)", "reading"};
+    static const tp_plot_vline marks[] = {{"reading at setpoint 15 min 57 s", 16.0},
+                                          {"surface ready 24 min 16 s", 24.3}};
+    static double t[361], y[9][361], power[361];
+    tp_plot_series s[9], p[1];
+    tp_plot_hline setpoint = {"setpoint", 100.0};
+    tp_plot_panel panels[2];
+    tp_plot_chart chart;
+    tp_plot_layout l;
+    tp_diag d;
+    int i, k;
+    (void)state;
+    for (i = 0; i < 361; i++) {
+        t[i] = i / 6.0;
+        power[i] = i < 96 ? 275.0 : 115.0;
+        for (k = 0; k < 9; k++)
+            y[k][i] = 20.0 + (plateau[k] - 20.0) * (1.0 - exp(-60.0 * t[i] / tau[k]));
+    }
+    for (k = 0; k < 9; k++)
+        s[k] = (tp_plot_series){names[k], t, y[k], 361, k >= 7, 0, 0};
+    p[0] = (tp_plot_series){"heater power", t, power, 361, 0, 0, 0};
+    panels[0] = (tp_plot_panel){"temperature (degC)", NULL, s, 9, &setpoint, 1, 2.0};
+    panels[1] = (tp_plot_panel){"power (W)", NULL, p, 1, NULL, 0, 1.0};
+    chart = (tp_plot_chart){"enclosed", "time (min)", panels, 2, 0, tp_figure_warmup_height(9)};
+    tp_diag_init(&d, NULL);
+    assert_int_equal(tp_plot_chart_layout_marked("layout.png", &chart, marks, 2, &l, &d), TP_OK);
+    if (l.panels[0].ylo < -10.0)
+        fail_msg("the legend grew the temperature axis down to %.1f degC", l.panels[0].ylo);
+    assert_true(l.panels[0].legend_columns >= 1);
+    for (k = 0; k < 9; k++)
+        if (hides(&l, &l.panels[0], &s[k], &l.panels[0].legend))
+            fail_msg("the legend hides '%s'", names[k]);
+    tp_plot_layout_clear(&l);
+}
+
 static void test_legend_grows_a_panel_with_a_right_axis(void **state)
 {
     /* A rising series on the left axis and a falling one on the right, crossing in the middle
@@ -315,6 +362,7 @@ int main(void)
         cmocka_unit_test(test_a_legend_with_a_free_corner_changes_nothing),
         cmocka_unit_test(test_marked_times_stay_clear_of_legend_and_labels),
         cmocka_unit_test(test_legend_grows_a_panel_with_a_right_axis),
+        cmocka_unit_test(test_warmup_legend_of_many_curves_keeps_the_axis_near_the_data),
         cmocka_unit_test(test_stacked_labels_keep_apart),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);

@@ -20,7 +20,8 @@
 static int is_output_option(const char *tok)
 {
     static const char *const outputs[] = {"--plot",    "--json",         "--csv",         "--map",
-                                          "--map-csv", "--map-setpoint", "--write-config"};
+                                          "--map-csv", "--map-setpoint", "--write-config",
+                                          "-o"};
     size_t i;
     for (i = 0; i < sizeof outputs / sizeof outputs[0]; i++)
         if (strcmp(tok, outputs[i]) == 0)

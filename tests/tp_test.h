@@ -179,7 +179,8 @@ static inline int tp_scratch_group_teardown(void **state)
  * --help examples' outputs, which tests put into a scratch directory. */
 static inline int tp_looks_like_output(const char *tok)
 {
-    static const char *const ext[] = {".png", ".svg", ".pdf", ".csv", ".json", ".yaml"};
+    static const char *const ext[] = {".png", ".svg", ".pdf", ".csv", ".json", ".yaml",
+                                      ".html", ".md"};
     size_t i, n = strlen(tok);
     if (tok[0] == '-' || strchr(tok, '=') || strchr(tok, '/'))
         return 0;
@@ -262,7 +263,7 @@ static inline void tp_run_program(const tp_scratch *s, const char *exe, const ch
         posix_spawn_file_actions_addopen(&fa, 1, out_path, O_WRONLY | O_CREAT | O_TRUNC, 0644), 0);
     assert_int_equal(
         posix_spawn_file_actions_addopen(&fa, 2, err_path, O_WRONLY | O_CREAT | O_TRUNC, 0644), 0);
-    assert_int_equal(posix_spawn(&pid, exe, &fa, NULL, argv, environ), 0);
+    assert_int_equal(posix_spawnp(&pid, exe, &fa, NULL, argv, environ), 0);
     posix_spawn_file_actions_destroy(&fa);
     assert_int_equal(waitpid(pid, &wstatus, 0), pid);
     r->status = WIFEXITED(wstatus) ? WEXITSTATUS(wstatus) : -1;
@@ -278,6 +279,21 @@ static inline void tp_run_program(const tp_scratch *s, const char *exe, const ch
 static inline void tp_run_tepid(const tp_scratch *s, const char *const *args, tp_run_result *r)
 {
     tp_run_program(s, TP_TEPID_EXE, args, r);
+}
+
+/* The full path of program `name` found on PATH into out (TP_TEST_PATH bytes); 0 when found,
+ * -1 when not (tests that need an outside program skip then, naming its package). */
+static inline int tp_find_program(const char *name, char *out)
+{
+    const char *path = getenv("PATH");
+    while (path && *path) {
+        size_t n = strcspn(path, ":");
+        int len = snprintf(out, TP_TEST_PATH, "%.*s/%s", n ? (int)n : 1, n ? path : ".", name);
+        if (len > 0 && len < TP_TEST_PATH && access(out, X_OK) == 0)
+            return 0;
+        path += n + (path[n] == ':');
+    }
+    return -1;
 }
 
 static inline void tp_run_clear(tp_run_result *r)

@@ -45,6 +45,7 @@
 #define TP_SWEEP_MAX_POINTS 200000 /* grid points or samples in one sweep (~370 B each) */
 #define TP_SWEEP_MAX_JOBS 256      /* worker threads of a sweep */
 #define TP_PATH_MAX 4096           /* longest output path accepted, bytes */
+#define TP_REPORT_SVG_MAX (64L * 1024 * 1024) /* largest figure a report reads back, bytes */
 #define TP_SWEEP_MAX_AXES 2        /* --vary parameters in one sweep grid */
 #define TP_SWEEP_MAX_PARAMS 16     /* --spread parameters in one sweep */
 #define TP_SWEEP_SHARD_MAX_BYTES (512L * 1024 * 1024) /* largest shard file --merge reads */

@@ -6,7 +6,7 @@
 const tp_verb *const tp_verbs[] = {
     &tp_cmd_warmup, &tp_cmd_steady, &tp_cmd_budget,  &tp_cmd_guard, &tp_cmd_fit,
     &tp_cmd_sweep,  &tp_cmd_tune,   &tp_cmd_explain, &tp_cmd_check, &tp_cmd_materials,
-    &tp_cmd_size,   &tp_cmd_cool,
+    &tp_cmd_size,   &tp_cmd_cool, &tp_cmd_report,
 };
 const size_t tp_verbs_count = sizeof tp_verbs / sizeof tp_verbs[0];
 

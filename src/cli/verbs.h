@@ -19,6 +19,7 @@ extern const tp_verb tp_cmd_guard;
 extern const tp_verb tp_cmd_fit;
 extern const tp_verb tp_cmd_sweep;
 extern const tp_verb tp_cmd_cool;
+extern const tp_verb tp_cmd_report;
 
 /* Every verb, in the order the general help lists them (tp_verbs_count entries). */
 extern const tp_verb *const tp_verbs[];

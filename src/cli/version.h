@@ -8,4 +8,8 @@
  * cminpack, each with the version the build found (CMakeLists.txt passes them in). */
 void tp_version_print(FILE *fp);
 
+/* The libraries of tp_version_print with their versions, in its order, into names[] and
+ * versions[] (static strings), at most `max`; returns how many. */
+int tp_version_libraries(const char **names, const char **versions, int max);
+
 #endif

@@ -10,6 +10,11 @@
 #include "surfacemap.h"
 #include "units.h"
 
+#define TP_FIGURE_WARMUP_LEGEND 6 /* temperature curves a warm-up chart of the default size
+                                     legends without growing its axis far */
+#define TP_FIGURE_WARMUP_TALL 1000 /* height of a warm-up chart with more, px or pt */
+#define TP_FIGURE_GUARD_HEALTHY 3 /* healthy readings drawn: nominal, slowest, deepest dip */
+
 tp_status tp_figure_warmup(const char *path, const char *title, const tp_network *net,
                            const tp_warmup *w, tp_diag *d)
 {
@@ -91,13 +96,21 @@ tp_status tp_figure_warmup(const char *path, const char *title, const tp_network
                                 &setpoint, isfinite(setpoint.y) ? 1u : 0u, 2.0};
     panels[1] = (tp_plot_panel){"power (W)", net->has_control ? "duty" : NULL, power_series,
                                 (size_t)np, NULL, 0, 1.0};
-    chart = (tp_plot_chart){title, "time (min)", panels, 2, 0, 0};
+    /* Many temperatures make a tall legend: a taller figure gives it room beside the curves
+     * instead of an axis grown far past the data to clear it. */
+    chart = (tp_plot_chart){title, "time (min)", panels, 2, 0,
+                            tp_figure_warmup_height((size_t)ns)};
     st = tp_plot_chart_write_marked(path, &chart, marks,
                                     tp_figure_warmup_marks(&w->metrics, marks, mark_text), d);
     free(buf);
     free(temp_series);
     free(labels);
     return st;
+}
+
+int tp_figure_warmup_height(size_t curves)
+{
+    return curves > TP_FIGURE_WARMUP_LEGEND ? TP_FIGURE_WARMUP_TALL : 0;
 }
 
 size_t tp_figure_warmup_marks(const tp_metrics *m, tp_plot_vline marks[TP_FIGURE_MARKS],
@@ -200,4 +213,141 @@ tp_status tp_figure_size(const char *path, const char *title, const tp_size_resu
     st = tp_plot_chart_write_marked(path, &chart, &answer, 1, d);
     free(buf);
     return st;
+}
+
+/* ---- plot --------------------------------------------------------------------------------- */
+
+/* Minutes and degC of a guard trace, the reading kept inside [lo, hi] so a pinned sensor does not
+ * flatten the chart. */
+static int guard_series(const tp_guard_trace *tr, double lo, double hi, double *x, double *y)
+{
+    long i;
+    int clipped = 0;
+    for (i = 0; i < tr->n; i++) {
+        double v = tr->reading[i] - TP_KELVIN_0C;
+        x[i] = tr->t[i] / 60.0;
+        if (v < lo || v > hi)
+            clipped = 1;
+        y[i] = v < lo ? lo : v > hi ? hi : v;
+    }
+    return clipped;
+}
+
+tp_status tp_figure_guard(const char *path, const char *title_of_case, const tp_guard_study *st,
+                          tp_diag *d)
+{
+    tp_plot_series healthy[TP_FIGURE_GUARD_HEALTHY], faults[2][TP_FAULT_COUNT];
+    tp_plot_panel panels[3];
+    tp_plot_hline lines[4];
+    tp_plot_chart chart;
+    char title[256], labels[TP_FAULT_COUNT][96];
+    int pick[TP_FIGURE_GUARD_HEALTHY] = {0, 0, 0}, np = 1, nh = 0, nl = 0, c, f, from;
+    size_t nf[2] = {0, 0}, total = 0, off = 0;
+    double *buf, lo, hi, room = st->corners[0].room - TP_KELVIN_0C;
+    tp_status rs;
+    /* The nominal corner, the slowest to the setpoint, and the deepest dip. */
+    {
+        int slow = 0, deep = 0;
+        for (c = 1; c < st->n_corners; c++) {
+            const tp_guard_corner *a = &st->corners[c], *b = &st->corners[slow];
+            if (isfinite(b->t_setpoint) &&
+                (!isfinite(a->t_setpoint) || a->t_setpoint > b->t_setpoint))
+                slow = c;
+            if (a->dip > st->corners[deep].dip)
+                deep = c;
+        }
+        if (slow != 0)
+            pick[np++] = slow;
+        if (deep != 0 && deep != slow)
+            pick[np++] = deep;
+    }
+    for (c = 0; c < st->n_corners; c++)
+        if (st->corners[c].room - TP_KELVIN_0C < room)
+            room = st->corners[c].room - TP_KELVIN_0C;
+    lo = room - 10.0;
+    hi = (isfinite(st->used.ceiling) ? st->used.ceiling : st->setpoint) - TP_KELVIN_0C + 30.0;
+    for (c = 0; c < np; c++)
+        total += (size_t)st->corners[pick[c]].trace.n;
+    for (f = 0; f < TP_FAULT_COUNT; f++)
+        for (from = 0; from < 2; from++)
+            total += (size_t)st->faults[f][from].trace.n;
+    buf = malloc(2 * (total > 0 ? total : 1) * sizeof *buf);
+    if (!buf)
+        return TP_ERR_NOMEM;
+    for (c = 0; c < np; c++) {
+        const tp_guard_trace *tr = &st->corners[pick[c]].trace;
+        guard_series(tr, lo, hi, buf + off, buf + off + (size_t)tr->n);
+        healthy[nh++] = (tp_plot_series){st->corners[pick[c]].name, buf + off,
+                                         buf + off + (size_t)tr->n, (size_t)tr->n, c, 0, 0};
+        off += 2 * (size_t)tr->n;
+    }
+    /* A fault has one label in both panels, so that it keeps its colour (the chart gives a
+     * label one colour): "(clipped)" when either of its runs is. */
+    for (f = 0; f < TP_FAULT_COUNT; f++) {
+        int clipped = 0;
+        size_t at[2] = {off, off};
+        for (from = 0; from < 2; from++) {
+            const tp_guard_trace *tr = &st->faults[f][from].trace;
+            at[from] = off;
+            if (tr->n == 0)
+                continue;
+            clipped |= guard_series(tr, lo, hi, buf + off, buf + off + (size_t)tr->n);
+            off += 2 * (size_t)tr->n;
+        }
+        snprintf(labels[f], sizeof labels[0], "%s%s", tp_guard_fault_phrase(f),
+                 clipped ? " (clipped)" : "");
+        for (from = 0; from < 2; from++) {
+            const tp_guard_trace *tr = &st->faults[f][from].trace;
+            if (tr->n > 0)
+                faults[from][nf[from]++] =
+                    (tp_plot_series){labels[f], buf + at[from], buf + at[from] + (size_t)tr->n,
+                                     (size_t)tr->n, 0, 0, 0};
+        }
+    }
+    lines[nl++] = (tp_plot_hline){"setpoint", st->setpoint - TP_KELVIN_0C};
+    if (isfinite(st->used.ceiling))
+        lines[nl++] = (tp_plot_hline){"ceiling", st->used.ceiling - TP_KELVIN_0C};
+    /* The end of the rise check only when it stands clear of the other lines (labels
+     * overlap within a few kelvin). */
+    if (isfinite(st->used.approach) && st->used.approach >= 3.0 &&
+        !(fabs(st->used.approach - st->used.hold_band) < 3.0))
+        lines[nl++] = (tp_plot_hline){"rise check ends", st->setpoint - st->used.approach -
+                                                              TP_KELVIN_0C};
+    if (isfinite(st->used.hold_band))
+        lines[nl++] = (tp_plot_hline){"hold band", st->setpoint - st->used.hold_band -
+                                                        TP_KELVIN_0C};
+    panels[0] = (tp_plot_panel){"healthy reading (degC)", NULL, healthy, (size_t)nh, lines,
+                                (size_t)nl, 1.0};
+    panels[1] = (tp_plot_panel){"faults from cold (degC)", NULL, faults[0], nf[0], lines,
+                                (size_t)nl, 1.0};
+    panels[2] = (tp_plot_panel){"faults from hold (degC)", NULL, faults[1], nf[1], lines,
+                                (size_t)nl, 1.0};
+    snprintf(title, sizeof title, "guard: %s", title_of_case);
+    chart = (tp_plot_chart){title, "time (min)", panels, 3, 0, 1000};
+    rs = tp_plot_chart_write(path, &chart, d);
+    free(buf);
+    return rs;
+}
+
+tp_status tp_figure_losses(const char *path, const char *title, const tp_steadyreport *r,
+                           tp_diag *d)
+{
+    const char *labels[TP_PATH_COUNT], *texts[TP_PATH_COUNT];
+    char text[TP_PATH_COUNT][48];
+    double values[TP_PATH_COUNT];
+    size_t n = 0;
+    int p;
+    tp_plot_bars bars;
+    for (p = TP_PATH_INTERNAL + 1; p < TP_PATH_COUNT; p++) {
+        if (p == TP_PATH_WALLS || fabs(r->flows.path[p]) < 1e-12)
+            continue;
+        labels[n] = tp_network_loss_path_name((tp_loss_path)p);
+        values[n] = r->flows.path[p];
+        snprintf(text[n], sizeof text[n], "%.2f W (%.1f %%)", r->flows.path[p],
+                 r->plate_loss != 0 ? 100.0 * r->flows.path[p] / r->plate_loss : 0.0);
+        texts[n] = text[n];
+        n++;
+    }
+    bars = (tp_plot_bars){title, "power (W)", labels, texts, values, n, 0, 0};
+    return tp_plot_bars_write(path, &bars, d);
 }

@@ -6,11 +6,13 @@
 #include <stddef.h>
 
 #include "diag.h"
+#include "guard.h"
 #include "metrics.h"
 #include "network.h"
 #include "plot.h"
 #include "size.h"
 #include "status.h"
+#include "steadyreport.h"
 #include "warmup.h"
 
 /* Draw a warm-up run under `title`: temperatures, surface estimate, reading and setpoint over
@@ -18,6 +20,11 @@
  * extension. Atomic (plot.h). */
 tp_status tp_figure_warmup(const char *path, const char *title, const tp_network *net,
                            const tp_warmup *w, tp_diag *d);
+
+/* The height of a warm-up chart whose temperature panel has `curves` curves: 0 (the default)
+ * for a few; taller for many, so that their legend finds room beside the curves without the
+ * temperature axis growing far past the data. */
+int tp_figure_warmup_height(size_t curves);
 
 #define TP_FIGURE_MARKS 2         /* times marked on the warm-up chart */
 #define TP_FIGURE_MARK_TEXT 64    /* bytes of a mark's label */
@@ -39,5 +46,18 @@ tp_status tp_figure_surface(const char *path, const tp_net_grid *g, const double
  * reference line and the answer marked; the format follows the extension. Atomic (plot.h). */
 tp_status tp_figure_size(const char *path, const char *title, const tp_size_result *r,
                          double within, tp_diag *d);
+
+/* Draw guard's study under the title "guard: <title_of_case>": the nominal, slowest and
+ * deepest-dipping healthy readings, and every fault's reading from cold and from hold, with the
+ * setpoint, ceiling, end of the rise check and hold band (as `tepid guard --plot` draws it).
+ * Atomic (plot.h). */
+tp_status tp_figure_guard(const char *path, const char *title_of_case, const tp_guard_study *st,
+                          tp_diag *d);
+
+/* Draw where the watts of a steady state go (r->flows by loss path, as `tepid steady` lists
+ * them: the paths that carry any, the enclosure's walls left out) as horizontal bars labelled
+ * "12.34 W (56.7 %)" under `title`. Atomic (plot.h). */
+tp_status tp_figure_losses(const char *path, const char *title, const tp_steadyreport *r,
+                           tp_diag *d);
 
 #endif

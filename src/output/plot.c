@@ -120,7 +120,7 @@ static int plot_load_plplot(char *why, size_t size)
 #define PLOT_OUTLINE_W 2.5      /* plate outline width at the default size */
 #define PLOT_MARK_SCALE 0.7     /* marker glyph size, character heights */
 #define PLOT_LEGEND_SCALE 0.9   /* legend text size, character heights */
-#define PLOT_LEGEND_SPACING 2.2 /* legend line pitch, legend character heights */
+#define PLOT_LEGEND_SPACING 1.9 /* legend line pitch, legend character heights */
 #define PLOT_TITLE_SCALE 1.2    /* title size, character heights */
 #define PLOT_TITLE_W 0.8        /* width of a title character, title character heights: the sans
                                    font measured 0.64 (prose) to 0.72 (a file path) on lines of
@@ -2268,4 +2268,139 @@ tp_status tp_plot_map_write(const char *path, const tp_plot_map *map, tp_diag *d
     st = plot_write(path, fmt, mp.width, mp.height, map_draw, &mp, d);
     map_plan_free(&mp);
     return st;
+}
+
+/* ---- bar charts -------------------------------------------------------------------------- */
+
+#define PLOT_BAR_CHAR_W 0.75 /* width of a label character, character heights (measured on the
+                                sans font's digits and lower case, with room) */
+
+typedef struct bars_plan {
+    const tp_plot_bars *b;
+    int width, height;
+    double scale, ht;
+    plot_axis x;
+    double vx0, vx1, vy0, vy1; /* viewport, mm */
+    title_plan title;
+} bars_plan;
+
+static void bars_value_text(const tp_plot_bars *b, size_t k, char *buf, size_t size)
+{
+    if (b->value_text && b->value_text[k])
+        text_copy(buf, b->value_text[k]);
+    else
+        snprintf(buf, size, "%.4g", b->value[k]);
+}
+
+static void bars_draw(const void *plan)
+{
+    const bars_plan *bp = plan;
+    const tp_plot_bars *b = bp->b;
+    char text[PLOT_TEXT_SIZE];
+    double n = (double)b->n, xs = (bp->x.hi - bp->x.lo) / (bp->vx1 - bp->vx0);
+    size_t k;
+    plschr(bp->ht, 1.0);
+    plsvpa(bp->vx0, bp->vx1, bp->vy0, bp->vy1);
+    plwind(bp->x.lo, bp->x.hi, 0.0, n);
+    plcol0(COL_GRID);
+    plwidth(PLOT_AXIS_W * bp->scale);
+    box_draw("g", &bp->x, "", NULL);
+    for (k = 0; k < b->n; k++) {
+        double y0 = n - (double)k - 0.82, y1 = n - (double)k - 0.18, v = b->value[k];
+        PLFLT px[4] = {0.0, v, v, 0.0}, py[4] = {y0, y0, y1, y1};
+        plcol0(COL_SERIES);
+        plfill(4, px, py);
+        plcol0(COL_INK);
+        bars_value_text(b, k, text, sizeof text);
+        plptex(v >= 0 ? v + 0.8 * bp->ht * xs : v - 0.8 * bp->ht * xs, 0.5 * (y0 + y1) - 0.12,
+               1.0, 0.0, v >= 0 ? 0.0 : 1.0, text);
+        text_copy(text, b->label[k]);
+        plmtex("lv", 0.8, 1.0 - ((double)k + 0.62) / n, 1.0, text);
+    }
+    plcol0(COL_INK);
+    plwidth(PLOT_AXIS_W * bp->scale);
+    box_draw("bcnst", &bp->x, "bc", NULL);
+    text_copy(text, b->xlabel);
+    plmtex("b", 3.3, 0.5, 0.5, text);
+    title_draw(&bp->title, bp->width * PLOT_MM_PER_PX, bp->vx0, bp->vx1);
+}
+
+static tp_status bars_plan_build(bars_plan *bp, const tp_plot_bars *b, const char *path,
+                                 tp_diag *d)
+{
+    double page_w, page_h, top, bottom, left, right, lo = 0.0, hi = 0.0;
+    size_t k, longest = 1, longest_value = 1;
+    char text[PLOT_TEXT_SIZE];
+    tp_status st;
+    memset(bp, 0, sizeof *bp);
+    bp->b = b;
+    if (b->n == 0 || b->n > TP_PLOT_BARS_MAX || !b->label || !b->value) {
+        tp_diag_error(d, tp_diag_loc_none(), path, NULL, "a bar chart takes 1 to %d bars, got %zu",
+                      TP_PLOT_BARS_MAX, b->n);
+        return TP_ERR_USAGE;
+    }
+    for (k = 0; k < b->n; k++) {
+        if (!b->label[k] || !isfinite(b->value[k])) {
+            tp_diag_error(d, tp_diag_loc_none(), path, NULL,
+                          "bar %zu has no label or a value that is not finite", k + 1);
+            return TP_ERR_USAGE;
+        }
+        lo = fmin(lo, b->value[k]);
+        hi = fmax(hi, b->value[k]);
+        if (text_chars(b->label[k]) > longest)
+            longest = text_chars(b->label[k]);
+        bars_value_text(b, k, text, sizeof text);
+        if (text_chars(text) > longest_value)
+            longest_value = text_chars(text);
+    }
+    bp->width = b->width;
+    bp->height = b->height ? b->height : (int)(170 + 56 * b->n);
+    if (bp->height > TP_PLOT_SIZE_MAX)
+        bp->height = TP_PLOT_SIZE_MAX;
+    st = figure_size(&bp->width, &bp->height, TP_PLOT_BARS_WIDTH, 500, path, d);
+    if (st != TP_OK)
+        return st;
+    bp->scale = figure_scale(bp->width, bp->height, TP_PLOT_BARS_WIDTH, 500);
+    bp->ht = PLOT_CHAR_MM * bp->scale;
+    page_w = bp->width * PLOT_MM_PER_PX;
+    page_h = bp->height * PLOT_MM_PER_PX;
+    top = title_fit(&bp->title, b->title, page_w, bp->ht);
+    bottom = 4.8 * bp->ht;
+    left = (1.6 + PLOT_BAR_CHAR_W * (double)longest) * bp->ht;
+    right = 2.0 * bp->ht;
+    if (left > 0.45 * page_w)
+        left = 0.45 * page_w;
+    bp->vx0 = left;
+    bp->vx1 = page_w - right;
+    bp->vy0 = bottom;
+    bp->vy1 = page_h - top;
+    if (bp->vx1 - bp->vx0 < 10.0 * bp->ht || bp->vy1 - bp->vy0 < 2.0 * bp->ht) {
+        tp_diag_error(d, tp_diag_loc_none(), path, "make the figure larger",
+                      "the figure is too small for its bars");
+        return TP_ERR_USAGE;
+    }
+    /* Room at the end of the longest bar for its value. */
+    {
+        double room = (1.4 + PLOT_BAR_CHAR_W * (double)longest_value) * bp->ht / (bp->vx1 - bp->vx0);
+        double span = hi - lo > 0 ? hi - lo : 1.0;
+        if (room > 0.6)
+            room = 0.6;
+        axis_fit(&bp->x, lo < 0 ? lo - span * room / (1.0 - room) : 0.0,
+                 hi > 0 ? hi + span * room / (1.0 - room) : 0.0, 0.0,
+                 (bp->vx1 - bp->vx0) / (9.0 * bp->ht));
+    }
+    return TP_OK;
+}
+
+tp_status tp_plot_bars_write(const char *path, const tp_plot_bars *bars, tp_diag *d)
+{
+    const plot_format *fmt = figure_target(path, bars, "bar chart", d);
+    bars_plan bp;
+    tp_status st;
+    if (!fmt)
+        return TP_ERR_USAGE;
+    st = bars_plan_build(&bp, bars, path, d);
+    if (st != TP_OK)
+        return st;
+    return plot_write(path, fmt, bp.width, bp.height, bars_draw, &bp, d);
 }

@@ -22,6 +22,8 @@
 #define TP_PLOT_TITLE_LINES 2    /* a long title wraps onto at most this many lines */
 #define TP_PLOT_LINE_BYTES 640   /* bytes of one wrapped title line, NUL included */
 #define TP_PLOT_VLINES_MAX 8     /* marked times (vertical lines) in one chart */
+#define TP_PLOT_BARS_WIDTH 1000  /* default bar-chart width, px or pt */
+#define TP_PLOT_BARS_MAX 24      /* bars in one bar chart */
 
 /* One curve. Points with a non-finite x or y are skipped (a line breaks there). */
 #define TP_PLOT_GAPS 8 /* tp_plot_series.dash flag: intended gaps */
@@ -177,5 +179,21 @@ typedef struct tp_plot_map {
  * TP_ERR_USAGE, more than TP_PLOT_CELLS_MAX cells TP_ERR_LIMIT. An extent of zero width is
  * widened. The plate keeps its shape unless it is so slender that a side would be unreadable. */
 tp_status tp_plot_map_write(const char *path, const tp_plot_map *map, tp_diag *d);
+
+/* A horizontal bar chart: one bar per category (top to bottom in the order given), each
+ * labelled with its category on the left and its value at its end. */
+typedef struct tp_plot_bars {
+    const char *title, *xlabel;   /* xlabel: the value axis with its unit, e.g. "power (W)" */
+    const char *const *label;     /* per bar: its category */
+    const char *const *value_text; /* per bar: the text written at its end (NULL: the value) */
+    const double *value;          /* per bar, in the axis unit */
+    size_t n;
+    int width, height; /* pixels; 0 means TP_PLOT_BARS_WIDTH and a height for n bars */
+} tp_plot_bars;
+
+/* Write a bar chart to `path`. Format, size limits, atomic write and status as for
+ * tp_plot_chart_write; no bars, more than TP_PLOT_BARS_MAX, a missing label or a value that is
+ * not finite is TP_ERR_USAGE. */
+tp_status tp_plot_bars_write(const char *path, const tp_plot_bars *bars, tp_diag *d);
 
 #endif

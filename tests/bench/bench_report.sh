@@ -1,0 +1,33 @@
+#!/usr/bin/env bash
+# Benchmark of `tepid report` (issue 19): the 24 V demo's HTML review (target under 2 s) and the
+# gridded demo's (configs/small-pad-grid.yaml, target under 5 s), each on one core, best and
+# median of N runs (default 3), printed as "report_<demo>_seconds best=... median=...". The
+# report runs warmup, steady, budget and guard and draws every figure, so it costs about their
+# sum plus PLplot's SVG output. Exits 1 when a median misses its target.
+# Usage: tests/bench/bench_report.sh [BUILD_DIR] [RUNS]
+set -euo pipefail
+here="$(cd "$(dirname "$0")/../.." && pwd)"
+build="${1:-$here/build}"
+runs="${2:-3}"
+exe="$build/tepid"
+[ -x "$exe" ] || { echo "no $exe: build first" >&2; exit 2; }
+out="$(mktemp -d)"
+trap 'rm -rf "$out"' EXIT
+status=0
+for pair in workshop-bed-24v:2.0 small-pad-grid:5.0; do
+  demo="${pair%%:*}"
+  target="${pair##*:}"
+  times=()
+  for _ in $(seq "$runs"); do
+    start=$(date +%s.%N)
+    taskset -c 0 "$exe" report "$here/configs/$demo.yaml" -o "$out/review.html" -q 2>/dev/null
+    end=$(date +%s.%N)
+    times+=("$(awk -v a="$start" -v b="$end" 'BEGIN { printf "%.6f", b - a }')")
+  done
+  printf '%s\n' "${times[@]}" | sort -g | awk -v n="$runs" -v d="$demo" -v t="$target" '
+    { s[NR] = $1 }
+    END { printf "report_%s_seconds best=%.3f median=%.3f runs=%d target=%.3f\n", d, s[1],
+                 s[int((n + 1) / 2)], n, t
+          exit (s[int((n + 1) / 2)] < t ? 0 : 1) }' || status=1
+done
+exit "$status"

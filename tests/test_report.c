@@ -1,0 +1,686 @@
+/* tepid report as a reader sees it: the figures of its tables equal those of the verbs' JSON on
+ * the demos (numbers parsed back from the Markdown tables, within the rounding the report
+ * prints), the HTML is self-contained and passes an HTML5 checker, headless Chromium renders
+ * it to PNG and PDF (A4 and Letter) with every section heading and nothing off the page, the
+ * figure folder of a Markdown report is replaced as a whole, and bad outputs exit 2 before any
+ * computation. */
+#include "tp_test.h"
+
+#include <ctype.h>
+
+#define DEMO(name) TP_SOURCE_DIR "/configs/" name ".yaml"
+
+/* ---- running ----------------------------------------------------------------------------- */
+
+/* Run tepid with `args` and expect exit 0; returns nothing, fails with stderr otherwise. */
+static void run_ok(const tp_scratch *s, const char *const *args)
+{
+    tp_run_result r;
+    tp_run_tepid(s, args, &r);
+    if (r.status != 0)
+        fail_msg("tepid %s %s: exit %d\n%s", args[0], args[1], r.status, r.err);
+    tp_run_clear(&r);
+}
+
+/* `verb FILE [--set SET] --json PATH -q`, parsed. */
+static cJSON *verb_json(const tp_scratch *s, const char *verb, const char *file, const char *set)
+{
+    char path[TP_TEST_PATH];
+    const char *args[10];
+    int n = 0;
+    tp_scratch_path(s, "verb.json", path, sizeof path);
+    args[n++] = verb;
+    args[n++] = file;
+    if (set) {
+        args[n++] = "--set";
+        args[n++] = set;
+    }
+    args[n++] = "--json";
+    args[n++] = path;
+    args[n++] = "-q";
+    args[n] = NULL;
+    run_ok(s, args);
+    return tp_read_json(path);
+}
+
+/* ---- the Markdown tables ----------------------------------------------------------------- */
+
+#define CELLS_MAX 12
+
+typedef struct md_row {
+    char cell[CELLS_MAX][256];
+    int n;
+} md_row;
+
+/* The cells of one "| a | b |" line, Markdown escapes undone. */
+static int split_row(const char *line, md_row *row)
+{
+    const char *p = line;
+    row->n = 0;
+    if (*p != '|')
+        return -1;
+    p++;
+    while (*p && *p != '\n' && row->n < CELLS_MAX) {
+        size_t o = 0;
+        while (*p == ' ')
+            p++;
+        while (*p && *p != '\n' && *p != '|') {
+            if (*p == '\\' && p[1])
+                p++;
+            if (o < sizeof row->cell[0] - 1)
+                row->cell[row->n][o++] = *p;
+            p++;
+        }
+        while (o > 0 && row->cell[row->n][o - 1] == ' ')
+            o--;
+        row->cell[row->n][o] = '\0';
+        /* a verdict is set in bold: **PASS** */
+        if (strncmp(row->cell[row->n], "**", 2) == 0 && strstr(row->cell[row->n] + 2, "**")) {
+            char *c = row->cell[row->n], *e = strstr(c + 2, "**");
+            memmove(e, e + 2, strlen(e + 2) + 1);
+            memmove(c, c + 2, strlen(c + 2) + 1);
+        }
+        if (*p == '|')
+            p++;
+        if (*p == '\n' || !*p)
+            return row->n + 1 == 0 ? -1 : ++row->n;
+        row->n++;
+    }
+    return row->n;
+}
+
+/* The rows (header excluded) of the table captioned `caption` (a bold line before it), or of
+ * the first table after the heading "## caption" when it is a section's; the count. */
+static int md_table(const char *md, const char *caption, md_row *rows, int max)
+{
+    char want[256];
+    const char *p;
+    int n = 0;
+    snprintf(want, sizeof want, "\n**%s**\n", caption);
+    p = strstr(md, want);
+    if (!p) {
+        snprintf(want, sizeof want, "\n## %s\n", caption);
+        p = strstr(md, want);
+    }
+    if (!p)
+        fail_msg("the report has no table '%s'", caption);
+    p = strstr(p + 1, "\n|");
+    assert_non_null(p);
+    p = strchr(p + 1, '\n'); /* past the header */
+    p = strchr(p + 1, '\n'); /* past the alignment row */
+    while (p && p[1] == '|' && n < max) {
+        split_row(p + 1, &rows[n++]);
+        p = strchr(p + 1, '\n');
+    }
+    return n;
+}
+
+/* The row whose first cell is `first`. */
+static const md_row *find_row(const md_row *rows, int n, const char *first)
+{
+    int i;
+    for (i = 0; i < n; i++)
+        if (strcmp(rows[i].cell[0], first) == 0)
+            return &rows[i];
+    fail_msg("no row '%s'", first);
+    return NULL;
+}
+
+/* A printed number against the verb's value: within half a unit of the last digit printed
+ * (closed form: the rounding of "%.Nf"; "%.4g" likewise in its own exponent). */
+static void check_printed(const char *what, const char *text, double v)
+{
+    char *end;
+    double x = strtod(text, &end), tol;
+    const char *dot = strchr(text, '.');
+    int dec = 0;
+    if (end == text)
+        fail_msg("%s: '%s' is not a number", what, text);
+    if (dot && dot < end)
+        dec = (int)(strspn(dot + 1, "0123456789"));
+    tol = 0.5 * pow(10.0, -dec) * (1.0 + 1e-9);
+    if (memchr(text, 'e', (size_t)(end - text))) /* %.4g in exponent form */
+        tol = 5e-4 * fabs(x);
+    tp_check_abs(what, x, v, tol + 1e-12);
+}
+
+/* A duration as tp_summary_duration prints it ("7 min 39 s", "1 h 02 min", "45.0 s"): the
+ * seconds, and the tolerance of its truncation (whole seconds, whole minutes, 0.05 s). */
+static double printed_duration(const char *text, double *tol)
+{
+    int a, b;
+    double s;
+    *tol = 0.0;
+    if (sscanf(text, "%d h %d min", &a, &b) == 2) {
+        *tol = 60.0;
+        return 3600.0 * a + 60.0 * b;
+    }
+    if (sscanf(text, "%d min %d s", &a, &b) == 2) {
+        *tol = 1.0;
+        return 60.0 * a + b;
+    }
+    if (sscanf(text, "%lf s", &s) == 1) {
+        *tol = 0.05;
+        return s;
+    }
+    fail_msg("'%s' is not a duration", text);
+    return 0.0;
+}
+
+static double json_num(const cJSON *obj, const char *key)
+{
+    const cJSON *v = cJSON_GetObjectItemCaseSensitive(obj, key);
+    if (!cJSON_IsNumber(v))
+        fail_msg("JSON has no number '%s'", key);
+    return v->valuedouble;
+}
+
+/* ---- the figures against the verbs ------------------------------------------------------- */
+
+#define ROWS_MAX 64
+
+/* Every row of the warm-up metrics table against warmup --json by the key it names. */
+static void compare_warmup(const char *md, const cJSON *w)
+{
+    md_row rows[ROWS_MAX];
+    int n = md_table(md, "Warm-up metrics", rows, ROWS_MAX), i;
+    assert_true(n >= 8);
+    for (i = 0; i < n; i++) {
+        const char *key = rows[i].cell[3];
+        double v = json_num(w, key), tol = 0.0;
+        if (strcmp(rows[i].cell[2], "") == 0) {
+            double x = printed_duration(rows[i].cell[1], &tol);
+            tp_check_abs(key, x, v, tol);
+        } else if (strcmp(rows[i].cell[2], "kJ") == 0) {
+            check_printed(key, rows[i].cell[1], v * 1e-3);
+        } else {
+            check_printed(key, rows[i].cell[1], v);
+        }
+    }
+}
+
+/* The loss split and the summary's holding power, duty and margin against steady --json. */
+static void compare_steady(const char *md, const cJSON *st)
+{
+    md_row rows[ROWS_MAX];
+    const cJSON *losses = cJSON_GetObjectItemCaseSensitive(st, "losses_W"), *l;
+    int n;
+    const md_row *r;
+    n = md_table(md, cJSON_HasObjectItem(st, "margin") ? "Where the holding power goes"
+                                                       : "Where the full power goes",
+                 rows, ROWS_MAX);
+    cJSON_ArrayForEach(l, losses)
+    {
+        r = find_row(rows, n, l->string);
+        check_printed(l->string, r->cell[1], l->valuedouble);
+    }
+    check_printed("total", find_row(rows, n, "total")->cell[1], json_num(st, "power_W"));
+    if (cJSON_HasObjectItem(st, "margin")) {
+        double p, duty;
+        n = md_table(md, "Summary", rows, ROWS_MAX);
+        r = find_row(rows, n, "holding power");
+        assert_int_equal(sscanf(r->cell[1], "%lf W at duty %lf", &p, &duty), 2);
+        tp_check_abs("holding power", p, json_num(st, "power_W"), 0.005);
+        tp_check_abs("holding duty", duty, json_num(st, "duty"), 0.0005);
+        check_printed("margin", find_row(rows, n, "margin")->cell[1], json_num(st, "margin"));
+    }
+}
+
+/* Every check of the budget (verdict, value, limit) and the currents against budget --json. */
+static void compare_budget(const char *md, const cJSON *b)
+{
+    static const struct {
+        const char *row, *key;
+    } q[] = {{"cold-start current", "cold_current_A"},
+             {"cold-start power into the heater", "cold_power_W"},
+             {"supply current at cold start", "supply_cold_A"},
+             {"mean power at the running point", "hold_power_W"},
+             {"mean current at the running point", "hold_mean_current_A"}};
+    md_row rows[ROWS_MAX];
+    const cJSON *checks = cJSON_GetObjectItemCaseSensitive(b, "checks"), *c;
+    int n = md_table(md, "Currents and power", rows, ROWS_MAX), k;
+    for (k = 0; k < (int)(sizeof q / sizeof q[0]); k++)
+        check_printed(q[k].row, find_row(rows, n, q[k].row)->cell[1], json_num(b, q[k].key));
+    if (cJSON_GetArraySize(checks) == 0)
+        return;
+    n = md_table(md, "Checks", rows, ROWS_MAX);
+    assert_int_equal(n, cJSON_GetArraySize(checks));
+    k = 0;
+    cJSON_ArrayForEach(c, checks)
+    {
+        const md_row *r = &rows[k++];
+        assert_string_equal(r->cell[1], cJSON_GetObjectItem(c, "check")->valuestring);
+        assert_string_equal(r->cell[0], cJSON_GetObjectItem(c, "verdict")->valuestring);
+        check_printed(r->cell[1], r->cell[2], json_num(c, "value"));
+        if (cJSON_IsNumber(cJSON_GetObjectItem(c, "limit")))
+            check_printed(r->cell[1], r->cell[3], json_num(c, "limit"));
+    }
+}
+
+/* The settings, the corners and the verdict against guard --json. */
+static void compare_guard(const char *md, const cJSON *g)
+{
+    static const char *const names[] = {"rise_window", "rise_min", "approach", "hold_band",
+                                        "hold_grace", "ceiling"};
+    static const char *const keys[] = {"rise_window_s", "rise_min_K",   "approach_K",
+                                       "hold_band_K",   "hold_grace_s", "ceiling_C"};
+    md_row rows[ROWS_MAX];
+    const cJSON *used = cJSON_GetObjectItemCaseSensitive(g, "evaluated");
+    const cJSON *verdict = cJSON_GetObjectItemCaseSensitive(g, "verdict");
+    int n = md_table(md, "Summary", rows, ROWS_MAX), k, trips, unsafe, undetected;
+    const md_row *r = find_row(rows, n, "guard verdict");
+    {
+        const char *v = strchr(r->cell[1], ':');
+        assert_non_null(v);
+        trips = atoi(v + 1);
+        unsafe = atoi(strchr(v, ';') + 1);
+        undetected = atoi(strrchr(v, ';') + 1);
+        assert_int_equal(trips, (int)json_num(verdict, "healthy_trips"));
+        assert_int_equal(unsafe, (int)json_num(verdict, "limit_before_detection"));
+        assert_int_equal(undetected, (int)json_num(verdict, "undetected"));
+        /* guard --strict's test (docs/guard.md): FAIL when a corner trips or a fault crosses a
+         * limit before detection */
+        assert_int_equal(strncmp(r->cell[1], trips || unsafe ? "FAIL" : "PASS", 4), 0);
+    }
+    n = md_table(md, "Protection", rows, ROWS_MAX);
+    for (k = 0; k < 6; k++) {
+        const cJSON *v = cJSON_GetObjectItemCaseSensitive(used, keys[k]);
+        r = find_row(rows, n, names[k]);
+        if (cJSON_IsNumber(v))
+            check_printed(names[k], r->cell[1], v->valuedouble);
+        else
+            assert_string_equal(r->cell[1], "(none)");
+    }
+    n = md_table(md, "Healthy corners (margins: smallest rise minus rise_min, grace minus the "
+                     "longest stay below the band, ceiling minus the highest reading)",
+                 rows, ROWS_MAX);
+    assert_int_equal(n, cJSON_GetArraySize(cJSON_GetObjectItem(g, "corners")));
+}
+
+/* Each node's capacity against explain --json (lumped and raw forms: one row per node). */
+static void compare_explain(const char *md, const cJSON *e)
+{
+    md_row rows[ROWS_MAX * 4];
+    const cJSON *node;
+    int n = md_table(md, "Nodes", rows, ROWS_MAX * 4);
+    cJSON_ArrayForEach(node, cJSON_GetObjectItem(e, "nodes"))
+    {
+        const md_row *r = find_row(rows, n, cJSON_GetObjectItem(node, "id")->valuestring);
+        if (cJSON_HasObjectItem(node, "capacity_J_per_K"))
+            check_printed("capacity", r->cell[1], json_num(node, "capacity_J_per_K"));
+        else
+            check_printed("fixed", r->cell[2], json_num(node, "fixed_C"));
+    }
+}
+
+static void compare_demo(const char *file, const char *set, int grid)
+{
+    tp_scratch s;
+    char out[TP_TEST_PATH];
+    char *md;
+    cJSON *j;
+    const char *args[10];
+    int n = 0;
+    tp_scratch_create(&s);
+    tp_scratch_path(&s, "review.md", out, sizeof out);
+    args[n++] = "report";
+    args[n++] = file;
+    if (set) {
+        args[n++] = "--set";
+        args[n++] = set;
+    }
+    args[n++] = "-o";
+    args[n++] = out;
+    args[n++] = "-q";
+    args[n] = NULL;
+    run_ok(&s, args);
+    md = tp_read_file(out);
+    assert_non_null(md);
+    j = verb_json(&s, "warmup", file, set);
+    compare_warmup(md, j);
+    cJSON_Delete(j);
+    j = verb_json(&s, "steady", file, set);
+    compare_steady(md, j);
+    cJSON_Delete(j);
+    j = verb_json(&s, "budget", file, set);
+    compare_budget(md, j);
+    cJSON_Delete(j);
+    j = verb_json(&s, "guard", file, set);
+    compare_guard(md, j);
+    cJSON_Delete(j);
+    if (!grid) {
+        j = verb_json(&s, "explain", file, set);
+        compare_explain(md, j);
+        cJSON_Delete(j);
+    }
+    free(md);
+    tp_scratch_destroy(&s);
+}
+
+static void test_report_figures_equal_the_verbs_lumped(void **state)
+{
+    (void)state;
+    compare_demo(DEMO("workshop-bed-24v"), NULL, 0);
+    compare_demo(DEMO("enclosed-printer"), NULL, 0);
+}
+
+static void test_report_figures_equal_the_verbs_raw(void **state)
+{
+    (void)state;
+    compare_demo(DEMO("raw-five-node"), NULL, 0);
+}
+
+static void test_report_figures_equal_the_verbs_gridded(void **state)
+{
+    (void)state;
+    compare_demo(DEMO("small-pad-grid"), "bed.grid=[6, 6]", 1);
+}
+
+/* ---- the HTML as a file ------------------------------------------------------------------ */
+
+/* A report of the 24 V demo in the group's scratch folder (made once). */
+static const char *html_report(void)
+{
+    static char path[TP_TEST_PATH];
+    if (!path[0]) {
+        const char *args[] = {"report", DEMO("workshop-bed-24v"), "-o", path, "-q", NULL};
+        tp_scratch_path(tp_group_scratch(), "review.html", path, sizeof path);
+        run_ok(tp_group_scratch(), args);
+    }
+    return path;
+}
+
+/* Nothing is fetched: no script, no external style or image, no URL but the SVG and XLink
+ * namespaces (names, never fetched: W3C, Namespaces in XML 1.0, section 2), every id unique
+ * (figures inlined side by side keep their own ids). */
+static void test_report_html_is_self_contained(void **state)
+{
+    char *html = tp_read_file(html_report()), *p;
+    int figures = 0;
+    (void)state;
+    assert_non_null(html);
+    assert_null(strstr(html, "<script"));
+    assert_null(strstr(html, "<link"));
+    assert_null(strstr(html, "<img"));
+    assert_null(strstr(html, "@import"));
+    assert_null(strstr(html, " src="));
+    for (p = html; (p = strstr(p, "http")) != NULL; p++) {
+        if (strncmp(p, "http://www.w3.org/2000/svg\"", 27) == 0 ||
+            strncmp(p, "http://www.w3.org/1999/xlink\"", 29) == 0)
+            continue;
+        fail_msg("the report names a URL: %.60s", p);
+    }
+    for (p = html; (p = strstr(p, "url(")) != NULL; p++)
+        if (p[4] != '#')
+            fail_msg("the report refers outside itself: %.60s", p);
+    for (p = html; (p = strstr(p, "href=\"")) != NULL; p++)
+        if (p[6] != '#')
+            fail_msg("the report links outside itself: %.60s", p);
+    /* every id once */
+    {
+        size_t n = 0, cap = 4096, i, j;
+        char **ids = calloc(cap, sizeof *ids);
+        assert_non_null(ids);
+        for (p = html; (p = strstr(p, " id=\"")) != NULL && n < cap; p += 5)
+            ids[n++] = p + 5;
+        for (i = 0; i < n; i++)
+            for (j = i + 1; j < n; j++) {
+                size_t len = strcspn(ids[i], "\"");
+                if (len == strcspn(ids[j], "\"") && strncmp(ids[i], ids[j], len) == 0)
+                    fail_msg("id '%.*s' twice", (int)len, ids[i]);
+            }
+        free(ids);
+    }
+    /* three figures (warm-up, loss split, guard), each drawn: many paths, not an empty frame */
+    for (p = html; (p = strstr(p, "<figure")) != NULL; p++) {
+        char *end = strstr(p, "</figure>");
+        int paths = 0;
+        char *q;
+        assert_non_null(end);
+        for (q = p; (q = strstr(q, "<path")) != NULL && q < end; q++)
+            paths++;
+        if (paths < 30)
+            fail_msg("figure %d has only %d paths", figures + 1, paths);
+        figures++;
+    }
+    assert_int_equal(figures, 3);
+    /* the summary's verdicts are words in a marked box: the 24 V demo's budget has one WARN
+     * (its switch's conduction loss above 1 W, budget --json) */
+    tp_check_contains("summary", html, "<span class=\"verdict v-warn\">WARN</span>: 0 FAILs");
+    free(html);
+}
+
+/* tidy (Debian package tidy) finds no error; its exit status is 2 on errors, 1 on warnings
+ * only (tidy(1), "EXIT STATUS"). */
+static void test_report_html_passes_tidy(void **state)
+{
+    char tidy[TP_TEST_PATH];
+    tp_run_result r;
+    (void)state;
+    if (tp_find_program("tidy", tidy) != 0) {
+        print_message("skipped: the HTML5 check needs tidy (Debian package tidy)\n");
+        skip();
+    }
+    {
+        const char *args[] = {"-errors", "-q", html_report(), NULL};
+        tp_run_program(tp_group_scratch(), tidy, args, &r);
+    }
+    if (r.status >= 2)
+        fail_msg("tidy finds errors:\n%s", r.err);
+    tp_run_clear(&r);
+}
+
+/* ---- as Chromium shows and prints it ------------------------------------------------------ */
+
+static const char *const headings[] = {"Summary",      "Cautions",  "Warm-up",
+                                       "Steady state", "Power budget", "Protection",
+                                       "The model",    "The input",  "Provenance"};
+
+/* Print `html` to `pdf` with headless Chromium; its log must hold no console message. */
+static void chromium_print(const char *chromium, const char *html, const char *pdf)
+{
+    const tp_scratch *s = tp_group_scratch();
+    char url[TP_TEST_PATH + 8], arg[TP_TEST_PATH + 32], profile[TP_TEST_PATH];
+    tp_run_result r;
+    snprintf(url, sizeof url, "file://%s", html);
+    snprintf(arg, sizeof arg, "--print-to-pdf=%s", pdf);
+    tp_scratch_path(s, "chromium-profile", profile, sizeof profile);
+    {
+        char user[TP_TEST_PATH + 32];
+        const char *args[] = {"--headless", "--no-sandbox", "--disable-gpu", user,
+                              "--no-pdf-header-footer", "--enable-logging=stderr", "--v=0",
+                              arg, url, NULL};
+        snprintf(user, sizeof user, "--user-data-dir=%s", profile);
+        tp_run_program(s, chromium, args, &r);
+    }
+    if (r.status != 0 || !tp_file_exists(pdf))
+        fail_msg("chromium could not print %s:\n%s", html, r.err);
+    /* Chromium logs what a page writes to its console, and every load it fails, here */
+    if (strstr(r.err, "CONSOLE") || strstr(r.err, "net::ERR_"))
+        fail_msg("the page logs a console message or a failed load:\n%s", r.err);
+    tp_run_clear(&r);
+}
+
+/* The PDF's text: every section heading on a line of its own, once; no word off the page. */
+static void check_pdf(const char *pdftotext, const char *pdf, const char *paper)
+{
+    const tp_scratch *s = tp_group_scratch();
+    tp_run_result r;
+    char *p;
+    size_t k;
+    double page_w = 0;
+    {
+        const char *args[] = {pdf, "-", NULL};
+        tp_run_program(s, pdftotext, args, &r);
+    }
+    assert_int_equal(r.status, 0);
+    for (k = 0; k < sizeof headings / sizeof headings[0]; k++) {
+        char want[64];
+        int n = 0;
+        /* a line of its own: after a line break or a page break (form feed) */
+        snprintf(want, sizeof want, "%s\n", headings[k]);
+        for (p = r.out + 1; (p = strstr(p, want)) != NULL; p++)
+            if (p[-1] == '\n' || p[-1] == '\f')
+                n++;
+        if (n < 1)
+            fail_msg("%s: the PDF has no heading '%s'", paper, headings[k]);
+    }
+    tp_run_clear(&r);
+    {
+        const char *args[] = {"-bbox", pdf, "-", NULL};
+        tp_run_program(s, pdftotext, args, &r);
+    }
+    assert_int_equal(r.status, 0);
+    p = strstr(r.out, "<page width=\"");
+    assert_non_null(p);
+    page_w = strtod(p + 13, NULL);
+    for (p = r.out; (p = strstr(p, "xMax=\"")) != NULL; p++)
+        if (strtod(p + 6, NULL) > page_w + 0.5)
+            fail_msg("%s: a word runs off the page (page %.0f pt wide): %.120s", paper, page_w, p);
+    tp_run_clear(&r);
+}
+
+static void test_report_renders_in_chromium(void **state)
+{
+    const tp_scratch *s = tp_group_scratch();
+    char chromium[TP_TEST_PATH], pdftotext[TP_TEST_PATH], png[TP_TEST_PATH], pdf[TP_TEST_PATH];
+    char a4[TP_TEST_PATH], url[TP_TEST_PATH + 8], arg[TP_TEST_PATH + 32], user[TP_TEST_PATH];
+    char *html;
+    tp_run_result r;
+    struct stat sb;
+    FILE *fp;
+    (void)state;
+    if (tp_find_program("chromium", chromium) != 0 ||
+        tp_find_program("pdftotext", pdftotext) != 0) {
+        print_message("skipped: rendering the report needs chromium and pdftotext (Debian "
+                      "packages chromium and poppler-utils)\n");
+        skip();
+    }
+    /* a screenshot: written, and far from blank (a white 1200 x 3000 PNG is a few kB) */
+    tp_scratch_path(s, "review.png", png, sizeof png);
+    snprintf(url, sizeof url, "file://%s", html_report());
+    snprintf(arg, sizeof arg, "--screenshot=%s", png);
+    tp_scratch_path(s, "chromium-profile", user, sizeof user);
+    {
+        char profile[TP_TEST_PATH + 32];
+        const char *args[] = {"--headless", "--no-sandbox", "--disable-gpu", profile,
+                              "--window-size=1200,3000", arg, url, NULL};
+        snprintf(profile, sizeof profile, "--user-data-dir=%s", user);
+        tp_run_program(s, chromium, args, &r);
+    }
+    if (r.status != 0)
+        fail_msg("chromium could not take a screenshot:\n%s", r.err);
+    tp_run_clear(&r);
+    assert_int_equal(stat(png, &sb), 0);
+    assert_true(sb.st_size > 100000);
+    /* Letter (Chromium's default paper) */
+    tp_scratch_path(s, "review-letter.pdf", pdf, sizeof pdf);
+    chromium_print(chromium, html_report(), pdf);
+    check_pdf(pdftotext, pdf, "Letter");
+    /* A4: the same page with the paper named */
+    html = tp_read_file(html_report());
+    assert_non_null(html);
+    tp_scratch_path(s, "review-a4.html", a4, sizeof a4);
+    fp = fopen(a4, "w");
+    assert_non_null(fp);
+    fprintf(fp, "%.*s<style>@page{size:A4}</style>%s", (int)(strstr(html, "</head>") - html),
+            html, strstr(html, "</head>"));
+    assert_int_equal(fclose(fp), 0);
+    free(html);
+    tp_scratch_path(s, "review-a4.pdf", pdf, sizeof pdf);
+    chromium_print(chromium, a4, pdf);
+    check_pdf(pdftotext, pdf, "A4");
+}
+
+/* ---- Markdown and its figure folder ------------------------------------------------------- */
+
+static void test_report_markdown_replaces_its_folder_whole(void **state)
+{
+    const tp_scratch *s = tp_group_scratch();
+    char out[TP_TEST_PATH], dir[TP_TEST_PATH], stale[2 * TP_TEST_PATH], fig[2 * TP_TEST_PATH];
+    const char *args[] = {"report", DEMO("raw-five-node"), "-o", out, "-q", NULL};
+    char *md;
+    (void)state;
+    tp_scratch_path(s, "raw.md", out, sizeof out);
+    tp_scratch_path(s, "raw-files", dir, sizeof dir);
+    assert_int_equal(mkdir(dir, 0755), 0);
+    snprintf(stale, sizeof stale, "%s/from-before.svg", dir);
+    tp_write_file(stale, "<svg/>");
+    run_ok(s, args);
+    assert_false(tp_file_exists(stale));
+    md = tp_read_file(out);
+    assert_non_null(md);
+    tp_check_contains("markdown", md, "](raw-files/warmup.svg)");
+    tp_check_contains("markdown", md, "](raw-files/losses.svg)");
+    tp_check_contains("markdown", md, "](raw-files/guard.svg)");
+    snprintf(fig, sizeof fig, "%s/warmup.svg", dir);
+    assert_true(tp_file_exists(fig));
+    /* the input's SHA-256 as coreutils' sha256sum computes it (an independent implementation
+     * of FIPS 180-4) */
+    {
+        char prog[TP_TEST_PATH], want[128];
+        const char *sargs[] = {DEMO("raw-five-node"), NULL};
+        tp_run_result r;
+        if (tp_find_program("sha256sum", prog) == 0) {
+            tp_run_program(s, prog, sargs, &r);
+            assert_int_equal(r.status, 0);
+            snprintf(want, sizeof want, "| SHA-256 of the input file | %.64s |", r.out);
+            tp_check_contains("provenance", md, want);
+            tp_run_clear(&r);
+        }
+    }
+    free(md);
+}
+
+/* ---- bad outputs --------------------------------------------------------------------------- */
+
+/* Each refused with exit 2 before the file is even read: the config given is broken, and the
+ * message is about the output, not the config. */
+static void test_report_refuses_bad_outputs_before_any_work(void **state)
+{
+    const tp_scratch *s = tp_group_scratch();
+    char broken[TP_TEST_PATH], clash[TP_TEST_PATH], files[TP_TEST_PATH];
+    static const char *const frag[] = {"a report is written as .html or .md",
+                                       "needs -o FILE", "is not a folder",
+                                       "cannot create"};
+    const char *outs[] = {"review.txt", NULL, "clash.md", "/nonexistent-dir/review.html"};
+    size_t k;
+    (void)state;
+    tp_scratch_write(s, "broken.yaml", "network: [this is: not a network\n", broken);
+    tp_scratch_path(s, "clash.md", clash, sizeof clash);
+    tp_scratch_path(s, "clash-files", files, sizeof files);
+    tp_write_file(files, "a file where the figures would go\n");
+    outs[2] = clash;
+    for (k = 0; k < sizeof outs / sizeof outs[0]; k++) {
+        const char *with[] = {"report", broken, "-o", outs[k], NULL};
+        const char *without[] = {"report", broken, NULL};
+        tp_run_result r;
+        tp_run_tepid(s, outs[k] ? with : without, &r);
+        assert_int_equal(r.status, 2);
+        tp_check_contains(outs[k] ? outs[k] : "-o", r.err, frag[k]);
+        assert_null(strstr(r.err, "broken.yaml:"));
+        tp_run_clear(&r);
+    }
+    /* the output onto the input itself */
+    {
+        const char *args[] = {"report", clash, "-o", clash, NULL};
+        tp_write_file(clash, "x\n");
+        assert_int_equal(tp_run_status(s, args), 2);
+    }
+}
+
+int main(void)
+{
+    const struct CMUnitTest tests[] = {
+        cmocka_unit_test(test_report_refuses_bad_outputs_before_any_work),
+        cmocka_unit_test(test_report_html_is_self_contained),
+        cmocka_unit_test(test_report_html_passes_tidy),
+        cmocka_unit_test(test_report_renders_in_chromium),
+        cmocka_unit_test(test_report_markdown_replaces_its_folder_whole),
+        cmocka_unit_test(test_report_figures_equal_the_verbs_lumped),
+        cmocka_unit_test(test_report_figures_equal_the_verbs_raw),
+        cmocka_unit_test(test_report_figures_equal_the_verbs_gridded),
+    };
+    return cmocka_run_group_tests_name("test_report", tests, tp_scratch_group_setup,
+                                       tp_scratch_group_teardown);
+}
