@@ -84,7 +84,7 @@ static double hand_setpoint(double t) /* degC, NaN while off */
     if (t < 71)
         return 100;
     if (t < 91)
-        return NAN;
+        return (double)NAN;
     if (t < 111)
         return 60 + (t - 91);
     return 80;
