@@ -1152,7 +1152,7 @@ static tp_sweep_result *linear_results(const tp_sweep_plan *plan)
     for (i = 0; i < n; i++) {
         double f = 0.0;
         for (k = 0; k < TP_MET_SWEPT; k++)
-            res[i].metric[k] = NAN;
+            res[i].metric[k] = (double)NAN;
         for (k = 0; k < plan->n_params; k++)
             f += k == 0 ? 50.0 * tp_sweep_value(plan, i, 0)
                         : 3.0 * (tp_sweep_value(plan, i, k) - KELVIN);

@@ -904,10 +904,12 @@ static int evenly_spaced(const tp_sweep_param *p)
 static void axis_label(const tp_sweep_param *p, char *buf, size_t size)
 {
     const char *u = param_unit_shown(p);
+    /* Bounded to the fields' sizes: GCC's -O3 truncation check cannot see them. */
     if (u[0])
-        snprintf(buf, size, "%s (%s)", p->path, u);
+        snprintf(buf, size, "%.*s (%.*s)", TP_SWEEP_PATH_MAX - 1, p->path, TP_SWEEP_UNIT_MAX - 1,
+                 u);
     else
-        snprintf(buf, size, "%s", p->path);
+        snprintf(buf, size, "%.*s", TP_SWEEP_PATH_MAX - 1, p->path);
 }
 
 static void metric_label(int m, char *buf, size_t size)
