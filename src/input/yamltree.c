@@ -209,8 +209,13 @@ static int attach(builder *b, tp_yamltree_node *n)
         return 0;
     }
     parent = b->stack[b->depth - 1];
-    if (parent->kind == TP_YAMLTREE_SEQ)
-        return node_push_child(parent, NULL, n);
+    if (parent->kind == TP_YAMLTREE_SEQ) {
+        if (node_push_child(parent, NULL, n) != 0) {
+            node_free(n); /* the caller's contract: attach owns n, also on failure */
+            return -1;
+        }
+        return 0;
+    }
     if (!b->expect_value[b->depth - 1]) {
         if (n->kind != TP_YAMLTREE_SCALAR) {
             tp_diag_error(b->d, tp_yamltree_loc(n), NULL,
