@@ -10,9 +10,9 @@
 #include <sys/stat.h>
 #include <time.h>
 
-#include <nettle/sha2.h>
 
 #include "infile.h"
+#include "nettlelib.h"
 #include "report.h"
 #include "reportsections.h"
 #include "session.h"
@@ -194,7 +194,9 @@ static tp_status hash_file(const char *path, char hex[2 * SHA256_DIGEST_SIZE + 1
     uint8_t digest[SHA256_DIGEST_SIZE];
     char *text = NULL;
     size_t len = 0, k;
-    tp_status st = tp_infile_read(path, TP_YAMLTREE_MAX_BYTES, &text, &len, d);
+    tp_status st = tp_nettlelib_load(d);
+    if (st == TP_OK)
+        st = tp_infile_read(path, TP_YAMLTREE_MAX_BYTES, &text, &len, d);
     if (st != TP_OK)
         return st;
     sha256_init(&ctx);

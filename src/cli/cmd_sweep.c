@@ -8,6 +8,7 @@
 #include <string.h>
 #include <unistd.h>
 
+#include "gsllib.h"
 #include "configedit.h"
 #include "infile.h"
 #include "csv.h"
@@ -1866,6 +1867,8 @@ static tp_status run_sweep(const tp_cli *cli, tp_diag *d)
     long total, first = 0, end, run;
     int met = 0;
     tp_status rc = parse_options(cli, &o, d);
+    if (rc == TP_OK)
+        rc = tp_gsllib_load(d); /* opened now: a missing library is an error, not a crash */
     if (rc != TP_OK)
         return rc;
     if (o.n_merge > 0)

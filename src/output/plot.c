@@ -3,7 +3,6 @@
  * PLplot keeps its state in globals, and so does this file: one thread only. */
 #include "plot.h"
 
-#include <dlfcn.h>
 #include <fcntl.h>
 #include <limits.h>
 #include <math.h>
@@ -16,14 +15,15 @@
 
 #include <plplot.h>
 
+#include "dynlib.h"
 #include "outfile.h"
 
 /* ---- PLplot, opened at the first figure ---------------------------------------------------
  * tepid does not link PLplot: a run that draws nothing would pay at every start-up for loading
  * it and the dozen libraries it needs (a third of the 5-node demo's whole run before,
- * docs/performance.md). plot_run opens it with dlopen under the name the build found
+ * docs/performance.md). plot_run opens it (dynlib.h) under the name the build found
  * (TP_PLPLOT_SONAME, e.g. libplplot.so.17, in the Debian package TP_PLPLOT_PACKAGE) and fills
- * this table with dlsym; the names plplot.h
+ * this table; the names plplot.h
  * gives PLplot's functions (plinit is c_plinit) then point into the table, so the drawing code
  * below reads as plain PLplot calls, each checked against plplot.h's prototype. */
 #define PLOT_PLPLOT_API(X)                                                                         \
@@ -34,40 +34,17 @@
     X(c_plspage) X(c_plspause) X(c_plstring) X(c_plsvpa) X(c_plwidth) X(c_plwind) X(plgFileDevs)   \
     X(plsabort) X(plsexit) X(pltr1)
 
-#define PLOT_API_MEMBER(f) __typeof__(f) *f;
 static struct plot_plplot {
-    PLOT_PLPLOT_API(PLOT_API_MEMBER)
+    PLOT_PLPLOT_API(TP_DYNLIB_MEMBER)
 } plot_pl;
-static void *plot_pl_handle; /* dlopen handle, kept to the end of the process */
+#define PLOT_API_ENTRY(f) TP_DYNLIB_ENTRY(struct plot_plplot, f)
+static const tp_dynlib_fn plot_pl_fns[] = {PLOT_PLPLOT_API(PLOT_API_ENTRY)};
 
 /* Open PLplot and fill plot_pl, once. Returns 0, or -1 with the reason in why. */
 static int plot_load_plplot(char *why, size_t size)
 {
-    const char *missing = NULL;
-    void *handle, *sym;
-    if (plot_pl_handle)
-        return 0;
-    handle = dlopen(TP_PLPLOT_SONAME, RTLD_NOW | RTLD_LOCAL);
-    if (!handle) {
-        snprintf(why, size, "cannot load %s (Debian package %s): %.120s", TP_PLPLOT_SONAME,
-                 TP_PLPLOT_PACKAGE, dlerror());
-        return -1;
-    }
-#define PLOT_API_LOAD(f)                                                                           \
-    sym = missing ? NULL : dlsym(handle, #f);                                                      \
-    if (sym)                                                                                       \
-        memcpy(&plot_pl.f, &sym, sizeof sym);                                                      \
-    else if (!missing)                                                                             \
-        missing = #f;
-    PLOT_PLPLOT_API(PLOT_API_LOAD)
-#undef PLOT_API_LOAD
-    if (missing) {
-        snprintf(why, size, "%s has no function %s", TP_PLPLOT_SONAME, missing);
-        dlclose(handle);
-        return -1;
-    }
-    plot_pl_handle = handle;
-    return 0;
+    return tp_dynlib_load(TP_PLPLOT_SONAME, TP_PLPLOT_PACKAGE, &plot_pl, plot_pl_fns,
+                          sizeof plot_pl_fns / sizeof plot_pl_fns[0], why, size);
 }
 
 /* From here on PLplot's names call through the table. */

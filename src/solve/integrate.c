@@ -25,11 +25,10 @@
 #include <cvode/cvode.h>
 #include <nvector/nvector_serial.h>
 #include <sundials/sundials_context.h>
-#include <sunlinsol/sunlinsol_klu.h>
 #include <sunmatrix/sunmatrix_dense.h>
-#include <sunmatrix/sunmatrix_sparse.h>
 
 #include "denselu.h"
+#include "klulib.h"
 #include "krylov.h"
 #include "sparselu.h"
 #include "vecops.h"
@@ -509,6 +508,9 @@ static tp_status setup_solver(run *r)
         return TP_OK;
     }
     if (dr->sparse) {
+        tp_status st = tp_klulib_load(r->d);
+        if (st != TP_OK)
+            return st;
         dr->jac = SUNSparseMatrix(n, n, net->nnz, CSC_MAT, r->ctx);
         if (net->grid)
             r->ls = dr->jac ? tp_sparselu_create(r->ctx) : NULL;

@@ -9,12 +9,12 @@
  * never when any value changed, so every solve is exact for the matrix CVODE passes. */
 #include "sparselu.h"
 
+#include "klulib.h"
+
 #include <stdlib.h>
 #include <string.h>
 
-#include <klu.h>
 
-#include <sunmatrix/sunmatrix_sparse.h>
 
 typedef struct kluwrap {
     klu_l_common common;

@@ -7,13 +7,18 @@
  * Solution: secant iterations (each link replaced by its secant conductance Q/dT, which
  * converge from a cold start where the natural-convection derivative vanishes), then KINSOL's
  * Newton method with a line search and the analytic Jacobian to full accuracy. Linear algebra:
- * KLU sparse direct, on the network's sparsity pattern restricted to the temperatures; for large
- * gridded networks Newton-Krylov (GMRES) with the multigrid preconditioner and the compiled
- * vector operations (solver support). The network is only read: the duties and the target are
- * the solve's own (an evaluator of its own, and arguments). */
+ * the compiled dense LU up to TP_DENSE_MAX unknowns (the integrator's, denselu.c), KLU sparse
+ * direct above, on the network's sparsity pattern restricted to the temperatures (opened at its
+ * first use, klulib.h, so that small networks do not load it); for large gridded networks
+ * Newton-Krylov (GMRES) with the multigrid preconditioner and the compiled vector operations
+ * (solver support). The network is only read: the duties and the target are the solve's own
+ * (an evaluator of its own, and arguments). */
 #include "steady.h"
 
+#include "denselu.h"
 #include "description.h"
+#include "integrate.h"
+#include "klulib.h"
 #include "eval.h"
 #include "multigrid.h"
 #include "units.h"
@@ -27,9 +32,7 @@
 #include <kinsol/kinsol.h>
 #include <nvector/nvector_serial.h>
 #include <sundials/sundials_context.h>
-#include <sunlinsol/sunlinsol_klu.h>
 #include <sunlinsol/sunlinsol_spgmr.h>
-#include <sunmatrix/sunmatrix_sparse.h>
 
 #define TP_SECANT_ITERS 60       /* secant iterations at most before Newton */
 #define TP_SECANT_TOL 1.0e-3     /* K: secant phase ends when no temperature moves more */
@@ -68,6 +71,7 @@ typedef struct sys {
     double *w;       /* hold: the preconditioner applied to the column of u */
     double *ju;      /* the unknowns jsys was computed at */
     double *ytmp;    /* n_free work */
+    double *jv;      /* dense solves: the Jacobian values in pattern order */
     char msg[512];
 } sys;
 
@@ -90,6 +94,7 @@ static void sys_clear(sys *s)
     free(s->w);
     free(s->ju);
     free(s->ytmp);
+    free(s->jv);
 }
 
 /* The multigrid hierarchy of a gridded network's temperature block. */
@@ -270,14 +275,29 @@ static int kin_f(N_Vector x, N_Vector f, void *user)
     return residual(user, N_VGetArrayPointer(x), N_VGetArrayPointer(f));
 }
 
+/* The system Jacobian at x (secant or exact link derivatives) into the direct solver's matrix
+ * J: sparse on the pattern, or dense, scattered from the pattern order. */
+static int fill_matrix(sys *s, const double *x, SUNMatrix J, int use_secant)
+{
+    int c, k, rc;
+    if (SUNMatGetID(J) == SUNMATRIX_SPARSE) {
+        copy_pattern(s, J);
+        return jacobian(s, x, SUNSparseMatrix_Data(J), use_secant);
+    }
+    rc = jacobian(s, x, s->jv, use_secant);
+    SUNMatZero(J);
+    for (c = 0; c < s->n; c++)
+        for (k = s->colptr[c]; k < s->colptr[c + 1]; k++)
+            SM_ELEMENT_D(J, s->rowind[k], c) = s->jv[k];
+    return rc;
+}
+
 static int kin_jac(N_Vector x, N_Vector f, SUNMatrix J, void *user, N_Vector t1, N_Vector t2)
 {
-    sys *s = user;
     (void)f;
     (void)t1;
     (void)t2;
-    copy_pattern(s, J);
-    return jacobian(s, N_VGetArrayPointer(x), SUNSparseMatrix_Data(J), 0);
+    return fill_matrix(user, N_VGetArrayPointer(x), J, 0);
 }
 
 static void kin_err(int code, const char *module, const char *function, char *msg, void *user)
@@ -388,22 +408,52 @@ static const char *isolated_node(const tp_network *net)
     return bad;
 }
 
-/* The secant phase: solve J_sec dx = -F by KLU, damped to TP_MAX_MOVE per step, from x (n
- * entries) in place, until no temperature moves more than TP_SECANT_TOL or TP_SECANT_ITERS
- * steps; a step that cannot be taken ends it early (Newton takes over). `b` and `xx` are work
- * vectors of n entries. TP_OK, or TP_ERR_NOMEM. */
-static tp_status secant_phase(sys *s, double *x, N_Vector b, N_Vector xx, SUNContext ctx)
+/* The direct solver of the system and its matrix: the compiled dense LU up to TP_DENSE_MAX
+ * unknowns, KLU on the sparse pattern above (opened here at its first use). TP_OK;
+ * TP_ERR_NOMEM; or TP_ERR_SOLVER when KLU cannot be opened (reported in d). On failure *J and
+ * *ls are NULL. */
+static tp_status direct_solver(sys *s, N_Vector y, SUNContext ctx, SUNMatrix *J,
+                               SUNLinearSolver *ls, tp_diag *d)
 {
-    SUNMatrix Js = SUNSparseMatrix(s->n, s->n, s->nnz > 0 ? s->nnz : 1, CSC_MAT, ctx);
-    SUNLinearSolver lss = Js ? SUNLinSol_KLU(xx, Js, ctx) : NULL;
+    tp_status st;
+    *J = NULL;
+    *ls = NULL;
+    if (s->n <= TP_DENSE_MAX) {
+        if (!s->jv)
+            s->jv = malloc((size_t)(s->nnz > 0 ? s->nnz : 1) * sizeof *s->jv);
+        return s->jv ? tp_denselu_create(y, ctx, J, ls) : TP_ERR_NOMEM;
+    }
+    st = tp_klulib_load(d);
+    if (st != TP_OK)
+        return st;
+    *J = SUNSparseMatrix(s->n, s->n, s->nnz > 0 ? s->nnz : 1, CSC_MAT, ctx);
+    *ls = *J ? SUNLinSol_KLU(y, *J, ctx) : NULL;
+    if (!*ls) {
+        if (*J)
+            SUNMatDestroy(*J);
+        *J = NULL;
+        return TP_ERR_NOMEM;
+    }
+    return TP_OK;
+}
+
+/* The secant phase: solve J_sec dx = -F by the direct solver, damped to TP_MAX_MOVE per step,
+ * from x (n entries) in place, until no temperature moves more than TP_SECANT_TOL or
+ * TP_SECANT_ITERS steps; a step that cannot be taken ends it early (Newton takes over). `b` and
+ * `xx` are work vectors of n entries. TP_OK, TP_ERR_NOMEM, or direct_solver's TP_ERR_SOLVER. */
+static tp_status secant_phase(sys *s, double *x, N_Vector b, N_Vector xx, SUNContext ctx,
+                              tp_diag *d)
+{
+    SUNMatrix Js;
+    SUNLinearSolver lss;
     double *f = malloc((size_t)s->n * sizeof *f);
     int it, i;
-    tp_status st = Js && lss && f ? TP_OK : TP_ERR_NOMEM;
-    if (st == TP_OK)
-        copy_pattern(s, Js);
+    tp_status st = f ? direct_solver(s, xx, ctx, &Js, &lss, d) : TP_ERR_NOMEM;
+    if (!f)
+        Js = NULL, lss = NULL;
     for (it = 0; st == TP_OK && it < TP_SECANT_ITERS; it++) {
         double move = 0.0, scale = 1.0;
-        if (residual(s, x, f) != 0 || jacobian(s, x, SUNSparseMatrix_Data(Js), 1) != 0)
+        if (residual(s, x, f) != 0 || fill_matrix(s, x, Js, 1) != 0)
             break;
         for (i = 0; i < s->n; i++)
             N_VGetArrayPointer(b)[i] = -f[i];
@@ -429,9 +479,9 @@ static tp_status secant_phase(sys *s, double *x, N_Vector b, N_Vector xx, SUNCon
     return st;
 }
 
-/* KINSOL set up for the system: Newton with the analytic Jacobian and KLU, or for a gridded
- * network Newton-Krylov (GMRES) with the multigrid preconditioner. 0, or -1 when a call
- * fails. */
+/* KINSOL set up for the system: Newton with the analytic Jacobian and the direct solver, or
+ * for a gridded network Newton-Krylov (GMRES) with the multigrid preconditioner. 0, or -1
+ * when a call fails. */
 static int kinsol_setup(sys *s, void *kin, N_Vector u, SUNLinearSolver ls, SUNMatrix J)
 {
     if (KINInit(kin, kin_f, u) != KIN_SUCCESS || KINSetUserData(kin, s) != KIN_SUCCESS ||
@@ -475,11 +525,10 @@ static tp_status solve(sys *s, double *x, long *iters, tp_diag *d)
         tp_vecops_install(u); /* KINSOL's vectors are clones of u */
     us = u ? N_VClone(u) : NULL;
     fs = u ? N_VClone(u) : NULL;
-    J = SUNSparseMatrix(s->n, s->n, s->nnz > 0 ? s->nnz : 1, CSC_MAT, ctx);
-    if (!u || !us || !fs || !J)
+    if (!u || !us || !fs)
         st = TP_ERR_NOMEM;
     if (st == TP_OK && !s->iterative)
-        st = secant_phase(s, x, fs, us, ctx);
+        st = secant_phase(s, x, fs, us, ctx, d);
     if (st == TP_OK) {
         for (i = 0; i < s->n; i++) {
             N_VGetArrayPointer(u)[i] = x[i];
@@ -487,9 +536,11 @@ static tp_status solve(sys *s, double *x, long *iters, tp_diag *d)
             N_VGetArrayPointer(fs)[i] = 1.0;
         }
         kin = KINCreate(ctx);
-        ls = s->iterative ? SUNLinSol_SPGMR(u, SUN_PREC_RIGHT, TP_STEADY_KRYLOV, ctx)
-                          : SUNLinSol_KLU(u, J, ctx);
-        if (!kin || !ls || kinsol_setup(s, kin, u, ls, J) != 0)
+        if (s->iterative)
+            ls = SUNLinSol_SPGMR(u, SUN_PREC_RIGHT, TP_STEADY_KRYLOV, ctx);
+        else
+            st = direct_solver(s, u, ctx, &J, &ls, d);
+        if (st == TP_OK && (!kin || !ls || kinsol_setup(s, kin, u, ls, J) != 0))
             st = TP_ERR_NOMEM;
     }
     if (st == TP_OK) {

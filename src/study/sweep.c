@@ -21,12 +21,9 @@
 #include <time.h>
 #include <unistd.h>
 
-#include <gsl/gsl_cdf.h>
-#include <gsl/gsl_errno.h>
-#include <gsl/gsl_qrng.h>
-
 #include "assemble.h"
 #include "config.h"
+#include "gsllib.h"
 #include "network.h"
 #include "warmup.h"
 
@@ -50,8 +47,6 @@ void tp_sweep_plan_init(tp_sweep_plan *plan, tp_sweep_mode mode)
     plan->seed = 1;
     plan->design = TP_DESIGN_RANDOM;
     plan->replicates = 1;
-    /* GSL's default error handler aborts; every call here checks its arguments and results. */
-    gsl_set_error_handler_off();
 }
 
 void tp_sweep_plan_clear(tp_sweep_plan *plan)
