@@ -40,6 +40,8 @@ static void test_summary_durations(void **state)
         {0.0, "0.0 s"},
         {45.04, "45.0 s"},
         {59.9, "59.9 s"},
+        {59.96, "59.9 s"},        /* truncated to tenths, not rounded up to 60.0 s */
+        {45.3, "45.3 s"},
         {60.0, "1 min 00 s"},
         {372.0, "6 min 12 s"},    /* 6 x 60 + 12 */
         {439.7, "7 min 19 s"},    /* truncated, not rounded */
@@ -66,15 +68,15 @@ static void test_summary_network_line(void **state)
     static const struct {
         const char *tail, *text;
     } cases[] = {
-        {"", "network: 2 nodes (1 with capacity), 1 links, 1 source\n"},
+        {"", "network: 2 nodes (1 with capacity), 1 link, 1 source\n"},
         {"control: {source: pad, sensor: plate, mode: on-off, setpoint: 85 degC}\n",
-         "network: 2 nodes (1 with capacity), 1 links, 1 source; on-off control of 'pad' "
+         "network: 2 nodes (1 with capacity), 1 link, 1 source; on-off control of 'pad' "
          "reading 'plate' at 85.0 degC\n"},
         {"control: {source: pad, sensor: plate, mode: off}\n",
-         "network: 2 nodes (1 with capacity), 1 links, 1 source; the controller holds 'pad' "
+         "network: 2 nodes (1 with capacity), 1 link, 1 source; the controller holds 'pad' "
          "off (mode off)\n"},
         {"control: {source: pad, sensor: plate, mode: full}\n",
-         "network: 2 nodes (1 with capacity), 1 links, 1 source; the controller keeps 'pad' "
+         "network: 2 nodes (1 with capacity), 1 link, 1 source; the controller keeps 'pad' "
          "full on (mode full)\n"},
     };
     size_t i;

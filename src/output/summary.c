@@ -9,8 +9,8 @@ void tp_summary_duration(double s, char *buf, size_t size)
 {
     if (!isfinite(s))
         snprintf(buf, size, "-");
-    else if (s < 60.0)
-        snprintf(buf, size, "%.1f s", s);
+    else if (s < 60.0) /* truncated to tenths as longer ones to seconds: 59.96 s is not 60.0 s */
+        snprintf(buf, size, "%.1f s", floor(s * 10.0 + 1e-9) / 10.0);
     else if (s < 3600.0)
         snprintf(buf, size, "%d min %02d s", (int)(s / 60.0), (int)fmod(s, 60.0));
     else
@@ -19,8 +19,9 @@ void tp_summary_duration(double s, char *buf, size_t size)
 
 void tp_summary_network_line(FILE *fp, const tp_network *net)
 {
-    fprintf(fp, "network: %d nodes (%d with capacity), %d links, %d source%s", net->n_nodes,
-            net->n_free, net->n_links, net->n_sources, net->n_sources == 1 ? "" : "s");
+    fprintf(fp, "network: %d node%s (%d with capacity), %d link%s, %d source%s", net->n_nodes,
+            net->n_nodes == 1 ? "" : "s", net->n_free, net->n_links, net->n_links == 1 ? "" : "s",
+            net->n_sources, net->n_sources == 1 ? "" : "s");
     if (net->has_control) {
         const tp_control *c = &net->control;
         if (c->mode == TP_MODE_OFF)
