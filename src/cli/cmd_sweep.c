@@ -125,7 +125,8 @@ static tp_dim metric_spread_dim(int m)
         const char *unit;
         tp_dim dim;
     } dims[] = {{"s", TP_DIM_TIME},       {"K", TP_DIM_INTERVAL},   {"degC", TP_DIM_INTERVAL},
-                {"J", TP_DIM_ENERGY},     {"W", TP_DIM_POWER},      {"A", TP_DIM_CURRENT}};
+                {"J", TP_DIM_ENERGY},     {"W", TP_DIM_POWER},      {"A", TP_DIM_CURRENT},
+                {"K/s", TP_DIM_RATE}};
     size_t k;
     for (k = 0; k < sizeof dims / sizeof dims[0]; k++)
         if (strcmp(tp_metricdef_swept(m)->file_unit, dims[k].unit) == 0)

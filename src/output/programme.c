@@ -116,7 +116,7 @@ void tp_programme_json(cJSON *root, const tp_program *p)
         tp_json_number(o, TP_SEGKEY_AT_LIMIT, g->at_limit);
         cJSON_AddBoolToObject(o, "limited", g->limited);
         tp_json_number(o, TP_SEGKEY_FOLLOW_RATE, g->follow_rate);
-        celsius(o, "followable_at_C", g->follow_at);
+        celsius(o, TP_SEGKEY_FOLLOW_AT, g->follow_at);
         tp_json_number(o, TP_SEGKEY_OVERSHOOT_READING, g->overshoot_reading);
         tp_json_number(o, "overshoot_surface_K", g->overshoot_surface);
     }

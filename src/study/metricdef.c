@@ -106,6 +106,9 @@ static const tp_metricdef table[TP_MET_COUNT] = {
     {"segment" #n "." TP_SEGKEY_FOLLOW_RATE, "seg " #n " followable", "K/s", 0.0, TP_FORM_NUMBER, \
      "K/s", 1.0, 0.0, 3, TP_WORSE_LOWER, "a slower rate the plate can follow at its limit",       \
      SEG_AT(k, follow_rate)},                                                                      \
+    {"segment" #n "." TP_SEGKEY_FOLLOW_AT, "seg " #n " limit at", "degC", TP_KELVIN_0C,     \
+     TP_FORM_NUMBER, "degC", 1.0, TP_KELVIN_0C, 1, TP_WORSE_LOWER,                                 \
+     "the plate at its limit at a lower temperature", SEG_AT(k, follow_at)},                      \
     {"segment" #n "." TP_SEGKEY_OVERSHOOT_READING, "seg " #n " overshoot", "K", 0.0,              \
      TP_FORM_NUMBER, "K", 1.0, 0.0, 2, TP_WORSE_HIGHER,                                            \
      "further above the segment's target", SEG_AT(k, overshoot_reading)}
@@ -170,6 +173,9 @@ void tp_metricdef_keys(char *buf, size_t size)
             break;
         used += (size_t)n;
     }
+    if (used < size)
+        snprintf(buf + used, size - used, "; with control.schedule segment<N>.%s ...",
+                 TP_SEGKEY_RATE_READING);
 }
 
 const char *tp_metricdef_worse_name(tp_metricdef_worse worse)

@@ -80,6 +80,7 @@ typedef struct tp_metricdef {
 #define TP_SEGKEY_ERR_READING "error_reading_max_K"
 #define TP_SEGKEY_AT_LIMIT "at_limit_fraction"
 #define TP_SEGKEY_FOLLOW_RATE "followable_rate_K_per_s"
+#define TP_SEGKEY_FOLLOW_AT "followable_at_C"
 #define TP_SEGKEY_OVERSHOOT_READING "overshoot_reading_K"
 
 enum {
@@ -88,6 +89,7 @@ enum {
     TP_SEGMET_ERR_READING,       /* K, largest |reading - setpoint| */
     TP_SEGMET_AT_LIMIT,          /* -, share of the segment's time at the duty limit */
     TP_SEGMET_FOLLOW_RATE,       /* K/s the plate follows at the limit */
+    TP_SEGMET_FOLLOW_AT,         /* K, the reading where that rate was taken */
     TP_SEGMET_OVERSHOOT_READING, /* K above the segment's target */
     TP_SEGMET_COUNT
 };
