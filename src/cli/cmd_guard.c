@@ -715,7 +715,8 @@ const tp_verb tp_cmd_guard = {
     "the\n"
     "rise check (rise_window, rise_min, approach), the hold check (hold_band, hold_grace) and\n"
     "the ceiling, each explained; with --rise-window ... or guard.settings: it evaluates the\n"
-    "given values instead. Definitions in docs/guard.md. The checks supplement and never\n"
-    "replace an independent thermal cut-out.",
+    "given values instead. With control.schedule the corners follow the schedule and every\n"
+    "fault is also injected mid-ramp and mid-hold. Definitions in docs/guard.md. The checks\n"
+    "supplement and never replace an independent thermal cut-out.",
     "tepid guard workshop-bed-24v.yaml --plot guard.png\n"
     "tepid guard workshop-bed-24v.yaml --rise-window 40s --rise-min 2K --json guard.json"};
