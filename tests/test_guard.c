@@ -309,7 +309,8 @@ static void test_series_checks_follow_a_moving_setpoint(void **state)
     const double t[] = {0, 1, 2, 3, 4, 5, 6, 7, 8};
     const double r[] = {50, 50, 50, 50, 50, 50, 50, 50, 50};
     const double ramp[] = {50, 51, 52, 53, 54, 55, 56, 57, 58};
-    const double off[] = {50, 51, 52, 53, 54, NAN, NAN, NAN, NAN};
+    const double nan = (double)NAN;
+    const double off[] = {50, 51, 52, 53, 54, nan, nan, nan, nan};
     tp_guard_settings s = none;
     tp_guard_detect det;
     (void)state;
@@ -373,7 +374,7 @@ static double reading_at(const tp_guard_trace *tr, double t)
         if (fabs(tr->t[i] - t) < 1e-6)
             return tr->reading[i];
     fail_msg("no sample at %g s", t);
-    return NAN;
+    return (double)NAN;
 }
 
 /* The time s after the injection at which a reading decaying from T0 towards the room (heater
