@@ -294,6 +294,291 @@ static double json_number(const cJSON *obj, const char *key)
     return it->valuedouble;
 }
 
+/* ---- schedules (control.schedule) ------------------------------------------------------------ */
+
+static void test_series_checks_follow_a_moving_setpoint(void **state)
+{
+    /* Hand calculation on a setpoint series sp (NaN: the schedule has the heater off).
+     * 1. A ramp sp = 50, 51, ... 58 at t = 0..8 s with the reading r = 50 throughout: reached at
+     *    t = 0 (r >= sp), but the setpoint rises at every later sample, so the rise check is
+     *    armed from t = 1: window 2 s, rise_min 1 K; the first judged window ends at t = 3
+     *    (stretch from t = 1), rise 0 < 1 -> fires at 3 s. Hold: band 3 K, grace 2 s; below
+     *    sp - 3 from t = 4 (54 - 3 = 51 > 50), 2 s passed at t = 6 and more than 2 at t = 7.
+     * 2. The same readings with the heater off from t = 5: both checks are disarmed there, so
+     *    the hold check (needs t - 4 > 2) never fires. */
+    const double t[] = {0, 1, 2, 3, 4, 5, 6, 7, 8};
+    const double r[] = {50, 50, 50, 50, 50, 50, 50, 50, 50};
+    const double ramp[] = {50, 51, 52, 53, 54, 55, 56, 57, 58};
+    const double nan = (double)NAN;
+    const double off[] = {50, 51, 52, 53, 54, nan, nan, nan, nan};
+    tp_guard_settings s = none;
+    tp_guard_detect det;
+    (void)state;
+    s.rise_window = 2.0;
+    s.rise_min = 1.0;
+    s.approach = 1.0;
+    s.hold_band = 3.0;
+    s.hold_grace = 2.0;
+    det = tp_guard_check_series(t, r, ramp, 9, 58.0, 0, &s);
+    assert_true(det.rise == 3.0);
+    assert_true(det.hold == 7.0);
+    det = tp_guard_check_series(t, r, off, 9, 58.0, 0, &s);
+    assert_true(det.rise == 3.0);
+    assert_true(isnan(det.hold));
+    /* 3. A step: sp 50 then 60 from t = 2 (a rise of 10 K > TP_GUARD_STEP_K) clears the latch:
+     *    the hold check, armed at t = 0, is disarmed until the reading reaches 60 again; r
+     *    stays 50 -> no hold firing however long; the rise check is armed (r < 60 - 1) from
+     *    t = 2 and fires at t = 4 (50 - 50 < 1). */
+    {
+        const double step[] = {50, 50, 60, 60, 60, 60, 60, 60, 60};
+        det = tp_guard_check_series(t, r, step, 9, 60.0, 0, &s);
+        assert_true(isnan(det.hold));
+        assert_true(det.rise == 4.0);
+    }
+    /* 4. Without a series the function is tp_guard_check itself. */
+    det = tp_guard_check_series(t, ramp, NULL, 9, 100.0, 0, &s);
+    assert_true(isnan(det.rise) && isnan(det.hold));
+}
+
+/* One node of C = 1000 J/K through G = 2 W/K to a 20 degC room, 400 W, read directly (the sensor
+ * is the node), PI control following a ramp to 100 degC at 0.1 K/s (800 s) and a 20 min hold:
+ * tau = C / G = 500 s, full-power equilibrium T_inf = 20 + 400 / 2 = 220 degC (hand
+ * calculation). */
+static const char *scheduled_node =
+    "network:\n"
+    "  nodes:\n"
+    "    - {id: plate, capacity: 1000 J/K, initial: 20 degC}\n"
+    "    - {id: room, fixed: 20 degC}\n"
+    "  links:\n"
+    "    - {between: [plate, room], conductance: 2 W/K}\n"
+    "  sources:\n"
+    "    - {id: pad, node: plate, power: 400 W}\n"
+    "control:\n"
+    "  source: pad\n"
+    "  sensor: plate\n"
+    "  mode: pid\n"
+    "  kp: 0.2 1/K\n"
+    "  ki: 0.002 1/(K.s)\n"
+    "  period: 1 s\n"
+    "  schedule:\n"
+    "    - {to: 100 degC, ramp: 0.1 K/s}\n"
+    "    - {hold: 20 min}\n"
+    "run: {step: 1 s}\n"
+    "guard: {room: [20 degC, 20 degC]}\n";
+
+/* The reading of a trace at time t (a sample exactly there). */
+static double reading_at(const tp_guard_trace *tr, double t)
+{
+    long i;
+    for (i = 0; i < tr->n; i++)
+        if (fabs(tr->t[i] - t) < 1e-6)
+            return tr->reading[i];
+    fail_msg("no sample at %g s", t);
+    return (double)NAN;
+}
+
+/* The time s after the injection at which a reading decaying from T0 towards the room (heater
+ * open: T = room + (T0 - room) exp(-s / tau)) falls `band` below a setpoint sp0 + rate s: by
+ * bisection of that closed form. */
+static double behind_by(double T0, double sp0, double rate, double band)
+{
+    double lo = 0.0, hi = 5000.0;
+    int k;
+    for (k = 0; k < 200; k++) {
+        double mid = 0.5 * (lo + hi);
+        double T = 20.0 + (T0 - 20.0) * exp(-mid / 500.0);
+        if (sp0 + rate * mid - T > band)
+            hi = mid;
+        else
+            lo = mid;
+    }
+    return hi;
+}
+
+static void test_schedule_faults_on_one_node_match_the_energy_balance(void **state)
+{
+    /* Faults injected mid-ramp (t = 400 s, setpoint 60 degC) and mid-hold (t = 800 + 600 =
+     * 1400 s) on the one-node network, judged with a ceiling of 130 degC and a hold check of
+     * 5 K for 30 s (no rise check). Lumped energy balance, by hand:
+     * - stuck on from T0: C dT/dt = P - G (T - 20), so T = T_inf - (T_inf - T0) e^(-s/tau),
+     *   whose slope at the injection is (P - G (T0 - 20)) / C; the ceiling Tc is crossed after
+     *   s_c = tau ln((T_inf - T0) / (T_inf - Tc)), detected at the first tick (1 s) after it;
+     * - heater open: T = 20 + (T0 - 20) e^(-s/tau); the hold check counts from the first tick
+     *   at which sp - T > 5 K and fires more than 30 s later: within (s_b + 30, s_b + 32]. */
+    tp_yamltree *doc = NULL;
+    tp_description desc;
+    tp_diag d;
+    tp_guard_study *st = calloc(1, sizeof *st);
+    tp_guard_settings s = none;
+    const double P = 400.0, G = 2.0, C = 1000.0, tau = 500.0, Tinf = 220.0 + KELVIN;
+    const double Tc = 130.0 + KELVIN;
+    int m;
+    (void)state;
+    assert_non_null(st);
+    load(scheduled_node, &doc, &desc);
+    tp_diag_init(&d, stderr);
+    assert_int_equal(tp_guard_study_run(&desc, doc, NULL, st, &d), TP_OK);
+    assert_true(st->scheduled);
+    assert_int_equal(st->n_corners, 1);
+    assert_int_equal(st->healthy_trips, 0); /* the recommendation never trips the ramp */
+    assert_int_equal(st->inject[TP_GUARD_MID_RAMP].segment, 0);
+    assert_true(st->inject[TP_GUARD_MID_RAMP].t == 400.0);
+    assert_true(st->inject[TP_GUARD_MID_HOLD].t == 1400.0);
+    tp_check_abs("setpoint mid-ramp", st->inject[TP_GUARD_MID_RAMP].setpoint - KELVIN, 60.0,
+                 1e-9);
+    s.ceiling = Tc;
+    s.hold_band = 5.0;
+    s.hold_grace = 30.0;
+    tp_guard_evaluate(st, &s);
+    for (m = 0; m < TP_GUARD_MID_COUNT; m++) {
+        const double ti = st->inject[m].t, sp0 = st->inject[m].setpoint;
+        const double rate = m == TP_GUARD_MID_RAMP ? 0.1 : 0.0;
+        const tp_guard_fault_run *on = &st->mid[TP_FAULT_STUCK_ON][m];
+        const tp_guard_fault_run *open = &st->mid[TP_FAULT_HEATER_OPEN][m];
+        double T0 = reading_at(&on->trace, ti), slope, sc, sb;
+        /* The rise rate at the injection, P/C less the loss: the first second of the run. */
+        slope = (P - G * (T0 - KELVIN - 20.0)) / C;
+        /* Within the integration's error: run.tolerance 1e-6 of about 330 K, 3e-4 K. */
+        tp_check_abs("stuck-on first second", reading_at(&on->trace, ti + 1.0) - T0,
+                     (Tinf - (Tinf - T0) * exp(-1.0 / tau)) - T0, 1e-3);
+        tp_check_rel("stuck-on slope by P/C", reading_at(&on->trace, ti + 1.0) - T0, slope,
+                     0.01);
+        sc = tau * log((Tinf - T0) / (Tinf - Tc));
+        assert_true(on->det.ceiling > ti + sc - 0.05 && on->det.ceiling <= ti + sc + 1.05);
+        assert_true(on->first == on->det.ceiling);
+        T0 = reading_at(&open->trace, ti);
+        sb = behind_by(T0 - KELVIN, sp0 - KELVIN, rate, 5.0);
+        assert_true(open->det.hold > ti + sb + 30.0 - 0.05 &&
+                    open->det.hold <= ti + sb + 32.0 + 0.05);
+        print_message("mid-%s at %.0f s: stuck-on %.1f s after (closed form %.1f), heater "
+                      "open %.1f s after (closed form %.1f + 30 s grace)\n",
+                      m ? "hold" : "ramp", ti, on->first - ti, sc, open->first - ti, sb);
+    }
+    tp_guard_study_clear(st);
+    free(st);
+    tp_config_clear(&desc);
+    tp_yamltree_destroy(&doc);
+}
+
+static void test_reflow_schedule_no_false_trip_and_faults_caught(void **state)
+{
+    /* The reflow demo through guard: its corners follow the ramps without a trip of the
+     * recommended checks, and a switch stuck on and an open heater injected mid-ramp are
+     * detected after the injection; stuck on mid-hold too, before any protected layer passes
+     * its limit. (The 20 s hold is too short for the hold check to see an open heater before
+     * the profile switches the heater off anyway: that one is reported, not required.) */
+    tp_yamltree *doc = NULL;
+    tp_description desc;
+    tp_diag d;
+    tp_guard_study *st = calloc(1, sizeof *st);
+    const char *path = TP_SOURCE_DIR "/configs/reflow-hotplate-230v.yaml";
+    char *text = tp_read_file(path);
+    const tp_guard_fault_run *fr;
+    int m;
+    (void)state;
+    assert_non_null(st);
+    assert_non_null(text);
+    load(text, &doc, &desc);
+    free(text);
+    tp_diag_init(&d, NULL);
+    assert_int_equal(tp_guard_study_run(&desc, doc, NULL, st, &d), TP_OK);
+    assert_true(st->scheduled);
+    assert_int_equal(st->healthy_trips, 0);
+    assert_int_equal(st->inject[TP_GUARD_MID_RAMP].segment, 0);
+    assert_int_equal(st->inject[TP_GUARD_MID_HOLD].segment, 3);
+    for (m = 0; m < TP_GUARD_MID_COUNT; m++) {
+        fr = &st->mid[TP_FAULT_STUCK_ON][m];
+        assert_true(isfinite(fr->first) && fr->first >= st->inject[m].t);
+        assert_false(fr->limit_before);
+        print_message("reflow mid-%s: stuck on detected %.1f s after the injection\n",
+                      m ? "hold" : "ramp", fr->first - st->inject[m].t);
+    }
+    fr = &st->mid[TP_FAULT_HEATER_OPEN][TP_GUARD_MID_RAMP];
+    assert_true(isfinite(fr->first) && fr->first >= st->inject[TP_GUARD_MID_RAMP].t);
+    print_message("reflow mid-ramp: heater open detected %.1f s after the injection\n",
+                  fr->first - st->inject[TP_GUARD_MID_RAMP].t);
+    tp_guard_study_clear(st);
+    free(st);
+    tp_config_clear(&desc);
+    tp_yamltree_destroy(&doc);
+}
+
+static void test_schedule_guard_on_raw_and_gridded_forms(void **state)
+{
+    /* Through the command line: the raw one-node network and a gridded plate (3 x 3, the test
+     * plate's layers) with a schedule run and write the schedule object; a disturbance with a
+     * schedule is refused with exit 2 and a message. */
+    tp_scratch sc;
+    tp_run_result r;
+    char raw[TP_TEST_PATH], grid[TP_TEST_PATH], gust[TP_TEST_PATH], js[TP_TEST_PATH];
+    char *text, *at, *cfg;
+    cJSON *j, *o;
+    (void)state;
+    tp_scratch_create(&sc);
+    tp_scratch_write(&sc, "raw.yaml", scheduled_node, raw);
+    text = tp_read_file(HOT_PLATE);
+    assert_non_null(text);
+    at = strstr(text, "control: {");
+    assert_non_null(at);
+    cfg = calloc(strlen(text) + 512, 1);
+    assert_non_null(cfg);
+    memcpy(cfg, text, (size_t)(at - text));
+    strcat(cfg, "control:\n  mode: pid\n  period: 1 s\n  kp: 0.05 1/K\n  ki: 0.0005 1/(K.s)\n"
+                "  schedule:\n    - {to: 80 degC, ramp: 0.2 K/s}\n    - {hold: 5 min}\n"
+                "run: {step: 1 s}\n"
+                "guard: {supply: [24 V, 24 V], resistance: 0 %, room: [20 degC, 20 degC]}\n");
+    tp_scratch_write(&sc, "grid.yaml", cfg, grid);
+    free(cfg);
+    free(text);
+    tp_scratch_path(&sc, "out.json", js, sizeof js);
+    {
+        const char *args[] = {"guard", raw, "--json", js, "-q", NULL};
+        assert_int_equal(tp_run_status(&sc, args), 0);
+        j = tp_read_json(js);
+        o = cJSON_GetObjectItem(j, "schedule");
+        assert_non_null(o);
+        assert_int_equal(cJSON_GetArraySize(cJSON_GetObjectItem(o, "injections")), 2);
+        assert_int_equal(cJSON_GetArraySize(cJSON_GetObjectItem(o, "faults")),
+                         2 * TP_FAULT_COUNT);
+        assert_int_equal(cJSON_GetArraySize(cJSON_GetObjectItem(o, "healthy_trips")), 0);
+        cJSON_Delete(j);
+    }
+    {
+        const char *args[] = {"guard", grid, "--set", "bed.grid=[3, 3]", "--json", js, "-q",
+                              NULL};
+        assert_int_equal(tp_run_status(&sc, args), 0);
+        j = tp_read_json(js);
+        o = cJSON_GetObjectItem(j, "schedule");
+        assert_non_null(o);
+        assert_int_equal(cJSON_GetArraySize(cJSON_GetObjectItem(o, "faults")),
+                         2 * TP_FAULT_COUNT);
+        cJSON_Delete(j);
+    }
+    {
+        text = tp_read_file(grid);
+        assert_non_null(text);
+        at = strstr(text, "guard: {");
+        assert_non_null(at);
+        *at = '\0';
+        cfg = calloc(strlen(text) + 256, 1);
+        assert_non_null(cfg);
+        strcpy(cfg, text);
+        strcat(cfg, "guard: {gust: {after: 1 min, airflow: 2 m/s}}\n");
+        tp_scratch_write(&sc, "gust.yaml", cfg, gust);
+        free(cfg);
+        free(text);
+    }
+    {
+        const char *args[] = {"guard", gust, "-q", NULL};
+        tp_run_tepid(&sc, args, &r);
+        assert_int_equal(r.status, 2);
+        assert_non_null(strstr(r.err, "guard.gust"));
+        assert_non_null(strstr(r.err, "control.schedule"));
+        tp_run_clear(&r);
+    }
+    tp_scratch_destroy(&sc);
+}
+
 /* ---- ranges and their defaults --------------------------------------------------------------- */
 
 static void test_guard_without_ranges_uses_stated_defaults(void **state)
@@ -599,6 +884,10 @@ int main(void)
         cmocka_unit_test(test_guard_runs_on_a_rated_heater),
         cmocka_unit_test(test_guard_runs_on_a_gridded_plate),
         cmocka_unit_test(test_a_cold_sheet_dips_a_gridded_plate),
+        cmocka_unit_test(test_series_checks_follow_a_moving_setpoint),
+        cmocka_unit_test(test_schedule_faults_on_one_node_match_the_energy_balance),
+        cmocka_unit_test(test_reflow_schedule_no_false_trip_and_faults_caught),
+        cmocka_unit_test(test_schedule_guard_on_raw_and_gridded_forms),
     };
     return cmocka_run_group_tests(tests, NULL, teardown);
 }

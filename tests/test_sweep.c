@@ -8,6 +8,10 @@
 #include <setjmp.h>
 #include <cmocka.h>
 
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
 #include "config.h"
 #include "sweep.h"
 #include "tp_test.h"
@@ -652,7 +656,117 @@ static void test_metric_directions_documented(void **state)
                         tp_metricdef_worse_name(md->worse));
         assert_true(strstr(at, row) && strstr(at, row) < end);
     }
+    /* The segment metrics: one row per figure, `segment<N>.<key>`, with its direction. */
+    for (m = TP_MET_SWEPT; m < TP_MET_SWEPT + TP_SEGMET_COUNT; m++) {
+        const tp_metricdef *md = tp_metricdef_swept(m);
+        const char *at, *end;
+        assert_int_equal(tp_metricdef_find(md->key), m);
+        assert_int_equal(strncmp(md->key, "segment1.", 9), 0);
+        snprintf(row, sizeof row, "\n| `segment<N>.%s`", md->key + 9);
+        at = strstr(doc, row);
+        if (!at)
+            print_error("docs/sweep.md has no row for segment<N>.%s\n", md->key + 9);
+        assert_non_null(at);
+        end = strchr(at + 1, '\n');
+        snprintf(row, sizeof row, "| %s |", tp_metricdef_worse_name(md->worse));
+        assert_true(end && strstr(at, row) && strstr(at, row) < end);
+    }
     free(doc);
+}
+
+/* The achieved rate of a ramp, swept: one node of C = 1000 J/K through G = 2 W/K to a 20 degC
+ * room with 400 W, read directly, PI control, a ramp from 20 to 100 degC then a hold. Lumped
+ * energy balance, by hand: at full power C dT/dt = P - G (T - 20), so the plate can follow at
+ * most (P - G (T - 20)) / C: 0.4 K/s at 20 degC, 0.24 K/s at 100 degC. A ramp slower than that
+ * is followed at its own rate; a faster one is limited, and the reading then follows the closed
+ * form T = 220 - 200 exp(-t / 500 s) (degC, t from the start at 20 degC). */
+static void test_segment_rate_swept_matches_the_energy_balance(void **state)
+{
+    static const char *cfg =
+        "network:\n"
+        "  nodes:\n"
+        "    - {id: plate, capacity: 1000 J/K, initial: 20 degC}\n"
+        "    - {id: room, fixed: 20 degC}\n"
+        "  links:\n"
+        "    - {between: [plate, room], conductance: 2 W/K}\n"
+        "  sources:\n"
+        "    - {id: pad, node: plate, power: 400 W}\n"
+        "control:\n"
+        "  source: pad\n"
+        "  sensor: plate\n"
+        "  mode: pid\n"
+        "  kp: 2 1/K\n"
+        "  ki: 0.02 1/(K.s)\n"
+        "  period: 1 s\n"
+        "  schedule:\n"
+        "    - {to: 100 degC, ramp: 0.1 K/s}\n"
+        "    - {hold: 5 min}\n"
+        "run: {duration: 40 min, step: 1 s}\n";
+    const double P = 400.0, G = 2.0, C = 1000.0;
+    char path[TP_TEST_PATH], json[TP_TEST_PATH], stats[TP_TEST_PATH];
+    const char *grid[] = {"sweep", path, "-q", "--vary",
+                          "control.schedule.0.ramp=0.05K/s,0.1K/s,1K/s,2K/s", "--json", json,
+                          NULL};
+    const char *spread[] = {"sweep", path, "-q", "--spread",
+                            "control.schedule.0.ramp=uniform:0.05K/s:0.15K/s", "--samples", "8",
+                            "--stats", stats, NULL};
+    cJSON *root, *pt;
+    char *text;
+    int n = 0;
+    (void)state;
+    tp_scratch_write(tp_group_scratch(), "ramp.yaml", cfg, path);
+    tp_scratch_path(tp_group_scratch(), "ramp.json", json, sizeof json);
+    tp_scratch_path(tp_group_scratch(), "ramp-stats.csv", stats, sizeof stats);
+    assert_int_equal(tp_run_status(tp_group_scratch(), grid), 0);
+    root = tp_read_json(json);
+    cJSON_ArrayForEach(pt, cJSON_GetObjectItemCaseSensitive(root, "points"))
+    {
+        const cJSON *m = cJSON_GetObjectItemCaseSensitive(pt, "metrics");
+        double rate = cJSON_GetObjectItemCaseSensitive(
+                          cJSON_GetObjectItemCaseSensitive(pt, "parameters"),
+                          "control.schedule.0.ramp")->valuedouble;
+        double got = cJSON_GetObjectItemCaseSensitive(m, "segment1.rate_reading_K_per_s")
+                         ->valuedouble;
+        const cJSON *fr = cJSON_GetObjectItemCaseSensitive(m, "segment1.followable_rate_K_per_s");
+        const cJSON *fa = cJSON_GetObjectItemCaseSensitive(m, "segment1.followable_at_C");
+        /* The hold after it exists too, and a third segment does not. */
+        assert_non_null(cJSON_GetObjectItemCaseSensitive(m, "segment2.error_reading_max_K"));
+        assert_null(cJSON_GetObjectItemCaseSensitive(m, "segment3.rate_reading_K_per_s"));
+        if (rate < 0.2) {
+            /* Followed: the requested rate (the PI loop's start-up lag costs under 2 %). */
+            tp_check_rel("followed ramp", got, rate, 0.02);
+        } else {
+            /* Limited: the rate at the limit is the energy balance at that temperature, and
+             * the achieved rate the mean slope of the closed form over the segment, t1 =
+             * 80 K / rate: (T(t1) - 20) / t1 (a least-squares slope of a nearly straight curve;
+             * within 3 %). */
+            double t1 = 80.0 / rate, mean = (200.0 - 200.0 * exp(-t1 / 500.0)) / t1;
+            assert_true(cJSON_IsNumber(fr) && cJSON_IsNumber(fa));
+            tp_check_rel("followable rate", fr->valuedouble,
+                         (P - G * (fa->valuedouble - 20.0)) / C, 0.005);
+            tp_check_rel("limited ramp", got, mean, 0.03);
+            assert_true(got < rate * 0.9);
+        }
+        print_message("ramp %.2f K/s: achieved %.4f K/s\n", rate, got);
+        n++;
+    }
+    assert_int_equal(n, 4);
+    cJSON_Delete(root);
+    /* The statistics cover the segment metrics like any other: rows for mean and p5 .. p95,
+     * every achieved rate inside the spread's range. */
+    assert_int_equal(tp_run_status(tp_group_scratch(), spread), 0);
+    text = tp_read_file(stats);
+    assert_non_null(text);
+    {
+        const char *at = strstr(text, "\nsegment1.rate_reading_K_per_s,mean,8,");
+        double v;
+        assert_non_null(at);
+        v = strtod(at + strlen("\nsegment1.rate_reading_K_per_s,mean,8,"), NULL);
+        assert_true(v > 0.05 * 0.98 && v < 0.15);
+        assert_non_null(strstr(text, "\nsegment1.rate_reading_K_per_s,p95,8,"));
+        assert_non_null(strstr(text, "\nsegment2.error_reading_max_K,p50,8,"));
+    }
+    free(text);
 }
 
 static void test_same_results_for_any_jobs(void **state)
@@ -1568,6 +1682,7 @@ int main(void)
         cmocka_unit_test(test_driver_and_constant_metrics),
         cmocka_unit_test(test_worst_follows_each_metric_direction),
         cmocka_unit_test(test_metric_directions_documented),
+        cmocka_unit_test(test_segment_rate_swept_matches_the_energy_balance),
         cmocka_unit_test(test_same_results_for_any_jobs),
         cmocka_unit_test(test_failed_samples_are_reported),
         cmocka_unit_test(test_progress_ends_complete),

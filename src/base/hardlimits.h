@@ -42,7 +42,7 @@
 /* ---- the command line (cli.c, session.c, cmd_sweep.c, outfile.c) --------------------------- */
 #define TP_CLI_MAX_ARGS 256        /* option occurrences on one command line */
 #define TP_MAX_SETS 128            /* --set options on one command line */
-#define TP_SWEEP_MAX_POINTS 200000 /* grid points or samples in one sweep (~370 B each) */
+#define TP_SWEEP_MAX_POINTS 200000 /* grid points or samples in one sweep (~790 B each with the segment metrics) */
 #define TP_SWEEP_MAX_JOBS 256      /* worker threads of a sweep */
 #define TP_PATH_MAX 4096           /* longest output path accepted, bytes */
 #define TP_REPORT_SVG_MAX (64L * 1024 * 1024) /* largest figure a report reads back, bytes */

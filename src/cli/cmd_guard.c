@@ -171,7 +171,7 @@ static void print_settings(FILE *fp, const tp_guard_study *st, int evaluating)
 {
     const tp_guard_spec *g = &st->desc->guard;
     char buf[64];
-    int k;
+    int k, n;
     fprintf(fp, "  %s (safety factors %.2f in time, %.2f in rise):\n",
             evaluating ? "settings evaluated" : "recommended settings", g->time_factor,
             g->rise_factor);
@@ -189,10 +189,10 @@ static void print_settings(FILE *fp, const tp_guard_study *st, int evaluating)
         fputc('\n', fp);
     }
     fprintf(fp, "  as a config section:\n    guard:\n      settings: {");
-    for (k = 0; k < TP_G_COUNT; k++) {
+    for (k = 0, n = 0; k < TP_G_COUNT; k++) {
         fmt_setting(k, value(&st->used, k), buf, sizeof buf);
         if (isfinite(value(&st->used, k)))
-            fprintf(fp, "%s%s: %s", k ? ", " : "", tp_guard_setting_name(k), buf);
+            fprintf(fp, "%s%s: %s", n++ ? ", " : "", tp_guard_setting_name(k), buf);
     }
     fprintf(fp, "}\n");
 }
@@ -200,7 +200,7 @@ static void print_settings(FILE *fp, const tp_guard_study *st, int evaluating)
 static void print_corners(FILE *fp, const tp_guard_study *st)
 {
     int c;
-    char ts[32], first[32];
+    char ts[32], first[32], rm[32];
     fprintf(fp, "\n  healthy corners (margins: smallest rise minus rise_min, grace minus the "
                 "longest stay below the band, ceiling minus the highest reading)\n");
     fprintf(fp, "    %-44s %11s %9s %9s %9s %8s\n", "corner", "setpoint at", "rise K",
@@ -214,49 +214,107 @@ static void print_corners(FILE *fp, const tp_guard_study *st)
                                                 : isfinite(co->det.hold) ? "HOLD" : "CEILING");
         else
             snprintf(first, sizeof first, "no");
-        fprintf(fp, "    %-44s %11s %9.2f %9.0f %9.1f %8s\n", co->name,
-                isfinite(co->t_setpoint) ? ts : "never", co->rise_margin, co->hold_margin,
+        if (isnan(co->rise_margin))
+            snprintf(rm, sizeof rm, "-");
+        else
+            snprintf(rm, sizeof rm, "%.2f", co->rise_margin);
+        fprintf(fp, "    %-44s %11s %9s %9.0f %9.1f %8s\n", co->name,
+                isfinite(co->t_setpoint) ? ts : "never", rm, co->hold_margin,
                 co->ceiling_margin, first);
     }
 }
 
+/* One fault run's row: its label (the fault and where it started), each check's detection,
+ * the first, the peaks up to it and the service limit. */
+static void print_fault_row(FILE *fp, const tp_guard_study *st, const tp_guard_fault_run *fr,
+                            const char *from)
+{
+    char r[32], h[32], c[32], fi[32], sp[32], hp[32], lim[160];
+    if (fr->trace.n == 0) {
+        fprintf(fp, "    %-28s %-5s not applicable (the sensor is no node of its own)\n",
+                tp_guard_fault_phrase(fr->fault), from);
+        return;
+    }
+    fmt_time(fr->det.rise, r, sizeof r);
+    fmt_time(fr->det.hold, h, sizeof h);
+    fmt_time(fr->det.ceiling, c, sizeof c);
+    fmt_time(fr->first, fi, sizeof fi);
+    fmt_temp(fr->surface_peak, sp, sizeof sp);
+    fmt_temp(fr->heater_peak, hp, sizeof hp);
+    if (fr->limit_layer >= 0) {
+        char tl[32];
+        fmt_time(fr->t_limit, tl, sizeof tl);
+        snprintf(lim, sizeof lim, "'%s' over %.0f degC at %s%s", st->layer_id[fr->limit_layer],
+                 st->layer_limit[fr->limit_layer] - TP_KELVIN_0C, tl,
+                 fr->limit_before ? " - BEFORE detection" : " (after detection)");
+    } else {
+        snprintf(lim, sizeof lim, "%s", st->n_layers ? "not crossed" : "no limits known");
+    }
+    fprintf(fp, "    %-28s %-5s %10s %10s %10s %10s %9s %9s  %s\n",
+            tp_guard_fault_phrase(fr->fault), from, r, h, c, isfinite(fr->first) ? fi : "NEVER",
+            sp, hp, lim);
+}
+
+static const char *const mid_names[TP_GUARD_MID_COUNT] = {"ramp", "hold"};
+
 static void print_faults(FILE *fp, const tp_guard_study *st)
 {
-    int f, from;
+    int f, from, m;
     fprintf(fp, "\n  faults on the nominal case (time to detection by each check; peaks up to the "
                 "first detection)\n");
     fprintf(fp, "    %-28s %-5s %10s %10s %10s %10s %9s %9s  %s\n", "fault", "from", "rise",
             "hold", "ceiling", "first", "surface", "heater", "service limit");
-    for (f = 0; f < TP_FAULT_COUNT; f++) {
-        for (from = 0; from < 2; from++) {
-            const tp_guard_fault_run *fr = &st->faults[f][from];
-            char r[32], h[32], c[32], fi[32], sp[32], hp[32], lim[160];
-            if (fr->trace.n == 0) {
-                fprintf(fp, "    %-28s %-5s not applicable (the sensor is no node of its own)\n",
-                        tp_guard_fault_phrase(fr->fault), from ? "hold" : "cold");
-                continue;
+    for (f = 0; f < TP_FAULT_COUNT; f++)
+        for (from = 0; from < 2; from++)
+            print_fault_row(fp, st, &st->faults[f][from], from ? "hold" : "cold");
+    if (!st->scheduled)
+        return;
+    fprintf(fp, "\n  faults injected during the schedule (times from the start of the schedule; "
+                "from = the segment it was injected in)\n");
+    for (m = 0; m < TP_GUARD_MID_COUNT; m++) {
+        const tp_guard_injection *in = &st->inject[m];
+        char at[32];
+        if (in->segment < 0) {
+            fprintf(fp, "    mid-%s: the schedule has no %s segment; not injected\n",
+                    mid_names[m], mid_names[m]);
+            continue;
+        }
+        fmt_time(in->t, at, sizeof at);
+        fprintf(fp, "    mid-%s: injected at %s, the middle of segment %d (%s), setpoint "
+                    "%.1f degC\n", mid_names[m], at, in->segment + 1, mid_names[m],
+                in->setpoint - TP_KELVIN_0C);
+        for (f = 0; f < TP_FAULT_COUNT; f++) {
+            const tp_guard_fault_run *fr = &st->mid[f][m];
+            char delay[32];
+            print_fault_row(fp, st, fr, mid_names[m]);
+            if (fr->trace.n > 0 && isfinite(fr->first)) {
+                fmt_time(fr->first - in->t, delay, sizeof delay);
+                fprintf(fp, "    %-28s %-5s detected %s after the injection%s\n", "", "",
+                        delay, fr->first < in->t ? " (BEFORE it: a check trips the healthy "
+                                                   "run)" : "");
             }
-            fmt_time(fr->det.rise, r, sizeof r);
-            fmt_time(fr->det.hold, h, sizeof h);
-            fmt_time(fr->det.ceiling, c, sizeof c);
-            fmt_time(fr->first, fi, sizeof fi);
-            fmt_temp(fr->surface_peak, sp, sizeof sp);
-            fmt_temp(fr->heater_peak, hp, sizeof hp);
-            if (fr->limit_layer >= 0) {
-                char tl[32];
-                fmt_time(fr->t_limit, tl, sizeof tl);
-                snprintf(lim, sizeof lim, "'%s' over %.0f degC at %s%s",
-                         st->layer_id[fr->limit_layer],
-                         st->layer_limit[fr->limit_layer] - TP_KELVIN_0C, tl,
-                         fr->limit_before ? " - BEFORE detection" : " (after detection)");
-            } else {
-                snprintf(lim, sizeof lim, "%s", st->n_layers ? "not crossed" : "no limits known");
-            }
-            fprintf(fp, "    %-28s %-5s %10s %10s %10s %10s %9s %9s  %s\n",
-                    tp_guard_fault_phrase(fr->fault), from ? "hold" : "cold", r, h, c,
-                    isfinite(fr->first) ? fi : "NEVER", sp, hp, lim);
         }
     }
+}
+
+/* The healthy corners' trips on the schedule, each with its check, time and segment. */
+static void print_schedule_trips(FILE *fp, const tp_guard_study *st)
+{
+    static const char *const checks[3] = {"rise", "hold", "ceiling"};
+    int c, n = 0;
+    for (c = 0; c < st->n_corners; c++) {
+        const tp_guard_trip *tr = &st->trips[c];
+        char at[32];
+        if (tr->check < 0)
+            continue;
+        fmt_time(tr->t, at, sizeof at);
+        fprintf(fp, "  ! FALSE TRIP on the schedule: corner '%s', the %s check fires at %s in "
+                    "segment %d (%s) of a healthy run\n", st->corners[c].name, checks[tr->check],
+                at, tr->segment + 1, tp_schedule_kind_name(st->plan.part[tr->segment].kind));
+        n++;
+    }
+    if (n == 0)
+        fprintf(fp, "  no check trips a healthy corner on the schedule's ramps and holds\n");
 }
 
 static void print_stuck(FILE *fp, const tp_guard_study *st)
@@ -287,6 +345,18 @@ static void print_stuck(FILE *fp, const tp_guard_study *st)
                     "against your materials; fit an independent cut-out.\n");
 }
 
+/* What a scheduled study does: the corners follow the schedule; the holding state and the
+ * ceiling are judged at its highest setpoint. */
+static void print_schedule_head(FILE *fp, const tp_guard_study *st)
+{
+    char len[32];
+    fmt_time(st->plan.t_end, len, sizeof len);
+    fprintf(fp, "  control.schedule: %d segments over %s; every healthy corner follows it, the "
+                "checks judge the setpoint it moves; the faults from hold start from holding "
+                "its highest setpoint (%.1f degC), and every fault is also injected mid-ramp and "
+                "mid-hold\n", st->plan.n, len, st->setpoint - TP_KELVIN_0C);
+}
+
 static void summary(FILE *fp, const tp_session *s, const tp_guard_study *st, int evaluating)
 {
     tp_caution cautions[TP_CAUTIONS_MAX];
@@ -294,10 +364,8 @@ static void summary(FILE *fp, const tp_session *s, const tp_guard_study *st, int
     fprintf(fp, "tepid guard %s%s%s\n  ", s->cli->file, s->desc.title[0] ? ": " : "",
             s->desc.title);
     tp_summary_network(fp, s->net);
-    if (s->desc.control.n_schedule > 0)
-        fprintf(fp, "  ! control.schedule: guard studies a step to the schedule's highest "
-                    "setpoint (%.1f degC) and holding there, not the schedule's ramps and holds\n",
-                s->net->control.setpoint - TP_KELVIN_0C);
+    if (st->scheduled)
+        print_schedule_head(fp, st);
     fprintf(fp, "  %d healthy run%s (nominal%s), %d faults from the cold start and from hold, "
                 "followed %.0f min; reading step near the setpoint %.3f K\n",
             st->n_corners, st->n_corners == 1 ? "" : "s",
@@ -308,6 +376,8 @@ static void summary(FILE *fp, const tp_session *s, const tp_guard_study *st, int
     fputc('\n', fp);
     print_settings(fp, st, evaluating);
     print_corners(fp, st);
+    if (st->scheduled)
+        print_schedule_trips(fp, st);
     print_faults(fp, st);
     print_stuck(fp, st);
     fprintf(fp, "\n  verdict: %d healthy corner%s tripped; %d fault run%s crossed a protected "
@@ -421,6 +491,22 @@ static void put_corners(cJSON *root, const tp_guard_study *st)
     }
 }
 
+/* A fault run's figures into `item`. */
+static void put_fault_figures(cJSON *item, const tp_guard_study *st, const tp_guard_fault_run *fr)
+{
+    cJSON_AddBoolToObject(item, "applicable", fr->trace.n > 0);
+    put_detect(item, &fr->det);
+    tp_json_number(item, "first_detection_s", fr->first);
+    tp_json_number(item, "surface_peak_C", fr->surface_peak - TP_KELVIN_0C);
+    tp_json_number(item, "heater_peak_C", fr->heater_peak - TP_KELVIN_0C);
+    if (fr->limit_layer >= 0)
+        cJSON_AddStringToObject(item, "limit_layer", st->layer_id[fr->limit_layer]);
+    else
+        cJSON_AddNullToObject(item, "limit_layer");
+    tp_json_number(item, "limit_crossed_s", fr->t_limit);
+    cJSON_AddBoolToObject(item, "limit_before_detection", fr->limit_before);
+}
+
 static void put_faults(cJSON *root, const tp_guard_study *st)
 {
     cJSON *arr = cJSON_AddArrayToObject(root, "faults"), *item;
@@ -434,18 +520,58 @@ static void put_faults(cJSON *root, const tp_guard_study *st)
             cJSON_AddItemToArray(arr, item);
             cJSON_AddStringToObject(item, "fault", tp_guard_fault_name(fr->fault));
             cJSON_AddStringToObject(item, "from", from ? "hold" : "cold");
-            cJSON_AddBoolToObject(item, "applicable", fr->trace.n > 0);
-            put_detect(item, &fr->det);
-            tp_json_number(item, "first_detection_s", fr->first);
-            tp_json_number(item, "surface_peak_C", fr->surface_peak - TP_KELVIN_0C);
-            tp_json_number(item, "heater_peak_C", fr->heater_peak - TP_KELVIN_0C);
-            if (fr->limit_layer >= 0)
-                cJSON_AddStringToObject(item, "limit_layer", st->layer_id[fr->limit_layer]);
-            else
-                cJSON_AddNullToObject(item, "limit_layer");
-            tp_json_number(item, "limit_crossed_s", fr->t_limit);
-            cJSON_AddBoolToObject(item, "limit_before_detection", fr->limit_before);
+            put_fault_figures(item, st, fr);
         }
+    }
+}
+
+/* With a schedule: where the faults were injected, what each check made of them, and the
+ * healthy corners' trips on the schedule (segments numbered from 1). */
+static void put_schedule(cJSON *root, const tp_guard_study *st)
+{
+    static const char *const checks[3] = {"rise", "hold", "ceiling"};
+    cJSON *o = cJSON_AddObjectToObject(root, "schedule"), *inj, *arr, *trips, *item;
+    int m, f, c;
+    if (!o)
+        return;
+    tp_json_number(o, "segments", st->plan.n);
+    tp_json_number(o, "duration_s", st->plan.t_end);
+    inj = cJSON_AddArrayToObject(o, "injections");
+    arr = cJSON_AddArrayToObject(o, "faults");
+    for (m = 0; inj && arr && m < TP_GUARD_MID_COUNT; m++) {
+        const tp_guard_injection *in = &st->inject[m];
+        if (in->segment < 0 || !(item = cJSON_CreateObject()))
+            continue;
+        cJSON_AddItemToArray(inj, item);
+        cJSON_AddStringToObject(item, "at", mid_names[m]);
+        tp_json_number(item, "segment", in->segment + 1);
+        tp_json_number(item, "time_s", in->t);
+        tp_json_number(item, "setpoint_C", in->setpoint - TP_KELVIN_0C);
+        for (f = 0; f < TP_FAULT_COUNT; f++) {
+            const tp_guard_fault_run *fr = &st->mid[f][m];
+            if (!(item = cJSON_CreateObject()))
+                break;
+            cJSON_AddItemToArray(arr, item);
+            cJSON_AddStringToObject(item, "fault", tp_guard_fault_name(fr->fault));
+            cJSON_AddStringToObject(item, "at", mid_names[m]);
+            tp_json_number(item, "injected_s", in->t);
+            tp_json_number(item, "segment", in->segment + 1);
+            put_fault_figures(item, st, fr);
+            tp_json_number(item, "detection_after_injection_s", fr->first - in->t);
+        }
+    }
+    trips = cJSON_AddArrayToObject(o, "healthy_trips");
+    for (c = 0; trips && c < st->n_corners; c++) {
+        const tp_guard_trip *tr = &st->trips[c];
+        if (tr->check < 0 || !(item = cJSON_CreateObject()))
+            continue;
+        cJSON_AddItemToArray(trips, item);
+        cJSON_AddStringToObject(item, "corner", st->corners[c].name);
+        cJSON_AddStringToObject(item, "check", checks[tr->check]);
+        tp_json_number(item, "time_s", tr->t);
+        tp_json_number(item, "segment", tr->segment + 1);
+        cJSON_AddStringToObject(item, "kind",
+                                tp_schedule_kind_name(st->plan.part[tr->segment].kind));
     }
 }
 
@@ -512,6 +638,8 @@ static tp_status write_json(const char *path, const tp_session *s, const tp_guar
     put_all_settings(root, st);
     put_corners(root, st);
     put_faults(root, st);
+    if (st->scheduled)
+        put_schedule(root, st);
     put_stuck_and_layers(root, s->net, st);
     o = cJSON_AddObjectToObject(root, "verdict");
     if (o) {
@@ -587,7 +715,8 @@ const tp_verb tp_cmd_guard = {
     "the\n"
     "rise check (rise_window, rise_min, approach), the hold check (hold_band, hold_grace) and\n"
     "the ceiling, each explained; with --rise-window ... or guard.settings: it evaluates the\n"
-    "given values instead. Definitions in docs/guard.md. The checks supplement and never\n"
-    "replace an independent thermal cut-out.",
+    "given values instead. With control.schedule the corners follow the schedule and every\n"
+    "fault is also injected mid-ramp and mid-hold. Definitions in docs/guard.md. The checks\n"
+    "supplement and never replace an independent thermal cut-out.",
     "tepid guard workshop-bed-24v.yaml --plot guard.png\n"
     "tepid guard workshop-bed-24v.yaml --rise-window 40s --rise-min 2K --json guard.json"};

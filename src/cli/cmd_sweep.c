@@ -126,10 +126,11 @@ static tp_dim metric_spread_dim(int m)
         const char *unit;
         tp_dim dim;
     } dims[] = {{"s", TP_DIM_TIME},       {"K", TP_DIM_INTERVAL},   {"degC", TP_DIM_INTERVAL},
-                {"J", TP_DIM_ENERGY},     {"W", TP_DIM_POWER},      {"A", TP_DIM_CURRENT}};
+                {"J", TP_DIM_ENERGY},     {"W", TP_DIM_POWER},      {"A", TP_DIM_CURRENT},
+                {"K/s", TP_DIM_RATE}};
     size_t k;
     for (k = 0; k < sizeof dims / sizeof dims[0]; k++)
-        if (strcmp(tp_metricdef_get(m)->file_unit, dims[k].unit) == 0)
+        if (strcmp(tp_metricdef_swept(m)->file_unit, dims[k].unit) == 0)
             return dims[k].dim;
     return TP_DIM_NONE;
 }
@@ -452,12 +453,12 @@ static void unit_token(const tp_sweep_param *p, char *buf, size_t size)
 
 static double metric_out(int m, double si)
 {
-    return tp_metricdef_file_value(tp_metricdef_get(m), si);
+    return tp_metricdef_file_value(tp_metricdef_swept(m), si);
 }
 
 static void metric_text(int m, double si, char *buf, size_t size)
 {
-    tp_summary_metric(tp_metricdef_get(m), si, buf, size);
+    tp_summary_metric(tp_metricdef_swept(m), si, buf, size);
 }
 
 static const char *spread_kind_name(tp_spread_kind k)
@@ -599,7 +600,7 @@ static void grid_table(FILE *fp, const tp_sweep_plan *plan, const tp_sweep_resul
     for (k = 0; k < plan->n_params; k++)
         fprintf(fp, "  %*s", width[k], plan->params[k].path);
     for (c = 0; c < nc; c++)
-        fprintf(fp, " %14s", tp_metricdef_get(cols[c])->label);
+        fprintf(fp, " %14s", tp_metricdef_swept(cols[c])->label);
     fputc('\n', fp);
     for (k = 0; k < plan->n_params; k++) {
         const char *u = param_unit_shown(&plan->params[k]);
@@ -607,7 +608,7 @@ static void grid_table(FILE *fp, const tp_sweep_plan *plan, const tp_sweep_resul
         fprintf(fp, "  %*s", width[k], buf);
     }
     for (c = 0; c < nc; c++) {
-        const tp_metricdef *md = tp_metricdef_get(cols[c]);
+        const tp_metricdef *md = tp_metricdef_swept(cols[c]);
         /* A duration carries its own units ("7 min 20 s"). */
         if (md->form == TP_FORM_DURATION)
             snprintf(buf, sizeof buf, " ");
@@ -644,8 +645,8 @@ static void spread_table(FILE *fp, const tp_sweep_plan *plan, const tp_sweep_sum
     fprintf(fp, "\n  %-18s %5s %*s %*s %*s %*s %*s %*s %-8s %-16s %s\n", "metric", "unit",
             SPREAD_COL, "mean", SPREAD_COL, "sd", SPREAD_COL, "p5", SPREAD_COL, "p50", SPREAD_COL,
             "p95", SPREAD_COL, "worst", "sample", "worst is", "driven most by (Spearman rho)");
-    for (m = 0; m < TP_MET_SWEPT; m++) {
-        const tp_metricdef *mi = tp_metricdef_get(m);
+    for (m = 0; m < plan->n_metrics; m++) {
+        const tp_metricdef *mi = tp_metricdef_swept(m);
         const tp_sweep_summary *s = &sum[m];
         if (s->n == 0)
             continue; /* listed below as not defined */
@@ -669,17 +670,17 @@ static void spread_table(FILE *fp, const tp_sweep_plan *plan, const tp_sweep_sum
             fputs(" -", fp);
         fputc('\n', fp);
     }
-    for (m = 0; m < TP_MET_SWEPT; m++)
+    for (m = 0; m < plan->n_metrics; m++)
         if (sum[m].absent > 0 && sum[m].n > 0)
             fprintf(fp,
                     "  %s: absent in %ld sample%s (not reached in the simulated time); "
                     "statistics over the other %ld\n",
-                    tp_metricdef_get(m)->label, sum[m].absent, sum[m].absent == 1 ? "" : "s",
+                    tp_metricdef_swept(m)->label, sum[m].absent, sum[m].absent == 1 ? "" : "s",
                     sum[m].n);
-    for (m = 0, none = 0; m < TP_MET_SWEPT; m++)
+    for (m = 0, none = 0; m < plan->n_metrics; m++)
         if (sum[m].n == 0) {
             fprintf(fp, "%s%s",
-                    none ? ", " : "  not defined for any sample: ", tp_metricdef_get(m)->key);
+                    none ? ", " : "  not defined for any sample: ", tp_metricdef_swept(m)->key);
             none = 1;
         }
     if (none)
@@ -705,8 +706,8 @@ static tp_status write_csv(const char *path, const tp_sweep_plan *plan, const tp
         fprintf(o.fp, ",%s%s%s", plan->params[k].path, tok[0] ? "_" : "", tok);
     }
     fputs(",ok", o.fp);
-    for (k = 0; k < TP_MET_SWEPT; k++)
-        fprintf(o.fp, ",%s", tp_metricdef_get(k)->key);
+    for (k = 0; k < plan->n_metrics; k++)
+        fprintf(o.fp, ",%s", tp_metricdef_swept(k)->key);
     fputc('\n', o.fp);
     for (i = 0; i < total; i++) {
         fprintf(o.fp, "%ld", i + 1);
@@ -715,7 +716,7 @@ static tp_status write_csv(const char *path, const tp_sweep_plan *plan, const tp
             tp_csv_real(o.fp, param_out(&plan->params[k], tp_sweep_value(plan, i, k)));
         }
         fprintf(o.fp, ",%d", res[i].ok);
-        for (k = 0; k < TP_MET_SWEPT; k++) {
+        for (k = 0; k < plan->n_metrics; k++) {
             fputc(',', o.fp);
             tp_csv_real(o.fp, metric_out(k, res[i].metric[k]));
         }
@@ -776,7 +777,7 @@ static void json_until(cJSON *root, const options *o, int met)
         cJSON *e = append_item(arr, 0);
         if (!e)
             return;
-        cJSON_AddStringToObject(e, "metric", tp_metricdef_get(t->metric)->key);
+        cJSON_AddStringToObject(e, "metric", tp_metricdef_swept(t->metric)->key);
         cJSON_AddStringToObject(e, "statistic", tp_sweep_stat_name(t->stat));
         tp_json_number(e, "halfwidth", t->halfwidth);
         tp_json_number(e, "reached", t->reached);
@@ -846,15 +847,15 @@ static tp_status write_json(const char *path, const study_info *info, const tp_s
             continue;
         }
         mv = cJSON_AddObjectToObject(pt, "metrics");
-        for (k = 0; mv && k < TP_MET_SWEPT; k++)
-            tp_json_number(mv, tp_metricdef_get(k)->key, metric_out(k, res[i].metric[k]));
+        for (k = 0; mv && k < plan->n_metrics; k++)
+            tp_json_number(mv, tp_metricdef_swept(k)->key, metric_out(k, res[i].metric[k]));
     }
     if (sum) {
         cJSON *stats = cJSON_AddObjectToObject(root, "statistics");
         int m;
-        for (m = 0; stats && m < TP_MET_SWEPT; m++) {
+        for (m = 0; stats && m < plan->n_metrics; m++) {
             const tp_sweep_summary *sm = &sum[m];
-            cJSON *o = cJSON_AddObjectToObject(stats, tp_metricdef_get(m)->key), *rho;
+            cJSON *o = cJSON_AddObjectToObject(stats, tp_metricdef_swept(m)->key), *rho;
             if (!o)
                 break;
             tp_json_number(o, "n", (double)sm->n);
@@ -915,13 +916,13 @@ static void axis_label(const tp_sweep_param *p, char *buf, size_t size)
 
 static void metric_label(int m, char *buf, size_t size)
 {
-    const tp_metricdef *mi = tp_metricdef_get(m);
+    const tp_metricdef *mi = tp_metricdef_swept(m);
     snprintf(buf, size, "%s (%s)", mi->label, mi->text_unit);
 }
 
 static double metric_plot(int m, double si)
 {
-    return isfinite(si) ? tp_metricdef_text_value(tp_metricdef_get(m), si) : TP_UNSET;
+    return isfinite(si) ? tp_metricdef_text_value(tp_metricdef_swept(m), si) : TP_UNSET;
 }
 
 static const char *chart_title(const study_info *info)
@@ -1057,7 +1058,7 @@ static tp_status plot_map(const char *path, const study_info *s, const tp_sweep_
     axis_label(px, xl, sizeof xl);
     axis_label(py, yl, sizeof yl);
     metric_label(metric, zl, sizeof zl);
-    snprintf(title, sizeof title, "%s: %s", chart_title(s), tp_metricdef_get(metric)->label);
+    snprintf(title, sizeof title, "%s: %s", chart_title(s), tp_metricdef_swept(metric)->label);
     memset(&map, 0, sizeof map);
     map.title = title;
     map.xlabel = xl;
@@ -1105,13 +1106,13 @@ static tp_status plot_distribution(const char *path, const study_info *s,
     if (n == 0) {
         free(x);
         tp_diag_error(d, tp_diag_loc_none(), path, "choose another --metric",
-                      "no sample has a value of %s to draw", tp_metricdef_get(metric)->key);
+                      "no sample has a value of %s to draw", tp_metricdef_swept(metric)->key);
         return TP_ERR_SOLVER;
     }
     qsort(x, (size_t)n, sizeof *x, cmp_double);
     for (i = 0; i < n; i++)
         y[i] = (double)(i + 1) / (double)n;
-    ser = (tp_plot_series){tp_metricdef_get(metric)->label, x, y, (size_t)n, 0, n < 2, 0};
+    ser = (tp_plot_series){tp_metricdef_swept(metric)->label, x, y, (size_t)n, 0, n < 2, 0};
     panel = (tp_plot_panel){"fraction of samples at or below", NULL, &ser, 1, lines, 3, 1.0};
     metric_label(metric, xl, sizeof xl);
     snprintf(title, sizeof title, "%s: %ld samples", chart_title(s), n);
@@ -1155,8 +1156,8 @@ static void interval_table(FILE *fp, const tp_sweep_plan *plan, const tp_sweep_s
     for (k = 0; k < TP_STAT_COUNT; k++)
         fprintf(fp, " %*s", CI_COL, tp_sweep_stat_name(k));
     fputc('\n', fp);
-    for (m = 0; m < TP_MET_SWEPT; m++) {
-        const tp_metricdef *mi = tp_metricdef_get(m);
+    for (m = 0; m < plan->n_metrics; m++) {
+        const tp_metricdef *mi = tp_metricdef_swept(m);
         const tp_sweep_summary *s = &sum[m];
         if (s->n == 0)
             continue;
@@ -1278,6 +1279,7 @@ static cJSON *study_json(const tp_cli *cli, const study_info *info, const tp_swe
     cJSON_AddNumberToObject(st, "samples", (double)plan->n_samples);
     cJSON_AddStringToObject(st, "design", tp_sweep_design_name(plan->design));
     cJSON_AddNumberToObject(st, "replicates", (double)plan->replicates);
+    cJSON_AddNumberToObject(st, "metrics", (double)plan->n_metrics);
     params = cJSON_AddArrayToObject(st, "parameters");
     for (k = 0; params && k < plan->n_params; k++) {
         const tp_sweep_param *p = &plan->params[k];
@@ -1330,7 +1332,7 @@ static tp_status write_shard(const char *path, const options *o, const study_inf
             cJSON_AddItemToArray(pt, cJSON_CreateString(res[i].reason));
             continue;
         }
-        for (k = 0; k < TP_MET_SWEPT; k++)
+        for (k = 0; k < plan->n_metrics; k++)
             cJSON_AddItemToArray(pt, exact_item(res[i].metric[k]));
     }
     cautions = cJSON_AddArrayToObject(root, "cautions");
@@ -1399,7 +1401,8 @@ static tp_status plan_from_study(const cJSON *st, tp_sweep_plan *plan, study_inf
     tp_sweep_plan_init(plan, TP_SWEEP_SPREAD);
     plan->n_samples = json_long(st, "samples");
     plan->seed = (uint64_t)strtoull(json_text(st, "seed"), &end, 10);
-    if (design < 0 || plan->n_samples < 1 || plan->n_samples > TP_SWEEP_MAX_POINTS ||
+    plan->n_metrics = (int)json_long(st, "metrics");
+    if (plan->n_metrics < TP_MET_SWEPT || plan->n_metrics > TP_MET_SWEPT_MAX || design < 0 || plan->n_samples < 1 || plan->n_samples > TP_SWEEP_MAX_POINTS ||
         !cJSON_IsArray(params) || cJSON_GetArraySize(params) > TP_SWEEP_MAX_PARAMS)
         return TP_ERR_USAGE;
     cJSON_ArrayForEach(p, params)
@@ -1428,8 +1431,8 @@ static tp_status plan_from_study(const cJSON *st, tp_sweep_plan *plan, study_inf
 }
 
 /* The points and cautions of one shard into the results and totals. */
-static tp_status take_shard(const shard_file *f, long first, long end, tp_sweep_result *res,
-                            tp_sweep_totals *tot, tp_diag *d)
+static tp_status take_shard(const shard_file *f, long first, long end, int n_metrics,
+                            tp_sweep_result *res, tp_sweep_totals *tot, tp_diag *d)
 {
     const cJSON *points = cJSON_GetObjectItemCaseSensitive(f->root, "points"), *pt, *c;
     const cJSON *totals = cJSON_GetObjectItemCaseSensitive(f->root, "totals");
@@ -1445,13 +1448,13 @@ static tp_status take_shard(const shard_file *f, long first, long end, tp_sweep_
         int k = 0;
         const cJSON *v;
         memset(r, 0, sizeof *r);
-        for (k = 0; k < TP_MET_SWEPT; k++)
+        for (k = 0; k < TP_MET_SWEPT_MAX; k++)
             r->metric[k] = TP_UNSET;
         if (cJSON_GetArraySize(pt) == 1 && cJSON_IsString(cJSON_GetArrayItem(pt, 0))) {
             snprintf(r->reason, sizeof r->reason, "%s", cJSON_GetArrayItem(pt, 0)->valuestring);
             continue;
         }
-        if (cJSON_GetArraySize(pt) != TP_MET_SWEPT)
+        if (cJSON_GetArraySize(pt) != n_metrics)
             return merge_refuse(d, f->path, "run the shard again", "a point has the wrong size");
         k = 0;
         cJSON_ArrayForEach(v, pt) r->metric[k++] = exact_value(v);
@@ -1567,7 +1570,7 @@ static tp_status merge_run(const tp_cli *cli, options *o, tp_diag *d)
     }
     for (i = 0; rc == TP_OK && i < o->n_merge; i++)
         rc = take_shard(&f[i], shard_first(total, f[i].k - 1, f[i].n),
-                        shard_first(total, f[i].k, f[i].n), res, &tot, d);
+                        shard_first(total, f[i].k, f[i].n), plan.n_metrics, res, &tot, d);
     if (rc == TP_OK)
         rc = finish(cli, o, &info, &plan, res, total, &tot, 0, o->n_merge,
                     tp_cli_text_stream(cli), d);
@@ -1578,6 +1581,27 @@ static tp_status merge_run(const tp_cli *cli, options *o, tp_diag *d)
     free(info.network);
     tp_sweep_plan_clear(&plan);
     return rc;
+}
+
+/* A segment metric named by --metric or --until must be one of the file's: its schedule has
+ * enough segments (and the sweep keeps the first TP_METRICDEF_SEGMENTS). */
+static tp_status check_metric_names(const options *o, const tp_sweep_plan *plan, tp_diag *d)
+{
+    int k, m = o->metric, n_seg = (plan->n_metrics - TP_MET_SWEPT) / TP_SEGMET_COUNT;
+    for (k = -1; k < o->n_until; k++) {
+        if (k >= 0)
+            m = o->until[k].metric;
+        if (m < plan->n_metrics)
+            continue;
+        tp_diag_error(d, (tp_loc){k < 0 ? "--metric" : "--until", 1, 1}, NULL,
+                      n_seg ? "name one of the schedule's segments, from segment1"
+                            : "segment metrics need control.schedule in the file",
+                      "'%s': the file's schedule has %d segment%s%s",
+                      tp_metricdef_swept(m)->key, n_seg, n_seg == 1 ? "" : "s",
+                      n_seg == TP_METRICDEF_SEGMENTS ? " kept by a sweep" : "");
+        return TP_ERR_USAGE;
+    }
+    return TP_OK;
 }
 
 static tp_status build_plan(const options *o, const tp_session *s, tp_sweep_plan *plan, tp_diag *d)
@@ -1605,6 +1629,9 @@ static tp_status build_plan(const options *o, const tp_session *s, tp_sweep_plan
                               "a heat map needs evenly spaced values");
                 st = TP_ERR_USAGE;
             }
+    tp_sweep_plan_metrics(plan, &s->desc);
+    if (st == TP_OK)
+        st = check_metric_names(o, plan, d);
     if (st == TP_OK && plan->mode == TP_SWEEP_SPREAD)
         st = tp_sweep_design_build(plan, (tp_sweep_design)o->design, o->replicates, d);
     if (st != TP_OK)
@@ -1683,7 +1710,7 @@ static void until_text(FILE *fp, const options *o, long run, long rep_size, int 
         fprintf(fp, "\n  --until: --samples %ld reached before every target was met\n", run);
     for (k = 0; k < o->n_until; k++) {
         const target *t = &o->until[k];
-        const tp_metricdef *md = tp_metricdef_get(t->metric);
+        const tp_metricdef *md = tp_metricdef_swept(t->metric);
         const char *u = md->form == TP_FORM_DURATION ? "" : md->text_unit;
         half_text(md, t->reached, now, sizeof now);
         half_text(md, t->halfwidth, want, sizeof want);
@@ -1702,9 +1729,9 @@ static void until_text(FILE *fp, const options *o, long run, long rep_size, int 
 static tp_sweep_summary *summarise_all(const tp_sweep_plan *plan, const tp_sweep_result *res,
                                        long n, const int *want)
 {
-    tp_sweep_summary *sum = calloc(TP_MET_SWEPT, sizeof *sum);
+    tp_sweep_summary *sum = calloc(TP_MET_SWEPT_MAX, sizeof *sum);
     int m;
-    for (m = 0; sum && m < TP_MET_SWEPT; m++)
+    for (m = 0; sum && m < plan->n_metrics; m++)
         if ((!want || want[m]) &&
             tp_sweep_summarise_first(plan, res, n, m, want == NULL, &sum[m]) != TP_OK) {
             free(sum);
@@ -1733,7 +1760,7 @@ static tp_status run_until(options *o, const tp_sweep_plan *plan, const tp_descr
                            tp_sweep_result *res, tp_sweep_totals *tot, long *run, int *met)
 {
     long total = tp_sweep_count(plan), done = 0;
-    int want[TP_MET_SWEPT] = {0}, k;
+    int want[TP_MET_SWEPT_MAX] = {0}, k;
     for (k = 0; k < o->n_until; k++)
         want[o->until[k].metric] = 1;
     *met = 0;
@@ -1758,7 +1785,8 @@ static tp_status run_until(options *o, const tp_sweep_plan *plan, const tp_descr
 }
 
 /* The statistics and their 95 % intervals as CSV: one row per metric and statistic. */
-static tp_status write_stats(const char *path, const tp_sweep_summary *sum, tp_diag *d)
+static tp_status write_stats(const char *path, const tp_sweep_plan *plan,
+                             const tp_sweep_summary *sum, tp_diag *d)
 {
     tp_outfile o;
     int m, k;
@@ -1766,12 +1794,12 @@ static tp_status write_stats(const char *path, const tp_sweep_summary *sum, tp_d
     if (st != TP_OK)
         return st;
     fputs("metric,statistic,n,value,low,high,halfwidth\n", o.fp);
-    for (m = 0; m < TP_MET_SWEPT; m++)
+    for (m = 0; m < plan->n_metrics; m++)
         for (k = 0; k < TP_STAT_COUNT; k++) {
             const tp_sweep_summary *sm = &sum[m];
             int spread = k == TP_STAT_SD;
             double v = tp_sweep_summary_value(sm, k);
-            fprintf(o.fp, "%s,%s,%ld,", tp_metricdef_get(m)->key, tp_sweep_stat_name(k), sm->n);
+            fprintf(o.fp, "%s,%s,%ld,", tp_metricdef_swept(m)->key, tp_sweep_stat_name(k), sm->n);
             tp_csv_real(o.fp, spread ? v : metric_out(m, v));
             fputc(',', o.fp);
             tp_csv_real(o.fp, spread ? sm->lo[k] : metric_out(m, sm->lo[k]));
@@ -1803,7 +1831,7 @@ static tp_status finish(const tp_cli *cli, options *o, const study_info *info,
     if (rc == TP_OK && (out = tp_cli_get(cli, "json")))
         rc = write_json(out, info, plan, res, run, sum, tot, o, met, d);
     if (rc == TP_OK && sum && (out = tp_cli_get(cli, "stats")))
-        rc = write_stats(out, sum, d);
+        rc = write_stats(out, plan, sum, d);
     if (o->metric < 0)
         o->metric = default_metric(res, run);
     if (rc == TP_OK && (out = tp_cli_get(cli, "plot")) && tot->failed < run) {

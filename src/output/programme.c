@@ -3,6 +3,7 @@
 
 #include <math.h>
 
+#include "metricdef.h"
 #include "summary.h"
 #include "units.h"
 
@@ -106,17 +107,17 @@ void tp_programme_json(cJSON *root, const tp_program *p)
         celsius(o, "from_C", g->part.from);
         celsius(o, "to_C", g->part.to);
         tp_json_number(o, "rate_requested_K_per_s", g->part.rate);
-        tp_json_number(o, "rate_reading_K_per_s", g->rate_reading);
-        tp_json_number(o, "rate_surface_K_per_s", g->rate_surface);
-        tp_json_number(o, "error_reading_max_K", g->err_max_reading);
+        tp_json_number(o, TP_SEGKEY_RATE_READING, g->rate_reading);
+        tp_json_number(o, TP_SEGKEY_RATE_SURFACE, g->rate_surface);
+        tp_json_number(o, TP_SEGKEY_ERR_READING, g->err_max_reading);
         tp_json_number(o, "error_reading_rms_K", g->err_rms_reading);
         tp_json_number(o, "error_surface_max_K", g->err_max_surface);
         tp_json_number(o, "error_surface_rms_K", g->err_rms_surface);
-        tp_json_number(o, "at_limit_fraction", g->at_limit);
+        tp_json_number(o, TP_SEGKEY_AT_LIMIT, g->at_limit);
         cJSON_AddBoolToObject(o, "limited", g->limited);
-        tp_json_number(o, "followable_rate_K_per_s", g->follow_rate);
-        celsius(o, "followable_at_C", g->follow_at);
-        tp_json_number(o, "overshoot_reading_K", g->overshoot_reading);
+        tp_json_number(o, TP_SEGKEY_FOLLOW_RATE, g->follow_rate);
+        celsius(o, TP_SEGKEY_FOLLOW_AT, g->follow_at);
+        tp_json_number(o, TP_SEGKEY_OVERSHOOT_READING, g->overshoot_reading);
         tp_json_number(o, "overshoot_surface_K", g->overshoot_surface);
     }
     above = cJSON_AddArrayToObject(root, "time_above");

@@ -20,6 +20,7 @@
 #include "config.h"
 #include "integrate.h"
 #include "materials.h"
+#include "program.h"
 
 #define TP_GUARD_TIME_EPS 1.0e-6 /* s: sample times closer than this are the same time */
 
@@ -37,19 +38,32 @@ double tp_guard_first(const tp_guard_detect *det)
     return f;
 }
 
+/* The setpoint at sample i (sp[i], or `setpoint` when sp is NULL; NaN while a schedule has the
+ * heater off) after updating the "reached" latch of tp_guard_check_series at that sample. */
+static double latch_step(const double *sp, double setpoint, const double *r, long i, int *reached)
+{
+    double s = sp ? sp[i] : setpoint;
+    if (!isfinite(s) || (sp && i > 0 && s > sp[i - 1] + TP_GUARD_STEP_K))
+        *reached = 0;
+    if (isfinite(s) && !*reached && r[i] >= s)
+        *reached = 1;
+    return s;
+}
+
 /* Walks the rise check's armed stretches. For every sample i whose window start lies in the
  * current stretch, calls back with the rise r_i - r_j. Returns the first i at which `stop`
  * says so, or -1. The window start j is the last sample at or before t_i - window. */
 typedef int (*rise_fn)(void *user, long i, double rise);
 
-static long walk_rise(const double *t, const double *r, long n, double setpoint, int reached,
-                      double approach, double window, rise_fn fn, void *user)
+static long walk_rise(const double *t, const double *r, const double *sp, long n,
+                      double setpoint, int reached, double approach, double window, rise_fn fn,
+                      void *user)
 {
     long i, start = -1, j = 0;
     for (i = 0; i < n; i++) {
-        if (!reached && r[i] >= setpoint)
-            reached = 1;
-        if (reached || !(r[i] < setpoint - approach)) {
+        double s = latch_step(sp, setpoint, r, i, &reached);
+        int ramping = sp && i > 0 && s > sp[i - 1] + TP_GUARD_TIME_EPS;
+        if (!ramping && (reached || !(r[i] < s - approach))) {
             start = -1;
             continue;
         }
@@ -88,68 +102,101 @@ static int rise_min_acc(void *user, long i, double rise)
     return 0;
 }
 
-double tp_guard_min_rise(const double *t, const double *r, long n, double setpoint, int reached,
-                         double approach, double window, double *at)
+static double min_rise_series(const double *t, const double *r, const double *sp, long n,
+                              double setpoint, int reached, double approach, double window,
+                              double *at)
 {
     min_rise_acc a = {HUGE_VAL, -1};
-    walk_rise(t, r, n, setpoint, reached, approach, window, rise_min_acc, &a);
+    walk_rise(t, r, sp, n, setpoint, reached, approach, window, rise_min_acc, &a);
     if (at)
         *at = a.at >= 0 ? t[a.at] : TP_UNSET;
     return a.min;
 }
 
-double tp_guard_longest_below(const double *t, const double *r, long n, double setpoint,
-                              int reached, double band, double *at)
+double tp_guard_min_rise(const double *t, const double *r, long n, double setpoint, int reached,
+                         double approach, double window, double *at)
+{
+    return min_rise_series(t, r, NULL, n, setpoint, reached, approach, window, at);
+}
+
+/* Calls back at every sample the hold check counts (armed, the reading below the band) with
+ * the sample where its run of such samples began; returns the first i at which `fn` says
+ * stop, or -1. */
+typedef int (*below_fn)(void *user, long i, long first);
+
+static long walk_below(const double *t, const double *r, const double *sp, long n,
+                       double setpoint, int reached, double band, below_fn fn, void *user)
 {
     long i, first = -1;
-    double longest = 0.0;
-    if (at)
-        *at = TP_UNSET;
+    (void)t;
     for (i = 0; i < n; i++) {
-        if (!reached && r[i] >= setpoint)
-            reached = 1;
-        if (!reached || !(r[i] < setpoint - band)) {
+        double s = latch_step(sp, setpoint, r, i, &reached);
+        if (!reached || !(r[i] < s - band)) {
             first = -1;
             continue;
         }
         if (first < 0)
             first = i;
-        if (t[i] - t[first] > longest) {
-            longest = t[i] - t[first];
-            if (at)
-                *at = t[first];
-        }
+        if (fn(user, i, first))
+            return i;
     }
-    return longest;
+    return -1;
 }
 
-tp_guard_detect tp_guard_check(const double *t, const double *r, long n, double setpoint,
-                               int reached, const tp_guard_settings *s)
+typedef struct below_acc {
+    const double *t;
+    double longest, at, grace;
+} below_acc;
+
+static int below_longest(void *user, long i, long first)
+{
+    below_acc *a = user;
+    if (a->t[i] - a->t[first] > a->longest) {
+        a->longest = a->t[i] - a->t[first];
+        a->at = a->t[first];
+    }
+    return 0;
+}
+
+static int below_past_grace(void *user, long i, long first)
+{
+    const below_acc *a = user;
+    return a->t[i] - a->t[first] > a->grace + TP_GUARD_TIME_EPS;
+}
+
+static double longest_below_series(const double *t, const double *r, const double *sp, long n,
+                                   double setpoint, int reached, double band, double *at)
+{
+    below_acc a = {t, 0.0, TP_UNSET, 0.0};
+    walk_below(t, r, sp, n, setpoint, reached, band, below_longest, &a);
+    if (at)
+        *at = a.at;
+    return a.longest;
+}
+
+double tp_guard_longest_below(const double *t, const double *r, long n, double setpoint,
+                              int reached, double band, double *at)
+{
+    return longest_below_series(t, r, NULL, n, setpoint, reached, band, at);
+}
+
+tp_guard_detect tp_guard_check_series(const double *t, const double *r, const double *sp, long n,
+                                      double setpoint, int reached, const tp_guard_settings *s)
 {
     tp_guard_detect det = {TP_UNSET, TP_UNSET, TP_UNSET};
-    long i, first = -1;
-    int hold_armed = reached;
+    long i;
     if (isfinite(s->rise_window) && isfinite(s->rise_min)) {
         double approach = isfinite(s->approach) ? s->approach : 0.0, rmin = s->rise_min;
-        i = walk_rise(t, r, n, setpoint, reached, approach, s->rise_window, rise_below, &rmin);
+        i = walk_rise(t, r, sp, n, setpoint, reached, approach, s->rise_window, rise_below,
+                      &rmin);
         if (i >= 0)
             det.rise = t[i];
     }
     if (isfinite(s->hold_band) && isfinite(s->hold_grace)) {
-        for (i = 0; i < n; i++) {
-            if (!hold_armed && r[i] >= setpoint)
-                hold_armed = 1;
-            if (!hold_armed || !(r[i] < setpoint - s->hold_band)) {
-                first = -1;
-                continue;
-            }
-            if (first < 0)
-                first = i;
-            if (t[i] - t[first] > s->hold_grace + TP_GUARD_TIME_EPS) {
-                det.hold = t[i];
-                break;
-            }
-        }
+        below_acc a = {t, 0.0, TP_UNSET, s->hold_grace};
+        i = walk_below(t, r, sp, n, setpoint, reached, s->hold_band, below_past_grace, &a);
+        if (i >= 0)
+            det.hold = t[i];
     }
     if (isfinite(s->ceiling)) {
         for (i = 0; i < n; i++) {
@@ -160,6 +207,12 @@ tp_guard_detect tp_guard_check(const double *t, const double *r, long n, double 
         }
     }
     return det;
+}
+
+tp_guard_detect tp_guard_check(const double *t, const double *r, long n, double setpoint,
+                               int reached, const tp_guard_settings *s)
+{
+    return tp_guard_check_series(t, r, NULL, n, setpoint, reached, s);
 }
 
 /* ---- names -------------------------------------------------------------------------------- */
@@ -305,12 +358,13 @@ static void trace_clear(tp_guard_trace *tr)
     free(tr->surface);
     free(tr->heater);
     free(tr->duty);
+    free(tr->sp);
     free(tr->layers);
     memset(tr, 0, sizeof *tr);
 }
 
-static int trace_push(tp_guard_trace *tr, double t, double reading, double surface,
-                      double heater, double duty, const double *layers)
+static int trace_push(tp_guard_trace *tr, double t, const tp_sample *s, double surface,
+                      double heater, const double *layers)
 {
     long i = tr->n;
     int k;
@@ -320,16 +374,17 @@ static int trace_push(tp_guard_trace *tr, double t, double reading, double surfa
         size_t layers_width = (size_t)(tr->n_layers > 0 ? tr->n_layers : 1);
         if (tp_array_resize(&tr->t, rows, d) || tp_array_resize(&tr->reading, rows, d) ||
             tp_array_resize(&tr->surface, rows, d) || tp_array_resize(&tr->heater, rows, d) ||
-            tp_array_resize(&tr->duty, rows, d) ||
+            tp_array_resize(&tr->duty, rows, d) || tp_array_resize(&tr->sp, rows, d) ||
             tp_array_resize(&tr->layers, rows * layers_width, d))
             return -1;
         tr->cap = cap;
     }
     tr->t[i] = t;
-    tr->reading[i] = reading;
+    tr->reading[i] = s->reading;
     tr->surface[i] = surface;
     tr->heater[i] = heater;
-    tr->duty[i] = duty;
+    tr->duty[i] = s->duty;
+    tr->sp[i] = s->setpoint;
     for (k = 0; k < tr->n_layers; k++)
         tr->layers[i * tr->n_layers + k] = layers[k];
     tr->n++;
@@ -384,8 +439,8 @@ static int record(void *user, const tp_sample *s)
     int k;
     for (k = 0; k < rc->tr->n_layers; k++)
         layers[k] = layer_temp(rc->net, rc->layers[k], s->temps);
-    if (trace_push(rc->tr, rc->t0 + s->t, s->reading, surface_temp(s->eval, s->temps, rc->map),
-                   heater_temp(rc->net, s->temps), s->duty, layers) != 0) {
+    if (trace_push(rc->tr, rc->t0 + s->t, s, surface_temp(s->eval, s->temps, rc->map),
+                   heater_temp(rc->net, s->temps), layers) != 0) {
         rc->failed = 1;
         return 1;
     }
@@ -405,12 +460,14 @@ typedef struct hook_ctx {
     tp_guard_fault fault;
     double pin;      /* K, pinned reading */
     double max_duty;
+    double t_on;     /* s of the run from which the fault acts (0: from the start) */
 } hook_ctx;
 
 static double hook_reading(void *user, double t, double reading)
 {
     const hook_ctx *h = user;
-    (void)t;
+    if (t < h->t_on - TP_GUARD_TIME_EPS)
+        return reading;
     if (h->fault == TP_FAULT_SENSOR_SHORT || h->fault == TP_FAULT_SENSOR_OPEN)
         return h->pin;
     return reading;
@@ -419,7 +476,8 @@ static double hook_reading(void *user, double t, double reading)
 static double hook_duty(void *user, double t, double duty)
 {
     const hook_ctx *h = user;
-    (void)t;
+    if (t < h->t_on - TP_GUARD_TIME_EPS)
+        return duty;
     switch (h->fault) {
     case TP_FAULT_HEATER_OPEN:
         return 0.0;
@@ -442,17 +500,35 @@ typedef struct ctx {
 } ctx;
 
 /* The controller memory after ticking on readings r[0..n-1], and the gap below the setpoint at
- * which it first left full power (NaN: it never did below the setpoint). */
-static void replay(const tp_control *c, const double *r, long n, tp_control_state *s, double *gap)
+ * which it first left full power (NaN: it never did below the setpoint). With a schedule, sp
+ * holds the setpoint of each tick (NaN: off, after which the controller starts afresh, as
+ * tp_integrate runs it); NULL: the controller's own setpoint. */
+static void replay(const tp_control *c, const double *r, const double *sp, long n,
+                   tp_control_state *s, double *gap)
 {
+    tp_control cc = *c;
     long i;
+    int was_off = 0;
     tp_control_start(c, s);
     *gap = TP_UNSET;
     for (i = 0; i < n; i++) {
-        double u = tp_control_tick(c, s, r[i]);
-        if (!isfinite(*gap) && r[i] < c->setpoint && u < c->max_duty * (1.0 - 1e-9))
-            *gap = c->setpoint - r[i];
+        double u;
+        if (sp) {
+            if (!isfinite(sp[i])) {
+                was_off = 1;
+                continue;
+            }
+            if (was_off)
+                tp_control_start(c, s);
+            was_off = 0;
+            cc.setpoint = sp[i];
+        }
+        u = tp_control_tick(&cc, s, r[i]);
+        if (!isfinite(*gap) && r[i] < cc.setpoint && u < c->max_duty * (1.0 - 1e-9))
+            *gap = cc.setpoint - r[i];
     }
+    if (was_off)
+        tp_control_start(c, s);
 }
 
 /* Where each study layer is on `net`. */
@@ -595,7 +671,7 @@ static tp_status run_hold(ctx *cx, const tp_description *cd, const tp_network *n
         }
         t_next = applied < ne && when[applied] < g->hold ? when[applied] : g->hold;
         c->trace.n--; /* taken again by this stage's first tick */
-        replay(&cur->control, c->trace.reading, c->trace.n, &ctrl, &gap);
+        replay(&cur->control, c->trace.reading, NULL, c->trace.n, &ctrl, &gap);
         tp_diag_init(&quiet, NULL);
         tp_integrate_defaults(&cd->run, &o);
         o.step = st->period;
@@ -624,8 +700,38 @@ static tp_status run_hold(ctx *cx, const tp_description *cd, const tp_network *n
     return rs;
 }
 
+/* The setpoint series the checks judge a trace against: its own with a schedule, else none
+ * (the study's fixed setpoint). */
+static const double *trace_sp(const tp_guard_study *st, const tp_guard_trace *tr)
+{
+    return st->scheduled ? tr->sp : NULL;
+}
+
+/* The figures of a healthy run: the highest reading, the deepest dip below the setpoint once
+ * reached (tp_guard_check_series's latch) and, with a schedule, when the reading first reached
+ * the study's (highest) setpoint. */
+static void corner_figures(const tp_guard_study *st, tp_guard_corner *c)
+{
+    const tp_guard_trace *tr = &c->trace;
+    const double *sp = trace_sp(st, tr);
+    long i;
+    int reached = 0;
+    c->peak = -HUGE_VAL;
+    c->dip = 0.0;
+    for (i = 0; i < tr->n; i++) {
+        double s = latch_step(sp, st->setpoint, tr->reading, i, &reached);
+        if (tr->reading[i] > c->peak)
+            c->peak = tr->reading[i];
+        if (reached && s - tr->reading[i] > c->dip)
+            c->dip = s - tr->reading[i];
+        if (sp && !isfinite(c->t_setpoint) && tr->reading[i] >= st->setpoint)
+            c->t_setpoint = tr->t[i];
+    }
+}
+
 /* The healthy run of one corner: from the cold start until the reading first reaches the
- * setpoint (or run.duration), then `guard.hold` more with the disturbances. */
+ * setpoint (or run.duration), then `guard.hold` more with the disturbances. With a schedule:
+ * the schedule, laid out from this corner's start, for run.duration. */
 static tp_status run_corner(ctx *cx, const tp_description *cd, tp_guard_corner *c)
 {
     tp_guard_study *st = cx->st;
@@ -633,6 +739,7 @@ static tp_status run_corner(ctx *cx, const tp_description *cd, tp_guard_corner *
     tp_integrate_opts o;
     tp_integrate_stats stats;
     tp_control_state ctrl;
+    tp_schedule plan;
     recorder rc;
     tp_diag quiet;
     tp_steady full;
@@ -653,11 +760,14 @@ static tp_status run_corner(ctx *cx, const tp_description *cd, tp_guard_corner *
         c->stuck_reading = full.temps[net->control.sensor] + net->control.reading.offset;
         c->stuck_heater = heater_temp(net, full.temps);
     }
-    rc.stop_level = st->setpoint;
     tp_integrate_defaults(&cd->run, &o);
     o.step = st->period;
     o.out = record;
     o.user = &rc;
+    if (st->scheduled && tp_program_plan(cd, net, &plan) == 0)
+        o.schedule = &plan;
+    else
+        rc.stop_level = st->setpoint;
     rs = tp_integrate(net, &o, &stats, &quiet);
     if (rs == TP_OK && rc.failed)
         rs = TP_ERR_NOMEM;
@@ -666,29 +776,14 @@ static tp_status run_corner(ctx *cx, const tp_description *cd, tp_guard_corner *
         goto done;
     }
     c->t_setpoint = rc.stopped ? c->trace.t[c->trace.n - 1] : TP_UNSET;
-    replay(&net->control, c->trace.reading, c->trace.n - (rc.stopped ? 1 : 0), &ctrl,
-           &c->backoff_gap);
+    replay(&net->control, c->trace.reading, trace_sp(st, &c->trace),
+           c->trace.n - (rc.stopped ? 1 : 0), &ctrl, &c->backoff_gap);
     if (rc.stopped) {
         rs = run_hold(cx, cd, net, c, y, &rc);
         if (rs != TP_OK)
             goto done;
     }
-    /* Figures of the healthy run. */
-    {
-        const tp_guard_trace *tr = &c->trace;
-        long i;
-        int reached = 0;
-        c->peak = -HUGE_VAL;
-        c->dip = 0.0;
-        for (i = 0; i < tr->n; i++) {
-            if (tr->reading[i] > c->peak)
-                c->peak = tr->reading[i];
-            if (tr->reading[i] >= st->setpoint)
-                reached = 1;
-            if (reached && st->setpoint - tr->reading[i] > c->dip)
-                c->dip = st->setpoint - tr->reading[i];
-        }
-    }
+    corner_figures(st, c);
 done:
     tp_steady_clear(&full);
     free(rc.map);
@@ -697,11 +792,72 @@ done:
     return rs;
 }
 
-/* One fault from the cold start or from the holding state of the nominal network, followed for
- * the horizon: on the nominal network itself (the faults of the switch and the sensor's
- * reading are hooks of the run), or on a copy with the sensor detached. */
+/* A detached sensor injected during the schedule: the nominal network runs the schedule up to
+ * the injection (recorded into fr's trace); y receives the state there, ctrl the controller's
+ * memory and `shifted` the rest of the schedule from there. The trace's sample at the injection
+ * is dropped: the detached run's first tick takes it again. */
+static tp_status detached_prefix(ctx *cx, const tp_network *nominal, tp_guard_fault_run *fr,
+                                 const tp_guard_injection *inj, recorder *rc,
+                                 tp_control_state *ctrl, tp_schedule *shifted)
+{
+    const tp_guard_study *st = cx->st;
+    tp_integrate_opts o;
+    tp_integrate_stats stats;
+    tp_diag quiet;
+    double gap;
+    int k;
+    tp_status rs;
+    tp_diag_init(&quiet, NULL);
+    tp_integrate_defaults(&st->desc->run, &o);
+    o.step = st->period;
+    o.t_end = inj->t;
+    o.out = record;
+    o.user = rc;
+    o.schedule = &st->plan;
+    rc->end_time = inj->t;
+    rs = tp_integrate(nominal, &o, &stats, &quiet);
+    if (rs == TP_OK && rc->failed)
+        rs = TP_ERR_NOMEM;
+    if (rs != TP_OK) {
+        solver_error(cx, "healthy run before the injection", &quiet);
+        return rs;
+    }
+    rc->end_time = TP_UNSET;
+    fr->trace.n--;
+    replay(&nominal->control, fr->trace.reading, fr->trace.sp, fr->trace.n, ctrl, &gap);
+    *shifted = st->plan;
+    for (k = 0; k < shifted->n; k++) {
+        shifted->part[k].t0 -= inj->t;
+        shifted->part[k].t1 -= inj->t;
+    }
+    shifted->t_end -= inj->t;
+    rc->t0 = inj->t;
+    return TP_OK;
+}
+
+/* The options of a fault run from the holding state: the steady state at the setpoint in y, and
+ * the controller as it would be after holding for long (the integral carries the holding duty,
+ * the last reading is the setpoint). */
+static void from_holding(const tp_guard_study *st, const tp_network *net, const tp_steady *hold,
+                         double *y, tp_control_state *ctrl, tp_integrate_opts *o)
+{
+    tp_steady_state_vector(net, hold, y);
+    tp_control_start(&net->control, ctrl);
+    ctrl->ticks = 1;
+    ctrl->on = 1;
+    ctrl->integral = hold->duty;
+    ctrl->last_reading = st->setpoint;
+    ctrl->duty = hold->duty;
+    o->y0 = y;
+    o->ctrl0 = ctrl;
+}
+
+/* One fault on the nominal network, followed for the horizon: from the cold start (following
+ * the schedule, if any) or from the holding state (inj NULL), or injected during the schedule at
+ * inj->t. The faults of the switch and the sensor's reading are hooks of the run on the nominal
+ * network itself, acting from the injection; a detached sensor runs on a copy of it. */
 static tp_status run_fault(ctx *cx, const tp_network *nominal, tp_guard_fault_run *fr,
-                           const tp_steady *hold)
+                           const tp_steady *hold, const tp_guard_injection *inj)
 {
     tp_guard_study *st = cx->st;
     const tp_network *detached = NULL;
@@ -709,6 +865,7 @@ static tp_status run_fault(ctx *cx, const tp_network *nominal, tp_guard_fault_ru
     tp_integrate_opts o;
     tp_integrate_stats stats;
     tp_control_state ctrl;
+    tp_schedule shifted;
     tp_hooks hooks;
     hook_ctx h;
     recorder rc;
@@ -743,25 +900,29 @@ static tp_status run_fault(ctx *cx, const tp_network *nominal, tp_guard_fault_ru
     o.out = record;
     o.user = &rc;
     o.hooks = &hooks;
-    if (fr->from_hold) {
-        tp_steady_state_vector(net, hold, y);
-        /* The controller as it would be after holding for long: the integral carries the
-         * holding duty, the last reading is the setpoint. */
-        tp_control_start(&net->control, &ctrl);
-        ctrl.ticks = 1;
-        ctrl.on = 1;
-        ctrl.integral = hold->duty;
-        ctrl.last_reading = st->setpoint;
-        ctrl.duty = hold->duty;
+    if (st->scheduled && !fr->from_hold)
+        o.schedule = &st->plan;
+    if (inj && detached) {
+        rc.net = nominal;
+        rs = detached_prefix(cx, nominal, fr, inj, &rc, &ctrl, &shifted);
+        rc.net = net;
+        if (rs != TP_OK)
+            goto done;
         o.y0 = y;
         o.ctrl0 = &ctrl;
+        o.schedule = &shifted;
+    } else if (inj) {
+        h.t_on = inj->t;
+        o.t_end = inj->t + st->horizon;
+    } else if (fr->from_hold) {
+        from_holding(st, net, hold, y, &ctrl, &o);
     }
     rs = tp_integrate(net, &o, &stats, &quiet);
     if (rs == TP_OK && rc.failed)
         rs = TP_ERR_NOMEM;
     if (rs != TP_OK) {
         snprintf(what, sizeof what, "fault run '%s' from %s", tp_guard_fault_name(fr->fault),
-                 fr->from_hold ? "hold" : "the cold start");
+                 inj ? "the injection" : fr->from_hold ? "hold" : "the cold start");
         solver_error(cx, what, &quiet);
     }
 done:
@@ -986,6 +1147,13 @@ static tp_status check_disturbances(ctx *cx)
                       "not available in the raw network form");
         return TP_ERR_CONFIG;
     }
+    if (cx->st->scheduled && (g->gust.present || g->sheet.present)) {
+        const char *key = g->gust.present ? "guard.gust" : "guard.sheet";
+        tp_diag_error(cx->d, tp_yamltree_nearest(cx->doc, key), key,
+                      "drop it to study the schedule, or study a fixed setpoint with it",
+                      "a disturbance during a hold is not studied with control.schedule");
+        return TP_ERR_CONFIG;
+    }
     return TP_OK;
 }
 
@@ -1033,7 +1201,8 @@ static double fault_cost(const tp_guard_study *st, const tp_guard_settings *s, i
         double t;
         if (tr->n == 0)
             continue;
-        det = tp_guard_check(tr->t, tr->reading, tr->n, st->setpoint, from_hold, &o);
+        det = tp_guard_check_series(tr->t, tr->reading, trace_sp(st, tr), tr->n, st->setpoint,
+                                    from_hold, &o);
         t = which == 0 ? det.rise : which == 1 ? det.hold : det.ceiling;
         if (!isfinite(t))
             (*missed)++;
@@ -1049,8 +1218,8 @@ static double healthy_min_rise(const tp_guard_study *st, double approach, double
     *at = -1;
     for (c = 0; c < st->n_corners; c++) {
         const tp_guard_trace *tr = &st->corners[c].trace;
-        double v = tp_guard_min_rise(tr->t, tr->reading, tr->n, st->setpoint, 0, approach,
-                                     window, NULL);
+        double v = min_rise_series(tr->t, tr->reading, trace_sp(st, tr), tr->n, st->setpoint,
+                                   0, approach, window, NULL);
         if (v < m) {
             m = v;
             *at = c;
@@ -1066,8 +1235,8 @@ static double healthy_longest(const tp_guard_study *st, double band, int *at)
     *at = -1;
     for (c = 0; c < st->n_corners; c++) {
         const tp_guard_trace *tr = &st->corners[c].trace;
-        double v = tp_guard_longest_below(tr->t, tr->reading, tr->n, st->setpoint, 0, band,
-                                          NULL);
+        double v = longest_below_series(tr->t, tr->reading, trace_sp(st, tr), tr->n,
+                                        st->setpoint, 0, band, NULL);
         if (v > m) {
             m = v;
             *at = c;
@@ -1259,70 +1428,93 @@ static void recommend_ceiling(tp_guard_study *st, tp_guard_settings *r)
 
 /* ---- evaluation --------------------------------------------------------------------------- */
 
+/* The evaluated settings on one fault run: its detections, its peaks up to the first one, and
+ * whether a protected layer passed its limit before it. Counts it in the verdict. */
+static void evaluate_fault(tp_guard_study *st, tp_guard_fault_run *fr, const tp_guard_settings *s)
+{
+    const tp_guard_trace *tr = &fr->trace;
+    long i, end;
+    int k;
+    fr->det = (tp_guard_detect){TP_UNSET, TP_UNSET, TP_UNSET};
+    fr->first = fr->surface_peak = fr->heater_peak = fr->t_limit = TP_UNSET;
+    fr->limit_layer = -1;
+    fr->limit_before = 0;
+    if (tr->n == 0)
+        return;
+    fr->det = tp_guard_check_series(tr->t, tr->reading, trace_sp(st, tr), tr->n, st->setpoint,
+                                    fr->from_hold, s);
+    fr->first = tp_guard_first(&fr->det);
+    for (i = 0, end = tr->n; i < tr->n; i++) {
+        if (isfinite(fr->first) && tr->t[i] > fr->first + TP_GUARD_TIME_EPS) {
+            end = i;
+            break;
+        }
+    }
+    for (i = 0; i < end; i++) {
+        if (!(tr->surface[i] <= fr->surface_peak))
+            fr->surface_peak = isfinite(tr->surface[i]) ? tr->surface[i] : fr->surface_peak;
+        if (!(tr->heater[i] <= fr->heater_peak))
+            fr->heater_peak = tr->heater[i];
+    }
+    for (i = 0; i < tr->n && fr->limit_layer < 0; i++)
+        for (k = 0; k < st->n_layers; k++)
+            if (st->layer_protected[k] &&
+                tr->layers[i * tr->n_layers + k] > st->layer_limit[k]) {
+                fr->t_limit = tr->t[i];
+                fr->limit_layer = k;
+                break;
+            }
+    fr->limit_before = isfinite(fr->t_limit) && !(isfinite(fr->first) && fr->first < fr->t_limit);
+    if (fr->limit_before)
+        st->unsafe_faults++;
+    if (!isfinite(fr->first))
+        st->undetected++;
+}
+
+/* A healthy corner's first trip with a schedule: the check, the time and the segment. */
+static void corner_trip(const tp_guard_study *st, const tp_guard_corner *co, tp_guard_trip *out)
+{
+    double f = tp_guard_first(&co->det);
+    out->check = -1;
+    out->t = f;
+    out->segment = -1;
+    if (!isfinite(f))
+        return;
+    out->check = f == co->det.rise ? 0 : f == co->det.hold ? 1 : 2;
+    if (st->scheduled)
+        tp_schedule_at(&st->plan, f, &out->segment);
+}
+
 void tp_guard_evaluate(tp_guard_study *st, const tp_guard_settings *s)
 {
-    int c, f, k, from;
+    int c, f, from;
     st->healthy_trips = st->unsafe_faults = st->undetected = 0;
     for (c = 0; c < st->n_corners; c++) {
         tp_guard_corner *co = &st->corners[c];
         const tp_guard_trace *tr = &co->trace;
+        const double *sp = trace_sp(st, tr);
         double approach = isfinite(s->approach) ? s->approach : 0.0;
-        co->det = tp_guard_check(tr->t, tr->reading, tr->n, st->setpoint, 0, s);
+        co->det = tp_guard_check_series(tr->t, tr->reading, sp, tr->n, st->setpoint, 0, s);
         co->rise_margin = isfinite(s->rise_window) && isfinite(s->rise_min)
-                              ? tp_guard_min_rise(tr->t, tr->reading, tr->n, st->setpoint, 0,
-                                                  approach, s->rise_window, NULL) - s->rise_min
+                              ? min_rise_series(tr->t, tr->reading, sp, tr->n, st->setpoint, 0,
+                                                approach, s->rise_window, NULL) - s->rise_min
                               : TP_UNSET;
         co->hold_margin = isfinite(s->hold_band) && isfinite(s->hold_grace)
-                              ? s->hold_grace - tp_guard_longest_below(tr->t, tr->reading, tr->n,
-                                                                       st->setpoint, 0,
-                                                                       s->hold_band, NULL)
+                              ? s->hold_grace - longest_below_series(tr->t, tr->reading, sp,
+                                                                     tr->n, st->setpoint, 0,
+                                                                     s->hold_band, NULL)
                               : TP_UNSET;
         co->ceiling_margin = isfinite(s->ceiling) ? s->ceiling - co->peak : TP_UNSET;
+        corner_trip(st, co, &st->trips[c]);
         if (isfinite(tp_guard_first(&co->det)))
             st->healthy_trips++;
     }
-    for (f = 0; f < TP_FAULT_COUNT; f++) {
-        for (from = 0; from < 2; from++) {
-            tp_guard_fault_run *fr = &st->faults[f][from];
-            const tp_guard_trace *tr = &fr->trace;
-            long i, end;
-            fr->det = (tp_guard_detect){TP_UNSET, TP_UNSET, TP_UNSET};
-            fr->first = fr->surface_peak = fr->heater_peak = fr->t_limit = TP_UNSET;
-            fr->limit_layer = -1;
-            fr->limit_before = 0;
-            if (tr->n == 0)
-                continue;
-            fr->det = tp_guard_check(tr->t, tr->reading, tr->n, st->setpoint, from, s);
-            fr->first = tp_guard_first(&fr->det);
-            for (i = 0, end = tr->n; i < tr->n; i++) {
-                if (isfinite(fr->first) && tr->t[i] > fr->first + TP_GUARD_TIME_EPS) {
-                    end = i;
-                    break;
-                }
-            }
-            for (i = 0; i < end; i++) {
-                if (!(tr->surface[i] <= fr->surface_peak))
-                    fr->surface_peak = isfinite(tr->surface[i]) ? tr->surface[i]
-                                                                 : fr->surface_peak;
-                if (!(tr->heater[i] <= fr->heater_peak))
-                    fr->heater_peak = tr->heater[i];
-            }
-            for (i = 0; i < tr->n && fr->limit_layer < 0; i++)
-                for (k = 0; k < st->n_layers; k++)
-                    if (st->layer_protected[k] &&
-                        tr->layers[i * tr->n_layers + k] > st->layer_limit[k]) {
-                        fr->t_limit = tr->t[i];
-                        fr->limit_layer = k;
-                        break;
-                    }
-            fr->limit_before = isfinite(fr->t_limit) &&
-                               !(isfinite(fr->first) && fr->first < fr->t_limit);
-            if (fr->limit_before)
-                st->unsafe_faults++;
-            if (!isfinite(fr->first))
-                st->undetected++;
-        }
-    }
+    for (f = 0; f < TP_FAULT_COUNT; f++)
+        for (from = 0; from < 2; from++)
+            evaluate_fault(st, &st->faults[f][from], s);
+    for (f = 0; st->scheduled && f < TP_FAULT_COUNT; f++)
+        for (from = 0; from < TP_GUARD_MID_COUNT; from++)
+            evaluate_fault(st, &st->mid[f][from], s);
 }
 
 /* ---- the whole study ---------------------------------------------------------------------- */
@@ -1476,6 +1668,51 @@ static void stuck_on(ctx *cx, const tp_description *desc, const tp_network *net,
     }
 }
 
+/* Where faults are injected during the schedule: the middle of its first ramp and of its first
+ * hold, moved to the first controller tick at or after it. */
+static void plan_injections(tp_guard_study *st)
+{
+    static const tp_schedule_kind kinds[TP_GUARD_MID_COUNT] = {TP_SCHEDULE_RAMP,
+                                                                 TP_SCHEDULE_HOLD};
+    int m, k;
+    for (m = 0; m < TP_GUARD_MID_COUNT; m++) {
+        tp_guard_injection *in = &st->inject[m];
+        in->segment = -1;
+        in->t = in->setpoint = TP_UNSET;
+        for (k = 0; k < st->plan.n && in->segment < 0; k++) {
+            const tp_schedule_part *p = &st->plan.part[k];
+            if (p->kind == kinds[m] && p->t1 > p->t0) {
+                in->segment = k;
+                in->t = on_tick(0.5 * (p->t0 + p->t1), st->period);
+                in->setpoint = tp_schedule_at(&st->plan, in->t, NULL);
+            }
+        }
+    }
+}
+
+/* Every fault from the cold start and from the holding state, and with a schedule injected
+ * mid-ramp and mid-hold. */
+static tp_status run_faults(ctx *cx, const tp_network *net, const tp_steady *hold)
+{
+    tp_guard_study *st = cx->st;
+    int fi, k;
+    for (fi = 0; fi < TP_FAULT_COUNT; fi++) {
+        for (k = 0; k < 2 + (st->scheduled ? TP_GUARD_MID_COUNT : 0); k++) {
+            tp_guard_fault_run *fr = k < 2 ? &st->faults[fi][k] : &st->mid[fi][k - 2];
+            const tp_guard_injection *inj = k < 2 ? NULL : &st->inject[k - 2];
+            tp_status rs;
+            fr->fault = (tp_guard_fault)fi;
+            fr->from_hold = k == 1;
+            if ((fi == TP_FAULT_DETACHED && !detachable(net)) || (inj && inj->segment < 0))
+                continue;
+            rs = run_fault(cx, net, fr, hold, inj);
+            if (rs != TP_OK)
+                return rs;
+        }
+    }
+    return TP_OK;
+}
+
 /* Recommend from scratch; then, when settings are given, complete them: each missing member is
  * recommended consistently with the given ones. The settings used are evaluated. */
 static void settle_settings(tp_guard_study *st, const tp_guard_settings *given,
@@ -1518,7 +1755,7 @@ tp_status tp_guard_study_run(const tp_description *desc, const tp_yamltree *doc,
     tp_guard_settings none = {0, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET};
     ctx cx;
     tp_status rs;
-    int c, k, fi;
+    int c;
     memset(st, 0, sizeof *st);
     memset(&hold, 0, sizeof hold);
     memset(&cd, 0, sizeof cd);
@@ -1536,6 +1773,9 @@ tp_status tp_guard_study_run(const tp_description *desc, const tp_yamltree *doc,
     if (rs != TP_OK)
         goto done;
     nominal_setup(st, desc, net);
+    st->scheduled = tp_program_plan(desc, net, &st->plan) == 0;
+    if (st->scheduled)
+        plan_injections(st);
     rs = tp_guard_ranges_resolve(desc, doc, net, &st->ranges, d);
     if (rs == TP_OK)
         rs = check_disturbances(&cx);
@@ -1561,18 +1801,9 @@ tp_status tp_guard_study_run(const tp_description *desc, const tp_yamltree *doc,
         goto done;
     }
     stuck_on(&cx, desc, net, st, &quiet);
-    for (fi = 0; fi < TP_FAULT_COUNT; fi++) {
-        for (k = 0; k < 2; k++) {
-            tp_guard_fault_run *fr = &st->faults[fi][k];
-            fr->fault = (tp_guard_fault)fi;
-            fr->from_hold = k;
-            if (fi == TP_FAULT_DETACHED && !detachable(net))
-                continue;
-            rs = run_fault(&cx, net, fr, &hold);
-            if (rs != TP_OK)
-                goto done;
-        }
-    }
+    rs = run_faults(&cx, net, &hold);
+    if (rs != TP_OK)
+        goto done;
     settle_settings(st, given, &none);
 done:
     tp_steady_clear(&hold);
@@ -1590,6 +1821,8 @@ void tp_guard_study_clear(tp_guard_study *st)
     for (f = 0; f < TP_FAULT_COUNT; f++) {
         trace_clear(&st->faults[f][0].trace);
         trace_clear(&st->faults[f][1].trace);
+        trace_clear(&st->mid[f][TP_GUARD_MID_RAMP].trace);
+        trace_clear(&st->mid[f][TP_GUARD_MID_HOLD].trace);
     }
     tp_steady_clear(&st->stuck);
     st->n_corners = 0;

@@ -8,6 +8,7 @@
 #include "description.h"
 #include "diag.h"
 #include "network.h"
+#include "schedule.h"
 #include "status.h"
 #include "steady.h"
 #include "yamltree.h"
@@ -30,6 +31,9 @@
                                       reads this (assumption, docs/guard.md) */
 #define TP_GUARD_CORNERS_MAX 17    /* 2^4 corners plus nominal */
 #define TP_GUARD_LAYERS_MAX 16     /* layers followed for service limits */
+#define TP_GUARD_STEP_K 5.0        /* K: a setpoint rising by more than this between two samples
+                                      is a step, after which the checks judge a heat-up afresh
+                                      (schedules only; common practice, no source) */
 
 /* The tolerances of a healthy machine where `guard:` declares none (each range on its own):
  * common practice, no source (docs/guard.md, "Healthy corners"). */
@@ -95,6 +99,16 @@ double tp_guard_first(const tp_guard_detect *det);
 tp_guard_detect tp_guard_check(const double *t, const double *r, long n, double setpoint,
                                int reached, const tp_guard_settings *s);
 
+/* The same checks against a setpoint that moves (a schedule): sp[i] is the setpoint at sample i
+ * (K), NaN where the schedule has the heater off; sp NULL: `setpoint` throughout, exactly as
+ * tp_guard_check. "Reached" is a latch: set at a sample with r >= sp, cleared where the heater is
+ * off and where the setpoint rises by more than TP_GUARD_STEP_K from one sample to the next (a
+ * step). The rise check is also armed wherever the setpoint rises (sp[i] > sp[i - 1]: an upward
+ * ramp), whatever the latch and the approach. While off, the rise and hold checks are disarmed;
+ * the ceiling never is. */
+tp_guard_detect tp_guard_check_series(const double *t, const double *r, const double *sp, long n,
+                                      double setpoint, int reached, const tp_guard_settings *s);
+
 /* The smallest rise r_i - r_j over every window the rise check would judge (same arming,
  * window `window`, approach `approach`); +inf when no full window lies in an armed stretch.
  * *at (may be NULL) gets the time t_i where it occurs. */
@@ -130,6 +144,8 @@ typedef struct tp_guard_trace {
     double *surface; /* K, working surface (NaN in the raw form) */
     double *heater;  /* K, the hottest node the controlled source heats */
     double *duty;    /* the duty applied */
+    double *sp;      /* K, the setpoint the controller followed (NaN while a schedule has the
+                        heater off) */
     double *layers;  /* n x n_layers, K */
 } tp_guard_trace;
 
@@ -167,6 +183,23 @@ typedef struct tp_guard_fault_run {
     int limit_before;     /* a protected limit was crossed before the first detection */
 } tp_guard_fault_run;
 
+/* Where a fault is injected during a schedule: the middle of its first ramp and of its first
+ * hold (moved to the first controller tick at or after it). */
+enum { TP_GUARD_MID_RAMP, TP_GUARD_MID_HOLD, TP_GUARD_MID_COUNT };
+
+typedef struct tp_guard_injection {
+    int segment;     /* index of the segment (from 0), -1: the schedule has no such segment */
+    double t;        /* s from the start of the schedule */
+    double setpoint; /* K, the schedule's setpoint there */
+} tp_guard_injection;
+
+/* A healthy corner's first false trip on a schedule: which check, when, in which segment. */
+typedef struct tp_guard_trip {
+    int check;       /* 0 rise, 1 hold, 2 ceiling; -1 none */
+    double t;        /* s */
+    int segment;     /* the schedule's segment at t (from 0) */
+} tp_guard_trip;
+
 /* One threshold with where it came from. */
 enum { TP_G_RISE_WINDOW, TP_G_RISE_MIN, TP_G_APPROACH, TP_G_HOLD_BAND, TP_G_HOLD_GRACE,
        TP_G_CEILING, TP_G_COUNT };
@@ -203,10 +236,19 @@ typedef struct tp_guard_study {
     int healthy_trips;      /* corners on which a check fired */
     int unsafe_faults;      /* fault runs with a protected limit crossed before detection */
     int undetected;         /* fault runs no check detected */
+    /* With control.schedule: the corners follow it, and every fault is also injected during it
+     * (mid[f][TP_GUARD_MID_*], on the nominal case; fault_run.first and det are times from the
+     * start of the schedule). */
+    int scheduled;
+    tp_schedule plan;       /* the nominal case's schedule, laid out from its start */
+    tp_guard_injection inject[TP_GUARD_MID_COUNT];
+    tp_guard_fault_run mid[TP_FAULT_COUNT][TP_GUARD_MID_COUNT];
+    tp_guard_trip trips[TP_GUARD_CORNERS_MAX];
 } tp_guard_study;
 
-/* Run the study for `desc` (physical or raw form with a controller holding a setpoint):
- * every corner, every fault from both starts, the recommendation, then the evaluation of
+/* Run the study for `desc` (physical or raw form with a controller holding a setpoint, or
+ * following control.schedule): every corner, every fault from both starts (and, with a schedule,
+ * injected mid-ramp and mid-hold), the recommendation, then the evaluation of
  * `given` (members set override the recommendation; NULL or none set: recommend only).
  * `doc` (may be NULL) gives positions for messages. On failure the diagnostics say why;
  * call tp_guard_study_clear in every case. */

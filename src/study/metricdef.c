@@ -86,6 +86,66 @@ static const tp_metricdef table[TP_MET_COUNT] = {
                          0.0, 0, TP_WORSE_HIGHER, NOT_JUDGED, AT(duration)},
 };
 
+/* The segment rows: segment n's figures at tp_program.seg[n - 1]. */
+#define SEG_AT(k, f)                                                                               \
+    (offsetof(tp_program, seg) + (size_t)(k) * sizeof(tp_program_segment) +                      \
+     offsetof(tp_program_segment, f))
+#define SEG_ROWS(k, n)                                                                             \
+    {"segment" #n "." TP_SEGKEY_RATE_READING, "seg " #n " rate", "K/s", 0.0, TP_FORM_NUMBER,       \
+     "K/s", 1.0, 0.0, 3, TP_WORSE_LOWER, "a slower ramp of the reading (an upward one)",         \
+     SEG_AT(k, rate_reading)},                                                                     \
+    {"segment" #n "." TP_SEGKEY_RATE_SURFACE, "seg " #n " surface rate", "K/s", 0.0,              \
+     TP_FORM_NUMBER, "K/s", 1.0, 0.0, 3, TP_WORSE_LOWER,                                           \
+     "a slower ramp of the working surface (an upward one)", SEG_AT(k, rate_surface)},            \
+    {"segment" #n "." TP_SEGKEY_ERR_READING, "seg " #n " error", "K", 0.0, TP_FORM_NUMBER, "K",    \
+     1.0, 0.0, 2, TP_WORSE_HIGHER, "the reading further from the setpoint it should follow",      \
+     SEG_AT(k, err_max_reading)},                                                                  \
+    {"segment" #n "." TP_SEGKEY_AT_LIMIT, "seg " #n " at limit", "1", 0.0, TP_FORM_NUMBER, "-",    \
+     1.0, 0.0, 3, TP_WORSE_HIGHER, "more of the segment with the heater at its limit",            \
+     SEG_AT(k, at_limit)},                                                                         \
+    {"segment" #n "." TP_SEGKEY_FOLLOW_RATE, "seg " #n " followable", "K/s", 0.0, TP_FORM_NUMBER, \
+     "K/s", 1.0, 0.0, 3, TP_WORSE_LOWER, "a slower rate the plate can follow at its limit",       \
+     SEG_AT(k, follow_rate)},                                                                      \
+    {"segment" #n "." TP_SEGKEY_FOLLOW_AT, "seg " #n " limit at", "degC", TP_KELVIN_0C,     \
+     TP_FORM_NUMBER, "degC", 1.0, TP_KELVIN_0C, 1, TP_WORSE_LOWER,                                 \
+     "the plate at its limit at a lower temperature", SEG_AT(k, follow_at)},                      \
+    {"segment" #n "." TP_SEGKEY_OVERSHOOT_READING, "seg " #n " overshoot", "K", 0.0,              \
+     TP_FORM_NUMBER, "K", 1.0, 0.0, 2, TP_WORSE_HIGHER,                                            \
+     "further above the segment's target", SEG_AT(k, overshoot_reading)}
+
+static const tp_metricdef seg_table[TP_METRICDEF_SEGMENTS * TP_SEGMET_COUNT] = {
+    SEG_ROWS(0, 1), SEG_ROWS(1, 2), SEG_ROWS(2, 3), SEG_ROWS(3, 4),
+    SEG_ROWS(4, 5), SEG_ROWS(5, 6), SEG_ROWS(6, 7), SEG_ROWS(7, 8),
+};
+
+const tp_metricdef *tp_metricdef_swept(int metric)
+{
+    if (metric >= 0 && metric < TP_MET_SWEPT)
+        return &table[metric];
+    if (metric >= TP_MET_SWEPT && metric < TP_MET_SWEPT_MAX)
+        return &seg_table[metric - TP_MET_SWEPT];
+    return NULL;
+}
+
+int tp_metricdef_swept_count(int n_segments)
+{
+    if (n_segments < 0)
+        n_segments = 0;
+    if (n_segments > TP_METRICDEF_SEGMENTS)
+        n_segments = TP_METRICDEF_SEGMENTS;
+    return TP_MET_SWEPT + n_segments * TP_SEGMET_COUNT;
+}
+
+double tp_metricdef_segment_value(int metric, const tp_program *p)
+{
+    int k = metric - TP_MET_SWEPT;
+    double v;
+    if (k < 0 || metric >= TP_MET_SWEPT_MAX || k / TP_SEGMET_COUNT >= p->n)
+        return TP_UNSET;
+    memcpy(&v, (const char *)p + seg_table[k].field, sizeof v);
+    return v;
+}
+
 const tp_metricdef *tp_metricdef_get(int metric)
 {
     return metric >= 0 && metric < TP_MET_COUNT ? &table[metric] : NULL;
@@ -94,8 +154,8 @@ const tp_metricdef *tp_metricdef_get(int metric)
 int tp_metricdef_find(const char *key)
 {
     int i;
-    for (i = 0; key && i < TP_MET_SWEPT; i++)
-        if (strcmp(table[i].key, key) == 0)
+    for (i = 0; key && i < TP_MET_SWEPT_MAX; i++)
+        if (strcmp(tp_metricdef_swept(i)->key, key) == 0)
             return i;
     return -1;
 }
@@ -113,6 +173,9 @@ void tp_metricdef_keys(char *buf, size_t size)
             break;
         used += (size_t)n;
     }
+    if (used < size)
+        snprintf(buf + used, size - used, "; with control.schedule segment<N>.%s ...",
+                 TP_SEGKEY_RATE_READING);
 }
 
 const char *tp_metricdef_worse_name(tp_metricdef_worse worse)

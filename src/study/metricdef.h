@@ -9,6 +9,7 @@
 #include <stddef.h>
 
 #include "metrics.h"
+#include "program.h"
 
 /* The metrics: first those a sweep studies, in the order of its columns (TP_MET_SWEPT of
  * them), then those only the warm-up reports. */
@@ -70,10 +71,48 @@ typedef struct tp_metricdef {
     size_t field;          /* offset of its value (SI, double) in tp_metrics */
 } tp_metricdef;
 
+/* ---- per-segment metrics of a scheduled run (control.schedule) ---------------------------- *
+ * A sweep studies, besides the metrics above, these figures of each of the schedule's first
+ * TP_METRICDEF_SEGMENTS segments (docs/metrics.md, "Programmes"). Their keys are the warm-up
+ * JSON's keys of a segment (TP_SEGKEY_*), named in sweeps as "segment<N>.<key>", N from 1. */
+#define TP_SEGKEY_RATE_READING "rate_reading_K_per_s"
+#define TP_SEGKEY_RATE_SURFACE "rate_surface_K_per_s"
+#define TP_SEGKEY_ERR_READING "error_reading_max_K"
+#define TP_SEGKEY_AT_LIMIT "at_limit_fraction"
+#define TP_SEGKEY_FOLLOW_RATE "followable_rate_K_per_s"
+#define TP_SEGKEY_FOLLOW_AT "followable_at_C"
+#define TP_SEGKEY_OVERSHOOT_READING "overshoot_reading_K"
+
+enum {
+    TP_SEGMET_RATE_READING,      /* K/s, least-squares slope of the reading over the segment */
+    TP_SEGMET_RATE_SURFACE,      /* K/s, the same for the working surface */
+    TP_SEGMET_ERR_READING,       /* K, largest |reading - setpoint| */
+    TP_SEGMET_AT_LIMIT,          /* -, share of the segment's time at the duty limit */
+    TP_SEGMET_FOLLOW_RATE,       /* K/s the plate follows at the limit */
+    TP_SEGMET_FOLLOW_AT,         /* K, the reading where that rate was taken */
+    TP_SEGMET_OVERSHOOT_READING, /* K above the segment's target */
+    TP_SEGMET_COUNT
+};
+
+#define TP_METRICDEF_SEGMENTS 8 /* segments whose metrics a sweep keeps (the first ones) */
+#define TP_MET_SWEPT_MAX (TP_MET_SWEPT + TP_METRICDEF_SEGMENTS * TP_SEGMET_COUNT)
+
+/* A metric a sweep studies, 0 <= metric < TP_MET_SWEPT_MAX: the rows of the table above below
+ * TP_MET_SWEPT, then segment 1's TP_SEGMET_COUNT figures, segment 2's ...; NULL when out of
+ * range. A segment row's `field` is the offset of its value in tp_program. */
+const tp_metricdef *tp_metricdef_swept(int metric);
+
+/* How many metrics a sweep studies for a run with `n_segments` schedule segments (0: none). */
+int tp_metricdef_swept_count(int n_segments);
+
+/* A segment row's value (SI) in a run's programme report; NaN past its last segment. */
+double tp_metricdef_segment_value(int metric, const tp_program *p);
+
 /* The row of `metric`; NULL when out of range. */
 const tp_metricdef *tp_metricdef_get(int metric);
 
-/* A metric a sweep studies by its key ("time_surface_ready_s"), or -1. */
+/* A metric a sweep studies by its key ("time_surface_ready_s", "segment2.rate_reading_K_per_s"),
+ * as an index for tp_metricdef_swept, or -1. */
 int tp_metricdef_find(const char *key);
 
 /* The keys of every metric a sweep studies, ", "-separated, into buf (for messages). */

@@ -47,6 +47,14 @@ void tp_sweep_plan_init(tp_sweep_plan *plan, tp_sweep_mode mode)
     plan->seed = 1;
     plan->design = TP_DESIGN_RANDOM;
     plan->replicates = 1;
+    plan->n_metrics = TP_MET_SWEPT;
+}
+
+void tp_sweep_plan_metrics(tp_sweep_plan *plan, const tp_description *desc)
+{
+    plan->n_metrics = tp_metricdef_swept_count(tp_description_mode_holds(desc->control.mode)
+                                                   ? (int)desc->control.n_schedule
+                                                   : 0);
 }
 
 void tp_sweep_plan_clear(tp_sweep_plan *plan)
@@ -910,7 +918,7 @@ tp_status tp_sweep_summarise_first(const tp_sweep_plan *plan, const tp_sweep_res
 {
     long i, n = 0;
     int k;
-    tp_metricdef_worse worse = tp_metricdef_get(metric)->worse;
+    tp_metricdef_worse worse = tp_metricdef_swept(metric)->worse;
     double *x = malloc(((size_t)total + 1) * 3 * sizeof *x), *sorted, *pv;
     double best_abs = -1.0;
     memset(out, 0, sizeof *out);
@@ -1068,17 +1076,29 @@ static void first_error(const tp_diag *d, char *buf, size_t size)
     snprintf(buf, size, "failed without a message");
 }
 
-static void take_metrics(const tp_warmup *w, tp_sweep_result *res)
+/* A point's metrics: the warm-up's, and with a schedule each segment's figures (`sched`, NULL:
+ * none) from the run's programme report. */
+static tp_status take_metrics(const tp_warmup *w, const tp_schedule *sched, tp_sweep_result *res)
 {
     const tp_metrics *m = &w->metrics;
     double *v = res->metric;
     int k;
     for (k = 0; k < TP_MET_SWEPT; k++)
-        v[k] = tp_metricdef_value(tp_metricdef_get(k), m);
+        v[k] = tp_metricdef_value(tp_metricdef_swept(k), m);
     /* An overshoot exists only once the setpoint was reached: a point that never got there
      * has none (shown "-"), not an overshoot of 0. */
     if (!isfinite(m->t_setpoint))
         v[TP_MET_OVERSHOOT_READING] = v[TP_MET_OVERSHOOT_SURFACE] = TP_UNSET;
+    if (sched) {
+        tp_program *prog = malloc(sizeof *prog);
+        if (!prog)
+            return TP_ERR_NOMEM;
+        tp_program_compute(&w->history, sched, NULL, 0, prog);
+        for (k = TP_MET_SWEPT; k < TP_MET_SWEPT_MAX; k++)
+            v[k] = tp_metricdef_segment_value(k, prog);
+        free(prog);
+    }
+    return TP_OK;
 }
 
 static void run_point(worker *wk, tp_description *desc, long i)
@@ -1089,10 +1109,10 @@ static void run_point(worker *wk, tp_description *desc, long i)
     tp_warmup w;
     tp_schedule sched;
     char msg[TP_SWEEP_REASON_MAX - 32]; /* room for the prefix */
-    int k;
+    int k, scheduled;
     memset(res, 0, sizeof *res);
     memset(&w, 0, sizeof w);
-    for (k = 0; k < TP_MET_SWEPT; k++)
+    for (k = 0; k < TP_MET_SWEPT_MAX; k++)
         res->metric[k] = TP_UNSET;
     for (k = 0; k < plan->n_params; k++) {
         double v = tp_sweep_value(plan, i, k);
@@ -1110,13 +1130,14 @@ static void run_point(worker *wk, tp_description *desc, long i)
         return;
     }
     /* A scheduled point follows its own schedule (a swept segment's values included). */
-    if (tp_warmup_run_schedule(net, &desc->run,
-                               tp_program_plan(desc, net, &sched) == 0 ? &sched : NULL, &w,
-                               &wk->diag) != TP_OK) {
+    scheduled = tp_program_plan(desc, net, &sched) == 0;
+    if (tp_warmup_run_schedule(net, &desc->run, scheduled ? &sched : NULL, &w, &wk->diag) !=
+        TP_OK) {
         first_error(&wk->diag, msg, sizeof msg);
         snprintf(res->reason, sizeof res->reason, "%s", msg);
+    } else if (take_metrics(&w, scheduled ? &sched : NULL, res) != TP_OK) {
+        snprintf(res->reason, sizeof res->reason, "out of memory");
     } else {
-        take_metrics(&w, res);
         res->ok = 1;
         point_cautions(wk, desc, net, &w, i);
     }
@@ -1140,7 +1161,7 @@ static void *work(void *arg)
         } else {
             int k;
             memset(&p->results[i], 0, sizeof p->results[i]);
-            for (k = 0; k < TP_MET_SWEPT; k++)
+            for (k = 0; k < TP_MET_SWEPT_MAX; k++)
                 p->results[i].metric[k] = TP_UNSET;
             snprintf(p->results[i].reason, sizeof p->results[i].reason, "out of memory");
         }

@@ -68,10 +68,16 @@ typedef struct tp_sweep_plan {
      * 0..rep_size-1 of each sample within its replicate); Sobol 30-bit integer points
      * [point within a replicate][param], the first point the origin. NULL for random. */
     uint32_t *table;
+    int n_metrics;  /* metrics kept per point (tp_metricdef_swept_count): TP_MET_SWEPT, plus the
+                       segment metrics of a scheduled file (tp_sweep_plan_metrics) */
 } tp_sweep_plan;
 
 /* Start an empty plan of `mode` (no parameters yet). */
 void tp_sweep_plan_init(tp_sweep_plan *plan, tp_sweep_mode mode);
+
+/* Set the plan's metrics for the description it runs: the warm-up metrics, and with
+ * control.schedule those of its first TP_METRICDEF_SEGMENTS segments. */
+void tp_sweep_plan_metrics(tp_sweep_plan *plan, const tp_description *desc);
 
 /* Free what a plan owns; leaves it empty. */
 void tp_sweep_plan_clear(tp_sweep_plan *plan);
@@ -201,7 +207,8 @@ int tp_sweep_ci_ranks(long n, double p, long *l, long *u);
 /* What one point gave. */
 typedef struct tp_sweep_result {
     int ok;                     /* 1: the metrics hold; 0: failed (reason says why) */
-    double metric[TP_MET_SWEPT]; /* SI; NaN where a metric does not exist for this point */
+    double metric[TP_MET_SWEPT_MAX]; /* SI, by tp_metricdef_swept index (the plan's n_metrics of
+                                        them); NaN where a metric does not exist for this point */
     char reason[TP_SWEEP_REASON_MAX];
 } tp_sweep_result;
 
