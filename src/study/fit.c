@@ -24,12 +24,12 @@
 #include <string.h>
 #include <time.h>
 
-#include <cminpack.h>
 
 #include "assemble.h"
 #include "config.h"
 #include "eval.h"
 #include "integrate.h"
+#include "minpacklib.h"
 #include "network.h"
 
 #define TP_FIT_FD_STEP 1.0e-3  /* step of the forward-difference Jacobian in z, rad */
@@ -1102,6 +1102,9 @@ tp_status tp_fit_run(const tp_fit_problem *pb, tp_fit_result *res, tp_diag *d)
     memset(res, 0, sizeof *res);
     memset(&c, 0, sizeof c);
     memset(&w, 0, sizeof w);
+    st = tp_minpacklib_load(d);
+    if (st != TP_OK)
+        return st;
     if (p < 1 || p > TP_FIT_MAX_PARAMS) {
         tp_diag_error(d, tp_diag_loc_none(), NULL, "free one to eight keys with --free",
                       "%d free parameters", p);
