@@ -869,6 +869,51 @@ static int teardown(void **state)
     return 0;
 }
 
+/* ---- threads ---------------------------------------------------------------------------------- */
+
+/* The corners and fault runs go to threads (src/base/parallel.h); each writes only its own
+ * record, so the answer cannot depend on how many there are: the JSON and the text of one
+ * thread and of three are the same, byte for byte, on a gridded plate and on the reflow
+ * programme (mid-ramp and mid-hold faults included). */
+static void test_guard_answer_does_not_depend_on_threads(void **state)
+{
+    static const char *const cfgs[][3] = {
+        {TP_SOURCE_DIR "/configs/workshop-bed-24v.yaml", "--set", "bed.grid=[4, 4]"},
+        {TP_SOURCE_DIR "/configs/reflow-hotplate-230v.yaml", NULL, NULL},
+    };
+    tp_scratch sc;
+    size_t c;
+    (void)state;
+    tp_scratch_create(&sc);
+    for (c = 0; c < sizeof cfgs / sizeof cfgs[0]; c++) {
+        char path[2][TP_TEST_PATH];
+        char *json[2], *out[2];
+        int j;
+        for (j = 0; j < 2; j++) {
+            tp_run_result r;
+            const char *args[] = {"guard", cfgs[c][0], "--json", path[j], cfgs[c][1],
+                                  cfgs[c][2], NULL};
+            tp_scratch_path(&sc, j ? "three.json" : "one.json", path[j], sizeof path[j]);
+            assert_int_equal(setenv("TEPID_JOBS", j ? "3" : "1", 1), 0);
+            tp_run_tepid(&sc, args, &r);
+            assert_int_equal(r.status, 0);
+            out[j] = strdup(r.out);
+            tp_run_clear(&r);
+            json[j] = tp_read_file(path[j]);
+            assert_non_null(json[j]);
+            assert_non_null(out[j]);
+        }
+        assert_string_equal(json[0], json[1]);
+        assert_string_equal(out[0], out[1]);
+        for (j = 0; j < 2; j++) {
+            free(json[j]);
+            free(out[j]);
+        }
+    }
+    unsetenv("TEPID_JOBS");
+    tp_scratch_destroy(&sc);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -888,6 +933,7 @@ int main(void)
         cmocka_unit_test(test_schedule_faults_on_one_node_match_the_energy_balance),
         cmocka_unit_test(test_reflow_schedule_no_false_trip_and_faults_caught),
         cmocka_unit_test(test_schedule_guard_on_raw_and_gridded_forms),
+        cmocka_unit_test(test_guard_answer_does_not_depend_on_threads),
     };
     return cmocka_run_group_tests(tests, NULL, teardown);
 }

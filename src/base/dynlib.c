@@ -3,6 +3,7 @@
 #include "dynlib.h"
 
 #include <dlfcn.h>
+#include <pthread.h>
 #include <stdio.h>
 #include <string.h>
 
@@ -10,6 +11,7 @@
 #define TP_DYNLIB_MAX 8
 static const void *dynlib_loaded[TP_DYNLIB_MAX];
 static size_t dynlib_n_loaded;
+static pthread_mutex_t dynlib_lock = PTHREAD_MUTEX_INITIALIZER; /* studies load from threads */
 
 static int dynlib_is_loaded(const void *table)
 {
@@ -20,8 +22,8 @@ static int dynlib_is_loaded(const void *table)
     return 0;
 }
 
-int tp_dynlib_load(const char *soname, const char *package, void *table, const tp_dynlib_fn *fns,
-                   size_t n, char *why, size_t size)
+static int dynlib_load_locked(const char *soname, const char *package, void *table,
+                              const tp_dynlib_fn *fns, size_t n, char *why, size_t size)
 {
     void *handle, *sym;
     size_t i;
@@ -49,4 +51,14 @@ int tp_dynlib_load(const char *soname, const char *package, void *table, const t
     if (dynlib_n_loaded < TP_DYNLIB_MAX)
         dynlib_loaded[dynlib_n_loaded++] = table;
     return 0;
+}
+
+int tp_dynlib_load(const char *soname, const char *package, void *table, const tp_dynlib_fn *fns,
+                   size_t n, char *why, size_t size)
+{
+    int rc;
+    pthread_mutex_lock(&dynlib_lock);
+    rc = dynlib_load_locked(soname, package, table, fns, n, why, size);
+    pthread_mutex_unlock(&dynlib_lock);
+    return rc;
 }

@@ -29,8 +29,8 @@ typedef struct tp_dynlib_fn {
 /* Open `soname` (once per process: a table already filled is kept) and fill the function
  * pointers of `table` listed in fns[0..n-1]; `package` names the Debian package that holds the
  * library, for the message. The library stays open to the end of the process. 0, or -1 with
- * the reason in why (a missing library or function), the table untouched. The first call for
- * a table is not thread-safe: load before starting threads. */
+ * the reason in why (a missing library or function), the table untouched. Thread-safe; a
+ * caller reads the table only after its own call returned 0. */
 int tp_dynlib_load(const char *soname, const char *package, void *table, const tp_dynlib_fn *fns,
                    size_t n, char *why, size_t size);
 

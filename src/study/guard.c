@@ -20,6 +20,7 @@
 #include "config.h"
 #include "integrate.h"
 #include "materials.h"
+#include "parallel.h"
 #include "program.h"
 
 #define TP_GUARD_TIME_EPS 1.0e-6 /* s: sample times closer than this are the same time */
@@ -1692,25 +1693,134 @@ static void plan_injections(tp_guard_study *st)
 
 /* Every fault from the cold start and from the holding state, and with a schedule injected
  * mid-ramp and mid-hold. */
+/* ---- the runs on threads ----------------------------------------------------------------------
+ * The healthy corners and the fault runs do not depend on each other: each writes only its own
+ * corner or fault record and reads the frozen network and description, so they run on
+ * tp_parallel_jobs() threads (parallel.h). A task keeps its messages to itself; the first task
+ * that failed, in the study's order, runs again on the calling thread with the study's
+ * diagnostics, so that what is reported does not depend on the threads. */
+
+typedef struct runs {
+    ctx *cx;                       /* the study's: its diagnostics */
+    const tp_description *desc;    /* the nominal case */
+    const tp_network *net;
+    const tp_steady *hold;         /* the nominal holding state (fault runs) */
+    tp_guard_fault_run **fr;       /* fault runs: the record of each task */
+    const tp_guard_injection **inj;/* fault runs: its injection, NULL */
+    tp_status *rs;                 /* the status of each task */
+} runs;
+
+static tp_status corner_at(ctx *cx, const runs *rn, long c)
+{
+    tp_description cd;
+    tp_status rs;
+    memset(&cd, 0, sizeof cd);
+    rs = tp_guard_corner_apply(rn->desc, rn->net, &cd, &cx->st->corners[c]);
+    if (rs == TP_OK)
+        rs = run_corner(cx, &cd, &cx->st->corners[c]);
+    tp_config_clear(&cd);
+    return rs;
+}
+
+static tp_status fault_at(ctx *cx, const runs *rn, long i)
+{
+    return run_fault(cx, rn->net, rn->fr[i], rn->hold, rn->inj[i]);
+}
+
+/* One task on a thread: a context of its own (the layer scratch) with quiet diagnostics. */
+static void task(runs *rn, long i, tp_status (*at)(ctx *, const runs *, long))
+{
+    ctx own = *rn->cx;
+    tp_diag *quiet = malloc(sizeof *quiet);
+    if (!quiet) {
+        rn->rs[i] = TP_ERR_NOMEM;
+        return;
+    }
+    tp_diag_init(quiet, NULL);
+    own.d = quiet;
+    rn->rs[i] = at(&own, rn, i);
+    free(quiet);
+}
+
+static void corner_task(void *arg, long i)
+{
+    task(arg, i, corner_at);
+}
+
+static void fault_task(void *arg, long i)
+{
+    task(arg, i, fault_at);
+}
+
+/* Run tasks 0..n-1 on threads, then again on this thread, reporting, each that failed (its
+ * trace started afresh), in order, until one fails again. */
+static tp_status run_tasks(runs *rn, long n, void (*fn)(void *, long),
+                           tp_status (*at)(ctx *, const runs *, long),
+                           tp_guard_trace *(*trace_of)(const runs *, long))
+{
+    long i;
+    tp_status rs = TP_OK;
+    rn->rs = malloc((size_t)(n > 0 ? n : 1) * sizeof *rn->rs);
+    if (!rn->rs)
+        return TP_ERR_NOMEM;
+    tp_parallel_for(n, tp_parallel_jobs(), fn, rn);
+    for (i = 0; i < n && rs == TP_OK; i++)
+        if (rn->rs[i] != TP_OK) {
+            trace_clear(trace_of(rn, i));
+            rs = at(rn->cx, rn, i);
+        }
+    free(rn->rs);
+    rn->rs = NULL;
+    return rs;
+}
+
+static tp_guard_trace *corner_trace(const runs *rn, long c)
+{
+    return &rn->cx->st->corners[c].trace;
+}
+
+static tp_guard_trace *fault_trace(const runs *rn, long i)
+{
+    return &rn->fr[i]->trace;
+}
+
+static tp_status run_corners(ctx *cx, const tp_description *desc, const tp_network *net)
+{
+    runs rn;
+    memset(&rn, 0, sizeof rn);
+    rn.cx = cx;
+    rn.desc = desc;
+    rn.net = net;
+    return run_tasks(&rn, cx->st->n_corners, corner_task, corner_at, corner_trace);
+}
+
 static tp_status run_faults(ctx *cx, const tp_network *net, const tp_steady *hold)
 {
     tp_guard_study *st = cx->st;
+    enum { MAX_RUNS = TP_FAULT_COUNT * (2 + TP_GUARD_MID_COUNT) };
+    tp_guard_fault_run *fr[MAX_RUNS];
+    const tp_guard_injection *inj[MAX_RUNS];
+    runs rn;
+    long n = 0;
     int fi, k;
     for (fi = 0; fi < TP_FAULT_COUNT; fi++) {
         for (k = 0; k < 2 + (st->scheduled ? TP_GUARD_MID_COUNT : 0); k++) {
-            tp_guard_fault_run *fr = k < 2 ? &st->faults[fi][k] : &st->mid[fi][k - 2];
-            const tp_guard_injection *inj = k < 2 ? NULL : &st->inject[k - 2];
-            tp_status rs;
-            fr->fault = (tp_guard_fault)fi;
-            fr->from_hold = k == 1;
-            if ((fi == TP_FAULT_DETACHED && !detachable(net)) || (inj && inj->segment < 0))
+            fr[n] = k < 2 ? &st->faults[fi][k] : &st->mid[fi][k - 2];
+            inj[n] = k < 2 ? NULL : &st->inject[k - 2];
+            fr[n]->fault = (tp_guard_fault)fi;
+            fr[n]->from_hold = k == 1;
+            if ((fi == TP_FAULT_DETACHED && !detachable(net)) || (inj[n] && inj[n]->segment < 0))
                 continue;
-            rs = run_fault(cx, net, fr, hold, inj);
-            if (rs != TP_OK)
-                return rs;
+            n++;
         }
     }
-    return TP_OK;
+    memset(&rn, 0, sizeof rn);
+    rn.cx = cx;
+    rn.net = net;
+    rn.hold = hold;
+    rn.fr = fr;
+    rn.inj = inj;
+    return run_tasks(&rn, n, fault_task, fault_at, fault_trace);
 }
 
 /* Recommend from scratch; then, when settings are given, complete them: each missing member is
@@ -1751,14 +1861,11 @@ tp_status tp_guard_study_run(const tp_description *desc, const tp_yamltree *doc,
     const tp_network *net = NULL;
     tp_steady hold;
     tp_diag quiet;
-    tp_description cd;
     tp_guard_settings none = {0, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET, TP_UNSET};
     ctx cx;
     tp_status rs;
-    int c;
     memset(st, 0, sizeof *st);
     memset(&hold, 0, sizeof hold);
-    memset(&cd, 0, sizeof cd);
     st->desc = desc;
     st->stuck_worst = st->stuck_over_layer = -1;
     if (!given)
@@ -1782,14 +1889,9 @@ tp_status tp_guard_study_run(const tp_description *desc, const tp_yamltree *doc,
     if (rs != TP_OK)
         goto done;
     st->n_corners = tp_guard_corners_plan(&st->ranges, 1.0, 1.0, st->corners);
-    for (c = 0; c < st->n_corners; c++) {
-        rs = tp_guard_corner_apply(desc, net, &cd, &st->corners[c]);
-        if (rs == TP_OK)
-            rs = run_corner(&cx, &cd, &st->corners[c]);
-        tp_config_clear(&cd);
-        if (rs != TP_OK)
-            goto done;
-    }
+    rs = run_corners(&cx, desc, net);
+    if (rs != TP_OK)
+        goto done;
     healthy_layer_peaks(st);
     /* The holding state and the full-power equilibrium of the nominal case. */
     tp_diag_init(&quiet, NULL);

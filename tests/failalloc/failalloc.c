@@ -6,6 +6,7 @@
  * The shared libraries tepid uses (libyaml, udunits2, SUNDIALS, KLU, cJSON, cminpack, PLplot)
  * call the C library's allocator directly: --wrap rewrites only references in the objects of
  * this link, so their own allocations are not counted or failed here. */
+#include <stdatomic.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -19,8 +20,9 @@ void *__wrap_calloc(size_t n, size_t size);
 void *__wrap_realloc(void *p, size_t size);
 char *__wrap_strdup(const char *s);
 
-static long calls;      /* allocations so far */
-static long fail_at = -1; /* -1: not read yet; 0: never */
+static atomic_long calls; /* allocations so far (guard and sweep allocate from threads) */
+static long fail_at = -1;  /* -1: not read yet (the first allocation is on the main thread);
+                              0: never */
 
 /* Nonzero when this allocation is the one to fail. */
 static int fail_now(void)
@@ -31,7 +33,7 @@ static int fail_now(void)
         if (fail_at < 0)
             fail_at = 0;
     }
-    return ++calls == fail_at;
+    return atomic_fetch_add(&calls, 1) + 1 == fail_at;
 }
 
 void *__wrap_malloc(size_t size)
@@ -64,7 +66,7 @@ __attribute__((destructor)) static void report_count(void)
     int n;
     if (!getenv("TP_FAILALLOC_COUNT"))
         return;
-    n = snprintf(line, sizeof line, "tp-failalloc: %ld allocations\n", calls);
+    n = snprintf(line, sizeof line, "tp-failalloc: %ld allocations\n", (long)atomic_load(&calls));
     if (n > 0 && write(2, line, (size_t)n) < 0)
         return;
 }
