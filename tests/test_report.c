@@ -401,6 +401,27 @@ static void compare_cool(const char *md, const cJSON *c)
         check_duration("time", rows[i].cell[2], l, "time_s", "not within 24 h");
         i++;
     }
+    /* the summary's burn-threshold times, in the levels' order */
+    {
+        const md_row *r;
+        char *p, *next;
+        n = md_table(md, "Summary", rows, ROWS_MAX);
+        r = find_row(rows, n, "cool-down (heater off)");
+        p = strstr(r->cell[1], " after ");
+        assert_non_null(p);
+        p += 7;
+        cJSON_ArrayForEach(l, levels)
+        {
+            if (strcmp(cJSON_GetObjectItem(l, "kind")->valuestring, "burn") != 0)
+                continue;
+            assert_non_null(p);
+            next = strstr(p, " / ");
+            if (next)
+                *next = '\0';
+            check_duration("summary", p, l, "time_s", "not within 24 h");
+            p = next ? next + 3 : NULL;
+        }
+    }
     /* the class named with the top layer's material, as cool --json has them */
     if (cJSON_IsString(cJSON_GetObjectItem(c, "top_material"))) {
         char want[160];

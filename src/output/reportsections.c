@@ -206,6 +206,31 @@ static void guard_verdict(char *buf, size_t size, const tp_guard_study *g)
              g->horizon / 60.0);
 }
 
+/* The cool-down's burn-threshold times, or why there is none. */
+static void cool_row(tp_report_table *t, const tp_reportcase *c)
+{
+    char contact[64] = "", times[96] = "", d[32];
+    size_t uc = 0, ut = 0;
+    int k;
+    tp_report_cell(t, "cool-down (heater off)");
+    if (!c->cool) {
+        tp_report_cell(t, "not available: %s", c->why[TP_STUDY_COOL]);
+        return;
+    }
+    for (k = 0; k < c->cool->n_levels; k++) {
+        const tp_cooldown_level *l = &c->cool->levels[k];
+        if (l->kind != TP_COOL_BURN || uc >= sizeof contact || ut >= sizeof times)
+            continue;
+        tp_reportsections_duration(d, sizeof d, l->time);
+        uc += (size_t)snprintf(contact + uc, sizeof contact - uc, "%s%s", uc ? " / " : "",
+                               l->contact >= 60.0 ? "1 min" : l->contact >= 10.0 ? "10 s"
+                                                                                 : "1 s");
+        ut += (size_t)snprintf(times + ut, sizeof times - ut, "%s%s", ut ? " / " : "",
+                               isfinite(l->time) ? d : "not within 24 h");
+    }
+    tp_report_cell(t, "below the burn thresholds for %s of contact after %s", contact, times);
+}
+
 tp_status tp_reportsections_summary(tp_report *r, tp_report_section *s, const tp_reportcase *c,
                                     tp_diag *d)
 {
@@ -254,6 +279,7 @@ tp_status tp_reportsections_summary(tp_report *r, tp_report_section *s, const tp
         tp_report_cell(t, "holding power");
         tp_report_cell(t, "not available: %s", c->why[TP_STUDY_STEADY]);
     }
+    cool_row(t, c);
     tp_report_cell(t, "budget verdict");
     if (c->budget) {
         budget_verdict(buf, sizeof buf, c->budget);
