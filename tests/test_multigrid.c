@@ -334,7 +334,7 @@ static void test_multigrid_refuses_bad_diagonal(void **state)
         ;
     h.val[d] = 0.0;
     assert_int_equal(tp_multigrid_setup(mg, h.val), TP_ERR_SOLVER);
-    h.val[d] = NAN;
+    h.val[d] = (double)NAN;
     assert_int_equal(tp_multigrid_setup(mg, h.val), TP_ERR_SOLVER);
     h.val[d] = 0.1 + 4.0;
     assert_int_equal(tp_multigrid_setup(mg, h.val), TP_OK);

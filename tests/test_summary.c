@@ -47,8 +47,8 @@ static void test_summary_durations(void **state)
         {3600.0, "1 h 00 min"},
         {3720.0, "1 h 02 min"},   /* 62 min */
         {7199.0, "1 h 59 min"},
-        {NAN, "-"},
-        {INFINITY, "-"},
+        {(double)NAN, "-"},
+        {(double)INFINITY, "-"},
     };
     char buf[64];
     size_t i;
@@ -255,7 +255,7 @@ static void test_summary_metric_text(void **state)
     assert_non_null(s);
     tp_summary_metric(t, 440.0, buf, sizeof buf);
     assert_string_equal(buf, "7 min 20 s");
-    tp_summary_metric(t, NAN, buf, sizeof buf);
+    tp_summary_metric(t, (double)NAN, buf, sizeof buf);
     assert_string_equal(buf, "-");
     /* 368.15 K is 95 degC; the spread 2.5 K stays 2.5 (K and degC intervals are equal). */
     assert_string_equal(s->text_unit, "degC");
