@@ -906,6 +906,19 @@ static void test_report_refuses_bad_outputs_before_any_work(void **state)
         assert_null(strstr(r.err, "broken.yaml:"));
         tp_run_clear(&r);
     }
+    /* a level without a unit, before the config is read too */
+    {
+        char html[TP_TEST_PATH];
+        const char *args[] = {"report", broken, "--above", "217", "-o", html, NULL};
+        tp_run_result r;
+        tp_scratch_path(s, "above.html", html, sizeof html);
+        tp_run_tepid(s, args, &r);
+        assert_int_equal(r.status, 2);
+        tp_check_contains("--above", r.err, "--above: '217' has no unit");
+        assert_null(strstr(r.err, "broken.yaml:"));
+        assert_false(tp_file_exists(html));
+        tp_run_clear(&r);
+    }
     /* the output onto the input itself */
     {
         const char *args[] = {"report", clash, "-o", clash, NULL};

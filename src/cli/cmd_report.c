@@ -320,14 +320,15 @@ static tp_status run_report(const tp_cli *cli, tp_diag *d)
     tp_status rc = check_output(out, &kind, d);
     if (rc != TP_OK)
         return rc;
-    rc = tp_session_open(&s, cli, d);
-    if (rc != TP_OK)
-        return rc;
     memset(&c, 0, sizeof c);
     memset(&x, 0, sizeof x);
     rc = tp_session_temperatures(cli, "above", TP_PROGRAM_MAX_ABOVE, x.above, &c.n_above, d);
-    if (rc == TP_OK)
-        rc = hash_file(cli->file, hash, d);
+    if (rc != TP_OK)
+        return rc;
+    rc = tp_session_open(&s, cli, d);
+    if (rc != TP_OK)
+        return rc;
+    rc = hash_file(cli->file, hash, d);
     if (rc == TP_OK)
         rc = run_studies(&s, &x, &c, d);
     if (rc == TP_OK) {
