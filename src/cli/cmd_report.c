@@ -14,6 +14,7 @@
 
 #include "infile.h"
 #include "report.h"
+#include "reportcycle.h"
 #include "reportsections.h"
 #include "session.h"
 #include "verbs.h"
@@ -55,9 +56,9 @@ static const struct report_section {
     {"summary", "Summary", TP_REPORT_SUMMARY, NULL, tp_reportsections_summary},
     {"cautions", "Cautions", TP_REPORT_CAUTIONS, NULL, tp_reportsections_cautions},
     {"warmup", "Warm-up", TP_REPORT_PLAIN, NULL, tp_reportsections_warmup},
-    {"programme", "Programme", TP_REPORT_PLAIN, programmed, tp_reportsections_programme},
+    {"programme", "Programme", TP_REPORT_PLAIN, programmed, tp_reportcycle_programme},
     {"steady", "Steady state", TP_REPORT_PLAIN, NULL, tp_reportsections_steady},
-    {"cool", "Cool-down", TP_REPORT_PLAIN, NULL, tp_reportsections_cool},
+    {"cool", "Cool-down", TP_REPORT_PLAIN, NULL, tp_reportcycle_cool},
     {"budget", "Power budget", TP_REPORT_PLAIN, NULL, tp_reportsections_budget},
     {"protection", "Protection", TP_REPORT_PLAIN, NULL, tp_reportsections_guard},
     {"surface", "Surface uniformity", TP_REPORT_PLAIN, gridded, tp_reportsections_surface},

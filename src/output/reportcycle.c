@@ -6,7 +6,7 @@
 
 #include "coolout.h"
 #include "figure.h"
-#include "reportsections.h"
+#include "reportcycle.h"
 #include "summary.h"
 #include "units.h"
 
@@ -130,8 +130,8 @@ static void programme_above(tp_report_section *s, const tp_program *p)
     }
 }
 
-tp_status tp_reportsections_programme(tp_report *r, tp_report_section *s,
-                                      const tp_reportcase *c, tp_diag *d)
+tp_status tp_reportcycle_programme(tp_report *r, tp_report_section *s, const tp_reportcase *c,
+                                   tp_diag *d)
 {
     const tp_program *p = c->program;
     char path[TP_PATH_MAX], caption[256];
@@ -165,8 +165,8 @@ tp_status tp_reportsections_programme(tp_report *r, tp_report_section *s,
 
 /* ---- cool-down ---------------------------------------------------------------------------- */
 
-tp_status tp_reportsections_cool(tp_report *r, tp_report_section *s, const tp_reportcase *c,
-                                 tp_diag *d)
+tp_status tp_reportcycle_cool(tp_report *r, tp_report_section *s, const tp_reportcase *c,
+                              tp_diag *d)
 {
     static const char *const head[] = {"falls below", "level (degC)", "after switch-off"};
     const tp_cooldown *cd = c->cool;

@@ -2,7 +2,7 @@
  * computed for the verbs (warm-up, steady report, budget, guard, surface maps, cautions) with
  * the verbs' own rounding: the report recomputes nothing. The verb `report` runs the studies
  * and lists the sections in their order (src/cli/cmd_report.c); a new study's section is one
- * more builder here and one more row there. */
+ * more builder here (or in reportcycle.h) and one more row there. */
 #ifndef TP_REPORTSECTIONS_H
 #define TP_REPORTSECTIONS_H
 
@@ -85,10 +85,6 @@ tp_status tp_reportsections_guard(tp_report *r, tp_report_section *s, const tp_r
                                   tp_diag *d);
 tp_status tp_reportsections_surface(tp_report *r, tp_report_section *s, const tp_reportcase *c,
                                     tp_diag *d);
-tp_status tp_reportsections_programme(tp_report *r, tp_report_section *s,
-                                      const tp_reportcase *c, tp_diag *d);
-tp_status tp_reportsections_cool(tp_report *r, tp_report_section *s, const tp_reportcase *c,
-                                 tp_diag *d);
 tp_status tp_reportsections_model(tp_report *r, tp_report_section *s, const tp_reportcase *c,
                                   tp_diag *d);
 tp_status tp_reportsections_input(tp_report *r, tp_report_section *s, const tp_reportcase *c,
