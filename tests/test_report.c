@@ -22,11 +22,12 @@ static void run_ok(const tp_scratch *s, const char *const *args)
     tp_run_clear(&r);
 }
 
-/* `verb FILE [--set SET] --json PATH -q`, parsed. */
-static cJSON *verb_json(const tp_scratch *s, const char *verb, const char *file, const char *set)
+/* `verb FILE [--set SET] [--above ABOVE] --json PATH -q`, parsed. */
+static cJSON *verb_json(const tp_scratch *s, const char *verb, const char *file, const char *set,
+                        const char *above)
 {
     char path[TP_TEST_PATH];
-    const char *args[10];
+    const char *args[12];
     int n = 0;
     tp_scratch_path(s, "verb.json", path, sizeof path);
     args[n++] = verb;
@@ -34,6 +35,10 @@ static cJSON *verb_json(const tp_scratch *s, const char *verb, const char *file,
     if (set) {
         args[n++] = "--set";
         args[n++] = set;
+    }
+    if (above) {
+        args[n++] = "--above";
+        args[n++] = above;
     }
     args[n++] = "--json";
     args[n++] = path;
@@ -297,6 +302,136 @@ static void compare_guard(const char *md, const cJSON *g)
     assert_int_equal(n, cJSON_GetArraySize(cJSON_GetObjectItem(g, "corners")));
 }
 
+/* A cell against a JSON number that may be null (a figure that does not exist: "-"). */
+static void check_or_dash(const char *what, const char *cell, const cJSON *obj, const char *key,
+                          double scale)
+{
+    const cJSON *v = cJSON_GetObjectItemCaseSensitive(obj, key);
+    if (cJSON_IsNull(v)) {
+        if (strcmp(cell, "-") != 0)
+            fail_msg("%s: '%s' where %s is null", what, cell, key);
+        return;
+    }
+    if (!cJSON_IsNumber(v))
+        fail_msg("%s: JSON has no '%s'", what, key);
+    check_printed(what, cell, v->valuedouble * scale);
+}
+
+/* A duration cell against a JSON number of seconds (null: `none`, the words printed instead). */
+static void check_duration(const char *what, const char *cell, const cJSON *obj, const char *key,
+                           const char *none)
+{
+    const cJSON *v = cJSON_GetObjectItemCaseSensitive(obj, key);
+    double tol, x;
+    if (cJSON_IsNull(v)) {
+        assert_string_equal(cell, none);
+        return;
+    }
+    x = printed_duration(cell, &tol);
+    tp_check_abs(what, x, json_num(obj, key), tol);
+}
+
+/* The Programme section's tables against warmup --json's "schedule" and "time_above", row by
+ * row in their order. */
+static void compare_programme(const char *md, const cJSON *w)
+{
+    static const char *const rates[] = {"rate_requested_K_per_s", "rate_reading_K_per_s",
+                                        "rate_surface_K_per_s"};
+    static const char *const track[] = {"error_reading_max_K", "error_reading_rms_K",
+                                        "error_surface_max_K", "error_surface_rms_K",
+                                        "at_limit_fraction",   "overshoot_reading_K",
+                                        "overshoot_surface_K"};
+    const cJSON *sched = cJSON_GetObjectItemCaseSensitive(w, "schedule"), *g;
+    const cJSON *above = cJSON_GetObjectItemCaseSensitive(w, "time_above"), *a;
+    md_row rows[ROWS_MAX], trk[ROWS_MAX];
+    int n = 0, m = 0, i = 0, k;
+    if (cJSON_GetArraySize(sched) > 0) {
+        n = md_table(md, "Programme segments and their rates", rows, ROWS_MAX);
+        m = md_table(md, "Programme tracking", trk, ROWS_MAX);
+    }
+    assert_int_equal(n, cJSON_GetArraySize(sched));
+    assert_int_equal(m, n);
+    cJSON_ArrayForEach(g, sched)
+    {
+        const md_row *r = &rows[i], *t = &trk[i];
+        assert_int_equal(atoi(r->cell[0]), (int)json_num(g, "index") + 1);
+        assert_string_equal(r->cell[1], cJSON_GetObjectItem(g, "kind")->valuestring);
+        check_duration("start", r->cell[2], g, "start_s", "");
+        check_duration("end", r->cell[3], g, "end_s", "");
+        for (k = 0; k < 3; k++)
+            check_or_dash(rates[k], r->cell[5 + k], g, rates[k], 1.0);
+        for (k = 0; k < 7; k++)
+            check_or_dash(track[k], t->cell[1 + k], g, track[k], k == 4 ? 100.0 : 1.0);
+        i++;
+    }
+    n = md_table(md, "Time above", rows, ROWS_MAX);
+    assert_int_equal(n, cJSON_GetArraySize(above));
+    i = 0;
+    cJSON_ArrayForEach(a, above)
+    {
+        check_printed("level", rows[i].cell[0], json_num(a, "level_C"));
+        check_duration("reading above", rows[i].cell[1], a, "reading_s", "-");
+        check_duration("surface above", rows[i].cell[2], a, "surface_s", "-");
+        i++;
+    }
+}
+
+/* The Cool-down table against cool --json's "levels", in their order: kind by its words, the
+ * level and the time after switch-off. */
+static void compare_cool(const char *md, const cJSON *c)
+{
+    static const struct {
+        const char *kind, *words;
+    } names[] = {{"burn", "burn threshold, "}, {"room", "room + 5 K"},
+                 {"air", "chamber air below room + 5 K"}};
+    const cJSON *levels = cJSON_GetObjectItemCaseSensitive(c, "levels"), *l;
+    md_row rows[ROWS_MAX];
+    int n = md_table(md, "Cool-down times", rows, ROWS_MAX), i = 0;
+    size_t k;
+    assert_int_equal(n, cJSON_GetArraySize(levels));
+    assert_true(n >= 4);
+    cJSON_ArrayForEach(l, levels)
+    {
+        const char *kind = cJSON_GetObjectItem(l, "kind")->valuestring;
+        for (k = 0; k < sizeof names / sizeof names[0]; k++)
+            if (strcmp(kind, names[k].kind) == 0)
+                assert_int_equal(strncmp(rows[i].cell[0], names[k].words,
+                                         strlen(names[k].words)), 0);
+        check_printed("level", rows[i].cell[1], json_num(l, "level_C"));
+        check_duration("time", rows[i].cell[2], l, "time_s", "not within 24 h");
+        i++;
+    }
+    /* the summary's burn-threshold times, in the levels' order */
+    {
+        const md_row *r;
+        char *p, *next;
+        n = md_table(md, "Summary", rows, ROWS_MAX);
+        r = find_row(rows, n, "cool-down (heater off)");
+        p = strstr(r->cell[1], " after ");
+        assert_non_null(p);
+        p += 7;
+        cJSON_ArrayForEach(l, levels)
+        {
+            if (strcmp(cJSON_GetObjectItem(l, "kind")->valuestring, "burn") != 0)
+                continue;
+            assert_non_null(p);
+            next = strstr(p, " / ");
+            if (next)
+                *next = '\0';
+            check_duration("summary", p, l, "time_s", "not within 24 h");
+            p = next ? next + 3 : NULL;
+        }
+    }
+    /* the class named with the top layer's material, as cool --json has them */
+    if (cJSON_IsString(cJSON_GetObjectItem(c, "top_material"))) {
+        char want[160];
+        snprintf(want, sizeof want, "Top layer: %s; the burn thresholds of the %s class",
+                 cJSON_GetObjectItem(c, "top_material")->valuestring,
+                 cJSON_GetObjectItem(c, "material_class")->valuestring);
+        tp_check_contains("cool-down", md, want);
+    }
+}
+
 /* Each node's capacity against explain --json (lumped and raw forms: one row per node). */
 static void compare_explain(const char *md, const cJSON *e)
 {
@@ -313,13 +448,15 @@ static void compare_explain(const char *md, const cJSON *e)
     }
 }
 
-static void compare_demo(const char *file, const char *set, int grid)
+/* The report of `file` (with --set SET and --above ABOVE when given) against every verb's
+ * JSON on the same file. */
+static void compare_demo(const char *file, const char *set, const char *above, int grid)
 {
     tp_scratch s;
     char out[TP_TEST_PATH];
     char *md;
     cJSON *j;
-    const char *args[10];
+    const char *args[12];
     int n = 0;
     tp_scratch_create(&s);
     tp_scratch_path(&s, "review.md", out, sizeof out);
@@ -329,6 +466,10 @@ static void compare_demo(const char *file, const char *set, int grid)
         args[n++] = "--set";
         args[n++] = set;
     }
+    if (above) {
+        args[n++] = "--above";
+        args[n++] = above;
+    }
     args[n++] = "-o";
     args[n++] = out;
     args[n++] = "-q";
@@ -336,20 +477,31 @@ static void compare_demo(const char *file, const char *set, int grid)
     run_ok(&s, args);
     md = tp_read_file(out);
     assert_non_null(md);
-    j = verb_json(&s, "warmup", file, set);
+    j = verb_json(&s, "warmup", file, set, above);
     compare_warmup(md, j);
+    if (cJSON_GetArraySize(cJSON_GetObjectItem(j, "schedule")) > 0)
+        tp_check_contains("markdown", md, "](review-files/programme.svg)");
+    if (above || cJSON_GetArraySize(cJSON_GetObjectItem(j, "schedule")) > 0)
+        compare_programme(md, j);
+    else
+        assert_null(strstr(md, "\n## Programme\n"));
     cJSON_Delete(j);
-    j = verb_json(&s, "steady", file, set);
+    j = verb_json(&s, "steady", file, set, NULL);
     compare_steady(md, j);
     cJSON_Delete(j);
-    j = verb_json(&s, "budget", file, set);
+    j = verb_json(&s, "cool", file, set, NULL);
+    compare_cool(md, j);
+    /* the figures as SVG files beside the Markdown */
+    tp_check_contains("markdown", md, "](review-files/cool.svg)");
+    cJSON_Delete(j);
+    j = verb_json(&s, "budget", file, set, NULL);
     compare_budget(md, j);
     cJSON_Delete(j);
-    j = verb_json(&s, "guard", file, set);
+    j = verb_json(&s, "guard", file, set, NULL);
     compare_guard(md, j);
     cJSON_Delete(j);
     if (!grid) {
-        j = verb_json(&s, "explain", file, set);
+        j = verb_json(&s, "explain", file, set, NULL);
         compare_explain(md, j);
         cJSON_Delete(j);
     }
@@ -360,44 +512,94 @@ static void compare_demo(const char *file, const char *set, int grid)
 static void test_report_figures_equal_the_verbs_lumped(void **state)
 {
     (void)state;
-    compare_demo(DEMO("workshop-bed-24v"), NULL, 0);
-    compare_demo(DEMO("enclosed-printer"), NULL, 0);
+    compare_demo(DEMO("workshop-bed-24v"), NULL, NULL, 0);
+    compare_demo(DEMO("enclosed-printer"), NULL, NULL, 0);
+}
+
+/* The reflow demo follows control.schedule: the warm-up's metrics, the programme's segments
+ * and the time above the liquidus (217 degC) as warmup reports them, the cool-down as cool
+ * does; and the 24 V demo's time above a level without a schedule. */
+static void test_report_figures_equal_the_verbs_scheduled(void **state)
+{
+    (void)state;
+    compare_demo(DEMO("reflow-hotplate-230v"), NULL, "217degC", 0);
+    compare_demo(DEMO("workshop-bed-24v"), NULL, "80degC", 0);
 }
 
 static void test_report_figures_equal_the_verbs_raw(void **state)
 {
     (void)state;
-    compare_demo(DEMO("raw-five-node"), NULL, 0);
+    compare_demo(DEMO("raw-five-node"), NULL, NULL, 0);
 }
 
 static void test_report_figures_equal_the_verbs_gridded(void **state)
 {
     (void)state;
-    compare_demo(DEMO("small-pad-grid"), "bed.grid=[6, 6]", 1);
+    compare_demo(DEMO("small-pad-grid"), "bed.grid=[6, 6]", NULL, 1);
+}
+
+/* Without a setpoint to hold, cool refuses the file (exit 2: it starts from the holding
+ * state) and the report's Cool-down section gives the same reason, the rest of the report
+ * written. */
+static void test_report_cool_down_mirrors_cool_without_a_setpoint(void **state)
+{
+    const tp_scratch *s = tp_group_scratch();
+    char out[TP_TEST_PATH], *md;
+    const char *cool[] = {"cool", DEMO("raw-five-node"), "--set", "control.mode=off", NULL};
+    const char *report[] = {"report", DEMO("raw-five-node"), "--set", "control.mode=off", "-o",
+                            out, "-q", NULL};
+    tp_run_result r;
+    (void)state;
+    tp_run_tepid(s, cool, &r);
+    assert_int_equal(r.status, 2);
+    tp_check_contains("cool", r.err, "controller holds no setpoint");
+    tp_run_clear(&r);
+    tp_scratch_path(s, "off.md", out, sizeof out);
+    run_ok(s, report);
+    md = tp_read_file(out);
+    assert_non_null(md);
+    tp_check_contains("report", md, "## Cool-down\n\nNot available for this case: the "
+                                    "cool-down starts from the steady holding state, and this "
+                                    "file's controller holds no setpoint");
+    assert_null(strstr(md, "Cool-down times"));
+    free(md);
 }
 
 /* ---- the HTML as a file ------------------------------------------------------------------ */
 
-/* A report of the 24 V demo in the group's scratch folder (made once). */
-static const char *html_report(void)
+/* The reports the page checks look at, each made once in the group's scratch folder: the 24 V
+ * demo, and the reflow demo with its programme and the time above the liquidus. */
+enum { PAGE_24V, PAGE_REFLOW, PAGES };
+
+static const struct page {
+    const char *file, *above, *name;
+    int figures; /* warm-up, programme, losses, cool-down, guard */
+} pages[PAGES] = {{DEMO("workshop-bed-24v"), NULL, "review.html", 4},
+                  {DEMO("reflow-hotplate-230v"), "217degC", "reflow.html", 5}};
+
+static const char *html_report(int page)
 {
-    static char path[TP_TEST_PATH];
-    if (!path[0]) {
-        const char *args[] = {"report", DEMO("workshop-bed-24v"), "-o", path, "-q", NULL};
-        tp_scratch_path(tp_group_scratch(), "review.html", path, sizeof path);
+    static char path[PAGES][TP_TEST_PATH];
+    if (!path[page][0]) {
+        const char *args[] = {"report", pages[page].file, "-o", path[page], "-q", NULL, NULL,
+                              NULL};
+        if (pages[page].above) {
+            args[5] = "--above";
+            args[6] = pages[page].above;
+        }
+        tp_scratch_path(tp_group_scratch(), pages[page].name, path[page], sizeof path[page]);
         run_ok(tp_group_scratch(), args);
     }
-    return path;
+    return path[page];
 }
 
 /* Nothing is fetched: no script, no external style or image, no URL but the SVG and XLink
  * namespaces (names, never fetched: W3C, Namespaces in XML 1.0, section 2), every id unique
  * (figures inlined side by side keep their own ids). */
-static void test_report_html_is_self_contained(void **state)
+static void check_self_contained(int page)
 {
-    char *html = tp_read_file(html_report()), *p;
+    char *html = tp_read_file(html_report(page)), *p;
     int figures = 0;
-    (void)state;
     assert_non_null(html);
     assert_null(strstr(html, "<script"));
     assert_null(strstr(html, "<link"));
@@ -431,7 +633,8 @@ static void test_report_html_is_self_contained(void **state)
             }
         free(ids);
     }
-    /* three figures (warm-up, loss split, guard), each drawn: many paths, not an empty frame */
+    /* the figures (warm-up, programme, loss split, cool-down, guard), each drawn: many paths,
+     * not an empty frame */
     for (p = html; (p = strstr(p, "<figure")) != NULL; p++) {
         char *end = strstr(p, "</figure>");
         int paths = 0;
@@ -443,11 +646,21 @@ static void test_report_html_is_self_contained(void **state)
             fail_msg("figure %d has only %d paths", figures + 1, paths);
         figures++;
     }
-    assert_int_equal(figures, 3);
+    assert_int_equal(figures, pages[page].figures);
     /* the summary's verdicts are words in a marked box: the 24 V demo's budget has one WARN
      * (its switch's conduction loss above 1 W, budget --json) */
-    tp_check_contains("summary", html, "<span class=\"verdict v-warn\">WARN</span>: 0 FAILs");
+    if (page == PAGE_24V)
+        tp_check_contains("summary", html,
+                          "<span class=\"verdict v-warn\">WARN</span>: 0 FAILs");
     free(html);
+}
+
+static void test_report_html_is_self_contained(void **state)
+{
+    int page;
+    (void)state;
+    for (page = 0; page < PAGES; page++)
+        check_self_contained(page);
 }
 
 /* tidy (Debian package tidy) finds no error; its exit status is 2 on errors, 1 on warnings
@@ -456,25 +669,29 @@ static void test_report_html_passes_tidy(void **state)
 {
     char tidy[TP_TEST_PATH];
     tp_run_result r;
+    int page;
     (void)state;
     if (tp_find_program("tidy", tidy) != 0) {
         print_message("skipped: the HTML5 check needs tidy (Debian package tidy)\n");
         skip();
     }
-    {
-        const char *args[] = {"-errors", "-q", html_report(), NULL};
+    for (page = 0; page < PAGES; page++) {
+        const char *args[] = {"-errors", "-q", html_report(page), NULL};
         tp_run_program(tp_group_scratch(), tidy, args, &r);
+        if (r.status >= 2)
+            fail_msg("tidy finds errors in %s:\n%s", pages[page].name, r.err);
+        tp_run_clear(&r);
     }
-    if (r.status >= 2)
-        fail_msg("tidy finds errors:\n%s", r.err);
-    tp_run_clear(&r);
 }
 
 /* ---- as Chromium shows and prints it ------------------------------------------------------ */
 
-static const char *const headings[] = {"Summary",      "Cautions",  "Warm-up",
-                                       "Steady state", "Power budget", "Protection",
-                                       "The model",    "The input",  "Provenance"};
+/* The section headings in their order (docs/report.md); the programme's only on a page that
+ * has one (a schedule, or --above levels). */
+static const char *const headings[] = {"Summary",    "Cautions",     "Warm-up",    "Programme",
+                                       "Steady state", "Cool-down", "Power budget",
+                                       "Protection", "The model",    "The input",  "Provenance"};
+#define HEADINGS ((int)(sizeof headings / sizeof headings[0]))
 
 /* Print `html` to `pdf` with headless Chromium; its log must hold no console message. */
 static void chromium_print(const char *chromium, const char *html, const char *pdf)
@@ -501,30 +718,44 @@ static void chromium_print(const char *chromium, const char *html, const char *p
     tp_run_clear(&r);
 }
 
-/* The PDF's text: every section heading on a line of its own, once; no word off the page. */
-static void check_pdf(const char *pdftotext, const char *pdf, const char *paper)
+/* The PDF's text: every section heading of the page on a line of its own, in their order, and
+ * no other (the 24 V demo's has no Programme); no word off the page. */
+static void check_pdf(const char *pdftotext, const char *pdf, const char *paper, int page)
 {
     const tp_scratch *s = tp_group_scratch();
     tp_run_result r;
-    char *p;
-    size_t k;
+    char *p, *last;
+    int k, found = 0;
     double page_w = 0;
     {
         const char *args[] = {pdf, "-", NULL};
         tp_run_program(s, pdftotext, args, &r);
     }
     assert_int_equal(r.status, 0);
-    for (k = 0; k < sizeof headings / sizeof headings[0]; k++) {
+    last = r.out;
+    for (k = 0; k < HEADINGS; k++) {
         char want[64];
-        int n = 0;
+        char *at = NULL;
+        int expected = page == PAGE_REFLOW || strcmp(headings[k], "Programme") != 0;
         /* a line of its own: after a line break or a page break (form feed) */
         snprintf(want, sizeof want, "%s\n", headings[k]);
         for (p = r.out + 1; (p = strstr(p, want)) != NULL; p++)
-            if (p[-1] == '\n' || p[-1] == '\f')
-                n++;
-        if (n < 1)
-            fail_msg("%s: the PDF has no heading '%s'", paper, headings[k]);
+            if ((p[-1] == '\n' || p[-1] == '\f') && !at)
+                at = p;
+        if (expected && !at)
+            fail_msg("%s, %s: the PDF has no heading '%s'", pages[page].name, paper,
+                     headings[k]);
+        if (!expected && at)
+            fail_msg("%s, %s: the PDF has a heading '%s'", pages[page].name, paper,
+                     headings[k]);
+        if (at && at < last)
+            fail_msg("%s, %s: '%s' out of order", pages[page].name, paper, headings[k]);
+        if (at) {
+            last = at;
+            found++;
+        }
     }
+    assert_int_equal(found, page == PAGE_REFLOW ? HEADINGS : HEADINGS - 1);
     tp_run_clear(&r);
     {
         const char *args[] = {"-bbox", pdf, "-", NULL};
@@ -540,25 +771,20 @@ static void check_pdf(const char *pdftotext, const char *pdf, const char *paper)
     tp_run_clear(&r);
 }
 
-static void test_report_renders_in_chromium(void **state)
+/* A screenshot far from blank, and Letter and A4 PDFs with their headings, of one page. */
+static void render_page(const char *chromium, const char *pdftotext, int page)
 {
     const tp_scratch *s = tp_group_scratch();
-    char chromium[TP_TEST_PATH], pdftotext[TP_TEST_PATH], png[TP_TEST_PATH], pdf[TP_TEST_PATH];
+    char png[TP_TEST_PATH], pdf[TP_TEST_PATH], name[64];
     char a4[TP_TEST_PATH], url[TP_TEST_PATH + 8], arg[TP_TEST_PATH + 32], user[TP_TEST_PATH];
     char *html;
     tp_run_result r;
     struct stat sb;
     FILE *fp;
-    (void)state;
-    if (tp_find_program("chromium", chromium) != 0 ||
-        tp_find_program("pdftotext", pdftotext) != 0) {
-        print_message("skipped: rendering the report needs chromium and pdftotext (Debian "
-                      "packages chromium and poppler-utils)\n");
-        skip();
-    }
     /* a screenshot: written, and far from blank (a white 1200 x 3000 PNG is a few kB) */
-    tp_scratch_path(s, "review.png", png, sizeof png);
-    snprintf(url, sizeof url, "file://%s", html_report());
+    snprintf(name, sizeof name, "%s.png", pages[page].name);
+    tp_scratch_path(s, name, png, sizeof png);
+    snprintf(url, sizeof url, "file://%s", html_report(page));
     snprintf(arg, sizeof arg, "--screenshot=%s", png);
     tp_scratch_path(s, "chromium-profile", user, sizeof user);
     {
@@ -574,22 +800,40 @@ static void test_report_renders_in_chromium(void **state)
     assert_int_equal(stat(png, &sb), 0);
     assert_true(sb.st_size > 100000);
     /* Letter (Chromium's default paper) */
-    tp_scratch_path(s, "review-letter.pdf", pdf, sizeof pdf);
-    chromium_print(chromium, html_report(), pdf);
-    check_pdf(pdftotext, pdf, "Letter");
+    snprintf(name, sizeof name, "%s-letter.pdf", pages[page].name);
+    tp_scratch_path(s, name, pdf, sizeof pdf);
+    chromium_print(chromium, html_report(page), pdf);
+    check_pdf(pdftotext, pdf, "Letter", page);
     /* A4: the same page with the paper named */
-    html = tp_read_file(html_report());
+    html = tp_read_file(html_report(page));
     assert_non_null(html);
-    tp_scratch_path(s, "review-a4.html", a4, sizeof a4);
+    snprintf(name, sizeof name, "%s-a4.html", pages[page].name);
+    tp_scratch_path(s, name, a4, sizeof a4);
     fp = fopen(a4, "w");
     assert_non_null(fp);
     fprintf(fp, "%.*s<style>@page{size:A4}</style>%s", (int)(strstr(html, "</head>") - html),
             html, strstr(html, "</head>"));
     assert_int_equal(fclose(fp), 0);
     free(html);
-    tp_scratch_path(s, "review-a4.pdf", pdf, sizeof pdf);
+    snprintf(name, sizeof name, "%s-a4.pdf", pages[page].name);
+    tp_scratch_path(s, name, pdf, sizeof pdf);
     chromium_print(chromium, a4, pdf);
-    check_pdf(pdftotext, pdf, "A4");
+    check_pdf(pdftotext, pdf, "A4", page);
+}
+
+static void test_report_renders_in_chromium(void **state)
+{
+    char chromium[TP_TEST_PATH], pdftotext[TP_TEST_PATH];
+    int page;
+    (void)state;
+    if (tp_find_program("chromium", chromium) != 0 ||
+        tp_find_program("pdftotext", pdftotext) != 0) {
+        print_message("skipped: rendering the report needs chromium and pdftotext (Debian "
+                      "packages chromium and poppler-utils)\n");
+        skip();
+    }
+    for (page = 0; page < PAGES; page++)
+        render_page(chromium, pdftotext, page);
 }
 
 /* ---- Markdown and its figure folder ------------------------------------------------------- */
@@ -613,6 +857,7 @@ static void test_report_markdown_replaces_its_folder_whole(void **state)
     tp_check_contains("markdown", md, "](raw-files/warmup.svg)");
     tp_check_contains("markdown", md, "](raw-files/losses.svg)");
     tp_check_contains("markdown", md, "](raw-files/guard.svg)");
+    tp_check_contains("markdown", md, "](raw-files/cool.svg)");
     snprintf(fig, sizeof fig, "%s/warmup.svg", dir);
     assert_true(tp_file_exists(fig));
     /* the input's SHA-256 as coreutils' sha256sum computes it (an independent implementation
@@ -661,6 +906,19 @@ static void test_report_refuses_bad_outputs_before_any_work(void **state)
         assert_null(strstr(r.err, "broken.yaml:"));
         tp_run_clear(&r);
     }
+    /* a level without a unit, before the config is read too */
+    {
+        char html[TP_TEST_PATH];
+        const char *args[] = {"report", broken, "--above", "217", "-o", html, NULL};
+        tp_run_result r;
+        tp_scratch_path(s, "above.html", html, sizeof html);
+        tp_run_tepid(s, args, &r);
+        assert_int_equal(r.status, 2);
+        tp_check_contains("--above", r.err, "--above: '217' has no unit");
+        assert_null(strstr(r.err, "broken.yaml:"));
+        assert_false(tp_file_exists(html));
+        tp_run_clear(&r);
+    }
     /* the output onto the input itself */
     {
         const char *args[] = {"report", clash, "-o", clash, NULL};
@@ -678,8 +936,10 @@ int main(void)
         cmocka_unit_test(test_report_renders_in_chromium),
         cmocka_unit_test(test_report_markdown_replaces_its_folder_whole),
         cmocka_unit_test(test_report_figures_equal_the_verbs_lumped),
+        cmocka_unit_test(test_report_figures_equal_the_verbs_scheduled),
         cmocka_unit_test(test_report_figures_equal_the_verbs_raw),
         cmocka_unit_test(test_report_figures_equal_the_verbs_gridded),
+        cmocka_unit_test(test_report_cool_down_mirrors_cool_without_a_setpoint),
     };
     return cmocka_run_group_tests_name("test_report", tests, tp_scratch_group_setup,
                                        tp_scratch_group_teardown);

@@ -31,38 +31,18 @@ static const tp_opt cool_opts[] = {
     TP_OPT_END,
 };
 
-/* A temperature option's value in K; exit 2 naming the option on a bad one. */
-static tp_status read_temp(const char *opt, const char *text, double *out, tp_diag *d)
-{
-    char msg[256];
-    const char *hint;
-    if (tp_units_parse(text, TP_DIM_TEMPERATURE, out, msg, sizeof msg, &hint) == TP_OK)
-        return TP_OK;
-    tp_diag_error(d, (tp_loc){opt, 1, 1}, opt, hint, "%s", msg);
-    return TP_ERR_USAGE;
-}
-
 /* The options: --from above the room (the message points at the room in the config), --to
  * values, and a start the file allows (a setpoint to hold, or --from). */
 static tp_status read_options(const tp_cli *cli, const tp_session *s, double *from, double *to,
                               int *n_to, tp_diag *d)
 {
-    const char *text[TP_COOLDOWN_MAX_TO + 1];
     double room = tp_network_room(s->net);
-    int k;
     tp_status st;
     *from = TP_UNSET;
-    *n_to = tp_cli_all(cli, "to", text, TP_COOLDOWN_MAX_TO + 1);
-    if (*n_to > TP_COOLDOWN_MAX_TO) {
-        tp_diag_error(d, tp_diag_loc_none(), "--to", "give at most 16 levels",
-                      "too many --to levels");
-        return TP_ERR_USAGE;
-    }
-    for (k = 0; k < *n_to; k++)
-        if ((st = read_temp("--to", text[k], &to[k], d)) != TP_OK)
-            return st;
+    if ((st = tp_session_temperatures(cli, "to", TP_COOLDOWN_MAX_TO, to, n_to, d)) != TP_OK)
+        return st;
     if (tp_cli_get(cli, "from")) {
-        if ((st = read_temp("--from", tp_cli_get(cli, "from"), from, d)) != TP_OK)
+        if ((st = tp_session_temperature("--from", tp_cli_get(cli, "from"), from, d)) != TP_OK)
             return st;
         if (*from < room) {
             tp_diag_error(d,
@@ -87,14 +67,6 @@ static tp_status read_options(const tp_cli *cli, const tp_session *s, double *fr
     return TP_OK;
 }
 
-static void cautions_of(const tp_session *s, const tp_cooldown *c, tp_caution *list, int *n)
-{
-    tp_caution_exposure ex = TP_CAUTION_UNSEEN;
-    ex.surface_max = c->start;
-    ex.node_max = c->start;
-    *n = tp_caution_list(&s->desc, s->net, &ex, list);
-}
-
 static void summary(FILE *fp, const tp_session *s, const tp_cooldown *c)
 {
     tp_caution list[TP_CAUTIONS_MAX];
@@ -104,11 +76,9 @@ static void summary(FILE *fp, const tp_session *s, const tp_cooldown *c)
     tp_summary_network(fp, s->net);
     fputc('\n', fp);
     tp_coolout_text(fp, c);
-    fputs("\n  The thresholds are for healthy adult skin on a surface that keeps its temperature "
-          "during\n  contact; children, the elderly and people with reduced sensation burn "
-          "sooner. Handle\n  hot parts with heat-resistant gloves and follow the practice of "
-          "your workplace.\n", fp);
-    cautions_of(s, c, list, &n);
+    fputc('\n', fp);
+    tp_coolout_note_text(fp);
+    n = tp_cooldown_cautions(&s->desc, s->net, c, list);
     tp_summary_cautions(fp, "cautions", list, n);
 }
 
@@ -125,7 +95,7 @@ static tp_status write_json(const char *path, const tp_session *s, const tp_cool
     tp_coolout_json(root, c);
     tp_json_number(root, "duration_s", c->history.n ? c->history.t[c->history.n - 1] : 0.0);
     arr = cJSON_AddArrayToObject(root, "cautions");
-    cautions_of(s, c, list, &n);
+    n = tp_cooldown_cautions(&s->desc, s->net, c, list);
     tp_json_add_cautions(arr, list, n);
     st = tp_json_write(path, root, d);
     cJSON_Delete(root);

@@ -14,6 +14,7 @@
 #include "infile.h"
 #include "nettlelib.h"
 #include "report.h"
+#include "reportcycle.h"
 #include "reportsections.h"
 #include "session.h"
 #include "verbs.h"
@@ -23,17 +24,27 @@ static const tp_opt report_opts[] = {
     {"output", 'o', 1, 0, TP_OUT_FILE, "FILE",
      "write the review to FILE: .html (one self-contained page) or .md (Markdown, figures in "
      "FILE-files/)"},
+    {"above", 0, 1, 1, 0, "TEMP",
+     "report the time the reading and the surface spend above TEMP, e.g. 217degC (repeatable; "
+     "as warmup --above)"},
     TP_OPT_SET,
     TP_OPT_QUIET,
     TP_OPT_END,
 };
 
 /* The sections in their order. A section with `applies` NULL is always there; one whose study
- * did not run says why in its place. A further study (a schedule, a cool-down) is one more row
- * here, its builder in reportsections.c and its run in run_studies. */
+ * did not run says why in its place. A further study is one more row here, its builder in
+ * reportsections.c (reportcycle.c: the programme and the cool-down) and its run in
+ * run_studies. */
 static int gridded(const tp_reportcase *c)
 {
     return c->net->grid != NULL;
+}
+
+/* The programme's section: a schedule followed, or levels to report the time above. */
+static int programmed(const tp_reportcase *c)
+{
+    return c->scheduled || c->n_above > 0;
 }
 
 static const struct report_section {
@@ -45,7 +56,9 @@ static const struct report_section {
     {"summary", "Summary", TP_REPORT_SUMMARY, NULL, tp_reportsections_summary},
     {"cautions", "Cautions", TP_REPORT_CAUTIONS, NULL, tp_reportsections_cautions},
     {"warmup", "Warm-up", TP_REPORT_PLAIN, NULL, tp_reportsections_warmup},
+    {"programme", "Programme", TP_REPORT_PLAIN, programmed, tp_reportcycle_programme},
     {"steady", "Steady state", TP_REPORT_PLAIN, NULL, tp_reportsections_steady},
+    {"cool", "Cool-down", TP_REPORT_PLAIN, NULL, tp_reportcycle_cool},
     {"budget", "Power budget", TP_REPORT_PLAIN, NULL, tp_reportsections_budget},
     {"protection", "Protection", TP_REPORT_PLAIN, NULL, tp_reportsections_guard},
     {"surface", "Surface uniformity", TP_REPORT_PLAIN, gridded, tp_reportsections_surface},
@@ -118,7 +131,7 @@ static tp_status study_done(tp_status st, const tp_diag *sub, tp_reportcase *c, 
                             tp_diag *d)
 {
     static const char *const names[TP_STUDY_COUNT] = {"warm-up", "steady state", "budget",
-                                                      "guard"};
+                                                      "guard", "cool-down"};
     if (st == TP_OK || st == TP_ERR_NOMEM)
         return st;
     reason(sub, c->why[study], sizeof c->why[study]);
@@ -130,20 +143,59 @@ static tp_status study_done(tp_status st, const tp_diag *sub, tp_reportcase *c, 
 /* The records of every study, as the verbs compute them. */
 typedef struct studies {
     tp_warmup warmup;
+    tp_schedule plan;   /* the programme laid out (borrowed by the warm-up's history) */
+    tp_program program; /* its report per segment, and the time above the --above levels */
+    double above[TP_PROGRAM_MAX_ABOVE];
     tp_steadyreport steady;
     tp_budget budget;
     tp_guard_study *guard;
-    int has_warmup, has_steady, has_budget;
+    tp_cooldown cool;
+    int has_warmup, has_steady, has_budget, has_cool;
 } studies;
+
+/* The warm-up as `tepid warmup FILE [--above TEMP]...` runs it: following the file's schedule
+ * when it has one, with the programme's report. */
+static tp_status run_warmup(const tp_session *s, studies *x, tp_reportcase *c, tp_diag *d)
+{
+    tp_diag sub;
+    tp_status st;
+    c->scheduled = tp_program_plan(&s->desc, s->net, &x->plan) == 0;
+    tp_diag_init(&sub, NULL);
+    st = tp_warmup_run_schedule(s->net, &s->desc.run, c->scheduled ? &x->plan : NULL,
+                                &x->warmup, &sub);
+    x->has_warmup = st == TP_OK;
+    if (x->has_warmup && (c->scheduled || c->n_above > 0)) {
+        if (!c->scheduled)
+            memset(&x->plan, 0, sizeof x->plan);
+        tp_program_compute(&x->warmup.history, &x->plan, x->above, c->n_above, &x->program);
+    }
+    return study_done(st, &sub, c, TP_STUDY_WARMUP, d);
+}
+
+/* The cool-down as `tepid cool FILE` runs it: from the holding state, so only for a controller
+ * that holds a setpoint (cool refuses other files without --from). */
+static tp_status run_cool(const tp_session *s, studies *x, tp_reportcase *c, tp_diag *d)
+{
+    tp_diag sub;
+    tp_status st;
+    if (!tp_network_holds(s->net)) {
+        snprintf(c->why[TP_STUDY_COOL], sizeof c->why[TP_STUDY_COOL],
+                 "the cool-down starts from the steady holding state, and this file's "
+                 "controller holds no setpoint; `tepid cool FILE --from TEMP` cools it from a "
+                 "uniform start.");
+        return TP_OK;
+    }
+    tp_diag_init(&sub, NULL);
+    st = tp_cooldown_run(&s->desc, s->net, TP_UNSET, NULL, 0, &x->cool, &sub);
+    x->has_cool = st == TP_OK;
+    return study_done(st, &sub, c, TP_STUDY_COOL, d);
+}
 
 static tp_status run_studies(const tp_session *s, studies *x, tp_reportcase *c, tp_diag *d)
 {
     tp_diag sub;
     tp_status st;
-    tp_diag_init(&sub, NULL);
-    st = tp_warmup_run(s->net, &s->desc.run, &x->warmup, &sub);
-    x->has_warmup = st == TP_OK;
-    if ((st = study_done(st, &sub, c, TP_STUDY_WARMUP, d)) != TP_OK)
+    if ((st = run_warmup(s, x, c, d)) != TP_OK)
         return st;
     tp_diag_init(&sub, NULL);
     st = tp_steadyreport_run(s->net, &x->steady, &sub);
@@ -154,6 +206,8 @@ static tp_status run_studies(const tp_session *s, studies *x, tp_reportcase *c, 
     st = tp_budget_compute(&s->desc, s->net, &x->budget, &sub);
     x->has_budget = st == TP_OK;
     if ((st = study_done(st, &sub, c, TP_STUDY_BUDGET, d)) != TP_OK)
+        return st;
+    if ((st = run_cool(s, x, c, d)) != TP_OK)
         return st;
     if (!tp_network_holds(s->net)) {
         snprintf(c->why[TP_STUDY_GUARD], sizeof c->why[TP_STUDY_GUARD],
@@ -181,6 +235,7 @@ static void studies_clear(studies *x)
 {
     tp_warmup_clear(&x->warmup);
     tp_steadyreport_clear(&x->steady);
+    tp_cooldown_clear(&x->cool);
     if (x->guard) {
         tp_guard_study_clear(x->guard);
         free(x->guard);
@@ -268,11 +323,14 @@ static tp_status run_report(const tp_cli *cli, tp_diag *d)
     tp_status rc = check_output(out, &kind, d);
     if (rc != TP_OK)
         return rc;
+    memset(&c, 0, sizeof c);
+    memset(&x, 0, sizeof x);
+    rc = tp_session_temperatures(cli, "above", TP_PROGRAM_MAX_ABOVE, x.above, &c.n_above, d);
+    if (rc != TP_OK)
+        return rc;
     rc = tp_session_open(&s, cli, d);
     if (rc != TP_OK)
         return rc;
-    memset(&c, 0, sizeof c);
-    memset(&x, 0, sizeof x);
     rc = hash_file(cli->file, hash, d);
     if (rc == TP_OK)
         rc = run_studies(&s, &x, &c, d);
@@ -288,6 +346,8 @@ static tp_status run_report(const tp_cli *cli, tp_diag *d)
         c.steady = x.has_steady ? &x.steady : NULL;
         c.budget = x.has_budget ? &x.budget : NULL;
         c.guard = x.guard;
+        c.program = x.has_warmup && programmed(&c) ? &x.program : NULL;
+        c.cool = x.has_cool ? &x.cool : NULL;
         c.n_sets = tp_cli_all(cli, "set", sets, TP_MAX_SETS);
         c.sets = sets;
         c.version = TP_VERSION;
@@ -322,14 +382,16 @@ const tp_verb tp_cmd_report = {
     "Write one design review of the case: HTML page or Markdown.",
     1,
     report_opts,
-    "Runs the warm-up, the steady states, the budget and guard (and the surface maps of a\n"
-    "gridded plate) on FILE with the --set overrides given, as the verbs do, and writes one\n"
-    "review: a summary box, the cautions, the warm-up, the steady state, the power budget,\n"
-    "the protection, the surface uniformity (gridded plates), the model, the input and the\n"
-    "provenance (docs/report.md). -o review.html writes one self-contained page (inline SVG\n"
+    "Runs the warm-up (following control.schedule when the file has one), the steady states,\n"
+    "the cool-down, the budget and guard (and the surface maps of a gridded plate) on FILE\n"
+    "with the --set overrides given, as the verbs do, and writes one review: a summary box,\n"
+    "the cautions, the warm-up, the programme (a schedule, or --above levels), the steady\n"
+    "state, the cool-down, the power budget, the protection, the surface uniformity (gridded\n"
+    "plates), the model, the input and the provenance (docs/report.md). -o review.html writes one self-contained page (inline SVG\n"
     "figures, no scripts, nothing fetched; prints on A4 and Letter); -o review.md writes\n"
     "Markdown with the figures as SVG files in review-files/, a folder replaced as a whole.\n"
     "A study that does not apply (guard without a setpoint) or fails leaves its section\n"
     "saying why.",
     "tepid report workshop-bed-24v.yaml -o review.html\n"
+    "tepid report reflow-hotplate-230v.yaml --above 217degC -o review.html\n"
     "tepid report raw-five-node.yaml -o review.md"};

@@ -426,27 +426,6 @@ static tp_status write_maps(const tp_cli *cli, const tp_session *s, const tp_war
     return rc;
 }
 
-/* The --above levels (temperatures with units) into K; exit 2 on a bad one. */
-static tp_status read_levels(const char *const *text, int n, double *out, tp_diag *d)
-{
-    int i;
-    if (n > TP_PROGRAM_MAX_ABOVE) {
-        tp_diag_error(d, tp_diag_loc_none(), "--above", "give at most 16 levels",
-                      "too many --above levels");
-        return TP_ERR_USAGE;
-    }
-    for (i = 0; i < n; i++) {
-        char msg[256];
-        const char *hint;
-        if (tp_units_parse(text[i], TP_DIM_TEMPERATURE, &out[i], msg, sizeof msg, &hint) !=
-            TP_OK) {
-            tp_diag_error(d, (tp_loc){"--above", 1, 1}, "--above", hint, "%s", msg);
-            return TP_ERR_USAGE;
-        }
-    }
-    return TP_OK;
-}
-
 static tp_status run_warmup(const tp_cli *cli, tp_diag *d)
 {
     tp_session s;
@@ -454,7 +433,6 @@ static tp_status run_warmup(const tp_cli *cli, tp_diag *d)
     tp_schedule plan;
     tp_program program;
     const tp_program *prog = NULL;
-    const char *above_text[TP_PROGRAM_MAX_ABOVE + 1];
     double above[TP_PROGRAM_MAX_ABOVE];
     int n_above, scheduled;
     tp_status rc = tp_session_open(&s, cli, d);
@@ -482,8 +460,8 @@ static tp_status run_warmup(const tp_cli *cli, tp_diag *d)
         tp_session_close(&s);
         return TP_ERR_USAGE;
     }
-    n_above = tp_cli_all(cli, "above", above_text, TP_PROGRAM_MAX_ABOVE + 1);
-    if ((rc = read_levels(above_text, n_above, above, d)) != TP_OK) {
+    rc = tp_session_temperatures(cli, "above", TP_PROGRAM_MAX_ABOVE, above, &n_above, d);
+    if (rc != TP_OK) {
         tp_session_close(&s);
         return rc;
     }

@@ -6,6 +6,7 @@
 #include "assemble.h"
 #include "config.h"
 #include "hardlimits.h"
+#include "units.h"
 
 static tp_status open_with(tp_session *s, const tp_cli *cli, const char *room, int open_loop,
                            tp_diag *d)
@@ -71,6 +72,37 @@ void tp_session_close(tp_session *s)
     tp_network_release(&s->net);
     tp_config_clear(&s->desc);
     tp_yamltree_destroy(&s->doc);
+}
+
+tp_status tp_session_temperature(const char *opt, const char *text, double *out, tp_diag *d)
+{
+    char msg[256];
+    const char *hint;
+    if (tp_units_parse(text, TP_DIM_TEMPERATURE, out, msg, sizeof msg, &hint) == TP_OK)
+        return TP_OK;
+    tp_diag_error(d, (tp_loc){opt, 1, 1}, opt, hint, "%s", msg);
+    return TP_ERR_USAGE;
+}
+
+tp_status tp_session_temperatures(const tp_cli *cli, const char *name, int max, double *out,
+                                  int *n, tp_diag *d)
+{
+    const char *text[TP_CLI_MAX_ARGS];
+    char opt[40];
+    int k;
+    tp_status st;
+    snprintf(opt, sizeof opt, "--%s", name);
+    *n = tp_cli_all(cli, name, text, max + 1 < TP_CLI_MAX_ARGS ? max + 1 : TP_CLI_MAX_ARGS);
+    if (*n > max) {
+        char hint[40];
+        snprintf(hint, sizeof hint, "give at most %d levels", max);
+        tp_diag_error(d, tp_diag_loc_none(), opt, hint, "too many %s levels", opt);
+        return TP_ERR_USAGE;
+    }
+    for (k = 0; k < *n; k++)
+        if ((st = tp_session_temperature(opt, text[k], &out[k], d)) != TP_OK)
+            return st;
+    return TP_OK;
 }
 
 const char *tp_session_title(const tp_session *s)

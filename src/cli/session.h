@@ -32,6 +32,15 @@ tp_status tp_session_open_plant(tp_session *s, const tp_cli *cli, tp_diag *d);
  * the physical form, the fixed temperature of the node `room` in the raw form. */
 tp_status tp_session_open_room(tp_session *s, const tp_cli *cli, const char *room, tp_diag *d);
 
+/* A temperature option's value (text with a unit) in K; exit 2 naming the option `opt`
+ * ("--to") on a bad one. */
+tp_status tp_session_temperature(const char *opt, const char *text, double *out, tp_diag *d);
+
+/* Every value of the repeatable temperature option `name` ("above") in K into out[] (at most
+ * `max` of them; more is exit 2), their count in *n. */
+tp_status tp_session_temperatures(const tp_cli *cli, const char *name, int max, double *out,
+                                  int *n, tp_diag *d);
+
 /* The title of the session's figures: the config's title, else the file's name. */
 const char *tp_session_title(const tp_session *s);
 

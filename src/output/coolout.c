@@ -34,6 +34,29 @@ const char *tp_coolout_level_name(const tp_cooldown *c, const tp_cooldown_level 
     return buf;
 }
 
+const char tp_coolout_note[] =
+    "The thresholds are for healthy adult skin on a surface that keeps its temperature during "
+    "contact; children, the elderly and people with reduced sensation burn sooner. Handle hot "
+    "parts with heat-resistant gloves and follow the practice of your workplace.";
+
+void tp_coolout_note_text(FILE *fp)
+{
+    const char *p = tp_coolout_note;
+    while (*p) {
+        size_t len = strlen(p), cut = len;
+        if (len > 90) {
+            for (cut = 90; cut > 0 && p[cut] != ' '; cut--)
+                ;
+            if (cut == 0)
+                cut = 90;
+        }
+        fprintf(fp, "  %.*s\n", (int)cut, p);
+        p += cut;
+        while (*p == ' ')
+            p++;
+    }
+}
+
 void tp_coolout_text(FILE *fp, const tp_cooldown *c)
 {
     char name[96], t[32];

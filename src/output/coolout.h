@@ -14,6 +14,12 @@
 const char *tp_coolout_level_name(const tp_cooldown *c, const tp_cooldown_level *l, char *buf,
                                   size_t size);
 
+/* Who the burn thresholds are for, and how to handle hot parts: one paragraph. */
+extern const char tp_coolout_note[];
+
+/* The same note as text, wrapped to the summaries' width and indented. */
+void tp_coolout_note_text(FILE *fp);
+
 /* The table of levels and the times the plate (or the air) falls below them. */
 void tp_coolout_text(FILE *fp, const tp_cooldown *c);
 

@@ -108,6 +108,73 @@ tp_status tp_figure_warmup(const char *path, const char *title, const tp_network
     return st;
 }
 
+/* The segments' starts after the first, labelled "2 ramp": at most TP_PLOT_VLINES_MAX. */
+static size_t segment_marks(const tp_schedule *p, tp_plot_vline *marks,
+                            char text[][TP_FIGURE_MARK_TEXT])
+{
+    size_t n = 0;
+    int k;
+    for (k = 1; k < p->n && n < TP_PLOT_VLINES_MAX; k++) {
+        snprintf(text[n], TP_FIGURE_MARK_TEXT, "%d %s", k + 1,
+                 tp_schedule_kind_name(p->part[k].kind));
+        marks[n] = (tp_plot_vline){text[n], p->part[k].t0 / 60.0};
+        n++;
+    }
+    return n;
+}
+
+tp_status tp_figure_programme(const char *path, const char *title, const tp_warmup *w,
+                              tp_diag *d)
+{
+    const tp_history *h = &w->history;
+    long n = h->n, i;
+    double *buf = malloc((size_t)(n > 0 ? n : 1) * 6 * sizeof *buf);
+    double *minutes, *sp, *reading, *surface, *err_r, *err_s;
+    int has_surface = n > 0 && isfinite(h->surface[0]);
+    tp_plot_series top[3], low[2];
+    tp_plot_panel panels[2];
+    tp_plot_chart chart;
+    tp_plot_vline marks[TP_PLOT_VLINES_MAX];
+    char text[TP_PLOT_VLINES_MAX][TP_FIGURE_MARK_TEXT];
+    size_t nt = 0, nl = 0;
+    tp_status st;
+    if (!buf)
+        return TP_ERR_NOMEM;
+    minutes = buf;
+    sp = buf + n;
+    reading = buf + 2 * n;
+    surface = buf + 3 * n;
+    err_r = buf + 4 * n;
+    err_s = buf + 5 * n;
+    for (i = 0; i < n; i++) {
+        minutes[i] = h->t[i] / 60.0;
+        sp[i] = h->setpoint[i] - TP_KELVIN_0C;
+        reading[i] = h->reading[i] - TP_KELVIN_0C;
+        surface[i] = h->surface[i] - TP_KELVIN_0C;
+        err_r[i] = h->reading[i] - h->setpoint[i];
+        err_s[i] = h->surface[i] - h->setpoint[i];
+    }
+    top[nt++] = (tp_plot_series){"setpoint (schedule)", minutes, sp, (size_t)n,
+                                 1 | TP_PLOT_GAPS, 0, 0};
+    top[nt++] = (tp_plot_series){"reading", minutes, reading, (size_t)n, 0, 0, 0};
+    low[nl++] = (tp_plot_series){"reading - setpoint", minutes, err_r, (size_t)n,
+                                 TP_PLOT_GAPS, 0, 0};
+    if (has_surface) {
+        const char *name = h->surface_min ? "surface mean" : "surface (estimate)";
+        top[nt++] = (tp_plot_series){name, minutes, surface, (size_t)n, 2, 0, 0};
+        low[nl++] = (tp_plot_series){h->surface_min ? "surface mean - setpoint"
+                                                    : "surface - setpoint",
+                                     minutes, err_s, (size_t)n, 2 | TP_PLOT_GAPS, 0, 0};
+    }
+    panels[0] = (tp_plot_panel){"temperature (degC)", NULL, top, nt, NULL, 0, 2.0};
+    panels[1] = (tp_plot_panel){"tracking error (K)", NULL, low, nl, NULL, 0, 1.0};
+    chart = (tp_plot_chart){title, "time (min)", panels, 2, 0, 0};
+    st = tp_plot_chart_write_marked(path, &chart, marks,
+                                    h->schedule ? segment_marks(h->schedule, marks, text) : 0, d);
+    free(buf);
+    return st;
+}
+
 int tp_figure_warmup_height(size_t curves)
 {
     return curves > TP_FIGURE_WARMUP_LEGEND ? TP_FIGURE_WARMUP_TALL : 0;

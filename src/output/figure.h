@@ -35,6 +35,13 @@ int tp_figure_warmup_height(size_t curves);
 size_t tp_figure_warmup_marks(const tp_metrics *m, tp_plot_vline marks[TP_FIGURE_MARKS],
                               char text[TP_FIGURE_MARKS][TP_FIGURE_MARK_TEXT]);
 
+/* Draw how a scheduled warm-up (w->history.schedule set) followed its programme under
+ * `title`: the setpoint as it moved with the reading and the working surface above, their
+ * tracking errors (minus the setpoint; gaps while the heater is off) below, each segment's
+ * start marked with its number and kind. Atomic (plot.h). */
+tp_status tp_figure_programme(const char *path, const char *title, const tp_warmup *w,
+                              tp_diag *d);
+
 /* Draw a working-surface `map` (K, nx * ny cells of grid g) as a heat map in degC with the
  * plate outline, the sensor and the hottest and coldest cells marked; the format follows the
  * extension (tp_plot_map_write). */

@@ -21,11 +21,10 @@
 #include "surfacemap.h"
 #include "units.h"
 
-static const char *const study_names[TP_STUDY_COUNT] = {"warmup", "steady", "budget", "guard"};
+static const char *const study_names[TP_STUDY_COUNT] = {"warmup", "steady", "budget", "guard",
+                                                         "cool"};
 
-/* "-" for a value that does not exist, else the number with `decimals` digits after the
- * point (a negative count: %.Ng, N = -decimals significant digits). */
-static void num(char *buf, size_t size, int decimals, double v)
+const char *tp_reportsections_num(char *buf, size_t size, int decimals, double v)
 {
     if (!isfinite(v))
         snprintf(buf, size, "-");
@@ -33,9 +32,10 @@ static void num(char *buf, size_t size, int decimals, double v)
         snprintf(buf, size, "%.*g", -decimals, v);
     else
         snprintf(buf, size, "%.*f", decimals, v);
+    return buf;
 }
 
-static void duration(char *buf, size_t size, double t)
+void tp_reportsections_duration(char *buf, size_t size, double t)
 {
     if (isfinite(t))
         tp_summary_duration(t, buf, size);
@@ -94,6 +94,9 @@ int tp_reportsections_case_cautions(const tp_reportcase *c, tp_caution out[TP_CA
     if (c->guard)
         n = merge_cautions(out, from, n, list, tp_guard_cautions(c->desc, c->net, c->guard, list),
                            TP_STUDY_GUARD);
+    if (c->cool)
+        n = merge_cautions(out, from, n, list, tp_cooldown_cautions(c->desc, c->net, c->cool, list),
+                           TP_STUDY_COOL);
     if (n == 0) {
         tp_caution_exposure ex = TP_CAUTION_UNSEEN;
         n = merge_cautions(out, from, n, list, tp_caution_list(c->desc, c->net, &ex, list),
@@ -203,6 +206,31 @@ static void guard_verdict(char *buf, size_t size, const tp_guard_study *g)
              g->horizon / 60.0);
 }
 
+/* The cool-down's burn-threshold times, or why there is none. */
+static void cool_row(tp_report_table *t, const tp_reportcase *c)
+{
+    char contact[64] = "", times[96] = "", d[32];
+    size_t uc = 0, ut = 0;
+    int k;
+    tp_report_cell(t, "cool-down (heater off)");
+    if (!c->cool) {
+        tp_report_cell(t, "not available: %s", c->why[TP_STUDY_COOL]);
+        return;
+    }
+    for (k = 0; k < c->cool->n_levels; k++) {
+        const tp_cooldown_level *l = &c->cool->levels[k];
+        if (l->kind != TP_COOL_BURN || uc >= sizeof contact || ut >= sizeof times)
+            continue;
+        tp_reportsections_duration(d, sizeof d, l->time);
+        uc += (size_t)snprintf(contact + uc, sizeof contact - uc, "%s%s", uc ? " / " : "",
+                               l->contact >= 60.0 ? "1 min" : l->contact >= 10.0 ? "10 s"
+                                                                                 : "1 s");
+        ut += (size_t)snprintf(times + ut, sizeof times - ut, "%s%s", ut ? " / " : "",
+                               isfinite(l->time) ? d : "not within 24 h");
+    }
+    tp_report_cell(t, "below the burn thresholds for %s of contact after %s", contact, times);
+}
+
 tp_status tp_reportsections_summary(tp_report *r, tp_report_section *s, const tp_reportcase *c,
                                     tp_diag *d)
 {
@@ -217,17 +245,18 @@ tp_status tp_reportsections_summary(tp_report *r, tp_report_section *s, const tp
     heater_rows(t, c);
     tp_report_cell(t, "setpoint");
     if (c->net->has_control && tp_network_holds(c->net))
-        tp_report_cell(t, "%.1f degC (%s control of the reading at '%s')",
+        tp_report_cell(t, "%.1f degC%s (%s control of the reading at '%s')",
                        c->net->control.setpoint - TP_KELVIN_0C,
+                       c->scheduled ? ", the programme's highest" : "",
                        tp_description_mode_name(c->net->control.mode),
                        c->net->nodes[c->net->control.sensor].id);
     else
         tp_report_cell(t, "none held");
     if (m && isfinite(m->setpoint)) {
-        duration(buf, sizeof buf, m->t_setpoint);
+        tp_reportsections_duration(buf, sizeof buf, m->t_setpoint);
         tp_report_cell(t, "time to setpoint");
         tp_report_cell(t, "%s", buf);
-        duration(buf, sizeof buf, m->t_surface_ready);
+        tp_reportsections_duration(buf, sizeof buf, m->t_surface_ready);
         tp_report_cell(t, "surface ready");
         tp_report_cell(t, "%s", buf);
         tp_report_cell(t, "overshoot");
@@ -250,6 +279,7 @@ tp_status tp_reportsections_summary(tp_report *r, tp_report_section *s, const tp
         tp_report_cell(t, "holding power");
         tp_report_cell(t, "not available: %s", c->why[TP_STUDY_STEADY]);
     }
+    cool_row(t, c);
     tp_report_cell(t, "budget verdict");
     if (c->budget) {
         budget_verdict(buf, sizeof buf, c->budget);
@@ -339,8 +369,8 @@ static void reach_row(tp_report_table *t, const tp_network *net, const char *wha
                       const tp_steady *st)
 {
     char a[32], b[32];
-    num(a, sizeof a, 1, net->has_control ? st->reading - TP_KELVIN_0C : TP_UNSET);
-    num(b, sizeof b, 1, tp_eval_surface_at(net, st->temps, NULL) - TP_KELVIN_0C);
+    tp_reportsections_num(a, sizeof a, 1, net->has_control ? st->reading - TP_KELVIN_0C : TP_UNSET);
+    tp_reportsections_num(b, sizeof b, 1, tp_eval_surface_at(net, st->temps, NULL) - TP_KELVIN_0C);
     tp_report_cell(t, "%s", what);
     tp_report_cell(t, "%.1f", st->power);
     tp_report_cell(t, "%s", a);
@@ -442,7 +472,7 @@ static void qrow(tp_report_table *t, const char *what, int decimals, double v, c
     char buf[48];
     if (!isfinite(v))
         return;
-    num(buf, sizeof buf, decimals, v);
+    tp_reportsections_num(buf, sizeof buf, decimals, v);
     tp_report_cell(t, "%s", what);
     tp_report_cell(t, "%s", buf);
     tp_report_cell(t, "%s", unit);
@@ -608,8 +638,8 @@ static void guard_faults(tp_report_section *s, const tp_guard_study *st)
             time_or(b, sizeof b, fr->det.hold, "-");
             time_or(cc, sizeof cc, fr->det.ceiling, "-");
             time_or(fi, sizeof fi, fr->first, "NEVER");
-            num(sp, sizeof sp, 1, fr->surface_peak - TP_KELVIN_0C);
-            num(hp, sizeof hp, 1, fr->heater_peak - TP_KELVIN_0C);
+            tp_reportsections_num(sp, sizeof sp, 1, fr->surface_peak - TP_KELVIN_0C);
+            tp_reportsections_num(hp, sizeof hp, 1, fr->heater_peak - TP_KELVIN_0C);
             if (fr->limit_layer >= 0) {
                 char tl[32];
                 time_or(tl, sizeof tl, fr->t_limit, "-");
@@ -645,9 +675,9 @@ static void guard_corners(tp_report_section *s, const tp_guard_study *st)
         double f = tp_guard_first(&co->det);
         char ts[32], a[32], b[32], cc[32];
         time_or(ts, sizeof ts, co->t_setpoint, "never");
-        num(a, sizeof a, 2, co->rise_margin);
-        num(b, sizeof b, 0, co->hold_margin);
-        num(cc, sizeof cc, 1, co->ceiling_margin);
+        tp_reportsections_num(a, sizeof a, 2, co->rise_margin);
+        tp_reportsections_num(b, sizeof b, 0, co->hold_margin);
+        tp_reportsections_num(cc, sizeof cc, 1, co->ceiling_margin);
         tp_report_cell(t, "%s", co->name);
         tp_report_cell(t, "%s", ts);
         tp_report_cell(t, "%s", isinf(co->rise_margin) ? "no window judged" : a);
@@ -796,7 +826,7 @@ tp_status tp_reportsections_surface(tp_report *r, tp_report_section *s, const tp
     stat_row(t, "spread (max - min)", a->spread, b->spread, "K", 0.0);
     stat_row(t, "centre - corners", a->centre_corner, b->centre_corner, "K", 0.0);
     if (w->map_hold) {
-        duration(when, sizeof when, w->t_all_ready);
+        tp_reportsections_duration(when, sizeof when, w->t_all_ready);
         tp_report_para(s, "All of it ready (every cell within %.0f K of its holding value): %s.",
                        TP_SURFACEMAP_READY_BAND, when);
     }
@@ -1012,8 +1042,8 @@ static void model_materials(tp_report_section *s, const tp_reportcase *c)
                 tp_report_cell(t, "-");
             continue;
         }
-        num(e, sizeof e, 2, m->emissivity);
-        num(lim, sizeof lim, 0, m->max_temperature - TP_KELVIN_0C);
+        tp_reportsections_num(e, sizeof e, 2, m->emissivity);
+        tp_reportsections_num(lim, sizeof lim, 0, m->max_temperature - TP_KELVIN_0C);
         tp_report_cell(t, "%.4g", m->density);
         tp_report_cell(t, "%.4g", m->specific_heat);
         tp_report_cell(t, "%.4g", tp_materials_k_through(m));

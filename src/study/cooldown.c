@@ -209,6 +209,15 @@ tp_status tp_cooldown_run(const tp_description *desc, const tp_network *net, dou
     return TP_OK;
 }
 
+int tp_cooldown_cautions(const tp_description *desc, const tp_network *net, const tp_cooldown *c,
+                         tp_caution out[TP_CAUTIONS_MAX])
+{
+    tp_caution_exposure ex = TP_CAUTION_UNSEEN;
+    ex.surface_max = c->start;
+    ex.node_max = c->start;
+    return tp_caution_list(desc, net, &ex, out);
+}
+
 void tp_cooldown_clear(tp_cooldown *c)
 {
     tp_history_clear(&c->history);

@@ -4,6 +4,7 @@
 #ifndef TP_COOLDOWN_H
 #define TP_COOLDOWN_H
 
+#include "caution.h"
 #include "description.h"
 #include "diag.h"
 #include "hardlimits.h"
@@ -71,6 +72,11 @@ const char *tp_cooldown_class_name(tp_cooldown_class cls);
  * tp_cooldown_clear in every case. */
 tp_status tp_cooldown_run(const tp_description *desc, const tp_network *net, double from,
                           const double *to, int n_to, tp_cooldown *out, tp_diag *d);
+
+/* The safety cautions of a cool-down (caution.h), from the touch surface at switch-off.
+ * Returns how many were written to out. */
+int tp_cooldown_cautions(const tp_description *desc, const tp_network *net, const tp_cooldown *c,
+                         tp_caution out[TP_CAUTIONS_MAX]);
 
 void tp_cooldown_clear(tp_cooldown *c);
 

@@ -1,9 +1,10 @@
 #!/usr/bin/env bash
-# Benchmark of `tepid report` (issue 19): the 24 V demo's HTML review (target under 2 s) and the
+# Benchmark of `tepid report` (issue 19): the 24 V demo's HTML review (target under 2 s), the
+# reflow demo's with its programme and the time above 217 degC (target under 2 s) and the
 # gridded demo's (configs/small-pad-grid.yaml, target under 5 s), each on one core, best and
 # median of N runs (default 3), printed as "report_<demo>_seconds best=... median=...". The
-# report runs warmup, steady, budget and guard and draws every figure, so it costs about their
-# sum plus PLplot's SVG output. Exits 1 when a median misses its target.
+# report runs warmup, steady, cool, budget and guard and draws every figure, so it costs about
+# their sum plus PLplot's SVG output. Exits 1 when a median misses its target.
 # Usage: tests/bench/bench_report.sh [BUILD_DIR] [RUNS]
 set -euo pipefail
 here="$(cd "$(dirname "$0")/../.." && pwd)"
@@ -14,13 +15,16 @@ exe="$build/tepid"
 out="$(mktemp -d)"
 trap 'rm -rf "$out"' EXIT
 status=0
-for pair in workshop-bed-24v:2.0 small-pad-grid:5.0; do
-  demo="${pair%%:*}"
-  target="${pair##*:}"
+for case in workshop-bed-24v:2.0: reflow-hotplate-230v:2.0:--above=217degC small-pad-grid:5.0:; do
+  demo="${case%%:*}"
+  rest="${case#*:}"
+  target="${rest%%:*}"
+  extra="${rest#*:}"
   times=()
   for _ in $(seq "$runs"); do
     start=$(date +%s.%N)
-    taskset -c 0 "$exe" report "$here/configs/$demo.yaml" -o "$out/review.html" -q 2>/dev/null
+    # shellcheck disable=SC2086 # $extra is one option or none
+    taskset -c 0 "$exe" report "$here/configs/$demo.yaml" $extra -o "$out/review.html" -q 2>/dev/null
     end=$(date +%s.%N)
     times+=("$(awk -v a="$start" -v b="$end" 'BEGIN { printf "%.6f", b - a }')")
   done
