@@ -128,10 +128,10 @@ tp_status tp_figure_programme(const char *path, const char *title, const tp_warm
 {
     const tp_history *h = &w->history;
     long n = h->n, i;
-    double *buf = malloc((size_t)(n > 0 ? n : 1) * 6 * sizeof *buf);
-    double *minutes, *sp, *reading, *surface, *err_r, *err_s;
+    double *buf = malloc((size_t)(n > 0 ? n : 1) * 7 * sizeof *buf);
+    double *minutes, *sp, *reading, *surface, *err_r, *err_s, *zero;
     int has_surface = n > 0 && isfinite(h->surface[0]);
-    tp_plot_series top[3], low[2];
+    tp_plot_series top[3], low[3];
     tp_plot_panel panels[2];
     tp_plot_chart chart;
     tp_plot_vline marks[TP_PLOT_VLINES_MAX];
@@ -146,7 +146,9 @@ tp_status tp_figure_programme(const char *path, const char *title, const tp_warm
     surface = buf + 3 * n;
     err_r = buf + 4 * n;
     err_s = buf + 5 * n;
+    zero = buf + 6 * n;
     for (i = 0; i < n; i++) {
+        zero[i] = isfinite(h->setpoint[i]) ? 0.0 : (double)NAN;
         minutes[i] = h->t[i] / 60.0;
         sp[i] = h->setpoint[i] - TP_KELVIN_0C;
         reading[i] = h->reading[i] - TP_KELVIN_0C;
@@ -157,17 +159,19 @@ tp_status tp_figure_programme(const char *path, const char *title, const tp_warm
     top[nt++] = (tp_plot_series){"setpoint (schedule)", minutes, sp, (size_t)n,
                                  1 | TP_PLOT_GAPS, 0, 0};
     top[nt++] = (tp_plot_series){"reading", minutes, reading, (size_t)n, 0, 0, 0};
-    low[nl++] = (tp_plot_series){"reading - setpoint", minutes, err_r, (size_t)n,
+    /* Below, each curve less the setpoint (the setpoint itself is the zero line), under the
+     * same labels: a quantity keeps its colour and dash in both panels (plot.h). */
+    low[nl++] = (tp_plot_series){"setpoint (schedule)", minutes, zero, (size_t)n,
+                                 1 | TP_PLOT_GAPS, 0, 0};
+    low[nl++] = (tp_plot_series){"reading", minutes, err_r, (size_t)n,
                                  TP_PLOT_GAPS, 0, 0};
     if (has_surface) {
         const char *name = h->surface_min ? "surface mean" : "surface (estimate)";
         top[nt++] = (tp_plot_series){name, minutes, surface, (size_t)n, 2, 0, 0};
-        low[nl++] = (tp_plot_series){h->surface_min ? "surface mean - setpoint"
-                                                    : "surface - setpoint",
-                                     minutes, err_s, (size_t)n, 2 | TP_PLOT_GAPS, 0, 0};
+        low[nl++] = (tp_plot_series){name, minutes, err_s, (size_t)n, 2 | TP_PLOT_GAPS, 0, 0};
     }
     panels[0] = (tp_plot_panel){"temperature (degC)", NULL, top, nt, NULL, 0, 2.0};
-    panels[1] = (tp_plot_panel){"tracking error (K)", NULL, low, nl, NULL, 0, 1.0};
+    panels[1] = (tp_plot_panel){"minus the setpoint (K)", NULL, low, nl, NULL, 0, 1.0};
     chart = (tp_plot_chart){title, "time (min)", panels, 2, 0, 0};
     st = tp_plot_chart_write_marked(path, &chart, marks,
                                     h->schedule ? segment_marks(h->schedule, marks, text) : 0, d);
