@@ -191,6 +191,90 @@ static void compare(FILE *fp, const tp_session *s, const tp_metrics *cur, const 
     fprintf(fp, "    better: %s\n", verdict);
 }
 
+/* The rule's parameter searched for the fastest warm-up within --overshoot LIMIT (into *tau_c,
+ * the search's record in sr); an error naming the least overshoot found when none meets it. */
+static tp_status overshoot_search(tp_session *s, const tp_cli *cli, const tp_fopdt *me,
+                                  tp_tune_rule rule, double limit, double *tau_c,
+                                  tp_tune_search *sr, tp_diag *d)
+{
+    const char *pname = rule == TP_RULE_SIMC ? "tau_c" : "lambda";
+    tp_status rc = tp_tune_overshoot(&s->desc, s->doc, s->net, me, rule, *tau_c, limit,
+                                     tp_cli_flag(cli, "worst"), sr, d);
+    if (rc == TP_OK && !sr->found) {
+        char least[160] = "no run reached the setpoint";
+        if (isfinite(sr->least_param))
+            snprintf(least, sizeof least, "the least overshoot of a run reaching the setpoint "
+                     "was %.2f K at %s = %.3g s", sr->least_overshoot, pname, sr->least_param);
+        tp_diag_error(d, tp_diag_loc_none(), "--overshoot",
+                      "allow more overshoot, lengthen run.duration, try --rule imc, or tune "
+                      "by hand",
+                      "no %s from %.3g to %.3g s keeps the overshoot within %.2f K%s and "
+                      "reaches the setpoint within run.duration (%d tried); %s",
+                      pname, sr->param_lo, sr->param_hi, limit,
+                      sr->n_cases > 1 ? " in every corner" : "", sr->tried, least);
+        rc = TP_ERR_SOLVER;
+    }
+    if (rc == TP_OK)
+        *tau_c = sr->param;
+    return rc;
+}
+
+/* What tune found: the model, the gains, the rule and its parameter, the overshoot limit
+ * (NaN: none) and the search (used only with a limit). */
+typedef struct tune_answer {
+    const tp_fopdt *m;
+    const tp_gains *g;
+    tp_tune_rule rule;
+    double tau_c, limit;
+    const tp_tune_search *sr;
+} tune_answer;
+
+/* The text summary: the model, the rule, the settings to paste, the warm-up with them (w, on
+ * the network `tuned`) and, when the config has a controller, the comparison with its own (wc,
+ * else NULL), and the cautions. */
+static void print_text(tp_session *s, const tp_cli *cli, const tp_network *tuned,
+                       const tune_answer *a, tp_warmup *w, tp_warmup *wc)
+{
+    const tp_fopdt *m = a->m;
+    const tp_gains *g = a->g;
+    const tp_tune_search *sr = a->sr;
+    const char *pname = a->rule == TP_RULE_SIMC ? "tau_c" : "lambda";
+    double limit = a->limit;
+    char buf[64], buf2[64];
+    tp_caution cautions[TP_CAUTIONS_MAX];
+    fprintf(s->text, "tepid tune %s\n  ", cli->file);
+    tp_summary_network(s->text, tuned);
+    fprintf(s->text, "  model of the reading at the holding point (duty %.3f -> %.3f):\n"
+                     "    gain %.4g K per unit duty, time constant %.1f s, dead time %.1f s "
+                     "(+%.2f s for sampling)\n",
+            m->u0, m->u1, m->gain, m->tau, m->dead, 0.5 * s->net->control.period);
+    fprintf(s->text, "  rule: %s, %s = %.1f s\n",
+            a->rule == TP_RULE_SIMC ? "SIMC PI (Skogestad 2003)"
+                                    : "IMC-PID (Rivera, Morari & Skogestad 1986)",
+            pname, a->tau_c);
+    if (isfinite(limit))
+        fprintf(s->text, "  chosen by --overshoot %.2f K: the fastest to the setpoint of %d "
+                         "values of %s from %.3g to %.3g s whose reading overshoots at most "
+                         "the limit%s (worst %.2f K)\n",
+                limit, sr->tried, pname, sr->param_lo, sr->param_hi,
+                sr->n_cases > 1 ? " in every corner of guard's ranges" : "", sr->overshoot);
+    fprintf(s->text, "  suggested settings (paste into control:, in place of its mode%s and any "
+                     "gains):\n"
+                     "    mode: pid\n    kp: %.4g 1/K\n    ki: %.4g 1/(K.s)\n"
+                     "    kd: %.4g s/K\n",
+            s->desc.control.mode == TP_MODE_ONOFF ? ", band" : "", g->kp, g->ki, g->kd);
+    tp_summary_duration(w->metrics.t_setpoint, buf, sizeof buf);
+    tp_summary_duration(w->metrics.t_surface_ready, buf2, sizeof buf2);
+    fprintf(s->text, "  warm-up with these gains: reading at the setpoint after %s, "
+                     "overshoot %.2f K, surface ready after %s\n",
+            isfinite(w->metrics.t_setpoint) ? buf : "(not reached)",
+            w->metrics.overshoot_reading, isfinite(w->metrics.t_surface_ready) ? buf2 : "-");
+    if (wc)
+        compare(s->text, s, &wc->metrics, &w->metrics, limit);
+    tp_summary_cautions(s->text, "cautions", cautions,
+                        tp_warmup_cautions(&s->desc, tuned, w, cautions));
+}
+
 static tp_status run_tune(const tp_cli *cli, tp_diag *d)
 {
     tp_session s;
@@ -204,7 +288,7 @@ static tp_status run_tune(const tp_cli *cli, tp_diag *d)
     tp_tune_rule rule;
     double tau_c, step, dead_eff, limit;
     int current = 0;
-    char buf[64], buf2[64], title[512];
+    char title[512];
     const char *pname;
     tp_status rc = parse_options(cli, &rule, &tau_c, &step, &limit, d);
     if (rc != TP_OK)
@@ -230,25 +314,9 @@ static tp_status run_tune(const tp_cli *cli, tp_diag *d)
         tau_c = rule == TP_RULE_SIMC ? fmax(dead_eff, TP_TAU_C_FLOOR * m.tau)
                                      : fmax(0.8 * dead_eff, 0.1 * m.tau);
     if (isfinite(limit)) {
-        rc = tp_tune_overshoot(&s.desc, s.doc, s.net, &me, rule, tau_c, limit,
-                               tp_cli_flag(cli, "worst"), &sr, d);
-        if (rc == TP_OK && !sr.found) {
-            char least[160] = "no run reached the setpoint";
-            if (isfinite(sr.least_param))
-                snprintf(least, sizeof least, "the least overshoot of a run reaching the setpoint "
-                         "was %.2f K at %s = %.3g s", sr.least_overshoot, pname, sr.least_param);
-            tp_diag_error(d, tp_diag_loc_none(), "--overshoot",
-                          "allow more overshoot, lengthen run.duration, try --rule imc, or tune "
-                          "by hand",
-                          "no %s from %.3g to %.3g s keeps the overshoot within %.2f K%s and "
-                          "reaches the setpoint within run.duration (%d tried); %s",
-                          pname, sr.param_lo, sr.param_hi, limit,
-                          sr.n_cases > 1 ? " in every corner" : "", sr.tried, least);
-            rc = TP_ERR_SOLVER;
-        }
+        rc = overshoot_search(&s, cli, &me, rule, limit, &tau_c, &sr, d);
         if (rc != TP_OK)
             goto done;
-        tau_c = sr.param;
     }
     tp_tune_gains(&me, rule, tau_c, &g);
     /* The warm-up with the suggested gains runs on a copy of the plate with that controller. */
@@ -278,38 +346,8 @@ static tp_status run_tune(const tp_cli *cli, tp_diag *d)
         rc = tp_figure_warmup(tp_cli_get(cli, "plot"), title, tuned, &w, d);
     }
     if (rc == TP_OK && s.text) {
-        tp_caution cautions[TP_CAUTIONS_MAX];
-        fprintf(s.text, "tepid tune %s\n  ", cli->file);
-        tp_summary_network(s.text, tuned);
-        fprintf(s.text, "  model of the reading at the holding point (duty %.3f -> %.3f):\n"
-                        "    gain %.4g K per unit duty, time constant %.1f s, dead time %.1f s "
-                        "(+%.2f s for sampling)\n",
-                m.u0, m.u1, m.gain, m.tau, m.dead, 0.5 * s.net->control.period);
-        fprintf(s.text, "  rule: %s, %s = %.1f s\n",
-                rule == TP_RULE_SIMC ? "SIMC PI (Skogestad 2003)"
-                                     : "IMC-PID (Rivera, Morari & Skogestad 1986)",
-                pname, tau_c);
-        if (isfinite(limit))
-            fprintf(s.text, "  chosen by --overshoot %.2f K: the fastest to the setpoint of %d "
-                            "values of %s from %.3g to %.3g s whose reading overshoots at most "
-                            "the limit%s (worst %.2f K)\n",
-                    limit, sr.tried, pname, sr.param_lo, sr.param_hi,
-                    sr.n_cases > 1 ? " in every corner of guard's ranges" : "", sr.overshoot);
-        fprintf(s.text, "  suggested settings (paste into control:, in place of its mode%s and any "
-                        "gains):\n"
-                        "    mode: pid\n    kp: %.4g 1/K\n    ki: %.4g 1/(K.s)\n"
-                        "    kd: %.4g s/K\n",
-                s.desc.control.mode == TP_MODE_ONOFF ? ", band" : "", g.kp, g.ki, g.kd);
-        tp_summary_duration(w.metrics.t_setpoint, buf, sizeof buf);
-        tp_summary_duration(w.metrics.t_surface_ready, buf2, sizeof buf2);
-        fprintf(s.text, "  warm-up with these gains: reading at the setpoint after %s, "
-                        "overshoot %.2f K, surface ready after %s\n",
-                isfinite(w.metrics.t_setpoint) ? buf : "(not reached)",
-                w.metrics.overshoot_reading, isfinite(w.metrics.t_surface_ready) ? buf2 : "-");
-        if (current)
-            compare(s.text, &s, &wc.metrics, &w.metrics, limit);
-        tp_summary_cautions(s.text, "cautions", cautions,
-                            tp_warmup_cautions(&s.desc, tuned, &w, cautions));
+        tune_answer a = {&m, &g, rule, tau_c, limit, &sr};
+        print_text(&s, cli, tuned, &a, &w, current ? &wc : NULL);
     }
 done:
     tp_warmup_clear(&w);
