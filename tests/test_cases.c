@@ -2,7 +2,9 @@
  * verbs it names run on configs/<demo>.yaml with --json, and every check compares one key with
  * its expected value within its tolerance; each file's `basis` strings say where the figures
  * come from. Every demo config has its file. Also, on every demo, steady's margin is the
- * inverse of its duty (docs/sizing.md: full power at the holding state over holding power). */
+ * inverse of its duty (docs/sizing.md: full power at the holding state over holding power).
+ * Check values: none of this file's own; each case file names its source beside each figure
+ * (`basis`: a hand calculation, a closed form, a handbook table, or 'from memory'). */
 #include "tp_test.h"
 
 /* The demos: every .yaml file of configs/. */

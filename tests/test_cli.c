@@ -3,7 +3,10 @@
  * standard output, a verb refuses options it does not use, --set ignores blanks around its key
  * and value, 'tepid help VERB' is the verb's help, unknown verbs and options get a
  * did-you-mean, and sweep's --jobs states its cap. The verb and option tables are read from the
- * library, so a verb or output option added later is covered without editing this file. */
+ * library, so a verb or output option added later is covered without editing this file.
+ * Check values: exit statuses and messages of tepid's own contract (docs/user-guide.md); the
+ * option syntax follows the POSIX utility syntax guidelines (IEEE Std 1003.1-2017, XBD 12.2)
+ * with long options (common practice, no source). */
 #include <stdarg.h>
 #include <stddef.h>
 #include <stdint.h>

@@ -3,7 +3,8 @@
  * page and run; tepid(1) names every verb and common option; --version names the libraries
  * with the versions their headers give; the package's changelog is this version's. The pages
  * are the build's (build/man, written by 'tepid _man'); tests/test_manpages.sh checks that
- * groff renders them without warnings. */
+ * groff renders them without warnings. Check values: the program's own tables; the pages'
+ * sections follow the usual manual-page layout (man-pages(7); common practice, no source). */
 #include <stdarg.h>
 #include <stddef.h>
 #include <stdint.h>

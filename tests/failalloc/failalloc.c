@@ -5,7 +5,8 @@
  *   TP_FAILALLOC_COUNT=1  at exit, "tp-failalloc: M allocations" on standard error.
  * The shared libraries tepid uses (libyaml, udunits2, SUNDIALS, KLU, cJSON, cminpack, PLplot)
  * call the C library's allocator directly: --wrap rewrites only references in the objects of
- * this link, so their own allocations are not counted or failed here. */
+ * this link, so their own allocations are not counted or failed here. A test hook with no
+ * check values of its own (common practice, no source). */
 #include <stdatomic.h>
 #include <stdio.h>
 #include <stdlib.h>
