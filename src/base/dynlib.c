@@ -62,3 +62,15 @@ int tp_dynlib_load(const char *soname, const char *package, void *table, const t
     pthread_mutex_unlock(&dynlib_lock);
     return rc;
 }
+
+tp_status tp_dynlib_require(const char *soname, const char *package, void *table,
+                            const tp_dynlib_fn *fns, size_t n, const char *what, tp_status fail,
+                            tp_diag *d)
+{
+    char why[320];
+    if (tp_dynlib_load(soname, package, table, fns, n, why, sizeof why) == 0)
+        return TP_OK;
+    tp_diag_error(d, tp_diag_loc_none(), NULL, "install the package named",
+                  "the %s is not available: %s", what, why);
+    return fail;
+}

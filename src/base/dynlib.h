@@ -17,6 +17,9 @@
 
 #include <stddef.h>
 
+#include "diag.h"
+#include "status.h"
+
 /* A function to look up: its name and where its pointer goes in the table. */
 typedef struct tp_dynlib_fn {
     const char *name;
@@ -33,5 +36,11 @@ typedef struct tp_dynlib_fn {
  * caller reads the table only after its own call returned 0. */
 int tp_dynlib_load(const char *soname, const char *package, void *table, const tp_dynlib_fn *fns,
                    size_t n, char *why, size_t size);
+
+/* tp_dynlib_load for a command that needs the library: TP_OK, or `fail` with the error "the
+ * WHAT is not available: <why>" and a hint to install the package reported in d. */
+tp_status tp_dynlib_require(const char *soname, const char *package, void *table,
+                            const tp_dynlib_fn *fns, size_t n, const char *what, tp_status fail,
+                            tp_diag *d);
 
 #endif

@@ -12,11 +12,7 @@ static const tp_dynlib_fn nettlelib_list[] = {TP_NETTLELIB_API(TP_NETTLELIB_ENTR
 
 tp_status tp_nettlelib_load(tp_diag *d)
 {
-    char why[320];
-    if (tp_dynlib_load(TP_NETTLE_SONAME, TP_NETTLE_PACKAGE, &tp_nettlelib_fns, nettlelib_list,
-                       sizeof nettlelib_list / sizeof nettlelib_list[0], why, sizeof why) == 0)
-        return TP_OK;
-    tp_diag_error(d, tp_diag_loc_none(), NULL, "install the package named",
-                  "the hashing library is not available: %s", why);
-    return TP_ERR_IO;
+    return tp_dynlib_require(TP_NETTLE_SONAME, TP_NETTLE_PACKAGE, &tp_nettlelib_fns,
+                             nettlelib_list, sizeof nettlelib_list / sizeof nettlelib_list[0],
+                             "hashing library", TP_ERR_IO, d);
 }

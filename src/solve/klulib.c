@@ -12,12 +12,7 @@ static const tp_dynlib_fn klulib_fns[] = {TP_KLULIB_API(TP_KLULIB_ENTRY)};
 
 tp_status tp_klulib_load(tp_diag *d)
 {
-    char why[320];
-    if (tp_dynlib_load(TP_KLU_SONAME, TP_KLU_PACKAGE, &tp_klulib_fns, klulib_fns,
-                       sizeof klulib_fns / sizeof klulib_fns[0], why, sizeof why) == 0)
-        return TP_OK;
-    tp_diag_error(d, tp_diag_loc_none(), NULL,
-                  "install the package named (large and gridded networks solve with KLU)",
-                  "the sparse solver is not available: %s", why);
-    return TP_ERR_SOLVER;
+    return tp_dynlib_require(TP_KLU_SONAME, TP_KLU_PACKAGE, &tp_klulib_fns, klulib_fns,
+                             sizeof klulib_fns / sizeof klulib_fns[0],
+                             "sparse solver (large and gridded networks)", TP_ERR_SOLVER, d);
 }

@@ -12,12 +12,7 @@ static const tp_dynlib_fn minpacklib_list[] = {TP_MINPACKLIB_API(TP_MINPACKLIB_E
 
 tp_status tp_minpacklib_load(tp_diag *d)
 {
-    char why[320];
-    if (tp_dynlib_load(TP_CMINPACK_SONAME, TP_CMINPACK_PACKAGE, &tp_minpacklib_fns,
-                       minpacklib_list, sizeof minpacklib_list / sizeof minpacklib_list[0], why,
-                       sizeof why) == 0)
-        return TP_OK;
-    tp_diag_error(d, tp_diag_loc_none(), NULL, "install the package named",
-                  "the least-squares library is not available: %s", why);
-    return TP_ERR_SOLVER;
+    return tp_dynlib_require(TP_CMINPACK_SONAME, TP_CMINPACK_PACKAGE, &tp_minpacklib_fns,
+                             minpacklib_list, sizeof minpacklib_list / sizeof minpacklib_list[0],
+                             "least-squares library", TP_ERR_SOLVER, d);
 }
