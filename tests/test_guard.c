@@ -122,14 +122,7 @@ static void test_ceiling_fires_above_not_at(void **state)
 /* One node of C = 1000 J/K through G = 2 W/K to a 20 degC room, 400 W, on-off at 100 degC:
  * tau = C/G = 500 s, T_inf = 20 + 400/2 = 220 degC (hand calculation). */
 static const char *first_order =
-    "network:\n"
-    "  nodes:\n"
-    "    - {id: plate, capacity: 1000 J/K, initial: 20 degC}\n"
-    "    - {id: room, fixed: 20 degC}\n"
-    "  links:\n"
-    "    - {between: [plate, room], conductance: 2 W/K}\n"
-    "  sources:\n"
-    "    - {id: pad, node: plate, power: 400 W}\n"
+    TP_TEST_FIRST_ORDER
     "control: {source: pad, sensor: plate, mode: on-off, setpoint: 100 degC, band: 2 K,"
     " period: 1 s}\n"
     "run: {duration: 20 min, step: 1 s}\n";
@@ -345,14 +338,7 @@ static void test_series_checks_follow_a_moving_setpoint(void **state)
  * tau = C / G = 500 s, full-power equilibrium T_inf = 20 + 400 / 2 = 220 degC (hand
  * calculation). */
 static const char *scheduled_node =
-    "network:\n"
-    "  nodes:\n"
-    "    - {id: plate, capacity: 1000 J/K, initial: 20 degC}\n"
-    "    - {id: room, fixed: 20 degC}\n"
-    "  links:\n"
-    "    - {between: [plate, room], conductance: 2 W/K}\n"
-    "  sources:\n"
-    "    - {id: pad, node: plate, power: 400 W}\n"
+    TP_TEST_FIRST_ORDER
     "control:\n"
     "  source: pad\n"
     "  sensor: plate\n"

@@ -683,14 +683,7 @@ static void test_metric_directions_documented(void **state)
 static void test_segment_rate_swept_matches_the_energy_balance(void **state)
 {
     static const char *cfg =
-        "network:\n"
-        "  nodes:\n"
-        "    - {id: plate, capacity: 1000 J/K, initial: 20 degC}\n"
-        "    - {id: room, fixed: 20 degC}\n"
-        "  links:\n"
-        "    - {between: [plate, room], conductance: 2 W/K}\n"
-        "  sources:\n"
-        "    - {id: pad, node: plate, power: 400 W}\n"
+        TP_TEST_FIRST_ORDER
         "control:\n"
         "  source: pad\n"
         "  sensor: plate\n"

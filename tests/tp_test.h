@@ -33,6 +33,20 @@
 #define TP_TEST_KELVIN 273.15 /* K at 0 degC (BIPM SI Brochure, 9th ed., 2.3.1) */
 #define TP_TEST_PATH 1024     /* bytes of a scratch path */
 
+/* The first-order plant of the tests: one node 'plate' of C = 1000 J/K through G = 2 W/K to a
+ * fixed 20 degC 'room', heated by a 400 W source 'pad'; tau = C / G = 500 s, full-power
+ * equilibrium 20 + 400 / 2 = 220 degC (hand calculation). A config's control and run sections
+ * follow it. */
+#define TP_TEST_FIRST_ORDER                                                                        \
+    "network:\n"                                                                                   \
+    "  nodes:\n"                                                                                   \
+    "    - {id: plate, capacity: 1000 J/K, initial: 20 degC}\n"                                    \
+    "    - {id: room, fixed: 20 degC}\n"                                                           \
+    "  links:\n"                                                                                   \
+    "    - {between: [plate, room], conductance: 2 W/K}\n"                                         \
+    "  sources:\n"                                                                                 \
+    "    - {id: pad, node: plate, power: 400 W}\n"
+
 extern char **environ;
 
 /* |actual - expected| <= tol, else fail naming `what`. */
