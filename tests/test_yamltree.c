@@ -2,7 +2,7 @@
  * when the file gives the key, only an enclosing section, or nothing of it. Expected positions are
  * found by searching the text here, independently of the parser. Check values: positions
  * counted in the text itself, as YAML 1.2 (yaml.org, 2009, ch. 5-6) lays a document out in lines
- * and columns; no figure from a published table. */
+ * and columns (from memory); no figure from a published table. */
 #include "tp_test.h"
 
 static const char text[] = "# an invented plate\n"
