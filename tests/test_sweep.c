@@ -1603,6 +1603,62 @@ static void test_cli_shards_merge_byte_identical(void **state)
     assert_false(tp_file_exists(args));
 }
 
+static void test_cli_fitted_percentiles_merge_and_refusals(void **state)
+{
+    /* --percentiles fitted is a choice of the statistics: a merge of three shards given it
+     * writes the single run's files byte for byte (random and lhs); the JSON names the method,
+     * and the holding power (50 G + ..., smooth) gets fitted percentiles. Refused with exit 2
+     * and no file: an unknown method, a grid, a shard. */
+    static const char *const designs[] = {"random", "lhs"};
+    char cfg[TP_TEST_PATH], args[4096], f[4][512];
+    cJSON *json, *hold;
+    const char *dir = scratch_dir();
+    const char *study = "--spread network.links.0.conductance=normal:10% "
+                        "--spread network.nodes.room.fixed=uniform:15degC:25degC "
+                        "--samples 120 --replicates 4 --seed 9";
+    size_t dsg;
+    int k;
+    (void)state;
+    scratch_linear("fitted-linear.yaml", cfg);
+    snprintf(f[0], sizeof f[0], "%s/fit-one.json", dir);
+    snprintf(f[1], sizeof f[1], "%s/fit-one-stats.csv", dir);
+    snprintf(f[2], sizeof f[2], "%s/fit-m.json", dir);
+    snprintf(f[3], sizeof f[3], "%s/fit-m-stats.csv", dir);
+    for (dsg = 0; dsg < 2; dsg++) {
+        snprintf(args, sizeof args, "sweep %s -q %s --design %s --percentiles fitted --jobs 2 "
+                 "--json %s --stats %s", cfg, study, designs[dsg], f[0], f[1]);
+        assert_int_equal(run_tepid(args), 0);
+        for (k = 1; k <= 3; k++) {
+            snprintf(args, sizeof args, "sweep %s -q %s --design %s --jobs 1 --shard %d/3 "
+                     "--json %s/fs%d.json", cfg, study, designs[dsg], k, dir, k);
+            assert_int_equal(run_tepid(args), 0);
+        }
+        snprintf(args, sizeof args, "sweep -q --merge %s/fs2.json %s/fs1.json %s/fs3.json "
+                 "--percentiles fitted --json %s --stats %s", dir, dir, dir, f[2], f[3]);
+        assert_int_equal(run_tepid(args), 0);
+        assert_true(same_bytes(f[0], f[2]));
+        assert_true(same_bytes(f[1], f[3]));
+    }
+    json = tp_read_json(f[0]);
+    assert_string_equal(cJSON_GetStringValue(cJSON_GetObjectItem(json, "percentiles")), "fitted");
+    hold = cJSON_GetObjectItem(cJSON_GetObjectItem(json, "statistics"), "holding_power_W");
+    assert_string_equal(cJSON_GetStringValue(cJSON_GetObjectItem(hold, "percentile_method")),
+                        "fitted");
+    assert_true(cJSON_GetNumberValue(cJSON_GetObjectItem(hold, "surface_r2")) > 0.999);
+    cJSON_Delete(json);
+    snprintf(args, sizeof args, "sweep %s -q %s --percentiles tails --json %s/fx.json", cfg,
+             study, dir);
+    assert_int_equal(run_tepid(args), 2);
+    snprintf(args, sizeof args, "sweep %s -q --vary network.links.0.conductance=1W/K,2W/K "
+             "--percentiles fitted --json %s/fx.json", cfg, dir);
+    assert_int_equal(run_tepid(args), 2);
+    snprintf(args, sizeof args, "sweep %s -q %s --shard 1/3 --percentiles fitted "
+             "--json %s/fx.json", cfg, study, dir);
+    assert_int_equal(run_tepid(args), 2);
+    snprintf(args, sizeof args, "%s/fx.json", dir);
+    assert_false(tp_file_exists(args));
+}
+
 static void test_cli_until_stops_within_one_batch(void **state)
 {
     /* f = holding power = 50 G, G ~ N(2, 0.2) W/K: sd 10 W (closed form). For a 95 % half-
@@ -1691,6 +1747,7 @@ int main(void)
         cmocka_unit_test(test_ci_ranks_binomial_hand_values),
         cmocka_unit_test(test_samples_needed_for_a_halfwidth),
         cmocka_unit_test(test_ci_coverage_on_a_linear_metric),
+        cmocka_unit_test(test_cli_fitted_percentiles_merge_and_refusals),
         cmocka_unit_test(test_lhs_one_sample_per_stratum),
         cmocka_unit_test(test_designs_reduce_variance_without_bias),
         cmocka_unit_test(test_sobol_points_match_published_direction_numbers),

@@ -40,6 +40,9 @@ static const tp_opt sweep_opts[] = {
      "Sobol points)"},
     {"replicates", 0, 1, 0, 0, "R",
      "independent replicates (and --until batches) the samples are split into (default 10)"},
+    {"percentiles", 0, 1, 0, 0, "METHOD",
+     "how p5, p50, p95 and their intervals are estimated: order (order statistics, default) or "
+     "fitted (a response surface as control variate; far fewer samples for smooth metrics)"},
     {"until", 0, 1, 1, 0, "METRIC.STAT=+-H",
      "run batches until the 95 % interval of a statistic has half-width H, e.g. "
      "time_to_setpoint_s.p95=+-1s (repeatable)"},
@@ -87,6 +90,7 @@ typedef struct options {
     int metric;
     int design;
     long replicates;
+    int percentiles; /* tp_sweep_pct */
     target until[TP_CLI_MAX_ARGS];
     int n_until;
     long shard, shards; /* --shard K/N (0/0: none) */
@@ -244,8 +248,9 @@ static tp_status parse_study_options(const tp_cli *cli, options *o, tp_diag *d)
     o->design = TP_DESIGN_RANDOM;
     o->replicates = TP_SWEEP_REPLICATES;
     if (o->n_vary > 0) {
-        static const char *const spread_only[] = {"design", "replicates", "until", "shard"};
-        for (k = 0; k < 4; k++)
+        static const char *const spread_only[] = {"design", "replicates", "until", "shard",
+                                                  "percentiles"};
+        for (k = 0; k < 5; k++)
             if (tp_cli_get(cli, spread_only[k])) {
                 tp_diag_error(d, (tp_loc){"--vary", 1, 1}, NULL, "it applies to --spread",
                               "--%s has no meaning for a grid", spread_only[k]);
@@ -282,10 +287,10 @@ static tp_status parse_study_options(const tp_cli *cli, options *o, tp_diag *d)
             return TP_ERR_USAGE;
         }
         if (!tp_cli_get(cli, "json") || tp_cli_get(cli, "csv") || tp_cli_get(cli, "plot") ||
-            tp_cli_get(cli, "stats")) {
+            tp_cli_get(cli, "stats") || tp_cli_get(cli, "percentiles")) {
             tp_diag_error(d, (tp_loc){"--shard", 1, 1}, NULL,
                           "write the shard with --json FILE; --merge writes --csv, --stats and "
-                          "--plot",
+                          "--plot, and takes --percentiles",
                           "a shard writes --json only");
             return TP_ERR_USAGE;
         }
@@ -304,6 +309,11 @@ static tp_status parse_options(const tp_cli *cli, options *o, tp_diag *d)
     o->seed = 1;
     o->jobs = tp_sweep_default_jobs();
     o->metric = -1; /* chosen after the run (default_metric) */
+    if ((s = tp_cli_get(cli, "percentiles")) && (o->percentiles = tp_sweep_pct_find(s)) < 0) {
+        tp_diag_error(d, (tp_loc){"--percentiles", 1, 1}, NULL, "order or fitted",
+                      "unknown percentile method '%s'", s);
+        return TP_ERR_USAGE;
+    }
     if (tp_cli_get(cli, "merge")) {
         if (check_merge(cli, o, d) != TP_OK)
             return TP_ERR_USAGE;
@@ -801,6 +811,9 @@ static void json_intervals(cJSON *o, int m, const tp_sweep_summary *sm)
         tp_json_number(e, "halfwidth", 0.5 * (sm->hi[k] - sm->lo[k]));
     }
     tp_json_number(o, "replicates", sm->reps >= 2 ? (double)sm->reps : TP_UNSET);
+    cJSON_AddStringToObject(o, "percentile_method",
+                            tp_sweep_pct_name(sm->fitted ? TP_PCT_FITTED : TP_PCT_ORDER));
+    tp_json_number(o, "surface_r2", sm->fitted ? sm->fit_r2 : TP_UNSET);
 }
 
 static tp_status write_json(const char *path, const study_info *info, const tp_sweep_plan *plan,
@@ -824,6 +837,7 @@ static tp_status write_json(const char *path, const study_info *info, const tp_s
         cJSON_AddStringToObject(root, "design", tp_sweep_design_name(plan->design));
         tp_json_number(root, "replicates", (double)(total / plan->rep_size));
         tp_json_number(root, "confidence", TP_SWEEP_LEVEL);
+        cJSON_AddStringToObject(root, "percentiles", tp_sweep_pct_name(plan->percentiles));
         if (o_ && o_->n_until > 0)
             json_until(root, o_, met);
     }
@@ -1147,11 +1161,13 @@ static int default_metric(const tp_sweep_result *res, long total)
 /* The 95 % intervals of every metric's statistics: "low .. high" in the text units. */
 static void interval_table(FILE *fp, const tp_sweep_plan *plan, const tp_sweep_summary *sum)
 {
-    int m, k, reps = 0;
+    int m, k, reps = 0, ordered = 0;
     char lo[32], hi[32], cell[TP_STAT_COUNT][72];
     fprintf(fp, "\n  95 %% confidence intervals (mean: Student's t%s; sd: chi-square, normal data; "
-                "percentiles: order statistics)\n",
-            plan->design == TP_DESIGN_RANDOM ? "" : " over the replicates' means");
+                "percentiles: %s)\n",
+            plan->design == TP_DESIGN_RANDOM ? "" : " over the replicates' means",
+            plan->percentiles == TP_PCT_FITTED ? "fitted surface, Woodruff; * order statistics"
+                                               : "order statistics");
     fprintf(fp, "  %-18s %5s", "metric", "unit");
     for (k = 0; k < TP_STAT_COUNT; k++)
         fprintf(fp, " %*s", CI_COL, tp_sweep_stat_name(k));
@@ -1176,7 +1192,10 @@ static void interval_table(FILE *fp, const tp_sweep_plan *plan, const tp_sweep_s
             }
             snprintf(cell[k], sizeof cell[k], "%s .. %s", lo, hi);
         }
-        fprintf(fp, "  %-18s %5s", mi->label, mi->form == TP_FORM_DURATION ? "" : mi->text_unit);
+        ordered += plan->percentiles == TP_PCT_FITTED && !s->fitted;
+        fprintf(fp, "  %-18s%c%5s", mi->label,
+                plan->percentiles == TP_PCT_FITTED && !s->fitted ? '*' : ' ',
+                mi->form == TP_FORM_DURATION ? "" : mi->text_unit);
         for (k = 0; k < TP_STAT_COUNT; k++)
             fprintf(fp, " %*s", CI_COL, cell[k]);
         fputc('\n', fp);
@@ -1184,6 +1203,10 @@ static void interval_table(FILE *fp, const tp_sweep_plan *plan, const tp_sweep_s
     fputs("  (- : too few samples for the interval: the 5th and 95th percentiles need at least 72, "
           "the median 6)\n",
           fp);
+    if (ordered)
+        fputs("  (* : percentiles from the order statistics: the surface needs every sample to "
+              "succeed with the metric, and enough of them)\n",
+              fp);
     if (reps >= 2)
         fprintf(fp, "  the mean's interval rests on %d replicates of %ld samples\n", reps,
                 plan->rep_size);
@@ -1561,6 +1584,7 @@ static tp_status merge_run(const tp_cli *cli, options *o, tp_diag *d)
                              d);
         if (rc == TP_ERR_USAGE)
             merge_refuse(d, f[0].path, NULL, "the study in the shard file cannot be read");
+        plan.percentiles = (tp_sweep_pct)o->percentiles;
     }
     if (rc == TP_OK) {
         total = tp_sweep_count(&plan);
@@ -1636,6 +1660,7 @@ static tp_status build_plan(const options *o, const tp_session *s, tp_sweep_plan
         st = tp_sweep_design_build(plan, (tp_sweep_design)o->design, o->replicates, d);
     if (st != TP_OK)
         tp_sweep_plan_clear(plan);
+    plan->percentiles = (tp_sweep_pct)o->percentiles;
     return st;
 }
 

@@ -1,5 +1,6 @@
 /* The GNU Scientific Library, opened at the first sweep (study support): only `tepid sweep`
- * uses it (Sobol' points and the quantiles of its intervals), so the other verbs do not map it
+ * uses it (Sobol' points, the quantiles of its intervals and the least-squares fit of
+ * its fitted percentiles), so the other verbs do not map it
  * and its BLAS at start-up (docs/performance.md, "Start-up"). After this header GSL's names
  * call through a table that tp_gsllib_table fills at its first call. */
 #ifndef TP_GSLLIB_H
@@ -7,6 +8,7 @@
 
 #include <gsl/gsl_cdf.h>
 #include <gsl/gsl_errno.h>
+#include <gsl/gsl_multifit.h>
 #include <gsl/gsl_qrng.h>
 
 #include "diag.h"
@@ -16,7 +18,9 @@
 #define TP_GSLLIB_API(X)                                                                           \
     X(gsl_cdf_binomial_P) X(gsl_cdf_chisq_Pinv) X(gsl_cdf_chisq_Qinv) X(gsl_cdf_tdist_Qinv)        \
     X(gsl_cdf_ugaussian_Pinv) X(gsl_qrng_alloc) X(gsl_qrng_free) X(gsl_qrng_get)                   \
-    X(gsl_qrng_sobol) X(gsl_set_error_handler_off)
+    X(gsl_qrng_sobol) X(gsl_set_error_handler_off) X(gsl_matrix_alloc) X(gsl_matrix_free)          \
+    X(gsl_vector_alloc) X(gsl_vector_free) X(gsl_multifit_linear_alloc)                            \
+    X(gsl_multifit_linear_free) X(gsl_multifit_linear)
 
 typedef struct tp_gsllib_api {
     TP_GSLLIB_API(TP_DYNLIB_MEMBER)
@@ -43,6 +47,13 @@ const tp_gsllib_api *tp_gsllib_table(void);
 #define gsl_qrng_get (*tp_gsllib_table()->gsl_qrng_get)
 #define gsl_qrng_sobol (*tp_gsllib_table()->gsl_qrng_sobol)
 #define gsl_set_error_handler_off (*tp_gsllib_table()->gsl_set_error_handler_off)
+#define gsl_matrix_alloc (*tp_gsllib_table()->gsl_matrix_alloc)
+#define gsl_matrix_free (*tp_gsllib_table()->gsl_matrix_free)
+#define gsl_vector_alloc (*tp_gsllib_table()->gsl_vector_alloc)
+#define gsl_vector_free (*tp_gsllib_table()->gsl_vector_free)
+#define gsl_multifit_linear_alloc (*tp_gsllib_table()->gsl_multifit_linear_alloc)
+#define gsl_multifit_linear_free (*tp_gsllib_table()->gsl_multifit_linear_free)
+#define gsl_multifit_linear (*tp_gsllib_table()->gsl_multifit_linear)
 #endif
 
 #endif

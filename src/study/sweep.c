@@ -24,6 +24,7 @@
 #include "assemble.h"
 #include "config.h"
 #include "gsllib.h"
+#include "tailfit.h"
 #include "network.h"
 #include "warmup.h"
 
@@ -63,6 +64,7 @@ void tp_sweep_plan_clear(tp_sweep_plan *plan)
     for (k = 0; k < plan->n_params; k++)
         free(plan->params[k].values);
     free(plan->table);
+    tp_tailfit_memo_free(plan->memo);
     tp_sweep_plan_init(plan, plan->mode);
 }
 
@@ -551,6 +553,8 @@ tp_status tp_sweep_design_build(tp_sweep_plan *plan, tp_sweep_design design, lon
     size_t cells;
     free(plan->table);
     plan->table = NULL;
+    tp_tailfit_memo_free(plan->memo);
+    plan->memo = tp_tailfit_memo_new(); /* NULL (no memory) only costs time */
     plan->design = design;
     if (replicates < 1 || replicates > plan->n_samples || plan->n_samples % replicates != 0) {
         tp_diag_error(d, (tp_loc){"--replicates", 1, 1}, NULL,
@@ -687,6 +691,22 @@ double tp_sweep_spearman(const double *x, const double *y, size_t n)
 
 static const char *const stat_names[TP_STAT_COUNT] = {"mean", "sd", "p5", "p50", "p95"};
 static const double stat_p[TP_STAT_COUNT] = {0, 0, 0.05, 0.50, 0.95};
+
+static const char *const pct_names[] = {"order", "fitted"};
+
+int tp_sweep_pct_find(const char *name)
+{
+    int k;
+    for (k = 0; k < (int)(sizeof pct_names / sizeof pct_names[0]); k++)
+        if (strcmp(name, pct_names[k]) == 0)
+            return k;
+    return -1;
+}
+
+const char *tp_sweep_pct_name(tp_sweep_pct pct)
+{
+    return pct_names[pct];
+}
 
 int tp_sweep_stat_find(const char *name)
 {
@@ -842,6 +862,14 @@ double tp_sweep_needed(const tp_sweep_plan *plan, const tp_sweep_summary *s, int
     hw = 0.5 * (s->hi[stat] - s->lo[stat]);
     if (!isfinite(hw))
         return TP_UNSET;
+    if (s->fitted) {
+        /* Only the real samples' part shrinks; the surrogate draws' part stays. */
+        double fl = isfinite(s->floor_hw[stat]) ? s->floor_hw[stat] : 0.0;
+        if (halfwidth <= fl)
+            return TP_UNSET;
+        return fmax(2.0, ceil((double)s->n * (hw * hw - fl * fl) /
+                              (halfwidth * halfwidth - fl * fl)));
+    }
     /* Never fewer than the interval itself needs (72 for p5 and p95, 6 for the median). */
     for (a = 1; tp_sweep_ci_ranks(a, stat_p[stat], &rank_lo, &rank_hi) != 0; a++)
         ;
@@ -888,13 +916,37 @@ static void replicate_interval(const tp_sweep_plan *plan, const tp_sweep_result 
     free(means);
 }
 
+/* --percentiles fitted: the fitted percentiles and intervals replace the order statistics'
+ * where the method applies (tailfit.h). */
+static tp_status fitted_percentiles(const tp_sweep_plan *plan, const tp_sweep_result *results,
+                                    long total, tp_sweep_summary *out, int metric)
+{
+    tp_tailfit_q q[3];
+    int k, used;
+    tp_status st = tp_tailfit_percentiles(plan, results, total, metric, 3, &stat_p[TP_STAT_P5], q,
+                                          &out->fit_r2, &used);
+    if (st != TP_OK || !used)
+        return st;
+    out->fitted = 1;
+    out->p5 = q[0].value;
+    out->p50 = q[1].value;
+    out->p95 = q[2].value;
+    for (k = 0; k < 3; k++) {
+        out->lo[TP_STAT_P5 + k] = q[k].lo;
+        out->hi[TP_STAT_P5 + k] = q[k].hi;
+        out->floor_hw[TP_STAT_P5 + k] = q[k].floor_hw;
+    }
+    return TP_OK;
+}
+
 static void intervals(const tp_sweep_plan *plan, const tp_sweep_result *results, long total,
                       const double *sorted, tp_sweep_summary *out, int metric)
 {
     int k;
     long n = out->n, l, u;
     for (k = 0; k < TP_STAT_COUNT; k++)
-        out->lo[k] = out->hi[k] = TP_UNSET;
+        out->lo[k] = out->hi[k] = out->floor_hw[k] = TP_UNSET;
+    out->fit_r2 = TP_UNSET;
     out->rep_sd = TP_UNSET;
     tp_sweep_ci_mean(out->mean, out->sd, n, &out->lo[TP_STAT_MEAN], &out->hi[TP_STAT_MEAN]);
     if (plan->mode == TP_SWEEP_SPREAD && plan->design != TP_DESIGN_RANDOM && plan->rep_size > 0)
@@ -929,8 +981,8 @@ tp_status tp_sweep_summarise_first(const tp_sweep_plan *plan, const tp_sweep_res
     for (k = 0; k < TP_SWEEP_MAX_PARAMS; k++)
         out->rho[k] = TP_UNSET;
     for (k = 0; k < TP_STAT_COUNT; k++)
-        out->lo[k] = out->hi[k] = TP_UNSET;
-    out->rep_sd = TP_UNSET;
+        out->lo[k] = out->hi[k] = out->floor_hw[k] = TP_UNSET;
+    out->rep_sd = out->fit_r2 = TP_UNSET;
     if (!x)
         return TP_ERR_NOMEM;
     sorted = x + total + 1;
@@ -958,6 +1010,11 @@ tp_status tp_sweep_summarise_first(const tp_sweep_plan *plan, const tp_sweep_res
         out->p50 = tp_sweep_quantile(sorted, (size_t)n, 0.50);
         out->p95 = tp_sweep_quantile(sorted, (size_t)n, 0.95);
         intervals(plan, results, total, sorted, out, metric);
+        if (plan->mode == TP_SWEEP_SPREAD && plan->percentiles == TP_PCT_FITTED &&
+            fitted_percentiles(plan, results, total, out, metric) != TP_OK) {
+            free(x);
+            return TP_ERR_NOMEM;
+        }
     }
     /* A metric that does not vary beyond solver noise (a holding power that no spread
      * parameter affects) has no driver: ranks of rounding errors mean nothing. */

@@ -34,6 +34,12 @@ typedef enum tp_sweep_design {
     TP_DESIGN_SOBOL   /* GSL's Sobol points, nested-scrambled per replicate (Owen 1995) */
 } tp_sweep_design;
 
+/* How the percentiles of a spread and their intervals are estimated (docs/sweep.md). */
+typedef enum tp_sweep_pct {
+    TP_PCT_ORDER, /* order statistics and their distribution-free intervals (the default) */
+    TP_PCT_FITTED /* a cross-fitted response surface as control variate (src/study/tailfit.h) */
+} tp_sweep_pct;
+
 #define TP_SWEEP_REPLICATES 10 /* default replicates (batches) of a spread */
 
 /* One varied key. */
@@ -68,6 +74,12 @@ typedef struct tp_sweep_plan {
      * 0..rep_size-1 of each sample within its replicate); Sobol 30-bit integer points
      * [point within a replicate][param], the first point the origin. NULL for random. */
     uint32_t *table;
+    tp_sweep_pct percentiles; /* spread: how the percentiles are estimated (a statistics
+                                 choice, not part of the study: a merge may choose it) */
+    /* The surrogate draws of fitted percentiles, the same for every metric: made by
+     * tp_sweep_design_build (empty), filled at the first fitted summary, owned. NULL: each
+     * summary makes its own. */
+    struct tp_tailfit_memo *memo;
     int n_metrics;  /* metrics kept per point (tp_metricdef_swept_count): TP_MET_SWEPT, plus the
                        segment metrics of a scheduled file (tp_sweep_plan_metrics) */
 } tp_sweep_plan;
@@ -274,7 +286,19 @@ typedef struct tp_sweep_summary {
     double lo[TP_STAT_COUNT], hi[TP_STAT_COUNT];
     long reps; /* replicates behind the mean's interval (0: the samples themselves) */
     double rep_sd; /* sd of the replicate means (reps >= 2), else NaN */
+    /* --percentiles fitted: 1 when p5, p50, p95 and their intervals are the fitted ones (0: the
+     * order statistics, where the method does not apply); the surface's cross-fitted R^2; the
+     * part of each percentile's half-width that more samples do not shrink (else NaN). */
+    int fitted;
+    double fit_r2;
+    double floor_hw[TP_STAT_COUNT];
 } tp_sweep_summary;
+
+/* A percentile method by name ("order", "fitted"); -1 when unknown. */
+int tp_sweep_pct_find(const char *name);
+
+/* The name of a percentile method. */
+const char *tp_sweep_pct_name(tp_sweep_pct pct);
 
 /* The value of statistic `stat` in a summary. */
 double tp_sweep_summary_value(const tp_sweep_summary *s, int stat);
@@ -282,8 +306,9 @@ double tp_sweep_summary_value(const tp_sweep_summary *s, int stat);
 /* The samples a study of this plan would need for the interval of `stat` to have a half-width
  * of at most `halfwidth` (> 0), estimated from a summary of n samples: for the mean Student's
  * t (over replicates of rep_size samples for lhs and sobol), for the sd the chi-square
- * interval, for the percentiles the current half-width scaled by sqrt(n / N). NaN when the
- * summary cannot tell (too few samples). */
+ * interval, for the percentiles the current half-width scaled by sqrt(n / N) (fitted ones:
+ * the part that shrinks, above the floor of the surrogate's draws). NaN when the summary cannot
+ * tell (too few samples, or a fitted floor at or above the half-width asked). */
 double tp_sweep_needed(const tp_sweep_plan *plan, const tp_sweep_summary *s, int stat,
                        double halfwidth);
 
