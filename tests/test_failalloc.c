@@ -46,6 +46,8 @@ static const char *const cases[][12] = {
      "OUT/v.json"},
     {"sweep", "raw-five-node.yaml", "--spread", "network.sources.heater.resistance=normal:5%",
      "--samples", "4", "--jobs", "2", "--csv", "OUT/v.csv"},
+    {"sweep", "raw-five-node.yaml", "--spread", "network.sources.heater.resistance=normal:5%",
+     "--samples", "80", "--percentiles", "fitted", "--stats", "OUT/f.csv"},
     {"materials"},
 };
 

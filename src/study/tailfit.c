@@ -290,7 +290,7 @@ static double invert(const half *hf, double target)
     double lo = HUGE_VAL, hi = -HUGE_VAL, t;
     int k, it;
     if (!(target > 0.0 && target < 1.0))
-        return NAN;
+        return (double)NAN;
     for (k = 0; k < 2; k++) {
         lo = fmin(lo, fmin(hf[k].g[0], fmin(hf[k].ys[0], hf[k].hs[0])));
         hi = fmax(hi, fmax(hf[k].g[TP_TAILFIT_DRAWS - 1],
@@ -397,7 +397,7 @@ static double cross_fit(const tp_sweep_plan *plan, const double *table, half *hf
     for (k = 0; k < 2; k++)
         if (fit(&hf[1 - k], d, p, hf[k].coef) != 0) {
             free(tmp);
-            return NAN;
+            return (double)NAN;
         }
     for (k = 0; k < 2; k++) {
         for (i = 0; i < hf[k].n; i++) {
